@@ -1,0 +1,69 @@
+"""The ``netloop`` command: parses arguments, calls the public API, maps errors to exit codes."""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+# Each command lives in its own module with ``add_parser(subparsers)`` and ``run(args) -> int``.
+# Modules are imported lazily so that ``netloop --help`` starts fast.
+COMMANDS: dict[str, tuple[str, str]] = {
+    "inspect": ("netloop.cli.inspect_cmd", "show what netloop reads in a netlist"),
+    "check": ("netloop.cli.check_cmd", "measure a loop's return ratio and stability margins"),
+    "loops": ("netloop.cli.loops_cmd", "list the feedback loops and where to break them"),
+    "compare": ("netloop.cli.compare_cmd", "compare break locations side by side"),
+    "corners": ("netloop.cli.corners_cmd", "run a corner plan as a regression"),
+    "demo": ("netloop.cli.demo_cmd", "check a bundled demo circuit and write its report"),
+}
+
+
+def _available() -> dict[str, tuple[str, str]]:
+    from importlib.util import find_spec
+
+    return {name: spec for name, spec in COMMANDS.items() if find_spec(spec[0]) is not None}
+
+
+def build_parser(load: str | None = None) -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="netloop",
+        description="Loop gain and stability margins of feedback loops in a SPICE netlist, through ngspice.",
+        epilog="Small-signal margins around one operating point do not prove large-signal stability.",
+    )
+    from netloop import __version__
+
+    parser.add_argument("--version", action="version", version=f"netloop {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name, (module, helptext) in _available().items():
+        if load is None or name != load:
+            sub.add_parser(name, help=helptext, add_help=False)
+            continue
+        importlib.import_module(module).add_parser(sub.add_parser(name, help=helptext, description=helptext))
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run one netloop command; returns the exit status (0 pass, 1 unstable or failed, 2 bad input)."""
+    from netloop.errors import NetloopError
+
+    argv = list(sys.argv[1:] if argv is None else argv)
+    command = next((a for a in argv if not a.startswith("-")), None)
+    parser = build_parser(load=command if command in COMMANDS else None)
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 2
+    module = importlib.import_module(COMMANDS[args.command][0])
+    try:
+        return int(module.run(args))
+    except NetloopError as exc:
+        print(f"netloop: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("netloop: interrupted", file=sys.stderr)
+        return 130
+
+
+def entry() -> None:
+    sys.exit(main())

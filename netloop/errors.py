@@ -1,0 +1,119 @@
+"""Every error netloop raises, under one root so that callers catch one thing.
+
+    NetloopError
+    ├─ NetlistError ─ NetlistSyntaxError(ValueError)   file:line:col + caret context
+    │               └ UnknownNodeError(KeyError)       suggests close names (difflib)
+    ├─ ProbeError                                      cannot break there, and why
+    ├─ SimulationError                                 deck path, simulator output, corner
+    │  └─ SimulatorUnavailableError                    how to install ngspice
+    ├─ AnalysisError                                   malformed data (not "no crossover")
+    └─ PlanError(ValueError)                           a corner plan or requirement that cannot be read
+
+The CLI catches NetloopError at the boundary, prints ``str(error)`` (one clear message)
+and exits with status 2. A traceback reaching a user is a bug.
+"""
+
+from __future__ import annotations
+
+import difflib
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from netloop.netlist.location import SourceLocation
+
+__all__ = [
+    "AnalysisError",
+    "NetlistError",
+    "NetlistSyntaxError",
+    "NetloopError",
+    "PlanError",
+    "ProbeError",
+    "SimulationError",
+    "SimulatorUnavailableError",
+    "UnknownNodeError",
+]
+
+
+class NetloopError(Exception):
+    """Root of every error netloop raises on purpose."""
+
+
+class NetlistError(NetloopError):
+    """The netlist cannot be read or does not contain what was asked for."""
+
+
+class NetlistSyntaxError(NetlistError, ValueError):
+    """A malformed netlist line: says where, shows the line and a caret, and what was expected."""
+
+    def __init__(self, message: str, location: SourceLocation | None = None, source_line: str | None = None):
+        self.message = message
+        self.location = location
+        self.source_line = source_line
+        super().__init__(self._render())
+
+    def _render(self) -> str:
+        if self.location is None:
+            return self.message
+        head = f"{self.location}: {self.message}"
+        if not self.source_line:
+            return head
+        line = self.source_line.rstrip("\n")
+        caret = " " * max(self.location.column - 1, 0) + "^"
+        return f"{head}\n    {line}\n    {caret}"
+
+
+class UnknownNodeError(NetlistError, KeyError):
+    """A node, element or subcircuit name that the netlist does not have; suggests close names."""
+
+    def __init__(self, kind: str, name: str, known: Iterable[str] = ()):
+        self.kind = kind
+        self.name = name
+        self.suggestions = tuple(difflib.get_close_matches(name.lower(), [k.lower() for k in known], n=3, cutoff=0.6))
+        super().__init__(self._render())
+
+    def _render(self) -> str:
+        msg = f"unknown {self.kind} {self.name!r}"
+        if self.suggestions:
+            msg += "; did you mean " + " or ".join(repr(s) for s in self.suggestions) + "?"
+        return msg
+
+    def __str__(self) -> str:  # KeyError would otherwise quote the message
+        return self._render()
+
+
+class ProbeError(NetloopError):
+    """The loop cannot be broken at the requested place; the message says why."""
+
+
+class SimulationError(NetloopError):
+    """ngspice failed. Carries the kept deck's path and ngspice's own message."""
+
+    def __init__(self, message: str, deck_path: str | None = None, simulator_output: str = "", corner: str | None = None):
+        self.message = message
+        self.deck_path = deck_path
+        self.simulator_output = simulator_output
+        self.corner = corner
+        parts = [f"[{corner}] {message}" if corner else message]
+        if deck_path:
+            parts.append(f"deck kept at {deck_path}")
+        super().__init__("; ".join(parts))
+
+
+class SimulatorUnavailableError(SimulationError):
+    """No usable ngspice: neither the shared library nor the batch binary."""
+
+    def __init__(self, message: str = ""):
+        hint = (
+            "ngspice is not available; on Debian or Ubuntu install it with "
+            "'sudo apt-get install ngspice libngspice0 libngspice0-dev' (or run 'make demo', which does it)"
+        )
+        super().__init__(f"{message}; {hint}" if message else hint)
+
+
+class AnalysisError(NetloopError):
+    """Frequency-response data that cannot be analysed (wrong shape, unsorted, empty)."""
+
+
+class PlanError(NetloopError, ValueError):
+    """A corner plan or a requirement expression that cannot be read; says file:line where it applies."""

@@ -1,0 +1,1 @@
+"""netlist stage."""

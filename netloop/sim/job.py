@@ -1,0 +1,82 @@
+"""What a simulator is asked to do and what it gives back: plain data, no ngspice types."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Literal, Protocol, runtime_checkable
+
+import numpy as np
+
+__all__ = ["AcRun", "AcSweep", "RunResult", "SimJob", "SimResult", "Simulator"]
+
+
+@dataclass(frozen=True, slots=True)
+class AcSweep:
+    """An ngspice ``ac`` sweep: ``ac dec|lin POINTS FSTART FSTOP``."""
+
+    kind: Literal["dec", "lin"]
+    points: int  # per decade for "dec", in total for "lin"
+    fstart_hz: float
+    fstop_hz: float
+
+
+@dataclass(frozen=True, slots=True)
+class AcRun:
+    """One AC analysis: the AC magnitude of each named source for this run, and the sweeps to run.
+
+    Sources not named keep AC magnitude 0. Several sweeps in one run are simulated one after the
+    other with the same excitation and concatenated in frequency order.
+    """
+
+    name: str  # a label such as "series" or "shunt"
+    ac: Mapping[str, float]  # source name -> AC magnitude
+    sweeps: tuple[AcSweep, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class SimJob:
+    """A netlist (no analyses of its own) and the AC runs to do on one shared operating point."""
+
+    netlist: str  # complete netlist text, title line first; no .end, no .control, no analyses
+    runs: tuple[AcRun, ...]
+    save: tuple[str, ...]  # vectors to keep, ngspice syntax: "v(a)", "i(vprobe)"
+    excitable: tuple[str, ...] = ()  # every source whose AC value the runs may set (names as in the netlist)
+    options: tuple[str, ...] = ()  # extra ".option" words for this job only, e.g. ("gmin=1e-12",)
+    op_aids: tuple[str, ...] = ()  # convergence aids to try in order if the operating point fails
+    label: str = ""  # what to call this job in messages (a corner name, a location)
+    timeout_s: float = 600.0
+
+
+@dataclass(frozen=True, slots=True)
+class RunResult:
+    """The vectors of one AC run, sampled at ``freq_hz`` (ascending)."""
+
+    name: str
+    freq_hz: np.ndarray
+    vectors: Mapping[str, np.ndarray]  # lower-case ngspice vector name -> complex array
+
+
+@dataclass(frozen=True, slots=True)
+class SimResult:
+    runs: tuple[RunResult, ...]
+    operating_point: Mapping[str, float] = field(default_factory=dict)  # node voltages, lower-case names
+    log: str = ""  # ngspice's own output, for messages
+    deck_path: str | None = None  # where the deck was kept, if it was
+    convergence_aid: str | None = None  # the aid that made the operating point converge, if one was needed
+    backend: str = ""
+
+    def run(self, name: str) -> RunResult:
+        for r in self.runs:
+            if r.name == name:
+                return r
+        raise KeyError(name)
+
+
+@runtime_checkable
+class Simulator(Protocol):
+    """Anything that runs a SimJob: the shared-library worker, batch mode, or the fake one in tests."""
+
+    def run(self, job: SimJob) -> SimResult: ...
+
+    def operating_point(self, netlist: str) -> Mapping[str, float]: ...
