@@ -8,7 +8,7 @@ from types import MappingProxyType
 
 from netloop.netlist.location import SourceLocation
 
-__all__ = ["Directive", "Element", "Netlist", "Statement", "Subcircuit"]
+__all__ = ["Directive", "Element", "Inclusion", "Netlist", "Statement", "Subcircuit"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,6 +112,22 @@ Statement = Element | Directive | Subcircuit
 
 
 @dataclass(frozen=True, slots=True)
+class Inclusion:
+    """A top-level ``.include`` or ``.lib FILE SECTION`` and the statements it brought in, in order.
+
+    The writer refers to the file again (instead of inlining it) when these very statements
+    still stand unchanged, in this order, in the netlist being written.
+    """
+
+    kind: str  # "include" or "lib"
+    path: str  # absolute path of the file read
+    section: str | None  # library section (lower-case) for "lib"
+    statements: tuple[Statement, ...]
+    location: SourceLocation  # where the .include/.lib statement was
+    clean: bool = True  # False when something in it was set aside (analyses, .control): never re-referenced
+
+
+@dataclass(frozen=True, slots=True)
 class Netlist:
     """A whole netlist: title, statements in order (includes resolved, library sections selected),
     and what was read to get there.
@@ -128,6 +144,7 @@ class Netlist:
     lib_sections: tuple[tuple[str, str], ...] = ()  # (file, section) pairs selected by .lib
     globals: tuple[str, ...] = ()  # .global nets, lower-case
     warnings: tuple[str, ...] = ()
+    inclusions: tuple[Inclusion, ...] = field(default=(), compare=False)  # top-level includes, outer first
     _index: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property

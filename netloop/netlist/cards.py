@@ -1,0 +1,168 @@
+"""One element card to an ``Element``: which tokens are nodes, and what role each plays, by element letter."""
+
+from __future__ import annotations
+
+from collections.abc import Collection
+
+from netloop.errors import NetlistSyntaxError
+from netloop.netlist.lines import token_columns, tokenize
+from netloop.netlist.location import SourceLocation
+from netloop.netlist.model import Element
+from netloop.netlist.values import looks_numeric
+
+__all__ = ["ELEMENT_LETTERS", "parse_card", "controlling_sources", "resolve_bjt"]
+
+# Fixed-arity elements: (pin roles, minimum token count after the name, what the card needs).
+_FIXED: dict[str, tuple[tuple[str, ...], int, str]] = {
+    "R": (("p", "n"), 3, "2 nodes and a value"),
+    "C": (("p", "n"), 3, "2 nodes and a value"),
+    "L": (("p", "n"), 3, "2 nodes and a value"),
+    "V": (("p", "n"), 2, "2 nodes"),
+    "I": (("p", "n"), 2, "2 nodes"),
+    "B": (("p", "n"), 3, "2 nodes and an expression"),
+    "D": (("p", "n"), 3, "2 nodes and a model"),
+    "M": (("d", "g", "s", "b"), 5, "4 nodes and a model"),
+    "J": (("d", "g", "s"), 4, "3 nodes and a model"),
+    "Z": (("d", "g", "s"), 4, "3 nodes and a model"),
+    "S": (("p", "n", "cp", "cn"), 5, "4 nodes and a model"),
+    "W": (("p", "n"), 4, "2 nodes, a controlling source and a model"),
+    "T": (("p1", "n1", "p2", "n2"), 4, "4 nodes"),
+    "O": (("p1", "n1", "p2", "n2"), 5, "4 nodes and a model"),
+    "U": (("p", "n", "g"), 4, "3 nodes and a model"),
+    "F": (("p", "n"), 4, "2 nodes, a controlling source and a gain"),
+    "H": (("p", "n"), 4, "2 nodes, a controlling source and a gain"),
+    "K": ((), 3, "2 inductors and a coupling factor"),
+}
+# Which token (after the name) holds the model name.
+_MODEL_AT = {"D": 2, "M": 4, "J": 3, "Z": 3, "S": 4, "W": 3, "O": 4, "U": 3}
+
+ELEMENT_LETTERS = frozenset("RCLKVIEFGHBDMQJZSWTOUXA")
+
+
+def _fail(what: str, text: str, loc: SourceLocation, col: int | None = None) -> NetlistSyntaxError:
+    if col is None:
+        col = len(text.rstrip()) + 2
+    return NetlistSyntaxError(what, SourceLocation(loc.file, loc.line, col), text)
+
+
+def _poly_order(tok: str) -> int | None:
+    t = tok.lower()
+    if not t.startswith("poly"):
+        return None
+    digits = t[4:].strip("()")
+    return int(digits) if digits.isdigit() else None
+
+
+def resolve_bjt(tokens: tuple[str, ...] | list[str], models: Collection[str]) -> int:
+    """How many nodes a Q card has: 3 when token 4 is a known model name, else 4 when a 5th name follows."""
+    if len(tokens) < 4:
+        return 3
+    if tokens[3].lower() in models:
+        return 3
+    if len(tokens) >= 5 and "=" not in tokens[4] and not looks_numeric(tokens[4]) and tokens[4][0] not in "{'":
+        return 4
+    return 3
+
+
+def _xspice_slots(toks: list[str]) -> list[int]:
+    slots = []
+    for i, t in enumerate(toks[:-1]):
+        if t in ("[", "]") or t.startswith("%") or "=" in t:
+            continue
+        slots.append(i)
+    return slots
+
+
+def parse_card(text: str, loc: SourceLocation, models: Collection[str] = ()) -> Element:
+    """Parse one element statement (continuations already joined) into an ``Element``."""
+    toks = tokenize(text)
+    name = toks[0]
+    kind = name[0].upper()
+    rest = toks[1:]
+    if kind not in ELEMENT_LETTERS:
+        raise _fail(f"unknown element type {name[0]!r}: expected one of R C L K V I E F G H B D M Q J Z S W T O U X A", text, loc, loc.column)
+    n = len(rest)
+    model = None
+    if kind in _FIXED:
+        pins, need, what = _FIXED[kind]
+        if n < need:
+            raise _fail(f"{name}: expected {what}", text, loc)
+        slots = tuple(range(len(pins)))
+        at = _MODEL_AT.get(kind)
+        if at is not None:
+            model = rest[at].lower()
+        elif kind in "FH":
+            order = _poly_order(rest[2])
+            if order is not None and n < 3 + order:
+                raise _fail(f"{name}: expected {order} controlling sources after {rest[2]}", text, loc)
+    elif kind in "EG":
+        if n < 3:
+            raise _fail(f"{name}: expected 2 output nodes and a gain, POLY(n), VALUE= or TABLE form", text, loc)
+        third = rest[2].lower()
+        order = _poly_order(third)
+        if order is not None:
+            if n < 3 + 2 * order:
+                raise _fail(f"{name}: expected {2 * order} controlling nodes after {rest[2]}", text, loc)
+            slots = (0, 1, *range(3, 3 + 2 * order))
+            pins = ("p", "n", *(f"{r}{k}" for k in range(1, order + 1) for r in ("cp", "cn")))
+        elif "=" in third or third.startswith(("value", "table", "laplace", "freq", "vol", "cur", "{", "'")):
+            slots, pins = (0, 1), ("p", "n")
+        else:
+            if n < 5:
+                raise _fail(f"{name}: expected 2 output nodes, 2 controlling nodes and a gain", text, loc)
+            slots, pins = (0, 1, 2, 3), ("p", "n", "cp", "cn")
+    elif kind == "Q":
+        if n < 4:
+            raise _fail(f"{name}: expected 3 or 4 nodes and a model", text, loc)
+        count = resolve_bjt(rest, models)
+        if count == 3:
+            slots, pins = (0, 1, 2), ("c", "b", "e")
+        else:
+            slots, pins = (0, 1, 2, 3), ("c", "b", "e", "sub")
+        model = rest[count].lower()
+    elif kind == "X":
+        end = n
+        for i, t in enumerate(rest):
+            if t.lower() == "params:":
+                end = i
+                break
+        while end > 0 and "=" in rest[end - 1]:
+            end -= 1
+        if end == 0:
+            raise _fail(f"{name}: expected nodes and a subcircuit name", text, loc)
+        model = rest[end - 1].lower()
+        # key=value tokens may also stand between the nodes and the name (as sky130's cells write)
+        slots = tuple(i for i in range(end - 1) if "=" not in rest[i])
+        pins = tuple(str(i + 1) for i in slots)  # replaced by the definition's pin names once known
+    else:  # "A": XSPICE code model, nodes best effort
+        if "[" in text or "]" in text:
+            rest = tokenize(text.replace("[", " [ ").replace("]", " ] "))[1:]
+            n = len(rest)
+        if n < 2:
+            raise _fail(f"{name}: expected connections and a model", text, loc)
+        model = rest[-1].lower()
+        slots = tuple(_xspice_slots(rest))
+        pins = tuple(f"a{i + 1}" for i in range(len(slots)))
+    for i in slots:
+        t = rest[i]
+        if "=" in t or t[0] in "{'":
+            cols = token_columns(text)
+            raise _fail(f"{name}: expected a node name, got {t!r}", text, loc, cols[min(i + 1, len(cols) - 1)])
+        low = t.lower()
+        if low != t:
+            rest[i] = low
+    return Element(name, tuple(rest), slots, pins, loc, model)
+
+
+def controlling_sources(element: Element) -> tuple[str, ...]:
+    """Names (lower-case) of the voltage sources whose current controls an F, H or W element."""
+    kind = element.kind
+    toks = element.tokens
+    if kind == "W":
+        return (toks[2].lower(),)
+    if kind not in "FH":
+        return ()
+    order = _poly_order(toks[2])
+    if order is None:
+        return (toks[2].lower(),)
+    return tuple(t.lower() for t in toks[3 : 3 + order])

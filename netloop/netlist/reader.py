@@ -1,0 +1,350 @@
+"""Read an ngspice netlist: files, includes, library sections, subcircuits and statements, into a ``Netlist``."""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field, replace
+
+from netloop.errors import NetlistError, NetlistSyntaxError
+from netloop.netlist.cards import parse_card, resolve_bjt
+from netloop.netlist.lines import LogicalLine, logical_lines, tokenize
+from netloop.netlist.location import SourceLocation
+from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
+
+__all__ = ["parse_file", "parse_text", "IGNORED_KEYWORDS", "KEPT_KEYWORDS"]
+
+# Analyses and output statements: netloop never runs them; they are set aside in Netlist.ignored.
+IGNORED_KEYWORDS = frozenset(
+    ".op .ac .dc .tran .noise .pz .meas .measure .save .print .plot .four .sens .tf .disto .probe .width .control .endc".split()
+)
+# Statements kept verbatim as Directive records.
+KEPT_KEYWORDS = frozenset(
+    ".param .model .option .options .opt .temp .func .csparam .nodeset .ic .if .elseif .else .endif .global .title".split()
+)
+_MODEL_KINDS = frozenset("DMJZSWOUQ")
+
+
+@dataclass
+class _Frame:
+    name: str
+    pins: tuple[str, ...]
+    params: tuple[tuple[str, str], ...]
+    location: SourceLocation
+    header: str
+    body: list = field(default_factory=list)
+
+
+@dataclass
+class _FileText:
+    lines: list[LogicalLine]
+    sections: dict[str, tuple[int, int]]  # section -> (first, end) indices into lines
+
+
+def _split_path_arg(rest: str) -> tuple[str, str]:
+    """(path, remainder) from the text after .include/.lib; the path may be quoted."""
+    rest = rest.strip()
+    if rest[:1] in ("'", '"'):
+        q = rest[0]
+        end = rest.find(q, 1)
+        if end < 0:
+            return rest[1:], ""
+        return rest[1:end], rest[end + 1 :].strip()
+    parts = rest.split(None, 1)
+    return parts[0], (parts[1].strip() if len(parts) > 1 else "")
+
+
+def _model_names(text: str) -> tuple[str, ...]:
+    toks = text.split()
+    if len(toks) < 2:
+        return ()
+    name = toks[1].lower()
+    base, dot, tail = name.rpartition(".")
+    return (name, base) if dot and tail.isdigit() and base else (name,)
+
+
+class _Reader:
+    def __init__(self) -> None:
+        self.files: list[str] = []
+        self.lib_sections: list[tuple[str, str]] = []
+        self.ignored: list[Directive] = []
+        self.warnings: list[str] = []
+        self.globals: list[str] = []
+        self.inclusions: list[Inclusion | None] = []
+        self.models: set[str] = set()
+        self.stack: list[_Frame] = [_Frame("", (), (), SourceLocation("", 0), "")]
+        self.cache: dict[str, _FileText] = {}
+        self.active: set[tuple[str, str | None]] = set()
+        self.has_q = False
+        self.has_x = False
+
+    # -- files ---------------------------------------------------------------------------
+    def _load(self, path: str, at: SourceLocation | None) -> _FileText:
+        hit = self.cache.get(path)
+        if hit is not None:
+            return hit
+        try:
+            with open(path, encoding="utf-8", errors="replace") as fh:
+                raw = fh.read().splitlines()
+        except OSError as exc:
+            where = f"{at}: " if at else ""
+            raise NetlistError(f"{where}cannot read {path!r}: {exc.strerror or exc}") from exc
+        if path not in self.files:
+            self.files.append(path)
+        ft = self._index(logical_lines(raw))
+        self.cache[path] = ft
+        return ft
+
+    @staticmethod
+    def _index(lines: list[LogicalLine]) -> _FileText:
+        sections: dict[str, tuple[int, int]] = {}
+        open_name, open_at = None, 0
+        for i, (text, _ln, raw) in enumerate(lines):
+            if raw or text[:2].lower() != ".l" and text[:2].lower() != ".e":
+                continue
+            head = text.split()
+            kw = head[0].lower()
+            if kw == ".lib" and len(head) == 2 and open_name is None:
+                open_name, open_at = head[1].lower(), i + 1
+            elif kw == ".endl" and open_name is not None:
+                sections.setdefault(open_name, (open_at, i))
+                open_name = None
+        return _FileText(lines, sections)
+
+    def read_top(self, lines: list[LogicalLine], file: str, base_dir: str) -> None:
+        self._run(_FileText(lines, {}).lines, 0, len(lines), file, base_dir)
+
+    def _include(self, kind: str, path: str, section: str | None, at: SourceLocation) -> None:
+        key = (path, section)
+        if key in self.active:
+            raise NetlistError(f"{at}: {path!r} includes itself")
+        ft = self._load(path, at)
+        if section is None:
+            first, end = 0, len(ft.lines)
+        else:
+            span = ft.sections.get(section)
+            if span is None:
+                known = ", ".join(sorted(ft.sections)) or "none"
+                raise NetlistError(f"{at}: library {path!r} has no section {section!r} (sections: {known})")
+            first, end = span
+            if (path, section) not in self.lib_sections:
+                self.lib_sections.append((path, section))
+        top = len(self.stack) == 1
+        slot = len(self.inclusions)
+        if top:
+            self.inclusions.append(None)
+        start = len(self.stack[0].body)
+        ignored_before = len(self.ignored)
+        depth_before = len(self.stack)
+        self.active.add(key)
+        try:
+            self._run(ft.lines, first, end, path, os.path.dirname(path))
+        finally:
+            self.active.discard(key)
+        if top:
+            if len(self.stack) == depth_before:
+                body = tuple(self.stack[0].body[start:])
+                self.inclusions[slot] = Inclusion(kind, path, section, body, at, len(self.ignored) == ignored_before)
+            else:
+                self.inclusions[slot] = None
+
+    # -- statements ----------------------------------------------------------------------
+    def _run(self, lines: list[LogicalLine], first: int, end: int, file: str, base_dir: str) -> bool:
+        """Read statements lines[first:end]; returns False when ``.end`` stopped the reading."""
+        i = first
+        models = self.models
+        while i < end:
+            text, ln, raw = lines[i]
+            i += 1
+            if raw:
+                self.ignored.append(Directive(".control", text, SourceLocation(file, ln)))
+                continue
+            c = text[0]
+            if c != ".":
+                if c == "+":
+                    raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
+                loc = SourceLocation(file, ln)
+                el = parse_card(text, loc, models)
+                k = el.name[0]
+                if k in "QqXx":
+                    if k in "Qq":
+                        self.has_q = True
+                    else:
+                        self.has_x = True
+                self.stack[-1].body.append(el)
+                continue
+            kw = text.split(None, 1)[0].lower()
+            loc = SourceLocation(file, ln)
+            if kw in KEPT_KEYWORDS:
+                if kw == ".model":
+                    models.update(_model_names(text))
+                elif kw == ".global":
+                    for g in text.split()[1:]:
+                        g = g.lower()
+                        if g not in self.globals:
+                            self.globals.append(g)
+                self.stack[-1].body.append(Directive(kw, text, loc))
+            elif kw in IGNORED_KEYWORDS:
+                self.ignored.append(Directive(kw, text, loc))
+            elif kw == ".subckt":
+                self._open_subckt(text, loc)
+            elif kw == ".ends":
+                self._close_subckt(text, loc)
+            elif kw in (".include", ".inc"):
+                rest = text[len(kw) :]
+                if not rest.strip():
+                    raise NetlistSyntaxError(f"{kw}: expected a file name", SourceLocation(file, ln, len(text) + 2), text)
+                path, _ = _split_path_arg(rest)
+                self._include("include", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), None, loc)
+            elif kw == ".lib":
+                rest = text[4:]
+                path, section = _split_path_arg(rest) if rest.strip() else ("", "")
+                if not path:
+                    raise NetlistSyntaxError(".lib: expected a file name and a section, or a section name", SourceLocation(file, ln, len(text) + 2), text)
+                if not section:  # a section definition: skipped unless called by name
+                    while i < end and not (not lines[i][2] and lines[i][0][:5].lower() == ".endl"):
+                        i += 1
+                    i += 1
+                    continue
+                self._include("lib", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), section.split()[0].lower(), loc)
+            elif kw == ".endl":
+                continue
+            elif kw == ".end":
+                return False
+            else:
+                self.warnings.append(f"{loc}: unknown statement {kw} kept verbatim")
+                self.stack[-1].body.append(Directive(kw, text, loc))
+        return True
+
+    def _open_subckt(self, text: str, loc: SourceLocation) -> None:
+        toks = tokenize(text)
+        if len(toks) < 2:
+            raise NetlistSyntaxError(".subckt: expected a name and pins", SourceLocation(loc.file, loc.line, len(text) + 2), text)
+        name = toks[1].lower()
+        pins: list[str] = []
+        params: list[tuple[str, str]] = []
+        in_params = False
+        for t in toks[2:]:
+            low = t.lower()
+            if low == "params:":
+                in_params = True
+                continue
+            if low.startswith("params:"):
+                in_params = True
+                t = t[7:]
+            if "=" in t:
+                k, _, v = t.partition("=")
+                params.append((k.strip().lower(), v.strip()))
+            elif in_params:
+                params.append((t.lower(), ""))
+            else:
+                pins.append(low)
+        self.stack.append(_Frame(name, tuple(pins), tuple(params), loc, text))
+
+    def _close_subckt(self, text: str, loc: SourceLocation) -> None:
+        if len(self.stack) == 1:
+            raise NetlistSyntaxError(".ends without a .subckt before it", SourceLocation(loc.file, loc.line, 1), text)
+        fr = self.stack.pop()
+        toks = text.split()
+        if len(toks) > 1 and toks[1].lower() != fr.name:
+            raise NetlistSyntaxError(f".ends {toks[1]}: expected .ends {fr.name} (the open .subckt)", SourceLocation(loc.file, loc.line, text.find(toks[1]) + 1), text)
+        self.stack[-1].body.append(Subcircuit(fr.name, fr.pins, fr.params, tuple(fr.body), fr.location, fr.header))
+
+    # -- finishing -----------------------------------------------------------------------
+    def finish(self, title: str, source: str) -> Netlist:
+        if len(self.stack) > 1:
+            fr = self.stack[-1]
+            raise NetlistSyntaxError(f".subckt {fr.name}: expected .ends before the end of the netlist", fr.location, fr.header)
+        body = self.stack[0].body
+        statements: tuple[Statement, ...] = tuple(body)
+        if self.has_q or self.has_x or self.models or any(isinstance(s, Element) and s.model for s in body):
+            statements = self._resolve(statements, ({},))
+            if statements != tuple(body):
+                # inclusions hold the unresolved records; re-slice them from the resolved list by identity of position
+                self._reslice(tuple(body), statements)
+        return Netlist(
+            title=title,
+            statements=statements,
+            source=source,
+            ignored=tuple(self.ignored),
+            files=tuple(self.files),
+            lib_sections=tuple(self.lib_sections),
+            globals=tuple(self.globals),
+            warnings=tuple(self.warnings),
+            inclusions=tuple(x for x in self.inclusions if x is not None),
+        )
+
+    def _reslice(self, old: tuple, new: tuple) -> None:
+        pos = {id(s): i for i, s in enumerate(old)}
+        for k, inc in enumerate(self.inclusions):
+            if inc is None or not inc.statements:
+                continue
+            i = pos.get(id(inc.statements[0]))
+            if i is not None:
+                self.inclusions[k] = replace(inc, statements=new[i : i + len(inc.statements)])
+
+    def _resolve(self, statements: tuple, scopes: tuple) -> tuple:
+        """Give X cards their definitions' pin names and Q cards their final node count (definitions may come later)."""
+        local = {s.name: s for s in statements if isinstance(s, Subcircuit)}
+        scopes = (local, *scopes) if local else scopes
+        out = []
+        changed = False
+        for s in statements:
+            new = s
+            if isinstance(s, Element):
+                k = s.kind
+                if k == "X":
+                    sub = next((sc[s.model] for sc in scopes if s.model in sc), None)
+                    if sub is None:
+                        self.warnings.append(f"{s.location}: {s.name}: undefined subcircuit {s.model!r}")
+                    elif len(sub.pins) != len(s.node_slots):
+                        raise NetlistSyntaxError(
+                            f"{s.name}: subcircuit {sub.name} has {len(sub.pins)} pins ({' '.join(sub.pins)}), the card gives {len(s.node_slots)} nodes",
+                            s.location, s.card())
+                    elif sub.pins != s.pins:
+                        new = replace(s, pins=sub.pins)
+                elif s.model is not None and k in _MODEL_KINDS and s.model not in self.models:
+                    if not any(s.model in sc for sc in scopes):  # ngspice also accepts a subcircuit here
+                        self.warnings.append(f"{s.location}: {s.name}: undefined model {s.model!r}")
+                if k == "Q":
+                    count = resolve_bjt(s.tokens, self.models)
+                    if count != len(s.node_slots):
+                        slots = tuple(range(count))
+                        toks = list(s.tokens)
+                        for j in slots:
+                            toks[j] = toks[j].lower()
+                        new = replace(s, tokens=tuple(toks), node_slots=slots,
+                                      pins=("c", "b", "e", "sub")[:count], model=s.tokens[count].lower())
+            elif isinstance(s, Subcircuit):
+                body = self._resolve(s.body, scopes)
+                if body != s.body:
+                    new = replace(s, body=body)
+            changed |= new is not s
+            out.append(new)
+        return tuple(out) if changed else statements
+
+
+def _title_and_rest(raw: list[str]) -> tuple[str, list[LogicalLine]]:
+    title = raw[0].strip() if raw else ""
+    return title, logical_lines(raw, 1)
+
+
+def parse_text(text: str, source: str = "<string>", base_dir: str | None = None) -> Netlist:
+    """Parse netlist text; the first line is the title; includes resolve against ``base_dir`` (default: cwd)."""
+    raw = text.splitlines()
+    title, lines = _title_and_rest(raw)
+    r = _Reader()
+    if source != "<string>":
+        r.files.append(source)
+    r.read_top(lines, source, base_dir if base_dir is not None else os.getcwd())
+    return r.finish(title, source)
+
+
+def parse_file(path: str | os.PathLike) -> Netlist:
+    """Parse a netlist file (includes are read relative to the file that names them)."""
+    p = os.path.abspath(os.fspath(path))
+    try:
+        with open(p, encoding="utf-8", errors="replace") as fh:
+            text = fh.read()
+    except OSError as exc:
+        raise NetlistError(f"cannot read netlist {os.fspath(path)!r}: {exc.strerror or exc}") from exc
+    return parse_text(text, source=p, base_dir=os.path.dirname(p))
