@@ -1,1 +1,59 @@
-"""sim stage."""
+"""sim stage: run ngspice on AC jobs behind one Simulator protocol, and give back numpy arrays.
+
+job         SimJob/AcRun/AcSweep in, SimResult/RunResult out; the Simulator protocol
+shared      libngspice hosted in a worker process (timeouts, restarts)
+batch       ``ngspice -b`` on a rendered deck, results read from raw files
+analytic    a fake simulator from formulas, for testing the stages above without ngspice
+rawfile     reader for ngspice's binary and ascii raw files
+library     where libngspice and the ngspice binary are
+"""
+
+from __future__ import annotations
+
+from netloop.errors import SimulationError, SimulatorUnavailableError
+from netloop.sim.analytic import AnalyticSimulator
+from netloop.sim.batch import BatchSimulator
+from netloop.sim.convergence import DEFAULT_OP_AIDS
+from netloop.sim.frequency import sweep_frequencies
+from netloop.sim.job import AcRun, AcSweep, RunResult, SimJob, SimResult, Simulator
+from netloop.sim.library import find_libngspice, find_ngspice_binary
+from netloop.sim.rawfile import RawPlot, read_raw
+from netloop.sim.shared import SharedLibrarySimulator
+
+__all__ = [
+    "DEFAULT_OP_AIDS",
+    "AcRun",
+    "AcSweep",
+    "AnalyticSimulator",
+    "BatchSimulator",
+    "RawPlot",
+    "RunResult",
+    "SharedLibrarySimulator",
+    "SimJob",
+    "SimResult",
+    "Simulator",
+    "default_simulator",
+    "find_libngspice",
+    "find_ngspice_binary",
+    "read_raw",
+    "sweep_frequencies",
+]
+
+
+def default_simulator(keep_dir: str | None = None) -> Simulator:
+    """The shared-library backend if libngspice loads, else batch mode, else SimulatorUnavailableError."""
+    problems = []
+    if find_libngspice() is not None:
+        simulator = SharedLibrarySimulator(keep_dir=keep_dir)
+        try:
+            simulator.start()
+        except SimulationError as exc:
+            problems.append(str(exc))
+        else:
+            return simulator
+    else:
+        problems.append("libngspice not found")
+    if find_ngspice_binary() is not None:
+        return BatchSimulator(keep_dir=keep_dir)
+    problems.append("no ngspice binary on PATH")
+    raise SimulatorUnavailableError("; ".join(problems))

@@ -1,0 +1,170 @@
+"""The batch backend: ``ngspice -b`` on a rendered deck, results read back from binary raw files."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import tempfile
+import time
+from collections.abc import Mapping
+from pathlib import Path
+
+import numpy as np
+
+from netloop.errors import SimulationError, SimulatorUnavailableError
+from netloop.sim.convergence import aid_ladder, op_failure, option_words
+from netloop.sim.deck import OP_RAW, control_steps, raw_name, render_deck, save_key
+from netloop.sim.frequency import merge_sweeps
+from netloop.sim.job import RunResult, SimJob, SimResult
+from netloop.sim.keep import keep_deck
+from netloop.sim.library import find_ngspice_binary
+from netloop.sim.output import error_lines, op_failed, tail
+from netloop.sim.rawfile import RawPlot, read_raw
+
+__all__ = ["BatchSimulator"]
+
+
+class BatchSimulator:
+    """Runs each job as ``ngspice -b deck.cir`` in a temporary folder.
+
+    ``keep_dir``: keep every deck there (failed decks are always kept, in a temporary folder if no
+    ``keep_dir`` is given).
+    """
+
+    backend = "ngspice-batch"
+
+    def __init__(self, binary: str | None = None, keep_dir: str | os.PathLike[str] | None = None):
+        path = binary or find_ngspice_binary()
+        if path is None:
+            raise SimulatorUnavailableError("the ngspice program was not found on PATH")
+        self.binary = path
+        self.keep_dir = keep_dir
+
+    def close(self) -> None:
+        """Nothing to stop (each job is its own process); here so both backends read alike."""
+
+    def __enter__(self) -> BatchSimulator:
+        return self
+
+    def __exit__(self, *exc_info: object) -> None:
+        self.close()
+
+    def run(self, job: SimJob) -> SimResult:
+        deadline = time.monotonic() + job.timeout_s
+        tried: list[str | None] = []
+        said = ""
+        log: list[str] = []
+        for aid in aid_ladder(job):
+            tried.append(aid)
+            deck = render_deck(job, option_words(job, aid), control_steps(job, write_raw=True))
+            with tempfile.TemporaryDirectory(prefix="netloop-batch-") as work:
+                lines = self._ngspice(job, deck, Path(work), deadline)
+                log.extend(lines)
+                op = _op_plot(Path(work) / OP_RAW)
+                if op is None:
+                    bad = error_lines(lines)
+                    if op_failed(lines):
+                        said = " | ".join(bad[-4:])
+                        continue
+                    path = keep_deck(deck, job.label, self.keep_dir)
+                    reason = " | ".join(bad[:6]) or tail(lines, 6).replace("\n", " | ")
+                    raise SimulationError(f"ngspice could not run the deck: {reason}", path, tail(log, 60), job.label or None)
+                runs = self._runs(job, Path(work), lines, deck, log)
+            deck_path = keep_deck(deck, job.label, self.keep_dir) if self.keep_dir is not None else None
+            return SimResult(
+                runs=runs,
+                operating_point=_node_voltages(op),
+                log="\n".join(log),
+                deck_path=deck_path,
+                convergence_aid=aid,
+                backend=self.backend,
+            )
+        path = keep_deck(deck, job.label, self.keep_dir)
+        raise op_failure(job, tried, said, path, tail(log, 60))
+
+    def _ngspice(self, job: SimJob, deck: str, work: Path, deadline: float) -> list[str]:
+        (work / "deck.cir").write_text(deck, encoding="utf-8")
+        remaining = deadline - time.monotonic()
+        try:
+            if remaining <= 0:
+                raise subprocess.TimeoutExpired(self.binary, job.timeout_s)
+            done = subprocess.run(
+                [self.binary, "-b", "deck.cir"],
+                cwd=work,
+                stdin=subprocess.DEVNULL,
+                stdout=subprocess.PIPE,
+                stderr=subprocess.STDOUT,
+                timeout=remaining,
+                check=False,
+            )
+        except subprocess.TimeoutExpired as exc:
+            path = keep_deck(deck, job.label, self.keep_dir)
+            raise SimulationError(
+                f"ngspice did not finish within the timeout of {job.timeout_s:g} s and was stopped", path, "", job.label or None
+            ) from exc
+        except OSError as exc:
+            raise SimulatorUnavailableError(f"cannot run {self.binary}: {exc}") from exc
+        text = done.stdout.decode("utf-8", errors="replace")
+        return text.splitlines()
+
+    def _runs(self, job: SimJob, work: Path, lines: list[str], deck: str, log: list[str]) -> tuple[RunResult, ...]:
+        saves = tuple(save_key(s) for s in job.save)
+        runs = []
+        for r, run in enumerate(job.runs):
+            parts = []
+            for s, _ in enumerate(run.sweeps):
+                plot = _first_plot(work / raw_name(r, s))
+                if plot is None or "frequency" not in plot.data or plot.data["frequency"].size == 0:
+                    path = keep_deck(deck, job.label, self.keep_dir)
+                    bad = " | ".join(error_lines(lines)[:6]) or "no error message"
+                    raise SimulationError(f"ngspice's ac analysis of run {run.name!r} failed: {bad}", path, tail(log, 60), job.label or None)
+                vectors = {}
+                for key in saves:
+                    data = plot.data.get(_raw_key(key))
+                    if data is None:
+                        path = keep_deck(deck, job.label, self.keep_dir)
+                        raise SimulationError(
+                            f"ngspice has no vector {key!r} (this run has: {', '.join(plot.names)})", path, tail(log, 60), job.label or None
+                        )
+                    vectors[key] = np.asarray(data, dtype=np.complex128)
+                parts.append((np.real(plot.data["frequency"]).astype(float), vectors))
+            freq, vectors = merge_sweeps(parts)
+            runs.append(RunResult(name=run.name, freq_hz=freq, vectors=vectors))
+        return tuple(runs)
+
+    def operating_point(self, netlist: str) -> Mapping[str, float]:
+        """Every node voltage of ``netlist``'s operating point (lower-case, hierarchical as ngspice names them)."""
+        return self.run(SimJob(netlist=netlist, runs=(), save=())).operating_point
+
+
+def _first_plot(path: Path) -> RawPlot | None:
+    if not path.is_file() or path.stat().st_size == 0:
+        return None
+    plots = read_raw(path)
+    return plots[0] if plots else None
+
+
+def _op_plot(path: Path) -> RawPlot | None:
+    plot = _first_plot(path)
+    if plot is None or not plot.names or plot.data[plot.names[0]].size == 0:
+        return None
+    return plot
+
+
+def _raw_key(key: str) -> str:
+    """The name a saved vector has in a raw file: ngspice writes nodes as v(x) and branches as i(x)."""
+    if key.endswith("#branch"):
+        return f"i({key[: -len('#branch')]})"
+    if "(" not in key:
+        return f"v({key})"
+    return key
+
+
+def _node_voltages(plot: RawPlot) -> dict[str, float]:
+    out = {}
+    for name, kind in zip(plot.names, plot.types):
+        if kind != "voltage" or "#" in name:
+            continue
+        node = name[2:-1] if name.startswith("v(") and name.endswith(")") else name
+        out[node] = float(np.real(plot.data[name][0]))
+    return out

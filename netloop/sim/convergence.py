@@ -1,0 +1,48 @@
+"""Operating-point convergence aids: the ladder tried after a failure, and the error when all fail."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from netloop.errors import SimulationError
+from netloop.sim.job import SimJob
+
+__all__ = ["DEFAULT_OP_AIDS", "aid_ladder", "op_failure", "option_words"]
+
+# Tried in order, each on its own on top of the job's options. ngspice 39 already does plain Newton,
+# dynamic gmin stepping, source stepping and a transient operating point by default; these switch
+# to the other algorithms and limits it has (gminsteps/srcsteps > 1 select the fixed ladders).
+DEFAULT_OP_AIDS: tuple[str, ...] = (
+    "itl1=1000",
+    "gminsteps=100",
+    "srcsteps=100",
+    "itl1=1000 gminsteps=200 srcsteps=200",
+)
+
+HELP = (
+    "options that usually help: '.option gminsteps=100' (fixed gmin ladder), '.option srcsteps=100' "
+    "(source stepping), '.option itl1=1000' (more Newton iterations), a '.nodeset' near the expected "
+    "solution, or a DC path to ground at every node"
+)
+
+
+def aid_ladder(job: SimJob) -> tuple[str | None, ...]:
+    """None (ngspice as the netlist says) then each aid: the job's own, or the defaults."""
+    return (None, *(job.op_aids or DEFAULT_OP_AIDS))
+
+
+def option_words(job: SimJob, aid: str | None) -> tuple[str, ...]:
+    """The ``.option`` words of one attempt: the job's options, then the aid's (later ones win)."""
+    return (*job.options, *(aid.split() if aid else ()))
+
+
+def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck_path: str | None, output: str) -> SimulationError:
+    """The error raised when no attempt found an operating point."""
+    aids = [a for a in tried if a]
+    what = "the operating point did not converge"
+    if aids:
+        what += " (tried ngspice's defaults, then " + ", ".join(f"'.option {a}'" for a in aids) + ")"
+    message = f"{what}; {HELP}"
+    if ngspice_says:
+        message += "; ngspice said: " + ngspice_says.replace("\n", " | ")
+    return SimulationError(message, deck_path=deck_path, simulator_output=output, corner=job.label or None)

@@ -1,0 +1,146 @@
+"""Turn a SimJob into ngspice text: the circuit with its options and the control steps of its runs."""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+from typing import Literal
+
+import jinja2
+
+from netloop.errors import SimulationError
+from netloop.sim.job import AcSweep, SimJob
+
+__all__ = ["Step", "control_steps", "excited_sources", "format_number", "render_deck", "save_key", "strip_end"]
+
+TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
+MAX_COMMAND_CHARS = 900  # ngspice's shared API takes at most 1023 characters a command
+
+StepKind = Literal["op", "ac", "alter", "save", "write", "free", "set", "echo"]
+
+
+@dataclass(frozen=True, slots=True)
+class Step:
+    """One control-block command; ``run_index``/``sweep_index`` say which run an ``ac`` or ``write`` serves."""
+
+    command: str
+    kind: StepKind
+    run_index: int = -1
+    sweep_index: int = -1
+
+
+@lru_cache(maxsize=1)
+def _environment() -> jinja2.Environment:
+    return jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(TEMPLATE_DIR)),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+        autoescape=False,
+    )
+
+
+def format_number(value: float) -> str:
+    """A float as ngspice reads it back exactly (shortest round-trip repr); rejects inf and nan."""
+    value = float(value)
+    if not math.isfinite(value):
+        raise SimulationError(f"cannot pass the non-finite number {value!r} to ngspice")
+    return repr(value)
+
+
+_END = re.compile(r"^\s*\.end\s*$", re.IGNORECASE)
+
+
+def strip_end(netlist: str) -> str:
+    """The netlist without a trailing ``.end`` line (the deck adds its own) and without trailing blanks."""
+    lines = netlist.rstrip().splitlines()
+    while lines and _END.match(lines[-1]):
+        lines.pop()
+        while lines and not lines[-1].strip():
+            lines.pop()
+    return "\n".join(lines)
+
+
+def save_key(name: str) -> str:
+    """How a saved vector is named in results: the request, lower-case, without blanks."""
+    return "".join(name.split()).lower()
+
+
+def excited_sources(job: SimJob) -> tuple[str, ...]:
+    """Every source some run may excite: ``job.excitable`` then any other name a run sets, lower-case."""
+    names: list[str] = []
+    for name in (*job.excitable, *(n for run in job.runs for n in run.ac)):
+        key = name.strip().lower()
+        if key and key not in names:
+            names.append(key)
+    return tuple(names)
+
+
+def _sweep_command(sweep: AcSweep) -> str:
+    if sweep.kind not in ("dec", "lin"):
+        raise SimulationError(f"ac sweep kind must be 'dec' or 'lin', not {sweep.kind!r}")
+    if int(sweep.points) < 1 or not (0 < sweep.fstart_hz <= sweep.fstop_hz):
+        raise SimulationError(f"bad ac sweep {sweep}: need points >= 1 and 0 < fstart_hz <= fstop_hz")
+    return f"ac {sweep.kind} {int(sweep.points)} {format_number(sweep.fstart_hz)} {format_number(sweep.fstop_hz)}"
+
+
+def _chunked(prefix: str, words: tuple[str, ...]) -> list[str]:
+    commands, current = [], prefix
+    for word in words:
+        if current != prefix and len(current) + 1 + len(word) > MAX_COMMAND_CHARS:
+            commands.append(current)
+            current = prefix
+        current += " " + word
+    if current != prefix:
+        commands.append(current)
+    return commands
+
+
+def raw_name(run_index: int, sweep_index: int) -> str:
+    """File name of the raw file batch mode writes for one sweep of one run."""
+    return f"run{run_index}_sweep{sweep_index}.raw"
+
+
+OP_RAW = "op.raw"
+
+
+def control_steps(job: SimJob, write_raw: bool, markers: bool = False) -> tuple[Step, ...]:
+    """The control commands of a job: op once, then per run the AC magnitudes and its sweeps.
+
+    ``write_raw`` adds the ``write`` commands batch mode needs (binary raw files next to the deck);
+    ``markers`` adds ``echo`` lines so that batch output can be split by step.
+    """
+    steps: list[Step] = []
+    if write_raw:
+        steps.append(Step("set filetype=binary", "set"))
+    if markers:
+        steps.append(Step("echo @netloop-step op", "echo"))
+    steps.append(Step("op", "op"))
+    if write_raw:
+        steps.append(Step(f"write {OP_RAW}", "write"))
+    steps.append(Step("destroy all", "free"))
+    saves = tuple(save_key(s) for s in job.save)
+    steps.extend(Step(c, "save") for c in _chunked("save", saves))
+    sources = excited_sources(job)
+    for r, run in enumerate(job.runs):
+        ac = {k.strip().lower(): v for k, v in run.ac.items()}
+        for source in sources:
+            steps.append(Step(f"alter {source} ac = {format_number(ac.get(source, 0.0))}", "alter", r))
+        for s, sweep in enumerate(run.sweeps):
+            if markers:
+                steps.append(Step(f"echo @netloop-step ac {r} {s}", "echo", r, s))
+            steps.append(Step(_sweep_command(sweep), "ac", r, s))
+            if write_raw:
+                steps.append(Step(f"write {raw_name(r, s)}", "write", r, s))
+            steps.append(Step("destroy all", "free", r, s))
+    return tuple(steps)
+
+
+def render_deck(job: SimJob, option_words: tuple[str, ...], steps: tuple[Step, ...] = ()) -> str:
+    """The deck text: netlist, ``.option`` lines for ``option_words``, a control block of ``steps``."""
+    template = _environment().get_template("sim_deck.cir.j2")
+    return template.render(netlist=strip_end(job.netlist), option_words=option_words, steps=steps)

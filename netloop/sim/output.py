@@ -1,0 +1,54 @@
+"""Judge ngspice's own output: which lines are real errors (notes and warnings are not)."""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterable
+
+__all__ = ["error_lines", "op_failed", "tail"]
+
+# Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
+# and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
+# recoveries all the time, so they never count on their own.
+_ERROR = re.compile(
+    r"^\s*(error\b|fatal\b)"  # "Error: ...", "Error on line ...", "ERROR: ...", "Fatal error"
+    r"|doanalyses:"  # "doAnalyses: OP:  Timestep too small; cause unrecorded."
+    r"|simulation\(s\) aborted"  # "op simulation(s) aborted"
+    r"|dc solution failed"
+    r"|timestep too small"
+    r"|no convergence"
+    r"|gmin stepping failed"
+    r"|singular matrix"
+    r"|unknown (model|subckt|parameter|device)"
+    r"|could not find",
+    re.IGNORECASE,
+)
+_BENIGN = re.compile(r"^\s*(note:|warning:|trying gmin|supplies reduced)", re.IGNORECASE)
+
+_OP_FAILED = re.compile(
+    r"doanalyses:\s*op\b|op simulation\(s\) aborted|dc solution failed|transient op failed",
+    re.IGNORECASE,
+)
+
+
+def error_lines(lines: Iterable[str]) -> tuple[str, ...]:
+    """The lines of ngspice output that report a real failure."""
+    found = []
+    for line in lines:
+        text = line.strip()
+        if not text or _BENIGN.match(text):
+            continue
+        if _ERROR.search(text):
+            found.append(text)
+    return tuple(found)
+
+
+def op_failed(lines: Iterable[str]) -> bool:
+    """True when ngspice says it found no operating point."""
+    return any(_OP_FAILED.search(line) for line in lines)
+
+
+def tail(lines: Iterable[str], count: int = 12) -> str:
+    """The last ``count`` non-blank lines, for messages."""
+    kept = [line.rstrip() for line in lines if line.strip()]
+    return "\n".join(kept[-count:])

@@ -1,0 +1,105 @@
+"""One ngspice shared-library instance driven through PySpice's low-level API, quietly.
+
+Used only inside the worker process (netloop/sim/worker.py): PySpice's logging, its version
+warning and its "every stderr line is an error" rule stay there; callers get plain lines and arrays.
+"""
+
+from __future__ import annotations
+
+import logging
+import warnings
+
+import numpy as np
+
+__all__ = ["NgspiceSession"]
+
+
+def _silence_pyspice() -> None:
+    logger = logging.getLogger("PySpice")
+    logger.setLevel(logging.CRITICAL + 1)
+    logger.propagate = False
+    logger.addHandler(logging.NullHandler())
+
+
+class NgspiceSession:
+    """A loaded libngspice: load circuits, run commands, read vectors as numpy arrays."""
+
+    def __init__(self, library_path: str):
+        _silence_pyspice()
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            from PySpice.Spice.NgSpice.Shared import NgSpiceShared, ffi  # noqa: PLC0415
+
+            NgSpiceShared.LIBRARY_PATH = library_path.replace("{", "{{").replace("}", "}}")
+            self._lines: list[str] = []
+            self._ffi = ffi
+            self._ng = NgSpiceShared(ngspice_id=0, send_data=False)
+        self._ng.send_char = self._on_char  # PySpice forwards every output line here
+        self._lib = self._ng._ngspice_shared
+        self.version = str(self._ng.ngspice_version)
+        voltage = self._ng.simulation_type.voltage
+        self._voltage_type = int(getattr(voltage, "value", voltage))
+
+    def _on_char(self, message: str, ngspice_id: int) -> int:
+        _, _, content = message.partition(" ")  # "stdout ..." / "stderr ..."
+        self._lines.append(content)
+        return 0
+
+    def command(self, command: str) -> list[str]:
+        """Run one ngspice command; returns what ngspice printed meanwhile."""
+        self._lines = []
+        self._lib.ngSpice_Command(command.encode("utf-8"))
+        return self._lines
+
+    def load(self, deck_text: str) -> list[str]:
+        """Load a circuit (text ending in ``.end``); returns what ngspice printed meanwhile."""
+        ffi = self._ffi
+        lines = [line for line in deck_text.splitlines() if line.strip()]
+        keep = [ffi.new("char[]", line.encode("utf-8")) for line in lines] + [ffi.NULL]
+        self._lines = []
+        self._lib.ngSpice_Circ(ffi.new("char *[]", keep))
+        return self._lines
+
+    def current_plot(self) -> str:
+        return self._ffi.string(self._lib.ngSpice_CurPlot()).decode()
+
+    def vector_names(self, plot: str) -> list[str]:
+        names = self._lib.ngSpice_AllVecs(plot.encode("utf-8"))
+        out, i = [], 0
+        while names[i] != self._ffi.NULL:
+            out.append(self._ffi.string(names[i]).decode())
+            i += 1
+        return out
+
+    def vector(self, plot: str, name: str) -> np.ndarray | None:
+        """A copy of vector ``name`` of ``plot`` (float64 or complex128), or None if there is none."""
+        ffi = self._ffi
+        info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))
+        if info == ffi.NULL:
+            return None
+        length = info.v_length
+        if info.v_compdata != ffi.NULL:
+            pairs = np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.float64)
+            return (pairs[0::2] + 1j * pairs[1::2]).astype(np.complex128)
+        if info.v_realdata != ffi.NULL:
+            return np.frombuffer(ffi.buffer(info.v_realdata, length * 8), dtype=np.float64).copy()
+        return np.zeros(0)
+
+    def node_voltages(self, plot: str) -> dict[str, float]:
+        """Every circuit node voltage of an operating-point plot (device-internal ``#`` nodes left out)."""
+        out = {}
+        for name in self.vector_names(plot):
+            if "#" in name or "(" in name:
+                continue
+            info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))
+            if info == self._ffi.NULL or info.v_type != self._voltage_type:
+                continue
+            data = self.vector(plot, name)
+            if data is not None and data.size:
+                out[name.lower()] = float(np.real(data[0]))
+        return out
+
+    def clear(self) -> None:
+        """Remove the circuit and every plot, ready for the next job."""
+        self.command("destroy all")
+        self.command("remcirc")

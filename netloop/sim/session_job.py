@@ -1,0 +1,107 @@
+"""Run one SimJob in an ngspice session: load, operating point (with aids), then each AC run."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from netloop.sim.convergence import aid_ladder, option_words
+from netloop.sim.deck import control_steps, render_deck, save_key
+from netloop.sim.frequency import merge_sweeps
+from netloop.sim.job import SimJob
+from netloop.sim.output import error_lines, op_failed, tail
+from netloop.sim.session import NgspiceSession
+
+__all__ = ["JobFailure", "JobPayload", "run_job"]
+
+
+@dataclass(slots=True)
+class JobPayload:
+    """What a finished job sends back: plain data only (it crosses a process boundary)."""
+
+    operating_point: dict[str, float]
+    runs: list[tuple[str, np.ndarray, dict[str, np.ndarray]]]
+    log: str
+    aid: str | None
+
+
+@dataclass(slots=True)
+class JobFailure(Exception):
+    """A job ngspice could not do: ``kind`` is "netlist", "op" or "analysis"."""
+
+    kind: str
+    message: str
+    output: str = ""
+    aid: str | None = None
+    tried: tuple[str | None, ...] = field(default_factory=tuple)
+
+    def __str__(self) -> str:
+        return self.message
+
+
+def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
+    """Do ``job`` in ``session``; raises JobFailure with ngspice's own lines when it cannot."""
+    log: list[str] = []
+    tried: list[str | None] = []
+    op_lines: list[str] = []
+    for aid in aid_ladder(job):
+        tried.append(aid)
+        session.clear()
+        deck = render_deck(job, option_words(job, aid))
+        loaded = session.load(deck)
+        log.extend(loaded)
+        bad = error_lines(loaded)
+        if bad:
+            session.clear()
+            raise JobFailure("netlist", "ngspice could not read the netlist: " + " | ".join(bad[:6]), tail(log, 40), aid, tuple(tried))
+        op_lines = session.command("op")
+        log.extend(op_lines)
+        plot = session.current_plot()
+        voltages = session.node_voltages(plot) if plot.startswith("op") else {}
+        if not op_failed(op_lines) and not error_lines(op_lines) and (voltages or not _has_nodes(session, plot)):
+            break
+    else:
+        session.clear()
+        said = " | ".join(error_lines(op_lines)[-4:])
+        raise JobFailure("op", said, tail(log, 60), tried[-1], tuple(tried))
+    session.command("destroy all")
+
+    runs = []
+    steps = control_steps(job, write_raw=False)
+    saves = tuple(save_key(s) for s in job.save)
+    parts: dict[int, list] = {r: [] for r in range(len(job.runs))}
+    for step in steps:
+        if step.kind in ("op", "free"):
+            continue
+        lines = session.command(step.command)
+        log.extend(lines)
+        bad = error_lines(lines)
+        if bad:
+            session.clear()
+            raise JobFailure("analysis", f"'{step.command}' failed: " + " | ".join(bad[:6]), tail(log, 40), aid, tuple(tried))
+        if step.kind == "ac":
+            plot = session.current_plot()
+            freq = session.vector(plot, "frequency")
+            if not plot.startswith("ac") or freq is None or freq.size == 0:
+                session.clear()
+                raise JobFailure("analysis", f"'{step.command}' produced no data", tail(log, 40), aid, tuple(tried))
+            vectors = {}
+            for key in saves:
+                data = session.vector(plot, key)
+                if data is None:
+                    session.clear()
+                    known = ", ".join(sorted(session.vector_names(plot)))
+                    raise JobFailure("analysis", f"ngspice has no vector {key!r} (this run has: {known})", tail(log, 40), aid, tuple(tried))
+                vectors[key] = np.asarray(data, dtype=np.complex128)
+            parts[step.run_index].append((np.real(freq).astype(float), vectors))
+            session.command("destroy all")
+    for r, run in enumerate(job.runs):
+        freq, vectors = merge_sweeps(parts[r])
+        runs.append((run.name, freq, vectors))
+    session.clear()
+    return JobPayload(operating_point=voltages, runs=runs, log="\n".join(log), aid=aid)
+
+
+def _has_nodes(session: NgspiceSession, plot: str) -> bool:
+    return any("#" not in n for n in session.vector_names(plot))

@@ -1,0 +1,179 @@
+"""The shared-library backend: libngspice in a worker process, with a timeout and restarts."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import tempfile
+import threading
+import weakref
+from collections.abc import Mapping
+from pathlib import Path
+
+from netloop.errors import SimulationError, SimulatorUnavailableError
+from netloop.sim.convergence import op_failure
+from netloop.sim.job import RunResult, SimJob, SimResult
+from netloop.sim.keep import keep_deck, runnable_deck
+from netloop.sim.library import find_libngspice
+from netloop.sim.protocol import FrameTimeout, WorkerGone, read_frame_fd, write_frame
+
+__all__ = ["SharedLibrarySimulator"]
+
+_PACKAGE_ROOT = str(Path(__file__).resolve().parent.parent.parent)
+
+
+class _Worker:
+    """One running worker process and its pipes."""
+
+    def __init__(self, library_path: str, startup_timeout_s: float):
+        self.scratch = tempfile.TemporaryDirectory(prefix="netloop-worker-")
+        self.log_path = Path(self.scratch.name) / "worker.log"
+        env = dict(os.environ)
+        env["PYTHONPATH"] = os.pathsep.join(p for p in (_PACKAGE_ROOT, env.get("PYTHONPATH", "")) if p)
+        env["PYTHONWARNINGS"] = "ignore"
+        with open(self.log_path, "wb") as log:
+            self.process = subprocess.Popen(
+                [sys.executable, "-m", "netloop.sim.worker", library_path],
+                stdin=subprocess.PIPE,
+                stdout=subprocess.PIPE,
+                stderr=log,
+                cwd=self.scratch.name,
+                env=env,
+            )
+        try:
+            reply = read_frame_fd(self.process.stdout.fileno(), startup_timeout_s)
+        except (FrameTimeout, WorkerGone) as exc:
+            log_tail = self.log_tail()
+            self.stop()
+            raise SimulatorUnavailableError(f"the ngspice worker did not start ({log_tail or type(exc).__name__})") from exc
+        if reply[0] != "ready":
+            self.stop()
+            raise SimulatorUnavailableError(f"libngspice at {library_path} cannot be loaded: {reply[1]}")
+        self.version = reply[1]
+
+    def call(self, request: object, timeout_s: float) -> tuple:
+        write_frame(self.process.stdin, request)
+        return read_frame_fd(self.process.stdout.fileno(), timeout_s)
+
+    def log_tail(self, count: int = 20) -> str:
+        try:
+            text = self.log_path.read_text(errors="replace")
+        except OSError:
+            return ""
+        return "\n".join(line for line in text.splitlines()[-count:] if line.strip())
+
+    def alive(self) -> bool:
+        return self.process.poll() is None
+
+    def stop(self) -> None:
+        if self.process.poll() is None:
+            self.process.kill()
+        self.process.wait()
+        for pipe in (self.process.stdin, self.process.stdout):
+            try:
+                pipe.close()
+            except OSError:
+                pass
+        self.scratch.cleanup()
+
+
+def _stop_worker(holder: dict) -> None:
+    worker = holder.pop("worker", None)
+    if worker is not None:
+        worker.stop()
+
+
+class SharedLibrarySimulator:
+    """Runs jobs in libngspice hosted by a worker process; restarts the worker after any failure.
+
+    ``keep_dir``: keep every deck there (failed decks are always kept, in a temporary folder if
+    no ``keep_dir`` is given). Use as a context manager or call ``close()`` to stop the worker.
+    """
+
+    backend = "ngspice-shared"
+
+    def __init__(self, library_path: str | None = None, keep_dir: str | os.PathLike[str] | None = None, startup_timeout_s: float = 60.0):
+        path = library_path or find_libngspice()
+        if path is None:
+            raise SimulatorUnavailableError("the ngspice shared library (libngspice.so) was not found")
+        self.library_path = path
+        self.keep_dir = keep_dir
+        self.startup_timeout_s = startup_timeout_s
+        self._holder: dict = {}
+        self._lock = threading.Lock()
+        self._finalizer = weakref.finalize(self, _stop_worker, self._holder)
+
+    def start(self) -> str:
+        """Start the worker now (it starts on first use otherwise); returns ngspice's version."""
+        with self._lock:
+            return self._worker().version
+
+    def _worker(self) -> _Worker:
+        worker = self._holder.get("worker")
+        if worker is None or not worker.alive():
+            if worker is not None:
+                _stop_worker(self._holder)
+            self._holder["worker"] = _Worker(self.library_path, self.startup_timeout_s)
+        return self._holder["worker"]
+
+    def close(self) -> None:
+        """Stop the worker process."""
+        with self._lock:
+            _stop_worker(self._holder)
+
+    def __enter__(self) -> SharedLibrarySimulator:
+        return self
+
+    def __exit__(self, *exc_info: object) -> None:
+        self.close()
+
+    def run(self, job: SimJob) -> SimResult:
+        with self._lock:
+            worker = self._worker()
+            try:
+                reply = worker.call(("run", job), job.timeout_s)
+            except FrameTimeout as exc:
+                _stop_worker(self._holder)
+                deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
+                raise SimulationError(
+                    f"ngspice did not finish within the timeout of {job.timeout_s:g} s; the worker was stopped "
+                    "and is restarted for the next job",
+                    deck_path=deck,
+                    corner=job.label or None,
+                ) from exc
+            except (WorkerGone, BrokenPipeError, OSError) as exc:
+                log_tail = worker.log_tail()
+                _stop_worker(self._holder)
+                deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
+                raise SimulationError(
+                    "the ngspice worker process died during the job (it is restarted for the next job)"
+                    + (f"; its last output: {log_tail}" if log_tail else ""),
+                    deck_path=deck,
+                    simulator_output=log_tail,
+                    corner=job.label or None,
+                ) from exc
+        return self._result(job, reply)
+
+    def _result(self, job: SimJob, reply: tuple) -> SimResult:
+        if reply[0] == "failed":
+            _, kind, message, output, aid, tried = reply
+            deck = keep_deck(runnable_deck(job, aid), job.label, self.keep_dir)
+            if kind == "op":
+                raise op_failure(job, tried, message, deck, output)
+            raise SimulationError(message, deck_path=deck, simulator_output=output, corner=job.label or None)
+        payload = reply[1]
+        deck_path = keep_deck(runnable_deck(job, payload.aid), job.label, self.keep_dir) if self.keep_dir is not None else None
+        runs = tuple(RunResult(name=name, freq_hz=freq, vectors=vectors) for name, freq, vectors in payload.runs)
+        return SimResult(
+            runs=runs,
+            operating_point=payload.operating_point,
+            log=payload.log,
+            deck_path=deck_path,
+            convergence_aid=payload.aid,
+            backend=self.backend,
+        )
+
+    def operating_point(self, netlist: str) -> Mapping[str, float]:
+        """Every node voltage of ``netlist``'s operating point (lower-case, hierarchical as ngspice names them)."""
+        return self.run(SimJob(netlist=netlist, runs=(), save=())).operating_point
