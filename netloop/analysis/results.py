@@ -208,7 +208,7 @@ class ClosedLoopPoles:
     rhp_count            how many of them have a positive real part.
     dominant_damping     damping ratio -Re(p)/|p| of the complex pair closest to the imaginary
                          axis (smallest damping); None when there is no complex pair.
-    dominant_q           1 / (2 dominant_damping); None with it.
+    dominant_q           1 / (2 dominant_damping) (inf when the damping is <= 0); None with it.
     dominant_freq_hz     |p| / (2 pi) of that pair; None with it.
     agrees_with_nyquist  rhp_count == NyquistVerdict.closed_loop_rhp_poles.
     fit_error            max |S_fit - S| / max(|S|) over the data: how well the fit holds.

@@ -1,0 +1,42 @@
+"""Where the loop comes closest to -1 (modulus margin) and the real peak of |T / (1 + T)|."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy.optimize import minimize_scalar
+
+from netloop.analysis.response import Response
+from netloop.analysis.results import Peaking
+
+__all__ = ["closed_loop_peaking", "modulus_margin"]
+
+
+def _extremum(resp: Response, fun) -> tuple[float, float]:
+    """(x, value) of the minimum of fun(T) over the interpolated sweep, polished between grid points."""
+    xs = resp.dense_x(16)
+    vals = fun(resp.t_at(xs))
+    i = int(np.argmin(vals))
+    lo, hi = xs[max(i - 1, 0)], xs[min(i + 1, xs.size - 1)]
+    if hi > lo:
+        res = minimize_scalar(lambda u: float(fun(resp.t_at(u))), bounds=(lo, hi), method="bounded", options={"xatol": 1e-12})
+        if res.fun < vals[i]:
+            return float(res.x), float(res.fun)
+    return float(xs[i]), float(vals[i])
+
+
+def modulus_margin(resp: Response) -> tuple[float, float]:
+    """(min |1 + T|, its frequency in Hz) over the sweep."""
+    x, v = _extremum(resp, lambda t: np.abs(1.0 + t))
+    return v, 10.0**x
+
+
+def closed_loop_peaking(resp: Response) -> Peaking:
+    """Peak of |T/(1+T)| relative to its regulated low-frequency value (or to 1 when |T| <= 1 there)."""
+    x, v = _extremum(resp, lambda t: -np.abs(t / (1.0 + t)))
+    peak = -v
+    absolute_db = 20.0 * math.log10(peak) if peak > 0 else -math.inf
+    t0 = complex(resp.t[0])
+    reference_db = 20.0 * math.log10(abs(t0 / (1.0 + t0))) if abs(t0) > 1.0 else 0.0
+    return Peaking(absolute_db - reference_db, 10.0**x, reference_db, absolute_db)

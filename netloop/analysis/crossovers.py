@@ -1,0 +1,76 @@
+"""Gain crossovers (|T| = 1) and phase crossovers (T negative real), located on the interpolant.
+
+Phase margin at a gain crossover is the signed angular distance from T to -1 on the continuous
+phase branch: with k the odd multiple of 180 deg nearest the phase, PM = phase - k for a crossover
+where |T| falls through 1 ("down") and PM = k - phase where it rises through 1 ("up", the low edge
+of an AC-coupled loop). So the low crossing of a band-pass loop with +90 deg of lead has PM = +90,
+not the -90 that wrapping the phase into [-180, 180) would give.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy.optimize import brentq
+
+from netloop.analysis.response import Response
+from netloop.analysis.results import GainCrossover, PhaseCrossover
+
+__all__ = ["find_gain_crossovers", "find_phase_crossovers", "phase_margin_deg", "peaking_at_crossover"]
+
+_XTOL = 1e-13
+
+
+def phase_margin_deg(phase_deg: float, direction: str) -> float:
+    """Signed distance (deg) from the phase to the nearest odd multiple of 180, positive on the stable side."""
+    k = 180.0 + 360.0 * round((phase_deg - 180.0) / 360.0)  # nearest odd multiple of 180
+    margin = phase_deg - k if direction == "down" else k - phase_deg
+    return float(margin)
+
+
+def peaking_at_crossover(pm_deg: float) -> tuple[float, float, float]:
+    """|T/(1+T)| where |T| = 1: (exact 1/(2 sin(|PM|/2)), its dB, small-angle 1/|PM rad|)."""
+    half = math.radians(abs(pm_deg)) / 2.0
+    exact = math.inf if half == 0.0 else 1.0 / (2.0 * math.sin(half))
+    small = math.inf if half == 0.0 else 1.0 / (2.0 * half)
+    return exact, 20.0 * math.log10(exact), small
+
+
+def _delay_margin_s(phase_deg: float, pm_deg: float, freq_hz: float) -> float | None:
+    if pm_deg <= 0.0:
+        return None
+    lag = math.radians((phase_deg + 180.0) % 360.0)  # extra lag that brings the phase onto -180 (mod 360)
+    return lag / (2.0 * math.pi * freq_hz)
+
+
+def find_gain_crossovers(resp: Response) -> tuple[GainCrossover, ...]:
+    """Every |T| = 1 crossing, ascending, each located by root-finding on the gain spline."""
+    above = resp.gain_db >= 0.0
+    out = []
+    for i in np.flatnonzero(above[:-1] != above[1:]):
+        a, b = resp.x[i], resp.x[i + 1]
+        xr = brentq(lambda u: float(resp.gain_at(u)), a, b, xtol=_XTOL)
+        f = 10.0**xr
+        phase = float(resp.phase_at(xr))
+        direction = "down" if resp.gain_db[i] > resp.gain_db[i + 1] else "up"
+        pm = phase_margin_deg(phase, direction)
+        exact, exact_db, small = peaking_at_crossover(pm)
+        out.append(GainCrossover(f, phase, pm, direction, exact, exact_db, small, _delay_margin_s(phase, pm, f)))
+    return tuple(out)
+
+
+def find_phase_crossovers(resp: Response, floor_abs_db: float) -> tuple[tuple[PhaseCrossover, ...], tuple[PhaseCrossover, ...]]:
+    """(kept, ignored) phase crossovers; ignored are those where |T| is below floor_abs_db (noise)."""
+    level = np.floor((resp.phase_deg - 180.0) / 360.0)  # index of the odd multiple of 180 at or below
+    kept, ignored = [], []
+    for i in np.flatnonzero(level[:-1] != level[1:]):
+        lo, hi = sorted((level[i], level[i + 1]))
+        for m in np.arange(lo + 1, hi + 1):
+            target = 180.0 + 360.0 * m
+            a, b = resp.x[i], resp.x[i + 1]
+            xr = brentq(lambda u, tg=target: float(resp.phase_at(u)) - tg, a, b, xtol=_XTOL)
+            gain = float(resp.gain_at(xr))
+            rec = PhaseCrossover(10.0**xr, float(target), gain, -gain, "upper" if gain < 0.0 else "lower")
+            (kept if gain >= floor_abs_db else ignored).append(rec)
+    return tuple(kept), tuple(ignored)

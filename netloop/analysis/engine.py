@@ -1,0 +1,107 @@
+"""analyse(): every crossover, the margins, the Nyquist verdict, peaking and closed-loop poles of one loop."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from netloop.analysis.closed_loop import closed_loop_peaking, modulus_margin
+from netloop.analysis.crossovers import find_gain_crossovers, find_phase_crossovers
+from netloop.analysis.margins import summarise_margins
+from netloop.analysis.nyquist import nyquist_verdict
+from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles
+from netloop.analysis.response import Response
+from netloop.analysis.results import LoopAnalysis
+from netloop.analysis.second_order import second_order_estimate
+from netloop.errors import AnalysisError
+
+__all__ = ["DEFAULT_FLOOR_DB", "analyse"]
+
+DEFAULT_FLOOR_DB = -120.0
+"""Numerical floor of |T|, in dB relative to the larger of 0 dB and the largest |T| in the sweep.
+
+The probe's T is a difference of node voltages of order 1 (the unit injection) divided by a
+quantity of order 1 / (1 + |T|); with the simulator's solutions good to about 1e-6 relative of
+the injected unit, |T| below -120 dB carries no phase information. Phase crossovers below the
+floor are counted in LoopAnalysis.ignored_phase_crossovers and never become gain margins."""
+
+
+def analyse(
+    freq_hz,
+    t,
+    *,
+    open_loop_rhp_poles: int = 0,
+    floor_db: float = DEFAULT_FLOOR_DB,
+    fit_poles: bool = True,
+    pole_fit_rtol: float = DEFAULT_RTOL,
+) -> LoopAnalysis:
+    """Analyse the loop whose return ratio T was sampled at freq_hz (Hz, ascending, positive).
+
+    open_loop_rhp_poles  P, the poles of T in the right half plane (known from the design; 0 for
+                         a loop made of stable blocks). Z = N + P decides stability.
+    floor_db             numerical floor, dB relative to max(0 dB, largest |T|) (DEFAULT_FLOOR_DB).
+    fit_poles            also fit the closed-loop poles (AAA on 1/(1+T)); a second verdict.
+    pole_fit_rtol        relative tolerance of that fit.
+
+    Outcomes worth knowing (each pinned by a test):
+    * |T| < 1 everywhere: regulates is False ("does not regulate"), no gain crossover, phase
+      margin None, the Nyquist verdict stable (with P = 0).
+    * |T| > 1 everywhere, or a sweep that ends before |T| falls below 1: no (final) crossover,
+      a warning, and the Nyquist verdict marked unreliable.
+    * positive feedback at DC (T negative real at low frequency): a warning; the Nyquist count
+      still decides (|T(0)| > 1 is then unstable).
+    * integrators (poles of T at s = 0): read from the low-frequency slope; the Nyquist contour
+      detours to the right of s = 0 (see netloop.analysis.nyquist).
+    * NaN or infinite T: AnalysisError naming the first bad frequency (never dropped).
+    """
+    if int(open_loop_rhp_poles) != open_loop_rhp_poles or open_loop_rhp_poles < 0:
+        raise AnalysisError(f"open_loop_rhp_poles must be a whole number >= 0, got {open_loop_rhp_poles!r}")
+    resp = Response.from_data(freq_hz, t)
+    warnings: list[str] = []
+    floor_abs_db = float(floor_db) + max(0.0, float(np.max(resp.gain_db)))
+
+    gains = find_gain_crossovers(resp)
+    phases, ignored = find_phase_crossovers(resp, floor_abs_db)
+    nyquist, dc_sign = nyquist_verdict(resp, int(open_loop_rhp_poles))
+    if nyquist.closed_loop_rhp_poles < 0:
+        warnings.append(
+            f"the Nyquist count gives {nyquist.closed_loop_rhp_poles} closed-loop RHP poles: "
+            f"open_loop_rhp_poles={open_loop_rhp_poles} does not fit this data"
+        )
+    warnings.extend(nyquist.reasons)
+    regulates = bool(np.any(resp.gain_db > 0.0))
+    dc_gain_db = float(resp.gain_db[0])
+    if not regulates:
+        warnings.append(f"the loop gain never reaches 0 dB (at most {float(np.max(resp.gain_db)):.4g} dB): the loop does not regulate")
+    if dc_sign == "negative":
+        warnings.append("T is negative at low frequency: positive feedback at DC")
+    if ignored:
+        warnings.append(
+            f"{len(ignored)} phase crossover(s) below the numerical floor ({floor_abs_db:.4g} dB) ignored: the phase is noise there"
+        )
+
+    mm = modulus_margin(resp)
+    margins = summarise_margins(gains, phases, nyquist.stable, mm)
+    peaking = closed_loop_peaking(resp)
+    second = second_order_estimate(margins.phase_margin_deg)
+
+    poles = None
+    if fit_poles:
+        poles, notes = closed_loop_poles(resp.freq_hz, resp.t, nyquist.closed_loop_rhp_poles, pole_fit_rtol)
+        warnings.extend(notes)
+
+    return LoopAnalysis(
+        freq_hz=resp.freq_hz,
+        t=resp.t,
+        dc_gain_db=dc_gain_db,
+        regulates=regulates,
+        gain_crossovers=gains,
+        phase_crossovers=phases,
+        ignored_phase_crossovers=ignored,
+        floor_db=floor_abs_db,
+        margins=margins,
+        peaking=peaking,
+        second_order=second,
+        nyquist=nyquist,
+        poles=poles,
+        warnings=tuple(warnings),
+    )

@@ -1,0 +1,127 @@
+"""The Nyquist count: net encirclements of -1 by T over the whole imaginary axis, from sampled data.
+
+The contour runs up the imaginary axis, detouring to the right of any poles of T at s = 0, and
+closes through +infinity. The data covers [f_min, f_max]; the negative frequencies are its mirror
+image (T(-jw) = conj T(jw)). Two pieces are not sampled and are closed by assumption:
+
+* the top, beyond f_max: assumed to stay well inside the unit circle. Reliable only when
+  |T(f_max)| is at most TOP_LIMIT_DB (-20 dB); the angle of 1 + T then barely moves.
+* the bottom, below f_min: T is taken to follow its low-frequency asymptote C / s^k, with k
+  (origin_poles, integrators; negative for zeros at the origin) read from the slope of |T| over
+  the lowest samples and the sign of C from the phase there. Along the detour the phase of T
+  turns by -180 k degrees through the direction of C, at the magnitude |T(f_min)|. Reliable only
+  when the bottom is settled: the slope within SLOPE_TOL_DB_PER_DEC of -20 k dB/decade, the phase
+  within PHASE_TOL_DEG of the asymptote's, and no unity crossing hidden below the sweep
+  (|T| < 1 with integrators, or |T| > 1 with zeros at the origin).
+
+Counting is by the angle of 1 + T (not of T): its total turn is -360 (Z - P) degrees, so the
+clockwise encirclements are N = Z - P and Z = N + P. Steps of the angle of 1 + T above 90 degrees
+between samples make the count unsafe and are reported. Far above crossover, where |T| sinks into
+numerical noise, 1 + T is close to 1 and the noise cannot change the count.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from netloop.analysis.response import Response
+from netloop.analysis.results import NyquistVerdict
+
+__all__ = ["PHASE_TOL_DEG", "SLOPE_TOL_DB_PER_DEC", "TOP_LIMIT_DB", "nyquist_verdict", "origin_poles"]
+
+TOP_LIMIT_DB = -20.0
+SLOPE_TOL_DB_PER_DEC = 6.0
+PHASE_TOL_DEG = 30.0
+_MAX_STEP_DEG = 90.0
+_ARC_POINTS = 2001
+
+
+def _wrap(a):
+    """Angles (rad) wrapped into (-pi, pi]."""
+    return -np.remainder(-np.asarray(a) + np.pi, 2 * np.pi) + np.pi
+
+
+def origin_poles(resp: Response) -> tuple[int, float]:
+    """(k, slope): poles of T at s = 0 from the slope (dB/decade) over the lowest samples."""
+    n = min(3, resp.x.size)
+    slope = float(np.polyfit(resp.x[:n], resp.gain_db[:n], 1)[0])
+    return int(round(-slope / 20.0)), slope
+
+
+def _bottom_arc(t0: complex, k: int) -> tuple[np.ndarray, float, str]:
+    """T along the detour below f_min (from -j f_min to +j f_min), the phase residual, and C's sign."""
+    phi0 = math.degrees(np.angle(t0))
+    # asymptote phase at +j f_min is c - 90 k with c in {0, 180}: choose the c that fits best
+    residuals = {c: math.degrees(_wrap(math.radians(phi0 - (c - 90.0 * k)))) for c in (0.0, 180.0)}
+    c = min(residuals, key=lambda key: abs(residuals[key]))
+    delta = residuals[c]
+    theta = np.linspace(-90.0, 90.0, _ARC_POINTS)
+    angle = c - k * theta + delta * theta / 90.0
+    arc = abs(t0) * np.exp(1j * np.radians(angle))
+    return arc, delta, "negative" if c == 180.0 else "positive"
+
+
+def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0) -> tuple[NyquistVerdict, str]:
+    """Count encirclements of -1; returns the verdict and the sign of T's low-frequency asymptote."""
+    reasons: list[str] = []
+    t = resp.t
+    z = 1.0 + t
+    steps = _wrap(np.diff(np.angle(z)))
+    big = np.abs(np.degrees(steps)) > _MAX_STEP_DEG
+    if np.any(big):
+        i = int(np.argmax(big))
+        reasons.append(
+            f"the angle of 1 + T jumps by more than {_MAX_STEP_DEG:g} deg between samples "
+            f"({int(big.sum())} place(s), first between {resp.freq_hz[i]:.4g} and {resp.freq_hz[i + 1]:.4g} Hz); "
+            "sample more densely there"
+        )
+    data_turn = 2.0 * float(np.sum(steps))  # the data and its mirror image turn by the same amount
+
+    # top: beyond f_max, 1 + T is assumed close to 1
+    top_db = float(resp.gain_db[-1])
+    if top_db > TOP_LIMIT_DB:
+        if top_db >= 0.0:
+            reasons.append(f"the sweep ends at {resp.freq_hz[-1]:.4g} Hz before the loop gain falls below 1 ({top_db:.3g} dB)")
+        else:
+            reasons.append(
+                f"|T| at the top of the sweep ({top_db:.3g} dB at {resp.freq_hz[-1]:.4g} Hz) is not far below 1; "
+                f"extend the sweep until it is under {TOP_LIMIT_DB:g} dB"
+            )
+    top_turn = float(_wrap(np.angle(np.conj(z[-1])) - np.angle(z[-1])))
+
+    # bottom: the detour to the right of s = 0, along T's low-frequency asymptote
+    k, slope = origin_poles(resp)
+    arc, delta, dc_sign = _bottom_arc(complex(t[0]), k)
+    f0 = resp.freq_hz[0]
+    bottom_db = float(resp.gain_db[0])
+    if abs(slope + 20.0 * k) > SLOPE_TOL_DB_PER_DEC or abs(delta) > PHASE_TOL_DEG:
+        reasons.append(
+            f"T is not settled at the bottom of the sweep ({slope:.3g} dB/decade, phase {math.degrees(np.angle(t[0])):.4g} deg "
+            f"at {f0:.4g} Hz); start the sweep lower"
+        )
+    elif k > 0 and bottom_db < 0.0:
+        reasons.append(f"|T| is below 1 at {f0:.4g} Hz but rises toward DC (integrator): a crossover lies below the sweep")
+    elif k < 0 and bottom_db > 0.0:
+        reasons.append(f"|T| is above 1 at {f0:.4g} Hz but falls toward DC (AC coupling): a crossover lies below the sweep")
+    arc_z = 1.0 + arc
+    if float(np.min(np.abs(arc_z))) < 0.1:
+        reasons.append(f"T comes within 0.1 of -1 below the sweep (from {f0:.4g} Hz down), where it is not sampled")
+    bottom_turn = float(np.sum(_wrap(np.diff(np.angle(arc_z)))))
+
+    turns = (data_turn + top_turn + bottom_turn) / (2.0 * math.pi)
+    n_cw = -int(round(turns))
+    if abs(turns + n_cw) > 0.1:
+        reasons.append(f"the angle of 1 + T does not close to a whole number of turns ({turns:.3f})")
+    z_count = n_cw + int(open_loop_rhp_poles)
+    verdict = NyquistVerdict(
+        encirclements=n_cw,
+        open_loop_rhp_poles=int(open_loop_rhp_poles),
+        closed_loop_rhp_poles=z_count,
+        stable=z_count == 0,
+        reliable=not reasons,
+        reasons=tuple(reasons),
+        origin_poles=k,
+    )
+    return verdict, dc_sign

@@ -1,0 +1,46 @@
+"""Second-order equivalents of a phase margin: damping ratio, Q, overshoot (textbook estimates).
+
+For the loop T = wn^2 / (s (s + 2 zeta wn)), whose closed loop is wn^2 / (s^2 + 2 zeta wn s + wn^2):
+
+    PM = atan(2 zeta / sqrt(sqrt(1 + 4 zeta^4) - 2 zeta^2))
+       = atan(2 zeta sqrt(sqrt(1 + 4 zeta^4) + 2 zeta^2))      (same, without the cancellation)
+
+Q = 1 / (2 zeta); step overshoot = exp(-pi zeta / sqrt(1 - zeta^2)) for zeta < 1; resonant
+peak 1 / (2 zeta sqrt(1 - zeta^2)) for zeta < 1/sqrt(2). These hold exactly only for that loop:
+for any other loop they are estimates, and the records say so.
+"""
+
+from __future__ import annotations
+
+import math
+
+from scipy.optimize import brentq
+
+from netloop.analysis.results import SecondOrderEstimate
+
+__all__ = ["damping_from_phase_margin", "phase_margin_from_damping", "second_order_estimate"]
+
+
+def phase_margin_from_damping(zeta: float) -> float:
+    """Phase margin (deg) of the second-order loop with closed-loop damping ratio zeta > 0."""
+    z2 = zeta * zeta
+    return math.degrees(math.atan(2.0 * zeta * math.sqrt(math.sqrt(1.0 + 4.0 * z2 * z2) + 2.0 * z2)))
+
+
+def damping_from_phase_margin(pm_deg: float) -> float:
+    """The damping ratio whose second-order loop has this phase margin; pm_deg in (0, 90)."""
+    if not 0.0 < pm_deg < 90.0:
+        raise ValueError(f"a second-order loop has a phase margin in (0, 90) deg, not {pm_deg}")
+    return math.exp(brentq(lambda u: phase_margin_from_damping(math.exp(u)) - pm_deg, math.log(1e-12), math.log(1e12), xtol=1e-14))
+
+
+def second_order_estimate(pm_deg: float | None) -> SecondOrderEstimate | None:
+    """Damping, Q, overshoot and resonant peak of the second-order loop with this phase margin; None outside (0, 90)."""
+    if pm_deg is None or not 0.0 < pm_deg < 90.0:
+        return None
+    zeta = damping_from_phase_margin(pm_deg)
+    overshoot = 100.0 * math.exp(-math.pi * zeta / math.sqrt(1.0 - zeta * zeta)) if zeta < 1.0 else 0.0
+    peak = None
+    if zeta < 1.0 / math.sqrt(2.0):
+        peak = 20.0 * math.log10(1.0 / (2.0 * zeta * math.sqrt(1.0 - zeta * zeta)))
+    return SecondOrderEstimate(pm_deg, zeta, 1.0 / (2.0 * zeta), overshoot, peak)
