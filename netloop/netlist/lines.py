@@ -23,6 +23,20 @@ def _strip_inline(s: str) -> str:
     return s.strip()
 
 
+_CONT = re.compile(r"^[ \t]*\+", re.MULTILINE)
+_CONTROL = re.compile(r"^[ \t]*\.control", re.MULTILINE | re.IGNORECASE)
+
+
+def _plain(lines: list[str], start: int) -> bool:
+    """True when no line continues another, carries an inline comment or opens a ``.control`` block."""
+    text = "\n".join(lines[start:])
+    if ";" in text or "$" in text:
+        return False
+    if "+" in text and _CONT.search(text):
+        return False
+    return _CONTROL.search(text) is None
+
+
 def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:
     """Join one file's lines (``lines[start:]``) into statements with the number of their first line.
 
@@ -30,6 +44,8 @@ def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:
     ``;`` and ``$ `` start inline comments; a ``.control`` ... ``.endc`` block becomes one raw
     statement holding its lines verbatim, since nothing inside it is netlist syntax.
     """
+    if _plain(lines, start):
+        return [(s, i, False) for i, s in enumerate((x.strip() for x in lines[start:]), start + 1) if s and s[0] != "*"]
     out: list[list] = []
     append = out.append
     i = start

@@ -2,16 +2,18 @@
 
 from __future__ import annotations
 
+import gc
 import os
+from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 
 from netloop.errors import NetlistError, NetlistSyntaxError
-from netloop.netlist.cards import parse_card, resolve_bjt
+from netloop.netlist.cards import new_element, new_location, parse_card, resolve_bjt
 from netloop.netlist.lines import LogicalLine, logical_lines, tokenize
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
 
-__all__ = ["parse_file", "parse_text", "IGNORED_KEYWORDS", "KEPT_KEYWORDS"]
+__all__ = ["gc_paused", "parse_file", "parse_text", "IGNORED_KEYWORDS", "KEPT_KEYWORDS"]
 
 # Analyses and output statements: netloop never runs them; they are set aside in Netlist.ignored.
 IGNORED_KEYWORDS = frozenset(
@@ -22,6 +24,9 @@ KEPT_KEYWORDS = frozenset(
     ".param .model .option .options .opt .temp .func .csparam .nodeset .ic .if .elseif .else .endif .global .title".split()
 )
 _MODEL_KINDS = frozenset("DMJZSWOUQ")
+_TWO_TERMINAL = frozenset("RrCcLlVvIi")
+_SLOTS2 = (0, 1)
+_PINS2 = ("p", "n")
 
 
 @dataclass
@@ -76,6 +81,7 @@ class _Reader:
         self.active: set[tuple[str, str | None]] = set()
         self.has_q = False
         self.has_x = False
+        self.names: dict[str, str] = {}  # one string object per node name
 
     # -- files ---------------------------------------------------------------------------
     def _load(self, path: str, at: SourceLocation | None) -> _FileText:
@@ -152,6 +158,8 @@ class _Reader:
         """Read statements lines[first:end]; returns False when ``.end`` stopped the reading."""
         i = first
         models = self.models
+        names = self.names
+        body = self.stack[-1].body
         while i < end:
             text, ln, raw = lines[i]
             i += 1
@@ -160,17 +168,25 @@ class _Reader:
                 continue
             c = text[0]
             if c != ".":
+                if c in _TWO_TERMINAL and "=" not in text and "{" not in text and "'" not in text:
+                    # fast path for the bulk of large netlists: "R1 a b 1k", "V1 a 0 DC 1"
+                    toks = text.split()
+                    if len(toks) >= 4:
+                        a = toks[1].lower()
+                        a = names.setdefault(a, a)
+                        b = toks[2].lower()
+                        b = names.setdefault(b, b)
+                        body.append(new_element(toks[0], (a, b, *toks[3:]), _SLOTS2, _PINS2, new_location(file, ln), None))
+                        continue
                 if c == "+":
                     raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
-                loc = SourceLocation(file, ln)
-                el = parse_card(text, loc, models)
-                k = el.name[0]
-                if k in "QqXx":
-                    if k in "Qq":
-                        self.has_q = True
-                    else:
-                        self.has_x = True
-                self.stack[-1].body.append(el)
+                el = parse_card(text, SourceLocation(file, ln), models)
+                k = c.upper()
+                if k == "Q":
+                    self.has_q = True
+                elif k == "X":
+                    self.has_x = True
+                body.append(el)
                 continue
             kw = text.split(None, 1)[0].lower()
             loc = SourceLocation(file, ln)
@@ -182,19 +198,22 @@ class _Reader:
                         g = g.lower()
                         if g not in self.globals:
                             self.globals.append(g)
-                self.stack[-1].body.append(Directive(kw, text, loc))
+                body.append(Directive(kw, text, loc))
             elif kw in IGNORED_KEYWORDS:
                 self.ignored.append(Directive(kw, text, loc))
             elif kw == ".subckt":
                 self._open_subckt(text, loc)
+                body = self.stack[-1].body
             elif kw == ".ends":
                 self._close_subckt(text, loc)
+                body = self.stack[-1].body
             elif kw in (".include", ".inc"):
                 rest = text[len(kw) :]
                 if not rest.strip():
                     raise NetlistSyntaxError(f"{kw}: expected a file name", SourceLocation(file, ln, len(text) + 2), text)
                 path, _ = _split_path_arg(rest)
                 self._include("include", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), None, loc)
+                body = self.stack[-1].body
             elif kw == ".lib":
                 rest = text[4:]
                 path, section = _split_path_arg(rest) if rest.strip() else ("", "")
@@ -206,13 +225,14 @@ class _Reader:
                     i += 1
                     continue
                 self._include("lib", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), section.split()[0].lower(), loc)
+                body = self.stack[-1].body
             elif kw == ".endl":
                 continue
             elif kw == ".end":
                 return False
             else:
                 self.warnings.append(f"{loc}: unknown statement {kw} kept verbatim")
-                self.stack[-1].body.append(Directive(kw, text, loc))
+                body.append(Directive(kw, text, loc))
         return True
 
     def _open_subckt(self, text: str, loc: SourceLocation) -> None:
@@ -335,8 +355,25 @@ def parse_text(text: str, source: str = "<string>", base_dir: str | None = None)
     r = _Reader()
     if source != "<string>":
         r.files.append(source)
-    r.read_top(lines, source, base_dir if base_dir is not None else os.getcwd())
-    return r.finish(title, source)
+    with gc_paused():
+        r.read_top(lines, source, base_dir if base_dir is not None else os.getcwd())
+        return r.finish(title, source)
+
+
+@contextmanager
+def gc_paused():
+    """Pause the cyclic garbage collector while building millions of acyclic records.
+
+    The records hold no reference cycles, so the collector would only rescan them again and
+    again (it roughly doubles the time to read a million-element netlist).
+    """
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.enable()
 
 
 def parse_file(path: str | os.PathLike) -> Netlist:

@@ -1,0 +1,241 @@
+"""Reading the ngspice dialect: comments, continuations, element cards, subcircuits, includes, library sections."""
+
+from __future__ import annotations
+
+import re
+
+import pytest
+
+from netloop.errors import NetlistError, NetlistSyntaxError, UnknownNodeError
+from netloop.netlist import Directive, Element, Subcircuit, controlling_sources, parse_file, parse_text
+
+
+def test_title_comments_and_continuations():
+    """The first line is the title even if it looks like a card; every comment and continuation form is handled."""
+    nl = parse_text(
+        "R9 this is the title\n"
+        "* a full-line comment\n"
+        "   * an indented comment\n"
+        "R1 a b 1k ; semicolon comment\n"
+        "R2 b c 2k $ dollar comment\n"
+        "C1 c 0\n"
+        "* a comment between a card and its continuation\n"
+        "\n"
+        "+ 10p\n"
+        "  + ic=0\n"
+        "V1 a 0 dc 1\n"
+    )
+    assert nl.title == "R9 this is the title"
+    assert [e.name for e in nl.elements] == ["R1", "R2", "C1", "V1"]
+    assert nl.element("c1").tokens == ("c", "0", "10p", "ic=0")
+    assert nl.element("c1").location.line == 6  # a continued card is located at its first line
+    assert nl.element("r2").tokens == ("b", "c", "2k")
+
+
+def test_names_are_case_insensitive_and_nodes_lower_cased():
+    """Element lookup ignores case and node names come back lower-case, as ngspice treats them."""
+    nl = parse_text("t\nRLOAD OUT Vdd 1K\nR2 + - 1\nR3 +V bus[3] 2\n")
+    r = nl.element("rload")
+    assert r.nodes == ("out", "vdd") and r.tokens[2] == "1K"
+    assert nl.element("R2").nodes == ("+", "-")
+    assert nl.element("r3").nodes == ("+v", "bus[3]")
+    with pytest.raises(UnknownNodeError) as info:
+        nl.element("rlaod")
+    assert "rload" in info.value.suggestions
+
+
+def test_element_letters_and_their_terminals():
+    """Every element letter gets its node slots and pin roles."""
+    nl = parse_text(
+        "t\n"
+        "R1 a b r=1k\n"
+        "L1 a b 1u\n"
+        "V1 a 0 SIN(0 1 1k)\n"
+        "I1 a 0 PULSE(0 1m 0 1n 1n 1u 2u)\n"
+        "E1 o 0 a b 10\n"
+        "G1 o 0 a b 1m\n"
+        "E2 o 0 POLY(2) a 0 b 0 0 1 1\n"
+        "E3 o 0 VALUE = { V(a) * 2 }\n"
+        "G2 o 0 TABLE {V(a)} = (0,0) (1,1)\n"
+        "F1 o 0 Vsense 2\n"
+        "H1 o 0 POLY(2) Va Vb 0 1 1\n"
+        "B1 o 0 V = V(a) * V(b)\n"
+        "D1 a k dmod area=2\n"
+        "M1 d g s b nch w=1u l=1u\n"
+        "J1 d g s jmod\n"
+        "Z1 d g s zmod\n"
+        "S1 a b c d smod\n"
+        "W1 a b Vsense wmod\n"
+        "T1 a 0 b 0 z0=50 td=1n\n"
+        "O1 a 0 b 0 lmod\n"
+        "U1 a b 0 umod l=1m n=10\n"
+        "K1 L1 L2 0.9\n"
+        "X1 a b sub params: g=2\n"
+        "A1 [a b] y amod\n"
+        ".subckt sub p q params: g=1\n"
+        "R1 p q {g}\n"
+        ".ends\n"
+    )
+    got = {e.name: (e.nodes, e.pins) for e in nl.elements}
+    assert got["R1"] == (("a", "b"), ("p", "n"))
+    assert got["E1"] == (("o", "0", "a", "b"), ("p", "n", "cp", "cn"))
+    assert got["E2"] == (("o", "0", "a", "0", "b", "0"), ("p", "n", "cp1", "cn1", "cp2", "cn2"))
+    assert got["E3"] == (("o", "0"), ("p", "n"))
+    assert nl.element("e3").tokens[2] == "VALUE={ V(a) * 2 }"
+    assert got["G2"] == (("o", "0"), ("p", "n"))
+    assert got["F1"] == (("o", "0"), ("p", "n"))
+    assert nl.element("F1").model is None
+    assert controlling_sources(nl.element("F1")) == ("vsense",)
+    assert controlling_sources(nl.element("H1")) == ("va", "vb")
+    assert controlling_sources(nl.element("W1")) == ("vsense",)
+    assert got["D1"] == (("a", "k"), ("p", "n")) and nl.element("d1").model == "dmod"
+    assert got["M1"] == (("d", "g", "s", "b"), ("d", "g", "s", "b")) and nl.element("m1").model == "nch"
+    assert got["J1"][1] == ("d", "g", "s") and got["Z1"][1] == ("d", "g", "s")
+    assert got["S1"] == (("a", "b", "c", "d"), ("p", "n", "cp", "cn"))
+    assert got["W1"] == (("a", "b"), ("p", "n"))
+    assert len(got["T1"][0]) == 4 and len(got["O1"][0]) == 4 and len(got["U1"][0]) == 3
+    assert got["K1"] == ((), ())
+    assert got["X1"] == (("a", "b"), ("p", "q"))  # pins are the definition's pin names
+    assert nl.element("x1").model == "sub"
+    assert got["A1"][0] == ("a", "b", "y") and nl.element("a1").model == "amod"
+    assert nl.element("V1").tokens == ("a", "0", "SIN(0", "1", "1k)")  # source specs kept verbatim
+
+
+def test_bjt_substrate_node_resolved_by_model_names():
+    """Q cards have a 4th (substrate) node only when token 4 is not a known model, even if the model comes later."""
+    nl = parse_text("t\nQ1 c b e npn1\nQ2 c b e sub npn1\nQ3 c b e s qx\n.model npn1 npn\n.model qx pnp\n")
+    assert nl.element("q1").pins == ("c", "b", "e") and nl.element("q1").model == "npn1"
+    assert nl.element("q2").nodes == ("c", "b", "e", "sub") and nl.element("q2").model == "npn1"
+    assert nl.element("q3").nodes == ("c", "b", "e", "s")
+
+
+def test_x_card_parameters_and_params_keyword():
+    """An X card's subcircuit name is the last plain token: key=value and params: tokens are not nodes."""
+    nl = parse_text(
+        "t\n"
+        "X1 in out amp gain = 3 bw={2*f}\n"
+        "X2 in out params: x=1 amp\n"
+        "X3 in out w=1 l=2 amp\n"
+        ".subckt amp a b params: gain=1 bw=1\n"
+        ".param inner=2\n"
+        "R1 a b {gain*inner}\n"
+        ".ends amp\n"
+    )
+    x1 = nl.element("x1")
+    assert x1.nodes == ("in", "out") and x1.model == "amp" and x1.params == (("gain", "3"), ("bw", "{2*f}"))
+    x3 = nl.element("x3")
+    assert x3.nodes == ("in", "out") and x3.model == "amp"
+    sub = nl.subcircuits["amp"]
+    assert sub.pins == ("a", "b") and sub.params == (("gain", "1"), ("bw", "1"))
+    assert isinstance(sub.body[0], Directive) and sub.body[0].keyword == ".param"
+
+
+def test_nested_subcircuit_definitions():
+    """A .subckt inside a .subckt is kept in its parent's body and its instances find it."""
+    nl = parse_text(
+        "t\n.subckt outer a b\n.subckt inner p q\nR1 p q 1\n.ends inner\nXi a b inner\n.ends outer\nXo 1 2 outer\n"
+    )
+    outer = nl.subcircuits["outer"]
+    assert "inner" in outer.subcircuits and "inner" not in nl.subcircuits
+    assert outer.elements[0].pins == ("p", "q")
+    assert not nl.warnings
+
+
+def test_directives_kept_and_analyses_set_aside():
+    """Model, param, option and conditional statements are kept; analyses, output and .control blocks go to ignored."""
+    nl = parse_text(
+        "t\n.param r=1k\n.options reltol=1e-4\n.temp 50\n.func f(x) {2*x}\n.csparam a=1\n"
+        ".nodeset v(a)=1\n.ic v(a)=0\n.if (r > 1)\nR1 a 0 {r}\n.else\nR1 a 0 1\n.endif\n"
+        ".model dm d is=1e-14\n.op\n.ac dec 10 1 1g\n.tran 1n 1u\n.meas tran x max v(a)\n"
+        ".save all\n.print op v(a)\n.plot ac v(a)\n.four 1k v(a)\n.noise v(a) V1 dec 1 1 2\n"
+        ".control\nshell rm -rf /tmp/should-never-run\nrun\n.endc\n.end\nR99 never read 1\n"
+    )
+    kws = [d.keyword for d in nl.directives]
+    assert kws == [".param", ".options", ".temp", ".func", ".csparam", ".nodeset", ".ic", ".if", ".else", ".endif", ".model"]
+    ignored = [d.keyword for d in nl.ignored]
+    assert ignored == [".op", ".ac", ".tran", ".meas", ".save", ".print", ".plot", ".four", ".noise", ".control"]
+    control = nl.ignored[-1]
+    assert "shell rm" in control.text and control.location.line == 24
+    assert [e.name for e in nl.elements] == ["R1", "R1"]  # .end stops reading
+
+
+def test_includes_and_library_sections_relative_paths(tmp_path):
+    """.include and .lib resolve relative to the including file, read only the named section, and record files and sections."""
+    lib = tmp_path / "models"
+    lib.mkdir()
+    (lib / "corners.lib").write_text(
+        "* corner library\n.lib typ\n.param k=1\n.include 'parts/typ.inc'\n.endl typ\n"
+        ".lib slow\n.param k=2\nR_never a b 1\n.endl slow\n"
+    )
+    (lib / "parts").mkdir()
+    (lib / "parts" / "typ.inc").write_text("* typical parts\n.model dm d is=1e-14\n.subckt cell a b\nD1 a b dm\n.ends\n")
+    top = tmp_path / "top.cir"
+    top.write_text('top\n.lib "models/corners.lib" typ\n.inc models/parts/../parts/typ.inc\nX1 1 0 cell\n')
+    nl = parse_file(top)
+    assert nl.files[0] == str(top)
+    assert str(lib / "corners.lib") in nl.files and str(lib / "parts" / "typ.inc") in nl.files
+    assert nl.lib_sections == ((str(lib / "corners.lib"), "typ"),)
+    params = [d.text for d in nl.directives if d.keyword == ".param"]
+    assert params == [".param k=1"]  # the slow section is never read
+    assert nl.statements[1].location.file == str(lib / "parts" / "typ.inc")
+    assert "cell" in nl.subcircuits and nl.element("x1").pins == ("a", "b")
+
+
+def test_include_of_missing_file_names_the_line(tmp_path):
+    """An .include of a missing file is a NetlistError naming the including file and line."""
+    top = tmp_path / "top.cir"
+    top.write_text("t\nR1 a 0 1\n.include nothere.inc\n")
+    with pytest.raises(NetlistError, match=re.escape(f"{top}:3:1: cannot read") + ".*nothere.inc"):
+        parse_file(top)
+
+
+def test_missing_library_section(tmp_path):
+    """A .lib call naming a section the file lacks is a NetlistError listing the sections it has."""
+    (tmp_path / "l.lib").write_text(".lib tt\n.endl\n")
+    with pytest.raises(NetlistError, match="no section 'ff'.*tt"):
+        parse_text("t\n.lib l.lib ff\n", base_dir=str(tmp_path))
+
+
+def test_syntax_error_shows_file_line_column_and_caret():
+    """'R1 a' is a NetlistSyntaxError at file:line:column with the line, a caret and what was expected."""
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text("t\nR0 x 0 1\nR1 a\n", source="amp.cir")
+    msg = str(info.value)
+    assert msg.splitlines()[0] == "amp.cir:3:6: R1: expected 2 nodes and a value"
+    assert msg.splitlines()[1].strip() == "R1 a"
+    assert msg.splitlines()[2].index("^") == msg.splitlines()[1].index("R1") + 5
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        ("t\nM1 d g s nch\n", "expected 4 nodes and a model"),
+        ("t\nY1 a b 1\n", "unknown element type"),
+        ("t\n+ r=1\n", "continuation"),
+        ("t\n.subckt a p\nR1 p 0 1\n", "expected .ends"),
+        ("t\n.ends\n", ".ends without"),
+        ("t\nE1 o 0 POLY(2) a 0\n", "expected 4 controlling nodes"),
+        ("t\nX1 a b sub\n.subckt sub p\n.ends\n", "has 1 pins"),
+        ("t\nR1 a=1 b 1\n", "expected a node name"),
+    ],
+)
+def test_malformed_lines(text, expected):
+    """Each malformed construct gives a NetlistSyntaxError saying what was expected."""
+    with pytest.raises(NetlistSyntaxError, match=expected):
+        parse_text(text)
+
+
+def test_warnings_for_undefined_model_and_subcircuit():
+    """Undefined models and subcircuits are warnings with the card's location, not errors."""
+    nl = parse_text("t\nM1 d g 0 0 nope\nX1 a b missing\nD1 a 0 dm.3\n.model dm.3 d\n")
+    assert any("<string>:2:1" in w and "nope" in w for w in nl.warnings)
+    assert any("<string>:3:1" in w and "missing" in w for w in nl.warnings)
+    assert not any("dm.3" in w for w in nl.warnings)
+
+
+def test_records_are_frozen_records():
+    """Parsed statements are the frozen records of netloop.netlist.model."""
+    nl = parse_text("t\n.subckt s a\nR1 a 0 1\n.ends\nX1 n s\n")
+    assert isinstance(nl.statements[0], Subcircuit) and isinstance(nl.statements[1], Element)
+    with pytest.raises(AttributeError):
+        nl.statements[1].name = "X2"
