@@ -17,7 +17,7 @@ from scipy.optimize import brentq
 from netloop.analysis.response import Response
 from netloop.analysis.results import GainCrossover, PhaseCrossover
 
-__all__ = ["find_gain_crossovers", "find_phase_crossovers", "phase_margin_deg", "peaking_at_crossover"]
+__all__ = ["dc_phase_crossover", "find_gain_crossovers", "find_phase_crossovers", "phase_margin_deg", "peaking_at_crossover"]
 
 _XTOL = 1e-13
 
@@ -74,3 +74,10 @@ def find_phase_crossovers(resp: Response, floor_abs_db: float) -> tuple[tuple[Ph
             rec = PhaseCrossover(10.0**xr, float(target), gain, -gain, "upper" if gain < 0.0 else "lower")
             (kept if gain >= floor_abs_db else ignored).append(rec)
     return tuple(kept), tuple(ignored)
+
+
+def dc_phase_crossover(resp: Response) -> PhaseCrossover:
+    """The phase crossover at DC of a loop whose T(0) is negative real, read at the lowest frequency."""
+    phase = 180.0 + 360.0 * round((float(resp.phase_deg[0]) - 180.0) / 360.0)
+    gain = float(resp.gain_db[0])
+    return PhaseCrossover(0.0, phase, gain, -gain, "upper" if gain < 0.0 else "lower")

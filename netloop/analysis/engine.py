@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from netloop.analysis.closed_loop import closed_loop_peaking, modulus_margin
-from netloop.analysis.crossovers import find_gain_crossovers, find_phase_crossovers
+from netloop.analysis.crossovers import dc_phase_crossover, find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.margins import summarise_margins
 from netloop.analysis.nyquist import nyquist_verdict
 from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles
@@ -17,11 +17,12 @@ from netloop.errors import AnalysisError
 __all__ = ["DEFAULT_FLOOR_DB", "analyse"]
 
 DEFAULT_FLOOR_DB = -120.0
-"""Numerical floor of |T|, in dB relative to the larger of 0 dB and the largest |T| in the sweep.
+"""Numerical floor of |T| in dB, relative to the probe's unit injection (so an absolute level of |T|).
 
-The probe's T is a difference of node voltages of order 1 (the unit injection) divided by a
-quantity of order 1 / (1 + |T|); with the simulator's solutions good to about 1e-6 relative of
-the injected unit, |T| below -120 dB carries no phase information. Phase crossovers below the
+Where |T| is small, Tian's numerator -(va1 + ib2) is a small difference of node voltages and
+currents of the order of the unit injection, so its error is absolute, of the order of the
+simulator's precision relative to that unit; with solutions good to about 1e-6 of it, |T| below
+-120 dB carries no phase information. Phase crossovers below the
 floor are counted in LoopAnalysis.ignored_phase_crossovers and never become gain margins."""
 
 
@@ -38,7 +39,8 @@ def analyse(
 
     open_loop_rhp_poles  P, the poles of T in the right half plane (known from the design; 0 for
                          a loop made of stable blocks). Z = N + P decides stability.
-    floor_db             numerical floor, dB relative to max(0 dB, largest |T|) (DEFAULT_FLOOR_DB).
+    floor_db             numerical floor of |T| in dB (DEFAULT_FLOOR_DB); phase crossovers below it
+                         are ignored and counted.
     fit_poles            also fit the closed-loop poles (AAA on 1/(1+T)); a second verdict.
     pole_fit_rtol        relative tolerance of that fit.
 
@@ -47,8 +49,9 @@ def analyse(
       margin None, the Nyquist verdict stable (with P = 0).
     * |T| > 1 everywhere, or a sweep that ends before |T| falls below 1: no (final) crossover,
       a warning, and the Nyquist verdict marked unreliable.
-    * positive feedback at DC (T negative real at low frequency): a warning; the Nyquist count
-      still decides (|T(0)| > 1 is then unstable).
+    * positive feedback at DC (T negative real at low frequency): a warning, and a phase
+      crossover at freq_hz = 0.0 with the gain at the lowest frequency (T(0) lies on the negative
+      real axis); the Nyquist count decides (|T(0)| > 1 with P = 0 is unstable).
     * integrators (poles of T at s = 0): read from the low-frequency slope; the Nyquist contour
       detours to the right of s = 0 (see netloop.analysis.nyquist).
     * NaN or infinite T: AnalysisError naming the first bad frequency (never dropped).
@@ -57,11 +60,14 @@ def analyse(
         raise AnalysisError(f"open_loop_rhp_poles must be a whole number >= 0, got {open_loop_rhp_poles!r}")
     resp = Response.from_data(freq_hz, t)
     warnings: list[str] = []
-    floor_abs_db = float(floor_db) + max(0.0, float(np.max(resp.gain_db)))
+    floor_abs_db = float(floor_db)
 
     gains = find_gain_crossovers(resp)
     phases, ignored = find_phase_crossovers(resp, floor_abs_db)
-    nyquist, dc_sign = nyquist_verdict(resp, int(open_loop_rhp_poles))
+    nyquist, dc_sign = nyquist_verdict(resp, int(open_loop_rhp_poles), floor_abs_db)
+    if dc_sign == "negative" and nyquist.origin_poles == 0 and resp.gain_db[0] >= floor_abs_db:
+        # T(0) is real and negative: the curve starts on the negative real axis, a phase crossover at DC
+        phases = (dc_phase_crossover(resp), *phases)
     if nyquist.closed_loop_rhp_poles < 0:
         warnings.append(
             f"the Nyquist count gives {nyquist.closed_loop_rhp_poles} closed-loop RHP poles: "

@@ -15,8 +15,11 @@ image (T(-jw) = conj T(jw)). Two pieces are not sampled and are closed by assump
   (|T| < 1 with integrators, or |T| > 1 with zeros at the origin).
 
 Counting is by the angle of 1 + T (not of T): its total turn is -360 (Z - P) degrees, so the
-clockwise encirclements are N = Z - P and Z = N + P. Steps of the angle of 1 + T above 90 degrees
-between samples make the count unsafe and are reported. Far above crossover, where |T| sinks into
+clockwise encirclements are N = Z - P and Z = N + P. The angle is followed along the interpolated
+curve (16 points per sample interval, see netloop.analysis.response), which is trustworthy
+while T's own phase moves less than 60 degrees between samples; where it moves more (above the
+numerical floor), or where the angle of 1 + T still jumps by more than 90 degrees between
+neighbouring points (T passes very close to -1), the count is reported as unreliable. Far above crossover, where |T| sinks into
 numerical noise, 1 + T is close to 1 and the noise cannot change the count.
 """
 
@@ -35,6 +38,8 @@ TOP_LIMIT_DB = -20.0
 SLOPE_TOL_DB_PER_DEC = 6.0
 PHASE_TOL_DEG = 30.0
 _MAX_STEP_DEG = 90.0
+_MAX_T_STEP_DEG = 60.0
+_DENSE = 16
 _ARC_POINTS = 2001
 
 
@@ -63,19 +68,33 @@ def _bottom_arc(t0: complex, k: int) -> tuple[np.ndarray, float, str]:
     return arc, delta, "negative" if c == 180.0 else "positive"
 
 
-def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0) -> tuple[NyquistVerdict, str]:
+def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: float = -120.0) -> tuple[NyquistVerdict, str]:
     """Count encirclements of -1; returns the verdict and the sign of T's low-frequency asymptote."""
     reasons: list[str] = []
     t = resp.t
     z = 1.0 + t
-    steps = _wrap(np.diff(np.angle(z)))
+    # the samples must be dense enough for the interpolant: T's own phase may not step by more
+    # than _MAX_T_STEP_DEG between samples where |T| is above the numerical floor
+    t_steps = np.abs(np.diff(resp.phase_deg))
+    audible = (resp.gain_db[:-1] >= floor_abs_db) | (resp.gain_db[1:] >= floor_abs_db)
+    coarse = (t_steps > _MAX_T_STEP_DEG) & audible
+    if np.any(coarse):
+        i = int(np.argmax(coarse))
+        reasons.append(
+            f"the phase of T steps by more than {_MAX_T_STEP_DEG:g} deg between samples "
+            f"({int(coarse.sum())} place(s), first between {resp.freq_hz[i]:.4g} and {resp.freq_hz[i + 1]:.4g} Hz); "
+            "sample more densely there"
+        )
+    # count on the interpolated curve, _DENSE points per sample interval
+    xs = resp.dense_x(_DENSE)
+    zd = 1.0 + resp.t_at(xs)
+    steps = _wrap(np.diff(np.angle(zd)))
     big = np.abs(np.degrees(steps)) > _MAX_STEP_DEG
     if np.any(big):
         i = int(np.argmax(big))
         reasons.append(
-            f"the angle of 1 + T jumps by more than {_MAX_STEP_DEG:g} deg between samples "
-            f"({int(big.sum())} place(s), first between {resp.freq_hz[i]:.4g} and {resp.freq_hz[i + 1]:.4g} Hz); "
-            "sample more densely there"
+            f"the angle of 1 + T jumps by more than {_MAX_STEP_DEG:g} deg between neighbouring points "
+            f"near {10.0 ** xs[i]:.4g} Hz: T passes too close to -1 to count safely; sample more densely there"
         )
     data_turn = 2.0 * float(np.sum(steps))  # the data and its mirror image turn by the same amount
 

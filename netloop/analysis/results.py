@@ -75,7 +75,9 @@ class GainCrossover:
 class PhaseCrossover:
     """A frequency where T is real and negative (phase = -180 deg + k 360 deg).
 
-    freq_hz          where the phase crosses an odd multiple of 180 deg.
+    freq_hz          where the phase crosses an odd multiple of 180 deg; 0.0 for the crossover at
+                     DC of a loop with positive feedback at DC (T(0) negative real), whose gain is
+                     read at the lowest swept frequency.
     phase_deg        that odd multiple of 180, on the continuous branch (e.g. -180, -540, 180).
     gain_db          20 log10 |T| there.
     gain_margin_db   -gain_db: the change of loop gain, in dB, that would put -1 on the curve at
@@ -239,7 +241,8 @@ class LoopAnalysis:
     phase_crossovers         every phase crossover with |T| above the numerical floor.
     ignored_phase_crossovers phase crossovers where |T| is below floor_db: phase is noise there;
                              they are counted here and never used as gain margins.
-    floor_db                 the numerical floor used, as an absolute level of 20 log10 |T|.
+    floor_db                 the numerical floor used: a level of 20 log10 |T| (relative to the
+                             probe's unit injection) below which phase is noise.
     margins, peaking         see Margins, Peaking.
     second_order             SecondOrderEstimate from the worst PM; None when there is no gain
                              crossover or the worst PM is not in (0, 90) deg.

@@ -1,0 +1,108 @@
+"""Adaptive refinement: ask the caller for more samples around each crossover until the margins settle.
+
+The engine never simulates: the caller passes ``evaluate(new_freqs_hz) -> T`` (the probe layer
+re-simulates at exactly those frequencies). propose_frequencies() is the pure half of the job, so
+a caller can batch the proposals of several loops into one simulator call.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+
+from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse
+from netloop.analysis.results import LoopAnalysis, Refinement
+from netloop.errors import AnalysisError
+
+__all__ = ["propose_frequencies", "refine"]
+
+
+def _brackets(analysis: LoopAnalysis) -> list[int]:
+    """Indices i such that a crossover lies in [f_i, f_i+1]."""
+    f = analysis.freq_hz
+    events = [c.freq_hz for c in analysis.gain_crossovers] + [c.freq_hz for c in analysis.phase_crossovers]
+    idx = np.clip(np.searchsorted(f, events, side="right") - 1, 0, f.size - 2)
+    return sorted(set(int(i) for i in idx))
+
+
+def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: LoopAnalysis | None = None, **analyse_kwargs) -> np.ndarray:
+    """New frequencies (Hz, ascending, none already sampled) that subdivide each crossover's interval and its neighbours.
+
+    Each interval [f_i, f_i+1] that holds a gain or phase crossover (above the floor), and the
+    interval on either side of it, is split into points_per_interval + 1 equal steps in log f.
+    Returns an empty array when there is no crossover.
+    """
+    if analysis is None:
+        analysis = analyse(freq_hz, t, fit_poles=False, **analyse_kwargs)
+    x = np.log10(analysis.freq_hz)
+    chosen: set[int] = set()
+    for i in _brackets(analysis):
+        chosen.update(j for j in (i - 1, i, i + 1) if 0 <= j < x.size - 1)
+    frac = np.arange(1, points_per_interval + 1) / (points_per_interval + 1)
+    new = [x[j] + (x[j + 1] - x[j]) * frac for j in sorted(chosen)]
+    if not new:
+        return np.empty(0)
+    out = 10.0 ** np.concatenate(new)
+    out = out[~np.isin(out, analysis.freq_hz)]
+    return np.unique(out)
+
+
+def _merge(f: np.ndarray, t: np.ndarray, f_new: np.ndarray, t_new: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    ff = np.concatenate([f, f_new])
+    tt = np.concatenate([t, t_new])
+    order = np.argsort(ff, kind="stable")
+    ff, tt = ff[order], tt[order]
+    keep = np.concatenate([[True], np.diff(ff) > 0])
+    return ff[keep], tt[keep]
+
+
+def _pms(a: LoopAnalysis) -> np.ndarray:
+    return np.array([c.phase_margin_deg for c in a.gain_crossovers])
+
+
+def refine(
+    evaluate: Callable[[np.ndarray], np.ndarray],
+    freq_hz,
+    t,
+    *,
+    tol_deg: float = 1e-4,
+    max_rounds: int = 8,
+    points_per_interval: int = 3,
+    open_loop_rhp_poles: int = 0,
+    floor_db: float = DEFAULT_FLOOR_DB,
+    fit_poles: bool = True,
+) -> Refinement:
+    """Add samples around every crossover until each phase margin moves by less than tol_deg in a round.
+
+    evaluate(new_freqs_hz) must return T at exactly those frequencies (same length, complex);
+    AnalysisError otherwise. A round whose crossovers differ in number from the previous one is
+    never taken as converged. The returned analysis is of all samples merged (fit_poles as given).
+    """
+    kwargs = {"open_loop_rhp_poles": open_loop_rhp_poles, "floor_db": floor_db}
+    f = np.asarray(freq_hz, dtype=float)
+    tt = np.asarray(t, dtype=complex)
+    current = analyse(f, tt, fit_poles=False, **kwargs)
+    rounds = added = 0
+    change: float | None = None
+    converged = not current.gain_crossovers
+    while not converged and rounds < max_rounds:
+        new = propose_frequencies(f, tt, points_per_interval=points_per_interval, analysis=current)
+        if new.size == 0:
+            break
+        t_new = np.asarray(evaluate(new), dtype=complex)
+        if t_new.shape != new.shape:
+            raise AnalysisError(f"evaluate() returned {t_new.shape} values for {new.size} frequencies; expected one T per frequency")
+        f, tt = _merge(f, tt, new, t_new)
+        rounds += 1
+        added += int(new.size)
+        previous = current
+        current = analyse(f, tt, fit_poles=False, **kwargs)
+        before, after = _pms(previous), _pms(current)
+        if before.size == after.size and after.size:
+            change = float(np.max(np.abs(after - before)))
+            converged = change < tol_deg
+        else:
+            change = None
+    final = analyse(f, tt, fit_poles=fit_poles, **kwargs) if fit_poles else current
+    return Refinement(final, rounds, added, converged, change)
