@@ -1,0 +1,142 @@
+"""break_loop: split a node into a driver side and a load side and insert the two-run probe between them."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from netloop.errors import ProbeError
+from netloop.netlist.location import SourceLocation
+from netloop.netlist.model import Element, Netlist, Subcircuit
+from netloop.probe.loops import connectivity, loop_report
+from netloop.probe.records import ProbedNetlist, ProbeVectors
+from netloop.probe.rewrite import fresh_name, split_node
+from netloop.probe.scope import GROUND_NAMES, elements_of, resolve_node, walk_scopes
+from netloop.probe.sides import ac_ground_nodes, decide_sides, terminals_at
+from netloop.probe.silence import silence_statements
+
+__all__ = ["break_loop"]
+
+SERIES_NAME = "vnl_series"
+SHUNT_NAME = "inl_shunt"
+DRIVE_SUFFIX = "_drive"
+
+
+def _subckt_names(statements) -> set[str]:
+    names: set[str] = set()
+    for s in statements:
+        if isinstance(s, Subcircuit):
+            names.add(s.name)
+            names |= _subckt_names(s.body)
+    return names
+
+
+def _probe_elements(series: str, shunt: str, node_a: str, node_b: str, where: SourceLocation) -> tuple[Element, Element]:
+    # v_b - v_a = v_s: + on the load side. The shunt pushes current from ground through itself into a.
+    v = Element(series, (node_b, node_a, "dc", "0", "ac", "0"), (0, 1), ("p", "n"), where)
+    i = Element(shunt, ("0", node_a, "dc", "0", "ac", "0"), (0, 1), ("p", "n"), where)
+    return v, i
+
+
+def _tied_by(netlist: Netlist, flat: str, globals_: frozenset[str]) -> str:
+    if flat in GROUND_NAMES:
+        return "it is ground"
+    if flat in globals_:
+        return "it is a .global net"
+    for scope in walk_scopes(netlist, globals_):
+        for e in elements_of(netlist, scope):
+            if e.kind == "V" and flat in (scope.flat(n, globals_) for n in e.nodes):
+                return f"it is tied to ground by the independent voltage source {scope.label(e)}"
+    return "it is tied to ground by independent voltage sources"
+
+
+def break_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> ProbedNetlist:
+    """Split node ``at`` into a driver side a and a load side b and insert the probe; the input is not modified.
+
+    ``driver="ELEMENT[.PIN],..."`` chooses the driver side; by default it is decided from the circuit
+    (``decided_by`` says how). Raises UnknownNodeError for a node the netlist lacks and ProbeError
+    for ground, a supply, a node with one connection, no driver, or a node on no loop.
+    """
+    given = at.strip().lower()
+    globals_ = frozenset(netlist.globals)
+    scope, node = resolve_node(netlist, given, globals_)
+    ac_ground = ac_ground_nodes(netlist, globals_)
+    flat = scope.flat(node, globals_)
+    if flat in ac_ground:
+        raise ProbeError(f"cannot break node {given}: {_tied_by(netlist, flat, globals_)}, so it is AC ground or a supply, not a loop node")
+    terminals = terminals_at(netlist, scope, node, ac_ground, globals_)
+    if len(terminals) < 2:
+        which = terminals[0].label if terminals else "nothing"
+        raise ProbeError(f"cannot break node {given}: it has one connection ({which}), so no loop passes through it")
+    split = decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_)
+
+    local_nodes = {n for e in elements_of(netlist, scope) for n in e.nodes}
+    node_a = fresh_name(node + DRIVE_SUFFIX, set(local_nodes) | ({*scope.definitions[-1].pins} if scope.definitions else set()))
+    names = {e.key for e in elements_of(netlist, scope)}
+    series = fresh_name(SERIES_NAME, names)
+    shunt = fresh_name(SHUNT_NAME, names)
+    first = split.driver[0].element.location
+    probe = _probe_elements(series, shunt, node_a, node, first)
+    moves = {(t.element.key, t.slot): node_a for t in split.driver}
+    rewrite = split_node(netlist.statements, scope, moves, probe, _subckt_names(netlist.statements))
+
+    statements, hits = silence_statements(rewrite.statements, frozenset())
+    new = replace(netlist, statements=statements, _index={})
+
+    # flattened names in the new netlist: the copied path keeps its instance names
+    new_scope = next(s for s in walk_scopes(new, globals_) if s.path == scope.path)
+    side_a, side_b = new_scope.flat(node_a, globals_), new_scope.flat(node, globals_)
+    probe_labels = frozenset(new_scope.label(e) for e in probe)
+    graph = connectivity(new, globals_, ac_ground, probe_labels)
+    on_loop, loops, others = loop_report(graph, side_a, side_b)
+    if not on_loop:
+        raise ProbeError(
+            f"node {given} is not on any loop: after the split no path leads from its load side "
+            f"({', '.join(t.label for t in split.load)}) back to its driver side ({', '.join(t.label for t in split.driver)}) "
+            "without passing through ground or a supply"
+        )
+    warnings = []
+    if len(loops) > 1:
+        warnings.append(
+            f"node {given} feeds {len(loops)} loops through its load side ({', '.join(loops)}): the break measures them "
+            "together, and which terminals sit on the driver side changes T; choose with driver="
+        )
+    if others:
+        warnings.append(
+            f"the load side of {given} also feeds other circuits that do not return to the driver ({', '.join(others)}), "
+            "e.g. a bias node shared by several amplifiers: their loading is included, and the split changes T; choose with driver="
+        )
+
+    silenced = []
+    hit_set = set(hits)
+    for s in walk_scopes(new, globals_):
+        container = s.definitions[-1].name if s.definitions else ""
+        for e in elements_of(new, s):
+            if (container, e.key) in hit_set:
+                silenced.append(s.flat_element(e))
+    vectors = ProbeVectors(
+        va=f"v({side_a})",
+        vb=f"v({side_b})",
+        i_series=f"i({new_scope.flat_element(probe[0])})",
+        node_a=side_a,
+        node_b=side_b,
+        branch=f"{new_scope.flat_element(probe[0])}#branch",
+    )
+    return ProbedNetlist(
+        netlist=new,
+        node=given,
+        side_a=side_a,
+        side_b=side_b,
+        series_source=new_scope.flat_element(probe[0]),
+        shunt_source=new_scope.flat_element(probe[1]),
+        vectors=vectors,
+        driver_terminals=tuple(t.label for t in split.driver),
+        load_terminals=tuple(t.label for t in split.load),
+        shunt_terminals=tuple(t.label for t in split.shunt),
+        decided_by=split.decided_by,
+        silenced_sources=tuple(silenced),
+        warnings=tuple(warnings),
+        copied_subcircuits=rewrite.copies,
+    )
+
+
+

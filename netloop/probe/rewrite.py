@@ -1,0 +1,94 @@
+"""Split a node and insert the probe sources, copying the subcircuit definitions on the path of one instance."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+from netloop.netlist.model import Element, Statement, Subcircuit
+from netloop.probe.scope import Scope
+
+__all__ = ["Rewrite", "fresh_name", "split_node"]
+
+
+@dataclass(frozen=True, slots=True)
+class Rewrite:
+    statements: tuple[Statement, ...]
+    copies: tuple[tuple[str, str], ...]  # (original subcircuit, its copy for this instance)
+
+
+def fresh_name(base: str, taken: set[str]) -> str:
+    """``base`` or ``base_2``, ``base_3``... whichever is not taken; the result is added to ``taken``."""
+    name, k = base, 1
+    while name in taken:
+        k += 1
+        name = f"{base}_{k}"
+    taken.add(name)
+    return name
+
+
+def _with_model(e: Element, model: str) -> Element:
+    """An X line pointing at another subcircuit."""
+    toks = list(e.tokens)
+    at = len(e.node_slots)
+    if at >= len(toks) or toks[at].lower() != (e.model or "").lower():
+        at = next(i for i, t in enumerate(toks) if t.lower() == (e.model or "").lower() and i >= len(e.node_slots))
+    toks[at] = model
+    return replace(e, tokens=tuple(toks), model=model)
+
+
+def _split_body(body: tuple[Statement, ...], moves: dict[tuple[str, int], str], probe: tuple[Element, ...]) -> tuple[Statement, ...]:
+    """Move the chosen (element, slot) terminals to the new node and add the probe after the last element."""
+    out: list[Statement] = []
+    last = -1
+    for s in body:
+        if isinstance(s, Element):
+            slots = [k for (key, k) in moves if key == s.key]
+            if slots:
+                nodes = list(s.nodes)
+                for k in slots:
+                    nodes[k] = moves[(s.key, k)]
+                s = s.with_nodes(tuple(nodes))
+            last = len(out)
+        out.append(s)
+    out[last + 1:last + 1] = probe
+    return tuple(out)
+
+
+def _rebody(body: tuple[Statement, ...], instance: str | None, model: str | None, inserts: list[tuple[str, Subcircuit]]) -> tuple[Statement, ...]:
+    out: list[Statement] = []
+    for s in body:
+        if isinstance(s, Element) and instance is not None and s.key == instance:
+            s = _with_model(s, model)
+        out.append(s)
+        if isinstance(s, Subcircuit):
+            out.extend(copy for original, copy in inserts if original == s.name)
+    return tuple(out)
+
+
+def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tuple[str, int], str], probe: tuple[Element, ...], taken: set[str]) -> Rewrite:
+    """New statements: in the node's scope the driver terminals move to the new node and the probe is added.
+
+    Inside an instance, each definition on the instance path is copied under a new name, so that
+    other instances of the same subcircuit stay untouched.
+    """
+    if not scope.path:
+        return Rewrite(_split_body(statements, moves, probe), ())
+    defs = scope.definitions
+    k = len(defs)
+    inserts: dict[int, list[tuple[str, Subcircuit]]] = {}  # container level (-1 top) -> copies to add
+    copies: list[tuple[str, str]] = []
+    new_def: Subcircuit | None = None
+    for j in range(k - 1, -1, -1):
+        d = defs[j]
+        name = fresh_name(f"{d.name}_broken_in_{'_'.join(scope.path[:j + 1])}", taken)
+        if j == k - 1:
+            body = _split_body(d.body, moves, probe)
+        else:
+            body = d.body
+        body = _rebody(body, scope.path[j + 1] if j + 1 < k else None, new_def.name if new_def and j + 1 < k else None, inserts.pop(j, []))
+        new_def = replace(d, name=name, body=body, header="")
+        copies.append((d.name, name))
+        container = next((m for m in range(j - 1, -1, -1) if d.name in defs[m].subcircuits), -1)
+        inserts.setdefault(container, []).append((d.name, new_def))
+    top = _rebody(statements, scope.path[0], new_def.name, inserts.pop(-1, []))
+    return Rewrite(top, tuple(reversed(copies)))

@@ -1,0 +1,206 @@
+"""How break_loop splits a node: driver side, load side, copies for one instance, stray AC sources, warnings."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.errors import NetlistError, ProbeError, UnknownNodeError
+from netloop.netlist import parse_file, parse_text, write_netlist
+from netloop.probe import break_loop
+
+# An invented two-instance netlist: a common-source stage with a follower and local feedback,
+# instantiated twice (xa, xb). Model cards are INVENTED for this test.
+HIER = """hierarchical test: two copies of one stage
+.model nch nmos level=1 vto=0.5 kp=200u lambda=0.05
+.subckt stage in out vdd
+Rin in g 10k
+M1 n5 g 0 0 nch w=10u l=1u
+Rd vdd n5 20k
+Cd n5 0 50f
+M2 vdd n5 out 0 nch w=10u l=1u
+Rs out 0 20k
+Rf out g 100k
+.ends
+Vdd vdd 0 dc 3.3
+Vin in 0 dc 1 ac 1 sin(1 0.1 1k)
+Iaux 0 out dc 0 ac 2 45
+xa in mid vdd stage
+xb mid out vdd stage
+"""
+
+
+def test_miller_buffer_sides(circuits):
+    """On the Miller buffer the output drains drive 'out', Cc/Rz ride with them, the input gate loads it, CL may go either side."""
+    nl = parse_file(circuits / "miller_buffer.cir")
+    p = break_loop(nl, "out")
+    assert set(p.driver_terminals) == {"m6.d", "m7.d", "cc.n"}  # the circuit's own comment names M6, M7 and Cc/Rz as the driver
+    assert p.load_terminals == ("m1.g",)
+    assert p.shunt_terminals == ("cl.p",)
+    assert "either side" in p.decided_by and "m6.d" in p.decided_by
+    assert p.side_a == "out_drive" and p.side_b == "out"
+    assert p.series_source == "vnl_series" and p.shunt_source == "inl_shunt"
+    assert p.vectors.save == ("v(out_drive)", "v(out)", "i(vnl_series)")
+    assert p.warnings == ()
+
+
+def test_input_netlist_untouched(circuits):
+    """The input Netlist is equal to a fresh parse after the break (nothing is modified in place)."""
+    nl = parse_file(circuits / "miller_buffer.cir")
+    before = write_netlist(nl)
+    break_loop(nl, "out")
+    assert write_netlist(nl) == before
+    assert nl == parse_file(circuits / "miller_buffer.cir")
+
+
+def test_only_moved_terminals_change(circuits):
+    """Every element keeps every connection except the driver terminals, which move to side a; two sources are added."""
+    nl = parse_file(circuits / "miller_buffer.cir")
+    p = break_loop(nl, "out")
+    old = {e.key: e for e in nl.elements}
+    new = {e.key: e for e in p.netlist.elements}
+    assert set(new) - set(old) == {"vnl_series", "inl_shunt"}
+    moved = {t.split(".")[0] for t in p.driver_terminals}
+    for key, e in old.items():
+        if key == "vin":
+            continue
+        if key in moved:
+            assert new[key].nodes == tuple("out_drive" if n == "out" else n for n in e.nodes)
+        else:
+            assert new[key] == e
+    assert new["vnl_series"].nodes == ("out", "out_drive")  # v_b - v_a = v_s (DEVELOPERS.md sign convention)
+    assert new["inl_shunt"].nodes == ("0", "out_drive")  # pushes current into a
+
+
+def test_stray_ac_sources_silenced():
+    """Every independent source other than the probe gets AC 0; DC values and transient specs stay as written."""
+    nl = parse_text(HIER)
+    p = break_loop(nl, "xa.n5")
+    text = write_netlist(p.netlist)
+    assert "Vin in 0 dc 1 ac 0 sin(1 0.1 1k)" in text
+    assert "Iaux 0 out dc 0 ac 0" in text and "45" not in text.split("Iaux")[1].splitlines()[0]
+    assert "Vdd vdd 0 dc 3.3" in text
+    assert set(p.silenced_sources) == {"vin", "iaux"}
+
+
+def test_break_inside_one_instance():
+    """A node inside xa is broken in a copy of the definition; xb and the original definition are untouched."""
+    nl = parse_text(HIER)
+    p = break_loop(nl, "xa.n5")
+    assert p.node == "xa.n5"
+    assert p.side_b == "xa.n5" and p.side_a == "xa.n5_drive"  # ngspice names inner nodes path.node (checked by 'op' in test_operating_point)
+    assert p.series_source == "v.xa.vnl_series" and p.shunt_source == "i.xa.inl_shunt"
+    assert p.driver_terminals == ("xa.m1.d",)
+    assert p.load_terminals == ("xa.m2.g",)
+    assert set(p.shunt_terminals) == {"xa.rd.n", "xa.cd.p"}
+    assert p.copied_subcircuits == (("stage", "stage_broken_in_xa"),)
+    orig = write_netlist(nl).splitlines()
+    new = write_netlist(p.netlist).splitlines()
+    assert "xb mid out vdd stage" in new  # the other instance still uses the original definition
+    assert "xa in mid vdd stage_broken_in_xa" in new
+    start = orig.index(".subckt stage in out vdd")
+    block = orig[start:orig.index(".ends stage", start) + 1]
+    at = new.index(".subckt stage in out vdd")
+    assert new[at:at + len(block)] == block  # original definition unchanged
+
+
+def test_pin_name_resolves_to_parent_net():
+    """A hierarchical name that is a pin of its instance (xa.out) is the parent net (mid), split at the top level by whole pins."""
+    nl = parse_text(HIER)
+    # inside xa the follower's source drives pin out; xb.in loads mid; xa's own feedback stays inside the pin
+    with pytest.raises(ProbeError, match=r"node xa\.out is not on any loop: .*\(xb\.in\) back to its driver side \(xa\.out\)"):
+        break_loop(nl, "xa.out")
+    looped = parse_text(HIER.replace("Vin in 0", "Rsrc src in 10k\nVin src 0") + "Rback out in 1meg\n")  # a global path from xb's output back to xa's input
+    p = break_loop(looped, "xa.out")
+    assert p.side_b == "mid" and p.side_a == "mid_drive" and p.copied_subcircuits == ()
+    assert p.driver_terminals == ("xa.out",) and p.load_terminals == ("xb.in",)
+
+
+def test_driver_override():
+    """driver= puts exactly the named terminals on side a, and the sentence says so."""
+    nl = parse_text(HIER)
+    p = break_loop(nl, "xa.n5", driver="m1.d,rd")
+    assert p.driver_terminals == ("xa.m1.d", "xa.rd.n")
+    assert "driver=" in p.decided_by
+
+
+def test_driver_override_unknown():
+    """A driver= naming nothing on the node is a ProbeError listing the terminals there."""
+    nl = parse_text(HIER)
+    with pytest.raises(ProbeError, match=r"driver 'm9' has no terminal on node xa\.n5; terminals there: .*xa\.m1\.d"):
+        break_loop(nl, "xa.n5", driver="m9")
+
+
+def test_ground_and_supply_rejected():
+    """Ground, a node tied to ground by an independent V source and a .global net cannot be broken."""
+    nl = parse_text(HIER)
+    with pytest.raises(ProbeError, match="it is ground"):
+        break_loop(nl, "0")
+    with pytest.raises(ProbeError, match="independent voltage source vdd"):
+        break_loop(nl, "vdd")
+    with pytest.raises(ProbeError, match="independent voltage source vdd"):
+        break_loop(nl, "xa.vdd")
+    g = parse_text(HIER.replace(".model", ".global vss\n.model") + "Rx mid vss 1k\n")
+    with pytest.raises(ProbeError, match=r"\.global net"):
+        break_loop(g, "vss")
+
+
+def test_unknown_node_suggests():
+    """An unknown node is an UnknownNodeError (a NetlistError) suggesting close names."""
+    nl = parse_text(HIER)
+    with pytest.raises(UnknownNodeError, match=r"unknown node 'xa\.n6'; did you mean 'xa\.n5'") as info:
+        break_loop(nl, "xa.n6")
+    assert isinstance(info.value, NetlistError)
+
+
+def test_one_connection_rejected():
+    """A node with one connection is a ProbeError saying so."""
+    nl = parse_text(HIER + "Rdang out dangle 1k\n")
+    with pytest.raises(ProbeError, match=r"dangle: it has one connection \(rdang\.n\)"):
+        break_loop(nl, "dangle")
+
+
+def test_node_not_on_loop():
+    """A node whose load side never returns to its driver is a ProbeError naming both sides."""
+    text = "open chain\nVin in 0 dc 0 ac 1\nE1 mid 0 in 0 10\nR1 mid out 1k\nR2 out 0 1k\n"
+    with pytest.raises(ProbeError, match=r"node mid is not on any loop: .*\(r1\.p\) back to its driver side \(e1\.p\)"):
+        break_loop(parse_text(text), "mid")
+
+
+def test_no_driver_found():
+    """A node joined only by passive parts is a ProbeError listing candidates and pointing at driver=."""
+    text = "passive ring\nVin in 0 dc 0 ac 1\nE1 x 0 y 0 2\nR1 x n 1k\nR2 n y 1k\nR3 y 0 1k\n"
+    with pytest.raises(ProbeError, match=r"no driver found for node n: .*candidates: r1\.n, r2\.p; name the driver with driver="):
+        break_loop(parse_text(text), "n")
+    p = break_loop(parse_text(text), "n", driver="r1")
+    assert p.driver_terminals == ("r1.n",) and p.load_terminals == ("r2.p",)
+
+
+SHARED_BIAS = """bias node shared by two amplifiers (invented)
+.model nch nmos level=1 vto=0.5 kp=200u lambda=0.05
+Vdd vdd 0 dc 3.3
+Ib vdd nb dc 20u
+M0 nb nb 0 0 nch w=10u l=1u
+M1 o1 nb 0 0 nch w=10u l=1u
+R1 vdd o1 50k
+M2 o2 nb 0 0 nch w=10u l=1u
+R2 vdd o2 50k
+M3 q o1 0 0 nch w=10u l=1u
+Rq vdd q 10k
+"""
+
+
+def test_shared_bias_node_warns():
+    """A bias node feeding two amplifiers warns that the split changes T and driver= chooses."""
+    p = break_loop(parse_text(SHARED_BIAS), "nb")
+    assert p.driver_terminals == ("m0.d",)
+    assert set(p.load_terminals) == {"m0.g", "m1.g", "m2.g"}
+    assert len(p.warnings) == 1
+    assert "other circuits" in p.warnings[0] and "m1" in p.warnings[0] and "m2" in p.warnings[0] and "driver=" in p.warnings[0]
+
+
+def test_several_loops_warn():
+    """A load side that returns to the driver through two separate paths warns about several loops."""
+    text = "two loops\nVin in 0 dc 0 ac 1\nG1 0 out x 0 1m\nRo out 0 10k\nE1 x 0 y 0 -1\nR1 out y 1k\nR2 y 0 1k\nE2 x2 0 out 0 1\nR3 x2 x 1k\n"
+    p = break_loop(parse_text(text), "out")
+    assert set(p.load_terminals) == {"r1.p", "e2.cp"}
+    assert any("feeds 2 loops" in w for w in p.warnings)
