@@ -18,8 +18,9 @@ from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck
 from netloop.sim.library import find_ngspice_binary
-from netloop.sim.output import error_lines, op_failed, tail
+from netloop.sim.output import op_failed, summary, tail
 from netloop.sim.rawfile import RawPlot, read_raw
+from netloop.sim.vectors import unknown_saves
 
 __all__ = ["BatchSimulator"]
 
@@ -62,13 +63,17 @@ class BatchSimulator:
                 log.extend(lines)
                 op = _op_plot(Path(work) / OP_RAW)
                 if op is None:
-                    bad = error_lines(lines)
                     if op_failed(lines):
-                        said = " | ".join(bad[-4:])
+                        said = summary(lines)
                         continue
                     path = keep_deck(deck, job.label, self.keep_dir)
-                    reason = " | ".join(bad[:6]) or tail(lines, 6).replace("\n", " | ")
+                    reason = summary(lines) or tail(lines, 6).replace("\n", " | ")
                     raise SimulationError(f"ngspice could not run the deck: {reason}", path, tail(log, 60), job.label or None)
+                missing = unknown_saves(job.save, op.names)
+                said = summary(lines)
+                if missing or said:  # e.g. 'alter' of a source the circuit lacks: ngspice goes on regardless
+                    path = keep_deck(deck, job.label, self.keep_dir)
+                    raise SimulationError(missing or f"ngspice reported errors: {said}", path, tail(log, 60), job.label or None)
                 runs = self._runs(job, Path(work), lines, deck, log)
             deck_path = keep_deck(deck, job.label, self.keep_dir) if self.keep_dir is not None else None
             return SimResult(
@@ -104,8 +109,13 @@ class BatchSimulator:
             ) from exc
         except OSError as exc:
             raise SimulatorUnavailableError(f"cannot run {self.binary}: {exc}") from exc
-        text = done.stdout.decode("utf-8", errors="replace")
-        return text.splitlines()
+        lines = done.stdout.decode("utf-8", errors="replace").splitlines()
+        # ngspice -b exits 1 after a deck whose analyses are all in .control, so only a signal
+        # (a crash) is judged from the return code; failures are judged from its error lines.
+        if done.returncode < 0:
+            path = keep_deck(deck, job.label, self.keep_dir)
+            raise SimulationError(f"ngspice crashed (signal {-done.returncode})", path, tail(lines, 40), job.label or None)
+        return lines
 
     def _runs(self, job: SimJob, work: Path, lines: list[str], deck: str, log: list[str]) -> tuple[RunResult, ...]:
         saves = tuple(save_key(s) for s in job.save)
@@ -116,7 +126,7 @@ class BatchSimulator:
                 plot = _first_plot(work / raw_name(r, s))
                 if plot is None or "frequency" not in plot.data or plot.data["frequency"].size == 0:
                     path = keep_deck(deck, job.label, self.keep_dir)
-                    bad = " | ".join(error_lines(lines)[:6]) or "no error message"
+                    bad = summary(lines) or "no error message"
                     raise SimulationError(f"ngspice's ac analysis of run {run.name!r} failed: {bad}", path, tail(log, 60), job.label or None)
                 vectors = {}
                 for key in saves:
@@ -162,8 +172,10 @@ def _raw_key(key: str) -> str:
 
 def _node_voltages(plot: RawPlot) -> dict[str, float]:
     out = {}
+    # ngspice 39's 'write' of a plot holding a single vector adds a copy of it named "all".
+    phantom = "v(all)" if len(plot.names) == 2 and plot.names[1] == "v(all)" else None
     for name, kind in zip(plot.names, plot.types):
-        if kind != "voltage" or "#" in name:
+        if kind != "voltage" or "#" in name or name == phantom:
             continue
         node = name[2:-1] if name.startswith("v(") and name.endswith(")") else name
         out[node] = float(np.real(plot.data[name][0]))

@@ -12,6 +12,7 @@ from typing import Literal
 import jinja2
 
 from netloop.errors import SimulationError
+from netloop.sim.frequency import sweep_problem
 from netloop.sim.job import AcSweep, SimJob
 
 __all__ = ["Step", "control_steps", "excited_sources", "format_number", "render_deck", "save_key", "strip_end"]
@@ -81,10 +82,9 @@ def excited_sources(job: SimJob) -> tuple[str, ...]:
 
 
 def _sweep_command(sweep: AcSweep) -> str:
-    if sweep.kind not in ("dec", "lin"):
-        raise SimulationError(f"ac sweep kind must be 'dec' or 'lin', not {sweep.kind!r}")
-    if int(sweep.points) < 1 or not (0 < sweep.fstart_hz <= sweep.fstop_hz):
-        raise SimulationError(f"bad ac sweep {sweep}: need points >= 1 and 0 < fstart_hz <= fstop_hz")
+    problem = sweep_problem(sweep)
+    if problem:
+        raise SimulationError(f"bad ac sweep {sweep}: {problem}")
     return f"ac {sweep.kind} {int(sweep.points)} {format_number(sweep.fstart_hz)} {format_number(sweep.fstop_hz)}"
 
 

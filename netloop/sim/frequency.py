@@ -14,32 +14,45 @@ __all__ = ["merge_sweeps", "sweep_frequencies"]
 _RELTOL = 1e-3  # ngspice's default RELTOL, which its ac loop uses as the end tolerance (acan.c)
 
 
-def sweep_frequencies(sweep: AcSweep) -> np.ndarray:
-    """The points ngspice's ``ac`` visits for ``sweep``: start, then steps while f <= stop (+ a tolerance)."""
+def sweep_problem(sweep: AcSweep) -> str | None:
+    """Why ngspice 39 cannot run ``sweep`` as meant, or None when it can."""
     start, stop, points = float(sweep.fstart_hz), float(sweep.fstop_hz), int(sweep.points)
-    if points < 1 or start <= 0 or stop < start:
-        raise ValueError(f"bad ac sweep {sweep}: need points >= 1 and 0 < fstart_hz <= fstop_hz")
+    if sweep.kind not in ("dec", "lin"):
+        return f"sweep kind must be 'dec' or 'lin', not {sweep.kind!r}"
+    if points < 1 or not (math.isfinite(start) and math.isfinite(stop)) or start <= 0 or stop < start:
+        return "need points >= 1 and 0 < fstart_hz <= fstop_hz"
+    if sweep.kind == "dec" and math.floor(abs(math.log10(stop / start)) * points) < 1:
+        return "a 'dec' sweep needs fstop_hz/fstart_hz >= 10**(1/points) (ngspice 39 hangs or returns nothing otherwise)"
+    if sweep.kind == "lin" and points == 2:
+        return "ngspice 39 runs 'ac lin 2' as a single point; use 1 or at least 3 points"
+    return None
+
+
+def sweep_frequencies(sweep: AcSweep) -> np.ndarray:
+    """The points ngspice 39's ``ac`` visits for ``sweep`` (its acan.c stepping, tolerance included)."""
+    problem = sweep_problem(sweep)
+    if problem:
+        raise ValueError(f"bad ac sweep {sweep}: {problem}")
+    start, stop, points = float(sweep.fstart_hz), float(sweep.fstop_hz), int(sweep.points)
+    out = []
+    freq = start
     if sweep.kind == "dec":
-        delta = math.exp(math.log(10.0) / points)
+        # ngspice 39 spreads whole steps evenly so that the last point is fstop.
+        steps = math.floor(abs(math.log10(stop / start)) * points)
+        delta = math.exp(math.log(stop / start) / steps)
         tol = delta * stop * _RELTOL
-        out = []
-        freq = start
         while freq <= stop + tol:
             out.append(freq)
             freq *= delta
-        return np.asarray(out, dtype=float)
-    if sweep.kind == "lin":
-        if points == 1:
-            return np.asarray([start])
-        delta = (stop - start) / (points - 1)
+    else:
+        delta = (stop - start) / (points - 1) if points - 1 > 1 else 0.0
         tol = delta * _RELTOL
-        out = []
-        freq = start
-        while freq <= stop + tol and len(out) < points:
+        while freq <= stop + tol:
             out.append(freq)
+            if delta == 0.0:
+                break
             freq += delta
-        return np.asarray(out, dtype=float)
-    raise ValueError(f"bad ac sweep kind {sweep.kind!r}: expected 'dec' or 'lin'")
+    return np.asarray(out, dtype=float)
 
 
 def merge_sweeps(

@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 
-__all__ = ["error_lines", "op_failed", "tail"]
+__all__ = ["error_lines", "op_failed", "summary", "tail"]
 
 # Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
 # and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
@@ -52,3 +52,12 @@ def tail(lines: Iterable[str], count: int = 12) -> str:
     """The last ``count`` non-blank lines, for messages."""
     kept = [line.rstrip() for line in lines if line.strip()]
     return "\n".join(kept[-count:])
+
+
+def summary(lines: Iterable[str], count: int = 6) -> str:
+    """ngspice's distinct error lines, in order, joined for a one-line message."""
+    seen: list[str] = []
+    for line in error_lines(lines):
+        if line not in seen:
+            seen.append(line)
+    return " | ".join(seen[:count])

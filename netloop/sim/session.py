@@ -42,7 +42,7 @@ class NgspiceSession:
 
     def _on_char(self, message: str, ngspice_id: int) -> int:
         _, _, content = message.partition(" ")  # "stdout ..." / "stderr ..."
-        self._lines.append(content)
+        self._lines.append(content.rstrip())
         return 0
 
     def command(self, command: str) -> list[str]:

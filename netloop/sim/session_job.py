@@ -10,8 +10,9 @@ from netloop.sim.convergence import aid_ladder, option_words
 from netloop.sim.deck import control_steps, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import SimJob
-from netloop.sim.output import error_lines, op_failed, tail
+from netloop.sim.output import error_lines, op_failed, summary, tail
 from netloop.sim.session import NgspiceSession
+from netloop.sim.vectors import unknown_saves
 
 __all__ = ["JobFailure", "JobPayload", "run_job"]
 
@@ -54,7 +55,7 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
         bad = error_lines(loaded)
         if bad:
             session.clear()
-            raise JobFailure("netlist", "ngspice could not read the netlist: " + " | ".join(bad[:6]), tail(log, 40), aid, tuple(tried))
+            raise JobFailure("netlist", "ngspice could not read the netlist: " + summary(loaded), tail(log, 40), aid, tuple(tried))
         op_lines = session.command("op")
         log.extend(op_lines)
         plot = session.current_plot()
@@ -63,8 +64,12 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
             break
     else:
         session.clear()
-        said = " | ".join(error_lines(op_lines)[-4:])
+        said = summary(op_lines)
         raise JobFailure("op", said, tail(log, 60), tried[-1], tuple(tried))
+    missing = unknown_saves(job.save, session.vector_names(plot))
+    if missing:
+        session.clear()
+        raise JobFailure("netlist", missing, tail(log, 40), aid, tuple(tried))
     session.command("destroy all")
 
     runs = []
@@ -79,7 +84,7 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
         bad = error_lines(lines)
         if bad:
             session.clear()
-            raise JobFailure("analysis", f"'{step.command}' failed: " + " | ".join(bad[:6]), tail(log, 40), aid, tuple(tried))
+            raise JobFailure("analysis", f"'{step.command}' failed: " + summary(lines), tail(log, 40), aid, tuple(tried))
         if step.kind == "ac":
             plot = session.current_plot()
             freq = session.vector(plot, "frequency")

@@ -1,0 +1,77 @@
+"""Operating points that need ngspice's recovery, and one that has no solution at all."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from netloop.errors import SimulationError
+from netloop.sim import DEFAULT_OP_AIDS, AcRun, AcSweep, SimJob
+
+# KCL at n: the behavioural current v(n)^3 - 1 mA must be zero, so v(n) = 0.1 V; the zero slope at
+# the 0 V starting point gives a singular matrix and ngspice starts dynamic gmin stepping.
+CUBIC = """cubic
+b1 n 0 i = v(n)*v(n)*v(n) - 1m
+"""
+
+# KCL at n: v(n)/1k + (v(n) > 0.5 ? 2 mA : -2 mA) = 0 has no solution: v > 0.5 needs v = -2 V,
+# v <= 0.5 needs v = +2 V. Nothing can make this converge.
+NO_SOLUTION = """relay with no solution
+b1 n 0 i = v(n) > 0.5 ? 2m : -2m
+r1 n 0 1k
+v1 in 0 dc 0 ac 1
+r2 in n 1k
+"""
+
+
+@pytest.mark.ngspice
+def test_gmin_stepping_note_is_not_an_error(simulator):
+    """ngspice's 'Note: Starting dynamic gmin stepping' appears in the log and the job still succeeds,
+    with v(n) = 0.1 V, the real root of v^3 = 1e-3 (closed form)."""
+    result = simulator.run(SimJob(netlist=CUBIC, runs=(), save=()))
+    assert "Starting dynamic gmin stepping" in result.log  # ngspice 39's own note for this circuit
+    assert result.operating_point == {"n": pytest.approx(0.1, rel=1e-9)}
+    assert result.convergence_aid is None
+
+
+@pytest.mark.ngspice
+def test_no_solution_reports_non_convergence(simulator, tmp_path):
+    """An operating point with no solution raises SimulationError that says so, names the ngspice
+    options that usually help, carries ngspice's own message and the corner, and keeps the deck."""
+    job = SimJob(
+        netlist=NO_SOLUTION,
+        runs=(AcRun("r", {"v1": 1.0}, (AcSweep("dec", 2, 1.0, 10.0),)),),
+        save=("v(n)",),
+        excitable=("v1",),
+        label="slow-cold",
+        op_aids=("gminsteps=100", "srcsteps=100"),
+    )
+    simulator.keep_dir, saved = tmp_path, simulator.keep_dir
+    try:
+        with pytest.raises(SimulationError) as caught:
+            simulator.run(job)
+    finally:
+        simulator.keep_dir = saved
+    error = caught.value
+    text = str(error)
+    assert "operating point did not converge" in text
+    assert "gminsteps" in text and "srcsteps" in text and "itl1" in text and ".nodeset" in text
+    assert "'.option gminsteps=100'" in text and "'.option srcsteps=100'" in text  # the aids tried
+    assert "op simulation(s) aborted" in text  # ngspice 39's own words for a failed op
+    assert error.corner == "slow-cold" and text.startswith("[slow-cold]")
+    deck = Path(error.deck_path)
+    assert deck.parent == tmp_path and deck.is_file()
+    kept = deck.read_text()
+    assert NO_SOLUTION.strip() in kept and ".option srcsteps=100" in kept and "\nop\n" in kept
+    assert error.simulator_output
+
+
+def test_default_aids_are_ngspice_options():
+    """Each default aid is a list of option=value words whose names ngspice 39 knows (from the ngspice
+    manual, chapter on .options: ITL1, GMINSTEPS, SRCSTEPS)."""
+    known = {"itl1", "gminsteps", "srcsteps"}
+    for aid in DEFAULT_OP_AIDS:
+        for word in aid.split():
+            name, _, value = word.partition("=")
+            assert name in known and int(value) > 1

@@ -1,0 +1,53 @@
+"""Sweep grids as ngspice visits them, and merging several sweeps into one ascending grid."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from netloop.sim import AcRun, AcSweep, SimJob, sweep_frequencies
+from netloop.sim.frequency import merge_sweeps
+
+SWEEPS = (
+    AcSweep("dec", 10, 1.0, 1e6),
+    AcSweep("dec", 7, 3.3, 4.7e5),
+    AcSweep("dec", 10, 1.0, 10**0.999),
+    AcSweep("dec", 10, 1.0, 10**1.0004),
+    AcSweep("lin", 11, 1e3, 2e3),
+    AcSweep("lin", 1, 5e3, 5e3),
+    AcSweep("lin", 4, 1.0, 1.5),
+)
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("sweep", SWEEPS, ids=lambda s: f"{s.kind}{s.points}-{s.fstart_hz:g}-{s.fstop_hz:g}")
+def test_sweep_points_match_ngspice(shared_sim, sweep):
+    """sweep_frequencies gives the frequencies ngspice's own 'ac' analysis visits (same count, 1e-12)."""
+    job = SimJob("rc\nv1 in 0 ac 1\nr1 in 0 1k\n", runs=(AcRun("a", {"v1": 1.0}, (sweep,)),), save=("v(in)",))
+    simulated = shared_sim.run(job).run("a").freq_hz  # ngspice's frequency vector
+    np.testing.assert_allclose(sweep_frequencies(sweep), simulated, rtol=1e-12)
+
+
+def test_merge_orders_and_drops_duplicates():
+    """Merged sweeps are ascending, keep each vector aligned with its frequency, and drop repeats."""
+    a = (np.array([1.0, 10.0, 100.0]), {"x": np.array([1, 10, 100], dtype=complex)})
+    b = (np.array([10.0 * (1 + 1e-13), 20.0, 5.0]), {"x": np.array([-1, 20, 5], dtype=complex)})
+    freq, vectors = merge_sweeps([a, b])
+    np.testing.assert_array_equal(freq, [1.0, 5.0, 10.0, 20.0, 100.0])
+    np.testing.assert_array_equal(vectors["x"], [1, 5, 10, 20, 100])  # the first of the 10 Hz pair is kept
+
+
+def test_bad_sweeps_are_rejected():
+    """Sweeps ngspice 39 cannot run as meant (no points, zero start, reversed limits, a 'dec' span
+    under one step, 'lin 2') are refused with a message."""
+    bad = (
+        AcSweep("dec", 0, 1.0, 10.0),
+        AcSweep("dec", 5, 0.0, 10.0),
+        AcSweep("lin", 5, 10.0, 1.0),
+        AcSweep("dec", 10, 10.0, 10.0),
+        AcSweep("dec", 10, 1.0, 1.2),
+        AcSweep("lin", 2, 1.0, 2.0),
+    )
+    for sweep in bad:
+        with pytest.raises(ValueError, match="bad ac sweep"):
+            sweep_frequencies(sweep)

@@ -1,0 +1,48 @@
+"""Judging ngspice output lines, and vector spellings."""
+
+from __future__ import annotations
+
+from netloop.sim.output import error_lines, op_failed
+from netloop.sim.vectors import canonical, unknown_saves
+
+# Lines printed by ngspice 39 on this machine for a circuit that recovers through gmin stepping
+# (tests/sim/test_convergence.py's CUBIC) and for one whose operating point fails (NO_SOLUTION).
+RECOVERED = [
+    "Doing analysis at TEMP = 27.000000 and TNOM = 27.000000",
+    "Warning: singular matrix:  check node n",
+    "Note: Starting dynamic gmin stepping",
+    "Trying gmin =   1.0000E-03 Note: One successful gmin step",
+    "Warning: Dynamic gmin stepping failed",
+    "Note: Starting true gmin stepping",
+    "Warning: True gmin stepping failed",
+    "Note: Starting source stepping",
+    "Note: Transient op started",
+    "Note: Transient op finished successfully",
+    "No. of Data Rows : 1",
+]
+FAILED = [
+    "Note: Transient op started",
+    "Error: Transient op failed, timestep too small",
+    "DC solution failed -",
+    'doAnalyses: OP:  Timestep too small; trouble with node "n"',
+    "op simulation(s) aborted",
+]
+
+
+def test_notes_and_warnings_are_not_errors():
+    """Gmin-stepping notes and recovered warnings are no failure; a failed op is one, and says it is the op."""
+    assert error_lines(RECOVERED) == ()
+    assert not op_failed(RECOVERED)
+    assert error_lines(FAILED) == tuple(FAILED[1:])
+    assert op_failed(FAILED)
+    assert not op_failed(["Error: no such device or model name vnope"])
+
+
+def test_vector_spellings():
+    """Nodes and branches compare equal however ngspice or the user spells them."""
+    assert canonical("OUT") == canonical("v(out)") == "v(out)"
+    assert canonical("V1#branch") == canonical("i(v1)") == "i(v1)"
+    assert canonical("xamp.n5") == "v(xamp.n5)"
+    assert unknown_saves(["v(out)", "i(v1)", "@m1[gm]"], ["out", "v1#branch"]) is None
+    message = unknown_saves(["v(outt)"], ["out", "in"])
+    assert "'v(outt)'" in message and "v(out)" in message
