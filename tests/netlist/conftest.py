@@ -22,9 +22,13 @@ def ngspice_op(deck: str, folder: Path) -> dict[str, float]:
     """Every node voltage and branch current of ngspice's own ``op`` (``print all``)."""
     out = _run_ngspice(deck, folder, "op\nprint all")
     values: dict[str, float] = {}
-    for line in out.splitlines():
+    lines = out.splitlines()
+    start = next((i for i, line in enumerate(lines) if line.startswith("No. of Data Rows")), len(lines))
+    for line in lines[start + 1 :]:
         name, eq, value = line.partition(" = ")
-        if eq and name and " " not in name.strip():
+        if not eq:
+            break  # the end of the print all block
+        if name and " " not in name.strip():
             try:
                 values[name.strip().lower()] = float(value.split()[0])
             except ValueError:

@@ -1,0 +1,90 @@
+"""`netloop inspect`: what netloop reads, as text and JSON, and one-line errors for bad input."""
+
+from __future__ import annotations
+
+import json
+
+from netloop.cli.main import main
+
+DECK = """readout front end (invented)
+.subckt cell a b
+R1 a mid 1k
+C1 mid b 1p
+.ends cell
+.subckt pair p q
+X1 p m cell
+X2 m q cell
+.ends pair
+V1 in 0 1
+Xp in out pair
+Xq out 0 pair
+Rdangle out stub 1k
+M1 d g 0 0 undefined_model
+.op
+.control
+run
+.endc
+"""
+
+
+def _write(tmp_path, text, name="deck.cir"):
+    path = tmp_path / name
+    path.write_text(text)
+    return path
+
+
+def test_json_counts_come_from_the_flattened_circuit(tmp_path, capsys):
+    """JSON gives flattened element and node counts, instances per subcircuit, ignored statements and warnings."""
+    path = _write(tmp_path, DECK)
+    assert main(["inspect", str(path), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    # by hand: 2 pairs x 2 cells x (R + C) = 8, plus V1, Rdangle, M1
+    assert data["elements"] == 11
+    assert data["by_kind"] == {"C": 4, "M": 1, "R": 5, "V": 1}
+    # in, out, stub, d, g, xp.m, xq.m and one internal mid per cell (4)
+    assert data["nodes"] == 11
+    assert data["subcircuits"] == {"cell": 4, "pair": 2}
+    assert data["files"] == [str(path)]
+    assert [d["statement"] for d in data["ignored"]] == [".op", ".control"]
+    assert data["ignored"][0]["where"] == f"{path}:15"
+    assert any("undefined model 'undefined_model'" in w for w in data["warnings"])
+    assert any("'stub' has a single connection" in w for w in data["warnings"])
+
+
+def test_text_output_lists_sections(tmp_path, capsys):
+    """The text form names the counts, instances, files, library sections and what was set aside."""
+    (tmp_path / "m.lib").write_text(".lib typ\n.model nch nmos level=1\n.endl typ\n")
+    path = _write(tmp_path, "t\n.lib m.lib typ\nM1 d g 0 0 nch\nV1 d 0 1\nV2 g 0 1\n.tran 1n 1u\n")
+    assert main(["inspect", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "elements  3 after flattening" in out
+    assert "nodes     2 (ground excluded)" in out
+    assert f"{tmp_path / 'm.lib'} [typ]" in out
+    assert f"{path}:6: .tran" in out
+
+
+def test_syntax_error_is_one_clear_message_exit_2(tmp_path, capsys):
+    """A malformed card exits 2 with 'netloop: error: file:line:col: ...' and no traceback."""
+    path = _write(tmp_path, "t\nR1 a 0 1\nR2 a\n")
+    assert main(["inspect", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert err.splitlines()[0] == f"netloop: error: {path}:3:6: R2: expected 2 nodes and a value"
+    assert "Traceback" not in err
+
+
+def test_missing_file_and_missing_include_exit_2(tmp_path, capsys):
+    """A missing netlist or include file exits 2 naming the file (and the including line)."""
+    assert main(["inspect", str(tmp_path / "nope.cir")]) == 2
+    assert "nope.cir" in capsys.readouterr().err
+    path = _write(tmp_path, "t\n.include sub/none.inc\n")
+    assert main(["inspect", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"netloop: error: {path}:2:1: cannot read") and "Traceback" not in err
+
+
+def test_user_file_is_not_modified(tmp_path, capsys):
+    """Inspecting never changes the user's file."""
+    path = _write(tmp_path, DECK)
+    main(["inspect", str(path), "--json"])
+    capsys.readouterr()
+    assert path.read_text() == DECK

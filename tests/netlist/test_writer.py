@@ -1,0 +1,103 @@
+"""Writing netlists back: self-contained decks that ngspice simulates to the same operating point."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import pytest
+
+from netloop.netlist import Element, parse_file, parse_text, write_netlist
+
+AMP = """hierarchical amplifier (invented values)
+* two common-source stages in a feedback loop, nested subcircuits
+.global vdd
+.subckt stage in out params: rd=10k
+Rd vdd out {rd}
+M1 out in 0 0 nch w=2u l=1u
+.ends stage
+.subckt amp2 a b
+.subckt bias n
+Rb n 0 100k
+.ends bias
+X1 a m stage rd=20k
+X2 m b stage
+Xb m bias
+Rfb b a 200k
+.ends amp2
+Vdd vdd 0 1.8
+Vin in 0 dc 0.9 ac 1
+Rs in g 1k
+Xa g out amp2
+Rl out 0 1meg
+E1 e 0 out 0 2
+F1 0 f Vdd 1e-3
+Rf f 0 1k
+.model nch nmos level=1 vto=0.5 kp=100u lambda=0.02
+.op
+.end
+"""
+
+
+def _same_op(a: dict[str, float], b: dict[str, float]) -> None:
+    assert a.keys() == b.keys()
+    for k in a:
+        assert math.isclose(a[k], b[k], rel_tol=1e-6, abs_tol=1e-15), k
+
+
+@pytest.mark.ngspice
+def test_rewritten_hierarchical_amplifier_has_same_operating_point(tmp_path, op_of):
+    """The re-emitted hierarchical amplifier gives ngspice's own `op` exactly the values of the original."""
+    src = tmp_path / "amp.cir"
+    src.write_text(AMP)
+    (tmp_path / "orig").mkdir()
+    (tmp_path / "out").mkdir()
+    original = op_of(AMP, tmp_path / "orig")  # reference: ngspice op on the user's file
+    rewritten = op_of(write_netlist(parse_file(src)), tmp_path / "out")
+    _same_op(original, rewritten)
+    assert original["out"] != 0.0
+
+
+@pytest.mark.ngspice
+def test_includes_and_sections_inlined_or_referenced_give_same_operating_point(tmp_path, op_of):
+    """A deck with .lib sections and relative includes in a subfolder keeps ngspice's op when written, and when an included element is replaced."""
+    sub = tmp_path / "lib"
+    sub.mkdir()
+    (sub / "corners.lib").write_text(
+        "* invented corner library\n.lib typ\n.param rv=2k\n.include parts.inc\n.endl typ\n.lib slow\n.param rv=5k\n.include parts.inc\n.endl slow\n"
+    )
+    (sub / "parts.inc").write_text("* parts\n.subckt divider top mid\nR1 top mid {rv}\nR2 mid 0 1k\n.ends divider\nRx top2 0 3k\n")
+    deck = "divider test\n.lib lib/corners.lib slow\nV1 top 0 5\nV2 top2 0 1\nX1 top mid divider\n.end\n"
+    top = tmp_path / "top.cir"
+    top.write_text(deck)
+    nl = parse_file(top)
+    out = write_netlist(nl)
+    assert f".lib {sub / 'corners.lib'} slow" in out  # nothing replaced: the library is referenced
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    original = op_of(deck, tmp_path)  # reference: ngspice op on the original deck
+    _same_op(original, op_of(out, tmp_path / "a"))
+    # replace an element that came from the included file: the writer must inline the section with the change
+    rx = next(s for s in nl.statements if isinstance(s, Element) and s.key == "rx")
+    changed = replace(nl, statements=tuple(replace(rx, tokens=("top2", "0", "6k")) if s is rx else s for s in nl.statements))
+    out2 = write_netlist(changed)
+    assert ".lib " not in out2 and "Rx top2 0 6k" in out2 and ".param rv=5k" in out2
+    got = op_of(out2, tmp_path / "b")
+    assert math.isclose(got["v2#branch"], -1 / 6e3, rel_tol=1e-5)  # Ohm's law: 1 V across 6 kOhm
+    assert math.isclose(got["mid"], original["mid"], rel_tol=1e-6)
+
+
+def test_writer_drops_analyses_and_control_blocks():
+    """Analyses and .control blocks never reach the written deck, whatever file they came from."""
+    nl = parse_text("t\nR1 a 0 1\n.op\n.control\nshell touch /tmp/x\n.endc\n.end\n")
+    out = write_netlist(nl)
+    assert ".op" not in out and "shell" not in out and ".control" not in out
+    assert out.splitlines()[0] == "t" and out.rstrip().endswith(".end")
+
+
+def test_include_with_control_block_is_inlined(tmp_path):
+    """An included file that held a .control block is inlined without it, never referenced again."""
+    (tmp_path / "x.inc").write_text("R2 a 0 2\n.control\nshell echo hi\n.endc\n")
+    nl = parse_text("t\n.include x.inc\nR1 a 0 1\n", base_dir=str(tmp_path))
+    out = write_netlist(nl)
+    assert ".include" not in out and "R2 a 0 2" in out and "shell" not in out
