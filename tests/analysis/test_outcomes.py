@@ -1,0 +1,175 @@
+"""Documented outcomes: band-pass loops, noise floor, no crossover, positive feedback, bad data, integrators."""
+
+from __future__ import annotations
+
+import math
+
+import control
+import numpy as np
+import pytest
+from analysis_loops import sample
+
+from netloop.analysis import analyse
+from netloop.errors import AnalysisError
+
+TWO_PI = 2.0 * math.pi
+S = control.tf("s")
+THREE_POLE = control.tf([25], [1, 10, 10, 10])
+
+
+def test_band_pass_low_crossing_is_not_a_bogus_negative_margin():
+    """An AC-coupled loop's low crossing has PM = 180 - phase (positive), where wrapping gives python-control's -PM."""
+    loop = 10 * S / (S + 1e-3) / (S + 1) / (S / 10 + 1)
+    a = analyse(*sample(loop, 1e-7, 1e4))
+    low, high = a.gain_crossovers
+    assert (low.direction, high.direction) == ("up", "down")
+    _, pm, _, _, w_gc, _ = control.stability_margins(loop, returnall=True)  # python-control 0.10
+    # python-control wraps the low crossing's phase (about +95.7 deg) into -84.3 - 180 ... = -95.7
+    assert pm[0] < 0 and low.phase_margin_deg == pytest.approx(-pm[0], abs=1e-3)
+    assert low.freq_hz * TWO_PI == pytest.approx(w_gc[0], rel=1e-6)
+    # closed form: at the low crossing the phase is 90 - atan(w/1e-3) - atan(w) - atan(w/10) deg
+    w = w_gc[0]
+    phase = 90 - math.degrees(math.atan(w / 1e-3) + math.atan(w) + math.atan(w / 10))
+    assert low.phase_deg == pytest.approx(phase, abs=1e-3) and low.phase_margin_deg == pytest.approx(180 - phase, abs=1e-3)
+    assert high.phase_margin_deg == pytest.approx(pm[1], abs=1e-3)
+    assert a.margins.phase_margin_deg == pytest.approx(pm[1], abs=1e-3)  # the worst is the real crossover
+    assert a.nyquist.origin_poles == -1 and a.nyquist.reliable and a.stable
+    # numpy.roots of the characteristic polynomial: den + num
+    num = np.array([10.0, 0, 0, 0])
+    den = np.polymul(np.polymul([1, 1e-3], [1, 1]), [0.1, 1])
+    assert int(np.sum(np.roots(den + num).real > 0)) == 0
+
+
+def test_noise_floor_crossings_are_ignored_and_counted():
+    """Phase crossings where |T| sinks into simulated noise (-180 dB) are counted as ignored and change no margin."""
+    f, t = sample(THREE_POLE, 1e-4, 1e6)
+    clean = analyse(f, t)
+    rng = np.random.default_rng(11)
+    noisy_t = t + 1e-9 * (rng.standard_normal(f.size) + 1j * rng.standard_normal(f.size))
+    noisy = analyse(f, noisy_t)
+    assert len(clean.ignored_phase_crossovers) == 0
+    assert len(noisy.ignored_phase_crossovers) > 0
+    assert all(c.gain_db < noisy.floor_db for c in noisy.ignored_phase_crossovers)
+    assert noisy.phase_crossovers == clean.phase_crossovers or len(noisy.phase_crossovers) == 1
+    assert noisy.margins.gain_margin_db == pytest.approx(20 * math.log10(3.6), abs=1e-4)  # python-control: GM 3.6
+    assert noisy.margins.phase_margin_deg == pytest.approx(clean.margins.phase_margin_deg, abs=1e-4)
+    assert noisy.nyquist.reliable and noisy.stable
+    assert noisy.poles is not None and noisy.poles.rhp_count == 0 and noisy.poles.agrees_with_nyquist
+    assert any("ignored" in w for w in noisy.warnings)
+    # raising the floor above the real crossover's -11 dB would ignore it too: the floor is a true threshold
+    assert analyse(f, noisy_t, floor_db=-5.0, fit_poles=False).margins.gain_margin_db is None
+
+
+def test_no_crossover_has_one_meaning():
+    """'No crossover' means gain_crossovers == () and phase margin, unity-gain frequency and delay margin None."""
+    below = analyse(*sample(0.5 / (S + 1) ** 2, 1e-3, 1e3))
+    above = analyse(*sample(1e3 / (S + 1), 1e-3, 1e1))
+    for a in (below, above):
+        assert a.gain_crossovers == ()
+        assert (a.margins.phase_margin_deg, a.margins.unity_gain_hz, a.margins.delay_margin_s) == (None, None, None)
+        assert a.second_order is None
+    # always below: "does not regulate", with its DC loop gain; stable by Nyquist and by numpy.roots of s^2+2s+1.5
+    assert not below.regulates and below.classification == "does not regulate"
+    assert below.dc_gain_db == pytest.approx(20 * math.log10(0.5), abs=1e-3)  # |T| at 1e-3 Hz, 3e-4 dB under DC
+    assert below.stable and below.nyquist.reliable
+    # always above: it regulates, but the sweep ends before |T| < 1, so the count is not reliable
+    assert above.regulates and not above.nyquist.reliable
+    assert any("before the loop gain falls below 1" in r for r in above.nyquist.reasons)
+
+
+def test_sweep_that_stops_between_crossovers_is_flagged():
+    """A sweep ending while |T| > 1 keeps the crossovers it saw but marks the verdict unreliable."""
+    loop = 10 * S / (S + 1e-3) / (S + 1) / (S / 10 + 1)
+    a = analyse(*sample(loop, 1e-7, 1.0))  # stops before the real crossover near 7.8 rad/s
+    assert [c.direction for c in a.gain_crossovers] == ["up"]
+    assert not a.nyquist.reliable and a.warnings
+
+
+@pytest.mark.parametrize("gain,expected_rhp", [(5.0, 1), (0.5, 0)])
+def test_positive_feedback_at_dc(gain, expected_rhp):
+    """T = -K/(s+1): a DC phase crossover at 0 Hz with |T(0)|, and Z from Nyquist equal to numpy.roots of s+1-K."""
+    a = analyse(*sample(-gain / (S + 1), 1e-4, 1e4))
+    assert any("positive feedback at DC" in w for w in a.warnings)
+    dc = a.phase_crossovers[0]
+    assert dc.freq_hz == 0.0 and dc.gain_db == pytest.approx(20 * math.log10(gain), abs=1e-5)  # read at 1e-4 Hz
+    assert int(np.sum(np.roots([1, 1 - gain]).real > 0)) == expected_rhp
+    assert a.nyquist.closed_loop_rhp_poles == expected_rhp and a.nyquist.reliable
+    if expected_rhp == 0:
+        # python-control 0.10 reports GM = 2 at w = 0 for -0.5/(s+1)
+        gm, _, _, w_pc, _, _ = control.stability_margins(-gain / (S + 1))
+        assert a.margins.gain_margin_db == pytest.approx(20 * math.log10(gm), abs=1e-5) and w_pc == 0.0
+
+
+def test_open_loop_rhp_pole_counts_in_the_verdict():
+    """T = K/(s-1) with P = 1: stable iff K > 1 (numpy.roots of s - 1 + K); the lower GM is 20 log10 K."""
+    stable = analyse(*sample(2 / (S - 1), 1e-4, 1e4), open_loop_rhp_poles=1)
+    unstable = analyse(*sample(0.5 / (S - 1), 1e-4, 1e4), open_loop_rhp_poles=1)
+    assert stable.nyquist.encirclements == -1 and stable.stable
+    assert stable.margins.lower_gain_margin_db == pytest.approx(20 * math.log10(2), abs=1e-5)  # read at 1e-4 Hz
+    assert unstable.nyquist.closed_loop_rhp_poles == 1 and not unstable.stable
+    assert unstable.classification == "unstable"
+    assert stable.poles.rhp_count == 0 and unstable.poles.rhp_count == 1
+
+
+@pytest.mark.parametrize("bad", [np.nan, np.inf])
+def test_nan_or_infinite_samples_raise_analysis_error(bad):
+    """NaN or infinite T is rejected with AnalysisError naming the first bad frequency (never dropped)."""
+    f, t = sample(THREE_POLE, 1e-2, 1e2)
+    t[7] = bad
+    with pytest.raises(AnalysisError, match=r"1 NaN or infinite sample\(s\), the first at 0\.0\d+ Hz"):
+        analyse(f, t)
+
+
+@pytest.mark.parametrize(
+    "freq,t,message",
+    [
+        ([1, 2, 3], [1, 1, 1], "at least 4"),
+        ([1, 3, 2, 4], [1, 1, 1, 1], "strictly ascending"),
+        ([0, 1, 2, 3], [1, 1, 1, 1], "positive"),
+        ([1, 2, 3, 4], [1, 1, 1], "T has 3"),
+        ([[1, 2], [3, 4]], [[1, 1], [1, 1]], "one-dimensional"),
+    ],
+)
+def test_malformed_data_says_what_was_expected(freq, t, message):
+    """Malformed arrays raise AnalysisError with a message that names the fault."""
+    with pytest.raises(AnalysisError, match=message):
+        analyse(freq, t)
+
+
+@pytest.mark.parametrize("origin_poles", [1, 2])
+def test_integrators_handled_at_the_bottom(origin_poles):
+    """Loops with 1 or 2 poles at DC: the detour right of s = 0 gives the verdict of numpy.roots of den + num."""
+    if origin_poles == 1:
+        num, den = [2.0], [1.0, 1.0, 0.0]  # 2 / (s (s + 1)): stable
+    else:
+        num, den = [1.0, 0.5], [0.1, 1.0, 0.0, 0.0]  # (s + 0.5) / (s^2 (0.1 s + 1)): stable (Routh)
+    loop = control.tf(num, den)
+    a = analyse(*sample(loop, 1e-4, 1e4))
+    rhp = int(np.sum(np.roots(np.polyadd(den, num)).real > 0))
+    assert a.nyquist.origin_poles == origin_poles and a.nyquist.reliable
+    assert a.nyquist.closed_loop_rhp_poles == rhp == 0
+    _, pm, _, _, _, _ = control.stability_margins(loop)  # python-control 0.10
+    assert a.margins.phase_margin_deg == pytest.approx(pm, abs=1e-3)
+
+
+def test_double_integrator_unstable_variant():
+    """1/(s^2 (s+1)) is unstable (numpy.roots of s^3+s^2+1 has 2 RHP roots) and the count says so."""
+    loop = 1 / (S**2 * (S + 1))
+    a = analyse(*sample(loop, 1e-4, 1e4))
+    assert int(np.sum(np.roots([1, 1, 0, 1]).real > 0)) == 2
+    assert a.nyquist.closed_loop_rhp_poles == 2 and a.nyquist.reliable and not a.stable
+
+
+def test_coarse_data_is_reported_not_guessed():
+    """At 2 points per decade near a sharp resonance the count is flagged unreliable with a reason."""
+    loop = 2 / (S * (S / 10 + 1) * (S**2 / 1.5**2 + 2 * 0.02 * S / 1.5 + 1))
+    a = analyse(*sample(loop, 1e-3, 1e4, per_decade=2), fit_poles=False)
+    assert not a.nyquist.reliable
+    assert any("more densely" in r for r in a.nyquist.reasons)
+
+
+def test_unsettled_bottom_is_reported():
+    """A sweep that starts on a pole (phase still moving) is flagged: T is not settled at the bottom."""
+    a = analyse(*sample(THREE_POLE, 0.2, 1e3), fit_poles=False)
+    assert not a.nyquist.reliable
+    assert any("not settled at the bottom" in r for r in a.nyquist.reasons)
