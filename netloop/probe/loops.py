@@ -41,14 +41,19 @@ def loop_report(g: nx.Graph, side_a: str, side_b: str) -> tuple[bool, tuple[str,
     loads = sorted(v for v in g.neighbors(b) if g.degree(v) > 1 or v in g.neighbors(a))
     without_b = g.copy()
     without_b.remove_node(b)
-    loops, others = [], []
+    # elements in parallel (same far nodes, such as Rf || Cf) are one branch
+    branches: dict[frozenset, list] = {}
     for v in loads:
+        branches.setdefault(frozenset(g.neighbors(v)) - {b}, []).append(v)
+    loops, others = [], []
+    for members in branches.values():
         alone = without_b.copy()
-        alone.remove_nodes_from(u for u in loads if u != v)
-        if nx.has_path(alone, v, a):
-            loops.append(v[1])
+        alone.remove_nodes_from(u for u in loads if u not in members)
+        name = "||".join(v[1] for v in members)
+        if any(nx.has_path(alone, v, a) for v in members):
+            loops.append(name)
             continue
-        comp = nx.node_connected_component(without_b, v)
+        comp = nx.node_connected_component(without_b, members[0])
         if a not in comp and any(x[0] == "e" and x[2] in _ACTIVE for x in comp):
-            others.append(v[1])
+            others.append(name)
     return on_loop, tuple(loops), tuple(others)

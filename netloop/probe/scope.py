@@ -6,6 +6,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 
 from netloop.errors import ProbeError, UnknownNodeError
+from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist, Subcircuit
 
 __all__ = ["FlatTerminal", "GROUND_NAMES", "Scope", "flat_terminals", "resolve_node", "walk_scopes"]
@@ -98,7 +99,7 @@ def walk_scopes(netlist: Netlist, globals_: frozenset[str], depth: int = 0, scop
     for e in elements_of(netlist, scope):
         if e.kind == "X":
             child = child_scope(netlist, scope, e, globals_)
-            if child is not None:
+            if child is not None and not is_device_subcircuit(child.definitions[-1]):
                 yield from walk_scopes(netlist, globals_, depth + 1, child)
 
 
@@ -107,7 +108,7 @@ def flat_terminals(netlist: Netlist, globals_: frozenset[str]) -> Iterator[FlatT
     for scope in walk_scopes(netlist, globals_):
         for e in elements_of(netlist, scope):
             definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
-            if definition is not None:
+            if definition is not None and not is_device_subcircuit(definition):
                 continue
             pins = pin_names(e, definition)
             for k, node in enumerate(e.nodes):

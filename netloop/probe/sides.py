@@ -15,6 +15,7 @@ __all__ = ["Split", "Terminal", "ac_ground_nodes", "decide_sides", "terminals_at
 _OUTPUTS = {"E": ("p", "n"), "G": ("p", "n"), "F": ("p", "n"), "H": ("p", "n"), "B": ("p", "n")}
 _FOLLOWER = {"M": ("d", "s"), "Q": ("c", "e"), "J": ("d", "s"), "Z": ("d", "s")}  # (main output, follower output)
 _PASSIVE_PATH = frozenset("RCL")
+_ACTIVE_LOADS = frozenset("MQJZEGFHBX")
 
 
 @dataclass(frozen=True, slots=True)
@@ -151,6 +152,18 @@ def _local_feedback(netlist: Netlist, scope: Scope, node: str, t: Terminal, cont
     return False
 
 
+def _fed_by_output(netlist: Netlist, scope: Scope, node: str, t: Terminal, ac_ground, globals_) -> bool:
+    """Whether a passive element at the node has its other end on a node an active output drives (a divider, a series Ro)."""
+    if t.element.kind not in _PASSIVE_PATH:
+        return False
+    for k, far in enumerate(t.element.nodes):
+        if k == t.slot or far == node or scope.flat(far, globals_) in ac_ground:
+            continue
+        if any(u.role == "driver" for u in terminals_at(netlist, scope, far, ac_ground, globals_)):
+            return True
+    return False
+
+
 def _matches(spec: str, t: Terminal, scope: Scope) -> bool:
     local = f"{t.element.key}.{t.pin}"
     return spec in (t.label, local, scope.label(t.element), t.element.key)
@@ -180,6 +193,11 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     drivers = [t for t in terminals if t.role == "driver"]
     shunt = tuple(t for t in terminals if t.role == "shunt")
     loads = [t for t in terminals if t.role == "load"]
+    through = ""
+    if not drivers:
+        drivers = [t for t in loads if _fed_by_output(netlist, scope, node, t, ac_ground, globals_)]
+        loads = [t for t in loads if t not in drivers]
+        through = " through a passive element from an output node" if drivers else ""
     if not drivers:
         candidates = ", ".join(t.label for t in terminals if t.role != "shunt") or listing
         raise ProbeError(
@@ -193,12 +211,19 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
         controls |= _controls(netlist, scope, d, globals_)
     controls = {n for n in controls if scope.flat(n, globals_) not in ac_ground}
     local = [t for t in loads if _local_feedback(netlist, scope, node, t, controls, ac_ground, globals_)]
-    if local and len(local) < len(loads):
+    # Compensation around the driver stage (a Miller Cc/Rz) rides with the driver only while an active
+    # input (a gate, base, controlling node or instance input) still loads the node: then that input
+    # closes the loop being measured. A purely passive feedback network stays on the load side.
+    if local and any(t.element.kind in _ACTIVE_LOADS for t in loads if t not in local):
         loads = [t for t in loads if t not in local]
     else:
         local = []
-    parts = [f"driver side: {', '.join(t.label for t in drivers)} (outputs: drain, collector, controlled-source or instance output"
-             + (", or a follower's source/emitter" if any(t.pin in ("s", "e") for t in drivers) else "") + ")"]
+    if through:
+        parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these lead in one step from "
+                 "a node that a drain, collector, controlled source or instance output drives)"]
+    else:
+        parts = [f"driver side: {', '.join(t.label for t in drivers)} (outputs: drain, collector, controlled-source or instance output"
+                 + (", or a follower's source/emitter" if any(t.pin in ("s", "e") for t in drivers) else "") + ")"]
     if local:
         parts.append(f"with {', '.join(t.label for t in local)} (a passive path back to the driver's own input: local feedback of the driver stage)")
     parts.append(f"load side: {', '.join(t.label for t in loads) or 'only elements to AC ground'}")

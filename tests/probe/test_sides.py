@@ -167,12 +167,20 @@ def test_node_not_on_loop():
 
 
 def test_no_driver_found():
-    """A node joined only by passive parts is a ProbeError listing candidates and pointing at driver=."""
-    text = "passive ring\nVin in 0 dc 0 ac 1\nE1 x 0 y 0 2\nR1 x n 1k\nR2 n y 1k\nR3 y 0 1k\n"
+    """A node whose passive parts lead to no active output is a ProbeError listing candidates and pointing at driver=."""
+    text = "passive ladder\nVin in 0 dc 0 ac 1\nE1 x 0 y 0 2\nR0 x m 1k\nR1 m n 1k\nR2 n y 1k\nR3 y 0 1k\n"
     with pytest.raises(ProbeError, match=r"no driver found for node n: .*candidates: r1\.n, r2\.p; name the driver with driver="):
         break_loop(parse_text(text), "n")
     p = break_loop(parse_text(text), "n", driver="r1")
     assert p.driver_terminals == ("r1.n",) and p.load_terminals == ("r2.p",)
+
+
+def test_divider_tap_driven_through_resistor():
+    """A divider tap with no active output on it is driven by the resistor from the output node (an LDO's feedback tap)."""
+    text = "divider\nVin in 0 dc 0 ac 1\nE1 x 0 y 0 2\nR1 x n 1k\nR2 n 0 1k\nRg n y 1k\nCg y 0 1p\n"
+    p = break_loop(parse_text(text), "n")
+    assert p.driver_terminals == ("r1.n",) and p.load_terminals == ("rg.p",) and p.shunt_terminals == ("r2.p",)
+    assert "passive element from an output node" not in p.decided_by and "in one step from" in p.decided_by
 
 
 SHARED_BIAS = """bias node shared by two amplifiers (invented)
