@@ -35,6 +35,27 @@ class _Flattener:
             self.device_cache[key] = None if prim is None else (prim.kind, device_pin_roles(sub))
         return self.device_cache[key]
 
+    def expand_top(self, statements) -> bool:
+        """Fast path for a top level without X cards (large flat netlists): whole columns at once."""
+        els = [s for s in statements if type(s) is Element]
+        if any(s.name[0] in "Xx" for s in els):
+            return False
+        nodes = [
+            s.tokens[: len(s.node_slots)] if (not s.node_slots or s.node_slots[-1] == len(s.node_slots) - 1)
+            else tuple([s.tokens[i] for i in s.node_slots])
+            for s in els
+        ]
+        if any("gnd" in t for t in nodes):
+            nodes = [tuple(["0" if n == "gnd" else n for n in t]) if "gnd" in t else t for t in nodes]
+        self.names.extend([s.name.lower() for s in els])
+        self.kinds.extend([s.name[0].upper() for s in els])
+        self.nodes.extend(nodes)
+        self.pins.extend([s.pins for s in els])
+        self.originals.extend(els)
+        self.paths.extend([()] * len(els))
+        self.wrappers.extend([None] * len(els))
+        return True
+
     def expand(self, statements, prefix: str, path: tuple[str, ...], netmap: dict | None,
                scopes: tuple[Mapping[str, Subcircuit], ...], active: tuple[str, ...]) -> None:
         glob = self.glob
@@ -104,7 +125,8 @@ def flatten(netlist: Netlist) -> FlatCircuit:
     """
     f = _Flattener(netlist)
     with gc_paused():
-        f.expand(netlist.statements, "", (), None, (netlist.subcircuits,), ())
+        if not f.expand_top(netlist.statements):
+            f.expand(netlist.statements, "", (), None, (netlist.subcircuits,), ())
         return FlatCircuit(
             names=tuple(f.names),
             kinds=tuple(f.kinds),

@@ -45,7 +45,8 @@ def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:
     statement holding its lines verbatim, since nothing inside it is netlist syntax.
     """
     if _plain(lines, start):
-        return [(s, i, False) for i, s in enumerate((x.strip() for x in lines[start:]), start + 1) if s and s[0] != "*"]
+        stripped = [x.strip() for x in lines[start:]]
+        return [(s, i, False) for i, s in enumerate(stripped, start + 1) if s and s[0] != "*"]
     out: list[list] = []
     append = out.append
     i = start

@@ -81,7 +81,6 @@ class _Reader:
         self.active: set[tuple[str, str | None]] = set()
         self.has_q = False
         self.has_x = False
-        self.names: dict[str, str] = {}  # one string object per node name
 
     # -- files ---------------------------------------------------------------------------
     def _load(self, path: str, at: SourceLocation | None) -> _FileText:
@@ -158,7 +157,6 @@ class _Reader:
         """Read statements lines[first:end]; returns False when ``.end`` stopped the reading."""
         i = first
         models = self.models
-        names = self.names
         body = self.stack[-1].body
         while i < end:
             text, ln, raw = lines[i]
@@ -172,11 +170,7 @@ class _Reader:
                     # fast path for the bulk of large netlists: "R1 a b 1k", "V1 a 0 DC 1"
                     toks = text.split()
                     if len(toks) >= 4:
-                        a = toks[1].lower()
-                        a = names.setdefault(a, a)
-                        b = toks[2].lower()
-                        b = names.setdefault(b, b)
-                        body.append(new_element(toks[0], (a, b, *toks[3:]), _SLOTS2, _PINS2, new_location(file, ln), None))
+                        body.append(new_element(toks[0], (toks[1].lower(), toks[2].lower(), *toks[3:]), _SLOTS2, _PINS2, new_location(file, ln), None))
                         continue
                 if c == "+":
                     raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
@@ -365,7 +359,8 @@ def gc_paused():
     """Pause the cyclic garbage collector while building millions of acyclic records.
 
     The records hold no reference cycles, so the collector would only rescan them again and
-    again (it roughly doubles the time to read a million-element netlist).
+    again (it roughly doubles the time to read a million-element netlist); on leaving, the
+    objects alive are moved to the permanent generation for the same reason.
     """
     was = gc.isenabled()
     gc.disable()
@@ -373,6 +368,7 @@ def gc_paused():
         yield
     finally:
         if was:
+            gc.freeze()  # what was built so far is never rescanned (refcounting still frees it)
             gc.enable()
 
 
