@@ -1,0 +1,120 @@
+"""``netloop check NETLIST --at NODE``: measure one loop (or every loop) and report its stability."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+__all__ = ["add_parser", "run"]
+
+
+def frequency(text: str) -> float:
+    """An argparse type: a frequency in Hz with an optional SI suffix (1k, 10meg, 1g)."""
+    from netloop.netlist import parse_value
+
+    try:
+        value = parse_value(text)
+    except Exception as exc:  # noqa: BLE001 - argparse turns ValueError into a usage message
+        raise argparse.ArgumentTypeError(f"expected a frequency such as 1k or 10meg, got {text!r}") from exc
+    if not value > 0:
+        raise argparse.ArgumentTypeError(f"a frequency must be positive, got {text!r}")
+    return value
+
+
+def add_measure_options(parser: argparse.ArgumentParser) -> None:
+    """The options every measuring command shares (check, compare, demo)."""
+    parser.add_argument("--driver", metavar="ELEMENT[.PIN]", help="the element terminal(s) that drive the break node (comma-separated); decided from the circuit by default")
+    parser.add_argument("--method", choices=("tian", "middlebrook"), default="tian", help="how T is formed from the two runs (default: tian)")
+    parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency (default 10 mHz, widened when the phase has not settled)")
+    parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency (default 10 GHz, widened until |T| << 1)")
+    parser.add_argument("--ppd", type=int, default=10, metavar="N", help="points per decade of the first sweep; crossovers are refined adaptively (default 10)")
+    parser.add_argument("--open-loop-rhp-poles", type=int, default=0, metavar="P", help="open-loop right-half-plane poles for the Nyquist verdict (default 0)")
+    parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
+    parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
+
+
+def add_parser(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
+    parser.add_argument("--at", metavar="NODE", help="the node where the loop is broken (hierarchical names like xamp.n5 allowed); every loop when omitted")
+    add_measure_options(parser)
+    parser.add_argument("--json", action="store_true", help="print one JSON document instead of the text summary")
+    parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio as CSV")
+    parser.add_argument("--plot", metavar="FILE", help="write Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
+    parser.add_argument("--report", metavar="FILE", help="write a self-contained HTML report")
+
+
+def sweep_from(args: argparse.Namespace):
+    from netloop.measure import Sweep
+
+    kwargs = {"points_per_decade": args.ppd}
+    if args.fmin is not None:
+        kwargs.update(fmin_hz=args.fmin, fmin_given=True)
+    if args.fmax is not None:
+        kwargs.update(fmax_hz=args.fmax, fmax_given=True)
+    if args.fmin is not None and args.fmax is None and args.fmin >= 1e10:
+        kwargs["fmax_hz"] = args.fmin * 1e3
+    if args.fmax is not None and args.fmin is None and args.fmax <= 1e-2:
+        kwargs["fmin_hz"] = args.fmax * 1e-3
+    return Sweep(**kwargs)
+
+
+def nyquist_path(path: str) -> str:
+    """FILE.png -> FILE-nyquist.png."""
+    stem, dot, ext = path.rpartition(".")
+    return f"{stem}-nyquist.{ext}" if dot else f"{path}-nyquist"
+
+
+def write_outputs(args: argparse.Namespace, results) -> None:
+    """The files asked for with --csv, --plot and --report (one loop or several)."""
+    from netloop import report
+
+    single = results[0] if len(results) == 1 else None
+    if args.csv:
+        if single is not None:
+            report.write_csv(single, args.csv)
+        else:
+            for r in results:
+                stem, dot, ext = args.csv.rpartition(".")
+                report.write_csv(r, f"{stem}-{r.breaks.node}.{ext}" if dot else f"{args.csv}-{r.breaks.node}")
+    if args.plot:
+        report.plot_bode(single if single is not None else results, args.plot)
+        report.plot_nyquist(single if single is not None else results, nyquist_path(args.plot))
+    if args.report:
+        report.write_html(single if single is not None else results, args.report)
+
+
+def run(args: argparse.Namespace) -> int:
+    from netloop import report
+    from netloop.analysis import parse_requirements
+    from netloop.measure import load_netlist, measure
+
+    requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    if args.open_loop_rhp_poles < 0:
+        from netloop.errors import NetloopError
+
+        raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
+    netlist = load_netlist(args.netlist)
+    common = dict(
+        driver=args.driver,
+        method=args.method,
+        sweep=sweep_from(args),
+        open_loop_rhp_poles=args.open_loop_rhp_poles,
+        requirements=requirements,
+        keep_decks=args.keep_decks,
+    )
+    if args.at:
+        results = [measure(netlist, args.at, **common)]
+    else:
+        from netloop.discover import measure_all_loops
+
+        results, notes = measure_all_loops(netlist, **common)
+        for note in notes:
+            print(f"netloop: {note}", file=sys.stderr)
+    write_outputs(args, results)
+    if args.json:
+        doc = report.to_document(results[0]) if args.at else report.multi_document("loops", results)
+        print(json.dumps(doc, indent=2, allow_nan=False))
+    else:
+        print("\n\n".join(report.format_text(r) for r in results))
+    return 0 if all(r.passed for r in results) else 1

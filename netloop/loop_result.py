@@ -1,0 +1,73 @@
+"""The record of one measured loop: where it was broken, how it was simulated, and what the analysis found."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from netloop.analysis.requirements import RequirementOutcome
+from netloop.analysis.results import LoopAnalysis
+
+__all__ = ["CAUTION", "BreakInfo", "LoopResult", "SimInfo"]
+
+CAUTION = (
+    "Small-signal margins around one operating point do not prove large-signal stability; "
+    "sign-off follows your team's verification flow and the foundry's guidance."
+)
+
+
+@dataclass(frozen=True, slots=True)
+class BreakInfo:
+    """Where and how the loop was broken (plain strings, copied from the probe stage)."""
+
+    node: str  # as the user named it, lower-case ("xamp.n5")
+    side_a: str  # driver-side node name in the probe deck
+    side_b: str  # load-side node name in the probe deck
+    driver_terminals: tuple[str, ...]  # "m6.d", "xamp.out"
+    load_terminals: tuple[str, ...]
+    shunt_terminals: tuple[str, ...]  # connect the node only to AC ground: either side gives the same T
+    decided_by: str  # one sentence: how the driver side was chosen
+    silenced_sources: tuple[str, ...]  # independent sources whose AC magnitude the probe deck set to 0
+    copied_subcircuits: tuple[tuple[str, str], ...] = ()  # (original, copy) for a break inside one instance
+
+
+@dataclass(frozen=True, slots=True)
+class SimInfo:
+    """How the return ratio was simulated."""
+
+    backend: str  # "shared" or "batch" or "analytic"
+    points: int  # frequency points in the final data
+    refinement_rounds: int
+    refined: bool  # True when the worst phase margin settled within the tolerance
+    convergence_aid: str | None  # the aid that made the operating point converge, if one was needed
+    deck_path: str | None  # where the probe deck was kept (--keep-decks), else None
+    seconds: float  # wall time of the simulations
+
+
+@dataclass(frozen=True, slots=True)
+class LoopResult:
+    """One loop, measured: the answer `netloop check` reports and corner runs collect."""
+
+    netlist: str  # the netlist's path as given ("<string>" for text)
+    label: str  # a corner name or a loop name; "" for a single check
+    method: str  # "tian" or "middlebrook"
+    breaks: BreakInfo
+    analysis: LoopAnalysis
+    requirements: tuple[RequirementOutcome, ...]
+    ignored_statements: tuple[str, ...]  # "file:line: .tran 1n 1u" — never run by netloop
+    warnings: tuple[str, ...]  # from the probe, the simulation and the analysis, in that order
+    sim: SimInfo
+    caution: str = CAUTION
+
+    @property
+    def stable(self) -> bool:
+        """The Nyquist verdict."""
+        return self.analysis.stable
+
+    @property
+    def passed(self) -> bool:
+        """Stable and every requirement met (the exit status 0 of `netloop check`)."""
+        return self.analysis.stable and all(r.passed for r in self.requirements)
+
+    @property
+    def failed_requirements(self) -> tuple[RequirementOutcome, ...]:
+        return tuple(r for r in self.requirements if not r.passed)

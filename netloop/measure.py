@@ -1,0 +1,306 @@
+"""The main job, composed once: netlist -> break -> probe deck -> ngspice -> return ratio -> analysis."""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Iterable
+from dataclasses import dataclass, replace
+from os import PathLike
+from pathlib import Path
+
+import numpy as np
+
+from netloop.analysis import analyse, middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis.requirements import Requirement
+from netloop.errors import NetloopError
+from netloop.loop_result import BreakInfo, LoopResult, SimInfo
+from netloop.netlist import Netlist, parse_file, parse_text, write_netlist
+from netloop.probe import ProbedNetlist, break_loop
+from netloop.sim import AcRun, AcSweep, SimJob, Simulator, default_simulator
+
+__all__ = ["METHODS", "Sweep", "load_netlist", "measure", "measure_probed", "probe_job", "return_ratio"]
+
+METHODS = ("tian", "middlebrook")
+
+
+@dataclass(frozen=True, slots=True)
+class Sweep:
+    """The frequency plan of a measurement.
+
+    The first pass runs ``ac dec points_per_decade fmin_hz fmax_hz``. When a limit was not given by
+    the user (``*_given`` False) the sweep is widened where the data asks for it: upward until |T|
+    is well below 1 at the top, downward until the phase has settled at the bottom. Then, with
+    ``refine``, short linear sweeps are added around every crossover until the worst phase margin
+    moves by less than ``tol_deg`` (at most ``max_rounds`` rounds).
+    """
+
+    fmin_hz: float = 1e-2
+    fmax_hz: float = 1e10
+    points_per_decade: int = 10
+    fmin_given: bool = False
+    fmax_given: bool = False
+    refine: bool = True
+    tol_deg: float = 1e-4
+    max_rounds: int = 6
+    floor_hz: float = 1e-6  # never widen below this
+    ceiling_hz: float = 1e13  # never widen above this
+
+    def __post_init__(self) -> None:
+        if not (0 < self.fmin_hz < self.fmax_hz) or not math.isfinite(self.fmax_hz):
+            raise NetloopError(f"the sweep needs 0 < fmin < fmax, got fmin={self.fmin_hz:g} Hz, fmax={self.fmax_hz:g} Hz")
+        if self.points_per_decade < 2:
+            raise NetloopError(f"points per decade must be at least 2, got {self.points_per_decade}")
+
+
+def load_netlist(source: Netlist | str | PathLike[str]) -> Netlist:
+    """A Netlist from a parsed netlist, a path, or netlist text (text is recognised by a newline)."""
+    if isinstance(source, Netlist):
+        return source
+    if isinstance(source, str) and "\n" in source:
+        return parse_text(source)
+    return parse_file(Path(source))
+
+
+def return_ratio(probed: ProbedNetlist, series: dict, shunt: dict, method: str) -> np.ndarray:
+    """T from the vectors of the two runs, by Tian et al. (2001) or Middlebrook (1975)."""
+    q = probed.vectors.quantities(series, shunt)
+    if method == "tian":
+        return tian(q.va1, q.vb1, q.ib2)
+    if method == "middlebrook":
+        return middlebrook(q.va1, q.vb1, q.ia2, q.ib2)
+    raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
+
+
+def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
+    """The simulator job for one probe: two AC runs on one operating point, only the probe vectors saved."""
+    text = write_netlist(probed.netlist)
+    return SimJob(
+        netlist=text,
+        runs=(
+            AcRun("series", probed.series_run_ac, sweeps),
+            AcRun("shunt", probed.shunt_run_ac, sweeps),
+        ),
+        save=probed.vectors.save,
+        excitable=(probed.series_source, probed.shunt_source),
+        label=label,
+        timeout_s=timeout_s,
+    )
+
+
+def _lin_sweeps(freqs: np.ndarray, points_per_decade: int) -> tuple[AcSweep, ...]:
+    """Short linear ac sweeps that visit (close to) the proposed frequencies, one per cluster."""
+    if freqs.size == 0:
+        return ()
+    freqs = np.sort(freqs)
+    gap = 10 ** (1.5 / points_per_decade)
+    clusters: list[list[float]] = [[float(freqs[0])]]
+    for f in freqs[1:]:
+        if f / clusters[-1][-1] < gap:
+            clusters[-1].append(float(f))
+        else:
+            clusters.append([float(f)])
+    sweeps = []
+    for c in clusters:
+        if len(c) == 1:
+            sweeps.append(AcSweep("lin", 1, c[0], c[0]))
+        else:
+            sweeps.append(AcSweep("lin", max(len(c), 3), c[0], c[-1]))
+    return tuple(sweeps)
+
+
+def _merge(f: np.ndarray, t: np.ndarray, f2: np.ndarray, t2: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    ff = np.concatenate([f, f2])
+    tt = np.concatenate([t, t2])
+    order = np.argsort(ff, kind="stable")
+    ff, tt = ff[order], tt[order]
+    keep = np.concatenate([[True], np.diff(ff) > ff[1:] * 1e-12])
+    return ff[keep], tt[keep]
+
+
+def _phase_settled(f: np.ndarray, t: np.ndarray) -> bool:
+    """True when the phase moves by less than 3 deg over the lowest decade of the sweep (common practice)."""
+    top = np.searchsorted(f, f[0] * 10.0)
+    if top >= f.size:
+        return True
+    ph = np.unwrap(np.angle(t[: top + 1]))
+    return bool(np.ptp(ph) < math.radians(3.0))
+
+
+class _Runner:
+    """Runs probe jobs for one break and keeps the return ratio gathered so far."""
+
+    def __init__(self, probed: ProbedNetlist, method: str, simulator: Simulator, label: str, timeout_s: float):
+        self.probed = probed
+        self.method = method
+        self.simulator = simulator
+        self.label = label
+        self.timeout_s = timeout_s
+        self.seconds = 0.0
+        self.aid: str | None = None
+        self.deck_path: str | None = None
+        self.backend = getattr(simulator, "backend", type(simulator).__name__)
+        self.log_warnings: list[str] = []
+
+    def evaluate(self, sweeps: tuple[AcSweep, ...]) -> tuple[np.ndarray, np.ndarray]:
+        job = probe_job(self.probed, sweeps, label=self.label, timeout_s=self.timeout_s)
+        start = time.perf_counter()
+        result = self.simulator.run(job)
+        self.seconds += time.perf_counter() - start
+        self.aid = self.aid or result.convergence_aid
+        self.deck_path = self.deck_path or result.deck_path
+        self.backend = result.backend or self.backend
+        series, shunt = result.run("series"), result.run("shunt")
+        t = return_ratio(self.probed, dict(series.vectors), dict(shunt.vectors), self.method)
+        return np.asarray(series.freq_hz, dtype=float), np.asarray(t, dtype=complex)
+
+
+def measure_probed(
+    probed: ProbedNetlist,
+    *,
+    method: str = "tian",
+    sweep: Sweep = Sweep(),
+    simulator: Simulator,
+    open_loop_rhp_poles: int = 0,
+    label: str = "",
+    timeout_s: float = 600.0,
+) -> tuple:
+    """Simulate one probe and analyse it: returns (analysis, SimInfo, warnings)."""
+    if method not in METHODS:
+        raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
+    runner = _Runner(probed, method, simulator, label, timeout_s)
+    fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
+    ppd = sweep.points_per_decade
+    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),))
+
+    # widen the sweep where the data asks for it and the user did not fix the limit
+    for _ in range(3):
+        more: list[AcSweep] = []
+        if not sweep.fmax_given and abs(t[-1]) > 0.1 and fmax < sweep.ceiling_hz:
+            new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
+            more.append(AcSweep("dec", ppd, fmax, new_fmax))
+            fmax = new_fmax
+        if not sweep.fmin_given and not _phase_settled(f, t) and fmin > sweep.floor_hz:
+            new_fmin = max(fmin / 100.0, sweep.floor_hz)
+            more.append(AcSweep("dec", ppd, new_fmin, fmin))
+            fmin = new_fmin
+        if not more:
+            break
+        f2, t2 = runner.evaluate(tuple(more))
+        f, t = _merge(f, t, f2, t2)
+
+    analysis = analyse(f, t, open_loop_rhp_poles=open_loop_rhp_poles, fit_poles=False)
+    rounds, refined = 0, True
+    if sweep.refine and analysis.gain_crossovers:
+        refined = False
+        previous = analysis.margins.phase_margin_deg
+        while rounds < sweep.max_rounds:
+            proposals = propose_frequencies(f, t, analysis=analysis)
+            if proposals.size == 0:
+                refined = True
+                break
+            f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd))
+            f, t = _merge(f, t, f2, t2)
+            rounds += 1
+            analysis = analyse(f, t, open_loop_rhp_poles=open_loop_rhp_poles, fit_poles=False)
+            current = analysis.margins.phase_margin_deg
+            if previous is not None and current is not None and abs(current - previous) < sweep.tol_deg:
+                refined = True
+                break
+            previous = current
+    analysis = analyse(f, t, open_loop_rhp_poles=open_loop_rhp_poles, fit_poles=True)
+    info = SimInfo(
+        backend=runner.backend,
+        points=int(f.size),
+        refinement_rounds=rounds,
+        refined=refined,
+        convergence_aid=runner.aid,
+        deck_path=runner.deck_path,
+        seconds=runner.seconds,
+    )
+    warnings = []
+    if runner.aid:
+        warnings.append(f"the operating point converged only with {runner.aid}")
+    if sweep.refine and analysis.gain_crossovers and not refined:
+        warnings.append(f"the phase margin did not settle to {sweep.tol_deg:g} deg in {rounds} refinement rounds")
+    return analysis, info, tuple(warnings)
+
+
+def breaks_of(probed: ProbedNetlist) -> BreakInfo:
+    """The plain-data description of a break, for reports."""
+    return BreakInfo(
+        node=probed.node,
+        side_a=probed.side_a,
+        side_b=probed.side_b,
+        driver_terminals=probed.driver_terminals,
+        load_terminals=probed.load_terminals,
+        shunt_terminals=probed.shunt_terminals,
+        decided_by=probed.decided_by,
+        silenced_sources=probed.silenced_sources,
+        copied_subcircuits=probed.copied_subcircuits,
+    )
+
+
+def ignored_lines(netlist: Netlist) -> tuple[str, ...]:
+    """The statements netloop never runs, as "file:line: text" (first line of a block)."""
+    return tuple(f"{d.location.file}:{d.location.line}: {d.text.splitlines()[0].strip()}" for d in netlist.ignored)
+
+
+def measure(
+    netlist: Netlist | str | PathLike[str],
+    at: str,
+    *,
+    driver: str | None = None,
+    method: str = "tian",
+    sweep: Sweep = Sweep(),
+    open_loop_rhp_poles: int = 0,
+    requirements: Iterable[str | Requirement] = (),
+    simulator: Simulator | None = None,
+    keep_decks: str | PathLike[str] | None = None,
+    label: str = "",
+    timeout_s: float = 600.0,
+) -> LoopResult:
+    """Break the loop at node ``at``, measure its return ratio in ngspice and analyse its stability.
+
+    ``netlist`` is a parsed Netlist, a path, or netlist text. ``requirements`` are expressions
+    such as "pm>=60" or parsed Requirement objects. Without ``simulator`` the default ngspice
+    backend is started for this call and closed after it.
+    """
+    parsed = load_netlist(netlist)
+    reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
+        [r for r in requirements if not isinstance(r, Requirement)]
+    )
+    probed = break_loop(parsed, at, driver=driver)
+    own = simulator is None
+    sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    try:
+        analysis, info, sim_warnings = measure_probed(
+            probed,
+            method=method,
+            sweep=sweep,
+            simulator=sim,
+            open_loop_rhp_poles=open_loop_rhp_poles,
+            label=label,
+            timeout_s=timeout_s,
+        )
+    finally:
+        if own and hasattr(sim, "close"):
+            sim.close()
+    outcomes = tuple(r.check(analysis) for r in reqs)
+    warnings = (*parsed.warnings, *probed.warnings, *sim_warnings, *analysis.warnings)
+    return LoopResult(
+        netlist=parsed.source,
+        label=label,
+        method=method,
+        breaks=breaks_of(probed),
+        analysis=analysis,
+        requirements=outcomes,
+        ignored_statements=ignored_lines(parsed),
+        warnings=tuple(dict.fromkeys(warnings)),
+        sim=info,
+    )
+
+
+def with_label(result: LoopResult, label: str) -> LoopResult:
+    """The same result under another label (a corner name)."""
+    return replace(result, label=label)

@@ -1,0 +1,107 @@
+"""The composed job, netlist to margins through real ngspice, against closed forms of behavioural loops."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.optimize import brentq
+
+from netloop.measure import Sweep, measure
+
+pytestmark = pytest.mark.ngspice
+
+A0 = 1000.0
+F1, F2, F3 = 1e3, 1e6, 5e6
+
+
+def _loop_netlist(poles_hz: tuple[float, ...], gain: float) -> str:
+    """An error amplifier E0 = gain * (ref - out) followed by buffered RC poles back to out."""
+    lines = ["behavioural loop with real poles", "vref ref 0 dc 0.5", f"e0 n0 0 ref out {gain}"]
+    prev = "n0"
+    for k, f in enumerate(poles_hz, start=1):
+        node = "out" if k == len(poles_hz) else f"p{k}"
+        lines += [f"r{k} {prev} {node} 1k", f"c{k} {node} 0 {1 / (2 * math.pi * 1e3 * f):.17g}"]
+        if node != "out":
+            lines.append(f"eb{k} b{k} 0 {node} 0 1")
+            prev = f"b{k}"
+    return "\n".join(lines) + "\n.end\n"
+
+
+def _closed_form(poles_hz, gain):
+    def t(f):
+        s = 2j * math.pi * np.asarray(f, dtype=float)
+        out = gain * np.ones_like(s)
+        for p in poles_hz:
+            out = out / (1 + s / (2 * math.pi * p))
+        return out
+
+    return t
+
+
+def test_two_pole_loop_phase_margin_matches_closed_form(tmp_path):
+    """The measured phase margin and crossover of a two-pole loop equal the closed form's within 1e-3 deg."""
+    path = tmp_path / "two_pole.cir"
+    path.write_text(_loop_netlist((F1, F2), A0))
+    t = _closed_form((F1, F2), A0)
+    # exact crossover: |T(fc)| = 1, solved on the closed form T(s) = A0 / ((1 + s/w1)(1 + s/w2)) (circuit theory)
+    fc = brentq(lambda f: abs(t(f)) - 1.0, 1e3, 1e8, xtol=1e-6, rtol=1e-14)
+    pm = 180.0 + math.degrees(np.angle(t(fc)))
+    result = measure(path, "out")
+    m = result.analysis.margins
+    assert m.phase_margin_deg == pytest.approx(pm, abs=1e-3)
+    assert m.unity_gain_hz == pytest.approx(fc, rel=1e-5)
+    assert result.analysis.dc_gain_db == pytest.approx(20 * math.log10(A0), abs=1e-6)
+    assert result.stable and result.passed
+    assert result.breaks.silenced_sources == ()
+
+
+def test_two_pole_loop_matches_python_control(tmp_path):
+    """python-control's stability_margins on the same closed-form T agrees with the measured margins."""
+    control = pytest.importorskip("control")
+    path = tmp_path / "three_pole.cir"
+    poles = (F1, F2, F3)
+    path.write_text(_loop_netlist(poles, A0))
+    w = [2 * math.pi * p for p in poles]
+    # python-control 0.10 stability_margins on the transfer function A0 / prod(1 + s/w_k)
+    sys = control.tf([A0], [1.0])
+    for wk in w:
+        sys = sys * control.tf([1.0], [1 / wk, 1.0])
+    gm, pm, _sm, wpc, wgc, _wms = control.stability_margins(sys)
+    result = measure(path, "out", method="middlebrook")
+    m = result.analysis.margins
+    assert m.phase_margin_deg == pytest.approx(pm, abs=1e-3)
+    assert m.unity_gain_hz == pytest.approx(wgc / (2 * math.pi), rel=1e-5)
+    assert m.gain_margin_db == pytest.approx(20 * math.log10(gm), abs=1e-3)
+    assert m.phase_crossover_hz == pytest.approx(wpc / (2 * math.pi), rel=1e-5)
+
+
+def test_unstable_loop_is_unstable_with_the_right_pole_count(tmp_path):
+    """A three-pole loop with too much gain is unstable, with as many RHP poles as 1 + T has RHP zeros."""
+    gain = 2e5
+    poles = (F1, F2, F3)
+    path = tmp_path / "unstable.cir"
+    path.write_text(_loop_netlist(poles, gain))
+    # reference: roots of the closed-loop characteristic polynomial prod(1 + s/w_k) + gain (numpy.roots)
+    char = np.array([1.0])
+    for p in poles:
+        char = np.polymul(char, [1 / (2 * math.pi * p), 1.0])
+    char = np.polyadd(char, [gain])
+    rhp = int(np.sum(np.roots(char).real > 0))
+    result = measure(path, "out", requirements=["pm>=45"])
+    assert rhp == 2
+    assert not result.stable
+    assert result.analysis.nyquist.closed_loop_rhp_poles == rhp
+    assert result.analysis.poles is not None and result.analysis.poles.rhp_count == rhp
+    assert not result.passed
+
+
+def test_fixed_sweep_is_not_widened(tmp_path):
+    """Limits the user gave are kept: the data starts and ends exactly there."""
+    path = tmp_path / "two_pole.cir"
+    path.write_text(_loop_netlist((F1, F2), A0))
+    result = measure(path, "out", sweep=Sweep(fmin_hz=10.0, fmax_hz=1e7, fmin_given=True, fmax_given=True, refine=False))
+    f = result.analysis.freq_hz
+    assert f[0] == pytest.approx(10.0)
+    assert f[-1] == pytest.approx(1e7)
