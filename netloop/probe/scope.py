@@ -78,6 +78,8 @@ def pin_names(element: Element, definition: Subcircuit | None) -> tuple[str, ...
     """Pin roles of an element; an X line takes its definition's pin names by position."""
     if element.kind == "X" and definition is not None and len(definition.pins) == len(element.node_slots):
         return definition.pins
+    if element.kind == "X" and definition is None and "fet" in (element.model or "") and len(element.node_slots) == 4:
+        return ("d", "g", "s", "b")  # a transistor wrapper whose definition is not loaded
     return element.pins
 
 

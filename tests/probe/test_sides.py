@@ -11,7 +11,7 @@ from netloop.probe import break_loop
 # An invented two-instance netlist: a common-source stage with a follower and local feedback,
 # instantiated twice (xa, xb). Model cards are INVENTED for this test.
 HIER = """hierarchical test: two copies of one stage
-.model nch nmos level=1 vto=0.5 kp=200u lambda=0.05
+.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
 .subckt stage in out vdd
 Rin in g 10k
 M1 n5 g 0 0 nch w=10u l=1u
@@ -184,7 +184,7 @@ def test_divider_tap_driven_through_resistor():
 
 
 SHARED_BIAS = """bias node shared by two amplifiers (invented)
-.model nch nmos level=1 vto=0.5 kp=200u lambda=0.05
+.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
 Vdd vdd 0 dc 3.3
 Ib vdd nb dc 20u
 M0 nb nb 0 0 nch w=10u l=1u

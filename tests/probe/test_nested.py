@@ -1,0 +1,132 @@
+"""Breaks two levels down: every definition on the instance path is copied, nothing else changes, and the OP stays."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.netlist import parse_file, parse_text, write_netlist
+from netloop.probe import break_loop
+
+from .test_operating_point import assert_same_op
+
+# Invented: a channel subcircuit holding two stages (stage defined inside channel), used twice.
+NESTED = """nested hierarchy: two channels of two stages each
+.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
+.subckt channel in out vdd
+.subckt stage in out vdd
+Rin in g 10k
+M1 n5 g 0 0 nch w=10u l=1u
+Rd vdd n5 20k
+M2 vdd n5 out 0 nch w=10u l=1u
+Rs out 0 20k
+Rf out g 100k
+.ends stage
+xa in mid vdd stage
+xb mid out vdd stage
+.ends channel
+Vdd vdd 0 dc 3.3
+Vin in 0 dc 1 ac 1
+xc1 in o1 vdd channel
+xc2 in o2 vdd channel
+"""
+
+
+def test_nested_copies_only_the_path():
+    """Breaking xc2.xa.n5 copies channel (for xc2) and stage (for xc2.xa); xc1, xc2.xb and the originals stay."""
+    nl = parse_text(NESTED)
+    p = break_loop(nl, "xc2.xa.n5")
+    assert p.side_b == "xc2.xa.n5" and p.side_a == "xc2.xa.n5_drive"
+    assert p.series_source == "v.xc2.xa.vnl_series"
+    assert p.driver_terminals == ("xc2.xa.m1.d",)
+    assert p.copied_subcircuits == (("channel", "channel_broken_in_xc2"), ("stage", "stage_broken_in_xc2_xa"))
+    new = write_netlist(p.netlist)
+    assert "xc1 in o1 vdd channel\n" in new and "xc2 in o2 vdd channel_broken_in_xc2\n" in new
+    copy = new[new.index(".subckt channel_broken_in_xc2"):new.index(".ends channel_broken_in_xc2")]
+    assert "xa in mid vdd stage_broken_in_xc2_xa" in copy and "xb mid out vdd stage\n" in copy
+    assert ".subckt stage_broken_in_xc2_xa" in copy  # nested next to its original, visible where it is used
+    original = write_netlist(nl)
+    block = original[original.index(".subckt channel in"):original.index(".ends channel") + len(".ends channel")]
+    assert block in new  # the original definition is written unchanged
+
+
+@pytest.mark.ngspice
+def test_nested_op_unchanged(simulator):
+    """ngspice's op of every node, xc1 and xc2 alike, is unchanged by a break two levels down."""
+    nl = parse_text(NESTED)
+    before = simulator.operating_point(write_netlist(nl))
+    assert "xc2.xa.n5" in before  # ngspice 39 names nested nodes instance.instance.node
+    p = break_loop(nl, "xc2.xa.n5")
+    after = simulator.operating_point(write_netlist(p.netlist))
+    assert_same_op(before, after)
+    assert p.side_a in after
+
+
+def test_sky130_device_wrappers_are_transistors(circuits):
+    """sky130 nfet/pfet wrapper instances count as transistors: XM6/XM7 drains drive out and XM1's gate loads it."""
+    p = break_loop(parse_file(circuits / "sky130" / "miller_buffer.cir"), "out")
+    assert set(p.driver_terminals) == {"xm6.d", "xm7.d", "cc.n"}  # the circuit's comment: driven by XM6 drain
+    assert p.load_terminals == ("xm1.g",)
+
+
+def test_missing_wrapper_definition_by_name():
+    """An instance of a '...fet...' subcircuit whose definition is not loaded is read as d, g, s, b."""
+    text = "no models\nVdd vdd 0 dc 1.8\nXM1 out g 0 0 my_nfet_wrap w=1\nRl vdd out 10k\nRf out g 100k\nCg g 0 1p\n"
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("xm1.d",) and p.load_terminals == ("rf.p",)
+
+
+# HIER (test_sides) with instance xa expanded by hand: its inner nodes renamed xa_g, xa_n5.
+HIER_FLAT_BY_HAND = """hierarchical test with xa expanded by hand
+.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
+.subckt stage in out vdd
+Rin in g 10k
+M1 n5 g 0 0 nch w=10u l=1u
+Rd vdd n5 20k
+Cd n5 0 50f
+M2 vdd n5 out 0 nch w=10u l=1u
+Rs out 0 20k
+Rf out g 100k
+.ends
+Vdd vdd 0 dc 3.3
+Vin in 0 dc 1 ac 1 sin(1 0.1 1k)
+Iaux 0 out dc 0 ac 2 45
+Rin_a in xa_g 10k
+M1_a xa_n5 xa_g 0 0 nch w=10u l=1u
+Rd_a vdd xa_n5 20k
+Cd_a xa_n5 0 50f
+M2_a vdd xa_n5 mid 0 nch w=10u l=1u
+Rs_a mid 0 20k
+Rf_a mid xa_g 100k
+xb mid out vdd stage
+"""
+
+
+@pytest.mark.ngspice
+def test_break_inside_instance_equals_flat_break(simulator):
+    """T measured at xa.n5 (probe inside a copied subcircuit, hierarchical source names for alter and save) equals T at the same node of a hand-flattened netlist."""
+    from netloop.analysis.return_ratio import tian  # noqa: PLC0415
+
+    from .conftest import probe_runs  # noqa: PLC0415
+    from .test_sides import HIER  # noqa: PLC0415
+
+    hier = break_loop(parse_text(HIER), "xa.n5")
+    flat = break_loop(parse_text(HIER_FLAT_BY_HAND), "xa_n5")
+    assert flat.driver_terminals == ("m1_a.d",)
+    _, qh, oph = probe_runs(simulator, hier, 1.0, 1e10, 5)
+    _, qf, opf = probe_runs(simulator, flat, 1.0, 1e10, 5)
+    th, tf = tian(qh.va1, qh.vb1, qh.ib2), tian(qf.va1, qf.vb1, qf.ib2)
+    assert abs(th[0]) > 0.05  # a live loop (both transistors conducting)
+    assert max(abs(th - tf) / abs(tf)) < 1e-9
+    assert abs(oph["xa.n5"] - opf["xa_n5"]) < 1e-9
+
+
+@pytest.mark.ngspice
+def test_bundled_hierarchical_readout(simulator, circuits):
+    """On circuits/hier/top.cir, breaking xa1.o1 keeps the includes, leaves Xa2 on the original subcircuit and every op node unchanged."""
+    nl = parse_file(circuits / "hier" / "top.cir")
+    p = break_loop(nl, "xa1.o1")
+    text = write_netlist(p.netlist)
+    assert ".include" in text and "miller_ota_broken_in_xa1" in text
+    xa2 = next(line for line in write_netlist(nl).splitlines() if line.lower().startswith("xa2 "))
+    assert xa2 in text.splitlines()
+    assert_same_op(simulator.operating_point(write_netlist(nl)), simulator.operating_point(text))  # ngspice's own op
