@@ -8,6 +8,7 @@ from netloop.netlist import parse_file, parse_text, write_netlist
 from netloop.probe import break_loop
 
 from .test_operating_point import assert_same_op
+from .test_sides import HIER
 
 # Invented: a channel subcircuit holding two stages (stage defined inside channel), used twice.
 NESTED = """nested hierarchy: two channels of two stages each
@@ -76,29 +77,11 @@ def test_missing_wrapper_definition_by_name():
 
 
 # HIER (test_sides) with instance xa expanded by hand: its inner nodes renamed xa_g, xa_n5.
-HIER_FLAT_BY_HAND = """hierarchical test with xa expanded by hand
-.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
-.subckt stage in out vdd
-Rin in g 10k
-M1 n5 g 0 0 nch w=10u l=1u
-Rd vdd n5 20k
-Cd n5 0 50f
-M2 vdd n5 out 0 nch w=10u l=1u
-Rs out 0 20k
-Rf out g 100k
-.ends
-Vdd vdd 0 dc 3.3
-Vin in 0 dc 1 ac 1 sin(1 0.1 1k)
-Iaux 0 out dc 0 ac 2 45
-Rin_a in xa_g 10k
-M1_a xa_n5 xa_g 0 0 nch w=10u l=1u
-Rd_a vdd xa_n5 20k
-Cd_a xa_n5 0 50f
-M2_a vdd xa_n5 mid 0 nch w=10u l=1u
-Rs_a mid 0 20k
-Rf_a mid xa_g 100k
-xb mid out vdd stage
-"""
+HIER_FLAT_BY_HAND = HIER.replace(
+    "xa in mid vdd stage\n",
+    "Rin_a in xa_g 10k\nM1_a xa_n5 xa_g 0 0 nch w=10u l=1u\nRd_a vdd xa_n5 20k\nCd_a xa_n5 0 50f\n"
+    "M2_a vdd xa_n5 mid 0 nch w=10u l=1u\nRs_a mid 0 20k\nRf_a mid xa_g 100k\n",
+)
 
 
 @pytest.mark.ngspice
@@ -107,7 +90,6 @@ def test_break_inside_instance_equals_flat_break(simulator):
     from netloop.analysis.return_ratio import tian  # noqa: PLC0415
 
     from .conftest import probe_runs  # noqa: PLC0415
-    from .test_sides import HIER  # noqa: PLC0415
 
     hier = break_loop(parse_text(HIER), "xa.n5")
     flat = break_loop(parse_text(HIER_FLAT_BY_HAND), "xa_n5")
