@@ -10,6 +10,8 @@ library     where libngspice and the ngspice binary are
 
 from __future__ import annotations
 
+from typing import Literal
+
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.analytic import AnalyticSimulator
 from netloop.sim.batch import BatchSimulator
@@ -40,8 +42,19 @@ __all__ = [
 ]
 
 
-def default_simulator(keep_dir: str | None = None) -> Simulator:
-    """The shared-library backend if libngspice loads, else batch mode, else SimulatorUnavailableError."""
+def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "shared", "batch"] = "auto") -> Simulator:
+    """The shared-library backend if libngspice loads, else batch mode, else SimulatorUnavailableError.
+
+    ``backend`` picks one explicitly ("shared" or "batch"); ``keep_dir`` keeps every deck there.
+    """
+    if backend == "shared":
+        simulator = SharedLibrarySimulator(keep_dir=keep_dir)
+        simulator.start()
+        return simulator
+    if backend == "batch":
+        return BatchSimulator(keep_dir=keep_dir)
+    if backend != "auto":
+        raise ValueError(f"backend must be 'auto', 'shared' or 'batch', not {backend!r}")
     problems = []
     if find_libngspice() is not None:
         simulator = SharedLibrarySimulator(keep_dir=keep_dir)

@@ -55,3 +55,6 @@ class AnalyticSimulator:
 
     def operating_point(self, netlist: str) -> Mapping[str, float]:
         return dict(self.op)
+
+    def close(self) -> None:
+        """Nothing to stop; here so that every simulator reads alike."""

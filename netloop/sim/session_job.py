@@ -45,17 +45,19 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
     """Do ``job`` in ``session``; raises JobFailure with ngspice's own lines when it cannot."""
     log: list[str] = []
     tried: list[str | None] = []
+
+    def failure(kind: str, message: str) -> JobFailure:
+        session.clear()
+        return JobFailure(kind, message, tail(log, 60), tried[-1] if tried else None, tuple(tried))
+
     op_lines: list[str] = []
     for aid in aid_ladder(job):
         tried.append(aid)
         session.clear()
-        deck = render_deck(job, option_words(job, aid))
-        loaded = session.load(deck)
+        loaded = session.load(render_deck(job, option_words(job, aid)))
         log.extend(loaded)
-        bad = error_lines(loaded)
-        if bad:
-            session.clear()
-            raise JobFailure("netlist", "ngspice could not read the netlist: " + summary(loaded), tail(log, 40), aid, tuple(tried))
+        if error_lines(loaded):
+            raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded))
         op_lines = session.command("op")
         log.extend(op_lines)
         plot = session.current_plot()
@@ -63,47 +65,37 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
         if not op_failed(op_lines) and not error_lines(op_lines) and (voltages or not _has_nodes(session, plot)):
             break
     else:
-        session.clear()
-        said = summary(op_lines)
-        raise JobFailure("op", said, tail(log, 60), tried[-1], tuple(tried))
+        raise failure("op", summary(op_lines))
     missing = unknown_saves(job.save, session.vector_names(plot))
     if missing:
-        session.clear()
-        raise JobFailure("netlist", missing, tail(log, 40), aid, tuple(tried))
+        raise failure("netlist", missing)
     session.command("destroy all")
 
-    runs = []
-    steps = control_steps(job, write_raw=False)
     saves = tuple(save_key(s) for s in job.save)
     parts: dict[int, list] = {r: [] for r in range(len(job.runs))}
-    for step in steps:
+    for step in control_steps(job, write_raw=False):
         if step.kind in ("op", "free"):
-            continue
+            continue  # the operating point is done; plots are freed below, once read
         lines = session.command(step.command)
         log.extend(lines)
-        bad = error_lines(lines)
-        if bad:
-            session.clear()
-            raise JobFailure("analysis", f"'{step.command}' failed: " + summary(lines), tail(log, 40), aid, tuple(tried))
-        if step.kind == "ac":
-            plot = session.current_plot()
-            freq = session.vector(plot, "frequency")
-            if not plot.startswith("ac") or freq is None or freq.size == 0:
-                session.clear()
-                raise JobFailure("analysis", f"'{step.command}' produced no data", tail(log, 40), aid, tuple(tried))
-            vectors = {}
-            for key in saves:
-                data = session.vector(plot, key)
-                if data is None:
-                    session.clear()
-                    known = ", ".join(sorted(session.vector_names(plot)))
-                    raise JobFailure("analysis", f"ngspice has no vector {key!r} (this run has: {known})", tail(log, 40), aid, tuple(tried))
-                vectors[key] = np.asarray(data, dtype=np.complex128)
-            parts[step.run_index].append((np.real(freq).astype(float), vectors))
-            session.command("destroy all")
-    for r, run in enumerate(job.runs):
-        freq, vectors = merge_sweeps(parts[r])
-        runs.append((run.name, freq, vectors))
+        if error_lines(lines):
+            raise failure("analysis", f"'{step.command}' failed: " + summary(lines))
+        if step.kind != "ac":
+            continue
+        plot = session.current_plot()
+        freq = session.vector(plot, "frequency")
+        if not plot.startswith("ac") or freq is None or freq.size == 0:
+            raise failure("analysis", f"'{step.command}' produced no data")
+        vectors = {}
+        for key in saves:
+            data = session.vector(plot, key)
+            if data is None:
+                known = ", ".join(sorted(session.vector_names(plot)))
+                raise failure("analysis", f"ngspice has no vector {key!r} (this run has: {known})")
+            vectors[key] = np.asarray(data, dtype=np.complex128)
+        parts[step.run_index].append((np.real(freq).astype(float), vectors))
+        session.command("destroy all")
+    runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
     session.clear()
     return JobPayload(operating_point=voltages, runs=runs, log="\n".join(log), aid=aid)
 

@@ -9,11 +9,12 @@ import tempfile
 import threading
 import weakref
 from collections.abc import Mapping
+from dataclasses import replace
 from pathlib import Path
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.convergence import op_failure
-from netloop.sim.job import RunResult, SimJob, SimResult
+from netloop.sim.job import AcRun, RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck, runnable_deck
 from netloop.sim.library import find_libngspice
 from netloop.sim.protocol import FrameTimeout, WorkerGone, read_frame_fd, write_frame
@@ -78,6 +79,12 @@ class _Worker:
         self.scratch.cleanup()
 
 
+def _portable(job: SimJob) -> SimJob:
+    """The job with plain dicts and tuples only, so that it pickles whatever mappings it was built with."""
+    runs = tuple(AcRun(run.name, {str(k): float(v) for k, v in run.ac.items()}, tuple(run.sweeps)) for run in job.runs)
+    return replace(job, runs=runs, save=tuple(job.save), excitable=tuple(job.excitable), options=tuple(job.options), op_aids=tuple(job.op_aids))
+
+
 def _stop_worker(holder: dict) -> None:
     worker = holder.pop("worker", None)
     if worker is not None:
@@ -129,10 +136,11 @@ class SharedLibrarySimulator:
         self.close()
 
     def run(self, job: SimJob) -> SimResult:
+        runnable_deck(job, None)  # refuses a malformed job (a bad sweep, a non-finite value) before any work
         with self._lock:
             worker = self._worker()
             try:
-                reply = worker.call(("run", job), job.timeout_s)
+                reply = worker.call(("run", _portable(job)), job.timeout_s)
             except FrameTimeout as exc:
                 _stop_worker(self._holder)
                 deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)

@@ -36,3 +36,16 @@ def test_nothing_installed_says_how_to_install(monkeypatch):
     monkeypatch.setattr(sim, "find_ngspice_binary", lambda: None)
     with pytest.raises(SimulatorUnavailableError, match="apt-get install ngspice"):
         sim.default_simulator()
+
+
+@pytest.mark.ngspice
+def test_backend_can_be_chosen():
+    """backend='batch' and backend='shared' give those backends; an unknown name is refused."""
+    assert isinstance(sim.default_simulator(backend="batch"), sim.BatchSimulator)
+    shared = sim.default_simulator(backend="shared")
+    try:
+        assert isinstance(shared, sim.SharedLibrarySimulator)
+    finally:
+        shared.close()
+    with pytest.raises(ValueError, match="backend must be"):
+        sim.default_simulator(backend="spice3")

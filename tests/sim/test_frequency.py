@@ -51,3 +51,14 @@ def test_bad_sweeps_are_rejected():
     for sweep in bad:
         with pytest.raises(ValueError, match="bad ac sweep"):
             sweep_frequencies(sweep)
+
+
+@pytest.mark.ngspice
+def test_backends_refuse_a_sweep_ngspice_would_hang_on(simulator):
+    """A 'dec' sweep narrower than one step is refused up front (ngspice 39 -b loops forever on
+    'ac dec 10 1 1.2', printing 'Reference value : inf', observed on this machine)."""
+    from netloop.errors import SimulationError  # noqa: PLC0415
+
+    job = SimJob("rc\nv1 in 0 ac 1\nr1 in 0 1k\n", runs=(AcRun("a", {"v1": 1.0}, (AcSweep("dec", 10, 1.0, 1.2),)),), save=("v(in)",), timeout_s=5)
+    with pytest.raises(SimulationError, match="needs fstop_hz/fstart_hz >= 10"):
+        simulator.run(job)

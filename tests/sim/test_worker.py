@@ -82,3 +82,12 @@ def test_unloadable_library_is_unavailable(tmp_path):
     bogus.write_bytes(b"not a shared library")
     with pytest.raises(SimulatorUnavailableError, match="apt-get install"):
         SharedLibrarySimulator(library_path=str(bogus)).start()
+
+
+@pytest.mark.ngspice
+def test_read_only_mappings_cross_to_the_worker(shared_sim):
+    """A run whose AC settings are a read-only mapping (MappingProxyType) is sent and simulated alike."""
+    from types import MappingProxyType  # noqa: PLC0415
+
+    job = SimJob(RC, runs=(AcRun("a", MappingProxyType({"v1": 1.0}), (AcSweep("dec", 3, 1e3, 1e6),)),), save=("v(out)",))
+    _check_rc(shared_sim.run(job))
