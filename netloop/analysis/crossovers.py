@@ -44,13 +44,25 @@ def _delay_margin_s(phase_deg: float, pm_deg: float, freq_hz: float) -> float | 
     return lag / (2.0 * math.pi * freq_hz)
 
 
+def _root(fun, a: float, b: float) -> float:
+    """The root of fun in [a, b]; the samples bracket it, but the spline at a knot may differ by rounding."""
+    fa, fb = fun(a), fun(b)
+    if fa == 0.0:
+        return a
+    if fb == 0.0:
+        return b
+    if (fa < 0.0) == (fb < 0.0):
+        return a if abs(fa) <= abs(fb) else b
+    return brentq(fun, a, b, xtol=_XTOL)
+
+
 def find_gain_crossovers(resp: Response) -> tuple[GainCrossover, ...]:
     """Every |T| = 1 crossing, ascending, each located by root-finding on the gain spline."""
     above = resp.gain_db >= 0.0
     out = []
     for i in np.flatnonzero(above[:-1] != above[1:]):
         a, b = resp.x[i], resp.x[i + 1]
-        xr = brentq(lambda u: float(resp.gain_at(u)), a, b, xtol=_XTOL)
+        xr = _root(lambda u: float(resp.gain_at(u)), a, b)
         f = 10.0**xr
         phase = float(resp.phase_at(xr))
         direction = "down" if resp.gain_db[i] > resp.gain_db[i + 1] else "up"
@@ -69,7 +81,7 @@ def find_phase_crossovers(resp: Response, floor_abs_db: float) -> tuple[tuple[Ph
         for m in np.arange(lo + 1, hi + 1):
             target = 180.0 + 360.0 * m
             a, b = resp.x[i], resp.x[i + 1]
-            xr = brentq(lambda u, tg=target: float(resp.phase_at(u)) - tg, a, b, xtol=_XTOL)
+            xr = _root(lambda u, tg=target: float(resp.phase_at(u)) - tg, a, b)
             gain = float(resp.gain_at(xr))
             rec = PhaseCrossover(10.0**xr, float(target), gain, -gain, "upper" if gain < 0.0 else "lower")
             (kept if gain >= floor_abs_db else ignored).append(rec)

@@ -12,7 +12,9 @@ image (T(-jw) = conj T(jw)). Two pieces are not sampled and are closed by assump
   turns by -180 k degrees through the direction of C, at the magnitude |T(f_min)|. Reliable only
   when the bottom is settled: the slope within SLOPE_TOL_DB_PER_DEC of -20 k dB/decade, the phase
   within PHASE_TOL_DEG of the asymptote's, and no unity crossing hidden below the sweep
-  (|T| < 1 with integrators, or |T| > 1 with zeros at the origin).
+  (|T| < 1 with integrators, or |T| > 1 with zeros at the origin), and the detour does not pass
+  closer to -1 than its model can be trusted (|T(f_min)| times the phase residual's sine plus
+  the slope residual / 17, the change a pole just above f_min still leaves, plus 0.1 %).
 
 Counting is by the angle of 1 + T (not of T): its total turn is -360 (Z - P) degrees, so the
 clockwise encirclements are N = Z - P and Z = N + P. The angle is followed along the interpolated
@@ -40,6 +42,7 @@ PHASE_TOL_DEG = 30.0
 _MAX_STEP_DEG = 90.0
 _MAX_T_STEP_DEG = 60.0
 _DENSE = 16
+_ARC_MODEL_DOUBT = 1e-3  # relative doubt in the asymptote even when the bottom looks settled
 _ARC_POINTS = 2001
 
 
@@ -125,8 +128,15 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
     elif k < 0 and bottom_db > 0.0:
         reasons.append(f"|T| is above 1 at {f0:.4g} Hz but falls toward DC (AC coupling): a crossover lies below the sweep")
     arc_z = 1.0 + arc
-    if float(np.min(np.abs(arc_z))) < 0.1:
-        reasons.append(f"T comes within 0.1 of -1 below the sweep (from {f0:.4g} Hz down), where it is not sampled")
+    closest = float(np.min(np.abs(arc_z)))
+    # how far T below the sweep may stray from the asymptote: a nearby pole or zero leaves a phase
+    # residual delta and a slope residual r (dB/decade), and moves |T| by about r / 17 more
+    doubt = abs(t[0]) * (abs(math.sin(math.radians(delta))) + abs(slope + 20.0 * k) / 17.0 + _ARC_MODEL_DOUBT)
+    if closest < doubt:
+        reasons.append(
+            f"below the sweep (from {f0:.4g} Hz down) T passes within {closest:.3g} of -1, "
+            "closer than its low-frequency asymptote can be trusted; start the sweep lower"
+        )
     bottom_turn = float(np.sum(_wrap(np.diff(np.angle(arc_z)))))
 
     turns = (data_turn + top_turn + bottom_turn) / (2.0 * math.pi)

@@ -9,6 +9,11 @@ Froissart doublets. When the data is too noisy for the tolerance to be met, the 
 loosened a hundredfold at a time (to 1e-5 at most, with a warning), and poles whose largest effect
 on the data is below ten times the tolerance used are dropped as artefacts of the noise. Only poles below the top of the sweep (|p| < 2 pi f_max) are reported: the
 data says nothing reliable beyond it.
+
+Limitation: S = den / (den + num) has a zero at every open-loop pole. A closed-loop pole that the
+loop barely moves from an open-loop pole (where |T| << 1) sits on that zero, has almost no
+effect on the data, and is missed; the count then disagrees with the Nyquist count, which knows
+it through P, and a warning says so.
 """
 
 from __future__ import annotations
