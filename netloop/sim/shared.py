@@ -111,6 +111,13 @@ class SharedLibrarySimulator:
         self._lock = threading.Lock()
         self._finalizer = weakref.finalize(self, _stop_worker, self._holder)
 
+    def __getstate__(self) -> dict:
+        """Pickles as its settings only (for process pools); the copy starts its own worker."""
+        return {"library_path": self.library_path, "keep_dir": self.keep_dir, "startup_timeout_s": self.startup_timeout_s}
+
+    def __setstate__(self, state: dict) -> None:
+        self.__init__(**state)
+
     def start(self) -> str:
         """Start the worker now (it starts on first use otherwise); returns ngspice's version."""
         with self._lock:

@@ -91,3 +91,18 @@ def test_read_only_mappings_cross_to_the_worker(shared_sim):
 
     job = SimJob(RC, runs=(AcRun("a", MappingProxyType({"v1": 1.0}), (AcSweep("dec", 3, 1e3, 1e6),)),), save=("v(out)",))
     _check_rc(shared_sim.run(job))
+
+
+@pytest.mark.ngspice
+def test_simulator_pickles_to_a_working_copy(shared_sim):
+    """A pickled shared-library simulator (as process pools send it) arrives as a working simulator
+    with its own worker."""
+    import pickle  # noqa: PLC0415
+
+    shared_sim.start()
+    copy = pickle.loads(pickle.dumps(shared_sim))
+    try:
+        _check_rc(copy.run(RC_JOB))
+        assert copy._holder["worker"].process.pid != shared_sim._holder["worker"].process.pid
+    finally:
+        copy.close()
