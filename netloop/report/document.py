@@ -1,0 +1,264 @@
+"""The JSON document of a measured loop (schema "netloop.loop/1") and of several loops.
+
+Every key below is always present. A quantity that does not exist for the loop is ``null``
+(never a missing key), with the same meaning as ``None`` in netloop.analysis.results. JSON has no
+infinity and no NaN, so a number that exists but is infinite (the peaking of a crossover with a
+phase margin of exactly 0, the Q of an undamped pole pair, a requirement "gm>=10" met because the
+loop has no upper phase crossover) is written as ``null`` AND listed in the top-level
+``infinite`` object, which maps the dotted path of each such field to "+inf" or "-inf"
+(a NaN, which analyse() never produces, would be listed there as "nan"). So a field is null
+because the quantity does not exist exactly when its path is not a key of ``infinite``.
+
+Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of |T| (20 log10),
+``_s`` seconds, ``_rad_s`` radians per second; a name without a unit is a plain ratio.
+
+    schema                "netloop.loop/1"
+    netlist, label        the netlist's path as given; corner or loop name ("" for one check)
+    method                "tian" | "middlebrook"
+    classification        "stable" | "unstable" | "does not regulate"
+    passed                stable by the Nyquist count and every requirement met
+    dc_loop_gain_db       20 log10 |T| at the lowest swept frequency
+    margins               the worst case over all crossovers:
+        phase_margin_deg, unity_gain_hz, gain_margin_db, phase_crossover_hz,
+        lower_gain_margin_db, lower_phase_crossover_hz, modulus_margin (min |1 + T|),
+        modulus_margin_db (20 log10 of it), modulus_freq_hz, delay_margin_s
+    crossovers
+        gain              [{freq_hz, phase_deg, phase_margin_deg, direction ("down"|"up"),
+                            peaking_db, peaking_exact, delay_margin_s}]   ascending frequency
+        phase             [{freq_hz, phase_deg, gain_db, gain_margin_db, kind ("upper"|"lower")}]
+        ignored_phase_count, ignored_phase   phase crossovers below the numerical floor (same shape)
+        floor_db          that floor
+    peaking               {peak_db, peak_freq_hz, reference_db, absolute_peak_db,
+                           at_worst_crossover_db (peaking_db of the worst-PM crossover)}
+    second_order_estimate {is_estimate: true, phase_margin_deg, damping_ratio, q, overshoot_pct,
+                           resonant_peak_db}   all null when there is no estimate
+    stability             {stable, encirclements, open_loop_rhp_poles, closed_loop_rhp_poles,
+                           reliable, reasons, origin_poles}
+    closed_loop_poles     {fitted, poles_rad_s ([re, im] pairs in rad/s), rhp_count,
+                           dominant_freq_hz, dominant_damping, dominant_q, agrees_with_nyquist,
+                           fit_error}   fitted false and the rest null/[] when no fit was made
+    break                 {node, side_a, side_b, driver_terminals, load_terminals, shunt_terminals,
+                           decided_by, silenced_sources, copied_subcircuits ([original, copy])}
+    requirements          [{text, metric, op, threshold, value, passed, reason}]
+    ignored_statements    ["file:line: statement"]
+    warnings              [sentence]
+    simulation            {backend, points, refinement_rounds, refined, convergence_aid,
+                           deck_path, seconds}
+    loop_gain             {freq_hz, re, im}: the sampled return ratio T
+    caution               the caution sentence
+    infinite              {dotted.path: "+inf" | "-inf"}
+
+Several loops: ``multi_document("loops" | "locations", results)`` gives
+``{"schema": "netloop.loops/1", "loops": [loop, ...], "passed": ...}`` (or ``locations``), and
+``multi_document("modes", {"differential": r1, "common": r2})`` gives ``{"modes": {name: loop}}``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping
+from dataclasses import asdict
+
+import numpy as np
+
+from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
+from netloop.loop_result import LoopResult
+from netloop.report.notation import ratio_db
+
+__all__ = ["SCHEMA", "multi_document", "to_document"]
+
+SCHEMA = "netloop.loop/1"
+_KINDS = ("loops", "locations", "modes")
+
+
+def _gain(c: GainCrossover) -> dict:
+    return {
+        "freq_hz": c.freq_hz,
+        "phase_deg": c.phase_deg,
+        "phase_margin_deg": c.phase_margin_deg,
+        "direction": c.direction,
+        "peaking_db": c.peaking_db,
+        "peaking_exact": c.peaking_exact,
+        "delay_margin_s": c.delay_margin_s,
+    }
+
+
+def _phase(c: PhaseCrossover) -> dict:
+    return {"freq_hz": c.freq_hz, "phase_deg": c.phase_deg, "gain_db": c.gain_db, "gain_margin_db": c.gain_margin_db, "kind": c.kind}
+
+
+def worst_crossover(a: LoopAnalysis) -> GainCrossover | None:
+    """The gain crossover that gives the worst phase margin (None without a crossover)."""
+    if a.margins.unity_gain_hz is None or not a.gain_crossovers:
+        return None
+    return min(a.gain_crossovers, key=lambda c: abs(c.freq_hz - a.margins.unity_gain_hz))
+
+
+def _margins(a: LoopAnalysis) -> dict:
+    m = a.margins
+    return {
+        "phase_margin_deg": m.phase_margin_deg,
+        "unity_gain_hz": m.unity_gain_hz,
+        "gain_margin_db": m.gain_margin_db,
+        "phase_crossover_hz": m.phase_crossover_hz,
+        "lower_gain_margin_db": m.lower_gain_margin_db,
+        "lower_phase_crossover_hz": m.lower_phase_crossover_hz,
+        "modulus_margin": m.modulus_margin,
+        "modulus_margin_db": ratio_db(m.modulus_margin),
+        "modulus_freq_hz": m.modulus_freq_hz,
+        "delay_margin_s": m.delay_margin_s,
+    }
+
+
+def _second_order(a: LoopAnalysis) -> dict:
+    keys = ("phase_margin_deg", "damping_ratio", "q", "overshoot_pct", "resonant_peak_db")
+    est = a.second_order
+    values = dict.fromkeys(keys) if est is None else {k: getattr(est, k) for k in keys}
+    return {"is_estimate": True, **values}
+
+
+def _poles(a: LoopAnalysis) -> dict:
+    p = a.poles
+    if p is None:
+        keys = ("rhp_count", "dominant_freq_hz", "dominant_damping", "dominant_q", "agrees_with_nyquist", "fit_error")
+        return {"fitted": False, "poles_rad_s": [], **dict.fromkeys(keys)}
+    return {
+        "fitted": True,
+        "poles_rad_s": [[complex(z).real, complex(z).imag] for z in p.poles_rad_s],
+        "rhp_count": p.rhp_count,
+        "dominant_freq_hz": p.dominant_freq_hz,
+        "dominant_damping": p.dominant_damping,
+        "dominant_q": p.dominant_q,
+        "agrees_with_nyquist": p.agrees_with_nyquist,
+        "fit_error": p.fit_error,
+    }
+
+
+def _analysis(a: LoopAnalysis) -> dict:
+    worst = worst_crossover(a)
+    nyq = a.nyquist
+    return {
+        "classification": a.classification,
+        "dc_loop_gain_db": a.dc_gain_db,
+        "margins": _margins(a),
+        "crossovers": {
+            "gain": [_gain(c) for c in a.gain_crossovers],
+            "phase": [_phase(c) for c in a.phase_crossovers],
+            "ignored_phase_count": len(a.ignored_phase_crossovers),
+            "ignored_phase": [_phase(c) for c in a.ignored_phase_crossovers],
+            "floor_db": a.floor_db,
+        },
+        "peaking": {**asdict(a.peaking), "at_worst_crossover_db": None if worst is None else worst.peaking_db},
+        "second_order_estimate": _second_order(a),
+        "stability": {
+            "stable": nyq.stable,
+            "encirclements": nyq.encirclements,
+            "open_loop_rhp_poles": nyq.open_loop_rhp_poles,
+            "closed_loop_rhp_poles": nyq.closed_loop_rhp_poles,
+            "reliable": nyq.reliable,
+            "reasons": list(nyq.reasons),
+            "origin_poles": nyq.origin_poles,
+        },
+        "closed_loop_poles": _poles(a),
+    }
+
+
+def _break(result: LoopResult) -> dict:
+    b = result.breaks
+    return {
+        "node": b.node,
+        "side_a": b.side_a,
+        "side_b": b.side_b,
+        "driver_terminals": list(b.driver_terminals),
+        "load_terminals": list(b.load_terminals),
+        "shunt_terminals": list(b.shunt_terminals),
+        "decided_by": b.decided_by,
+        "silenced_sources": list(b.silenced_sources),
+        "copied_subcircuits": [list(pair) for pair in b.copied_subcircuits],
+    }
+
+
+def _requirements(result: LoopResult) -> list[dict]:
+    return [
+        {
+            "text": o.requirement.text,
+            "metric": o.requirement.metric,
+            "op": o.requirement.op,
+            "threshold": o.requirement.threshold,
+            "value": o.value,
+            "passed": o.passed,
+            "reason": o.reason,
+        }
+        for o in result.requirements
+    ]
+
+
+def _plain(value, path: str, infinite: dict[str, str]):
+    """Convert to JSON-ready builtins; non-finite floats become None and are noted in `infinite`."""
+    if isinstance(value, dict):
+        return {k: _plain(v, f"{path}.{k}" if path else k, infinite) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v, f"{path}[{i}]", infinite) for i, v in enumerate(value)]
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        x = float(value)
+        if math.isfinite(x):
+            return x
+        infinite[path] = "nan" if math.isnan(x) else ("+inf" if x > 0 else "-inf")
+        return None
+    return value
+
+
+def to_document(result: LoopResult) -> dict:
+    """The JSON document of one loop (see the module docstring): builtins only, json.dumps(allow_nan=False) works."""
+    a = result.analysis
+    raw = {
+        "schema": SCHEMA,
+        "netlist": result.netlist,
+        "label": result.label,
+        "method": result.method,
+        "passed": result.passed,
+        **_analysis(a),
+        "break": _break(result),
+        "requirements": _requirements(result),
+        "ignored_statements": list(result.ignored_statements),
+        "warnings": list(result.warnings),
+        "simulation": asdict(result.sim),
+        "loop_gain": {
+            "freq_hz": np.asarray(a.freq_hz, dtype=float).tolist(),
+            "re": np.asarray(a.t).real.astype(float).tolist(),
+            "im": np.asarray(a.t).imag.astype(float).tolist(),
+        },
+        "caution": result.caution,
+    }
+    infinite: dict[str, str] = {}
+    doc = _plain(raw, "", infinite)
+    doc["infinite"] = infinite
+    return doc
+
+
+def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopResult], **extra) -> dict:
+    """The document of several loops: kind "loops" or "locations" (a list) or "modes" (a name -> result mapping).
+
+    Each loop has the shape of to_document(); `extra` adds top-level keys (e.g. the netlist);
+    ``passed`` is True when every loop passed.
+    """
+    if kind not in _KINDS:
+        raise ValueError(f"kind must be one of {', '.join(_KINDS)}, got {kind!r}")
+    if kind == "modes":
+        if not isinstance(results, Mapping):
+            raise TypeError("kind 'modes' takes a mapping of mode name to LoopResult")
+        body: dict | list = {name: to_document(r) for name, r in results.items()}
+        passed = all(r.passed for r in results.values())
+    else:
+        items = list(results.values()) if isinstance(results, Mapping) else list(results)
+        body = [to_document(r) for r in items]
+        passed = all(r.passed for r in items)
+    infinite: dict[str, str] = {}
+    head = _plain(dict(extra), "", infinite)
+    if infinite:
+        head["infinite"] = infinite
+    return {"schema": f"netloop.{kind}/1", **head, kind: body, "passed": passed}

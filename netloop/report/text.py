@@ -1,0 +1,186 @@
+"""The compact terminal summary of one loop: the verdict first, then every figure a designer checks."""
+
+from __future__ import annotations
+
+from netloop.analysis.results import LoopAnalysis
+from netloop.loop_result import LoopResult
+from netloop.report.document import worst_crossover
+from netloop.analysis.requirements import METRICS, RequirementOutcome
+from netloop.report.notation import NONE, db, deg, eng, number, ratio_db, requirement_value
+
+__all__ = ["format_text", "requirement_text", "verdict_line"]
+
+_WIDTH = 22  # label column
+_SHOWN_STATEMENTS = 3
+
+
+def _row(label: str, value: str) -> str:
+    return f"{label:<{_WIDTH}}{value}"
+
+
+def verdict_line(result: LoopResult) -> str:
+    """One line, PASS or FAIL first: the classification and the reason in a few words."""
+    a = result.analysis
+    m = a.margins
+    failed = result.failed_requirements
+    word = "PASS" if result.passed else "FAIL"
+    if not a.stable:
+        z = a.nyquist.closed_loop_rhp_poles
+        why = f"unstable: {z} closed-loop pole(s) in the right half plane by the Nyquist count"
+    elif not a.regulates:
+        why = "stable but does not regulate: |T| stays below 0 dB, so no phase margin exists"
+    elif m.phase_margin_deg is None:
+        why = "stable by the Nyquist count; no gain crossover in the sweep"
+    else:
+        why = f"stable: worst phase margin {deg(m.phase_margin_deg)} at {eng(m.unity_gain_hz, 'Hz')}"
+        if m.gain_margin_db is not None:
+            why += f", gain margin {db(m.gain_margin_db)}"
+    if failed:
+        why += f"; {len(failed)} of {len(result.requirements)} requirement(s) failed ({', '.join(o.requirement.text for o in failed)})"
+    elif result.requirements:
+        why += f"; all {len(result.requirements)} requirement(s) met"
+    if not a.nyquist.reliable:
+        why += " [Nyquist count doubtful, see below]"
+    return f"{word}  {why}"
+
+
+def requirement_text(outcome: RequirementOutcome) -> str:
+    """ "pm>=60: worst phase margin = 67.03 deg", or the analysis' reason when the value does not exist."""
+    req = outcome.requirement
+    if outcome.value is None:
+        return outcome.reason
+    name, unit = METRICS[req.metric]
+    text = f"{req.text}: {name} = {requirement_value(unit, outcome.value)}"
+    if outcome.value in (float("inf"), float("-inf")):
+        text += " (no such phase crossover in the sweep)"
+    return text
+
+
+def _break_lines(result: LoopResult) -> list[str]:
+    b = result.breaks
+    where = f"node {b.node} ({result.method} probe); driver side {b.side_a}, load side {b.side_b}"
+    lines = [_row("loop broken at", where)]
+    lines.append(_row("  driver", ", ".join(b.driver_terminals) or NONE))
+    lines.append(_row("  load", ", ".join(b.load_terminals) or NONE))
+    if b.shunt_terminals:
+        lines.append(_row("  shunt only", ", ".join(b.shunt_terminals)))
+    lines.append(_row("  decided by", b.decided_by or NONE))
+    if b.copied_subcircuits:
+        lines.append(_row("  copied subcircuits", ", ".join(f"{o} -> {c}" for o, c in b.copied_subcircuits)))
+    return lines
+
+
+def _crossover_lines(a: LoopAnalysis) -> list[str]:
+    lines = [f"gain crossovers (|T| = 0 dB): {len(a.gain_crossovers) or 'none in the sweep'}"]
+    for c in a.gain_crossovers:
+        lines.append(
+            f"  {eng(c.freq_hz, 'Hz'):>11}  {c.direction:<4}  phase {deg(c.phase_deg):>12}  PM {deg(c.phase_margin_deg):>11}"
+            f"  peaking {db(c.peaking_db):>9}  delay margin {eng(c.delay_margin_s, 's') if c.delay_margin_s is not None else 'none'}"
+        )
+    lines.append(f"phase crossovers (phase = odd multiple of 180 deg): {len(a.phase_crossovers) or 'none above the floor'}")
+    for c in a.phase_crossovers:
+        where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
+        lines.append(f"  {where:>11}  {c.kind:<5} |T| {db(c.gain_db):>10}  GM {db(c.gain_margin_db):>10}  (phase {c.phase_deg:.0f} deg)")
+    if a.ignored_phase_crossovers:
+        lines.append(
+            f"  ({len(a.ignored_phase_crossovers)} more below the numerical floor of {db(a.floor_db)} ignored: the phase is noise there)"
+        )
+    return lines
+
+
+def _margin_lines(a: LoopAnalysis) -> list[str]:
+    m = a.margins
+    at = lambda f: f" at {eng(f, 'Hz')}" if f is not None else ""  # noqa: E731
+    no_pm = "none (does not regulate)" if not a.regulates else "none (no gain crossover in the sweep)"
+    lines = [
+        _row("worst phase margin", f"{deg(m.phase_margin_deg)}{at(m.unity_gain_hz)}" if m.phase_margin_deg is not None else no_pm),
+        _row("gain margin", f"{db(m.gain_margin_db)}{at(m.phase_crossover_hz)}" if m.gain_margin_db is not None else "none (no upper phase crossover)"),
+    ]
+    if m.lower_gain_margin_db is not None:
+        lines.append(_row("lower gain margin", f"{db(m.lower_gain_margin_db)}{at(m.lower_phase_crossover_hz)} (gain may fall this much)"))
+    lines.append(_row("modulus margin", f"{m.modulus_margin:.3f} ({db(ratio_db(m.modulus_margin))}) min |1+T|{at(m.modulus_freq_hz)}"))
+    lines.append(_row("delay margin", eng(m.delay_margin_s, "s") if m.delay_margin_s is not None else "none (no crossover with a positive phase margin)"))
+    return lines
+
+
+def _closed_loop_lines(a: LoopAnalysis) -> list[str]:
+    p = a.peaking
+    worst = worst_crossover(a)
+    peak = f"{db(p.peak_db)} at {eng(p.peak_freq_hz, 'Hz')} (relative to {db(p.reference_db)} in band)"
+    if worst is not None:
+        peak += f"; at the worst crossover |T/(1+T)| = {db(worst.peaking_db)}"
+    lines = [_row("closed-loop peaking", peak)]
+    s = a.second_order
+    if s is not None:
+        res = "no resonant peak" if s.resonant_peak_db is None else f"resonant peak {db(s.resonant_peak_db)}"
+        lines.append(
+            _row("2nd-order ESTIMATE", f"damping {s.damping_ratio:.3f}, Q {s.q:.3f}, overshoot {s.overshoot_pct:.1f} %, {res} (from PM, not measured)")
+        )
+    poles = a.poles
+    if poles is None:
+        lines.append(_row("closed-loop poles", "not fitted"))
+    else:
+        if poles.dominant_freq_hz is None:
+            dom = "no complex pair"
+        else:
+            dom = f"dominant pair {eng(poles.dominant_freq_hz, 'Hz')}, damping {number(poles.dominant_damping)}, Q {number(poles.dominant_q)}"
+        agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
+        lines.append(
+            _row("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fit error {poles.fit_error:.2g}) [estimate]")
+        )
+    return lines
+
+
+def _nyquist_lines(a: LoopAnalysis) -> list[str]:
+    n = a.nyquist
+    word = "stable" if n.stable else "UNSTABLE"
+    text = f"{word}: N = {n.encirclements} clockwise encirclement(s) of -1, P = {n.open_loop_rhp_poles}, Z = N + P = {n.closed_loop_rhp_poles}"
+    if n.origin_poles:
+        text += f" ({n.origin_poles} pole(s) at s = 0)"
+    lines = [_row("Nyquist", text)]
+    if not n.reliable:
+        lines.append(_row("  doubtful because", n.reasons[0] if n.reasons else "the data cannot support the count"))
+        lines.extend(_row("", r) for r in n.reasons[1:])
+    return lines
+
+
+def _context_lines(result: LoopResult) -> list[str]:
+    lines = []
+    if result.breaks.silenced_sources:
+        lines.append(_row("silenced sources", ", ".join(result.breaks.silenced_sources) + " (AC magnitude set to 0 in the probe deck)"))
+    ignored = result.ignored_statements
+    if ignored:
+        lines.append(_row("ignored statements", f"{len(ignored)} (netloop runs only its own AC analysis)"))
+        lines.extend(f"  {s}" for s in ignored[:_SHOWN_STATEMENTS])
+        if len(ignored) > _SHOWN_STATEMENTS:
+            lines.append(f"  ... and {len(ignored) - _SHOWN_STATEMENTS} more")
+    if result.requirements:
+        lines.append("requirements")
+        lines.extend(f"  {'PASS' if o.passed else 'FAIL'}  {requirement_text(o)}" for o in result.requirements)
+    if result.warnings:
+        lines.append("warnings")
+        lines.extend(f"  - {w}" for w in result.warnings)
+    return lines
+
+
+def format_text(result: LoopResult) -> str:
+    """The terminal summary of one loop (plain ASCII text, verdict on the first line, caution on the last)."""
+    a = result.analysis
+    title = result.netlist + (f"  [{result.label}]" if result.label else "")
+    sim = result.sim
+    lines = [
+        verdict_line(result),
+        _row("netlist", title),
+        *_break_lines(result),
+        _row("DC loop gain", db(a.dc_gain_db)),
+        *_crossover_lines(a),
+        *_margin_lines(a),
+        *_closed_loop_lines(a),
+        *_nyquist_lines(a),
+        *_context_lines(result),
+        _row("simulation", f"{sim.backend}, {sim.points} points, {sim.refinement_rounds} refinement round(s)"
+             + ("" if sim.refined else " (phase margin not settled)")
+             + (f", convergence aid: {sim.convergence_aid}" if sim.convergence_aid else "")),
+        f"caution: {result.caution}",
+    ]
+    return "\n".join(lines) + "\n"

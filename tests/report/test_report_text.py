@@ -1,0 +1,50 @@
+"""The terminal summary: verdict first, the worst margins and every crossover, nothing hidden."""
+
+from __future__ import annotations
+
+import math
+
+import control
+from report_loops import W
+
+from netloop.report import format_text
+
+
+def test_summary_shows_worst_margins_as_python_control_finds_them(stable_result):
+    """The summary's first line says PASS and stable, and it prints PM and GM equal to python-control's to 2 decimals."""
+    s = control.tf("s")
+    loop = 1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8)))
+    gm, pm, _, _, w_gc, _ = control.stability_margins(loop)  # python-control 0.10 stability_margins
+    text = format_text(stable_result)
+    first = text.splitlines()[0]
+    assert first.startswith("PASS") and "stable" in first
+    assert f"{pm:.2f} deg" in text  # 67.03
+    assert f"{20 * math.log10(gm):.2f} dB" in text  # 22.28
+    assert f"{w_gc / W / 1e6:.2f} MHz" in text  # 9.49 MHz
+    assert text.rstrip().splitlines()[-1].startswith("caution:")
+    assert ".tran 1n 1u" in text and "PASS  pm>=60" in text
+
+
+def test_unstable_loop_says_fail_first(unstable_result):
+    """An unstable loop's summary starts with FAIL and unstable, gives the RHP count and the failed requirement."""
+    text = format_text(unstable_result)
+    first = text.splitlines()[0]
+    assert first.startswith("FAIL") and "unstable" in first and "pm>=45" in first
+    assert "Z = N + P = 2" in text
+    assert "FAIL  pm>=45" in text
+
+
+def test_conditionally_stable_loop_lists_lower_gain_margin(conditional_result):
+    """A conditionally stable loop lists every phase crossover and its lower gain margin."""
+    a = conditional_result.analysis
+    text = format_text(conditional_result)
+    assert text.count(" lower |T|") == sum(c.kind == "lower" for c in a.phase_crossovers) == 2
+    assert f"lower gain margin     {a.margins.lower_gain_margin_db:.2f} dB" in text
+
+
+def test_no_crossover_is_stated_not_hidden(quiet_result):
+    """A loop that never reaches 0 dB says so, and names no phase margin figure."""
+    text = format_text(quiet_result)
+    assert "does not regulate" in text.splitlines()[0]
+    assert "none in the sweep" in text
+    assert text.isascii()
