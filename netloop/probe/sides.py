@@ -16,6 +16,7 @@ _OUTPUTS = {"E": ("p", "n"), "G": ("p", "n"), "F": ("p", "n"), "H": ("p", "n"), 
 _FOLLOWER = {"M": ("d", "s"), "Q": ("c", "e"), "J": ("d", "s"), "Z": ("d", "s")}  # (main output, follower output)
 _PASSIVE_PATH = frozenset("RCL")
 _ACTIVE_LOADS = frozenset("MQJZEGFHBX")
+_LOCAL_DEPTH = 3  # passive elements in a compensation path around the driver (Cc and Rz are two)
 
 
 @dataclass(frozen=True, slots=True)
@@ -130,10 +131,37 @@ def _controls(netlist: Netlist, scope: Scope, driver: Terminal, globals_) -> set
     return {n for k, n in enumerate(e.nodes) if k != driver.slot}
 
 
-def _local_feedback(netlist: Netlist, scope: Scope, node: str, t: Terminal, controls: set[str], ac_ground, globals_) -> bool:
-    """Whether a passive element at the node leads through R, C and L alone to a driver's control node."""
+def _passive_index(netlist: Netlist, scope: Scope) -> dict[str, list[Element]]:
+    """R, C and L elements of a scope by the nodes they touch."""
+    index: dict[str, list[Element]] = {}
+    for e in elements_of(netlist, scope):
+        if e.kind in _PASSIVE_PATH:
+            for n in set(e.nodes):
+                index.setdefault(n, []).append(e)
+    return index
+
+
+def _local_feedback(scope: Scope, node: str, t: Terminal, controls: set[str], index, ac_ground, globals_) -> bool:
+    """Whether a passive element at the node leads through at most three R, C, L in all to a driver's control node
+    (a compensation network such as a Miller Cc with its nulling Rz)."""
     if t.element.kind not in _PASSIVE_PATH:
         return False
+    start = [n for k, n in enumerate(t.element.nodes) if k != t.slot and n != node]
+    seen = set(start)
+    todo = deque((n, 1) for n in start)
+    while todo:
+        n, depth = todo.popleft()
+        if n in controls:
+            return True
+        if depth >= _LOCAL_DEPTH or scope.flat(n, globals_) in ac_ground:
+            continue
+        for e in index.get(n, ()):
+            if e is not t.element:
+                for m in e.nodes:
+                    if m not in seen and m != node:
+                        seen.add(m)
+                        todo.append((m, depth + 1))
+    return False
     start = [n for k, n in enumerate(t.element.nodes) if k != t.slot and n != node]
     seen = set(start)
     todo = deque(start)
@@ -210,7 +238,8 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     for d in drivers:
         controls |= _controls(netlist, scope, d, globals_)
     controls = {n for n in controls if scope.flat(n, globals_) not in ac_ground}
-    local = [t for t in loads if _local_feedback(netlist, scope, node, t, controls, ac_ground, globals_)]
+    index = _passive_index(netlist, scope)
+    local = [t for t in loads if _local_feedback(scope, node, t, controls, index, ac_ground, globals_)]
     # Compensation around the driver stage (a Miller Cc/Rz) rides with the driver only while an active
     # input (a gate, base, controlling node or instance input) still loads the node: then that input
     # closes the loop being measured. A purely passive feedback network stays on the load side.
