@@ -48,7 +48,9 @@ class NgspiceSession:
     def command(self, command: str) -> list[str]:
         """Run one ngspice command; returns what ngspice printed meanwhile."""
         self._lines = []
-        self._lib.ngSpice_Command(command.encode("utf-8"))
+        rc = self._lib.ngSpice_Command(command.encode("utf-8"))
+        if rc:
+            self._lines.append(f"Error: ngspice refused the command {command!r} (return code {rc})")
         return self._lines
 
     def load(self, deck_text: str) -> list[str]:
@@ -57,7 +59,9 @@ class NgspiceSession:
         lines = [line for line in deck_text.splitlines() if line.strip()]
         keep = [ffi.new("char[]", line.encode("utf-8")) for line in lines] + [ffi.NULL]
         self._lines = []
-        self._lib.ngSpice_Circ(ffi.new("char *[]", keep))
+        rc = self._lib.ngSpice_Circ(ffi.new("char *[]", keep))
+        if rc:
+            self._lines.append(f"Error: ngspice refused the circuit (return code {rc})")
         return self._lines
 
     def current_plot(self) -> str:
