@@ -12,13 +12,13 @@ from pathlib import Path
 import numpy as np
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
-from netloop.sim.convergence import aid_ladder, op_failure, option_words
+from netloop.sim.convergence import aid_ladder, describe_aid, op_failure, option_words
 from netloop.sim.deck import OP_RAW, control_steps, raw_name, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck
 from netloop.sim.library import find_ngspice_binary
-from netloop.sim.output import op_failed, summary, tail
+from netloop.sim.output import ngspice_fallback, op_failed, summary, tail
 from netloop.sim.rawfile import RawPlot, read_raw
 from netloop.sim.vectors import unknown_saves
 
@@ -81,7 +81,7 @@ class BatchSimulator:
                 operating_point=_node_voltages(op),
                 log="\n".join(log),
                 deck_path=deck_path,
-                convergence_aid=aid,
+                convergence_aid=describe_aid(aid, ngspice_fallback(lines)),
                 backend=self.backend,
             )
         path = keep_deck(deck, job.label, self.keep_dir)

@@ -7,7 +7,7 @@ from collections.abc import Sequence
 from netloop.errors import SimulationError
 from netloop.sim.job import SimJob
 
-__all__ = ["DEFAULT_OP_AIDS", "aid_ladder", "op_failure", "option_words"]
+__all__ = ["DEFAULT_OP_AIDS", "aid_ladder", "describe_aid", "op_failure", "option_words"]
 
 # Tried in order, each on its own on top of the job's options. ngspice 39 already does plain Newton,
 # dynamic gmin stepping, source stepping and a transient operating point by default; these switch
@@ -29,6 +29,12 @@ HELP = (
 def aid_ladder(job: SimJob) -> tuple[str | None, ...]:
     """None (ngspice as the netlist says) then each aid: the job's own, or the defaults."""
     return (None, *(job.op_aids or DEFAULT_OP_AIDS))
+
+
+def describe_aid(aid: str | None, fallback: str | None) -> str | None:
+    """SimResult.convergence_aid: our aid (as the job or DEFAULT_OP_AIDS spell it), else ngspice's own
+    fallback ("ngspice: transient operating point"), else None when plain Newton converged."""
+    return aid or fallback
 
 
 def option_words(job: SimJob, aid: str | None) -> tuple[str, ...]:

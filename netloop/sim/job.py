@@ -63,7 +63,10 @@ class SimResult:
     operating_point: Mapping[str, float] = field(default_factory=dict)  # node voltages, lower-case names
     log: str = ""  # ngspice's own output, for messages
     deck_path: str | None = None  # where the deck was kept, if it was
-    convergence_aid: str | None = None  # the aid that made the operating point converge, if one was needed
+    # the aid that made the operating point converge, if one was needed: one of the job's op_aids (or
+    # netloop.sim.DEFAULT_OP_AIDS) as spelled there, or "ngspice: <method>" when ngspice's own fallback
+    # (gmin or source stepping, transient operating point) found it; None when plain Newton converged
+    convergence_aid: str | None = None
     backend: str = ""
 
     def run(self, name: str) -> RunResult:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 
-__all__ = ["error_lines", "op_failed", "summary", "tail"]
+__all__ = ["error_lines", "ngspice_fallback", "op_failed", "summary", "tail"]
 
 # Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
 # and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
@@ -61,3 +61,22 @@ def summary(lines: Iterable[str], count: int = 6) -> str:
         if line not in seen:
             seen.append(line)
     return " | ".join(seen[:count])
+
+
+# What ngspice 39 prints when one of its own operating-point fallbacks succeeded, and what we call it.
+_FALLBACKS = (
+    ("transient op finished successfully", "transient operating point"),
+    ("source stepping completed", "source stepping"),
+    ("spice3 gmin stepping completed", "gmin stepping ladder"),
+    ("true gmin stepping completed", "true gmin stepping"),
+    ("dynamic gmin stepping completed", "dynamic gmin stepping"),
+)
+
+
+def ngspice_fallback(lines: Iterable[str]) -> str | None:
+    """'ngspice: <method>' when plain Newton failed and one of ngspice's own fallbacks found the point."""
+    text = "\n".join(lines).lower()
+    for marker, name in _FALLBACKS:
+        if marker in text:
+            return f"ngspice: {name}"
+    return None

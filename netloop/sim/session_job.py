@@ -6,11 +6,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from netloop.sim.convergence import aid_ladder, option_words
+from netloop.sim.convergence import aid_ladder, describe_aid, option_words
 from netloop.sim.deck import control_steps, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import SimJob
-from netloop.sim.output import error_lines, op_failed, summary, tail
+from netloop.sim.output import error_lines, ngspice_fallback, op_failed, summary, tail
 from netloop.sim.session import NgspiceSession
 from netloop.sim.vectors import unknown_saves
 
@@ -24,7 +24,8 @@ class JobPayload:
     operating_point: dict[str, float]
     runs: list[tuple[str, np.ndarray, dict[str, np.ndarray]]]
     log: str
-    aid: str | None
+    aid: str | None  # our aid (option words) in the deck, if one was needed
+    found_by: str | None  # what SimResult.convergence_aid says
 
 
 @dataclass(slots=True)
@@ -97,7 +98,7 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
         session.command("destroy all")
     runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
     session.clear()
-    return JobPayload(operating_point=voltages, runs=runs, log="\n".join(log), aid=aid)
+    return JobPayload(operating_point=voltages, runs=runs, log="\n".join(log), aid=aid, found_by=describe_aid(aid, ngspice_fallback(op_lines)))
 
 
 def _has_nodes(session: NgspiceSession, plot: str) -> bool:

@@ -185,7 +185,7 @@ class SharedLibrarySimulator:
             operating_point=payload.operating_point,
             log=payload.log,
             deck_path=deck_path,
-            convergence_aid=payload.aid,
+            convergence_aid=payload.found_by,
             backend=self.backend,
         )
 

@@ -28,11 +28,29 @@ r2 in n 1k
 @pytest.mark.ngspice
 def test_gmin_stepping_note_is_not_an_error(simulator):
     """ngspice's 'Note: Starting dynamic gmin stepping' appears in the log and the job still succeeds,
-    with v(n) = 0.1 V, the real root of v^3 = 1e-3 (closed form)."""
+    with v(n) = 0.1 V, the real root of v^3 = 1e-3 (closed form), and says gmin stepping found it."""
     result = simulator.run(SimJob(netlist=CUBIC, runs=(), save=()))
     assert "Starting dynamic gmin stepping" in result.log  # ngspice 39's own note for this circuit
     assert result.operating_point == {"n": pytest.approx(0.1, rel=1e-9)}
-    assert result.convergence_aid is None
+    assert result.convergence_aid == "ngspice: dynamic gmin stepping"  # its 'Dynamic gmin stepping completed'
+
+
+# A current source into a node that only a capacitor touches has no DC solution; ngspice 39 then
+# runs its transient operating point, which integrates the current for its default 10 us.
+NO_DC_PATH = """no dc path
+i1 0 n 1m
+c1 n 0 1n
+"""
+
+
+@pytest.mark.ngspice
+def test_transient_operating_point_is_reported(simulator):
+    """When only ngspice's own transient operating point 'finds' a point, convergence_aid says so, and
+    the value is what that transient gives: I*T/C = 1 mA * 10 us / 1 nF = 10 V (T from ngspice's
+    README.optran, default optran time 10u)."""
+    result = simulator.run(SimJob(netlist=NO_DC_PATH, runs=(), save=()))
+    assert result.convergence_aid == "ngspice: transient operating point"
+    assert result.operating_point["n"] == pytest.approx(10.0, rel=1e-6)
 
 
 @pytest.mark.ngspice

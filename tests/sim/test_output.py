@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from netloop.sim.output import error_lines, op_failed
+from netloop.sim.output import error_lines, ngspice_fallback, op_failed
 from netloop.sim.vectors import canonical, unknown_saves
 
 # Lines printed by ngspice 39 on this machine for a circuit that recovers through gmin stepping
@@ -36,6 +36,9 @@ def test_notes_and_warnings_are_not_errors():
     assert error_lines(FAILED) == tuple(FAILED[1:])
     assert op_failed(FAILED)
     assert not op_failed(["Error: no such device or model name vnope"])
+    assert ngspice_fallback(RECOVERED) == "ngspice: transient operating point"
+    assert ngspice_fallback(["Note: Starting dynamic gmin stepping", "Note: Dynamic gmin stepping completed"]) == "ngspice: dynamic gmin stepping"
+    assert ngspice_fallback(["No. of Data Rows : 1"]) is None
 
 
 def test_vector_spellings():
