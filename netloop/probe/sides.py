@@ -256,6 +256,12 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     if local:
         parts.append(f"with {', '.join(t.label for t in local)} (a passive path back to the driver's own input: local feedback of the driver stage)")
     parts.append(f"load side: {', '.join(t.label for t in loads) or 'only elements to AC ground'}")
+    own = [t for t in loads if any(t.element is d.element for d in drivers)]
+    if own:
+        names = ", ".join(t.label for t in own)
+        whole = ",".join(dict.fromkeys(t.element.key for t in own))
+        parts.append(f"{names} is the driver's own input on the node (a diode connection): its local loop is part of T; "
+                     f"driver={whole!r} puts the whole device on the driver side")
     if not loads:
         raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
     return Split(tuple([*drivers, *local]), tuple(loads), shunt, "; ".join(parts) + _shunt_note(shunt) + ".")

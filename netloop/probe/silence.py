@@ -34,7 +34,8 @@ def silence_element(e: Element) -> Element | None:
         if low != "ac":
             continue
         if i + 1 >= len(toks) or not _is_value(toks[i + 1]):
-            return None  # "ac" alone means AC 1 in some simulators; ngspice reads it as magnitude 1
+            toks[i:i + 1] = ["ac", "0"]  # "ac" without a magnitude is AC 1 in ngspice
+            return replace(e, tokens=tuple(toks))
         end = i + 2
         if end < len(toks) and _is_value(toks[end]):
             end += 1

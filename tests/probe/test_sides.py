@@ -202,6 +202,7 @@ def test_shared_bias_node_warns():
     p = break_loop(parse_text(SHARED_BIAS), "nb")
     assert p.driver_terminals == ("m0.d",)
     assert set(p.load_terminals) == {"m0.g", "m1.g", "m2.g"}
+    assert "m0.g is the driver's own input" in p.decided_by and "driver='m0'" in p.decided_by
     assert len(p.warnings) == 1
     assert "other circuits" in p.warnings[0] and "m1" in p.warnings[0] and "m2" in p.warnings[0] and "driver=" in p.warnings[0]
 
@@ -212,3 +213,18 @@ def test_several_loops_warn():
     p = break_loop(parse_text(text), "out")
     assert set(p.load_terminals) == {"r1.p", "e2.cp"}
     assert any("feeds 2 loops" in w for w in p.warnings)
+
+
+def test_silencing_forms():
+    """'ac' alone (magnitude 1 in the ngspice manual), 'ac MAG PHASE' before a distortion spec, and braces are all zeroed; 'ac 0' is left alone."""
+    text = (
+        "forms\nVdd vdd 0 dc 3.3\nV1 a 0 dc 1 ac\nV2 b 0 ac 0.5 90 distof1 0.1\nV3 c 0 dc 0 ac {amp}\nV4 d 0 dc 0 ac 0\n"
+        "E1 out 0 x 0 10\nR1 out x 1k\nR2 x a 1k\nR3 x b 1k\nR4 x c 1k\nR5 x d 1k\n"
+    )
+    p = break_loop(parse_text(text), "out")
+    cards = {e.key: e.card() for e in p.netlist.elements}
+    assert cards["v1"] == "V1 a 0 dc 1 ac 0"
+    assert cards["v2"] == "V2 b 0 ac 0 distof1 0.1"
+    assert cards["v3"] == "V3 c 0 dc 0 ac 0"
+    assert cards["v4"] == "V4 d 0 dc 0 ac 0"
+    assert p.silenced_sources == ("v1", "v2", "v3")
