@@ -26,10 +26,6 @@ class Scope:
     definitions: tuple[Subcircuit, ...]
     nets: tuple[tuple[str, str], ...]
 
-    @property
-    def body(self):
-        return self.definitions[-1].body if self.definitions else None
-
     def flat(self, node: str, globals_: frozenset[str]) -> str:
         """The flattened (ngspice vector) name of a node written in this scope."""
         if node in GROUND_NAMES or node in globals_:
