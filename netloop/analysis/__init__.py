@@ -31,8 +31,8 @@ from netloop.analysis.results import (
 from netloop.analysis.return_ratio import middlebrook, sensitivity, tian
 
 __all__ = [
-    "DEFAULT_FLOOR_DB",
     "ClosedLoopPoles",
+    "DEFAULT_FLOOR_DB",
     "GainCrossover",
     "LoopAnalysis",
     "Margins",

@@ -1,0 +1,111 @@
+"""Requirement text ("pm>=60") is parsed strictly and checked against an analysis."""
+
+from __future__ import annotations
+
+import math
+
+import control
+import pytest
+from analysis_loops import sample
+
+from netloop.analysis import analyse, parse_requirement, parse_requirements
+from netloop.errors import PlanError
+
+S = control.tf("s")
+THREE_POLE = control.tf([25], [1, 10, 10, 10])  # PM 29.11 deg, GM 3.6 (python-control 0.10)
+
+
+@pytest.fixture(scope="module")
+def three_pole():
+    return analyse(*sample(THREE_POLE, 1e-4, 1e3), fit_poles=False)
+
+
+@pytest.mark.parametrize(
+    "text,metric,op,threshold",
+    [
+        ("pm>=60", "pm", ">=", 60.0),
+        ("  PM >= 45deg ", "pm", ">=", 45.0),
+        ("fc > 1meg", "fc", ">", 1e6),
+        ("fc>1megHz", "fc", ">", 1e6),
+        ("fc<2.5k", "fc", "<", 2.5e3),
+        ("dm>=10u", "dm", ">=", 10e-6),
+        ("dm>=10us", "dm", ">=", 10e-6),
+        ("dm<1ms", "dm", "<", 1e-3),
+        ("gm>6dB", "gm", ">", 6.0),
+        ("lgm>=1e1", "lgm", ">=", 10.0),
+        ("mm>=0.5", "mm", ">=", 0.5),
+        ("dc>=-3", "dc", ">=", -3.0),
+        ("peak<=3db", "peak", "<=", 3.0),
+        ("fc>=.5g", "fc", ">=", 0.5e9),
+    ],
+)
+def test_parse(text, metric, op, threshold):
+    """Metric, operator and SI-scaled threshold (SPICE suffixes: m is milli, meg is mega) are read exactly."""
+    r = parse_requirement(text)
+    assert (r.metric, r.op) == (metric, op)
+    assert r.threshold == pytest.approx(threshold, rel=1e-15)
+
+
+@pytest.mark.parametrize(
+    "text,fault",
+    [
+        ("pm=60", "METRIC OP NUMBER"),
+        ("phase>=60", "unknown metric 'phase'"),
+        ("pm>=sixty", "METRIC OP NUMBER"),
+        ("pm>=60db", "'db' is not an SI suffix or 'deg'"),
+        ("mm>=0.5db", "'db' is not an SI suffix"),
+        ("fc>1x", "'x' is not an SI suffix"),
+        ("", "METRIC OP NUMBER"),
+    ],
+)
+def test_bad_text_raises_plan_error_saying_what_was_expected(text, fault):
+    """Unreadable text raises PlanError (a ValueError) that quotes it, names the fault and shows the expected form."""
+    with pytest.raises(PlanError, match="expected METRIC OP NUMBER") as info:
+        parse_requirement(text)
+    assert fault in str(info.value) and repr(text) in str(info.value)
+    assert isinstance(info.value, ValueError)
+
+
+def test_parse_several_comma_separated():
+    """Several requirements in one string or many are read in order."""
+    reqs = parse_requirements(["pm>=45, gm>=6", "fc>1"])
+    assert [r.metric for r in reqs] == ["pm", "gm", "fc"]
+
+
+def test_check_pass_and_fail_on_values_from_python_control(three_pole):
+    """On the three-pole loop (PM 29.11 deg, GM 3.6 by python-control) pm>=25 and gm>=10 pass, pm>=45 fails."""
+    assert parse_requirement("pm>=25").check(three_pole).passed
+    assert parse_requirement("gm>=10").check(three_pole).passed  # 20 log10 3.6 = 11.1 dB
+    out = parse_requirement("pm>=45").check(three_pole)
+    assert not out.passed and out.value == pytest.approx(29.11, abs=0.01)
+    assert "fails" in out.reason and "29.11" in out.reason
+    assert parse_requirement("fc<1").check(three_pole).passed  # 1.7844 rad/s = 0.284 Hz
+    assert parse_requirement("dm>200m").check(three_pole).passed  # 0.2847 s
+    assert not parse_requirement("peak<3").check(three_pole).passed
+
+
+def test_missing_metric_fails_with_reason():
+    """A loop that never reaches 0 dB fails pm, fc and dm requirements, each saying it does not regulate or has no crossover."""
+    a = analyse(*sample(0.5 / (S + 1) ** 2, 1e-3, 1e3), fit_poles=False)
+    for text in ("pm>=0", "fc>0", "dm>0"):
+        out = parse_requirement(text).check(a)
+        assert not out.passed and out.value is None
+    assert "does not regulate" in parse_requirement("pm>=0").check(a).reason
+    assert parse_requirement("dc<0").check(a).passed
+
+
+def test_documented_infinite_gain_margin_case():
+    """A reliably stable loop with no upper phase crossover has gm = +inf: >= passes, <= fails (documented case)."""
+    a = analyse(*sample(30 / (S * (S + 3)), 1e-4, 1e4), fit_poles=False)  # phase never reaches -180
+    assert a.nyquist.reliable and a.stable and a.margins.gain_margin_db is None
+    ge = parse_requirement("gm>=20").check(a)
+    assert ge.passed and ge.value == math.inf and "without limit" in ge.reason
+    assert not parse_requirement("gm<=20").check(a).passed
+
+
+def test_unstable_loop_has_no_lower_gain_margin_to_pass():
+    """For an unstable loop lgm does not exist, so an lgm requirement fails with that reason."""
+    a = analyse(*sample(5 * THREE_POLE, 1e-4, 1e3), fit_poles=False)
+    out = parse_requirement("lgm>=0").check(a)
+    assert not out.passed and "unstable" in out.reason
+    assert not parse_requirement("gm>=0").check(a).passed  # python-control: GM 0.72 < 1
