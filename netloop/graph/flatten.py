@@ -13,6 +13,15 @@ from netloop.netlist.reader import gc_paused
 
 __all__ = ["flatten"]
 
+_SLOTS2 = (0, 1)
+_UPPER = {c: c.upper() for c in "RCLKVIEFGHBDMQJZSWTOUXArclkviefghbdmqjzswtouxa"}
+
+
+def _nodes_of(s: Element) -> tuple[str, ...]:
+    sl = s.node_slots
+    k = len(sl)
+    return s.tokens[:k] if (k == 0 or sl[-1] == k - 1) else tuple([s.tokens[i] for i in sl])
+
 
 class _Flattener:
     def __init__(self, netlist: Netlist) -> None:
@@ -40,15 +49,11 @@ class _Flattener:
         els = [s for s in statements if type(s) is Element]
         if any(s.name[0] in "Xx" for s in els):
             return False
-        nodes = [
-            s.tokens[: len(s.node_slots)] if (not s.node_slots or s.node_slots[-1] == len(s.node_slots) - 1)
-            else tuple([s.tokens[i] for i in s.node_slots])
-            for s in els
-        ]
+        nodes = [s.tokens[:2] if s.node_slots == _SLOTS2 else _nodes_of(s) for s in els]
         if any("gnd" in t for t in nodes):
             nodes = [tuple(["0" if n == "gnd" else n for n in t]) if "gnd" in t else t for t in nodes]
         self.names.extend([s.name.lower() for s in els])
-        self.kinds.extend([s.name[0].upper() for s in els])
+        self.kinds.extend([_UPPER[s.name[0]] for s in els])
         self.nodes.extend(nodes)
         self.pins.extend([s.pins for s in els])
         self.originals.extend(els)

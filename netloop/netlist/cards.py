@@ -73,12 +73,7 @@ def _fast_constructor(cls, fields):
 
 
 new_element = _fast_constructor(Element, ("name", "tokens", "node_slots", "pins", "location", "model"))
-_new_loc3 = _fast_constructor(SourceLocation, ("file", "line", "column"))
-
-
-def new_location(file: str, line: int) -> SourceLocation:
-    """``SourceLocation(file, line)`` built quickly."""
-    return _new_loc3(file, line, 1)
+new_location = _fast_constructor(SourceLocation, ("file", "line", "column"))  # (file, line, column)
 
 
 def _fail(what: str, text: str, loc: SourceLocation, col: int | None = None) -> NetlistSyntaxError:

@@ -155,12 +155,12 @@ class _Reader:
     # -- statements ----------------------------------------------------------------------
     def _run(self, lines: list[LogicalLine], first: int, end: int, file: str, base_dir: str) -> bool:
         """Read statements lines[first:end]; returns False when ``.end`` stopped the reading."""
-        i = first
         models = self.models
         body = self.stack[-1].body
-        while i < end:
-            text, ln, raw = lines[i]
-            i += 1
+        append = body.append
+        make, where = new_element, new_location
+        it = iter(lines[first:end])
+        for text, ln, raw in it:
             if raw:
                 self.ignored.append(Directive(".control", text, SourceLocation(file, ln)))
                 continue
@@ -170,7 +170,7 @@ class _Reader:
                     # fast path for the bulk of large netlists: "R1 a b 1k", "V1 a 0 DC 1"
                     toks = text.split()
                     if len(toks) >= 4:
-                        body.append(new_element(toks[0], (toks[1].lower(), toks[2].lower(), *toks[3:]), _SLOTS2, _PINS2, new_location(file, ln), None))
+                        append(make(toks[0], (toks[1].lower(), toks[2].lower(), *toks[3:]), _SLOTS2, _PINS2, where(file, ln, 1), None))
                         continue
                 if c == "+":
                     raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
@@ -180,7 +180,7 @@ class _Reader:
                     self.has_q = True
                 elif k == "X":
                     self.has_x = True
-                body.append(el)
+                append(el)
                 continue
             kw = text.split(None, 1)[0].lower()
             loc = SourceLocation(file, ln)
@@ -192,15 +192,17 @@ class _Reader:
                         g = g.lower()
                         if g not in self.globals:
                             self.globals.append(g)
-                body.append(Directive(kw, text, loc))
+                append(Directive(kw, text, loc))
             elif kw in IGNORED_KEYWORDS:
                 self.ignored.append(Directive(kw, text, loc))
             elif kw == ".subckt":
                 self._open_subckt(text, loc)
                 body = self.stack[-1].body
+                append = body.append
             elif kw == ".ends":
                 self._close_subckt(text, loc)
                 body = self.stack[-1].body
+                append = body.append
             elif kw in (".include", ".inc"):
                 rest = text[len(kw) :]
                 if not rest.strip():
@@ -208,25 +210,27 @@ class _Reader:
                 path, _ = _split_path_arg(rest)
                 self._include("include", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), None, loc)
                 body = self.stack[-1].body
+                append = body.append
             elif kw == ".lib":
                 rest = text[4:]
                 path, section = _split_path_arg(rest) if rest.strip() else ("", "")
                 if not path:
                     raise NetlistSyntaxError(".lib: expected a file name and a section, or a section name", SourceLocation(file, ln, len(text) + 2), text)
                 if not section:  # a section definition: skipped unless called by name
-                    while i < end and not (not lines[i][2] and lines[i][0][:5].lower() == ".endl"):
-                        i += 1
-                    i += 1
+                    for skipped, _ln, is_raw in it:
+                        if not is_raw and skipped[:5].lower() == ".endl":
+                            break
                     continue
                 self._include("lib", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), section.split()[0].lower(), loc)
                 body = self.stack[-1].body
+                append = body.append
             elif kw == ".endl":
                 continue
             elif kw == ".end":
                 return False
             else:
                 self.warnings.append(f"{loc}: unknown statement {kw} kept verbatim")
-                body.append(Directive(kw, text, loc))
+                append(Directive(kw, text, loc))
         return True
 
     def _open_subckt(self, text: str, loc: SourceLocation) -> None:
@@ -360,7 +364,7 @@ def gc_paused():
 
     The records hold no reference cycles, so the collector would only rescan them again and
     again (it roughly doubles the time to read a million-element netlist); on leaving, the
-    objects alive are moved to the permanent generation for the same reason.
+    objects alive are promoted to the oldest generation for the same reason.
     """
     was = gc.isenabled()
     gc.disable()
@@ -368,7 +372,10 @@ def gc_paused():
         yield
     finally:
         if was:
-            gc.freeze()  # what was built so far is never rescanned (refcounting still frees it)
+            # move everything to the oldest generation without a scan, so that the next young
+            # collection does not walk a million fresh records (freeze + unfreeze does just that)
+            gc.freeze()
+            gc.unfreeze()
             gc.enable()
 
 
