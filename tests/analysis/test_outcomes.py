@@ -173,3 +173,12 @@ def test_unsettled_bottom_is_reported():
     a = analyse(*sample(THREE_POLE, 0.2, 1e3), fit_poles=False)
     assert not a.nyquist.reliable
     assert any("not settled at the bottom" in r for r in a.nyquist.reasons)
+
+
+def test_sweep_top_not_far_below_unity_is_flagged():
+    """Ending where |T| is -14.5 dB (above the -20 dB limit) makes the count unreliable, with the level in the reason."""
+    a = analyse(*sample(THREE_POLE, 1e-4, 0.6), fit_poles=False)
+    assert a.gain_crossovers  # the crossover itself is inside the sweep
+    assert not a.nyquist.reliable
+    assert any("not far below 1" in r for r in a.nyquist.reasons)
+    assert analyse(*sample(THREE_POLE, 1e-4, 3.0), fit_poles=False).nyquist.reliable  # -48 dB at 3 Hz
