@@ -13,10 +13,10 @@ import numpy as np
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.convergence import aid_ladder, describe_aid, op_failure, option_words
-from netloop.sim.deck import OP_RAW, control_steps, raw_name, render_deck, save_key
+from netloop.sim.deck import OP_RAW, check_workdir, control_steps, raw_name, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import RunResult, SimJob, SimResult
-from netloop.sim.keep import keep_deck
+from netloop.sim.keep import keep_deck, runnable_deck
 from netloop.sim.library import find_ngspice_binary
 from netloop.sim.output import ngspice_fallback, op_failed, summary, tail
 from netloop.sim.rawfile import RawPlot, read_raw
@@ -26,7 +26,8 @@ __all__ = ["BatchSimulator"]
 
 
 class BatchSimulator:
-    """Runs each job as ``ngspice -b deck.cir`` in a temporary folder.
+    """Runs each job as ``ngspice -b deck.cir``, the deck and its raw files in a temporary folder,
+    ngspice itself in the job's ``workdir`` (or the current folder) so relative includes resolve.
 
     ``keep_dir``: keep every deck there (failed decks are always kept, in a temporary folder if no
     ``keep_dir`` is given).
@@ -51,51 +52,54 @@ class BatchSimulator:
         self.close()
 
     def run(self, job: SimJob) -> SimResult:
+        runnable_deck(job, None)  # refuses a malformed job (a bad sweep, a non-finite value) before any work
+        check_workdir(job)
         deadline = time.monotonic() + job.timeout_s
         tried: list[str | None] = []
         said = ""
         log: list[str] = []
         for aid in aid_ladder(job):
             tried.append(aid)
-            deck = render_deck(job, option_words(job, aid), control_steps(job, write_raw=True))
+
+            def failure(message: str, aid: str | None = aid) -> SimulationError:
+                path = keep_deck(runnable_deck(job, aid), job.label, self.keep_dir)
+                return SimulationError(message, path, tail(log, 60), job.label or None)
+
             with tempfile.TemporaryDirectory(prefix="netloop-batch-") as work:
-                lines = self._ngspice(job, deck, Path(work), deadline)
+                deck = render_deck(job, option_words(job, aid), control_steps(job, write_raw=True, raw_dir=work))
+                lines = self._ngspice(job, deck, Path(work), deadline, failure)
                 log.extend(lines)
                 op = _op_plot(Path(work) / OP_RAW)
                 if op is None:
                     if op_failed(lines):
                         said = summary(lines)
                         continue
-                    path = keep_deck(deck, job.label, self.keep_dir)
-                    reason = summary(lines) or tail(lines, 6).replace("\n", " | ")
-                    raise SimulationError(f"ngspice could not run the deck: {reason}", path, tail(log, 60), job.label or None)
+                    raise failure("ngspice could not read the netlist or run the deck: " + (summary(lines) or tail(lines, 6).replace("\n", " | ")))
                 missing = unknown_saves(job.save, op.names)
-                said = summary(lines)
-                if missing or said:  # e.g. 'alter' of a source the circuit lacks: ngspice goes on regardless
-                    path = keep_deck(deck, job.label, self.keep_dir)
-                    raise SimulationError(missing or f"ngspice reported errors: {said}", path, tail(log, 60), job.label or None)
-                runs = self._runs(job, Path(work), lines, deck, log)
-            deck_path = keep_deck(deck, job.label, self.keep_dir) if self.keep_dir is not None else None
+                if missing or summary(lines):  # e.g. 'alter' of a source the circuit lacks: ngspice goes on regardless
+                    raise failure(missing or f"ngspice reported errors: {summary(lines)}")
+                runs = tuple(self._run(job, r, Path(work), lines, failure) for r in range(len(job.runs)))
             return SimResult(
                 runs=runs,
                 operating_point=_node_voltages(op),
                 log="\n".join(log),
-                deck_path=deck_path,
+                deck_path=keep_deck(runnable_deck(job, aid), job.label, self.keep_dir) if self.keep_dir is not None else None,
                 convergence_aid=describe_aid(aid, ngspice_fallback(lines)),
                 backend=self.backend,
             )
-        path = keep_deck(deck, job.label, self.keep_dir)
+        path = keep_deck(runnable_deck(job, tried[-1]), job.label, self.keep_dir)
         raise op_failure(job, tried, said, path, tail(log, 60))
 
-    def _ngspice(self, job: SimJob, deck: str, work: Path, deadline: float) -> list[str]:
+    def _ngspice(self, job: SimJob, deck: str, work: Path, deadline: float, failure) -> list[str]:
+        """Run ngspice -b on ``deck`` (written into ``work``) from the job's folder; its output lines."""
         (work / "deck.cir").write_text(deck, encoding="utf-8")
-        remaining = deadline - time.monotonic()
         try:
+            remaining = deadline - time.monotonic()
             if remaining <= 0:
                 raise subprocess.TimeoutExpired(self.binary, job.timeout_s)
             done = subprocess.run(
-                [self.binary, "-b", "deck.cir"],
-                cwd=work,
+                [self.binary, "-b", str(work / "deck.cir")],
+                cwd=job.workdir or os.getcwd(),  # where relative .include/.lib paths are read from
                 stdin=subprocess.DEVNULL,
                 stdout=subprocess.PIPE,
                 stderr=subprocess.STDOUT,
@@ -103,44 +107,33 @@ class BatchSimulator:
                 check=False,
             )
         except subprocess.TimeoutExpired as exc:
-            path = keep_deck(deck, job.label, self.keep_dir)
-            raise SimulationError(
-                f"ngspice did not finish within the timeout of {job.timeout_s:g} s and was stopped", path, "", job.label or None
-            ) from exc
+            raise failure(f"ngspice did not finish within the timeout of {job.timeout_s:g} s and was stopped") from exc
         except OSError as exc:
             raise SimulatorUnavailableError(f"cannot run {self.binary}: {exc}") from exc
         lines = done.stdout.decode("utf-8", errors="replace").splitlines()
         # ngspice -b exits 1 after a deck whose analyses are all in .control, so only a signal
         # (a crash) is judged from the return code; failures are judged from its error lines.
         if done.returncode < 0:
-            path = keep_deck(deck, job.label, self.keep_dir)
-            raise SimulationError(f"ngspice crashed (signal {-done.returncode})", path, tail(lines, 40), job.label or None)
+            raise failure(f"ngspice crashed (signal {-done.returncode}): {tail(lines, 6)}")
         return lines
 
-    def _runs(self, job: SimJob, work: Path, lines: list[str], deck: str, log: list[str]) -> tuple[RunResult, ...]:
-        saves = tuple(save_key(s) for s in job.save)
-        runs = []
-        for r, run in enumerate(job.runs):
-            parts = []
-            for s, _ in enumerate(run.sweeps):
-                plot = _first_plot(work / raw_name(r, s))
-                if plot is None or "frequency" not in plot.data or plot.data["frequency"].size == 0:
-                    path = keep_deck(deck, job.label, self.keep_dir)
-                    bad = summary(lines) or "no error message"
-                    raise SimulationError(f"ngspice's ac analysis of run {run.name!r} failed: {bad}", path, tail(log, 60), job.label or None)
-                vectors = {}
-                for key in saves:
-                    data = plot.data.get(_raw_key(key))
-                    if data is None:
-                        path = keep_deck(deck, job.label, self.keep_dir)
-                        raise SimulationError(
-                            f"ngspice has no vector {key!r} (this run has: {', '.join(plot.names)})", path, tail(log, 60), job.label or None
-                        )
-                    vectors[key] = np.asarray(data, dtype=np.complex128)
-                parts.append((np.real(plot.data["frequency"]).astype(float), vectors))
-            freq, vectors = merge_sweeps(parts)
-            runs.append(RunResult(name=run.name, freq_hz=freq, vectors=vectors))
-        return tuple(runs)
+    def _run(self, job: SimJob, r: int, work: Path, lines: list[str], failure) -> RunResult:
+        """Run ``r`` of ``job``: its sweeps read from their raw files and merged."""
+        run = job.runs[r]
+        parts = []
+        for s, _ in enumerate(run.sweeps):
+            plot = _first_plot(work / raw_name(r, s))
+            if plot is None or "frequency" not in plot.data or plot.data["frequency"].size == 0:
+                raise failure(f"ngspice's ac analysis of run {run.name!r} failed: {summary(lines) or 'no error message'}")
+            vectors = {}
+            for key in (save_key(name) for name in job.save):
+                data = plot.data.get(_raw_key(key))
+                if data is None:
+                    raise failure(f"ngspice has no vector {key!r} (this run has: {', '.join(plot.names)})")
+                vectors[key] = np.asarray(data, dtype=np.complex128)
+            parts.append((np.real(plot.data["frequency"]).astype(float), vectors))
+        freq, vectors = merge_sweeps(parts)
+        return RunResult(name=run.name, freq_hz=freq, vectors=vectors)
 
     def operating_point(self, netlist: str) -> Mapping[str, float]:
         """Every node voltage of ``netlist``'s operating point (lower-case, hierarchical as ngspice names them)."""

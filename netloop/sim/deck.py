@@ -15,12 +15,12 @@ from netloop.errors import SimulationError
 from netloop.sim.frequency import sweep_problem
 from netloop.sim.job import AcSweep, SimJob
 
-__all__ = ["Step", "control_steps", "excited_sources", "format_number", "render_deck", "save_key", "strip_end"]
+__all__ = ["Step", "check_workdir", "control_steps", "excited_sources", "format_number", "render_deck", "save_key", "strip_end"]
 
 TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
 MAX_COMMAND_CHARS = 900  # ngspice's shared API takes at most 1023 characters a command
 
-StepKind = Literal["op", "ac", "alter", "save", "write", "free", "set", "echo"]
+StepKind = Literal["op", "ac", "alter", "save", "write", "free", "set"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -105,23 +105,25 @@ def raw_name(run_index: int, sweep_index: int) -> str:
     return f"run{run_index}_sweep{sweep_index}.raw"
 
 
+def _raw_path(name: str, raw_dir: str | None) -> str:
+    return name if raw_dir is None else str(Path(raw_dir) / name)
+
+
 OP_RAW = "op.raw"
 
 
-def control_steps(job: SimJob, write_raw: bool, markers: bool = False) -> tuple[Step, ...]:
+def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> tuple[Step, ...]:
     """The control commands of a job: op once, then per run the AC magnitudes and its sweeps.
 
-    ``write_raw`` adds the ``write`` commands batch mode needs (binary raw files next to the deck);
-    ``markers`` adds ``echo`` lines so that batch output can be split by step.
+    ``write_raw`` adds the ``write`` commands batch mode needs: binary raw files in ``raw_dir``
+    (an absolute folder), or in ngspice's current folder when that is None.
     """
     steps: list[Step] = []
     if write_raw:
         steps.append(Step("set filetype=binary", "set"))
-    if markers:
-        steps.append(Step("echo @netloop-step op", "echo"))
     steps.append(Step("op", "op"))
     if write_raw:
-        steps.append(Step(f"write {OP_RAW}", "write"))
+        steps.append(Step(f"write {_raw_path(OP_RAW, raw_dir)}", "write"))
     steps.append(Step("destroy all", "free"))
     saves = tuple(save_key(s) for s in job.save)
     steps.extend(Step(c, "save") for c in _chunked("save", saves))
@@ -131,16 +133,20 @@ def control_steps(job: SimJob, write_raw: bool, markers: bool = False) -> tuple[
         for source in sources:
             steps.append(Step(f"alter {source} ac = {format_number(ac.get(source, 0.0))}", "alter", r))
         for s, sweep in enumerate(run.sweeps):
-            if markers:
-                steps.append(Step(f"echo @netloop-step ac {r} {s}", "echo", r, s))
             steps.append(Step(_sweep_command(sweep), "ac", r, s))
             if write_raw:
-                steps.append(Step(f"write {raw_name(r, s)}", "write", r, s))
+                steps.append(Step(f"write {_raw_path(raw_name(r, s), raw_dir)}", "write", r, s))
             steps.append(Step("destroy all", "free", r, s))
     return tuple(steps)
+
+
+def check_workdir(job: SimJob) -> None:
+    """Refuse a job whose ``workdir`` is not an existing folder."""
+    if job.workdir is not None and not Path(job.workdir).is_dir():
+        raise SimulationError(f"the job's workdir {job.workdir!r} is not a folder", corner=job.label or None)
 
 
 def render_deck(job: SimJob, option_words: tuple[str, ...], steps: tuple[Step, ...] = ()) -> str:
     """The deck text: netlist, ``.option`` lines for ``option_words``, a control block of ``steps``."""
     template = _environment().get_template("sim_deck.cir.j2")
-    return template.render(netlist=strip_end(job.netlist), option_words=option_words, steps=steps)
+    return template.render(netlist=strip_end(job.netlist), option_words=option_words, steps=steps, workdir=job.workdir or "")

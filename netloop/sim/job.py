@@ -46,6 +46,7 @@ class SimJob:
     op_aids: tuple[str, ...] = ()  # convergence aids to try in order if the operating point fails
     label: str = ""  # what to call this job in messages (a corner name, a location)
     timeout_s: float = 600.0
+    workdir: str | None = None  # folder relative .include/.lib paths are read from; None: the current folder
 
 
 @dataclass(frozen=True, slots=True)

@@ -14,6 +14,7 @@ from pathlib import Path
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.convergence import op_failure
+from netloop.sim.deck import check_workdir
 from netloop.sim.job import AcRun, RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck, runnable_deck
 from netloop.sim.library import find_libngspice
@@ -80,9 +81,18 @@ class _Worker:
 
 
 def _portable(job: SimJob) -> SimJob:
-    """The job with plain dicts and tuples only, so that it pickles whatever mappings it was built with."""
+    """The job as the worker gets it: plain dicts and tuples (so it pickles whatever mappings it was
+    built with) and an absolute ``workdir`` (the caller's folder when the job names none)."""
     runs = tuple(AcRun(run.name, {str(k): float(v) for k, v in run.ac.items()}, tuple(run.sweeps)) for run in job.runs)
-    return replace(job, runs=runs, save=tuple(job.save), excitable=tuple(job.excitable), options=tuple(job.options), op_aids=tuple(job.op_aids))
+    return replace(
+        job,
+        runs=runs,
+        save=tuple(job.save),
+        excitable=tuple(job.excitable),
+        options=tuple(job.options),
+        op_aids=tuple(job.op_aids),
+        workdir=os.path.abspath(job.workdir or os.getcwd()),
+    )
 
 
 def _stop_worker(holder: dict) -> None:
@@ -94,6 +104,7 @@ def _stop_worker(holder: dict) -> None:
 class SharedLibrarySimulator:
     """Runs jobs in libngspice hosted by a worker process; restarts the worker after any failure.
 
+    ngspice runs in the job's ``workdir`` (or the caller's current folder) so relative includes resolve.
     ``keep_dir``: keep every deck there (failed decks are always kept, in a temporary folder if
     no ``keep_dir`` is given). Use as a context manager or call ``close()`` to stop the worker.
     """
@@ -144,6 +155,7 @@ class SharedLibrarySimulator:
 
     def run(self, job: SimJob) -> SimResult:
         runnable_deck(job, None)  # refuses a malformed job (a bad sweep, a non-finite value) before any work
+        check_workdir(job)
         with self._lock:
             worker = self._worker()
             try:
@@ -168,6 +180,9 @@ class SharedLibrarySimulator:
                     simulator_output=log_tail,
                     corner=job.label or None,
                 ) from exc
+            if reply[0] == "failed":
+                # ngspice may be left unusable ("cannot recover and awaits to be detached"): start afresh
+                _stop_worker(self._holder)
         return self._result(job, reply)
 
     def _result(self, job: SimJob, reply: tuple) -> SimResult:

@@ -27,6 +27,7 @@ def main(argv: list[str]) -> int:
         write_frame(replies, ("unavailable", f"{type(exc).__name__}: {exc}"))
         return 1
     write_frame(replies, ("ready", session.version))
+    home = os.getcwd()
     while True:
         try:
             request = read_frame(requests)
@@ -36,7 +37,11 @@ def main(argv: list[str]) -> int:
         try:
             if kind != "run":
                 raise ValueError(f"unknown request {kind!r}")
-            payload = run_job(session, job)
+            os.chdir(job.workdir or home)  # ngspice reads relative .include/.lib paths from here
+            try:
+                payload = run_job(session, job)
+            finally:
+                os.chdir(home)
             write_frame(replies, ("ok", payload))
         except JobFailure as failure:
             write_frame(replies, ("failed", failure.kind, failure.message, failure.output, failure.aid, failure.tried))

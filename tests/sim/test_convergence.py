@@ -93,3 +93,14 @@ def test_default_aids_are_ngspice_options():
         for word in aid.split():
             name, _, value = word.partition("=")
             assert name in known and int(value) > 1
+
+
+@pytest.mark.ngspice
+def test_hard_operating_point_reports_the_aid(simulator, circuits):
+    """circuits/testbench/hard_op.cir, whose operating point plain Newton cannot find, converges by
+    ngspice's gmin stepping, and the result says so; vout is the design value vref*(1+R1/R2) = 2.4 V."""
+    path = circuits / "testbench" / "hard_op.cir"
+    result = simulator.run(SimJob(path.read_text(), runs=(), save=(), workdir=str(path.parent)))
+    assert "Starting dynamic gmin stepping" in result.log  # ngspice's note that plain Newton failed
+    assert result.convergence_aid == "ngspice: dynamic gmin stepping"
+    assert result.operating_point["vout"] == pytest.approx(2.4, abs=0.01)  # design equation in the file's header
