@@ -1,7 +1,7 @@
 """netlist stage: read ngspice netlists into frozen records with source locations, and write them back."""
 
 from netloop.netlist.cards import controlling_sources
-from netloop.netlist.devices import device_pin_roles, is_device_subcircuit
+from netloop.netlist.devices import device_pin_roles, device_primitive, is_device_subcircuit
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
 from netloop.netlist.reader import parse_file, parse_text
@@ -18,6 +18,7 @@ __all__ = [
     "Subcircuit",
     "controlling_sources",
     "device_pin_roles",
+    "device_primitive",
     "is_device_subcircuit",
     "parse_file",
     "parse_text",

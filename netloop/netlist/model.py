@@ -165,6 +165,15 @@ class Netlist:
             self._index["subcircuits"] = sub
         return sub
 
+    def subcircuit(self, name: str) -> Subcircuit:
+        """The top-level subcircuit definition of that name (case-insensitive); UnknownNodeError suggests close names."""
+        from netloop.errors import UnknownNodeError
+
+        try:
+            return self.subcircuits[name.lower()]
+        except KeyError:
+            raise UnknownNodeError("subcircuit", name, self.subcircuits) from None
+
     def element(self, name: str) -> Element:
         """The top-level element of that name (case-insensitive)."""
         from netloop.errors import UnknownNodeError

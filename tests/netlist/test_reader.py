@@ -239,3 +239,21 @@ def test_records_are_frozen_records():
     assert isinstance(nl.statements[0], Subcircuit) and isinstance(nl.statements[1], Element)
     with pytest.raises(AttributeError):
         nl.statements[1].name = "X2"
+
+
+def test_unknown_subcircuit_query_suggests_close_names():
+    """Asking for a subcircuit the netlist lacks raises UnknownNodeError with the close names."""
+    nl = parse_text("t\n.subckt opamp a b\nR1 a b 1\n.ends\n")
+    assert nl.subcircuit("OPAMP").name == "opamp"
+    with pytest.raises(UnknownNodeError) as info:
+        nl.subcircuit("opamp2")
+    assert info.value.suggestions == ("opamp",)
+    assert "did you mean 'opamp'" in str(info.value)
+
+
+def test_xspice_vector_connections():
+    """XSPICE A cards: nodes inside [ ] vectors and after %-prefixes are node slots; the model is the last token."""
+    nl = parse_text("t\nA1 [IN1 in2] %v OUT amod\n.model amod d_and\n")
+    a1 = nl.element("a1")
+    assert a1.nodes == ("in1", "in2", "out") and a1.model == "amod"
+    assert a1.tokens[0] == "[" and a1.tokens[4] == "%v"
