@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import cmath
+import math
 import re
 import shutil
 import subprocess
@@ -290,3 +292,60 @@ def test_stray_ac_sources_on_input_supply_and_reference():
     text = (CIRCUITS / "testbench" / "stray_ac.cir").read_text()
     for source in ("Vin", "Vdd", "Vref"):
         assert re.search(rf"^{source} .* ac 1$", text, re.MULTILINE), source
+
+
+def wrdata_complex(path: Path) -> tuple[list[float], list[complex]]:
+    """Frequencies and complex values from ngspice `wrdata` of one complex vector (columns f, re, im)."""
+    freqs, values = [], []
+    for line in path.read_text().split("\n"):
+        cols = line.split()
+        if len(cols) == 3:
+            freqs.append(float(cols[0]))
+            values.append(complex(float(cols[1]), float(cols[2])))
+    return freqs, values
+
+
+@pytest.mark.ngspice
+def test_cond_stable_loop_gain_matches_its_closed_form(tree):
+    """A series 0 V source at Eerr's control input of cond_stable.cir measures the closed-form T(s) its comment states."""
+    path = tree / "cond_stable.cir"
+    # hand probe, ordinary ngspice usage: Eerr reads outx, and Vprobe (ac 1) sits between out and outx; the
+    # control input draws no current, so T = -v(out)/v(outx) exactly
+    text = path.read_text().replace("Eerr e 0 in out 1", "Eerr e 0 in outx 1\nVprobe outx out dc 0 ac 1")
+    text = text.replace("Vin in 0 dc 0 ac 1", "Vin in 0 dc 0")
+    path.write_text(text)
+    out = tree / "t.txt"
+    deck = with_control(path, f"ac dec 5 1 10Meg\nlet t = -v(out)/v(outx)\nwrdata {out} t")
+    assert error_lines(ngspice(deck)) == []
+    freqs, values = wrdata_complex(out)
+    assert len(freqs) == 36
+
+    def closed_form(f):  # the comment block's T(s): K (1+s/wz)^2 / ((1+s/wp)^3 (1+s/wh)^2), K = gk*rgain
+        s = 2j * math.pi * f
+        wp, wz, wh = 2 * math.pi * 100, 2 * math.pi * 3e3, 2 * math.pi * 1e6
+        return 3e6 * (1 + s / wz) ** 2 / ((1 + s / wp) ** 3 * (1 + s / wh) ** 2)
+
+    for f, t in zip(freqs, values):
+        # each lead stage is an inverting amplifier around a VCVS of gain aol = 1e6: its relative error is about
+        # (1 + |gain|)/aol with |gain| up to 1 + f/fz, so two stages allow 2*(2 + f/3 kHz)/1e6, plus print rounding
+        slack = 2 * (2 + f / 3e3) / 1e6 + 1e-5
+        assert t == pytest.approx(closed_form(f), rel=slack)
+    # the documented character, from the closed form: phase below -180 deg with |T| > 1 at 1 kHz
+    mid = closed_form(1e3)
+    assert abs(mid) > 1 and math.degrees(cmath.phase(mid)) % 360 < 180  # wrapped: -190 deg reads as +170 deg
+
+
+@pytest.mark.ngspice
+def test_miller_buffer_smaller_cc_peaks_more(tree):
+    """Lowering the Miller buffer's .param cc raises its closed-loop peaking in ngspice's ac run (less phase margin)."""
+    peaks = {}
+    for cc in ("1.2p", "0.3p"):
+        out = tree / f"h_{cc}.txt"
+        deck = with_control(
+            tree / "miller_buffer.cir",
+            f"alterparam cc={cc}\nreset\nac dec 20 1k 1G\nlet h = v(out)/v(inp)\nwrdata {out} h",
+        )
+        assert error_lines(ngspice(deck)) == []
+        peaks[cc] = max(abs(h) for h in wrdata_complex(out)[1])
+    # reference: ngspice ac of the closed loop; a second-order loop peaks more as its phase margin falls (common practice)
+    assert peaks["1.2p"] < 1.05 < peaks["0.3p"]
