@@ -51,3 +51,17 @@ def test_untouched_library_is_referenced_not_inlined(inverter):
     out = write_netlist(inverter)
     assert f".lib {LIB} tt" in out
     assert len(out.splitlines()) < 10
+
+
+def test_replacing_one_library_subcircuit_inlines_only_its_file(inverter):
+    """Changing the nfet wrapper inlines just the file that defined it; every other library file stays an include."""
+    from dataclasses import replace
+
+    sub = inverter.subcircuit("sky130_fd_pr__nfet_01v8")
+    changed = replace(sub, params=(*sub.params, ("extra", "1")))
+    deck = write_netlist(replace(inverter, statements=tuple(changed if s is sub else s for s in inverter.statements)))
+    includes = [line.split(None, 1)[1] for line in deck.splitlines() if line.startswith(".include ")]
+    assert sub.location.file not in includes and f".lib {LIB} tt" not in deck
+    assert any(p.endswith("sky130_fd_pr__pfet_01v8__tt.corner.spice") for p in includes)
+    assert ".subckt sky130_fd_pr__nfet_01v8 d g s b params:" in deck and "extra=1" in deck
+    assert deck.count(".subckt sky130_fd_pr__nfet_01v8 ") == 1
