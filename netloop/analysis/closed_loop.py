@@ -16,7 +16,8 @@ __all__ = ["closed_loop_peaking", "modulus_margin"]
 def _extremum(resp: Response, fun) -> tuple[float, float]:
     """(x, value) of the minimum of fun(T) over the interpolated sweep, polished between grid points."""
     xs = resp.dense_x(16)
-    vals = fun(resp.t_at(xs))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vals = fun(resp.t_at(xs))
     i = int(np.argmin(vals))
     lo, hi = xs[max(i - 1, 0)], xs[min(i + 1, xs.size - 1)]
     if hi > lo:
@@ -26,17 +27,26 @@ def _extremum(resp: Response, fun) -> tuple[float, float]:
     return float(xs[i]), float(vals[i])
 
 
+def _minus_closed_loop(t):
+    """-|T / (1 + T)|, -inf where T = -1."""
+    t = np.asarray(t, dtype=complex)
+    den = 1.0 + t
+    out = np.full(t.shape, -np.inf)
+    np.divide(-np.abs(t), np.abs(den), out=out, where=den != 0.0)
+    return out
+
+
 def modulus_margin(resp: Response) -> tuple[float, float]:
     """(min |1 + T|, its frequency in Hz) over the sweep."""
     x, v = _extremum(resp, lambda t: np.abs(1.0 + t))
-    return v, 10.0**x
+    return v, float(10.0**x)
 
 
 def closed_loop_peaking(resp: Response) -> Peaking:
     """Peak of |T/(1+T)| relative to its regulated low-frequency value (or to 1 when |T| <= 1 there)."""
-    x, v = _extremum(resp, lambda t: -np.abs(t / (1.0 + t)))
+    x, v = _extremum(resp, _minus_closed_loop)
     peak = -v
     absolute_db = 20.0 * math.log10(peak) if peak > 0 else -math.inf
     t0 = complex(resp.t[0])
     reference_db = 20.0 * math.log10(abs(t0 / (1.0 + t0))) if abs(t0) > 1.0 else 0.0
-    return Peaking(absolute_db - reference_db, 10.0**x, reference_db, absolute_db)
+    return Peaking(absolute_db - reference_db, float(10.0**x), reference_db, absolute_db)

@@ -63,7 +63,7 @@ def find_gain_crossovers(resp: Response) -> tuple[GainCrossover, ...]:
     for i in np.flatnonzero(above[:-1] != above[1:]):
         a, b = resp.x[i], resp.x[i + 1]
         xr = _root(lambda u: float(resp.gain_at(u)), a, b)
-        f = 10.0**xr
+        f = float(10.0**xr)
         phase = float(resp.phase_at(xr))
         direction = "down" if resp.gain_db[i] > resp.gain_db[i + 1] else "up"
         pm = phase_margin_deg(phase, direction)
@@ -83,7 +83,7 @@ def find_phase_crossovers(resp: Response, floor_abs_db: float) -> tuple[tuple[Ph
             a, b = resp.x[i], resp.x[i + 1]
             xr = _root(lambda u, tg=target: float(resp.phase_at(u)) - tg, a, b)
             gain = float(resp.gain_at(xr))
-            rec = PhaseCrossover(10.0**xr, float(target), gain, -gain, "upper" if gain < 0.0 else "lower")
+            rec = PhaseCrossover(float(10.0**xr), float(target), gain, -gain, "upper" if gain < 0.0 else "lower")
             (kept if gain >= floor_abs_db else ignored).append(rec)
     return tuple(kept), tuple(ignored)
 

@@ -17,12 +17,13 @@ image (T(-jw) = conj T(jw)). Two pieces are not sampled and are closed by assump
   the slope residual / 17, the change a pole just above f_min still leaves, plus 0.1 %).
 
 Counting is by the angle of 1 + T (not of T): its total turn is -360 (Z - P) degrees, so the
-clockwise encirclements are N = Z - P and Z = N + P. The angle is followed along the interpolated
-curve (16 points per sample interval, see netloop.analysis.response), which is trustworthy
-while T's own phase moves less than 60 degrees between samples; where it moves more (above the
-numerical floor), or where the angle of 1 + T still jumps by more than 90 degrees between
-neighbouring points (T passes very close to -1), the count is reported as unreliable. Far above crossover, where |T| sinks into
-numerical noise, 1 + T is close to 1 and the noise cannot change the count.
+clockwise encirclements are N = Z - P and Z = N + P. The angle is followed along the
+interpolated curve (16 points per sample interval, see netloop.analysis.response), which is
+trustworthy while T's own phase moves less than 60 degrees between samples; where it moves more
+(above the numerical floor), or where the angle of 1 + T still jumps by more than 90 degrees
+between neighbouring points (T passes very close to -1), the count is reported as unreliable.
+Far above crossover, where |T| sinks into numerical noise, 1 + T is close to 1 and the noise
+cannot change the count.
 """
 
 from __future__ import annotations

@@ -49,8 +49,8 @@ def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol
     notes: list[str] = []
     f_ref = math.sqrt(float(freq_hz[0]) * float(freq_hz[-1]))
     s = 1j * freq_hz / f_ref
-    sens = 1.0 / (1.0 + t)
-    if not np.all(np.isfinite(sens)):
+    sens = np.divide(1.0, 1.0 + t, out=np.full(t.shape, np.inf, dtype=complex), where=(1.0 + t) != 0.0)
+    if np.any(1.0 + t == 0.0):
         return None, ("T equals -1 at a sample: the closed loop has a pole on the imaginary axis; no pole fit",)
     z = np.concatenate([np.conj(s[::-1]), s])
     y = np.concatenate([np.conj(sens[::-1]), sens])

@@ -4,7 +4,7 @@ Data rules (AnalysisError otherwise): ``freq_hz`` one-dimensional, finite, posit
 ascending, at least 4 samples; ``t`` the same length, convertible to complex. NaN or infinite
 samples of T are REJECTED with an AnalysisError that says how many and at which frequency the
 first one is: a hole in the data can hide a crossover, so we never drop samples silently.
-A sample with T exactly 0 is kept and read as -6000 dB (far below any floor).
+A sample with T exactly 0 is kept and read as -400 dB (far below any floor).
 
 The interpolant is an interpolating quintic spline (cubic when there are fewer than 6 samples)
 in x = log10(f) of 20 log10|T| and of the unwrapped phase (anchored so that the phase at the
@@ -24,7 +24,7 @@ from netloop.errors import AnalysisError
 
 __all__ = ["Response", "check_response"]
 
-_TINY = 1e-300
+_TINY = 1e-20  # |T| = 0 is read as -400 dB: far below any floor, without wrecking the spline
 
 
 def check_response(freq_hz, t) -> tuple[np.ndarray, np.ndarray]:
@@ -60,14 +60,12 @@ def check_response(freq_hz, t) -> tuple[np.ndarray, np.ndarray]:
 
 def anchored_phase_deg(t: np.ndarray) -> np.ndarray:
     """Unwrapped phase of T in degrees with the first sample in (-180, 180]."""
-    phase = np.unwrap(np.angle(t))
-    phase -= 2 * np.pi * np.round((phase[0] - np.angle(t[0])) / (2 * np.pi))
-    return np.degrees(phase)
+    return np.degrees(np.unwrap(np.angle(t)))  # unwrap keeps the first sample, and angle() is in (-pi, pi]
 
 
 @dataclass(frozen=True, slots=True)
 class Response:
-    """T sampled at ascending frequencies, with cubic interpolants of gain (dB) and phase (deg) in log10 f."""
+    """T sampled at ascending frequencies, with spline interpolants of gain (dB) and phase (deg) in log10 f."""
 
     freq_hz: np.ndarray
     t: np.ndarray

@@ -206,7 +206,7 @@ class ClosedLoopPoles:
     """Closed-loop poles from a rational (AAA) fit of S = 1 / (1 + T) on the data and its mirror.
 
     poles_rad_s          poles in rad/s (complex, s-plane), only those with |p| below the top of
-                         the sweep (2 pi f_max), sorted by |p|. Each complex pair appears twice.
+                         the sweep (2 pi f_max), sorted by |p|; both members of a complex pair appear.
     rhp_count            how many of them have a positive real part.
     dominant_damping     damping ratio -Re(p)/|p| of the complex pair closest to the imaginary
                          axis (smallest damping); None when there is no complex pair.

@@ -182,3 +182,17 @@ def test_sweep_top_not_far_below_unity_is_flagged():
     assert not a.nyquist.reliable
     assert any("not far below 1" in r for r in a.nyquist.reasons)
     assert analyse(*sample(THREE_POLE, 1e-4, 3.0), fit_poles=False).nyquist.reliable  # -48 dB at 3 Hz
+
+
+def test_loop_through_minus_one_is_marginal_not_a_crash():
+    """T = 8/(s+1)^3 sampled exactly where T = -1 (w = sqrt 3, closed form): PM 0, infinite peaking, count unreliable, no pole fit."""
+    loop = 8 / (S + 1) ** 3  # (1 + j sqrt3)^3 = -8, so T(j sqrt3) = -1 (our derivation)
+    f = np.sort(np.append(np.logspace(-3, 3, 121), math.sqrt(3) / TWO_PI))
+    t = loop(2j * np.pi * f)
+    t[np.argmin(np.abs(f - math.sqrt(3) / TWO_PI))] = -1.0
+    a = analyse(f, t)
+    assert a.margins.phase_margin_deg == pytest.approx(0.0, abs=1e-9)
+    assert a.gain_crossovers[0].peaking_exact == math.inf and a.gain_crossovers[0].delay_margin_s is None
+    assert a.margins.modulus_margin < 1e-12
+    assert not a.nyquist.reliable and a.poles is None
+    assert any("equals -1" in w for w in a.warnings)
