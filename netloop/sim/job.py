@@ -25,8 +25,10 @@ class AcSweep:
 class AcRun:
     """One AC analysis: the AC magnitude of each named source for this run, and the sweeps to run.
 
-    Sources not named keep AC magnitude 0. Several sweeps in one run are simulated one after the
-    other with the same excitation and concatenated in frequency order.
+    Sources not named keep AC magnitude 0 (every source in SimJob.excitable is set for every run;
+    a source outside it keeps the AC value its netlist line gives). Several sweeps in one run are
+    simulated one after the other with the same excitation and concatenated in frequency order.
+    A source inside a subcircuit is named as ngspice flattens it, e.g. "v.xamp.vin".
     """
 
     name: str  # a label such as "series" or "shunt"

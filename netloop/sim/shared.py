@@ -156,10 +156,11 @@ class SharedLibrarySimulator:
     def run(self, job: SimJob) -> SimResult:
         runnable_deck(job, None)  # refuses a malformed job (a bad sweep, a non-finite value) before any work
         check_workdir(job)
+        job = _portable(job)
         with self._lock:
             worker = self._worker()
             try:
-                reply = worker.call(("run", _portable(job)), job.timeout_s)
+                reply = worker.call(("run", job), job.timeout_s)
             except FrameTimeout as exc:
                 _stop_worker(self._holder)
                 deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
@@ -180,6 +181,9 @@ class SharedLibrarySimulator:
                     simulator_output=log_tail,
                     corner=job.label or None,
                 ) from exc
+            except BaseException:
+                _stop_worker(self._holder)  # e.g. KeyboardInterrupt: a reply may still come; never read it later
+                raise
             if reply[0] == "failed":
                 # ngspice may be left unusable ("cannot recover and awaits to be detached"): start afresh
                 _stop_worker(self._holder)
