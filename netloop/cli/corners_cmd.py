@@ -1,0 +1,60 @@
+"""``netloop corners PLAN.toml``: run a corner plan on Dask, print the worst corners first, exit 1 if any fails."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+__all__ = ["add_parser", "run"]
+
+
+def _positive(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"expected a whole number of worker processes, got {text!r}") from exc
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"--jobs must be 1 or more, got {n}")
+    return n
+
+
+def add_parser(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("plan", help="the corner plan (TOML); see the README section 'Corner plans'")
+    where = parser.add_mutually_exclusive_group()
+    where.add_argument("--jobs", type=_positive, metavar="N", help="worker processes of the local Dask cluster (default: one per CPU)")
+    where.add_argument("--cluster", metavar="ADDRESS", help="run on an existing Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local cluster")
+    parser.add_argument("--out", metavar="FILE.jsonl", help="the results file, one JSON line per corner (default: PLAN.results.jsonl next to the plan)")
+    again = parser.add_mutually_exclusive_group()
+    again.add_argument("--resume", action="store_true", help="continue an existing results file: corners already in it are not run again")
+    again.add_argument("--force", action="store_true", help="replace an existing results file (without --resume or --force it is never overwritten)")
+    parser.add_argument("--progress", action="store_true", help="draw the progress bar even when stderr is not a terminal")
+    parser.add_argument("--json", action="store_true", help="print one JSON document (schema netloop.corners/1) instead of the table")
+    parser.add_argument("--csv", metavar="FILE", help="also write one CSV row per corner")
+    parser.add_argument("--junit", metavar="FILE", help="also write JUnit XML, one test case per corner, for CI systems")
+
+
+def run(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from netloop import corners
+
+    plan = corners.load_plan(args.plan)
+    progress = args.progress or sys.stderr.isatty()
+    result = corners.run_plan(plan, jobs=args.jobs, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)
+    if args.csv:
+        corners.write_corner_csv(result.records, args.csv)
+    if args.junit:
+        corners.write_junit(result.records, args.junit, suite=Path(plan.path).stem)
+    if args.json:
+        print(json.dumps(corners.run_document(result), indent=2, allow_nan=False))
+    else:
+        print(corners.corner_table(result.records))
+        print()
+        print(corners.counts_line(result.records))
+        for r in corners.worst_first(result.records):
+            if r["outcome"] == "error":
+                print(f"  {r['corner']}: {r['error']}")
+        note = f"; {result.skipped} found done in the results file" if result.skipped else ""
+        print(f"results: {result.results_path} ({result.ran} run now{note})")
+    return 0 if result.passed else 1

@@ -1,0 +1,285 @@
+"""Read a corner plan (TOML) into a frozen Plan: netlist, break nodes, axes, explicit corners, requirements."""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+from netloop.analysis.requirements import Requirement, parse_requirements
+from netloop.errors import PlanError
+from netloop.measure import METHODS, Sweep
+
+__all__ = ["AUTO", "KINDS", "Axis", "CornerSpec", "Plan", "Setting", "load_plan", "parse_plan"]
+
+AUTO = "auto"
+KINDS = ("netlist", "lib", "temp", "param", "supply")  # what a setting can change, in naming order
+_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s sweep axes corner".split())
+_SWEEP_KEYS = frozenset("fmin_hz fmax_hz points_per_decade".split())
+
+
+@dataclass(frozen=True, slots=True)
+class Setting:
+    """One change a corner makes to the netlist.
+
+    kind     "netlist" (value: a path), "lib" (value: a section; target: the .lib file, "" for the only one),
+             "temp" (value: degrees C as text), "param" (target: the .param name), "supply" (target: a V source)
+    """
+
+    kind: str
+    target: str
+    value: str
+
+    @property
+    def label(self) -> str:
+        """How the setting reads in a corner name."""
+        if self.kind == "netlist":
+            return Path(self.value).stem
+        if self.kind == "lib":
+            return self.value
+        if self.kind == "temp":
+            return f"{self.value}C"
+        if self.kind == "supply":
+            return f"{self.target}={self.value}V"
+        return f"{self.target}={self.value}"
+
+
+@dataclass(frozen=True, slots=True)
+class Axis:
+    """One axis of the product: every value of one setting, and the plan line that named it."""
+
+    kind: str
+    target: str
+    values: tuple[str, ...]
+    line: int
+
+
+@dataclass(frozen=True, slots=True)
+class CornerSpec:
+    """One explicit corner of the plan's [[corner]] list."""
+
+    name: str  # "" when the plan gives none: named from its settings
+    settings: tuple[Setting, ...]
+    line: int
+
+
+@dataclass(frozen=True, slots=True)
+class Plan:
+    """A corner plan as read: paths are absolute, requirements parsed, nothing simulated yet."""
+
+    path: str  # the plan file ("<string>" for text)
+    netlist: str  # the default netlist (absolute path)
+    at: tuple[str, ...]  # break nodes; ("auto",) to measure every loop netloop finds
+    driver: str | None
+    method: str
+    requirements: tuple[Requirement, ...]
+    open_loop_rhp_poles: int
+    timeout_s: float
+    sweep: Sweep
+    axes: tuple[Axis, ...]  # combined as a product
+    corners: tuple[CornerSpec, ...]  # explicit list, run after the product
+    text: str  # the plan's text, for finding lines of semantic errors
+
+    def line_of(self, *keys: str) -> int:
+        """The plan line of a key (see `find_line`)."""
+        return find_line(self.text, *keys)
+
+    def error(self, message: str, *keys: str, line: int | None = None) -> PlanError:
+        """A PlanError at the line of a key: "plan.toml:12: message"."""
+        return PlanError(f"{self.path}:{line if line is not None else self.line_of(*keys)}: {message}")
+
+
+def find_line(text: str, *keys: str) -> int:
+    """The 1-based line where the last of ``keys`` is assigned (after the earlier keys' lines); 1 if not found.
+
+    Keys are matched as written at the start of a line (``param.cc =``, ``"cc" =``) or as a
+    table header (``[axes]``, ``[[corner]]``); a dotted key also matches its first part.
+    """
+    lines = text.splitlines()
+    start = 0
+    found = 1
+    for key in keys:
+        pat = re.compile(rf"^\s*(\[\[?\s*)?[\"']?{re.escape(key)}[\"']?\s*(=|\.|\]|$)", re.IGNORECASE)
+        for i in range(start, len(lines)):
+            if pat.match(lines[i]):
+                found, start = i + 1, i + 1
+                break
+    return found
+
+
+def _where(path: str, text: str, *keys: str) -> str:
+    return f"{path}:{find_line(text, *keys)}"
+
+
+def _as_text(value: object, where: str, what: str) -> str:
+    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
+        raise PlanError(f"{where}: {what} must be a number or a string, got {value!r}")
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise PlanError(f"{where}: {what} must be finite, got {value!r}")
+        return repr(value)
+    text = str(value).strip()
+    if not text:
+        raise PlanError(f"{where}: {what} is empty")
+    return text
+
+
+def _number_text(value: object, where: str, what: str) -> str:
+    from netloop.netlist import parse_value
+
+    text = _as_text(value, where, what)
+    try:
+        number = parse_value(text)
+    except Exception as exc:  # noqa: BLE001 - parse_value raises ValueError or NetlistError
+        raise PlanError(f"{where}: {what} must be a number such as 3.3 or 1.8 (SI suffixes allowed), got {value!r}") from exc
+    if not math.isfinite(number):
+        raise PlanError(f"{where}: {what} must be finite, got {value!r}")
+    return text
+
+
+def _values(raw: object, where: str, what: str) -> tuple:
+    items = tuple(raw) if isinstance(raw, list) else (raw,)
+    if not items:
+        raise PlanError(f"{where}: {what} has no values; give a list such as [\"tt\", \"ss\"]")
+    return items
+
+
+def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many: bool) -> list[tuple[Setting | tuple, int]]:
+    """Settings (or axes, with ``many``) from an [axes] or [[corner]] table; (item, line) pairs in key order."""
+    out: list = []
+    for key, raw in table.items():
+        where = _where(path, text, *section, key)
+        line = find_line(text, *section, key)
+        kind = key.lower()
+        if kind == "name" and not many:
+            continue
+        if kind in ("lib", "param", "supply") and isinstance(raw, dict):
+            targets = raw.items()
+        elif kind in ("netlist", "temp"):
+            targets = (("", raw),)
+        elif kind == "lib":
+            targets = (("", raw),)
+        elif kind in ("param", "supply"):
+            raise PlanError(f"{where}: {key} needs a name, e.g. {key}.vdd = {'[3.0, 3.3]' if many else '3.0'}")
+        else:
+            raise PlanError(f"{where}: unknown setting {key!r}; expected one of {', '.join(KINDS)}")
+        for target, value in targets:
+            what = f"{key}.{target}" if target else key
+            if isinstance(value, dict):
+                raise PlanError(f"{where}: {what} must be {'a list of values' if many else 'a value'}, not a table")
+            values = _values(value, where, what) if many else (value,)
+            if not many and isinstance(value, list):
+                raise PlanError(f"{where}: {what} takes one value in a [[corner]]; lists belong in [axes]")
+            texts = []
+            for v in values:
+                if kind == "temp" or kind == "supply":
+                    texts.append(_number_text(v, where, what))
+                elif kind == "netlist":
+                    p = _as_text(v, where, what)
+                    base = Path(path).parent if path != "<string>" else Path.cwd()
+                    texts.append(str((base / p).resolve()))
+                else:
+                    texts.append(_as_text(v, where, what))
+            if len(set(texts)) != len(texts):
+                raise PlanError(f"{where}: {what} lists a value twice")
+            if many:
+                out.append((Axis(kind, target.lower() if kind != "lib" else target, tuple(texts), line), line))
+            else:
+                out.append((Setting(kind, target.lower() if kind != "lib" else target, texts[0]), line))
+    return out
+
+
+def parse_plan(text: str, path: str = "<string>") -> Plan:
+    """Read plan text; relative paths resolve against the plan's folder. PlanError with file:line otherwise."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        line = getattr(exc, "lineno", None)
+        where = f"{path}:{line}" if line else path
+        raise PlanError(f"{where}: not valid TOML: {getattr(exc, 'msg', str(exc))}") from exc
+    for key in data:
+        if key not in _TOP_KEYS:
+            raise PlanError(f"{_where(path, text, key)}: unknown key {key!r}; expected one of {', '.join(sorted(_TOP_KEYS))}")
+    base = Path(path).parent if path != "<string>" else Path.cwd()
+    if "netlist" not in data or not isinstance(data["netlist"], str):
+        raise PlanError(f"{_where(path, text, 'netlist')}: the plan needs netlist = \"FILE\" (relative to the plan)")
+    netlist = str((base / data["netlist"]).resolve())
+    at_raw = data.get("at", AUTO)
+    at = tuple(at_raw) if isinstance(at_raw, list) else (at_raw,)
+    if not at or not all(isinstance(a, str) and a.strip() for a in at):
+        raise PlanError(f"{_where(path, text, 'at')}: at must be a node name, a list of node names, or \"auto\"")
+    at = tuple(a.strip().lower() for a in at)
+    if AUTO in at and len(at) > 1:
+        raise PlanError(f"{_where(path, text, 'at')}: \"auto\" measures every loop; do not list nodes with it")
+    method = data.get("method", "tian")
+    if method not in METHODS:
+        raise PlanError(f"{_where(path, text, 'method')}: method must be one of {', '.join(METHODS)}, got {method!r}")
+    req_raw = data.get("require", [])
+    req_list = req_raw if isinstance(req_raw, list) else [req_raw]
+    try:
+        requirements = parse_requirements([str(r) for r in req_list])
+    except PlanError as exc:
+        raise PlanError(f"{_where(path, text, 'require')}: {exc}") from exc
+    rhp = data.get("open_loop_rhp_poles", 0)
+    if not isinstance(rhp, int) or isinstance(rhp, bool) or rhp < 0:
+        raise PlanError(f"{_where(path, text, 'open_loop_rhp_poles')}: open_loop_rhp_poles must be a whole number 0 or more")
+    timeout = data.get("timeout_s", 600.0)
+    if isinstance(timeout, bool) or not isinstance(timeout, (int, float)) or not timeout > 0:
+        raise PlanError(f"{_where(path, text, 'timeout_s')}: timeout_s must be a positive number of seconds")
+    driver = data.get("driver")
+    if driver is not None and not isinstance(driver, str):
+        raise PlanError(f"{_where(path, text, 'driver')}: driver must be text such as \"m6.d\"")
+    sweep = _sweep(data.get("sweep", {}), path, text)
+    axes_raw = data.get("axes", {})
+    if not isinstance(axes_raw, dict):
+        raise PlanError(f"{_where(path, text, 'axes')}: axes must be a table ([axes])")
+    axes = tuple(a for a, _ in _settings(axes_raw, path, text, ("axes",), many=True))
+    corners_raw = data.get("corner", [])
+    if not isinstance(corners_raw, list) or not all(isinstance(c, dict) for c in corners_raw):
+        raise PlanError(f"{_where(path, text, 'corner')}: corners are tables written [[corner]]")
+    corners = []
+    for i, table in enumerate(corners_raw):
+        section = ("corner",) * (i + 1)
+        line = find_line(text, *section)
+        name = table.get("name", "")
+        if not isinstance(name, str):
+            raise PlanError(f"{_where(path, text, *section, 'name')}: a corner's name must be text")
+        settings = tuple(s for s, _ in _settings(table, path, text, section, many=False))
+        corners.append(CornerSpec(name.strip(), settings, line))
+    return Plan(path, netlist, at, driver, method, requirements, rhp, float(timeout), sweep, axes, tuple(corners), text)
+
+
+def _sweep(raw: object, path: str, text: str) -> Sweep:
+    if not isinstance(raw, dict):
+        raise PlanError(f"{_where(path, text, 'sweep')}: sweep must be a table ([sweep])")
+    kwargs: dict = {}
+    for key, value in raw.items():
+        where = _where(path, text, "sweep", key)
+        if key not in _SWEEP_KEYS:
+            raise PlanError(f"{where}: unknown sweep key {key!r}; expected one of {', '.join(sorted(_SWEEP_KEYS))}")
+        if key == "points_per_decade":
+            if not isinstance(value, int) or isinstance(value, bool):
+                raise PlanError(f"{where}: points_per_decade must be a whole number")
+            kwargs[key] = value
+        else:
+            from netloop.netlist import parse_value
+
+            number = parse_value(_number_text(value, where, key))
+            kwargs[key] = number
+            kwargs[key.replace("_hz", "_given")] = True
+    try:
+        return Sweep(**kwargs)
+    except Exception as exc:  # noqa: BLE001 - Sweep raises NetloopError on bad limits
+        raise PlanError(f"{_where(path, text, 'sweep')}: {exc}") from exc
+
+
+def load_plan(path: str | Path) -> Plan:
+    """Read a plan file; PlanError (file:line) when it cannot be read."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise PlanError(f"cannot read plan {str(path)!r}: {exc.strerror or exc}") from exc
+    return parse_plan(text, str(p.resolve()))

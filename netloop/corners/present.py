@@ -1,0 +1,144 @@
+"""Present a corner run: the worst-first table, summary counts, CSV rows, JUnit XML and the JSON document."""
+
+from __future__ import annotations
+
+import csv
+import math
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+from netloop.corners.journal import SCHEMA
+from netloop.report.notation import NONE, db, deg, eng
+
+__all__ = ["corner_table", "counts_line", "run_document", "verdict", "worst_first", "write_corner_csv", "write_junit"]
+
+_RANK = {"error": 0, "unstable": 1, "fail": 2, "no crossover": 3, "pass": 4}
+
+
+def _margins(r: dict) -> dict:
+    return (r.get("loop") or {}).get("margins") or {}
+
+
+def verdict(r: dict) -> str:
+    """One word or two for a record: "pass", "fail" (a requirement), "unstable", "no crossover" or "error" (not measured)."""
+    if r["outcome"] == "error":
+        return "error"
+    loop = r["loop"]
+    if not loop["stability"]["stable"]:
+        return "unstable"
+    if r["outcome"] == "fail":
+        return "fail"
+    if loop["classification"] == "does not regulate":
+        return "no crossover"
+    return "pass"
+
+
+def failed_requirements(r: dict) -> tuple[str, ...]:
+    """The texts of the requirements a record failed ("pm>=60")."""
+    return tuple(q["text"] for q in (r.get("loop") or {}).get("requirements", ()) if not q["passed"])
+
+
+def worst_first(records: tuple[dict, ...]) -> tuple[dict, ...]:
+    """Errors, then unstable corners, then failed requirements, then the rest; each group by phase margin, lowest first."""
+    def key(r: dict) -> tuple:
+        pm = _margins(r).get("phase_margin_deg")
+        return (_RANK[verdict(r)], -math.inf if pm is None else pm, r["corner"], r["at"])
+
+    return tuple(sorted(records, key=key))
+
+
+def _gm(r: dict) -> str:
+    loop = r.get("loop")
+    if loop is None:
+        return NONE
+    value = _margins(r).get("gain_margin_db")
+    if value is None and loop.get("infinite", {}).get("margins.gain_margin_db") == "+inf":
+        return "inf"
+    return db(value)
+
+
+def corner_table(records: tuple[dict, ...]) -> str:
+    """A plain-text table, worst corner first: corner, [break node], phase margin, gain margin, crossover, verdict, failed requirement."""
+    show_at = len({r["at"] for r in records}) > 1
+    head = ["corner", *(["at"] if show_at else []), "phase margin", "gain margin", "crossover", "verdict", "failed"]
+    rows = []
+    for r in worst_first(records):
+        m = _margins(r)
+        failed = ", ".join(failed_requirements(r)) if r["outcome"] != "error" else "simulation failed"
+        rows.append([r["corner"], *([r["at"]] if show_at else []), deg(m.get("phase_margin_deg")), _gm(r),
+                     eng(m.get("unity_gain_hz"), "Hz"), verdict(r), failed or NONE])
+    widths = [max(len(str(x)) for x in col) for col in zip(head, *rows)]
+    lines = ["  ".join(str(x).ljust(w) for x, w in zip(row, widths)).rstrip() for row in (head, *rows)]
+    lines.insert(1, "  ".join("-" * w for w in widths))
+    return "\n".join(lines)
+
+
+def counts_line(records: tuple[dict, ...]) -> str:
+    """"12 corners: 9 pass, 2 fail a requirement, 0 unstable, 1 error (not measured)"."""
+    v = [verdict(r) for r in records]
+    parts = [f"{v.count('pass') + v.count('no crossover')} pass", f"{v.count('fail')} fail a requirement",
+             f"{v.count('unstable')} unstable", f"{v.count('error')} error (not measured)"]
+    return f"{len(records)} corner{'s' if len(records) != 1 else ''}: " + ", ".join(parts)
+
+
+_CSV_FIELDS = ("corner", "at", "verdict", "phase_margin_deg", "gain_margin_db", "unity_gain_hz", "phase_crossover_hz",
+               "modulus_margin", "delay_margin_s", "failed_requirements", "error", "seconds", "settings")
+
+
+def write_corner_csv(records: tuple[dict, ...], path: str | Path) -> None:
+    """One row per corner (worst first); empty cells where a quantity does not exist; settings as k=v pairs."""
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(_CSV_FIELDS)
+        for r in worst_first(records):
+            m = _margins(r)
+            def cell(k: str):
+                v = m.get(k)
+                return "" if v is None else repr(float(v))
+            w.writerow([r["corner"], r["at"], verdict(r), cell("phase_margin_deg"), cell("gain_margin_db"), cell("unity_gain_hz"),
+                        cell("phase_crossover_hz"), cell("modulus_margin"), cell("delay_margin_s"),
+                        "; ".join(failed_requirements(r)), r.get("error") or "", f"{r['seconds']:.3f}",
+                        " ".join(f"{k}={v}" for k, v in r["settings"].items())])
+
+
+def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None:
+    """JUnit XML: one test case per corner (and break node); unstable or a failed requirement is a failure,
+    a corner that could not be measured is an error carrying ngspice's message."""
+    v = [verdict(r) for r in records]
+    root = ET.Element("testsuites")
+    ts = ET.SubElement(root, "testsuite", name=suite, tests=str(len(records)), failures=str(v.count("fail") + v.count("unstable")),
+                       errors=str(v.count("error")), time=f"{sum(r['seconds'] for r in records):.3f}")
+    for r, verdict_ in zip(records, v):
+        name = r["corner"] if len({x["at"] for x in records}) == 1 else f"{r['corner']} at {r['at']}"
+        tc = ET.SubElement(ts, "testcase", classname=f"netloop.corners.{suite}", name=name, time=f"{r['seconds']:.3f}")
+        m = _margins(r)
+        if verdict_ == "error":
+            el = ET.SubElement(tc, "error", message=(r.get("error") or "")[:500], type="SimulationError")
+            el.text = r.get("simulator_output") or r.get("error") or ""
+        elif verdict_ in ("fail", "unstable"):
+            reasons = [q["reason"] for q in r["loop"]["requirements"] if not q["passed"]]
+            if verdict_ == "unstable":
+                reasons.insert(0, "the loop is unstable by the Nyquist count")
+            el = ET.SubElement(tc, "failure", message="; ".join(reasons)[:500], type=verdict_)
+            el.text = "\n".join(reasons)
+        out = ET.SubElement(tc, "system-out")
+        out.text = (f"phase margin {deg(m.get('phase_margin_deg'))}, gain margin {_gm(r)}, crossover {eng(m.get('unity_gain_hz'), 'Hz')}; "
+                    + " ".join(f"{k}={val}" for k, val in r["settings"].items()))
+    ET.indent(root)
+    ET.ElementTree(root).write(path, encoding="utf-8", xml_declaration=True)
+
+
+def run_document(run) -> dict:
+    """The JSON document of a run: schema "netloop.corners/1", counts, passed, and every record (worst first)."""
+    v = [verdict(r) for r in run.records]
+    return {
+        "schema": SCHEMA,
+        "plan": run.plan,
+        "results_file": run.results_path,
+        "passed": run.passed,
+        "counts": {"corners": len(run.records), "pass": v.count("pass") + v.count("no crossover"), "fail": v.count("fail"),
+                   "unstable": v.count("unstable"), "error": v.count("error")},
+        "ran": run.ran,
+        "skipped": run.skipped,
+        "corners": [{**r, "verdict": verdict(r)} for r in worst_first(run.records)],
+    }

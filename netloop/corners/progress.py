@@ -1,0 +1,44 @@
+"""A plain one-line progress bar on stderr: done/total, failures, elapsed time and an estimate of what is left."""
+
+from __future__ import annotations
+
+import sys
+import time
+from typing import TextIO
+
+__all__ = ["Progress"]
+
+
+class Progress:
+    """Redraws one line with a carriage return; silent unless ``enabled``."""
+
+    def __init__(self, total: int, *, enabled: bool, stream: TextIO | None = None, width: int = 30):
+        self.total = total
+        self.enabled = enabled
+        self.stream = stream if stream is not None else sys.stderr
+        self.width = width
+        self.done = 0
+        self.bad = 0
+        self.started = time.monotonic()
+
+    def advance(self, bad: bool) -> None:
+        self.done += 1
+        self.bad += bool(bad)
+        self.draw()
+
+    def draw(self) -> None:
+        if not self.enabled:
+            return
+        frac = self.done / self.total if self.total else 1.0
+        filled = int(round(frac * self.width))
+        elapsed = time.monotonic() - self.started
+        left = elapsed / self.done * (self.total - self.done) if self.done else None
+        eta = f", about {left:.0f} s left" if left is not None and self.done < self.total else ""
+        line = f"\r[{'#' * filled}{'.' * (self.width - filled)}] {self.done}/{self.total} corners, {self.bad} failed, {elapsed:.0f} s{eta}"
+        self.stream.write(line.ljust(80))
+        self.stream.flush()
+
+    def finish(self) -> None:
+        if self.enabled:
+            self.stream.write("\n")
+            self.stream.flush()

@@ -1,0 +1,166 @@
+"""Run a plan's corners in parallel on Dask (a local cluster, or a scheduler's address), journaling each as it ends."""
+
+from __future__ import annotations
+
+import contextlib
+import logging
+import os
+import warnings
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from netloop.corners.apply import CornerApplyError, apply_settings
+from netloop.corners.expand import Corner, Task, expand, tasks_of
+from netloop.corners.journal import Journal, default_results_path
+from netloop.corners.plan import AUTO, Plan
+from netloop.corners.progress import Progress
+from netloop.corners.worker import TaskOptions, run_task
+from netloop.errors import NetlistError, PlanError
+
+__all__ = ["CornerRun", "check_plan", "dask_client", "run_plan"]
+
+
+@dataclass(frozen=True, slots=True)
+class CornerRun:
+    """The outcome of a plan: one record per corner and break node, in plan order (see netloop.corners.journal)."""
+
+    plan: str
+    results_path: str
+    records: tuple[dict, ...]
+    ran: int  # tasks run now
+    skipped: int  # tasks found done in the results file (--resume)
+    workers: int = 0
+    counts: dict = field(default_factory=dict)
+
+    @property
+    def passed(self) -> bool:
+        """Every corner measured, stable, and every requirement met."""
+        return bool(self.records) and all(r["outcome"] == "pass" for r in self.records)
+
+
+def check_plan(plan: Plan) -> tuple[Task, ...]:
+    """Expand the plan and apply every corner once, here, so a setting the netlist cannot take stops the
+    run before anything is simulated: PlanError at the plan line that asked for it."""
+    corners = expand(plan)
+    if AUTO in plan.at:
+        try:
+            import netloop.discover  # noqa: F401
+        except ImportError as exc:
+            raise plan.error("at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes", "at") from exc
+    parsed: dict[tuple, object] = {}
+    for c in corners:
+        libs = tuple(s for s in c.settings if s.kind == "lib")
+        rest = tuple(s for s in c.settings if s.kind not in ("lib", "netlist"))
+        try:
+            base = parsed.get((c.netlist, libs))
+            if base is None:
+                base = apply_settings(c.netlist, libs)
+                parsed[(c.netlist, libs)] = base
+            apply_settings(base, rest)
+        except (CornerApplyError, NetlistError) as exc:
+            raise plan.error(f"corner {c.name!r}: {exc}", line=c.line) from exc
+    return tasks_of(plan, corners)
+
+
+@contextlib.contextmanager
+def _quiet() -> Iterator[None]:
+    """Keep Dask's own logging and warnings away from users: only errors get through."""
+    loggers = [logging.getLogger(n) for n in ("distributed", "dask", "tornado", "bokeh")]
+    levels = [lg.level for lg in loggers]
+    for lg in loggers:
+        lg.setLevel(logging.ERROR)
+    try:
+        with warnings.catch_warnings():
+            warnings.filterwarnings("ignore", module="distributed")
+            warnings.filterwarnings("ignore", module="dask")
+            yield
+    finally:
+        for lg, level in zip(loggers, levels):
+            lg.setLevel(level)
+
+
+@contextlib.contextmanager
+def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Iterator[object]:
+    """A Dask client: to the scheduler at ``cluster``, or to a local cluster of ``jobs`` single-threaded worker processes."""
+    from distributed import Client, LocalCluster
+
+    with _quiet():
+        if cluster:
+            try:
+                client = Client(cluster, timeout="30s")
+            except OSError as exc:
+                raise PlanError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from exc
+            try:
+                yield client
+            finally:
+                client.close()
+            return
+        n = jobs or os.cpu_count() or 1
+        local = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
+                             dashboard_address=None, silence_logs=logging.ERROR)
+        client = Client(local)
+        try:
+            yield client
+        finally:
+            client.close()
+            local.close()
+
+
+def _options(plan: Plan) -> TaskOptions:
+    return TaskOptions(method=plan.method, driver=plan.driver, sweep=plan.sweep, open_loop_rhp_poles=plan.open_loop_rhp_poles,
+                       requirements=tuple(r.text for r in plan.requirements), timeout_s=plan.timeout_s)
+
+
+def _lost(task: Task, exc: BaseException) -> tuple[dict, ...]:
+    """The record of a task whose worker failed outright (not the corner's own simulation)."""
+    return ({"record": "corner", "key": task.key, "corner": task.corner.name, "at": task.at, "netlist": task.corner.netlist,
+             "settings": task.corner.describe(), "outcome": "error", "error": f"the worker failed: {exc!r}",
+             "simulator_output": None, "seconds": 0.0, "sim_seconds": 0.0, "worker": None, "loop": None},)
+
+
+def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None, out: str | Path | None = None,
+             resume: bool = False, force: bool = False, progress: bool = False) -> CornerRun:
+    """Run every corner not yet in the results file; returns every corner's record.
+
+    Each task's records are appended to the results file (``out``, default PLAN.results.jsonl next to the
+    plan) as soon as it finishes. An existing file is continued with ``resume`` (corners already in it are
+    not run again), replaced with ``force``, and otherwise refused with an error saying so.
+    """
+    tasks = check_plan(plan)
+    path = Path(out) if out is not None else default_results_path(plan.path)
+    journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force)
+    by_key: dict[str, tuple[dict, ...]] = {k: tuple(v) for k, v in journal.done.items()}
+    pending = [t for t in tasks if t.key not in by_key]
+    bar = Progress(len(tasks), enabled=progress)
+    bar.done = len(tasks) - len(pending)
+    bar.bad = sum(1 for t in tasks if t.key in by_key and any(r["outcome"] != "pass" for r in by_key[t.key]))
+    workers = 0
+    try:
+        if pending:
+            bar.draw()
+            workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster)
+    finally:
+        journal.close()
+        bar.finish()
+    records = tuple(r for t in tasks for r in by_key.get(t.key, ()))
+    counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "error")}
+    return CornerRun(plan.path, str(path), records, ran=len(pending), skipped=len(tasks) - len(pending), workers=workers, counts=counts)
+
+
+def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None) -> int:
+    from distributed import as_completed
+
+    with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
+        workers = len(client.scheduler_info().get("workers", {}))
+        futures = {client.submit(run_task, t, options, key=f"netloop-corner-{t.key}", pure=False): t for t in pending}
+        for future in as_completed(futures):
+            task = futures[future]
+            try:
+                records = future.result()
+            except Exception as exc:  # noqa: BLE001 - a lost worker fails one task, the run goes on
+                records = _lost(task, exc)
+            journal.write(records)
+            by_key[task.key] = records
+            bar.advance(any(r["outcome"] != "pass" for r in records))
+    return workers
