@@ -73,7 +73,11 @@ def _bottom_arc(t0: complex, k: int) -> tuple[np.ndarray, float, str]:
 
 
 def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: float = -120.0) -> tuple[NyquistVerdict, str]:
-    """Count encirclements of -1; returns the verdict and the sign of T's low-frequency asymptote."""
+    """Count encirclements of -1; returns the verdict and the sign of T's low-frequency asymptote.
+
+    The sign is "positive" (negative feedback at DC), "negative" (positive feedback at DC) or
+    "unknown" when the bottom of the sweep is not settled.
+    """
     reasons: list[str] = []
     t = resp.t
     z = 1.0 + t
@@ -120,6 +124,7 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
     f0 = resp.freq_hz[0]
     bottom_db = float(resp.gain_db[0])
     if abs(slope + 20.0 * k) > SLOPE_TOL_DB_PER_DEC or abs(delta) > PHASE_TOL_DEG:
+        dc_sign = "unknown"
         reasons.append(
             f"T is not settled at the bottom of the sweep ({slope:.3g} dB/decade, phase {math.degrees(np.angle(t[0])):.4g} deg "
             f"at {f0:.4g} Hz); start the sweep lower"

@@ -196,3 +196,11 @@ def test_loop_through_minus_one_is_marginal_not_a_crash():
     assert a.margins.modulus_margin < 1e-12
     assert not a.nyquist.reliable and a.poles is None
     assert any("equals -1" in w for w in a.warnings)
+
+
+def test_unsettled_bottom_claims_no_dc_feedback_sign():
+    """A sweep starting mid-way down the three-pole phase (about -100 deg) claims neither positive feedback nor a DC crossover."""
+    a = analyse(*sample(THREE_POLE, 0.2, 1e3), fit_poles=False)
+    assert abs(math.degrees(np.angle(a.t[0]))) > 90  # nearer 180 than 0, yet T(0) = 2.5 > 0
+    assert not any("positive feedback" in w for w in a.warnings)
+    assert all(c.freq_hz > 0 for c in a.phase_crossovers)
