@@ -21,7 +21,7 @@ __all__ = ["propose_frequencies", "refine"]
 def _brackets(analysis: LoopAnalysis) -> list[int]:
     """Indices i such that a crossover lies in [f_i, f_i+1]."""
     f = analysis.freq_hz
-    events = [c.freq_hz for c in analysis.gain_crossovers] + [c.freq_hz for c in analysis.phase_crossovers]
+    events = [c.freq_hz for c in analysis.gain_crossovers] + [c.freq_hz for c in analysis.phase_crossovers if c.freq_hz > 0.0]
     idx = np.clip(np.searchsorted(f, events, side="right") - 1, 0, f.size - 2)
     return sorted(set(int(i) for i in idx))
 
@@ -29,8 +29,9 @@ def _brackets(analysis: LoopAnalysis) -> list[int]:
 def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: LoopAnalysis | None = None, **analyse_kwargs) -> np.ndarray:
     """New frequencies (Hz, ascending, none already sampled) that subdivide each crossover's interval and its neighbours.
 
-    Each interval [f_i, f_i+1] that holds a gain or phase crossover (above the floor), and the
-    interval on either side of it, is split into points_per_interval + 1 equal steps in log f.
+    Each interval [f_i, f_i+1] that holds a gain or phase crossover (above the floor; not the one
+    at DC of a loop with positive feedback there), and the interval on either side of it, is
+    split into points_per_interval + 1 equal steps in log f.
     Returns an empty array when there is no crossover.
     """
     if analysis is None:
