@@ -77,11 +77,11 @@ class NgspiceSession:
 
     def vector(self, plot: str, name: str) -> np.ndarray | None:
         """A copy of vector ``name`` of ``plot`` (float64 or complex128), or None if there is none."""
-        ffi = self._ffi
         info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))
-        if info == ffi.NULL:
-            return None
-        length = info.v_length
+        return None if info == self._ffi.NULL else self._copy(info)
+
+    def _copy(self, info) -> np.ndarray:
+        ffi, length = self._ffi, info.v_length
         if info.v_compdata != ffi.NULL:
             pairs = np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.float64)
             return (pairs[0::2] + 1j * pairs[1::2]).astype(np.complex128)
@@ -96,11 +96,12 @@ class NgspiceSession:
             if "#" in name or "(" in name:
                 continue
             info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))
-            if info == self._ffi.NULL or info.v_type != self._voltage_type:
+            if info == self._ffi.NULL or info.v_type != self._voltage_type or info.v_length < 1:
                 continue
-            data = self.vector(plot, name)
-            if data is not None and data.size:
-                out[name.lower()] = float(np.real(data[0]))
+            if info.v_realdata != self._ffi.NULL:
+                out[name.lower()] = float(info.v_realdata[0])
+            elif info.v_compdata != self._ffi.NULL:
+                out[name.lower()] = float(info.v_compdata[0].cx_real)
         return out
 
     def clear(self) -> None:
