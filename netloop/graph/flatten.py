@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections import Counter
 from collections.abc import Mapping
+from itertools import chain
 
 from netloop.errors import NetlistError
 from netloop.graph.flat import GROUND_NAMES, FlatCircuit
@@ -47,13 +48,14 @@ class _Flattener:
     def expand_top(self, statements) -> bool:
         """Fast path for a top level without X cards (large flat netlists): whole columns at once."""
         els = [s for s in statements if type(s) is Element]
-        if any(s.name[0] in "Xx" for s in els):
+        kinds = [_UPPER[s.name[0]] for s in els]
+        if "X" in kinds:
             return False
         nodes = [s.tokens[:2] if s.node_slots == _SLOTS2 else _nodes_of(s) for s in els]
-        if any("gnd" in t for t in nodes):
+        if "gnd" in chain.from_iterable(nodes):
             nodes = [tuple(["0" if n == "gnd" else n for n in t]) if "gnd" in t else t for t in nodes]
         self.names.extend([s.name.lower() for s in els])
-        self.kinds.extend([_UPPER[s.name[0]] for s in els])
+        self.kinds.extend(kinds)
         self.nodes.extend(nodes)
         self.pins.extend([s.pins for s in els])
         self.originals.extend(els)

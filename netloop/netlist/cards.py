@@ -10,7 +10,7 @@ from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Element
 from netloop.netlist.values import looks_numeric
 
-__all__ = ["ELEMENT_LETTERS", "controlling_sources", "new_element", "new_location", "parse_card", "resolve_bjt"]
+__all__ = ["ELEMENT_LETTERS", "controlling_sources", "new_element", "new_location", "parse_card", "resolve_bjt", "two_terminal"]
 
 # Fixed-arity elements: (pin roles, minimum token count after the name, what the card needs).
 _FIXED: dict[str, tuple[tuple[str, ...], int, str]] = {
@@ -74,6 +74,35 @@ def _fast_constructor(cls, fields):
 
 new_element = _fast_constructor(Element, ("name", "tokens", "node_slots", "pins", "location", "model"))
 new_location = _fast_constructor(SourceLocation, ("file", "line", "column"))  # (file, line, column)
+
+
+def _two_terminal_constructor():
+    e_set = tuple(Element.__dict__[f].__set__ for f in ("name", "tokens", "node_slots", "pins", "location", "model"))
+    l_set = tuple(SourceLocation.__dict__[f].__set__ for f in ("file", "line", "column"))
+    new = object.__new__
+    s0, s1, s2, s3, s4, s5 = e_set
+    f0, f1, f2 = l_set
+    slots, pins = (0, 1), ("p", "n")
+
+    def two_terminal(toks: list[str], file: str, line: int) -> Element:
+        """``Element`` for a plain "R1 a b 1k"-style card already split (at least 4 tokens)."""
+        loc = new(SourceLocation)
+        f0(loc, file)
+        f1(loc, line)
+        f2(loc, 1)
+        o = new(Element)
+        s0(o, toks[0])
+        s1(o, (toks[1].lower(), toks[2].lower(), toks[3]) if len(toks) == 4 else (toks[1].lower(), toks[2].lower(), *toks[3:]))
+        s2(o, slots)
+        s3(o, pins)
+        s4(o, loc)
+        s5(o, None)
+        return o
+
+    return two_terminal
+
+
+two_terminal = _two_terminal_constructor()
 
 
 def _fail(what: str, text: str, loc: SourceLocation, col: int | None = None) -> NetlistSyntaxError:

@@ -8,7 +8,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 
 from netloop.errors import NetlistError, NetlistSyntaxError
-from netloop.netlist.cards import new_element, new_location, parse_card, resolve_bjt
+from netloop.netlist.cards import parse_card, resolve_bjt, two_terminal
 from netloop.netlist.lines import LogicalLine, logical_lines, tokenize
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
@@ -25,8 +25,7 @@ KEPT_KEYWORDS = frozenset(
 )
 _MODEL_KINDS = frozenset("DMJZSWOUQ")
 _TWO_TERMINAL = frozenset("RrCcLlVvIi")
-_SLOTS2 = (0, 1)
-_PINS2 = ("p", "n")
+
 
 
 @dataclass
@@ -158,7 +157,7 @@ class _Reader:
         models = self.models
         body = self.stack[-1].body
         append = body.append
-        make, where = new_element, new_location
+        two = two_terminal
         it = iter(lines[first:end])
         for text, ln, raw in it:
             if raw:
@@ -170,7 +169,7 @@ class _Reader:
                     # fast path for the bulk of large netlists: "R1 a b 1k", "V1 a 0 DC 1"
                     toks = text.split()
                     if len(toks) >= 4:
-                        append(make(toks[0], (toks[1].lower(), toks[2].lower(), *toks[3:]), _SLOTS2, _PINS2, where(file, ln, 1), None))
+                        append(two(toks, file, ln))
                         continue
                 if c == "+":
                     raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
