@@ -257,3 +257,15 @@ def test_xspice_vector_connections():
     a1 = nl.element("a1")
     assert a1.nodes == ("in1", "in2", "out") and a1.model == "amod"
     assert a1.tokens[0] == "[" and a1.tokens[4] == "%v"
+
+
+def test_fast_path_cards_are_ordinary_records():
+    """Plain two-terminal cards (read on the fast path) equal, hash and freeze like records built the ordinary way."""
+    from netloop.netlist import SourceLocation
+
+    fast = parse_text("t\nR1 A B 1k\nV2 A 0 dc 1 ac 1\n").elements
+    assert fast[0] == Element("R1", ("a", "b", "1k"), (0, 1), ("p", "n"), SourceLocation("<string>", 2, 1), None)
+    assert fast[1] == Element("V2", ("a", "0", "dc", "1", "ac", "1"), (0, 1), ("p", "n"), SourceLocation("<string>", 3), None)
+    assert hash(fast[0].location) == hash(SourceLocation("<string>", 2, 1))
+    with pytest.raises(AttributeError):
+        fast[0].tokens = ()
