@@ -11,7 +11,9 @@ __all__ = ["DEFAULT_OP_AIDS", "aid_ladder", "describe_aid", "op_failure", "optio
 
 # Tried in order, each on its own on top of the job's options. ngspice 39 already does plain Newton,
 # dynamic gmin stepping, source stepping and a transient operating point by default; these switch
-# to the other algorithms and limits it has (gminsteps/srcsteps > 1 select the fixed ladders).
+# to the other algorithms and limits it has: gminsteps/srcsteps > 1 select the fixed ladders
+# (ngspice 39 then prints "Starting spice3 gmin stepping"), and a later .option overrides the
+# netlist's own (tests/sim/test_convergence.py shows a netlist that needs "gminsteps=100").
 DEFAULT_OP_AIDS: tuple[str, ...] = (
     "itl1=1000",
     "gminsteps=100",

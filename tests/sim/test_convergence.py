@@ -104,3 +104,16 @@ def test_hard_operating_point_reports_the_aid(simulator, circuits):
     assert "Starting dynamic gmin stepping" in result.log  # ngspice's note that plain Newton failed
     assert result.convergence_aid == "ngspice: dynamic gmin stepping"
     assert result.operating_point["vout"] == pytest.approx(2.4, abs=0.01)  # design equation in the file's header
+
+
+@pytest.mark.ngspice
+def test_netlist_that_needs_one_of_our_aids_reports_it(simulator):
+    """CUBIC with the netlist's own '.option gminsteps=0 srcsteps=100' (gmin stepping off) fails in
+    ngspice 39 as given and with 'itl1=1000'; the default aid 'gminsteps=100' (a later .option wins)
+    finds v(n) = 0.1 V (closed form), and convergence_aid names that aid."""
+    netlist = CUBIC + ".option gminsteps=0 srcsteps=100\n"
+    result = simulator.run(SimJob(netlist=netlist, runs=(), save=()))
+    assert DEFAULT_OP_AIDS[:2] == ("itl1=1000", "gminsteps=100")
+    assert result.convergence_aid == "gminsteps=100"
+    assert result.operating_point == {"n": pytest.approx(0.1, rel=1e-9)}
+    assert "spice3 gmin stepping completed" in result.log  # ngspice's own note for the ladder the aid selects
