@@ -20,6 +20,22 @@ __all__ = ["GROUND_NAMES", "FlatCircuit", "FlatElement", "Net", "Terminal"]
 GROUND_NAMES = ("0", "gnd")
 
 
+def _candidates(name: str, known, limit: int = 5000):
+    """Names worth comparing with ``name`` for suggestions; keeps difflib quick on huge circuits."""
+    if len(known) <= limit:
+        return known
+    n = len(name)
+    near = [k for k in known if abs(len(k) - n) <= 2]
+    p = 0
+    while len(near) > limit and p < n:  # narrow to names sharing a longer and longer prefix
+        p += 1
+        narrower = [k for k in near if k[:p] == name[:p]]
+        if not narrower:
+            break
+        near = narrower
+    return near[:limit]
+
+
 @dataclass(frozen=True, slots=True)
 class FlatElement:
     """One primitive after flattening: ``name`` is hierarchical and lower-case (``xa.xb.m1``)."""
@@ -103,7 +119,7 @@ class FlatCircuit:
         try:
             i = idx[name.lower()]
         except KeyError:
-            raise UnknownNodeError("element", name, idx) from None
+            raise UnknownNodeError("element", name, _candidates(name.lower(), idx)) from None
         return FlatElement(self.names[i], self.kinds[i], self.element_nodes[i], self.element_pins[i], self.originals[i], self.paths[i], self.wrappers[i])
 
     def by_kind(self) -> Mapping[str, int]:
@@ -162,7 +178,7 @@ class FlatCircuit:
         key = net.lower()
         adj = self._adjacency()
         if key not in adj:
-            raise UnknownNodeError("node", net, adj)
+            raise UnknownNodeError("node", net, _candidates(key, adj))
         out = []
         for i in adj[key]:
             for n, pin in zip(self.element_nodes[i], self.element_pins[i]):

@@ -50,7 +50,7 @@ def write_netlist(netlist: Netlist) -> str:
     file inlined, with the change, automatically. Analyses and ``.control`` blocks
     (``netlist.ignored``) are never written.
     """
-    out: list[str] = [netlist.title or "* netloop"]
+    out: list[str] = [netlist.title]
     starts: dict[int, list[Inclusion]] = {}
     for inc in netlist.inclusions:
         if inc.clean and inc.statements:
