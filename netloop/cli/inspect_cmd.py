@@ -21,7 +21,8 @@ def inspect_summary(path: str) -> dict:
 
     netlist = parse_file(path)
     flat = flatten(netlist)
-    warnings = list(netlist.warnings) + list(flat.warnings)
+    warnings = list(netlist.warnings)
+    warnings += [w for w in flat.warnings if not any(w.startswith(n) for n in netlist.warnings)]
     counts = flat.connection_counts()
     ground = set(flat.ground)
     lonely = [n for n, c in counts.items() if c == 1 and n not in ground]

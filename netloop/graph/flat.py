@@ -176,6 +176,8 @@ class FlatCircuit:
     def terminals(self, net: str) -> tuple[Terminal, ...]:
         """Every element terminal on ``net`` (case-insensitive); UnknownNodeError suggests close names."""
         key = net.lower()
+        if key == "gnd":
+            key = "0"
         adj = self._adjacency()
         if key not in adj:
             raise UnknownNodeError("node", net, _candidates(key, adj))
@@ -188,7 +190,9 @@ class FlatCircuit:
 
     def node(self, name: str) -> Net:
         """The net of that flattened name with its terminals; UnknownNodeError suggests close names."""
-        return Net(name.lower(), self.terminals(name))
+        terminals = self.terminals(name)
+        key = name.lower()
+        return Net("0" if key == "gnd" else key, terminals)
 
     # -- graphs --------------------------------------------------------------------------
     def connectivity(self) -> nx.MultiGraph:

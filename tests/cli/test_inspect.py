@@ -88,3 +88,13 @@ def test_user_file_is_not_modified(tmp_path, capsys):
     main(["inspect", str(path), "--json"])
     capsys.readouterr()
     assert path.read_text() == DECK
+
+
+def test_undefined_subcircuit_warned_once(tmp_path, capsys):
+    """An instance of an undefined subcircuit is one warning with its file:line, and stays one X element."""
+    path = _write(tmp_path, "t\nX1 a b nowhere\nR1 a b 1\n")
+    assert main(["inspect", str(path), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    hits = [w for w in data["warnings"] if "nowhere" in w]
+    assert len(hits) == 1 and hits[0].startswith(f"{path}:2:1: X1: undefined subcircuit")
+    assert data["by_kind"] == {"R": 1, "X": 1}
