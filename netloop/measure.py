@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, replace
 from os import PathLike
 from pathlib import Path
@@ -13,13 +13,14 @@ import numpy as np
 
 from netloop.analysis import analyse, middlebrook, parse_requirements, propose_frequencies, tian
 from netloop.analysis.requirements import Requirement
+from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError
 from netloop.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, parse_file, parse_text, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
-from netloop.sim import AcRun, AcSweep, SimJob, Simulator, default_simulator
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
 
-__all__ = ["METHODS", "Sweep", "load_netlist", "measure", "measure_probed", "probe_job", "return_ratio"]
+__all__ = ["METHODS", "Sweep", "load_netlist", "measure", "measure_probed", "probe_job", "return_ratio", "sample_loops"]
 
 METHODS = ("tian", "middlebrook")
 
@@ -75,6 +76,8 @@ def return_ratio(probed: ProbedNetlist, series: dict, shunt: dict, method: str) 
 def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
     """The simulator job for one probe: two AC runs on one operating point, only the probe vectors saved."""
     text = write_netlist(probed.netlist)
+    source = probed.netlist.source
+    workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
     return SimJob(
         netlist=text,
         runs=(
@@ -85,6 +88,7 @@ def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str 
         excitable=(probed.series_source, probed.shunt_source),
         label=label,
         timeout_s=timeout_s,
+        workdir=workdir,
     )
 
 
@@ -128,31 +132,113 @@ def _phase_settled(f: np.ndarray, t: np.ndarray) -> bool:
 
 
 class _Runner:
-    """Runs probe jobs for one break and keeps the return ratio gathered so far."""
+    """Runs the jobs of one break (any number of AC runs) and turns each result into named return ratios.
 
-    def __init__(self, probed: ProbedNetlist, method: str, simulator: Simulator, label: str, timeout_s: float):
-        self.probed = probed
-        self.method = method
+    ``job_for(sweeps)`` builds the SimJob; ``ratios(result)`` maps a SimResult to {loop name: T},
+    all sampled at the frequencies of the job's first run.
+    """
+
+    def __init__(self, job_for: Callable[[tuple[AcSweep, ...]], SimJob], ratios: Callable[[SimResult], Mapping[str, np.ndarray]], simulator: Simulator):
+        self.job_for = job_for
+        self.ratios = ratios
         self.simulator = simulator
-        self.label = label
-        self.timeout_s = timeout_s
         self.seconds = 0.0
         self.aid: str | None = None
         self.deck_path: str | None = None
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
-        self.log_warnings: list[str] = []
 
-    def evaluate(self, sweeps: tuple[AcSweep, ...]) -> tuple[np.ndarray, np.ndarray]:
-        job = probe_job(self.probed, sweeps, label=self.label, timeout_s=self.timeout_s)
+    def evaluate(self, sweeps: tuple[AcSweep, ...]) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+        job = self.job_for(sweeps)
         start = time.perf_counter()
         result = self.simulator.run(job)
         self.seconds += time.perf_counter() - start
         self.aid = self.aid or result.convergence_aid
         self.deck_path = self.deck_path or result.deck_path
         self.backend = result.backend or self.backend
-        series, shunt = result.run("series"), result.run("shunt")
-        t = return_ratio(self.probed, dict(series.vectors), dict(shunt.vectors), self.method)
-        return np.asarray(series.freq_hz, dtype=float), np.asarray(t, dtype=complex)
+        t = {name: np.asarray(v, dtype=complex) for name, v in self.ratios(result).items()}
+        return np.asarray(result.runs[0].freq_hz, dtype=float), t
+
+
+def _merge_all(f: np.ndarray, t: dict[str, np.ndarray], f2: np.ndarray, t2: dict[str, np.ndarray]) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    merged = {name: _merge(f, t[name], f2, t2[name]) for name in t}
+    ff = next(iter(merged.values()))[0] if merged else f
+    return ff, {name: m[1] for name, m in merged.items()}
+
+
+def sample_loops(
+    runner: _Runner,
+    sweep: Sweep,
+    open_loop_rhp_poles: Mapping[str, int],
+) -> tuple[dict[str, LoopAnalysis], SimInfo, dict[str, tuple[str, ...]]]:
+    """Sweep, widen and refine the return ratios a runner gives, all on the same frequencies.
+
+    Returns the analysis of each loop, the shared SimInfo (``refined`` when every loop settled) and
+    each loop's warnings. With one loop this is exactly measure_probed's plan (see Sweep).
+    """
+    fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
+    ppd = sweep.points_per_decade
+    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),))
+
+    # widen the sweep where the data asks for it and the user did not fix the limit
+    for _ in range(3):
+        more: list[AcSweep] = []
+        if not sweep.fmax_given and any(abs(v[-1]) > 0.1 for v in t.values()) and fmax < sweep.ceiling_hz:
+            new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
+            more.append(AcSweep("dec", ppd, fmax, new_fmax))
+            fmax = new_fmax
+        if not sweep.fmin_given and not all(_phase_settled(f, v) for v in t.values()) and fmin > sweep.floor_hz:
+            new_fmin = max(fmin / 100.0, sweep.floor_hz)
+            more.append(AcSweep("dec", ppd, new_fmin, fmin))
+            fmin = new_fmin
+        if not more:
+            break
+        f2, t2 = runner.evaluate(tuple(more))
+        f, t = _merge_all(f, t, f2, t2)
+
+    def analyse_all(fit: bool) -> dict[str, LoopAnalysis]:
+        return {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], fit_poles=fit) for name in t}
+
+    analyses = analyse_all(False)
+    active = [name for name, a in analyses.items() if a.gain_crossovers] if sweep.refine else []
+    settled = {name: name not in active for name in t}
+    rounds = 0
+    if active:
+        previous = {name: analyses[name].margins.phase_margin_deg for name in active}
+        while rounds < sweep.max_rounds:
+            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=analyses[name]) for name in active])
+            if proposals.size == 0:
+                settled.update(dict.fromkeys(active, True))
+                break
+            f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd))
+            f, t = _merge_all(f, t, f2, t2)
+            rounds += 1
+            analyses = analyse_all(False)
+            current = {name: analyses[name].margins.phase_margin_deg for name in active}
+            for name in active:
+                p, c = previous[name], current[name]
+                settled[name] = p is not None and c is not None and abs(c - p) < sweep.tol_deg
+            if all(settled[name] for name in active):
+                break
+            previous = current
+    analyses = analyse_all(True)
+    info = SimInfo(
+        backend=runner.backend,
+        points=int(f.size),
+        refinement_rounds=rounds,
+        refined=all(settled.values()),
+        convergence_aid=runner.aid,
+        deck_path=runner.deck_path,
+        seconds=runner.seconds,
+    )
+    warnings: dict[str, tuple[str, ...]] = {}
+    for name, a in analyses.items():
+        notes = []
+        if runner.aid:
+            notes.append(f"the operating point converged only with {runner.aid}")
+        if sweep.refine and a.gain_crossovers and not settled[name]:
+            notes.append(f"the phase margin did not settle to {sweep.tol_deg:g} deg in {rounds} refinement rounds")
+        warnings[name] = tuple(notes)
+    return analyses, info, warnings
 
 
 def measure_probed(
@@ -168,62 +254,14 @@ def measure_probed(
     """Simulate one probe and analyse it: returns (analysis, SimInfo, warnings)."""
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
-    runner = _Runner(probed, method, simulator, label, timeout_s)
-    fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
-    ppd = sweep.points_per_decade
-    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),))
 
-    # widen the sweep where the data asks for it and the user did not fix the limit
-    for _ in range(3):
-        more: list[AcSweep] = []
-        if not sweep.fmax_given and abs(t[-1]) > 0.1 and fmax < sweep.ceiling_hz:
-            new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
-            more.append(AcSweep("dec", ppd, fmax, new_fmax))
-            fmax = new_fmax
-        if not sweep.fmin_given and not _phase_settled(f, t) and fmin > sweep.floor_hz:
-            new_fmin = max(fmin / 100.0, sweep.floor_hz)
-            more.append(AcSweep("dec", ppd, new_fmin, fmin))
-            fmin = new_fmin
-        if not more:
-            break
-        f2, t2 = runner.evaluate(tuple(more))
-        f, t = _merge(f, t, f2, t2)
+    def ratios(result: SimResult) -> dict[str, np.ndarray]:
+        series, shunt = result.run("series"), result.run("shunt")
+        return {"loop": return_ratio(probed, dict(series.vectors), dict(shunt.vectors), method)}
 
-    analysis = analyse(f, t, open_loop_rhp_poles=open_loop_rhp_poles, fit_poles=False)
-    rounds, refined = 0, True
-    if sweep.refine and analysis.gain_crossovers:
-        refined = False
-        previous = analysis.margins.phase_margin_deg
-        while rounds < sweep.max_rounds:
-            proposals = propose_frequencies(f, t, analysis=analysis)
-            if proposals.size == 0:
-                refined = True
-                break
-            f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd))
-            f, t = _merge(f, t, f2, t2)
-            rounds += 1
-            analysis = analyse(f, t, open_loop_rhp_poles=open_loop_rhp_poles, fit_poles=False)
-            current = analysis.margins.phase_margin_deg
-            if previous is not None and current is not None and abs(current - previous) < sweep.tol_deg:
-                refined = True
-                break
-            previous = current
-    analysis = analyse(f, t, open_loop_rhp_poles=open_loop_rhp_poles, fit_poles=True)
-    info = SimInfo(
-        backend=runner.backend,
-        points=int(f.size),
-        refinement_rounds=rounds,
-        refined=refined,
-        convergence_aid=runner.aid,
-        deck_path=runner.deck_path,
-        seconds=runner.seconds,
-    )
-    warnings = []
-    if runner.aid:
-        warnings.append(f"the operating point converged only with {runner.aid}")
-    if sweep.refine and analysis.gain_crossovers and not refined:
-        warnings.append(f"the phase margin did not settle to {sweep.tol_deg:g} deg in {rounds} refinement rounds")
-    return analysis, info, tuple(warnings)
+    runner = _Runner(lambda sweeps: probe_job(probed, sweeps, label=label, timeout_s=timeout_s), ratios, simulator)
+    analyses, info, warnings = sample_loops(runner, sweep, {"loop": open_loop_rhp_poles})
+    return analyses["loop"], info, warnings["loop"]
 
 
 def breaks_of(probed: ProbedNetlist) -> BreakInfo:
