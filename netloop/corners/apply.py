@@ -18,7 +18,11 @@ _SOURCE_WORDS = frozenset("ac dc pulse sin exp pwl sffm am trnoise trrandom dist
 
 
 class CornerApplyError(NetloopError):
-    """A setting that the netlist cannot take (no such .lib line, .param or voltage source)."""
+    """A setting that the netlist cannot take (no such .lib line, .param or voltage source); ``setting`` says which."""
+
+    def __init__(self, message: str, setting: Setting | None = None):
+        self.setting = setting
+        super().__init__(message)
 
 
 def lib_lines(netlist: Netlist) -> tuple[tuple[str, int, str, str], ...]:
@@ -57,12 +61,18 @@ def _with_libs(netlist: Netlist, libs: tuple[Setting, ...]) -> Netlist:
     except OSError as exc:
         raise NetlistError(f"cannot read netlist {path!r}: {exc.strerror or exc}") from exc
     for s in libs:
-        _, line, _, _ = _pick_lib(netlist, s.target)
+        try:
+            _, line, _, _ = _pick_lib(netlist, s.target)
+        except CornerApplyError as exc:
+            raise CornerApplyError(str(exc), s) from exc
         m = _LIB_LINE.match(raw[line - 1])
         if m is None:
-            raise CornerApplyError(f"{path}:{line}: cannot find the section word of this .lib line")
+            raise CornerApplyError(f"{path}:{line}: cannot find the section word of this .lib line", s)
         raw[line - 1] = m["head"] + s.value + raw[line - 1][m.end("section"):]
-    return parse_text("\n".join(raw) + "\n", source=path, base_dir=os.path.dirname(path))
+    try:
+        return parse_text("\n".join(raw) + "\n", source=path, base_dir=os.path.dirname(path))
+    except NetlistError as exc:
+        raise CornerApplyError(str(exc), libs[0] if len(libs) == 1 else None) from exc
 
 
 def _set_param(netlist_statements: tuple, name: str, value: str) -> tuple[tuple, bool]:
@@ -78,13 +88,13 @@ def _set_param(netlist_statements: tuple, name: str, value: str) -> tuple[tuple,
     return tuple(out), found
 
 
-def _set_supply(statements: tuple, name: str, volts: str) -> tuple[tuple, bool]:
-    key = name.lower()
+def _set_supply(statements: tuple, setting: Setting) -> tuple[tuple, bool]:
+    key, volts = setting.target.lower(), setting.value
     out, found = [], False
     for s in statements:
         if isinstance(s, Element) and s.key == key:
             if s.kind != "V":
-                raise CornerApplyError(f"{s.location}: {s.name} is not a voltage source; a supply setting needs a V element")
+                raise CornerApplyError(f"{s.location}: {s.name} is not a voltage source; a supply setting needs a V element", setting)
             toks = list(s.tokens)
             rest = 2
             if len(toks) > rest and toks[rest].lower() == "dc":
@@ -132,11 +142,11 @@ def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, ori
         if s.kind == "param":
             statements, found = _set_param(statements, s.target, s.value)
             if not found:
-                raise CornerApplyError(f"{nl.source} has no top-level '.param {s.target}=...' to change")
+                raise CornerApplyError(f"{nl.source} has no top-level '.param {s.target}=...' to change", s)
         elif s.kind == "supply":
-            statements, found = _set_supply(statements, s.target, s.value)
+            statements, found = _set_supply(statements, s)
             if not found:
-                raise CornerApplyError(f"{nl.source} has no top-level voltage source {s.target!r}")
+                raise CornerApplyError(f"{nl.source} has no top-level voltage source {s.target!r}", s)
         elif s.kind == "temp":
             statements = _set_temp(statements, s.value, where)
     if statements is nl.statements:

@@ -63,6 +63,7 @@ class CornerSpec:
     name: str  # "" when the plan gives none: named from its settings
     settings: tuple[Setting, ...]
     line: int
+    setting_lines: tuple[int, ...] = ()  # the plan line of each setting
 
 
 @dataclass(frozen=True, slots=True)
@@ -85,6 +86,18 @@ class Plan:
     def line_of(self, *keys: str) -> int:
         """The plan line of a key (see `find_line`)."""
         return find_line(self.text, *keys)
+
+    def line_of_setting(self, setting: Setting, corner_line: int) -> int:
+        """The plan line that asked for a setting: its [[corner]] key, else its axis, else ``corner_line``."""
+        for spec in self.corners:
+            if spec.line == corner_line:
+                for s, ln in zip(spec.settings, spec.setting_lines):
+                    if s == setting:
+                        return ln
+        for axis in self.axes:
+            if (axis.kind, axis.target) == (setting.kind, setting.target) and setting.value in axis.values:
+                return axis.line
+        return corner_line
 
     def error(self, message: str, *keys: str, line: int | None = None) -> PlanError:
         """A PlanError at the line of a key: "plan.toml:12: message"."""
@@ -196,9 +209,14 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        line = getattr(exc, "lineno", None)
+        line = getattr(exc, "lineno", None)  # Python 3.14 adds lineno/colno; earlier ones say "(at line L, column C)"
+        found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
+        if line is None and found:
+            line = int(found[1])
+        message = re.sub(r"\s*\(at line \d+, column \d+\)", "", getattr(exc, "msg", str(exc)))
+        column = f", column {found[2]}" if found else ""
         where = f"{path}:{line}" if line else path
-        raise PlanError(f"{where}: not valid TOML: {getattr(exc, 'msg', str(exc))}") from exc
+        raise PlanError(f"{where}: not valid TOML: {message}{column}") from exc
     for key in data:
         if key not in _TOP_KEYS:
             raise PlanError(f"{_where(path, text, key)}: unknown key {key!r}; expected one of {', '.join(sorted(_TOP_KEYS))}")
@@ -246,8 +264,8 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
         name = table.get("name", "")
         if not isinstance(name, str):
             raise PlanError(f"{_where(path, text, *section, 'name')}: a corner's name must be text")
-        settings = tuple(s for s, _ in _settings(table, path, text, section, many=False))
-        corners.append(CornerSpec(name.strip(), settings, line))
+        pairs = _settings(table, path, text, section, many=False)
+        corners.append(CornerSpec(name.strip(), tuple(s for s, _ in pairs), line, tuple(ln for _, ln in pairs)))
     return Plan(path, netlist, at, driver, method, requirements, rhp, float(timeout), sweep, axes, tuple(corners), text)
 
 

@@ -58,7 +58,10 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
                 base = apply_settings(c.netlist, libs)
                 parsed[(c.netlist, libs)] = base
             apply_settings(base, rest)
-        except (CornerApplyError, NetlistError) as exc:
+        except CornerApplyError as exc:
+            line = plan.line_of_setting(exc.setting, c.line) if exc.setting is not None else c.line
+            raise plan.error(f"corner {c.name!r}: {exc}", line=line) from exc
+        except NetlistError as exc:
             raise plan.error(f"corner {c.name!r}: {exc}", line=c.line) from exc
     return tasks_of(plan, corners)
 

@@ -1,0 +1,128 @@
+"""Corner plans: reading, errors with the plan's file:line, expansion into corners, and the netlist a corner gets."""
+
+from __future__ import annotations
+
+import hashlib
+import itertools
+import shutil
+from pathlib import Path
+
+import pytest
+
+from netloop.corners import Setting, apply_settings, check_plan, expand, load_plan, parse_plan, tasks_of
+from netloop.errors import PlanError
+from netloop.netlist import parse_file, parse_text, write_netlist
+
+ROOT = Path(__file__).resolve().parents[2]
+MILLER = ROOT / "circuits" / "miller_buffer.cir"
+LIB = ROOT / "circuits" / "models" / "corners.lib"
+
+
+def _plan(tmp_path: Path, body: str, name: str = "plan.toml") -> Path:
+    path = tmp_path / name
+    path.write_text(f'netlist = "{MILLER}"\nat = "out"\n' + body)
+    return path
+
+
+def test_bundled_example_plan_reads_and_every_corner_applies():
+    """circuits/plans/miller_corners.toml is valid: 3 x 3 x 2 product corners plus 2 explicit ones, all applicable to the netlist."""
+    plan = load_plan(ROOT / "circuits" / "plans" / "miller_corners.toml")
+    tasks = check_plan(plan)
+    assert len(tasks) == 3 * 3 * 2 + 2
+    assert [t.corner.name for t in tasks][-2:] == ["slow-hot-small-cc", "fast-cold-low-supply"]
+
+
+def test_product_is_every_combination_in_axis_order(tmp_path):
+    """The product holds each combination once (itertools.product is the reference), last axis fastest, names from the values."""
+    plan = load_plan(_plan(tmp_path, '[axes]\nlib = ["tt", "ss"]\ntemp = [-40, 27, 125]\nsupply.vdd = [3.0, 3.6]\n'))
+    corners = expand(plan)
+    want = list(itertools.product(["tt", "ss"], ["-40", "27", "125"], ["3.0", "3.6"]))
+    got = [(c.describe()["lib"], c.describe()["temp"], c.describe()["supply.vdd"]) for c in corners]
+    assert got == want
+    assert corners[0].name == "tt/-40C/vdd=3.0V"
+    assert len({t.key for t in tasks_of(plan, corners)}) == len(want)
+
+
+def test_explicit_list_follows_the_product_and_names_must_differ(tmp_path):
+    """[[corner]] tables run after the product; two corners with one name are a PlanError at the second table's line."""
+    text = '[axes]\nlib = ["tt"]\n\n[[corner]]\nname = "a"\nlib = "ss"\n\n[[corner]]\nname = "a"\ntemp = 80\n'
+    plan = load_plan(_plan(tmp_path, text))
+    with pytest.raises(PlanError) as info:
+        expand(plan)
+    lines = (tmp_path / "plan.toml").read_text().splitlines()
+    second = [i + 1 for i, line in enumerate(lines) if line == "[[corner]]"][1]
+    assert f"plan.toml:{second}:" in str(info.value)
+
+
+def test_toml_syntax_error_carries_the_line(tmp_path):
+    """A TOML syntax error is a PlanError naming the plan file and the line tomllib reports."""
+    path = _plan(tmp_path, "[axes]\nlib = [\"tt\", \"ss\"\ntemp = 3\n")
+    with pytest.raises(PlanError, match=r"plan\.toml:\d+: not valid TOML"):
+        load_plan(path)
+
+
+@pytest.mark.parametrize(
+    ("body", "key", "expected"),
+    [
+        ('[axes]\ncolour = ["red"]\n', "colour", "unknown setting"),
+        ('require = ["pm >> 60"]\n', "require", "cannot read requirement"),
+        ('method = "guess"\n', "method", "method must be one of"),
+        ('[axes]\ntemp = ["hot"]\n', "temp", "must be a number"),
+        ('[axes]\nparam = ["1p"]\n', "param", "needs a name"),
+        ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
+    ],
+)
+def test_semantic_errors_point_at_the_offending_key(tmp_path, body, key, expected):
+    """A plan that parses as TOML but says something wrong gives PlanError at the line of the offending key."""
+    path = _plan(tmp_path, body)
+    line = next(i + 1 for i, text in enumerate(path.read_text().splitlines()) if text.startswith(key))
+    with pytest.raises(PlanError, match=rf"plan\.toml:{line}: .*{expected}"):
+        load_plan(path)
+
+
+@pytest.mark.parametrize(
+    ("axes", "expected"),
+    [
+        ('param.nosuch = ["1"]', "no top-level '.param nosuch"),
+        ('supply.vnone = [1.0]', "no top-level voltage source 'vnone'"),
+        ('lib = ["xx"]', "has no section 'xx'"),
+    ],
+)
+def test_settings_the_netlist_cannot_take_fail_before_any_simulation(tmp_path, axes, expected):
+    """check_plan applies every corner up front: an unknown .param, source or .lib section is a PlanError at that axis's line."""
+    path = _plan(tmp_path, f"[axes]\ntemp = [27, 80]\n{axes}\n")
+    line = path.read_text().splitlines().index(axes) + 1
+    with pytest.raises(PlanError, match=rf"plan\.toml:{line}: .*{expected}"):
+        check_plan(load_plan(path))
+
+
+def test_corner_netlist_equals_a_hand_edited_copy_and_the_user_file_is_untouched(tmp_path):
+    """Applying lib=ss, temp=125, .param cc and supply vdd gives the very netlist a designer gets by editing a copy by hand."""
+    before = hashlib.sha256(MILLER.read_bytes()).hexdigest()
+    settings = (Setting("lib", "", "ss"), Setting("temp", "", "125"), Setting("param", "cc", "0.8p"), Setting("supply", "vdd", "2.9"))
+    ours = apply_settings(str(MILLER), settings)
+    # the reference: the same four edits made by hand on a copy next to a copy of the library
+    (tmp_path / "models").mkdir()
+    shutil.copy(LIB, tmp_path / "models" / "corners.lib")
+    text = MILLER.read_text()
+    text = text.replace(".lib models/corners.lib tt", ".lib models/corners.lib ss")
+    text = text.replace(".param cc=1.2p", ".param cc=0.8p")
+    text = text.replace("Vdd vdd 0 dc {vdd}", "Vdd vdd 0 dc 2.9")
+    text = text.replace("\n.end", "\n.temp 125\n.end")
+    hand = parse_text(text, source=str(tmp_path / "x.cir"), base_dir=str(tmp_path))
+    strip = lambda nl: [line for line in write_netlist(nl).splitlines() if not line.startswith((".lib", "*"))]  # noqa: E731
+    assert sorted(strip(ours)) == sorted(strip(hand))
+    assert any(".model nch nmos (level=1 vto=0.63" in d.text for d in ours.directives)  # the ss card of corners.lib
+    assert hashlib.sha256(MILLER.read_bytes()).hexdigest() == before
+    assert parse_file(MILLER).lib_sections[0][1] == "tt"
+
+
+def test_temperature_replaces_an_existing_temp(tmp_path):
+    """A netlist's own .temp and `.option temp=` give way to the corner's temperature (one .temp remains)."""
+    src = tmp_path / "t.cir"
+    src.write_text("t\n.option temp=50 reltol=1e-4\n.temp 60\nR1 a 0 1k\nV1 a 0 dc 1\n.end\n")
+    nl = apply_settings(str(src), (Setting("temp", "", "-40"),))
+    temps = [d.text for d in nl.directives if d.keyword == ".temp"]
+    options = [d.text for d in nl.directives if d.keyword == ".option"]
+    assert temps == [".temp -40"]
+    assert "temp=" not in options[0] and "reltol=1e-4" in options[0]

@@ -1,0 +1,143 @@
+"""Corner runs for real: a Dask scheduler and workers on 127.0.0.1, ngspice in each worker, journal, kill and resume."""
+
+from __future__ import annotations
+
+import json
+import logging
+import os
+import shutil
+import signal
+import subprocess
+import sys
+import time
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import pytest
+
+from netloop.cli.main import main
+from netloop.corners import load_plan, read_records, run_plan
+from netloop.measure import measure
+
+ROOT = Path(__file__).resolve().parents[2]
+MILLER = ROOT / "circuits" / "miller_buffer.cir"
+LIB = ROOT / "circuits" / "models" / "corners.lib"
+
+pytestmark = pytest.mark.ngspice
+
+PLAN = f"""
+netlist = "{MILLER}"
+at = "out"
+require = ["pm >= 60"]
+
+[axes]
+lib = ["tt", "ss"]
+temp = [-40, 27, 125]
+
+[[corner]]
+name = "supply-blown"
+supply.vdd = 1e30
+"""
+
+
+@pytest.fixture(scope="module")
+def scheduler():
+    """A real Dask scheduler with two single-threaded worker processes on 127.0.0.1, shared by this module."""
+    from distributed import LocalCluster
+
+    cluster = LocalCluster(host="127.0.0.1", n_workers=2, threads_per_worker=1, processes=True,
+                           dashboard_address=None, silence_logs=logging.ERROR)
+    try:
+        yield cluster.scheduler_address
+    finally:
+        cluster.close()
+
+
+def _hand_edited(tmp_path: Path, section: str, temp: str) -> Path:
+    """The corner made by hand, the way a designer would: a copy with the .lib word changed and a .temp line."""
+    (tmp_path / "models").mkdir(exist_ok=True)
+    shutil.copy(LIB, tmp_path / "models" / "corners.lib")
+    text = MILLER.read_text().replace(".lib models/corners.lib tt", f".lib models/corners.lib {section}")
+    path = tmp_path / f"hand-{section}-{temp}.cir"
+    path.write_text(text.replace("\n.end", f"\n.temp {temp}\n.end"))
+    return path
+
+
+def test_cluster_run_matches_direct_measure_and_a_failed_corner_does_not_stop_the_others(tmp_path, scheduler, capsys):
+    """Six corners on the Dask workers give exactly the margins measure() finds on hand-edited copies; the 1e30 V supply corner is an error with ngspice's message."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(PLAN)
+    out, junit, table = tmp_path / "r.jsonl", tmp_path / "j.xml", tmp_path / "t.csv"
+    rc = main(["corners", str(plan), "--cluster", scheduler, "--out", str(out), "--json", "--junit", str(junit), "--csv", str(table)])
+    doc = json.loads(capsys.readouterr().out)
+    assert rc == 1  # a corner failed pm>=60 and one could not be measured
+    records, _ = read_records(out)
+    corners = [r for r in records if r["record"] == "corner"]
+    assert sorted(r["corner"] for r in corners) == sorted(
+        ["tt/-40C", "tt/27C", "tt/125C", "ss/-40C", "ss/27C", "ss/125C", "supply-blown"])
+    blown = next(r for r in corners if r["corner"] == "supply-blown")
+    assert blown["outcome"] == "error" and "did not converge" in blown["error"]  # ngspice's own verdict on the operating point
+    assert all(r["worker"].split(":")[1] != str(os.getpid()) for r in corners)  # measured in the workers, not here
+    for r in corners:
+        if r["corner"] == "supply-blown":
+            continue
+        section, temp = r["corner"].split("/")
+        ref = measure(_hand_edited(tmp_path, section, temp[:-1]), "out", requirements=["pm >= 60"])  # single process, own ngspice
+        m = r["loop"]["margins"]
+        assert m["phase_margin_deg"] == ref.analysis.margins.phase_margin_deg
+        assert m["gain_margin_db"] == ref.analysis.margins.gain_margin_db
+        assert m["unity_gain_hz"] == ref.analysis.margins.unity_gain_hz
+        assert (r["outcome"] == "pass") == ref.passed
+    # the worst corner leads the JSON document; the counts add up
+    assert doc["corners"][0]["corner"] == "supply-blown"
+    pms = [c["loop"]["margins"]["phase_margin_deg"] for c in doc["corners"][1:] if c["verdict"] == "fail"]
+    assert pms == sorted(pms) and len(pms) == doc["counts"]["fail"] >= 1
+    suite = ET.parse(junit).getroot().find("testsuite")
+    assert len(suite.findall("testcase")) == 7
+    assert len(suite.findall("testcase/error")) == 1 and len(suite.findall("testcase/failure")) == doc["counts"]["fail"]
+    assert len(table.read_text().splitlines()) == 1 + 7
+
+
+def test_an_existing_results_file_is_never_overwritten_without_resume_or_force(tmp_path, scheduler, capsys):
+    """A second run onto the same results file stops with exit 2, says --resume or --force, and leaves the file as it was."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(PLAN.split("[[corner]]")[0].replace('temp = [-40, 27, 125]', 'temp = [27]'))
+    out = tmp_path / "r.jsonl"
+    assert main(["corners", str(plan), "--cluster", scheduler, "--out", str(out)]) in (0, 1)
+    before = out.read_bytes()
+    assert main(["corners", str(plan), "--cluster", scheduler, "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "--resume" in err and "--force" in err
+    assert out.read_bytes() == before
+
+
+def test_killed_run_resumes_without_losing_or_repeating_a_corner(tmp_path, scheduler):
+    """A `netloop corners` process killed after its first corners are written loses nothing: --resume runs only the rest, each corner once."""
+    plan = tmp_path / "plan.toml"
+    # a fine sweep makes each corner take about a second, so the kill lands mid-run
+    plan.write_text(PLAN.split("[[corner]]")[0] + "\n[sweep]\npoints_per_decade = 200\n")
+    out = tmp_path / "r.jsonl"
+    cmd = [sys.executable, "-c", "import sys; from netloop.cli.main import main; sys.exit(main())",
+           "corners", str(plan), "--jobs", "1", "--out", str(out)]
+    proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
+    try:
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline and proc.poll() is None:
+            if out.exists() and sum(1 for r in read_records(out)[0] if r["record"] == "corner") >= 2:
+                break
+            time.sleep(0.02)
+    finally:
+        if proc.poll() is None:
+            os.killpg(proc.pid, signal.SIGKILL)  # the whole session we started: client, Dask workers, ngspice
+        proc.wait()
+        proc.stderr.close()
+    first, _ = read_records(out)
+    done = [r for r in first if r["record"] == "corner"]
+    assert 2 <= len(done) < 6, "the run was not killed mid-way"
+    run = run_plan(load_plan(plan), cluster=scheduler, out=out, resume=True)
+    assert run.skipped == len(done) and run.ran == 6 - len(done)
+    final = [r for r in read_records(out)[0] if r["record"] == "corner"]
+    keys = [r["key"] for r in final]
+    assert len(keys) == len(set(keys)) == 6
+    assert final[: len(done)] == done  # the finished corners kept their records and were not run again
+    assert len(run.records) == 6
