@@ -39,6 +39,54 @@ Rf f 0 1k
 """
 
 
+MIXED = """mixed elements for the writer (invented values)
+* every comment and continuation form ngspice reads
+.param vs = 2 rload='1k*2'
+.func half(x) {x/2}
+.option temp=27
+Vs in 0 dc {vs} ; a semicolon comment
+Rin in a 1k $ a dollar comment
+R2 a 0
+* a comment between a card and its continuation
++ {rload}
+E1 e 0 a 0 2
+G1 0 g a 0 1m
+Rg g 0 1k
+Vsense e esense 0
+Resense esense 0 2k
+F1 0 f Vsense 3
+Rf f 0 500
+H1 h 0 Vsense 100
+Rh h 0 1k
+E2 p 0 POLY(2) a 0 e 0 0.1 1 0.5
+Rp p 0 1k
+B1 b 0 V = {half(V(a))} + 0.1
+Rb b 0 1k
+E3 v 0 VALUE = { V(a) * 3 }
+Rv v 0 1k
+D1 a d1 dmod
+Rd d1 0 10k
+Q1 qc qb 0 npn1
+Rqb a qb 100k
+Rqc in qc 1k
+.subckt divider top mid params: ratio=2
+R1 top mid {ratio * 1k}
+R2 mid 0 1k
+.ends divider
+X1 in xm divider ratio = 3
+.if (vs > 1)
+Rif in ifn 1k
+.else
+Rif in ifn 2k
+.endif
+Rifl ifn 0 1k
+.model dmod d is=1e-14
+.model npn1 npn bf=100
+.op
+.end
+"""
+
+
 def _same_op(a: dict[str, float], b: dict[str, float]) -> None:
     assert a.keys() == b.keys()
     for k in a:
@@ -56,6 +104,20 @@ def test_rewritten_hierarchical_amplifier_has_same_operating_point(tmp_path, op_
     rewritten = op_of(write_netlist(parse_file(src)), tmp_path / "out")
     _same_op(original, rewritten)
     assert original["out"] != 0.0
+
+
+@pytest.mark.ngspice
+def test_rewritten_mixed_elements_have_same_operating_point(tmp_path, op_of):
+    """Controlled sources (linear, POLY, VALUE, F/H), B, D, Q, .func, .if and every comment form keep ngspice's op when rewritten."""
+    src = tmp_path / "mixed.cir"
+    src.write_text(MIXED)
+    (tmp_path / "orig").mkdir()
+    (tmp_path / "out").mkdir()
+    original = op_of(MIXED, tmp_path / "orig")  # reference: ngspice op on the user's file
+    out = write_netlist(parse_file(src))
+    assert "* a comment" not in out and ";" not in out and "$ a" not in out
+    _same_op(original, op_of(out, tmp_path / "out"))
+    assert math.isclose(original["ifn"], 1.0, rel_tol=1e-6)  # the .if branch taken: 2 V over 1k + 1k
 
 
 @pytest.mark.ngspice
