@@ -1,0 +1,93 @@
+"""Rank the nodes of a loop group as break points, each with the reason in one sentence.
+
+Order (best first):
+1. nodes on every loop of the group: a break there opens them all, so the measured T is the
+   group's whole return ratio and the opened circuit has no other loop; then the nodes on the
+   most loops (local loops), each saying which loops it leaves closed;
+2. among equals, a node driven by a single element (counting active drivers, and passive ones only
+   where no active output sits on the node, as a divider tap);
+3. then a node whose loads inside the group are only high-impedance inputs (gates, bases,
+   controlling inputs), and whose one driver is a low-impedance output (a follower's source or
+   emitter, a controlled voltage source): common practice, where the designer's intuition puts
+   the break, although the probe is exact at any node;
+4. then the shallower hierarchical name, then circuit order.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+from netloop.graph.loop_records import BreakCandidate, Loop
+from netloop.graph.signal_flow import CONTROL_PINS, element_edges
+
+if TYPE_CHECKING:
+    from netloop.graph.flat import FlatCircuit
+
+__all__ = ["rank_candidates"]
+
+
+def _numbers(nums: tuple[int, ...]) -> str:
+    return ", ".join(str(n) for n in nums)
+
+
+def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: frozenset[str]):
+    """(drivers, loads, single, high_z, low_z) of a node, counting only edges inside the group."""
+    active_in: dict[str, str] = {}
+    passive_in: dict[str, str] = {}
+    outs: dict[str, str] = {}
+    seen: set[int] = set()
+    for t in circuit.terminals(node):
+        if t.index in seen:
+            continue
+        seen.add(t.index)
+        for e in element_edges(circuit, t.index, signal):
+            if e.target == node and e.source in group:
+                (passive_in if e.passive else active_in).setdefault(e.element, e.target_pin)
+            elif e.source == node and e.target in group:
+                outs.setdefault(e.element, e.source_pin)
+    drivers = active_in or passive_in
+    loads = {el: pin for el, pin in outs.items() if el not in drivers}
+    single = len(drivers) == 1
+    high_z = bool(loads) and all(pin in CONTROL_PINS for pin in loads.values())
+    low_z = False
+    if single and active_in:
+        (el, pin), = active_in.items()
+        kind = circuit.element(el).kind
+        low_z = pin in ("s", "e") or kind in "EH"
+    return tuple(drivers), tuple(f"{el}.{pin}" for el, pin in loads.items()), single, high_z, low_z
+
+
+def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: frozenset[str], capped: bool) -> tuple[BreakCandidate, ...]:
+    """Every node that opens at least one of ``loops``, ranked (see the module docstring)."""
+    order = {n: i for i, n in enumerate(circuit.nets)}
+    group = frozenset(n for lp in loops for n in lp.nodes)
+    opened: dict[str, list[int]] = {}
+    for k, lp in enumerate(loops, 1):
+        for n in lp.opened_by:
+            opened.setdefault(n, []).append(k)
+    total = len(loops)
+    rows = []
+    for node, nums in opened.items():
+        drivers, loads, single, high_z, low_z = _roles(circuit, node, group, signal)
+        all_ = len(nums) == total
+        left = tuple(k for k in range(1, total + 1) if k not in nums)
+        key = (not all_, -len(nums), not single, not high_z, not low_z, node.count("."), order.get(node, 0))
+        rows.append((key, node, tuple(nums), left, drivers, loads, single, high_z, low_z))
+    rows.sort(key=lambda r: r[0])
+    out = []
+    for rank, (_, node, nums, left, drivers, loads, single, high_z, low_z) in enumerate(rows, 1):
+        if not left:
+            found = f"all {total} loops found (the search was capped)" if capped else (f"all {total} loops" if total > 1 else "the loop")
+            parts = [f"on {found} of the group: a break here opens them all, so T is the whole return ratio and the opened circuit has no other loop of the group"]
+        else:
+            parts = [f"on {len(nums)} of {total} loops ({_numbers(nums)}); a break here leaves loop{'s' if len(left) > 1 else ''} {_numbers(left)} closed"]
+        if single:
+            parts.append(f"driven by one element ({drivers[0]})")
+        elif drivers:
+            parts.append(f"driven by {len(drivers)} elements ({', '.join(drivers)})")
+        if high_z:
+            parts.append(f"it drives only high-impedance inputs ({', '.join(loads)})")
+        if low_z:
+            parts.append("its driver is a low-impedance output (follower or controlled voltage source)")
+        out.append(BreakCandidate(node, rank, not left, nums, left, drivers, loads, single, high_z, low_z, "; ".join(parts)))
+    return tuple(out)

@@ -1,0 +1,101 @@
+"""Records of loop discovery: the steps of a loop, its loops, break candidates, loop groups."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+__all__ = ["BreakCandidate", "Loop", "LoopDiscovery", "LoopGroup", "Step"]
+
+
+@dataclass(frozen=True, slots=True)
+class Step:
+    """One step around a loop: ``elements`` (in parallel) pass the signal from ``source`` to ``target``."""
+
+    elements: tuple[str, ...]  # hierarchical element names
+    source: str
+    target: str
+    pins: tuple[str, str]  # pins of the first element at source and target ("g", "d"); ("", "") for a passive step
+    passive: bool
+
+    def describe(self) -> str:
+        who = "|".join(self.elements)
+        if not self.passive and self.pins[0]:
+            who += f"({self.pins[0]}>{self.pins[1]})"
+        return f"-{who}->"
+
+
+@dataclass(frozen=True, slots=True)
+class Loop:
+    """One elementary feedback loop: its steps in signal order, closing back on the first node."""
+
+    steps: tuple[Step, ...]
+    opened_by: tuple[str, ...]  # nodes whose break opens this loop, in loop order
+
+    @property
+    def nodes(self) -> tuple[str, ...]:
+        """The nodes the loop passes, in order, from the first."""
+        return tuple(s.source for s in self.steps)
+
+    @property
+    def elements(self) -> tuple[str, ...]:
+        """Every element on the loop, in order, each once."""
+        return tuple(dict.fromkeys(e for s in self.steps for e in s.elements))
+
+    @property
+    def active_steps(self) -> int:
+        return sum(1 for s in self.steps if not s.passive)
+
+    def describe(self) -> str:
+        """``out -m1(g>d)-> d1 -m4(g>d)-> o1 -m6(g>d)-> out``."""
+        parts = [self.steps[0].source]
+        for s in self.steps:
+            parts += [s.describe(), s.target]
+        return " ".join(parts)
+
+
+@dataclass(frozen=True, slots=True)
+class BreakCandidate:
+    """A node where the group's loops can be broken, its rank in the group (1 = best) and why."""
+
+    node: str
+    rank: int
+    opens_all: bool  # on every loop found in the group
+    opened: tuple[int, ...]  # numbers (1-based, within the group) of the loops a break here opens
+    left_closed: tuple[int, ...]  # the group's loops a break here leaves closed
+    drivers: tuple[str, ...]  # elements driving the node from inside the group
+    loads: tuple[str, ...]  # "element.pin" terminals the node drives inside the group
+    single_driver: bool
+    high_impedance_load: bool  # every load terminal is a gate, base or controlling input
+    low_impedance_driver: bool  # the one driver is a follower output or a controlled voltage source
+    reason: str  # one sentence
+
+
+@dataclass(frozen=True, slots=True)
+class LoopGroup:
+    """A strongly connected part of the signal-flow graph: loops that can reach each other."""
+
+    index: int  # 1-based, in order of the circuit's first node of the group
+    nodes: tuple[str, ...]  # every node on one of its loops, in circuit order
+    loops: tuple[Loop, ...]
+    capped: bool  # True when more loops exist than were enumerated
+    candidates: tuple[BreakCandidate, ...]  # best first
+
+    @property
+    def best(self) -> BreakCandidate:
+        return self.candidates[0]
+
+    @property
+    def label(self) -> str:
+        """``loop 1 (out)``: the group's number and its best break node."""
+        return f"loop {self.index} ({self.best.node})"
+
+
+@dataclass(frozen=True, slots=True)
+class LoopDiscovery:
+    """Every loop group of a circuit, and notes on how the search was bounded."""
+
+    groups: tuple[LoopGroup, ...]
+    signal_nodes: int
+    length_bound: int
+    max_loops: int
+    notes: tuple[str, ...] = ()

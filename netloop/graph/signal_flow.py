@@ -1,0 +1,182 @@
+"""The signal-flow view of a flattened circuit: which node's small signal each element passes to which other node.
+
+Rules (one per element letter; an edge is ``control node -> output node``):
+
+- MOSFET/JFET/MESFET (M, J, Z): the channel current is set by v_gs, v_ds and v_bs and flows into
+  drain and source, so the gate drives drain and source (common source, source follower), the
+  source drives the drain (common gate, cascode) and a bulk that is a signal node drives drain and
+  source. There is no drain -> source edge: the drain reaches the source only through the output
+  conductance, a second-order path that would otherwise make every transistor with a signal
+  source node (a pair's tail, a cascode) a two-node loop of its own.
+- BJT (Q): base -> collector, base -> emitter, emitter -> collector, for the same reasons; the
+  substrate pin carries no signal.
+- Controlled sources E and G: every controlling node (``cp``/``cn``, POLY pairs) -> both output
+  nodes; F and H: the nodes of each controlling voltage source -> both output nodes. A behavioural
+  E, G or B whose value is an expression: every node named in ``v(...)`` -> both output nodes, and
+  the nodes of every source named in ``i(...)``.
+- Passives both ways (``passive=True``): R, C, L, D, a switch's two terminals (a small-signal
+  resistance), independent V sources between two signal nodes (an AC short), every pair of pins
+  of a transmission line (T, O, U), of an XSPICE model (A) and of an X instance left unexpanded,
+  and the inductors coupled by K.
+- Independent current sources carry no signal (infinite small-signal impedance).
+- Ground, ``.global`` nets and supplies (nets tied to ground through independent V sources) are not
+  signal nodes: no edge starts or ends there.
+- An edge from a node to itself (a diode-connected transistor) is dropped: it is a local
+  impedance, not a loop one could break.
+
+Device-wrapper X instances (e.g. sky130's ``sky130_fd_pr__nfet_01v8``) are transistors here, since
+flattening already keeps them as one device with the device's pin roles; other X instances are
+expanded by flattening and their elements carry hierarchical names.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+from netloop.errors import NetloopError
+from netloop.netlist.cards import controlling_sources
+
+if TYPE_CHECKING:
+    import networkx as nx
+
+    from netloop.graph.flat import FlatCircuit
+
+__all__ = ["CONTROL_PINS", "FlowEdge", "element_edges", "flow_edges", "signal_flow_graph", "signal_nodes"]
+
+_TRANSISTOR = {"M": ("g", "s", "b"), "J": ("g", "s"), "Z": ("g", "s"), "Q": ("b", "e")}  # controls; outputs below
+_T_OUTPUTS = {"M": ("d", "s"), "J": ("d", "s"), "Z": ("d", "s"), "Q": ("c", "e")}
+_TWO_WAY = frozenset("RCLDS")  # S: only its p/n terminals
+_ALL_PAIRS = frozenset("TOUAX")
+_VREF = re.compile(r"\bv\(\s*([^,()\s]+)\s*(?:,\s*([^()\s]+)\s*)?\)", re.IGNORECASE)
+_IREF = re.compile(r"\bi\(\s*([^()\s]+)\s*\)", re.IGNORECASE)
+
+# Pins that sense a voltage without loading the node (a gate, a base, a controlling input).
+CONTROL_PINS = frozenset(("g", "b", "cp", "cn"))
+
+
+@dataclass(frozen=True, slots=True)
+class FlowEdge:
+    """One way an element passes signal: from ``source`` (its ``source_pin``) to ``target``."""
+
+    source: str
+    target: str
+    element: str  # hierarchical element name
+    index: int  # position of the element in the FlatCircuit
+    source_pin: str
+    target_pin: str
+    passive: bool  # True for the two-way edges of passive parts
+
+
+def signal_nodes(circuit: FlatCircuit) -> frozenset[str]:
+    """Every net except ground, ``.global`` nets and supplies."""
+    dead = {*circuit.ground, *circuit.globals, *circuit.supplies()}
+    return frozenset(n for n in circuit.nets if n not in dead)
+
+
+def _lookup(circuit: FlatCircuit, index: int, name: str) -> tuple[str, ...] | None:
+    """Nodes of the element ``name`` seen from the scope of element ``index`` (searched outward)."""
+    path = circuit.paths[index]
+    for depth in range(len(path), -1, -1):
+        full = ".".join((*path[:depth], name.lower()))
+        try:
+            return circuit.element(full).nodes
+        except NetloopError:
+            continue
+    return None
+
+
+def _expression_controls(circuit: FlatCircuit, index: int) -> list[tuple[str, str]]:
+    """(node, pin label) pairs an expression-valued E/G/B reads."""
+    text = " ".join(circuit.originals[index].tokens[2:])
+    path = circuit.paths[index]
+    prefix = "".join(p + "." for p in path)
+    glob = {*circuit.globals, "0", "gnd"}
+    out = []
+    for m in _VREF.finditer(text):
+        for node in m.groups():
+            if node:
+                node = node.lower()
+                node = "0" if node == "gnd" else node
+                out.append((node if node in glob or not path else prefix + node, "cp"))
+    for m in _IREF.finditer(text):
+        nodes = _lookup(circuit, index, m.group(1))
+        if nodes:
+            out.extend((n, "cp") for n in nodes)
+    return out
+
+
+def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str]) -> list[FlowEdge]:
+    """The signal-flow edges of one element (see the module docstring), between signal nodes only."""
+    name, kind = circuit.names[index], circuit.kinds[index]
+    nodes, pins = circuit.element_nodes[index], circuit.element_pins[index]
+    out: list[FlowEdge] = []
+
+    def add(a: str, pa: str, b: str, pb: str, passive: bool) -> None:
+        if a != b and a in signal and b in signal:
+            out.append(FlowEdge(a, b, name, index, pa, pb, passive))
+
+    def both(pairs) -> None:
+        pairs = list(pairs)
+        for i, (a, pa) in enumerate(pairs):
+            for b, pb in pairs[i + 1:]:
+                add(a, pa, b, pb, True)
+                add(b, pb, a, pa, True)
+
+    if kind in _TRANSISTOR:
+        at = dict(zip(pins, nodes))
+        controls = [(at[p], p) for p in _TRANSISTOR[kind] if p in at]
+        outputs = [(at[p], p) for p in _T_OUTPUTS[kind] if p in at]
+        for a, pa in controls:
+            for b, pb in outputs:
+                if pa != pb:
+                    add(a, pa, b, pb, False)
+    elif kind in _TWO_WAY:
+        both(zip(nodes[:2], pins[:2]))
+    elif kind == "V":
+        both(zip(nodes, pins))
+    elif kind in "EGB":
+        outputs = [(n, p) for n, p in zip(nodes, pins) if p in ("p", "n")]
+        controls = [(n, p) for n, p in zip(nodes, pins) if p not in ("p", "n")] or _expression_controls(circuit, index)
+        for a, pa in controls:
+            for b, pb in outputs:
+                add(a, pa, b, pb, False)
+    elif kind in "FH":
+        outputs = list(zip(nodes, pins))
+        for src in controlling_sources(circuit.originals[index]):
+            for a in _lookup(circuit, index, src) or ():
+                for b, pb in outputs:
+                    add(a, "cp", b, pb, False)
+    elif kind == "K":
+        coupled = [n for tok in circuit.originals[index].tokens[:2] for n in (_lookup(circuit, index, tok) or ())]
+        both((n, "l") for n in coupled)
+    elif kind in _ALL_PAIRS:
+        both(zip(nodes, pins))
+    return out
+
+
+def flow_edges(circuit: FlatCircuit, signal: frozenset[str] | None = None) -> Iterator[FlowEdge]:
+    """Every signal-flow edge of the circuit, element by element."""
+    if signal is None:
+        signal = signal_nodes(circuit)
+    for i in range(len(circuit)):
+        yield from element_edges(circuit, i, signal)
+
+
+def signal_flow_graph(circuit: FlatCircuit) -> nx.MultiDiGraph:
+    """A directed multigraph over the signal nodes, one edge per FlowEdge.
+
+    Edge key is ``(element, source pin, target pin)``; attributes ``element``, ``pins`` and ``passive``.
+    """
+    import networkx as nx
+
+    signal = signal_nodes(circuit)
+    g = nx.MultiDiGraph()
+    g.add_nodes_from(n for n in circuit.nets if n in signal)
+    g.add_edges_from(
+        (e.source, e.target, (e.element, e.source_pin, e.target_pin), {"element": e.element, "pins": (e.source_pin, e.target_pin), "passive": e.passive})
+        for e in flow_edges(circuit, signal)
+    )
+    return g
