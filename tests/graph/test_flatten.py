@@ -13,32 +13,8 @@ from netloop.errors import NetlistError, UnknownNodeError
 from netloop.graph import flatten
 from netloop.netlist import parse_file, parse_text
 
-AMP = """hierarchical amplifier (invented values)
-.global vdd
-.subckt stage in out params: rd=10k
-Rd vdd out {rd}
-M1 out in 0 0 nch w=2u l=1u
-C1 out mid 1p
-R2 mid 0 1k
-.ends stage
-.subckt amp2 a b
-.subckt bias n
-Rb n gnd 100k
-.ends bias
-X1 a m stage rd=20k
-X2 m b stage
-Xb m bias
-Rfb b a 200k
-.ends amp2
-Vdd vdd 0 1.8
-Vin in 0 dc 0.9
-Rs in g 1k
-Xa g out amp2
-Rl out 0 1meg
-Vneg vss vdd -3.6
-.model nch nmos level=1 vto=0.5 kp=100u
-.end
-"""
+# the hierarchical amplifier the writer tests also use
+AMP = (Path(__file__).parents[1] / "netlist" / "data" / "hier_amp.cir").read_text()
 
 
 def test_hierarchical_names_and_pin_mapping():
@@ -50,11 +26,11 @@ def test_hierarchical_names_and_pin_mapping():
     assert flat.element("xa.xb.rb").nodes == ("xa.m", "0")  # gnd is ground: node 0, as ngspice reads it
     assert flat.element("xa.x2.c1").nodes == ("out", "xa.x2.mid")
     assert flat.element("xa.x1.rd").element.tokens[2] == "{rd}"  # the original card is kept
-    assert len(flat) == 15
+    assert len(flat) == 18
     assert flat.instance_counts == {"amp2": 1, "bias": 1, "stage": 2}
-    assert dict(flat.by_kind()) == {"C": 2, "M": 2, "R": 8, "V": 3}
-    assert set(flat.nets) == {"vdd", "0", "in", "g", "out", "vss", "xa.m", "xa.x1.mid", "xa.x2.mid"}
-    assert flat.node_count == 8
+    assert dict(flat.by_kind()) == {"C": 2, "E": 1, "F": 1, "M": 2, "R": 9, "V": 3}
+    assert set(flat.nets) == {"vdd", "0", "in", "g", "out", "vss", "e", "f", "xa.m", "xa.x1.mid", "xa.x2.mid"}
+    assert flat.node_count == 10
 
 
 def test_node_lookup_and_terminals():
@@ -75,7 +51,7 @@ def test_connectivity_graph_and_supplies():
     g = flat.connectivity()
     assert isinstance(g, nx.Graph)
     assert set(g.nodes) == set(flat.nets)
-    assert g.number_of_edges() == 13 * 1 + 2 * 6  # 13 two-terminal R/C/V, 2 four-terminal M (6 pairs each)
+    assert g.number_of_edges() == 15 * 1 + 3 * 6  # 15 two-terminal R/C/V/F; 2 M and E1 have 4 terminals (6 pairs each)
     data = g.get_edge_data("vdd", "xa.m")
     assert {d["element"] for d in data.values()} == {"xa.x1.rd"}
     assert dict(flat.supplies()) == {"vdd": "vdd", "in": "vin", "vss": "vneg"}  # vss via vdd: a chain of sources

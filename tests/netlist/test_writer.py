@@ -4,39 +4,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from pathlib import Path
 
 import pytest
 
 from netloop.netlist import Element, parse_file, parse_text, write_netlist
 
-AMP = """hierarchical amplifier (invented values)
-* two common-source stages in a feedback loop, nested subcircuits
-.global vdd
-.subckt stage in out params: rd=10k
-Rd vdd out {rd}
-M1 out in 0 0 nch w=2u l=1u
-.ends stage
-.subckt amp2 a b
-.subckt bias n
-Rb n 0 100k
-.ends bias
-X1 a m stage rd=20k
-X2 m b stage
-Xb m bias
-Rfb b a 200k
-.ends amp2
-Vdd vdd 0 1.8
-Vin in 0 dc 0.9 ac 1
-Rs in g 1k
-Xa g out amp2
-Rl out 0 1meg
-E1 e 0 out 0 2
-F1 0 f Vdd 1e-3
-Rf f 0 1k
-.model nch nmos level=1 vto=0.5 kp=100u lambda=0.02
-.op
-.end
-"""
+# shared with tests/graph/test_flatten.py
+AMP = (Path(__file__).parent / "data" / "hier_amp.cir").read_text()
 
 
 MIXED = """mixed elements for the writer (invented values)
@@ -93,15 +68,20 @@ def _same_op(a: dict[str, float], b: dict[str, float]) -> None:
         assert math.isclose(a[k], b[k], rel_tol=1e-6, abs_tol=1e-15), k
 
 
+def _op_before_and_after(text: str, folder: Path, op_of) -> tuple[dict[str, float], dict[str, float], str]:
+    """ngspice's op of the user's file and of netloop's rewrite of it, and the rewrite."""
+    src = folder / "user.cir"
+    src.write_text(text)
+    (folder / "orig").mkdir()
+    (folder / "out").mkdir()
+    rewritten = write_netlist(parse_file(src))
+    return op_of(text, folder / "orig"), op_of(rewritten, folder / "out"), rewritten
+
+
 @pytest.mark.ngspice
 def test_rewritten_hierarchical_amplifier_has_same_operating_point(tmp_path, op_of):
     """The re-emitted hierarchical amplifier gives ngspice's own `op` exactly the values of the original."""
-    src = tmp_path / "amp.cir"
-    src.write_text(AMP)
-    (tmp_path / "orig").mkdir()
-    (tmp_path / "out").mkdir()
-    original = op_of(AMP, tmp_path / "orig")  # reference: ngspice op on the user's file
-    rewritten = op_of(write_netlist(parse_file(src)), tmp_path / "out")
+    original, rewritten, _ = _op_before_and_after(AMP, tmp_path, op_of)  # reference: ngspice op on the user's file
     _same_op(original, rewritten)
     assert original["out"] != 0.0
 
@@ -109,14 +89,9 @@ def test_rewritten_hierarchical_amplifier_has_same_operating_point(tmp_path, op_
 @pytest.mark.ngspice
 def test_rewritten_mixed_elements_have_same_operating_point(tmp_path, op_of):
     """Controlled sources (linear, POLY, VALUE, F/H), B, D, Q, .func, .if and every comment form keep ngspice's op when rewritten."""
-    src = tmp_path / "mixed.cir"
-    src.write_text(MIXED)
-    (tmp_path / "orig").mkdir()
-    (tmp_path / "out").mkdir()
-    original = op_of(MIXED, tmp_path / "orig")  # reference: ngspice op on the user's file
-    out = write_netlist(parse_file(src))
+    original, rewritten, out = _op_before_and_after(MIXED, tmp_path, op_of)  # reference: ngspice op on the user's file
     assert "* a comment" not in out and ";" not in out and "$ a" not in out
-    _same_op(original, op_of(out, tmp_path / "out"))
+    _same_op(original, rewritten)
     assert math.isclose(original["ifn"], 1.0, rel_tol=1e-6)  # the .if branch taken: 2 V over 1k + 1k
 
 
