@@ -2,7 +2,8 @@
 
     .venv/bin/python benchmarks/parse_speed.py [--small 100000] [--large 1000000] [--repeat 3]
 
-Netlists are flat RC ladders (R and C cards alternating, one source) written to a temp dir.
+Netlists are flat RC ladders (R and C cards alternating, one source) written to a temp dir,
+and for inspect also the same size built hierarchically from X instances of one cell.
 Every measurement runs in a fresh child process, and the CPU seconds (user + system, from
 os.wait4) of that child are compared, so other load on the machine bends the ratio little;
 wall time and peak RSS are printed beside. Targets: netloop >= 10x PySpice on the small netlist
@@ -55,6 +56,18 @@ def write_ladder(path: Path, elements: int) -> None:
         fh.write(".op\n.end\n")
 
 
+def write_hierarchical(path: Path, elements: int) -> None:
+    """The same ladder built from X instances of one 102-element cell (exercises the flattening)."""
+    with path.open("w") as fh:
+        fh.write("hierarchical rc ladder for the parse benchmark\n.subckt cell a b\n")
+        for i in range(50):
+            fh.write(f"R{i} n{i} n{i + 1} 1k\nC{i} n{i + 1} 0 1p\n")
+        fh.write("Ra a n0 1\nRb n50 b 1\n.ends cell\nV1 t0 0 dc 1\n")
+        for j in range(max(1, elements // 102)):
+            fh.write(f"X{j} t{j} t{j + 1} cell\n")
+        fh.write(".end\n")
+
+
 def measure(argv: list[str]) -> tuple[float, float, float, str]:
     """(cpu seconds, wall seconds, peak RSS MB, stdout) of one child process."""
     start = time.perf_counter()
@@ -98,10 +111,13 @@ def main() -> None:
               f"peak {theirs[2]:5.0f} MB | {theirs[3].split()[1]} elements {theirs[3].split()[2]} nodes")
         print(f"  ratio PySpice / netloop: parser vs parser {theirs_parse / ours_parse:.1f}x, vs parse + flattened graph "
               f"{theirs_parse / ours_total:.1f}x, whole processes {theirs[0] / ours[0]:.1f}x   (target >= 10x)")
-        inspect = [py, "-c", "from netloop.cli.main import entry; entry()", "inspect", str(large), "--json"]
-        whole = best(inspect, args.repeat)
-        print(f"netloop inspect --json, {args.large} elements (whole process, best of {args.repeat}):")
-        print(f"  cpu {whole[0]:.2f} s  wall {whole[1]:.2f} s  peak RSS {whole[2]:.0f} MB   (targets: 5 s, 1536 MB)")
+        hier = Path(tmp) / "hier.cir"
+        write_hierarchical(hier, args.large)
+        for label, path in (("flat", large), ("hierarchical", hier)):
+            inspect = [py, "-c", "from netloop.cli.main import entry; entry()", "inspect", str(path), "--json"]
+            whole = best(inspect, args.repeat)
+            print(f"netloop inspect --json, {label} ~{args.large} elements (whole process, best of {args.repeat}):")
+            print(f"  cpu {whole[0]:.2f} s  wall {whole[1]:.2f} s  peak RSS {whole[2]:.0f} MB   (targets: 5 s, 1536 MB)")
 
 
 if __name__ == "__main__":

@@ -34,7 +34,7 @@ def _plain(lines: list[str], start: int) -> bool:
         return False
     if "+" in text and _CONT.search(text):
         return False
-    return _CONTROL.search(text) is None
+    return ".control" not in text.lower() or _CONTROL.search(text) is None
 
 
 def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:

@@ -80,6 +80,7 @@ class _Reader:
         self.active: set[tuple[str, str | None]] = set()
         self.has_q = False
         self.has_x = False
+        self.has_model = False  # some card names a model (so undefined models are looked for)
 
     # -- files ---------------------------------------------------------------------------
     def _load(self, path: str, at: SourceLocation | None) -> _FileText:
@@ -174,6 +175,8 @@ class _Reader:
                 if c == "+":
                     raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
                 el = parse_card(text, SourceLocation(file, ln), models)
+                if el.model is not None:
+                    self.has_model = True
                 k = c.upper()
                 if k == "Q":
                     self.has_q = True
@@ -273,7 +276,7 @@ class _Reader:
             raise NetlistSyntaxError(f".subckt {fr.name}: expected .ends before the end of the netlist", fr.location, fr.header)
         body = self.stack[0].body
         statements: tuple[Statement, ...] = tuple(body)
-        if self.has_q or self.has_x or self.models or any(isinstance(s, Element) and s.model for s in body):
+        if self.has_q or self.has_x or self.models or self.has_model:
             statements = self._resolve(statements, ({},))
             if statements != tuple(body):
                 # inclusions hold the unresolved records; re-slice them from the resolved list by identity of position
