@@ -1,0 +1,84 @@
+"""Corner throughput on Dask: 16 corners on 2 workers against 1 worker, and the cost per corner beyond ngspice's own time.
+
+Run:  .venv/bin/python benchmarks/corners_scaling.py [--ppd N] [--repeat R]
+
+Each cluster is started and its workers' ngspice warmed before the clock starts, so the ratio
+compares running corners, not starting processes. Both runs go through run_plan (journal,
+Dask submission, result collection), the same path as `netloop corners --cluster ADDRESS`.
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import statistics
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+PLAN = """
+netlist = "{netlist}"
+at = "out"
+require = ["pm >= 45"]
+
+[sweep]
+points_per_decade = {ppd}
+
+[axes]
+lib = ["tt", "ss"]
+temp = [-40, 0, 27, 125]
+supply.vdd = [3.0, 3.6]
+"""
+
+
+def _warm() -> None:
+    from netloop.corners.worker import worker_simulator
+
+    worker_simulator()
+
+
+def timed_run(plan_path: Path, workers: int, out: Path) -> tuple[float, tuple[dict, ...]]:
+    from distributed import Client, LocalCluster
+
+    from netloop.corners import load_plan, run_plan
+
+    with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address=None, silence_logs=logging.ERROR) as cluster, Client(cluster) as client:
+        client.wait_for_workers(workers)
+        client.run(_warm)
+        start = time.perf_counter()
+        run = run_plan(load_plan(plan_path), cluster=cluster.scheduler_address, out=out, force=True)
+        wall = time.perf_counter() - start
+    return wall, run.records
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--ppd", type=int, default=10, help="points per decade of the first sweep (default 10, netloop's default)")
+    parser.add_argument("--repeat", type=int, default=2, help="runs per worker count; the fastest counts (default 2)")
+    args = parser.parse_args()
+    with tempfile.TemporaryDirectory() as tmp:
+        plan = Path(tmp) / "bench.toml"
+        plan.write_text(PLAN.format(netlist=ROOT / "circuits" / "miller_buffer.cir", ppd=args.ppd))
+        results = {}
+        for workers in (1, 2):
+            runs = [timed_run(plan, workers, Path(tmp) / f"r{workers}.jsonl") for _ in range(args.repeat)]
+            results[workers] = min(runs, key=lambda r: r[0])
+        wall1, rec1 = results[1]
+        wall2, rec2 = results[2]
+        n = len(rec1)
+        sim = statistics.fmean(r["sim_seconds"] for r in rec1)
+        task = statistics.fmean(r["seconds"] for r in rec1)
+        print(f"{n} corners of circuits/miller_buffer.cir, points per decade {args.ppd}, best of {args.repeat}")
+        print(f"1 worker : {wall1:.3f} s  ({wall1 / n * 1e3:.1f} ms per corner)")
+        print(f"2 workers: {wall2:.3f} s  ({wall2 / n * 1e3:.1f} ms per corner)")
+        print(f"speed-up 2 workers / 1 worker: {wall1 / wall2:.2f}x (target >= 1.8x)")
+        print(f"per corner on 1 worker: ngspice {sim * 1e3:.1f} ms (SimInfo.seconds), "
+              f"in-worker total {task * 1e3:.1f} ms, wall {wall1 / n * 1e3:.1f} ms")
+        print(f"time per corner beyond ngspice's own: {(wall1 / n - sim) * 1e3:.1f} ms "
+              f"(netlist + probe + analysis in the worker {(task - sim) * 1e3:.1f} ms, Dask and journal {(wall1 / n - task) * 1e3:.1f} ms)")
+
+
+if __name__ == "__main__":
+    main()
