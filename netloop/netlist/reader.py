@@ -266,7 +266,8 @@ class _Reader:
         fr = self.stack.pop()
         toks = text.split()
         if len(toks) > 1 and toks[1].lower() != fr.name:
-            raise NetlistSyntaxError(f".ends {toks[1]}: expected .ends {fr.name} (the open .subckt)", SourceLocation(loc.file, loc.line, text.find(toks[1]) + 1), text)
+            # ngspice 39 closes the innermost open definition whatever the name says (see the tests); so do we, with a warning
+            self.warnings.append(f"{loc}: .ends {toks[1]} closes .subckt {fr.name} (the innermost open definition)")
         self.stack[-1].body.append(Subcircuit(fr.name, fr.pins, fr.params, tuple(fr.body), fr.location, fr.header))
 
     # -- finishing -----------------------------------------------------------------------

@@ -269,3 +269,19 @@ def test_fast_path_cards_are_ordinary_records():
     assert hash(fast[0].location) == hash(SourceLocation("<string>", 2, 1))
     with pytest.raises(AttributeError):
         fast[0].tokens = ()
+
+
+def test_ends_with_another_name_closes_innermost_with_warning():
+    """'.ends other' closes the innermost open .subckt (as ngspice does) and is reported as a warning."""
+    nl = parse_text("t\n.subckt inner a\nR1 a 0 1\n.ends outer\nX1 n inner\n")
+    assert "inner" in nl.subcircuits and nl.element("x1").pins == ("a",)
+    assert any(".ends outer closes .subckt inner" in w for w in nl.warnings)
+
+
+@pytest.mark.ngspice
+def test_ngspice_also_closes_innermost_on_misnamed_ends(tmp_path, op_of):
+    """ngspice reads the misnamed .ends the same way: X1's 1k resistor draws 1 mA from the 1 V source."""
+    deck = "t\n.subckt inner a\nR1 a 0 1k\n.ends outer\nV1 n 0 1\nX1 n inner\n.end\n"
+    op = op_of(deck, tmp_path)  # reference: ngspice op
+    assert abs(op["v1#branch"] + 1e-3) < 1e-9
+    assert parse_text(deck).subcircuit("inner").elements[0].name == "R1"
