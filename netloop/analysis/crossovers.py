@@ -1,10 +1,13 @@
 """Gain crossovers (|T| = 1) and phase crossovers (T negative real), located on the interpolant.
 
-Phase margin at a gain crossover is the signed angular distance from T to -1 on the continuous
-phase branch: with k the odd multiple of 180 deg nearest the phase, PM = phase - k for a crossover
-where |T| falls through 1 ("down") and PM = k - phase where it rises through 1 ("up", the low edge
-of an AC-coupled loop). So the low crossing of a band-pass loop with +90 deg of lead has PM = +90,
-not the -90 that wrapping the phase into [-180, 180) would give.
+Phase margin at a gain crossover is the angular distance from T to -1 read on the continuous
+phase branch (anchored on T's low-frequency asymptote, see netloop.analysis.response): with the
+phase phi in (-180, 180) the loop has not turned past -1 and PM = 180 - |phi| > 0; beyond
+(|phi| >= 180) PM is minus the distance to the nearest odd multiple of 180. So the low crossing
+of an AC-coupled loop with +84 deg of lead has PM = +96, not the -96 that wrapping the phase
+into [-180, 180) gives, and a crossing on a resonance at -25 deg has PM = +155. For loops with
+open-loop poles in the right half plane, or curves that turn past -1 and back while |T| > 1,
+the sign is only the local reading: the Nyquist count decides stability.
 """
 
 from __future__ import annotations
@@ -22,11 +25,12 @@ __all__ = ["dc_phase_crossover", "find_gain_crossovers", "find_phase_crossovers"
 _XTOL = 1e-13
 
 
-def phase_margin_deg(phase_deg: float, direction: str) -> float:
-    """Signed distance (deg) from the phase to the nearest odd multiple of 180, positive on the stable side."""
+def phase_margin_deg(phase_deg: float) -> float:
+    """Distance (deg) from the continuous phase to the nearest odd multiple of 180; negative once past +-180."""
+    if abs(phase_deg) <= 180.0:
+        return float(180.0 - abs(phase_deg))
     k = 180.0 + 360.0 * round((phase_deg - 180.0) / 360.0)  # nearest odd multiple of 180
-    margin = phase_deg - k if direction == "down" else k - phase_deg
-    return float(margin)
+    return float(-abs(phase_deg - k))
 
 
 def peaking_at_crossover(pm_deg: float) -> tuple[float, float, float]:
@@ -66,7 +70,7 @@ def find_gain_crossovers(resp: Response) -> tuple[GainCrossover, ...]:
         f = float(10.0**xr)
         phase = float(resp.phase_at(xr))
         direction = "down" if resp.gain_db[i] > resp.gain_db[i + 1] else "up"
-        pm = phase_margin_deg(phase, direction)
+        pm = phase_margin_deg(phase)
         exact, exact_db, small = peaking_at_crossover(pm)
         out.append(GainCrossover(f, phase, pm, direction, exact, exact_db, small, _delay_margin_s(phase, pm, f)))
     return tuple(out)

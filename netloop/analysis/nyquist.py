@@ -32,7 +32,7 @@ import math
 
 import numpy as np
 
-from netloop.analysis.response import Response
+from netloop.analysis.response import Response, low_frequency_slope
 from netloop.analysis.results import NyquistVerdict
 
 __all__ = ["PHASE_TOL_DEG", "SLOPE_TOL_DB_PER_DEC", "TOP_LIMIT_DB", "nyquist_verdict", "origin_poles"]
@@ -54,9 +54,7 @@ def _wrap(a):
 
 def origin_poles(resp: Response) -> tuple[int, float]:
     """(k, slope): poles of T at s = 0 from the slope (dB/decade) over the lowest samples."""
-    n = min(3, resp.x.size)
-    slope = float(np.polyfit(resp.x[:n], resp.gain_db[:n], 1)[0])
-    return int(round(-slope / 20.0)), slope
+    return low_frequency_slope(resp.x, resp.gain_db)
 
 
 def _bottom_arc(t0: complex, k: int) -> tuple[np.ndarray, float, str]:

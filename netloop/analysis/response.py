@@ -7,8 +7,8 @@ first one is: a hole in the data can hide a crossover, so we never drop samples 
 A sample with T exactly 0 is kept and read as -400 dB (far below any floor).
 
 The interpolant is an interpolating quintic spline (cubic when there are fewer than 6 samples)
-in x = log10(f) of 20 log10|T| and of the unwrapped phase (anchored so that the phase at the
-lowest frequency is in (-180, 180]). Linear interpolation misplaces crossovers by far more than
+in x = log10(f) of 20 log10|T| and of the unwrapped phase, anchored on the branch of T's
+low-frequency asymptote (see anchored_phase_deg: in (-180, 180] for a loop without integrators). Linear interpolation misplaces crossovers by far more than
 1e-3 deg at 20 points per decade; a cubic just meets it on smooth loops (about 5e-4 deg on the
 three-pole example), the quintic with a hundredfold room (tests/analysis pin the claim).
 """
@@ -22,7 +22,7 @@ from scipy.interpolate import BSpline, make_interp_spline
 
 from netloop.errors import AnalysisError
 
-__all__ = ["Response", "check_response"]
+__all__ = ["Response", "anchored_phase_deg", "check_response", "low_frequency_slope"]
 
 _TINY = 1e-20  # |T| = 0 is read as -400 dB: far below any floor, without wrecking the spline
 
@@ -58,9 +58,27 @@ def check_response(freq_hz, t) -> tuple[np.ndarray, np.ndarray]:
     return f, tt
 
 
-def anchored_phase_deg(t: np.ndarray) -> np.ndarray:
-    """Unwrapped phase of T in degrees with the first sample in (-180, 180]."""
-    return np.degrees(np.unwrap(np.angle(t)))  # unwrap keeps the first sample, and angle() is in (-pi, pi]
+def low_frequency_slope(x: np.ndarray, gain_db: np.ndarray) -> tuple[int, float]:
+    """(k, slope): poles of T at s = 0 (negative for zeros there) from the slope in dB/decade over the lowest 3 samples."""
+    n = min(3, x.size)
+    slope = float(np.polyfit(x[:n], gain_db[:n], 1)[0])
+    return int(round(-slope / 20.0)), slope
+
+
+def anchored_phase_deg(t: np.ndarray, origin_poles: int = 0) -> np.ndarray:
+    """Unwrapped phase of T in degrees, on the branch of T's low-frequency asymptote C / s^k.
+
+    The asymptote's phase is arg(C) - 90 k with arg(C) = 0 (negative feedback at DC) or -180
+    (positive feedback at DC); the unwrapped phase is shifted by whole turns so that the lowest
+    sample lies within 180 deg of it. Without poles at the origin and with negative feedback this
+    puts the low-frequency phase in (-180, 180]; a triple integrator starts near -270, not +90.
+    """
+    phase = np.degrees(np.unwrap(np.angle(t)))
+    k = origin_poles
+    candidates = (-90.0 * k, -180.0 - 90.0 * k)  # arg(C) = 0 or -180
+    asymptote = min(candidates, key=lambda a: abs((phase[0] - a + 180.0) % 360.0 - 180.0))
+    turns = round((phase[0] - asymptote) / 360.0)
+    return phase - 360.0 * turns
 
 
 @dataclass(frozen=True, slots=True)
@@ -80,7 +98,7 @@ class Response:
         f, tt = check_response(freq_hz, t)
         x = np.log10(f)
         gain = 20.0 * np.log10(np.maximum(np.abs(tt), _TINY))
-        phase = anchored_phase_deg(tt)
+        phase = anchored_phase_deg(tt, low_frequency_slope(x, gain)[0])
         k = 5 if f.size >= 6 else 3
         return cls(f, tt, x, gain, phase, make_interp_spline(x, gain, k=k), make_interp_spline(x, phase, k=k))
 

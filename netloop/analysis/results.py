@@ -7,8 +7,10 @@ Conventions shared by every record here:
 * Frequencies are in hertz (``*_hz``), angles in degrees (``*_deg``), gains in decibels of
   ``|T|`` (``*_db``, i.e. ``20 log10``), times in seconds (``*_s``); a name without a unit is a
   plain ratio.
-* The phase of ``T`` is taken on its continuous branch, anchored so that the phase at the lowest
-  swept frequency lies in (-180, 180] degrees.
+* The phase of ``T`` is taken on its continuous branch, anchored on T's low-frequency asymptote
+  C / s^k: the lowest sample lies within 180 degrees of arg(C) - 90 k, with arg(C) = 0 for
+  negative feedback at DC and -180 for positive feedback. For a loop without integrators and
+  with negative feedback the phase at the lowest swept frequency is thus in (-180, 180].
 * ``None`` always means "this quantity does not exist for this loop" (for example no gain
   crossover, so no phase margin); the docstring of each field says when that happens.
   An infinite float is used only where the quantity exists and is infinite (peaking of a
@@ -43,13 +45,13 @@ class GainCrossover:
 
     freq_hz            where |T| = 1.
     phase_deg          angle of T there, on the continuous branch (see module docstring).
-    phase_margin_deg   signed angular distance from T to -1 at this crossover: the distance from
-                       phase_deg to the nearest odd multiple of 180 deg, positive on the stable
-                       side. For a ``"down"`` crossover (|T| falls through 1 as frequency rises,
-                       the usual case) it is ``phase_deg - k`` with k the nearest odd multiple of
-                       180 (so 180 + phase_deg when phase_deg is near -180); for an ``"up"``
-                       crossover (|T| rises through 1, e.g. the low-frequency edge of an
-                       AC-coupled loop) it is ``k - phase_deg``. Range [-180, 180].
+    phase_margin_deg   signed angular distance from T to -1 at this crossover, on the continuous
+                       branch: 180 - |phase_deg| while |phase_deg| <= 180 (the loop has not
+                       turned past -1; positive), else minus the distance from phase_deg to the
+                       nearest odd multiple of 180. The low crossing of an AC-coupled loop with
+                       +84 deg of lead reads +96 (not -96, as wrapping the phase would give).
+                       The sign is the usual reading for loops with no open-loop RHP poles; the
+                       Nyquist verdict decides stability.
     direction          "down" if |T| decreases through 1 with rising frequency, "up" otherwise.
     peaking_exact      |T / (1 + T)| at this crossover, linear: exactly 1 / (2 sin(|PM| / 2));
                        ``inf`` when the phase margin is exactly 0.

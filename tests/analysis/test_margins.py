@@ -181,3 +181,20 @@ def test_closed_loop_peak_is_the_true_maximum():
     assert a.peaking.absolute_peak_db == pytest.approx(20 * math.log10(cl.max()), abs=1e-6)
     assert a.peaking.peak_freq_hz * TWO_PI == pytest.approx(w[np.argmax(cl)], rel=1e-4)
     assert a.peaking.peak_db == pytest.approx(20 * math.log10(cl.max() / low), abs=1e-6)
+
+
+def test_resonance_that_lifts_the_gain_above_unity_again():
+    """A stable loop whose resonance crosses 0 dB twice more: every PM equals python-control's, none bogus-negative."""
+    w0 = 10.0  # our own shape: integrator times a resonant peak (zeta 0.6 over 0.02) near w0, and a far pole
+    loop = 1 / S * (S**2 / w0**2 + 2 * 0.6 * S / w0 + 1) / (S**2 / w0**2 + 2 * 0.02 * S / w0 + 1) / (1 + S / 1e3)
+    _, pm, _, _, w_gc, _ = reference(loop)  # python-control 0.10: three crossovers, all PM > 0
+    a = analyse(*sample(loop, 1e-4, 1e6, per_decade=80))
+    assert [c.direction for c in a.gain_crossovers] == ["down", "up", "down"]
+    # a Q = 25 resonance is no smooth loop: 80 points per decade place these within 0.05 deg
+    assert [c.phase_margin_deg for c in a.gain_crossovers] == pytest.approx(list(pm), abs=0.05)
+    assert [c.freq_hz * TWO_PI for c in a.gain_crossovers] == pytest.approx(list(w_gc), rel=1e-4)
+    assert a.margins.phase_margin_deg == pytest.approx(min(pm), abs=0.05)
+    # numpy.roots of the characteristic polynomial den + num: no RHP root
+    num, den = loop.num[0][0], loop.den[0][0]
+    assert int(np.sum(np.roots(np.polyadd(den, num)).real > 0)) == 0
+    assert a.stable and a.nyquist.reliable and a.poles.rhp_count == 0

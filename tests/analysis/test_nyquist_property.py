@@ -72,6 +72,10 @@ def check(num, den, p, features):
     assert a.stable == (expected == 0)
     assert a.poles is not None and a.poles.rhp_count == expected
     assert a.poles.agrees_with_nyquist
+    if p == 0 and len(a.gain_crossovers) == 1:
+        # with no open-loop RHP poles and one crossover, the sign of the phase margin read on the
+        # continuous branch is the classical stability test (Bode; the Nyquist criterion)
+        assert (a.margins.phase_margin_deg > 0) == (expected == 0)
 
 
 @settings(max_examples=40, derandomize=True, deadline=None, suppress_health_check=[HealthCheck.filter_too_much])
