@@ -1,11 +1,60 @@
-"""report stage: text, JSON, CSV, JUnit XML, plots and HTML from measured loops (formatting only).
+"""report stage: text, JSON, CSV, JUnit XML, plots and HTML from measured loops (formatting only, no computing).
 
-notation   engineering notation, degrees and decibels as printed
-document   the JSON document of a loop (schema "netloop.loop/1") and of several loops
-text       the terminal summary of one loop, verdict first
+notation      engineering notation, degrees and decibels as printed
+document      the JSON document of a loop (schema "netloop.loop/1") and of several loops
+text          the terminal summary of one loop, verdict first
+samples       the sampled return ratio as CSV
+corners       CornerOutcome, the corner table worst first, its CSV and JSON
+junit         corner outcomes as JUnit XML
+figure        matplotlib plumbing: lazy import, no pyplot, format by file extension
+labels        non-overlapping margin labels
+bode_plot     Bode plot with every margin drawn
+nyquist_plot  Nyquist plot with a compressed radius
+html          the self-contained HTML report (templates/report.html.j2)
+
+matplotlib and jinja2 are imported only when a plot or a page is made.
 """
 
+from netloop.report.bode_plot import bode_figure, plot_bode
+from netloop.report.corners import (
+    CORNER_COLUMNS,
+    CornerOutcome,
+    corner_document,
+    corner_summary,
+    corner_table,
+    sort_worst_first,
+    write_corner_csv,
+)
 from netloop.report.document import SCHEMA, multi_document, to_document
-from netloop.report.text import format_text, verdict_line
+from netloop.report.html import render_html, write_html
+from netloop.report.junit import junit_xml
+from netloop.report.nyquist_plot import compress_radius, nyquist_figure, plot_nyquist
+from netloop.report.samples import SAMPLE_COLUMNS, sample_table, write_csv
+from netloop.report.text import format_text, requirement_text, verdict_line
 
-__all__ = ["SCHEMA", "format_text", "multi_document", "to_document", "verdict_line"]
+__all__ = [
+    "CORNER_COLUMNS",
+    "SAMPLE_COLUMNS",
+    "SCHEMA",
+    "CornerOutcome",
+    "bode_figure",
+    "compress_radius",
+    "corner_document",
+    "corner_summary",
+    "corner_table",
+    "format_text",
+    "junit_xml",
+    "multi_document",
+    "nyquist_figure",
+    "plot_bode",
+    "plot_nyquist",
+    "render_html",
+    "requirement_text",
+    "sample_table",
+    "sort_worst_first",
+    "to_document",
+    "verdict_line",
+    "write_corner_csv",
+    "write_csv",
+    "write_html",
+]

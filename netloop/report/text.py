@@ -2,15 +2,15 @@
 
 from __future__ import annotations
 
+from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis
 from netloop.loop_result import LoopResult
-from netloop.report.document import worst_crossover
-from netloop.analysis.requirements import METRICS, RequirementOutcome
-from netloop.report.notation import NONE, db, deg, eng, number, ratio_db, requirement_value
+from netloop.report.notation import NONE, db, deg, eng, requirement_value
+from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase
 
 __all__ = ["format_text", "requirement_text", "verdict_line"]
 
-_WIDTH = 22  # label column
+_WIDTH = 30  # label column
 _SHOWN_STATEMENTS = 3
 
 
@@ -35,6 +35,8 @@ def verdict_line(result: LoopResult) -> str:
         why = f"stable: worst phase margin {deg(m.phase_margin_deg)} at {eng(m.unity_gain_hz, 'Hz')}"
         if m.gain_margin_db is not None:
             why += f", gain margin {db(m.gain_margin_db)}"
+        if m.lower_gain_margin_db is not None:
+            why += f", lower gain margin {db(m.lower_gain_margin_db)}"
     if failed:
         why += f"; {len(failed)} of {len(result.requirements)} requirement(s) failed ({', '.join(o.requirement.text for o in failed)})"
     elif result.requirements:
@@ -88,56 +90,9 @@ def _crossover_lines(a: LoopAnalysis) -> list[str]:
     return lines
 
 
-def _margin_lines(a: LoopAnalysis) -> list[str]:
-    m = a.margins
-    at = lambda f: f" at {eng(f, 'Hz')}" if f is not None else ""  # noqa: E731
-    no_pm = "none (does not regulate)" if not a.regulates else "none (no gain crossover in the sweep)"
-    lines = [
-        _row("worst phase margin", f"{deg(m.phase_margin_deg)}{at(m.unity_gain_hz)}" if m.phase_margin_deg is not None else no_pm),
-        _row("gain margin", f"{db(m.gain_margin_db)}{at(m.phase_crossover_hz)}" if m.gain_margin_db is not None else "none (no upper phase crossover)"),
-    ]
-    if m.lower_gain_margin_db is not None:
-        lines.append(_row("lower gain margin", f"{db(m.lower_gain_margin_db)}{at(m.lower_phase_crossover_hz)} (gain may fall this much)"))
-    lines.append(_row("modulus margin", f"{m.modulus_margin:.3f} ({db(ratio_db(m.modulus_margin))}) min |1+T|{at(m.modulus_freq_hz)}"))
-    lines.append(_row("delay margin", eng(m.delay_margin_s, "s") if m.delay_margin_s is not None else "none (no crossover with a positive phase margin)"))
-    return lines
-
-
-def _closed_loop_lines(a: LoopAnalysis) -> list[str]:
-    p = a.peaking
-    worst = worst_crossover(a)
-    peak = f"{db(p.peak_db)} at {eng(p.peak_freq_hz, 'Hz')} (relative to {db(p.reference_db)} in band)"
-    if worst is not None:
-        peak += f"; at the worst crossover |T/(1+T)| = {db(worst.peaking_db)}"
-    lines = [_row("closed-loop peaking", peak)]
-    s = a.second_order
-    if s is not None:
-        res = "no resonant peak" if s.resonant_peak_db is None else f"resonant peak {db(s.resonant_peak_db)}"
-        lines.append(
-            _row("2nd-order ESTIMATE", f"damping {s.damping_ratio:.3f}, Q {s.q:.3f}, overshoot {s.overshoot_pct:.1f} %, {res} (from PM, not measured)")
-        )
-    poles = a.poles
-    if poles is None:
-        lines.append(_row("closed-loop poles", "not fitted"))
-    else:
-        if poles.dominant_freq_hz is None:
-            dom = "no complex pair"
-        else:
-            dom = f"dominant pair {eng(poles.dominant_freq_hz, 'Hz')}, damping {number(poles.dominant_damping)}, Q {number(poles.dominant_q)}"
-        agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
-        lines.append(
-            _row("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fit error {poles.fit_error:.2g}) [estimate]")
-        )
-    return lines
-
-
 def _nyquist_lines(a: LoopAnalysis) -> list[str]:
     n = a.nyquist
-    word = "stable" if n.stable else "UNSTABLE"
-    text = f"{word}: N = {n.encirclements} clockwise encirclement(s) of -1, P = {n.open_loop_rhp_poles}, Z = N + P = {n.closed_loop_rhp_poles}"
-    if n.origin_poles:
-        text += f" ({n.origin_poles} pole(s) at s = 0)"
-    lines = [_row("Nyquist", text)]
+    lines = [_row("Nyquist", nyquist_phrase(a))]
     if not n.reliable:
         lines.append(_row("  doubtful because", n.reasons[0] if n.reasons else "the data cannot support the count"))
         lines.extend(_row("", r) for r in n.reasons[1:])
@@ -174,8 +129,8 @@ def format_text(result: LoopResult) -> str:
         *_break_lines(result),
         _row("DC loop gain", db(a.dc_gain_db)),
         *_crossover_lines(a),
-        *_margin_lines(a),
-        *_closed_loop_lines(a),
+        *(_row(label, value) for label, value in margin_phrases(a)),
+        *(_row(label, value) for label, value in closed_loop_phrases(a)),
         *_nyquist_lines(a),
         *_context_lines(result),
         _row("simulation", f"{sim.backend}, {sim.points} points, {sim.refinement_rounds} refinement round(s)"

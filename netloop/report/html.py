@@ -1,0 +1,224 @@
+"""The HTML report: one self-contained page (inline CSS, plots as PNG data URIs, no external files or links).
+
+The page is templates/report.html.j2 (jinja2, StrictUndefined, autoescaped); every number is
+formatted here, the template only loops and substitutes.
+"""
+
+from __future__ import annotations
+
+import base64
+import re
+from collections.abc import Iterable, Sequence
+from pathlib import Path
+
+from netloop.loop_result import LoopResult
+from netloop.report.bode_plot import bode_figure, verdict_title
+from netloop.report.figure import as_results, loop_name, render
+from netloop.report.notation import NONE, db, deg, eng
+from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase
+from netloop.report.nyquist_plot import nyquist_figure
+from netloop.report.text import format_text, requirement_text, verdict_line
+
+__all__ = ["TEMPLATE_DIR", "render_html", "write_html"]
+
+TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
+TEMPLATE = "report.html.j2"
+
+
+def _environment():
+    import jinja2  # noqa: PLC0415 - lazy, like matplotlib
+
+    return jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(TEMPLATE_DIR)),
+        undefined=jinja2.StrictUndefined,
+        autoescape=True,
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+
+
+def _png_uri(fig) -> str:
+    return "data:image/png;base64," + base64.b64encode(render(fig, "png")).decode("ascii")
+
+
+def _kv(label: str, value: str, cls: str = "") -> dict:
+    return {"label": label, "value": value, "cls": cls}
+
+
+def _cell(text: str, cls: str = "num") -> dict:
+    return {"text": text, "cls": cls, "link": ""}
+
+
+def _anchor(index: int, result: LoopResult) -> str:
+    slug = re.sub(r"[^a-z0-9]+", "-", f"{result.label or result.breaks.node}".lower()).strip("-")
+    return f"loop-{index}-{slug}" if slug else f"loop-{index}"
+
+
+def _summary(r: LoopResult) -> list[dict]:
+    a = r.analysis
+    pm = a.margins.phase_margin_deg
+    classes = {"worst phase margin": "" if pm is None else ("ok" if pm > 0 else "bad")}
+    rows = [
+        _kv("classification", a.classification, "ok" if a.classification == "stable" else "bad"),
+        _kv("DC loop gain", db(a.dc_gain_db)),
+    ]
+    return rows + [_kv(label, value, classes.get(label, "")) for label, value in margin_phrases(a)]
+
+
+def _gain_rows(r: LoopResult) -> list[list[dict]]:
+    rows = []
+    for c in r.analysis.gain_crossovers:
+        rows.append([
+            _cell(eng(c.freq_hz, "Hz")),
+            _cell(c.direction, ""),
+            _cell(deg(c.phase_deg)),
+            _cell(deg(c.phase_margin_deg), "num " + ("ok" if c.phase_margin_deg > 0 else "bad")),
+            _cell(db(c.peaking_db)),
+            _cell(eng(c.delay_margin_s, "s") if c.delay_margin_s is not None else NONE),
+        ])
+    return rows
+
+
+def _phase_rows(r: LoopResult) -> list[list[dict]]:
+    rows = []
+    for c in r.analysis.phase_crossovers:
+        rows.append([
+            _cell("DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")),
+            _cell(c.kind, ""),
+            _cell(f"{c.phase_deg:.0f} deg"),
+            _cell(db(c.gain_db)),
+            _cell(db(c.gain_margin_db)),
+        ])
+    return rows
+
+
+def _closed_loop(r: LoopResult) -> list[dict]:
+    a = r.analysis
+    n = a.nyquist
+    rows = [_kv(label, value, "estimate" if "estimate" in value.lower() else "") for label, value in closed_loop_phrases(a)]
+    rows.append(_kv("Nyquist", nyquist_phrase(a), "ok" if n.stable else "bad"))
+    if not n.reliable:
+        rows.append(_kv("Nyquist count doubtful", " ".join(n.reasons) or "the data cannot support the count", "bad"))
+    return rows
+
+
+def _breaks(r: LoopResult) -> list[dict]:
+    b = r.breaks
+    rows = [
+        _kv("netlist", r.netlist),
+        _kv("node", b.node),
+        _kv("method", r.method),
+        _kv("driver side", f"{b.side_a}: {', '.join(b.driver_terminals) or NONE}"),
+        _kv("load side", f"{b.side_b}: {', '.join(b.load_terminals) or NONE}"),
+    ]
+    if b.shunt_terminals:
+        rows.append(_kv("shunt only (either side)", ", ".join(b.shunt_terminals)))
+    rows.append(_kv("decided by", b.decided_by or NONE))
+    if b.silenced_sources:
+        rows.append(_kv("silenced sources", ", ".join(b.silenced_sources) + " (AC magnitude 0 in the probe deck)"))
+    if b.copied_subcircuits:
+        rows.append(_kv("copied subcircuits", ", ".join(f"{o} -> {c}" for o, c in b.copied_subcircuits)))
+    return rows
+
+
+def _simulation(r: LoopResult) -> list[dict]:
+    s = r.sim
+    return [
+        _kv("backend", s.backend),
+        _kv("frequency points", str(s.points)),
+        _kv("refinement", f"{s.refinement_rounds} round(s); " + ("phase margin settled" if s.refined else "phase margin NOT settled"),
+            "" if s.refined else "bad"),
+        _kv("convergence aid", s.convergence_aid or "none needed"),
+        _kv("probe deck", s.deck_path or "not kept"),
+        _kv("simulation time", f"{s.seconds:.2f} s"),
+    ]
+
+
+def _loop(index: int, r: LoopResult, results: Sequence[LoopResult], plots: bool) -> dict:
+    a = r.analysis
+    heading = f"{loop_name(r, results)}: {Path(r.netlist).name}" if len(results) > 1 else f"Loop broken at {r.breaks.node}"
+    ignored = a.ignored_phase_crossovers
+    return {
+        "anchor": _anchor(index, r),
+        "heading": heading,
+        "verdict": verdict_line(r),
+        "verdict_class": "pass" if r.passed else "fail",
+        "summary": _summary(r),
+        "plots": [
+            {"uri": _png_uri(bode_figure(r)), "alt": f"Bode plot of the loop broken at {r.breaks.node}"},
+            {"uri": _png_uri(nyquist_figure(r)), "alt": f"Nyquist plot of the loop broken at {r.breaks.node}"},
+        ] if plots else [],
+        "gain_head": ["frequency", "direction", "phase", "phase margin", "|T/(1+T)| there", "delay margin"],
+        "gain_rows": _gain_rows(r),
+        "no_gain": "None: the loop gain never reaches 0 dB (the loop does not regulate)." if not a.regulates
+        else "None inside the sweep.",
+        "phase_head": ["frequency", "kind", "phase", "|T|", "gain margin"],
+        "phase_rows": _phase_rows(r),
+        "ignored_note": (f"{len(ignored)} phase crossover(s) below the numerical floor ({db(a.floor_db)}) ignored: the phase is noise there."
+                         if ignored else ""),
+        "closed_loop": _closed_loop(r),
+        "requirements": [
+            {"text": o.requirement.text, "status": "PASS" if o.passed else "FAIL", "cls": "ok" if o.passed else "bad",
+             "detail": requirement_text(o)}
+            for o in r.requirements
+        ],
+        "breaks": _breaks(r),
+        "warnings": list(r.warnings),
+        "ignored_statements": list(r.ignored_statements),
+        "simulation": _simulation(r),
+        "text": format_text(r),
+    }
+
+
+def _overview(results: Sequence[LoopResult], plots: bool) -> dict:
+    rows = []
+    for i, r in enumerate(results):
+        m = r.analysis.margins
+        first = _cell(loop_name(r, results), "")
+        first["link"] = _anchor(i, r)
+        rows.append({"cells": [
+            first,
+            _cell("PASS" if r.passed else "FAIL", "ok" if r.passed else "bad"),
+            _cell(r.analysis.classification, ""),
+            _cell(deg(m.phase_margin_deg)),
+            _cell(eng(m.unity_gain_hz, "Hz")),
+            _cell(db(m.gain_margin_db)),
+            _cell(db(m.lower_gain_margin_db)),
+            _cell(f"{m.modulus_margin:.3f}"),
+        ]})
+    passed = sum(r.passed for r in results)
+    return {
+        "head": ["loop", "verdict", "classification", "phase margin", "crossover", "gain margin", "lower GM", "min |1+T|"],
+        "rows": rows,
+        "verdict": f"{'PASS' if passed == len(results) else 'FAIL'}: {passed} of {len(results)} loop(s) pass",
+        "verdict_class": "pass" if passed == len(results) else "fail",
+        "plots": [
+            {"uri": _png_uri(bode_figure(results)), "alt": "Bode plots of all loops"},
+            {"uri": _png_uri(nyquist_figure(results)), "alt": "Nyquist plots of all loops"},
+        ] if plots else [],
+    }
+
+
+def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None = None, plots: bool = True) -> str:
+    """The HTML page of one loop or several (an overview with overlaid plots, then one section per loop)."""
+    rs = as_results(results)
+    netlists = sorted({r.netlist for r in rs})
+    if title is None:
+        title = f"netloop: {', '.join(Path(n).name for n in netlists)}"
+    subtitle = (verdict_title(rs[0]) + f", loop broken at {rs[0].breaks.node} ({rs[0].method} probe)") if len(rs) == 1 else f"{len(rs)} loops"
+    context = {
+        "title": title,
+        "subtitle": f"{subtitle}; netlist {', '.join(netlists)}",
+        "overview": _overview(rs, plots) if len(rs) > 1 else None,
+        "loops": [_loop(i, r, rs, plots) for i, r in enumerate(rs)],
+        "caution": rs[0].caution,
+    }
+    return _environment().get_template(TEMPLATE).render(**context)
+
+
+def write_html(results: LoopResult | Iterable[LoopResult], path: str | Path, *, title: str | None = None) -> Path:
+    """Write the self-contained HTML report of one loop or several to path (UTF-8); returns the path."""
+    path = Path(path)
+    path.write_text(render_html(results, title=title), encoding="utf-8")
+    return path

@@ -1,0 +1,62 @@
+"""The wording of the figures of one loop, shared by the text summary and the HTML page: (label, value) pairs."""
+
+from __future__ import annotations
+
+from netloop.analysis.results import LoopAnalysis
+from netloop.report.document import worst_crossover
+from netloop.report.notation import db, deg, eng, number, ratio_db
+
+__all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase"]
+
+
+def _at(freq_hz: float | None) -> str:
+    return f" at {eng(freq_hz, 'Hz')}" if freq_hz is not None else ""
+
+
+def margin_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
+    """Worst phase margin, gain margin, lower gain margin (when there is one), modulus and delay margin."""
+    m = a.margins
+    no_pm = "none (the loop does not regulate)" if not a.regulates else "none (no gain crossover in the sweep)"
+    rows = [
+        ("worst phase margin", f"{deg(m.phase_margin_deg)}{_at(m.unity_gain_hz)}" if m.phase_margin_deg is not None else no_pm),
+        ("gain margin", f"{db(m.gain_margin_db)}{_at(m.phase_crossover_hz)}" if m.gain_margin_db is not None else "none (no upper phase crossover)"),
+    ]
+    if m.lower_gain_margin_db is not None:
+        rows.append(("lower gain margin", f"{db(m.lower_gain_margin_db)}{_at(m.lower_phase_crossover_hz)} (the gain may fall this much)"))
+    rows.append(("modulus margin", f"{m.modulus_margin:.3f} ({db(ratio_db(m.modulus_margin))}) min |1+T|{_at(m.modulus_freq_hz)}"))
+    rows.append(("delay margin", eng(m.delay_margin_s, "s") if m.delay_margin_s is not None else "none (no crossover with a positive phase margin)"))
+    return rows
+
+
+def closed_loop_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
+    """Closed-loop peaking, |T/(1+T)| at the worst crossover, the second-order estimate and the fitted poles."""
+    p = a.peaking
+    worst = worst_crossover(a)
+    rows = [("closed-loop peaking", f"{db(p.peak_db)} at {eng(p.peak_freq_hz, 'Hz')} (relative to {db(p.reference_db)} in band)")]
+    if worst is not None:
+        rows.append(("|T/(1+T)| at worst crossover", db(worst.peaking_db)))
+    s = a.second_order
+    if s is not None:
+        res = "no resonant peak" if s.resonant_peak_db is None else f"resonant peak {db(s.resonant_peak_db)}"
+        rows.append(("2nd-order ESTIMATE", f"damping {s.damping_ratio:.3f}, Q {s.q:.3f}, overshoot {s.overshoot_pct:.1f} %, {res} (from PM, not measured)"))
+    poles = a.poles
+    if poles is None:
+        rows.append(("closed-loop poles", "not fitted"))
+    else:
+        if poles.dominant_freq_hz is None:
+            dom = "no complex pair"
+        else:
+            dom = f"dominant pair {eng(poles.dominant_freq_hz, 'Hz')}, damping {number(poles.dominant_damping)}, Q {number(poles.dominant_q)}"
+        agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
+        rows.append(("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fit error {poles.fit_error:.2g}) [estimate]"))
+    return rows
+
+
+def nyquist_phrase(a: LoopAnalysis) -> str:
+    """The Nyquist count in one line: N, P, Z and the verdict."""
+    n = a.nyquist
+    word = "stable" if n.stable else "UNSTABLE"
+    text = f"{word}: N = {n.encirclements} clockwise encirclement(s) of -1, P = {n.open_loop_rhp_poles}, Z = N + P = {n.closed_loop_rhp_poles}"
+    if n.origin_poles:
+        text += f" ({n.origin_poles} pole(s) of T at s = 0)"
+    return text

@@ -1,0 +1,51 @@
+"""The HTML report: one self-contained page with embedded plots, names escaped."""
+
+from __future__ import annotations
+
+import base64
+import html
+from html.parser import HTMLParser
+
+from report_loops import make_result, two_stage
+
+from netloop.report import write_html
+
+
+class _Refs(HTMLParser):
+    """Collects tags and every src/href attribute of a page (Python's html.parser)."""
+
+    def __init__(self):
+        super().__init__()
+        self.tags: list[str] = []
+        self.refs: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append(tag)
+        self.refs.extend(value or "" for name, value in attrs if name in ("src", "href"))
+
+
+def test_html_is_self_contained_and_escapes_names(tmp_path, unstable_result):
+    """The page loads nothing from outside (no http(s) or protocol-relative src/href, no script or stylesheet link),
+    embeds PNG plots as data URIs, and escapes a netlist name that looks like markup."""
+    result = make_result(two_stage, netlist="<script>alert(1)</script>.cir", requirements=("pm>=60",))
+    page = write_html(result, tmp_path / "one.html").read_text(encoding="utf-8")
+    refs = _Refs()
+    refs.feed(page)
+    assert not any(r.startswith(("http://", "https://", "//")) for r in refs.refs)
+    assert "script" not in refs.tags and "link" not in refs.tags
+    images = [r for r in refs.refs if r.startswith("data:image/png;base64,")]
+    assert len(images) == 2
+    assert base64.b64decode(images[0].split(",", 1)[1])[:8] == b"\x89PNG\r\n\x1a\n"
+    assert "<script>alert(1)</script>" not in page and "&lt;script&gt;alert(1)&lt;/script&gt;.cir" in page
+    assert "67.03 deg" in page and result.caution in html.unescape(page) and "pm&gt;=60" in page
+
+
+def test_html_of_several_loops_links_each_section(tmp_path, stable_result, unstable_result):
+    """A page of several loops has an overview row linking to each loop's section, and says which fail."""
+    page = write_html([stable_result, unstable_result], tmp_path / "many.html").read_text(encoding="utf-8")
+    refs = _Refs()
+    refs.feed(page)
+    anchors = [r[1:] for r in refs.refs if r.startswith("#")]
+    assert len(anchors) == 2 and all(f'id="{a}"' in page for a in anchors)
+    assert "FAIL: 1 of 2 loop(s) pass" in page
+    assert sum(r.startswith("data:image/png;base64,") for r in refs.refs) == 6

@@ -1,0 +1,88 @@
+"""Bode and Nyquist plots: files of the right type, figures not left open, and the margins written on them."""
+
+from __future__ import annotations
+
+import math
+
+import control
+import numpy as np
+import pytest
+from report_loops import W, make_result
+
+from netloop.report import bode_figure, compress_radius, nyquist_figure, plot_bode, plot_nyquist
+
+PNG = b"\x89PNG\r\n\x1a\n"
+
+
+def _texts(fig) -> list[str]:
+    return [t.get_text() for ax in fig.axes for t in ax.texts]
+
+
+def test_plots_are_written_as_png_and_svg_and_leave_no_figure_open(tmp_path, stable_result, conditional_result):
+    """Each plot writes a PNG (by signature) and an SVG (parsable XML with an svg root), and pyplot holds no figure afterwards."""
+    import xml.etree.ElementTree as ET
+
+    import matplotlib.pyplot as plt
+
+    for plot in (plot_bode, plot_nyquist):
+        png = plot(stable_result, tmp_path / f"{plot.__name__}.png")
+        assert png.read_bytes()[:8] == PNG
+        svg = plot([stable_result, conditional_result], tmp_path / f"{plot.__name__}.svg")
+        assert ET.parse(svg).getroot().tag.endswith("svg")
+    assert plt.get_fignums() == []
+
+
+def test_bode_plot_labels_the_margins_python_control_finds(stable_result):
+    """The Bode plot carries the phase margin and gain margin that python-control computes for the same loop."""
+    s = control.tf("s")
+    loop = 1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8)))
+    gm, pm, _, _, _, _ = control.stability_margins(loop)  # python-control 0.10 stability_margins
+    texts = _texts(bode_figure(stable_result))
+    assert any(t.startswith(f"PM {pm:.2f}°") for t in texts)  # PM 67.03°
+    assert any(t.startswith(f"GM {20 * math.log10(gm):.2f} dB") for t in texts)  # GM 22.28 dB
+
+
+def test_conditional_loop_shows_lower_margins_and_ignored_crossovers_are_marked(conditional_result):
+    """Every phase crossover of the conditionally stable loop gets a label, the lower ones named "lower GM"."""
+    texts = _texts(bode_figure(conditional_result))
+    lower = [c for c in conditional_result.analysis.phase_crossovers if c.kind == "lower"]
+    assert sum(t.startswith("lower GM") for t in texts) == len(lower) == 2
+    assert sum(t.startswith("GM ") for t in texts) == 1
+
+
+def test_ignored_phase_crossover_appears_in_the_legend():
+    """A phase crossover below the numerical floor is drawn greyed and counted in the legend, not labelled as a margin."""
+
+    def deep(f):  # -60 dB, double pole at 10 Hz, pole at 1 MHz: the phase passes -180 deg near 5 kHz at about -168 dB
+        s = 1j * W * np.asarray(f)
+        return 1e-3 / ((1 + s / (W * 10)) ** 2 * (1 + s / (W * 1e6)))
+
+    result = make_result(deep)
+    assert len(result.analysis.ignored_phase_crossovers) == 1 and not result.analysis.phase_crossovers
+    fig = bode_figure(result)
+    legend_texts = [t.get_text() for ax in fig.axes if ax.get_legend() for t in ax.get_legend().get_texts()]
+    assert any("below the -120 dB floor (ignored)" in t for t in legend_texts)
+    assert not any(t.startswith("GM") for t in _texts(fig))
+
+
+def test_nyquist_compression_keeps_angles_and_the_unit_disc():
+    """The compressed radius is the identity inside |T| <= 1, 1 + log10|T|/2 outside, and never changes the angle."""
+    t = np.array([0.5j, -1.0, 10.0 * np.exp(-1j), 1e4 * np.exp(2j)])
+    z = compress_radius(t)
+    assert np.allclose(np.abs(z), [0.5, 1.0, 1.5, 3.0])
+    assert np.allclose(np.angle(z), np.angle(t))
+
+
+def test_nyquist_plot_states_the_count(unstable_result):
+    """The Nyquist plot of the unstable loop states N, P and Z = 2, the count numpy.roots gives for 1 + T."""
+    den = np.polymul(np.polymul([1 / (W * 1e3), 1], [1 / (W * 1e6), 1]), [1 / (W * 2e6), 1])
+    z = int(np.sum(np.roots(den + np.array([0, 0, 0, 1e4])).real > 0))  # numpy.roots of the characteristic polynomial
+    texts = _texts(nyquist_figure(unstable_result))
+    assert any(f"Z = N + P = {z}: UNSTABLE" in t for t in texts)
+
+
+def test_unknown_extension_is_refused(tmp_path, stable_result):
+    """A plot path without .png, .svg or .pdf is refused with a message naming the accepted endings, and nothing is written."""
+    with pytest.raises(ValueError, match=r"\.png, \.svg, \.pdf"):
+        plot_bode(stable_result, tmp_path / "bode.jpeg")
+    assert not (tmp_path / "bode.jpeg").exists()
