@@ -192,7 +192,7 @@ def test_resonance_that_lifts_the_gain_above_unity_again():
     assert [c.direction for c in a.gain_crossovers] == ["down", "up", "down"]
     # a Q = 25 resonance is no smooth loop: 80 points per decade place these within 0.05 deg
     assert [c.phase_margin_deg for c in a.gain_crossovers] == pytest.approx(list(pm), abs=0.05)
-    assert [c.freq_hz * TWO_PI for c in a.gain_crossovers] == pytest.approx(list(w_gc), rel=1e-4)
+    assert [c.freq_hz * TWO_PI for c in a.gain_crossovers] == pytest.approx(list(w_gc), rel=5e-4)
     assert a.margins.phase_margin_deg == pytest.approx(min(pm), abs=0.05)
     # numpy.roots of the characteristic polynomial den + num: no RHP root
     num, den = loop.num[0][0], loop.den[0][0]
