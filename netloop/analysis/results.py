@@ -275,6 +275,13 @@ class LoopAnalysis:
         return self.nyquist.stable
 
     @property
+    def phase_deg(self) -> np.ndarray:
+        """Phase of t in degrees on the branch every margin here was read on (see the module docstring)."""
+        from netloop.analysis.response import anchored_phase_deg  # noqa: PLC0415 - records stay import-light
+
+        return anchored_phase_deg(np.asarray(self.t, dtype=complex), self.nyquist.origin_poles)
+
+    @property
     def classification(self) -> Literal["unstable", "does not regulate", "stable"]:
         """One word for the loop: unstable (by Nyquist), does not regulate (|T| < 1 throughout), or stable."""
         if not self.nyquist.stable:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 
 import control
+import numpy as np
 import pytest
 from analysis_loops import sample
 
@@ -42,3 +43,15 @@ def test_public_surface_is_pinned():
     }  # fmt: skip
     for name in analysis.__all__:
         assert hasattr(analysis, name)
+
+
+def test_phase_property_is_the_branch_the_margins_were_read_on():
+    """LoopAnalysis.phase_deg at the crossover sample reproduces the reported phase; a triple integrator starts near -270."""
+    s = control.tf("s")
+    loop = 50 * (s + 1) ** 2 / s**3 / (s / 100 + 1) ** 2  # conditionally stable, three poles at DC
+    a = analyse(*sample(loop, 1e-3, 1e5), fit_poles=False)
+    assert a.phase_deg[0] == pytest.approx(-270.0, abs=1.0)
+    c = a.gain_crossovers[0]
+    i = int(np.argmin(np.abs(a.freq_hz - c.freq_hz)))
+    assert a.phase_deg[i] == pytest.approx(c.phase_deg, abs=2.0)  # the nearest sample, 1/20 decade away
+    assert 180 - abs(c.phase_deg) == pytest.approx(c.phase_margin_deg)
