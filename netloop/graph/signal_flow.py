@@ -21,8 +21,10 @@ Rules (one per element letter; an edge is ``control node -> output node``):
 - Independent current sources carry no signal (infinite small-signal impedance).
 - Ground, ``.global`` nets and supplies (nets tied to ground through independent V sources) are not
   signal nodes: no edge starts or ends there.
-- An edge from a node to itself (a diode-connected transistor) is dropped: it is a local
-  impedance, not a loop one could break.
+- A diode-connected transistor (gate on drain, base on collector) is a two-terminal device (its
+  current depends on one voltage only): a passive both ways between drain and source (collector
+  and emitter). An edge from a node to itself is dropped: it is a local impedance, not a loop
+  one could break.
 
 Device-wrapper X instances (e.g. sky130's ``sky130_fd_pr__nfet_01v8``) are transistors here, since
 flattening already keeps them as one device with the device's pin roles; other X instances are
@@ -127,6 +129,10 @@ def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str]) -> l
 
     if kind in _TRANSISTOR:
         at = dict(zip(pins, nodes))
+        control, output = _TRANSISTOR[kind][0], _T_OUTPUTS[kind][0]
+        if control in at and at.get(control) == at.get(output):  # diode-connected: a two-terminal device
+            both((at[p], p) for p in (output, _T_OUTPUTS[kind][1]) if p in at)
+            return out
         controls = [(at[p], p) for p in _TRANSISTOR[kind] if p in at]
         outputs = [(at[p], p) for p in _T_OUTPUTS[kind] if p in at]
         for a, pa in controls:

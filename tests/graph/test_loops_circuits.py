@@ -1,0 +1,70 @@
+"""Loop discovery on the bundled demo circuits, against the loops and break nodes each netlist's header describes."""
+
+from __future__ import annotations
+
+from netloop.graph import flatten
+from netloop.graph.loops import find_loops
+from netloop.netlist import parse_file
+
+
+def _groups(path):
+    return find_loops(flatten(parse_file(path))).groups
+
+
+def test_miller_buffer_breaks_at_out(circuits):
+    """The Miller buffer has one loop group whose best break is out, which opens every loop including the Cc/Rz local loop."""
+    # Reference: circuits/miller_buffer.cir header ("Break it at out"), and the Miller local loop M6 with Cc/Rz by construction.
+    (group,) = _groups(circuits / "miller_buffer.cir")
+    assert group.best.node == "out" and group.best.opens_all
+    assert any(set(lp.elements) == {"m6", "cc", "rz"} for lp in group.loops)
+    assert "nbias" not in group.nodes
+
+
+def test_sky130_miller_buffer_treats_device_wrappers_as_transistors(circuits):
+    """In the sky130 Miller buffer (X device wrappers) the loops pass the wrappers as transistors and the best break is out."""
+    # Reference: circuits/sky130/miller_buffer.cir has the topology of circuits/miller_buffer.cir (its header).
+    (group,) = _groups(circuits / "sky130" / "miller_buffer.cir")
+    (plain,) = _groups(circuits / "miller_buffer.cir")
+    assert group.best.node == "out"
+    assert sorted(lp.describe().replace("xm", "m") for lp in group.loops) == sorted(lp.describe() for lp in plain.loops)
+
+
+def test_ldo_breaks_at_fb(circuits):
+    """The LDO's best break is the divider tap fb: on every loop, driven by R1 alone, loading only the gate of M1."""
+    # Reference: circuits/ldo.cir header ("Break it at fb; the driver is the divider R1/R2, the load side is the gate of M1").
+    (group,) = _groups(circuits / "ldo.cir")
+    best = group.best
+    assert (best.node, best.opens_all, best.drivers, best.loads) == ("fb", True, ("r1",), ("m1.g",))
+    assert {"vout", "gate"} <= {c.node for c in group.candidates if c.opens_all}
+
+
+def test_hierarchical_readout_has_one_group_per_channel(circuits):
+    """The two-channel readout has two groups, inside Xa1 and Xa2, with out1 and out2 best and fb2 a candidate of channel 2."""
+    # Reference: circuits/hier/top.cir header (channel 1 loop at out1 or xa1.o1; channel 2 at fb2 or xa2.o1; nbias not a loop node).
+    g1, g2 = _groups(circuits / "hier" / "top.cir")
+    assert g1.best.node == "out1" and "xa1.o1" in g1.nodes and not any(n.startswith("xa2.") for n in g1.nodes)
+    assert g2.best.node == "out2" and {"fb2", "xa2.o1"} <= set(g2.nodes)
+    fb2 = next(c for c in g2.candidates if c.node == "fb2")
+    # fb2 leaves only the Miller local loop of Xa2 closed (by construction: M6 with Cc/Rz inside the block)
+    assert [set(g2.loops[k - 1].elements) for k in fb2.left_closed] == [{"xa2.m6", "xa2.cc", "xa2.rz"}]
+    assert all("nbias" not in g.nodes for g in (g1, g2))
+
+
+def test_shared_bias_has_two_independent_groups(circuits):
+    """Two buffers on one bias line are two groups broken at outa and outb; nbias is on no loop."""
+    # Reference: circuits/testbench/shared_bias.cir header (loop a at outa, loop b at outb, nbias NOT a loop node).
+    ga, gb = _groups(circuits / "testbench" / "shared_bias.cir")
+    assert (ga.best.node, gb.best.node) == ("outa", "outb")
+    assert "nbias" not in ga.nodes + gb.nodes
+
+
+def test_fd_amp_joins_differential_and_common_mode_loops(circuits):
+    """The fully differential amplifier's DM loops (through Rf1/Rf2) and CM loop (through cmfb) form one group with no node on all."""
+    # Reference: circuits/fd_amp_cmfb.cir header (DM loop outn -> Rf1 -> xp -> M1, outp -> Rf2 -> xn -> M2;
+    # CM loop outp/outn -> Rcm -> cm -> M6 -> ctail -> M7 -> cmfb -> M3/M4).
+    (group,) = _groups(circuits / "fd_amp_cmfb.cir")
+    loops = [set(lp.nodes) for lp in group.loops]
+    assert {"outn", "xp"} in loops and {"outp", "xn"} in loops
+    assert {"outn", "cm", "ctail", "cmfb"} in loops and {"outp", "cm", "ctail", "cmfb"} in loops
+    assert not any(c.opens_all for c in group.candidates)
+    assert group.best.left_closed  # a single break leaves some loop closed, and says which

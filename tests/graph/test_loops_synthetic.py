@@ -1,0 +1,166 @@
+"""Loop discovery on synthetic netlists whose loops are known by construction."""
+
+from __future__ import annotations
+
+import math
+from itertools import permutations
+
+import networkx as nx
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from netloop.graph import flatten
+from netloop.graph.loops import find_loops
+from netloop.netlist import parse_text
+
+
+def _stage(src: str, dst: str, tag: str) -> str:
+    """A transconductance stage: current gm*v(src) into dst, which has 1k to ground: signal flows src -> dst only."""
+    return f"G{tag} 0 {dst} {src} 0 1m\n"
+
+
+def _deck(edges, extra: str = "") -> str:
+    text = "synthetic loops (invented)\n"
+    for k, (a, b) in enumerate(edges):
+        text += _stage(a, b, f"_{a}_{b}_{k}")
+    for n in sorted({n for e in edges for n in e}):
+        text += f"R_{n} {n} 0 1k\n"
+    return text + extra + ".end\n"
+
+
+def _found(text: str, **kw):
+    return find_loops(flatten(parse_text(text)), **kw)
+
+
+def _cycles(group) -> set[frozenset]:
+    return {frozenset(lp.nodes) for lp in group.loops}
+
+
+def test_nested_loops_share_a_group_and_the_common_nodes_open_both():
+    """An outer loop a->b->c->a with an inner loop b->c->b nested in it: one group, two loops, b and c open both."""
+    # Reference: by construction, the loops of this netlist are exactly {a,b,c} and {b,c}.
+    found = _found(_deck([("a", "b"), ("b", "c"), ("c", "a"), ("c", "b")]))
+    (group,) = found.groups
+    assert _cycles(group) == {frozenset("abc"), frozenset("bc")}
+    assert {c.node for c in group.candidates if c.opens_all} == {"b", "c"}
+    a = next(c for c in group.candidates if c.node == "a")
+    assert a.left_closed and not a.opens_all
+    assert group.best.node in ("b", "c")
+
+
+def test_independent_amplifiers_are_separate_groups():
+    """Three loops that share no node and cannot reach one another are three groups, each with its own best break."""
+    # Reference: by construction, three disjoint two-stage loops.
+    edges = [(f"x{k}", f"y{k}") for k in range(3)] + [(f"y{k}", f"x{k}") for k in range(3)]
+    found = _found(_deck(edges))
+    assert [set(g.nodes) for g in found.groups] == [{"x0", "y0"}, {"x1", "y1"}, {"x2", "y2"}]
+    assert all(len(g.loops) == 1 and g.best.opens_all for g in found.groups)
+
+
+def test_local_loop_inside_a_global_loop_is_listed_and_named_as_left_closed():
+    """A local loop around one stage of a global loop: a node of the global loop only leaves the local loop closed."""
+    # Reference: by construction, global loop a->b->c->d->a and local loop c->e->c around the stage at c.
+    found = _found(_deck([("a", "b"), ("b", "c"), ("c", "d"), ("d", "a"), ("c", "e"), ("e", "c")]))
+    (group,) = found.groups
+    assert _cycles(group) == {frozenset("abcd"), frozenset("ce")}
+    assert group.best.node == "c" and group.best.opens_all
+    a = next(c for c in group.candidates if c.node == "a")
+    closed = [group.loops[k - 1] for k in a.left_closed]
+    assert [set(lp.nodes) for lp in closed] == [{"c", "e"}]
+
+
+def test_loops_through_subcircuit_pins_carry_hierarchical_names():
+    """A loop closed through three instances of a two-stage block passes their pins and their internal nodes by hierarchical name."""
+    # Reference: by construction, x1 (a->b), x2 (b->c), x3 (c->a), each through its own internal node mid.
+    text = """hierarchical loop (invented)
+.subckt blk in out
+G1 0 mid in 0 1m
+R1 mid 0 1k
+G2 0 out mid 0 1m
+R2 out 0 1k
+.ends blk
+X1 a b blk
+X2 b c blk
+X3 c a blk
+.end
+"""
+    (group,) = _found(text).groups
+    (loop,) = group.loops
+    assert set(loop.nodes) == {"a", "x1.mid", "b", "x2.mid", "c", "x3.mid"}
+    assert set(loop.elements) == {"x1.g1", "x1.g2", "x2.g1", "x2.g2", "x3.g1", "x3.g2"}
+    assert group.best.node in ("a", "b", "c")  # top-level pins before nodes inside an instance
+
+
+def test_large_rc_mesh_adds_no_loops_and_its_separators_are_break_points():
+    """A loop through a 2-section RC ladder with a 20x20 RC mesh hanging on it: one loop, ladder nodes open it, mesh nodes do not."""
+    # Reference: by construction, the mesh hangs on one node (it closes no loop); the ladder is the only way back.
+    text = _deck([("a", "b")]) .replace(".end\n", "")
+    text += "Rl1 b l1 1k\nCl1 l1 0 1p\nRl2 l1 l2 1k\nCl2 l2 0 1p\n" + _stage("l2", "a", "back")
+    for r in range(20):
+        for c in range(20):
+            if c < 19:
+                text += f"Rh{r}_{c} g{r}_{c} g{r}_{c + 1} 1\n"
+            if r < 19:
+                text += f"Rv{r}_{c} g{r}_{c} g{r + 1}_{c} 1\n"
+    text += "Rtap l1 g0_0 1\n.end\n"
+    (group,) = _found(text).groups
+    (loop,) = group.loops
+    assert loop.describe() == "b -rl1-> l1 -rl2-> l2 -gback(cp>n)-> a -g_a_b_0(cp>n)-> b"  # starts at the first node in circuit order
+    assert set(loop.opened_by) == {"a", "b", "l1", "l2"}
+
+
+def test_mesh_between_two_ports_opens_only_at_its_ends_when_it_has_parallel_paths():
+    """A loop returning through a 2x2 resistor square (two parallel paths): only the square's two ends open it."""
+    # Reference: by construction, every inner node of the square has a parallel path around it.
+    text = _deck([("a", "p")]).replace(".end\n", "")
+    text += "R1 p u 1k\nR2 u q 1k\nR3 p w 1k\nR4 w q 1k\n" + _stage("q", "a", "back") + ".end\n"
+    (group,) = _found(text).groups
+    assert set(group.loops[0].opened_by) == {"a", "p", "q"}
+
+
+def _complete(n: int) -> str:
+    return _deck([(f"n{i}", f"n{j}") for i, j in permutations(range(n), 2)])
+
+
+def test_loop_count_of_a_complete_graph_and_the_cap():
+    """Every stage feeding every other among 5 nodes gives sum C(5,k)(k-1)! loops; a lower cap stops there and says so."""
+    # Reference: the number of elementary cycles of length k in the complete digraph on n vertices is
+    # C(n,k)(k-1)! (combinatorics, from memory): for n = 5 that is 10+20+30+24 = 84.
+    expected = sum(math.comb(5, k) * math.factorial(k - 1) for k in range(2, 6))
+    (group,) = _found(_complete(5)).groups
+    assert len(group.loops) == expected and not group.capped
+    bounded = _found(_complete(5), length_bound=3)
+    assert len(bounded.groups[0].loops) == math.comb(5, 2) + 2 * math.comb(5, 3)
+    capped = _found(_complete(5), max_loops=10)
+    assert len(capped.groups[0].loops) == 10 and capped.groups[0].capped
+    assert any("more than 10 loops" in note for note in capped.notes)
+    assert "capped" in capped.groups[0].best.reason or not capped.groups[0].best.opens_all
+
+
+@settings(max_examples=25, deadline=None, derandomize=True)
+@given(st.lists(st.tuples(st.integers(0, 6), st.integers(0, 6)), min_size=1, max_size=14))
+def test_random_stage_graphs_match_networkx_cycles(pairs):
+    """For random one-way stage graphs, the loops found are exactly networkx's elementary cycles of that graph, grouped by shared nodes."""
+    # Reference: networkx 3 simple_cycles on the digraph the netlist was built from (by construction each G stage is one edge).
+    edges = sorted({(f"n{a}", f"n{b}") for a, b in pairs if a != b})
+    if not edges:
+        return
+    found = _found(_deck(edges))
+    got = sorted(sorted(lp.nodes) for g in found.groups for lp in g.loops)
+    want = sorted(sorted(c) for c in nx.simple_cycles(nx.DiGraph(edges)))
+    assert got == want
+    for g in found.groups:
+        assert set(g.nodes) == {n for lp in g.loops for n in lp.nodes}
+        for c in g.candidates:
+            assert c.opens_all == all(c.node in lp.nodes for lp in g.loops)
+
+
+def test_bad_bounds_are_refused():
+    """A length bound below 2 or a cap below 1 is refused."""
+    # Reference: by construction (a loop has at least two nodes).
+    flat = flatten(parse_text(_complete(3)))
+    with pytest.raises(ValueError):
+        find_loops(flat, length_bound=1)
+    with pytest.raises(ValueError):
+        find_loops(flat, max_loops=0)
