@@ -17,7 +17,7 @@ damping = st.floats(min_value=0.1, max_value=1.0)
 
 @st.composite
 def rational_loops(draw, rhp_poles: int):
-    """(num, den, P): a strictly proper loop with stable poles, rhp_poles real poles in the RHP, maybe an integrator."""
+    """(num, den, P, features): strictly proper, stable poles plus rhp_poles real RHP poles, maybe an integrator or a DC zero."""
     den = np.array([1.0])
     features = []
     for _ in range(draw(st.integers(1, 3))):
@@ -32,10 +32,15 @@ def rational_loops(draw, rhp_poles: int):
         w = 10 ** draw(log_mag)
         features.append(w)
         den = np.polymul(den, [1 / w, -1.0])
-    if rhp_poles == 0 and draw(st.booleans()):
-        den = np.polymul(den, [1.0, 0.0])  # an integrator
+    integrator = rhp_poles == 0 and draw(st.booleans())
+    if integrator:
+        den = np.polymul(den, [1.0, 0.0])
     num = np.array([1.0])
-    for _ in range(draw(st.integers(0, min(2, len(den) - 2)))):
+    if not integrator and len(den) > 2 and draw(st.booleans()):
+        w = 10 ** draw(log_mag)
+        features.append(w)
+        num = np.polymul(num, [1 / w, 0.0])  # a zero at DC: an AC-coupled (band-pass) loop
+    for _ in range(draw(st.integers(0, min(2, len(den) - len(num) - 1)))):
         w = 10 ** draw(log_mag)
         features.append(w)
         num = np.polymul(num, [1 / w, draw(st.sampled_from([1.0, -1.0]))])
