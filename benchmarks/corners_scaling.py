@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import argparse
 import logging
+import os
 import statistics
 import tempfile
 import time
@@ -61,21 +62,28 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         plan = Path(tmp) / "bench.toml"
         plan.write_text(PLAN.format(netlist=ROOT / "circuits" / "miller_buffer.cir", ppd=args.ppd))
-        results = {}
-        for workers in (1, 2):
-            runs = [timed_run(plan, workers, Path(tmp) / f"r{workers}.jsonl") for _ in range(args.repeat)]
-            results[workers] = min(runs, key=lambda r: r[0])
+        load_before = os.getloadavg()[0]
+        runs: dict[int, list] = {1: [], 2: []}
+        for _ in range(args.repeat):  # alternate, so a change in the machine's load hits both counts alike
+            for workers in (1, 2):
+                runs[workers].append(timed_run(plan, workers, Path(tmp) / f"r{workers}.jsonl"))
+        results = {w: min(r, key=lambda x: x[0]) for w, r in runs.items()}
         wall1, rec1 = results[1]
         wall2, rec2 = results[2]
         n = len(rec1)
         sim = statistics.fmean(r["sim_seconds"] for r in rec1)
         task = statistics.fmean(r["seconds"] for r in rec1)
-        print(f"{n} corners of circuits/miller_buffer.cir, points per decade {args.ppd}, best of {args.repeat}")
+        print(f"{n} corners of circuits/miller_buffer.cir, points per decade {args.ppd}, best of {args.repeat}; "
+              f"{os.cpu_count()} CPUs, load average {load_before:.2f} before and {os.getloadavg()[0]:.2f} after (other work on the machine lowers the ratio)")
         print(f"1 worker : {wall1:.3f} s  ({wall1 / n * 1e3:.1f} ms per corner)")
         print(f"2 workers: {wall2:.3f} s  ({wall2 / n * 1e3:.1f} ms per corner)")
         print(f"speed-up 2 workers / 1 worker: {wall1 / wall2:.2f}x (target >= 1.8x)")
         print(f"per corner on 1 worker: ngspice {sim * 1e3:.1f} ms (SimInfo.seconds), "
               f"in-worker total {task * 1e3:.1f} ms, wall {wall1 / n * 1e3:.1f} ms")
+        spread = {}
+        for r in rec2:
+            spread[r["worker"]] = spread.get(r["worker"], 0) + 1
+        print(f"corners per worker on 2 workers: {sorted(spread.values(), reverse=True)}")
         print(f"time per corner beyond ngspice's own: {(wall1 / n - sim) * 1e3:.1f} ms "
               f"(netlist + probe + analysis in the worker {(task - sim) * 1e3:.1f} ms, Dask and journal {(wall1 / n - task) * 1e3:.1f} ms)")
 

@@ -78,6 +78,9 @@ def counts_line(records: tuple[dict, ...]) -> str:
     v = [verdict(r) for r in records]
     parts = [f"{v.count('pass') + v.count('no crossover')} pass", f"{v.count('fail')} fail a requirement",
              f"{v.count('unstable')} unstable", f"{v.count('error')} error (not measured)"]
+    corners, nodes = len({r["corner"] for r in records}), len({r["at"] for r in records})
+    if nodes > 1:
+        return f"{len(records)} loops measured ({corners} corners at {nodes} break nodes): " + ", ".join(parts)
     return f"{len(records)} corner{'s' if len(records) != 1 else ''}: " + ", ".join(parts)
 
 

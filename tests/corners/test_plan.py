@@ -32,6 +32,14 @@ def test_bundled_example_plan_reads_and_every_corner_applies():
     assert [t.corner.name for t in tasks][-2:] == ["slow-hot-small-cc", "fast-cold-low-supply"]
 
 
+def test_bundled_readout_plan_measures_each_corner_at_both_channels():
+    """circuits/plans/readout_corners.toml: four explicit corners of the hierarchical readout, each at out1 and fb2."""
+    plan = load_plan(ROOT / "circuits" / "plans" / "readout_corners.toml")
+    tasks = check_plan(plan)
+    assert [(t.corner.name, t.at) for t in tasks][:2] == [("typical", "out1"), ("typical", "fb2")]
+    assert len(tasks) == 8
+
+
 def test_product_is_every_combination_in_axis_order(tmp_path):
     """The product holds each combination once (itertools.product is the reference), last axis fastest, names from the values."""
     plan = load_plan(_plan(tmp_path, '[axes]\nlib = ["tt", "ss"]\ntemp = [-40, 27, 125]\nsupply.vdd = [3.0, 3.6]\n'))
