@@ -7,6 +7,8 @@ from collections.abc import Mapping
 from types import MappingProxyType
 from typing import TYPE_CHECKING
 
+from netloop.netlist.reader import gc_paused
+
 if TYPE_CHECKING:
     import networkx as nx
 
@@ -24,7 +26,11 @@ def connectivity_graph(circuit: FlatCircuit) -> nx.MultiGraph:
     """
     import networkx as nx
 
-    g = nx.MultiGraph()
+    with gc_paused():  # a graph of a large circuit is millions of acyclic dicts: no collector passes
+        return _build(nx.MultiGraph(), circuit)
+
+
+def _build(g: nx.MultiGraph, circuit: FlatCircuit) -> nx.MultiGraph:
     g.add_nodes_from(circuit.nets)
     edges = []
     for name, kind, nodes, pins in zip(circuit.names, circuit.kinds, circuit.element_nodes, circuit.element_pins):
