@@ -58,9 +58,11 @@ class GainCrossover:
     peaking_db         20 log10(peaking_exact).
     peaking_small_angle  the small-angle approximation 1 / |PM in radians|, linear (``inf`` at 0).
     delay_margin_s     the smallest pure delay that would put -1 on the curve at this crossover:
-                       ((phase_deg + 180) mod 360, in radians) / (2 pi freq_hz). For a "down"
-                       crossover this is PM / omega. None when phase_margin_deg <= 0 (an extra
-                       delay is then no longer a margin).
+                       ((phase_deg + 180) mod 360, in radians) / (2 pi freq_hz). With the
+                       phase in (-180, 0], the usual case, this is PM / omega; with phase lead
+                       (e.g. the low crossing of an AC-coupled loop) the delay must turn the
+                       phase the long way round and is larger. None when phase_margin_deg <= 0
+                       (an extra delay is then no longer a margin).
     """
 
     freq_hz: float
