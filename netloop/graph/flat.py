@@ -10,6 +10,7 @@ from types import MappingProxyType
 from typing import TYPE_CHECKING
 
 from netloop.errors import UnknownNodeError
+from netloop.netlist.cards import controlling_sources
 from netloop.netlist.model import Element
 
 if TYPE_CHECKING:
@@ -56,6 +57,12 @@ class FlatElement:
     @property
     def is_wrapped_device(self) -> bool:
         return self.subcircuit is not None
+
+    @property
+    def controlling_sources(self) -> tuple[str, ...]:
+        """Hierarchical names of the voltage sources whose current controls this F, H or W element."""
+        prefix = "".join(p + "." for p in self.path)
+        return tuple(prefix + v for v in controlling_sources(self.element))
 
 
 @dataclass(frozen=True, slots=True)

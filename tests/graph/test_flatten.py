@@ -117,3 +117,11 @@ def test_flattening_matches_ngspice_expanded_listing(tmp_path):
     for fe in flat.elements:
         got = theirs[fe.name][: len(fe.nodes)]
         assert got == fe.nodes, fe.name
+
+
+def test_controlling_sources_get_hierarchical_names():
+    """An F or H inside a subcircuit names the flattened sense source of its own instance."""
+    flat = flatten(parse_text("t\n.subckt mirror a b\nVs a m 0\nRm m 0 1k\nF1 b 0 Vs 2\n.ends\nX1 p q mirror\nX2 r s mirror\n"))
+    assert flat.element("x2.f1").controlling_sources == ("x2.vs",)
+    assert "x2.vs" in flat.names
+    assert flat.element("x1.rm").controlling_sources == ()
