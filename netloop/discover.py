@@ -8,9 +8,8 @@ from os import PathLike
 import numpy as np
 
 from netloop.errors import ProbeError
-from netloop.graph import flatten
-from netloop.graph.loop_records import LoopDiscovery, LoopGroup
-from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS, find_loops
+from netloop.graph import LoopDiscovery, LoopGroup, find_loops, flatten
+from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.loop_result import LoopResult
 from netloop.measure import load_netlist, measure
 from netloop.netlist import Netlist

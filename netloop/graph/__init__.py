@@ -2,5 +2,23 @@
 
 from netloop.graph.flat import FlatCircuit, FlatElement, Net, Terminal
 from netloop.graph.flatten import flatten
+from netloop.graph.loop_records import BreakCandidate, Loop, LoopDiscovery, LoopGroup, Step
+from netloop.graph.loops import find_loops
+from netloop.graph.signal_flow import FlowEdge, signal_flow_graph, signal_nodes
 
-__all__ = ["FlatCircuit", "FlatElement", "Net", "Terminal", "flatten"]
+__all__ = [
+    "BreakCandidate",
+    "FlatCircuit",
+    "FlatElement",
+    "FlowEdge",
+    "Loop",
+    "LoopDiscovery",
+    "LoopGroup",
+    "Net",
+    "Step",
+    "Terminal",
+    "find_loops",
+    "flatten",
+    "signal_flow_graph",
+    "signal_nodes",
+]

@@ -23,24 +23,31 @@ from netloop.graph.signal_flow import CONTROL_PINS, element_edges
 if TYPE_CHECKING:
     from netloop.graph.flat import FlatCircuit
 
-__all__ = ["rank_candidates"]
+__all__ = ["rank_candidates", "touching"]
 
 
 def _numbers(nums: tuple[int, ...]) -> str:
     return ", ".join(str(n) for n in nums)
 
 
-def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: frozenset[str]):
+def touching(circuit: FlatCircuit, nodes: set[str] | frozenset[str]) -> dict[str, list[int]]:
+    """For each of ``nodes``, the positions of the elements with a terminal on it (one pass over the circuit)."""
+    out: dict[str, list[int]] = {n: [] for n in nodes}
+    for i, ns in enumerate(circuit.element_nodes):
+        for n in ns:
+            row = out.get(n)
+            if row is not None and (not row or row[-1] != i):
+                row.append(i)
+    return out
+
+
+def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: frozenset[str], elements: list[int]):
     """(drivers, loads, single, high_z, low_z) of a node, counting only edges inside the group."""
     active_in: dict[str, str] = {}
     passive_in: dict[str, str] = {}
     outs: dict[str, str] = {}
-    seen: set[int] = set()
-    for t in circuit.terminals(node):
-        if t.index in seen:
-            continue
-        seen.add(t.index)
-        for e in element_edges(circuit, t.index, signal):
+    for i in elements:
+        for e in element_edges(circuit, i, signal):
             if e.target == node and e.source in group:
                 (passive_in if e.passive else active_in).setdefault(e.element, e.target_pin)
             elif e.source == node and e.target in group:
@@ -57,8 +64,12 @@ def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: froze
     return tuple(drivers), tuple(f"{el}.{pin}" for el, pin in loads.items()), single, high_z, low_z
 
 
-def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: frozenset[str], capped: bool) -> tuple[BreakCandidate, ...]:
-    """Every node that opens at least one of ``loops``, ranked (see the module docstring)."""
+def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: frozenset[str], capped: bool,
+                    elements_at: dict[str, list[int]] | None = None) -> tuple[BreakCandidate, ...]:
+    """Every node that opens at least one of ``loops``, ranked (see the module docstring).
+
+    ``elements_at`` (from ``touching``) may be given for every node of the loops, to save a pass over the circuit.
+    """
     order = {n: i for i, n in enumerate(circuit.nets)}
     group = frozenset(n for lp in loops for n in lp.nodes)
     opened: dict[str, list[int]] = {}
@@ -66,9 +77,11 @@ def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: froze
         for n in lp.opened_by:
             opened.setdefault(n, []).append(k)
     total = len(loops)
+    if elements_at is None:
+        elements_at = touching(circuit, set(opened))
     rows = []
     for node, nums in opened.items():
-        drivers, loads, single, high_z, low_z = _roles(circuit, node, group, signal)
+        drivers, loads, single, high_z, low_z = _roles(circuit, node, group, signal, elements_at[node])
         all_ = len(nums) == total
         left = tuple(k for k in range(1, total + 1) if k not in nums)
         key = (not all_, -len(nums), not single, not high_z, not low_z, node.count("."), order.get(node, 0))

@@ -13,7 +13,7 @@ from __future__ import annotations
 from itertools import islice
 from typing import TYPE_CHECKING
 
-from netloop.graph.break_points import rank_candidates
+from netloop.graph.break_points import rank_candidates, touching
 from netloop.graph.loop_records import Loop, LoopDiscovery, LoopGroup, Step
 from netloop.graph.passive_networks import PassiveNetworks
 from netloop.graph.signal_flow import element_edges, signal_nodes
@@ -41,12 +41,13 @@ def _collect(circuit: FlatCircuit, signal: frozenset[str]):
     ports: set[str] = set()
     kinds, nodes_col = circuit.kinds, circuit.element_nodes
     names = circuit.names
+    pair = nets.pairs.append
     for i in range(len(kinds)):
         nodes = nodes_col[i]
         if kinds[i] in _FAST_PASSIVE and len(nodes) == 2:
             a, b = nodes
             if a != b and a in signal and b in signal:
-                nets.join(a, b, names[i])
+                pair((a, b, names[i]))
             continue
         for e in element_edges(circuit, i, signal):
             if e.passive:
@@ -159,9 +160,10 @@ def find_loops(circuit: FlatCircuit, *, length_bound: int = DEFAULT_LENGTH_BOUND
     groups = []
     found.sort(key=lambda f: min(order.get(n, 0) for lp in f[0] for n in lp.nodes))
     coupled: dict[int, list[int]] = {}
+    elements_at = touching(circuit, {n for loops, _, _ in found for lp in loops for n in lp.nodes})
     for index, (loops, capped, component) in enumerate(found, 1):
         nodes = tuple(sorted({n for lp in loops for n in lp.nodes}, key=lambda n: order.get(n, 0)))
-        cands = rank_candidates(circuit, loops, signal, capped)
+        cands = rank_candidates(circuit, loops, signal, capped, elements_at)
         groups.append(LoopGroup(index, nodes, loops, capped, cands))
         if component is not None:
             coupled.setdefault(component, []).append(index)
