@@ -222,6 +222,10 @@ class _Reader:
                     for skipped, _ln, is_raw in it:
                         if not is_raw and skipped[:5].lower() == ".endl":
                             break
+                    else:
+                        raise NetlistSyntaxError(
+                            f".lib {path}: a library section with no .endl; to read a section of a file write .lib FILE SECTION",
+                            SourceLocation(file, ln, len(text) + 2), text)
                     continue
                 self._include("lib", os.path.abspath(os.path.join(base_dir, os.path.expanduser(path))), section.split()[0].lower(), loc)
                 body = self.stack[-1].body

@@ -217,6 +217,7 @@ def test_syntax_error_shows_file_line_column_and_caret():
         ("t\nE1 o 0 POLY(2) a 0\n", "expected 4 controlling nodes"),
         ("t\nX1 a b sub\n.subckt sub p\n.ends\n", "has 1 pins"),
         ("t\nR1 a=1 b 1\n", "expected a node name"),
+        ("t\n.lib models.lib\nR1 a 0 1\n", "section with no .endl"),
     ],
 )
 def test_malformed_lines(text, expected):
