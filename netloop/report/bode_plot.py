@@ -166,7 +166,8 @@ def bode_figure(results: LoopResult | Iterable[LoopResult]):
     ax_ph.set_xlim(float(f_all.min()), float(f_all.max()))
     mag_lo, mag_hi = _limits([t[:, 3] for t in tables], 20.0, 5.0, 0.0, _DEEPEST_DB)
     ax_mag.set_ylim(mag_lo, mag_hi)
-    ph_lo, ph_hi = _limits([t[:, 4] for t in tables], 45.0, 10.0, -180.0)
+    refs = [np.array([_odd_180(c.phase_deg) for r in rs for c in r.analysis.gain_crossovers] or [-180.0])]
+    ph_lo, ph_hi = _limits([t[:, 4] for t in tables] + refs, 45.0, 10.0, -180.0)  # room for every margin arrow
     ax_ph.set_ylim(ph_lo, ph_hi)
 
     ax_mag.axhline(0.0, color="black", lw=1.0, zorder=2)
@@ -184,8 +185,10 @@ def bode_figure(results: LoopResult | Iterable[LoopResult]):
     if single:
         a = rs[0].analysis
         mag_labels, ph_labels = _single_annotations(ax_mag, ax_ph, rs[0], tables[0][:, 0])
-        mag_marks = tuple((c.freq_hz, 0.0) for c in a.gain_crossovers)
-        ph_marks = tuple((c.freq_hz if c.freq_hz > 0 else float(a.freq_hz[0]), c.phase_deg) for c in a.phase_crossovers)
+        f = tables[0][:, 0]
+        mag_marks = tuple((c.freq_hz, 0.0) for c in a.gain_crossovers) + tuple(zip(f, tables[0][:, 3]))
+        ph_marks = tuple((c.freq_hz if c.freq_hz > 0 else float(f[0]), c.phase_deg) for c in a.phase_crossovers)
+        ph_marks += tuple(zip(f, tables[0][:, 4]))  # labels keep clear of the curve too
         fig.canvas.draw()  # final layout, so that axes sizes are known to the label placer
         for ax, labels, marks in ((ax_mag, mag_labels, mag_marks), (ax_ph, ph_labels, ph_marks)):
             box = ax.get_window_extent()

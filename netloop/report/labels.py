@@ -45,17 +45,26 @@ def place_labels(ax, labels: list[Label], width_pt: float, height_pt: float, avo
     for lab in sorted(labels, key=lambda lab: (lab.x, -lab.y)):
         fx, fy = _to_fraction(ax, lab.x, lab.y)
         width = (len(lab.text) * _CHAR_PT + 8.0) / width_pt
-        left = fx > 1.0 - width - 2 * gap
-        x0 = fx - gap - width if left else fx + gap
-        y = min(max(fy, line_h / 2 + 0.01), 1 - line_h / 2 - 0.01)
-        target = y
-        for step in range(40):
-            candidates = [target - (step // 2 + 1) * line_h * 0.55 * (1 if step % 2 else -1)] if step else [target]
-            y = candidates[0]
-            if not (line_h / 2 <= y <= 1 - line_h / 2):
+        prefer_left = fx + gap + width > 0.995
+        sides = (prefer_left, not prefer_left)
+        start = min(max(fy, line_h / 2 + 0.01), 1 - line_h / 2 - 0.01)
+        choice = None
+        for step in range(60):
+            y = start + (step + 1) // 2 * line_h * 0.5 * (1 if step % 2 else -1)
+            if not line_h / 2 <= y <= 1 - line_h / 2:
                 continue
-            if all(x0 + width < a or x0 > b or y - line_h / 2 > d or y + line_h / 2 < c for a, b, c, d in placed):
+            for left in sides:
+                x0 = fx - gap - width if left else fx + gap
+                if x0 < 0.005 or x0 + width > 0.995:
+                    continue
+                if all(x0 + width < a or x0 > b or y - line_h / 2 > d or y + line_h / 2 < c for a, b, c, d in placed):
+                    choice = (left, x0, y)
+                    break
+            if choice:
                 break
+        if choice is None:  # crowded: keep it by its point
+            choice = (prefer_left, fx - gap - width if prefer_left else fx + gap, start)
+        left, x0, y = choice
         placed.append((x0, x0 + width, y - line_h / 2, y + line_h / 2))
         moved = abs(y - fy) > line_h * 0.6
         ax.annotate(

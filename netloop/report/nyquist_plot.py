@@ -5,7 +5,8 @@ A point T = r e^{j theta} is drawn at r' e^{j theta} with r' = r for r <= 1 (the
 above 1 adds half a unit of radius, so an 80 dB loop spans three units and the unit disc a third
 of the picture). Rings mark the true |T| = 1, 10, 100, ... The curve for positive
 frequencies is solid with arrows in the direction of increasing frequency; its mirror image
-(negative frequencies, T(-jw) = conj T(jw)) is dashed. For one loop the margins are drawn too:
+(negative frequencies, T(-jw) = conj T(jw)) is dashed. For one loop the margins are drawn too,
+with their values in the legend below the plot (labels inside would crowd the neighbourhood of -1):
 each phase margin as an arc of the unit circle from -1 to the gain crossover, each gain margin as
 a segment of the negative real axis from the phase crossover to -1, and the modulus margin as the
 segment from -1 to the nearest point of the curve.
@@ -22,7 +23,8 @@ import numpy as np
 from netloop.loop_result import LoopResult
 from netloop.report.bode_plot import CURVE, GM_LOWER, GM_UPPER, PM_BAD, PM_OK, verdict_title
 from netloop.report.figure import COLOURS, as_results, loop_name, new_figure, save
-from netloop.report.labels import Label, place_labels
+from netloop.report.notation import eng
+from netloop.report.phrases import origin_phrase
 from netloop.report.samples import sample_table
 
 __all__ = ["compress_radius", "nyquist_figure", "plot_nyquist"]
@@ -30,6 +32,7 @@ __all__ = ["compress_radius", "nyquist_figure", "plot_nyquist"]
 _RING = "#9a9a9a"
 _MAX_RINGS = 14
 _ARROWS = 7
+_MAX_ENTRIES = 10
 
 
 DECADE = 0.5
@@ -93,43 +96,46 @@ def _t_at(result: LoopResult, freq_hz: float) -> complex:
     return complex(np.interp(x, lx, t.real), np.interp(x, lx, t.imag))
 
 
-def _margins(ax, r: LoopResult) -> tuple[list[Label], list[tuple[float, float]]]:
-    """Draw the margins of one loop; return their labels and the marker positions labels must keep clear of."""
+def _margins(ax, r: LoopResult) -> list:
+    """Draw the margins of one loop (arcs, segments, the modulus line); return their legend entries, worst marked."""
+    from matplotlib.lines import Line2D  # noqa: PLC0415
+
     a = r.analysis
     m = a.margins
-    labels: list[Label] = [Label(-1.0, 0.0, "-1", "#c62828", True)]
-    marks: list[tuple[float, float]] = [(-1.0, 0.0)]
+    entries = []
     for c in a.gain_crossovers:
         colour = PM_OK if c.phase_margin_deg > 0 else PM_BAD
         ref = 180.0 * (2 * round((c.phase_deg + 180.0) / 360.0) - 1)
         theta = np.radians(np.linspace(ref, c.phase_deg, 60))
         ax.plot(np.cos(theta), np.sin(theta), color=colour, lw=3.0, alpha=0.8, zorder=5, solid_capstyle="butt")
         ax.plot([math.cos(math.radians(c.phase_deg))], [math.sin(math.radians(c.phase_deg))], "o", color=colour, ms=5, zorder=6)
-        mid = math.radians((ref + c.phase_deg) / 2)
-        bold = m.unity_gain_hz is not None and c.freq_hz == m.unity_gain_hz
-        labels.append(Label(math.cos(mid), math.sin(mid), f"PM {c.phase_margin_deg:.2f}°", colour, bold))
-        marks.append((math.cos(math.radians(c.phase_deg)), math.sin(math.radians(c.phase_deg))))
+        worst = " (worst)" if len(a.gain_crossovers) > 1 and c.freq_hz == m.unity_gain_hz else ""
+        entries.append(Line2D([], [], color=colour, lw=3.0, marker="o", ms=5,
+                              label=f"PM {c.phase_margin_deg:.2f}° @ {eng(c.freq_hz, 'Hz')}{worst}: arc of |T| = 1 from -1"))
     for c in a.phase_crossovers:
         colour = GM_UPPER if c.kind == "upper" else GM_LOWER
         x = -float(compress_radius(10 ** (c.gain_db / 20.0)).real)
         ax.plot([x, -1.0], [0.0, 0.0], color=colour, lw=3.0, alpha=0.8, zorder=5, solid_capstyle="butt")
         ax.plot([x], [0.0], "s", color=colour, ms=5, zorder=6)
-        stable_lower = c.kind == "lower" and a.stable
-        text = f"lower GM {c.gain_db:.2f} dB" if stable_lower else f"GM {c.gain_margin_db:.2f} dB"
-        bold = c.freq_hz in (m.phase_crossover_hz, m.lower_phase_crossover_hz)
-        labels.append(Label((x - 1.0) / 2, 0.0, text, colour, bold))
-        marks.append((x, 0.0))
+        text = f"lower GM {c.gain_db:.2f} dB" if c.kind == "lower" and a.stable else f"GM {c.gain_margin_db:.2f} dB"
+        where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
+        entries.append(Line2D([], [], color=colour, lw=3.0, marker="s", ms=5, label=f"{text} @ {where}: segment to -1"))
     z = compress_radius(_t_at(r, m.modulus_freq_hz))
     ax.plot([-1.0, z.real], [0.0, z.imag], color="#00838f", lw=1.2, ls="--", zorder=5)
-    labels.append(Label(float(z.real), float(z.imag), f"min |1+T| = {m.modulus_margin:.3f}", "#00838f"))
-    return labels, marks
+    entries.append(Line2D([], [], color="#00838f", lw=1.2, ls="--", label=f"min |1+T| = {m.modulus_margin:.3f} @ {eng(m.modulus_freq_hz, 'Hz')}"))
+    if len(entries) > _MAX_ENTRIES:
+        more = len(entries) - _MAX_ENTRIES + 1
+        entries = entries[: _MAX_ENTRIES - 1] + [Line2D([], [], color="none", label=f"... and {more} more (see the report)")]
+    return entries
 
 
 def _verdict(r: LoopResult) -> str:
     n = r.analysis.nyquist
     text = f"N = {n.encirclements}, P = {n.open_loop_rhp_poles}, Z = N + P = {n.closed_loop_rhp_poles}: {'stable' if n.stable else 'UNSTABLE'}"
-    if n.origin_poles:
-        text += f"\n{n.origin_poles} pole(s) of T at s = 0: the closure at infinity is not drawn"
+    if n.origin_poles > 0:
+        text += f"\n{origin_phrase(n.origin_poles)}: the closure at infinity is not drawn"
+    elif n.origin_poles < 0:
+        text += f"\n{origin_phrase(n.origin_poles)}"
     if not n.reliable:
         text += "\ncount doubtful: " + (n.reasons[0] if n.reasons else "see the report")
     return text
@@ -148,7 +154,7 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
 
     rs = as_results(results)
     single = len(rs) == 1
-    fig = new_figure(8.0, 8.4)
+    fig = new_figure(8.0, 9.0)
     ax = fig.subplots()
     curves = [compress_radius(_smooth(r)) for r in rs]
     radius = max(1.25, max(float(np.max(np.abs(z))) for z in curves) * 1.06)
@@ -185,8 +191,11 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
             for c in r.analysis.gain_crossovers:
                 ax.plot([math.cos(math.radians(c.phase_deg))], [math.sin(math.radians(c.phase_deg))], "o", color=colour, ms=5, zorder=6)
     handles.append(Line2D([], [], color="#777777", lw=1.1, ls="--", label="mirror image, w < 0"))
-    labels, marks = _margins(ax, rs[0]) if single else ([Label(-1.0, 0.0, "-1", "#c62828", True)], [(-1.0, 0.0)])
+    if single:
+        handles += _margins(ax, rs[0])
     ax.plot([-1.0], [0.0], "P", color="#c62828", ms=11, mec="white", mew=0.8, zorder=8)
+    ax.annotate("-1", xy=(-1.0, 0.0), xytext=(-6, -6), textcoords="offset points", ha="right", va="top", fontsize=10,
+                color="#c62828", fontweight="bold", zorder=8)
 
     ax.set_xlim(-radius, radius)
     ax.set_ylim(-radius, radius)
@@ -196,17 +205,11 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
     ax.tick_params(labelsize=9)
     ax.set_xlabel("Re T   (radius compressed beyond |T| = 1: drawn at 1 + log10|T| / 2, rings give the true |T|)", fontsize=8.5)
     ax.set_ylabel("Im T   (same compressed radius)", fontsize=8.5)
-    if single:
-        ax.legend(handles=handles, fontsize=8, loc="upper right", framealpha=0.9)
-    else:
-        fig.legend(handles=handles, fontsize=8, loc="outside lower center", ncols=2, framealpha=0.9)
+    fig.legend(handles=handles, fontsize=8, loc="outside lower center", ncols=2, framealpha=0.9)
     if single:
         ax.text(0.015, 0.985, _verdict(rs[0]), transform=ax.transAxes, ha="left", va="top", fontsize=8.5,
                 bbox={"boxstyle": "round,pad=0.3", "facecolor": "#f7f7f7", "edgecolor": "#cccccc"}, zorder=9)
     fig.suptitle(_title(rs), fontsize=11)
-    fig.canvas.draw()  # final layout, so that the axes size is known to the label placer
-    box = ax.get_window_extent()
-    place_labels(ax, labels, box.width * 72.0 / fig.dpi, box.height * 72.0 / fig.dpi, tuple(marks))
     return fig
 
 

@@ -6,7 +6,7 @@ from netloop.analysis.results import LoopAnalysis
 from netloop.report.document import worst_crossover
 from netloop.report.notation import db, deg, eng, number, ratio_db
 
-__all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase"]
+__all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase", "origin_phrase"]
 
 
 def _at(freq_hz: float | None) -> str:
@@ -58,5 +58,12 @@ def nyquist_phrase(a: LoopAnalysis) -> str:
     word = "stable" if n.stable else "UNSTABLE"
     text = f"{word}: N = {n.encirclements} clockwise encirclement(s) of -1, P = {n.open_loop_rhp_poles}, Z = N + P = {n.closed_loop_rhp_poles}"
     if n.origin_poles:
-        text += f" ({n.origin_poles} pole(s) of T at s = 0)"
+        text += f" ({origin_phrase(n.origin_poles)})"
     return text
+
+
+def origin_phrase(origin_poles: int) -> str:
+    """ "2 pole(s) of T at s = 0 (integrators)" or, for a negative count, "1 zero(s) of T at s = 0 (AC coupling)"."""
+    if origin_poles > 0:
+        return f"{origin_poles} pole(s) of T at s = 0 (integrators)"
+    return f"{-origin_poles} zero(s) of T at s = 0 (AC coupling)"
