@@ -1,4 +1,10 @@
-"""Present a corner run: the worst-first table, summary counts, CSV rows, JUnit XML and the JSON document."""
+"""Present a corner run from its journal records: the worst-first table, counts, CSV rows, JUnit XML and the JSON document.
+
+netloop.report.corners presents CornerOutcome objects, which hold LoopResult records; a resumed
+run has only the JSON lines of the corners finished earlier, so this module reads the records
+instead, with the same verdicts (error, unstable, fail, pass), the same worst-first order and the
+same JUnit failure and error types.
+"""
 
 from __future__ import annotations
 
@@ -12,7 +18,7 @@ from netloop.report.notation import NONE, db, deg, eng
 
 __all__ = ["corner_table", "counts_line", "run_document", "verdict", "worst_first", "write_corner_csv", "write_junit"]
 
-_RANK = {"error": 0, "unstable": 1, "fail": 2, "no crossover": 3, "pass": 4}
+_RANK = {"error": 0, "unstable": 1, "fail": 2, "pass": 3}
 
 
 def _margins(r: dict) -> dict:
@@ -20,17 +26,12 @@ def _margins(r: dict) -> dict:
 
 
 def verdict(r: dict) -> str:
-    """One word or two for a record: "pass", "fail" (a requirement), "unstable", "no crossover" or "error" (not measured)."""
+    """"error" (not measured), "unstable" (Nyquist count), "fail" (stable, a requirement failed) or "pass"."""
     if r["outcome"] == "error":
         return "error"
-    loop = r["loop"]
-    if not loop["stability"]["stable"]:
+    if not r["loop"]["stability"]["stable"]:
         return "unstable"
-    if r["outcome"] == "fail":
-        return "fail"
-    if loop["classification"] == "does not regulate":
-        return "no crossover"
-    return "pass"
+    return "fail" if r["outcome"] == "fail" else "pass"
 
 
 def failed_requirements(r: dict) -> tuple[str, ...]:
@@ -76,7 +77,7 @@ def corner_table(records: tuple[dict, ...]) -> str:
 def counts_line(records: tuple[dict, ...]) -> str:
     """"12 corners: 9 pass, 2 fail a requirement, 0 unstable, 1 error (not measured)"."""
     v = [verdict(r) for r in records]
-    parts = [f"{v.count('pass') + v.count('no crossover')} pass", f"{v.count('fail')} fail a requirement",
+    parts = [f"{v.count('pass')} pass", f"{v.count('fail')} fail a requirement",
              f"{v.count('unstable')} unstable", f"{v.count('error')} error (not measured)"]
     corners, nodes = len({r["corner"] for r in records}), len({r["at"] for r in records})
     if nodes > 1:
@@ -108,21 +109,22 @@ def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None
     """JUnit XML: one test case per corner (and break node); unstable or a failed requirement is a failure,
     a corner that could not be measured is an error carrying ngspice's message."""
     v = [verdict(r) for r in records]
-    root = ET.Element("testsuites")
-    ts = ET.SubElement(root, "testsuite", name=suite, tests=str(len(records)), failures=str(v.count("fail") + v.count("unstable")),
-                       errors=str(v.count("error")), time=f"{sum(r['seconds'] for r in records):.3f}")
+    counts = {"tests": str(len(records)), "failures": str(v.count("fail") + v.count("unstable")), "errors": str(v.count("error"))}
+    total = f"{sum(r['seconds'] for r in records):.3f}"
+    root = ET.Element("testsuites", name=suite, **counts, time=total)
+    ts = ET.SubElement(root, "testsuite", name=suite, **counts, skipped="0", time=total)
     for r, verdict_ in zip(records, v):
         name = r["corner"] if len({x["at"] for x in records}) == 1 else f"{r['corner']} at {r['at']}"
         tc = ET.SubElement(ts, "testcase", classname=f"netloop.corners.{suite}", name=name, time=f"{r['seconds']:.3f}")
         m = _margins(r)
         if verdict_ == "error":
-            el = ET.SubElement(tc, "error", message=(r.get("error") or "")[:500], type="SimulationError")
+            el = ET.SubElement(tc, "error", message=(r.get("error") or "")[:500], type="simulation")
             el.text = r.get("simulator_output") or r.get("error") or ""
         elif verdict_ in ("fail", "unstable"):
             reasons = [q["reason"] for q in r["loop"]["requirements"] if not q["passed"]]
             if verdict_ == "unstable":
                 reasons.insert(0, "the loop is unstable by the Nyquist count")
-            el = ET.SubElement(tc, "failure", message="; ".join(reasons)[:500], type=verdict_)
+            el = ET.SubElement(tc, "failure", message="; ".join(reasons)[:500], type="unstable" if verdict_ == "unstable" else "requirement")
             el.text = "\n".join(reasons)
         out = ET.SubElement(tc, "system-out")
         out.text = (f"phase margin {deg(m.get('phase_margin_deg'))}, gain margin {_gm(r)}, crossover {eng(m.get('unity_gain_hz'), 'Hz')}; "
@@ -132,16 +134,20 @@ def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None
 
 
 def run_document(run) -> dict:
-    """The JSON document of a run: schema "netloop.corners/1", counts, passed, and every record (worst first)."""
+    """The JSON document of a run, in the shape of netloop.report.corner_document (schema "netloop.corners/1":
+    corners with label, verdict, error, loop; counts per verdict; passed) plus each record's break node,
+    settings, timing and worker, and the plan, results file and how many corners ran now. Corners worst first."""
     v = [verdict(r) for r in run.records]
+    corners = [{"label": r["corner"], "verdict": verdict(r), "error": r["error"], "loop": r["loop"],
+                **{k: r[k] for k in ("at", "netlist", "settings", "key", "seconds", "sim_seconds", "worker", "simulator_output")}}
+               for r in worst_first(run.records)]
     return {
         "schema": SCHEMA,
         "plan": run.plan,
         "results_file": run.results_path,
-        "passed": run.passed,
-        "counts": {"corners": len(run.records), "pass": v.count("pass") + v.count("no crossover"), "fail": v.count("fail"),
-                   "unstable": v.count("unstable"), "error": v.count("error")},
         "ran": run.ran,
         "skipped": run.skipped,
-        "corners": [{**r, "verdict": verdict(r)} for r in worst_first(run.records)],
+        "corners": corners,
+        "counts": {k: v.count(k) for k in ("error", "unstable", "fail", "pass")},
+        "passed": run.passed,
     }

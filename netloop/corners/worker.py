@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-import inspect
 import os
 import socket
 import time
 import traceback
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from netloop.corners.apply import apply_settings
 from netloop.corners.expand import Task
@@ -70,11 +69,9 @@ def _record(task: Task, at: str, started: float, *, loop: dict | None = None, ou
 def _measure_all(netlist, options: TaskOptions, simulator) -> list:
     from netloop.discover import measure_all_loops  # the lead's loop discovery; "auto" needs it
 
-    kwargs = dict(driver=options.driver, method=options.method, sweep=options.sweep,
-                  open_loop_rhp_poles=options.open_loop_rhp_poles, requirements=options.requirements)
-    if "simulator" in inspect.signature(measure_all_loops).parameters:
-        kwargs["simulator"] = simulator
-    results, _notes = measure_all_loops(netlist, **kwargs)
+    results, _notes = measure_all_loops(netlist, driver=options.driver, method=options.method, sweep=options.sweep,
+                                        open_loop_rhp_poles=options.open_loop_rhp_poles, requirements=options.requirements,
+                                        simulator=simulator, timeout_s=options.timeout_s)
     return list(results)
 
 
@@ -100,6 +97,6 @@ def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
         return (_record(task, task.at, started, outcome="error", error=f"internal error: {exc!r}", output=traceback.format_exc()),)
     records = []
     for r in results:
-        doc = to_document(r)
+        doc = to_document(replace(r, label=task.corner.name))
         records.append(_record(task, r.breaks.node, started, loop=doc, outcome="pass" if r.passed else "fail", sim_seconds=r.sim.seconds))
     return tuple(records)

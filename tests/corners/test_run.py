@@ -89,7 +89,7 @@ def test_cluster_run_matches_direct_measure_and_a_failed_corner_does_not_stop_th
         assert m["unity_gain_hz"] == ref.analysis.margins.unity_gain_hz
         assert (r["outcome"] == "pass") == ref.passed
     # the worst corner leads the JSON document; the counts add up
-    assert doc["corners"][0]["corner"] == "supply-blown"
+    assert doc["corners"][0]["label"] == "supply-blown"
     pms = [c["loop"]["margins"]["phase_margin_deg"] for c in doc["corners"][1:] if c["verdict"] == "fail"]
     assert pms == sorted(pms) and len(pms) == doc["counts"]["fail"] >= 1
     suite = ET.parse(junit).getroot().find("testsuite")
@@ -141,3 +141,20 @@ def test_killed_run_resumes_without_losing_or_repeating_a_corner(tmp_path, sched
     assert len(keys) == len(set(keys)) == 6
     assert final[: len(done)] == done  # the finished corners kept their records and were not run again
     assert len(run.records) == 6
+
+
+def test_automatic_break_nodes_match_loop_discovery_in_one_process(tmp_path, scheduler):
+    """at = "auto" measures every loop that netloop.discover finds, with the same nodes and margins as measure_all_loops here."""
+    from netloop.discover import measure_all_loops
+
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{MILLER}"\nat = "auto"\n\n[axes]\nlib = ["ff"]\n')
+    run = run_plan(load_plan(plan), cluster=scheduler, out=tmp_path / "r.jsonl")
+    hand = tmp_path / "ff.cir"
+    (tmp_path / "models").mkdir()
+    shutil.copy(LIB, tmp_path / "models" / "corners.lib")
+    hand.write_text(MILLER.read_text().replace(".lib models/corners.lib tt", ".lib models/corners.lib ff"))
+    ref, _notes = measure_all_loops(hand)
+    assert [r["at"] for r in run.records] == [x.breaks.node for x in ref]
+    assert [r["loop"]["margins"]["phase_margin_deg"] for r in run.records] == [x.analysis.margins.phase_margin_deg for x in ref]
+    assert all(r["corner"] == "ff" and r["loop"]["label"] == "ff" for r in run.records)
