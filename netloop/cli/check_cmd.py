@@ -37,6 +37,7 @@ def add_measure_options(parser: argparse.ArgumentParser) -> None:
 def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
     parser.add_argument("--at", metavar="NODE", help="the node where the loop is broken (hierarchical names like xamp.n5 allowed); every loop when omitted")
+    parser.add_argument("--at-pair", metavar="P,N", help="break a fully differential node pair and report its differential- and common-mode loops")
     add_measure_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of the text summary")
     parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio as CSV")
@@ -103,6 +104,8 @@ def run(args: argparse.Namespace) -> int:
         requirements=requirements,
         keep_decks=args.keep_decks,
     )
+    if args.at_pair:
+        return run_pair(args, netlist, common)
     if args.at:
         results = [measure(netlist, args.at, **common)]
     else:
@@ -118,3 +121,54 @@ def run(args: argparse.Namespace) -> int:
     else:
         print("\n\n".join(report.format_text(r) for r in results))
     return 0 if all(r.passed for r in results) else 1
+
+
+def coupling_document(coupling) -> dict:
+    """The coupling figures of a node pair as plain data (dB; -inf written as null by the document)."""
+    return {
+        "dm_to_cm_db": coupling.dm_to_cm_db,
+        "cm_to_dm_db": coupling.cm_to_dm_db,
+        "dm_band_hz": coupling.dm_band_hz,
+        "cm_band_hz": coupling.cm_band_hz,
+        "threshold_db": coupling.threshold_db,
+        "coupled": coupling.coupled,
+    }
+
+
+def coupling_line(coupling) -> str:
+    """One line: both coupling figures, their bands and whether they pass the threshold."""
+    from netloop.report.notation import db, eng
+
+    word = "COUPLED" if coupling.coupled else "negligible"
+    return (f"coupling  {word}: DM->CM {db(coupling.dm_to_cm_db)} up to {eng(coupling.dm_band_hz, 'Hz')}, "
+            f"CM->DM {db(coupling.cm_to_dm_db)} up to {eng(coupling.cm_band_hz, 'Hz')} (threshold {db(coupling.threshold_db)})")
+
+
+def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
+    """--at-pair P,N: both loops of a differential pair, text or one JSON document with a part per mode."""
+    from netloop import report
+    from netloop.errors import NetloopError
+    from netloop.measure_pair import measure_pair
+
+    if args.at:
+        raise NetloopError("give either --at NODE or --at-pair P,N, not both")
+    if common.pop("driver"):
+        raise NetloopError("--driver applies to a single node; with --at-pair the drivers of each node are decided from the circuit")
+    pair = measure_pair(netlist, args.at_pair, **common)
+    if args.csv:
+        stem, dot, ext = args.csv.rpartition(".")
+        for mode, r in pair.modes.items():
+            report.write_csv(r, f"{stem}-{mode}.{ext}" if dot else f"{args.csv}-{mode}")
+    results = list(pair.modes.values())
+    if args.plot:
+        report.plot_bode(results, args.plot)
+        report.plot_nyquist(results, nyquist_path(args.plot))
+    if args.report:
+        report.write_html(results, args.report)
+    if args.json:
+        doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
+        print(json.dumps(doc, indent=2, allow_nan=False))
+    else:
+        parts = [f"{mode} mode\n{report.format_text(r)}" for mode, r in pair.modes.items()]
+        print("\n".join(parts) + "\n" + coupling_line(pair.coupling))
+    return 0 if pair.passed else 1

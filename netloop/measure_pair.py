@@ -1,0 +1,246 @@
+"""Both loops of a fully differential circuit, composed once: break a node pair, four runs, DM and CM analysis, coupling.
+
+The pair is broken with netloop.probe.differential (Hurst and Lewis, 1995; the modal quantities
+and each mode's Tian formula are derived in that module's docstring). One SimJob holds the four
+AC runs (dm-series, dm-shunt, cm-series, cm-shunt) on one shared operating point; the sweep is
+widened and refined for both return ratios together (netloop.measure.sample_loops).
+
+Coupling between the modes (exactly zero for matched halves) is read from the signal returned
+around the loop, R = -(V_a1 + I_b2) in the voltage frame (netloop.probe.differential): in the DM
+runs the CM part |R_cd| relative to the DM part |R_dd|, and in the CM runs |R_dc| relative to
+|R_cc|, each as the maximum in dB over the frequencies up to that mode's highest gain crossover
+(the whole sweep when it has none), where the mode's own loop is strong and its margins are set.
+Above ``COUPLING_THRESHOLD_DB`` a warning says the modes couple. The -40 dB default is our
+choice, common practice for "negligible": the other mode's returned signal is under 1 % of the
+mode's own, so its effect on the mode's margins is well under 1 degree.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from os import PathLike
+from pathlib import Path
+
+import numpy as np
+
+from netloop.analysis import middlebrook, parse_requirements, tian
+from netloop.analysis.requirements import Requirement
+from netloop.analysis.results import LoopAnalysis
+from netloop.errors import NetloopError, ProbeError
+from netloop.loop_result import BreakInfo, LoopResult
+from netloop.measure import METHODS, Sweep, _Runner, ignored_lines, load_netlist, sample_loops
+from netloop.netlist import Netlist, write_netlist
+from netloop.probe.differential import MODES, PairProbe, break_pair
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
+
+__all__ = ["COUPLING_THRESHOLD_DB", "Coupling", "PairResult", "measure_pair", "pair_job", "parse_pair"]
+
+COUPLING_THRESHOLD_DB = -40.0
+
+
+@dataclass(frozen=True, slots=True)
+class Coupling:
+    """How strongly the differential and common modes couple at the break (dB, the worst below each crossover).
+
+    ``dm_to_cm_db``: max of 20 log10 |R_cd / R_dd| (CM returned per DM returned) over f <= ``dm_band_hz``.
+    ``cm_to_dm_db``: max of 20 log10 |R_dc / R_cc| (DM returned per CM returned) over f <= ``cm_band_hz``.
+    A band is the mode's highest gain crossover, or the top of the sweep when it has none.
+    -inf (exact zero) is possible for a perfectly matched circuit.
+    """
+
+    dm_to_cm_db: float
+    cm_to_dm_db: float
+    dm_band_hz: float
+    cm_band_hz: float
+    threshold_db: float = COUPLING_THRESHOLD_DB
+
+    @property
+    def coupled(self) -> bool:
+        """True when either direction is above the threshold."""
+        return max(self.dm_to_cm_db, self.cm_to_dm_db) > self.threshold_db
+
+
+@dataclass(frozen=True, slots=True)
+class PairResult:
+    """Both loops of a node pair, each a LoopResult of the single-ended shape, and their coupling."""
+
+    differential: LoopResult
+    common: LoopResult
+    coupling: Coupling
+    nodes: tuple[str, str]
+
+    @property
+    def modes(self) -> Mapping[str, LoopResult]:
+        """{"differential": ..., "common": ...}."""
+        return {"differential": self.differential, "common": self.common}
+
+    @property
+    def stable(self) -> bool:
+        return self.differential.stable and self.common.stable
+
+    @property
+    def passed(self) -> bool:
+        """Both modes stable and every requirement met in both."""
+        return self.differential.passed and self.common.passed
+
+
+def parse_pair(text: str) -> tuple[str, str]:
+    """"OUTP,OUTN" -> ("outp", "outn"); a NetloopError for anything but two different names."""
+    parts = [p.strip().lower() for p in text.split(",")]
+    if len(parts) != 2 or not all(parts):
+        raise ProbeError(f"a node pair is written P,N (two node names and one comma), got {text!r}")
+    if parts[0] == parts[1]:
+        raise ProbeError(f"a node pair needs two different nodes, got {text!r}")
+    return parts[0], parts[1]
+
+
+def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
+    """The simulator job of a differential probe: four AC runs on one operating point, only the probe vectors saved."""
+    source = pair.netlist.source
+    return SimJob(
+        netlist=write_netlist(pair.netlist),
+        runs=tuple(AcRun(name, ac, sweeps) for name, ac in pair.runs),
+        save=pair.save,
+        excitable=pair.sources,
+        label=label,
+        timeout_s=timeout_s,
+        workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
+    )
+
+
+def _mode_ratio(q, method: str) -> np.ndarray:
+    if method == "tian":
+        return tian(q.va1, q.vb1, q.ib2)
+    return middlebrook(q.va1, q.vb1, q.ia2, q.ib2)
+
+
+class _CouplingSamples:
+    """Collects the two coupling ratios of every evaluation, so that they end on the analysis' frequencies."""
+
+    def __init__(self) -> None:
+        self.freq_hz: list[np.ndarray] = []
+        self.dm_to_cm: list[np.ndarray] = []
+        self.cm_to_dm: list[np.ndarray] = []
+
+    def add(self, f: np.ndarray, dm_to_cm: np.ndarray, cm_to_dm: np.ndarray) -> None:
+        self.freq_hz.append(np.asarray(f, dtype=float))
+        self.dm_to_cm.append(np.asarray(dm_to_cm, dtype=float))
+        self.cm_to_dm.append(np.asarray(cm_to_dm, dtype=float))
+
+    def worst_db(self, which: str, band_hz: float) -> float:
+        f = np.concatenate(self.freq_hz)
+        r = np.concatenate(getattr(self, which))
+        inside = r[f <= band_hz * (1 + 1e-12)]
+        worst = float(np.max(inside)) if inside.size else float(np.max(r))
+        return 20.0 * math.log10(worst) if worst > 0 else -math.inf
+
+
+def _band_hz(a: LoopAnalysis) -> float:
+    if a.gain_crossovers:
+        return max(c.freq_hz for c in a.gain_crossovers)
+    return float(a.freq_hz[-1])
+
+
+def _break_info(pair: PairProbe, mode: str) -> BreakInfo:
+    p, n = pair.p, pair.n
+    return BreakInfo(
+        node=f"{p.node},{n.node} ({mode} mode)",
+        side_a=f"{p.side_a},{n.side_a}",
+        side_b=f"{p.side_b},{n.side_b}",
+        driver_terminals=(*p.driver_terminals, *n.driver_terminals),
+        load_terminals=(*p.load_terminals, *n.load_terminals),
+        shunt_terminals=(*p.shunt_terminals, *n.shunt_terminals),
+        decided_by=f"{p.node}: {p.decided_by} {n.node}: {n.decided_by}",
+        silenced_sources=tuple(dict.fromkeys((*p.silenced_sources, *n.silenced_sources))),
+        copied_subcircuits=(*p.copied_subcircuits, *n.copied_subcircuits),
+    )
+
+
+def _rhp(value: int | Mapping[str, int]) -> dict[str, int]:
+    if isinstance(value, Mapping):
+        unknown = set(value) - set(MODES)
+        if unknown:
+            raise NetloopError(f"open_loop_rhp_poles names unknown modes {', '.join(sorted(unknown))}; expected {', '.join(MODES)}")
+        return {m: int(value.get(m, 0)) for m in MODES}
+    return dict.fromkeys(MODES, int(value))
+
+
+def measure_pair(
+    netlist: Netlist | str | PathLike[str],
+    pair: str | tuple[str, str],
+    *,
+    drivers: tuple[str | None, str | None] = (None, None),
+    method: str = "tian",
+    sweep: Sweep = Sweep(),
+    open_loop_rhp_poles: int | Mapping[str, int] = 0,
+    requirements: Iterable[str | Requirement] = (),
+    simulator: Simulator | None = None,
+    keep_decks: str | PathLike[str] | None = None,
+    label: str = "",
+    timeout_s: float = 600.0,
+    coupling_threshold_db: float = COUPLING_THRESHOLD_DB,
+) -> PairResult:
+    """Break the node pair ``pair`` ("outp,outn" or a tuple) and measure its differential- and common-mode loops.
+
+    Takes the arguments of ``measure`` (``requirements`` apply to both modes;
+    ``open_loop_rhp_poles`` is one count for both or a mapping by mode name) and returns a
+    PairResult whose two LoopResults have the single-ended shape.
+    """
+    if method not in METHODS:
+        raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
+    p_node, n_node = parse_pair(pair) if isinstance(pair, str) else parse_pair(",".join(pair))
+    rhp = _rhp(open_loop_rhp_poles)
+    parsed = load_netlist(netlist)
+    reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
+        [r for r in requirements if not isinstance(r, Requirement)]
+    )
+    probe = break_pair(parsed, p_node, n_node, drivers=drivers)
+    samples = _CouplingSamples()
+
+    def ratios(result: SimResult) -> dict[str, np.ndarray]:
+        q = probe.quantities({r.name: dict(r.vectors) for r in result.runs})
+        samples.add(result.runs[0].freq_hz, q.dm_to_cm, q.cm_to_dm)
+        return {"differential": _mode_ratio(q.differential, method), "common": _mode_ratio(q.common, method)}
+
+    own = simulator is None
+    sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    try:
+        runner = _Runner(lambda sweeps: pair_job(probe, sweeps, label=label, timeout_s=timeout_s), ratios, sim)
+        analyses, info, sim_warnings = sample_loops(runner, sweep, rhp)
+    finally:
+        if own and hasattr(sim, "close"):
+            sim.close()
+
+    dm_band, cm_band = _band_hz(analyses["differential"]), _band_hz(analyses["common"])
+    coupling = Coupling(
+        dm_to_cm_db=samples.worst_db("dm_to_cm", dm_band),
+        cm_to_dm_db=samples.worst_db("cm_to_dm", cm_band),
+        dm_band_hz=dm_band,
+        cm_band_hz=cm_band,
+        threshold_db=coupling_threshold_db,
+    )
+    coupling_warning = ()
+    if coupling.coupled:
+        coupling_warning = (
+            f"the differential and common modes couple at {p_node},{n_node}: DM->CM {coupling.dm_to_cm_db:.1f} dB, "
+            f"CM->DM {coupling.cm_to_dm_db:.1f} dB (threshold {coupling.threshold_db:g} dB); the halves are mismatched, "
+            "and each mode's T is measured with the other loop closed",
+        )
+    results = {}
+    for mode in MODES:
+        a = analyses[mode]
+        warnings = (*parsed.warnings, *probe.warnings, *coupling_warning, *sim_warnings[mode], *a.warnings)
+        results[mode] = LoopResult(
+            netlist=parsed.source,
+            label=label,
+            method=method,
+            breaks=_break_info(probe, mode),
+            analysis=a,
+            requirements=tuple(r.check(a) for r in reqs),
+            ignored_statements=ignored_lines(parsed),
+            warnings=tuple(dict.fromkeys(warnings)),
+            sim=info,
+        )
+    return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))
