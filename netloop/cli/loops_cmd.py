@@ -33,6 +33,7 @@ def discovery_document(source: str, found) -> dict:
                     "elements": list(lp.elements),
                     "steps": [{"from": s.source, "to": s.target, "elements": list(s.elements), "pins": list(s.pins), "passive": s.passive} for s in lp.steps],
                     "opened_by": list(lp.opened_by),
+                    "active_steps": lp.active_steps,
                 }
                 for k, lp in enumerate(g.loops, 1)
             ],

@@ -90,19 +90,34 @@ def _lookup(circuit: FlatCircuit, index: int, name: str) -> tuple[str, ...] | No
     return None
 
 
+def _local_nodes(circuit: FlatCircuit, path: tuple[str, ...]) -> dict[str, str]:
+    """Local node name -> flattened net, for the nodes the elements of one instance connect (pins included)."""
+    key = ("local_nodes", path)
+    got = circuit._cache.get(key)
+    if got is None:
+        got = {}
+        for p, original, nodes in zip(circuit.paths, circuit.originals, circuit.element_nodes):
+            if p == path:
+                for local, flat in zip(original.nodes, nodes):
+                    got.setdefault(local, flat)
+        circuit._cache[key] = got
+    return got
+
+
 def _expression_controls(circuit: FlatCircuit, index: int) -> list[tuple[str, str]]:
     """(node, pin label) pairs an expression-valued E/G/B reads."""
     text = " ".join(circuit.originals[index].tokens[2:])
     path = circuit.paths[index]
     prefix = "".join(p + "." for p in path)
     glob = {*circuit.globals, "0", "gnd"}
+    local = _local_nodes(circuit, path) if path else {}
     out = []
     for m in _VREF.finditer(text):
         for node in m.groups():
             if node:
                 node = node.lower()
                 node = "0" if node == "gnd" else node
-                out.append((node if node in glob or not path else prefix + node, "cp"))
+                out.append((node if node in glob or not path else local.get(node, prefix + node), "cp"))
     for m in _IREF.finditer(text):
         nodes = _lookup(circuit, index, m.group(1))
         if nodes:

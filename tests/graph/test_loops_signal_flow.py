@@ -59,3 +59,11 @@ def test_diode_connected_transistor_is_two_terminal():
     # nonlinear resistor of about 1/gm (Razavi, Design of Analog CMOS Integrated Circuits, 2001, ch. 3; from memory).
     g = signal_flow_graph(flatten(parse_text("t\nVdd vdd 0 1\nI1 vdd d 1u\nM1 d d s 0 nch\nRs s 0 1k\n.end\n")))
     assert {(a, b, d["element"], d["passive"]) for a, b, d in g.edges(data=True)} == {("d", "s", "m1", True), ("s", "d", "m1", True)}
+
+
+def test_behavioural_source_inside_an_instance_reads_the_parent_net_of_a_pin():
+    """A B source in a subcircuit that reads v(pin) is controlled by the parent's net on that pin, and by internal nodes by hierarchical name."""
+    # Reference: ngspice manual, subcircuit expansion: a pin is the parent's node, an internal node is local to the instance.
+    text = "t\n.subckt blk in out\nR0 in mid 1k\nB1 out 0 v=v(in)+v(mid)\nR1 out 0 1k\n.ends\nX1 a y blk\nRa a 0 1k\n.end\n"
+    edges = {(a, b) for a, b, d in signal_flow_graph(flatten(parse_text(text))).edges(data=True) if d["element"] == "x1.b1"}
+    assert edges == {("a", "y"), ("x1.mid", "y")}
