@@ -7,7 +7,8 @@
     ├─ SimulationError                                 deck path, simulator output, corner
     │  └─ SimulatorUnavailableError                    how to install ngspice
     ├─ AnalysisError                                   malformed data (not "no crossover")
-    └─ PlanError(ValueError)                           a corner plan or requirement that cannot be read
+    ├─ PlanError(ValueError)                           a corner plan or requirement that cannot be read
+    └─ OutputError(ValueError)                         a report file that cannot be written (format, path)
 
 The CLI catches NetloopError at the boundary, prints ``str(error)`` (one clear message)
 and exits with status 2. A traceback reaching a user is a bug.
@@ -27,6 +28,7 @@ __all__ = [
     "NetlistError",
     "NetlistSyntaxError",
     "NetloopError",
+    "OutputError",
     "PlanError",
     "ProbeError",
     "SimulationError",
@@ -117,3 +119,7 @@ class AnalysisError(NetloopError):
 
 class PlanError(NetloopError, ValueError):
     """A corner plan or a requirement expression that cannot be read; says file:line where it applies."""
+
+
+class OutputError(NetloopError, ValueError):
+    """A report, plot or data file that cannot be written: an unknown format or a path that cannot be opened."""

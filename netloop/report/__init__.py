@@ -6,6 +6,8 @@ text          the terminal summary of one loop, verdict first
 samples       the sampled return ratio as CSV
 corners       CornerOutcome, the corner table worst first, its CSV and JSON
 junit         corner outcomes as JUnit XML
+phrases       the wording of the figures, shared by text and HTML
+files         writing files: OSError -> OutputError
 figure        matplotlib plumbing: lazy import, no pyplot, format by file extension
 labels        non-overlapping margin labels
 bode_plot     Bode plot with every margin drawn

@@ -231,4 +231,4 @@ def _key(ax_mag, ax_ph, r: LoopResult) -> None:
 
 def plot_bode(results: LoopResult | Iterable[LoopResult], path: str | Path) -> Path:
     """Write the Bode plot of one loop (or an overlay of several) to path; PNG, SVG or PDF by its extension."""
-    return save(bode_figure(results), path)
+    return save(bode_figure(results), path, "Bode plot")

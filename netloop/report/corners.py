@@ -22,6 +22,7 @@ from pathlib import Path
 
 from netloop.loop_result import LoopResult
 from netloop.report.document import to_document
+from netloop.report.files import output_file
 from netloop.report.notation import db, deg, eng
 
 __all__ = [
@@ -168,12 +169,12 @@ def _csv_row(o: CornerOutcome) -> list[str]:
 
 def write_corner_csv(outcomes: Iterable[CornerOutcome], path: str | Path) -> Path:
     """Write one row per corner, worst first (columns CORNER_COLUMNS, csv-module quoting); returns the path."""
-    path = Path(path)
-    with path.open("w", newline="", encoding="utf-8") as fh:
+    rows = [_csv_row(o) for o in sort_worst_first(outcomes)]
+    with output_file(path, "corner table") as out, out.open("w", newline="", encoding="utf-8") as fh:
         writer = csv.writer(fh)
         writer.writerow(CORNER_COLUMNS)
-        writer.writerows(_csv_row(o) for o in sort_worst_first(outcomes))
-    return path
+        writer.writerows(rows)
+    return out
 
 
 def corner_document(outcomes: Iterable[CornerOutcome], **extra) -> dict:

@@ -6,7 +6,9 @@ import io
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 
+from netloop.errors import OutputError
 from netloop.loop_result import LoopResult
+from netloop.report.files import output_file
 
 __all__ = ["FORMATS", "as_results", "loop_name", "new_figure", "render", "save"]
 
@@ -26,18 +28,19 @@ def new_figure(width_in: float, height_in: float):
 
 
 def file_format(path: str | Path) -> str:
-    """The plot format named by the path's extension; ValueError naming the accepted ones otherwise."""
+    """The plot format named by the path's extension; OutputError (a ValueError) naming the accepted ones otherwise."""
     suffix = Path(path).suffix.lower().lstrip(".")
     if suffix not in FORMATS:
-        raise ValueError(f"cannot write a plot to {str(path)!r}: expected a file name ending in {', '.join('.' + f for f in FORMATS)}")
+        raise OutputError(f"cannot write a plot to {str(path)!r}: expected a file name ending in {', '.join('.' + f for f in FORMATS)}")
     return suffix
 
 
-def save(fig, path: str | Path) -> Path:
-    """Write the figure to path in the format its extension names; returns the path."""
-    path = Path(path)
-    fig.savefig(path, format=file_format(path), dpi=DPI, metadata=_metadata(file_format(path)))
-    return path
+def save(fig, path: str | Path, what: str = "plot") -> Path:
+    """Write the figure to path in the format its extension names; returns the path (OutputError when it cannot)."""
+    fmt = file_format(path)
+    with output_file(path, what) as out:
+        fig.savefig(out, format=fmt, dpi=DPI, metadata=_metadata(fmt))
+    return out
 
 
 def render(fig, fmt: str) -> bytes:

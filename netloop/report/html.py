@@ -14,6 +14,7 @@ from pathlib import Path
 from netloop.loop_result import LoopResult
 from netloop.report.bode_plot import bode_figure, verdict_title
 from netloop.report.figure import as_results, loop_name, render
+from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
 from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase
 from netloop.report.nyquist_plot import nyquist_figure
@@ -219,6 +220,7 @@ def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None
 
 def write_html(results: LoopResult | Iterable[LoopResult], path: str | Path, *, title: str | None = None) -> Path:
     """Write the self-contained HTML report of one loop or several to path (UTF-8); returns the path."""
-    path = Path(path)
-    path.write_text(render_html(results, title=title), encoding="utf-8")
-    return path
+    page = render_html(results, title=title)
+    with output_file(path, "HTML report") as out:
+        out.write_text(page, encoding="utf-8")
+    return out

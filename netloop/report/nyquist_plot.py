@@ -215,4 +215,4 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
 
 def plot_nyquist(results: LoopResult | Iterable[LoopResult], path: str | Path) -> Path:
     """Write the Nyquist plot of one loop (or an overlay of several) to path; PNG, SVG or PDF by its extension."""
-    return save(nyquist_figure(results), path)
+    return save(nyquist_figure(results), path, "Nyquist plot")

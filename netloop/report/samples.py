@@ -19,6 +19,7 @@ import numpy as np
 
 from netloop.analysis.response import anchored_phase_deg
 from netloop.loop_result import LoopResult
+from netloop.report.files import output_file
 
 __all__ = ["SAMPLE_COLUMNS", "sample_table", "write_csv"]
 
@@ -39,6 +40,7 @@ def sample_table(result: LoopResult) -> np.ndarray:
 
 def write_csv(result: LoopResult, path: str | Path) -> Path:
     """Write the sampled return ratio of one loop to `path` (see the module docstring); returns the path."""
-    path = Path(path)
-    np.savetxt(path, sample_table(result), fmt="%.17g", delimiter=",", header=",".join(SAMPLE_COLUMNS), comments="")
-    return path
+    table = sample_table(result)
+    with output_file(path, "CSV samples") as out:
+        np.savetxt(out, table, fmt="%.17g", delimiter=",", header=",".join(SAMPLE_COLUMNS), comments="")
+    return out

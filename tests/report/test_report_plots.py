@@ -9,7 +9,8 @@ import numpy as np
 import pytest
 from report_loops import W, make_result
 
-from netloop.report import bode_figure, compress_radius, nyquist_figure, plot_bode, plot_nyquist
+from netloop.errors import OutputError
+from netloop.report import bode_figure, compress_radius, nyquist_figure, plot_bode, plot_nyquist, write_csv, write_html
 
 PNG = b"\x89PNG\r\n\x1a\n"
 
@@ -82,7 +83,16 @@ def test_nyquist_plot_states_the_count(unstable_result):
 
 
 def test_unknown_extension_is_refused(tmp_path, stable_result):
-    """A plot path without .png, .svg or .pdf is refused with a message naming the accepted endings, and nothing is written."""
-    with pytest.raises(ValueError, match=r"\.png, \.svg, \.pdf"):
+    """A plot path without .png, .svg or .pdf is an OutputError naming the accepted endings, and nothing is written."""
+    with pytest.raises(OutputError, match=r"\.png, \.svg, \.pdf"):
         plot_bode(stable_result, tmp_path / "bode.jpeg")
     assert not (tmp_path / "bode.jpeg").exists()
+
+
+def test_unwritable_paths_are_one_clear_error(tmp_path, stable_result):
+    """Writing a plot, the samples or the page into a folder that does not exist is an OutputError naming the file."""
+    missing = tmp_path / "no_such_folder"
+    for write, name in ((plot_nyquist, "n.png"), (write_csv, "t.csv"), (write_html, "r.html")):
+        with pytest.raises(OutputError, match=rf"cannot write the .* to '.*{name}'"):
+            write(stable_result, missing / name)
+    assert not missing.exists()
