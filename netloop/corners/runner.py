@@ -16,7 +16,7 @@ from netloop.corners.journal import Journal, default_results_path
 from netloop.corners.plan import AUTO, Plan
 from netloop.corners.progress import Progress
 from netloop.corners.worker import TaskOptions, run_task
-from netloop.errors import NetlistError, PlanError
+from netloop.errors import NetlistError, NetloopError, PlanError
 
 __all__ = ["CornerRun", "check_plan", "dask_client", "run_plan"]
 
@@ -49,6 +49,7 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
         except ImportError as exc:
             raise plan.error("at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes", "at") from exc
     parsed: dict[tuple, object] = {}
+    _check_breaks(plan, corners)
     for c in corners:
         libs = tuple(s for s in c.settings if s.kind == "lib")
         rest = tuple(s for s in c.settings if s.kind not in ("lib", "netlist"))
@@ -64,6 +65,26 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
         except NetlistError as exc:
             raise plan.error(f"corner {c.name!r}: {exc}", line=c.line) from exc
     return tasks_of(plan, corners)
+
+
+def _check_breaks(plan: Plan, corners: tuple[Corner, ...]) -> None:
+    """Break each named node once in each netlist the plan uses (as written): a node that is not there, or cannot
+    be broken, is a PlanError at the ``at`` line instead of one failed corner per corner."""
+    from netloop.measure import load_netlist
+    from netloop.probe import break_loop
+
+    if AUTO in plan.at:
+        return
+    for path in dict.fromkeys(c.netlist for c in corners):
+        try:
+            netlist = load_netlist(path)
+        except NetlistError as exc:
+            raise plan.error(str(exc), "netlist") from exc
+        for node in plan.at:
+            try:
+                break_loop(netlist, node, driver=plan.driver)
+            except NetloopError as exc:
+                raise plan.error(f"cannot break {path} at {node!r}: {exc}", "at") from exc
 
 
 @contextlib.contextmanager

@@ -134,3 +134,11 @@ def test_temperature_replaces_an_existing_temp(tmp_path):
     options = [d.text for d in nl.directives if d.keyword == ".option"]
     assert temps == [".temp -40"]
     assert "temp=" not in options[0] and "reltol=1e-4" in options[0]
+
+
+def test_a_break_node_the_netlist_lacks_is_a_plan_error_at_the_at_line(tmp_path):
+    """A misspelt break node stops the run before any simulation, at the plan's `at` line, with the netlist's suggestion."""
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\nrequire = ["pm>=45"]\nat = "outt"\n')
+    with pytest.raises(PlanError, match=r"plan\.toml:3: .*'outt'.*did you mean 'out'"):
+        check_plan(load_plan(path))

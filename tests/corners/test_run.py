@@ -103,7 +103,8 @@ def test_an_existing_results_file_is_never_overwritten_without_resume_or_force(t
     plan = tmp_path / "plan.toml"
     plan.write_text(PLAN.split("[[corner]]")[0].replace('temp = [-40, 27, 125]', 'temp = [27]'))
     out = tmp_path / "r.jsonl"
-    assert main(["corners", str(plan), "--cluster", scheduler, "--out", str(out)]) in (0, 1)
+    assert main(["corners", str(plan), "--cluster", scheduler, "--out", str(out), "--progress"]) in (0, 1)
+    assert "2/2 corners" in capsys.readouterr().err  # the progress bar, asked for although stderr is not a terminal
     before = out.read_bytes()
     assert main(["corners", str(plan), "--cluster", scheduler, "--out", str(out)]) == 2
     err = capsys.readouterr().err
