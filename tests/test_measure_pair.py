@@ -1,0 +1,215 @@
+"""Both loops of a fully differential circuit through real ngspice: closed forms, coupling, the demo amplifier, the CLI."""
+
+from __future__ import annotations
+
+import json
+import re
+import shutil
+import subprocess
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy.optimize import brentq
+
+from netloop.cli.main import main
+from netloop.measure_pair import COUPLING_THRESHOLD_DB, measure_pair
+from netloop.probe.differential import RUNS
+from netloop.sim import default_simulator
+
+pytestmark = pytest.mark.ngspice
+
+CIRCUITS = Path(__file__).resolve().parent.parent / "circuits"
+
+# Behavioural fully differential loop with Norton outputs (G sources, R, C), values in SI units.
+# Per output k: current GMD/2 (v_fk - v_fj) + GMC v_cm drawn from out_k into RO || CL; RDL across the outputs.
+# DM sense v_fk = GF ZF(s) v_outk, ZF = RF / (1 + s RF CF); CM sense v_cm = GS ZS(s) (v_outp + v_outn), ZS = RSC / (1 + s RSC CS).
+GMD, GMC, RO, CL, RDL = 1e-3, 0.2e-3, 100e3, 10e-12, 200e3
+GF, RF, CF = 1e-3, 1e3, 1e-12
+GS, RSC, CS = 0.5e-3, 1e3, 0.1e-9
+
+
+def norton_netlist(ron: float = RO) -> str:
+    return f"""behavioural fully differential loop, Norton outputs
+vref ref 0 dc 0.5
+gdp outp 0 fp fn {GMD / 2}
+gdn outn 0 fn fp {GMD / 2}
+gcp outp 0 cm ref {GMC}
+gcn outn 0 cm ref {GMC}
+rop outp 0 {RO}
+ron outn 0 {ron!r}
+clp outp 0 {CL}
+cln outn 0 {CL}
+rdl outp outn {RDL}
+gfp 0 fp outp 0 {GF}
+gfn 0 fn outn 0 {GF}
+rfp fp 0 {RF}
+rfn fn 0 {RF}
+cfp fp 0 {CF}
+cfn fn 0 {CF}
+gsp 0 cm outp 0 {GS}
+gsn 0 cm outn 0 {GS}
+rsc cm 0 {RSC}
+csc cm 0 {CS}
+.end
+"""
+
+
+def closed_forms(freq_hz):
+    """T_dm, T_cm of the matched Norton loop, derived by hand on the half circuits (circuit theory).
+
+    DM half (v_outn = -v_outp): the output current GMD ZF GF v_outp into RO || RDL/2 || CL:
+        T_dm = GMD GF ZF Zd,  Zd = (RO || RDL/2) / (1 + s (RO || RDL/2) CL)
+    CM half (v_outn = v_outp, no current in RDL): v_cm = 2 GS ZS v_outp, current GMC v_cm into RO || CL:
+        T_cm = 2 GMC GS ZS Zc,  Zc = RO / (1 + s RO CL)
+    """
+    s = 2j * np.pi * np.asarray(freq_hz, dtype=float)
+    rd = RO * (RDL / 2) / (RO + RDL / 2)
+    zd, zc = rd / (1 + s * rd * CL), RO / (1 + s * RO * CL)
+    zf, zs = RF / (1 + s * RF * CF), RSC / (1 + s * RSC * CS)
+    return GMD * GF * zf * zd, 2 * GMC * GS * zs * zc
+
+
+class Recording:
+    """The default ngspice simulator, keeping every job it ran."""
+
+    def __init__(self):
+        self.inner = default_simulator()
+        self.jobs = []
+        self.backend = getattr(self.inner, "backend", "")
+
+    def run(self, job):
+        self.jobs.append(job)
+        return self.inner.run(job)
+
+    def operating_point(self, netlist):
+        return self.inner.operating_point(netlist)
+
+    def close(self):
+        close = getattr(self.inner, "close", None)
+        if close is not None:
+            close()
+
+
+@pytest.fixture(scope="module")
+def simulator():
+    sim = Recording()
+    yield sim
+    sim.close()
+
+
+def test_matched_loop_gives_the_closed_forms_from_one_four_run_job(simulator, tmp_path):
+    """measure_pair's T_dm and T_cm equal the half-circuit closed forms to 1e-9, every job holds the four runs, and coupling is below -100 dB."""
+    path = tmp_path / "fd.cir"
+    path.write_text(norton_netlist())
+    simulator.jobs.clear()
+    result = measure_pair(path, "outp,outn", simulator=simulator)
+    assert simulator.jobs and all(tuple(r.name for r in job.runs) == RUNS for job in simulator.jobs)
+    for lr, t in zip((result.differential, result.common), closed_forms(result.differential.analysis.freq_hz)):
+        keep = np.abs(t) > 1e-5  # above the numerical floor (netloop.analysis.DEFAULT_FLOOR_DB)
+        np.testing.assert_allclose(lr.analysis.t[keep], t[keep], rtol=1e-9)
+    assert np.array_equal(result.differential.analysis.freq_hz, result.common.analysis.freq_hz)
+    assert result.stable and result.passed
+    assert max(result.coupling.dm_to_cm_db, result.coupling.cm_to_dm_db) < -100.0
+    assert not result.coupling.coupled
+    assert result.coupling.dm_band_hz == max(c.freq_hz for c in result.differential.analysis.gain_crossovers)
+    assert not any("couple" in w for w in result.differential.warnings)
+
+
+def test_mismatched_output_resistor_is_reported_as_coupling(simulator, tmp_path):
+    """A 20 % mismatch of one output resistor lifts the coupling above the -40 dB threshold and both modes warn of it."""
+    path = tmp_path / "fd_mismatch.cir"
+    path.write_text(norton_netlist(ron=1.2 * RO))
+    result = measure_pair(path, ("outp", "outn"), simulator=simulator)
+    # -40 dB: our threshold, common practice for "negligible" (1 % of the mode's own returned signal)
+    assert result.coupling.threshold_db == COUPLING_THRESHOLD_DB == -40.0
+    assert max(result.coupling.dm_to_cm_db, result.coupling.cm_to_dm_db) > -40.0
+    assert result.coupling.coupled
+    for lr in result.modes.values():
+        assert any("couple" in w for w in lr.warnings)
+
+
+def _pz(deck: Path) -> list[complex]:
+    run = subprocess.run(["ngspice", "-b", str(deck)], cwd=deck.parent, capture_output=True, text=True, timeout=120)
+    out = run.stdout + run.stderr
+    poles = [complex(float(a), float(b)) for a, b in re.findall(r"pole\(\d+\) = (\S+),\s*(\S+)", out)]
+    assert poles, out[-1500:]
+    return poles
+
+
+def _pz_poles(tmp_path: Path) -> np.ndarray:
+    """ngspice's own pole-zero analysis of the closed demo amplifier (rad/s): differential drive, then common-mode drive.
+
+    ngspice's .pz gives the poles of one input-output transfer; the modes of a symmetric circuit
+    cancel from the other mode's transfer, so both drives are needed to see the poles of both loops.
+    """
+    shutil.copytree(CIRCUITS / "models", tmp_path / "models")
+    text = (CIRCUITS / "fd_amp_cmfb.cir").read_text()
+    body = text[: text.lower().rindex(".end")]
+    poles = []
+    for name, drive, analysis in (
+        ("dm", None, "pz inp inn outp outn vol pol"),
+        ("cm", ("Vinn inn 0 dc {vcm} ac 1 180", "Vinn inn inp dc 0"), "pz inp 0 outp 0 vol pol"),
+    ):
+        deck_text = body if drive is None else body.replace(*drive)
+        assert drive is None or drive[1] in deck_text
+        deck = tmp_path / f"fd_pz_{name}.cir"
+        deck.write_text(deck_text + f".control\n{analysis}\nprint all\nquit\n.endc\n.end\n")
+        poles += _pz(deck)
+    return np.array(poles)
+
+
+def test_demo_amplifier_modes_agree_with_ngspice_pole_zero(simulator, tmp_path):
+    """On circuits/fd_amp_cmfb.cir both loops are measured and stable, and their closed-loop poles are poles of ngspice's .pz."""
+    result = measure_pair(CIRCUITS / "fd_amp_cmfb.cir", "outp,outn", simulator=simulator)
+    assert result.stable
+    dm, cm = result.differential.analysis, result.common.analysis
+    assert dm.margins.phase_margin_deg > cm.margins.phase_margin_deg > 30.0  # design intent in the netlist's header
+    assert result.coupling.dm_to_cm_db < -100.0 and result.coupling.cm_to_dm_db < -100.0  # matched halves
+    reference = _pz_poles(tmp_path)  # reference: ngspice .pz of the closed circuit
+
+    def nearest(p: complex) -> float:
+        return float(np.min(np.abs(reference - p)) / abs(p))
+
+    # every closed-loop pole of either mode (AAA fit of 1/(1+T), below the sweep top) is an ngspice pole
+    assert len(dm.poles.poles_rad_s) >= 2 and len(cm.poles.poles_rad_s) >= 3
+    assert all(nearest(p) < 1e-3 for p in dm.poles.poles_rad_s)
+    assert all(nearest(p) < 1e-2 for p in cm.poles.poles_rad_s)
+    assert any(p.imag > 0 for p in cm.poles.poles_rad_s)  # the CM loop's dominant complex pair is among them
+
+
+def test_check_at_pair_json_has_a_document_per_mode(tmp_path, capsys):
+    """`netloop check --at-pair P,N --json` prints one document per mode in the single-ended shape, plus the coupling, exit 0."""
+    path = tmp_path / "fd.cir"
+    path.write_text(norton_netlist())
+    assert main(["check", str(path), "--at-pair", "outp,outn", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert set(doc["modes"]) == {"differential", "common"}
+    for mode in doc["modes"].values():
+        assert mode["schema"] == "netloop.loop/1" and mode["passed"] is True
+    assert doc["passed"] is True
+    assert doc["coupling"]["coupled"] is False and doc["coupling"]["threshold_db"] == -40.0
+
+
+def test_check_at_pair_text_labels_both_modes_and_fails_a_requirement(tmp_path, capsys):
+    """The text output labels both modes and the coupling, and a requirement one mode misses gives exit 1."""
+    path = tmp_path / "fd.cir"
+    path.write_text(norton_netlist())
+    margins = []
+    for k in (0, 1):
+        fc = brentq(lambda f: abs(closed_forms(np.array([f]))[k][0]) - 1.0, 1e3, 1e9, rtol=1e-12)
+        margins.append(180.0 + np.degrees(np.angle(closed_forms(np.array([fc]))[k][0])))
+    assert margins[0] > 60.0 > margins[1]  # closed forms: the DM loop meets pm>=60, the CM loop misses it
+    code = main(["check", str(path), "--at-pair", "outp,outn", "--require", "pm>=60"])
+    out = capsys.readouterr().out
+    assert code == 1
+    assert "differential mode\nPASS" in out and "common mode\nFAIL" in out
+    assert "coupling  negligible" in out
+
+
+def test_check_at_pair_rejects_a_malformed_pair(tmp_path, capsys):
+    """A pair that is not two node names is one clear message and exit 2, before any simulation."""
+    path = tmp_path / "fd.cir"
+    path.write_text(norton_netlist())
+    assert main(["check", str(path), "--at-pair", "outp"]) == 2
+    assert "P,N" in capsys.readouterr().err
