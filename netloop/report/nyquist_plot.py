@@ -205,7 +205,7 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
     ax.tick_params(labelsize=9)
     ax.set_xlabel("Re T   (radius compressed beyond |T| = 1: drawn at 1 + log10|T| / 2, rings give the true |T|)", fontsize=8.5)
     ax.set_ylabel("Im T   (same compressed radius)", fontsize=8.5)
-    fig.legend(handles=handles, fontsize=8, loc="outside lower center", ncols=2, framealpha=0.9)
+    ax.legend(handles=handles, fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.075), ncols=2, framealpha=0.9)
     if single:
         ax.text(0.015, 0.985, _verdict(rs[0]), transform=ax.transAxes, ha="left", va="top", fontsize=8.5,
                 bbox={"boxstyle": "round,pad=0.3", "facecolor": "#f7f7f7", "edgecolor": "#cccccc"}, zorder=9)

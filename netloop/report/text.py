@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import textwrap
+
 from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis
 from netloop.loop_result import LoopResult
@@ -11,11 +13,14 @@ from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_
 __all__ = ["format_text", "requirement_text", "verdict_line"]
 
 _WIDTH = 30  # label column
+_LINE = 120  # wrap values beyond this many columns
 _SHOWN_STATEMENTS = 3
 
 
 def _row(label: str, value: str) -> str:
-    return f"{label:<{_WIDTH}}{value}"
+    """A label column and its value, long values wrapped under the value column."""
+    lines = textwrap.wrap(value, _LINE - _WIDTH, break_on_hyphens=False) or [""]
+    return "\n".join([f"{label:<{_WIDTH}}{lines[0]}", *(" " * _WIDTH + line for line in lines[1:])]).rstrip()
 
 
 def verdict_line(result: LoopResult) -> str:
