@@ -154,7 +154,7 @@ def _break_info(pair: PairProbe, mode: str) -> BreakInfo:
         shunt_terminals=(*p.shunt_terminals, *n.shunt_terminals),
         decided_by=f"{p.node}: {p.decided_by} {n.node}: {n.decided_by}",
         silenced_sources=tuple(dict.fromkeys((*p.silenced_sources, *n.silenced_sources))),
-        copied_subcircuits=(*p.copied_subcircuits, *n.copied_subcircuits),
+        copied_subcircuits=pair.copied_subcircuits,
     )
 
 

@@ -129,6 +129,18 @@ def test_mismatched_output_resistor_is_reported_as_coupling(simulator, tmp_path)
         assert any("couple" in w for w in lr.warnings)
 
 
+def test_pair_inside_one_instance_gives_the_same_closed_forms(simulator):
+    """A pair broken inside instance xa of a subcircuit gives the closed forms, and the copy of the definition is reported once."""
+    lines = norton_netlist().splitlines()[1:-1]
+    text = "two instances\n.subckt fdamp\n" + "\n".join(lines) + "\n.ends\nxa fdamp\nxb fdamp\n.end\n"
+    result = measure_pair(text, "xa.outp,xa.outn", simulator=simulator)
+    for lr, t in zip(result.modes.values(), closed_forms(result.differential.analysis.freq_hz)):
+        keep = np.abs(t) > 1e-5
+        np.testing.assert_allclose(lr.analysis.t[keep], t[keep], rtol=1e-9)
+    (original, copy), = result.differential.breaks.copied_subcircuits
+    assert original == "fdamp" and copy != "fdamp"
+
+
 def _pz(deck: Path) -> list[complex]:
     run = subprocess.run(["ngspice", "-b", str(deck)], cwd=deck.parent, capture_output=True, text=True, timeout=120)
     out = run.stdout + run.stderr

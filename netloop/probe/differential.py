@@ -165,6 +165,13 @@ class PairProbe:
         return tuple((name, dict(zip(self.sources, _EXCITATION[name]))) for name in RUNS)
 
     @property
+    def copied_subcircuits(self) -> tuple[tuple[str, str], ...]:
+        """(original, copy in the final netlist) for breaks inside an instance; a copy of a copy counts once."""
+        final = dict(self.n.copied_subcircuits)
+        out = [(original, final.pop(copy, copy)) for original, copy in self.p.copied_subcircuits]
+        return (*out, *final.items())
+
+    @property
     def save(self) -> tuple[str, ...]:
         return (*self.p.vectors.save, *self.n.vectors.save)
 
