@@ -5,6 +5,7 @@
         <testcase classname=SUITE name=CORNER time=SECONDS>
           <failure type="unstable"|"requirement" message=...>details</failure>   a corner that fails
           <error type="simulation" message=...>the error text</error>             a corner with no result
+          <properties><property name="phase_margin_deg" value=.../> ...</properties>   the margins that exist
           <system-out>the text summary of the loop</system-out>
 """
 
@@ -26,6 +27,12 @@ def _case(suite_name: str, o: CornerOutcome) -> ET.Element:
         err = ET.SubElement(case, "error", type="simulation", message=(o.error or "").splitlines()[0] if o.error else "")
         err.text = o.error or ""
         return case
+    props = ET.SubElement(case, "properties")
+    m = o.result.analysis.margins
+    for name in ("phase_margin_deg", "unity_gain_hz", "gain_margin_db", "lower_gain_margin_db", "modulus_margin", "delay_margin_s"):
+        value = getattr(m, name)
+        if value is not None:  # a margin that does not exist is left out
+            ET.SubElement(props, "property", name=name, value=repr(float(value)))
     verdict = o.verdict
     if verdict != "pass":
         details = [requirement_text(r) for r in o.result.failed_requirements]

@@ -54,6 +54,9 @@ def test_junit_xml_parses_and_counts(outcomes):
     assert cases["fs_0c"].find("error") is not None and cases["fs_0c"].find("failure") is None
     assert cases["tt_27c"].find("failure") is None and cases["tt_27c"].find("error") is None
     assert "PASS" in cases["tt_27c"].find("system-out").text
+    props = {p.get("name"): float(p.get("value")) for p in cases["tt_27c"].iter("property")}
+    assert props["phase_margin_deg"] == outcomes[0].result.analysis.margins.phase_margin_deg
+    assert "phase_margin_deg" not in {p.get("name") for p in cases["sf_27c"].iter("property")}  # no crossover, no property
 
 
 def test_corner_csv_and_document(tmp_path, outcomes, stable_result):
