@@ -61,7 +61,7 @@ def _gm(r: dict) -> str:
 def corner_table(records: tuple[dict, ...]) -> str:
     """A plain-text table, worst corner first: corner, [break node], phase margin, gain margin, crossover, verdict, failed requirement."""
     show_at = len({r["at"] for r in records}) > 1
-    head = ["corner", *(["at"] if show_at else []), "phase margin", "gain margin", "crossover", "verdict", "failed"]
+    head = ["corner", *(["at"] if show_at else []), "phase margin", "gain margin", "crossover", "verdict", "failed requirement"]
     rows = []
     for r in worst_first(records):
         m = _margins(r)
