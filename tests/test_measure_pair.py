@@ -13,6 +13,7 @@ import pytest
 from scipy.optimize import brentq
 
 from netloop.cli.main import main
+from netloop.measure import Sweep
 from netloop.measure_pair import COUPLING_THRESHOLD_DB, measure_pair
 from netloop.probe.differential import RUNS
 from netloop.sim import default_simulator
@@ -217,6 +218,28 @@ def test_check_at_pair_text_labels_both_modes_and_fails_a_requirement(tmp_path, 
     assert code == 1
     assert "differential mode\nPASS" in out and "common mode\nFAIL" in out
     assert "coupling  negligible" in out
+
+
+def test_middlebrook_and_tian_agree_mode_by_mode(simulator, tmp_path):
+    """On a mismatched pair, Middlebrook's form of each mode equals Tian's from the same runs (algebraic identity, DEVELOPERS.md)."""
+    path = tmp_path / "fd_mismatch.cir"
+    path.write_text(norton_netlist(ron=1.2 * RO))
+    sweep = Sweep(fmin_hz=1e2, fmax_hz=1e10, fmin_given=True, fmax_given=True, refine=False)
+    by = {m: measure_pair(path, "outp,outn", method=m, sweep=sweep, simulator=simulator) for m in ("tian", "middlebrook")}
+    for mode in ("differential", "common"):
+        t1, t2 = by["tian"].modes[mode].analysis.t, by["middlebrook"].modes[mode].analysis.t
+        keep = np.abs(t1) > 1e-5
+        np.testing.assert_allclose(t2[keep], t1[keep], rtol=1e-9)
+
+
+def test_check_at_pair_writes_one_csv_per_mode(tmp_path, capsys):
+    """--csv with --at-pair writes FILE-differential.csv and FILE-common.csv, each with the mode's sampled T."""
+    path = tmp_path / "fd.cir"
+    path.write_text(norton_netlist())
+    assert main(["check", str(path), "--at-pair", "outp,outn", "--csv", str(tmp_path / "t.csv")]) == 0
+    capsys.readouterr()
+    dm, cm = (tmp_path / "t-differential.csv").read_text(), (tmp_path / "t-common.csv").read_text()
+    assert dm != cm and len(dm.splitlines()) > 100 and len(cm.splitlines()) > 100
 
 
 def test_check_at_pair_rejects_a_malformed_pair(tmp_path, capsys):

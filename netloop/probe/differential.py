@@ -90,6 +90,13 @@ def modal_currents(p, n) -> tuple[np.ndarray, np.ndarray]:
     return (p - n) / 2.0, p + n
 
 
+def _ratio(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """num / den, with 0 where both are 0 (no signal at all) and inf where only den is 0."""
+    out = np.where(num > 0, np.inf, 0.0)
+    np.divide(num, den, out=out, where=den > 0)
+    return out
+
+
 # entry [r, c] of a current-frame matrix times _TO_VOLTAGE_FRAME[r, c] is the voltage-frame entry
 _TO_VOLTAGE_FRAME = np.array([[1.0, 4.0], [0.25, 1.0]])[:, :, None]
 
@@ -128,13 +135,13 @@ class PairQuantities:
     def dm_to_cm(self) -> np.ndarray:
         """|R_cd / R_dd|: CM returned per DM returned in the DM runs (0 for matched halves)."""
         r = self.returned
-        return np.abs(r[1, 0]) / np.abs(r[0, 0])
+        return _ratio(np.abs(r[1, 0]), np.abs(r[0, 0]))
 
     @property
     def cm_to_dm(self) -> np.ndarray:
         """|R_dc / R_cc|: DM returned per CM returned in the CM runs (0 for matched halves)."""
         r = self.returned
-        return np.abs(r[0, 1]) / np.abs(r[1, 1])
+        return _ratio(np.abs(r[0, 1]), np.abs(r[1, 1]))
 
 
 @dataclass(frozen=True, slots=True)

@@ -211,3 +211,16 @@ def test_single_ended_break_of_one_output_still_works(simulator):
     t = 1.0 / (vb[:, 0, 0] + ib[:, 0, 0]) - 1.0
     keep = np.abs(t) > 1e-5
     np.testing.assert_allclose(tian(q)[keep], t[keep], rtol=1e-9)
+
+
+def test_coupling_of_a_mode_with_no_returned_signal():
+    """A mode that returns nothing gives coupling 0 when the other mode returns nothing too, and inf when it does."""
+    from netloop.probe.differential import PairQuantities  # noqa: PLC0415
+
+    eye = np.eye(2, dtype=complex)[:, :, None] * np.ones(2)
+    va1 = -eye.copy()  # unit injection, nothing returned: R = -(V_a1 + I_b2) = 1 - 1 = 0 on the diagonal
+    ib2 = eye.copy()
+    va1[1, 0, 1] = -0.5  # at the second frequency the DM run returns a CM signal only
+    q = PairQuantities(va1, va1 + eye, ib2)
+    np.testing.assert_array_equal(q.dm_to_cm, [0.0, np.inf])
+    np.testing.assert_array_equal(q.cm_to_dm, [0.0, 0.0])
