@@ -57,4 +57,7 @@ def run(args: argparse.Namespace) -> int:
                 print(f"  {r['corner']}: {r['error']}")
         note = f"; {result.skipped} found done in the results file" if result.skipped else ""
         print(f"results: {result.results_path} ({result.ran} run now{note})")
+        if result.stale:
+            print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
+                  "(the plan changed since they were written) and were left out", file=sys.stderr)
     return 0 if result.passed else 1

@@ -32,6 +32,7 @@ class CornerRun:
     skipped: int  # tasks found done in the results file (--resume)
     workers: int = 0
     counts: dict = field(default_factory=dict)
+    stale: int = 0  # records in a resumed file that belong to no task of this plan (an earlier version of it): left out
 
     @property
     def passed(self) -> bool:
@@ -169,7 +170,10 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
         bar.finish()
     records = tuple(r for t in tasks for r in by_key.get(t.key, ()))
     counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "error")}
-    return CornerRun(plan.path, str(path), records, ran=len(pending), skipped=len(tasks) - len(pending), workers=workers, counts=counts)
+    keys = {t.key for t in tasks}
+    stale = sum(len(v) for k, v in journal.done.items() if k not in keys)
+    return CornerRun(plan.path, str(path), records, ran=len(pending), skipped=len(tasks) - len(pending), workers=workers,
+                     counts=counts, stale=stale)
 
 
 def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None) -> int:

@@ -142,3 +142,13 @@ def test_a_break_node_the_netlist_lacks_is_a_plan_error_at_the_at_line(tmp_path)
     path.write_text(f'netlist = "{MILLER}"\nrequire = ["pm>=45"]\nat = "outt"\n')
     with pytest.raises(PlanError, match=r"plan\.toml:3: .*'outt'.*did you mean 'out'"):
         check_plan(load_plan(path))
+
+
+def test_task_keys_follow_what_decides_a_result(tmp_path):
+    """Re-reading the same plan gives the same keys (so --resume skips them); a changed requirement or sweep gives new keys."""
+    body = '[axes]\nlib = ["tt", "ss"]\n'
+    keys = lambda path: [t.key for t in tasks_of(load_plan(path), expand(load_plan(path)))]  # noqa: E731
+    first = keys(_plan(tmp_path, body, "a.toml"))
+    assert keys(_plan(tmp_path, body, "b.toml")) == first
+    assert set(keys(_plan(tmp_path, 'require = ["pm>=50"]\n' + body, "c.toml"))).isdisjoint(first)
+    assert set(keys(_plan(tmp_path, body + '[sweep]\npoints_per_decade = 20\n', "d.toml"))).isdisjoint(first)
