@@ -189,7 +189,7 @@ def bode_figure(results: LoopResult | Iterable[LoopResult]):
         mag_marks = tuple((c.freq_hz, 0.0) for c in a.gain_crossovers) + tuple(zip(f, tables[0][:, 3]))
         ph_marks = tuple((c.freq_hz if c.freq_hz > 0 else float(f[0]), c.phase_deg) for c in a.phase_crossovers)
         ph_marks += tuple(zip(f, tables[0][:, 4]))  # labels keep clear of the curve too
-        fig.canvas.draw()  # final layout, so that axes sizes are known to the label placer
+        fig.draw_without_rendering()  # final layout, so that axes sizes are known to the label placer
         for ax, labels, marks in ((ax_mag, mag_labels, mag_marks), (ax_ph, ph_labels, ph_marks)):
             box = ax.get_window_extent()
             place_labels(ax, labels, box.width * 72.0 / fig.dpi, box.height * 72.0 / fig.dpi, marks)
