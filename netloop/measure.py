@@ -166,15 +166,20 @@ def _merge_all(f: np.ndarray, t: dict[str, np.ndarray], f2: np.ndarray, t2: dict
 
 
 def sample_loops(
-    runner: _Runner,
+    job_for: Callable[[tuple[AcSweep, ...]], SimJob],
+    ratios: Callable[[SimResult], Mapping[str, np.ndarray]],
+    simulator: Simulator,
     sweep: Sweep,
     open_loop_rhp_poles: Mapping[str, int],
 ) -> tuple[dict[str, LoopAnalysis], SimInfo, dict[str, tuple[str, ...]]]:
-    """Sweep, widen and refine the return ratios a runner gives, all on the same frequencies.
+    """Sweep, widen and refine the return ratios of one break's jobs, all on the same frequencies.
 
-    Returns the analysis of each loop, the shared SimInfo (``refined`` when every loop settled) and
-    each loop's warnings. With one loop this is exactly measure_probed's plan (see Sweep).
+    ``job_for(sweeps)`` builds the SimJob (any number of AC runs); ``ratios(result)`` maps its
+    SimResult to {loop name: T} at the frequencies of the first run. Returns the analysis of each
+    loop, the shared SimInfo (``refined`` when every loop settled) and each loop's warnings. With
+    one loop this is exactly measure_probed's plan (see Sweep).
     """
+    runner = _Runner(job_for, ratios, simulator)
     fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
     ppd = sweep.points_per_decade
     f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),))
@@ -259,8 +264,10 @@ def measure_probed(
         series, shunt = result.run("series"), result.run("shunt")
         return {"loop": return_ratio(probed, dict(series.vectors), dict(shunt.vectors), method)}
 
-    runner = _Runner(lambda sweeps: probe_job(probed, sweeps, label=label, timeout_s=timeout_s), ratios, simulator)
-    analyses, info, warnings = sample_loops(runner, sweep, {"loop": open_loop_rhp_poles})
+    def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
+        return probe_job(probed, sweeps, label=label, timeout_s=timeout_s)
+
+    analyses, info, warnings = sample_loops(job_for, ratios, simulator, sweep, {"loop": open_loop_rhp_poles})
     return analyses["loop"], info, warnings["loop"]
 
 

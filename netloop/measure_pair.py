@@ -30,7 +30,7 @@ from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.loop_result import BreakInfo, LoopResult
-from netloop.measure import METHODS, Sweep, _Runner, ignored_lines, load_netlist, sample_loops
+from netloop.measure import METHODS, Sweep, ignored_lines, load_netlist, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe.differential import MODES, PairProbe, break_pair
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
@@ -207,8 +207,9 @@ def measure_pair(
     own = simulator is None
     sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
     try:
-        runner = _Runner(lambda sweeps: pair_job(probe, sweeps, label=label, timeout_s=timeout_s), ratios, sim)
-        analyses, info, sim_warnings = sample_loops(runner, sweep, rhp)
+        analyses, info, sim_warnings = sample_loops(
+            lambda sweeps: pair_job(probe, sweeps, label=label, timeout_s=timeout_s), ratios, sim, sweep, rhp
+        )
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
