@@ -20,6 +20,7 @@ from netloop.loop_result import LoopResult
 from netloop.report.figure import COLOURS, as_results, loop_name, new_figure, save
 from netloop.report.labels import Label, place_labels
 from netloop.report.notation import eng
+from netloop.report.phrases import phase_crossover_margin
 from netloop.report.samples import sample_table
 
 __all__ = ["bode_figure", "plot_bode"]
@@ -119,12 +120,8 @@ def _single_annotations(ax_mag, ax_ph, r: LoopResult, f: np.ndarray) -> tuple[li
                         arrowprops={"arrowstyle": "<|-|>", "color": colour, "lw": 1.4, "shrinkA": 0, "shrinkB": 0,
                                     "mutation_scale": 9}, zorder=5)
         where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
-        if c.kind == "lower" and stable:
-            text = f"lower GM {c.gain_db:.2f} dB @ {where}"
-            worst = m.lower_phase_crossover_hz is not None and c.freq_hz == m.lower_phase_crossover_hz
-        else:
-            text = f"GM {c.gain_margin_db:.2f} dB @ {where}"
-            worst = m.phase_crossover_hz is not None and c.freq_hz == m.phase_crossover_hz
+        text = f"{phase_crossover_margin(c, stable)} @ {where}"
+        worst = c.freq_hz == (m.lower_phase_crossover_hz if c.kind == "lower" and stable else m.phase_crossover_hz)
         mag_labels.append(Label(x, (shown_gain + 0.0) / 2, text, colour, worst))
     if a.ignored_phase_crossovers:
         xs = [c.freq_hz for c in a.ignored_phase_crossovers]

@@ -16,7 +16,7 @@ from netloop.report.bode_plot import bode_figure, verdict_title
 from netloop.report.figure import as_results, loop_name, render
 from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
-from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase
+from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase, phase_crossover_margin
 from netloop.report.nyquist_plot import nyquist_figure
 from netloop.report.text import format_text, requirement_text, verdict_line
 
@@ -89,7 +89,7 @@ def _phase_rows(r: LoopResult) -> list[list[dict]]:
             _cell(c.kind, ""),
             _cell(f"{c.phase_deg:.0f} deg"),
             _cell(db(c.gain_db)),
-            _cell(db(c.gain_margin_db)),
+            _cell(phase_crossover_margin(c, r.analysis.stable)),
         ])
     return rows
 
@@ -97,7 +97,7 @@ def _phase_rows(r: LoopResult) -> list[list[dict]]:
 def _closed_loop(r: LoopResult) -> list[dict]:
     a = r.analysis
     n = a.nyquist
-    rows = [_kv(label, value, "estimate" if "estimate" in value.lower() else "") for label, value in closed_loop_phrases(a)]
+    rows = [_kv(label, value, "estimate" if "estimate" in f"{label} {value}".lower() else "") for label, value in closed_loop_phrases(a)]
     rows.append(_kv("Nyquist", nyquist_phrase(a), "ok" if n.stable else "bad"))
     if not n.reliable:
         rows.append(_kv("Nyquist count doubtful", " ".join(n.reasons) or "the data cannot support the count", "bad"))
@@ -154,7 +154,7 @@ def _loop(index: int, r: LoopResult, results: Sequence[LoopResult], plots: bool)
         "gain_rows": _gain_rows(r),
         "no_gain": "None: the loop gain never reaches 0 dB (the loop does not regulate)." if not a.regulates
         else "None inside the sweep.",
-        "phase_head": ["frequency", "kind", "phase", "|T|", "gain margin"],
+        "phase_head": ["frequency", "kind", "phase", "|T|", "margin"],
         "phase_rows": _phase_rows(r),
         "ignored_note": (f"{len(ignored)} phase crossover(s) below the numerical floor ({db(a.floor_db)}) ignored: the phase is noise there."
                          if ignored else ""),

@@ -24,7 +24,7 @@ from netloop.loop_result import LoopResult
 from netloop.report.bode_plot import CURVE, GM_LOWER, GM_UPPER, PM_BAD, PM_OK, verdict_title
 from netloop.report.figure import COLOURS, as_results, loop_name, new_figure, save
 from netloop.report.notation import eng
-from netloop.report.phrases import origin_phrase
+from netloop.report.phrases import origin_phrase, phase_crossover_margin
 from netloop.report.samples import sample_table
 
 __all__ = ["compress_radius", "nyquist_figure", "plot_nyquist"]
@@ -117,7 +117,7 @@ def _margins(ax, r: LoopResult) -> list:
         x = -float(compress_radius(10 ** (c.gain_db / 20.0)).real)
         ax.plot([x, -1.0], [0.0, 0.0], color=colour, lw=3.0, alpha=0.8, zorder=5, solid_capstyle="butt")
         ax.plot([x], [0.0], "s", color=colour, ms=5, zorder=6)
-        text = f"lower GM {c.gain_db:.2f} dB" if c.kind == "lower" and a.stable else f"GM {c.gain_margin_db:.2f} dB"
+        text = phase_crossover_margin(c, a.stable)
         where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
         entries.append(Line2D([], [], color=colour, lw=3.0, marker="s", ms=5, label=f"{text} @ {where}: segment to -1"))
     z = compress_radius(_t_at(r, m.modulus_freq_hz))

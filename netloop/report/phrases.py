@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-from netloop.analysis.results import LoopAnalysis
+from netloop.analysis.results import LoopAnalysis, PhaseCrossover
 from netloop.report.document import worst_crossover
 from netloop.report.notation import db, deg, eng, number, ratio_db
 
-__all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase", "origin_phrase"]
+__all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase", "origin_phrase", "phase_crossover_margin"]
 
 
 def _at(freq_hz: float | None) -> str:
@@ -50,6 +50,14 @@ def closed_loop_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
         agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
         rows.append(("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fit error {poles.fit_error:.2g}) [estimate]"))
     return rows
+
+
+def phase_crossover_margin(c: PhaseCrossover, stable: bool) -> str:
+    """The margin a phase crossover gives, as a designer reads it: "GM 12.10 dB" (the gain may rise that much),
+    "lower GM 46.54 dB" (a stable loop whose gain may fall that much), or the signed "GM -10.44 dB" of an unstable loop."""
+    if c.kind == "lower" and stable:
+        return f"lower GM {db(c.gain_db)}"
+    return f"GM {db(c.gain_margin_db)}"
 
 
 def nyquist_phrase(a: LoopAnalysis) -> str:

@@ -8,7 +8,7 @@ from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis
 from netloop.loop_result import LoopResult
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
-from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase
+from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase, phase_crossover_margin
 
 __all__ = ["format_text", "requirement_text", "verdict_line"]
 
@@ -87,7 +87,8 @@ def _crossover_lines(a: LoopAnalysis) -> list[str]:
     lines.append(f"phase crossovers (phase = odd multiple of 180 deg): {len(a.phase_crossovers) or 'none above the floor'}")
     for c in a.phase_crossovers:
         where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
-        lines.append(f"  {where:>11}  {c.kind:<5} |T| {db(c.gain_db):>10}  GM {db(c.gain_margin_db):>10}  (phase {c.phase_deg:.0f} deg)")
+        margin = phase_crossover_margin(c, a.stable)
+        lines.append(f"  {where:>11}  {c.kind:<5} |T| {db(c.gain_db):>10}  {margin:<20}  (phase {c.phase_deg:.0f} deg)")
     if a.ignored_phase_crossovers:
         lines.append(
             f"  ({len(a.ignored_phase_crossovers)} more below the numerical floor of {db(a.floor_db)} ignored: the phase is noise there)"
