@@ -2,13 +2,65 @@
 
 netlist   parse ngspice netlists into frozen records with source locations; write them back
 graph     flattened connectivity and signal-flow graphs (networkx); loop discovery
-probe     break a node, insert an exact small-signal probe: a new netlist and what was broken
+probe     break a node (or a differential pair), insert an exact small-signal probe: a new netlist
 sim       run ngspice (shared library in a worker process, or batch mode) on AC jobs
 analysis  return ratio, margins, Nyquist count, peaking, closed-loop poles (numpy/scipy)
 report    text, JSON, CSV, JUnit XML, plots and HTML from results
+corners   corner plans run as a regression on Dask, results journalled line by line
 cli       the ``netloop`` command, a thin shell over this API
+
+The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
+``measure_all_loops`` (every loop group), ``compare_locations`` (several breaks in one deck).
+Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
 """
+
+from __future__ import annotations
+
+import importlib
 
 __version__ = "0.1.0"
 
-__all__ = ["__version__"]
+_EXPORTS = {
+    "AnalysisError": "netloop.errors",
+    "BreakInfo": "netloop.loop_result",
+    "CAUTION": "netloop.loop_result",
+    "LoopAnalysis": "netloop.analysis",
+    "LoopResult": "netloop.loop_result",
+    "NetlistError": "netloop.errors",
+    "NetlistSyntaxError": "netloop.errors",
+    "NetloopError": "netloop.errors",
+    "PairResult": "netloop.measure_pair",
+    "PlanError": "netloop.errors",
+    "ProbeError": "netloop.errors",
+    "SimulationError": "netloop.errors",
+    "SimulatorUnavailableError": "netloop.errors",
+    "Sweep": "netloop.measure",
+    "UnknownNodeError": "netloop.errors",
+    "analyse": "netloop.analysis",
+    "break_loop": "netloop.probe",
+    "compare_locations": "netloop.compare",
+    "default_simulator": "netloop.sim",
+    "find_loops": "netloop.graph",
+    "flatten": "netloop.graph",
+    "measure": "netloop.measure",
+    "measure_all_loops": "netloop.discover",
+    "measure_pair": "netloop.measure_pair",
+    "parse_file": "netloop.netlist",
+    "parse_text": "netloop.netlist",
+    "write_netlist": "netloop.netlist",
+}
+
+__all__ = sorted([*_EXPORTS, "__version__"])
+
+
+def __getattr__(name: str):
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'netloop' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return __all__
