@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 import textwrap
 
 from netloop.analysis.requirements import METRICS, RequirementOutcome
@@ -124,8 +125,24 @@ def _context_lines(result: LoopResult) -> list[str]:
     return lines
 
 
-def format_text(result: LoopResult) -> str:
-    """The terminal summary of one loop (plain ASCII text, verdict on the first line, caution on the last)."""
+def format_text(result: LoopResult, *, colour: bool = False) -> str:
+    """The terminal summary of one loop (plain ASCII text, verdict on the first line, caution on the last).
+
+    colour=True paints every PASS green and every FAIL red with ANSI escapes (for a terminal; the
+    caller decides, e.g. ``sys.stdout.isatty()``); the text is otherwise identical.
+    """
+    text = _plain_text(result)
+    if not colour:
+        return text
+    return _PASS_FAIL.sub(lambda m: f"{m.group(1)}{_ANSI[m.group(2)]}{m.group(2)}{_RESET}", text)
+
+
+_ANSI = {"PASS": "\x1b[1;32m", "FAIL": "\x1b[1;31m"}
+_RESET = "\x1b[0m"
+_PASS_FAIL = re.compile(r"^( *)(PASS|FAIL)(?=  )", re.M)
+
+
+def _plain_text(result: LoopResult) -> str:
     a = result.analysis
     title = result.netlist + (f"  [{result.label}]" if result.label else "")
     sim = result.sim

@@ -49,3 +49,13 @@ def test_no_crossover_is_stated_not_hidden(quiet_result):
     assert "does not regulate" in text.splitlines()[0]
     assert "none in the sweep" in text
     assert text.isascii()
+
+
+def test_colour_only_paints_the_verdicts(unstable_result):
+    """With colour the summary differs from the plain one only by ANSI codes around PASS and FAIL."""
+    plain = format_text(unstable_result)
+    painted = format_text(unstable_result, colour=True)
+    assert painted.startswith("\x1b[1;31mFAIL\x1b[0m")
+    assert "  \x1b[1;31mFAIL\x1b[0m  pm>=45" in painted
+    assert re.sub(r"\x1b\[[0-9;]*m", "", painted) == plain
+    assert "\x1b" not in plain
