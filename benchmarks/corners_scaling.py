@@ -45,7 +45,7 @@ def timed_run(plan_path: Path, workers: int, out: Path) -> tuple[float, tuple[di
     from netloop.corners import load_plan, run_plan
 
     with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
-                      dashboard_address=None, silence_logs=logging.ERROR) as cluster, Client(cluster) as client:
+                      dashboard_address=None, scheduler_kwargs={"dashboard_address": "127.0.0.1:0"}, silence_logs=logging.ERROR) as cluster, Client(cluster) as client:
         client.wait_for_workers(workers)
         client.run(_warm)
         start = time.perf_counter()
@@ -83,6 +83,9 @@ def main() -> None:
         spread = {}
         for r in rec2:
             spread[r["worker"]] = spread.get(r["worker"], 0) + 1
+        task2 = statistics.fmean(r["seconds"] for r in rec2)
+        print(f"in-worker time per corner: {task * 1e3:.1f} ms on 1 worker, {task2 * 1e3:.1f} ms on 2 workers "
+              f"(a rise means the workers compete for CPU; on an idle machine they stay equal)")
         print(f"corners per worker on 2 workers: {sorted(spread.values(), reverse=True)}")
         print(f"time per corner beyond ngspice's own: {(wall1 / n - sim) * 1e3:.1f} ms "
               f"(netlist + probe + analysis in the worker {(task - sim) * 1e3:.1f} ms, Dask and journal {(wall1 / n - task) * 1e3:.1f} ms)")

@@ -105,6 +105,11 @@ def _quiet() -> Iterator[None]:
             lg.setLevel(level)
 
 
+# Without a dashboard the scheduler still serves /health on port 8787, and warns when another cluster holds it;
+# a free port on the loopback interface avoids both the clash and the warning.
+_NO_DEFAULT_PORT = {"dashboard_address": "127.0.0.1:0"}
+
+
 @contextlib.contextmanager
 def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Iterator[object]:
     """A Dask client: to the scheduler at ``cluster``, or to a local cluster of ``jobs`` single-threaded worker processes."""
@@ -123,7 +128,7 @@ def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Itera
             return
         n = jobs or os.cpu_count() or 1
         local = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
-                             dashboard_address=None, silence_logs=logging.ERROR)
+                             dashboard_address=None, scheduler_kwargs=dict(_NO_DEFAULT_PORT), silence_logs=logging.ERROR)
         client = Client(local)
         try:
             yield client

@@ -46,7 +46,7 @@ def scheduler():
     from distributed import LocalCluster
 
     cluster = LocalCluster(host="127.0.0.1", n_workers=2, threads_per_worker=1, processes=True,
-                           dashboard_address=None, silence_logs=logging.ERROR)
+                           dashboard_address=None, scheduler_kwargs={"dashboard_address": "127.0.0.1:0"}, silence_logs=logging.ERROR)
     try:
         yield cluster.scheduler_address
     finally:
