@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from netloop.loop_result import LoopResult
-from netloop.report.figure import COLOURS, as_results, loop_name, new_figure, save
+from netloop.report.figure import COLOURS, as_results, file_format, loop_name, new_figure, save
 from netloop.report.labels import Label, place_labels
 from netloop.report.notation import eng
 from netloop.report.phrases import phase_crossover_margin
@@ -228,4 +228,5 @@ def _key(ax_mag, ax_ph, r: LoopResult) -> None:
 
 def plot_bode(results: LoopResult | Iterable[LoopResult], path: str | Path) -> Path:
     """Write the Bode plot of one loop (or an overlay of several) to path; PNG, SVG or PDF by its extension."""
+    file_format(path)  # a wrong extension fails before any drawing
     return save(bode_figure(results), path, "Bode plot")

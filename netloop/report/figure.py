@@ -10,7 +10,7 @@ from netloop.errors import OutputError
 from netloop.loop_result import LoopResult
 from netloop.report.files import output_file
 
-__all__ = ["FORMATS", "as_results", "loop_name", "new_figure", "render", "save"]
+__all__ = ["FORMATS", "as_results", "file_format", "loop_name", "new_figure", "render", "save"]
 
 FORMATS = ("png", "svg", "pdf")
 """File types the plots write, chosen by the extension of the path."""

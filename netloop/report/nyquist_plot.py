@@ -22,7 +22,7 @@ import numpy as np
 
 from netloop.loop_result import LoopResult
 from netloop.report.bode_plot import CURVE, GM_LOWER, GM_UPPER, PM_BAD, PM_OK, verdict_title
-from netloop.report.figure import COLOURS, as_results, loop_name, new_figure, save
+from netloop.report.figure import COLOURS, as_results, file_format, loop_name, new_figure, save
 from netloop.report.notation import eng
 from netloop.report.phrases import origin_phrase, phase_crossover_margin
 from netloop.report.samples import sample_table
@@ -215,4 +215,5 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
 
 def plot_nyquist(results: LoopResult | Iterable[LoopResult], path: str | Path) -> Path:
     """Write the Nyquist plot of one loop (or an overlay of several) to path; PNG, SVG or PDF by its extension."""
+    file_format(path)  # a wrong extension fails before any drawing
     return save(nyquist_figure(results), path, "Nyquist plot")
