@@ -152,3 +152,15 @@ def test_task_keys_follow_what_decides_a_result(tmp_path):
     assert keys(_plan(tmp_path, body, "b.toml")) == first
     assert set(keys(_plan(tmp_path, 'require = ["pm>=50"]\n' + body, "c.toml"))).isdisjoint(first)
     assert set(keys(_plan(tmp_path, body + '[sweep]\npoints_per_decade = 20\n', "d.toml"))).isdisjoint(first)
+
+
+def test_cli_exits_2_with_the_plan_line_and_writes_no_results_file(tmp_path, capsys):
+    """`netloop corners` on an invalid plan prints one message with file:line, exits 2 and creates no results file."""
+    from netloop.cli.main import main
+
+    path = _plan(tmp_path, '[axes]\nlib = ["tt", "sf"]\n')
+    assert main(["corners", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("netloop: error: ") and f"{path}:4: " in err and "no section 'sf'" in err
+    assert len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "plan.results.jsonl").exists()
