@@ -1,0 +1,475 @@
+"""Several break locations in one deck, side by side: one operating point, every probe's T, and why they differ.
+
+Every location is broken in the same netlist (break_loop applied in turn to its own output; each
+probe gets a fresh name), so the job has one operating point and two AC runs per location. In a
+run only one probe source is excited; every other probe sits at AC 0, a 0 V source (a short) and
+a 0 A source (an open), so it leaves the circuit as it was. The sweep is widened and refined for
+all locations together (netloop.measure.sample_loops): one SimJob per round.
+
+Why two locations give different T. For a break at node n, 1 + T_n = D / D_n, where D is the
+circuit's characteristic determinant (its zeros are the closed-loop poles) and D_n the one of the
+circuit opened at n. So:
+
+* the closed-loop poles belong to the circuit, not to the probe: every location on one loop group
+  must find the same ones (``poles_agree``; compared on the dominant pole, see POLE_RTOL);
+* T itself depends on which loops the break opens and on the loading at the break. A loop through
+  n is opened when the signal enters n from the driver side and leaves it from the load side; a
+  loop that enters and leaves on the same side (a Miller capacitor that rides with the driver of
+  the output) stays closed and is part of T. The loops are those of netloop.graph.find_loops.
+* Two breaks that open the same, single loop of their group, each at a unilateral point (the load
+  side only controlling inputs, gates, bases, controlled-source inputs, and nothing to AC ground;
+  or the driver an ideal controlled voltage source), must give the same T to numerical precision:
+  D_n is then D with that loop's gain set to zero, the same for both. A relative difference above
+  ``T_RTOL`` there is reported as a defect.
+
+T is compared where max(|T_a|, |T_b|) >= ``T_FLOOR`` (our choice, common practice: below -60 dB
+the loop no longer affects stability and the relative difference is only the simulator's noise).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from os import PathLike
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+
+from netloop.analysis import parse_requirements
+from netloop.analysis.requirements import Requirement
+from netloop.errors import NetloopError, ProbeError
+from netloop.graph import LoopDiscovery, LoopGroup, find_loops, flatten
+from netloop.loop_result import LoopResult, SimInfo
+from netloop.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, return_ratio, sample_loops
+from netloop.netlist import Netlist, write_netlist
+from netloop.probe import ProbedNetlist, break_loop
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
+
+__all__ = [
+    "POLE_RTOL",
+    "T_FLOOR",
+    "T_RTOL",
+    "Comparison",
+    "Difference",
+    "PoleCheck",
+    "compare",
+    "compare_job",
+    "dominant_pole",
+    "methods_of",
+]
+
+T_RTOL = 1e-6  # relative difference of T treated as "the same" (well above ngspice's 1e-12-ish AC precision)
+T_FLOOR = 1e-3  # |T| below which T is not compared (-60 dB, common practice for "no longer matters")
+# Dominant closed-loop poles from two locations agree within 2 % of |p| (our choice: the AAA fit of
+# refined sweeps places a well-excited pole to about 0.1 % in our tests; 2 % leaves room for fits
+# that hit the data's noise, and is still far below the spacing of distinct poles worth reporting).
+POLE_RTOL = 0.02
+
+Kind = Literal["same", "defect", "loading", "different loops opened", "different loop groups", "not on a listed loop"]
+
+
+@dataclass(frozen=True, slots=True)
+class Difference:
+    """How T at two locations (or by two methods at one location) compares, and why.
+
+    kind: "same" (T agrees to T_RTOL), "defect" (should agree and does not), "loading" (same loops
+    opened, different loading at the breaks), "different loops opened", "different loop groups",
+    "not on a listed loop". Tian against Middlebrook at one location is "same" or "defect": with this
+    probe both formulas reduce to the same expression.
+    loops: the loops the explanation names, each as netloop.graph.Loop.describe() writes it.
+    """
+
+    locations: tuple[str, str]
+    method: str  # "tian", "middlebrook", or "tian/middlebrook" for the two methods at one location
+    kind: Kind
+    max_relative_difference: float  # max |T_a - T_b| / max(|T_a|, |T_b|) where |T| >= T_FLOOR; 0.0 if no such point
+    explanation: str
+    loops: tuple[str, ...] = ()
+
+    @property
+    def differs(self) -> bool:
+        return self.max_relative_difference > T_RTOL
+
+
+@dataclass(frozen=True, slots=True)
+class PoleCheck:
+    """The dominant closed-loop pole seen from two locations on one loop group (rad/s)."""
+
+    locations: tuple[str, str]
+    method: str
+    pole_a_rad_s: complex | None  # None when that location has no pole fit
+    pole_b_rad_s: complex | None
+    agree: bool | None  # None when one side has no fitted pole to compare
+    explanation: str
+
+
+@dataclass(frozen=True, slots=True)
+class Comparison:
+    """Every location measured in one deck, the differences explained and the closed-loop poles checked."""
+
+    locations: tuple[str, ...]  # as given, lower-case
+    methods: tuple[str, ...]  # ("tian",), ("middlebrook",) or both
+    results: tuple[LoopResult, ...]  # location-major: (loc1 method1, loc1 method2, loc2 method1, ...)
+    differences: tuple[Difference, ...]
+    pole_checks: tuple[PoleCheck, ...]
+    sim: SimInfo
+    notes: tuple[str, ...] = ()
+
+    @property
+    def poles_agree(self) -> bool | None:
+        """False if any comparable pair disagrees, True if every one agrees, None when none could be compared."""
+        known = [c.agree for c in self.pole_checks if c.agree is not None]
+        return all(known) if known else None
+
+    @property
+    def defects(self) -> tuple[Difference, ...]:
+        return tuple(d for d in self.differences if d.kind == "defect")
+
+    @property
+    def passed(self) -> bool:
+        """Every location stable with every requirement met."""
+        return all(r.passed for r in self.results)
+
+    def result(self, location: str, method: str | None = None) -> LoopResult:
+        """The result at one location (for one method; the first method by default)."""
+        method = method or self.methods[0]
+        for r in self.results:
+            if r.breaks.node == location.strip().lower() and r.method == method:
+                return r
+        raise KeyError(f"{location} ({method})")
+
+
+def methods_of(method: str) -> tuple[str, ...]:
+    """"tian" | "middlebrook" | "both" -> the methods to compute."""
+    if method == "both":
+        return METHODS
+    if method not in METHODS:
+        raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)} or both")
+    return (method,)
+
+
+# -- the one deck -------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class _Probe:
+    location: str
+    alone: ProbedNetlist  # the break on the original netlist: sides, terminals, warnings
+    placed: ProbedNetlist  # the same break in the shared deck: source and vector names there
+
+
+def _break_all(parsed: Netlist, locations: Sequence[str], drivers: Mapping[str, str]) -> tuple[Netlist, tuple[_Probe, ...]]:
+    alone = [break_loop(parsed, at, driver=drivers.get(at)) for at in locations]
+    seen: dict[str, str] = {}
+    for at, p in zip(locations, alone):
+        if p.side_b in seen:
+            raise ProbeError(f"locations {seen[p.side_b]} and {at} are the same node ({p.side_b}); give each node once")
+        seen[p.side_b] = at
+    current = parsed
+    probes = []
+    for at, p in zip(locations, alone):
+        # the same split as the break alone: the earlier probes must not change how the node is divided
+        placed = break_loop(current, at, driver=",".join(p.driver_terminals))
+        current = placed.netlist
+        probes.append(_Probe(at, p, placed))
+    return current, tuple(probes)
+
+
+def _run_name(index: int, which: str) -> str:
+    return f"{index}.{which}"
+
+
+def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
+    """One SimJob for every probe in ``deck``: runs "K.series" and "K.shunt" per probe K (0-based), others at AC 0."""
+    runs = []
+    for k, p in enumerate(probes):
+        runs.append(AcRun(_run_name(k, "series"), dict(p.series_run_ac), sweeps))
+        runs.append(AcRun(_run_name(k, "shunt"), dict(p.shunt_run_ac), sweeps))
+    source = deck.source
+    return SimJob(
+        netlist=write_netlist(deck),
+        runs=tuple(runs),
+        save=tuple(dict.fromkeys(v for p in probes for v in p.vectors.save)),
+        excitable=tuple(dict.fromkeys(s for p in probes for s in (p.series_source, p.shunt_source))),
+        label=label,
+        timeout_s=timeout_s,
+        workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
+    )
+
+
+def _key(location: str, method: str) -> str:
+    return f"{location} ({method})"
+
+
+# -- which loops a break opens -------------------------------------------------------------------
+
+_CONTROL_PINS = {"m": ("g",), "j": ("g",), "z": ("g",), "q": ("b",), "e": ("cp", "cn"), "g": ("cp", "cn")}
+_VOLTAGE_OUTPUTS = frozenset("eh")
+
+
+def _element(label: str) -> str:
+    return label.rsplit(".", 1)[0]
+
+
+def _unilateral(p: ProbedNetlist) -> bool:
+    """The break is at a one-way point: the load side only controls, or the driver is an ideal voltage source."""
+    def kind_pin(label: str) -> tuple[str, str]:
+        element, pin = label.rsplit(".", 1) if "." in label else (label, "")
+        return element.rsplit(".", 1)[-1][:1], pin
+
+    loads_control = not p.shunt_terminals and all(pin in _CONTROL_PINS.get(k, ()) for k, pin in map(kind_pin, p.load_terminals))
+    ideal_driver = len(p.driver_terminals) == 1 and kind_pin(p.driver_terminals[0])[0] in _VOLTAGE_OUTPUTS
+    return loads_control or ideal_driver
+
+
+@dataclass(frozen=True, slots=True)
+class _Place:
+    """A location in the loop structure: its group, and which of the group's loops its break opens."""
+
+    location: str
+    group: LoopGroup | None
+    opened: tuple[int, ...]  # 1-based loop numbers within the group
+    closed: tuple[int, ...]  # loops through the node that the break leaves closed (both ends on one side)
+    unilateral: bool
+
+
+def _place(p: ProbedNetlist, found: LoopDiscovery) -> _Place:
+    node = p.side_b
+    group = next((g for g in found.groups if node in g.nodes), None)
+    opened, closed = [], []
+    if group is not None:
+        driver = {_element(t) for t in p.driver_terminals}
+        for k, lp in enumerate(group.loops, 1):
+            into = [s for s in lp.steps if s.target == node]
+            out = [s for s in lp.steps if s.source == node]
+            if not into or not out:
+                continue
+            in_driver = any(e in driver for e in into[0].elements)
+            out_driver = any(e in driver for e in out[0].elements)
+            (opened if in_driver != out_driver else closed).append(k)
+    return _Place(p.node, group, tuple(opened), tuple(closed), _unilateral(p))
+
+
+def _loop_names(group: LoopGroup, numbers: Iterable[int]) -> tuple[str, ...]:
+    return tuple(f"loop {group.index}.{k}: {group.loops[k - 1].describe()}" for k in numbers)
+
+
+def _listing(group: LoopGroup, numbers: tuple[int, ...]) -> str:
+    return ", ".join(f"{group.index}.{k}" for k in numbers) or "none"
+
+
+def _relative_difference(ta: np.ndarray, tb: np.ndarray) -> float:
+    scale = np.maximum(np.abs(ta), np.abs(tb))
+    keep = scale >= T_FLOOR
+    if not np.any(keep):
+        return 0.0
+    return float(np.max(np.abs(ta[keep] - tb[keep]) / scale[keep]))
+
+
+def _explain(a: _Place, b: _Place, method: str, rel: float) -> Difference:
+    pair = (a.location, b.location)
+    size = f"max relative difference of T {rel:.2g}"
+    if a.group is None or b.group is None:
+        missing = ", ".join(x.location for x in (a, b) if x.group is None)
+        kind: Kind = "same" if rel <= T_RTOL else "not on a listed loop"
+        return Difference(pair, method, kind, rel, f"{missing} is on no loop the loop discovery lists (no signal path returns to it "
+                          f"through active elements); {size}")
+    if a.group.index != b.group.index:
+        ga, gb = a.group, b.group
+        return Difference(
+            pair, method, "different loop groups" if rel > T_RTOL else "same", rel,
+            f"{a.location} is on {ga.label} (nodes {', '.join(ga.nodes)}) and {b.location} on {gb.label} (nodes {', '.join(gb.nodes)}): "
+            f"they measure different loops, so their T are unrelated and so are their closed-loop poles; {size}",
+            (*_loop_names(ga, a.opened[:1]), *_loop_names(gb, b.opened[:1])),
+        )
+    g = a.group
+    if set(a.opened) != set(b.opened):
+        only_a = tuple(k for k in a.opened if k not in b.opened)
+        only_b = tuple(k for k in b.opened if k not in a.opened)
+        parts = []
+        for x, only, other in ((a, only_a, b), (b, only_b, a)):
+            if only:
+                why = " (both of its ends at " + other.location + " sit on one side of the break)" if set(only) & set(other.closed) else ""
+                parts.append(f"{x.location} opens loop{'s' if len(only) > 1 else ''} {_listing(g, only)} which {other.location} "
+                             f"leaves closed{why}")
+        named = _loop_names(g, (*only_a, *only_b))
+        text = (f"both are on {g.label}, but the breaks open different loops: {'; '.join(parts)}; a loop left closed is part of T, "
+                f"so T differs while the closed-loop poles must agree; {size}. " + "; ".join(named))
+        return Difference(pair, method, "different loops opened" if rel > T_RTOL else "same", rel, text, named)
+    opened = _listing(g, a.opened)
+    both_closed = tuple(k for k in a.closed if k in b.closed)
+    if both_closed:
+        opened += f"; both leave {_listing(g, both_closed)} closed, a part of T at both"
+    if rel <= T_RTOL:
+        return Difference(pair, method, "same", rel, f"both open the same loops of {g.label} ({opened}); T agrees ({size})")
+    single = len(g.loops) == 1 and len(a.opened) == 1
+    if single and a.unilateral and b.unilateral:
+        return Difference(
+            pair, method, "defect", rel,
+            f"DEFECT: both breaks open the single loop of {g.label} at one-way points, so T must be identical, but it differs ({size} "
+            f"> {T_RTOL:g}): the probe or the simulation is wrong",
+            _loop_names(g, a.opened),
+        )
+    bilateral = ", ".join(x.location for x in (a, b) if not x.unilateral) or "neither"
+    return Difference(
+        pair, method, "loading", rel,
+        f"both open the same loops of {g.label} ({opened}), but the loading at the breaks differs (two-way break at {bilateral}: its load "
+        f"side draws current from the node or its driver is not an ideal source, and device capacitances pass signal backwards): "
+        f"T = D/D_n - 1 depends on where the circuit is opened, the closed-loop poles do not; {size}",
+        _loop_names(g, a.opened),
+    )
+
+
+def _method_difference(location: str, tt: np.ndarray, tm: np.ndarray) -> Difference:
+    """Tian's and Middlebrook's T at one location: with this probe (v_a1 = v_b1 - 1, i_a2 = i_b2 - 1) both
+    formulas reduce to T = (1 - v_b1 - i_b2) / (v_b1 + i_b2), so anything beyond rounding is a defect."""
+    rel = _relative_difference(tt, tm)
+    if rel <= T_RTOL:
+        text = (f"Tian's and Middlebrook's T agree at {location} (max relative difference {rel:.2g}), as they must: with the same two "
+                "runs of this probe both formulas reduce to T = (1 - v_b1 - i_b2) / (v_b1 + i_b2)")
+        return Difference((location, location), "tian/middlebrook", "same", rel, text)
+    text = (f"DEFECT: at {location} Middlebrook's T differs from Tian's (max relative difference {rel:.2g} > {T_RTOL:g}), although "
+            "with the same two runs both formulas reduce to T = (1 - v_b1 - i_b2) / (v_b1 + i_b2)")
+    return Difference((location, location), "tian/middlebrook", "defect", rel, text)
+
+
+# -- closed-loop poles ---------------------------------------------------------------------------
+
+
+def dominant_pole(result: LoopResult) -> complex | None:
+    """The fitted closed-loop pole nearest the imaginary axis (largest real part; upper member of a pair), or None."""
+    poles = result.analysis.poles
+    if poles is None:
+        return None
+    cands = [p for p in poles.poles_rad_s if p.imag >= -1e-9 * abs(p)]
+    if not cands:
+        return None
+    return complex(max(cands, key=lambda p: (p.real, p.imag)))
+
+
+def _near(p: complex, poles: Iterable[complex]) -> bool:
+    return any(abs(p - q) <= POLE_RTOL * abs(p) for q in poles)
+
+
+def _pole_check(ra: LoopResult, rb: LoopResult, method: str) -> PoleCheck:
+    pa, pb = dominant_pole(ra), dominant_pole(rb)
+    pair = (ra.breaks.node, rb.breaks.node)
+    if pa is None or pb is None:
+        missing = ", ".join(r.breaks.node for r, p in ((ra, pa), (rb, pb)) if p is None)
+        return PoleCheck(pair, method, pa, pb, None, f"no fitted closed-loop pole at {missing}: not compared")
+    all_a, all_b = ra.analysis.poles.poles_rad_s, rb.analysis.poles.poles_rad_s
+    ok = _near(pa, all_b) and _near(pb, all_a)
+
+    def show(p: complex) -> str:
+        return f"{abs(p) / (2 * math.pi):.4g} Hz (damping {-p.real / abs(p):.3g})" if abs(p) > 0 else "0"
+
+    if ok:
+        text = f"the dominant closed-loop pole agrees: {show(pa)} at {pair[0]}, {show(pb)} at {pair[1]} (within {POLE_RTOL:.0%})"
+    else:
+        text = (f"the dominant closed-loop pole DISAGREES: {show(pa)} at {pair[0]} against {show(pb)} at {pair[1]} (tolerance "
+                f"{POLE_RTOL:.0%}); the poles belong to the circuit, so one of the fits (or a probe) is wrong: look at their fit errors "
+                f"({ra.analysis.poles.fit_error:.2g}, {rb.analysis.poles.fit_error:.2g})")
+    return PoleCheck(pair, method, pa, pb, ok, text)
+
+
+# -- the composition -----------------------------------------------------------------------------
+
+
+def compare(
+    netlist: Netlist | str | PathLike[str],
+    at: Sequence[str],
+    *,
+    drivers: Mapping[str, str] | None = None,
+    method: str = "tian",
+    sweep: Sweep = Sweep(),
+    open_loop_rhp_poles: int = 0,
+    requirements: Iterable[str | Requirement] = (),
+    simulator: Simulator | None = None,
+    keep_decks: str | PathLike[str] | None = None,
+    timeout_s: float = 600.0,
+) -> Comparison:
+    """Break the loop at every node of ``at`` in one deck, measure T at each and explain how they differ.
+
+    Takes the options of ``measure`` (``method`` may also be "both"); ``drivers`` maps a location
+    to its driver spec (``driver=`` of measure). Each result is labelled with its location (and
+    the method when both are computed). Raises ProbeError for fewer than two locations, a node
+    given twice, or a node that cannot be broken.
+    """
+    methods = methods_of(method)
+    locations = tuple(a.strip().lower() for a in at)
+    if len(locations) < 2:
+        raise ProbeError(f"compare needs at least two locations, got {len(locations)}")
+    if len(set(locations)) != len(locations):
+        twice = sorted({x for x in locations if locations.count(x) > 1})
+        raise ProbeError(f"location {', '.join(twice)} given more than once")
+    drivers = {k.strip().lower(): v for k, v in (drivers or {}).items()}
+    unknown = set(drivers) - set(locations)
+    if unknown:
+        raise ProbeError(f"drivers given for {', '.join(sorted(unknown))}, which are not among the locations")
+    parsed = load_netlist(netlist)
+    reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
+        [r for r in requirements if not isinstance(r, Requirement)]
+    )
+    deck, probes = _break_all(parsed, locations, drivers)
+    placed = tuple(p.placed for p in probes)
+
+    def ratios(result: SimResult) -> dict[str, np.ndarray]:
+        out = {}
+        for k, p in enumerate(probes):
+            series = dict(result.run(_run_name(k, "series")).vectors)
+            shunt = dict(result.run(_run_name(k, "shunt")).vectors)
+            for m in methods:
+                out[_key(p.location, m)] = return_ratio(p.placed, series, shunt, m)
+        return out
+
+    own = simulator is None
+    sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    try:
+        names = [_key(p.location, m) for p in probes for m in methods]
+        analyses, info, sim_warnings = sample_loops(
+            lambda sweeps: compare_job(deck, placed, sweeps, label="compare", timeout_s=timeout_s),
+            ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles),
+        )
+    finally:
+        if own and hasattr(sim, "close"):
+            sim.close()
+
+    results = []
+    for p in probes:
+        for m in methods:
+            a = analyses[_key(p.location, m)]
+            warnings = (*parsed.warnings, *p.alone.warnings, *sim_warnings[_key(p.location, m)], *a.warnings)
+            results.append(LoopResult(
+                netlist=parsed.source,
+                label=_key(p.location, m) if len(methods) > 1 else p.location,
+                method=m,
+                breaks=breaks_of(p.alone),
+                analysis=a,
+                requirements=tuple(r.check(a) for r in reqs),
+                ignored_statements=ignored_lines(parsed),
+                warnings=tuple(dict.fromkeys(warnings)),
+                sim=info,
+            ))
+    by_key = {(r.breaks.node, r.method): r for r in results}
+
+    found = find_loops(flatten(parsed))
+    places = [_place(p.alone, found) for p in probes]
+    differences: list[Difference] = []
+    checks: list[PoleCheck] = []
+    for m in methods:
+        for i in range(len(places)):
+            for j in range(i + 1, len(places)):
+                a, b = places[i], places[j]
+                ra, rb = by_key[(a.location, m)], by_key[(b.location, m)]
+                rel = _relative_difference(np.asarray(ra.analysis.t), np.asarray(rb.analysis.t))
+                differences.append(_explain(a, b, m, rel))
+                if a.group is not None and b.group is not None and a.group.index == b.group.index:
+                    checks.append(_pole_check(ra, rb, m))
+    if len(methods) > 1:
+        for p in probes:
+            differences.append(_method_difference(
+                p.location, np.asarray(by_key[(p.location, "tian")].analysis.t), np.asarray(by_key[(p.location, "middlebrook")].analysis.t)
+            ))
+    return Comparison(locations, methods, tuple(results), tuple(differences), tuple(checks), info, tuple(found.notes))
