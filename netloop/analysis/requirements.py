@@ -127,12 +127,11 @@ def _value(metric: str, a: LoopAnalysis) -> tuple[float | None, str]:
     """(value, note): the metric's value, or None and why it does not exist."""
     m = a.margins
     no_pm = "the loop does not regulate (|T| never reaches 0 dB)" if not a.regulates else "there is no gain crossover in the sweep"
-    if metric == "pm":
-        return m.phase_margin_deg, no_pm
-    if metric == "fc":
-        return m.unity_gain_hz, no_pm
-    if metric == "dm":
-        return m.delay_margin_s, "no gain crossover has a positive phase margin"
+    if metric in ("pm", "fc", "dm"):
+        value = {"pm": m.phase_margin_deg, "fc": m.unity_gain_hz, "dm": m.delay_margin_s}[metric]
+        if value is not None:
+            return value, ""
+        return None, "no gain crossover has a positive phase margin" if metric == "dm" and a.gain_crossovers else no_pm
     if metric == "mm":
         return m.modulus_margin, ""
     if metric == "dc":

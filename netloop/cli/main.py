@@ -63,6 +63,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("netloop: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # the reader went away (`netloop ... | head`): not an error of ours, and no traceback
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
 
 
 def entry() -> None:
