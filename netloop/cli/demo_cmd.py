@@ -19,7 +19,7 @@ DEMOS: dict[str, tuple[str, str, str]] = {
 
 def circuits_dir() -> Path:
     """The bundled circuits folder (inside the package, so installed copies have it too)."""
-    return Path(__file__).resolve().parent.parent / "circuits"
+    return (Path(__file__).resolve().parent.parent / "circuits").resolve()
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
