@@ -219,7 +219,7 @@ def _unilateral(p: ProbedNetlist) -> bool:
         element, pin = label.rsplit(".", 1) if "." in label else (label, "")
         return element.rsplit(".", 1)[-1][:1], pin
 
-    loads_control = not p.shunt_terminals and all(pin in _CONTROL_PINS.get(k, ()) for k, pin in map(kind_pin, p.load_terminals))
+    loads_control = all(pin in _CONTROL_PINS.get(k, ()) for k, pin in map(kind_pin, p.load_terminals))
     ideal_driver = len(p.driver_terminals) == 1 and kind_pin(p.driver_terminals[0])[0] in _VOLTAGE_OUTPUTS
     return loads_control or ideal_driver
 

@@ -1,0 +1,230 @@
+"""compare(): several break locations in one deck, against closed forms, ngspice's .pz and separate measure() calls."""
+
+from __future__ import annotations
+
+import math
+import re
+import subprocess
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from netloop.compare import POLE_RTOL, compare, dominant_pole
+from netloop.errors import ProbeError
+from netloop.measure import Sweep, measure
+from netloop.sim import AnalyticSimulator, default_simulator
+
+ROOT = Path(__file__).resolve().parent.parent
+MILLER = ROOT / "circuits" / "miller_buffer.cir"
+
+A0, F1, F2 = 1000.0, 1e3, 1e6
+C1 = 1.0 / (2 * math.pi * 1e3 * F1)  # 1 kOhm with C gives the pole F
+C2 = 1.0 / (2 * math.pi * 1e3 * F2)
+FIXED = Sweep(fmin_hz=1.0, fmax_hz=1e9, fmin_given=True, fmax_given=True)
+
+
+def _loop(suffix: str, gain: float) -> str:
+    """An error amplifier e0 = gain (ref - out), RC pole F1, unity buffer eb, RC pole F2 back to out: one loop."""
+    s = suffix
+    return "\n".join([
+        f"vref{s} ref{s} 0 dc 0.5",
+        f"e0{s} n0{s} 0 ref{s} out{s} {gain}",
+        f"r1{s} n0{s} p1{s} 1k",
+        f"c1{s} p1{s} 0 {C1:.17g}",
+        f"eb{s} b1{s} 0 p1{s} 0 1",
+        f"r2{s} b1{s} out{s} 1k",
+        f"c2{s} out{s} 0 {C2:.17g}",
+    ])
+
+
+def _closed_form(freq_hz, gain: float) -> np.ndarray:
+    s = 2j * math.pi * np.asarray(freq_hz, dtype=float)
+    return gain / ((1 + s / (2 * math.pi * F1)) * (1 + s / (2 * math.pi * F2)))
+
+
+def _closed_loop_poles(gain: float) -> np.ndarray:
+    # zeros of 1 + T: (1 + s/w1)(1 + s/w2) + gain = 0 (circuit theory), solved with numpy.roots
+    w1, w2 = 2 * math.pi * F1, 2 * math.pi * F2
+    return np.roots([1 / (w1 * w2), 1 / w1 + 1 / w2, 1 + gain])
+
+
+@pytest.fixture
+def single(tmp_path) -> Path:
+    path = tmp_path / "single.cir"
+    path.write_text("behavioural single loop\n" + _loop("", A0) + "\n.end\n")
+    return path
+
+
+@pytest.mark.ngspice
+def test_single_loop_every_break_gives_the_closed_form(single):
+    """Four breaks on one behavioural loop give the closed-form T to 1e-6, agree with each other, and find its closed-loop poles."""
+    c = compare(single, ["out", "n0", "p1", "b1"], sweep=FIXED)
+    for r in c.results:
+        t = r.analysis.t
+        ref = _closed_form(r.analysis.freq_hz, A0)
+        assert np.max(np.abs(t - ref) / np.abs(ref)) < 1e-6  # reference: closed form T(s) of the loop
+    assert len(c.differences) == 6
+    assert all(d.kind == "same" and d.max_relative_difference < 1e-6 for d in c.differences)
+    assert not c.defects
+    assert c.poles_agree is True
+    expected = max(_closed_loop_poles(A0), key=lambda p: (p.real, p.imag))  # reference: numpy.roots of 1 + T
+    for r in c.results:
+        assert dominant_pole(r) == pytest.approx(expected, rel=1e-4)
+
+
+@pytest.mark.ngspice
+def test_two_independent_loops_are_named_as_different_groups(tmp_path):
+    """Locations on two separate loops are reported as different loop groups, each naming its own loop, and each T is its closed form."""
+    path = tmp_path / "two.cir"
+    path.write_text("two behavioural loops\n" + _loop("a", A0) + "\n" + _loop("b", 100.0) + "\n.end\n")
+    c = compare(path, ["outa", "p1b"], sweep=FIXED)
+    for r, gain in zip(c.results, (A0, 100.0)):
+        ref = _closed_form(r.analysis.freq_hz, gain)
+        assert np.max(np.abs(r.analysis.t - ref) / np.abs(ref)) < 1e-6  # reference: closed form T(s) of each loop
+    (d,) = c.differences
+    assert d.kind == "different loop groups"
+    assert "loop 1 (" in d.explanation and "loop 2 (" in d.explanation
+    assert any("e0a" in lp for lp in d.loops) and any("e0b" in lp for lp in d.loops)
+    assert c.pole_checks == () and c.poles_agree is None
+
+
+@pytest.mark.ngspice
+def test_one_deck_equals_separate_measurements():
+    """T from the shared deck equals measure() at each location alone to 1e-9, from one job holding two runs per location."""
+    sweep = Sweep(fmin_hz=10.0, fmax_hz=1e10, fmin_given=True, fmax_given=True, refine=False)
+    sim = default_simulator()
+    jobs = []
+
+    class Recording:
+        backend = "recording"
+
+        def run(self, job):
+            jobs.append(job)
+            return sim.run(job)
+
+        def operating_point(self, netlist):
+            return sim.operating_point(netlist)
+
+    try:
+        c = compare(MILLER, ["out", "o1", "d1"], sweep=sweep, simulator=Recording())
+        alone = {at: measure(MILLER, at, sweep=sweep, simulator=sim) for at in ("out", "o1", "d1")}
+    finally:
+        sim.close()
+    assert len(jobs) == 1 and len(jobs[0].runs) == 6
+    for at, ref in alone.items():
+        t = c.result(at).analysis.t
+        assert np.array_equal(c.result(at).analysis.freq_hz, ref.analysis.freq_hz)
+        assert np.max(np.abs(t - ref.analysis.t) / np.abs(ref.analysis.t)) < 1e-9  # reference: measure() at that location alone
+
+
+@pytest.mark.ngspice
+def test_refinement_rounds_are_batched_for_all_locations():
+    """With widening and refinement on, every job the comparison runs holds the two runs of every location."""
+    sim = default_simulator()
+    jobs = []
+
+    class Recording:
+        backend = "recording"
+
+        def run(self, job):
+            jobs.append(job)
+            return sim.run(job)
+
+        def operating_point(self, netlist):
+            return sim.operating_point(netlist)
+
+    try:
+        c = compare(MILLER, ["out", "o1"], simulator=Recording())
+    finally:
+        sim.close()
+    assert c.sim.refinement_rounds >= 1
+    assert all(sorted(r.name for r in job.runs) == ["0.series", "0.shunt", "1.series", "1.shunt"] for job in jobs)
+
+
+def _pz_poles(tmp_path: Path) -> np.ndarray:
+    """Closed-loop poles of the Miller buffer from ngspice's own .pz (transfer inp -> out)."""
+    text = MILLER.read_text().replace(".lib models/corners.lib tt", f".lib {MILLER.parent / 'models' / 'corners.lib'} tt")
+    text = re.sub(r"^\.end\s*$", ".control\npz inp 0 out 0 vol pol\nprint all\nquit\n.endc\n.end", text, flags=re.MULTILINE)
+    deck = tmp_path / "miller_pz.cir"
+    deck.write_text(text)
+    run = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=120, cwd=tmp_path)
+    found = re.findall(r"^pole\(\d+\) = (\S+),(\S+)$", run.stdout, re.MULTILINE)
+    assert found, run.stdout[-1500:]
+    return np.array([complex(float(a), float(b)) for a, b in found])
+
+
+@pytest.mark.ngspice
+def test_miller_locations_differ_by_named_loops_and_share_the_poles(tmp_path):
+    """On the Miller buffer, o1 broken with Rz on its driver side opens the Cc/Rz local loop that out leaves closed; the difference names it, and both find ngspice's .pz dominant pole."""
+    c = compare(MILLER, ["out", "o1"], drivers={"o1": "m2.d,m4.d,rz.p"})
+    (d,) = c.differences
+    assert d.kind == "different loops opened"
+    assert any(lp.endswith("out -cc-> cz -rz-> o1 -m6(g>d)-> out") for lp in d.loops)
+    assert "o1 opens loop 1.2 which out leaves closed" in d.explanation
+    assert c.poles_agree is True
+    pz = _pz_poles(tmp_path)
+    expected = max((p for p in pz if p.imag >= 0), key=lambda p: p.real)  # reference: ngspice .pz, least damped pole
+    for r in c.results:
+        assert abs(dominant_pole(r) - expected) < 0.01 * abs(expected)
+
+
+@pytest.mark.ngspice
+def test_miller_same_loops_differ_by_loading(tmp_path):
+    """out and o1 with their default sides open the same loops (the Miller loop stays closed at both): the difference is put down to loading."""
+    c = compare(MILLER, ["out", "o1"])
+    (d,) = c.differences
+    assert d.kind == "loading"
+    assert "both leave 1.2 closed" in d.explanation and "o1" in d.explanation.split("two-way break at ")[1]
+    assert d.max_relative_difference > 1e-3
+
+
+# -- without ngspice: the explanation logic on a fake simulator --------------------------------
+
+
+def _fake(t_n0, t_b1) -> AnalyticSimulator:
+    """Probe vectors of ideal-voltage-driver breaks at n0 and b1 with the given T: v_b1 = 1/(1+T), v_a1 = -T/(1+T), i_b2 = 0."""
+    def va(t, src):
+        return lambda f, ac: -t(f) / (1 + t(f)) * ac[src]
+
+    def vb(t, src):
+        return lambda f, ac: 1 / (1 + t(f)) * ac[src]
+
+    return AnalyticSimulator({
+        "v(n0_drive)": va(t_n0, "vnl_series"), "v(n0)": vb(t_n0, "vnl_series"), "i(vnl_series)": lambda f, ac: 0 * f,
+        "v(b1_drive)": va(t_b1, "vnl_series_2"), "v(b1)": vb(t_b1, "vnl_series_2"), "i(vnl_series_2)": lambda f, ac: 0 * f,
+    })
+
+
+def test_fake_equal_t_on_single_loop_is_same(single):
+    """Identical T at two one-way breaks of a single loop is reported as the same, with agreeing poles."""
+    t = lambda f: _closed_form(f, A0)  # noqa: E731
+    c = compare(single, ["n0", "b1"], sweep=FIXED, simulator=_fake(t, t))
+    (d,) = c.differences
+    assert d.kind == "same" and d.max_relative_difference == 0.0
+    assert c.poles_agree is True
+
+
+def test_fake_different_t_on_single_loop_is_a_defect(single):
+    """A 1 % difference of T between two one-way breaks of one single loop is reported as a defect, and the shifted poles disagree when far apart."""
+    c = compare(single, ["n0", "b1"], sweep=FIXED, simulator=_fake(lambda f: _closed_form(f, A0), lambda f: _closed_form(f, 1.01 * A0)))
+    (d,) = c.differences
+    assert d.kind == "defect" and d.max_relative_difference == pytest.approx(0.01 / 1.01, rel=1e-6)  # |T_b - T_a| / |T_b|
+    assert c.defects == (d,)
+    far = compare(single, ["n0", "b1"], sweep=FIXED, simulator=_fake(lambda f: _closed_form(f, A0), lambda f: _closed_form(f, 2.0 * A0)))
+    # closed-loop poles move with sqrt(gain) for this loop (numpy.roots of 1 + T): 2x gain is ~40 % apart, beyond POLE_RTOL
+    pa, pb = (max(_closed_loop_poles(g), key=lambda p: p.imag) for g in (A0, 2 * A0))
+    assert abs(pa - pb) > POLE_RTOL * abs(pa)
+    assert far.poles_agree is False
+
+
+def test_bad_locations_fail_before_simulating(single):
+    """Fewer than two locations, a node given twice and a driver for an absent location are ProbeErrors raised before any job runs."""
+    sim = AnalyticSimulator({})
+    with pytest.raises(ProbeError, match="at least two"):
+        compare(single, ["out"], simulator=sim)
+    with pytest.raises(ProbeError, match="more than once"):
+        compare(single, ["out", "OUT"], simulator=sim)
+    with pytest.raises(ProbeError, match="not among the locations"):
+        compare(single, ["out", "n0"], drivers={"p1": "r1"}, simulator=sim)
+    assert sim.jobs == []
