@@ -123,12 +123,19 @@ def _merge(f: np.ndarray, t: np.ndarray, f2: np.ndarray, t2: np.ndarray) -> tupl
 
 
 def _phase_settled(f: np.ndarray, t: np.ndarray) -> bool:
-    """True when the phase moves by less than 3 deg over the lowest decade of the sweep (common practice)."""
+    """True when the bottom of the sweep is settled: the phase moves by less than 3 deg over the lowest
+    decade (common practice) and no unity crossing hides below it, i.e. |T| is not above 1 while falling
+    toward DC (an AC-coupled loop, whose phase sits still at +90 deg) nor below 1 while rising toward DC."""
     top = np.searchsorted(f, f[0] * 10.0)
     if top >= f.size:
         return True
     ph = np.unwrap(np.angle(t[: top + 1]))
-    return bool(np.ptp(ph) < math.radians(3.0))
+    if np.ptp(ph) >= math.radians(3.0):
+        return False
+    bottom, decade_up = abs(t[0]), abs(t[top])
+    falls_toward_dc = decade_up > 1.1 * bottom
+    rises_toward_dc = bottom > 1.1 * decade_up
+    return not ((bottom > 1.0 and falls_toward_dc) or (bottom < 1.0 and rises_toward_dc))
 
 
 class _Runner:

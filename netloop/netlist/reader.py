@@ -13,7 +13,7 @@ from netloop.netlist.lines import LogicalLine, logical_lines, tokenize
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
 
-__all__ = ["gc_paused", "parse_file", "parse_text", "IGNORED_KEYWORDS", "KEPT_KEYWORDS"]
+__all__ = ["gc_paused", "parse_file", "parse_text", "spiceinit_note", "IGNORED_KEYWORDS", "KEPT_KEYWORDS"]
 
 # Analyses and output statements: netloop never runs them; they are set aside in Netlist.ignored.
 IGNORED_KEYWORDS = frozenset(
@@ -394,4 +394,28 @@ def parse_file(path: str | os.PathLike) -> Netlist:
             text = fh.read()
     except OSError as exc:
         raise NetlistError(f"cannot read netlist {os.fspath(path)!r}: {exc.strerror or exc}") from exc
-    return parse_text(text, source=p, base_dir=os.path.dirname(p))
+    netlist = parse_text(text, source=p, base_dir=os.path.dirname(p))
+    note = spiceinit_note(os.path.dirname(p))
+    return replace(netlist, warnings=(*netlist.warnings, note)) if note else netlist
+
+
+def spiceinit_note(folder: str) -> str | None:
+    """A warning when ``folder`` holds a ``.spiceinit`` that ngspice will not read for this netlist.
+
+    ngspice 39 reads ``.spiceinit`` from the folder it runs in (the ngspice program, failing that, from the
+    home folder), never from the netlist's folder; netloop runs ngspice in the caller's current folder, so a ``.spiceinit`` next
+    to a netlist elsewhere (say one holding ``set ngbehavior=hsa`` for a process library) is lost.
+    """
+    path = os.path.join(folder, ".spiceinit")
+    if not os.path.isfile(path) or os.path.samefile(folder, os.getcwd()):
+        return None
+    try:
+        with open(path, encoding="utf-8", errors="replace") as fh:
+            sets = [ln.strip() for ln in fh if ln.strip().lower().startswith(("set ", "option"))]
+    except OSError:
+        sets = []
+    said = f" (it says: {'; '.join(sets)})" if sets else ""
+    return (
+        f"{path}{said} is not read: ngspice reads .spiceinit only from the folder it runs in (netloop runs it in "
+        f"the current folder, {os.getcwd()}); run netloop from {folder} or copy the file to the current folder"
+    )

@@ -40,7 +40,8 @@ class _Worker:
                 stdin=subprocess.PIPE,
                 stdout=subprocess.PIPE,
                 stderr=log,
-                cwd=self.scratch.name,
+                # ngspice reads .spiceinit from the folder it starts in: the caller's, as batch mode and ngspice itself do
+                cwd=os.getcwd(),
                 env=env,
             )
         try:
