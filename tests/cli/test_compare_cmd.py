@@ -1,0 +1,78 @@
+"""`netloop compare`: the JSON document, the table, the overlaid plots and the exit statuses, through main()."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+
+from netloop.cli.main import main
+
+C1 = 1.0 / (2 * math.pi * 1e3 * 1e3)  # 1 kOhm, pole at 1 kHz
+C2 = 1.0 / (2 * math.pi * 1e3 * 1e6)  # 1 kOhm, pole at 1 MHz
+LOOP = f"""behavioural single loop: gain 1000, poles 1 kHz and 1 MHz
+vref ref 0 dc 0.5
+e0 n0 0 ref out 1000
+r1 n0 p1 1k
+c1 p1 0 {C1:.17g}
+eb b1 0 p1 0 1
+r2 b1 out 1k
+c2 out 0 {C2:.17g}
+.end
+"""
+SWEEP = ["--fmin", "1", "--fmax", "1g"]
+
+
+@pytest.fixture
+def loop(tmp_path):
+    path = tmp_path / "loop.cir"
+    path.write_text(LOOP)
+    return str(path)
+
+
+@pytest.mark.ngspice
+def test_json_has_locations_in_check_shape_differences_and_poles_agree(loop, capsys):
+    """--json gives one entry per location with exactly the keys of check --json, the explained differences and poles_agree."""
+    assert main(["compare", loop, "--at", "out", "--at", "b1", "--json", *SWEEP]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert main(["check", loop, "--at", "out", "--json", *SWEEP]) == 0
+    single = json.loads(capsys.readouterr().out)
+    assert [x["break"]["node"] for x in doc["locations"]] == ["out", "b1"]
+    assert all(set(x) == set(single) for x in doc["locations"])
+    (d,) = doc["differences"]
+    assert d["kind"] == "same" and d["locations"] == ["out", "b1"]
+    assert doc["poles_agree"] is True and doc["passed"] is True
+    # the same loop measured alone by check: its phase margin equals compare's to 1e-6 deg (reference: check, i.e. measure())
+    assert doc["locations"][0]["margins"]["phase_margin_deg"] == pytest.approx(single["margins"]["phase_margin_deg"], abs=1e-6)
+
+
+@pytest.mark.ngspice
+def test_both_methods_table_and_overlaid_plots(loop, capsys, tmp_path):
+    """--method both gives a column per location and method, and --plot writes the overlaid Bode and Nyquist files."""
+    plot = tmp_path / "cmp.png"
+    assert main(["compare", loop, "--at", "out", "--at", "n0", "--method", "both", "--plot", str(plot), *SWEEP]) == 0
+    out = capsys.readouterr().out
+    head = out.splitlines()[0].split("  ")
+    assert [h.strip() for h in head if h.strip()] == ["out (tian)", "out (middlebrook)", "n0 (tian)", "n0 (middlebrook)"]
+    for row in ("DC loop gain", "gain crossovers", "phase margin", "gain margin", "modulus margin", "dominant pole", "verdict"):
+        assert any(line.startswith(row) for line in out.splitlines())
+    assert "Tian's and Middlebrook's T agree at out" in out
+    assert plot.stat().st_size > 0 and (tmp_path / "cmp-nyquist.png").stat().st_size > 0
+
+
+@pytest.mark.ngspice
+def test_failed_requirement_exits_1(loop, capsys):
+    """A requirement the loop misses (its phase margin is about 52 deg, closed form) makes the exit status 1."""
+    assert main(["compare", loop, "--at", "out", "--at", "p1", "--require", "pm>=80", *SWEEP]) == 1
+    assert "FAIL" in capsys.readouterr().out
+
+
+def test_bad_input_exits_2(loop, capsys):
+    """An unknown node, a single location and a global --driver are bad input: exit 2 with one message."""
+    assert main(["compare", loop, "--at", "out", "--at", "nowhere"]) == 2
+    assert "nowhere" in capsys.readouterr().err
+    assert main(["compare", loop, "--at", "out"]) == 2
+    assert "at least two" in capsys.readouterr().err
+    assert main(["compare", loop, "--at", "out", "--at", "n0", "--driver", "e0"]) == 2
+    assert "--at NODE=ELEMENT" in capsys.readouterr().err
