@@ -40,7 +40,7 @@ import numpy as np
 from netloop.analysis import parse_requirements
 from netloop.analysis.requirements import Requirement
 from netloop.errors import NetloopError, ProbeError
-from netloop.graph import LoopDiscovery, LoopGroup, find_loops, flatten
+from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, Step, find_loops, flatten
 from netloop.loop_result import LoopResult, SimInfo
 from netloop.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, return_ratio, sample_loops
 from netloop.netlist import Netlist, write_netlist
@@ -209,10 +209,6 @@ _CONTROL_PINS = {"m": ("g",), "j": ("g",), "z": ("g",), "q": ("b",), "e": ("cp",
 _VOLTAGE_OUTPUTS = frozenset("eh")
 
 
-def _element(label: str) -> str:
-    return label.rsplit(".", 1)[0]
-
-
 def _unilateral(p: ProbedNetlist) -> bool:
     """The break is at a one-way point: the load side only controls, or the driver is an ideal voltage source."""
     def kind_pin(label: str) -> tuple[str, str]:
@@ -235,20 +231,40 @@ class _Place:
     unilateral: bool
 
 
+def _side(flat: FlatCircuit, step: Step, pin_slot: int, sides: Mapping[str, str]) -> str | None:
+    """Which side of the split ("driver" or "load") the step's element sits on at the broken node, in the probed circuit."""
+    for k, name in enumerate(step.elements):
+        try:
+            fe = flat.element(name)
+        except (KeyError, NetloopError):
+            continue
+        if not step.passive and k == 0 and step.pins[pin_slot] in fe.pins:
+            node = fe.nodes[fe.pins.index(step.pins[pin_slot])]
+            if node in sides:
+                return sides[node]
+        hits = {sides[n] for n in fe.nodes if n in sides}
+        if len(hits) == 1:
+            return hits.pop()
+    return None
+
+
 def _place(p: ProbedNetlist, found: LoopDiscovery) -> _Place:
+    """Where the loops through the node enter and leave it, read on the flattened probed netlist (a: driver, b: load)."""
     node = p.side_b
     group = next((g for g in found.groups if node in g.nodes), None)
     opened, closed = [], []
     if group is not None:
-        driver = {_element(t) for t in p.driver_terminals}
+        flat = flatten(p.netlist)
+        sides = {p.side_a: "driver", p.side_b: "load"}
         for k, lp in enumerate(group.loops, 1):
-            into = [s for s in lp.steps if s.target == node]
-            out = [s for s in lp.steps if s.source == node]
-            if not into or not out:
+            into = next((st for st in lp.steps if st.target == node), None)
+            out = next((st for st in lp.steps if st.source == node), None)
+            if into is None or out is None:
                 continue
-            in_driver = any(e in driver for e in into[0].elements)
-            out_driver = any(e in driver for e in out[0].elements)
-            (opened if in_driver != out_driver else closed).append(k)
+            a, b = _side(flat, into, 1, sides), _side(flat, out, 0, sides)
+            if a is None or b is None:
+                continue
+            (opened if a != b else closed).append(k)
     return _Place(p.node, group, tuple(opened), tuple(closed), _unilateral(p))
 
 
@@ -339,14 +355,33 @@ def _method_difference(location: str, tt: np.ndarray, tm: np.ndarray) -> Differe
 
 
 def dominant_pole(result: LoopResult) -> complex | None:
-    """The fitted closed-loop pole nearest the imaginary axis (largest real part; upper member of a pair), or None."""
+    """The fitted closed-loop pole that shapes 1/(1+T) most (upper member of a pair), or None when there is no fit.
+
+    Each fitted pole's weight is the peak its term reaches on the jw axis, |r| / |Re p|, with the
+    residues r from a linear least-squares fit of S = 1/(1+T) = c + sum r_k / (s - p_k) over the
+    data at the fitted poles. A pole that only shows faintly (another loop's, seen through weak
+    coupling, or one the loop barely moves) has a small weight even when it is the least damped.
+    """
     poles = result.analysis.poles
-    if poles is None:
+    if poles is None or not poles.poles_rad_s:
         return None
-    cands = [p for p in poles.poles_rad_s if p.imag >= -1e-9 * abs(p)]
-    if not cands:
+    p = np.asarray(poles.poles_rad_s, dtype=complex)
+    f = np.asarray(result.analysis.freq_hz, dtype=float)
+    t = np.asarray(result.analysis.t, dtype=complex)
+    s = 2j * math.pi * f
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sens = 1.0 / (1.0 + t)
+        basis = np.column_stack([np.ones_like(s), *(1.0 / (s - pk) for pk in p)])
+    good = np.all(np.isfinite(basis), axis=1) & np.isfinite(sens)
+    if np.count_nonzero(good) <= p.size:
         return None
-    return complex(max(cands, key=lambda p: (p.real, p.imag)))
+    coef = np.linalg.lstsq(basis[good], sens[good], rcond=None)[0]
+    weight = np.abs(coef[1:]) / np.maximum(np.abs(p.real), 1e-12 * np.abs(p))
+    upper = p.imag >= -1e-9 * np.abs(p)
+    if not np.any(upper):
+        return None
+    k = int(np.argmax(np.where(upper, weight, -np.inf)))
+    return complex(p[k])
 
 
 def _near(p: complex, poles: Iterable[complex]) -> bool:

@@ -228,3 +228,17 @@ def test_bad_locations_fail_before_simulating(single):
     with pytest.raises(ProbeError, match="not among the locations"):
         compare(single, ["out", "n0"], drivers={"p1": "r1"}, simulator=sim)
     assert sim.jobs == []
+
+
+@pytest.mark.ngspice
+def test_hierarchical_locations_inside_instances():
+    """In the two-channel readout, out1 and xa1.o1 (inside an instance) open the same loops of channel 1 and leave its Cc/Rz loop closed, while out2 is on the other loop group."""
+    c = compare(ROOT / "circuits" / "hier" / "top.cir", ["out1", "xa1.o1", "out2"])
+    by_pair = {d.locations: d for d in c.differences}
+    inside = by_pair[("out1", "xa1.o1")]
+    assert inside.kind == "loading" and "both leave 1.1 closed" in inside.explanation
+    assert inside.loops and all(lp.startswith("loop 1.") for lp in inside.loops)
+    assert by_pair[("out1", "out2")].kind == "different loop groups"
+    assert by_pair[("xa1.o1", "out2")].kind == "different loop groups"
+    (check,) = c.pole_checks  # only the two locations of channel 1 share a group
+    assert check.locations == ("out1", "xa1.o1") and check.agree is True
