@@ -5,6 +5,7 @@ from __future__ import annotations
 import contextlib
 import logging
 import os
+import uuid
 import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass, field
@@ -186,7 +187,8 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
         workers = len(client.scheduler_info().get("workers", {}))
-        futures = {client.submit(run_task, t, options, key=f"netloop-corner-{t.key}", pure=False): t for t in pending}
+        run_id = uuid.uuid4().hex[:8]  # two runs on one scheduler never share a task
+        futures = {client.submit(run_task, t, options, key=f"netloop-corner-{t.key}-{run_id}", pure=False): t for t in pending}
         for future in as_completed(futures):
             task = futures[future]
             try:
