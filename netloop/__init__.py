@@ -10,7 +10,7 @@ corners   corner plans run as a regression on Dask, results journalled line by l
 cli       the ``netloop`` command, a thin shell over this API
 
 The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
-``measure_all_loops`` (every loop group), ``compare_locations`` (several breaks in one deck).
+``measure_all_loops`` (every loop group), ``compare`` (several breaks in one deck).
 Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
 """
 
@@ -38,7 +38,8 @@ _EXPORTS = {
     "UnknownNodeError": "netloop.errors",
     "analyse": "netloop.analysis",
     "break_loop": "netloop.probe",
-    "compare_locations": "netloop.compare",
+    "Comparison": "netloop.compare",
+    "compare": "netloop.compare",
     "default_simulator": "netloop.sim",
     "find_loops": "netloop.graph",
     "flatten": "netloop.graph",
