@@ -156,12 +156,15 @@ def _pz_poles(tmp_path: Path) -> np.ndarray:
 
 @pytest.mark.ngspice
 def test_miller_locations_differ_by_named_loops_and_share_the_poles(tmp_path):
-    """On the Miller buffer, o1 broken with Rz on its driver side opens the Cc/Rz local loop that out leaves closed; the difference names it, and both find ngspice's .pz dominant pole."""
-    c = compare(MILLER, ["out", "o1"], drivers={"o1": "m2.d,m4.d,rz.p"})
-    (d,) = c.differences
+    """On the Miller buffer, o1 broken with Rz on its driver side opens the Cc/Rz local loop that out leaves closed, out opens the tail loops that bypass d1; the differences name them, and every location finds ngspice's .pz dominant pole."""
+    c = compare(MILLER, ["out", "o1", "d1"], drivers={"o1": "m2.d,m4.d,rz.p"})
+    by_pair = {d.locations: d for d in c.differences}
+    d = by_pair[("out", "o1")]
     assert d.kind == "different loops opened"
     assert any(lp.endswith("out -cc-> cz -rz-> o1 -m6(g>d)-> out") for lp in d.loops)
     assert "o1 opens loop 1.2 which out leaves closed" in d.explanation
+    # the loops through the tail and M1's source never pass d1 (loop discovery: 1.3 and 1.6 run tail -> o1 -> out -> tail)
+    assert "out opens loops 1.3, 1.6 which bypass d1" in by_pair[("out", "d1")].explanation
     assert c.poles_agree is True
     pz = _pz_poles(tmp_path)
     expected = max((p for p in pz if p.imag >= 0), key=lambda p: p.real)  # reference: ngspice .pz, least damped pole
