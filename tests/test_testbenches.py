@@ -480,3 +480,20 @@ def test_spiceinit_next_to_the_netlist(tree, tmp_path, monkeypatch, sim):
     finally:
         fresh.close()
     assert "Compatibility modes selected: hs a" in log  # ngspice's own note when it loads a circuit in that mode
+
+
+@pytest.mark.ngspice
+def test_sky130_buffer_under_hsa_mode(tree, tmp_path, monkeypatch, sky130_results):
+    """With 'set ngbehavior=hsa' in the current folder's .spiceinit (as some process libraries ask), netloop's ngspice runs in that mode and the sky130 buffer measures the same margins."""
+    (tmp_path / ".spiceinit").write_text("set ngbehavior=hsa\n")
+    monkeypatch.chdir(tmp_path)
+    hsa = default_simulator(backend="shared")
+    try:
+        log = hsa.run(SimJob("t\nv1 a 0 1\nr1 a 0 1k\n", runs=(), save=())).log
+        r = measure(tree / "sky130" / "miller_buffer.cir", "out", sweep=Sweep(fmin_hz=1e2, fmax_hz=1e10, fmin_given=True, fmax_given=True), simulator=hsa)
+    finally:
+        hsa.close()
+    assert "Compatibility modes selected: hs a" in log  # ngspice's own note: the mode is on in this worker
+    plain = sky130_results["miller_buffer.cir", "tt"].analysis.margins
+    assert r.analysis.margins.phase_margin_deg == pytest.approx(plain.phase_margin_deg, abs=0.05)  # reference: the same loop in ngspice's default mode
+    assert r.analysis.margins.unity_gain_hz == pytest.approx(plain.unity_gain_hz, rel=1e-3)
