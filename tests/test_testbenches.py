@@ -64,18 +64,21 @@ def _variant(path: Path, name: str, edit) -> Path:
 
 
 def _ngspice(deck: Path, cwd: Path) -> str:
+    """ngspice -b on a deck from the folder ``cwd``: its stdout and stderr."""
     run = subprocess.run(["ngspice", "-b", str(deck)], cwd=cwd, capture_output=True, text=True, timeout=120)
     return run.stdout + run.stderr
 
 
 def _printed(text: str, name: str) -> float:
+    """The value ngspice's print wrote for one vector."""
     match = re.search(rf"^{re.escape(name)} = (\S+)", text, re.MULTILINE)
     assert match, f"ngspice printed no {name}:\n{text[-1500:]}"
     return float(match.group(1))
 
 
-def _with_control(path: Path, name: str, control: str, drop: tuple[str, ...] = ()) -> Path:
-    lines = [ln for ln in path.read_text().splitlines() if not ln.lower().startswith(drop or ("\0",))]
+def _with_control(path: Path, name: str, control: str) -> Path:
+    """A sibling of ``path`` with a control block (ending in quit) before its final .end."""
+    lines = path.read_text().splitlines()
     end = max(i for i, ln in enumerate(lines) if ln.strip().lower() == ".end")
     lines[end:end] = [".control", *control.strip().splitlines(), "quit", ".endc"]
     out = path.with_name(name)
