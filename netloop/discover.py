@@ -1,4 +1,4 @@
-"""Every loop of a netlist, composed: flatten, find the loop groups, break each at its best node and measure it."""
+"""Every loop of a netlist, composed: flatten, find the loop groups, state each break from the probe's real split, measure."""
 
 from __future__ import annotations
 
@@ -7,21 +7,103 @@ from os import PathLike
 
 import numpy as np
 
-from netloop.errors import ProbeError
-from netloop.graph import LoopDiscovery, LoopGroup, find_loops, flatten
+from netloop.errors import NetloopError, ProbeError
+from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
+from netloop.graph.split_effects import NodeSplit, apply_splits
 from netloop.loop_result import LoopResult
 from netloop.measure import load_netlist, measure
 from netloop.netlist import Netlist
+from netloop.netlist.model import Element
+from netloop.probe.scope import Scope, child_scope, elements_of, resolve_node
+from netloop.probe.sides import ac_ground_nodes, decide_sides, terminals_at
 
-__all__ = ["discover_loops", "measure_all_loops", "opened_circuit_rhp_poles"]
+__all__ = ["DEFAULT_SPLIT_CHECKS", "discover_loops", "measure_all_loops", "node_split", "opened_circuit_rhp_poles", "probe_splits"]
+
+DEFAULT_SPLIT_CHECKS = 8  # candidates per group (in structural order) whose real split is asked of the probe
+
+
+def _flat_terminals(netlist: Netlist, circuit: FlatCircuit, index: dict[str, int], scope: Scope, e: Element, slot: int, globals_, depth: int = 0):
+    """The flattened (element, pin) terminals behind one terminal of the probe (an X pin stands for every terminal inside on that pin's net)."""
+    label = scope.label(e)
+    at = index.get(label)
+    if at is not None:  # a primitive, or a device wrapper that flattening keeps as one device
+        pins = circuit.element_pins[at]
+        return [(label, pins[slot])] if slot < len(pins) else []
+    child = child_scope(netlist, scope, e, globals_) if e.kind == "X" and depth < 64 else None
+    if child is None:
+        return []
+    inner_net = child.definitions[-1].pins[slot]
+    out = []
+    for inner in elements_of(netlist, child):
+        for k, n in enumerate(inner.nodes):
+            if n == inner_net:
+                out.extend(_flat_terminals(netlist, circuit, index, child, inner, k, globals_, depth + 1))
+    return out
+
+
+def node_split(netlist: Netlist, circuit: FlatCircuit, node: str, *, driver: str | None = None,
+               ac_ground: frozenset[str] | None = None, index: dict[str, int] | None = None) -> NodeSplit:
+    """How netloop.probe.break_loop would split ``node`` (same side decision, no netlist built), or why it refuses.
+
+    ``circuit`` is ``flatten(netlist)``; each probe terminal is mapped to the flattened terminals it
+    stands for. ``ac_ground`` (netloop.probe.sides.ac_ground_nodes) and ``index`` (element name ->
+    position in ``circuit``) may be given to save a pass over the circuit.
+    """
+    globals_ = frozenset(netlist.globals)
+    if index is None:
+        index = {n: i for i, n in enumerate(circuit.names)}
+    if ac_ground is None:
+        ac_ground = ac_ground_nodes(netlist, globals_)
+    try:
+        # the steps of break_loop up to its side decision (netloop/probe/breaking.py)
+        scope, local = resolve_node(netlist, node, globals_)
+        if scope.flat(local, globals_) in ac_ground:
+            raise ProbeError(f"cannot break node {node}: it is AC ground or a supply")
+        terminals = terminals_at(netlist, scope, local, ac_ground, globals_)
+        if len(terminals) < 2:
+            raise ProbeError(f"cannot break node {node}: it has one connection, so no loop passes through it")
+        split = decide_sides(netlist, scope, local, terminals, driver, ac_ground, globals_)
+    except NetloopError as exc:
+        return NodeSplit(node, refused=str(exc))
+    sides: dict[tuple[str, str], str] = {}
+    for side, group in (("driver", split.driver), ("load", (*split.load, *split.shunt))):
+        for t in group:
+            for ft in _flat_terminals(netlist, circuit, index, scope, t.element, t.slot, globals_):
+                sides.setdefault(ft, side)
+    return NodeSplit(node, tuple(t.label for t in split.driver), tuple(t.label for t in (*split.load, *split.shunt)), sides)
+
+
+def probe_splits(netlist: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, checks: int = DEFAULT_SPLIT_CHECKS,
+                 driver: str | None = None) -> LoopDiscovery:
+    """``found`` with the first ``checks`` candidates of each group restated and re-ranked from the probe's real split.
+
+    See netloop.graph.split_effects.apply_splits for what is said and how the candidates are ranked.
+    """
+    if checks < 1:
+        return found
+    ac_ground = ac_ground_nodes(netlist, frozenset(netlist.globals))
+    index = {n: i for i, n in enumerate(circuit.names)}
+    groups = []
+    for g in found.groups:
+        splits = {c.node: node_split(netlist, circuit, c.node, driver=driver, ac_ground=ac_ground, index=index) for c in g.candidates[:checks]}
+        groups.append(apply_splits(circuit, g, splits))
+    return replace(found, groups=tuple(groups))
 
 
 def discover_loops(
-    netlist: Netlist | str | PathLike[str], *, length_bound: int = DEFAULT_LENGTH_BOUND, max_loops: int = DEFAULT_MAX_LOOPS
+    netlist: Netlist | str | PathLike[str], *, length_bound: int = DEFAULT_LENGTH_BOUND, max_loops: int = DEFAULT_MAX_LOOPS,
+    split_checks: int = DEFAULT_SPLIT_CHECKS,
 ) -> LoopDiscovery:
-    """The loop groups of a netlist (a parsed Netlist, a path or netlist text), their loops and ranked break nodes."""
-    return find_loops(flatten(load_netlist(netlist)), length_bound=length_bound, max_loops=max_loops)
+    """The loop groups of a netlist (a parsed Netlist, a path or netlist text), their loops and ranked break nodes.
+
+    The first ``split_checks`` candidates of each group are stated from the probe's real split of the
+    node (which loops it opens, which stay closed and why) and re-ranked; 0 keeps the structural view.
+    """
+    parsed = load_netlist(netlist)
+    circuit = flatten(parsed)
+    found = find_loops(circuit, length_bound=length_bound, max_loops=max_loops)
+    return probe_splits(parsed, circuit, found, checks=split_checks)
 
 
 def opened_circuit_rhp_poles(result: LoopResult) -> int | None:
@@ -52,6 +134,10 @@ def _measure_group(parsed: Netlist, group: LoopGroup, options: dict, notes: list
     tried = []
     for cand in group.candidates:
         label = f"loop {group.index} ({cand.node})"
+        if cand.refused or (cand.split_checked and not cand.opened):
+            why = cand.refused or "the probe's split there opens none of the group's loops"
+            tried.append(f"{cand.node} ({why})")
+            continue
         try:
             result = measure(parsed, cand.node, label=label, **options)
         except ProbeError as exc:
@@ -60,10 +146,12 @@ def _measure_group(parsed: Netlist, group: LoopGroup, options: dict, notes: list
         if tried:
             notes.append(f"loop {group.index}: could not break at {'; '.join(tried)}; fell back to rank {cand.rank}")
         notes.append(f"loop {group.index}: broken at {cand.node}: {cand.reason}")
-        if cand.left_closed:
-            closed = _closed_note(group, cand.node, cand.left_closed)
-            notes.append(closed)
-            extra = [closed]
+        # Local loops kept closed on purpose (a Miller Cc with its stage) are stated in the reason, as common practice
+        # measures the global loop with them closed; any other loop left closed is warned about and checked.
+        other = tuple(k for k in cand.left_closed if k not in cand.kept_closed)
+        if other:
+            extra = [_closed_note(group, cand.node, other)]
+            notes.extend(extra)
             rhp = opened_circuit_rhp_poles(result)
             if rhp:
                 extra.append(f"a rational fit of the measured T has {rhp} right-half-plane pole(s): the opened circuit looks unstable by itself; "
@@ -83,12 +171,15 @@ def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options)
 
     ``measure_options`` are those of netloop.measure.measure (except ``at`` and ``label``); one
     simulator is started for all loops unless one is given. Each result is labelled
-    ``loop K (NODE)``; the notes say which node was chosen for which group and why, and which
-    loops a break leaves closed. Raises ProbeError when the netlist has no loop.
+    ``loop K (NODE)``; the notes say which node was chosen for which group and why, which loops
+    the probe's split there opens and which it leaves closed (local loops kept closed with their
+    driver on purpose apart from the others, which are warned about). Raises ProbeError when the
+    netlist has no loop.
     """
     parsed = load_netlist(netlist)
     options = {k: v for k, v in measure_options.items() if k not in ("at", "label")}
-    found = find_loops(flatten(parsed))
+    circuit = flatten(parsed)
+    found = find_loops(circuit)
     notes = list(found.notes)
     if not found.groups:
         raise ProbeError(f"no feedback loop found in {parsed.source}: no signal path leads from a node back to itself "
@@ -97,6 +188,7 @@ def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options)
         raise ProbeError(f"--driver names one break's driver, but {parsed.source} has {len(found.groups)} loop groups; give --at too")
     if options.get("driver") is None:
         options.pop("driver", None)
+    found = probe_splits(parsed, circuit, found, driver=options.get("driver"))
     own = options.get("simulator") is None
     if own:
         from netloop.sim import default_simulator

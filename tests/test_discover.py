@@ -48,8 +48,23 @@ def test_miller_buffer_is_measured_at_out(circuits):
     # Reference: circuits/miller_buffer.cir header, hand probe in ngspice (0 V source at M1's gate): PM about 65 deg, crossover about 44 MHz.
     assert 60.0 < r.analysis.margins.phase_margin_deg < 70.0
     assert 40e6 < r.analysis.gain_crossovers[0].freq_hz < 50e6
-    assert any("broken at out" in n and "opens them all" in n for n in notes)
+    # The probe keeps Cc with M6 at out: the Miller loop stays closed on purpose, stated as such, never warned about.
+    assert any("broken at out" in n and "stays closed, as intended" in n for n in notes)
     assert not any("closed" in w for w in r.warnings)
+
+
+@pytest.mark.ngspice
+def test_hier_channel_two_is_measured_at_fb2_with_the_headers_margin(circuits):
+    """Without --at, channel 2 of the readout is broken at fb2 (Xa2's inn), and its margin is the header's hand probe at that pin."""
+    results, notes = measure_all_loops(circuits / "hier" / "top.cir")
+    assert [r.label for r in results] == ["loop 1 (out1)", "loop 2 (fb2)"]
+    # Reference: circuits/hier/top.cir header, hand probe at tt (0 V source ac 1 in series at each channel's inn pin):
+    # channel 1 crossover about 44 MHz, PM about 65 deg; channel 2 about 22 MHz, PM about 61 deg.
+    (c1, c2) = results
+    assert abs(c1.analysis.margins.phase_margin_deg - 65.0) < 5.0 and 40e6 < c1.analysis.gain_crossovers[0].freq_hz < 50e6
+    assert abs(c2.analysis.margins.phase_margin_deg - 61.0) < 5.0 and 19e6 < c2.analysis.gain_crossovers[0].freq_hz < 25e6
+    assert any("broken at fb2" in n and "does not pass fb2" in n for n in notes)
+    assert not any("leaves" in w and "closed" in w for r in results for w in r.warnings)
 
 
 @pytest.mark.ngspice
@@ -97,3 +112,122 @@ def test_driver_without_at_is_refused_for_several_groups(circuits):
     # Reference: circuits/testbench/shared_bias.cir has two independent loops (its header).
     with pytest.raises(ProbeError, match="2 loop groups"):
         measure_all_loops(circuits / "testbench" / "shared_bias.cir", driver="m6a")
+
+
+# -- what discovery says about a break agrees with the probe's real split -------------------------------------------
+
+
+def _probe_label(circuit, node: str, element: str, pin: str) -> str:
+    """How break_loop names the terminal at ``node`` behind a flattened terminal: ``m6.d``, or ``xa2.out`` for an instance pin."""
+    scope = tuple(node.split(".")[:-1])
+    fe = circuit.element(element)
+    if fe.path == scope:
+        return f"{element}.{pin}"
+    assert fe.path[:len(scope)] == scope and len(fe.path) == len(scope) + 1, "the demo circuits nest one level"
+    local = fe.element.nodes[fe.pins.index(pin)]  # inside the instance, a net on a pin bears the pin's name
+    return f"{'.'.join(fe.path)}.{local}"
+
+
+def _terminals(circuit, step, node: str, into: bool) -> list[tuple[str, str]]:
+    out = []
+    for el in step.elements:
+        fe = circuit.element(el)
+        if step.passive or el != step.elements[0]:
+            out += [(el, p) for p, n in zip(fe.pins, fe.nodes) if n == node]
+        else:
+            out.append((el, step.pins[1] if into else step.pins[0]))
+    return out
+
+
+def _check_against_probe(path) -> int:
+    """For every candidate whose split was worked out, compare its opened/closed loops with break_loop's own terminal lists."""
+    from netloop.graph import flatten
+    from netloop.netlist import parse_file
+    from netloop.probe import break_loop
+
+    parsed = parse_file(path)
+    circuit = flatten(parsed)
+    checked = 0
+    for group in discover_loops(parsed).groups:
+        for c in group.candidates:
+            if not c.split_checked:
+                continue
+            if c.refused:
+                with pytest.raises(ProbeError) as exc:
+                    break_loop(parsed, c.node)
+                assert str(exc.value) == c.refused
+                continue
+            try:
+                probed = break_loop(parsed, c.node)
+            except ProbeError as exc:  # the probe's own check after the split: no loop runs through the break
+                assert "is not on any loop" in str(exc) and not c.opened
+                continue
+            load = {*probed.load_terminals, *probed.shunt_terminals}
+            assert (c.driver_side, set(c.load_side)) == (probed.driver_terminals, load)
+            want_open, want_closed = set(), set()
+            for k, lp in enumerate(group.loops, 1):
+                if c.node not in lp.opened_by:
+                    want_closed.add(k)
+                    continue
+                labels = [_probe_label(circuit, c.node, el, pin)
+                          for s in lp.steps for into in (True, False) if (s.target if into else s.source) == c.node
+                          for el, pin in _terminals(circuit, s, c.node, into)]
+                assert labels and all(x in probed.driver_terminals or x in load for x in labels), (c.node, labels)
+                sides = {x in probed.driver_terminals for x in labels}
+                (want_closed if len(sides) == 1 else want_open).add(k)
+            assert (set(c.opened), set(c.left_closed)) == (want_open, want_closed), c.node
+            assert set(c.kept_closed) <= set(c.left_closed)
+            checked += 1
+    return checked
+
+
+@pytest.mark.parametrize("name", ["miller_buffer.cir", "hier/top.cir", "fd_amp_cmfb.cir", "testbench/shared_bias.cir", "ldo.cir",
+                                  "sky130/miller_buffer.cir"])
+def test_loops_claimed_closed_are_those_the_probe_split_leaves_whole(circuits, name):
+    """For every candidate, the loops said to stay closed are exactly those whose ways in and out at the node sit on one side of break_loop's split."""
+    # Reference: netloop.probe.break_loop's own driver_terminals / load_terminals / shunt_terminals for the node (the
+    # probe moves exactly the driver terminals to the new node), read here by terminal label, independently of how
+    # discovery maps the probe's terminals to flattened ones.
+    assert _check_against_probe(circuits / name) >= 3
+
+
+def test_miller_buffer_out_keeps_only_the_miller_loop_closed(circuits):
+    """At out the probe keeps Cc with M6, so the Cc/Rz/M6 loop stays closed as a local loop and every other loop is opened."""
+    # Reference: circuits/miller_buffer.cir (Cc cz out, Rz o1 cz, M6 out o1): the loop out -cc-> cz -rz-> o1 -m6-> out
+    # enters out by m6.d and leaves by cc.n, both on the driver side of break_loop(out) (its driver_terminals
+    # m6.d, m7.d, cc.n); every other loop leaves out by m1.g, the load side.
+    (group,) = discover_loops(circuits / "miller_buffer.cir").groups
+    best = group.best
+    miller = next(k for k, lp in enumerate(group.loops, 1) if set(lp.elements) == {"m6", "cc", "rz"})
+    assert best.node == "out" and best.split_checked and not best.opens_all
+    assert best.left_closed == best.kept_closed == (miller,)
+    assert set(best.opened) == set(range(1, len(group.loops) + 1)) - {miller}
+    assert "stays closed, as intended" in best.reason and "opens all" not in best.reason
+    tail = next(c for c in group.candidates if c.node == "tail")
+    assert tail.opened == () and "opens none" in tail.reason  # every loop through tail enters and leaves by m1.s/m2.s
+
+
+def test_hier_channel_two_out2_and_fb2_both_keep_the_miller_loop_closed(circuits):
+    """In channel 2 both out2 and fb2 open the same global loops and leave Xa2's Miller loop closed; fb2, driving only a gate, ranks first."""
+    # Reference: circuits/hier/top.cir and blocks/miller_ota.sub: out2 is Xa2's pin out, which carries M6's drain and
+    # Cc (break_loop puts the whole pin xa2.out on the driver side); fb2 is on no loop through Cc/Rz/M6.
+    _, g2 = discover_loops(circuits / "hier" / "top.cir").groups
+    miller = next(k for k, lp in enumerate(g2.loops, 1) if set(lp.elements) == {"xa2.m6", "xa2.cc", "xa2.rz"})
+    by = {c.node: c for c in g2.candidates}
+    assert by["out2"].kept_closed == by["out2"].left_closed == (miller,)
+    assert by["fb2"].kept_closed == by["fb2"].left_closed == (miller,)
+    assert by["out2"].opened == by["fb2"].opened
+    assert g2.best.node == "fb2" and "does not pass fb2" in g2.best.reason
+    assert "stays closed, as intended" in by["out2"].reason
+
+
+def test_fd_amp_outn_leaves_the_sense_resistor_loop_closed_on_its_load_side(circuits):
+    """In the fully differential amplifier, the loop entering outn by Rcm2 and leaving by Rf1/Cf1 stays closed: both are on the load side."""
+    # Reference: circuits/fd_amp_cmfb.cir: break_loop(outn) puts only m1.d and m3.d on the driver side; the loop
+    # tail -m2-> outp -rcm1-> cm -rcm2-> outn -rf1|cf1-> xp -m1-> tail meets outn only through load-side resistors.
+    (group,) = discover_loops(circuits / "fd_amp_cmfb.cir").groups
+    outn = next(c for c in group.candidates if c.node == "outn")
+    sense = next(k for k, lp in enumerate(group.loops, 1) if [s.elements for s in lp.steps if s.target == "outn"] == [("rcm2",)]
+                 and any(s.source == "outn" and "rf1" in s.elements for s in lp.steps))
+    assert sense in outn.left_closed and sense not in outn.kept_closed
+    assert "enters and leaves outn on the load side" in outn.reason

@@ -14,6 +14,8 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--max-loops", type=int, default=None, metavar="N", help="loops listed per group at most (default 200)")
     parser.add_argument("--length-bound", type=int, default=None, metavar="N", help="nodes per loop at most, a passive network counting two (default 16)")
     parser.add_argument("--candidates", type=int, default=5, metavar="N", help="break candidates shown per group in the text listing (default 5; JSON lists all)")
+    parser.add_argument("--split-checks", type=int, default=None, metavar="N",
+                        help="candidates per group whose real probe split is worked out and stated (default 8; 0: loop structure only)")
 
 
 def discovery_document(source: str, found) -> dict:
@@ -41,9 +43,14 @@ def discovery_document(source: str, found) -> dict:
                 {
                     "rank": c.rank,
                     "node": c.node,
+                    "split_checked": c.split_checked,
+                    "driver_side": list(c.driver_side),
+                    "load_side": list(c.load_side),
+                    "refused": c.refused,
                     "opens_all": c.opens_all,
                     "opened": list(c.opened),
                     "left_closed": list(c.left_closed),
+                    "kept_closed": list(c.kept_closed),
                     "drivers": list(c.drivers),
                     "loads": list(c.loads),
                     "single_driver": c.single_driver,
@@ -77,7 +84,8 @@ def format_discovery(source: str, found, candidates: int = 5) -> str:
         lines += [f"  {g.index}.{k}  {lp.describe()}" for k, lp in enumerate(g.loops, 1)]
         lines.append("  break candidates:")
         for c in g.candidates[:candidates]:
-            lines.append(f"    {c.rank}. {c.node}: {c.reason}")
+            unchecked = "" if c.split_checked else " [loop structure only: the probe's split here was not worked out (--split-checks)]"
+            lines.append(f"    {c.rank}. {c.node}: {c.reason}{unchecked}")
         if len(g.candidates) > candidates:
             lines.append(f"    ... {len(g.candidates) - candidates} more (--candidates N, or --json)")
     lines += [f"note: {t}" for t in found.notes]
@@ -98,6 +106,10 @@ def run(args: argparse.Namespace) -> int:
         if args.length_bound < 2:
             raise NetloopError(f"--length-bound must be at least 2, got {args.length_bound}")
         bounds["length_bound"] = args.length_bound
+    if args.split_checks is not None:
+        if args.split_checks < 0:
+            raise NetloopError(f"--split-checks must be at least 0, got {args.split_checks}")
+        bounds["split_checks"] = args.split_checks
     netlist = load_netlist(args.netlist)
     found = discover_loops(netlist, **bounds)
     if args.json:

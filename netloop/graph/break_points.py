@@ -1,9 +1,9 @@
 """Rank the nodes of a loop group as break points, each with the reason in one sentence.
 
 Order (best first):
-1. nodes on every loop of the group: a break there opens them all, so the measured T is the
-   group's whole return ratio and the opened circuit has no other loop; then the nodes on the
-   most loops (local loops), each saying which loops it leaves closed;
+1. nodes on every loop of the group (a break there can open them all; whether it does depends
+   on how the probe splits the node's terminals, which netloop.graph.split_effects applies
+   afterwards); then the nodes on the most loops, each saying which loops do not pass it;
 2. among equals, a node driven by a single element (counting active drivers, and passive ones only
    where no active output sits on the node, as a divider tap);
 3. then a node whose loads inside the group are only high-impedance inputs (gates, bases,
@@ -91,9 +91,10 @@ def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: froze
     for rank, (_, node, nums, left, drivers, loads, single, high_z, low_z) in enumerate(rows, 1):
         if not left:
             found = f"all {total} loops found (the search was capped)" if capped else (f"all {total} loops" if total > 1 else "the loop")
-            parts = [f"on {found} of the group: a break here opens them all, so T is the whole return ratio and the opened circuit has no other loop of the group"]
+            parts = [f"on {found} of the group (which of them a break here opens depends on how the probe splits the node)"]
         else:
-            parts = [f"on {len(nums)} of {total} loops ({_numbers(nums)}); a break here leaves loop{'s' if len(left) > 1 else ''} {_numbers(left)} closed"]
+            parts = [f"on {len(nums)} of {total} loops ({_numbers(nums)}); a break here leaves loop{'s' if len(left) > 1 else ''} {_numbers(left)} closed"
+                     " (and possibly more, depending on how the probe splits the node)"]
         if single:
             parts.append(f"driven by one element ({drivers[0]})")
         elif drivers:

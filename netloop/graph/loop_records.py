@@ -59,15 +59,23 @@ class BreakCandidate:
 
     node: str
     rank: int
-    opens_all: bool  # on every loop found in the group
+    opens_all: bool  # a break here opens every loop found in the group (none is left closed)
     opened: tuple[int, ...]  # numbers (1-based, within the group) of the loops a break here opens
-    left_closed: tuple[int, ...]  # the group's loops a break here leaves closed
+    left_closed: tuple[int, ...]  # the group's loops a break here leaves closed (kept_closed included)
     drivers: tuple[str, ...]  # elements driving the node from inside the group
     loads: tuple[str, ...]  # "element.pin" terminals the node drives inside the group
     single_driver: bool
     high_impedance_load: bool  # every load terminal is a gate, base or controlling input
     low_impedance_driver: bool  # the one driver is a follower output or a controlled voltage source
     reason: str  # one sentence
+    # Set from the probe's real split of the node (netloop.graph.split_effects.apply_splits); until then the
+    # fields above are structural: ``opened`` lists the loops through the node, as a split separating each
+    # loop's way in from its way out would open them.
+    kept_closed: tuple[int, ...] = ()  # local loops left closed on purpose (the driver stage's own feedback); within left_closed
+    split_checked: bool = False  # opened/left_closed/reason follow the probe's actual split of the node
+    driver_side: tuple[str, ...] = ()  # the probe's driver-side terminals ("m6.d", "cc.n")
+    load_side: tuple[str, ...] = ()  # the probe's load-side terminals, shunts included
+    refused: str = ""  # why the probe cannot break this node (empty when it can or was not asked)
 
 
 @dataclass(frozen=True, slots=True)

@@ -31,8 +31,10 @@ def test_loops_text_lists_groups_loops_and_reasons(tmp_path, capsys):
     assert "1 loop group among 3 signal nodes" in out
     assert "b -g2(cp>n)-> c -g4(cp>n)-> b" in out
     assert "b -g2(cp>n)-> c -g3(cp>n)-> a -g1(cp>n)-> b" in out
-    assert "loop 1 (c)" in out and "1. c: on all 2 loops" in out and "driven by one element (g2)" in out
-    assert "3. a: on 1 of 2 loops (2); a break here leaves loop 1 closed" in out
+    # The probe's split of c: G2's output on the driver side, G3's and G4's inputs on the load side (netloop.probe.break_loop).
+    assert "loop 1 (c)" in out and "1. c: the probe splits c into driver side g2.n and load side" in out
+    assert "which opens all 2 loops of the group" in out and "driven by one element (g2)" in out
+    assert "3. a: the probe splits a into driver side g3.n" in out and "it opens loop 1.2; it leaves loop 1.1 (does not pass a) closed" in out
 
 
 def test_loops_json_document(tmp_path, capsys):
@@ -48,6 +50,33 @@ def test_loops_json_document(tmp_path, capsys):
     assert [c["node"] for c in group["candidates"]] == ["c", "b", "a"]
     assert [c["rank"] for c in group["candidates"]] == [1, 2, 3]
     assert group["candidates"][2]["left_closed"] == [1] and group["candidates"][2]["reason"]
+    assert group["candidates"][2]["kept_closed"] == [] and group["candidates"][2]["split_checked"] is True
+    assert group["candidates"][0]["driver_side"] == ["g2.n"] and "g3.cp" in group["candidates"][0]["load_side"]
+
+
+def test_loops_json_states_the_miller_loop_kept_closed_at_out(circuits, capsys):
+    """On the Miller buffer the JSON lists, for out, the Cc/Rz/M6 loop as kept closed and every other loop as opened."""
+    # Reference: circuits/miller_buffer.cir: break_loop(out) keeps cc.n with the drivers m6.d, m7.d (Cc's far end
+    # leads through Rz to M6's gate), so the loop out -cc-> cz -rz-> o1 -m6-> out never crosses the probe.
+    assert main(["loops", str(circuits / "miller_buffer.cir"), "--json"]) == 0
+    (group,) = json.loads(capsys.readouterr().out)["groups"]
+    out = group["candidates"][0]
+    miller = next(lp["number"] for lp in group["loops"] if set(lp["elements"]) == {"m6", "cc", "rz"})
+    assert out["node"] == "out" and out["driver_side"] == ["m6.d", "m7.d", "cc.n"]
+    assert out["kept_closed"] == out["left_closed"] == [miller] and not out["opens_all"]
+    assert sorted(out["opened"] + [miller]) == [lp["number"] for lp in group["loops"]]
+
+
+def test_loops_split_checks_zero_keeps_the_structural_view(tmp_path, capsys):
+    """--split-checks 0 lists candidates from the loop structure alone and says so."""
+    # Reference: by construction (NESTED): with no split worked out, no candidate names a driver side.
+    path = tmp_path / "nested.cir"
+    path.write_text(NESTED)
+    assert main(["loops", str(path), "--split-checks", "0"]) == 0
+    out = capsys.readouterr().out
+    assert "driver side" not in out and out.count("loop structure only") == 3
+    assert main(["loops", str(path), "--split-checks", "-1"]) == 2
+    assert "--split-checks must be at least 0" in capsys.readouterr().err
 
 
 def test_loops_bad_bound_and_missing_file_exit_2(tmp_path, capsys):

@@ -1,0 +1,217 @@
+"""What a given split of a break node does to each loop of its group, and the ranking and reasons that follow.
+
+The graph stage knows the loops but not how the probe will split a node; the probe stage knows the
+split but not the loops. A caller that has both (netloop.discover) hands the split to
+``apply_splits`` as a ``NodeSplit``: which side each flattened terminal ``(element, pin)`` at the
+node goes to. A loop passing the node is opened when its way in and its way out sit on opposite
+sides of the split, and stays closed when both sit on one side. A loop that stays closed on the
+driver side and enters the node through an active output (a drain, a collector, a controlled
+source) is the driver stage's own feedback, e.g. a Miller capacitor kept with its amplifier on
+purpose: a *local* loop. The ranking then prefers a node whose split opens every loop of the group
+except local loops (common practice: the global loop is measured with the local compensation in
+place), and each reason says plainly which loops are opened and which stay closed, and why.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING
+
+from netloop.graph.loop_records import BreakCandidate, Loop, LoopGroup
+from netloop.graph.signal_flow import element_edges, signal_nodes
+
+if TYPE_CHECKING:
+    from netloop.graph.flat import FlatCircuit
+
+__all__ = ["CLOSED_DRIVER", "CLOSED_LOAD", "LOCAL", "NOT_THROUGH", "OPENED", "LoopFate", "NodeSplit", "apply_splits", "loop_fates"]
+
+OPENED = "opened"  # way in and way out on opposite sides: the loop runs through the probe
+LOCAL = "local"  # both on the driver side, entering through an active output: the driver stage's own loop
+CLOSED_DRIVER = "closed on the driver side"
+CLOSED_LOAD = "closed on the load side"
+NOT_THROUGH = "not through the node"  # the loop does not pass the node, or passes around it on a parallel passive path
+
+
+@dataclass(frozen=True, slots=True)
+class NodeSplit:
+    """How the probe splits one node: the side of each flattened terminal there, or why it cannot break there.
+
+    Terminals missing from ``sides`` are on the load side (the probe moves only driver-side terminals).
+    """
+
+    node: str
+    driver: tuple[str, ...] = ()  # the probe's driver-side terminal labels ("m6.d", "cc.n", "xa2.out")
+    load: tuple[str, ...] = ()  # the probe's load-side terminal labels, shunts included
+    sides: Mapping[tuple[str, str], str] = field(default_factory=dict)  # (flat element, pin) -> "driver" | "load"
+    refused: str = ""  # the probe's reason for refusing to break here; empty when it can
+
+
+@dataclass(frozen=True, slots=True)
+class LoopFate:
+    """What one split does to one loop: its fate and the terminals by which the loop meets the node."""
+
+    number: int  # 1-based within the group
+    fate: str  # OPENED, LOCAL, CLOSED_DRIVER, CLOSED_LOAD or NOT_THROUGH
+    way_in: tuple[tuple[str, str], ...] = ()  # (element, pin) terminals the loop enters the node by
+    way_out: tuple[tuple[str, str], ...] = ()  # ... and leaves it by
+
+
+def _pins(circuit: FlatCircuit, signal: frozenset[str], at_node: dict[str, list[tuple[str, int]]], step, node: str, into: bool):
+    """The (element, pin) terminals at ``node`` by which one step enters (``into``) or leaves it."""
+    out = []
+    for el in step.elements:
+        here = at_node.get(el, ())
+        if not here:
+            # no terminal of its own on the node: an expression reading v(node), an F/H sensing through a V source,
+            # coupled inductors. It meets the node by name, which the probe leaves on the load side.
+            out.append((el, ""))
+        elif step.passive:
+            out.extend((el, pin) for pin, _ in here)
+        else:
+            for e in element_edges(circuit, here[0][1], signal):
+                if not e.passive and (e.source, e.target) == (step.source, step.target):
+                    out.append((el, e.target_pin if into else e.source_pin))
+    return tuple(dict.fromkeys(out))
+
+
+def loop_fates(circuit: FlatCircuit, loops: tuple[Loop, ...], split: NodeSplit, signal: frozenset[str] | None = None) -> tuple[LoopFate, ...]:
+    """The fate of every loop of a group under one split of ``split.node`` (see the module docstring)."""
+    if signal is None:
+        signal = signal_nodes(circuit)
+    node = split.node
+    at_node: dict[str, list[tuple[str, int]]] = {}
+    for t in circuit.terminals(node):
+        at_node.setdefault(t.element, []).append((t.pin, t.index))
+    fates = []
+    for k, lp in enumerate(loops, 1):
+        if node not in lp.opened_by:
+            fates.append(LoopFate(k, NOT_THROUGH))
+            continue
+        way_in = tuple(p for s in lp.steps if s.target == node for p in _pins(circuit, signal, at_node, s, node, True))
+        way_out = tuple(p for s in lp.steps if s.source == node for p in _pins(circuit, signal, at_node, s, node, False))
+        sides = {split.sides.get(t, "load") for t in (*way_in, *way_out)}
+        if len(sides) != 1:
+            fate = OPENED
+        elif sides == {"load"}:
+            fate = CLOSED_LOAD
+        elif any(s.target == node and not s.passive for s in lp.steps):
+            fate = LOCAL
+        else:
+            fate = CLOSED_DRIVER
+        fates.append(LoopFate(k, fate, way_in, way_out))
+    return tuple(fates)
+
+
+def _nums(group: LoopGroup, nums) -> str:
+    return ", ".join(f"{group.index}.{k}" for k in nums)
+
+
+def _loops(group: LoopGroup, nums) -> str:
+    return f"{'loop' if len(nums) == 1 else 'loops'} {_nums(group, nums)}"
+
+
+def _names(terminals) -> str:
+    return ", ".join(dict.fromkeys(e for e, _ in terminals))
+
+
+def _why_closed(group: LoopGroup, node: str, fates: list[LoopFate], local_at: dict[int, str]) -> list[str]:
+    """Loops left closed, grouped by why, each group in a few words."""
+    out = []
+    by: dict[str, list[LoopFate]] = {}
+    for f in fates:
+        by.setdefault(f.fate, []).append(f)
+    one = {k: len(v) == 1 for k, v in by.items()}
+    if LOCAL in by:
+        fs = by[LOCAL]
+        ins = _names(t for f in fs for t in f.way_in)
+        outs = _names(t for f in fs for t in f.way_out)
+        out.append(f"{_loops(group, [f.number for f in fs])} (from {ins} back through {outs}: the driver stage's own feedback, "
+                   f"which the probe keeps on the driver side)")
+    for fate, side in ((CLOSED_LOAD, "load"), (CLOSED_DRIVER, "driver")):
+        if fate in by:
+            fs = by[fate]
+            way = _names(t for f in fs for t in (*f.way_in, *f.way_out))
+            out.append(f"{_loops(group, [f.number for f in fs])} (enter{'s' if one[fate] else ''} and leave{'s' if one[fate] else ''} "
+                       f"{node} on the {side} side, through {way})")
+    if NOT_THROUGH in by:
+        fs = by[NOT_THROUGH]
+        where = sorted({local_at[f.number] for f in fs if f.number in local_at})
+        kept = f"; the probe keeps {'it' if one[NOT_THROUGH] else 'them'} closed with the driver at {', '.join(where)}" if where else ""
+        out.append(f"{_loops(group, [f.number for f in fs])} ({'does' if one[NOT_THROUGH] else 'do'} not pass {node}{kept})")
+    return out
+
+
+def _reason(group: LoopGroup, c: BreakCandidate, split: NodeSplit, fates: tuple[LoopFate, ...], local: frozenset[int],
+            local_at: dict[int, str]) -> str:
+    total = len(group.loops)
+    opened = [f.number for f in fates if f.fate == OPENED]
+    closed = [f for f in fates if f.fate != OPENED]
+    kept = [f for f in closed if f.number in local]
+    other = [f for f in closed if f.number not in local]
+    how = f"the probe splits {c.node} into driver side {', '.join(split.driver)} and load side {', '.join(split.load) or '(none)'}"
+    if not opened:
+        parts = [f"{how}, which opens none of the group's loops: " + "; ".join(_why_closed(group, c.node, closed, local_at))
+                 + "; T there measures no loop of the group"]
+    elif not closed:
+        found = f"all {total} loops found (the search was capped)" if group.capped else (f"all {total} loops" if total > 1 else "the loop")
+        parts = [f"{how}, which opens {found} of the group: T is the whole return ratio and the opened circuit has no other loop of the group"]
+    else:
+        parts = [f"{how}; it opens {_loops(group, opened)}" + (" (the global loop)" if not other else "")]
+        if kept:
+            intended = ", as intended" if all(f.fate == LOCAL for f in kept) else ""
+            parts.append(f"the local {' and '.join(_why_closed(group, c.node, kept, local_at))} {'stays' if len(kept) == 1 else 'stay'} closed{intended}: "
+                         "T is the global return ratio with the local compensation in place")
+        if other:
+            parts.append("it leaves " + " and ".join(_why_closed(group, c.node, other, local_at)) + " closed")
+    if c.single_driver:
+        parts.append(f"driven by one element ({c.drivers[0]})")
+    elif c.drivers:
+        parts.append(f"driven by {len(c.drivers)} elements ({', '.join(c.drivers)})")
+    if c.high_impedance_load:
+        parts.append(f"it drives only high-impedance inputs ({', '.join(c.loads)})")
+    if c.low_impedance_driver:
+        parts.append("its driver is a low-impedance output (follower or controlled voltage source)")
+    return "; ".join(parts)
+
+
+def apply_splits(circuit: FlatCircuit, group: LoopGroup, splits: Mapping[str, NodeSplit], signal: frozenset[str] | None = None) -> LoopGroup:
+    """The group with each candidate in ``splits`` restated from the probe's real split, and re-ranked.
+
+    Ranking (best first): candidates whose split was given and accepted, then candidates not looked at (in their
+    structural order), then nodes the probe refuses. Among the first: a split that opens some loop before one
+    that opens none; fewer loops left closed that are not local loops (a loop is local when some given split
+    keeps it closed with its driver, fate LOCAL); more loops opened; then the structural preferences of
+    netloop.graph.break_points (one driver, high-impedance loads, low-impedance driver, shallow name, order).
+    """
+    if signal is None:
+        signal = signal_nodes(circuit)
+    fates = {c.node: loop_fates(circuit, group.loops, splits[c.node], signal)
+             for c in group.candidates if c.node in splits and not splits[c.node].refused}
+    local_at: dict[int, str] = {}
+    for c in group.candidates:  # structural order: the first node that keeps the loop with its driver is named
+        for f in fates.get(c.node, ()):
+            if f.fate == LOCAL:
+                local_at.setdefault(f.number, c.node)
+    local = frozenset(local_at)
+    rows = []
+    for c in group.candidates:
+        split = splits.get(c.node)
+        if split is None:
+            rows.append(((1, 0, 0, 0, c.rank), c))
+            continue
+        if split.refused:
+            reason = f"the probe cannot break here: {split.refused}"
+            rows.append(((2, 0, 0, 0, c.rank), replace(c, opens_all=False, opened=(), left_closed=tuple(range(1, len(group.loops) + 1)),
+                                                       kept_closed=(), split_checked=True, refused=split.refused, reason=reason)))
+            continue
+        fs = fates[c.node]
+        opened = tuple(f.number for f in fs if f.fate == OPENED)
+        left = tuple(f.number for f in fs if f.fate != OPENED)
+        kept = tuple(k for k in left if k in local)
+        tail = (not c.single_driver, not c.high_impedance_load, not c.low_impedance_driver, c.node.count("."), c.rank)
+        key = (0, not opened, len(left) - len(kept), -len(opened), tail)
+        rows.append((key, replace(c, opens_all=not left, opened=opened, left_closed=left, kept_closed=kept, split_checked=True,
+                                  driver_side=split.driver, load_side=split.load, reason=_reason(group, c, split, fs, local, local_at))))
+    rows.sort(key=lambda r: r[0])
+    return replace(group, candidates=tuple(replace(c, rank=r) for r, (_, c) in enumerate(rows, 1)))
