@@ -17,11 +17,12 @@ circuit opened at n. So:
   n is opened when the signal enters n from the driver side and leaves it from the load side; a
   loop that enters and leaves on the same side (a Miller capacitor that rides with the driver of
   the output) stays closed and is part of T. The loops are those of netloop.graph.find_loops.
-* Two breaks that open the same, single loop of their group, each at a unilateral point (the load
-  side only controlling inputs, gates, bases, controlled-source inputs, and nothing to AC ground;
-  or the driver an ideal controlled voltage source), must give the same T to numerical precision:
+* Two breaks that open the same, single loop of their group, made of controlled sources and R, L,
+  C only (so the listing shows every signal path), must give the same T to numerical precision:
   D_n is then D with that loop's gain set to zero, the same for both. A relative difference above
-  ``T_RTOL`` there is reported as a defect.
+  ``T_RTOL`` there is reported as a defect. With transistors, their own capacitances close loops
+  the listing does not show, and a difference between breaks that open the same listed loops is
+  put down to those ("loading").
 
 T is compared where max(|T_a|, |T_b|) >= ``T_FLOOR`` (our choice, common practice: below -60 dB
 the loop no longer affects stability and the relative difference is only the simulator's noise).
@@ -210,19 +211,8 @@ def _key(location: str, method: str) -> str:
 
 # -- which loops a break opens -------------------------------------------------------------------
 
-_CONTROL_PINS = {"m": ("g",), "j": ("g",), "z": ("g",), "q": ("b",), "e": ("cp", "cn"), "g": ("cp", "cn")}
-_VOLTAGE_OUTPUTS = frozenset("eh")
-
-
-def _unilateral(p: ProbedNetlist) -> bool:
-    """The break is at a one-way point: the load side only controls, or the driver is an ideal voltage source."""
-    def kind_pin(label: str) -> tuple[str, str]:
-        element, pin = label.rsplit(".", 1) if "." in label else (label, "")
-        return element.rsplit(".", 1)[-1][:1], pin
-
-    loads_control = all(pin in _CONTROL_PINS.get(k, ()) for k, pin in map(kind_pin, p.load_terminals))
-    ideal_driver = len(p.driver_terminals) == 1 and kind_pin(p.driver_terminals[0])[0] in _VOLTAGE_OUTPUTS
-    return loads_control or ideal_driver
+_LINEAR = frozenset("EGFHBRCLV")  # element letters whose every signal path the loop listing shows (no device capacitances)
+_PASSIVE = frozenset("RCL")
 
 
 @dataclass(frozen=True, slots=True)
@@ -233,7 +223,37 @@ class _Place:
     group: LoopGroup | None
     opened: tuple[int, ...]  # 1-based loop numbers within the group
     closed: tuple[int, ...]  # loops through the node that the break leaves closed (both ends on one side)
-    unilateral: bool
+    near: bool = False  # not on a listed loop, but in a passive network the group's loops cross
+    linear: bool = False  # every element on the group's loops is a controlled source or R, L, C
+
+
+def _group_near(flat: FlatCircuit, node: str, found: LoopDiscovery) -> LoopGroup | None:
+    """The first group with a node reached from ``node`` through R, L and C only (not through ground)."""
+    seen, todo = {node}, [node]
+    while todo:
+        n = todo.pop()
+        group = next((g for g in found.groups if n in g.nodes), None)
+        if group is not None:
+            return group
+        for t in flat.terminals(n):
+            fe = flat.elements[t.index]
+            if fe.kind in _PASSIVE:
+                for m in fe.nodes:
+                    if m not in seen and not flat.is_ground(m):
+                        seen.add(m)
+                        todo.append(m)
+    return None
+
+
+def _linear(flat: FlatCircuit, group: LoopGroup) -> bool:
+    names = {e for lp in group.loops for e in lp.elements}
+    kinds = set()
+    for name in names:
+        try:
+            kinds.add(flat.element(name).kind)
+        except (KeyError, NetloopError):
+            return False
+    return kinds <= _LINEAR
 
 
 def _side(flat: FlatCircuit, step: Step, pin_slot: int, sides: Mapping[str, str]) -> str | None:
@@ -253,24 +273,26 @@ def _side(flat: FlatCircuit, step: Step, pin_slot: int, sides: Mapping[str, str]
     return None
 
 
-def _place(p: ProbedNetlist, found: LoopDiscovery) -> _Place:
+def _place(p: ProbedNetlist, found: LoopDiscovery, original: FlatCircuit) -> _Place:
     """Where the loops through the node enter and leave it, read on the flattened probed netlist (a: driver, b: load)."""
     node = p.side_b
     group = next((g for g in found.groups if node in g.nodes), None)
+    if group is None:
+        group = _group_near(original, node, found) if node in original.nets else None
+        return _Place(p.node, group, (), (), near=group is not None, linear=group is not None and _linear(original, group))
     opened, closed = [], []
-    if group is not None:
-        flat = flatten(p.netlist)
-        sides = {p.side_a: "driver", p.side_b: "load"}
-        for k, lp in enumerate(group.loops, 1):
-            into = next((st for st in lp.steps if st.target == node), None)
-            out = next((st for st in lp.steps if st.source == node), None)
-            if into is None or out is None:
-                continue
-            a, b = _side(flat, into, 1, sides), _side(flat, out, 0, sides)
-            if a is None or b is None:
-                continue
-            (opened if a != b else closed).append(k)
-    return _Place(p.node, group, tuple(opened), tuple(closed), _unilateral(p))
+    flat = flatten(p.netlist)
+    sides = {p.side_a: "driver", p.side_b: "load"}
+    for k, lp in enumerate(group.loops, 1):
+        into = next((st for st in lp.steps if st.target == node), None)
+        out = next((st for st in lp.steps if st.source == node), None)
+        if into is None or out is None:
+            continue
+        a, b = _side(flat, into, 1, sides), _side(flat, out, 0, sides)
+        if a is None or b is None:
+            continue
+        (opened if a != b else closed).append(k)
+    return _Place(p.node, group, tuple(opened), tuple(closed), linear=_linear(original, group))
 
 
 def _loop_names(group: LoopGroup, numbers: Iterable[int]) -> tuple[str, ...]:
@@ -295,8 +317,8 @@ def _explain(a: _Place, b: _Place, method: str, rel: float) -> Difference:
     if a.group is None or b.group is None:
         missing = ", ".join(x.location for x in (a, b) if x.group is None)
         kind: Kind = "same" if rel <= T_RTOL else "not on a listed loop"
-        return Difference(pair, method, kind, rel, f"{missing} is on no loop the loop discovery lists (no signal path returns to it "
-                          f"through active elements); {size}")
+        return Difference(pair, method, kind, rel, f"{missing} is on no loop the loop discovery lists, nor in a passive network such a "
+                          f"loop crosses (no signal path returns to it through active elements); {size}")
     if a.group.index != b.group.index:
         ga, gb = a.group, b.group
         return Difference(
@@ -322,7 +344,10 @@ def _explain(a: _Place, b: _Place, method: str, rel: float) -> Difference:
                 parts.append(f"{x.location} opens loop{'' if one else 's'} {_listing(g, bypass)} which "
                              f"{'bypasses' if one else 'bypass'} {other.location}")
         named = _loop_names(g, (*only_a, *only_b))
-        text = (f"both are on {g.label}, but the breaks open different loops: {'; '.join(parts)}; a loop left closed is part of T, "
+        for x in (a, b):
+            if x.near:
+                parts.append(f"{x.location} lies in a passive network the loops of {g.label} cross, on a path they do not take")
+        text = (f"both belong to {g.label}, but the breaks open different loops: {'; '.join(parts)}; a loop left closed is part of T, "
                 f"so T differs while the closed-loop poles must agree; {size}. " + "; ".join(named))
         return Difference(pair, method, "different loops opened" if rel > T_RTOL else "same", rel, text, named)
     opened = _listing(g, a.opened)
@@ -331,20 +356,22 @@ def _explain(a: _Place, b: _Place, method: str, rel: float) -> Difference:
         opened += f"; both leave {_listing(g, both_closed)} closed, a part of T at both"
     if rel <= T_RTOL:
         return Difference(pair, method, "same", rel, f"both open the same loops of {g.label} ({opened}); T agrees ({size})")
-    single = len(g.loops) == 1 and len(a.opened) == 1
-    if single and a.unilateral and b.unilateral:
+    if len(g.loops) == 1 and a.opened == (1,) and a.linear and not (a.near or b.near):
         return Difference(
             pair, method, "defect", rel,
-            f"DEFECT: both breaks open the single loop of {g.label} at one-way points, so T must be identical, but it differs ({size} "
-            f"> {T_RTOL:g}): the probe or the simulation is wrong",
+            f"DEFECT: both breaks open the single loop of {g.label}, made of controlled sources and R, L, C only, so T must be "
+            f"identical, but it differs ({size} > {T_RTOL:g}): the probe or the simulation is wrong",
             _loop_names(g, a.opened),
         )
-    bilateral = ", ".join(x.location for x in (a, b) if not x.unilateral) or "neither"
+    if not a.linear:
+        why = ("its transistors' own capacitances (gate-drain, gate-source) and the two-way passive paths close loops the signal-flow "
+               "listing does not show, and the two breaks open different ones of them")
+    else:
+        why = "the passive networks carry signal both ways, so the breaks leave different paths between the listed loops closed"
     return Difference(
         pair, method, "loading", rel,
-        f"both open the same loops of {g.label} ({opened}), but the loading at the breaks differs (two-way break at {bilateral}: its load "
-        f"side draws current from the node or its driver is not an ideal source, and device capacitances pass signal backwards): "
-        f"T = D/D_n - 1 depends on where the circuit is opened, the closed-loop poles do not; {size}",
+        f"both open the same listed loops of {g.label} ({opened}), but {why}: 1 + T_n = D/D_n with D_n the circuit opened at n, so T "
+        f"depends on where the circuit is opened while the closed-loop poles (the zeros of D) do not; {size}",
         _loop_names(g, a.opened),
     )
 
@@ -500,8 +527,9 @@ def compare(
             ))
     by_key = {(r.breaks.node, r.method): r for r in results}
 
-    found = find_loops(flatten(parsed))
-    places = [_place(p.alone, found) for p in probes]
+    original = flatten(parsed)
+    found = find_loops(original)
+    places = [_place(p.alone, found, original) for p in probes]
     differences: list[Difference] = []
     checks: list[PoleCheck] = []
     for m in methods:
