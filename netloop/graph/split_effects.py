@@ -160,8 +160,8 @@ def _reason(group: LoopGroup, c: BreakCandidate, split: NodeSplit, fates: tuple[
         parts = [f"{how}; it opens {_loops(group, opened)}" + (" (the global loop)" if not other else "")]
         if kept:
             intended = ", as intended" if all(f.fate == LOCAL for f in kept) else ""
-            parts.append(f"the local {' and '.join(_why_closed(group, c.node, kept, local_at))} {'stays' if len(kept) == 1 else 'stay'} closed{intended}: "
-                         "T is the global return ratio with the local compensation in place")
+            whole = ": T is the global return ratio with the local compensation in place" if not other else ""
+            parts.append(f"the local {' and '.join(_why_closed(group, c.node, kept, local_at))} {'stays' if len(kept) == 1 else 'stay'} closed{intended}{whole}")
         if other:
             parts.append("it leaves " + " and ".join(_why_closed(group, c.node, other, local_at)) + " closed")
     if c.single_driver:
