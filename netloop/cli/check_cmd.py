@@ -22,9 +22,10 @@ def frequency(text: str) -> float:
     return value
 
 
-def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...] = ("tian", "middlebrook")) -> None:
-    """The options every measuring command shares (check, compare, demo); ``methods`` are the --method choices."""
-    parser.add_argument("--driver", metavar="ELEMENT[.PIN]", help="the element terminal(s) that drive the break node (comma-separated); decided from the circuit by default")
+def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...] = ("tian", "middlebrook"), driver: bool = True) -> None:
+    """The options every measuring command shares (check, compare, demo); ``methods`` are the --method choices, ``driver`` adds --driver."""
+    if driver:
+        parser.add_argument("--driver", metavar="ELEMENT[.PIN]", help="the element terminal(s) that drive the break node (comma-separated); decided from the circuit by default")
     parser.add_argument("--method", choices=methods, default="tian", help="how T is formed from the two runs (default: tian)")
     parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency (default 10 mHz, widened when the phase has not settled)")
     parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency (default 10 GHz, widened until |T| << 1)")

@@ -1,4 +1,17 @@
-"""``netloop compare NETLIST --at A --at B``: break several locations in one deck and explain how their T differ."""
+"""``netloop compare NETLIST --at A --at B``: break several locations in one deck and explain how their T differ.
+
+Text: a table with one column per location (and method), then each difference explained, the
+dominant closed-loop pole check and the warnings. ``--json`` prints
+``netloop.report.multi_document("locations", ...)`` (schema "netloop.locations/1"): ``locations``,
+one entry per location in the shape of ``check --json``, ``passed``, and
+
+    differences   [{locations: [a, b], method, kind, max_relative_difference, explanation, loops}]
+    pole_checks   [{locations, method, pole_a_rad_s: [re, im] | null, pole_b_rad_s, agree, explanation}]
+    poles_agree   true | false | null (no two locations on one loop group, or no fitted poles)
+    tolerances    {t_relative, pole_relative}
+
+Exit status: 0 every location stable and every requirement met, 1 otherwise, 2 bad input.
+"""
 
 from __future__ import annotations
 
@@ -16,7 +29,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
         "--at", action="append", default=[], required=True, metavar="NODE[=ELEMENT[.PIN],...]",
         help="a break location (repeat, at least twice); '=' names that location's driver terminals, decided from the circuit otherwise",
     )
-    add_measure_options(parser, methods=("tian", "middlebrook", "both"))
+    add_measure_options(parser, methods=("tian", "middlebrook", "both"), driver=False)  # drivers go with each --at
     parser.add_argument("--json", action="store_true", help="print one JSON document: locations (each as check --json), differences, poles_agree")
     parser.add_argument("--plot", metavar="FILE", help="write overlaid Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
     parser.epilog = "Exit status: 0 every location stable and every requirement met, 1 otherwise, 2 bad input."
@@ -100,8 +113,6 @@ def run(args: argparse.Namespace) -> int:
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
     if args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
-    if args.driver:
-        raise NetloopError("--driver names one break's driver; with compare give it per location as --at NODE=ELEMENT[.PIN]")
     nodes, drivers = _locations(args.at)
     netlist = load_netlist(args.netlist)
     result = compare(

@@ -69,10 +69,13 @@ def test_failed_requirement_exits_1(loop, capsys):
 
 
 def test_bad_input_exits_2(loop, capsys):
-    """An unknown node, a single location and a global --driver are bad input: exit 2 with one message."""
+    """An unknown node, a single location, an unknown driver and a global --driver are bad input: exit status 2."""
     assert main(["compare", loop, "--at", "out", "--at", "nowhere"]) == 2
     assert "nowhere" in capsys.readouterr().err
     assert main(["compare", loop, "--at", "out"]) == 2
     assert "at least two" in capsys.readouterr().err
-    assert main(["compare", loop, "--at", "out", "--at", "n0", "--driver", "e0"]) == 2
-    assert "--at NODE=ELEMENT" in capsys.readouterr().err
+    assert main(["compare", loop, "--at", "out", "--at", "n0=nothing"]) == 2
+    assert "nothing" in capsys.readouterr().err
+    with pytest.raises(SystemExit) as usage:  # drivers are given per location (--at NODE=ELEMENT), not with --driver
+        main(["compare", loop, "--at", "out", "--at", "n0", "--driver", "e0"])
+    assert usage.value.code == 2
