@@ -119,8 +119,8 @@ class Comparison:
     locations: tuple[str, ...]  # as given, lower-case
     methods: tuple[str, ...]  # ("tian",), ("middlebrook",) or both
     results: tuple[LoopResult, ...]  # location-major: (loc1 method1, loc1 method2, loc2 method1, ...)
-    differences: tuple[Difference, ...]
-    pole_checks: tuple[PoleCheck, ...]
+    differences: tuple[Difference, ...]  # every pair of locations (first method), then Tian against Middlebrook at each
+    pole_checks: tuple[PoleCheck, ...]  # every pair of locations on one loop group (first method)
     sim: SimInfo
     notes: tuple[str, ...] = ()
 
@@ -533,15 +533,15 @@ def compare(
     places = [_place(p.alone, found, original) for p in probes]
     differences: list[Difference] = []
     checks: list[PoleCheck] = []
-    for m in methods:
-        for i in range(len(places)):
-            for j in range(i + 1, len(places)):
-                a, b = places[i], places[j]
-                ra, rb = by_key[(a.location, m)], by_key[(b.location, m)]
-                rel = _relative_difference(np.asarray(ra.analysis.t), np.asarray(rb.analysis.t))
-                differences.append(_explain(a, b, m, rel))
-                if a.group is not None and b.group is not None and a.group.index == b.group.index:
-                    checks.append(_pole_check(ra, rb, m))
+    m = methods[0]  # with both methods their T are the same (checked below), so location pairs are explained once
+    for i in range(len(places)):
+        for j in range(i + 1, len(places)):
+            a, b = places[i], places[j]
+            ra, rb = by_key[(a.location, m)], by_key[(b.location, m)]
+            rel = _relative_difference(np.asarray(ra.analysis.t), np.asarray(rb.analysis.t))
+            differences.append(_explain(a, b, m, rel))
+            if a.group is not None and b.group is not None and a.group.index == b.group.index:
+                checks.append(_pole_check(ra, rb, m))
     if len(methods) > 1:
         for p in probes:
             differences.append(_method_difference(

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 
 from netloop.cli.check_cmd import add_measure_options, nyquist_path, sweep_from
 
@@ -64,7 +65,7 @@ def _cells(r) -> list[str]:
         deg(m.phase_margin_deg),
         db(m.gain_margin_db),
         f"{number(m.modulus_margin)} ({db(ratio_db(m.modulus_margin))})",
-        "-" if pole is None else f"{eng(abs(pole) / 6.283185307179586, 'Hz')} z={number(-pole.real / abs(pole), 2)}",
+        "-" if pole is None else f"{eng(abs(pole) / math.tau, 'Hz')} z={number(-pole.real / abs(pole), 2)}",
         ("PASS " if r.passed else "FAIL ") + a.classification,
     ]
 
