@@ -81,8 +81,9 @@ Kind = Literal["same", "defect", "loading", "different loops opened", "different
 class Difference:
     """How T at two locations (or by two methods at one location) compares, and why.
 
-    kind: "same" (T agrees to T_RTOL), "defect" (should agree and does not), "loading" (same loops
-    opened, different loading at the breaks), "different loops opened", "different loop groups",
+    kind: "same" (T agrees to T_RTOL), "defect" (should agree and does not), "loading" (the same
+    listed loops opened; the breaks differ on paths the listing does not show as loops: transistor
+    capacitances, two-way passive paths), "different loops opened", "different loop groups",
     "not on a listed loop". Tian against Middlebrook at one location is "same" or "defect": with this
     probe both formulas reduce to the same expression.
     loops: the loops the explanation names, each as netloop.graph.Loop.describe() writes it.
@@ -97,6 +98,7 @@ class Difference:
 
     @property
     def differs(self) -> bool:
+        """True when T differs by more than T_RTOL."""
         return self.max_relative_difference > T_RTOL
 
 
@@ -168,6 +170,7 @@ class _Probe:
 
 
 def _break_all(parsed: Netlist, locations: Sequence[str], drivers: Mapping[str, str]) -> tuple[Netlist, tuple[_Probe, ...]]:
+    """Each location broken alone (to decide its sides and refuse the same net twice), then all of them in one deck."""
     alone = [break_loop(parsed, at, driver=drivers.get(at)) for at in locations]
     seen: dict[str, str] = {}
     for at, p in zip(locations, alone):

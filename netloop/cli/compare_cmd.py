@@ -137,6 +137,8 @@ def run(args: argparse.Namespace) -> int:
         lines += [f"  {d.locations[0]} / {d.locations[1]} ({d.method}): {d.explanation}" for d in result.differences]
         lines += ["", "closed-loop poles"]
         lines += [f"  {c.locations[0]} / {c.locations[1]} ({c.method}): {c.explanation}" for c in result.pole_checks] or ["  no two locations on one loop group"]
+        if result.notes:
+            lines += ["", "loop discovery", *(f"  {n}" for n in result.notes)]
         warnings = [f"  {r.label or r.breaks.node}: {w}" for r in result.results for w in r.warnings]
         if warnings:
             lines += ["", "warnings", *dict.fromkeys(warnings)]
