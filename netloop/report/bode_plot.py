@@ -18,7 +18,7 @@ import numpy as np
 
 from netloop.loop_result import LoopResult
 from netloop.report.figure import COLOURS, as_results, file_format, loop_name, new_figure, save
-from netloop.report.labels import Label, place_labels
+from netloop.report.labels import Label, place_labels, several_title
 from netloop.report.notation import eng
 from netloop.report.phrases import phase_crossover_margin
 from netloop.report.samples import sample_table
@@ -66,8 +66,7 @@ def _title(results: Sequence[LoopResult]) -> str:
     if len(results) == 1:
         where = f"{Path(r.netlist).name}, loop broken at {r.breaks.node}" + (f" [{r.label}]" if r.label else "")
         return f"{where}\n{verdict_title(r)}"
-    names = sorted({Path(x.netlist).name for x in results})
-    return f"{', '.join(names)}: {len(results)} loops"
+    return several_title(results)
 
 
 def _style_axes(fig, ax_mag, ax_ph, phase_lo: float, phase_hi: float) -> None:

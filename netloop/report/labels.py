@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-__all__ = ["Label", "place_labels"]
+__all__ = ["Label", "place_labels", "several_title"]
 
 _CHAR_PT = 5.4  # mean advance of a character at the label font size (8.5 pt DejaVu Sans), in points
 _LINE_PT = 15.0  # height of a label with its box, in points
@@ -82,3 +82,13 @@ def place_labels(ax, labels: list[Label], width_pt: float, height_pt: float, avo
             arrowprops={"arrowstyle": "-", "color": lab.colour, "lw": 0.6, "alpha": 0.7} if moved else None,
             zorder=6,
         )
+
+
+def several_title(results) -> str:
+    """The title of an overlay: the netlist(s), then what each curve is (its label, or its break node)."""
+    from pathlib import Path
+
+    names = sorted({Path(x.netlist).name for x in results})
+    curves = list(dict.fromkeys(x.label or f"broken at {x.breaks.node}" for x in results))
+    shown = ", ".join(curves[:6]) + (f", +{len(curves) - 6} more" if len(curves) > 6 else "")
+    return f"{', '.join(names)}: {shown}"

@@ -24,6 +24,7 @@ from netloop.loop_result import LoopResult
 from netloop.report.bode_plot import CURVE, GM_LOWER, GM_UPPER, PM_BAD, PM_OK, verdict_title
 from netloop.report.figure import COLOURS, as_results, file_format, loop_name, new_figure, save
 from netloop.report.notation import eng
+from netloop.report.labels import several_title
 from netloop.report.phrases import origin_phrase, phase_crossover_margin
 from netloop.report.samples import sample_table
 
@@ -145,7 +146,7 @@ def _title(rs: Sequence[LoopResult]) -> str:
     r = rs[0]
     if len(rs) == 1:
         return f"Nyquist: {Path(r.netlist).name}, loop broken at {r.breaks.node}" + (f" [{r.label}]" if r.label else "") + f"\n{verdict_title(r)}"
-    return f"Nyquist: {', '.join(sorted({Path(x.netlist).name for x in rs}))}: {len(rs)} loops"
+    return "Nyquist: " + several_title(rs)
 
 
 def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
