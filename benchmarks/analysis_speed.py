@@ -34,7 +34,10 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--per-decade", type=int, default=100)
     parser.add_argument("--repeat", type=int, default=20)
+    parser.add_argument("--quick", action="store_true", help="a smoke run: 10 points per decade, 2 repeats")
     args = parser.parse_args()
+    if args.quick:
+        args.per_decade, args.repeat = 10, 2
     loop = control.tf([25], [1, 10, 10, 10]) * control.tf([1], [1e-3, 1])
     f = np.logspace(-4, 6, 10 * args.per_decade + 1)
     t = loop(2j * np.pi * f)

@@ -68,7 +68,8 @@ def build(elements: int) -> str:
 
 
 def main() -> None:
-    elements = int(sys.argv[1]) if len(sys.argv) > 1 else 100_000
+    args = [a for a in sys.argv[1:] if a != "--quick"]
+    elements = 2000 if "--quick" in sys.argv[1:] else int(args[0]) if args else 100_000  # --quick: a smoke run
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "large.cir"
         path.write_text(build(elements))

@@ -95,7 +95,10 @@ def main() -> None:
     ap.add_argument("--small", type=int, default=100_000)
     ap.add_argument("--large", type=int, default=1_000_000)
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--quick", action="store_true", help="a smoke run: 2000 and 5000 elements, once")
     args = ap.parse_args()
+    if args.quick:
+        args.small, args.large, args.repeat = 2000, 5000, 1
     py = sys.executable
     with tempfile.TemporaryDirectory() as tmp:
         small, large = Path(tmp) / "small.cir", Path(tmp) / "large.cir"

@@ -49,7 +49,10 @@ def main() -> None:
     parser.add_argument("--sections", type=int, default=2000)
     parser.add_argument("--points", type=int, default=50, help="points per decade")
     parser.add_argument("--repeat", type=int, default=5)
+    parser.add_argument("--quick", action="store_true", help="a smoke run: 200 sections, 10 points per decade, once")
     args = parser.parse_args()
+    if args.quick:
+        args.sections, args.points, args.repeat = 200, 10, 1
     job = ladder_job(args.sections, args.points)
     binary = find_ngspice_binary()
     batch = BatchSimulator()

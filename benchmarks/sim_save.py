@@ -38,7 +38,10 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sections", type=int, default=20000)
     parser.add_argument("--points", type=int, default=20, help="points per decade")
+    parser.add_argument("--quick", action="store_true", help="a smoke run: 500 sections, 5 points per decade")
     args = parser.parse_args()
+    if args.quick:
+        args.sections, args.points = 500, 5
     job = ladder_job(args.sections, args.points)
     binary = find_ngspice_binary()
     with tempfile.TemporaryDirectory() as work:

@@ -89,6 +89,7 @@ def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str 
         label=label,
         timeout_s=timeout_s,
         workdir=workdir,
+        op_voltages=False,  # the first ac's own operating point serves: no separate op run
     )
 
 
@@ -271,8 +272,10 @@ def measure_probed(
         series, shunt = result.run("series"), result.run("shunt")
         return {"loop": return_ratio(probed, dict(series.vectors), dict(shunt.vectors), method)}
 
+    base = probe_job(probed, (), label=label, timeout_s=timeout_s)  # the netlist is written once, not every round
+
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
-        return probe_job(probed, sweeps, label=label, timeout_s=timeout_s)
+        return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
     analyses, info, warnings = sample_loops(job_for, ratios, simulator, sweep, {"loop": open_loop_rhp_poles})
     return analyses["loop"], info, warnings["loop"]

@@ -49,6 +49,10 @@ class SimJob:
     label: str = ""  # what to call this job in messages (a corner name, a location)
     timeout_s: float = 600.0
     workdir: str | None = None  # folder relative .include/.lib paths are read from; None: the current folder
+    # False: the caller does not need SimResult.operating_point, so a backend may let the first AC
+    # analysis's own operating point stand in for a separate ``op`` run (one operating point fewer;
+    # operating_point is then empty). Convergence aids and errors are the same either way.
+    op_voltages: bool = True
 
 
 @dataclass(frozen=True, slots=True)

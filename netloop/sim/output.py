@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 
-__all__ = ["error_lines", "ngspice_fallback", "op_failed", "summary", "tail"]
+__all__ = ["ac_op_failed", "error_lines", "ngspice_fallback", "op_failed", "summary", "tail"]
 
 # Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
 # and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
@@ -29,6 +29,15 @@ _OP_FAILED = re.compile(
     r"doanalyses:\s*op\b|op simulation\(s\) aborted|dc solution failed|transient op failed",
     re.IGNORECASE,
 )
+
+
+# What ngspice 39 prints when the operating point an ``ac`` command computes first has failed.
+_AC_OP_FAILED = re.compile(r"ac operating point failed|doanalyses:\s*ac:.*frequency = 0\b", re.IGNORECASE)
+
+
+def ac_op_failed(lines: Iterable[str]) -> bool:
+    """True when ngspice says the operating point of an ``ac`` command failed."""
+    return any(_AC_OP_FAILED.search(line) for line in lines)
 
 
 def error_lines(lines: Iterable[str]) -> tuple[str, ...]:

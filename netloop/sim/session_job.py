@@ -1,4 +1,10 @@
-"""Run one SimJob in an ngspice session: load, operating point (with aids), then each AC run."""
+"""Run SimJobs in an ngspice session: load, operating point (with aids), then each AC run.
+
+A JobRunner keeps the circuit of its last successful job loaded: a next job on the very same
+circuit (netlist text, options, folder, saves and excited sources all equal; only the sweeps
+differ, as in the widening and refinement rounds of one measurement) skips the load and the
+operating point and runs its sweeps at once.
+"""
 
 from __future__ import annotations
 
@@ -7,14 +13,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from netloop.sim.convergence import aid_ladder, describe_aid, option_words
-from netloop.sim.deck import control_steps, render_deck, save_key
+from netloop.sim.deck import Step, control_steps, excited_sources, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import SimJob
-from netloop.sim.output import error_lines, ngspice_fallback, op_failed, summary, tail
+from netloop.sim.output import ac_op_failed, error_lines, ngspice_fallback, op_failed, summary, tail
 from netloop.sim.session import NgspiceSession
 from netloop.sim.vectors import unknown_saves
 
-__all__ = ["JobFailure", "JobPayload", "run_job"]
+__all__ = ["JobFailure", "JobPayload", "JobRunner", "run_job"]
 
 
 @dataclass(slots=True)
@@ -42,43 +48,135 @@ class JobFailure(Exception):
         return self.message
 
 
+@dataclass(slots=True)
+class _Loaded:
+    """The circuit a session holds, what it was loaded for, and what its operating point gave."""
+
+    key: tuple
+    aid: str | None
+    voltages: dict[str, float] = field(default_factory=dict)
+    found_by: str | None = None
+    log: tuple[str, ...] = ()
+    op_done: bool = False  # the operating point is known to converge with this circuit and aid
+
+
+def circuit_key(job: SimJob) -> tuple:
+    """What must be equal for two jobs to run on one loaded circuit (everything but the sweeps)."""
+    saves = tuple(save_key(s) for s in job.save)
+    return (job.netlist, tuple(job.options), tuple(job.op_aids), job.workdir, saves, excited_sources(job), job.op_voltages)
+
+
+class JobRunner:
+    """Runs jobs one after the other in ``session``, reusing the loaded circuit where it can."""
+
+    def __init__(self, session: NgspiceSession):
+        self.session = session
+        self._loaded: _Loaded | None = None
+
+    def run(self, job: SimJob) -> JobPayload:
+        """Do ``job``; raises JobFailure with ngspice's own lines when it cannot."""
+        key = circuit_key(job)
+        loaded = self._loaded if self._loaded is not None and self._loaded.key == key else None
+        self._loaded = None
+        if loaded is None:
+            self.session.clear()  # whatever circuit a previous job left
+        try:
+            payload, self._loaded = _run(self.session, job, key, loaded)
+        except JobFailure:
+            self.session.clear()
+            raise
+        return payload
+
+    def forget(self) -> None:
+        """Remove the loaded circuit (the next job loads its own)."""
+        self._loaded = None
+        self.session.clear()
+
+
 def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
-    """Do ``job`` in ``session``; raises JobFailure with ngspice's own lines when it cannot."""
-    log: list[str] = []
+    """Do ``job`` in ``session`` and leave no circuit behind; raises JobFailure when ngspice cannot."""
+    runner = JobRunner(session)
+    try:
+        return runner.run(job)
+    finally:
+        runner.forget()
+
+
+def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | None) -> tuple[JobPayload, _Loaded]:
+    log: list[str] = list(loaded.log) if loaded is not None else []
     tried: list[str | None] = []
 
     def failure(kind: str, message: str) -> JobFailure:
-        session.clear()
         return JobFailure(kind, message, tail(log, 60), tried[-1] if tried else None, tuple(tried))
 
-    op_lines: list[str] = []
-    for aid in aid_ladder(job):
+    steps = control_steps(job, write_raw=False)
+    ladder = aid_ladder(job) if loaded is None else (loaded.aid,)
+    said: list[str] = []
+    for aid in ladder:
         tried.append(aid)
-        session.clear()
-        loaded = session.load(render_deck(job, option_words(job, aid)))
-        log.extend(loaded)
-        if error_lines(loaded):
-            raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded))
-        op_lines = session.command("op")
-        log.extend(op_lines)
-        plot = session.current_plot()
-        voltages = session.node_voltages(plot) if plot.startswith("op") else {}
-        if not op_failed(op_lines) and not error_lines(op_lines) and (voltages or not _has_nodes(session, plot)):
-            break
-    else:
-        raise failure("op", summary(op_lines))
+        fresh = loaded is None
+        if fresh:
+            loaded, said = _load(session, job, key, aid, log, failure)
+            if loaded is None:
+                continue  # the operating point failed: next aid
+        parts, ac_lines = _sweeps(session, job, steps, log, failure, saves_set=not fresh)
+        if parts is None:  # the first ac's own operating point failed
+            if not fresh:
+                raise failure("op", summary(ac_lines))
+            said = ac_lines
+            session.clear()
+            loaded = None
+            continue
+        if not loaded.op_done:
+            loaded.found_by = describe_aid(aid, ngspice_fallback(ac_lines))
+            loaded.op_done = True
+        runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
+        payload = JobPayload(operating_point=dict(loaded.voltages), runs=runs, log="\n".join(log), aid=aid, found_by=loaded.found_by)
+        return payload, loaded
+    raise failure("op", summary(said))
+
+
+def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log: list[str], failure) -> tuple[_Loaded | None, list[str]]:
+    """Load the circuit with ``aid``; with ``job.op_voltages`` also run its operating point.
+
+    Returns (None, ngspice's lines) when the operating point failed, else the loaded record.
+    """
+    session.clear()
+    loaded_lines = session.load(render_deck(job, option_words(job, aid)))
+    log.extend(loaded_lines)
+    if error_lines(loaded_lines):
+        raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded_lines))
+    if not job.op_voltages and job.runs:
+        return _Loaded(key, aid, log=tuple(log)), []  # the first ac computes the operating point
+    op_lines = session.command("op")
+    log.extend(op_lines)
+    plot = session.current_plot()
+    voltages = session.node_voltages(plot) if plot.startswith("op") else {}
+    if op_failed(op_lines) or error_lines(op_lines) or not (voltages or not _has_nodes(session, plot)):
+        return None, op_lines
     missing = unknown_saves(job.save, session.vector_names(plot))
     if missing:
         raise failure("netlist", missing)
     session.command("destroy all")
+    found_by = describe_aid(aid, ngspice_fallback(op_lines))
+    return _Loaded(key, aid, voltages, found_by, tuple(log), op_done=True), op_lines
 
+
+def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: list[str], failure, saves_set: bool):
+    """Run the job's saves, alters and sweeps; returns ({run: parts}, first ac's lines), or
+    (None, lines) when the first ac's own operating point failed."""
     saves = tuple(save_key(s) for s in job.save)
     parts: dict[int, list] = {r: [] for r in range(len(job.runs))}
-    for step in control_steps(job, write_raw=False):
-        if step.kind in ("op", "free"):
-            continue  # the operating point is done; plots are freed below, once read
+    first_ac: list[str] | None = None
+    for step in steps:
+        if step.kind in ("op", "free") or (step.kind == "save" and saves_set):
+            continue  # the operating point is done; plots are freed below, once read; saves stay set
         lines = session.command(step.command)
         log.extend(lines)
+        if step.kind == "ac" and first_ac is None:
+            first_ac = lines
+            if ac_op_failed(lines):
+                return None, lines
         if error_lines(lines):
             raise failure("analysis", f"'{step.command}' failed: " + summary(lines))
         if step.kind != "ac":
@@ -96,9 +194,7 @@ def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
             vectors[key] = np.asarray(data, dtype=np.complex128)
         parts[step.run_index].append((np.real(freq).astype(float), vectors))
         session.command("destroy all")
-    runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
-    session.clear()
-    return JobPayload(operating_point=voltages, runs=runs, log="\n".join(log), aid=aid, found_by=describe_aid(aid, ngspice_fallback(op_lines)))
+    return parts, first_ac or []
 
 
 def _has_nodes(session: NgspiceSession, plot: str) -> bool:

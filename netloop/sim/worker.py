@@ -20,9 +20,10 @@ def main(argv: list[str]) -> int:
     requests = sys.stdin.buffer
     try:
         from netloop.sim.session import NgspiceSession  # noqa: PLC0415
-        from netloop.sim.session_job import JobFailure, run_job  # noqa: PLC0415
+        from netloop.sim.session_job import JobFailure, JobRunner  # noqa: PLC0415
 
         session = NgspiceSession(argv[1])
+        runner = JobRunner(session)  # keeps the last circuit loaded for the next job on it
     except BaseException as exc:  # noqa: BLE001 - reported to the parent, which decides
         write_frame(replies, ("unavailable", f"{type(exc).__name__}: {exc}"))
         return 1
@@ -39,7 +40,7 @@ def main(argv: list[str]) -> int:
                 raise ValueError(f"unknown request {kind!r}")
             os.chdir(job.workdir or home)  # ngspice reads relative .include/.lib paths from here
             try:
-                payload = run_job(session, job)
+                payload = runner.run(job)
             finally:
                 os.chdir(home)
             write_frame(replies, ("ok", payload))

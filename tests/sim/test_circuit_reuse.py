@@ -1,0 +1,100 @@
+"""Jobs on the same circuit reuse the loaded circuit (no second load, no separate op) and stay exact."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from netloop.sim import AcRun, AcSweep, SimJob, find_libngspice
+from netloop.sim.session_job import JobRunner
+
+RC = "rc\nv1 in 0 dc 1 ac 0\nr1 in out 1k\nc1 out 0 1n\n"
+RC2 = "rc2\nv1 in 0 dc 1 ac 0\nr1 in out 2k\nc1 out 0 1n\n"
+
+
+def _job(netlist: str, sweeps: tuple[AcSweep, ...], op_voltages: bool = True) -> SimJob:
+    return SimJob(netlist, runs=(AcRun("a", {"v1": 1.0}, sweeps),), save=("v(out)",), excitable=("v1",), op_voltages=op_voltages)
+
+
+def _expected(freq_hz: np.ndarray, r_ohm: float) -> np.ndarray:
+    return 1 / (1 + 2j * np.pi * freq_hz * r_ohm * 1e-9)  # circuit theory: RC low-pass, closed form
+
+
+@pytest.fixture(scope="module")
+def recording():
+    from netloop.sim.session import NgspiceSession  # noqa: PLC0415 - loads libngspice in this process
+
+    class Recording(NgspiceSession):
+        def __init__(self, path: str):
+            super().__init__(path)
+            self.calls: list[str] = []
+
+        def load(self, deck_text: str) -> list[str]:
+            self.calls.append("load")
+            return super().load(deck_text)
+
+        def command(self, command: str) -> list[str]:
+            self.calls.append(command.split()[0])
+            return super().command(command)
+
+    return Recording(find_libngspice())
+
+
+@pytest.mark.ngspice
+def test_second_round_skips_load_and_op_and_is_exact(recording):
+    """A second job on the same circuit (other sweeps) loads nothing and runs no op, yet matches the closed form;
+    a job on another circuit loads that one."""
+    runner = JobRunner(recording)
+    recording.calls.clear()
+    first = runner.run(_job(RC, (AcSweep("dec", 5, 1e3, 1e6),)))
+    assert recording.calls.count("load") == 1 and recording.calls.count("op") == 1
+    assert first.operating_point["out"] == pytest.approx(1.0, rel=1e-9)  # no DC current through c1: v(out) = v(in)
+    recording.calls.clear()
+    second = runner.run(_job(RC, (AcSweep("lin", 7, 1e5, 2e5),)))
+    assert "load" not in recording.calls and "op" not in recording.calls
+    assert second.operating_point == first.operating_point
+    name, freq, vectors = second.runs[0]
+    np.testing.assert_allclose(freq, np.linspace(1e5, 2e5, 7), rtol=1e-12)  # ngspice's lin sweep: 7 evenly spaced points
+    np.testing.assert_allclose(vectors["v(out)"], _expected(freq, 1e3), rtol=1e-9)
+    recording.calls.clear()
+    other = runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),)))
+    assert recording.calls.count("load") == 1
+    np.testing.assert_allclose(other.runs[0][2]["v(out)"], _expected(other.runs[0][1], 2e3), rtol=1e-9)
+    runner.forget()
+
+
+@pytest.mark.ngspice
+def test_without_op_voltages_the_first_ac_is_the_only_operating_point(recording):
+    """op_voltages=False runs no separate op (ngspice's 'Doing analysis' appears once per ac only) and gives the same vectors."""
+    runner = JobRunner(recording)
+    recording.calls.clear()
+    sweeps = (AcSweep("dec", 5, 1e3, 1e6), AcSweep("lin", 3, 2e6, 3e6))
+    payload = runner.run(_job(RC, sweeps, op_voltages=False))
+    assert "op" not in recording.calls and recording.calls.count("ac") == 2
+    assert payload.log.count("Doing analysis") == 2  # ngspice prints this once per analysis it starts
+    assert payload.operating_point == {}
+    name, freq, vectors = payload.runs[0]
+    np.testing.assert_allclose(vectors["v(out)"], _expected(freq, 1e3), rtol=1e-9)
+    runner.forget()
+
+
+NO_SOLUTION = """relay with no solution
+b1 n 0 i = v(n) > 0.5 ? 2m : -2m
+r1 n 0 1k
+v1 in 0 dc 0 ac 1
+r2 in n 1k
+"""
+
+
+@pytest.mark.ngspice
+def test_without_op_voltages_a_failed_operating_point_tries_every_aid(recording):
+    """When the first ac's own operating point fails, every convergence aid is tried and the failure says 'op'."""
+    from netloop.sim.session_job import JobFailure  # noqa: PLC0415
+
+    job = SimJob(NO_SOLUTION, runs=(AcRun("a", {"v1": 1.0}, (AcSweep("dec", 1, 1, 10),)),), save=("v(n)",),
+                 excitable=("v1",), op_aids=("itl1=500",), op_voltages=False)
+    runner = JobRunner(recording)
+    with pytest.raises(JobFailure) as caught:
+        runner.run(job)
+    assert caught.value.kind == "op" and caught.value.tried == (None, "itl1=500")
+    assert "AC operating point failed" in caught.value.output  # ngspice 39's own words
