@@ -112,6 +112,29 @@ def hand_deck(netlist: str, sweeps: list[str]) -> str:
     return body + "\n.control\n" + "\n".join(steps) + "\n.endc\n.end\n"
 
 
+STAGES = """
+import sys, time
+t0 = time.perf_counter()
+from netloop import report
+from netloop.measure import measure_probed
+from netloop.netlist import parse_file
+from netloop.probe import break_loop
+from netloop.sim import default_simulator
+t1 = time.perf_counter()
+netlist = parse_file(sys.argv[1])
+t2 = time.perf_counter()
+probed = break_loop(netlist, "out")
+t3 = time.perf_counter()
+sim = default_simulator()
+t4 = time.perf_counter()
+analysis, info, _ = measure_probed(probed, simulator=sim)
+t5 = time.perf_counter()
+sim.close()
+print(f"  imports {t1 - t0:.2f} s, parse {t2 - t1:.2f} s, probe {t3 - t2:.2f} s, worker start {t4 - t3:.2f} s, "
+      f"simulator {info.seconds:.2f} s, analysis {t5 - t4 - info.seconds:.2f} s")
+"""
+
+
 def timed(command: list[str], cwd: Path) -> tuple[float, subprocess.CompletedProcess]:
     start = time.perf_counter()
     done = subprocess.run(command, cwd=cwd, capture_output=True, text=True, check=False)
@@ -124,6 +147,7 @@ def main() -> None:
     parser.add_argument("--circuit", choices=tuple(CIRCUITS), default="behavioural")
     parser.add_argument("--repeat", type=int, default=1, help="runs of each side, taking turns; the fastest counts")
     parser.add_argument("--quick", action="store_true", help="a smoke run: 2000 elements")
+    parser.add_argument("--stages", action="store_true", help="also time netloop's stages in one more (in-process) run")
     args = parser.parse_args()
     elements = 2000 if args.quick else args.elements
     build = CIRCUITS[args.circuit]
@@ -146,12 +170,18 @@ def main() -> None:
             if "error" in done.stdout.lower() or not (work / "run1_0.raw").is_file():
                 sys.exit(f"check_speed: the hand deck failed: {done.stdout[-2000:]}")
             hand_s.append(seconds)
+        if args.stages:
+            stages = subprocess.run([sys.executable, "-c", STAGES, "loop.cir"], cwd=work, capture_output=True, text=True, check=False)
+            stage_line = stages.stdout.strip() or stages.stderr.strip()[-500:]
     t_netloop, t_hand = min(netloop_s), min(hand_s)
     ratio = t_netloop / t_hand
     print(f"{args.circuit} loop through a {elements}-element RC network; {len(sweeps)} ac sweeps x 2 excitations "
           f"({', '.join(s.split(' ', 1)[1] for s in sweeps)}); best of {args.repeat}")
     print(f"ngspice -b hand deck   {t_hand:8.2f} s   1.00")
     print(f"netloop check          {t_netloop:8.2f} s   {ratio:.3f}x ngspice (target <= {TARGET})")
+    if args.stages:
+        print("netloop stages (one more run, in process; the worker starts after the probe here):")
+        print(stage_line)
     print(f"ratio netloop/ngspice {ratio:.3f} ({'meets' if ratio <= TARGET else 'misses'} the {TARGET}x target)")
 
 

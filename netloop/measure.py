@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import time
 from collections.abc import Callable, Iterable, Mapping
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
 from os import PathLike
 from pathlib import Path
@@ -301,6 +302,20 @@ def ignored_lines(netlist: Netlist) -> tuple[str, ...]:
     return tuple(f"{d.location.file}:{d.location.line}: {d.text.splitlines()[0].strip()}" for d in netlist.ignored)
 
 
+def _start_default_simulator(keep_decks: str | PathLike[str] | None) -> Future:
+    """The default simulator, started in a thread so that its worker's start-up overlaps the caller's work."""
+    pool = ThreadPoolExecutor(1, thread_name_prefix="netloop-sim-start")
+    try:
+        return pool.submit(default_simulator, keep_dir=str(keep_decks) if keep_decks else None)
+    finally:
+        pool.shutdown(wait=False)
+
+
+def _close_started(started: Future) -> None:
+    if started.exception() is None and hasattr(started.result(), "close"):
+        started.result().close()
+
+
 def measure(
     netlist: Netlist | str | PathLike[str],
     at: str,
@@ -325,9 +340,15 @@ def measure(
     reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
         [r for r in requirements if not isinstance(r, Requirement)]
     )
-    probed = break_loop(parsed, at, driver=driver)
     own = simulator is None
-    sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    starting = _start_default_simulator(keep_decks) if own else None  # ngspice starts while the loop is broken
+    try:
+        probed = break_loop(parsed, at, driver=driver)
+    except BaseException:
+        if starting is not None:
+            starting.add_done_callback(_close_started)
+        raise
+    sim = starting.result() if starting is not None else simulator
     try:
         analysis, info, sim_warnings = measure_probed(
             probed,

@@ -39,16 +39,14 @@ def loop_report(g: nx.Graph, side_a: str, side_b: str) -> tuple[bool, tuple[str,
         return False, (), ()
     on_loop = nx.has_path(g, a, b)
     loads = sorted(v for v in g.neighbors(b) if g.degree(v) > 1 or v in g.neighbors(a))
-    without_b = g.copy()
-    without_b.remove_node(b)
+    without_b = nx.restricted_view(g, (b,), ())  # views, not copies: a large parasitic network stays cheap
     # elements in parallel (same far nodes, such as Rf || Cf) are one branch
     branches: dict[frozenset, list] = {}
     for v in loads:
         branches.setdefault(frozenset(g.neighbors(v)) - {b}, []).append(v)
     loops, others = [], []
     for members in branches.values():
-        alone = without_b.copy()
-        alone.remove_nodes_from(u for u in loads if u not in members)
+        alone = nx.restricted_view(g, (b, *(u for u in loads if u not in members)), ())
         name = "||".join(v[1] for v in members)
         if any(nx.has_path(alone, v, a) for v in members):
             loops.append(name)
