@@ -2,14 +2,17 @@
 
 Run:  .venv/bin/python benchmarks/corners_scaling.py [--ppd N] [--repeat R]
 
-Each cluster is started and its workers' ngspice warmed before the clock starts, so the ratio
-compares running corners, not starting processes. Both runs go through run_plan (journal,
+Both clusters (1 worker, 2 workers) are started and their workers' ngspice warmed before the
+clock starts, so the ratio compares running corners, not starting processes; runs alternate
+between the two and the fastest of each counts, so bursts of other work on a shared machine
+weigh on both alike. Both runs go through run_plan (journal,
 Dask submission, result collection), the same path as `netloop corners --cluster ADDRESS`.
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import logging
 import os
 import statistics
@@ -44,19 +47,13 @@ def _warm() -> None:
     worker_simulator()
 
 
-def timed_run(plan_path: Path, workers: int, out: Path) -> tuple[float, tuple[dict, ...]]:
-    from distributed import Client, LocalCluster
-
+def timed_run(plan_path: Path, address: str, out: Path) -> tuple[float, tuple[dict, ...]]:
+    """Wall time of run_plan on the scheduler at ``address`` (journal, submission, collection included)."""
     from netloop.corners import load_plan, run_plan
 
-    with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
-                      dashboard_address=None, scheduler_kwargs={"dashboard_address": "127.0.0.1:0"}, silence_logs=logging.ERROR) as cluster, Client(cluster) as client:
-        client.wait_for_workers(workers)
-        client.run(_warm)
-        start = time.perf_counter()
-        run = run_plan(load_plan(plan_path), cluster=cluster.scheduler_address, out=out, force=True)
-        wall = time.perf_counter() - start
-    return wall, run.records
+    start = time.perf_counter()
+    run = run_plan(load_plan(plan_path), cluster=address, out=out, force=True)
+    return time.perf_counter() - start, run.records
 
 
 def main() -> None:
@@ -64,17 +61,29 @@ def main() -> None:
     parser.add_argument("--ppd", type=int, default=10, help="points per decade of the first sweep (default 10, netloop's default)")
     parser.add_argument("--circuit", choices=tuple(CIRCUITS), default="invented",
                         help="the Miller buffer on the invented models (about 40 ms a corner) or on sky130 (about 1.7 s a corner)")
-    parser.add_argument("--repeat", type=int, default=2, help="runs per worker count; the fastest counts (default 2)")
+    parser.add_argument("--repeat", type=int, default=5, help="runs per worker count; the fastest counts (default 5)")
     args = parser.parse_args()
+    from distributed import Client, LocalCluster
+
     with tempfile.TemporaryDirectory() as tmp:
         plan = Path(tmp) / "bench.toml"
         netlist, supplies = CIRCUITS[args.circuit]
         plan.write_text(PLAN.format(netlist=ROOT / netlist, ppd=args.ppd, supplies=supplies))
         load_before = os.getloadavg()[0]
         runs: dict[int, list] = {1: [], 2: []}
-        for _ in range(args.repeat):  # alternate, so a change in the machine's load hits both counts alike
+        with contextlib.ExitStack() as stack:
+            addresses = {}
             for workers in (1, 2):
-                runs[workers].append(timed_run(plan, workers, Path(tmp) / f"r{workers}.jsonl"))
+                cluster = stack.enter_context(LocalCluster(
+                    n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None,
+                    scheduler_kwargs={"dashboard_address": "127.0.0.1:0"}, silence_logs=logging.ERROR))
+                client = stack.enter_context(Client(cluster))
+                client.wait_for_workers(workers)
+                client.run(_warm)  # each worker's ngspice started before the clock starts
+                addresses[workers] = cluster.scheduler_address
+            for _ in range(args.repeat):  # alternate, so a burst of other work on the machine hits both counts alike
+                for workers in (1, 2):
+                    runs[workers].append(timed_run(plan, addresses[workers], Path(tmp) / f"r{workers}.jsonl"))
         results = {w: min(r, key=lambda x: x[0]) for w, r in runs.items()}
         wall1, rec1 = results[1]
         wall2, rec2 = results[2]

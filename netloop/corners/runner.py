@@ -182,6 +182,22 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
                      counts=counts, stale=stale)
 
 
+def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
+    """(future, records) for each finished future, (future, None) for each failed one."""
+    done = [f for f in batch if f.status == "finished"]
+    try:
+        values = client.gather(done) if done else []
+    except Exception:  # noqa: BLE001 - data lost between the batch and the fetch: one by one, each may fail alone
+        values = []
+        for f in done:
+            try:
+                values.append(f.result())
+            except Exception:  # noqa: BLE001
+                values.append(None)
+    got = dict(zip(map(id, done), values))
+    return [(f, got.get(id(f))) for f in batch]
+
+
 def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None) -> int:
     from distributed import as_completed
 
@@ -189,13 +205,12 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
         workers = len(client.scheduler_info().get("workers", {}))
         run_id = uuid.uuid4().hex[:8]  # two runs on one scheduler never share a task
         futures = {client.submit(run_task, t, options, key=f"netloop-corner-{t.key}-{run_id}", pure=False): t for t in pending}
-        for future in as_completed(futures):
-            task = futures[future]
-            try:
-                records = future.result()
-            except Exception as exc:  # noqa: BLE001 - a lost worker fails one task, the run goes on
-                records = _lost(task, exc)
-            journal.write(records)
-            by_key[task.key] = records
-            bar.advance(any(r["outcome"] != "pass" for r in records))
+        # the futures that finished together are fetched in one round trip to the scheduler
+        for batch in as_completed(futures).batches():
+            for future, records in _fetch(client, batch):
+                task = futures[future]
+                records = records if records is not None else _lost(task, future.exception())
+                journal.write(records)
+                by_key[task.key] = records
+                bar.advance(any(r["outcome"] != "pass" for r in records))
     return workers
