@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 import time
+import uuid
 from collections.abc import Callable, Iterable, Mapping
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
@@ -91,6 +92,7 @@ def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str 
         timeout_s=timeout_s,
         workdir=workdir,
         op_voltages=False,  # the first ac's own operating point serves: no separate op run
+        circuit_id=uuid.uuid4().hex,  # every round of this probe's measurement runs on one loaded circuit
     )
 
 

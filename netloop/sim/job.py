@@ -53,6 +53,11 @@ class SimJob:
     # analysis's own operating point stand in for a separate ``op`` run (one operating point fewer;
     # operating_point is then empty). Convergence aids and errors are the same either way.
     op_voltages: bool = True
+    # Jobs of one measurement (its widening and refinement rounds) share a non-empty circuit_id: a job
+    # whose id, netlist, options, folder, saves and excitable sources equal the previous job's runs on
+    # the circuit that job left loaded, without a new load and operating point. Empty: always loaded
+    # afresh (a file the netlist includes may have changed since).
+    circuit_id: str = ""
 
 
 @dataclass(frozen=True, slots=True)

@@ -1,9 +1,9 @@
 """Run SimJobs in an ngspice session: load, operating point (with aids), then each AC run.
 
-A JobRunner keeps the circuit of its last successful job loaded: a next job on the very same
-circuit (netlist text, options, folder, saves and excited sources all equal; only the sweeps
-differ, as in the widening and refinement rounds of one measurement) skips the load and the
-operating point and runs its sweeps at once.
+A JobRunner keeps the circuit of its last successful job loaded: a next job of the same measurement
+(same non-empty ``circuit_id``) on the very same circuit (netlist text, options, folder, saves and
+excited sources all equal; only the sweeps differ, as in the widening and refinement rounds) skips
+the load and the operating point and runs its sweeps at once.
 """
 
 from __future__ import annotations
@@ -63,7 +63,7 @@ class _Loaded:
 def circuit_key(job: SimJob) -> tuple:
     """What must be equal for two jobs to run on one loaded circuit (everything but the sweeps)."""
     saves = tuple(save_key(s) for s in job.save)
-    return (job.netlist, tuple(job.options), tuple(job.op_aids), job.workdir, saves, excited_sources(job), job.op_voltages)
+    return (job.circuit_id, job.netlist, tuple(job.options), tuple(job.op_aids), job.workdir, saves, excited_sources(job), job.op_voltages)
 
 
 class JobRunner:
@@ -76,7 +76,7 @@ class JobRunner:
     def run(self, job: SimJob) -> JobPayload:
         """Do ``job``; raises JobFailure with ngspice's own lines when it cannot."""
         key = circuit_key(job)
-        loaded = self._loaded if self._loaded is not None and self._loaded.key == key else None
+        loaded = self._loaded if self._loaded is not None and job.circuit_id and self._loaded.key == key else None
         self._loaded = None
         if loaded is None:
             self.session.clear()  # whatever circuit a previous job left
@@ -175,7 +175,7 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
         log.extend(lines)
         if step.kind == "ac" and first_ac is None:
             first_ac = lines
-            if ac_op_failed(lines):
+            if ac_op_failed(lines) or op_failed(lines):
                 return None, lines
         if error_lines(lines):
             raise failure("analysis", f"'{step.command}' failed: " + summary(lines))

@@ -12,8 +12,9 @@ RC = "rc\nv1 in 0 dc 1 ac 0\nr1 in out 1k\nc1 out 0 1n\n"
 RC2 = "rc2\nv1 in 0 dc 1 ac 0\nr1 in out 2k\nc1 out 0 1n\n"
 
 
-def _job(netlist: str, sweeps: tuple[AcSweep, ...], op_voltages: bool = True) -> SimJob:
-    return SimJob(netlist, runs=(AcRun("a", {"v1": 1.0}, sweeps),), save=("v(out)",), excitable=("v1",), op_voltages=op_voltages)
+def _job(netlist: str, sweeps: tuple[AcSweep, ...], op_voltages: bool = True, circuit_id: str = "m1") -> SimJob:
+    return SimJob(netlist, runs=(AcRun("a", {"v1": 1.0}, sweeps),), save=("v(out)",), excitable=("v1",), op_voltages=op_voltages,
+                  circuit_id=circuit_id)
 
 
 def _expected(freq_hz: np.ndarray, r_ohm: float) -> np.ndarray:
@@ -42,8 +43,8 @@ def recording():
 
 @pytest.mark.ngspice
 def test_second_round_skips_load_and_op_and_is_exact(recording):
-    """A second job on the same circuit (other sweeps) loads nothing and runs no op, yet matches the closed form;
-    a job on another circuit loads that one."""
+    """A second job of one measurement on the same circuit (other sweeps) loads nothing and runs no op, yet matches
+    the closed form; another circuit, another circuit_id or none loads afresh."""
     runner = JobRunner(recording)
     recording.calls.clear()
     first = runner.run(_job(RC, (AcSweep("dec", 5, 1e3, 1e6),)))
@@ -59,6 +60,10 @@ def test_second_round_skips_load_and_op_and_is_exact(recording):
     recording.calls.clear()
     other = runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),)))
     assert recording.calls.count("load") == 1
+    recording.calls.clear()
+    runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),), circuit_id="m2"))  # another measurement: loaded afresh
+    runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),), circuit_id=""))  # no id: always loaded afresh
+    assert recording.calls.count("load") == 2
     np.testing.assert_allclose(other.runs[0][2]["v(out)"], _expected(other.runs[0][1], 2e3), rtol=1e-9)
     runner.forget()
 
