@@ -77,6 +77,7 @@ def test_cluster_run_matches_direct_measure_and_a_failed_corner_does_not_stop_th
         ["tt/-40C", "tt/27C", "tt/125C", "ss/-40C", "ss/27C", "ss/125C", "supply-blown"])
     blown = next(r for r in corners if r["corner"] == "supply-blown")
     assert blown["outcome"] == "error" and "did not converge" in blown["error"]  # ngspice's own verdict on the operating point
+    assert "ngspice said:" in blown["error"] and blown["simulator_output"]  # with ngspice's message and its output
     assert all(r["worker"].split(":")[1] != str(os.getpid()) for r in corners)  # measured in the workers, not here
     for r in corners:
         if r["corner"] == "supply-blown":
