@@ -10,7 +10,8 @@ corners   corner plans run as a regression on Dask, results journalled line by l
 cli       the ``netloop`` command, a thin shell over this API
 
 The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
-``measure_all_loops`` (every loop group), ``compare`` (several breaks in one deck).
+``measure_all_loops`` (every loop group), ``compare`` (several breaks in one deck),
+``run_plan`` (a corner plan from ``load_plan``).
 Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
 """
 
@@ -43,11 +44,13 @@ _EXPORTS = {
     "default_simulator": "netloop.sim",
     "find_loops": "netloop.graph",
     "flatten": "netloop.graph",
+    "load_plan": "netloop.corners",
     "measure": "netloop.measure",
     "measure_all_loops": "netloop.discover",
     "measure_pair": "netloop.measure_pair",
     "parse_file": "netloop.netlist",
     "parse_text": "netloop.netlist",
+    "run_plan": "netloop.corners",
     "write_netlist": "netloop.netlist",
 }
 

@@ -15,8 +15,8 @@ def test_all_is_sorted_and_pinned():
         "NetlistSyntaxError", "NetloopError", "PairResult", "PlanError", "ProbeError",
         "SimulationError", "SimulatorUnavailableError", "Sweep", "UnknownNodeError",
         "__version__", "analyse", "break_loop", "compare", "Comparison", "default_simulator",
-        "find_loops", "flatten", "measure", "measure_all_loops", "measure_pair", "parse_file",
-        "parse_text", "write_netlist",
+        "find_loops", "flatten", "load_plan", "measure", "measure_all_loops", "measure_pair", "parse_file",
+        "parse_text", "run_plan", "write_netlist",
     ]
     assert netloop.__all__ == sorted(expected)
 
