@@ -178,11 +178,14 @@ def main() -> None:
     print(f"{args.circuit} loop through a {elements}-element RC network; {len(sweeps)} ac sweeps x 2 excitations "
           f"({', '.join(s.split(' ', 1)[1] for s in sweeps)}); best of {args.repeat}")
     print(f"ngspice -b hand deck   {t_hand:8.2f} s   1.00")
-    print(f"netloop check          {t_netloop:8.2f} s   {ratio:.3f}x ngspice (target <= {TARGET})")
+    print(f"netloop check          {t_netloop:8.2f} s   {ratio:.3f}x ngspice")
     if args.stages:
         print("netloop stages (one more run, in process; the worker starts after the probe here):")
         print(stage_line)
-    print(f"ratio netloop/ngspice {ratio:.3f} ({'meets' if ratio <= TARGET else 'misses'} the {TARGET}x target)")
+    if args.quick:
+        print(f"ratio netloop/ngspice {ratio:.3f} (quick smoke run: netloop's start-up dominates; the target is for 100000 elements)")
+    else:
+        print(f"ratio netloop/ngspice {ratio:.3f} ({'meets' if ratio <= TARGET else 'misses'} the {TARGET}x target)")
 
 
 if __name__ == "__main__":

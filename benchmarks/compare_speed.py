@@ -47,7 +47,10 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeat", type=int, default=3)
     parser.add_argument("--netlist", default=str(ROOT / "circuits" / "hier" / "top.cir"))
+    parser.add_argument("--quick", action="store_true", help="a smoke run: once")
     args = parser.parse_args()
+    if args.quick:
+        args.repeat = 1
     together: list[float] = []
     apart: list[float] = []
     for _ in range(args.repeat):

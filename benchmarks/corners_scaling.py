@@ -62,7 +62,10 @@ def main() -> None:
     parser.add_argument("--circuit", choices=tuple(CIRCUITS), default="invented",
                         help="the Miller buffer on the invented models (about 40 ms a corner) or on sky130 (about 1.7 s a corner)")
     parser.add_argument("--repeat", type=int, default=5, help="runs per worker count; the fastest counts (default 5)")
+    parser.add_argument("--quick", action="store_true", help="a smoke run: once per worker count")
     args = parser.parse_args()
+    if args.quick:
+        args.repeat = 1
     from distributed import Client, LocalCluster
 
     with tempfile.TemporaryDirectory() as tmp:
