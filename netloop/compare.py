@@ -31,8 +31,9 @@ the loop no longer affects stability and the relative difference is only the sim
 from __future__ import annotations
 
 import math
+import uuid
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from os import PathLike
 from pathlib import Path
 from typing import Literal
@@ -206,6 +207,8 @@ def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[Ac
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
+        op_voltages=False,  # as probe_job: the first ac's own operating point serves, no separate op run
+        circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this comparison runs on one loaded circuit
     )
 
 
@@ -503,12 +506,14 @@ def compare(
 
     own = simulator is None
     sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s)  # written once: every round shares its circuit_id
+
+    def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
+        return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
+
     try:
         names = [_key(p.location, m) for p in probes for m in methods]
-        analyses, info, sim_warnings = sample_loops(
-            lambda sweeps: compare_job(deck, placed, sweeps, label="compare", timeout_s=timeout_s),
-            ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles),
-        )
+        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles))
     finally:
         if own and hasattr(sim, "close"):
             sim.close()

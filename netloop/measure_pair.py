@@ -18,8 +18,9 @@ mode's own, so its effect on the mode's margins is well under 1 degree.
 from __future__ import annotations
 
 import math
+import uuid
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from os import PathLike
 from pathlib import Path
 
@@ -107,6 +108,8 @@ def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", t
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
+        op_voltages=False,  # as probe_job: the first ac's own operating point serves, no separate op run
+        circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this measurement runs on one loaded circuit
     )
 
 
@@ -206,10 +209,13 @@ def measure_pair(
 
     own = simulator is None
     sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    base = pair_job(probe, (), label=label, timeout_s=timeout_s)  # written once: every round shares its circuit_id
+
+    def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
+        return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
+
     try:
-        analyses, info, sim_warnings = sample_loops(
-            lambda sweeps: pair_job(probe, sweeps, label=label, timeout_s=timeout_s), ratios, sim, sweep, rhp
-        )
+        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, rhp)
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
