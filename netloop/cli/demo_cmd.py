@@ -30,17 +30,20 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.measure import measure
+    from netloop.report.files import output_file
 
     rel, node, what = DEMOS[args.name]
     netlist = circuits_dir() / rel
     out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
+    with output_file(out, "demo folder"):
+        out.mkdir(parents=True, exist_ok=True)
     print(f"netloop demo: {what}\n  netlist {netlist}\n  break   {node}\n")
     result = measure(netlist, node, requirements=["pm>=45", "gm>=10"])
     print(report.format_text(result))
     report.plot_bode(result, out / "bode.png")
     report.plot_nyquist(result, out / "nyquist.png")
     report.write_html(result, out / "report.html")
-    (out / "result.json").write_text(json.dumps(report.to_document(result), indent=2, allow_nan=False) + "\n")
+    with output_file(out / "result.json", "JSON document") as path:
+        path.write_text(json.dumps(report.to_document(result), indent=2, allow_nan=False) + "\n")
     print(f"\nwritten: {out / 'report.html'}, {out / 'bode.png'}, {out / 'nyquist.png'}, {out / 'result.json'}")
     return 0 if result.passed else 1

@@ -6,6 +6,7 @@ import argparse
 import importlib
 import sys
 from collections.abc import Sequence
+from typing import NoReturn
 
 # Each command lives in its own module with ``add_parser(subparsers)`` and ``run(args) -> int``.
 # Modules are imported lazily so that ``netloop --help`` starts fast.
@@ -19,6 +20,15 @@ COMMANDS: dict[str, tuple[str, str]] = {
 }
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with usage errors on one line, in the same form as every other error of the CLI."""
+
+    def error(self, message: str) -> NoReturn:
+        command = self.prog.removeprefix("netloop").strip()
+        where = f"{command}: " if command else ""
+        self.exit(2, f"netloop: error: {where}{message} (see '{self.prog} --help')\n")
+
+
 def _available() -> dict[str, tuple[str, str]]:
     from importlib.util import find_spec
 
@@ -26,7 +36,7 @@ def _available() -> dict[str, tuple[str, str]]:
 
 
 def build_parser(load: str | None = None) -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="netloop",
         description="Loop gain and stability margins of feedback loops in a SPICE netlist, through ngspice.",
         epilog="Small-signal margins around one operating point do not prove large-signal stability.",

@@ -7,7 +7,7 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
-from netloop.errors import NetloopError
+from netloop.errors import NetloopError, OutputError
 
 __all__ = ["SCHEMA", "Journal", "default_results_path", "read_records"]
 
@@ -57,6 +57,19 @@ class Journal:
         if resume and force:
             raise NetloopError("--resume and --force contradict each other: --resume continues the results file, --force replaces it")
         done: dict[str, list[dict]] = {}
+        if p.is_dir():
+            raise OutputError(f"the results file {p} is a folder; give --out a file name")
+        try:
+            fh = cls._open_file(p, done, resume=resume, force=force)
+        except OSError as exc:
+            raise OutputError(f"cannot write the results file {str(p)!r}: {exc.strerror or exc}") from exc
+        journal = cls(p, done, fh)
+        journal._write({"record": "run", "schema": SCHEMA, "plan": plan, "corners": total, "resumed": bool(done)})
+        return journal
+
+    @staticmethod
+    def _open_file(p: Path, done: dict[str, list[dict]], *, resume: bool, force: bool):
+        """The results file opened for appending (resume) or writing; fills ``done`` from a resumed file."""
         if p.exists() and not (resume or force):
             raise NetloopError(f"the results file {p} already exists and would be overwritten; "
                                "pass --resume to skip the corners it holds and run the rest, "
@@ -72,9 +85,7 @@ class Journal:
         else:
             p.parent.mkdir(parents=True, exist_ok=True)
             fh = open(p, "w", encoding="utf-8")
-        journal = cls(p, done, fh)
-        journal._write({"record": "run", "schema": SCHEMA, "plan": plan, "corners": total, "resumed": bool(done)})
-        return journal
+        return fh
 
     def _write(self, item: dict) -> None:
         self._fh.write(json.dumps(item, allow_nan=False, separators=(",", ":")) + "\n")

@@ -300,4 +300,6 @@ def load_plan(path: str | Path) -> Plan:
         text = p.read_text(encoding="utf-8")
     except OSError as exc:
         raise PlanError(f"cannot read plan {str(path)!r}: {exc.strerror or exc}") from exc
+    except UnicodeDecodeError as exc:
+        raise PlanError(f"cannot read plan {str(path)!r}: not UTF-8 text (byte {exc.start}); a plan is a TOML file") from exc
     return parse_plan(text, str(p.resolve()))

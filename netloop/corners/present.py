@@ -14,6 +14,7 @@ import xml.etree.ElementTree as ET
 from pathlib import Path
 
 from netloop.corners.journal import SCHEMA
+from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
 
 __all__ = ["corner_table", "counts_line", "run_document", "verdict", "worst_first", "write_corner_csv", "write_junit"]
@@ -91,7 +92,7 @@ _CSV_FIELDS = ("corner", "at", "verdict", "phase_margin_deg", "gain_margin_db", 
 
 def write_corner_csv(records: tuple[dict, ...], path: str | Path) -> None:
     """One row per corner (worst first); empty cells where a quantity does not exist; settings as k=v pairs."""
-    with open(path, "w", newline="", encoding="utf-8") as fh:
+    with output_file(path, "corner table") as out, out.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(_CSV_FIELDS)
         for r in worst_first(records):
@@ -130,7 +131,8 @@ def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None
         out.text = (f"phase margin {deg(m.get('phase_margin_deg'))}, gain margin {_gm(r)}, crossover {eng(m.get('unity_gain_hz'), 'Hz')}; "
                     + " ".join(f"{k}={val}" for k, val in r["settings"].items()))
     ET.indent(root)
-    ET.ElementTree(root).write(path, encoding="utf-8", xml_declaration=True)
+    with output_file(path, "JUnit XML") as target:
+        ET.ElementTree(root).write(target, encoding="utf-8", xml_declaration=True)
 
 
 def run_document(run) -> dict:

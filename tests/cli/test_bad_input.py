@@ -1,0 +1,137 @@
+"""Bad input at the CLI boundary: every command answers with one 'netloop: error:' line, exit 2, no traceback."""
+
+from __future__ import annotations
+
+import os
+import shutil
+from pathlib import Path
+
+import pytest
+
+from netloop.cli.main import main
+
+ROOT = Path(__file__).resolve().parents[2]
+# A self-contained behavioural loop (no .lib/.include), so every file a case needs is in tmp_path.
+LOOP = ROOT / "circuits" / "cond_stable.cir"
+
+ROOT_USER = hasattr(os, "geteuid") and os.geteuid() == 0
+
+
+@pytest.fixture
+def inputs(tmp_path: Path) -> dict[str, str]:
+    """The files the cases read, written fresh in tmp_path; names usable as {placeholders} in argv."""
+    good = tmp_path / "good.cir"
+    shutil.copyfile(LOOP, good)
+    garbage = tmp_path / "garbage.cir"
+    garbage.write_bytes(bytes(range(256)) * 4)  # seeded by construction: every byte value, not valid UTF-8
+    syntax = tmp_path / "syntax.cir"
+    syntax.write_text("title\nR1 a 0 1k\nR2 a\n.end\n")  # R2 lacks its second node and value
+    folder = tmp_path / "folder"
+    folder.mkdir()
+    blocker = tmp_path / "blocker"  # a plain file: nothing can be written below it
+    blocker.write_text("not a folder\n")
+    (tmp_path / "bad_syntax.toml").write_text('netlist = "good.cir"\nat = [out\n')
+    (tmp_path / "unknown_node.toml").write_text('netlist = "good.cir"\nat = "nosuch"\n')
+    (tmp_path / "missing_netlist.toml").write_text('netlist = "missing.cir"\nat = "out"\n')
+    (tmp_path / "bad_require.toml").write_text('netlist = "good.cir"\nat = "out"\nrequire = ["pm >> 5"]\n')
+    (tmp_path / "ok.toml").write_text('netlist = "good.cir"\nat = "out"\n')
+    readonly = tmp_path / "readonly"
+    readonly.mkdir()
+    readonly.chmod(0o555)
+    return {"dir": str(tmp_path), "good": str(good), "garbage": str(garbage), "syntax": str(syntax),
+            "folder": str(folder), "blocker": str(blocker), "readonly": str(readonly)}
+
+
+def _run(argv: list[str]) -> int:
+    """main() as the shell sees it: argparse's usage errors become their exit status."""
+    try:
+        return main(argv)
+    except SystemExit as exc:
+        return int(exc.code)
+
+
+def _snapshot(folder: str) -> dict[str, tuple[bytes, int]]:
+    """Content and modification time of every file the user gave (all of tmp_path at the start)."""
+    return {str(p): (p.read_bytes(), p.stat().st_mtime_ns) for p in Path(folder).rglob("*") if p.is_file()}
+
+
+# (argv with {placeholders}, text the one error line must contain); each id says what the case proves.
+CASES = [
+    # inspect
+    pytest.param(["inspect", "{dir}/missing.cir"], "missing.cir': No such file", id="inspect-missing-file-is-named"),
+    pytest.param(["inspect", "{folder}"], "Is a directory", id="inspect-directory-instead-of-file"),
+    pytest.param(["inspect", "{garbage}"], "garbage.cir:", id="inspect-binary-garbage-gives-file-line"),
+    pytest.param(["inspect", "{syntax}"], "syntax.cir:3:", id="inspect-syntax-error-gives-file-line"),
+    # loops
+    pytest.param(["loops", "{dir}/missing.cir"], "missing.cir", id="loops-missing-file-is-named"),
+    pytest.param(["loops", "{folder}"], "Is a directory", id="loops-directory-instead-of-file"),
+    pytest.param(["loops", "{garbage}"], "garbage.cir:", id="loops-binary-garbage-gives-file-line"),
+    pytest.param(["loops", "{good}", "--max-loops", "0"], "--max-loops must be at least 1", id="loops-bad-limit"),
+    # check
+    pytest.param(["check", "{dir}/missing.cir", "--at", "out"], "missing.cir", id="check-missing-file-is-named"),
+    pytest.param(["check", "{folder}", "--at", "out"], "Is a directory", id="check-directory-instead-of-file"),
+    pytest.param(["check", "{garbage}", "--at", "out"], "garbage.cir:", id="check-binary-garbage-gives-file-line"),
+    pytest.param(["check", "{syntax}", "--at", "a"], "syntax.cir:3:", id="check-syntax-error-gives-file-line"),
+    pytest.param(["check", "{good}", "--at", "nosuch"], "unknown node 'nosuch'", id="check-unknown-node"),
+    pytest.param(["check", "{good}", "--at", "out", "--require", "pm>>5"], "cannot read requirement 'pm>>5'", id="check-bad-require-form"),
+    pytest.param(["check", "{good}", "--at", "out", "--require", "zz>=5"], "unknown metric 'zz'", id="check-bad-require-metric"),
+    pytest.param(["check", "{good}", "--at", "out", "--fmin", "abc"], "argument --fmin", id="check-fmin-not-a-number"),
+    pytest.param(["check", "{good}", "--at", "out", "--fmin", "1g", "--fmax", "1k"], "0 < fmin < fmax", id="check-fmin-above-fmax"),
+    pytest.param(["check", "{good}", "--at", "out", "--ppd", "0"], "points per decade", id="check-bad-points-per-decade"),
+    pytest.param(["check", "{good}", "--at-pair", "a"], "P,N", id="check-bad-node-pair"),
+    pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/x.bmp"], "expected a file name ending in", id="check-plot-unknown-format"),
+    pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/nodir/x.png"], "cannot write the Bode plot", id="check-plot-into-missing-folder",
+                 marks=pytest.mark.ngspice),
+    pytest.param(["check", "{good}", "--at", "out", "--report", "{blocker}/r.html"], "cannot write the HTML report", id="check-report-below-a-file",
+                 marks=pytest.mark.ngspice),
+    pytest.param(["check", "{good}", "--at", "out", "--report", "{readonly}/r.html"], "cannot write the HTML report", id="check-report-read-only-folder",
+                 marks=[pytest.mark.ngspice, pytest.mark.skipif(ROOT_USER, reason="root may write into a read-only folder")]),
+    pytest.param(["check", "{good}", "--at", "out", "--csv", "{dir}/nodir/t.csv"], "cannot write the CSV samples", id="check-csv-into-missing-folder",
+                 marks=pytest.mark.ngspice),
+    pytest.param(["check", "{good}", "--at", "out", "--keep-decks", "{blocker}"], "cannot keep the deck in", id="check-keep-decks-is-a-file",
+                 marks=pytest.mark.ngspice),
+    # compare
+    pytest.param(["compare", "{dir}/missing.cir", "--at", "out", "--at", "e1"], "missing.cir", id="compare-missing-file-is-named"),
+    pytest.param(["compare", "{folder}", "--at", "a", "--at", "b"], "Is a directory", id="compare-directory-instead-of-file"),
+    pytest.param(["compare", "{garbage}", "--at", "a", "--at", "b"], "garbage.cir:", id="compare-binary-garbage-gives-file-line"),
+    pytest.param(["compare", "{good}", "--at", "out", "--at", "nosuch"], "unknown node 'nosuch'", id="compare-unknown-node"),
+    pytest.param(["compare", "{good}", "--at", "out", "--at", "e", "--require", "pm>"], "cannot read requirement", id="compare-bad-require"),
+    pytest.param(["compare", "{good}", "--at", "out", "--at", "e", "--fmin", "x"], "argument --fmin", id="compare-fmin-not-a-number"),
+    # corners
+    pytest.param(["corners", "{dir}/missing.toml"], "cannot read plan", id="corners-missing-plan-is-named"),
+    pytest.param(["corners", "{folder}"], "Is a directory", id="corners-directory-instead-of-plan"),
+    pytest.param(["corners", "{garbage}"], "not UTF-8 text", id="corners-binary-garbage-plan"),
+    pytest.param(["corners", "{dir}/bad_syntax.toml"], "bad_syntax.toml:2: not valid TOML", id="corners-plan-syntax-error-gives-file-line"),
+    pytest.param(["corners", "{dir}/unknown_node.toml"], "unknown_node.toml:2: cannot break", id="corners-unknown-node-gives-plan-line"),
+    pytest.param(["corners", "{dir}/missing_netlist.toml"], "missing_netlist.toml:1: cannot read netlist", id="corners-missing-netlist-gives-plan-line"),
+    pytest.param(["corners", "{dir}/bad_require.toml"], "cannot read requirement", id="corners-bad-require"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{folder}", "--force"], "is a folder", id="corners-results-file-is-a-folder"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{blocker}/r.jsonl"], "cannot write the results file", id="corners-results-below-a-file"),
+    pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--junit", "{blocker}/j.xml"], "cannot write the JUnit XML",
+                 id="corners-junit-below-a-file", marks=pytest.mark.ngspice),
+    pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--csv", "{blocker}/c.csv"], "cannot write the corner table",
+                 id="corners-csv-below-a-file", marks=pytest.mark.ngspice),
+    pytest.param(["corners", "{dir}/ok.toml", "--jobs", "0"], "--jobs must be 1 or more", id="corners-bad-jobs"),
+    # demo
+    pytest.param(["demo", "nosuch"], "invalid choice: 'nosuch'", id="demo-unknown-name"),
+    pytest.param(["demo", "--out", "{blocker}/sub"], "cannot write the demo folder", id="demo-out-below-a-file"),
+    # no command
+    pytest.param(["bogus"], "invalid choice: 'bogus'", id="unknown-command"),
+]
+
+
+@pytest.mark.parametrize(("argv", "expected"), CASES)
+def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys):
+    """Each bad input exits 2 with one 'netloop: error:' line saying what (and where), no traceback, input files untouched."""
+    args = [a.format(**inputs) for a in argv]
+    before = _snapshot(inputs["dir"])
+    assert _run(args) == 2
+    captured = capsys.readouterr()
+    lines = captured.err.splitlines()
+    assert lines and lines[0].startswith("netloop: error: "), captured.err
+    assert expected in lines[0], captured.err
+    assert "Traceback" not in captured.err
+    # only a netlist syntax error adds context below its one line: the offending line and a caret
+    assert len(lines) == 1 or (len(lines) == 3 and lines[2].strip() == "^"), captured.err
+    after = _snapshot(inputs["dir"])
+    assert {p: v for p, v in after.items() if p in before} == before
