@@ -1,0 +1,1 @@
+"""Tests of netloop.probe (a package so its modules can share helpers from .conftest)."""
