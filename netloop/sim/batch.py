@@ -12,8 +12,9 @@ from pathlib import Path
 import numpy as np
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
+from netloop.sim.backend import NgspiceBackend
 from netloop.sim.convergence import aid_ladder, describe_aid, op_failure, option_words
-from netloop.sim.deck import OP_RAW, check_workdir, control_steps, raw_name, render_deck, save_key
+from netloop.sim.deck import OP_RAW, control_steps, raw_name, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck, runnable_deck
@@ -25,7 +26,7 @@ from netloop.sim.vectors import unknown_saves
 __all__ = ["BatchSimulator"]
 
 
-class BatchSimulator:
+class BatchSimulator(NgspiceBackend):
     """Runs each job as ``ngspice -b deck.cir``, the deck and its raw files in a temporary folder,
     ngspice itself in the job's ``workdir`` (or the current folder) so relative includes resolve.
 
@@ -45,15 +46,8 @@ class BatchSimulator:
     def close(self) -> None:
         """Nothing to stop (each job is its own process); here so both backends read alike."""
 
-    def __enter__(self) -> BatchSimulator:
-        return self
-
-    def __exit__(self, *exc_info: object) -> None:
-        self.close()
-
     def run(self, job: SimJob) -> SimResult:
-        runnable_deck(job, None)  # refuses a malformed job (a bad sweep, a non-finite value) before any work
-        check_workdir(job)
+        self.refuse_malformed(job)
         deadline = time.monotonic() + job.timeout_s
         tried: list[str | None] = []
         said = ""

@@ -14,7 +14,7 @@ from pathlib import Path
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.convergence import op_failure
-from netloop.sim.deck import check_workdir
+from netloop.sim.backend import NgspiceBackend
 from netloop.sim.job import AcRun, RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck, runnable_deck
 from netloop.sim.library import find_libngspice
@@ -102,7 +102,7 @@ def _stop_worker(holder: dict) -> None:
         worker.stop()
 
 
-class SharedLibrarySimulator:
+class SharedLibrarySimulator(NgspiceBackend):
     """Runs jobs in libngspice hosted by a worker process; restarts the worker after any failure.
 
     ngspice runs in the job's ``workdir`` (or the caller's current folder) so relative includes resolve.
@@ -148,15 +148,8 @@ class SharedLibrarySimulator:
         with self._lock:
             _stop_worker(self._holder)
 
-    def __enter__(self) -> SharedLibrarySimulator:
-        return self
-
-    def __exit__(self, *exc_info: object) -> None:
-        self.close()
-
     def run(self, job: SimJob) -> SimResult:
-        runnable_deck(job, None)  # refuses a malformed job (a bad sweep, a non-finite value) before any work
-        check_workdir(job)
+        self.refuse_malformed(job)
         job = _portable(job)
         with self._lock:
             worker = self._worker()
