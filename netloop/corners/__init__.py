@@ -7,16 +7,15 @@ worker     what a Dask worker runs: one corner, with the worker's own ngspice
 journal    the results file, one JSON line per corner, written as each finishes; --resume reads it
 runner     the Dask client (local cluster or a scheduler's address), submission and collection
 progress   the plain progress bar on stderr
-present    worst-first table, counts, CSV, JUnit XML and the JSON document of a run
 """
 
 from netloop.corners.apply import CornerApplyError, apply_settings
 from netloop.corners.expand import Corner, Task, expand, tasks_of
 from netloop.corners.journal import SCHEMA, default_results_path, read_records
 from netloop.corners.plan import Axis, CornerSpec, Plan, Setting, load_plan, parse_plan
-from netloop.corners.present import corner_table, counts_line, run_document, verdict, worst_first, write_corner_csv, write_junit
 from netloop.corners.runner import CornerRun, check_plan, dask_client, run_plan
 from netloop.corners.worker import TaskOptions, run_task
+from netloop.report.corner_records import corner_table, counts_line, run_document, verdict, worst_first, write_corner_csv, write_junit
 
 __all__ = [
     "SCHEMA",

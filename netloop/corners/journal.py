@@ -8,10 +8,11 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from netloop.errors import NetloopError, OutputError
+from netloop.report.corner_records import CORNERS_SCHEMA
 
 __all__ = ["SCHEMA", "Journal", "default_results_path", "read_records"]
 
-SCHEMA = "netloop.corners/1"
+SCHEMA = CORNERS_SCHEMA  # the results file and the run document share one schema name
 
 
 def default_results_path(plan_path: str) -> Path:

@@ -4,7 +4,8 @@ notation      engineering notation, degrees and decibels as printed
 document      the JSON document of a loop (schema "netloop.loop/1") and of several loops
 text          the terminal summary of one loop, verdict first
 samples       the sampled return ratio as CSV
-corners       CornerOutcome, the corner table worst first, its CSV and JSON
+corner_records  corner records (one JSON line each): verdicts, worst-first order, table, counts, CSV, JUnit, run document
+corners       CornerOutcome (LoopResult-based), turned into corner records: the corner table worst first, its CSV and JSON
 junit         corner outcomes as JUnit XML
 phrases       the wording of the figures, shared by text and HTML
 files         writing files: OSError -> OutputError

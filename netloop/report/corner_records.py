@@ -1,9 +1,11 @@
-"""Present a corner run from its journal records: the worst-first table, counts, CSV rows, JUnit XML and the JSON document.
+"""Corner runs presented from their per-corner records: verdicts, worst-first order, table, counts, CSV, JUnit XML, JSON.
 
-netloop.report.corners presents CornerOutcome objects, which hold LoopResult records; a resumed
-run has only the JSON lines of the corners finished earlier, so this module reads the records
-instead, with the same verdicts (error, unstable, fail, pass), the same worst-first order and the
-same JUnit failure and error types.
+A record is one corner measured at one break node, as the corners stage writes it to its results
+file (one JSON line): ``corner`` (name), ``at`` (break node), ``outcome`` ("pass", "fail" or
+"error"), ``loop`` (the loop's document, netloop.report.to_document, or null), ``error``,
+``settings``, ``seconds``. A resumed run has only these records for the corners finished earlier,
+and netloop.report.corners turns its LoopResult outcomes into the same records, so the verdicts
+and the order below are decided in this one place.
 """
 
 from __future__ import annotations
@@ -13,17 +15,43 @@ import math
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
-from netloop.corners.journal import SCHEMA
 from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
 
-__all__ = ["corner_table", "counts_line", "run_document", "verdict", "worst_first", "write_corner_csv", "write_junit"]
+__all__ = [
+    "CORNERS_SCHEMA",
+    "VERDICTS",
+    "corner_entry",
+    "corner_table",
+    "counts_line",
+    "failed_requirements",
+    "margin",
+    "run_document",
+    "verdict",
+    "verdict_counts",
+    "worst_first",
+    "worst_first_key",
+    "write_corner_csv",
+    "write_junit",
+]
 
-_RANK = {"error": 0, "unstable": 1, "fail": 2, "pass": 3}
+CORNERS_SCHEMA = "netloop.corners/1"
+VERDICTS = ("error", "unstable", "fail", "pass")
+"""The verdicts, worst first."""
 
 
 def _margins(r: dict) -> dict:
     return (r.get("loop") or {}).get("margins") or {}
+
+
+def margin(r: dict, key: str, *, infinite: bool = False) -> float | None:
+    """``margins.<key>`` of a record's loop; None when it does not exist (with ``infinite``, +-inf where the document says so)."""
+    value = _margins(r).get(key)
+    if value is None and infinite:
+        sign = ((r.get("loop") or {}).get("infinite") or {}).get(f"margins.{key}")
+        if sign in ("+inf", "-inf"):
+            return math.inf if sign == "+inf" else -math.inf
+    return value
 
 
 def verdict(r: dict) -> str:
@@ -35,28 +63,40 @@ def verdict(r: dict) -> str:
     return "fail" if r["outcome"] == "fail" else "pass"
 
 
+def verdict_counts(records) -> dict[str, int]:
+    """How many records have each verdict, in the order of VERDICTS."""
+    v = [verdict(r) for r in records]
+    return {k: v.count(k) for k in VERDICTS}
+
+
+def corner_entry(r: dict) -> dict:
+    """A record's entry in the corners document: label, verdict, error and the loop's document."""
+    return {"label": r["corner"], "verdict": verdict(r), "error": r["error"], "loop": r["loop"]}
+
+
 def failed_requirements(r: dict) -> tuple[str, ...]:
     """The texts of the requirements a record failed ("pm>=60")."""
     return tuple(q["text"] for q in (r.get("loop") or {}).get("requirements", ()) if not q["passed"])
 
 
+def worst_first_key(r: dict) -> tuple[int, float]:
+    """Sort key: verdict rank (error first), then phase margin, lowest first; no phase margin sorts first."""
+    pm = _margins(r).get("phase_margin_deg")
+    return (VERDICTS.index(verdict(r)), -math.inf if pm is None else pm)
+
+
 def worst_first(records: tuple[dict, ...]) -> tuple[dict, ...]:
     """Errors, then unstable corners, then failed requirements, then the rest; each group by phase margin, lowest first."""
-    def key(r: dict) -> tuple:
-        pm = _margins(r).get("phase_margin_deg")
-        return (_RANK[verdict(r)], -math.inf if pm is None else pm, r["corner"], r["at"])
-
-    return tuple(sorted(records, key=key))
+    return tuple(sorted(records, key=lambda r: (*worst_first_key(r), r["corner"], r["at"])))
 
 
 def _gm(r: dict) -> str:
-    loop = r.get("loop")
-    if loop is None:
+    if r.get("loop") is None:
         return NONE
-    value = _margins(r).get("gain_margin_db")
-    if value is None and loop.get("infinite", {}).get("margins.gain_margin_db") == "+inf":
+    value = margin(r, "gain_margin_db", infinite=True)
+    if value == math.inf:
         return "inf"
-    return db(value)
+    return db(None if value == -math.inf else value)
 
 
 def corner_table(records: tuple[dict, ...]) -> str:
@@ -77,9 +117,8 @@ def corner_table(records: tuple[dict, ...]) -> str:
 
 def counts_line(records: tuple[dict, ...]) -> str:
     """"12 corners: 9 pass, 2 fail a requirement, 0 unstable, 1 error (not measured)"."""
-    v = [verdict(r) for r in records]
-    parts = [f"{v.count('pass')} pass", f"{v.count('fail')} fail a requirement",
-             f"{v.count('unstable')} unstable", f"{v.count('error')} error (not measured)"]
+    n = verdict_counts(records)
+    parts = [f"{n['pass']} pass", f"{n['fail']} fail a requirement", f"{n['unstable']} unstable", f"{n['error']} error (not measured)"]
     corners, nodes = len({r["corner"] for r in records}), len({r["at"] for r in records})
     if nodes > 1:
         return f"{len(records)} loops measured ({corners} corners at {nodes} break nodes): " + ", ".join(parts)
@@ -110,7 +149,8 @@ def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None
     """JUnit XML: one test case per corner (and break node); unstable or a failed requirement is a failure,
     a corner that could not be measured is an error carrying ngspice's message."""
     v = [verdict(r) for r in records]
-    counts = {"tests": str(len(records)), "failures": str(v.count("fail") + v.count("unstable")), "errors": str(v.count("error"))}
+    n = verdict_counts(records)
+    counts = {"tests": str(len(records)), "failures": str(n["fail"] + n["unstable"]), "errors": str(n["error"])}
     total = f"{sum(r['seconds'] for r in records):.3f}"
     root = ET.Element("testsuites", name=suite, **counts, time=total)
     ts = ET.SubElement(root, "testsuite", name=suite, **counts, skipped="0", time=total)
@@ -139,17 +179,15 @@ def run_document(run) -> dict:
     """The JSON document of a run, in the shape of netloop.report.corner_document (schema "netloop.corners/1":
     corners with label, verdict, error, loop; counts per verdict; passed) plus each record's break node,
     settings, timing and worker, and the plan, results file and how many corners ran now. Corners worst first."""
-    v = [verdict(r) for r in run.records]
-    corners = [{"label": r["corner"], "verdict": verdict(r), "error": r["error"], "loop": r["loop"],
-                **{k: r[k] for k in ("at", "netlist", "settings", "key", "seconds", "sim_seconds", "worker", "simulator_output")}}
+    corners = [{**corner_entry(r), **{k: r[k] for k in ("at", "netlist", "settings", "key", "seconds", "sim_seconds", "worker", "simulator_output")}}
                for r in worst_first(run.records)]
     return {
-        "schema": SCHEMA,
+        "schema": CORNERS_SCHEMA,
         "plan": run.plan,
         "results_file": run.results_path,
         "ran": run.ran,
         "skipped": run.skipped,
         "corners": corners,
-        "counts": {k: v.count(k) for k in ("error", "unstable", "fail", "pass")},
+        "counts": verdict_counts(run.records),
         "passed": run.passed,
     }
