@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from sim_decks import NO_SOLUTION
 
 from netloop.sim import AcRun, AcSweep, SimJob, find_libngspice
 from netloop.sim.session_job import JobRunner
@@ -81,14 +82,6 @@ def test_without_op_voltages_the_first_ac_is_the_only_operating_point(recording)
     name, freq, vectors = payload.runs[0]
     np.testing.assert_allclose(vectors["v(out)"], _expected(freq, 1e3), rtol=1e-9)
     runner.forget()
-
-
-NO_SOLUTION = """relay with no solution
-b1 n 0 i = v(n) > 0.5 ? 2m : -2m
-r1 n 0 1k
-v1 in 0 dc 0 ac 1
-r2 in n 1k
-"""
 
 
 @pytest.mark.ngspice

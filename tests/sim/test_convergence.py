@@ -6,6 +6,8 @@ from pathlib import Path
 
 import pytest
 
+from sim_decks import NO_SOLUTION
+
 from netloop.errors import SimulationError
 from netloop.sim import DEFAULT_OP_AIDS, AcRun, AcSweep, SimJob
 
@@ -13,15 +15,6 @@ from netloop.sim import DEFAULT_OP_AIDS, AcRun, AcSweep, SimJob
 # the 0 V starting point gives a singular matrix and ngspice starts dynamic gmin stepping.
 CUBIC = """cubic
 b1 n 0 i = v(n)*v(n)*v(n) - 1m
-"""
-
-# KCL at n: v(n)/1k + (v(n) > 0.5 ? 2 mA : -2 mA) = 0 has no solution: v > 0.5 needs v = -2 V,
-# v <= 0.5 needs v = +2 V. Nothing can make this converge.
-NO_SOLUTION = """relay with no solution
-b1 n 0 i = v(n) > 0.5 ? 2m : -2m
-r1 n 0 1k
-v1 in 0 dc 0 ac 1
-r2 in n 1k
 """
 
 

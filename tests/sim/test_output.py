@@ -6,7 +6,7 @@ from netloop.sim.output import error_lines, ngspice_fallback, op_failed
 from netloop.sim.vectors import canonical, unknown_saves
 
 # Lines printed by ngspice 39 on this machine for a circuit that recovers through gmin stepping
-# (tests/sim/test_convergence.py's CUBIC) and for one whose operating point fails (NO_SOLUTION).
+# (tests/sim/test_convergence.py's CUBIC) and for one whose operating point fails (sim_decks.NO_SOLUTION).
 RECOVERED = [
     "Doing analysis at TEMP = 27.000000 and TNOM = 27.000000",
     "Warning: singular matrix:  check node n",
