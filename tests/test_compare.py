@@ -89,25 +89,30 @@ def test_two_independent_loops_are_named_as_different_groups(tmp_path):
     assert c.pole_checks == () and c.poles_agree is None
 
 
+class _Recording:
+    """A simulator that hands every job to ``sim`` and keeps it in ``jobs``."""
+
+    backend = "recording"
+
+    def __init__(self, sim, jobs: list):
+        self.sim, self.jobs = sim, jobs
+
+    def run(self, job):
+        self.jobs.append(job)
+        return self.sim.run(job)
+
+    def operating_point(self, netlist):
+        return self.sim.operating_point(netlist)
+
+
 @pytest.mark.ngspice
 def test_one_deck_equals_separate_measurements():
     """T from the shared deck equals measure() at each location alone to 1e-9, from one job holding two runs per location."""
     sweep = Sweep(fmin_hz=10.0, fmax_hz=1e10, fmin_given=True, fmax_given=True, refine=False)
     sim = default_simulator()
     jobs = []
-
-    class Recording:
-        backend = "recording"
-
-        def run(self, job):
-            jobs.append(job)
-            return sim.run(job)
-
-        def operating_point(self, netlist):
-            return sim.operating_point(netlist)
-
     try:
-        c = compare(MILLER, ["out", "o1", "d1"], sweep=sweep, simulator=Recording())
+        c = compare(MILLER, ["out", "o1", "d1"], sweep=sweep, simulator=_Recording(sim, jobs))
         alone = {at: measure(MILLER, at, sweep=sweep, simulator=sim) for at in ("out", "o1", "d1")}
     finally:
         sim.close()
@@ -123,19 +128,8 @@ def test_refinement_rounds_are_batched_for_all_locations():
     """With widening and refinement on, every job the comparison runs holds the two runs of every location."""
     sim = default_simulator()
     jobs = []
-
-    class Recording:
-        backend = "recording"
-
-        def run(self, job):
-            jobs.append(job)
-            return sim.run(job)
-
-        def operating_point(self, netlist):
-            return sim.operating_point(netlist)
-
     try:
-        c = compare(MILLER, ["out", "o1"], simulator=Recording())
+        c = compare(MILLER, ["out", "o1"], simulator=_Recording(sim, jobs))
     finally:
         sim.close()
     assert c.sim.refinement_rounds >= 1
