@@ -71,20 +71,25 @@ SCHEMA = "netloop.loop/1"
 _KINDS = ("loops", "locations", "modes")
 
 
+_GAIN_KEYS = ("freq_hz", "phase_deg", "phase_margin_deg", "direction", "peaking_db", "peaking_exact", "delay_margin_s")
+_PHASE_KEYS = ("freq_hz", "phase_deg", "gain_db", "gain_margin_db", "kind")
+_MARGIN_KEYS = ("phase_margin_deg", "unity_gain_hz", "gain_margin_db", "phase_crossover_hz", "lower_gain_margin_db",
+                "lower_phase_crossover_hz", "modulus_margin", "modulus_margin_db", "modulus_freq_hz", "delay_margin_s")
+_SECOND_ORDER_KEYS = ("phase_margin_deg", "damping_ratio", "q", "overshoot_pct", "resonant_peak_db")
+_POLE_KEYS = ("rhp_count", "dominant_freq_hz", "dominant_damping", "dominant_q", "agrees_with_nyquist", "fit_error")
+
+
+def _fields(record: object | None, keys: tuple[str, ...], **computed) -> dict:
+    """``{key: record.key}`` in the order of ``keys`` (all None for no record); ``computed`` supplies keys the record lacks."""
+    return {k: computed[k] if k in computed else None if record is None else getattr(record, k) for k in keys}
+
+
 def _gain(c: GainCrossover) -> dict:
-    return {
-        "freq_hz": c.freq_hz,
-        "phase_deg": c.phase_deg,
-        "phase_margin_deg": c.phase_margin_deg,
-        "direction": c.direction,
-        "peaking_db": c.peaking_db,
-        "peaking_exact": c.peaking_exact,
-        "delay_margin_s": c.delay_margin_s,
-    }
+    return _fields(c, _GAIN_KEYS)
 
 
 def _phase(c: PhaseCrossover) -> dict:
-    return {"freq_hz": c.freq_hz, "phase_deg": c.phase_deg, "gain_db": c.gain_db, "gain_margin_db": c.gain_margin_db, "kind": c.kind}
+    return _fields(c, _PHASE_KEYS)
 
 
 def worst_crossover(a: LoopAnalysis) -> GainCrossover | None:
@@ -95,43 +100,18 @@ def worst_crossover(a: LoopAnalysis) -> GainCrossover | None:
 
 
 def _margins(a: LoopAnalysis) -> dict:
-    m = a.margins
-    return {
-        "phase_margin_deg": m.phase_margin_deg,
-        "unity_gain_hz": m.unity_gain_hz,
-        "gain_margin_db": m.gain_margin_db,
-        "phase_crossover_hz": m.phase_crossover_hz,
-        "lower_gain_margin_db": m.lower_gain_margin_db,
-        "lower_phase_crossover_hz": m.lower_phase_crossover_hz,
-        "modulus_margin": m.modulus_margin,
-        "modulus_margin_db": ratio_db(m.modulus_margin),
-        "modulus_freq_hz": m.modulus_freq_hz,
-        "delay_margin_s": m.delay_margin_s,
-    }
+    return _fields(a.margins, _MARGIN_KEYS, modulus_margin_db=ratio_db(a.margins.modulus_margin))
 
 
 def _second_order(a: LoopAnalysis) -> dict:
-    keys = ("phase_margin_deg", "damping_ratio", "q", "overshoot_pct", "resonant_peak_db")
-    est = a.second_order
-    values = dict.fromkeys(keys) if est is None else {k: getattr(est, k) for k in keys}
-    return {"is_estimate": True, **values}
+    return {"is_estimate": True, **_fields(a.second_order, _SECOND_ORDER_KEYS)}
 
 
 def _poles(a: LoopAnalysis) -> dict:
     p = a.poles
     if p is None:
-        keys = ("rhp_count", "dominant_freq_hz", "dominant_damping", "dominant_q", "agrees_with_nyquist", "fit_error")
-        return {"fitted": False, "poles_rad_s": [], **dict.fromkeys(keys)}
-    return {
-        "fitted": True,
-        "poles_rad_s": [[complex(z).real, complex(z).imag] for z in p.poles_rad_s],
-        "rhp_count": p.rhp_count,
-        "dominant_freq_hz": p.dominant_freq_hz,
-        "dominant_damping": p.dominant_damping,
-        "dominant_q": p.dominant_q,
-        "agrees_with_nyquist": p.agrees_with_nyquist,
-        "fit_error": p.fit_error,
-    }
+        return {"fitted": False, "poles_rad_s": [], **_fields(None, _POLE_KEYS)}
+    return {"fitted": True, "poles_rad_s": [[complex(z).real, complex(z).imag] for z in p.poles_rad_s], **_fields(p, _POLE_KEYS)}
 
 
 def _analysis(a: LoopAnalysis) -> dict:
