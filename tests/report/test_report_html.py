@@ -6,7 +6,8 @@ import base64
 import html
 from html.parser import HTMLParser
 
-from report_loops import make_result, two_stage
+import control
+from report_loops import W, make_result, two_stage
 
 from netloop.report import write_html
 
@@ -37,7 +38,10 @@ def test_html_is_self_contained_and_escapes_names(tmp_path, unstable_result):
     assert len(images) == 2
     assert base64.b64decode(images[0].split(",", 1)[1])[:8] == b"\x89PNG\r\n\x1a\n"
     assert "<script>alert(1)</script>" not in page and "&lt;script&gt;alert(1)&lt;/script&gt;.cir" in page
-    assert "67.03 deg" in page and result.caution in html.unescape(page) and "pm&gt;=60" in page
+    s = control.tf("s")
+    _, pm, _, _, _, _ = control.stability_margins(1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8))))
+    assert f"{pm:.2f} deg" in page  # python-control 0.10 stability_margins on two_stage's T(s) (67.03)
+    assert result.caution in html.unescape(page) and "pm&gt;=60" in page
 
 
 def test_html_of_several_loops_links_each_section(tmp_path, stable_result, unstable_result):
