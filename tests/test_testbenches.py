@@ -325,7 +325,7 @@ def test_nodeset_is_honoured(tree, sim):
     text = _ngspice(_with_control(path, "_op_nodeset.cir", "op\nprint v(q) v(qb) v(pg)"), path.parent)
     for node in ("q", "qb", "pg"):  # reference: ngspice's op of the designer's netlist itself
         assert op[node] == pytest.approx(_printed(text, f"v({node})"), abs=1e-6)
-    assert op["q"] == pytest.approx(3.3, abs=0.01)
+    assert op["q"] == pytest.approx(3.3, abs=0.01)  # the netlist's design intent: .nodeset latches q at the 3.3 V rail (.param vdd=3.3)
     settled = measure(path, "q", sweep=FIXED, simulator=sim)
     assert settled.analysis.stable and settled.analysis.classification == "does not regulate"
     # reference: ngspice's op of the latch devices; with q at a rail both inverters have gm = 0 (level 1: cut off,
