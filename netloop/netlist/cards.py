@@ -45,10 +45,10 @@ def _two_terminal_constructor():
     Same records as ``Element(...)`` and ``SourceLocation(...)``, made about a third faster,
     which matters for million-element netlists.
     """
-    e_set = tuple(Element.__dict__[f].__set__ for f in ("name", "tokens", "node_slots", "pins", "location", "model"))
+    e_set = tuple(Element.__dict__[f].__set__ for f in ("name", "tokens", "node_slots", "pins", "location", "model", "_nodes"))
     l_set = tuple(SourceLocation.__dict__[f].__set__ for f in ("file", "line", "column"))
     new = object.__new__
-    s0, s1, s2, s3, s4, s5 = e_set
+    s0, s1, s2, s3, s4, s5, s6 = e_set
     f0, f1, f2 = l_set
     slots, pins = (0, 1), ("p", "n")
 
@@ -60,11 +60,13 @@ def _two_terminal_constructor():
         f2(loc, 1)
         o = new(Element)
         s0(o, toks[0])
-        s1(o, (toks[1].lower(), toks[2].lower(), toks[3]) if len(toks) == 4 else (toks[1].lower(), toks[2].lower(), *toks[3:]))
+        a, b = toks[1].lower(), toks[2].lower()
+        s1(o, (a, b, toks[3]) if len(toks) == 4 else (a, b, *toks[3:]))
         s2(o, slots)
         s3(o, pins)
         s4(o, loc)
         s5(o, None)
+        s6(o, (a, b))  # Element.nodes, known here (else computed on first use)
         return o
 
     return two_terminal

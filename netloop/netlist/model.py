@@ -29,6 +29,9 @@ class Element:
     pins: tuple[str, ...]
     location: SourceLocation
     model: str | None = None  # lower-case model or subcircuit name (D, M, Q, J, Z, X, ...), else None
+    # ``nodes`` computed once (it is read in every pass over a large netlist); not an argument, never
+    # compared, and not carried over by dataclasses.replace, so a copy with other tokens recomputes it
+    _nodes: tuple[str, ...] | None = field(default=None, init=False, repr=False, compare=False)
 
     @property
     def kind(self) -> str:
@@ -43,7 +46,12 @@ class Element:
     @property
     def nodes(self) -> tuple[str, ...]:
         """Node names in card order."""
-        return tuple(self.tokens[i] for i in self.node_slots)
+        nodes = self._nodes
+        if nodes is None:
+            tokens = self.tokens
+            nodes = tuple([tokens[i] for i in self.node_slots])
+            object.__setattr__(self, "_nodes", nodes)
+        return nodes
 
     @property
     def params(self) -> tuple[tuple[str, str], ...]:
@@ -150,7 +158,11 @@ class Netlist:
     @property
     def elements(self) -> tuple[Element, ...]:
         """Top-level elements (not inside subcircuit definitions)."""
-        return tuple(s for s in self.statements if isinstance(s, Element))
+        cached = self._index.get("element_tuple")
+        if cached is None or cached[0] is not self.statements:  # a copy made with replace() may share _index
+            cached = (self.statements, tuple([s for s in self.statements if isinstance(s, Element)]))
+            self._index["element_tuple"] = cached
+        return cached[1]
 
     @property
     def directives(self) -> tuple[Directive, ...]:

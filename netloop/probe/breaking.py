@@ -7,6 +7,7 @@ from dataclasses import replace
 from netloop.errors import ProbeError
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Element, Netlist, Subcircuit
+from netloop.netlist.reader import gc_paused
 from netloop.probe.loops import connectivity, loop_report
 from netloop.probe.records import ProbedNetlist, ProbeVectors
 from netloop.probe.rewrite import fresh_name, split_node
@@ -56,6 +57,11 @@ def break_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> Probe
     (``decided_by`` says how). Raises UnknownNodeError for a node the netlist lacks and ProbeError
     for ground, a supply, a node with one connection, no driver, or a node on no loop.
     """
+    with gc_paused():  # the passes below build hundreds of thousands of acyclic records for a large netlist
+        return _break(netlist, at, driver)
+
+
+def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
     given = at.strip().lower()
     globals_ = frozenset(netlist.globals)
     scope, node = resolve_node(netlist, given, globals_)
@@ -108,10 +114,11 @@ def break_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> Probe
 
     silenced = []
     hit_set = set(hits)
-    for s in walk_scopes(new, globals_):
+    for s in walk_scopes(new, globals_) if hit_set else ():
         container = s.definitions[-1].name if s.definitions else ""
-        for e in elements_of(new, s):
-            if (container, e.key) in hit_set:
+        keys = {key for where, key in hit_set if where == container}
+        for e in elements_of(new, s) if keys else ():
+            if e.name[0].upper() in "VI" and e.key in keys:  # only independent sources (e.kind) are silenced
                 silenced.append(s.flat_element(e))
     vectors = ProbeVectors(
         va=f"v({side_a})",

@@ -2,31 +2,109 @@
 
 from __future__ import annotations
 
-import networkx as nx
+from collections.abc import Collection, Iterable
+from dataclasses import dataclass
 
 from netloop.netlist.model import Netlist
-from netloop.probe.scope import flat_terminals
+from netloop.probe.scope import flattener, primitive_elements
 
-__all__ = ["connectivity", "loop_report"]
+__all__ = ["Connectivity", "connectivity", "loop_report"]
 
 _ACTIVE = frozenset("MQJZEGFHBX")
 
 
-def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozenset[str], skip: frozenset[str]) -> nx.Graph:
+@dataclass(frozen=True, slots=True)
+class Connectivity:
+    """The element-node graph of a flattened circuit, as plain lists (cheap to build for a million terminals).
+
+    Element ``k`` is ``labels[k]`` (``xamp.m1`` style) of letter ``kinds[k]``, touching the flat nodes
+    ``nodes[k]`` (each once); ``at_node[n]`` lists the elements on node ``n``, each once. Elements of the
+    same label and letter are one vertex, as they are one name to ngspice.
+    """
+
+    labels: list[str]
+    kinds: list[str]
+    nodes: list[list[str]]
+    at_node: dict[str, list[int]]
+
+    def add(self, label: str, kind: str) -> int:
+        """A new element vertex without nodes yet; returns its id."""
+        self.labels.append(label)
+        self.kinds.append(kind)
+        self.nodes.append([])
+        return len(self.labels) - 1
+
+
+def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozenset[str], skip: frozenset[str]) -> Connectivity:
     """Element-node graph of the flattened circuit without AC-ground nodes and without the ``skip`` elements.
 
-    Vertices are ``("n", flat node)`` and ``("e", label, kind)`` with label ``xamp.m1`` style.
+    An element left with no node (all of them AC ground) is not in the graph.
     """
-    g = nx.Graph()
-    for t in flat_terminals(netlist, globals_):
-        label = t.scope.label(t.element)
-        if label in skip or t.node in ac_ground:
+    g = Connectivity([], [], [], {})
+    ids: dict[str, int] = {}  # label -> element id (of the first letter seen with that label)
+    more_ids: dict[tuple[str, str], int] = {}  # (label, letter) for a label seen with another letter too
+    at_node = g.at_node
+    scope = flat = None
+    prefix = ""
+    for s, e in primitive_elements(netlist, globals_):
+        if s is not scope:
+            scope, flat = s, flattener(s, globals_)
+            prefix = ".".join(s.path) + "." if s.path else ""
+        name = e.name
+        label = prefix + name.lower()  # Scope.label
+        if label in skip:
             continue
-        g.add_edge(("e", label, t.element.kind), ("n", t.node))
+        mine = None
+        for node in map(flat, e.nodes):
+            if node in ac_ground:
+                continue
+            if mine is None:
+                k = ids.get(label)
+                if k is None:
+                    k = ids[label] = g.add(label, name[0].upper())
+                elif g.kinds[k] != name[0].upper():
+                    k = more_ids.get((label, name[0].upper()))
+                    if k is None:
+                        k = more_ids[(label, name[0].upper())] = g.add(label, name[0].upper())
+                mine = g.nodes[k]
+            if node in mine:  # a second terminal on the same node, or a name given twice: one edge
+                continue
+            mine.append(node)
+            here = at_node.get(node)
+            if here is None:
+                at_node[node] = [k]
+            else:
+                here.append(k)
     return g
 
 
-def loop_report(g: nx.Graph, side_a: str, side_b: str) -> tuple[bool, tuple[str, ...], tuple[str, ...]]:
+def _search(g: Connectivity, starts: Iterable[int], removed_node: str, removed: Collection[int], goal: str | None) -> tuple[bool, set[int], set[str]]:
+    """Breadth-first search from the elements ``starts`` without node ``removed_node`` and elements ``removed``.
+
+    Returns whether node ``goal`` was reached (the search stops there) and the elements and nodes seen:
+    with no goal, or when it is not reached, the whole connected component of the starts.
+    """
+    elements = {k for k in starts if k not in removed}
+    seen_nodes = {removed_node}
+    todo = list(elements)
+    while todo:
+        found = []
+        for k in todo:
+            for n in g.nodes[k]:
+                if n not in seen_nodes:
+                    if n == goal:
+                        return True, elements, seen_nodes
+                    seen_nodes.add(n)
+                    for j in g.at_node[n]:
+                        if j not in elements and j not in removed:
+                            elements.add(j)
+                            found.append(j)
+        todo = found
+    seen_nodes.discard(removed_node)
+    return False, elements, seen_nodes
+
+
+def loop_report(g: Connectivity, side_a: str, side_b: str) -> tuple[bool, tuple[str, ...], tuple[str, ...]]:
     """Whether b reaches back to a, and which load-side elements close loops or feed other circuits.
 
     Returns ``(on_loop, loops, others)``: ``loops`` lists the load-side elements each of which leads
@@ -34,24 +112,26 @@ def loop_report(g: nx.Graph, side_a: str, side_b: str) -> tuple[bool, tuple[str,
     ``others`` lists load-side elements that never return to the driver but lead to active devices
     (another circuit fed by the node, such as a second amplifier on a shared bias node).
     """
-    a, b = ("n", side_a), ("n", side_b)
-    if a not in g or b not in g:
+    a, b = side_a, side_b
+    if a not in g.at_node or b not in g.at_node:
         return False, (), ()
-    on_loop = nx.has_path(g, a, b)
-    loads = sorted(v for v in g.neighbors(b) if g.degree(v) > 1 or v in g.neighbors(a))
-    without_b = nx.restricted_view(g, (b,), ())  # views, not copies: a large parasitic network stays cheap
+    on_a = set(g.at_node[a])
+    loads = sorted((k for k in g.at_node[b] if len(g.nodes[k]) > 1 or k in on_a), key=lambda k: (g.labels[k], g.kinds[k]))
     # elements in parallel (same far nodes, such as Rf || Cf) are one branch
-    branches: dict[frozenset, list] = {}
-    for v in loads:
-        branches.setdefault(frozenset(g.neighbors(v)) - {b}, []).append(v)
+    branches: dict[frozenset, list[int]] = {}
+    for k in loads:
+        branches.setdefault(frozenset(g.nodes[k]) - {b}, []).append(k)
     loops, others = [], []
     for members in branches.values():
-        alone = nx.restricted_view(g, (b, *(u for u in loads if u not in members)), ())
-        name = "||".join(v[1] for v in members)
-        if any(nx.has_path(alone, v, a) for v in members):
+        name = "||".join(g.labels[k] for k in members)
+        closes, _, _ = _search(g, members, b, set(loads) - set(members), a)
+        if closes:
             loops.append(name)
             continue
-        comp = nx.node_connected_component(without_b, members[0])
-        if a not in comp and any(x[0] == "e" and x[2] in _ACTIVE for x in comp):
+        returns, elements, _ = _search(g, members[:1], b, (), a)  # its component without b, unless a is in it
+        if not returns and any(g.kinds[k] in _ACTIVE for k in elements):
             others.append(name)
-    return on_loop, tuple(loops), tuple(others)
+    # A path from b to a leaves b through a load; from the last load on it, the rest of the path avoids
+    # b and every other load, so that load's branch closes a loop: b reaches a exactly when some branch
+    # does (no separate search over the whole graph).
+    return bool(loops), tuple(loops), tuple(others)

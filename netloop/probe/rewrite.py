@@ -40,9 +40,12 @@ def _split_body(body: tuple[Statement, ...], moves: dict[tuple[str, int], str], 
     """Move the chosen (element, slot) terminals to the new node and add the probe after the last element."""
     out: list[Statement] = []
     last = -1
+    slots_of: dict[str, list[int]] = {}
+    for key, k in moves:
+        slots_of.setdefault(key, []).append(k)
     for s in body:
         if isinstance(s, Element):
-            slots = [k for (key, k) in moves if key == s.key]
+            slots = slots_of.get(s.key)
             if slots:
                 nodes = list(s.nodes)
                 for k in slots:

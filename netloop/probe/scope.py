@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 
 from netloop.errors import ProbeError, UnknownNodeError
 from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist, Subcircuit
 
-__all__ = ["FlatTerminal", "GROUND_NAMES", "Scope", "flat_terminals", "resolve_node", "walk_scopes"]
+__all__ = ["FlatTerminal", "GROUND_NAMES", "Scope", "flat_terminals", "flattener", "primitive_elements", "resolve_node", "walk_scopes"]
 
 GROUND_NAMES = frozenset({"0", "gnd"})
 
@@ -88,6 +88,29 @@ def child_scope(netlist: Netlist, scope: Scope, instance: Element, globals_: fro
     return Scope((*scope.path, instance.key), (*scope.definitions, definition), nets)
 
 
+def flattener(scope: Scope, globals_: frozenset[str]) -> Callable[[str], str]:
+    """A function giving ``scope.flat(node, globals_)`` for any node, without its per-call set-up."""
+    if not scope.path and not scope.nets:
+        return _same  # at the top every node keeps its name
+    nets: dict[str, str] = {}
+    for pin, net in scope.nets:
+        nets.setdefault(pin, net)  # the first pin of a name wins, as in Scope.flat
+    prefix = ".".join((*scope.path, ""))
+    keep = GROUND_NAMES | globals_
+
+    def flat(node: str) -> str:
+        if node in keep:
+            return node
+        net = nets.get(node)
+        return prefix + node if net is None else net
+
+    return flat
+
+
+def _same(node: str) -> str:
+    return node
+
+
 def walk_scopes(netlist: Netlist, globals_: frozenset[str], depth: int = 0, scope: Scope | None = None) -> Iterator[Scope]:
     """Every scope of the flattened circuit, top first, depth first."""
     scope = scope or Scope((), (), ())
@@ -95,22 +118,31 @@ def walk_scopes(netlist: Netlist, globals_: frozenset[str], depth: int = 0, scop
         raise ProbeError(f"subcircuit nesting deeper than 64 levels at {'.'.join(scope.path)}: is a subcircuit instantiating itself?")
     yield scope
     for e in elements_of(netlist, scope):
-        if e.kind == "X":
+        if e.name[0] in "xX":  # e.kind == "X", without the call: this runs over every element
             child = child_scope(netlist, scope, e, globals_)
             if child is not None and not is_device_subcircuit(child.definitions[-1]):
                 yield from walk_scopes(netlist, globals_, depth + 1, child)
 
 
+def primitive_elements(netlist: Netlist, globals_: frozenset[str]) -> Iterator[tuple[Scope, Element]]:
+    """Every primitive element with its scope: the elements whose terminals flat_terminals gives, in the same order."""
+    for scope in walk_scopes(netlist, globals_):
+        definitions = scope.definitions
+        for e in elements_of(netlist, scope):
+            if e.name[0] in "xX":
+                definition = find_definition(netlist, definitions, e.model or "")
+                if definition is not None and not is_device_subcircuit(definition):
+                    continue
+            yield scope, e
+
+
 def flat_terminals(netlist: Netlist, globals_: frozenset[str]) -> Iterator[FlatTerminal]:
     """Every terminal of every primitive element (X lines are expanded; unknown subcircuits kept as blocks)."""
-    for scope in walk_scopes(netlist, globals_):
-        for e in elements_of(netlist, scope):
-            definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
-            if definition is not None and not is_device_subcircuit(definition):
-                continue
-            pins = pin_names(e, definition)
-            for k, node in enumerate(e.nodes):
-                yield FlatTerminal(scope, e, k, pins[k] if k < len(pins) else str(k + 1), scope.flat(node, globals_))
+    for scope, e in primitive_elements(netlist, globals_):
+        definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
+        pins = pin_names(e, definition)
+        for k, node in enumerate(e.nodes):
+            yield FlatTerminal(scope, e, k, pins[k] if k < len(pins) else str(k + 1), scope.flat(node, globals_))
 
 
 def _local_nodes(netlist: Netlist, scope: Scope) -> set[str]:
@@ -128,8 +160,9 @@ def resolve_node(netlist: Netlist, at: str, globals_: frozenset[str]) -> tuple[S
     """
     name = at.strip().lower()
     top = Scope((), (), ())
-    if name in _local_nodes(netlist, top) or "." not in name:
-        if name not in _local_nodes(netlist, top):
+    top_nodes = _local_nodes(netlist, top)
+    if name in top_nodes or "." not in name:
+        if name not in top_nodes:
             raise UnknownNodeError("node", name, _all_flat_nodes(netlist, globals_))
         return top, name
     parts = name.split(".")

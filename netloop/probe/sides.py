@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 from netloop.errors import ProbeError
 from netloop.netlist.model import Element, Netlist
-from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flat_terminals, pin_names
+from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, walk_scopes
 
 __all__ = ["Split", "Terminal", "ac_ground_nodes", "decide_sides", "terminals_at"]
 
@@ -43,9 +43,11 @@ def ac_ground_nodes(netlist: Netlist, globals_: frozenset[str]) -> frozenset[str
     ground = set(GROUND_NAMES) | set(globals_)
     links: dict[str, set[str]] = {}
     by_element: dict[tuple, list[str]] = {}
-    for t in flat_terminals(netlist, globals_):
-        if t.element.kind == "V":
-            by_element.setdefault((t.scope.path, t.element.key), []).append(t.node)
+    for scope in walk_scopes(netlist, globals_):  # V sources are primitive: no need to expand anything
+        flat = flattener(scope, globals_)
+        for e in elements_of(netlist, scope):
+            if e.name[0] in "vV":
+                by_element.setdefault((scope.path, e.key), []).extend(map(flat, e.nodes))
     for a, b in (nodes for nodes in by_element.values() if len(nodes) == 2):
         links.setdefault(a, set()).add(b)
         links.setdefault(b, set()).add(a)
@@ -110,9 +112,12 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
     """Every terminal on a node in its own scope, each with its role by default."""
     out = []
     for e in elements_of(netlist, scope):
+        nodes = e.nodes
+        if node not in nodes:
+            continue
         definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
         pins = pin_names(e, definition)
-        for k, n in enumerate(e.nodes):
+        for k, n in enumerate(nodes):
             if n == node:
                 pin = pins[k] if k < len(pins) else str(k + 1)
                 role = _role(netlist, scope, e, k, pin, ac_ground, globals_)
@@ -135,9 +140,13 @@ def _passive_index(netlist: Netlist, scope: Scope) -> dict[str, list[Element]]:
     """R, C and L elements of a scope by the nodes they touch."""
     index: dict[str, list[Element]] = {}
     for e in elements_of(netlist, scope):
-        if e.kind in _PASSIVE_PATH:
+        if e.name[0].upper() in _PASSIVE_PATH:  # e.kind, without the call: this runs over every element
             for n in set(e.nodes):
-                index.setdefault(n, []).append(e)
+                here = index.get(n)
+                if here is None:
+                    index[n] = [e]
+                else:
+                    here.append(e)
     return index
 
 
@@ -161,22 +170,6 @@ def _local_feedback(scope: Scope, node: str, t: Terminal, controls: set[str], in
                     if m not in seen and m != node:
                         seen.add(m)
                         todo.append((m, depth + 1))
-    return False
-    start = [n for k, n in enumerate(t.element.nodes) if k != t.slot and n != node]
-    seen = set(start)
-    todo = deque(start)
-    while todo:
-        n = todo.popleft()
-        if n in controls:
-            return True
-        if scope.flat(n, globals_) in ac_ground:
-            continue
-        for e in elements_of(netlist, scope):
-            if e.kind in _PASSIVE_PATH and n in e.nodes and e is not t.element:
-                for m in e.nodes:
-                    if m not in seen and m != node:
-                        seen.add(m)
-                        todo.append(m)
     return False
 
 
