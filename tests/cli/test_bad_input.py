@@ -108,9 +108,9 @@ CASES = [
     pytest.param(["corners", "{dir}/ok.toml", "--out", "{folder}", "--force"], "is a folder", id="corners-results-file-is-a-folder"),
     pytest.param(["corners", "{dir}/ok.toml", "--out", "{blocker}/r.jsonl"], "cannot write the results file", id="corners-results-below-a-file"),
     pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--junit", "{blocker}/j.xml"], "cannot write the JUnit XML",
-                 id="corners-junit-below-a-file", marks=pytest.mark.ngspice),
-    pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--csv", "{blocker}/c.csv"], "cannot write the corner table",
-                 id="corners-csv-below-a-file", marks=pytest.mark.ngspice),
+                 id="corners-junit-below-a-file-refused-before-running"),
+    pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--csv", "{dir}/nodir/c.csv"], "cannot write the corner table",
+                 id="corners-csv-into-missing-folder-refused-before-running"),
     pytest.param(["corners", "{dir}/ok.toml", "--jobs", "0"], "--jobs must be 1 or more", id="corners-bad-jobs"),
     # demo
     pytest.param(["demo", "nosuch"], "invalid choice: 'nosuch'", id="demo-unknown-name"),
@@ -133,5 +133,7 @@ def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys):
     assert "Traceback" not in captured.err
     # only a netlist syntax error adds context below its one line: the offending line and a caret
     assert len(lines) == 1 or (len(lines) == 3 and lines[2].strip() == "^"), captured.err
+    if args[0] == "corners":  # a refused corner run starts nothing: no results file appears
+        assert not (Path(inputs["dir"]) / "r.jsonl").exists()
     after = _snapshot(inputs["dir"])
     assert {p: v for p, v in after.items() if p in before} == before
