@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 from dataclasses import replace
+from itertools import chain
+from operator import attrgetter
 
 from netloop.errors import ProbeError
 from netloop.netlist.location import SourceLocation
@@ -75,9 +77,10 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
         raise ProbeError(f"cannot break node {given}: it has one connection ({which}), so no loop passes through it")
     split = decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_)
 
-    local_nodes = {n for e in elements_of(netlist, scope) for n in e.nodes}
-    node_a = fresh_name(node + DRIVE_SUFFIX, set(local_nodes) | ({*scope.definitions[-1].pins} if scope.definitions else set()))
-    names = {e.key for e in elements_of(netlist, scope)}
+    elements = elements_of(netlist, scope)
+    local_nodes = set(chain.from_iterable(map(attrgetter("nodes"), elements)))
+    node_a = fresh_name(node + DRIVE_SUFFIX, local_nodes | ({*scope.definitions[-1].pins} if scope.definitions else set()))
+    names = set(map(str.lower, map(attrgetter("name"), elements)))  # every Element.key
     series = fresh_name(SERIES_NAME, names)
     shunt = fresh_name(SHUNT_NAME, names)
     first = split.driver[0].element.location

@@ -27,13 +27,6 @@ class Connectivity:
     nodes: list[list[str]]
     at_node: dict[str, list[int]]
 
-    def add(self, label: str, kind: str) -> int:
-        """A new element vertex without nodes yet; returns its id."""
-        self.labels.append(label)
-        self.kinds.append(kind)
-        self.nodes.append([])
-        return len(self.labels) - 1
-
 
 def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozenset[str], skip: frozenset[str]) -> Connectivity:
     """Element-node graph of the flattened circuit without AC-ground nodes and without the ``skip`` elements.
@@ -59,13 +52,18 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
             if node in ac_ground:
                 continue
             if mine is None:
+                kind = name[0].upper()
                 k = ids.get(label)
                 if k is None:
-                    k = ids[label] = g.add(label, name[0].upper())
-                elif g.kinds[k] != name[0].upper():
-                    k = more_ids.get((label, name[0].upper()))
+                    k = ids[label] = len(g.labels)
+                elif g.kinds[k] != kind:  # the same label with another letter: another vertex
+                    k = more_ids.get((label, kind))
                     if k is None:
-                        k = more_ids[(label, name[0].upper())] = g.add(label, name[0].upper())
+                        k = more_ids[(label, kind)] = len(g.labels)
+                if k == len(g.labels):  # a new vertex
+                    g.labels.append(label)
+                    g.kinds.append(kind)
+                    g.nodes.append([])
                 mine = g.nodes[k]
             if node in mine:  # a second terminal on the same node, or a name given twice: one edge
                 continue

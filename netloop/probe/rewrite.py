@@ -45,7 +45,7 @@ def _split_body(body: tuple[Statement, ...], moves: dict[tuple[str, int], str], 
         slots_of.setdefault(key, []).append(k)
     for s in body:
         if isinstance(s, Element):
-            slots = slots_of.get(s.key)
+            slots = slots_of.get(s.name.lower())  # s.key
             if slots:
                 nodes = list(s.nodes)
                 for k in slots:

@@ -19,7 +19,7 @@ def _is_value(tok: str) -> bool:
 
 def silence_element(e: Element) -> Element | None:
     """The source with its ``ac MAG [PHASE]`` part replaced by ``ac 0``, or None when it has no AC part."""
-    if e.kind not in "VI":
+    if e.name[0].upper() not in "VI":  # e.kind, without the call: this runs over every element
         return None
     toks = list(e.tokens)
     first = max(e.node_slots, default=-1) + 1
@@ -56,7 +56,7 @@ def silence_statements(statements: tuple[Statement, ...], keep: frozenset[str], 
     hits: list[tuple[str, str]] = []
     for s in statements:
         if isinstance(s, Element):
-            new = None if (where == "" and s.key in keep) else silence_element(s)
+            new = None if (keep and where == "" and s.key in keep) else silence_element(s)
             if new is not None:
                 hits.append((where, s.key))
                 out.append(new)
