@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from netloop.analysis import analyse, middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError
@@ -191,6 +192,7 @@ def sample_loops(
     one loop this is exactly measure_probed's plan (see Sweep).
     """
     runner = _Runner(job_for, ratios, simulator)
+    load_scipy_in_background()  # the analysis's scipy modules load while the first simulation runs
     fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
     ppd = sweep.points_per_decade
     f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),))

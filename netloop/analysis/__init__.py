@@ -12,6 +12,7 @@ engine         analyse(): all of the above for one loop
 refine         more samples around crossovers until the margins settle
 requirements   "pm>=60"-style pass/fail checks
 results        the frozen result records
+preload        the scipy modules, loaded on first use (or ahead of time, while ngspice runs)
 """
 
 from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse

@@ -5,8 +5,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
+from netloop.analysis.preload import load_scipy
 from netloop.analysis.response import Response
 from netloop.analysis.results import Peaking
 
@@ -21,6 +21,9 @@ def _extremum(resp: Response, fun) -> tuple[float, float]:
     i = int(np.argmin(vals))
     lo, hi = xs[max(i - 1, 0)], xs[min(i + 1, xs.size - 1)]
     if hi > lo:
+        load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
+        from scipy.optimize import minimize_scalar  # noqa: PLC0415
+
         res = minimize_scalar(lambda u: float(fun(resp.t_at(u))), bounds=(lo, hi), method="bounded", options={"xatol": 1e-12})
         if res.fun < vals[i]:
             return float(res.x), float(res.fun)

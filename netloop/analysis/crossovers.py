@@ -15,8 +15,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
+from netloop.analysis.preload import load_scipy
 from netloop.analysis.response import Response
 from netloop.analysis.results import GainCrossover, PhaseCrossover
 
@@ -57,6 +57,9 @@ def _root(fun, a: float, b: float) -> float:
         return b
     if (fa < 0.0) == (fb < 0.0):
         return a if abs(fa) <= abs(fb) else b
+    load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
+    from scipy.optimize import brentq  # noqa: PLC0415
+
     return brentq(fun, a, b, xtol=_XTOL)
 
 

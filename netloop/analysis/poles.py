@@ -22,11 +22,15 @@ from __future__ import annotations
 
 import math
 import warnings
+from typing import TYPE_CHECKING
 
 import numpy as np
-from scipy.interpolate import AAA
 
+from netloop.analysis.preload import load_scipy
 from netloop.analysis.results import ClosedLoopPoles
+
+if TYPE_CHECKING:
+    from scipy.interpolate import AAA
 
 __all__ = ["DEFAULT_RTOL", "closed_loop_poles"]
 
@@ -38,6 +42,9 @@ _LOOSEST_RTOL = 1e-5
 
 def _fit(z: np.ndarray, y: np.ndarray, rtol: float, max_terms: int) -> tuple[AAA, bool]:
     """scipy's AAA, its non-convergence warning turned into a flag."""
+    load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
+    from scipy.interpolate import AAA  # noqa: PLC0415
+
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         fit = AAA(z, y, rtol=rtol, max_terms=min(max_terms, z.size // 2))

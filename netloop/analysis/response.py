@@ -16,11 +16,15 @@ three-pole example), the quintic with a hundredfold room (tests/analysis pin the
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
-from scipy.interpolate import BSpline, make_interp_spline
 
+from netloop.analysis.preload import load_scipy
 from netloop.errors import AnalysisError
+
+if TYPE_CHECKING:
+    from scipy.interpolate import BSpline
 
 __all__ = ["Response", "anchored_phase_deg", "check_response", "low_frequency_slope"]
 
@@ -100,6 +104,9 @@ class Response:
         gain = 20.0 * np.log10(np.maximum(np.abs(tt), _TINY))
         phase = anchored_phase_deg(tt, low_frequency_slope(x, gain)[0])
         k = 5 if f.size >= 6 else 3
+        load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
+        from scipy.interpolate import make_interp_spline  # noqa: PLC0415
+
         return cls(f, tt, x, gain, phase, make_interp_spline(x, gain, k=k), make_interp_spline(x, phase, k=k))
 
     def gain_at(self, x) -> np.ndarray:

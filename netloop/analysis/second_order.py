@@ -14,8 +14,7 @@ from __future__ import annotations
 
 import math
 
-from scipy.optimize import brentq
-
+from netloop.analysis.preload import load_scipy
 from netloop.analysis.results import SecondOrderEstimate
 
 __all__ = ["damping_from_phase_margin", "phase_margin_from_damping", "second_order_estimate"]
@@ -31,6 +30,9 @@ def damping_from_phase_margin(pm_deg: float) -> float:
     """The damping ratio whose second-order loop has this phase margin; pm_deg in (0, 90)."""
     if not 0.0 < pm_deg < 90.0:
         raise ValueError(f"a second-order loop has a phase margin in (0, 90) deg, not {pm_deg}")
+    load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
+    from scipy.optimize import brentq  # noqa: PLC0415
+
     return math.exp(brentq(lambda u: phase_margin_from_damping(math.exp(u)) - pm_deg, math.log(1e-12), math.log(1e12), xtol=1e-14))
 
 
