@@ -67,6 +67,17 @@ def nyquist_path(path: str) -> str:
     return f"{stem}-nyquist.{ext}" if dot else f"{path}-nyquist"
 
 
+def refuse_bad_outputs(args: argparse.Namespace) -> None:
+    """OutputError before any simulation for a --csv, --plot or --report path that cannot be written."""
+    from netloop.report.figure import file_format
+    from netloop.report.files import refuse_unwritable
+
+    if getattr(args, "plot", None):
+        file_format(args.plot)
+    for option, what in (("csv", "CSV samples"), ("plot", "Bode plot"), ("report", "HTML report")):
+        refuse_unwritable(getattr(args, option, None), what)
+
+
 def write_outputs(args: argparse.Namespace, results) -> None:
     """The files asked for with --csv, --plot and --report (one loop or several)."""
     from netloop import report
@@ -92,6 +103,7 @@ def run(args: argparse.Namespace) -> int:
     from netloop.measure import load_netlist, measure
 
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    refuse_bad_outputs(args)
     if args.open_loop_rhp_poles < 0:
         from netloop.errors import NetloopError
 

@@ -19,7 +19,7 @@ import argparse
 import json
 import math
 
-from netloop.cli.check_cmd import add_measure_options, nyquist_path, sweep_from
+from netloop.cli.check_cmd import add_measure_options, nyquist_path, refuse_bad_outputs, sweep_from
 
 __all__ = ["add_parser", "comparison_table", "run"]
 
@@ -112,6 +112,7 @@ def run(args: argparse.Namespace) -> int:
     from netloop.measure import load_netlist
 
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    refuse_bad_outputs(args)
     if args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
     nodes, drivers = _locations(args.at)

@@ -34,28 +34,16 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--junit", metavar="FILE", help="also write JUnit XML, one test case per corner, for CI systems")
 
 
-def _refuse_unwritable(path: str | None, what: str) -> None:
-    """OutputError now, before any corner runs, when ``path``'s folder is missing or is not a folder."""
-    from pathlib import Path
-
-    from netloop.errors import OutputError
-
-    if path is None:
-        return
-    folder = Path(path).parent
-    if not folder.is_dir():
-        reason = "Not a directory" if folder.exists() else "No such file or directory"
-        raise OutputError(f"cannot write the {what} to {path!r}: {reason} ({str(folder)!r})")
-
-
 def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from netloop import corners
 
+    from netloop.report.files import refuse_unwritable
+
     plan = corners.load_plan(args.plan)
-    _refuse_unwritable(args.csv, "corner table")
-    _refuse_unwritable(args.junit, "JUnit XML")
+    refuse_unwritable(args.csv, "corner table")  # before any corner runs
+    refuse_unwritable(args.junit, "JUnit XML")
     progress = args.progress or sys.stderr.isatty()
     result = corners.run_plan(plan, jobs=args.jobs, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)
     if args.csv:

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from netloop.errors import OutputError
 
-__all__ = ["output_file"]
+__all__ = ["output_file", "refuse_unwritable"]
 
 
 @contextmanager
@@ -20,3 +20,13 @@ def output_file(path: str | Path, what: str) -> Iterator[Path]:
     except OSError as exc:
         reason = exc.strerror or str(exc)
         raise OutputError(f"cannot write the {what} to {str(path)!r}: {reason}") from exc
+
+
+def refuse_unwritable(path: str | Path | None, what: str) -> None:
+    """OutputError now (before any long work) when ``path``'s folder is missing or is not a folder; None passes."""
+    if path is None:
+        return
+    folder = Path(path).parent
+    if not folder.is_dir():
+        reason = "Not a directory" if folder.exists() else "No such file or directory"
+        raise OutputError(f"cannot write the {what} to {str(path)!r}: {reason} ({str(folder)!r})")

@@ -42,6 +42,24 @@ def inputs(tmp_path: Path) -> dict[str, str]:
             "folder": str(folder), "blocker": str(blocker), "readonly": str(readonly)}
 
 
+@pytest.fixture
+def simulator_starts(monkeypatch) -> list[str]:
+    """Records every start of the default simulator by the composing modules (the simulator itself still starts)."""
+    import importlib  # noqa: PLC0415
+
+    starts: list[str] = []
+    for name in ("netloop.measure", "netloop.compare", "netloop.measure_pair"):
+        module = importlib.import_module(name)
+        real = module.default_simulator
+
+        def recording(*args, _real=real, **kwargs):
+            starts.append("start")
+            return _real(*args, **kwargs)
+
+        monkeypatch.setattr(module, "default_simulator", recording)
+    return starts
+
+
 def _run(argv: list[str]) -> int:
     """main() as the shell sees it: argparse's usage errors become their exit status."""
     try:
@@ -80,14 +98,14 @@ CASES = [
     pytest.param(["check", "{good}", "--at", "out", "--ppd", "0"], "points per decade", id="check-bad-points-per-decade"),
     pytest.param(["check", "{good}", "--at-pair", "a"], "P,N", id="check-bad-node-pair"),
     pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/x.bmp"], "expected a file name ending in", id="check-plot-unknown-format"),
-    pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/nodir/x.png"], "cannot write the Bode plot", id="check-plot-into-missing-folder",
-                 marks=pytest.mark.ngspice),
-    pytest.param(["check", "{good}", "--at", "out", "--report", "{blocker}/r.html"], "cannot write the HTML report", id="check-report-below-a-file",
-                 marks=pytest.mark.ngspice),
+    pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/nodir/x.png"], "cannot write the Bode plot",
+                 id="check-plot-into-missing-folder-refused-before-simulating"),
+    pytest.param(["check", "{good}", "--at", "out", "--report", "{blocker}/r.html"], "cannot write the HTML report",
+                 id="check-report-below-a-file-refused-before-simulating"),
     pytest.param(["check", "{good}", "--at", "out", "--report", "{readonly}/r.html"], "cannot write the HTML report", id="check-report-read-only-folder",
                  marks=[pytest.mark.ngspice, pytest.mark.skipif(ROOT_USER, reason="root may write into a read-only folder")]),
-    pytest.param(["check", "{good}", "--at", "out", "--csv", "{dir}/nodir/t.csv"], "cannot write the CSV samples", id="check-csv-into-missing-folder",
-                 marks=pytest.mark.ngspice),
+    pytest.param(["check", "{good}", "--at", "out", "--csv", "{dir}/nodir/t.csv"], "cannot write the CSV samples",
+                 id="check-csv-into-missing-folder-refused-before-simulating"),
     pytest.param(["check", "{good}", "--at", "out", "--keep-decks", "{blocker}"], "cannot keep the deck in", id="check-keep-decks-is-a-file",
                  marks=pytest.mark.ngspice),
     # compare
@@ -97,6 +115,10 @@ CASES = [
     pytest.param(["compare", "{good}", "--at", "out", "--at", "nosuch"], "unknown node 'nosuch'", id="compare-unknown-node"),
     pytest.param(["compare", "{good}", "--at", "out", "--at", "e", "--require", "pm>"], "cannot read requirement", id="compare-bad-require"),
     pytest.param(["compare", "{good}", "--at", "out", "--at", "e", "--fmin", "x"], "argument --fmin", id="compare-fmin-not-a-number"),
+    pytest.param(["compare", "{good}", "--at", "out", "--at", "e", "--plot", "{blocker}/p.png"], "cannot write the Bode plot",
+                 id="compare-plot-below-a-file-refused-before-simulating"),
+    pytest.param(["compare", "{good}", "--at", "out", "--at", "e", "--plot", "{dir}/p.gif"], "expected a file name ending in",
+                 id="compare-plot-unknown-format-refused-before-simulating"),
     # corners
     pytest.param(["corners", "{dir}/missing.toml"], "cannot read plan", id="corners-missing-plan-is-named"),
     pytest.param(["corners", "{folder}"], "Is a directory", id="corners-directory-instead-of-plan"),
@@ -121,7 +143,7 @@ CASES = [
 
 
 @pytest.mark.parametrize(("argv", "expected"), CASES)
-def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys):
+def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys, request, simulator_starts):
     """Each bad input exits 2 with one 'netloop: error:' line saying what (and where), no traceback, input files untouched."""
     args = [a.format(**inputs) for a in argv]
     before = _snapshot(inputs["dir"])
@@ -135,5 +157,7 @@ def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys):
     assert len(lines) == 1 or (len(lines) == 3 and lines[2].strip() == "^"), captured.err
     if args[0] == "corners":  # a refused corner run starts nothing: no results file appears
         assert not (Path(inputs["dir"]) / "r.jsonl").exists()
+    if "refused-before-simulating" in request.node.callspec.id:  # refused up front: the simulator never started
+        assert simulator_starts == []
     after = _snapshot(inputs["dir"])
     assert {p: v for p, v in after.items() if p in before} == before
