@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from pathlib import Path
 
 __all__ = ["add_parser", "run"]
 
@@ -68,7 +69,7 @@ def nyquist_path(path: str) -> str:
 
 
 def refuse_bad_outputs(args: argparse.Namespace) -> None:
-    """OutputError before any simulation for a --csv, --plot or --report path that cannot be written."""
+    """OutputError before any simulation for a --csv, --plot, --report or --keep-decks path that cannot be written."""
     from netloop.report.figure import file_format
     from netloop.report.files import refuse_unwritable
 
@@ -76,6 +77,11 @@ def refuse_bad_outputs(args: argparse.Namespace) -> None:
         file_format(args.plot)
     for option, what in (("csv", "CSV samples"), ("plot", "Bode plot"), ("report", "HTML report")):
         refuse_unwritable(getattr(args, option, None), what)
+    keep = getattr(args, "keep_decks", None)
+    if keep and Path(keep).exists() and not Path(keep).is_dir():
+        from netloop.errors import OutputError
+
+        raise OutputError(f"cannot keep the decks in {keep!r}: it is a file, not a folder")
 
 
 def write_outputs(args: argparse.Namespace, results) -> None:
