@@ -121,7 +121,7 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
         container = s.definitions[-1].name if s.definitions else ""
         keys = {key for where, key in hit_set if where == container}
         for e in elements_of(new, s) if keys else ():
-            if e.name[0].upper() in "VI" and e.key in keys:  # only independent sources (e.kind) are silenced
+            if e.name.lower() in keys:  # e.key
                 silenced.append(s.flat_element(e))
     vectors = ProbeVectors(
         va=f"v({side_a})",

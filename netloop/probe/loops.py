@@ -38,17 +38,18 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
     more_ids: dict[tuple[str, str], int] = {}  # (label, letter) for a label seen with another letter too
     at_node = g.at_node
     scope = flat = None
-    prefix = ""
+    prefix, same = "", True
     for s, e in primitive_elements(netlist, globals_):
         if s is not scope:
             scope, flat = s, flattener(s, globals_)
             prefix = ".".join(s.path) + "." if s.path else ""
+            same = not s.path and not s.nets  # flat keeps every name (the top level)
         name = e.name
         label = prefix + name.lower()  # Scope.label
         if label in skip:
             continue
         mine = None
-        for node in map(flat, e.nodes):
+        for node in e.nodes if same else map(flat, e.nodes):
             if node in ac_ground:
                 continue
             if mine is None:
