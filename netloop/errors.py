@@ -25,6 +25,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "AnalysisError",
+    "in_netlist",
     "NetlistError",
     "NetlistSyntaxError",
     "NetloopError",
@@ -68,14 +69,23 @@ class NetlistSyntaxError(NetlistError, ValueError):
 class UnknownNodeError(NetlistError, KeyError):
     """A node, element or subcircuit name that the netlist does not have; suggests close names."""
 
-    def __init__(self, kind: str, name: str, known: Iterable[str] = ()):
+    def __init__(self, kind: str, name: str, known: Iterable[str] = (), where: str | None = None):
         self.kind = kind
         self.name = name
+        self.where = where  # the netlist the name was looked up in, when known
         self.suggestions = tuple(difflib.get_close_matches(name.lower(), [k.lower() for k in known], n=3, cutoff=0.6))
         super().__init__(self._render())
 
+    def in_netlist(self, where: str) -> UnknownNodeError:
+        """The same error, saying which netlist was searched."""
+        located = UnknownNodeError(self.kind, self.name, where=where)
+        located.suggestions = self.suggestions
+        located.args = (located._render(),)
+        return located
+
     def _render(self) -> str:
-        msg = f"unknown {self.kind} {self.name!r}"
+        msg = f"{self.where}: " if self.where else ""
+        msg += f"unknown {self.kind} {self.name!r}"
         if self.suggestions:
             msg += "; did you mean " + " or ".join(repr(s) for s in self.suggestions) + "?"
         return msg
@@ -86,6 +96,11 @@ class UnknownNodeError(NetlistError, KeyError):
 
 class ProbeError(NetloopError):
     """The loop cannot be broken at the requested place; the message says why."""
+
+    def in_netlist(self, where: str) -> ProbeError:
+        """The same error, its message prefixed by the netlist it concerns."""
+        text = str(self)
+        return self if text.startswith(f"{where}: ") else ProbeError(f"{where}: {text}")
 
 
 class SimulationError(NetloopError):
@@ -123,3 +138,12 @@ class PlanError(NetloopError, ValueError):
 
 class OutputError(NetloopError, ValueError):
     """A report, plot or data file that cannot be written: an unknown format or a path that cannot be opened."""
+
+
+def in_netlist(exc: NetloopError, where: str) -> NetloopError:
+    """``exc`` naming the netlist it concerns (unknown names and probe refusals), else ``exc`` itself."""
+    if not where or where.startswith("<") or not isinstance(exc, (ProbeError, UnknownNodeError)):
+        return exc
+    if isinstance(exc, UnknownNodeError) and exc.where:
+        return exc
+    return exc.in_netlist(where)

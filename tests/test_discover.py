@@ -155,7 +155,7 @@ def _check_against_probe(path) -> int:
             if c.refused:
                 with pytest.raises(ProbeError) as exc:
                     break_loop(parsed, c.node)
-                assert str(exc.value) == c.refused
+                assert str(exc.value) == f"{parsed.source}: {c.refused}"  # the probe names the netlist it refused in
                 continue
             try:
                 probed = break_loop(parsed, c.node)

@@ -6,7 +6,7 @@ from dataclasses import replace
 from itertools import chain
 from operator import attrgetter
 
-from netloop.errors import ProbeError
+from netloop.errors import ProbeError, UnknownNodeError, in_netlist
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Element, Netlist, Subcircuit
 from netloop.netlist.reader import gc_paused
@@ -60,7 +60,13 @@ def break_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> Probe
     for ground, a supply, a node with one connection, no driver, or a node on no loop.
     """
     with gc_paused():  # the passes below build hundreds of thousands of acyclic records for a large netlist
-        return _break(netlist, at, driver)
+        try:
+            return _break(netlist, at, driver)
+        except (ProbeError, UnknownNodeError) as exc:
+            located = in_netlist(exc, netlist.source)
+            if located is exc:
+                raise
+            raise located from exc
 
 
 def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
