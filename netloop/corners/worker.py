@@ -36,7 +36,7 @@ def worker_simulator():
     if _SIMULATOR is None:
         from netloop.sim import default_simulator
 
-        _SIMULATOR = default_simulator()
+        _SIMULATOR = default_simulator()  # its ngspice runs on one thread (netloop.sim.library.NGSPICE_THREADS)
     return _SIMULATOR
 
 

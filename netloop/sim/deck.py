@@ -13,6 +13,7 @@ import jinja2
 
 from netloop.errors import SimulationError
 from netloop.sim.frequency import sweep_problem
+from netloop.sim.library import NGSPICE_THREADS
 from netloop.sim.job import AcSweep, SimJob
 
 __all__ = ["Step", "check_workdir", "control_steps", "excited_sources", "format_number", "render_deck", "save_key", "strip_end"]
@@ -118,7 +119,7 @@ def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> t
     ``write_raw`` adds the ``write`` commands batch mode needs: binary raw files in ``raw_dir``
     (an absolute folder), or in ngspice's current folder when that is None.
     """
-    steps: list[Step] = []
+    steps: list[Step] = [Step(f"set num_threads={NGSPICE_THREADS}", "set")]
     if write_raw:
         steps.append(Step("set filetype=binary", "set"))
     steps.append(Step("op", "op"))

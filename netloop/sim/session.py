@@ -11,7 +11,10 @@ import warnings
 
 import numpy as np
 
+from netloop.sim.library import NGSPICE_THREADS
+
 __all__ = ["NgspiceSession"]
+
 
 
 def _silence_pyspice() -> None:
@@ -37,6 +40,7 @@ class NgspiceSession:
         self._ng.send_char = self._on_char  # PySpice forwards every output line here
         self._lib = self._ng._ngspice_shared
         self.version = str(self._ng.ngspice_version)
+        self._lib.ngSpice_Command(f"set num_threads={NGSPICE_THREADS}".encode())  # see NGSPICE_THREADS
         voltage = self._ng.simulation_type.voltage
         self._voltage_type = int(getattr(voltage, "value", voltage))
 

@@ -1,0 +1,26 @@
+"""Every ngspice netloop starts runs on one OpenMP thread, so parallel workers do not spin against each other."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.sim import AcRun, AcSweep, SimJob, find_libngspice
+from netloop.sim.deck import control_steps
+from netloop.sim.library import NGSPICE_THREADS
+
+
+def test_batch_deck_sets_one_thread_first():
+    """The batch deck's control block sets num_threads before any analysis (ngspice manual, 'num_threads' variable)."""
+    job = SimJob(netlist="rc\nr1 a 0 1k\n", runs=(AcRun("r", {}, (AcSweep("dec", 2, 1.0, 100.0),)),), save=("v(a)",))
+    steps = control_steps(job, write_raw=True)
+    assert steps[0].command == f"set num_threads={NGSPICE_THREADS}" and NGSPICE_THREADS == 1
+
+
+@pytest.mark.ngspice
+def test_shared_session_runs_on_one_thread():
+    """The shared-library session reports num_threads = 1 when asked by ngspice's own echo command."""
+    from netloop.sim.session import NgspiceSession  # noqa: PLC0415 - loads libngspice in this process
+
+    session = NgspiceSession(find_libngspice())
+    printed = " ".join(session.command("echo $num_threads"))
+    assert printed.split()[-1] == "1", printed
