@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import subprocess
+import sys
+
 import pytest
 
-from netloop.sim import AcRun, AcSweep, SimJob, find_libngspice
+from netloop.sim import AcRun, AcSweep, SimJob
 from netloop.sim.deck import control_steps
 from netloop.sim.library import NGSPICE_THREADS
 
@@ -19,8 +22,10 @@ def test_batch_deck_sets_one_thread_first():
 @pytest.mark.ngspice
 def test_shared_session_runs_on_one_thread():
     """The shared-library session reports num_threads = 1 when asked by ngspice's own echo command."""
-    from netloop.sim.session import NgspiceSession  # noqa: PLC0415 - loads libngspice in this process
-
-    session = NgspiceSession(find_libngspice())
-    printed = " ".join(session.command("echo $num_threads"))
-    assert printed.split()[-1] == "1", printed
+    # in a fresh interpreter: PySpice declares its C types once per process, and other tests load it too
+    code = (
+        "from netloop.sim.session import NgspiceSession; from netloop.sim import find_libngspice; "
+        "print(' '.join(NgspiceSession(find_libngspice()).command('echo $num_threads')))"
+    )
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60, check=True)
+    assert run.stdout.split()[-1] == "1", run.stdout
