@@ -6,7 +6,7 @@ import math
 import time
 import uuid
 from collections.abc import Callable, Iterable, Mapping
-from concurrent.futures import Future, ThreadPoolExecutor
+from concurrent.futures import Future, ThreadPoolExecutor, wait
 from dataclasses import dataclass, replace
 from os import PathLike
 from pathlib import Path
@@ -20,7 +20,7 @@ from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError
 from netloop.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, parse_file, parse_text, write_netlist
-from netloop.probe import ProbedNetlist, break_loop
+from netloop.probe import ProbedNetlist, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
 
 __all__ = ["METHODS", "Sweep", "load_netlist", "measure", "measure_probed", "probe_job", "return_ratio", "sample_loops"]
@@ -159,16 +159,41 @@ class _Runner:
         self.deck_path: str | None = None
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
 
-    def evaluate(self, sweeps: tuple[AcSweep, ...]) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+        """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (see _run_while)."""
         job = self.job_for(sweeps)
         start = time.perf_counter()
-        result = self.simulator.run(job)
+        result = self.simulator.run(job) if meanwhile is None else _run_while(self.simulator, job, meanwhile)
         self.seconds += time.perf_counter() - start
         self.aid = self.aid or result.convergence_aid
         self.deck_path = self.deck_path or result.deck_path
         self.backend = result.backend or self.backend
         t = {name: np.asarray(v, dtype=complex) for name, v in self.ratios(result).items()}
         return np.asarray(result.runs[0].freq_hz, dtype=float), t
+
+
+def _run_while(simulator: Simulator, job: SimJob, meanwhile: Callable[[], object]) -> SimResult:
+    """``simulator.run(job)`` in a thread while this thread calls ``meanwhile()``.
+
+    When ``meanwhile()`` raises (or the wait is interrupted), the job is abandoned: a simulator with
+    ``abort()`` stops at once, any other is waited for; its result or error is dropped and the
+    exception of this thread is raised.
+    """
+    pool = ThreadPoolExecutor(1, thread_name_prefix="netloop-sim-run")
+    try:
+        running = pool.submit(simulator.run, job)
+    finally:
+        pool.shutdown(wait=False)
+    try:
+        meanwhile()
+        return running.result()
+    except BaseException:
+        if not running.done():
+            abort = getattr(simulator, "abort", None)
+            if abort is not None:
+                abort()
+            wait([running])
+        raise
 
 
 def _merge_all(f: np.ndarray, t: dict[str, np.ndarray], f2: np.ndarray, t2: dict[str, np.ndarray]) -> tuple[np.ndarray, dict[str, np.ndarray]]:
@@ -183,19 +208,21 @@ def sample_loops(
     simulator: Simulator,
     sweep: Sweep,
     open_loop_rhp_poles: Mapping[str, int],
+    meanwhile: Callable[[], object] | None = None,
 ) -> tuple[dict[str, LoopAnalysis], SimInfo, dict[str, tuple[str, ...]]]:
     """Sweep, widen and refine the return ratios of one break's jobs, all on the same frequencies.
 
     ``job_for(sweeps)`` builds the SimJob (any number of AC runs); ``ratios(result)`` maps its
     SimResult to {loop name: T} at the frequencies of the first run. Returns the analysis of each
     loop, the shared SimInfo (``refined`` when every loop settled) and each loop's warnings. With
-    one loop this is exactly measure_probed's plan (see Sweep).
+    one loop this is exactly measure_probed's plan (see Sweep). ``meanwhile()`` is called while the
+    first job runs; when it raises, that job is abandoned and its exception raised.
     """
     runner = _Runner(job_for, ratios, simulator)
     load_scipy_in_background()  # the analysis's scipy modules load while the first simulation runs
     fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
     ppd = sweep.points_per_decade
-    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),))
+    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),), meanwhile)
 
     # widen the sweep where the data asks for it and the user did not fix the limit
     for _ in range(3):
@@ -268,8 +295,13 @@ def measure_probed(
     open_loop_rhp_poles: int = 0,
     label: str = "",
     timeout_s: float = 600.0,
+    meanwhile: Callable[[], object] | None = None,
 ) -> tuple:
-    """Simulate one probe and analyse it: returns (analysis, SimInfo, warnings)."""
+    """Simulate one probe and analyse it: returns (analysis, SimInfo, warnings).
+
+    ``meanwhile()`` is called while the first simulation runs (measure checks the loop then); when
+    it raises, the simulation is abandoned and its exception raised.
+    """
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
 
@@ -282,7 +314,7 @@ def measure_probed(
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
-    analyses, info, warnings = sample_loops(job_for, ratios, simulator, sweep, {"loop": open_loop_rhp_poles})
+    analyses, info, warnings = sample_loops(job_for, ratios, simulator, sweep, {"loop": open_loop_rhp_poles}, meanwhile)
     return analyses["loop"], info, warnings["loop"]
 
 
@@ -340,32 +372,35 @@ def measure(
     such as "pm>=60" or parsed Requirement objects. Without ``simulator`` the default ngspice
     backend is started for this call and closed after it.
     """
-    parsed = load_netlist(netlist)
-    reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
-        [r for r in requirements if not isinstance(r, Requirement)]
-    )
     own = simulator is None
-    starting = _start_default_simulator(keep_decks) if own else None  # ngspice starts while the loop is broken
+    starting = _start_default_simulator(keep_decks) if own else None  # ngspice starts while the netlist is read and broken
     try:
-        probed = break_loop(parsed, at, driver=driver)
+        parsed = load_netlist(netlist)
+        reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
+            [r for r in requirements if not isinstance(r, Requirement)]
+        )
+        unchecked, check = split_loop(parsed, at, driver=driver)  # the loop search runs during the first simulation
     except BaseException:
         if starting is not None:
             starting.add_done_callback(_close_started)
         raise
     sim = starting.result() if starting is not None else simulator
+    checked: list[ProbedNetlist] = []
     try:
         analysis, info, sim_warnings = measure_probed(
-            probed,
+            unchecked,
             method=method,
             sweep=sweep,
             simulator=sim,
             open_loop_rhp_poles=open_loop_rhp_poles,
             label=label,
             timeout_s=timeout_s,
+            meanwhile=lambda: checked.append(check()),
         )
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
+    probed = checked[0]
     outcomes = tuple(r.check(analysis) for r in reqs)
     warnings = (*parsed.warnings, *probed.warnings, *sim_warnings, *analysis.warnings)
     return LoopResult(

@@ -114,7 +114,6 @@ def run(args: argparse.Namespace) -> int:
         from netloop.errors import NetloopError
 
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
-    netlist = load_netlist(args.netlist)
     common = dict(
         driver=args.driver,
         method=args.method,
@@ -123,14 +122,14 @@ def run(args: argparse.Namespace) -> int:
         requirements=requirements,
         keep_decks=args.keep_decks,
     )
-    if args.at_pair:
-        return run_pair(args, netlist, common)
-    if args.at:
-        results = [measure(netlist, args.at, **common)]
+    if args.at and not args.at_pair:
+        results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
+    elif args.at_pair:
+        return run_pair(args, load_netlist(args.netlist), common)
     else:
         from netloop.discover import measure_all_loops
 
-        results, notes = measure_all_loops(netlist, **common)
+        results, notes = measure_all_loops(load_netlist(args.netlist), **common)
         for note in notes:
             print(f"netloop: {note}", file=sys.stderr)
     write_outputs(args, results)

@@ -83,4 +83,26 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 def entry() -> None:
-    sys.exit(main())
+    """The console command: main(), then the exit of a process that has nothing left to free."""
+    code = main()
+    _exit_quickly(code)
+    sys.exit(code)
+
+
+def _exit_quickly(code: int) -> None:
+    """End the process with ``code`` without tearing down its objects one by one (0.15 s for the
+    records of a 100k-element netlist): exit handlers run and the output is flushed as at a normal
+    exit. Returns (and the normal exit follows) while another thread runs or the output cannot be flushed."""
+    import atexit
+    import os
+    import threading
+
+    if threading.active_count() > 1:
+        return
+    atexit._run_exitfuncs()  # noqa: SLF001 - what the interpreter calls at exit, before its teardown
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+    except (OSError, ValueError):
+        return  # the normal exit reports it as before
+    os._exit(code)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import replace
 from itertools import chain
 from operator import attrgetter
@@ -17,7 +19,7 @@ from netloop.probe.scope import GROUND_NAMES, elements_of, resolve_node, walk_sc
 from netloop.probe.sides import ac_ground_nodes, decide_sides, terminals_at
 from netloop.probe.silence import silence_statements
 
-__all__ = ["break_loop"]
+__all__ = ["break_loop", "split_loop"]
 
 SERIES_NAME = "vnl_series"
 SHUNT_NAME = "inl_shunt"
@@ -59,17 +61,42 @@ def break_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> Probe
     (``decided_by`` says how). Raises UnknownNodeError for a node the netlist lacks and ProbeError
     for ground, a supply, a node with one connection, no driver, or a node on no loop.
     """
+    _, check = split_loop(netlist, at, driver=driver)
+    return check()
+
+
+def split_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
+    """break_loop in two steps: the probed netlist at once, and ``check()`` for the loop search.
+
+    The first element is ready to simulate but carries no warnings; ``check()`` returns what
+    break_loop returns (the same record with the loop warnings) or raises break_loop's ProbeError
+    for a node on no loop. A caller may simulate while it checks, and must drop its results when
+    ``check()`` raises. Errors found before the split are raised at once, as break_loop raises them.
+    """
     with gc_paused():  # the passes below build hundreds of thousands of acyclic records for a large netlist
-        try:
-            return _break(netlist, at, driver)
-        except (ProbeError, UnknownNodeError) as exc:
-            located = in_netlist(exc, netlist.source)
-            if located is exc:
-                raise
-            raise located from exc
+        with _located(netlist):
+            probed, check = _break(netlist, at, driver)
+
+    def checked() -> ProbedNetlist:
+        with gc_paused(), _located(netlist):
+            return check()
+
+    return probed, checked
 
 
-def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
+@contextmanager
+def _located(netlist: Netlist) -> Iterator[None]:
+    """Re-raise the probe's refusals saying which netlist they concern."""
+    try:
+        yield
+    except (ProbeError, UnknownNodeError) as exc:
+        located = in_netlist(exc, netlist.source)
+        if located is exc:
+            raise
+        raise located from exc
+
+
+def _break(netlist: Netlist, at: str, driver: str | None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
     given = at.strip().lower()
     globals_ = frozenset(netlist.globals)
     scope, node = resolve_node(netlist, given, globals_)
@@ -101,26 +128,6 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
     new_scope = next(s for s in walk_scopes(new, globals_) if s.path == scope.path)
     side_a, side_b = new_scope.flat(node_a, globals_), new_scope.flat(node, globals_)
     probe_labels = frozenset(new_scope.label(e) for e in probe)
-    graph = connectivity(new, globals_, ac_ground, probe_labels)
-    on_loop, loops, others = loop_report(graph, side_a, side_b)
-    if not on_loop:
-        raise ProbeError(
-            f"node {given} is not on any loop: after the split no path leads from its load side "
-            f"({', '.join(t.label for t in split.load)}) back to its driver side ({', '.join(t.label for t in split.driver)}) "
-            "without passing through ground or a supply"
-        )
-    warnings = []
-    if len(loops) > 1:
-        warnings.append(
-            f"node {given} feeds {len(loops)} loops through its load side ({', '.join(loops)}): the break measures them "
-            "together, and which terminals sit on the driver side changes T; choose with driver="
-        )
-    if others:
-        warnings.append(
-            f"the load side of {given} also feeds other circuits that do not return to the driver ({', '.join(others)}), "
-            "e.g. a bias node shared by several amplifiers: their loading is included, and the split changes T; choose with driver="
-        )
-
     silenced = []
     hit_set = set(hits)
     for s in walk_scopes(new, globals_) if hit_set else ():
@@ -137,7 +144,7 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
         node_b=side_b,
         branch=f"{new_scope.flat_element(probe[0])}#branch",
     )
-    return ProbedNetlist(
+    probed = ProbedNetlist(
         netlist=new,
         node=given,
         side_a=side_a,
@@ -150,9 +157,29 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> ProbedNetlist:
         shunt_terminals=tuple(t.label for t in split.shunt),
         decided_by=split.decided_by,
         silenced_sources=tuple(silenced),
-        warnings=tuple(warnings),
         copied_subcircuits=rewrite.copies,
     )
 
+    def check() -> ProbedNetlist:
+        graph = connectivity(new, globals_, ac_ground, probe_labels)
+        on_loop, loops, others = loop_report(graph, side_a, side_b)
+        if not on_loop:
+            raise ProbeError(
+                f"node {given} is not on any loop: after the split no path leads from its load side "
+                f"({', '.join(t.label for t in split.load)}) back to its driver side ({', '.join(t.label for t in split.driver)}) "
+                "without passing through ground or a supply"
+            )
+        warnings = []
+        if len(loops) > 1:
+            warnings.append(
+                f"node {given} feeds {len(loops)} loops through its load side ({', '.join(loops)}): the break measures them "
+                "together, and which terminals sit on the driver side changes T; choose with driver="
+            )
+        if others:
+            warnings.append(
+                f"the load side of {given} also feeds other circuits that do not return to the driver ({', '.join(others)}), "
+                "e.g. a bias node shared by several amplifiers: their loading is included, and the split changes T; choose with driver="
+            )
+        return replace(probed, warnings=tuple(warnings))
 
-
+    return probed, check

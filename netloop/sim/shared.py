@@ -120,6 +120,7 @@ class SharedLibrarySimulator(NgspiceBackend):
         self.keep_dir = keep_dir
         self.startup_timeout_s = startup_timeout_s
         self._holder: dict = {}
+        self._abandoned: _Worker | None = None  # the worker abort() stopped in the middle of a job
         self._lock = threading.Lock()
         self._finalizer = weakref.finalize(self, _stop_worker, self._holder)
 
@@ -148,6 +149,14 @@ class SharedLibrarySimulator(NgspiceBackend):
         with self._lock:
             _stop_worker(self._holder)
 
+    def abort(self) -> None:
+        """Stop the job that another thread is running, at once: its ``run`` raises SimulationError
+        (keeping no deck) and the next job starts a fresh worker. Does nothing when no worker runs."""
+        worker = self._holder.get("worker")
+        if worker is not None and worker.alive():
+            self._abandoned = worker
+            worker.process.kill()
+
     def run(self, job: SimJob) -> SimResult:
         self.refuse_malformed(job)
         job = _portable(job)
@@ -165,6 +174,9 @@ class SharedLibrarySimulator(NgspiceBackend):
                     corner=job.label or None,
                 ) from exc
             except (WorkerGone, BrokenPipeError, OSError) as exc:
+                if worker is self._abandoned:
+                    _stop_worker(self._holder)
+                    raise SimulationError("the job was abandoned (abort)", corner=job.label or None) from exc
                 log_tail = worker.log_tail()
                 _stop_worker(self._holder)
                 deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)

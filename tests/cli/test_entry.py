@@ -1,0 +1,42 @@
+"""The console command's exit: the status and every byte of output of main(), in a process of its own."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from netloop.cli.main import main
+
+CIRCUITS = Path(__file__).resolve().parent.parent.parent / "circuits"
+ENTRY = "import sys; from netloop.cli.main import entry; sys.argv[0] = 'netloop'; entry()"
+
+
+def _command(args: list[str], cwd: Path) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-c", ENTRY, *args], cwd=cwd, capture_output=True, text=True, check=False, timeout=300)
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("require", ["pm>=0", "pm>=179"])
+def test_command_exits_with_mains_status_and_output(tmp_path, capsys, require):
+    """`netloop check --json` as a command exits with main()'s status (0 passed, 1 failed) and prints main()'s whole document."""
+    args = ["check", str(CIRCUITS / "miller_buffer.cir"), "--at", "out", "--json", "--require", require]
+    # Reference: main() called in this process, the path every other CLI test takes.
+    status = main(args)
+    expected = json.loads(capsys.readouterr().out)
+    done = _command(args, tmp_path)
+    assert done.returncode == status
+    printed = json.loads(done.stdout)
+    for doc in (printed, expected):
+        doc["simulation"].pop("seconds")  # the one field that differs from run to run
+    assert printed == expected
+
+
+def test_command_reports_bad_input_with_status_2(tmp_path):
+    """A missing netlist: the command prints main()'s one-line error on stderr and exits 2."""
+    done = _command(["check", str(tmp_path / "missing.cir"), "--at", "out"], tmp_path)
+    assert done.returncode == 2
+    assert done.stderr.startswith("netloop: error: ") and "missing.cir" in done.stderr and done.stdout == ""
