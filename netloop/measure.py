@@ -172,6 +172,9 @@ class _Runner:
         return np.asarray(result.runs[0].freq_hz, dtype=float), t
 
 
+_SEND_HEAD_START_S = 0.05  # ample to render, pickle and write a 100k-element job (about 30 ms)
+
+
 def _run_while(simulator: Simulator, job: SimJob, meanwhile: Callable[[], object]) -> SimResult:
     """``simulator.run(job)`` in a thread while this thread calls ``meanwhile()``.
 
@@ -185,6 +188,7 @@ def _run_while(simulator: Simulator, job: SimJob, meanwhile: Callable[[], object
     finally:
         pool.shutdown(wait=False)
     try:
+        wait([running], timeout=_SEND_HEAD_START_S)  # the job is sent before this thread competes for the interpreter
         meanwhile()
         return running.result()
     except BaseException:
