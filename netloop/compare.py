@@ -489,9 +489,7 @@ def compare(
     if unknown:
         raise ProbeError(f"drivers given for {', '.join(sorted(unknown))}, which are not among the locations")
     parsed = load_netlist(netlist)
-    reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
-        [r for r in requirements if not isinstance(r, Requirement)]
-    )
+    reqs = parse_requirements(requirements)
     deck, probes = _break_all(parsed, locations, drivers)
     placed = tuple(p.placed for p in probes)
 

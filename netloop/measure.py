@@ -380,9 +380,7 @@ def measure(
     starting = _start_default_simulator(keep_decks) if own else None  # ngspice starts while the netlist is read and broken
     try:
         parsed = load_netlist(netlist)
-        reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
-            [r for r in requirements if not isinstance(r, Requirement)]
-        )
+        reqs = parse_requirements(requirements)
         unchecked, check = split_loop(parsed, at, driver=driver)  # the loop search runs during the first simulation
     except BaseException:
         if starting is not None:

@@ -196,9 +196,7 @@ def measure_pair(
     p_node, n_node = parse_pair(pair) if isinstance(pair, str) else parse_pair(",".join(pair))
     rhp = _rhp(open_loop_rhp_poles)
     parsed = load_netlist(netlist)
-    reqs = tuple(r for r in requirements if isinstance(r, Requirement)) + parse_requirements(
-        [r for r in requirements if not isinstance(r, Requirement)]
-    )
+    reqs = parse_requirements(requirements)
     probe = break_pair(parsed, p_node, n_node, drivers=drivers)
     samples = _CouplingSamples()
 

@@ -115,11 +115,14 @@ def parse_requirement(text: str) -> Requirement:
     return Requirement(metric, op, number, text.strip())
 
 
-def parse_requirements(texts: Iterable[str]) -> tuple[Requirement, ...]:
-    """Parse several requirements (each may hold several separated by commas)."""
-    out = []
+def parse_requirements(texts: Iterable[str | Requirement]) -> tuple[Requirement, ...]:
+    """Parse several requirements (a text may hold several separated by commas); parsed ones pass through, order kept."""
+    out: list[Requirement] = []
     for text in texts:
-        out.extend(parse_requirement(part) for part in text.split(",") if part.strip())
+        if isinstance(text, Requirement):
+            out.append(text)
+        else:
+            out.extend(parse_requirement(part) for part in text.split(",") if part.strip())
     return tuple(out)
 
 

@@ -27,3 +27,12 @@ def test_missing_phase_margin_fails_with_the_reason():
     outcome = parse_requirement("pm>=45").check(analyse(f, t, fit_poles=False))
     assert not outcome.passed and outcome.value is None
     assert "does not regulate" in outcome.reason
+
+
+def test_parsed_and_text_requirements_mix_in_order():
+    """parse_requirements passes parsed requirements through and keeps the order it was given."""
+    from netloop.analysis import parse_requirements
+
+    gm = parse_requirement("gm>=10")
+    out = parse_requirements(["pm>=45", gm, "dc>=40, fc>=1meg"])
+    assert [r.metric for r in out] == ["pm", "gm", "dc", "fc"] and out[1] is gm
