@@ -213,6 +213,8 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
         found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
         if line is None and found:
             line = int(found[1])
+        if line is None and "at end of document" in str(exc):
+            line = max(text.count("\n") + (0 if text.endswith("\n") else 1), 1)  # the last line of the plan
         message = re.sub(r"\s*\(at line \d+, column \d+\)", "", getattr(exc, "msg", str(exc)))
         column = f", column {found[2]}" if found else ""
         where = f"{path}:{line}" if line else path

@@ -164,3 +164,11 @@ def test_cli_exits_2_with_the_plan_line_and_writes_no_results_file(tmp_path, cap
     assert err.startswith("netloop: error: ") and f"{path}:4: " in err and "no section 'sf'" in err
     assert len(err.strip().splitlines()) == 1
     assert not (tmp_path / "plan.results.jsonl").exists()
+
+
+def test_toml_cut_short_names_its_last_line(tmp_path):
+    """A plan that ends in the middle of a value still gets a line: the last one (tomllib gives none there)."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text('netlist = "x.cir"\nat = [\n')
+    with pytest.raises(PlanError, match=r"plan\.toml:2: not valid TOML"):
+        load_plan(plan)
