@@ -45,10 +45,10 @@ from netloop.analysis.requirements import Requirement
 from netloop.errors import NetloopError, ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, Step, find_loops, flatten
 from netloop.loop_result import LoopResult, SimInfo
-from netloop.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, return_ratio, sample_loops
+from netloop.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
-from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
 
 __all__ = [
     "DOMINANT_SHARE",
@@ -469,10 +469,12 @@ def compare(
     simulator: Simulator | None = None,
     keep_decks: str | PathLike[str] | None = None,
     timeout_s: float = 600.0,
+    processes: int | None = None,
 ) -> Comparison:
     """Break the loop at every node of ``at`` in one deck, measure T at each and explain how they differ.
 
-    Takes the options of ``measure`` (``method`` may also be "both"); ``drivers`` maps a location
+    Takes the options of ``measure`` (``method`` may also be "both"; ``processes`` share the
+    runs of every location); ``drivers`` maps a location
     to its driver spec (``driver=`` of measure). Each result is labelled with its location (and
     the method when both are computed). Raises ProbeError for fewer than two locations, a node
     given twice, or a node that cannot be broken.
@@ -503,7 +505,7 @@ def compare(
         return out
 
     own = simulator is None
-    sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    sim = own_simulator(processes, parsed, 2 * len(probes), keep_decks) if own else simulator
     base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s)  # written once: every round shares its circuit_id
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:

@@ -12,7 +12,7 @@ from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, fla
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.graph.split_effects import NodeSplit, apply_splits
 from netloop.loop_result import LoopResult
-from netloop.measure import load_netlist, measure
+from netloop.measure import load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
 from netloop.netlist.model import Element
 from netloop.probe.scope import Scope, child_scope, elements_of, resolve_node
@@ -190,11 +190,9 @@ def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options)
         options.pop("driver", None)
     found = probe_splits(parsed, circuit, found, driver=options.get("driver"))
     own = options.get("simulator") is None
+    processes = options.pop("processes", None)
     if own:
-        from netloop.sim import default_simulator
-
-        keep = options.pop("keep_decks", None)
-        options["simulator"] = default_simulator(keep_dir=str(keep) if keep else None)
+        options["simulator"] = own_simulator(processes, parsed, 2, options.pop("keep_decks", None))
     try:
         results = [_measure_group(parsed, g, options, notes) for g in found.groups]
     finally:

@@ -41,6 +41,7 @@ class SimInfo:
     convergence_aid: str | None  # the aid that made the operating point converge, if one was needed
     deck_path: str | None  # where the probe deck was kept (--keep-decks), else None
     seconds: float  # wall time of the simulations
+    processes: int = 1  # ngspice processes that shared each job's runs (netloop.sim.SplitRunsSimulator)
 
 
 @dataclass(frozen=True, slots=True)

@@ -19,11 +19,22 @@ from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError
 from netloop.loop_result import BreakInfo, LoopResult, SimInfo
-from netloop.netlist import Netlist, parse_file, parse_text, write_netlist
+from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.probe import ProbedNetlist, split_loop
-from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, SplitRunsSimulator, default_simulator, processes_for
 
-__all__ = ["METHODS", "Sweep", "load_netlist", "measure", "measure_probed", "probe_job", "return_ratio", "sample_loops"]
+__all__ = [
+    "METHODS",
+    "Sweep",
+    "load_netlist",
+    "measure",
+    "measure_probed",
+    "own_simulator",
+    "probe_job",
+    "return_ratio",
+    "sample_loops",
+    "simulator_processes",
+]
 
 METHODS = ("tian", "middlebrook")
 
@@ -158,6 +169,7 @@ class _Runner:
         self.aid: str | None = None
         self.deck_path: str | None = None
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
+        self.processes = len(getattr(simulator, "simulators", ())) or 1
 
     def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None) -> tuple[np.ndarray, dict[str, np.ndarray]]:
         """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (see _run_while)."""
@@ -278,6 +290,7 @@ def sample_loops(
         convergence_aid=runner.aid,
         deck_path=runner.deck_path,
         seconds=runner.seconds,
+        processes=runner.processes,
     )
     warnings: dict[str, tuple[str, ...]] = {}
     for name, a in analyses.items():
@@ -342,18 +355,50 @@ def ignored_lines(netlist: Netlist) -> tuple[str, ...]:
     return tuple(f"{d.location.file}:{d.location.line}: {d.text.splitlines()[0].strip()}" for d in netlist.ignored)
 
 
-def _start_default_simulator(keep_decks: str | PathLike[str] | None) -> Future:
+def _start_default_simulator(keep_decks: str | PathLike[str] | None, processes: int = 1) -> Future:
     """The default simulator, started in a thread so that its worker's start-up overlaps the caller's work."""
     pool = ThreadPoolExecutor(1, thread_name_prefix="netloop-sim-start")
     try:
-        return pool.submit(default_simulator, keep_dir=str(keep_decks) if keep_decks else None)
+        return pool.submit(default_simulator, keep_dir=str(keep_decks) if keep_decks else None, processes=processes)
     finally:
         pool.shutdown(wait=False)
+
+
+def simulator_processes(processes: int | None, netlist: Netlist, runs: int) -> int:
+    """``processes`` when given (at least 1), else how many ngspice processes suit a job of ``runs``
+    runs on this netlist (netloop.sim.processes_for: more than one only on large circuits)."""
+    if processes is not None:
+        if processes < 1:
+            raise NetloopError(f"the number of ngspice processes must be 1 or more, got {processes}")
+        return min(processes, max(runs, 1))
+    return processes_for(flat_element_count(netlist), runs)
+
+
+def own_simulator(processes: int | None, netlist: Netlist, runs: int, keep_decks: str | PathLike[str] | None) -> Simulator:
+    """The default simulator for one measurement of ``netlist``, with as many ngspice processes as suit it."""
+    return default_simulator(keep_dir=str(keep_decks) if keep_decks else None, processes=simulator_processes(processes, netlist, runs))
 
 
 def _close_started(started: Future) -> None:
     if started.exception() is None and hasattr(started.result(), "close"):
         started.result().close()
+
+
+def _joined(first: Future, more: Future | None, keep_decks: str | PathLike[str] | None) -> Simulator:
+    """The simulators started by ``first`` and ``more`` as one; if either failed to start, the other
+    is closed and the failure raised."""
+    futures = [f for f in (first, more) if f is not None]
+    wait(futures)
+    failed = next((f.exception() for f in futures if f.exception() is not None), None)
+    if failed is not None:
+        for future in futures:
+            _close_started(future)
+        raise failed
+    sims: list[Simulator] = []
+    for future in futures:
+        started = future.result()
+        sims += started.simulators if isinstance(started, SplitRunsSimulator) else [started]
+    return sims[0] if len(sims) == 1 else SplitRunsSimulator(sims, keep_dir=str(keep_decks) if keep_decks else None)
 
 
 def measure(
@@ -369,24 +414,32 @@ def measure(
     keep_decks: str | PathLike[str] | None = None,
     label: str = "",
     timeout_s: float = 600.0,
+    processes: int | None = None,
 ) -> LoopResult:
     """Break the loop at node ``at``, measure its return ratio in ngspice and analyse its stability.
 
     ``netlist`` is a parsed Netlist, a path, or netlist text. ``requirements`` are expressions
     such as "pm>=60" or parsed Requirement objects. Without ``simulator`` the default ngspice
-    backend is started for this call and closed after it.
+    backend is started for this call and closed after it, with ``processes`` ngspice processes
+    sharing the two runs (None: two on a large netlist when two CPUs are free, else one; see
+    netloop.sim.processes_for); ``processes`` is ignored when a simulator is given.
     """
     own = simulator is None
     starting = _start_default_simulator(keep_decks) if own else None  # ngspice starts while the netlist is read and broken
+    more: Future | None = None
     try:
         parsed = load_netlist(netlist)
         reqs = parse_requirements(requirements)
+        count = simulator_processes(processes, parsed, runs=2) if own else 1
+        if count > 1:
+            more = _start_default_simulator(None, count - 1)  # the others start while the netlist is broken
         unchecked, check = split_loop(parsed, at, driver=driver)  # the loop search runs during the first simulation
     except BaseException:
-        if starting is not None:
-            starting.add_done_callback(_close_started)
+        for future in (starting, more):
+            if future is not None:
+                future.add_done_callback(_close_started)
         raise
-    sim = starting.result() if starting is not None else simulator
+    sim = _joined(starting, more, keep_decks) if starting is not None else simulator
     checked: list[ProbedNetlist] = []
     try:
         analysis, info, sim_warnings = measure_probed(

@@ -31,10 +31,10 @@ from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.loop_result import BreakInfo, LoopResult
-from netloop.measure import METHODS, Sweep, ignored_lines, load_netlist, sample_loops
+from netloop.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe.differential import MODES, PairProbe, break_pair
-from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
 
 __all__ = ["COUPLING_THRESHOLD_DB", "Coupling", "PairResult", "measure_pair", "pair_job", "parse_pair"]
 
@@ -184,6 +184,7 @@ def measure_pair(
     label: str = "",
     timeout_s: float = 600.0,
     coupling_threshold_db: float = COUPLING_THRESHOLD_DB,
+    processes: int | None = None,
 ) -> PairResult:
     """Break the node pair ``pair`` ("outp,outn" or a tuple) and measure its differential- and common-mode loops.
 
@@ -206,7 +207,7 @@ def measure_pair(
         return {"differential": _mode_ratio(q.differential, method), "common": _mode_ratio(q.common, method)}
 
     own = simulator is None
-    sim = default_simulator(keep_dir=str(keep_decks) if keep_decks else None) if own else simulator
+    sim = own_simulator(processes, parsed, len(probe.runs), keep_decks) if own else simulator
     base = pair_job(probe, (), label=label, timeout_s=timeout_s)  # written once: every round shares its circuit_id
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:

@@ -23,6 +23,17 @@ def frequency(text: str) -> float:
     return value
 
 
+def process_count(text: str) -> int:
+    """An argparse type: a number of processes, 1 or more."""
+    try:
+        n = int(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"expected a whole number of processes, got {text!r}") from exc
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"expected 1 or more processes, got {n}")
+    return n
+
+
 def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...] = ("tian", "middlebrook"), driver: bool = True) -> None:
     """The options every measuring command shares (check, compare, demo); ``methods`` are the --method choices, ``driver`` adds --driver."""
     if driver:
@@ -34,6 +45,8 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
     parser.add_argument("--open-loop-rhp-poles", type=int, default=0, metavar="P", help="open-loop right-half-plane poles for the Nyquist verdict (default 0)")
     parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
+    parser.add_argument("--jobs", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
+                        "(default: one per excitation, up to the free CPUs, on netlists of 30000 elements or more; else 1)")
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
@@ -121,6 +134,7 @@ def run(args: argparse.Namespace) -> int:
         open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements,
         keep_decks=args.keep_decks,
+        processes=args.jobs,
     )
     if args.at and not args.at_pair:
         results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts

@@ -119,7 +119,7 @@ def run(args: argparse.Namespace) -> int:
     netlist = load_netlist(args.netlist)
     result = compare(
         netlist, nodes, drivers=drivers, method=args.method, sweep=sweep_from(args), open_loop_rhp_poles=args.open_loop_rhp_poles,
-        requirements=requirements, keep_decks=args.keep_decks,
+        requirements=requirements, keep_decks=args.keep_decks, processes=args.jobs,
     )
     if args.plot:
         report.plot_bode(list(result.results), args.plot)

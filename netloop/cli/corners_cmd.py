@@ -6,23 +6,15 @@ import argparse
 import json
 import sys
 
+from netloop.cli.check_cmd import process_count
+
 __all__ = ["add_parser", "run"]
-
-
-def _positive(text: str) -> int:
-    try:
-        n = int(text)
-    except ValueError as exc:
-        raise argparse.ArgumentTypeError(f"expected a whole number of worker processes, got {text!r}") from exc
-    if n < 1:
-        raise argparse.ArgumentTypeError(f"--jobs must be 1 or more, got {n}")
-    return n
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("plan", help="the corner plan (TOML); see the README section 'Corner plans'")
     where = parser.add_mutually_exclusive_group()
-    where.add_argument("--jobs", type=_positive, metavar="N", help="worker processes of the local Dask cluster (default: one per CPU)")
+    where.add_argument("--jobs", type=process_count, metavar="N", help="worker processes of the local Dask cluster (default: one per CPU)")
     where.add_argument("--cluster", metavar="ADDRESS", help="run on an existing Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local cluster")
     parser.add_argument("--out", metavar="FILE.jsonl", help="the results file, one JSON line per corner (default: PLAN.results.jsonl next to the plan)")
     again = parser.add_mutually_exclusive_group()

@@ -5,6 +5,7 @@ from netloop.netlist.devices import device_pin_roles, device_primitive, is_devic
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
 from netloop.netlist.reader import parse_file, parse_text
+from netloop.netlist.size import flat_element_count
 from netloop.netlist.values import parse_value
 from netloop.netlist.writer import write_netlist
 
@@ -19,6 +20,7 @@ __all__ = [
     "controlling_sources",
     "device_pin_roles",
     "device_primitive",
+    "flat_element_count",
     "is_device_subcircuit",
     "parse_file",
     "parse_text",

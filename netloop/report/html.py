@@ -126,7 +126,7 @@ def _breaks(r: LoopResult) -> list[dict]:
 def _simulation(r: LoopResult) -> list[dict]:
     s = r.sim
     return [
-        _kv("backend", s.backend),
+        _kv("backend", s.backend + (f", {s.processes} processes side by side" if s.processes > 1 else "")),
         _kv("frequency points", str(s.points)),
         _kv("refinement", f"{s.refinement_rounds} round(s); " + ("phase margin settled" if s.refined else "phase margin NOT settled"),
             "" if s.refined else "bad"),

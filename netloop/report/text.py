@@ -156,7 +156,7 @@ def _plain_text(result: LoopResult) -> str:
         *(_row(label, value) for label, value in closed_loop_phrases(a)),
         *_nyquist_lines(a),
         *_context_lines(result),
-        _row("simulation", f"{sim.backend}, {sim.points} points, {sim.refinement_rounds} refinement round(s)"
+        _row("simulation", f"{sim.backend}" + (f" ({sim.processes} processes)" if sim.processes > 1 else "") + f", {sim.points} points, {sim.refinement_rounds} refinement round(s)"
              + ("" if sim.refined else " (phase margin not settled)")
              + (f", convergence aid: {sim.convergence_aid}" if sim.convergence_aid else "")),
         f"caution: {result.caution}",

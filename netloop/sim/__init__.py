@@ -4,12 +4,14 @@ job         SimJob/AcRun/AcSweep in, SimResult/RunResult out; the Simulator prot
 shared      libngspice hosted in a worker process (timeouts, restarts)
 batch       ``ngspice -b`` on a rendered deck, results read from raw files
 analytic    a fake simulator from formulas, for testing the stages above without ngspice
+split       the runs of one job shared out to several simulators, run side by side
 rawfile     reader for ngspice's binary and ascii raw files
 library     where libngspice and the ngspice binary are
 """
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
 from typing import Literal
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
@@ -21,6 +23,7 @@ from netloop.sim.job import AcRun, AcSweep, RunResult, SimJob, SimResult, Simula
 from netloop.sim.library import find_libngspice, find_ngspice_binary
 from netloop.sim.rawfile import RawPlot, read_raw
 from netloop.sim.shared import SharedLibrarySimulator
+from netloop.sim.split import SplitRunsSimulator, processes_for
 
 __all__ = [
     "DEFAULT_OP_AIDS",
@@ -34,19 +37,33 @@ __all__ = [
     "SimJob",
     "SimResult",
     "Simulator",
+    "SplitRunsSimulator",
     "default_simulator",
     "find_libngspice",
     "find_ngspice_binary",
+    "processes_for",
     "read_raw",
     "sweep_frequencies",
 ]
 
 
-def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "shared", "batch"] = "auto") -> Simulator:
+def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "shared", "batch"] = "auto", processes: int = 1) -> Simulator:
     """The shared-library backend if libngspice loads, else batch mode, else SimulatorUnavailableError.
 
     ``backend`` picks one explicitly ("shared" or "batch"); ``keep_dir`` keeps every deck there.
+    ``processes`` > 1: that many ngspice processes, started side by side, share every job's runs
+    (a SplitRunsSimulator).
     """
+    if processes > 1:
+        with ThreadPoolExecutor(processes, thread_name_prefix="netloop-sim-start") as pool:
+            starting = [pool.submit(default_simulator, None, backend) for _ in range(processes)]
+        started = [s.result() for s in starting if s.exception() is None]
+        failed = [s.exception() for s in starting if s.exception() is not None]
+        if failed:
+            for sim in started:
+                sim.close()
+            raise failed[0]
+        return SplitRunsSimulator(started, keep_dir=keep_dir)
     if backend == "shared":
         simulator = SharedLibrarySimulator(keep_dir=keep_dir)
         simulator.start()

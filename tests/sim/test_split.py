@@ -1,0 +1,119 @@
+"""Runs shared out to several simulators give what one simulator running every run gives."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from sim_decks import NO_SOLUTION
+
+from netloop.errors import SimulationError
+from netloop.sim import AcRun, AcSweep, AnalyticSimulator, SharedLibrarySimulator, SimJob, SplitRunsSimulator, processes_for
+from netloop.sim import split as split_module
+from netloop.sim.split import SPLIT_MIN_ELEMENTS, split_runs
+
+SWEEPS = (AcSweep("dec", 5, 1e3, 1e6), AcSweep("lin", 4, 2e6, 3e6))
+
+
+def _response(freq_hz, ac):
+    """A vector that tells the runs apart: each source's AC magnitude weights a different power of f."""
+    return ac["va"] * (1 + 1j * freq_hz / 1e4) + ac["vb"] * 3 * (1 + 1j * freq_hz / 1e5) ** 2 + ac["vc"] * 7
+
+
+def _job(runs: int, op_voltages: bool = True) -> SimJob:
+    names = ("va", "vb", "vc")
+    acs = ({"va": 1.0}, {"vb": 1.0}, {"vc": 1.0}, {"va": 1.0, "vb": -1.0}, {"vb": 2.0, "vc": 1.0})
+    return SimJob("t\n", runs=tuple(AcRun(f"r{i}", acs[i], SWEEPS) for i in range(runs)), save=("v(x)",), excitable=names,
+                  op_voltages=op_voltages)
+
+
+@pytest.mark.parametrize(("runs", "groups"), [(2, 2), (4, 2), (5, 3), (3, 4), (1, 2)])
+def test_split_results_equal_one_simulator_in_run_order(runs, groups):
+    """Whatever the number of runs and simulators, the merged result has every run, in the job's order, equal to one
+    simulator's (the analytic fake's closed form is the reference)."""
+    job = _job(runs)
+    alone = AnalyticSimulator({"v(x)": _response}, {"x": 0.5}).run(job)
+    sims = [AnalyticSimulator({"v(x)": _response}, {"x": 0.5}) for _ in range(groups)]
+    merged = SplitRunsSimulator(sims).run(job)
+    assert [r.name for r in merged.runs] == [r.name for r in alone.runs]
+    for got, want in zip(merged.runs, alone.runs, strict=True):
+        np.testing.assert_array_equal(got.freq_hz, want.freq_hz)
+        np.testing.assert_array_equal(got.vectors["v(x)"], want.vectors["v(x)"])
+    assert merged.operating_point == {"x": 0.5}
+    used = [len(s.jobs) for s in sims]
+    assert sum(used) == min(groups, runs)  # one share per simulator that has runs, never an empty job
+    assert all(len(j.runs) >= 1 for s in sims for j in s.jobs)
+
+
+def test_only_the_first_share_asks_for_the_operating_point():
+    """The operating point is the same in every share, so the others are spared the separate op run."""
+    shares = split_runs(_job(4), 2)
+    assert [s.op_voltages for s in shares] == [True, False]
+    assert [s.op_voltages for s in split_runs(_job(4, op_voltages=False), 2)] == [False, False]
+    assert [[r.name for r in s.runs] for s in shares] == [["r0", "r2"], ["r1", "r3"]]
+
+
+def test_policy_splits_only_large_circuits_up_to_the_cpus(monkeypatch):
+    """Below the measured size one process; above it one a run, never more than the usable CPUs."""
+    monkeypatch.setattr(split_module, "usable_cpus", lambda: 2)
+    assert processes_for(SPLIT_MIN_ELEMENTS - 1, 2) == 1
+    assert processes_for(SPLIT_MIN_ELEMENTS, 2) == 2
+    assert processes_for(SPLIT_MIN_ELEMENTS, 4) == 2
+    monkeypatch.setattr(split_module, "usable_cpus", lambda: 1)
+    assert processes_for(10 * SPLIT_MIN_ELEMENTS, 2) == 1
+    monkeypatch.setattr(split_module, "usable_cpus", lambda: 8)
+    assert processes_for(SPLIT_MIN_ELEMENTS, 4) == 4
+
+
+LOOP = """two-run rc loop
+vs in 0 dc 1 ac 0
+e1 a 0 in fb 100
+r1 a b 1k
+c1 b 0 1n
+vprobe b out dc 0 ac 0
+iprobe 0 out dc 0 ac 0
+r2 out fb 1k
+c2 fb 0 10p
+"""
+
+
+def _probe_job() -> SimJob:
+    runs = (AcRun("series", {"vprobe": 1.0}, SWEEPS), AcRun("shunt", {"iprobe": 1.0}, SWEEPS))
+    return SimJob(LOOP, runs=runs, save=("v(b)", "v(out)", "i(vprobe)"), excitable=("vprobe", "iprobe"), circuit_id="split-test")
+
+
+@pytest.mark.ngspice
+def test_two_ngspice_processes_give_one_processs_vectors_exactly(shared_sim, tmp_path):
+    """Each excitation in its own ngspice gives bit for bit the vectors and operating point of one ngspice doing both,
+    over two rounds on the kept circuit; the kept deck is the whole job's, one per job."""
+    job = _probe_job()
+    alone = shared_sim.run(job)
+    keep = tmp_path / "decks"
+    with SplitRunsSimulator([SharedLibrarySimulator(), SharedLibrarySimulator()], keep_dir=str(keep)) as split:
+        both = split.run(job)
+        again = split.run(job)
+    for result in (both, again):
+        assert [r.name for r in result.runs] == ["series", "shunt"]
+        for got, want in zip(result.runs, alone.runs, strict=True):
+            np.testing.assert_array_equal(got.freq_hz, want.freq_hz)
+            for key in want.vectors:
+                np.testing.assert_array_equal(got.vectors[key], want.vectors[key])
+    assert both.operating_point == alone.operating_point and both.operating_point["out"] == pytest.approx(100 / 101, rel=1e-9)  # follower of DC gain 100: A/(1+A)
+    decks = sorted(keep.glob("*.cir"))
+    assert len(decks) == 2 and all(d == Path(both.deck_path) or d == Path(again.deck_path) for d in decks)
+    text = decks[0].read_text()
+    assert "alter vprobe" in text.lower() and "alter iprobe" in text.lower()  # both runs in the kept deck
+
+
+@pytest.mark.ngspice
+def test_a_failing_share_raises_ngspice_s_error_and_keeps_the_whole_deck(tmp_path):
+    """An operating point that fails in every share raises SimulationError with the whole job's deck kept in keep_dir."""
+    runs = (AcRun("a", {"v1": 1.0}, SWEEPS), AcRun("b", {"v1": 2.0}, SWEEPS))
+    job = SimJob(NO_SOLUTION, runs=runs, save=("v(n)",), excitable=("v1",), op_aids=("itl1=200",), timeout_s=60)
+    with SplitRunsSimulator([SharedLibrarySimulator(), SharedLibrarySimulator()], keep_dir=str(tmp_path)) as split:
+        with pytest.raises(SimulationError, match="operating point did not converge") as caught:
+            split.run(job)
+    kept = Path(caught.value.deck_path)
+    assert kept.parent == tmp_path
+    assert kept.read_text().lower().count("\nac ") == 2 * len(SWEEPS)  # both runs, every sweep
