@@ -5,8 +5,6 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import replace
-from itertools import chain
-from operator import attrgetter
 
 from netloop.errors import ProbeError, UnknownNodeError, in_netlist
 from netloop.netlist.location import SourceLocation
@@ -15,7 +13,7 @@ from netloop.netlist.reader import gc_paused
 from netloop.probe.loops import connectivity, loop_report
 from netloop.probe.records import ProbedNetlist, ProbeVectors
 from netloop.probe.rewrite import fresh_name, split_node
-from netloop.probe.scope import GROUND_NAMES, elements_of, resolve_node, walk_scopes
+from netloop.probe.scope import GROUND_NAMES, elements_of, resolve_node, scope_names, walk_scopes
 from netloop.probe.sides import ac_ground_nodes, decide_sides, terminals_at
 from netloop.probe.silence import silence_statements
 
@@ -110,10 +108,9 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> tuple[ProbedNetlist
         raise ProbeError(f"cannot break node {given}: it has one connection ({which}), so no loop passes through it")
     split = decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_)
 
-    elements = elements_of(netlist, scope)
-    local_nodes = set(chain.from_iterable(map(attrgetter("nodes"), elements)))
-    node_a = fresh_name(node + DRIVE_SUFFIX, local_nodes | ({*scope.definitions[-1].pins} if scope.definitions else set()))
-    names = set(map(str.lower, map(attrgetter("name"), elements)))  # every Element.key
+    local_nodes, element_keys = scope_names(netlist, scope)
+    node_a = fresh_name(node + DRIVE_SUFFIX, set(local_nodes))
+    names = set(element_keys)
     series = fresh_name(SERIES_NAME, names)
     shunt = fresh_name(SHUNT_NAME, names)
     first = split.driver[0].element.location

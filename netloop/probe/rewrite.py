@@ -38,21 +38,20 @@ def _with_model(e: Element, model: str) -> Element:
 
 def _split_body(body: tuple[Statement, ...], moves: dict[tuple[str, int], str], probe: tuple[Element, ...]) -> tuple[Statement, ...]:
     """Move the chosen (element, slot) terminals to the new node and add the probe after the last element."""
-    out: list[Statement] = []
-    last = -1
+    out = list(body)
     slots_of: dict[str, list[int]] = {}
     for key, k in moves:
         slots_of.setdefault(key, []).append(k)
-    for s in body:
-        if isinstance(s, Element):
+    last = -1
+    for i, s in enumerate(out):  # one pass over a body that may hold a million elements: keep it lean
+        if type(s) is Element:
+            last = i
             slots = slots_of.get(s.name.lower())  # s.key
             if slots:
                 nodes = list(s.nodes)
                 for k in slots:
                     nodes[k] = moves[(s.key, k)]
-                s = s.with_nodes(tuple(nodes))
-            last = len(out)
-        out.append(s)
+                out[i] = s.with_nodes(tuple(nodes))
     out[last + 1:last + 1] = probe
     return tuple(out)
 

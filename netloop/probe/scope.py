@@ -145,11 +145,28 @@ def flat_terminals(netlist: Netlist, globals_: frozenset[str]) -> Iterator[FlatT
             yield FlatTerminal(scope, e, k, pins[k] if k < len(pins) else str(k + 1), scope.flat(node, globals_))
 
 
-def _local_nodes(netlist: Netlist, scope: Scope) -> set[str]:
-    nodes = {n for e in elements_of(netlist, scope) for n in e.nodes}
+def scope_names(netlist: Netlist, scope: Scope) -> tuple[frozenset[str], frozenset[str]]:
+    """(every local node name, the definition's pins included; every element key) of a scope, in one
+    pass, kept on the netlist for the next caller (resolving a node and breaking it both need them)."""
+    cache_key = ("scope_names", scope.path, tuple(d.name for d in scope.definitions))
+    cached = netlist._index.get(cache_key)
+    if cached is not None and cached[0] is netlist.statements:  # a copy made with replace() may share _index
+        return cached[1], cached[2]
+    nodes: set[str] = set()
+    names: set[str] = set()
+    add_nodes, add_name = nodes.update, names.add
+    for e in elements_of(netlist, scope):
+        add_nodes(e.nodes)
+        add_name(e.name.lower())  # e.key
     if scope.definitions:
         nodes.update(scope.definitions[-1].pins)
-    return nodes
+    out = (frozenset(nodes), frozenset(names))
+    netlist._index[cache_key] = (netlist.statements, *out)
+    return out
+
+
+def _local_nodes(netlist: Netlist, scope: Scope) -> frozenset[str]:
+    return scope_names(netlist, scope)[0]
 
 
 def resolve_node(netlist: Netlist, at: str, globals_: frozenset[str]) -> tuple[Scope, str]:

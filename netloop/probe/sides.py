@@ -227,19 +227,23 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
         )
     if not loads and not shunt:
         raise ProbeError(f"node {name} has only driver terminals ({listing}); nothing is left for the load side: use driver= to choose")
-    controls: set[str] = set()
-    for d in drivers:
-        controls |= _controls(netlist, scope, d, globals_)
-    controls = {n for n in controls if scope.flat(n, globals_) not in ac_ground}
-    index = _passive_index(netlist, scope)
-    local = [t for t in loads if _local_feedback(scope, node, t, controls, index, ac_ground, globals_)]
     # Compensation around the driver stage (a Miller Cc/Rz) rides with the driver only while an active
     # input (a gate, base, controlling node or instance input) still loads the node: then that input
-    # closes the loop being measured. A purely passive feedback network stays on the load side.
-    if local and any(t.element.kind in _ACTIVE_LOADS for t in loads if t not in local):
-        loads = [t for t in loads if t not in local]
-    else:
-        local = []
+    # closes the loop being measured. A purely passive feedback network stays on the load side. (Only
+    # passive loads can be local, so without both kinds at the node the search, a pass over the whole
+    # scope, is skipped.)
+    local = []
+    if any(t.element.kind in _PASSIVE_PATH for t in loads) and any(t.element.kind in _ACTIVE_LOADS for t in loads):
+        controls: set[str] = set()
+        for d in drivers:
+            controls |= _controls(netlist, scope, d, globals_)
+        controls = {n for n in controls if scope.flat(n, globals_) not in ac_ground}
+        index = _passive_index(netlist, scope)
+        local = [t for t in loads if _local_feedback(scope, node, t, controls, index, ac_ground, globals_)]
+        if local and any(t.element.kind in _ACTIVE_LOADS for t in loads if t not in local):
+            loads = [t for t in loads if t not in local]
+        else:
+            local = []
     if through:
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these lead in one step from "
                  "a node that a drain, collector, controlled source or instance output drives)"]
