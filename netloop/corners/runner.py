@@ -19,7 +19,7 @@ from netloop.corners.progress import Progress
 from netloop.corners.worker import TaskOptions, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
 
-__all__ = ["CornerRun", "check_plan", "dask_client", "run_plan"]
+__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "local_cluster", "run_plan"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -114,7 +114,7 @@ _NO_DEFAULT_PORT = {"dashboard_address": "127.0.0.1:0"}
 @contextlib.contextmanager
 def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Iterator[object]:
     """A Dask client: to the scheduler at ``cluster``, or to a local cluster of ``jobs`` single-threaded worker processes."""
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
     with _quiet():
         if cluster:
@@ -127,15 +127,44 @@ def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Itera
             finally:
                 client.close()
             return
-        n = jobs or os.cpu_count() or 1
-        local = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
+        with local_cluster(jobs or os.cpu_count() or 1) as local:
+            client = Client(local)
+            try:
+                yield client
+            finally:
+                client.close()
+
+
+# What a local cluster without a dashboard does not need, and what it costs: every worker samples its
+# own stack every 10 ms (for the dashboard's profile page), every process measures its event loop's
+# lag every 20 ms and its CPU and memory every 0.5 s. On two CPUs running two corners at once those
+# take time from the corners (benchmarks/corners_scaling.py); an idle 2-worker cluster went from
+# about 6.5 % to 2.5 % of a CPU without them.
+# And the scheduler sends every corner to a worker at once rather than one at a time (queuing, the
+# default, makes each worker wait a round trip to the scheduler between two corners: 16 trivial tasks
+# on 2 workers took 27 ms with it and 13-19 ms without); work stealing still evens out the workers.
+LOCAL_CLUSTER_CONFIG = {
+    "distributed.worker.profile.enabled": False,
+    "distributed.admin.tick.interval": "1s",
+    "distributed.admin.system-monitor.interval": "5s",
+    "distributed.scheduler.worker-saturation": float("inf"),
+}
+
+
+@contextlib.contextmanager
+def local_cluster(workers: int) -> Iterator[object]:
+    """A Dask LocalCluster of ``workers`` single-threaded worker processes on 127.0.0.1, set up for
+    corners (no dashboard, none of its sampling; the workers inherit the settings)."""
+    import dask
+    from distributed import LocalCluster
+
+    with dask.config.set(LOCAL_CLUSTER_CONFIG):
+        local = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
                              dashboard_address=None, scheduler_kwargs=dict(_NO_DEFAULT_PORT), silence_logs=logging.ERROR)
-        client = Client(local)
-        try:
-            yield client
-        finally:
-            client.close()
-            local.close()
+    try:
+        yield local
+    finally:
+        local.close()
 
 
 def _options(plan: Plan) -> TaskOptions:
@@ -204,7 +233,9 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
         workers = len(client.scheduler_info().get("workers", {}))
         run_id = uuid.uuid4().hex[:8]  # two runs on one scheduler never share a task
-        futures = {client.submit(run_task, t, options, key=f"netloop-corner-{t.key}-{run_id}", pure=False): t for t in pending}
+        # one message to the scheduler for every corner (a submit each costs a round trip of its own)
+        keys = [f"netloop-corner-{t.key}-{run_id}" for t in pending]
+        futures = dict(zip(client.map(run_task, pending, options=options, key=keys, pure=False), pending, strict=True))
         # the futures that finished together are fetched in one round trip to the scheduler
         for batch in as_completed(futures).batches():
             for future, records in _fetch(client, batch):

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import logging
 import os
 import shutil
 import signal
@@ -17,6 +16,7 @@ import pytest
 
 from netloop.cli.main import main
 from netloop.corners import load_plan, read_records, run_plan
+from netloop.corners.runner import LOCAL_CLUSTER_CONFIG, local_cluster
 from netloop.measure import measure
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -42,15 +42,24 @@ supply.vdd = 1e30
 
 @pytest.fixture(scope="module")
 def scheduler():
-    """A real Dask scheduler with two single-threaded worker processes on 127.0.0.1, shared by this module."""
-    from distributed import LocalCluster
-
-    cluster = LocalCluster(host="127.0.0.1", n_workers=2, threads_per_worker=1, processes=True,
-                           dashboard_address=None, scheduler_kwargs={"dashboard_address": "127.0.0.1:0"}, silence_logs=logging.ERROR)
-    try:
+    """A real Dask scheduler with two single-threaded worker processes on 127.0.0.1 (as `netloop corners --jobs 2`
+    starts them), shared by this module."""
+    with local_cluster(2) as cluster:
         yield cluster.scheduler_address
-    finally:
-        cluster.close()
+
+
+def test_local_cluster_workers_carry_the_corner_settings(scheduler):
+    """The workers of netloop's local cluster run with LOCAL_CLUSTER_CONFIG (no stack sampling, slow monitors), and
+    the scheduler sends every corner at once, while this process's own Dask settings stay as they were."""
+    import dask
+    from distributed import Client
+
+    with Client(scheduler) as client:
+        seen = client.run(lambda: {k: dask.config.get(k) for k in LOCAL_CLUSTER_CONFIG})
+        on_scheduler = client.run_on_scheduler(lambda dask_scheduler: dask_scheduler.WORKER_SATURATION)
+    assert len(seen) == 2 and all(v == LOCAL_CLUSTER_CONFIG for v in seen.values())
+    assert on_scheduler == float("inf")
+    assert dask.config.get("distributed.worker.profile.enabled") is True  # dask's default, untouched here
 
 
 def _hand_edited(tmp_path: Path, section: str, temp: str) -> Path:
