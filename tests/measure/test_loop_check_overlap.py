@@ -40,12 +40,14 @@ def test_node_on_no_loop_raises_the_probe_refusal_not_the_simulation_error():
 
 
 @pytest.mark.ngspice
-def test_node_on_no_loop_with_the_default_simulator():
-    """With netloop's own ngspice simulator a node on no loop is refused with break_loop's message (the running job is abandoned)."""
+@pytest.mark.parametrize("processes", [1, 2])
+def test_node_on_no_loop_with_the_default_simulator(processes):
+    """With netloop's own ngspice simulator, one process or two sharing the runs, a node on no loop is refused with
+    break_loop's message (the running job is abandoned in every process)."""
     with pytest.raises(ProbeError) as direct:
         break_loop(parse_text(OPEN_CHAIN), "b")  # Reference: the one-step break_loop
     with pytest.raises(ProbeError) as caught:
-        measure(OPEN_CHAIN, "b")
+        measure(OPEN_CHAIN, "b", processes=processes)
     assert str(caught.value) == str(direct.value)
 
 
