@@ -303,7 +303,7 @@ def _place(p: ProbedNetlist, found: LoopDiscovery, original: FlatCircuit) -> _Pl
 
 
 def _loop_names(group: LoopGroup, numbers: Iterable[int]) -> tuple[str, ...]:
-    return tuple(f"loop {group.index}.{k}: {group.loops[k - 1].describe()}" for k in numbers)
+    return tuple(f"loop {group.index}.{k}: {group.loops[k - 1].describe(16)}" for k in numbers)
 
 
 def _listing(group: LoopGroup, numbers: tuple[int, ...]) -> str:

@@ -124,7 +124,7 @@ def opened_circuit_rhp_poles(result: LoopResult) -> int | None:
 
 
 def _closed_note(group: LoopGroup, node: str, left: tuple[int, ...]) -> str:
-    shown = "; ".join(f"loop {group.index}.{k}: {group.loops[k - 1].describe()}" for k in left[:3])
+    shown = "; ".join(f"loop {group.index}.{k}: {group.loops[k - 1].describe(16)}" for k in left[:3])
     more = f" and {len(left) - 3} more" if len(left) > 3 else ""
     return (f"loop {group.index}: breaking {node} leaves {len(left)} of its loops closed ({shown}{more}); "
             "the opened circuit may itself be unstable, so P (its right-half-plane poles) may be nonzero: read the Nyquist count with care")

@@ -72,6 +72,17 @@ def discovery_document(source: str, found) -> dict:
     }
 
 
+TEXT_NODES = 24  # names listed in the text before the rest are counted (--json lists every one)
+TEXT_STEPS = 16  # steps of a loop shown in the text
+
+
+def _listed(names, most: int = TEXT_NODES) -> str:
+    """``a, b, c`` or, for a long list, its first names and how many more."""
+    if len(names) <= most:
+        return ", ".join(names)
+    return f"{len(names)} nodes: {', '.join(names[:most])}, ... and {len(names) - most} more (--json lists them all)"
+
+
 def format_discovery(source: str, found, candidates: int = 5) -> str:
     """The text listing: each group, its loops, its best break nodes with the reason."""
     n = len(found.groups)
@@ -80,8 +91,8 @@ def format_discovery(source: str, found, candidates: int = 5) -> str:
         lines.append("no signal path leads from a node back to itself without passing through ground or a supply")
     for g in found.groups:
         more = " (capped: more exist)" if g.capped else ""
-        lines += ["", f"{g.label}: {len(g.loops)} loop{'s' if len(g.loops) != 1 else ''}{more} through {', '.join(g.nodes)}"]
-        lines += [f"  {g.index}.{k}  {lp.describe()}" for k, lp in enumerate(g.loops, 1)]
+        lines += ["", f"{g.label}: {len(g.loops)} loop{'s' if len(g.loops) != 1 else ''}{more} through {_listed(g.nodes)}"]
+        lines += [f"  {g.index}.{k}  {lp.describe(TEXT_STEPS)}" for k, lp in enumerate(g.loops, 1)]
         lines.append("  break candidates:")
         for c in g.candidates[:candidates]:
             unchecked = "" if c.split_checked else " [loop structure only: the probe's split here was not worked out (--split-checks)]"

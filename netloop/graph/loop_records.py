@@ -45,10 +45,20 @@ class Loop:
     def active_steps(self) -> int:
         return sum(1 for s in self.steps if not s.passive)
 
-    def describe(self) -> str:
-        """``out -m1(g>d)-> d1 -m4(g>d)-> o1 -m6(g>d)-> out``."""
-        parts = [self.steps[0].source]
-        for s in self.steps:
+    def describe(self, most: int | None = None) -> str:
+        """``out -m1(g>d)-> d1 -m4(g>d)-> o1 -m6(g>d)-> out``.
+
+        With ``most``, a loop of more steps than that (one through a parasitic RC network may have
+        tens of thousands) shows its first and last ``most // 2`` steps around ``... N more steps ...``.
+        """
+        steps = self.steps
+        if most is not None and len(steps) > max(most, 2):
+            head, tail = steps[: max(most // 2, 1)], steps[-max(most // 2, 1):]
+            left = " ".join(part for s in head for part in (s.describe(), s.target))
+            right = " ".join(part for s in tail for part in (s.describe(), s.target))
+            return f"{steps[0].source} {left} ... {len(steps) - len(head) - len(tail)} more steps ... {tail[0].source} {right}"
+        parts = [steps[0].source]
+        for s in steps:
             parts += [s.describe(), s.target]
         return " ".join(parts)
 
