@@ -1,0 +1,48 @@
+"""The closed-loop pole fit keeps real poles and conjugate pairs, and sets aside lone complex poles of noisy data."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from netloop.analysis.poles import _conjugate_pairs, closed_loop_poles
+
+DATA = Path(__file__).parent / "data" / "rc_ladder_100k_T.csv"
+
+
+def test_lone_complex_poles_are_set_aside_and_pairs_kept():
+    """A real pole, a conjugate pair and a lone complex pole: the lone one goes, and is counted."""
+    kept, lone = _conjugate_pairs(np.array([-1.0 + 0j, -1 + 2j, -1 - 2j, 3 + 5j]))
+    assert sorted(kept, key=lambda p: p.imag) == [-1 - 2j, -1.0 + 0j, -1 + 2j] and lone == 1
+
+
+@pytest.mark.parametrize("noise", [1e-3, 1e-2])
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_noisy_one_pole_loop_keeps_its_one_closed_loop_pole(noise, seed):
+    """T = K/(1 + s/w1) with relative noise up to 1e-2: the fit gives the one real closed-loop pole at -(1 + K) w1
+    (circuit theory: the root of 1 + T), within the noise, and no right-half-plane pole."""
+    k, w1 = 1000.0, 2 * math.pi * 1e5
+    f = np.logspace(-2, 10, 121)
+    rng = np.random.default_rng(seed)
+    t = k / (1 + 2j * math.pi * f / w1) * (1 + noise * (rng.standard_normal(f.size) + 1j * rng.standard_normal(f.size)))
+    poles, _ = closed_loop_poles(f, t, nyquist_rhp=0)
+    assert poles.rhp_count == 0 and poles.agrees_with_nyquist
+    (p,) = poles.poles_rad_s
+    assert p.real == pytest.approx(-(1 + k) * w1, rel=20 * noise)
+    assert abs(p.imag) <= 20 * noise * abs(p)
+
+
+def test_ngspice_data_of_a_100k_rc_ladder_loop_gives_its_closed_loop_pole_and_no_false_rhp_pair():
+    """On T measured through ngspice (numerical noise of a 100k-node matrix at the top of the sweep) the fit's lone
+    complex poles are set aside with a note, leaving the closed-loop pole of the circuit's closed form,
+    (1 + 1000) / (2 pi 1k 1.59n) = 100.2 MHz, and agreement with the Nyquist count."""
+    data = np.genfromtxt(DATA, delimiter=",", names=True, skip_header=2)  # two lines say where the data come from
+    poles, notes = closed_loop_poles(data["freq_hz"], data["re"] + 1j * data["im"], nyquist_rhp=0)
+    assert poles.rhp_count == 0 and poles.agrees_with_nyquist
+    (p,) = poles.poles_rad_s
+    expected_hz = 1001 / (2 * math.pi * 1e3 * 1.59e-9)  # circuit theory: one-pole loop of gain 1000
+    assert -p.real / (2 * math.pi) == pytest.approx(expected_hz, rel=1e-3)
+    assert any("without a complex-conjugate partner" in n for n in notes)
