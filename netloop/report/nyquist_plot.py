@@ -155,7 +155,7 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
 
     rs = as_results(results)
     single = len(rs) == 1
-    fig = new_figure(8.0, 9.0)
+    fig = new_figure(8.0, 9.6)  # a square plot, then the axis note and a legend of up to four rows under it
     ax = fig.subplots()
     curves = [compress_radius(_smooth(r)) for r in rs]
     radius = max(1.25, max(float(np.max(np.abs(z))) for z in curves) * 1.06)
@@ -206,7 +206,9 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
     ax.tick_params(labelsize=9)
     ax.set_xlabel("Re T   (radius compressed beyond |T| = 1: drawn at 1 + log10|T| / 2, rings give the true |T|)", fontsize=8.5)
     ax.set_ylabel("Im T   (same compressed radius)", fontsize=8.5)
-    ax.legend(handles=handles, fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.075), ncols=2, framealpha=0.9)
+    # "outside": the constrained layout makes room for the legend under the axes (an axes legend anchored
+    # below them was cut off by the figure's edge once it grew to three rows)
+    fig.legend(handles=handles, fontsize=8, loc="outside lower center", ncols=2, framealpha=0.9)
     if single:
         ax.text(0.015, 0.985, _verdict(rs[0]), transform=ax.transAxes, ha="left", va="top", fontsize=8.5,
                 bbox={"boxstyle": "round,pad=0.3", "facecolor": "#f7f7f7", "edgecolor": "#cccccc"}, zorder=9)
