@@ -96,3 +96,27 @@ def test_unwritable_paths_are_one_clear_error(tmp_path, stable_result):
         with pytest.raises(OutputError, match=rf"cannot write the .* to '.*{name}'"):
             write(stable_result, missing / name)
     assert not missing.exists()
+
+
+def test_every_label_and_legend_lies_inside_the_figure_without_overlap(stable_result, conditional_result):
+    """Drawn on matplotlib's own renderer, each figure's legend, titles and axis labels lie inside the figure, and the
+    Nyquist legend (up to four rows for a conditionally stable loop) overlaps neither the axes nor their label."""
+    for result in (stable_result, conditional_result, [stable_result, conditional_result]):
+        for make in (bode_figure, nyquist_figure):
+            fig = make(result)
+            from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415 - the renderer the PNGs come from
+
+            renderer = FigureCanvasAgg(fig).get_renderer()
+            fig.draw(renderer)
+            box = fig.bbox
+            legends = [*fig.legends, *(ax.get_legend() for ax in fig.axes if ax.get_legend() is not None)]
+            labels = [ax.xaxis.label for ax in fig.axes if ax.get_xlabel()]
+            for artist in (*legends, *labels, fig._suptitle):
+                extent = artist.get_window_extent(renderer)
+                assert box.x0 - 1 <= extent.x0 and extent.x1 <= box.x1 + 1 and box.y0 - 1 <= extent.y0 and extent.y1 <= box.y1 + 1, (
+                    make.__name__, artist)
+            if make is nyquist_figure:
+                (legend,) = fig.legends
+                extent = legend.get_window_extent(renderer)
+                for other in (fig.axes[0].get_window_extent(renderer), fig.axes[0].xaxis.label.get_window_extent(renderer)):
+                    assert not extent.overlaps(other), make.__name__
