@@ -46,7 +46,7 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
     parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
     parser.add_argument("--jobs", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
-                        "(default: one per excitation, up to the free CPUs, on netlists of 30000 elements or more; else 1)")
+                        "(default: one per excitation, up to the free CPUs and at most 4, on netlists of 30000 elements or more; else 1)")
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:

@@ -19,7 +19,7 @@ from netloop.sim.convergence import aid_ladder
 from netloop.sim.job import SimJob, SimResult, Simulator
 from netloop.sim.keep import keep_deck, runnable_deck
 
-__all__ = ["SPLIT_MIN_ELEMENTS", "SplitRunsSimulator", "processes_for", "split_runs", "usable_cpus"]
+__all__ = ["MAX_AUTO_PROCESSES", "SPLIT_MIN_ELEMENTS", "SplitRunsSimulator", "processes_for", "split_runs", "usable_cpus"]
 
 # Below this many elements a second ngspice's fixed costs (its start, its own load of the deck) eat
 # what it saves. `netloop check --at out` on benchmarks/check_speed.py's RC-ladder loop, 2 CPUs,
@@ -36,12 +36,17 @@ def usable_cpus() -> int:
         return os.cpu_count() or 1
 
 
+# Each process holds the whole circuit: on a many-core machine a comparison of many locations
+# would otherwise start one ngspice a run, each with its own copy of a large netlist.
+MAX_AUTO_PROCESSES = 4
+
+
 def processes_for(elements: int, runs: int) -> int:
     """How many ngspice processes should share a job of ``runs`` runs on a circuit of ``elements``
-    elements: one a run up to the usable CPUs on a large circuit, else one."""
+    elements: one a run, up to the usable CPUs and MAX_AUTO_PROCESSES, on a large circuit; else one."""
     if elements < SPLIT_MIN_ELEMENTS:
         return 1
-    return max(1, min(usable_cpus(), runs))
+    return max(1, min(usable_cpus(), runs, MAX_AUTO_PROCESSES))
 
 
 def split_runs(job: SimJob, groups: int) -> tuple[SimJob, ...]:

@@ -11,7 +11,7 @@ from sim_decks import NO_SOLUTION
 from netloop.errors import SimulationError
 from netloop.sim import AcRun, AcSweep, AnalyticSimulator, SharedLibrarySimulator, SimJob, SplitRunsSimulator, processes_for
 from netloop.sim import split as split_module
-from netloop.sim.split import SPLIT_MIN_ELEMENTS, split_runs
+from netloop.sim.split import MAX_AUTO_PROCESSES, SPLIT_MIN_ELEMENTS, split_runs
 
 SWEEPS = (AcSweep("dec", 5, 1e3, 1e6), AcSweep("lin", 4, 2e6, 3e6))
 
@@ -55,7 +55,7 @@ def test_only_the_first_share_asks_for_the_operating_point():
 
 
 def test_policy_splits_only_large_circuits_up_to_the_cpus(monkeypatch):
-    """Below the measured size one process; above it one a run, never more than the usable CPUs."""
+    """Below the measured size one process; above it one a run, never more than the usable CPUs or MAX_AUTO_PROCESSES."""
     monkeypatch.setattr(split_module, "usable_cpus", lambda: 2)
     assert processes_for(SPLIT_MIN_ELEMENTS - 1, 2) == 1
     assert processes_for(SPLIT_MIN_ELEMENTS, 2) == 2
@@ -64,6 +64,7 @@ def test_policy_splits_only_large_circuits_up_to_the_cpus(monkeypatch):
     assert processes_for(10 * SPLIT_MIN_ELEMENTS, 2) == 1
     monkeypatch.setattr(split_module, "usable_cpus", lambda: 8)
     assert processes_for(SPLIT_MIN_ELEMENTS, 4) == 4
+    assert processes_for(SPLIT_MIN_ELEMENTS, 16) == MAX_AUTO_PROCESSES  # one circuit a process: memory bounds it
 
 
 LOOP = """two-run rc loop
