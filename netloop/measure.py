@@ -256,8 +256,9 @@ def sample_loops(
         f2, t2 = runner.evaluate(tuple(more))
         f, t = _merge_all(f, t, f2, t2)
 
-    def analyse_all(fit: bool) -> dict[str, LoopAnalysis]:
-        return {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], fit_poles=fit) for name in t}
+    def analyse_all(final: bool) -> dict[str, LoopAnalysis]:
+        """Every loop's analysis: a draft between rounds (crossovers and margins), the whole of it at the end."""
+        return {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
 
     analyses = analyse_all(False)
     active = [name for name, a in analyses.items() if a.gain_crossovers] if sweep.refine else []

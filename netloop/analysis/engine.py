@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from netloop.analysis.closed_loop import closed_loop_peaking, modulus_margin
@@ -10,7 +12,7 @@ from netloop.analysis.margins import summarise_margins
 from netloop.analysis.nyquist import nyquist_verdict
 from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles
 from netloop.analysis.response import Response
-from netloop.analysis.results import LoopAnalysis
+from netloop.analysis.results import LoopAnalysis, Peaking
 from netloop.analysis.second_order import second_order_estimate
 from netloop.errors import AnalysisError
 
@@ -34,6 +36,7 @@ def analyse(
     floor_db: float = DEFAULT_FLOOR_DB,
     fit_poles: bool = True,
     pole_fit_rtol: float = DEFAULT_RTOL,
+    draft: bool = False,
 ) -> LoopAnalysis:
     """Analyse the loop whose return ratio T was sampled at freq_hz (Hz, ascending, positive).
 
@@ -43,6 +46,9 @@ def analyse(
                          are ignored and counted.
     fit_poles            also fit the closed-loop poles (AAA on 1/(1+T)); a second verdict.
     pole_fit_rtol        relative tolerance of that fit.
+    draft                only what a refinement round reads: every crossover, the margins and the
+                         Nyquist verdict; the modulus margin and peaking are NaN, with no estimate
+                         and no poles (about a third of the time). Never for a report.
 
     Outcomes worth knowing (each pinned by a test):
     * |T| < 1 everywhere: regulates is False ("does not regulate"), no gain crossover, phase
@@ -85,13 +91,16 @@ def analyse(
             f"{len(ignored)} phase crossover(s) below the numerical floor ({floor_abs_db:.4g} dB) ignored: the phase is noise there"
         )
 
-    mm = modulus_margin(resp)
-    margins = summarise_margins(gains, phases, nyquist.stable, mm)
-    peaking = closed_loop_peaking(resp)
-    second = second_order_estimate(margins.phase_margin_deg)
+    if draft:
+        margins = summarise_margins(gains, phases, nyquist.stable, (math.nan, math.nan))
+        peaking, second = Peaking(math.nan, math.nan, math.nan, math.nan), None
+    else:
+        margins = summarise_margins(gains, phases, nyquist.stable, modulus_margin(resp))
+        peaking = closed_loop_peaking(resp)
+        second = second_order_estimate(margins.phase_margin_deg)
 
     poles = None
-    if fit_poles:
+    if fit_poles and not draft:
         poles, notes = closed_loop_poles(resp.freq_hz, resp.t, nyquist.closed_loop_rhp_poles, pole_fit_rtol)
         warnings.extend(notes)
 

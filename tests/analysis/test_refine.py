@@ -68,3 +68,21 @@ def test_evaluate_returning_the_wrong_length_is_an_analysis_error():
     f, t = sample(RESONANT, 1e-3, 1e3, per_decade=5)
     with pytest.raises(AnalysisError, match="expected one T per frequency"):
         refine(lambda fr: np.ones(3, dtype=complex), f, t)
+
+
+def test_a_draft_analysis_has_every_crossover_and_margin_of_the_whole_one():
+    """What a refinement round reads (crossovers, phase and gain margins, Nyquist verdict) is the same in a draft as in
+    the whole analysis, on a resonant loop and on a conditionally stable one; only the modulus margin and peaking are
+    left out (NaN) and no poles are fitted."""
+    conditional = 1e4 * (S / 10 + 1) ** 2 / ((S + 1e-3) * (S / 0.1 + 1) * (S / 1 + 1) * (S / 100 + 1) ** 2)  # our own shape
+    for loop in (RESONANT, conditional):
+        f, t = sample(loop, 1e-5, 1e5, per_decade=10)
+        whole, draft = analyse(f, t), analyse(f, t, draft=True)
+        if loop is conditional:
+            assert len(whole.phase_crossovers) == 3 and whole.margins.lower_gain_margin_db is not None  # the case is what it claims
+        assert draft.gain_crossovers == whole.gain_crossovers and draft.phase_crossovers == whole.phase_crossovers
+        assert draft.nyquist == whole.nyquist
+        for field in ("phase_margin_deg", "unity_gain_hz", "gain_margin_db", "lower_gain_margin_db", "delay_margin_s"):
+            assert getattr(draft.margins, field) == getattr(whole.margins, field), field
+        assert np.isnan(draft.margins.modulus_margin) and np.isnan(draft.peaking.peak_db)
+        assert draft.poles is None and whole.poles is not None
