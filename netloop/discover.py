@@ -15,8 +15,9 @@ from netloop.loop_result import LoopResult
 from netloop.measure import load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
 from netloop.netlist.model import Element
-from netloop.probe.scope import Scope, child_scope, elements_of, resolve_node
-from netloop.probe.sides import ac_ground_nodes, decide_sides, terminals_at
+from netloop.probe.breaking import locate_split
+from netloop.probe.scope import Scope, child_scope, elements_of
+from netloop.probe.sides import ac_ground_nodes
 
 __all__ = ["DEFAULT_SPLIT_CHECKS", "discover_loops", "measure_all_loops", "node_split", "opened_circuit_rhp_poles", "probe_splits"]
 
@@ -56,14 +57,7 @@ def node_split(netlist: Netlist, circuit: FlatCircuit, node: str, *, driver: str
     if ac_ground is None:
         ac_ground = ac_ground_nodes(netlist, globals_)
     try:
-        # the steps of break_loop up to its side decision (netloop/probe/breaking.py)
-        scope, local = resolve_node(netlist, node, globals_)
-        if scope.flat(local, globals_) in ac_ground:
-            raise ProbeError(f"cannot break node {node}: it is AC ground or a supply")
-        terminals = terminals_at(netlist, scope, local, ac_ground, globals_)
-        if len(terminals) < 2:
-            raise ProbeError(f"cannot break node {node}: it has one connection, so no loop passes through it")
-        split = decide_sides(netlist, scope, local, terminals, driver, ac_ground, globals_)
+        scope, _, split = locate_split(netlist, node, driver=driver, ac_ground=ac_ground)  # break_loop's own steps
     except NetloopError as exc:
         return NodeSplit(node, refused=str(exc))
     sides: dict[tuple[str, str], str] = {}

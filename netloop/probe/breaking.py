@@ -9,15 +9,16 @@ from dataclasses import replace
 from netloop.errors import ProbeError, UnknownNodeError, in_netlist
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Element, Netlist, Subcircuit
+from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.reader import gc_paused
 from netloop.probe.loops import connectivity, loop_report
 from netloop.probe.records import ProbedNetlist, ProbeVectors
 from netloop.probe.rewrite import fresh_name, split_node
-from netloop.probe.scope import GROUND_NAMES, elements_of, resolve_node, scope_names, walk_scopes
-from netloop.probe.sides import ac_ground_nodes, decide_sides, terminals_at
+from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, resolve_node, scope_names, walk_scopes
+from netloop.probe.sides import Split, Terminal, ac_ground_nodes, decide_sides, terminals_at
 from netloop.probe.silence import silence_statements
 
-__all__ = ["break_loop", "split_loop"]
+__all__ = ["break_loop", "locate_split", "split_loop"]
 
 SERIES_NAME = "vnl_series"
 SHUNT_NAME = "inl_shunt"
@@ -94,19 +95,49 @@ def _located(netlist: Netlist) -> Iterator[None]:
         raise located from exc
 
 
-def _break(netlist: Netlist, at: str, driver: str | None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
+def _into_instance(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], ac_ground, globals_) -> tuple:
+    """A net whose only connection in its scope is one instance's pin is broken inside that instance, on
+    the pin's net there (and deeper while that holds): its loop closes inside. Else nothing changes."""
+    while len(terminals) == 1 and terminals[0].element.kind == "X":
+        child = child_scope(netlist, scope, terminals[0].element, globals_)
+        if child is None or is_device_subcircuit(child.definitions[-1]):
+            break
+        inner = child.definitions[-1].pins[terminals[0].slot]
+        inside = terminals_at(netlist, child, inner, ac_ground, globals_)
+        if not inside:
+            break
+        scope, node, terminals = child, inner, inside
+    return scope, node, terminals
+
+
+def locate_split(netlist: Netlist, at: str, *, driver: str | None = None, ac_ground: frozenset[str] | None = None) -> tuple[Scope, str, Split]:
+    """Where break_loop splits node ``at`` and how: (its scope, its name there, the split into sides).
+
+    Raises break_loop's refusals (unknown node, AC ground or a supply, one connection, no driver).
+    Loop discovery calls it to state what a break would open without building the netlist.
+    ``ac_ground`` (netloop.probe.sides.ac_ground_nodes of the netlist) may be given to save a pass.
+    """
     given = at.strip().lower()
     globals_ = frozenset(netlist.globals)
     scope, node = resolve_node(netlist, given, globals_)
-    ac_ground = ac_ground_nodes(netlist, globals_)
+    if ac_ground is None:
+        ac_ground = ac_ground_nodes(netlist, globals_)
     flat = scope.flat(node, globals_)
     if flat in ac_ground:
         raise ProbeError(f"cannot break node {given}: {_tied_by(netlist, flat, globals_)}, so it is AC ground or a supply, not a loop node")
     terminals = terminals_at(netlist, scope, node, ac_ground, globals_)
+    scope, node, terminals = _into_instance(netlist, scope, node, terminals, ac_ground, globals_)
     if len(terminals) < 2:
         which = terminals[0].label if terminals else "nothing"
         raise ProbeError(f"cannot break node {given}: it has one connection ({which}), so no loop passes through it")
-    split = decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_)
+    return scope, node, decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_)
+
+
+def _break(netlist: Netlist, at: str, driver: str | None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
+    given = at.strip().lower()
+    globals_ = frozenset(netlist.globals)
+    ac_ground = ac_ground_nodes(netlist, globals_)
+    scope, node, split = locate_split(netlist, given, driver=driver, ac_ground=ac_ground)
 
     local_nodes, element_keys = scope_names(netlist, scope)
     node_a = fresh_name(node + DRIVE_SUFFIX, set(local_nodes))
