@@ -121,6 +121,9 @@ class SharedLibrarySimulator(NgspiceBackend):
         self.startup_timeout_s = startup_timeout_s
         self._holder: dict = {}
         self._abandoned: _Worker | None = None  # the worker abort() stopped in the middle of a job
+        self._jobs: set[object] = set()  # a token for each job in run(), running or waiting for the lock
+        self._aborted: set[object] = set()  # the tokens of the jobs abort() was called for
+        self._jobs_lock = threading.Lock()
         self._lock = threading.Lock()
         self._finalizer = weakref.finalize(self, _stop_worker, self._holder)
 
@@ -138,7 +141,7 @@ class SharedLibrarySimulator(NgspiceBackend):
 
     def _worker(self) -> _Worker:
         worker = self._holder.get("worker")
-        if worker is None or not worker.alive():
+        if worker is None or worker is self._abandoned or not worker.alive():  # killed by abort(): maybe not reaped yet
             if worker is not None:
                 _stop_worker(self._holder)
             self._holder["worker"] = _Worker(self.library_path, self.startup_timeout_s)
@@ -151,48 +154,71 @@ class SharedLibrarySimulator(NgspiceBackend):
 
     def abort(self) -> None:
         """Stop the job that another thread is running, at once: its ``run`` raises SimulationError
-        (keeping no deck) and the next job starts a fresh worker. Does nothing when no worker runs."""
+        (keeping no deck) and the next job starts a fresh worker. Does nothing when no job runs.
+
+        A job counts from the moment its ``run`` is called, before its worker has it: an abort then
+        (the worker being started, the request not yet written) abandons it too.
+        """
+        with self._jobs_lock:
+            self._aborted |= self._jobs
         worker = self._holder.get("worker")
         if worker is not None and worker.alive():
             self._abandoned = worker
             worker.process.kill()
 
+    def _abandoned_error(self, job: SimJob) -> SimulationError:
+        _stop_worker(self._holder)
+        return SimulationError("the job was abandoned (abort)", corner=job.label or None)
+
     def run(self, job: SimJob) -> SimResult:
         self.refuse_malformed(job)
         job = _portable(job)
-        with self._lock:
-            worker = self._worker()
-            try:
-                reply = worker.call(("run", job), job.timeout_s)
-            except FrameTimeout as exc:
-                _stop_worker(self._holder)
-                deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
-                raise SimulationError(
-                    f"ngspice did not finish within the timeout of {job.timeout_s:g} s; the worker was stopped "
-                    "and is restarted for the next job",
-                    deck_path=deck,
-                    corner=job.label or None,
-                ) from exc
-            except (WorkerGone, BrokenPipeError, OSError) as exc:
-                if worker is self._abandoned:
-                    _stop_worker(self._holder)
-                    raise SimulationError("the job was abandoned (abort)", corner=job.label or None) from exc
-                log_tail = worker.log_tail()
-                _stop_worker(self._holder)
-                deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
-                raise SimulationError(
-                    "the ngspice worker process died during the job (it is restarted for the next job)"
-                    + (f"; its last output: {log_tail}" if log_tail else ""),
-                    deck_path=deck,
-                    simulator_output=log_tail,
-                    corner=job.label or None,
-                ) from exc
-            except BaseException:
-                _stop_worker(self._holder)  # e.g. KeyboardInterrupt: a reply may still come; never read it later
-                raise
-            if reply[0] == "failed":
-                # ngspice may be left unusable ("cannot recover and awaits to be detached"): start afresh
-                _stop_worker(self._holder)
+        token = object()  # stands for this job in abort()
+        with self._jobs_lock:
+            self._jobs.add(token)
+        try:
+            with self._lock:
+                return self._run_held(job, token)
+        finally:
+            with self._jobs_lock:
+                self._jobs.discard(token)
+                self._aborted.discard(token)
+
+    def _run_held(self, job: SimJob, token: object) -> SimResult:
+        """The job, with the simulator's lock held (run); ``token`` stands for it in abort()."""
+        worker = self._worker()
+        if token in self._aborted:  # aborted before its request reached the worker
+            raise self._abandoned_error(job)
+        try:
+            reply = worker.call(("run", job), job.timeout_s)
+        except FrameTimeout as exc:
+            _stop_worker(self._holder)
+            deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
+            raise SimulationError(
+                f"ngspice did not finish within the timeout of {job.timeout_s:g} s; the worker was stopped "
+                "and is restarted for the next job",
+                deck_path=deck,
+                corner=job.label or None,
+            ) from exc
+        except (WorkerGone, BrokenPipeError, OSError) as exc:
+            if token in self._aborted:
+                raise self._abandoned_error(job) from exc
+            log_tail = worker.log_tail()
+            _stop_worker(self._holder)
+            deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
+            raise SimulationError(
+                "the ngspice worker process died during the job (it is restarted for the next job)"
+                + (f"; its last output: {log_tail}" if log_tail else ""),
+                deck_path=deck,
+                simulator_output=log_tail,
+                corner=job.label or None,
+            ) from exc
+        except BaseException:
+            _stop_worker(self._holder)  # e.g. KeyboardInterrupt: a reply may still come; never read it later
+            raise
+        if reply[0] == "failed":
+            # ngspice may be left unusable ("cannot recover and awaits to be detached"): start afresh
+            _stop_worker(self._holder)
         return self._result(job, reply)
 
     def _result(self, job: SimJob, reply: tuple) -> SimResult:

@@ -60,3 +60,40 @@ def test_abort_without_a_worker_does_nothing():
         run = simulator.run(RC_JOB).run("a")
         expected = 1 / (1 + 2j * np.pi * run.freq_hz * 1e3 * 1e-9)  # circuit theory: RC low-pass, closed form
         np.testing.assert_allclose(run.vectors["v(out)"], expected, rtol=1e-9)
+
+
+@pytest.mark.parametrize("when", ["before the worker is found", "after the worker is found"])
+def test_abort_while_a_job_is_being_set_up_abandons_it(when):
+    """An abort that arrives once a job holds the simulator but before its request reaches the worker (the worker
+    being started or found) abandons that job all the same, instead of letting it run to its end; the next job runs."""
+    with SharedLibrarySimulator() as simulator:
+        simulator.start()
+        found = simulator._worker
+
+        def worker_with_abort():
+            if when.startswith("before"):
+                killed = simulator._holder["worker"].process
+                simulator.abort()
+                killed.wait()  # gone for sure: found() starts a new worker, which the job must not then run on
+                return found()
+            worker = found()
+            simulator.abort()
+            return worker
+
+        simulator._worker = worker_with_abort
+        with pytest.raises(SimulationError, match="abandoned"):
+            simulator.run(RC_JOB)
+        simulator._worker = found
+        run = simulator.run(RC_JOB).run("a")
+        expected = 1 / (1 + 2j * np.pi * run.freq_hz * 1e3 * 1e-9)  # circuit theory: RC low-pass, closed form
+        np.testing.assert_allclose(run.vectors["v(out)"], expected, rtol=1e-9)
+
+
+def test_abort_between_jobs_leaves_the_next_job_alone():
+    """An abort with no job running stops the idle worker only: the next job starts a new one and runs right."""
+    with SharedLibrarySimulator() as simulator:
+        simulator.run(RC_JOB)
+        simulator.abort()
+        run = simulator.run(RC_JOB).run("a")
+        expected = 1 / (1 + 2j * np.pi * run.freq_hz * 1e3 * 1e-9)  # circuit theory: RC low-pass, closed form
+        np.testing.assert_allclose(run.vectors["v(out)"], expected, rtol=1e-9)
