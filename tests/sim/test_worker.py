@@ -106,3 +106,14 @@ def test_simulator_pickles_to_a_working_copy(shared_sim):
         assert copy._holder["worker"].process.pid != shared_sim._holder["worker"].process.pid
     finally:
         copy.close()
+
+
+@pytest.mark.ngspice
+def test_a_deck_with_multibyte_characters_reaches_ngspice_intact(shared_sim):
+    """A title and a comment in UTF-8 with multi-byte characters ahead of the elements: every line reaches ngspice
+    whole (the lines are handed over as byte offsets into one buffer), so the RC low-pass matches its closed form."""
+    netlist = "filtre µ-passe-bas — réseau RC (ünïcode)\n* commentaire: élément résistif ↓\nv1 in 0 dc 0 ac 1\nr1 in out 1k\nc1 out 0 1n\n"
+    job = SimJob(netlist, runs=(AcRun("a", {"v1": 1.0}, (AcSweep("dec", 5, 1e3, 1e7),)),), save=("v(out)",), excitable=("v1",))
+    run = shared_sim.run(job).run("a")
+    expected = 1 / (1 + 2j * np.pi * run.freq_hz * 1e3 * 1e-9)  # circuit theory: RC low-pass, closed form
+    np.testing.assert_allclose(run.vectors["v(out)"], expected, rtol=1e-9)
