@@ -118,3 +118,17 @@ def test_a_failing_share_raises_ngspice_s_error_and_keeps_the_whole_deck(tmp_pat
     kept = Path(caught.value.deck_path)
     assert kept.parent == tmp_path
     assert kept.read_text().lower().count("\nac ") == 2 * len(SWEEPS)  # both runs, every sweep
+
+
+@pytest.mark.ngspice
+def test_batch_mode_shares_runs_the_same_way(batch_sim):
+    """Two ngspice -b processes side by side give the vectors one gives (batch mode: the fallback without libngspice)."""
+    from netloop.sim import BatchSimulator
+
+    job = _probe_job()
+    alone = batch_sim.run(job)
+    both = SplitRunsSimulator([BatchSimulator(), BatchSimulator()]).run(job)
+    for got, want in zip(both.runs, alone.runs, strict=True):
+        np.testing.assert_array_equal(got.freq_hz, want.freq_hz)
+        for key in want.vectors:
+            np.testing.assert_array_equal(got.vectors[key], want.vectors[key])
