@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import logging
 import math
 import time
 import uuid
@@ -37,6 +38,8 @@ __all__ = [
 ]
 
 METHODS = ("tian", "middlebrook")
+
+_log = logging.getLogger("netloop")  # what is being simulated, for a status line (netloop.cli.status)
 
 
 @dataclass(frozen=True, slots=True)
@@ -171,9 +174,12 @@ class _Runner:
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
         self.processes = len(getattr(simulator, "simulators", ())) or 1
 
-    def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None) -> tuple[np.ndarray, dict[str, np.ndarray]]:
-        """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (see _run_while)."""
+    def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None, stage: str = "") -> tuple[np.ndarray, dict[str, np.ndarray]]:
+        """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (see _run_while).
+        ``stage`` says what the job is for, in the status log (logger "netloop", level INFO)."""
         job = self.job_for(sweeps)
+        processes = f" on {self.processes} ngspice processes" if self.processes > 1 else ""
+        _log.info("%ssimulating %s: %d AC run(s)%s", f"{job.label}: " if job.label else "", stage or "a sweep", len(job.runs), processes)
         start = time.perf_counter()
         result = self.simulator.run(job) if meanwhile is None else _run_while(self.simulator, job, meanwhile)
         self.seconds += time.perf_counter() - start
@@ -238,7 +244,7 @@ def sample_loops(
     load_scipy_in_background()  # the analysis's scipy modules load while the first simulation runs
     fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
     ppd = sweep.points_per_decade
-    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),), meanwhile)
+    f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),), meanwhile, stage="the first sweep")
 
     # widen the sweep where the data asks for it and the user did not fix the limit
     for _ in range(3):
@@ -253,7 +259,7 @@ def sample_loops(
             fmin = new_fmin
         if not more:
             break
-        f2, t2 = runner.evaluate(tuple(more))
+        f2, t2 = runner.evaluate(tuple(more), stage="a wider sweep")
         f, t = _merge_all(f, t, f2, t2)
 
     def analyse_all(final: bool) -> dict[str, LoopAnalysis]:
@@ -271,7 +277,7 @@ def sample_loops(
             if proposals.size == 0:
                 settled.update(dict.fromkeys(active, True))
                 break
-            f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd))
+            f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd), stage=f"refinement round {rounds + 1}")
             f, t = _merge_all(f, t, f2, t2)
             rounds += 1
             analyses = analyse_all(False)
@@ -282,6 +288,7 @@ def sample_loops(
             if all(settled[name] for name in active):
                 break
             previous = current
+    _log.info("")  # the simulations are over: a status line is cleared
     analyses = analyse_all(True)
     info = SimInfo(
         backend=runner.backend,

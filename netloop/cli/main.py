@@ -65,8 +65,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     module = importlib.import_module(COMMANDS[args.command][0])
+    from netloop.cli.status import status_line
+
     try:
-        return int(module.run(args))
+        with status_line():  # on a terminal: what is being simulated, on one line of stderr
+            return int(module.run(args))
     except NetloopError as exc:
         print(f"netloop: error: {exc}", file=sys.stderr)
         return 2

@@ -1,0 +1,41 @@
+"""On a terminal, stderr shows what is being simulated on one line, cleared before the results; elsewhere nothing."""
+
+from __future__ import annotations
+
+import io
+import logging
+
+import pytest
+
+from netloop.cli import status
+from netloop.cli.main import main
+
+
+class _Terminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+@pytest.mark.ngspice
+def test_check_on_a_terminal_shows_each_simulation_and_clears_the_line(circuits, monkeypatch, capsys):
+    """A check whose stderr is a terminal writes a status for the first sweep and each refinement round, each
+    over the previous one, and leaves the line cleared; the results on stdout are those of a plain run."""
+    plain = main(["check", str(circuits / "miller_buffer.cir"), "--at", "out"]), capsys.readouterr()
+    assert "simulating" not in plain[1].err  # not a terminal: no status at all
+    terminal = _Terminal()
+    monkeypatch.setattr(status.sys, "stderr", terminal)
+    code = main(["check", str(circuits / "miller_buffer.cir"), "--at", "out"])
+    out = capsys.readouterr().out
+    shown = terminal.getvalue()
+    assert code == plain[0] and out.splitlines()[0] == plain[1].out.splitlines()[0]
+    assert "netloop: simulating the first sweep: 2 AC run(s)" in shown and "simulating refinement round 1" in shown
+    assert shown.count("\r\033[K") >= 3 and shown.endswith("\r\033[K")  # each message over the last, then cleared
+    assert logging.getLogger("netloop").handlers == [] and logging.getLogger("netloop").level == logging.NOTSET
+
+
+def test_status_line_writes_nothing_where_stderr_is_not_a_terminal():
+    """A stream that is not a terminal gets nothing, whatever is logged."""
+    stream = io.StringIO()
+    with status.status_line(stream) as handler:
+        logging.getLogger("netloop").info("simulating something")
+    assert handler is None and stream.getvalue() == ""
