@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import logging
 from dataclasses import replace
 from os import PathLike
 
@@ -68,6 +69,9 @@ def node_split(netlist: Netlist, circuit: FlatCircuit, node: str, *, driver: str
     return NodeSplit(node, tuple(t.label for t in split.driver), tuple(t.label for t in (*split.load, *split.shunt)), sides)
 
 
+_log = logging.getLogger("netloop")  # the status line (netloop.cli.status)
+
+
 def probe_splits(netlist: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, checks: int = DEFAULT_SPLIT_CHECKS,
                  driver: str | None = None) -> LoopDiscovery:
     """``found`` with the first ``checks`` candidates of each group restated and re-ranked from the probe's real split.
@@ -80,6 +84,7 @@ def probe_splits(netlist: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *
     index = {n: i for i, n in enumerate(circuit.names)}
     groups = []
     for g in found.groups:
+        _log.info("working out the probe's split at the best %d break nodes of %s", min(checks, len(g.candidates)), g.label)
         splits = {c.node: node_split(netlist, circuit, c.node, driver=driver, ac_ground=ac_ground, index=index) for c in g.candidates[:checks]}
         groups.append(apply_splits(circuit, g, splits))
     return replace(found, groups=tuple(groups))
@@ -96,8 +101,11 @@ def discover_loops(
     """
     parsed = load_netlist(netlist)
     circuit = flatten(parsed)
+    _log.info("finding the loops of %d elements", len(circuit))
     found = find_loops(circuit, length_bound=length_bound, max_loops=max_loops)
-    return probe_splits(parsed, circuit, found, checks=split_checks)
+    found = probe_splits(parsed, circuit, found, checks=split_checks)
+    _log.info("")  # done: a status line is cleared
+    return found
 
 
 def opened_circuit_rhp_poles(result: LoopResult) -> int | None:
@@ -173,6 +181,7 @@ def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options)
     parsed = load_netlist(netlist)
     options = {k: v for k, v in measure_options.items() if k not in ("at", "label")}
     circuit = flatten(parsed)
+    _log.info("finding the loops of %d elements", len(circuit))
     found = find_loops(circuit)
     notes = list(found.notes)
     if not found.groups:

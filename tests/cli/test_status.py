@@ -39,3 +39,13 @@ def test_status_line_writes_nothing_where_stderr_is_not_a_terminal():
     with status.status_line(stream) as handler:
         logging.getLogger("netloop").info("simulating something")
     assert handler is None and stream.getvalue() == ""
+
+
+def test_loops_on_a_terminal_says_what_it_works_on_and_clears_the_line(circuits, monkeypatch, capsys):
+    """`netloop loops` on a terminal shows the loop search and the split checks, and clears the line before the listing."""
+    terminal = _Terminal()
+    monkeypatch.setattr(status.sys, "stderr", terminal)
+    assert main(["loops", str(circuits / "hier" / "top.cir")]) == 0
+    shown = terminal.getvalue()
+    assert "netloop: finding the loops of" in shown and "working out the probe's split" in shown
+    assert shown.endswith("\r\033[K") and "loop group" in capsys.readouterr().out
