@@ -13,7 +13,7 @@ from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, fla
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.graph.split_effects import NodeSplit, apply_splits
 from netloop.loop_result import LoopResult
-from netloop.measure import load_netlist, measure, own_simulator
+from netloop.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
 from netloop.netlist.model import Element
 from netloop.probe.breaking import locate_split
@@ -104,7 +104,7 @@ def discover_loops(
     _log.info("finding the loops of %d elements", len(circuit))
     found = find_loops(circuit, length_bound=length_bound, max_loops=max_loops)
     found = probe_splits(parsed, circuit, found, checks=split_checks)
-    _log.info("")  # done: a status line is cleared
+    _log.info("loop search done", extra=CLEARS_STATUS)  # a status line is cleared
     return found
 
 

@@ -25,6 +25,7 @@ from netloop.probe import ProbedNetlist, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, SplitRunsSimulator, default_simulator, processes_for
 
 __all__ = [
+    "CLEARS_STATUS",
     "METHODS",
     "Sweep",
     "load_netlist",
@@ -40,6 +41,7 @@ __all__ = [
 METHODS = ("tian", "middlebrook")
 
 _log = logging.getLogger("netloop")  # what is being simulated, for a status line (netloop.cli.status)
+CLEARS_STATUS = {"clears_status": True}  # ``extra`` of a record that ends a stage: a status line is cleared
 
 
 @dataclass(frozen=True, slots=True)
@@ -288,7 +290,7 @@ def sample_loops(
             if all(settled[name] for name in active):
                 break
             previous = current
-    _log.info("")  # the simulations are over: a status line is cleared
+    _log.info("simulations done", extra=CLEARS_STATUS)  # a status line is cleared
     analyses = analyse_all(True)
     info = SimInfo(
         backend=runner.backend,

@@ -2,7 +2,8 @@
 
 The composing modules log what they simulate to the logger "netloop" at level INFO (see
 netloop.measure); on a terminal the command shows the latest message on one line, redrawn in
-place, and clears it when the simulations are over (an empty message) or the command ends. Where
+place, and clears it when a stage is over (a record with netloop.measure.CLEARS_STATUS) or the
+command ends. Where
 stderr is not a terminal (a pipe, a file, CI) nothing is shown and nothing changes.
 """
 
@@ -31,10 +32,10 @@ class StatusLine(logging.Handler):
 
     def emit(self, record: logging.LogRecord) -> None:
         try:
-            message = record.getMessage()
-            if not message:
+            if getattr(record, "clears_status", False):  # netloop.measure.CLEARS_STATUS: a stage is over
                 self.clear()
                 return
+            message = record.getMessage()
             self.stream.write(f"{_CLEAR}netloop: {message} [{time.monotonic() - self.started:.1f} s]")
             self.stream.flush()
             self.shown = True
