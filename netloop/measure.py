@@ -22,7 +22,7 @@ from netloop.errors import NetloopError
 from netloop.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.probe import ProbedNetlist, split_loop
-from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, SplitRunsSimulator, default_simulator, processes_for
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, SplitRunsSimulator, default_simulator, processes_for, start_simulators
 
 __all__ = [
     "CLEARS_STATUS",
@@ -365,11 +365,11 @@ def ignored_lines(netlist: Netlist) -> tuple[str, ...]:
     return tuple(f"{d.location.file}:{d.location.line}: {d.text.splitlines()[0].strip()}" for d in netlist.ignored)
 
 
-def _start_default_simulator(keep_decks: str | PathLike[str] | None, processes: int = 1) -> Future:
-    """The default simulator, started in a thread so that its worker's start-up overlaps the caller's work."""
+def _in_background(start: Callable[..., object], *args, **kwargs) -> Future:
+    """``start(...)`` in a thread, so that starting simulators overlaps the caller's work."""
     pool = ThreadPoolExecutor(1, thread_name_prefix="netloop-sim-start")
     try:
-        return pool.submit(default_simulator, keep_dir=str(keep_decks) if keep_decks else None, processes=processes)
+        return pool.submit(start, *args, **kwargs)
     finally:
         pool.shutdown(wait=False)
 
@@ -390,13 +390,19 @@ def own_simulator(processes: int | None, netlist: Netlist, runs: int, keep_decks
 
 
 def _close_started(started: Future) -> None:
-    if started.exception() is None and hasattr(started.result(), "close"):
-        started.result().close()
+    """Close what a background start gave: one simulator or a list of them (nothing if it failed)."""
+    if started.exception() is not None:
+        return
+    result = started.result()
+    for sim in result if isinstance(result, list) else [result]:
+        close = getattr(sim, "close", None)
+        if close is not None:
+            close()
 
 
 def _joined(first: Future, more: Future | None, keep_decks: str | PathLike[str] | None) -> Simulator:
-    """The simulators started by ``first`` and ``more`` as one; if either failed to start, the other
-    is closed and the failure raised."""
+    """The simulator started by ``first`` and the list started by ``more`` as one; if either failed
+    to start, the other is closed and the failure raised."""
     futures = [f for f in (first, more) if f is not None]
     wait(futures)
     failed = next((f.exception() for f in futures if f.exception() is not None), None)
@@ -404,11 +410,9 @@ def _joined(first: Future, more: Future | None, keep_decks: str | PathLike[str] 
         for future in futures:
             _close_started(future)
         raise failed
-    sims: list[Simulator] = []
-    for future in futures:
-        started = future.result()
-        sims += started.simulators if isinstance(started, SplitRunsSimulator) else [started]
-    return sims[0] if len(sims) == 1 else SplitRunsSimulator(sims, keep_dir=str(keep_decks) if keep_decks else None)
+    if more is None:
+        return first.result()
+    return SplitRunsSimulator([first.result(), *more.result()], keep_dir=str(keep_decks) if keep_decks else None)
 
 
 def measure(
@@ -435,14 +439,15 @@ def measure(
     netloop.sim.processes_for); ``processes`` is ignored when a simulator is given.
     """
     own = simulator is None
-    starting = _start_default_simulator(keep_decks) if own else None  # ngspice starts while the netlist is read and broken
+    keep = str(keep_decks) if keep_decks else None
+    starting = _in_background(default_simulator, keep_dir=keep) if own else None  # ngspice starts while the netlist is read and broken
     more: Future | None = None
     try:
         parsed = load_netlist(netlist)
         reqs = parse_requirements(requirements)
         count = simulator_processes(processes, parsed, runs=2) if own else 1
         if count > 1:
-            more = _start_default_simulator(None, count - 1)  # the others start while the netlist is broken
+            more = _in_background(start_simulators, count - 1)  # the others start while the netlist is broken
         unchecked, check = split_loop(parsed, at, driver=driver)  # the loop search runs during the first simulation
     except BaseException:
         for future in (starting, more):

@@ -43,8 +43,23 @@ __all__ = [
     "find_ngspice_binary",
     "processes_for",
     "read_raw",
+    "start_simulators",
     "sweep_frequencies",
 ]
+
+
+def start_simulators(count: int, backend: Literal["auto", "shared", "batch"] = "auto") -> list[Simulator]:
+    """``count`` default simulators (no kept decks), started side by side; if one fails to start, the
+    others are closed and its error raised."""
+    with ThreadPoolExecutor(max(count, 1), thread_name_prefix="netloop-sim-start") as pool:
+        starting = [pool.submit(default_simulator, None, backend) for _ in range(count)]
+    started = [s.result() for s in starting if s.exception() is None]
+    failed = [s.exception() for s in starting if s.exception() is not None]
+    if failed:
+        for sim in started:
+            sim.close()
+        raise failed[0]
+    return started
 
 
 def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "shared", "batch"] = "auto", processes: int = 1) -> Simulator:
@@ -55,15 +70,7 @@ def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "sha
     (a SplitRunsSimulator).
     """
     if processes > 1:
-        with ThreadPoolExecutor(processes, thread_name_prefix="netloop-sim-start") as pool:
-            starting = [pool.submit(default_simulator, None, backend) for _ in range(processes)]
-        started = [s.result() for s in starting if s.exception() is None]
-        failed = [s.exception() for s in starting if s.exception() is not None]
-        if failed:
-            for sim in started:
-                sim.close()
-            raise failed[0]
-        return SplitRunsSimulator(started, keep_dir=keep_dir)
+        return SplitRunsSimulator(start_simulators(processes, backend), keep_dir=keep_dir)
     if backend == "shared":
         simulator = SharedLibrarySimulator(keep_dir=keep_dir)
         simulator.start()
