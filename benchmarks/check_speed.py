@@ -121,7 +121,7 @@ STAGES = """
 import sys, time
 t0 = time.perf_counter()
 from netloop import report
-from netloop.measure import measure_probed
+from netloop.jobs.measure import measure_probed
 from netloop.netlist import parse_file
 from netloop.probe import break_loop
 from netloop.sim import default_simulator

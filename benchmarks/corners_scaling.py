@@ -8,7 +8,7 @@ models, 20-30 ms a corner, where Dask's own cost per task (a few ms) and the coo
 sharing the two CPUs weigh on the ratio; ``--quick`` uses it, once per worker count, as a smoke run.
 
 Both clusters (1 worker, 2 workers) are started as `netloop corners --jobs N` starts them
-(netloop.corners.runner.local_cluster) and their workers warmed (ngspice started, scipy and the
+(netloop.jobs.corners.runner.local_cluster) and their workers warmed (ngspice started, scipy and the
 report stage imported) before the clock starts, so the ratio compares running corners, not starting
 processes; runs alternate between the two and the fastest of each counts, so bursts of other work on
 a shared machine weigh on both alike. Both runs go through run_plan (journal, Dask submission, result
@@ -51,7 +51,7 @@ def _warm() -> None:
     (the analysis's scipy modules, the report stage): the same once-per-worker start-up on both counts."""
     import netloop.report  # noqa: F401 - run_task's record writer
     from netloop.analysis.preload import load_scipy
-    from netloop.corners.worker import worker_simulator
+    from netloop.jobs.corners.worker import worker_simulator
 
     worker_simulator()
     load_scipy()
@@ -59,7 +59,7 @@ def _warm() -> None:
 
 def timed_run(plan_path: Path, address: str, out: Path) -> tuple[float, tuple[dict, ...]]:
     """Wall time of run_plan on the scheduler at ``address`` (journal, submission, collection included)."""
-    from netloop.corners import load_plan, run_plan
+    from netloop.jobs.corners import load_plan, run_plan
 
     start = time.perf_counter()
     run = run_plan(load_plan(plan_path), cluster=address, out=out, force=True)
@@ -80,7 +80,7 @@ def main() -> None:
     args.circuit = args.circuit or ("invented" if args.quick else "sky130")
     from distributed import Client
 
-    from netloop.corners.runner import local_cluster
+    from netloop.jobs.corners.runner import local_cluster
 
     with tempfile.TemporaryDirectory() as tmp:
         plan = Path(tmp) / "bench.toml"

@@ -25,7 +25,7 @@ CHILD = {
     "netloop": (
         "import sys\n"
         "from netloop.netlist import parse_text\n"
-        "from netloop.graph import flatten\n"
+        "from netloop.graph import connectivity_graph, flatten\n"
         "import time\n"
         "text = open(sys.argv[1]).read()\n"
         "t = time.process_time()\n"
@@ -33,7 +33,7 @@ CHILD = {
         "t1 = time.process_time()\n"
         "flat = flatten(netlist)\n"
         "t2 = time.process_time()\n"
-        "graph = flat.connectivity()\n"
+        "graph = connectivity_graph(flat)\n"
         "print(t2 - t, len(flat), flat.node_count, t1 - t, time.process_time() - t2)\n"
     ),
     "pyspice": (

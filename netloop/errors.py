@@ -18,10 +18,7 @@ from __future__ import annotations
 
 import difflib
 from collections.abc import Iterable
-from typing import TYPE_CHECKING
-
-if TYPE_CHECKING:
-    from netloop.netlist.location import SourceLocation
+from typing import Protocol
 
 __all__ = [
     "AnalysisError",
@@ -38,6 +35,12 @@ __all__ = [
 ]
 
 
+class Located(Protocol):
+    """Where something is in a file (netloop.netlist.SourceLocation prints as file:line:col); errors sits below every stage, so it names no stage's type."""
+
+    column: int
+
+
 class NetloopError(Exception):
     """Root of every error netloop raises on purpose."""
 
@@ -49,7 +52,7 @@ class NetlistError(NetloopError):
 class NetlistSyntaxError(NetlistError, ValueError):
     """A malformed netlist line: says where, shows the line and a caret, and what was expected."""
 
-    def __init__(self, message: str, location: SourceLocation | None = None, source_line: str | None = None):
+    def __init__(self, message: str, location: Located | None = None, source_line: str | None = None):
         self.message = message
         self.location = location
         self.source_line = source_line

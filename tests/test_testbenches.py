@@ -17,7 +17,7 @@ import pytest
 from scipy.optimize import brentq
 
 from netloop.cli.main import main
-from netloop.measure import Sweep, measure
+from netloop.jobs.measure import Sweep, measure
 from netloop.netlist import parse_file, write_netlist
 from netloop.probe import break_loop
 from netloop.sim import SimJob, default_simulator

@@ -15,6 +15,7 @@ three-pole example), the quintic with a hundredfold room (tests/analysis pin the
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -26,7 +27,7 @@ from netloop.errors import AnalysisError
 if TYPE_CHECKING:
     from scipy.interpolate import BSpline
 
-__all__ = ["Response", "anchored_phase_deg", "check_response", "low_frequency_slope"]
+__all__ = ["Response", "anchored_phase_deg", "check_response", "low_frequency_slope", "ratio_db"]
 
 _TINY = 1e-20  # |T| = 0 is read as -400 dB: far below any floor, without wrecking the spline
 
@@ -126,3 +127,10 @@ class Response:
         frac = np.arange(per_interval) / per_interval
         inner = (self.x[:-1, None] + np.diff(self.x)[:, None] * frac[None, :]).ravel()
         return np.append(inner, self.x[-1])
+
+
+def ratio_db(value: float | None) -> float | None:
+    """20 log10 of a linear magnitude; None for None, -inf for 0."""
+    if value is None:
+        return None
+    return -math.inf if value <= 0 else 20.0 * math.log10(value)

@@ -61,7 +61,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
 
 
 def sweep_from(args: argparse.Namespace):
-    from netloop.measure import Sweep
+    from netloop.jobs.measure import Sweep
 
     kwargs = {"points_per_decade": args.ppd}
     if args.fmin is not None:
@@ -119,7 +119,7 @@ def write_outputs(args: argparse.Namespace, results) -> None:
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.analysis import parse_requirements
-    from netloop.measure import load_netlist, measure
+    from netloop.jobs.measure import load_netlist, measure
 
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
@@ -141,7 +141,7 @@ def run(args: argparse.Namespace) -> int:
     elif args.at_pair:
         return run_pair(args, load_netlist(args.netlist), common)
     else:
-        from netloop.discover import measure_all_loops
+        from netloop.jobs.discover import measure_all_loops
 
         results, notes = measure_all_loops(load_netlist(args.netlist), **common)
         for note in notes:
@@ -180,7 +180,7 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     """--at-pair P,N: both loops of a differential pair, text or one JSON document with a part per mode."""
     from netloop import report
     from netloop.errors import NetloopError
-    from netloop.measure_pair import measure_pair
+    from netloop.jobs.measure_pair import measure_pair
 
     if args.at:
         raise NetloopError("give either --at NODE or --at-pair P,N, not both")

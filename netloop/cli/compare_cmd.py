@@ -53,7 +53,7 @@ def _locations(specs: list[str]) -> tuple[list[str], dict[str, str]]:
 
 
 def _cells(r) -> list[str]:
-    from netloop.compare import dominant_pole
+    from netloop.jobs.compare import dominant_pole
     from netloop.report.notation import db, deg, eng, number, ratio_db
 
     a = r.analysis
@@ -107,9 +107,9 @@ def _pole_document(c) -> dict:
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.analysis import parse_requirements
-    from netloop.compare import POLE_RTOL, T_RTOL, compare
+    from netloop.jobs.compare import POLE_RTOL, T_RTOL, compare
     from netloop.errors import NetloopError
-    from netloop.measure import load_netlist
+    from netloop.jobs.measure import load_netlist
 
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)

@@ -29,7 +29,8 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
-    from netloop import corners
+    from netloop.jobs import corners
+    from netloop.report import corner_records
 
     from netloop.report.files import refuse_unwritable
 
@@ -39,16 +40,16 @@ def run(args: argparse.Namespace) -> int:
     progress = args.progress or sys.stderr.isatty()
     result = corners.run_plan(plan, jobs=args.jobs, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)
     if args.csv:
-        corners.write_corner_csv(result.records, args.csv)
+        corner_records.write_corner_csv(result.records, args.csv)
     if args.junit:
-        corners.write_junit(result.records, args.junit, suite=Path(plan.path).stem)
+        corner_records.write_junit(result.records, args.junit, suite=Path(plan.path).stem)
     if args.json:
-        print(json.dumps(corners.run_document(result), indent=2, allow_nan=False))
+        print(json.dumps(corner_records.run_document(result), indent=2, allow_nan=False))
     else:
-        print(corners.corner_table(result.records))
+        print(corner_records.corner_table(result.records))
         print()
-        print(corners.counts_line(result.records))
-        for r in corners.worst_first(result.records):
+        print(corner_records.counts_line(result.records))
+        for r in corner_records.worst_first(result.records):
             if r["outcome"] == "error":
                 print(f"  {r['corner']}: {r['error']}")
         note = f"; {result.skipped} found done in the results file" if result.skipped else ""

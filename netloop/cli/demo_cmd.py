@@ -29,7 +29,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from netloop import report
-    from netloop.measure import measure
+    from netloop.jobs.measure import measure
     from netloop.report.files import output_file
 
     rel, node, what = DEMOS[args.name]

@@ -104,9 +104,9 @@ def format_discovery(source: str, found, candidates: int = 5) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
-    from netloop.discover import discover_loops
+    from netloop.jobs.discover import discover_loops
     from netloop.errors import NetloopError
-    from netloop.measure import load_netlist
+    from netloop.jobs.measure import load_netlist
 
     bounds = {}
     if args.max_loops is not None:

@@ -1,8 +1,8 @@
 """A status line on a terminal's stderr: what netloop is simulating while a long check runs.
 
 The composing modules log what they simulate to the logger "netloop" at level INFO (see
-netloop.measure); on a terminal the command shows the latest message on one line, redrawn in
-place, and clears it when a stage is over (a record with netloop.measure.CLEARS_STATUS) or the
+netloop.jobs.measure); on a terminal the command shows the latest message on one line, redrawn in
+place, and clears it when a stage is over (a record with netloop.jobs.measure.CLEARS_STATUS) or the
 command ends. Where
 stderr is not a terminal (a pipe, a file, CI) nothing is shown and nothing changes.
 """
@@ -32,7 +32,7 @@ class StatusLine(logging.Handler):
 
     def emit(self, record: logging.LogRecord) -> None:
         try:
-            if getattr(record, "clears_status", False):  # netloop.measure.CLEARS_STATUS: a stage is over
+            if getattr(record, "clears_status", False):  # netloop.jobs.measure.CLEARS_STATUS: a stage is over
                 self.clear()
                 return
             message = record.getMessage()

@@ -1,5 +1,6 @@
 """graph stage: the flattened circuit, its connectivity graph (networkx), hierarchy and loop discovery."""
 
+from netloop.graph.connectivity import connectivity_graph, supply_nets
 from netloop.graph.flat import FlatCircuit, FlatElement, Net, Terminal
 from netloop.graph.flatten import flatten
 from netloop.graph.loop_records import BreakCandidate, Loop, LoopDiscovery, LoopGroup, Step
@@ -17,8 +18,10 @@ __all__ = [
     "Net",
     "Step",
     "Terminal",
+    "connectivity_graph",
     "find_loops",
     "flatten",
     "signal_flow_graph",
     "signal_nodes",
+    "supply_nets",
 ]

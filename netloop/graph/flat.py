@@ -7,14 +7,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from itertools import chain
 from types import MappingProxyType
-from typing import TYPE_CHECKING
 
 from netloop.errors import UnknownNodeError
 from netloop.netlist.cards import controlling_sources
 from netloop.netlist.model import Element
-
-if TYPE_CHECKING:
-    import networkx as nx
 
 __all__ = ["GROUND_NAMES", "FlatCircuit", "FlatElement", "Net", "Terminal"]
 
@@ -200,16 +196,3 @@ class FlatCircuit:
         terminals = self.terminals(name)
         key = name.lower()
         return Net("0" if key == "gnd" else key, terminals)
-
-    # -- graphs --------------------------------------------------------------------------
-    def connectivity(self) -> nx.MultiGraph:
-        """Nets as graph nodes, one edge per pair of an element's terminals (built on each call)."""
-        from netloop.graph.connectivity import connectivity_graph
-
-        return connectivity_graph(self)
-
-    def supplies(self) -> Mapping[str, str]:
-        """Nets held by independent voltage sources from ground: net -> source name."""
-        from netloop.graph.connectivity import supply_nets
-
-        return supply_nets(self)

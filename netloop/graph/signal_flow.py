@@ -39,6 +39,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 from netloop.errors import NetloopError
+from netloop.graph.connectivity import supply_nets
 from netloop.netlist.cards import controlling_sources
 
 if TYPE_CHECKING:
@@ -74,7 +75,7 @@ class FlowEdge:
 
 def signal_nodes(circuit: FlatCircuit) -> frozenset[str]:
     """Every net except ground, ``.global`` nets and supplies."""
-    dead = {*circuit.ground, *circuit.globals, *circuit.supplies()}
+    dead = {*circuit.ground, *circuit.globals, *supply_nets(circuit)}
     return frozenset(n for n in circuit.nets if n not in dead)
 
 

@@ -1,7 +1,7 @@
 """What a given split of a break node does to each loop of its group, and the ranking and reasons that follow.
 
 The graph stage knows the loops but not how the probe will split a node; the probe stage knows the
-split but not the loops. A caller that has both (netloop.discover) hands the split to
+split but not the loops. A caller that has both (netloop.jobs.discover) hands the split to
 ``apply_splits`` as a ``NodeSplit``: which side each flattened terminal ``(element, pin)`` at the
 node goes to. A loop passing the node is opened when its way in and its way out sit on opposite
 sides of the split, and stays closed when both sit on one side. A loop that stays closed on the

@@ -28,7 +28,7 @@ from netloop.report.corners import (
     sort_worst_first,
     write_corner_csv,
 )
-from netloop.report.document import SCHEMA, multi_document, to_document
+from netloop.jobs.document import SCHEMA, multi_document, to_document
 from netloop.report.html import render_html, write_html
 from netloop.report.junit import junit_xml
 from netloop.report.nyquist_plot import compress_radius, nyquist_figure, plot_nyquist

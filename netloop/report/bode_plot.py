@@ -16,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report.figure import COLOURS, as_results, file_format, loop_name, new_figure, save
 from netloop.report.labels import Label, place_labels, several_title
 from netloop.report.notation import eng

@@ -2,7 +2,7 @@
 
 A record is one corner measured at one break node, as the corners stage writes it to its results
 file (one JSON line): ``corner`` (name), ``at`` (break node), ``outcome`` ("pass", "fail" or
-"error"), ``loop`` (the loop's document, netloop.report.to_document, or null), ``error``,
+"error"), ``loop`` (the loop's document, netloop.jobs.document.to_document, or null), ``error``,
 ``settings``, ``seconds``. A resumed run has only these records for the corners finished earlier,
 and netloop.report.corners turns its LoopResult outcomes into the same records, so the verdicts
 and the order below are decided in this one place.
@@ -15,6 +15,7 @@ import math
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
+from netloop.jobs.document import CORNERS_SCHEMA
 from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
 
@@ -35,7 +36,6 @@ __all__ = [
     "write_junit",
 ]
 
-CORNERS_SCHEMA = "netloop.corners/1"
 VERDICTS = ("error", "unstable", "fail", "pass")
 """The verdicts, worst first."""
 
@@ -156,7 +156,7 @@ def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None
     ts = ET.SubElement(root, "testsuite", name=suite, **counts, skipped="0", time=total)
     for r, verdict_ in zip(records, v):
         name = r["corner"] if len({x["at"] for x in records}) == 1 else f"{r['corner']} at {r['at']}"
-        tc = ET.SubElement(ts, "testcase", classname=f"netloop.corners.{suite}", name=name, time=f"{r['seconds']:.3f}")
+        tc = ET.SubElement(ts, "testcase", classname=f"netloop.jobs.corners.{suite}", name=name, time=f"{r['seconds']:.3f}")
         m = _margins(r)
         if verdict_ == "error":
             el = ET.SubElement(tc, "error", message=(r.get("error") or "")[:500], type="simulation")

@@ -18,10 +18,10 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
 
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report import corner_records as records
 from netloop.report.corner_records import CORNERS_SCHEMA, VERDICTS, corner_entry, failed_requirements, margin, verdict_counts, worst_first_key
-from netloop.report.document import to_document
+from netloop.jobs.document import to_document
 from netloop.report.files import output_file
 from netloop.report.notation import db, deg, eng
 

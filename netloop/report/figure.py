@@ -7,7 +7,7 @@ from collections.abc import Iterable, Sequence
 from pathlib import Path
 
 from netloop.errors import OutputError
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report.files import output_file
 
 __all__ = ["FORMATS", "as_results", "file_format", "loop_name", "new_figure", "render", "save"]

@@ -11,7 +11,7 @@ import re
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report.bode_plot import bode_figure, verdict_title
 from netloop.report.figure import as_results, loop_name, render
 from netloop.report.files import output_file

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import math
 
+from netloop.analysis.response import ratio_db
+
 __all__ = ["NONE", "db", "deg", "eng", "fixed", "number", "ratio_db", "requirement_value"]
 
 _PREFIXES = ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f"))
@@ -66,12 +68,6 @@ def number(value: float | None, digits: int = 3) -> str:
     special = _special(value)
     return special if special is not None else f"{value:.{digits}g}"
 
-
-def ratio_db(value: float | None) -> float | None:
-    """20 log10 of a linear magnitude; None for None, -inf for 0."""
-    if value is None:
-        return None
-    return -math.inf if value <= 0 else 20.0 * math.log10(value)
 
 
 _REQUIREMENT_UNITS = {"deg": deg, "db": db, "hz": lambda v: eng(v, "Hz"), "s": lambda v: eng(v, "s"), "": number}

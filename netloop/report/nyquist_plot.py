@@ -20,7 +20,7 @@ from pathlib import Path
 
 import numpy as np
 
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report.bode_plot import CURVE, GM_LOWER, GM_UPPER, PM_BAD, PM_OK, verdict_title
 from netloop.report.figure import COLOURS, as_results, file_format, loop_name, new_figure, save
 from netloop.report.notation import eng

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from netloop.analysis.results import LoopAnalysis, PhaseCrossover
-from netloop.report.document import worst_crossover
+from netloop.jobs.document import worst_crossover
 from netloop.report.notation import db, deg, eng, number, ratio_db
 
 __all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase", "origin_phrase", "phase_crossover_margin"]

@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from netloop.analysis.response import anchored_phase_deg
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report.files import output_file
 
 __all__ = ["SAMPLE_COLUMNS", "sample_table", "write_csv"]

@@ -7,7 +7,7 @@ import textwrap
 
 from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
 from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase, phase_crossover_margin
 

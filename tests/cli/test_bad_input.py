@@ -44,18 +44,18 @@ def inputs(tmp_path: Path) -> dict[str, str]:
 
 @pytest.fixture
 def simulator_starts(monkeypatch) -> list[str]:
-    """Records every start of the default simulator (the composing modules all start it through netloop.measure;
+    """Records every start of the default simulator (the composing modules all start it through netloop.jobs.measure;
     the simulator itself still starts)."""
-    import netloop.measure  # noqa: PLC0415
+    import netloop.jobs.measure  # noqa: PLC0415
 
     starts: list[str] = []
-    real = netloop.measure.default_simulator
+    real = netloop.jobs.measure.default_simulator
 
     def recording(*args, **kwargs):
         starts.append("start")
         return real(*args, **kwargs)
 
-    monkeypatch.setattr(netloop.measure, "default_simulator", recording)
+    monkeypatch.setattr(netloop.jobs.measure, "default_simulator", recording)
     return starts
 
 

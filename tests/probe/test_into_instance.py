@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from netloop.errors import ProbeError
-from netloop.measure import measure
+from netloop.jobs.measure import measure
 from netloop.netlist import parse_text
 from netloop.probe import break_loop
 

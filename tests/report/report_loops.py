@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from netloop.analysis import analyse, parse_requirements
-from netloop.loop_result import BreakInfo, LoopResult, SimInfo
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 
 W = 2 * np.pi
 FREQ_HZ = np.logspace(0, 10, 201)

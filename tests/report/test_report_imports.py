@@ -17,7 +17,7 @@ def test_report_imports_only_the_stages_below_it():
     """netloop.report imports no probe, sim, cli or measure module (data flows one way)."""
     code = (
         "import sys, netloop.report; "
-        "print(sorted(m for m in sys.modules if m.startswith(('netloop.probe', 'netloop.sim', 'netloop.cli', 'netloop.measure', 'netloop.netlist', 'netloop.graph'))))"
+        "print(sorted(m for m in sys.modules if m.startswith(('netloop.probe', 'netloop.sim', 'netloop.cli', 'netloop.jobs.measure', 'netloop.netlist', 'netloop.graph'))))"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"

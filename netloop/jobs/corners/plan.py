@@ -10,7 +10,7 @@ from pathlib import Path
 
 from netloop.analysis.requirements import Requirement, parse_requirements
 from netloop.errors import PlanError
-from netloop.measure import METHODS, Sweep
+from netloop.jobs.measure import METHODS, Sweep
 
 __all__ = ["AUTO", "KINDS", "Axis", "CornerSpec", "Plan", "Setting", "load_plan", "parse_plan"]
 

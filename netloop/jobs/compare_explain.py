@@ -33,7 +33,7 @@ import numpy as np
 
 from netloop.errors import NetloopError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, Step, flatten
-from netloop.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult
 from netloop.probe import ProbedNetlist
 
 __all__ = [

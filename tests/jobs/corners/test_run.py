@@ -15,11 +15,11 @@ from pathlib import Path
 import pytest
 
 from netloop.cli.main import main
-from netloop.corners import load_plan, read_records, run_plan
-from netloop.corners.runner import LOCAL_CLUSTER_CONFIG, local_cluster
-from netloop.measure import measure
+from netloop.jobs.corners import load_plan, read_records, run_plan
+from netloop.jobs.corners.runner import LOCAL_CLUSTER_CONFIG, local_cluster
+from netloop.jobs.measure import measure
 
-ROOT = Path(__file__).resolve().parents[2]
+ROOT = Path(__file__).resolve().parents[3]
 MILLER = ROOT / "circuits" / "miller_buffer.cir"
 LIB = ROOT / "circuits" / "models" / "corners.lib"
 
@@ -155,8 +155,8 @@ def test_killed_run_resumes_without_losing_or_repeating_a_corner(tmp_path, sched
 
 
 def test_automatic_break_nodes_match_loop_discovery_in_one_process(tmp_path, scheduler):
-    """at = "auto" measures every loop that netloop.discover finds, with the same nodes and margins as measure_all_loops here."""
-    from netloop.discover import measure_all_loops
+    """at = "auto" measures every loop that netloop.jobs.discover finds, with the same nodes and margins as measure_all_loops here."""
+    from netloop.jobs.discover import measure_all_loops
 
     plan = tmp_path / "plan.toml"
     plan.write_text(f'netlist = "{MILLER}"\nat = "auto"\n\n[axes]\nlib = ["ff"]\n')

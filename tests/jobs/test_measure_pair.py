@@ -13,14 +13,14 @@ import pytest
 from scipy.optimize import brentq
 
 from netloop.cli.main import main
-from netloop.measure import Sweep
-from netloop.measure_pair import COUPLING_THRESHOLD_DB, measure_pair
+from netloop.jobs.measure import Sweep
+from netloop.jobs.measure_pair import COUPLING_THRESHOLD_DB, measure_pair
 from netloop.probe.differential import RUNS
 from netloop.sim import default_simulator
 
 pytestmark = pytest.mark.ngspice
 
-CIRCUITS = Path(__file__).resolve().parent.parent / "circuits"
+CIRCUITS = Path(__file__).resolve().parents[2] / "circuits"
 
 # Behavioural fully differential loop with Norton outputs (G sources, R, C), values in SI units.
 # Per output k: current GMD/2 (v_fk - v_fj) + GMC v_cm drawn from out_k into RO || CL; RDL across the outputs.

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from netloop.errors import NetloopError, OutputError
-from netloop.report.corner_records import CORNERS_SCHEMA
+from netloop.jobs.document import CORNERS_SCHEMA
 
 __all__ = ["SCHEMA", "Journal", "default_results_path", "read_records"]
 

@@ -7,7 +7,7 @@ import re
 from dataclasses import replace
 from pathlib import Path
 
-from netloop.corners.plan import Setting
+from netloop.jobs.corners.plan import Setting
 from netloop.errors import NetlistError, NetloopError
 from netloop.netlist import Directive, Element, Netlist, SourceLocation, parse_file, parse_text
 

@@ -9,7 +9,7 @@ import subprocess
 import numpy as np
 import pytest
 
-from netloop.measure import measure
+from netloop.jobs.measure import measure
 
 pytestmark = pytest.mark.ngspice
 

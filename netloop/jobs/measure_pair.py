@@ -3,7 +3,7 @@
 The pair is broken with netloop.probe.differential (Hurst and Lewis, 1995; the modal quantities
 and each mode's Tian formula are derived in that module's docstring). One SimJob holds the four
 AC runs (dm-series, dm-shunt, cm-series, cm-shunt) on one shared operating point; the sweep is
-widened and refined for both return ratios together (netloop.measure.sample_loops).
+widened and refined for both return ratios together (netloop.jobs.measure.sample_loops).
 
 Coupling between the modes (exactly zero for matched halves) is read from the signal returned
 around the loop, R = -(V_a1 + I_b2) in the voltage frame (netloop.probe.differential): in the DM
@@ -30,8 +30,8 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.loop_result import BreakInfo, LoopResult
-from netloop.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
+from netloop.jobs.loop_result import BreakInfo, LoopResult
+from netloop.jobs.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe.differential import MODES, PairProbe, break_pair
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator

@@ -9,11 +9,11 @@ from pathlib import Path
 
 import pytest
 
-from netloop.corners import Setting, apply_settings, check_plan, expand, load_plan, parse_plan, tasks_of
+from netloop.jobs.corners import Setting, apply_settings, check_plan, expand, load_plan, parse_plan, tasks_of
 from netloop.errors import PlanError
 from netloop.netlist import parse_file, parse_text, write_netlist
 
-ROOT = Path(__file__).resolve().parents[2]
+ROOT = Path(__file__).resolve().parents[3]
 MILLER = ROOT / "circuits" / "miller_buffer.cir"
 LIB = ROOT / "circuits" / "models" / "corners.lib"
 

@@ -1,4 +1,4 @@
-"""corners stage: run a corner plan (TOML) as a regression on Dask, composing measure() once per corner.
+"""corners job: run a corner plan (TOML) as a regression on Dask, composing measure() once per corner.
 
 plan       read and check the plan file: netlist, break nodes, axes, explicit corners, requirements
 expand     the corners of a plan (product of the axes, then the explicit list) and the tasks to run
@@ -9,13 +9,12 @@ runner     the Dask client (local cluster or a scheduler's address), submission 
 progress   the plain progress bar on stderr
 """
 
-from netloop.corners.apply import CornerApplyError, apply_settings
-from netloop.corners.expand import Corner, Task, expand, tasks_of
-from netloop.corners.journal import SCHEMA, default_results_path, read_records
-from netloop.corners.plan import Axis, CornerSpec, Plan, Setting, load_plan, parse_plan
-from netloop.corners.runner import CornerRun, check_plan, dask_client, run_plan
-from netloop.corners.worker import TaskOptions, run_task
-from netloop.report.corner_records import corner_table, counts_line, run_document, verdict, worst_first, write_corner_csv, write_junit
+from netloop.jobs.corners.apply import CornerApplyError, apply_settings
+from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
+from netloop.jobs.corners.journal import SCHEMA, default_results_path, read_records
+from netloop.jobs.corners.plan import Axis, CornerSpec, Plan, Setting, load_plan, parse_plan
+from netloop.jobs.corners.runner import CornerRun, check_plan, dask_client, run_plan
+from netloop.jobs.corners.worker import TaskOptions, run_task
 
 __all__ = [
     "SCHEMA",
@@ -30,20 +29,13 @@ __all__ = [
     "TaskOptions",
     "apply_settings",
     "check_plan",
-    "corner_table",
-    "counts_line",
     "dask_client",
     "default_results_path",
     "expand",
     "load_plan",
     "parse_plan",
     "read_records",
-    "run_document",
     "run_plan",
     "run_task",
     "tasks_of",
-    "verdict",
-    "worst_first",
-    "write_corner_csv",
-    "write_junit",
 ]

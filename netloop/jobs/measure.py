@@ -19,7 +19,7 @@ from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError
-from netloop.loop_result import BreakInfo, LoopResult, SimInfo
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.probe import ProbedNetlist, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, SplitRunsSimulator, default_simulator, processes_for, start_simulators

@@ -4,9 +4,9 @@ Every location is broken in the same netlist (break_loop applied in turn to its 
 probe gets a fresh name), so the job has one operating point and two AC runs per location. In a
 run only one probe source is excited; every other probe sits at AC 0, a 0 V source (a short) and
 a 0 A source (an open), so it leaves the circuit as it was. The sweep is widened and refined for
-all locations together (netloop.measure.sample_loops): one SimJob per round.
+all locations together (netloop.jobs.measure.sample_loops): one SimJob per round.
 
-Why the locations differ is worked out in netloop/compare_explain.py.
+Why the locations differ is worked out in netloop/jobs/compare_explain.py.
 """
 
 from __future__ import annotations
@@ -22,7 +22,7 @@ import numpy as np
 from netloop.analysis import parse_requirements
 from netloop.analysis.requirements import Requirement
 from netloop.errors import NetloopError, ProbeError
-from netloop.compare_explain import (
+from netloop.jobs.compare_explain import (
     DOMINANT_SHARE,
     POLE_RTOL,
     T_FLOOR,
@@ -37,8 +37,8 @@ from netloop.compare_explain import (
     relative_difference,
 )
 from netloop.graph import find_loops, flatten
-from netloop.loop_result import LoopResult, SimInfo
-from netloop.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
+from netloop.jobs.loop_result import LoopResult, SimInfo
+from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator

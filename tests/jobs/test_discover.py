@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from netloop.discover import discover_loops, measure_all_loops, opened_circuit_rhp_poles
+from netloop.jobs.discover import discover_loops, measure_all_loops, opened_circuit_rhp_poles
 from netloop.errors import ProbeError
 
 # A stable loop a<->b (negative feedback, gain 2 per stage) and a loop c<->d that is unstable on its own

@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 
 from netloop.cli.main import main
-from netloop.compare import compare
-from netloop.measure import measure
-from netloop.measure_pair import measure_pair
+from netloop.jobs.compare import compare
+from netloop.jobs.measure import measure
+from netloop.jobs.measure_pair import measure_pair
 
 pytestmark = pytest.mark.ngspice
 

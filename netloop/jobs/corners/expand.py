@@ -7,7 +7,7 @@ import itertools
 import json
 from dataclasses import dataclass
 
-from netloop.corners.plan import KINDS, Plan, Setting
+from netloop.jobs.corners.plan import KINDS, Plan, Setting
 
 __all__ = ["Corner", "Task", "expand", "tasks_of"]
 

@@ -10,12 +10,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from netloop.compare import POLE_RTOL, compare, dominant_pole
+from netloop.jobs.compare import POLE_RTOL, compare, dominant_pole
 from netloop.errors import ProbeError
-from netloop.measure import Sweep, measure
+from netloop.jobs.measure import Sweep, measure
 from netloop.sim import AnalyticSimulator, default_simulator
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 MILLER = ROOT / "circuits" / "miller_buffer.cir"
 
 A0, F1, F2 = 1000.0, 1e3, 1e6

@@ -6,8 +6,8 @@ import json
 
 import pytest
 
-from netloop.corners import Setting, apply_settings, read_records
-from netloop.corners.journal import Journal
+from netloop.jobs.corners import Setting, apply_settings, read_records
+from netloop.jobs.corners.journal import Journal
 from netloop.errors import NetloopError
 
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from netloop.measure import Sweep, measure
+from netloop.jobs.measure import Sweep, measure
 
 pytestmark = pytest.mark.ngspice
 

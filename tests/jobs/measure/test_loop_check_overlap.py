@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from netloop.errors import ProbeError, SimulationError
-from netloop.measure import measure
+from netloop.jobs.measure import measure
 from netloop.netlist import parse_text
 from netloop.probe import break_loop
 

@@ -12,8 +12,8 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.graph.split_effects import NodeSplit, apply_splits
-from netloop.loop_result import LoopResult
-from netloop.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
+from netloop.jobs.loop_result import LoopResult
+from netloop.jobs.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
 from netloop.netlist.model import Element
 from netloop.probe.breaking import locate_split
@@ -171,7 +171,7 @@ def _measure_group(parsed: Netlist, group: LoopGroup, options: dict, notes: list
 def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> tuple[list[LoopResult], list[str]]:
     """Break each independent loop group at its best node and measure it; returns (results, notes).
 
-    ``measure_options`` are those of netloop.measure.measure (except ``at`` and ``label``); one
+    ``measure_options`` are those of netloop.jobs.measure.measure (except ``at`` and ``label``); one
     simulator is started for all loops unless one is given. Each result is labelled
     ``loop K (NODE)``; the notes say which node was chosen for which group and why, which loops
     the probe's split there opens and which it leaves closed (local loops kept closed with their

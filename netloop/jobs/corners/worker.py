@@ -8,10 +8,10 @@ import time
 import traceback
 from dataclasses import dataclass, replace
 
-from netloop.corners.apply import apply_settings
-from netloop.corners.expand import Task
+from netloop.jobs.corners.apply import apply_settings
+from netloop.jobs.corners.expand import Task
 from netloop.errors import NetloopError, SimulationError
-from netloop.measure import Sweep, measure
+from netloop.jobs.measure import Sweep, measure
 
 __all__ = ["TaskOptions", "close_simulator", "run_task", "worker_simulator"]
 
@@ -67,7 +67,7 @@ def _record(task: Task, at: str, started: float, *, loop: dict | None = None, ou
 
 
 def _measure_all(netlist, options: TaskOptions, simulator) -> list:
-    from netloop.discover import measure_all_loops  # the lead's loop discovery; "auto" needs it
+    from netloop.jobs.discover import measure_all_loops  # the lead's loop discovery; "auto" needs it
 
     results, _notes = measure_all_loops(netlist, driver=options.driver, method=options.method, sweep=options.sweep,
                                         open_loop_rhp_poles=options.open_loop_rhp_poles, requirements=options.requirements,
@@ -77,7 +77,7 @@ def _measure_all(netlist, options: TaskOptions, simulator) -> list:
 
 def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
     """Measure one task; never raises for a corner's own failure: it comes back as an "error" record."""
-    from netloop.report import to_document
+    from netloop.jobs.document import to_document
 
     started = time.perf_counter()
     try:

@@ -61,13 +61,14 @@ from dataclasses import asdict
 
 import numpy as np
 
+from netloop.analysis.response import ratio_db
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
-from netloop.loop_result import LoopResult
-from netloop.report.notation import ratio_db
+from netloop.jobs.loop_result import LoopResult
 
-__all__ = ["SCHEMA", "multi_document", "to_document"]
+__all__ = ["CORNERS_SCHEMA", "SCHEMA", "multi_document", "to_document"]
 
 SCHEMA = "netloop.loop/1"
+CORNERS_SCHEMA = "netloop.corners/1"  # a corner run: netloop.report.corner_records; its results file: netloop.jobs.corners.journal
 _KINDS = ("loops", "locations", "modes")
 
 

@@ -11,12 +11,12 @@ from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from netloop.corners.apply import CornerApplyError, apply_settings
-from netloop.corners.expand import Corner, Task, expand, tasks_of
-from netloop.corners.journal import Journal, default_results_path
-from netloop.corners.plan import AUTO, Plan
-from netloop.corners.progress import Progress
-from netloop.corners.worker import TaskOptions, run_task
+from netloop.jobs.corners.apply import CornerApplyError, apply_settings
+from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
+from netloop.jobs.corners.journal import Journal, default_results_path
+from netloop.jobs.corners.plan import AUTO, Plan
+from netloop.jobs.corners.progress import Progress
+from netloop.jobs.corners.worker import TaskOptions, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
 
 __all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "local_cluster", "run_plan"]
@@ -24,7 +24,7 @@ __all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "lo
 
 @dataclass(frozen=True, slots=True)
 class CornerRun:
-    """The outcome of a plan: one record per corner and break node, in plan order (see netloop.corners.journal)."""
+    """The outcome of a plan: one record per corner and break node, in plan order (see netloop.jobs.corners.journal)."""
 
     plan: str
     results_path: str
@@ -47,7 +47,7 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
     corners = expand(plan)
     if AUTO in plan.at:
         try:
-            import netloop.discover  # noqa: F401
+            import netloop.jobs.discover  # noqa: F401
         except ImportError as exc:
             raise plan.error("at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes", "at") from exc
     parsed: dict[tuple, object] = {}
@@ -72,7 +72,7 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
 def _check_breaks(plan: Plan, corners: tuple[Corner, ...]) -> None:
     """Break each named node once in each netlist the plan uses (as written): a node that is not there, or cannot
     be broken, is a PlanError at the ``at`` line instead of one failed corner per corner."""
-    from netloop.measure import load_netlist
+    from netloop.jobs.measure import load_netlist
     from netloop.probe import break_loop
 
     if AUTO in plan.at:

@@ -1,0 +1,10 @@
+"""The jobs: each composes the stages once (read, break, simulate, analyse, record); the CLI calls only these.
+
+measure          one loop broken at one node: measure(netlist, at, ...) -> LoopResult
+measure_pair     a fully differential pair, differential and common mode on one operating point
+discover         loop groups of a netlist, and one measurement per group (check without --at)
+compare          several break locations in one deck, side by side, differences explained (compare_explain)
+corners          a corner plan (TOML) run as a regression on Dask, journalled line by line
+loop_result      LoopResult, BreakInfo, SimInfo: the record every job returns
+document         the JSON documents of those records (netloop.loop/1, netloop.corners/1), for output and journals
+"""
