@@ -11,6 +11,7 @@ poles          closed-loop poles from an AAA fit of 1/(1+T)
 engine         analyse(): all of the above for one loop
 refine         more samples around crossovers until the margins settle
 requirements   "pm>=60"-style pass/fail checks
+checks         self-checks of the data: a failed one makes the loop "inconclusive"
 results        the frozen result records
 preload        the scipy modules, loaded on first use (or ahead of time, while ngspice runs)
 """
@@ -19,6 +20,7 @@ from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse
 from netloop.analysis.refine import propose_frequencies, refine
 from netloop.analysis.requirements import Requirement, RequirementOutcome, parse_requirement, parse_requirements
 from netloop.analysis.results import (
+    Check,
     ClosedLoopPoles,
     GainCrossover,
     LoopAnalysis,
@@ -32,6 +34,7 @@ from netloop.analysis.results import (
 from netloop.analysis.return_ratio import middlebrook, sensitivity, tian
 
 __all__ = [
+    "Check",
     "ClosedLoopPoles",
     "DEFAULT_FLOOR_DB",
     "GainCrossover",

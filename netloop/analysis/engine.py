@@ -6,6 +6,7 @@ import math
 
 import numpy as np
 
+from netloop.analysis.checks import nyquist_checks
 from netloop.analysis.closed_loop import closed_loop_peaking, modulus_margin
 from netloop.analysis.crossovers import dc_phase_crossover, find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.margins import summarise_margins
@@ -60,6 +61,8 @@ def analyse(
       real axis); the Nyquist count decides (|T(0)| > 1 with P = 0 is unstable).
     * integrators (poles of T at s = 0): read from the low-frequency slope; the Nyquist contour
       detours to the right of s = 0 (see netloop.analysis.nyquist).
+    * a measurement the data cannot support (a doubtful Nyquist count, Z = N + P < 0): a failed
+      self-check in ``checks`` and the classification "inconclusive" (netloop.analysis.checks).
     * NaN or infinite T: AnalysisError naming the first bad frequency (never dropped).
     """
     if int(open_loop_rhp_poles) != open_loop_rhp_poles or open_loop_rhp_poles < 0:
@@ -74,11 +77,6 @@ def analyse(
     if dc_sign == "negative" and nyquist.origin_poles == 0 and resp.gain_db[0] >= floor_abs_db:
         # T(0) is real and negative: the curve starts on the negative real axis, a phase crossover at DC
         phases = (dc_phase_crossover(resp), *phases)
-    if nyquist.closed_loop_rhp_poles < 0:
-        warnings.append(
-            f"the Nyquist count gives {nyquist.closed_loop_rhp_poles} closed-loop RHP poles: "
-            f"open_loop_rhp_poles={open_loop_rhp_poles} does not fit this data"
-        )
     warnings.extend(nyquist.reasons)
     regulates = bool(np.any(resp.gain_db > 0.0))
     dc_gain_db = float(resp.gain_db[0])
@@ -119,4 +117,5 @@ def analyse(
         nyquist=nyquist,
         poles=poles,
         warnings=tuple(warnings),
+        checks=nyquist_checks(nyquist),
     )

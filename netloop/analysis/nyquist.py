@@ -47,6 +47,11 @@ _ARC_MODEL_DOUBT = 1e-3  # relative doubt in the asymptote even when the bottom 
 _ARC_POINTS = 2001
 
 
+_HARMLESS_BOTTOM_DB = -20.0
+"""An unsettled bottom of the sweep does not cast doubt on the count when |T| there is at most this
+(0.1) and falls toward DC: the unswept part then stays inside a small disc, far from -1."""
+
+
 def _wrap(a):
     """Angles (rad) wrapped into (-pi, pi]."""
     return -np.remainder(-np.asarray(a) + np.pi, 2 * np.pi) + np.pi
@@ -123,10 +128,12 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
     bottom_db = float(resp.gain_db[0])
     if abs(slope + 20.0 * k) > SLOPE_TOL_DB_PER_DEC or abs(delta) > PHASE_TOL_DEG:
         dc_sign = "unknown"
-        reasons.append(
-            f"T is not settled at the bottom of the sweep ({slope:.3g} dB/decade, phase {math.degrees(np.angle(t[0])):.4g} deg "
-            f"at {f0:.4g} Hz); start the sweep lower"
-        )
+        # where |T| is far below 1 and still falls toward DC, the unswept part stays far from -1: no doubt
+        if not (bottom_db <= _HARMLESS_BOTTOM_DB and slope > 0.0):
+            reasons.append(
+                f"T is not settled at the bottom of the sweep ({slope:.3g} dB/decade, phase {math.degrees(np.angle(t[0])):.4g} deg "
+                f"at {f0:.4g} Hz); start the sweep lower"
+            )
     elif k > 0 and bottom_db < 0.0:
         reasons.append(f"|T| is below 1 at {f0:.4g} Hz but rises toward DC (integrator): a crossover lies below the sweep")
     elif k < 0 and bottom_db > 0.0:

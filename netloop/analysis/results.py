@@ -27,6 +27,7 @@ from typing import Literal
 import numpy as np
 
 __all__ = [
+    "Check",
     "ClosedLoopPoles",
     "GainCrossover",
     "LoopAnalysis",
@@ -206,6 +207,25 @@ class NyquistVerdict:
 
 
 @dataclass(frozen=True, slots=True)
+class Check:
+    """One self-check of a measurement: can its data support a verdict?
+
+    A measurement with a failed check gets the verdict "inconclusive": never PASS, never "unstable".
+
+    name     a short fixed word for the check (``nyquist-data``, ``rhp-count``, ...), listed in
+             netloop.analysis.checks (and, for checks only a job can run, in that job).
+    passed   whether the data passed it.
+    detail   one sentence: what was found, with its figures.
+    advice   what to try next when it failed ("" when it passed).
+    """
+
+    name: str
+    passed: bool
+    detail: str
+    advice: str = ""
+
+
+@dataclass(frozen=True, slots=True)
 class ClosedLoopPoles:
     """Closed-loop poles from a rational (AAA) fit of S = 1 / (1 + T) on the data and its mirror.
 
@@ -254,6 +274,8 @@ class LoopAnalysis:
     poles                    ClosedLoopPoles, or None when the fit was not asked for or failed
                              (a warning then says why).
     warnings                 plain sentences about doubtful data or outcomes.
+    checks                   the self-checks of the data (netloop.analysis.checks): when one fails
+                             the classification is "inconclusive" and no verdict is given.
     """
 
     freq_hz: np.ndarray = field(compare=False, repr=False)
@@ -270,6 +292,12 @@ class LoopAnalysis:
     nyquist: NyquistVerdict
     poles: ClosedLoopPoles | None
     warnings: tuple[str, ...]
+    checks: tuple[Check, ...] = ()
+
+    @property
+    def supported(self) -> bool:
+        """Whether every self-check passed, so that the data supports a verdict."""
+        return all(c.passed for c in self.checks)
 
     @property
     def stable(self) -> bool:
@@ -284,8 +312,11 @@ class LoopAnalysis:
         return anchored_phase_deg(np.asarray(self.t, dtype=complex), self.nyquist.origin_poles)
 
     @property
-    def classification(self) -> Literal["unstable", "does not regulate", "stable"]:
-        """One word for the loop: unstable (by Nyquist), does not regulate (|T| < 1 throughout), or stable."""
+    def classification(self) -> Literal["inconclusive", "unstable", "does not regulate", "stable"]:
+        """One word for the loop: inconclusive (a self-check failed: no verdict), unstable (by Nyquist),
+        does not regulate (|T| < 1 throughout), or stable."""
+        if not self.supported:
+            return "inconclusive"
         if not self.nyquist.stable:
             return "unstable"
         if not self.regulates:

@@ -118,6 +118,8 @@ def write_outputs(args: argparse.Namespace, results) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from netloop import report
+    from netloop.cli.main import exit_status
+    from netloop.jobs.loop_result import combined_verdict
     from netloop.analysis import parse_requirements
     from netloop.jobs.measure import load_netlist, measure
 
@@ -152,7 +154,7 @@ def run(args: argparse.Namespace) -> int:
         print(json.dumps(doc, indent=2, allow_nan=False))
     else:
         print("\n\n".join(report.format_text(r) for r in results))
-    return 0 if all(r.passed for r in results) else 1
+    return exit_status(combined_verdict(r.verdict for r in results))
 
 
 def coupling_document(coupling) -> dict:
@@ -179,6 +181,7 @@ def coupling_line(coupling) -> str:
 def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     """--at-pair P,N: both loops of a differential pair, text or one JSON document with a part per mode."""
     from netloop import report
+    from netloop.cli.main import exit_status
     from netloop.errors import NetloopError
     from netloop.jobs.measure_pair import measure_pair
 
@@ -203,4 +206,4 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     else:
         parts = [f"{mode} mode\n{report.format_text(r)}" for mode, r in pair.modes.items()]
         print("\n".join(parts) + "\n" + coupling_line(pair.coupling))
-    return 0 if pair.passed else 1
+    return exit_status(pair.verdict)

@@ -66,7 +66,7 @@ def _cells(r) -> list[str]:
         db(m.gain_margin_db),
         f"{number(m.modulus_margin)} ({db(ratio_db(m.modulus_margin))})",
         "-" if pole is None else f"{eng(abs(pole) / math.tau, 'Hz')} z={number(-pole.real / abs(pole), 2)}",
-        ("PASS " if r.passed else "FAIL ") + a.classification,
+        {"pass": "PASS ", "fail": "FAIL ", "inconclusive": "INCONCLUSIVE "}[r.verdict] + a.classification,
     ]
 
 
@@ -144,4 +144,6 @@ def run(args: argparse.Namespace) -> int:
         if warnings:
             lines += ["", "warnings", *dict.fromkeys(warnings)]
         print("\n".join(lines))
-    return 0 if result.passed else 1
+    from netloop.cli.main import exit_status
+
+    return exit_status(result.verdict)

@@ -57,4 +57,6 @@ def run(args: argparse.Namespace) -> int:
         if result.stale:
             print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
                   "(the plan changed since they were written) and were left out", file=sys.stderr)
-    return 0 if result.passed else 1
+    from netloop.cli.main import exit_status
+
+    return exit_status(result.verdict)

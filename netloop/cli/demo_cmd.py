@@ -46,4 +46,6 @@ def run(args: argparse.Namespace) -> int:
     with output_file(out / "result.json", "JSON document") as path:
         path.write_text(json.dumps(report.to_document(result), indent=2, allow_nan=False) + "\n")
     print(f"\nwritten: {out / 'report.html'}, {out / 'bode.png'}, {out / 'nyquist.png'}, {out / 'result.json'}")
-    return 0 if result.passed else 1
+    from netloop.cli.main import exit_status
+
+    return exit_status(result.verdict)

@@ -53,8 +53,17 @@ def build_parser(load: str | None = None) -> argparse.ArgumentParser:
     return parser
 
 
+EXIT_STATUS = {"pass": 0, "fail": 1, "error": 2, "inconclusive": 3}
+"""The exit status of each verdict (netloop.jobs.loop_result.VERDICTS; "error": bad input or a simulator failure)."""
+
+
+def exit_status(verdict: str) -> int:
+    """The process status for a verdict: 0 pass, 1 fail, 2 error, 3 inconclusive."""
+    return EXIT_STATUS[verdict]
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run one netloop command; returns the exit status (0 pass, 1 unstable or failed, 2 bad input)."""
+    """Run one netloop command; returns the exit status (0 pass, 1 unstable or failed, 2 bad input or simulator failure, 3 inconclusive)."""
     from netloop.errors import NetloopError
 
     argv = list(sys.argv[1:] if argv is None else argv)

@@ -37,7 +37,7 @@ from netloop.jobs.compare_explain import (
     relative_difference,
 )
 from netloop.graph import find_loops, flatten
-from netloop.jobs.loop_result import LoopResult, SimInfo
+from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict
 from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
@@ -82,8 +82,13 @@ class Comparison:
 
     @property
     def passed(self) -> bool:
-        """Every location stable with every requirement met."""
-        return all(r.passed for r in self.results)
+        """Every location passes (its self-checks, stable, every requirement met)."""
+        return self.verdict == "pass"
+
+    @property
+    def verdict(self) -> Verdict:
+        """The locations' verdicts combined (netloop.jobs.loop_result.combined_verdict)."""
+        return combined_verdict(r.verdict for r in self.results)
 
     def result(self, location: str, method: str | None = None) -> LoopResult:
         """The result at one location (for one method; the first method by default)."""

@@ -15,8 +15,12 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
     schema                "netloop.loop/1"
     netlist, label        the netlist's path as given; corner or loop name ("" for one check)
     method                "tian" | "middlebrook"
-    classification        "stable" | "unstable" | "does not regulate"
-    passed                stable by the Nyquist count and every requirement met
+    verdict               "pass" | "fail" | "inconclusive" (netloop.jobs.loop_result.VERDICTS)
+    classification        "stable" | "unstable" | "does not regulate" | "inconclusive"
+    passed                verdict == "pass": every self-check passed, stable by the Nyquist count
+                          and every requirement met
+    checks                [{name, passed, detail, advice}]: the measurement's self-checks (a failed
+                          one makes the verdict "inconclusive"; netloop.analysis.checks)
     dc_loop_gain_db       20 log10 |T| at the lowest swept frequency
     margins               the worst case over all crossovers:
         phase_margin_deg, unity_gain_hz, gain_margin_db, phase_crossover_hz,
@@ -49,7 +53,7 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
     infinite              {dotted.path: "+inf" | "-inf"}
 
 Several loops: ``multi_document("loops" | "locations", results)`` gives
-``{"schema": "netloop.loops/1", "loops": [loop, ...], "passed": ...}`` (or ``locations``), and
+``{"schema": "netloop.loops/1", "loops": [loop, ...], "verdict": ..., "passed": ...}`` (or ``locations``), and
 ``multi_document("modes", {"differential": r1, "common": r2})`` gives ``{"modes": {name: loop}}``.
 """
 
@@ -63,7 +67,7 @@ import numpy as np
 
 from netloop.analysis.response import ratio_db
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
-from netloop.jobs.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult, combined_verdict
 
 __all__ = ["CORNERS_SCHEMA", "SCHEMA", "multi_document", "to_document"]
 
@@ -201,7 +205,9 @@ def to_document(result: LoopResult) -> dict:
         "netlist": result.netlist,
         "label": result.label,
         "method": result.method,
+        "verdict": result.verdict,
         "passed": result.passed,
+        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail, "advice": c.advice} for c in result.all_checks],
         **_analysis(a),
         "break": _break(result),
         "requirements": _requirements(result),
@@ -233,13 +239,13 @@ def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopR
         if not isinstance(results, Mapping):
             raise TypeError("kind 'modes' takes a mapping of mode name to LoopResult")
         body: dict | list = {name: to_document(r) for name, r in results.items()}
-        passed = all(r.passed for r in results.values())
+        items = list(results.values())
     else:
         items = list(results.values()) if isinstance(results, Mapping) else list(results)
         body = [to_document(r) for r in items]
-        passed = all(r.passed for r in items)
+    verdict = combined_verdict(r.verdict for r in items)
     infinite: dict[str, str] = {}
     head = _plain(dict(extra), "", infinite)
     if infinite:
         head["infinite"] = infinite
-    return {"schema": f"netloop.{kind}/1", **head, kind: body, "passed": passed}
+    return {"schema": f"netloop.{kind}/1", **head, kind: body, "verdict": verdict, "passed": verdict == "pass"}

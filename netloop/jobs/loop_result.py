@@ -2,12 +2,23 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
+from typing import Literal
 
 from netloop.analysis.requirements import RequirementOutcome
-from netloop.analysis.results import LoopAnalysis
+from netloop.analysis.results import Check, LoopAnalysis
 
-__all__ = ["CAUTION", "BreakInfo", "LoopResult", "SimInfo"]
+__all__ = ["CAUTION", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "combined_verdict"]
+
+Verdict = Literal["pass", "fail", "inconclusive"]
+VERDICTS: tuple[Verdict, ...] = ("pass", "fail", "inconclusive")
+"""What a measured loop promises:
+
+pass          every self-check passed, the loop is stable by the Nyquist count and every requirement is met;
+fail          every self-check passed, and the loop is unstable or a requirement failed;
+inconclusive  a self-check failed: the data supports no verdict (the result says why and what to try).
+"""
 
 CAUTION = (
     "Small-signal margins around one operating point do not prove large-signal stability; "
@@ -58,6 +69,23 @@ class LoopResult:
     warnings: tuple[str, ...]  # from the probe, the simulation and the analysis, in that order
     sim: SimInfo
     caution: str = CAUTION
+    checks: tuple[Check, ...] = ()  # self-checks the job ran beyond the analysis's own (analysis.checks)
+
+    @property
+    def all_checks(self) -> tuple[Check, ...]:
+        """Every self-check of this measurement: the analysis's, then the job's."""
+        return (*self.analysis.checks, *self.checks)
+
+    @property
+    def failed_checks(self) -> tuple[Check, ...]:
+        return tuple(c for c in self.all_checks if not c.passed)
+
+    @property
+    def verdict(self) -> Verdict:
+        """"inconclusive" when a self-check failed, else "pass" (stable, every requirement met) or "fail"."""
+        if self.failed_checks:
+            return "inconclusive"
+        return "pass" if self.analysis.stable and all(r.passed for r in self.requirements) else "fail"
 
     @property
     def stable(self) -> bool:
@@ -66,9 +94,18 @@ class LoopResult:
 
     @property
     def passed(self) -> bool:
-        """Stable and every requirement met (the exit status 0 of `netloop check`)."""
-        return self.analysis.stable and all(r.passed for r in self.requirements)
+        """The verdict is "pass": every self-check passed, stable, every requirement met."""
+        return self.verdict == "pass"
 
     @property
     def failed_requirements(self) -> tuple[RequirementOutcome, ...]:
         return tuple(r for r in self.requirements if not r.passed)
+
+
+def combined_verdict(verdicts: Iterable[Verdict]) -> Verdict:
+    """One verdict for several loops (groups, modes, corners): "fail" when any failed, else
+    "inconclusive" when any was, else "pass" (also for none)."""
+    seen = set(verdicts)
+    if "fail" in seen:
+        return "fail"
+    return "inconclusive" if "inconclusive" in seen else "pass"

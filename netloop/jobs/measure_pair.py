@@ -30,7 +30,7 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult
+from netloop.jobs.loop_result import BreakInfo, LoopResult, Verdict, combined_verdict
 from netloop.jobs.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe.differential import MODES, PairProbe, break_pair
@@ -83,8 +83,13 @@ class PairResult:
 
     @property
     def passed(self) -> bool:
-        """Both modes stable and every requirement met in both."""
-        return self.differential.passed and self.common.passed
+        """Both modes pass: every self-check passed, stable, and every requirement met in both."""
+        return self.verdict == "pass"
+
+    @property
+    def verdict(self) -> Verdict:
+        """The two modes' verdicts combined (netloop.jobs.loop_result.combined_verdict)."""
+        return combined_verdict((self.differential.verdict, self.common.verdict))
 
 
 def parse_pair(text: str) -> tuple[str, str]:

@@ -36,7 +36,7 @@ __all__ = [
     "write_junit",
 ]
 
-VERDICTS = ("error", "unstable", "fail", "pass")
+VERDICTS = ("error", "inconclusive", "unstable", "fail", "pass")
 """The verdicts, worst first."""
 
 
@@ -55,9 +55,10 @@ def margin(r: dict, key: str, *, infinite: bool = False) -> float | None:
 
 
 def verdict(r: dict) -> str:
-    """"error" (not measured), "unstable" (Nyquist count), "fail" (stable, a requirement failed) or "pass"."""
-    if r["outcome"] == "error":
-        return "error"
+    """"error" (not measured), "inconclusive" (a self-check failed: no verdict), "unstable" (Nyquist count),
+    "fail" (stable, a requirement failed) or "pass"."""
+    if r["outcome"] in ("error", "inconclusive"):
+        return r["outcome"]
     if not r["loop"]["stability"]["stable"]:
         return "unstable"
     return "fail" if r["outcome"] == "fail" else "pass"

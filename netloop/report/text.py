@@ -25,10 +25,14 @@ def _row(label: str, value: str) -> str:
 
 
 def verdict_line(result: LoopResult) -> str:
-    """One line, PASS or FAIL first: the classification and the reason in a few words."""
+    """One line, PASS, FAIL or INCONCLUSIVE first: the classification and the reason in a few words."""
     a = result.analysis
     m = a.margins
     failed = result.failed_requirements
+    doubts = result.failed_checks
+    if doubts:
+        more = f" (and {len(doubts) - 1} more check(s), below)" if len(doubts) > 1 else ""
+        return f"INCONCLUSIVE  the data supports no verdict: {doubts[0].detail}{more}; try: {doubts[0].advice}"
     word = "PASS" if result.passed else "FAIL"
     if not a.stable:
         z = a.nyquist.closed_loop_rhp_poles
@@ -47,8 +51,6 @@ def verdict_line(result: LoopResult) -> str:
         why += f"; {len(failed)} of {len(result.requirements)} requirement(s) failed ({', '.join(o.requirement.text for o in failed)})"
     elif result.requirements:
         why += f"; all {len(result.requirements)} requirement(s) met"
-    if not a.nyquist.reliable:
-        why += " [Nyquist count doubtful, see below]"
     return f"{word}  {why}"
 
 
@@ -116,6 +118,12 @@ def _context_lines(result: LoopResult) -> list[str]:
         lines.extend(f"  {s}" for s in ignored[:_SHOWN_STATEMENTS])
         if len(ignored) > _SHOWN_STATEMENTS:
             lines.append(f"  ... and {len(ignored) - _SHOWN_STATEMENTS} more")
+    doubts = result.failed_checks
+    if doubts:
+        lines.append("self-checks failed (no verdict is given)")
+        for c in doubts:
+            lines.append(f"  - {c.name}: {c.detail}")
+            lines.append(f"    try: {c.advice}")
     if result.requirements:
         lines.append("requirements")
         lines.extend(f"  {'PASS' if o.passed else 'FAIL'}  {requirement_text(o)}" for o in result.requirements)
@@ -137,9 +145,9 @@ def format_text(result: LoopResult, *, colour: bool = False) -> str:
     return _PASS_FAIL.sub(lambda m: f"{m.group(1)}{_ANSI[m.group(2)]}{m.group(2)}{_RESET}", text)
 
 
-_ANSI = {"PASS": "\x1b[1;32m", "FAIL": "\x1b[1;31m"}
+_ANSI = {"PASS": "\x1b[1;32m", "FAIL": "\x1b[1;31m", "INCONCLUSIVE": "\x1b[1;33m"}
 _RESET = "\x1b[0m"
-_PASS_FAIL = re.compile(r"^( *)(PASS|FAIL)(?=  )", re.M)
+_PASS_FAIL = re.compile(r"^( *)(PASS|FAIL|INCONCLUSIVE)(?=  )", re.M)
 
 
 def _plain_text(result: LoopResult) -> str:

@@ -36,7 +36,7 @@ def test_public_surface_is_pinned():
     """netloop.analysis exports exactly this sorted list of names."""
     assert analysis.__all__ == sorted(analysis.__all__)
     assert set(analysis.__all__) == {
-        "DEFAULT_FLOOR_DB", "ClosedLoopPoles", "GainCrossover", "LoopAnalysis", "Margins", "NyquistVerdict",
+        "Check", "DEFAULT_FLOOR_DB", "ClosedLoopPoles", "GainCrossover", "LoopAnalysis", "Margins", "NyquistVerdict",
         "Peaking", "PhaseCrossover", "Refinement", "Requirement", "RequirementOutcome", "SecondOrderEstimate",
         "analyse", "middlebrook", "parse_requirement", "parse_requirements", "propose_frequencies", "refine",
         "sensitivity", "tian",

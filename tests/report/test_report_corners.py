@@ -69,7 +69,7 @@ def test_corner_csv_and_document(tmp_path, outcomes, stable_result):
     assert by["sf_27c"]["phase_margin_deg"] == "" and by["fs_0c"]["verdict"] == "error"
     assert by["ff_m40c"]["closed_loop_rhp_poles"] == "2"
     doc = corner_document(outcomes)
-    assert doc["counts"] == {"error": 1, "unstable": 1, "fail": 1, "pass": 2} and doc["passed"] is False
+    assert doc["counts"] == {"error": 1, "inconclusive": 0, "unstable": 1, "fail": 1, "pass": 2} and doc["passed"] is False
     assert doc["corners"][3]["loop"] is None
 
 

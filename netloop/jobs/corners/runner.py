@@ -38,7 +38,16 @@ class CornerRun:
     @property
     def passed(self) -> bool:
         """Every corner measured, stable, and every requirement met."""
-        return bool(self.records) and all(r["outcome"] == "pass" for r in self.records)
+        return self.verdict == "pass"
+
+    @property
+    def verdict(self) -> str:
+        """"fail" when a corner failed or could not be simulated, else "inconclusive" when a corner's data
+        supported no verdict, else "pass" (a plan with no record is "fail": nothing was shown)."""
+        outcomes = {r["outcome"] for r in self.records}
+        if not outcomes or outcomes & {"fail", "error"}:
+            return "fail"
+        return "inconclusive" if "inconclusive" in outcomes else "pass"
 
 
 def check_plan(plan: Plan) -> tuple[Task, ...]:
@@ -204,7 +213,7 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
         journal.close()
         bar.finish()
     records = tuple(r for t in tasks for r in by_key.get(t.key, ()))
-    counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "error")}
+    counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "inconclusive", "error")}
     keys = {t.key for t in tasks}
     stale = sum(len(v) for k, v in journal.done.items() if k not in keys)
     return CornerRun(plan.path, str(path), records, ran=len(pending), skipped=len(tasks) - len(pending), workers=workers,

@@ -98,5 +98,5 @@ def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
     records = []
     for r in results:
         doc = to_document(replace(r, label=task.corner.name))
-        records.append(_record(task, r.breaks.node, started, loop=doc, outcome="pass" if r.passed else "fail", sim_seconds=r.sim.seconds))
+        records.append(_record(task, r.breaks.node, started, loop=doc, outcome=r.verdict, sim_seconds=r.sim.seconds))
     return tuple(records)
