@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
+import contextlib
 import logging
 import math
 import time
 import uuid
 from collections.abc import Callable, Iterable, Mapping
-from concurrent.futures import Future, ThreadPoolExecutor, wait
 from dataclasses import dataclass, replace
 from os import PathLike
 from pathlib import Path
@@ -22,7 +22,8 @@ from netloop.errors import NetloopError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.probe import ProbedNetlist, split_loop
-from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, SplitRunsSimulator, default_simulator, processes_for, start_simulators
+from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
+from netloop.sim.background import StartingSimulator, run_while
 
 __all__ = [
     "CLEARS_STATUS",
@@ -177,47 +178,19 @@ class _Runner:
         self.processes = len(getattr(simulator, "simulators", ())) or 1
 
     def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None, stage: str = "") -> tuple[np.ndarray, dict[str, np.ndarray]]:
-        """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (see _run_while).
+        """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (netloop.sim.background.run_while).
         ``stage`` says what the job is for, in the status log (logger "netloop", level INFO)."""
         job = self.job_for(sweeps)
         processes = f" on {self.processes} ngspice processes" if self.processes > 1 else ""
         _log.info("%ssimulating %s: %d AC run(s)%s", f"{job.label}: " if job.label else "", stage or "a sweep", len(job.runs), processes)
         start = time.perf_counter()
-        result = self.simulator.run(job) if meanwhile is None else _run_while(self.simulator, job, meanwhile)
+        result = self.simulator.run(job) if meanwhile is None else run_while(self.simulator, job, meanwhile)[0]
         self.seconds += time.perf_counter() - start
         self.aid = self.aid or result.convergence_aid
         self.deck_path = self.deck_path or result.deck_path
         self.backend = result.backend or self.backend
         t = {name: np.asarray(v, dtype=complex) for name, v in self.ratios(result).items()}
         return np.asarray(result.runs[0].freq_hz, dtype=float), t
-
-
-_SEND_HEAD_START_S = 0.05  # ample to render, pickle and write a 100k-element job (about 30 ms)
-
-
-def _run_while(simulator: Simulator, job: SimJob, meanwhile: Callable[[], object]) -> SimResult:
-    """``simulator.run(job)`` in a thread while this thread calls ``meanwhile()``.
-
-    When ``meanwhile()`` raises (or the wait is interrupted), the job is abandoned: a simulator with
-    ``abort()`` stops at once, any other is waited for; its result or error is dropped and the
-    exception of this thread is raised.
-    """
-    pool = ThreadPoolExecutor(1, thread_name_prefix="netloop-sim-run")
-    try:
-        running = pool.submit(simulator.run, job)
-    finally:
-        pool.shutdown(wait=False)
-    try:
-        wait([running], timeout=_SEND_HEAD_START_S)  # the job is sent before this thread competes for the interpreter
-        meanwhile()
-        return running.result()
-    except BaseException:
-        if not running.done():
-            abort = getattr(simulator, "abort", None)
-            if abort is not None:
-                abort()
-            wait([running])
-        raise
 
 
 def _merge_all(f: np.ndarray, t: dict[str, np.ndarray], f2: np.ndarray, t2: dict[str, np.ndarray]) -> tuple[np.ndarray, dict[str, np.ndarray]]:
@@ -365,15 +338,6 @@ def ignored_lines(netlist: Netlist) -> tuple[str, ...]:
     return tuple(f"{d.location.file}:{d.location.line}: {d.text.splitlines()[0].strip()}" for d in netlist.ignored)
 
 
-def _in_background(start: Callable[..., object], *args, **kwargs) -> Future:
-    """``start(...)`` in a thread, so that starting simulators overlaps the caller's work."""
-    pool = ThreadPoolExecutor(1, thread_name_prefix="netloop-sim-start")
-    try:
-        return pool.submit(start, *args, **kwargs)
-    finally:
-        pool.shutdown(wait=False)
-
-
 def simulator_processes(processes: int | None, netlist: Netlist, runs: int) -> int:
     """``processes`` when given (at least 1), else how many ngspice processes suit a job of ``runs``
     runs on this netlist (netloop.sim.processes_for: more than one only on large circuits)."""
@@ -387,32 +351,6 @@ def simulator_processes(processes: int | None, netlist: Netlist, runs: int) -> i
 def own_simulator(processes: int | None, netlist: Netlist, runs: int, keep_decks: str | PathLike[str] | None) -> Simulator:
     """The default simulator for one measurement of ``netlist``, with as many ngspice processes as suit it."""
     return default_simulator(keep_dir=str(keep_decks) if keep_decks else None, processes=simulator_processes(processes, netlist, runs))
-
-
-def _close_started(started: Future) -> None:
-    """Close what a background start gave: one simulator or a list of them (nothing if it failed)."""
-    if started.exception() is not None:
-        return
-    result = started.result()
-    for sim in result if isinstance(result, list) else [result]:
-        close = getattr(sim, "close", None)
-        if close is not None:
-            close()
-
-
-def _joined(first: Future, more: Future | None, keep_decks: str | PathLike[str] | None) -> Simulator:
-    """The simulator started by ``first`` and the list started by ``more`` as one; if either failed
-    to start, the other is closed and the failure raised."""
-    futures = [f for f in (first, more) if f is not None]
-    wait(futures)
-    failed = next((f.exception() for f in futures if f.exception() is not None), None)
-    if failed is not None:
-        for future in futures:
-            _close_started(future)
-        raise failed
-    if more is None:
-        return first.result()
-    return SplitRunsSimulator([first.result(), *more.result()], keep_dir=str(keep_decks) if keep_decks else None)
 
 
 def measure(
@@ -438,39 +376,17 @@ def measure(
     sharing the two runs (None: two on a large netlist when two CPUs are free, else one; see
     netloop.sim.processes_for); ``processes`` is ignored when a simulator is given.
     """
-    own = simulator is None
-    keep = str(keep_decks) if keep_decks else None
-    starting = _in_background(default_simulator, keep_dir=keep) if own else None  # ngspice starts while the netlist is read and broken
-    more: Future | None = None
-    try:
+    with _simulator_for(simulator, keep_decks) as sim:  # ngspice starts now, while the netlist is read and broken
         parsed = load_netlist(netlist)
         reqs = parse_requirements(requirements)
-        count = simulator_processes(processes, parsed, runs=2) if own else 1
-        if count > 1:
-            more = _in_background(start_simulators, count - 1)  # the others start while the netlist is broken
-        unchecked, check = split_loop(parsed, at, driver=driver)  # the loop search runs during the first simulation
-    except BaseException:
-        for future in (starting, more):
-            if future is not None:
-                future.add_done_callback(_close_started)
-        raise
-    sim = _joined(starting, more, keep_decks) if starting is not None else simulator
-    checked: list[ProbedNetlist] = []
-    try:
+        if simulator is None:
+            sim.use_processes(simulator_processes(processes, parsed, runs=2))
+        unchecked, loop_check = split_loop(parsed, at, driver=driver)  # is the node on a loop? asked during the first simulation
         analysis, info, sim_warnings = measure_probed(
-            unchecked,
-            method=method,
-            sweep=sweep,
-            simulator=sim,
-            open_loop_rhp_poles=open_loop_rhp_poles,
-            label=label,
-            timeout_s=timeout_s,
-            meanwhile=lambda: checked.append(check()),
+            unchecked, method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles,
+            label=label, timeout_s=timeout_s, meanwhile=loop_check,
         )
-    finally:
-        if own and hasattr(sim, "close"):
-            sim.close()
-    probed = checked[0]
+    probed = loop_check()  # its outcome, found while the first simulation ran
     outcomes = tuple(r.check(analysis) for r in reqs)
     warnings = (*parsed.warnings, *probed.warnings, *sim_warnings, *analysis.warnings)
     return LoopResult(
@@ -489,3 +405,10 @@ def measure(
 def with_label(result: LoopResult, label: str) -> LoopResult:
     """The same result under another label (a corner name)."""
     return replace(result, label=label)
+
+
+def _simulator_for(simulator: Simulator | None, keep_decks: str | PathLike[str] | None):
+    """The caller's simulator (left open), or the default one started in the background now and closed at the end."""
+    if simulator is not None:
+        return contextlib.nullcontext(simulator)
+    return StartingSimulator(keep_dir=str(keep_decks) if keep_decks else None)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import functools
+
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import replace
@@ -69,13 +71,14 @@ def split_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> tuple
 
     The first element is ready to simulate but carries no warnings; ``check()`` returns what
     break_loop returns (the same record with the loop warnings) or raises break_loop's ProbeError
-    for a node on no loop. A caller may simulate while it checks, and must drop its results when
+    for a node on no loop; it searches once, and a later call gives the same record at once. A caller may simulate while it checks, and must drop its results when
     ``check()`` raises. Errors found before the split are raised at once, as break_loop raises them.
     """
     with gc_paused():  # the passes below build hundreds of thousands of acyclic records for a large netlist
         with _located(netlist):
             probed, check = _break(netlist, at, driver)
 
+    @functools.cache  # the search runs once; later calls give its outcome again
     def checked() -> ProbedNetlist:
         with gc_paused(), _located(netlist):
             return check()

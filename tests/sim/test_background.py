@@ -1,0 +1,88 @@
+"""Simulators started in the background: a job waits for the start, an abort during the start abandons it, and close() reaches a start still under way."""
+
+from __future__ import annotations
+
+import threading
+
+import pytest
+
+from netloop.errors import SimulationError
+from netloop.sim import AcRun, AcSweep, SimJob
+from netloop.sim.background import StartingSimulator, run_while
+
+
+class _Slow:
+    """A simulator whose start blocks until released; it records what happened to it."""
+
+    backend = "slow"
+
+    def __init__(self, gate: threading.Event, log: list) -> None:
+        self.log = log
+        gate.wait(5)
+        log.append("started")
+
+    def run(self, job):
+        self.log.append("ran")
+        return "result"
+
+    def close(self):
+        self.log.append("closed")
+
+
+JOB = SimJob(netlist="x\n.end\n", runs=(AcRun("series", {}, (AcSweep("dec", 10, 1.0, 10.0),)),), save=())
+
+
+def test_a_job_waits_for_the_start_and_close_closes_it():
+    """run() returns the started simulator's result; closing afterwards closes that simulator."""
+    gate, log = threading.Event(), []
+    sim = StartingSimulator(start=lambda keep_dir: _Slow(gate, log))
+    gate.set()
+    assert sim.run(JOB) == "result"
+    sim.close()
+    assert log == ["started", "ran", "closed"]
+
+
+def test_close_before_the_start_finishes_closes_it_when_it_does():
+    """A simulator closed while still starting is closed the moment its start ends, and never runs."""
+    gate, log = threading.Event(), []
+    sim = StartingSimulator(start=lambda keep_dir: _Slow(gate, log))
+    sim.close()
+    gate.set()
+    sim._first.result(5)  # noqa: SLF001 - wait for the background start to end
+    assert log == ["started", "closed"]
+
+
+def test_an_abort_during_the_start_abandons_the_job():
+    """A job whose run() was called while ngspice still starts is abandoned by abort(): it never reaches the simulator."""
+    gate, log = threading.Event(), []
+    sim = StartingSimulator(start=lambda keep_dir: _Slow(gate, log))
+
+    def check_fails():
+        sim.abort()  # as measure does when the node is on no loop
+        gate.set()
+        raise LookupError("no loop here")
+
+    with pytest.raises(LookupError):
+        run_while(sim, JOB, check_fails)
+    assert "ran" not in log
+    sim.close()
+
+
+def test_run_while_gives_both_results():
+    """run_while returns the job's result and what the caller's work gave."""
+    gate, log = threading.Event(), []
+    gate.set()
+    sim = StartingSimulator(start=lambda keep_dir: _Slow(gate, log))
+    assert run_while(sim, JOB, lambda: 42) == ("result", 42)
+    sim.close()
+
+
+def test_a_failed_start_raises_at_the_first_run():
+    """A start that failed raises its own error when a job needs the simulator."""
+    def broken(keep_dir):
+        raise SimulationError("ngspice would not start")
+
+    sim = StartingSimulator(start=broken)
+    with pytest.raises(SimulationError, match="would not start"):
+        sim.run(JOB)
+    sim.close()
