@@ -8,6 +8,7 @@ import pytest
 
 from netloop.errors import NetlistError, NetlistSyntaxError, UnknownNodeError
 from netloop.netlist import Directive, Element, Subcircuit, controlling_sources, parse_file, parse_text
+from netloop.netlist.cards import resolve_bjt
 
 
 def test_title_comments_and_continuations():
@@ -286,3 +287,50 @@ def test_ngspice_also_closes_innermost_on_misnamed_ends(tmp_path, op_of):
     op = op_of(deck, tmp_path)  # reference: ngspice op
     assert abs(op["v1#branch"] + 1e-3) < 1e-9
     assert parse_text(deck).subcircuit("inner").elements[0].name == "R1"
+
+
+DOLLARS = """dollar comments
+V1 in 0 dc 1
+R1 in mid$a 1k $ a comment
+R2 mid$a 0 3k $a comment glued to its dollar
+R3 mid$a x$ 1k\t$\ttabbed
+R4 x$ 0 1k $$ two
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_dollar_starts_a_comment_only_after_a_space(tmp_path, listing_of):
+    """`$` after a space or tab starts a comment, whatever follows it; inside a name (mid$a, x$) it is part of the name, as ngspice reads them."""
+    ours = [" ".join((e.name, *e.tokens)).lower() for e in parse_text(DOLLARS).elements]
+    assert ours == listing_of(DOLLARS, tmp_path)[1:]  # reference: ngspice 39 `listing e` (after its title line)
+    assert ours[2] == "r2 mid$a 0 3k"
+
+
+BJT_CAPITALS = """bjt whose model is named in capitals
+V1 vcc 0 dc 5
+V2 bb 0 dc 0.8
+RB bb b 100k
+RC vcc c 1k
+RC2 vcc c2 2k
+.model qn npn bf=100
+Q1 c b 0 QN off
+Q2 c2 b 0 QLATE off
+.model qlate npn bf=50
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_bjt_model_name_is_matched_whatever_its_case(tmp_path, op_of):
+    """`Q1 c b 0 QN off` with `.model qn` before or after it: QN is the model (names ignore case), so Q1 has three nodes, as ngspice's op has no node qn."""
+    nl = parse_text(BJT_CAPITALS)
+    for name, collector, model in (("q1", "c", "qn"), ("q2", "c2", "qlate")):
+        q = nl.element(name)
+        assert q.nodes == (collector, "b", "0") and q.model == model
+    assert not nl.warnings
+    assert resolve_bjt(("c", "b", "0", "QN", "off"), {"qn"}) == 3  # the card as written, against the lower-case model names
+    nodes = {n for e in nl.elements for n in e.nodes} - {"0"}
+    op = op_of(BJT_CAPITALS, tmp_path)  # reference: ngspice op, which names every node it solved for
+    assert nodes == {name for name in op if "#" not in name}
+    assert op["c"] < 5.0 and op["c2"] < 5.0  # both conduct: ngspice found their models
