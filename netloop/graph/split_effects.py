@@ -5,9 +5,11 @@ split but not the loops. A caller that has both (netloop.jobs.discover) hands th
 ``apply_splits`` as a ``NodeSplit``: which side each flattened terminal ``(element, pin)`` at the
 node goes to. A loop passing the node is opened when its way in and its way out sit on opposite
 sides of the split, and stays closed when both sit on one side. A loop that stays closed on the
-driver side and enters the node through an active output (a drain, a collector, a controlled
-source) is the driver stage's own feedback, e.g. a Miller capacitor kept with its amplifier on
-purpose: a *local* loop. The ranking then prefers a node whose split opens every loop of the group
+driver side, enters the node through an active output (a drain, a collector, a controlled
+source) and leaves it through a passive network (R, C, L) is the driver stage's own feedback, e.g.
+a Miller capacitor kept with its amplifier on purpose: a *local* loop. (One that leaves through an
+active input on the driver side is closed around the probe, not local: the split put the loop's
+input with its driver, as when a whole block's pin is the driver side.) The ranking then prefers a node whose split opens every loop of the group
 except local loops (common practice: the global loop is measured with the local compensation in
 place), and each reason says plainly which loops are opened and which stay closed, and why.
 """
@@ -18,6 +20,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
+from netloop.errors import NetloopError
 from netloop.graph.collapse import Shorts, series_shorts
 from netloop.graph.loop_records import BreakCandidate, Loop, LoopGroup
 from netloop.graph.signal_flow import element_edges, signal_nodes
@@ -86,6 +89,13 @@ def _resolved(terminals, node: str, shorts: Shorts) -> list[tuple[str, str]]:
     return out
 
 
+def _passive(circuit: FlatCircuit, element: str) -> bool:
+    try:
+        return circuit.element(element).kind in "RCL"
+    except NetloopError:  # a name the circuit does not know (read by name in an expression) is not passive
+        return False
+
+
 def loop_fates(circuit: FlatCircuit, loops: tuple[Loop, ...], split: NodeSplit, signal: frozenset[str] | None = None) -> tuple[LoopFate, ...]:
     """The fate of every loop of a group under one split of ``split.node`` (see the module docstring)."""
     if signal is None:
@@ -114,7 +124,7 @@ def loop_fates(circuit: FlatCircuit, loops: tuple[Loop, ...], split: NodeSplit, 
             fate = OPENED
         elif sides == {"load"}:
             fate = CLOSED_LOAD
-        elif any(s.target == vertex and not s.passive for s in lp.steps):
+        elif any(s.target == vertex and not s.passive for s in lp.steps) and all(_passive(circuit, el) for el, _ in way_out_t):
             fate = LOCAL
         else:
             fate = CLOSED_DRIVER
