@@ -69,7 +69,7 @@ from netloop.analysis.response import ratio_db
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
 from netloop.jobs.loop_result import LoopResult, combined_verdict
 
-__all__ = ["CORNERS_SCHEMA", "SCHEMA", "multi_document", "to_document"]
+__all__ = ["CORNERS_SCHEMA", "SCHEMA", "json_document", "multi_document", "to_document"]
 
 SCHEMA = "netloop.loop/1"
 CORNERS_SCHEMA = "netloop.corners/1"  # a corner run: netloop.report.corner_records; its results file: netloop.jobs.corners.journal
@@ -197,6 +197,14 @@ def _plain(value, path: str, infinite: dict[str, str]):
     return value
 
 
+def json_document(raw: dict) -> dict:
+    """``raw`` with builtins only and non-finite floats as null, listed under ``infinite`` (see the module docstring)."""
+    infinite: dict[str, str] = {}
+    doc = _plain(raw, "", infinite)
+    doc["infinite"] = infinite
+    return doc
+
+
 def to_document(result: LoopResult) -> dict:
     """The JSON document of one loop (see the module docstring): builtins only, json.dumps(allow_nan=False) works."""
     a = result.analysis
@@ -221,10 +229,7 @@ def to_document(result: LoopResult) -> dict:
         },
         "caution": result.caution,
     }
-    infinite: dict[str, str] = {}
-    doc = _plain(raw, "", infinite)
-    doc["infinite"] = infinite
-    return doc
+    return json_document(raw)
 
 
 def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopResult], **extra) -> dict:
