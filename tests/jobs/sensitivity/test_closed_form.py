@@ -249,3 +249,33 @@ def test_two_step_sizes_agree(tmp_path, simulator):
         assert coarse.pm.per_decade == pytest.approx(fine.pm.per_decade, rel=1e-4), name
         assert coarse.fc.per_decade == pytest.approx(fine.fc.per_decade, rel=1e-4), name
         assert coarse.pm.error < 1e-4 * abs(coarse.pm.per_decade), name  # the stated accuracy says so too
+
+
+@pytest.fixture(scope="module")
+def two_pole_path(tmp_path_factory):
+    path = tmp_path_factory.mktemp("two_pole_whatif") / "two_pole.cir"
+    path.write_text(TWO_POLE)
+    return path
+
+
+@pytest.mark.ngspice
+def test_a_met_requirement_finds_how_far_the_value_may_move(two_pole_path, simulator):
+    """When the loop already meets pm>=45, the what-if finds the C2 at which it stops: the closed form's, to 1e-4."""
+    run = sensitivities(two_pole_path, "out", knobs=["c2"], requirements=["pm>=45"], solve=["c2"], simulator=simulator)
+    w = run.what_ifs[0]
+    assert w.met_at_value and w.factor > 1
+    assert w.solved_value == pytest.approx(two_pole_c2_for_pm(45.0), rel=1e-4)
+    assert w.confirmed
+
+
+@pytest.mark.ngspice
+def test_an_unreachable_requirement_is_said_plainly(two_pole_path, simulator):
+    """pm>=89 cannot be met by C2 alone between 0.1x and 10x: no value, and the best phase margin seen (at 0.1x) is the
+    closed form's there."""
+    run = sensitivities(two_pole_path, "out", knobs=["c2"], requirements=["pm>=89"], solve=["c2"], simulator=simulator)
+    w = run.what_ifs[0]
+    assert w.solved_value is None and w.check is None and w.monotonic
+    assert w.answer.startswith("pm>=89 cannot be reached by c2 alone between 0.1x and 10x of c2: the best is")
+    best_factor, best_pm = max(w.tried, key=lambda fv: fv[1])
+    assert best_factor == pytest.approx(0.1)
+    assert best_pm == pytest.approx(two_pole_pm_deg(0.1 * C2), abs=1e-3)
