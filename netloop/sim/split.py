@@ -116,6 +116,7 @@ class SplitRunsSimulator:
             deck_path=first.deck_path,
             convergence_aid=next((r.convergence_aid for r in results if r.convergence_aid), None),
             backend=first.backend,
+            parameters=first.parameters,
         )
         return self._kept(job, merged)
 
