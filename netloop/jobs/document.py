@@ -21,6 +21,9 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                           and every requirement met
     checks                [{name, passed, detail, advice}]: the measurement's self-checks (a failed
                           one makes the verdict "inconclusive"; netloop.analysis.checks)
+    below_common_practice [{text, value, reason}]: a passing loop checked without requirements,
+                          the rules of thumb it misses (netloop.jobs.loop_result.COMMON_PRACTICE:
+                          pm>=45, gm>=10, peak<=3); they do not change the verdict
     dc_loop_gain_db       20 log10 |T| at the lowest swept frequency
     margins               the worst case over all crossovers:
         phase_margin_deg, unity_gain_hz, gain_margin_db, phase_crossover_hz,
@@ -216,6 +219,8 @@ def to_document(result: LoopResult) -> dict:
         "verdict": result.verdict,
         "passed": result.passed,
         "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail, "advice": c.advice} for c in result.all_checks],
+        "below_common_practice": [{"text": o.requirement.text, "value": o.value, "reason": o.reason}
+                                  for o in result.below_common_practice],
         **_analysis(a),
         "break": _break(result),
         "requirements": _requirements(result),
