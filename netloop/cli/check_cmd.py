@@ -45,8 +45,9 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
     parser.add_argument("--open-loop-rhp-poles", type=int, default=0, metavar="P", help="open-loop right-half-plane poles for the Nyquist verdict (default 0)")
     parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
-    parser.add_argument("--jobs", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
+    parser.add_argument("--processes", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
                         "(default: one per excitation, up to the free CPUs and at most 4, on netlists of 30000 elements or more; else 1)")
+    parser.add_argument("--jobs", dest="processes", type=process_count, help=argparse.SUPPRESS)  # the earlier name of --processes
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
@@ -119,7 +120,6 @@ def write_outputs(args: argparse.Namespace, results) -> None:
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.cli.main import exit_status
-    from netloop.jobs.loop_result import combined_verdict
     from netloop.analysis import parse_requirements
     from netloop.jobs.measure import load_netlist, measure
 
@@ -136,25 +136,51 @@ def run(args: argparse.Namespace) -> int:
         open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements,
         keep_decks=args.keep_decks,
-        processes=args.jobs,
+        processes=args.processes,
     )
-    if args.at and not args.at_pair:
-        results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
-    elif args.at_pair:
+    if args.at_pair:
         return run_pair(args, load_netlist(args.netlist), common)
-    else:
-        from netloop.jobs.discover import measure_all_loops
-
-        results, notes = measure_all_loops(load_netlist(args.netlist), **common)
-        for note in notes:
-            print(f"netloop: {note}", file=sys.stderr)
+    if not args.at:
+        return run_groups(args, load_netlist(args.netlist), common)
+    results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
     write_outputs(args, results)
     if args.json:
-        doc = report.to_document(results[0]) if args.at else report.multi_document("loops", results)
-        print(json.dumps(doc, indent=2, allow_nan=False))
+        print(json.dumps(report.to_document(results[0]), indent=2, allow_nan=False))
     else:
-        print("\n\n".join(report.format_text(r) for r in results))
-    return exit_status(combined_verdict(r.verdict for r in results))
+        print(report.format_text(results[0]))
+    return exit_status(results[0].verdict)
+
+
+def unmeasured_text(group) -> str:
+    """The summary of a loop group no break could measure: INCONCLUSIVE first, the reason, what to try."""
+    return f"INCONCLUSIVE  {group.label}: not measured: {group.reason}\ntry: {group.advice}"
+
+
+def run_groups(args: argparse.Namespace, netlist, common: dict) -> int:
+    """Without --at: every loop group measured on its own (netloop.jobs.discover.check_loops), each reported, the verdicts combined."""
+    from netloop import report
+    from netloop.cli.main import exit_status
+    from netloop.jobs.discover import check_loops
+
+    check = check_loops(netlist, **common)
+    for note in check.notes:
+        print(f"netloop: {note}", file=sys.stderr)
+    results = list(check.results)
+    if results:
+        write_outputs(args, results)
+    if args.json:
+        print(json.dumps(report.groups_document(check), indent=2, allow_nan=False))
+    else:
+        parts = [report.format_text(g.result) if g.result is not None else unmeasured_text(g) for g in check.groups]
+        if len(check.groups) > 1:
+            parts.insert(0, verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups}))
+        print("\n\n".join(parts))
+    return exit_status(check.verdict)
+
+
+def verdicts_line(verdict: str, parts: dict[str, str]) -> str:
+    """The first line over several loops: "INCONCLUSIVE  differential mode: pass, common mode: inconclusive"."""
+    return f"{verdict.upper()}  " + ", ".join(f"{name}: {v}" for name, v in parts.items())
 
 
 def coupling_document(coupling) -> dict:
@@ -204,6 +230,7 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))
     else:
+        print(verdicts_line(pair.verdict, {f"{mode} mode": r.verdict for mode, r in pair.modes.items()}))
         parts = [f"{mode} mode\n{report.format_text(r)}" for mode, r in pair.modes.items()]
         print("\n".join(parts) + "\n" + coupling_line(pair.coupling))
     return exit_status(pair.verdict)

@@ -14,7 +14,7 @@ import numpy as np
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.backend import NgspiceBackend
 from netloop.sim.convergence import aid_ladder, describe_aid, op_failure, option_words
-from netloop.sim.deck import OP_RAW, control_steps, raw_name, render_deck, save_key
+from netloop.sim.deck import OP_RAW, PARAMS_RAW, alter_vector, control_steps, raw_name, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import RunResult, SimJob, SimResult
 from netloop.sim.keep import keep_deck, runnable_deck
@@ -73,6 +73,7 @@ class BatchSimulator(NgspiceBackend):
                 if missing or summary(lines):  # e.g. 'alter' of a source the circuit lacks: ngspice goes on regardless
                     raise failure(missing or f"ngspice reported errors: {summary(lines)}")
                 runs = tuple(self._run(job, r, Path(work), lines, failure) for r in range(len(job.runs)))
+                parameters = _parameters(job, Path(work) / PARAMS_RAW, failure)
             return SimResult(
                 runs=runs,
                 operating_point=_node_voltages(op),
@@ -80,6 +81,7 @@ class BatchSimulator(NgspiceBackend):
                 deck_path=keep_deck(runnable_deck(job, aid), job.label, self.keep_dir) if self.keep_dir is not None else None,
                 convergence_aid=describe_aid(aid, ngspice_fallback(lines)),
                 backend=self.backend,
+                parameters=parameters,
             )
         path = keep_deck(runnable_deck(job, tried[-1]), job.label, self.keep_dir)
         raise op_failure(job, tried, said, path, tail(log, 60))
@@ -146,6 +148,21 @@ def _op_plot(path: Path) -> RawPlot | None:
     if plot is None or not plot.names or plot.data[plot.names[0]].size == 0:
         return None
     return plot
+
+
+def _parameters(job: SimJob, path: Path, failure) -> dict[str, float]:
+    """The loaded value of each parameter ``job`` altered, from the raw file its deck wrote."""
+    if not job.alters:
+        return {}
+    plot = _first_plot(path)
+    found = {name.lower(): data for name, data in plot.data.items()} if plot is not None else {}
+    out = {}
+    for i, alter in enumerate(job.alters):
+        data = found.get(alter_vector(i), found.get(f"v({alter_vector(i)})"))
+        if data is None or data.size < 1:
+            raise failure(f"ngspice gave no value for {alter.ref}")
+        out[alter.ref] = float(np.real(data[0]))
+    return out
 
 
 def _raw_key(key: str) -> str:

@@ -14,14 +14,25 @@ import jinja2
 from netloop.errors import SimulationError
 from netloop.sim.frequency import sweep_problem
 from netloop.sim.library import NGSPICE_THREADS
-from netloop.sim.job import AcSweep, SimJob
+from netloop.sim.job import AcSweep, Alter, SimJob
 
-__all__ = ["Step", "check_workdir", "control_steps", "excited_sources", "format_number", "render_deck", "save_key", "strip_end"]
+__all__ = [
+    "PARAMS_RAW",
+    "Step",
+    "alter_vector",
+    "check_workdir",
+    "control_steps",
+    "excited_sources",
+    "format_number",
+    "render_deck",
+    "save_key",
+    "strip_end",
+]
 
 TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
 MAX_COMMAND_CHARS = 900  # ngspice's shared API takes at most 1023 characters a command
 
-StepKind = Literal["op", "ac", "alter", "save", "write", "free", "set"]
+StepKind = Literal["op", "ac", "alter", "let", "save", "write", "free", "set"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -111,10 +122,35 @@ def _raw_path(name: str, raw_dir: str | None) -> str:
 
 
 OP_RAW = "op.raw"
+PARAMS_RAW = "params.raw"  # batch mode: the loaded values of the job's altered parameters
+_PARAMETER_WORD = re.compile(r"^[a-z0-9_.#:$+-]+$")
+
+
+def alter_vector(index: int) -> str:
+    """The ngspice vector that holds the loaded value of a job's ``index``-th altered parameter."""
+    return f"netloop_alter_{index}"
+
+
+def _alter_steps(alters: tuple[Alter, ...], write_raw: bool, raw_dir: str | None) -> tuple[list[Step], list[Step]]:
+    """(steps that keep each parameter's loaded value and change it, steps that put it back)."""
+    change: list[Step] = []
+    restore: list[Step] = []
+    for i, alter in enumerate(alters):
+        for word in (alter.device.strip().lower(), alter.parameter.strip().lower()):
+            if not _PARAMETER_WORD.match(word):
+                raise SimulationError(f"cannot alter {alter.ref!r}: {word!r} is not a device or parameter name")
+        change.append(Step(f"let {alter_vector(i)} = {alter.ref}", "let"))
+        change.append(Step(f"alter {alter.ref} = {alter_vector(i)} * {format_number(alter.scale)}", "alter"))
+        restore.append(Step(f"alter {alter.ref} = {alter_vector(i)}", "alter"))
+    if write_raw and alters:
+        names = " ".join(alter_vector(i) for i in range(len(alters)))
+        change.append(Step(f"write {_raw_path(PARAMS_RAW, raw_dir)} {names}", "write"))
+    return change, restore
 
 
 def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> tuple[Step, ...]:
-    """The control commands of a job: op once, then per run the AC magnitudes and its sweeps.
+    """The control commands of a job: op once, the job's alters, then per run the AC magnitudes and
+    its sweeps, and last the altered parameters put back.
 
     ``write_raw`` adds the ``write`` commands batch mode needs: binary raw files in ``raw_dir``
     (an absolute folder), or in ngspice's current folder when that is None.
@@ -128,6 +164,8 @@ def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> t
     steps.append(Step("destroy all", "free"))
     saves = tuple(save_key(s) for s in job.save)
     steps.extend(Step(c, "save") for c in _chunked("save", saves))
+    change, restore = _alter_steps(job.alters, write_raw, raw_dir)
+    steps.extend(change)
     sources = excited_sources(job)
     for r, run in enumerate(job.runs):
         ac = {k.strip().lower(): v for k, v in run.ac.items()}
@@ -138,6 +176,7 @@ def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> t
             if write_raw:
                 steps.append(Step(f"write {_raw_path(raw_name(r, s), raw_dir)}", "write", r, s))
             steps.append(Step("destroy all", "free", r, s))
+    steps.extend(restore)
     return tuple(steps)
 
 

@@ -8,7 +8,7 @@ from typing import Literal, Protocol, runtime_checkable
 
 import numpy as np
 
-__all__ = ["AcRun", "AcSweep", "RunResult", "SimJob", "SimResult", "Simulator"]
+__all__ = ["AcRun", "AcSweep", "Alter", "RunResult", "SimJob", "SimResult", "Simulator"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -37,6 +37,26 @@ class AcRun:
 
 
 @dataclass(frozen=True, slots=True)
+class Alter:
+    """One device parameter changed for one job: ngspice's ``@device[parameter]`` set to ``scale`` times its loaded value.
+
+    ``device`` is named as ngspice flattens it ("cc", "m.xamp.m1"); ``parameter`` as ngspice names it
+    ("capacitance", "resistance", "inductance", "gain", "w", "l", "m"). The change is made once the
+    circuit is loaded, before the job's runs, and undone after them: the loaded circuit is left as it
+    was, so the jobs of one measurement can each change another parameter on one loaded circuit.
+    """
+
+    device: str
+    parameter: str
+    scale: float = 1.0
+
+    @property
+    def ref(self) -> str:
+        """ngspice's name of the parameter, lower-case: ``@m.xamp.m1[w]``."""
+        return f"@{self.device.strip().lower()}[{self.parameter.strip().lower()}]"
+
+
+@dataclass(frozen=True, slots=True)
 class SimJob:
     """A netlist (no analyses of its own) and the AC runs to do on one shared operating point."""
 
@@ -58,6 +78,9 @@ class SimJob:
     # the circuit that job left loaded, without a new load and operating point. Empty: always loaded
     # afresh (a file the netlist includes may have changed since).
     circuit_id: str = ""
+    # Device parameters changed for this job only (see Alter); not part of the circuit a later job may
+    # reuse. The operating point in SimResult.operating_point is the circuit's as loaded, without them.
+    alters: tuple[Alter, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -80,6 +103,8 @@ class SimResult:
     # (gmin or source stepping, transient operating point) found it; None when plain Newton converged
     convergence_aid: str | None = None
     backend: str = ""
+    # the value as loaded (before the job's alters) of each parameter the job altered, by Alter.ref
+    parameters: Mapping[str, float] = field(default_factory=dict)
 
     def run(self, name: str) -> RunResult:
         for r in self.runs:

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from netloop.sim.convergence import aid_ladder, describe_aid, option_words
-from netloop.sim.deck import Step, control_steps, excited_sources, render_deck, save_key
+from netloop.sim.deck import Step, alter_vector, control_steps, excited_sources, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import SimJob
 from netloop.sim.output import ac_op_failed, error_lines, ngspice_fallback, op_failed, summary, tail
@@ -32,6 +32,7 @@ class JobPayload:
     log: str
     aid: str | None  # our aid (option words) in the deck, if one was needed
     found_by: str | None  # what SimResult.convergence_aid says
+    parameters: dict[str, float] = field(default_factory=dict)  # SimResult.parameters
 
 
 @dataclass(slots=True)
@@ -119,7 +120,7 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
             loaded, said = _load(session, job, key, aid, log, failure)
             if loaded is None:
                 continue  # the operating point failed: next aid
-        parts, ac_lines = _sweeps(session, job, steps, log, failure, saves_set=not fresh)
+        parts, ac_lines, parameters = _sweeps(session, job, steps, log, failure, saves_set=not fresh)
         if parts is None:  # the first ac's own operating point failed
             if not fresh:
                 raise failure("op", summary(ac_lines))
@@ -131,7 +132,7 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
             loaded.found_by = describe_aid(aid, ngspice_fallback(ac_lines))
             loaded.op_done = True
         runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
-        payload = JobPayload(operating_point=dict(loaded.voltages), runs=runs, log="\n".join(log), aid=aid, found_by=loaded.found_by)
+        payload = JobPayload(dict(loaded.voltages), runs, "\n".join(log), aid, loaded.found_by, parameters)
         return payload, loaded
     raise failure("op", summary(said))
 
@@ -163,10 +164,11 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
 
 
 def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: list[str], failure, saves_set: bool):
-    """Run the job's saves, alters and sweeps; returns ({run: parts}, first ac's lines), or
-    (None, lines) when the first ac's own operating point failed."""
+    """Run the job's saves, alters and sweeps; returns ({run: parts}, first ac's lines, the loaded value
+    of each altered parameter), or (None, lines, {}) when the first ac's own operating point failed."""
     saves = tuple(save_key(s) for s in job.save)
     parts: dict[int, list] = {r: [] for r in range(len(job.runs))}
+    parameters: dict[str, float] = {}
     first_ac: list[str] | None = None
     for step in steps:
         if step.kind in ("op", "free") or (step.kind == "save" and saves_set):
@@ -176,9 +178,15 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
         if step.kind == "ac" and first_ac is None:
             first_ac = lines
             if ac_op_failed(lines) or op_failed(lines):
-                return None, lines
+                return None, lines, {}
         if error_lines(lines):
             raise failure("analysis", f"'{step.command}' failed: " + summary(lines))
+        if step.kind == "let":  # the loaded value of the job's next altered parameter
+            alter = job.alters[len(parameters)]
+            value = session.vector(session.current_plot(), alter_vector(len(parameters)))
+            if value is None or value.size != 1:
+                raise failure("analysis", f"ngspice gave no value for {alter.ref}")
+            parameters[alter.ref] = float(np.real(value[0]))
         if step.kind != "ac":
             continue
         plot = session.current_plot()
@@ -194,7 +202,7 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
             vectors[key] = np.asarray(data, dtype=np.complex128)
         parts[step.run_index].append((np.real(freq).astype(float), vectors))
         session.command("destroy all")
-    return parts, first_ac or []
+    return parts, first_ac or [], parameters
 
 
 def _has_nodes(session: NgspiceSession, plot: str) -> bool:

@@ -93,6 +93,7 @@ def _portable(job: SimJob) -> SimJob:
         options=tuple(job.options),
         op_aids=tuple(job.op_aids),
         workdir=os.path.abspath(job.workdir or os.getcwd()),
+        alters=tuple(job.alters),
     )
 
 
@@ -238,6 +239,7 @@ class SharedLibrarySimulator(NgspiceBackend):
             deck_path=deck_path,
             convergence_aid=payload.found_by,
             backend=self.backend,
+            parameters=payload.parameters,
         )
 
     def operating_point(self, netlist: str) -> Mapping[str, float]:
