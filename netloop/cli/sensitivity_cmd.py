@@ -5,7 +5,12 @@ from __future__ import annotations
 import argparse
 import json
 
-from netloop.cli.check_cmd import add_measure_options, process_count, refuse_bad_outputs, sweep_from
+from netloop.cli.check_cmd import (
+    add_measure_options,
+    process_count,
+    refuse_bad_outputs,
+    sweep_from,
+)
 
 __all__ = ["add_parser", "run"]
 
