@@ -20,7 +20,7 @@ from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_
 from netloop.report.nyquist_plot import nyquist_figure
 from netloop.report.text import format_text, requirement_status, requirement_text, verdict_line
 
-__all__ = ["TEMPLATE_DIR", "render_html", "write_html"]
+__all__ = ["TEMPLATE_DIR", "page_template", "png_uri", "render_html", "write_html"]
 
 TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
 TEMPLATE = "report.html.j2"
@@ -39,7 +39,13 @@ def _environment():
     )
 
 
-def _png_uri(fig) -> str:
+def page_template(name: str):
+    """A template of templates/ in the report's environment (autoescaped, StrictUndefined)."""
+    return _environment().get_template(name)
+
+
+def png_uri(fig) -> str:
+    """A figure as a PNG data URI, for a self-contained page."""
     return "data:image/png;base64," + base64.b64encode(render(fig, "png")).decode("ascii")
 
 
@@ -158,8 +164,8 @@ def _loop(index: int, r: LoopResult, results: Sequence[LoopResult], plots: bool)
         "verdict_class": _verdict_class(r),
         "summary": _summary(r),
         "plots": [
-            {"uri": _png_uri(bode_figure(r)), "alt": f"Bode plot of the loop broken at {r.breaks.node}"},
-            {"uri": _png_uri(nyquist_figure(r)), "alt": f"Nyquist plot of the loop broken at {r.breaks.node}"},
+            {"uri": png_uri(bode_figure(r)), "alt": f"Bode plot of the loop broken at {r.breaks.node}"},
+            {"uri": png_uri(nyquist_figure(r)), "alt": f"Nyquist plot of the loop broken at {r.breaks.node}"},
         ] if plots else [],
         "gain_head": ["frequency", "direction", "phase", "phase margin", "|T/(1+T)| there", "delay margin"],
         "gain_rows": _gain_rows(r),
@@ -209,14 +215,17 @@ def _overview(results: Sequence[LoopResult], plots: bool) -> dict:
                    + "".join(f", {n} {v}" for v in ("fail", "inconclusive") if (n := sum(r.verdict == v for r in results))),
         "verdict_class": verdict,
         "plots": [
-            {"uri": _png_uri(bode_figure(results)), "alt": "Bode plots of all loops"},
-            {"uri": _png_uri(nyquist_figure(results)), "alt": "Nyquist plots of all loops"},
+            {"uri": png_uri(bode_figure(results)), "alt": "Bode plots of all loops"},
+            {"uri": png_uri(nyquist_figure(results)), "alt": "Nyquist plots of all loops"},
         ] if plots else [],
     }
 
 
-def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None = None, plots: bool = True) -> str:
-    """The HTML page of one loop or several (an overview with overlaid plots, then one section per loop)."""
+def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None = None, plots: bool = True, sections: Sequence[str] = ()) -> str:
+    """The HTML page of one loop or several (an overview with overlaid plots, then one section per loop).
+
+    ``sections``: HTML of other jobs' sections (already rendered and escaped), placed before the loops.
+    """
     rs = as_results(results)
     netlists = sorted({r.netlist for r in rs})
     if title is None:
@@ -228,8 +237,15 @@ def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None
         "overview": _overview(rs, plots) if len(rs) > 1 else None,
         "loops": [_loop(i, r, rs, plots) for i, r in enumerate(rs)],
         "caution": rs[0].caution,
+        "sections": [_markup(section) for section in sections],
     }
     return _environment().get_template(TEMPLATE).render(**context)
+
+
+def _markup(html: str):
+    from markupsafe import Markup  # noqa: PLC0415 - jinja2's own dependency, loaded with it
+
+    return Markup(html)
 
 
 def write_html(results: LoopResult | Iterable[LoopResult], path: str | Path, *, title: str | None = None) -> Path:
