@@ -2,7 +2,7 @@
 
     .venv/bin/python tools/mutate.py analysis           # what `make mutate PKG=analysis` runs
     .venv/bin/python tools/mutate.py netlist --jobs 2   # two mutants at a time (default 1: the machine is shared)
-    .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts, re-test only the mutants that survived
+    .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts: test new or changed mutants and the survivors
 
 Each package is mutated in its own copy of the repository under .mutate/PKG (mutmut reads its settings
 from the pyproject.toml of the folder it runs in, so each copy gets its own [tool.mutmut] table: which
@@ -113,7 +113,7 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("packages", nargs="*", metavar="PKG", help=f"one or more of {', '.join(PACKAGES)} (default: all, one after the other)")
     parser.add_argument("--jobs", type=int, default=1, help="mutants tested at a time (default 1)")
-    parser.add_argument("--again", action="store_true", help="keep the verdicts of the last run and re-test its survivors")
+    parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants and its survivors")
     parser.add_argument("--report", action="store_true", help="only print the last run's figures")
     args = parser.parse_args(argv)
     unknown = [p for p in args.packages if p not in PACKAGES]
@@ -127,9 +127,8 @@ def main(argv: list[str] | None = None) -> int:
             previous = ROOT / ".mutate" / package
             survivors = [n for n, v in verdicts(previous).items() if v not in KILLED] if args.again and (previous / "mutants").is_dir() else []
             work = prepare(package, fresh=not args.again)
-            if args.again and not survivors:
-                print(f"{package}: no survivors to re-test")
-            else:
+            _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)
+            if survivors:  # mutmut keeps a verdict unless the mutant is named: name the survivors to test them again
                 _mutmut(work, "run", "--max-children", str(args.jobs), *survivors)
         text, _ = summary(package, verdicts(work), equivalent.get(package, {}))
         print(text)
