@@ -25,6 +25,7 @@ __all__ = [
     "corner_entry",
     "corner_table",
     "counts_line",
+    "loads_line",
     "failed_requirements",
     "margin",
     "run_document",
@@ -124,6 +125,21 @@ def counts_line(records: tuple[dict, ...]) -> str:
     if nodes > 1:
         return f"{len(records)} loops measured ({corners} corners at {nodes} break nodes): " + ", ".join(parts)
     return f"{len(records)} corner{'s' if len(records) != 1 else ''}: " + ", ".join(parts)
+
+
+def loads_line(records: tuple[dict, ...]) -> str | None:
+    """"circuit loads: 3 for 18 corners; 15 ran on a circuit another corner had loaded (...)", from the records'
+    ``loads``; None when no record says (a results file written before netloop counted them)."""
+    known = [r["loads"] for r in records if r.get("loads") is not None]
+    if not known:
+        return None
+    shared = sum(1 for n in known if n == 0)
+    what = "corners" if len({r["at"] for r in records}) <= 1 else "measurements"
+    line = f"circuit loads: {sum(known)} for {len(records)} {what}"
+    if shared:
+        line += (f"; {shared} ran on a circuit another corner had loaded, with its temperature, supplies or parameters "
+                 "changed in place (share_loads)")
+    return line
 
 
 _CSV_FIELDS = ("corner", "at", "verdict", "phase_margin_deg", "gain_margin_db", "unity_gain_hz", "phase_crossover_hz",

@@ -44,27 +44,38 @@ def _statements(text: str) -> list[str]:
     return out
 
 
-def _explains(line: str, keys: set[tuple[str, str]]) -> bool:
+_SOURCE_WORDS = frozenset("ac pulse sin exp pwl sffm am trnoise trrandom distof1 distof2 portnum z0".split())
+_VALUE = r"\s*=\s*(?:\{[^}]*\}|'[^']*'|\"[^\"]*\"|[^\s,]+)"
+
+
+def _masked(line: str, keys: set[tuple[str, str]]) -> str:
+    """The line with the values the changes set replaced by '*' (a .temp value, a changed source's DC value,
+    a changed parameter's value on a .param line); other lines as they are."""
     words = line.split()
     if not words:
-        return False
+        return line
     head = words[0]
-    if head == ".temp":
-        return ("temp", "") in keys
+    if head == ".temp" and ("temp", "") in keys:
+        return ".temp *"
     if head == ".param":
-        names = {name.strip() for name in re.findall(r"([a-z_][\w.]*)\s*=", line)}
-        return bool(names) and all(("param", name) in keys for name in names)
-    return ("source", head) in keys
+        for kind, name in keys:
+            if kind == "param":
+                line = re.sub(rf"(?<![\w.]){re.escape(name)}{_VALUE}", f"{name}=*", line)
+        return " ".join(line.split())
+    if ("source", head) in keys and len(words) > 3:
+        at = 4 if words[3] == "dc" else 3
+        if at < len(words) and (at == 4 or words[3].split("(")[0] not in _SOURCE_WORDS):
+            words[at] = "*"
+        return " ".join(words)
+    return line
 
 
 def explained(loaded: str, wanted: str, changes: Iterable[Change]) -> bool:
-    """True when netlist text ``wanted`` differs from ``loaded`` only in lines that ``changes`` set:
-    ``.temp`` lines, the cards of the changed sources, ``.param`` lines that define only changed parameters."""
+    """True when netlist text ``wanted`` differs from ``loaded`` only in the values ``changes`` set: the
+    ``.temp`` value, the DC value of a changed source's card, a changed parameter's value on a ``.param`` line."""
     keys = {c.key for c in changes}
     a, b = _statements(loaded), _statements(wanted)
-    if len(a) != len(b):
-        return False
-    return all(x == y or (_explains(x, keys) and _explains(y, keys) and x.split()[0] == y.split()[0]) for x, y in zip(a, b))
+    return len(a) == len(b) and all(x == y or _masked(x, keys) == _masked(y, keys) for x, y in zip(a, b))
 
 
 def change_commands(changes: Iterable[Change], current: Mapping[tuple[str, str], str]) -> tuple[list[str], bool]:

@@ -105,16 +105,21 @@ def test_a_netlist_that_differs_elsewhere_is_loaded_afresh(shared_sim):
     assert shared_sim.run(other).loaded
 
 
-def test_explained_accepts_only_the_lines_of_the_changes():
-    """Lines of the changed temperature, sources and parameters may differ; any other line, or a parameter line that also
-    defines an unchanged parameter, may not."""
+def test_explained_accepts_only_the_values_of_the_changes():
+    """Two netlists count as one circuit when they differ only in the changed values (the temperature, a source's DC
+    value, a changed parameter's value on a .param line that also defines others); any other difference, an unchanged
+    parameter's value or a source's AC value included, makes them two circuits."""
     a = _netlist(BASE)
     changes = _changes(BASE)
     assert explained(a, _netlist({**BASE, "temp": "125", "vdd": "3.0", "cc": "1p"}), changes)
     assert not explained(a, a.replace("cl out 0 2p", "cl out 0 3p"), changes)
     only_cc = (Change("param", "cc", "1p"),)
-    assert not explained(a, _netlist({**BASE, "cc": "1p"}), only_cc)  # the .param line also defines dvt, not named
+    assert explained(a, _netlist({**BASE, "cc": "1p"}), only_cc)
+    assert not explained(a, _netlist({**BASE, "cc": "1p", "dvt": "0.1"}), only_cc)  # dvt is not among the changes
     assert not explained(a, a + "\nr9 out 0 1k\n", changes)
+    vin = (Change("source", "vin", "1.65"),)
+    assert explained(a, a.replace("vin inp 0 dc 1.65 ac 0", "vin inp 0 dc 1.7 ac 0"), vin)
+    assert not explained(a, a.replace("vin inp 0 dc 1.65 ac 0", "vin inp 0 dc 1.65 ac 1"), vin)
 
 
 def test_a_parameter_change_resets_the_circuit_and_sets_temperature_and_sources_again():
