@@ -45,8 +45,9 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
     parser.add_argument("--open-loop-rhp-poles", type=int, default=0, metavar="P", help="open-loop right-half-plane poles for the Nyquist verdict (default 0)")
     parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
-    parser.add_argument("--jobs", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
+    parser.add_argument("--processes", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
                         "(default: one per excitation, up to the free CPUs and at most 4, on netlists of 30000 elements or more; else 1)")
+    parser.add_argument("--jobs", dest="processes", type=process_count, help=argparse.SUPPRESS)  # the earlier name of --processes
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
@@ -136,7 +137,7 @@ def run(args: argparse.Namespace) -> int:
         open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements,
         keep_decks=args.keep_decks,
-        processes=args.jobs,
+        processes=args.processes,
     )
     if args.at and not args.at_pair:
         results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
@@ -155,6 +156,11 @@ def run(args: argparse.Namespace) -> int:
     else:
         print("\n\n".join(report.format_text(r) for r in results))
     return exit_status(combined_verdict(r.verdict for r in results))
+
+
+def verdicts_line(verdict: str, parts: dict[str, str]) -> str:
+    """The first line over several loops: "INCONCLUSIVE  differential mode: pass, common mode: inconclusive"."""
+    return f"{verdict.upper()}  " + ", ".join(f"{name}: {v}" for name, v in parts.items())
 
 
 def coupling_document(coupling) -> dict:
@@ -204,6 +210,7 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))
     else:
+        print(verdicts_line(pair.verdict, {f"{mode} mode": r.verdict for mode, r in pair.modes.items()}))
         parts = [f"{mode} mode\n{report.format_text(r)}" for mode, r in pair.modes.items()]
         print("\n".join(parts) + "\n" + coupling_line(pair.coupling))
     return exit_status(pair.verdict)

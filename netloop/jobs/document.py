@@ -21,6 +21,9 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                           and every requirement met
     checks                [{name, passed, detail, advice}]: the measurement's self-checks (a failed
                           one makes the verdict "inconclusive"; netloop.analysis.checks)
+    below_common_practice [{text, value, reason}]: a passing loop checked without requirements,
+                          the rules of thumb it misses (netloop.jobs.loop_result.COMMON_PRACTICE:
+                          pm>=45, gm>=10, peak<=3); they do not change the verdict
     dc_loop_gain_db       20 log10 |T| at the lowest swept frequency
     margins               the worst case over all crossovers:
         phase_margin_deg, unity_gain_hz, gain_margin_db, phase_crossover_hz,
@@ -69,7 +72,7 @@ from netloop.analysis.response import ratio_db
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
 from netloop.jobs.loop_result import LoopResult, combined_verdict
 
-__all__ = ["CORNERS_SCHEMA", "SCHEMA", "multi_document", "to_document"]
+__all__ = ["CORNERS_SCHEMA", "SCHEMA", "json_document", "multi_document", "to_document"]
 
 SCHEMA = "netloop.loop/1"
 CORNERS_SCHEMA = "netloop.corners/1"  # a corner run: netloop.report.corner_records; its results file: netloop.jobs.corners.journal
@@ -197,6 +200,14 @@ def _plain(value, path: str, infinite: dict[str, str]):
     return value
 
 
+def json_document(raw: dict) -> dict:
+    """``raw`` with builtins only and non-finite floats as null, listed under ``infinite`` (see the module docstring)."""
+    infinite: dict[str, str] = {}
+    doc = _plain(raw, "", infinite)
+    doc["infinite"] = infinite
+    return doc
+
+
 def to_document(result: LoopResult) -> dict:
     """The JSON document of one loop (see the module docstring): builtins only, json.dumps(allow_nan=False) works."""
     a = result.analysis
@@ -208,6 +219,8 @@ def to_document(result: LoopResult) -> dict:
         "verdict": result.verdict,
         "passed": result.passed,
         "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail, "advice": c.advice} for c in result.all_checks],
+        "below_common_practice": [{"text": o.requirement.text, "value": o.value, "reason": o.reason}
+                                  for o in result.below_common_practice],
         **_analysis(a),
         "break": _break(result),
         "requirements": _requirements(result),
@@ -221,10 +234,7 @@ def to_document(result: LoopResult) -> dict:
         },
         "caution": result.caution,
     }
-    infinite: dict[str, str] = {}
-    doc = _plain(raw, "", infinite)
-    doc["infinite"] = infinite
-    return doc
+    return json_document(raw)
 
 
 def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopResult], **extra) -> dict:

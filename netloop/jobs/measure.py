@@ -21,7 +21,7 @@ from netloop.analysis.results import LoopAnalysis
 from netloop.errors import NetloopError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
-from netloop.probe import ProbedNetlist, split_loop
+from netloop.probe import ProbedNetlist, ProbeVectors, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
 
@@ -83,9 +83,9 @@ def load_netlist(source: Netlist | str | PathLike[str]) -> Netlist:
     return parse_file(Path(source))
 
 
-def return_ratio(probed: ProbedNetlist, series: dict, shunt: dict, method: str) -> np.ndarray:
-    """T from the vectors of the two runs, by Tian et al. (2001) or Middlebrook (1975)."""
-    q = probed.vectors.quantities(series, shunt)
+def return_ratio(probed: ProbedNetlist | ProbeVectors, series: dict, shunt: dict, method: str) -> np.ndarray:
+    """T from the vectors of the two runs of a probe (or of its ProbeVectors), by Tian et al. (2001) or Middlebrook (1975)."""
+    q = (probed.vectors if isinstance(probed, ProbedNetlist) else probed).quantities(series, shunt)
     if method == "tian":
         return tian(q.va1, q.vb1, q.ib2)
     if method == "middlebrook":

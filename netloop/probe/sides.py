@@ -1,22 +1,48 @@
-"""Which terminals at a node drive it and which load it: the driver side and the load side of a break."""
+"""Which terminals at a node drive it and which load it: the driver side and the load side of a break.
+
+The rules, from circuit theory (docs/splitting.md says them for designers):
+
+* An element with several terminals on the node goes to one side whole. When its other
+  terminals are all at AC ground it is a one-port to AC ground (a diode-connected transistor, a
+  current source, a capacitor to a supply): a shunt, which gives the same T on either side.
+* Outputs drive: a drain or collector whose gate or base carries signal, a controlled source's
+  output, an instance pin with a driver inside, a follower's source or emitter. A common-gate
+  (cascode) device or a switch, whose gate is at AC ground, drives only when no other output does.
+* A voltage source in series (0 V to sense a current, a level shift) has no AC impedance: it is
+  looked through, and goes with what sits on its far side.
+* A passive element from the node to another signal node bridges the split. It goes with the
+  active element it is in parallel with, within a few passive elements and stages (a Miller
+  capacitor stays with the stage it wraps: with the driver at that stage's output, with the load
+  at its input); otherwise, or when both sides are as close, it goes with the load, and the
+  measurement's self-checks confirm the placement (netloop.jobs.measure tries the other one when
+  they fail).
+"""
 
 from __future__ import annotations
 
 from collections import deque
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 from netloop.errors import ProbeError
+from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist
 from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, walk_scopes
 
-__all__ = ["Split", "Terminal", "ac_ground_nodes", "decide_sides", "terminals_at"]
+__all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "terminals_at"]
 
 # Output terminals of each element letter; a source/emitter drives only when the drain/collector is AC ground.
 _OUTPUTS = {"E": ("p", "n"), "G": ("p", "n"), "F": ("p", "n"), "H": ("p", "n"), "B": ("p", "n")}
 _FOLLOWER = {"M": ("d", "s"), "Q": ("c", "e"), "J": ("d", "s"), "Z": ("d", "s")}  # (main output, follower output)
+_CONTROL = {"M": "g", "Q": "b", "J": "g", "Z": "g"}
+_BULK = frozenset({"b", "sub"})
 _PASSIVE_PATH = frozenset("RCL")
-_ACTIVE_LOADS = frozenset("MQJZEGFHBX")
-_LOCAL_DEPTH = 3  # passive elements in a compensation path around the driver (Cc and Rz are two)
+_ACTIVE = frozenset("MQJZEGFHBX")
+_LOCAL_DEPTH = 3  # passive elements in a compensation path around a stage (Cc and Rz are two)
+_STAGE_DEPTH = 2  # active stages a compensation path may wrap (Miller: one; nested Miller: two)
+
+PIN_ELEMENT = Element("<pin>", (), (), (), None)  # type: ignore[arg-type]
+"""Stands for the rest of a net outside an instance, when a node inside it that is one of its pins is broken there."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -24,10 +50,23 @@ class Terminal:
     """One terminal at the broken node: which element, which slot, its pin name and its role."""
 
     element: Element
-    slot: int
+    slot: int  # -1 for the pin of the scope's own definition (PIN_ELEMENT: the net outside the instance)
     pin: str
     role: str  # "driver", "load" or "shunt" (connects the node only to AC ground)
     label: str  # "m6.d", "xamp.m6.d", "xamp.out"
+    via: str = ""  # for a series voltage source: what sits on its far side ("m5.d")
+    whole: bool = False  # one of several (non-bulk) terminals of one element on the node: the element is one unit
+
+
+@dataclass(frozen=True, slots=True)
+class Bridge:
+    """A passive element from the node to another signal node, and on which side it was put and why."""
+
+    element: str  # its label: "cc", "xamp.rz"
+    side: str  # "driver" or "load"
+    reason: str  # one clause: "in parallel with m6 (gate o1 to drain out): local feedback of the driver stage"
+    by_rule: bool  # True when a stage it wraps decided; False when it was a default (the checks confirm it)
+    given: bool = False  # placed by the caller (placement=)
 
 
 @dataclass(frozen=True, slots=True)
@@ -36,6 +75,13 @@ class Split:
     load: tuple[Terminal, ...]
     shunt: tuple[Terminal, ...]  # placed on the load side; never change T
     decided_by: str
+    bridges: tuple[Bridge, ...] = ()  # the bridging elements among driver and load, and why each went where it did
+    inputs_only: bool = False  # driver= named only inputs (gates, bases, control inputs) on the node
+
+    @property
+    def outputs(self) -> tuple[str, ...]:
+        """Labels of the terminals on the node that drive it by the rules (whatever side they were put on)."""
+        return tuple(t.label for t in (*self.driver, *self.load) if t.role == "driver")
 
 
 def ac_ground_nodes(netlist: Netlist, globals_: frozenset[str]) -> frozenset[str]:
@@ -61,26 +107,42 @@ def ac_ground_nodes(netlist: Netlist, globals_: frozenset[str]) -> frozenset[str
     return frozenset(ground)
 
 
+def _grounded(scope: Scope, node: str, ac_ground, globals_) -> bool:
+    return scope.flat(node, globals_) in ac_ground
+
+
 def _role(netlist: Netlist, scope: Scope, e: Element, slot: int, pin: str, ac_ground: frozenset[str], globals_: frozenset[str], depth: int = 0) -> str:
+    """The role of one terminal on its own: "driver", "cg" (a common-gate device's drain or a switch: drives only
+    when nothing else does), "load", "shunt" or "series" (an independent voltage source to another signal node)."""
     kind = e.kind
-    flat_others = [scope.flat(n, globals_) for k, n in enumerate(e.nodes) if k != slot]
     if kind in _OUTPUTS:
         return "driver" if pin in _OUTPUTS[kind] else "load"
     if kind in _FOLLOWER:
         main, follower = _FOLLOWER[kind]
+        pins = e.pins
+
+        def at(p: str) -> str | None:
+            return scope.flat(e.nodes[pins.index(p)], globals_) if p in pins else None
+
+        control = at(_CONTROL[kind])
         if pin == main:
-            return "driver"
+            if control not in ac_ground:
+                return "driver"
+            return "shunt" if at(follower) in ac_ground else "cg"
         if pin == follower:
-            pins = e.pins
-            drain = scope.flat(e.nodes[pins.index(main)], globals_) if main in pins else None
-            return "driver" if drain in ac_ground else "load"
+            if at(main) in ac_ground:
+                return "driver" if control not in ac_ground else "shunt"
+            return "load"
         return "load"
     if kind == "X":
         return _instance_role(netlist, scope, e, slot, ac_ground, globals_, depth)
     if kind == "I":
         return "shunt"
-    if all(n in ac_ground for n in flat_others):
+    others = [scope.flat(n, globals_) for k, n in enumerate(e.nodes) if k != slot]
+    if all(n in ac_ground for n in others):
         return "shunt"
+    if kind == "V":
+        return "series"
     return "load"
 
 
@@ -94,178 +156,436 @@ def _instance_role(netlist: Netlist, scope: Scope, e: Element, slot: int, ac_gro
             return _role(netlist, scope, proxy, slot, ("d", "g", "s", "b")[slot], ac_ground, globals_, depth)
         return "load"
     inner_net = child.definitions[-1].pins[slot]
-    roles = set()
-    for inner in elements_of(netlist, child):
-        definition = find_definition(netlist, child.definitions, inner.model or "") if inner.kind == "X" else None
-        pins = pin_names(inner, definition)
-        for k, node in enumerate(inner.nodes):
-            if node == inner_net:
-                roles.add(_role(netlist, child, inner, k, pins[k] if k < len(pins) else str(k + 1), ac_ground, globals_, depth + 1))
+    roles = {t.role for t in terminals_at(netlist, child, inner_net, ac_ground, globals_, depth + 1)}
     if "driver" in roles:
         return "driver"
-    if roles == {"shunt"}:
+    if "cg" in roles:
+        return "cg"
+    if roles <= {"shunt"}:
         return "shunt"
     return "load"
 
 
-def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset[str], globals_: frozenset[str]) -> tuple[Terminal, ...]:
-    """Every terminal on a node in its own scope, each with its role by default."""
+def _device_pins(netlist: Netlist, scope: Scope, e: Element) -> tuple[str, ...]:
+    definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
+    return pin_names(e, definition)
+
+
+def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset[str], globals_: frozenset[str], depth: int = 0,
+                 _through: frozenset[str] = frozenset()) -> tuple[Terminal, ...]:
+    """Every terminal on a node in its own scope, each with its role by the rules of this module.
+
+    An element with several terminals on the node is one unit: a shunt when its other terminals are
+    at AC ground (a diode-connected transistor), else a load (a bridge, placed whole). A series
+    voltage source takes the role of what sits on its far side (looked through, as far as it goes).
+    """
     out = []
     for e in elements_of(netlist, scope):
         nodes = e.nodes
         if node not in nodes:
             continue
-        definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
-        pins = pin_names(e, definition)
-        for k, n in enumerate(nodes):
-            if n == node:
-                pin = pins[k] if k < len(pins) else str(k + 1)
-                role = _role(netlist, scope, e, k, pin, ac_ground, globals_)
-                out.append(Terminal(e, k, pin, role, f"{scope.label(e)}.{pin}"))
+        pins = _device_pins(netlist, scope, e)
+        slots = [k for k, n in enumerate(nodes) if n == node]
+        pin_of = [pins[k] if k < len(pins) else str(k + 1) for k in slots]
+        main = [k for k, p in zip(slots, pin_of) if p not in _BULK] or slots
+        via = ""
+        if len(main) > 1 and e.kind == "X" and child_scope(netlist, scope, e, globals_) is not None and not _is_device(netlist, scope, e):
+            # a block's pins are separate ports (a buffer's output wired to its own input is its feedback wire)
+            out.extend(_terminals_of_block(netlist, scope, e, slots, pin_of, ac_ground, globals_, depth))
+            continue
+        if len(main) > 1:  # one unit: a one-port to AC ground, or a bridge placed whole
+            rest = [n for k, n in enumerate(nodes) if n != node and (k >= len(pins) or pins[k] not in _BULK)]
+            role = "shunt" if all(_grounded(scope, n, ac_ground, globals_) for n in rest) else "load"
+        else:
+            k = main[0]
+            role = _role(netlist, scope, e, k, pins[k] if k < len(pins) else str(k + 1), ac_ground, globals_, depth)
+            if role == "series":
+                role, via = _through_source(netlist, scope, node, e, ac_ground, globals_, depth, _through | {node})
+        whole = len(main) > 1
+        out.extend(Terminal(e, k, p, role, f"{scope.label(e)}.{p}", via, whole) for k, p in zip(slots, pin_of))
     return tuple(out)
 
 
-def _controls(netlist: Netlist, scope: Scope, driver: Terminal, globals_) -> set[str]:
-    """Local nodes that control a driver element (its gate, base, controlling nodes, other pins)."""
-    e = driver.element
-    definition = find_definition(netlist, scope.definitions, e.model or "") if e.kind == "X" else None
-    pins = pin_names(e, definition)
-    if e.kind in _FOLLOWER or e.kind in _OUTPUTS:
-        skip = {*_FOLLOWER.get(e.kind, ()), *_OUTPUTS.get(e.kind, ()), "sub", *(("b",) if e.kind == "M" else ())}
-        return {n for k, n in enumerate(e.nodes) if k < len(pins) and pins[k] not in skip}
-    return {n for k, n in enumerate(e.nodes) if k != driver.slot}
+def _is_device(netlist: Netlist, scope: Scope, e: Element) -> bool:
+    definition = find_definition(netlist, scope.definitions, e.model or "")
+    return definition is not None and is_device_subcircuit(definition)
 
 
-def _passive_index(netlist: Netlist, scope: Scope) -> dict[str, list[Element]]:
-    """R, C and L elements of a scope by the nodes they touch."""
-    index: dict[str, list[Element]] = {}
-    for e in elements_of(netlist, scope):
-        if e.name[0].upper() in _PASSIVE_PATH:  # e.kind, without the call: this runs over every element
-            for n in set(e.nodes):
-                here = index.get(n)
-                if here is None:
-                    index[n] = [e]
+def _terminals_of_block(netlist: Netlist, scope: Scope, e: Element, slots: list[int], pins: list[str], ac_ground, globals_, depth: int) -> list[Terminal]:
+    """The pins of one subcircuit instance on a node, each with its own role."""
+    return [Terminal(e, k, p, _role(netlist, scope, e, k, p, ac_ground, globals_, depth), f"{scope.label(e)}.{p}") for k, p in zip(slots, pins)]
+
+
+def _through_source(netlist: Netlist, scope: Scope, node: str, source: Element, ac_ground, globals_, depth: int, through: frozenset[str]) -> tuple[str, str]:
+    """The role of a series voltage source at ``node``: that of what sits on its far side (it has no AC impedance)."""
+    far = [n for n in source.nodes if n != node and n not in through]
+    if not far:
+        return "load", ""
+    found = [t for t in terminals_at(netlist, scope, far[0], ac_ground, globals_, depth, through) if t.element is not source]
+    for role in ("driver", "cg"):
+        hits = [t.label for t in found if t.role == role]
+        if hits:
+            return role, ", ".join(hits)
+    if all(t.role == "shunt" for t in found):
+        return "shunt", ""
+    return "load", ", ".join(t.label for t in found if t.role == "load")
+
+
+# --------------------------------------------------------------------------------------------------
+# Bridging elements: which stage does a passive path from the node wrap?
+
+
+class _Neighbourhood:
+    """The elements of one scope by the nodes they touch, built once per split (only when a bridge must be placed)."""
+
+    def __init__(self, netlist: Netlist, scope: Scope, ac_ground, globals_):
+        self.netlist, self.scope, self.ac_ground, self.globals_ = netlist, scope, ac_ground, globals_
+        self.at: dict[str, list[tuple[Element, int, str]]] = {}
+        for e in elements_of(netlist, scope):
+            pins = _device_pins(netlist, scope, e)
+            for k, n in enumerate(e.nodes):
+                self.at.setdefault(n, []).append((e, k, pins[k] if k < len(pins) else str(k + 1)))
+        self._roles: dict[tuple[int, int], str] = {}
+
+    def grounded(self, node: str) -> bool:
+        return _grounded(self.scope, node, self.ac_ground, self.globals_)
+
+    def role(self, e: Element, slot: int, pin: str) -> str:
+        key = (id(e), slot)
+        role = self._roles.get(key)
+        if role is None:
+            role = self._roles[key] = _role(self.netlist, self.scope, e, slot, pin, self.ac_ground, self.globals_)
+        return role
+
+    def other_nodes(self, e: Element, slot: int) -> list[str]:
+        """The signal nodes of an element other than the one at ``slot`` (bulk and AC ground left out)."""
+        pins = _device_pins(self.netlist, self.scope, e)
+        node = e.nodes[slot]
+        return [n for k, n in enumerate(e.nodes) if n != node and not (k < len(pins) and pins[k] in _BULK) and not self.grounded(n)]
+
+    def passive_reach(self, start: list[str], avoid: str) -> dict[str, int]:
+        """Nodes reached from ``start`` through at most _LOCAL_DEPTH R, C, L elements (the first counted as 1);
+        series voltage sources are looked through; never through ``avoid`` or AC ground."""
+        depth = {n: 1 for n in start if n != avoid and not self.grounded(n)}
+        todo = deque(depth)
+        while todo:
+            n = todo.popleft()
+            for e, k, _ in self.at.get(n, ()):
+                kind = e.kind
+                if kind == "V":
+                    step = 0
+                elif kind in _PASSIVE_PATH and depth[n] < _LOCAL_DEPTH:
+                    step = 1
                 else:
-                    here.append(e)
-    return index
-
-
-def _local_feedback(scope: Scope, node: str, t: Terminal, controls: set[str], index, ac_ground, globals_) -> bool:
-    """Whether a passive element at the node leads through at most three R, C, L in all to a driver's control node
-    (a compensation network such as a Miller Cc with its nulling Rz)."""
-    if t.element.kind not in _PASSIVE_PATH:
-        return False
-    start = [n for k, n in enumerate(t.element.nodes) if k != t.slot and n != node]
-    seen = set(start)
-    todo = deque((n, 1) for n in start)
-    while todo:
-        n, depth = todo.popleft()
-        if n in controls:
-            return True
-        if depth >= _LOCAL_DEPTH or scope.flat(n, globals_) in ac_ground:
-            continue
-        for e in index.get(n, ()):
-            if e is not t.element:
+                    continue
                 for m in e.nodes:
-                    if m not in seen and m != node:
-                        seen.add(m)
-                        todo.append((m, depth + 1))
-    return False
+                    if m != avoid and m not in depth and not self.grounded(m):
+                        depth[m] = depth[n] + step
+                        (todo.appendleft if step == 0 else todo.append)(m)
+        return depth
+
+    def onward(self, starts: list[Terminal], avoid: str) -> set[str]:
+        """Signal nodes reached from the terminals ``starts`` at node ``avoid`` along the signal's way: through passive
+        elements and series voltage sources both ways, and through an active element from an input to its outputs;
+        never through ``avoid`` or AC ground."""
+        seen: set[str] = set()
+        todo: deque[str] = deque()
+
+        def visit(nodes) -> None:
+            for m in nodes:
+                if m != avoid and m not in seen:
+                    seen.add(m)
+                    todo.append(m)
+
+        for t in starts:
+            if t.slot >= 0:
+                visit(self.other_nodes(t.element, t.slot))
+        while todo:
+            n = todo.popleft()
+            for e, k, pin in self.at.get(n, ()):
+                kind = e.kind
+                if kind in _PASSIVE_PATH or kind == "V":
+                    visit(self.other_nodes(e, k))
+                elif kind in _ACTIVE and self.role(e, k, pin) == "load":
+                    visit(self.outputs(e, k, pin))
+        return seen
+
+    def outputs(self, e: Element, slot: int, pin: str) -> list[str]:
+        """Where the signal at an input of an active element goes: a gate or base to the drain and source (collector
+        and emitter), a source or emitter to the drain (collector), a control input to the output; else every other node."""
+        pins = _device_pins(self.netlist, self.scope, e)
+        kind = e.kind
+        if kind == "X" and "d" in pins and "g" in pins:
+            kind = "M"
+        if kind in _FOLLOWER:
+            main, follower = _FOLLOWER[kind]
+            wanted = (main, follower) if pin == _CONTROL[kind] else (main,)
+        elif kind in _OUTPUTS:
+            wanted = _OUTPUTS[kind]
+        else:
+            return self.other_nodes(e, slot)
+        return [n for k, n in enumerate(e.nodes) if k < len(pins) and pins[k] in wanted and n != e.nodes[slot] and not self.grounded(n)]
+
+    def stages(self, node: str, starts: list[tuple[Element, int]], direction: str) -> dict[str, tuple[int, str]]:
+        """Nodes one or two active stages away from ``node``: back through its drivers' inputs ("driver"), or on
+        through its loads' outputs ("load"). Each maps to (stages, the element of the first stage)."""
+        found: dict[str, tuple[int, str]] = {}
+        frontier = [(e, k, self.scope.label(e)) for e, k in starts]
+        for level in range(1, _STAGE_DEPTH + 1):
+            reached = []
+            for e, k, first in frontier:
+                for m in self.other_nodes(e, k):
+                    if m != node and m not in found:
+                        found[m] = (level, first)
+                        reached.append((m, first))
+            frontier = []
+            for m, first in reached:
+                for e, k, pin in self.at.get(m, ()):
+                    if e.kind not in _ACTIVE or node in e.nodes:
+                        continue
+                    role = self.role(e, k, pin)
+                    if (direction == "driver" and role in ("driver", "cg")) or (direction == "load" and role == "load"):
+                        frontier.append((e, k, first))
+        return found
 
 
-def _fed_by_output(netlist: Netlist, scope: Scope, node: str, t: Terminal, ac_ground, globals_) -> bool:
-    """Whether a passive element at the node has its other end on a node an active output drives (a divider, a series Ro)."""
-    if t.element.kind not in _PASSIVE_PATH:
-        return False
-    for k, far in enumerate(t.element.nodes):
-        if k == t.slot or far == node or scope.flat(far, globals_) in ac_ground:
+def _closest(reach: dict[str, int], stages: dict[str, tuple[int, str]]) -> tuple[float, str, str]:
+    """(passive elements + stages to the nearest node both reach, that node, the stage's element), or inf."""
+    best: tuple[float, str, str] = (float("inf"), "", "")
+    for n in sorted(reach):  # sorted: ties resolve the same way under any hash seed
+        if n in stages:
+            score = reach[n] + stages[n][0]
+            if score < best[0]:
+                best = (score, n, stages[n][1])
+    return best
+
+
+def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loads: list[Terminal],
+                   placement: Mapping[str, str]) -> list[tuple[Terminal, Bridge, float]]:
+    """Decide the side of every bridging element among the loads: passive elements and multi-terminal units to
+    another signal node, and common-gate devices or switches beside a real driver. Each comes with its
+    distance to the driver stage (passive elements + stages; inf when it wraps none)."""
+    units: dict[int, list[Terminal]] = {}
+    for t in loads:
+        if t.element.kind in _PASSIVE_PATH or t.element.kind == "D" or t.role == "cg" or t.whole or _switch_like(near, t.element):
+            units.setdefault(id(t.element), []).append(t)
+    if not units:
+        return []
+    back = near.stages(node, [(t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0], "driver")
+    on = near.stages(node, [(t.element, t.slot) for t in loads if t.element.kind in _ACTIVE and t.role == "load" and t.slot >= 0
+                            and id(t.element) not in units], "load")
+    far_of = {key: tuple(sorted({n for u in members for n in near.other_nodes(u.element, u.slot)})) for key, members in units.items()}
+    out = []
+    for key, members in units.items():
+        t = members[0]
+        label = t.label.rsplit(".", 1)[0]
+        given = placement.get(label)
+        if given is not None:
+            side = "driver" if given == "driver" else "load"
+            out.extend((u, Bridge(label, side, f"placed on the {side} side as asked", True, True), 0.0) for u in members)
             continue
-        if any(u.role == "driver" for u in terminals_at(netlist, scope, far, ac_ground, globals_)):
-            return True
-    return False
+        if t.role == "cg":
+            bridge = Bridge(label, "driver", "a common-gate device (gate at AC ground) beside the node's other outputs: a cascode or "
+                            "a switch, put with them", True)
+            out.extend((u, bridge, 0.0) for u in members)
+            continue
+        reach = near.passive_reach(list(far_of[key]), node)
+        d_score, d_node, d_elem = _closest(reach, back)
+        l_score, l_node, l_elem = _closest(reach, on)
+        if d_score < l_score:
+            # Local feedback of the driver stage only if the loop measured comes back to that stage's input through the
+            # node's other branches (elements in parallel are one branch): then the bridge is a loop inside the loop.
+            others = [u for u in loads if far_of.get(id(u.element)) != far_of[key]]
+            if d_node not in near.onward(others, node):
+                d_score = float("inf")
+        if d_score < l_score:
+            bridge = Bridge(label, "driver", f"closes a local loop around the driver stage {d_elem} (back to {d_node}{_path(reach, d_node)}): "
+                            "kept with it", True)
+        elif l_score < d_score:
+            bridge = Bridge(label, "load", f"closes a local loop around the stage {l_elem} that the node drives (on to {l_node}"
+                            f"{_path(reach, l_node)}): kept with it", True)
+        elif d_score == float("inf"):
+            bridge = Bridge(label, "load", "leads on into the loop: it wraps no stage that the loop measured passes through", True)
+        else:
+            bridge = Bridge(label, "load", f"as close to the driver stage {d_elem} as to the stage {l_elem} that the node drives: "
+                            "put with the load, and confirmed by the measurement's self-checks", False)
+        out.extend((u, bridge, d_score) for u in members)
+    return out
+
+
+def _path(reach: dict[str, int], node: str) -> str:
+    return "" if reach.get(node, 1) <= 1 else f" through {reach[node]} passive elements"
+
+
+# --------------------------------------------------------------------------------------------------
+# The decision
 
 
 def _matches(spec: str, t: Terminal, scope: Scope) -> bool:
+    if t.slot < 0:
+        return spec in (t.label, t.label.rsplit(".", 1)[0])
     local = f"{t.element.key}.{t.pin}"
     return spec in (t.label, local, scope.label(t.element), t.element.key)
 
 
-def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], driver: str | None, ac_ground, globals_) -> Split:
-    """Put each terminal on the driver or the load side, by the given override or from the circuit."""
+def _whole(terminals: tuple[Terminal, ...], chosen: list[Terminal]) -> list[Terminal]:
+    """The chosen terminals and every other terminal of the same elements on the node (an element goes whole)."""
+    ids = {id(t.element) for t in chosen if t.whole}
+    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids)]
+
+
+def _given_split(name: str, terminals: tuple[Terminal, ...], driver: str, listing: str, scope: Scope) -> Split:
+    specs = [s.strip().lower() for s in driver.split(",") if s.strip()]
+    if not specs:
+        raise ProbeError(f"driver={driver!r} names no element; terminals at {name}: {listing}")
+    chosen: list[Terminal] = []
+    for spec in specs:
+        hits = [t for t in terminals if _matches(spec, t, scope)]
+        if not hits:
+            raise ProbeError(f"driver {spec!r} has no terminal on node {name}; terminals there: {listing}")
+        chosen.extend(h for h in hits if h not in chosen)
+    whole = _whole(terminals, chosen)
+    added = [t for t in whole if t not in chosen]
+    rest = [t for t in terminals if t not in whole]
+    if not rest:
+        raise ProbeError(f"driver={driver!r} takes every terminal of node {name}; leave at least one on the load side")
+    shunt = tuple(t for t in rest if t.role == "shunt")
+    load = tuple(t for t in rest if t.role != "shunt")
+    text = f"driver side given by driver={driver!r}: {', '.join(t.label for t in whole)}"
+    if added:
+        text += f" ({', '.join(t.label for t in added)} too: an element with several terminals on the node goes to one side whole)"
+    inputs_only = all(t.role == "load" and (t.element.kind in _ACTIVE or t.slot < 0) for t in whole)
+    return Split(tuple(whole), load, shunt, text + _shunt_note(shunt) + ".", inputs_only=inputs_only)
+
+
+def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], driver: str | None, ac_ground, globals_,
+                 placement: Mapping[str, str] | None = None) -> Split:
+    """Put each terminal on the driver or the load side, by the given override or from the circuit.
+
+    ``placement`` maps bridging elements (by label, "cc" or "xamp.cc") to "driver" or "load": it
+    overrides the rule for those elements only (netloop.jobs.measure uses it to try the other
+    placement when a measurement fails its self-checks).
+    """
     name = ".".join((*scope.path, node))
     listing = ", ".join(f"{t.label} ({t.role})" for t in terminals)
     if driver is not None:
-        specs = [s.strip().lower() for s in driver.split(",") if s.strip()]
-        if not specs:
-            raise ProbeError(f"driver={driver!r} names no element; terminals at {name}: {listing}")
-        chosen = []
-        for spec in specs:
-            hits = [t for t in terminals if _matches(spec, t, scope)]
-            if not hits:
-                raise ProbeError(f"driver {spec!r} has no terminal on node {name}; terminals there: {listing}")
-            chosen.extend(h for h in hits if h not in chosen)
-        rest = [t for t in terminals if t not in chosen]
-        if not rest:
-            raise ProbeError(f"driver={driver!r} takes every terminal of node {name}; leave at least one on the load side")
-        shunt = tuple(t for t in rest if t.role == "shunt")
-        load = tuple(t for t in rest if t.role != "shunt")
-        text = f"driver side given by driver={driver!r}: {', '.join(t.label for t in chosen)}"
-        return Split(tuple(chosen), load, shunt, text + _shunt_note(shunt) + ".")
+        return _given_split(name, terminals, driver, listing, scope)
     drivers = [t for t in terminals if t.role == "driver"]
-    shunt = tuple(t for t in terminals if t.role == "shunt")
-    loads = [t for t in terminals if t.role == "load"]
-    through = ""
-    if not drivers:
-        drivers = [t for t in loads if _fed_by_output(netlist, scope, node, t, ac_ground, globals_)]
-        loads = [t for t in loads if t not in drivers]
-        through = " through a passive element from an output node" if drivers else ""
+    shunt = [t for t in terminals if t.role == "shunt"]
+    loads = [t for t in terminals if t.role in ("load", "cg")]
+    how = "outputs"
+    if not drivers:  # a divider tap, a feedback capacitor at an amplifier's input, and a switch beside it
+        near = _Neighbourhood(netlist, scope, ac_ground, globals_)
+        fed = []
+        for t in loads:
+            if t.element.kind in _PASSIVE_PATH:
+                to_out, to_in = _signal_distances(near, node, t)
+                if to_out <= to_in and to_out < float("inf"):  # it brings the signal from an output, rather than on to an input
+                    fed.append(t)
+        ends = {n for t in fed for k, n in enumerate(t.element.nodes) if k != t.slot}
+        drivers = [*fed, *(t for t in loads if t not in fed and (t.role == "cg" or _switch_like(near, t.element))
+                           and any(n in ends for k, n in enumerate(t.element.nodes) if k != t.slot))]
+        how = "through" if drivers else how
+    if not drivers:  # the output of a folded cascode
+        drivers = [t for t in loads if t.role == "cg"]
+        how = "cg" if drivers else how
+    loads = [t for t in loads if t not in drivers]
     if not drivers:
         candidates = ", ".join(t.label for t in terminals if t.role != "shunt") or listing
+        oneports = sorted({t.label.rsplit(".", 1)[0] for t in shunt if t.whole})
+        if oneports and all(t.element.kind in _ACTIVE and t.slot >= 0 for t in loads):
+            raise ProbeError(
+                f"node {name} is not on any loop: besides inputs ({candidates}) only one-ports to AC ground sit on it "
+                f"({', '.join(dict.fromkeys(t.label.rsplit('.', 1)[0] for t in shunt))}; {', '.join(oneports)}: several terminals on the node, "
+                "a diode connection), and nothing from elsewhere drives it"
+            )
         raise ProbeError(
             f"no driver found for node {name}: no transistor drain/collector, controlled-source output or instance output "
             f"sits on it; candidates: {candidates}; name the driver with driver=ELEMENT[.PIN]"
         )
     if not loads and not shunt:
         raise ProbeError(f"node {name} has only driver terminals ({listing}); nothing is left for the load side: use driver= to choose")
-    # Compensation around the driver stage (a Miller Cc/Rz) rides with the driver only while an active
-    # input (a gate, base, controlling node or instance input) still loads the node: then that input
-    # closes the loop being measured. A purely passive feedback network stays on the load side. (Only
-    # passive loads can be local, so without both kinds at the node the search, a pass over the whole
-    # scope, is skipped.)
-    local = []
-    if any(t.element.kind in _PASSIVE_PATH for t in loads) and any(t.element.kind in _ACTIVE_LOADS for t in loads):
-        controls: set[str] = set()
-        for d in drivers:
-            controls |= _controls(netlist, scope, d, globals_)
-        controls = {n for n in controls if scope.flat(n, globals_) not in ac_ground}
-        index = _passive_index(netlist, scope)
-        local = [t for t in loads if _local_feedback(scope, node, t, controls, index, ac_ground, globals_)]
-        if local and any(t.element.kind in _ACTIVE_LOADS for t in loads if t not in local):
-            loads = [t for t in loads if t not in local]
-        else:
-            local = []
-    if through:
-        parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these lead in one step from "
-                 "a node that a drain, collector, controlled source or instance output drives)"]
+    placed: list[tuple[Terminal, Bridge, float]] = []
+    if loads and (how == "outputs" or placement):
+        near = _Neighbourhood(netlist, scope, ac_ground, globals_)
+        placed = _place_bridges(near, node, drivers, loads, placement or {})
+    moved = [t for t, b, _ in placed if b.side == "driver"]
+    if moved and not [t for t in loads if t not in moved] and any(not b.given for _, b, _ in placed if b.side == "driver"):
+        # Every way on from the node would go to the driver side (a one-stage loop, where the feedback network is also
+        # "around the driver stage"): the bridges farthest from the driver stage carry the loop being measured.
+        far = max(score for _, b, score in placed if b.side == "driver" and not b.given)
+        placed = [(t, Bridge(b.element, "load", "the farthest path from the node back to the driver stage: it carries the loop "
+                             "being measured", True), score)
+                  if b.side == "driver" and not b.given and score == far else (t, b, score) for t, b, score in placed]
+        moved = [t for t, b, _ in placed if b.side == "driver"]
+    loads = [t for t in loads if t not in moved]
+    if not loads:
+        raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
+    bridges = tuple(dict.fromkeys(b for _, b, _ in placed))
+    text = _sentence(drivers, moved, loads, shunt, bridges, how)
+    return Split(tuple([*drivers, *moved]), tuple(loads), tuple(shunt), text, bridges)
+
+
+def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
+    """decided_by: one sentence a designer can check against the schematic."""
+    if how == "through":
+        parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these bring the signal "
+                 f"through at most {_LOCAL_DEPTH} passive elements from a node that a drain, collector, controlled source or instance "
+                 "output drives, sooner than they lead on to an input)"]
+    elif how == "cg":
+        parts = [f"driver side: {', '.join(t.label for t in drivers)} (common-gate or cascode devices: their gate is at AC ground, "
+                 "and no other output sits on the node)"]
     else:
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (outputs: drain, collector, controlled-source or instance output"
                  + (", or a follower's source/emitter" if any(t.pin in ("s", "e") for t in drivers) else "") + ")"]
-    if local:
-        parts.append(f"with {', '.join(t.label for t in local)} (a passive path back to the driver's own input: local feedback of the driver stage)")
+    through = [t for t in (*drivers, *loads) if t.via]
+    if through:
+        parts.append("; ".join(f"{t.label} is a voltage source in series (no AC impedance): it goes with {t.via} on its far side" for t in through))
+    for b in bridges:
+        if b.side == "driver":
+            parts.append(f"with {b.element} ({b.reason})")
     parts.append(f"load side: {', '.join(t.label for t in loads) or 'only elements to AC ground'}")
-    own = [t for t in loads if any(t.element is d.element for d in drivers)]
-    if own:
-        names = ", ".join(t.label for t in own)
-        whole = ",".join(dict.fromkeys(t.element.key for t in own))
-        parts.append(f"{names} is the driver's own input on the node (a diode connection): its local loop is part of T; "
-                     f"driver={whole!r} puts the whole device on the driver side")
-    if not loads:
-        raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
-    return Split(tuple([*drivers, *local]), tuple(loads), shunt, "; ".join(parts) + _shunt_note(shunt) + ".")
+    for b in bridges:
+        if b.side == "load" and b.reason:
+            parts.append(f"{b.element} on the load side ({b.reason})")
+    return "; ".join(parts) + _shunt_note(tuple(shunt)) + "."
+
+
+def _switch_like(near: _Neighbourhood, e: Element) -> bool:
+    """A transistor (or a device wrapper) whose gate or base is at AC ground: a common-gate device, a cascode or a switch."""
+    if e.kind not in _CONTROL and e.kind != "X":
+        return False
+    pins = _device_pins(near.netlist, near.scope, e)
+    control = _CONTROL.get(e.kind) or ("g" if "g" in pins else "b" if "b" in pins and "c" in pins else "")
+    if e.kind == "X":
+        definition = find_definition(near.netlist, near.scope.definitions, e.model or "")
+        if definition is None or not is_device_subcircuit(definition):
+            return False
+    return control in pins and pins.index(control) < len(e.nodes) and near.grounded(e.nodes[pins.index(control)])
+
+
+def _signal_distances(near: _Neighbourhood, node: str, t: Terminal) -> tuple[float, float]:
+    """How many passive elements (this one included, at most _LOCAL_DEPTH) lead from the node through ``t`` to a node
+    with an active output, and to a node with an active input: (to an output, to an input), inf when none."""
+    reach = near.passive_reach(near.other_nodes(t.element, t.slot), node)
+    to_out = to_in = float("inf")
+    for n in sorted(reach, key=lambda n: (reach[n], n)):
+        for e, k, pin in near.at.get(n, ()):
+            if e.kind in _ACTIVE and e is not t.element:
+                role = near.role(e, k, pin)
+                if role in ("driver", "cg"):
+                    to_out = min(to_out, reach[n])
+                elif role == "load":
+                    to_in = min(to_in, reach[n])
+    return to_out, to_in
 
 
 def _shunt_note(shunt: tuple[Terminal, ...]) -> str:
     if not shunt:
         return ""
-    return (f"; {', '.join(t.label for t in shunt)} connect{'s' if len(shunt) == 1 else ''} the node only to AC ground, "
+    oneports = sorted({t.label.rsplit(".", 1)[0] for t in shunt if t.whole})
+    note = (f"; {', '.join(t.label for t in shunt)} connect{'s' if len(shunt) == 1 else ''} the node only to AC ground, "
             "which never changes T; placed on the load side (either side gives the same T)")
+    if oneports:
+        note += f" ({', '.join(oneports)}: several terminals on the node, a one-port placed whole, e.g. a diode connection)"
+    return note

@@ -1,0 +1,124 @@
+"""The split rules from circuit theory: whole elements, one-ports, series sources looked through, bridges kept with their stage."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.errors import ProbeError
+from netloop.netlist import parse_text
+from netloop.probe import break_loop
+
+MODELS = ".model nch nmos level=1 vto=0.5 kp=20u lambda=0.05\n.model pch pmos level=1 vto=-0.5 kp=8u lambda=0.05\n"  # INVENTED
+
+# An invented regulator with an NMOS follower pass device: its error amplifier (5T OTA) takes the feedback at the
+# output-side input M2 (a follower does not invert), and a Miller capacitor Cc runs from the amplifier's output
+# (the pass device's gate) to vout: in parallel with the pass device's gate-source, not with the amplifier.
+FOLLOWER_LDO = ("follower regulator (invented)\n" + MODELS +
+                "Vdd vdd 0 dc 3.3\nVref ref 0 dc 1.2\nIb vdd nb dc 20u\nMb nb nb 0 0 nch w=10u l=1u\n"
+                "M5 tail nb 0 0 nch w=20u l=1u\nM1 d1 ref tail 0 nch w=20u l=1u\nM2 gate fb tail 0 nch w=20u l=1u\n"
+                "M3 d1 d1 vdd vdd pch w=20u l=1u\nM4 gate d1 vdd vdd pch w=20u l=1u\n"
+                "Mp vdd gate vout 0 nch w=200u l=1u\nCc gate vout 2p\nR1 vout fb 50k\nR2 fb 0 50k\nCo vout 0 1n\nIl vout 0 1m\n")
+
+# An invented two-stage Miller amplifier in a gain-of-two loop; the Miller branch is Rz, Cc (and, below, one more R).
+TWO_STAGE = ("two-stage amplifier (invented)\n" + MODELS +
+             "Vdd vdd 0 dc 3.3\nVin inp 0 dc 1.65\nVref ref 0 dc 1.2\nIb vdd nb dc 20u\nM8 nb nb 0 0 nch w=10u l=1u\n"
+             "M5 tail nb 0 0 nch w=20u l=1u\nM1 d1 fb tail 0 nch w=20u l=1u\nM2 o1 inp tail 0 nch w=20u l=1u\n"
+             "M3 d1 d1 vdd vdd pch w=20u l=1u\nM4 o1 d1 vdd vdd pch w=20u l=1u\n"
+             "M6 out o1 vdd vdd pch w=80u l=1u\nM7 out nb 0 0 nch w=50u l=1u\n"
+             "Rz o1 cz 1.5k\nCc cz out 1.2p\nRf out fb 20k\nRg fb ref 20k\nCL out 0 2p\n")
+
+
+def test_miller_capacitor_at_the_error_amplifier_output_stays_with_the_pass_device():
+    """Cc from the amplifier's output to vout parallels the pass device's gate-source: it goes with the pass device's gate (load side)."""
+    # Issue 14 pattern 1: the old rule reached the amplifier's input fb through Cc and R1 and kept Cc with the driver.
+    p = break_loop(parse_text(FOLLOWER_LDO), "gate")
+    assert set(p.driver_terminals) == {"m2.d", "m4.d"}
+    assert set(p.load_terminals) == {"mp.g", "cc.p"}
+    assert "cc on the load side (closes a local loop around the stage mp that the node drives" in p.decided_by
+
+
+def test_miller_branch_goes_with_the_second_stage_at_both_of_its_ends():
+    """The Miller branch stays with the stage it wraps: with the load at that stage's input o1, with the driver at its output."""
+    nl = parse_text(TWO_STAGE)
+    at_input = break_loop(nl, "o1")
+    assert "rz.p" in at_input.load_terminals and "m6.g" in at_input.load_terminals
+    at_output = break_loop(nl, "out")
+    # the old rule looked for local feedback only when an active input loaded the node; here Rf and Cc are both
+    # passive, Cc went to the load side and the opened circuit held the first stage closed around Cc (N = -2)
+    assert set(at_output.driver_terminals) == {"m6.d", "m7.d", "cc.n"} and at_output.load_terminals == ("rf.p",)
+    assert "with cc (closes a local loop around the driver stage m6 (back to o1 through 2 passive elements)" in at_output.decided_by
+    assert "rf on the load side (leads on into the loop" in at_output.decided_by
+
+
+@pytest.mark.parametrize("extra, local", [(1, True), (2, False)])
+def test_a_compensation_path_of_three_passive_elements_is_local_and_four_is_not(extra, local):
+    """A path of at most three passive elements back to the driver stage's input is its local feedback; a fourth element ends the search."""
+    # Rz, Cc and one (two) series resistor(s) from o1 to out: three (four) elements. Issue 21 item 6: this fails if the
+    # search depth (_LOCAL_DEPTH = 3 in netloop/probe/sides.py) is lowered or raised.
+    chain = "Rz o1 cz 1.5k\nCc cz c1 1.2p\n" + "".join(f"Rs{k} c{k} c{k + 1} 100\n" for k in range(1, extra)) + f"Rs{extra} c{extra} out 100\n"
+    nl = parse_text(TWO_STAGE.replace("Rz o1 cz 1.5k\nCc cz out 1.2p\n", chain))
+    p = break_loop(nl, "out")
+    if local:
+        assert p.driver_terminals == ("m6.d", "m7.d", f"rs{extra}.n") and p.load_terminals == ("rf.p",)
+    else:
+        assert p.driver_terminals == ("m6.d", "m7.d") and p.load_terminals == (f"rs{extra}.n", "rf.p")
+
+
+def test_nested_miller_capacitor_wraps_two_stages_but_not_three():
+    """An outer Miller capacitor around the last two stages is local feedback of the driver; the main feedback around three stages is not."""
+    # Invented three-stage amplifier (behavioural transconductors): stages G1 (in -> n1), G2 (n1 -> n2), G3 (n2 -> out).
+    text = ("nested Miller (invented)\nG1 0 n1 fb 0 1m\nR1 n1 0 1meg\nG2 0 n2 n1 0 -1m\nR2 n2 0 100k\nG3 0 out n2 0 10m\n"
+            "R3 out 0 10k\nCm1 n1 out 1p\nCm2 n2 out 0.2p\nRf out fb 10k\nRg fb 0 10k\n")
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("g3.n", "cm1.n", "cm2.n") and p.load_terminals == ("rf.p",)
+    assert "around the driver stage g3 (back to n1" in p.decided_by and "around the driver stage g3 (back to n2" in p.decided_by
+
+
+def test_a_series_sense_source_goes_with_the_driver_on_its_far_side():
+    """A 0 V source in series between the driver's drain and the node is looked through: it goes to the driver side."""
+    # Issue 14 pattern 3. Invented mirror loop: M1's drain reaches node x through Vsense (0 V, to sense the current);
+    # on x sit the diode M3 (a one-port) and the mirror gate M4.
+    text = ("sense source (invented)\n" + MODELS +
+            "Vdd vdd 0 dc 3.3\nIb vdd nb dc 20u\nMb nb nb 0 0 nch w=10u l=1u\nM1 y g1 0 0 nch w=10u l=1u\nVsense x y dc 0\n"
+            "M3 x x vdd vdd pch w=10u l=1u\nM4 o x vdd vdd pch w=10u l=1u\nRo o 0 50k\nM5 g1 o 0 0 nch w=10u l=1u\nRg vdd g1 50k\n")
+    p = break_loop(parse_text(text), "x")
+    assert p.driver_terminals == ("vsense.p",) and p.load_terminals == ("m4.g",)
+    assert set(p.shunt_terminals) == {"m3.d", "m3.g"}
+    assert "vsense.p is a voltage source in series (no AC impedance): it goes with m1.d on its far side" in p.decided_by
+
+
+def test_a_switch_beside_the_feedback_capacitor_goes_with_it():
+    """At an amplifier's summing node an off reset switch (gate at a DC control) is not a driver: the feedback capacitor drives, the switch goes with it."""
+    # Issue 14 pattern 7. Invented capacitive-feedback amplifier: E1 (the amplifier) drives out; Cf and the reset switch
+    # Msw (gate at the DC control vrst) both run from out back to the summing node x; Cin comes from the source.
+    text = ("switched-capacitor stage (invented)\n" + MODELS +
+            "Vin in 0 dc 1 ac 1\nVrst vrst 0 dc 0\nCin in x 1p\nCf out x 0.5p\nMsw x vrst out 0 nch w=1u l=1u\nE1 out 0 1.2 x 1000\n"
+            "Mg dx x 0 0 nch w=1u l=1u\nRd dx 0 1k\n")
+    p = break_loop(parse_text(text), "x")
+    assert set(p.driver_terminals) == {"cf.n", "msw.d"}
+    assert set(p.load_terminals) == {"e1.cn", "mg.g"}
+
+
+def test_driver_naming_a_diode_drain_takes_the_whole_device():
+    """driver= naming one terminal of a diode-connected device moves the device whole, and the sentence says so."""
+    p = break_loop(parse_text(TWO_STAGE), "d1", driver="m1.d,m3.d")
+    assert set(p.driver_terminals) == {"m1.d", "m3.d", "m3.g"}
+    assert "m3.g too: an element with several terminals on the node goes to one side whole" in p.decided_by
+
+
+def test_driver_naming_only_an_input_is_recorded():
+    """driver= naming only a gate is flagged on the split (the measurement then refuses a result that fails its checks)."""
+    from netloop.probe.breaking import locate_split
+
+    _, _, split = locate_split(parse_text(TWO_STAGE), "out", driver="rf")
+    assert not split.inputs_only
+    _, _, split = locate_split(parse_text(TWO_STAGE), "fb", driver="m1.g")
+    assert split.inputs_only and split.outputs == ()
+    _, _, split = locate_split(parse_text(TWO_STAGE), "out", driver="cl")
+    assert not split.inputs_only and set(split.outputs) == {"m6.d", "m7.d"}
+
+
+def test_a_bias_node_with_only_a_diode_is_refused_with_the_reason():
+    """A node that only a diode-connected device and inputs share is on no loop, and the message says why."""
+    with pytest.raises(ProbeError, match=r"node nb is not on any loop: besides inputs \(m5\.g, m7\.g\) only one-ports"):
+        break_loop(parse_text(TWO_STAGE), "nb")
