@@ -84,7 +84,7 @@ def run(args: argparse.Namespace) -> int:
     result = sensitivities(
         args.netlist, args.at, driver=args.driver, method=args.method, sweep=sweep_from(args), open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements, knobs=args.knob, solve=args.solve, top=args.top, step=args.step, span=args.range,
-        rank_by=args.rank_by, keep_decks=args.keep_decks, processes=args.jobs, workers=args.workers,
+        rank_by=args.rank_by, keep_decks=args.keep_decks, processes=args.processes, workers=args.workers,
     )
     if args.plot:
         from netloop.report.sensitivity_plot import plot_sensitivities
