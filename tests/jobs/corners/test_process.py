@@ -151,16 +151,14 @@ def test_include_corner_word_mistakes_stop_the_plan_at_their_line(release):
     assert "nmos_tt.corner.spice" in str(info.value)
 
 
-def test_bundled_sky130_plan_swaps_the_corner_of_each_model_file():
-    """circuits/plans/sky130_ldo_corners.toml: 3 x 3 x 2 corners; the ss corners read the sky130 ss files of nfet_01v8
-    (.pm3) and pfet_01v8 (.corner), the mismatch files unchanged."""
+def test_bundled_sky130_plan_reads_each_section_of_the_process():
+    """circuits/plans/sky130_ldo_corners.toml: 3 sections x 3 temperatures x 2 supplies of the sky130 regulator; the ss
+    corners read process.spice's ss section."""
     plan = load_plan(ROOT / "circuits" / "plans" / "sky130_ldo_corners.toml")
     tasks = check_plan(plan)
     assert len(tasks) == 18
     ss = next(t.corner for t in tasks if t.corner.name == "ss/27C/vsup=1.7V")
-    read = [Path(inc.path).name for inc in apply_settings(ss.netlist, ss.settings).inclusions if inc.location.file == ss.netlist]
-    assert read[1:] == ["sky130_fd_pr__nfet_01v8__ss.pm3.spice", "sky130_fd_pr__nfet_01v8__mismatch.corner.spice",
-                        "sky130_fd_pr__pfet_01v8__ss.corner.spice", "sky130_fd_pr__pfet_01v8__mismatch.corner.spice"]
+    assert _sections(apply_settings(ss.netlist, ss.settings)) == ["ss"]
 
 
 def test_plans_never_write_the_users_files(release):

@@ -137,22 +137,55 @@ def test_families_plan_equals_check_on_netlists_edited_by_hand(tmp_path, schedul
     _compare_with_hand_edits(run.records, netlist, "out", None, edits)
 
 
+def _sky130_by_file(tmp_path: Path) -> Path:
+    """circuits/sky130/ldo.cir with its `.lib process.spice tt` line replaced by the tt section's own lines: the sky130
+    model files included one by one, the corner in their names (absolute paths into the installed process)."""
+    process = (ROOT / "circuits" / "sky130" / "process.spice").read_text()
+    section = re.search(r"^\.lib tt\n(.*?)^\.endl tt", process, flags=re.MULTILINE | re.DOTALL)[1]
+    section = section.replace('"../../.venv', f'"{ROOT}/.venv')
+    netlist = tmp_path / "ldo_files.cir"
+    netlist.write_text((ROOT / "circuits" / "sky130" / "ldo.cir").read_text().replace(".lib process.spice tt\n", section))
+    return netlist
+
+
 @pytest.mark.ngspice
 def test_sky130_include_corners_equal_check_on_netlists_edited_by_hand(tmp_path, scheduler):
-    """Corners of the sky130 regulator chosen by the corner word of its model files' names (ss, ff) at two temperatures,
-    sharing loads, have the T of `netloop check` on the netlist with its include lines edited by hand (relative 1e-9)."""
-    demo = load_plan(ROOT / "circuits" / "plans" / "sky130_ldo_corners.toml")
+    """The sky130 regulator including its model files one by one, corners chosen by the corner word of the files' names
+    (ss, ff) at two temperatures, sharing loads: each corner has the T of `netloop check` on the netlist with its include
+    lines edited by hand (relative 1e-9)."""
+    netlist = _sky130_by_file(tmp_path)
     plan_path = tmp_path / "plan.toml"
-    plan_path.write_text(f'netlist = "{demo.netlist}"\nat = "fb"\ndriver = "r1.n,r2.p"\n\n'
+    plan_path.write_text(f'netlist = "{netlist}"\nat = "fb"\ndriver = "r1.n,r2.p"\n\n'
                          '[axes]\ninclude.tt = ["ss", "ff"]\ntemp = [-40, 125]\nsupply.vsup = [1.7]\n')
     run = run_plan(load_plan(plan_path), cluster=scheduler, out=tmp_path / "sky130.jsonl")
     assert run.counts["error"] == 0 and len(run.records) == 4
     assert sum(r["loads"] for r in run.records) <= 3
-    netlist = tmp_path / "ldo_files.cir"
-    netlist.write_text(Path(demo.netlist).read_text().replace('"../../.venv', f'"{ROOT}/.venv'))
 
     def edits(settings):
         word = settings["include.tt"]
         return [("__nfet_01v8__tt.pm3", f"__nfet_01v8__{word}.pm3"), ("__pfet_01v8__tt.corner", f"__pfet_01v8__{word}.corner")]
+
+    _compare_with_hand_edits(run.records, netlist, "fb", "r1.n,r2.p", edits)
+
+
+@pytest.mark.ngspice
+def test_sky130_plan_sections_equal_check_on_netlists_edited_by_hand(tmp_path, scheduler):
+    """Corners of circuits/plans/sky130_ldo_corners.toml (the regulator's process.spice section, temperature, supply),
+    sharing loads, have the T of `netloop check` on the netlist edited by hand (relative 1e-9); six of them, to keep the
+    test short."""
+    demo = load_plan(ROOT / "circuits" / "plans" / "sky130_ldo_corners.toml")
+    plan_path = tmp_path / "plan.toml"
+    plan_path.write_text(f'netlist = "{demo.netlist}"\nat = "fb"\ndriver = "r1.n,r2.p"\n\n'
+                         '[axes]\nlib = ["ss", "ff"]\ntemp = [-40, 27, 125]\nsupply.vsup = [1.9]\n')
+    run = run_plan(load_plan(plan_path), cluster=scheduler, out=tmp_path / "sections.jsonl")
+    assert run.counts["error"] == 0 and len(run.records) == 6
+    assert sum(r["loads"] for r in run.records) == 2
+
+    netlist = tmp_path / "ldo.cir"  # a copy reading the same process file by its absolute path
+    process = ROOT / "circuits" / "sky130" / "process.spice"
+    netlist.write_text(Path(demo.netlist).read_text().replace(".lib process.spice tt\n", f".lib {process} tt\n"))
+
+    def edits(settings):
+        return [(f"{process} tt\n", f"{process} {settings['lib']}\n")]
 
     _compare_with_hand_edits(run.records, netlist, "fb", "r1.n,r2.p", edits)
