@@ -120,7 +120,6 @@ def write_outputs(args: argparse.Namespace, results) -> None:
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.cli.main import exit_status
-    from netloop.jobs.loop_result import combined_verdict
     from netloop.analysis import parse_requirements
     from netloop.jobs.measure import load_netlist, measure
 
@@ -139,23 +138,44 @@ def run(args: argparse.Namespace) -> int:
         keep_decks=args.keep_decks,
         processes=args.processes,
     )
-    if args.at and not args.at_pair:
-        results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
-    elif args.at_pair:
+    if args.at_pair:
         return run_pair(args, load_netlist(args.netlist), common)
-    else:
-        from netloop.jobs.discover import measure_all_loops
-
-        results, notes = measure_all_loops(load_netlist(args.netlist), **common)
-        for note in notes:
-            print(f"netloop: {note}", file=sys.stderr)
+    if not args.at:
+        return run_groups(args, load_netlist(args.netlist), common)
+    results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
     write_outputs(args, results)
     if args.json:
-        doc = report.to_document(results[0]) if args.at else report.multi_document("loops", results)
-        print(json.dumps(doc, indent=2, allow_nan=False))
+        print(json.dumps(report.to_document(results[0]), indent=2, allow_nan=False))
     else:
-        print("\n\n".join(report.format_text(r) for r in results))
-    return exit_status(combined_verdict(r.verdict for r in results))
+        print(report.format_text(results[0]))
+    return exit_status(results[0].verdict)
+
+
+def unmeasured_text(group) -> str:
+    """The summary of a loop group no break could measure: INCONCLUSIVE first, the reason, what to try."""
+    return f"INCONCLUSIVE  {group.label}: not measured: {group.reason}\ntry: {group.advice}"
+
+
+def run_groups(args: argparse.Namespace, netlist, common: dict) -> int:
+    """Without --at: every loop group measured on its own (netloop.jobs.discover.check_loops), each reported, the verdicts combined."""
+    from netloop import report
+    from netloop.cli.main import exit_status
+    from netloop.jobs.discover import check_loops
+
+    check = check_loops(netlist, **common)
+    for note in check.notes:
+        print(f"netloop: {note}", file=sys.stderr)
+    results = list(check.results)
+    if results:
+        write_outputs(args, results)
+    if args.json:
+        print(json.dumps(report.groups_document(check), indent=2, allow_nan=False))
+    else:
+        parts = [report.format_text(g.result) if g.result is not None else unmeasured_text(g) for g in check.groups]
+        if len(check.groups) > 1:
+            parts.insert(0, verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups}))
+        print("\n\n".join(parts))
+    return exit_status(check.verdict)
 
 
 def verdicts_line(verdict: str, parts: dict[str, str]) -> str:

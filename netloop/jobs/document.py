@@ -55,6 +55,12 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
     caution               the caution sentence
     infinite              {dotted.path: "+inf" | "-inf"}
 
+Every loop group (``check`` without --at): ``groups_document(check)`` gives ``multi_document("loops", ...)``'s
+shape with one entry per group, in group order: a measured group's entry is its loop document plus
+``measured: true`` and ``group`` {index, chosen, why, can_ring, passed_over, tried}; a group no break
+could measure has only ``label``, ``verdict`` ("inconclusive"), ``passed`` (false), ``measured``
+(false), ``reason``, ``advice`` and ``group``.
+
 Several loops: ``multi_document("loops" | "locations", results)`` gives
 ``{"schema": "netloop.loops/1", "loops": [loop, ...], "verdict": ..., "passed": ...}`` (or ``locations``), and
 ``multi_document("modes", {"differential": r1, "common": r2})`` gives ``{"modes": {name: loop}}``.
@@ -72,7 +78,7 @@ from netloop.analysis.response import ratio_db
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
 from netloop.jobs.loop_result import LoopResult, combined_verdict
 
-__all__ = ["CORNERS_SCHEMA", "SCHEMA", "json_document", "multi_document", "to_document"]
+__all__ = ["CORNERS_SCHEMA", "SCHEMA", "groups_document", "json_document", "multi_document", "to_document"]
 
 SCHEMA = "netloop.loop/1"
 CORNERS_SCHEMA = "netloop.corners/1"  # a corner run: netloop.report.corner_records; its results file: netloop.jobs.corners.journal
@@ -259,3 +265,19 @@ def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopR
     if infinite:
         head["infinite"] = infinite
     return {"schema": f"netloop.{kind}/1", **head, kind: body, "verdict": verdict, "passed": verdict == "pass"}
+
+
+def groups_document(check) -> dict:
+    """The document of every loop group measured on its own (a netloop.jobs.discover.LoopsCheck): one entry per group."""
+    entries = []
+    for g in check.groups:
+        about = {"index": g.census.group.index, "chosen": g.census.chosen, "why": g.why or g.census.why, "can_ring": g.census.can_ring,
+                 "passed_over": list(g.census.passed_over), "tried": list(g.tried)}
+        if g.result is not None:
+            entries.append({**to_document(g.result), "measured": True, "group": about})
+        else:
+            entries.append({"label": g.label, "verdict": g.verdict, "passed": False, "measured": False, "reason": g.reason,
+                            "advice": g.advice, "group": about})
+    verdict = check.verdict
+    return {"schema": "netloop.loops/1", "netlist": check.census.source, "loops": entries, "verdict": verdict,
+            "passed": verdict == "pass", "notes": list(check.notes)}

@@ -28,7 +28,7 @@ from netloop.report.corners import (
     sort_worst_first,
     write_corner_csv,
 )
-from netloop.jobs.document import SCHEMA, multi_document, to_document
+from netloop.jobs.document import SCHEMA, groups_document, multi_document, to_document
 from netloop.report.html import render_html, write_html
 from netloop.report.nyquist_plot import compress_radius, nyquist_figure, plot_nyquist
 from netloop.report.samples import SAMPLE_COLUMNS, sample_table, write_csv
@@ -46,6 +46,7 @@ __all__ = [
     "corner_table",
     "format_text",
     "junit_xml",
+    "groups_document",
     "multi_document",
     "nyquist_figure",
     "plot_bode",
