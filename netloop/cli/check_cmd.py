@@ -11,16 +11,34 @@ __all__ = ["add_parser", "run"]
 
 
 def frequency(text: str) -> float:
-    """An argparse type: a frequency in Hz with an optional SI suffix (1k, 10meg, 1g)."""
-    from netloop.netlist import parse_value
+    """An argparse type: a frequency in Hz as an engineer writes it (1k, 10meg, 100MHz; netloop.analysis.quantities)."""
+    from netloop.analysis.quantities import parse_quantity
+    from netloop.errors import PlanError
 
     try:
-        value = parse_value(text)
-    except Exception as exc:  # noqa: BLE001 - argparse turns ValueError into a usage message
-        raise argparse.ArgumentTypeError(f"expected a frequency such as 1k or 10meg, got {text!r}") from exc
+        value = parse_quantity(text, "hz")
+    except PlanError as exc:  # argparse turns ArgumentTypeError into a usage message naming the option
+        raise argparse.ArgumentTypeError(str(exc)) from exc
     if not value > 0:
         raise argparse.ArgumentTypeError(f"a frequency must be positive, got {text!r}")
     return value
+
+
+def requirements_from(texts: list[str]):
+    """The --require expressions parsed; a bare metric name (what the shell leaves of an unquoted pm>=60, having
+    read '>' as a redirection) gets a hint to quote the expression."""
+    import re
+
+    from netloop.analysis import parse_requirements
+    from netloop.analysis.requirements import METRICS
+    from netloop.errors import PlanError
+
+    for text in texts:
+        if re.fullmatch(r"\s*[A-Za-z]+\s*", text) and text.strip().lower() in METRICS:
+            raise PlanError(f"--require {text!r} has no operator and value; quote the whole expression, as in "
+                            f"--require '{text.strip()}>=60': unquoted, the shell reads > as a redirection (and may have "
+                            "written a file named after the rest)")
+    return parse_requirements(texts)
 
 
 def process_count(text: str) -> int:
@@ -39,11 +57,11 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
     if driver:
         parser.add_argument("--driver", metavar="ELEMENT[.PIN]", help="the element terminal(s) that drive the break node (comma-separated); decided from the circuit by default")
     parser.add_argument("--method", choices=methods, default="tian", help="how T is formed from the two runs (default: tian)")
-    parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency (default 10 mHz, widened when the phase has not settled)")
-    parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency (default 10 GHz, widened until |T| << 1)")
+    parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency, e.g. 1k or 10MHz (default 10 mHz, widened when the phase has not settled)")
+    parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency, e.g. 100meg or 1GHz (default 10 GHz, widened until |T| << 1)")
     parser.add_argument("--ppd", type=int, default=10, metavar="N", help="points per decade of the first sweep; crossovers are refined adaptively (default 10)")
     parser.add_argument("--open-loop-rhp-poles", type=int, default=0, metavar="P", help="open-loop right-half-plane poles for the Nyquist verdict (default 0)")
-    parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
+    parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as 'pm>=60', 'gm>=10dB', 'fc>=100MHz', 'dc>=40' (repeatable; quote it for the shell)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
     parser.add_argument("--processes", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
                         "(default: one per excitation, up to the free CPUs and at most 4, on netlists of 30000 elements or more; else 1)")
@@ -120,10 +138,9 @@ def write_outputs(args: argparse.Namespace, results) -> None:
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.cli.main import exit_status
-    from netloop.analysis import parse_requirements
     from netloop.jobs.measure import load_netlist, measure
 
-    requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
     if args.open_loop_rhp_poles < 0:
         from netloop.errors import NetloopError

@@ -108,12 +108,13 @@ def _pole_document(c) -> dict:
 
 def run(args: argparse.Namespace) -> int:
     from netloop import report
-    from netloop.analysis import parse_requirements
     from netloop.jobs.compare import POLE_RTOL, T_RTOL, compare
     from netloop.errors import NetloopError
     from netloop.jobs.measure import load_netlist
 
-    requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    from netloop.cli.check_cmd import requirements_from
+
+    requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
     if args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")

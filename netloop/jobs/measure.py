@@ -242,7 +242,8 @@ def sample_loops(
         return {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
 
     analyses = analyse_all(False)
-    active = [name for name, a in analyses.items() if a.gain_crossovers] if sweep.refine else []
+    # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz)
+    active = [name for name, a in analyses.items() if a.gain_crossovers or a.nyquist.coarse_hz] if sweep.refine else []
     settled = {name: name not in active for name in t}
     rounds = 0
     if active:
@@ -259,7 +260,8 @@ def sample_loops(
             current = {name: analyses[name].margins.phase_margin_deg for name in active}
             for name in active:
                 p, c = previous[name], current[name]
-                settled[name] = p is not None and c is not None and abs(c - p) < sweep.tol_deg
+                same = p is None and c is None if p is None or c is None else abs(c - p) < sweep.tol_deg
+                settled[name] = same and not analyses[name].nyquist.coarse_hz
             if all(settled[name] for name in active):
                 break
             previous = current
