@@ -122,7 +122,7 @@ def windows_of(analysis: LoopAnalysis, half_width: float = 0.06, points: int = 9
         lo, hi = group[0][0] * math.exp(-half_width), group[-1][0] * math.exp(half_width)
         kinds = [kind for _, kind in group]
         span = math.log(hi / lo) / (2.0 * half_width)  # in window widths
-        count = max(points, int(math.ceil((points - 1) * span)) + 1)
+        count = max(points, math.ceil((points - 1) * span) + 1)
         out.append(Window(lo, hi, count, float(resp.phase_at(math.log10((lo + hi) / 2.0))), kinds.count("gain"), kinds.count("phase")))
     if _has_inner_peak(analysis):
         peak = analysis.peaking.peak_freq_hz

@@ -5,7 +5,12 @@ from __future__ import annotations
 import argparse
 import json
 
-from netloop.cli.check_cmd import add_measure_options, process_count, refuse_bad_outputs, sweep_from
+from netloop.cli.check_cmd import (
+    add_measure_options,
+    process_count,
+    refuse_bad_outputs,
+    sweep_from,
+)
 
 __all__ = ["add_parser", "run"]
 
@@ -47,6 +52,8 @@ def positive(text: str) -> int:
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
+    parser.epilog = ("Slopes are local, and a solved value holds for this operating point and corner only: re-check the corners. "
+                     "See README section 'What sets the margin, and what value fixes it'.")
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
     parser.add_argument("--at", required=True, metavar="NODE", help="the node where the loop is broken, as for `netloop check`")
     add_measure_options(parser)

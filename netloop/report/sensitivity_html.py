@@ -10,7 +10,12 @@ from netloop.report.files import output_file
 from netloop.report.html import page_template, png_uri, render_html
 from netloop.report.notation import db, deg, eng
 from netloop.report.sensitivity_plot import sensitivity_figure
-from netloop.report.sensitivity_text import FIGURE_NAMES, accuracy_text, knob_value, slope_text
+from netloop.report.sensitivity_text import (
+    FIGURE_NAMES,
+    accuracy_text,
+    knob_value,
+    slope_text,
+)
 
 __all__ = ["render_sensitivity_html", "sensitivity_section", "write_sensitivity_html"]
 

@@ -18,7 +18,7 @@ def _help(command: str, capsys) -> str:
     return " ".join(capsys.readouterr().out.split())
 
 
-@pytest.mark.parametrize("command", ["check", "compare", "corners", "loops", "inspect", "demo"])
+@pytest.mark.parametrize("command", ["check", "compare", "corners", "loops", "inspect", "demo", "sensitivity"])
 def test_help_points_only_to_readme_sections_that_exist(command, capsys):
     """Every "README section 'X'" a --help page names is a heading of README.md."""
     headings = {line.lstrip("#").strip() for line in README.read_text(encoding="utf-8").splitlines() if line.startswith("#")}
@@ -34,3 +34,5 @@ def test_ngspice_processes_and_dask_workers_have_different_names(capsys):
         assert "--processes N ngspice processes" in text and "--jobs" not in text
     text = _help("corners", capsys)
     assert "--workers N Dask worker processes" in text and "--jobs" not in text
+    text = _help("sensitivity", capsys)  # both: ngspice processes for each measurement, Dask workers for the knobs
+    assert "--processes N ngspice processes" in text and "--workers N Dask worker processes" in text and "--jobs" not in text

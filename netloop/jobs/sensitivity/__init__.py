@@ -12,7 +12,13 @@ job        sensitivities(netlist, at, ...) -> SensitivityRun
 
 from netloop.jobs.sensitivity.job import DEFAULT_SPAN, DEFAULT_STEP, rank, sensitivities
 from netloop.jobs.sensitivity.knobs import Knob, find_knobs, select_knobs
-from netloop.jobs.sensitivity.records import SENSITIVITY_CAUTION, Sensitivity, SensitivityRun, Slope, WhatIf
+from netloop.jobs.sensitivity.records import (
+    SENSITIVITY_CAUTION,
+    Sensitivity,
+    SensitivityRun,
+    Slope,
+    WhatIf,
+)
 
 __all__ = [
     "DEFAULT_SPAN",

@@ -13,7 +13,13 @@ import math
 from netloop.analysis.local import LocalReading
 from netloop.jobs.document import json_document, to_document
 from netloop.jobs.loop_result import CAUTION, LoopResult
-from netloop.jobs.sensitivity.records import FIGURES, STEPS, Sensitivity, SensitivityRun, WhatIf
+from netloop.jobs.sensitivity.records import (
+    FIGURES,
+    STEPS,
+    Sensitivity,
+    SensitivityRun,
+    WhatIf,
+)
 
 __all__ = ["SENSITIVITY_SCHEMA", "sensitivity_document"]
 

@@ -15,7 +15,14 @@ from netloop.analysis.local import windows_of
 from netloop.analysis.requirements import Requirement
 from netloop.errors import NetloopError
 from netloop.jobs.loop_result import LoopResult
-from netloop.jobs.measure import CLEARS_STATUS, Sweep, load_netlist, measure, probe_job, simulator_processes
+from netloop.jobs.measure import (
+    CLEARS_STATUS,
+    Sweep,
+    load_netlist,
+    measure,
+    probe_job,
+    simulator_processes,
+)
 from netloop.jobs.sensitivity.edit import changed_netlist
 from netloop.jobs.sensitivity.knobs import Knob, find_knobs, select_knobs
 from netloop.jobs.sensitivity.records import Sensitivity, SensitivityRun, WhatIf

@@ -13,7 +13,7 @@ from netloop.jobs.measure import Sweep, return_ratio, sample_loops
 from netloop.probe import ProbeVectors
 from netloop.sim import AcSweep, Alter, SimJob, SimResult, Simulator
 
-__all__ = ["Remeasure", "Reading"]
+__all__ = ["Reading", "Remeasure"]
 
 
 @dataclass(frozen=True, slots=True)

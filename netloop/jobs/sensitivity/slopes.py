@@ -7,7 +7,14 @@ from collections.abc import Sequence
 
 from netloop.errors import SimulationError
 from netloop.jobs.sensitivity.knobs import Knob
-from netloop.jobs.sensitivity.records import FIGURES, STEPS, Probe, Sensitivity, Slope, central_difference
+from netloop.jobs.sensitivity.records import (
+    FIGURES,
+    STEPS,
+    Probe,
+    Sensitivity,
+    Slope,
+    central_difference,
+)
 from netloop.jobs.sensitivity.remeasure import Remeasure
 from netloop.sim import Simulator
 

@@ -56,8 +56,8 @@ def test_an_instance_gets_its_own_copy_of_the_definition():
 def test_the_written_value_measures_as_the_altered_one():
     """The Miller buffer with cc written 1.3x larger measures the same phase margin as the sensitivity job's own
     whole measurement with cc altered 1.3x on the loaded circuit (ngspice solves both; they agree to 1e-9 deg)."""
-    from netloop.jobs.sensitivity.job import _Loop, _remeasure, _Remembering  # noqa: PLC0415 - the job's own pieces
     from netloop.jobs.measure import Sweep  # noqa: PLC0415
+    from netloop.jobs.sensitivity.job import _Loop, _remeasure, _Remembering  # noqa: PLC0415 - the job's own pieces
     from netloop.sim import SharedLibrarySimulator  # noqa: PLC0415
 
     netlist = load_netlist(ROOT / "circuits" / "miller_buffer.cir")

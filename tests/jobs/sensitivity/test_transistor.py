@@ -119,3 +119,24 @@ def test_bad_step_and_range_are_refused(circuits_dir):
         sensitivities(circuits_dir / "ref_buffer.cir", "out", step=0.5)
     with pytest.raises(NetloopError, match="LOW,HIGH"):
         sensitivities(circuits_dir / "ref_buffer.cir", "out", span=(2.0, 10.0))
+
+
+@pytest.mark.ngspice
+def test_changed_values_simulate_only_near_the_crossovers(circuits_dir, simulator):
+    """Each changed value of a knob is one job on the measured circuit (same circuit_id: no new load) whose sweeps are the
+    short windows around the measured crossovers plus two single frequencies, each with the knob's alter and nothing else."""
+    from netloop.jobs.sensitivity.job import _Remembering  # noqa: PLC0415 - records the jobs sent
+
+    recorder = _Remembering(simulator)
+    run = sensitivities(circuits_dir / "ref_buffer.cir", "out", knobs=["cc"], simulator=recorder)
+    changed = [j for j in recorder.jobs if j.alters]
+    assert len(changed) == 4 and run.sensitivities[0].whole_sweeps == 0
+    measured = next(j for j in recorder.jobs if not j.alters)
+    fc = run.nominal.analysis.margins.unity_gain_hz
+    for job in changed:
+        assert job.circuit_id == measured.circuit_id and job.netlist == measured.netlist
+        (alter,) = job.alters
+        assert (alter.device, alter.parameter) == ("cc", "capacitance")
+        sweeps = job.runs[0].sweeps
+        assert all(s.kind == "lin" for s in sweeps) and sum(s.points for s in sweeps) <= 40
+        assert any(s.fstart_hz < fc < s.fstop_hz and s.fstop_hz / s.fstart_hz < 1.2 for s in sweeps)
