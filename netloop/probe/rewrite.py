@@ -67,11 +67,13 @@ def _rebody(body: tuple[Statement, ...], instance: str | None, model: str | None
     return tuple(out)
 
 
-def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tuple[str, int], str], probe: tuple[Element, ...], taken: set[str]) -> Rewrite:
+def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tuple[str, int], str], probe: tuple[Element, ...], taken: set[str],
+               pin: tuple[str, str] | None = None) -> Rewrite:
     """New statements: in the node's scope the driver terminals move to the new node and the probe is added.
 
     Inside an instance, each definition on the instance path is copied under a new name, so that
-    other instances of the same subcircuit stay untouched.
+    other instances of the same subcircuit stay untouched. ``pin`` = (node, new node) renames that
+    pin of the innermost definition: the net outside the instance then meets the new node.
     """
     if not scope.path:
         return Rewrite(_split_body(statements, moves, probe), ())
@@ -88,7 +90,8 @@ def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tupl
         else:
             body = d.body
         body = _rebody(body, scope.path[j + 1] if j + 1 < k else None, new_def.name if new_def and j + 1 < k else None, inserts.pop(j, []))
-        new_def = replace(d, name=name, body=body, header="")
+        pins = tuple(pin[1] if pin is not None and j == k - 1 and p == pin[0] else p for p in d.pins)
+        new_def = replace(d, name=name, body=body, header="", pins=pins)
         copies.append((d.name, name))
         container = next((m for m in range(j - 1, -1, -1) if d.name in defs[m].subcircuits), -1)
         inserts.setdefault(container, []).append((d.name, new_def))
