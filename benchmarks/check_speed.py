@@ -17,7 +17,7 @@ and writes the vectors. Prints both wall times (best of ``--repeat``) and the ra
 
 netloop runs as a designer would run it, with its defaults: on a netlist this large and a machine
 with two free CPUs that means two ngspice processes, one per excitation (netloop.sim.split). A
-third row, ``netloop check --jobs 1``, runs everything in one ngspice as the hand deck does: its
+third row, ``netloop check --processes 1``, runs everything in one ngspice as the hand deck does: its
 ratio is netloop's own overhead (start-up, parse, probe, analysis, report) on top of ngspice's.
 """
 
@@ -170,9 +170,9 @@ def main() -> None:
                 sys.exit(f"check_speed: netloop check failed ({done.returncode}): {done.stderr.strip()}")
             netloop_s.append(seconds)
             sweeps = sweeps_of(decks)
-            seconds, done = timed([netloop, "check", "loop.cir", "--at", "out", "--jobs", "1"], work)
+            seconds, done = timed([netloop, "check", "loop.cir", "--at", "out", "--processes", "1"], work)
             if done.returncode not in (0, 1):
-                sys.exit(f"check_speed: netloop check --jobs 1 failed ({done.returncode}): {done.stderr.strip()}")
+                sys.exit(f"check_speed: netloop check --processes 1 failed ({done.returncode}): {done.stderr.strip()}")
             serial_s.append(seconds)
             (work / "hand.cir").write_text(hand_deck(build(elements, probed=True), sweeps))
             seconds, done = timed([ngspice, "-b", "hand.cir"], work)
@@ -188,7 +188,7 @@ def main() -> None:
           f"({', '.join(s.split(' ', 1)[1] for s in sweeps)}); best of {args.repeat}")
     print(f"ngspice -b hand deck   {t_hand:8.2f} s   1.00")
     print(f"netloop check          {t_netloop:8.2f} s   {ratio:.3f}x ngspice   (its defaults)")
-    print(f"netloop check --jobs 1 {t_serial:8.2f} s   {t_serial / t_hand:.3f}x ngspice   (one ngspice: netloop's own overhead)")
+    print(f"netloop check --processes 1 {t_serial:8.2f} s   {t_serial / t_hand:.3f}x ngspice   (one ngspice: netloop's own overhead)")
     if args.stages:
         print("netloop stages (one more run, in process; the worker starts after the probe here):")
         print(stage_line)

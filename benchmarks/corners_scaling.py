@@ -7,7 +7,7 @@ The default circuit is the Miller buffer on SkyWater's sky130 models, a real pro
 models, 20-30 ms a corner, where Dask's own cost per task (a few ms) and the coordinating process
 sharing the two CPUs weigh on the ratio; ``--quick`` uses it, once per worker count, as a smoke run.
 
-Both clusters (1 worker, 2 workers) are started as `netloop corners --jobs N` starts them
+Both clusters (1 worker, 2 workers) are started as `netloop corners --workers N` starts them
 (netloop.jobs.corners.runner.local_cluster) and their workers warmed (ngspice started, scipy and the
 report stage imported) before the clock starts, so the ratio compares running corners, not starting
 processes; runs alternate between the two and the fastest of each counts, so bursts of other work on
@@ -91,7 +91,7 @@ def main() -> None:
         with contextlib.ExitStack() as stack:
             addresses = {}
             for workers in (1, 2):
-                cluster = stack.enter_context(local_cluster(workers))  # as `netloop corners --jobs N` starts it
+                cluster = stack.enter_context(local_cluster(workers))  # as `netloop corners --workers N` starts it
                 client = stack.enter_context(Client(cluster))
                 client.wait_for_workers(workers)
                 client.run(_warm)  # each worker's ngspice started before the clock starts

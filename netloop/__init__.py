@@ -11,7 +11,8 @@ cli       the ``netloop`` command, a thin shell over this API
 
 The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
 ``measure_all_loops`` (every loop group), ``compare`` (several breaks in one deck),
-``run_plan`` (a corner plan from ``load_plan``).
+``run_plan`` (a corner plan from ``load_plan``), ``sensitivities`` (which values set a loop's margins,
+and the value of one that meets a requirement).
 Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
 """
 
@@ -51,6 +52,8 @@ _EXPORTS = {
     "parse_file": "netloop.netlist",
     "parse_text": "netloop.netlist",
     "run_plan": "netloop.jobs.corners",
+    "SensitivityRun": "netloop.jobs.sensitivity",
+    "sensitivities": "netloop.jobs.sensitivity",
     "write_netlist": "netloop.netlist",
 }
 

@@ -10,7 +10,7 @@ from netloop.analysis.preload import load_scipy
 from netloop.analysis.response import Response
 from netloop.analysis.results import Peaking
 
-__all__ = ["closed_loop_peaking", "modulus_margin"]
+__all__ = ["closed_loop_peaking", "in_band_db", "modulus_margin"]
 
 
 def _extremum(resp: Response, fun) -> tuple[float, float]:
@@ -45,11 +45,16 @@ def modulus_margin(resp: Response) -> tuple[float, float]:
     return v, float(10.0**x)
 
 
+def in_band_db(t0: complex) -> float:
+    """The level peaking is measured from: |T/(1+T)| in dB at the lowest frequency when |T| > 1 there, else 0 dB."""
+    t0 = complex(t0)
+    return 20.0 * math.log10(abs(t0 / (1.0 + t0))) if abs(t0) > 1.0 else 0.0
+
+
 def closed_loop_peaking(resp: Response) -> Peaking:
     """Peak of |T/(1+T)| relative to its regulated low-frequency value (or to 1 when |T| <= 1 there)."""
     x, v = _extremum(resp, _minus_closed_loop)
     peak = -v
     absolute_db = 20.0 * math.log10(peak) if peak > 0 else -math.inf
-    t0 = complex(resp.t[0])
-    reference_db = 20.0 * math.log10(abs(t0 / (1.0 + t0))) if abs(t0) > 1.0 else 0.0
+    reference_db = in_band_db(resp.t[0])
     return Peaking(absolute_db - reference_db, float(10.0**x), reference_db, absolute_db)

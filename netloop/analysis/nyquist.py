@@ -107,6 +107,8 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
             f"the angle of 1 + T jumps by more than {_MAX_STEP_DEG:g} deg between neighbouring points "
             f"near {10.0 ** xs[i]:.4g} Hz: T passes too close to -1 to count safely; sample more densely there"
         )
+    rough = sorted({int(i) for i in np.flatnonzero(coarse)} | {int(j) // _DENSE for j in np.flatnonzero(big)})
+    coarse_hz = tuple((float(resp.freq_hz[i]), float(resp.freq_hz[i + 1])) for i in rough if i + 1 < resp.freq_hz.size)
     data_turn = 2.0 * float(np.sum(steps))  # the data and its mirror image turn by the same amount
 
     # top: beyond f_max, 1 + T is assumed close to 1
@@ -163,5 +165,6 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
         reliable=not reasons,
         reasons=tuple(reasons),
         origin_poles=k,
+        coarse_hz=coarse_hz,
     )
     return verdict, dc_sign

@@ -27,12 +27,13 @@ def _brackets(analysis: LoopAnalysis) -> list[int]:
 
 
 def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: LoopAnalysis | None = None, **analyse_kwargs) -> np.ndarray:
-    """New frequencies (Hz, ascending, none already sampled) that subdivide each crossover's interval and its neighbours.
+    """New frequencies (Hz, ascending, none already sampled) that subdivide each crossover's interval and its neighbours,
+    and every interval the Nyquist count found too coarse (NyquistVerdict.coarse_hz).
 
     Each interval [f_i, f_i+1] that holds a gain or phase crossover (above the floor; not the one
     at DC of a loop with positive feedback there), and the interval on either side of it, is
-    split into points_per_interval + 1 equal steps in log f.
-    Returns an empty array when there is no crossover.
+    split into points_per_interval + 1 equal steps in log f; so is each coarse interval.
+    Returns an empty array when there is no crossover and no coarse interval.
     """
     if analysis is None:
         analysis = analyse(freq_hz, t, fit_poles=False, **analyse_kwargs)
@@ -40,6 +41,9 @@ def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: L
     chosen: set[int] = set()
     for i in _brackets(analysis):
         chosen.update(j for j in (i - 1, i, i + 1) if 0 <= j < x.size - 1)
+    # where the Nyquist count found the samples too coarse to count across ("sample more densely there")
+    lows = [low for low, _ in analysis.nyquist.coarse_hz]
+    chosen.update(int(i) for i in np.searchsorted(analysis.freq_hz, lows) if 0 <= i < x.size - 1)
     frac = np.arange(1, points_per_interval + 1) / (points_per_interval + 1)
     new = [x[j] + (x[j + 1] - x[j]) * frac for j in sorted(chosen)]
     if not new:

@@ -1,6 +1,6 @@
 """Pass/fail requirements on a loop analysis, written as text such as "pm>=60" or "fc > 1meg".
 
-Grammar: METRIC OP NUMBER[SUFFIX][UNIT], spaces allowed between the parts, case-insensitive.
+Grammar: METRIC OP VALUE, spaces allowed between the parts; METRIC and OP in any case.
 
     metric  meaning (unit)                              taken from
     pm      worst phase margin (deg)                    margins.phase_margin_deg
@@ -13,8 +13,10 @@ Grammar: METRIC OP NUMBER[SUFFIX][UNIT], spaces allowed between the parts, case-
     peak    closed-loop peaking (dB)                    peaking.peak_db
 
     OP      >=  <=  >  <
-    SUFFIX  SI/SPICE multipliers: t g meg k m u n p f (so 1meg = 1e6, 1m = 1e-3)
-    UNIT    optional, and only the metric's own: deg, db, hz, s
+    VALUE   a number in the metric's unit, written as an engineer means it (netloop.analysis.quantities):
+            fc>=100MHz and fc>=100meg are 1e8 Hz, dm>=1ns is 1e-9 s, pm>=45deg, gm>=10dB; the unit word is
+            optional (fc>=1meg) and only the metric's own; a bare M (fc>=100M) and 100mhz are refused
+            as ambiguous, with what to write instead
 
 A metric that does not exist for the loop FAILS, with a reason, except in one documented case:
 gm (or lgm) of a loop that the Nyquist count reliably calls stable and that has no phase
@@ -30,6 +32,7 @@ import re
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 
+from netloop.analysis.quantities import UNITS, parse_quantity
 from netloop.analysis.results import LoopAnalysis
 from netloop.errors import PlanError
 
@@ -47,10 +50,7 @@ METRICS: dict[str, tuple[str, str]] = {
 }
 
 _OPS: dict[str, Callable[[float, float], bool]] = {">=": operator.ge, "<=": operator.le, ">": operator.gt, "<": operator.lt}
-_SUFFIX = {"t": 1e12, "g": 1e9, "meg": 1e6, "k": 1e3, "": 1.0, "m": 1e-3, "u": 1e-6, "n": 1e-9, "p": 1e-12, "f": 1e-15}
-_PATTERN = re.compile(
-    r"^\s*(?P<metric>[a-z]+)\s*(?P<op>>=|<=|>|<)\s*(?P<num>[-+]?(?:\d+\.?\d*|\.\d+)(?:e[-+]?\d+)?)\s*(?P<tail>[a-z]*)\s*$"
-)
+_PATTERN = re.compile(r"^\s*(?P<metric>[A-Za-z]+)\s*(?P<op>>=|<=|>|<)\s*(?P<value>.*?)\s*$", re.S)
 
 
 @dataclass(frozen=True, slots=True)
@@ -69,7 +69,7 @@ class Requirement:
         if value is None:
             return RequirementOutcome(self, None, False, f"{self.text}: fails, {missing}")
         passed = bool(_OPS[self.op](value, self.threshold))
-        shown = f"{value:.6g}{(' ' + unit) if unit else ''}"
+        shown = f"{value:.6g}{(' ' + UNITS[unit]) if unit else ''}"
         note = f" ({missing})" if missing else ""
         return RequirementOutcome(self, value, passed, f"{self.text}: {'passes' if passed else 'fails'}, {name} is {shown}{note}")
 
@@ -87,8 +87,8 @@ class RequirementOutcome:
 def _expected(text: str, what: str) -> PlanError:
     metrics = ", ".join(METRICS)
     return PlanError(
-        f"cannot read requirement {text!r}: {what}; expected METRIC OP NUMBER such as 'pm>=60' or 'fc>1meg', "
-        f"with METRIC one of {metrics}, OP one of >= <= > <, and an optional SI suffix (t g meg k m u n p f)"
+        f"cannot read requirement {text!r}: {what}; expected METRIC OP VALUE such as 'pm>=60', 'fc>100MHz' or 'dm>=1ns', "
+        f"with METRIC one of {metrics} and OP one of >= <= > <"
     )
 
 
@@ -96,22 +96,16 @@ def parse_requirement(text: str) -> Requirement:
     """Read "pm>=60"-style text into a Requirement; PlanError saying what was expected otherwise."""
     if not isinstance(text, str):
         raise _expected(repr(text), "it is not text")
-    m = _PATTERN.match(text.lower())
+    m = _PATTERN.match(text)
     if m is None:
-        raise _expected(text, "it does not have the form METRIC OP NUMBER")
-    metric, op, tail = m["metric"], m["op"], m["tail"]
+        raise _expected(text, "it does not have the form METRIC OP VALUE")
+    metric, op = m["metric"].lower(), m["op"]
     if metric not in METRICS:
         raise _expected(text, f"unknown metric {metric!r}")
-    unit = METRICS[metric][1]
-    for suffix in sorted(_SUFFIX, key=len, reverse=True):
-        if tail.startswith(suffix) and tail[len(suffix) :] in ("", unit):
-            break
-    else:
-        raise _expected(text, f"{tail!r} is not an SI suffix{(' or ' + repr(unit)) if unit else ''}")
     try:
-        number = float(m["num"]) * _SUFFIX[suffix]
-    except ValueError as exc:  # pragma: no cover - the pattern admits only floats
-        raise _expected(text, "the number cannot be read") from exc
+        number = parse_quantity(m["value"], METRICS[metric][1])
+    except PlanError as exc:
+        raise _expected(text, f"{METRICS[metric][0]}: {exc}") from exc
     return Requirement(metric, op, number, text.strip())
 
 

@@ -198,6 +198,10 @@ class NyquistVerdict:
     origin_poles           poles of T at s = 0 inferred from the low-frequency slope of |T|
                            (integrators; negative for zeros at the origin, e.g. AC coupling);
                            the contour detours to the right of them.
+    coarse_hz              (f_low, f_high) of each sample interval too coarse to count across (T's
+                           phase steps too far, or 1 + T turns too fast near -1); the jobs sample
+                           there more densely by themselves (netloop.analysis.refine). Empty when
+                           none is.
     """
 
     encirclements: int
@@ -208,6 +212,7 @@ class NyquistVerdict:
     reasons: tuple[str, ...]
     origin_poles: int
     open_loop_rhp_from: str = "given"
+    coarse_hz: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)

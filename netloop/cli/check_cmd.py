@@ -11,16 +11,34 @@ __all__ = ["add_parser", "run"]
 
 
 def frequency(text: str) -> float:
-    """An argparse type: a frequency in Hz with an optional SI suffix (1k, 10meg, 1g)."""
-    from netloop.netlist import parse_value
+    """An argparse type: a frequency in Hz as an engineer writes it (1k, 10meg, 100MHz; netloop.analysis.quantities)."""
+    from netloop.analysis.quantities import parse_quantity
+    from netloop.errors import PlanError
 
     try:
-        value = parse_value(text)
-    except Exception as exc:  # noqa: BLE001 - argparse turns ValueError into a usage message
-        raise argparse.ArgumentTypeError(f"expected a frequency such as 1k or 10meg, got {text!r}") from exc
+        value = parse_quantity(text, "hz")
+    except PlanError as exc:  # argparse turns ArgumentTypeError into a usage message naming the option
+        raise argparse.ArgumentTypeError(str(exc)) from exc
     if not value > 0:
         raise argparse.ArgumentTypeError(f"a frequency must be positive, got {text!r}")
     return value
+
+
+def requirements_from(texts: list[str]):
+    """The --require expressions parsed; a bare metric name (what the shell leaves of an unquoted pm>=60, having
+    read '>' as a redirection) gets a hint to quote the expression."""
+    import re
+
+    from netloop.analysis import parse_requirements
+    from netloop.analysis.requirements import METRICS
+    from netloop.errors import PlanError
+
+    for text in texts:
+        if re.fullmatch(r"\s*[A-Za-z]+\s*", text) and text.strip().lower() in METRICS:
+            raise PlanError(f"--require {text!r} has no operator and value; quote the whole expression, as in "
+                            f"--require '{text.strip()}>=60': unquoted, the shell reads > as a redirection (and may have "
+                            "written a file named after the rest)")
+    return parse_requirements(texts)
 
 
 def process_count(text: str) -> int:
@@ -41,15 +59,16 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
                             help="the element terminal(s) that drive the break node (comma-separated; hierarchical names like "
                                  "x1.x2.m3.d allowed); with --at-pair give one per node, NODE=ELEMENT[.PIN],...; decided from the circuit by default")
     parser.add_argument("--method", choices=methods, default="tian", help="how T is formed from the two runs (default: tian)")
-    parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency (default 10 mHz, widened when the phase has not settled)")
-    parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency (default 10 GHz, widened until |T| << 1)")
+    parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency, e.g. 1k or 10MHz (default 10 mHz, widened when the phase has not settled)")
+    parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency, e.g. 100meg or 1GHz (default 10 GHz, widened until |T| << 1)")
     parser.add_argument("--ppd", type=int, default=10, metavar="N", help="points per decade of the first sweep; crossovers are refined adaptively (default 10)")
     parser.add_argument("--open-loop-rhp-poles", type=int, default=None, metavar="P",
                         help="open-loop right-half-plane poles for the Nyquist verdict (default: read from the data, by a rational fit of T)")
-    parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as pm>=60, gm>=10, fc>=1meg, dc>=40 (repeatable)")
+    parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as 'pm>=60', 'gm>=10dB', 'fc>=100MHz', 'dc>=40' (repeatable; quote it for the shell)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
-    parser.add_argument("--jobs", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
+    parser.add_argument("--processes", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
                         "(default: one per excitation, up to the free CPUs and at most 4, on netlists of 30000 elements or more; else 1)")
+    parser.add_argument("--jobs", dest="processes", type=process_count, help=argparse.SUPPRESS)  # the earlier name of --processes
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
@@ -164,11 +183,9 @@ def pair_drivers(values: list[str] | None, nodes: tuple[str, str]) -> tuple[str 
 def run(args: argparse.Namespace) -> int:
     from netloop import report
     from netloop.cli.main import exit_status
-    from netloop.jobs.loop_result import combined_verdict
-    from netloop.analysis import parse_requirements
     from netloop.jobs.measure import load_netlist, measure
 
-    requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
     if args.open_loop_rhp_poles is not None and args.open_loop_rhp_poles < 0:
         from netloop.errors import NetloopError
@@ -181,25 +198,51 @@ def run(args: argparse.Namespace) -> int:
         open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements,
         keep_decks=args.keep_decks,
-        processes=args.jobs,
+        processes=args.processes,
     )
-    if args.at and not args.at_pair:
-        results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
-    elif args.at_pair:
+    if args.at_pair:
         return run_pair(args, load_netlist(args.netlist), common)
-    else:
-        from netloop.jobs.discover import measure_all_loops
-
-        results, notes = measure_all_loops(load_netlist(args.netlist), **common)
-        for note in notes:
-            print(f"netloop: {note}", file=sys.stderr)
+    if not args.at:
+        return run_groups(args, load_netlist(args.netlist), common)
+    results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
     write_outputs(args, results)
     if args.json:
-        doc = report.to_document(results[0]) if args.at else report.multi_document("loops", results)
-        print(json.dumps(doc, indent=2, allow_nan=False))
+        print(json.dumps(report.to_document(results[0]), indent=2, allow_nan=False))
     else:
-        print("\n\n".join(report.format_text(r) for r in results))
-    return exit_status(combined_verdict(r.verdict for r in results))
+        print(report.format_text(results[0]))
+    return exit_status(results[0].verdict)
+
+
+def unmeasured_text(group) -> str:
+    """The summary of a loop group no break could measure: INCONCLUSIVE first, the reason, what to try."""
+    return f"INCONCLUSIVE  {group.label}: not measured: {group.reason}\ntry: {group.advice}"
+
+
+def run_groups(args: argparse.Namespace, netlist, common: dict) -> int:
+    """Without --at: every loop group measured on its own (netloop.jobs.discover.check_loops), each reported, the verdicts combined."""
+    from netloop import report
+    from netloop.cli.main import exit_status
+    from netloop.jobs.discover import check_loops
+
+    check = check_loops(netlist, **common)
+    for note in check.notes:
+        print(f"netloop: {note}", file=sys.stderr)
+    results = list(check.results)
+    if results:
+        write_outputs(args, results)
+    if args.json:
+        print(json.dumps(report.groups_document(check), indent=2, allow_nan=False))
+    else:
+        parts = [report.format_text(g.result) if g.result is not None else unmeasured_text(g) for g in check.groups]
+        if len(check.groups) > 1:
+            parts.insert(0, verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups}))
+        print("\n\n".join(parts))
+    return exit_status(check.verdict)
+
+
+def verdicts_line(verdict: str, parts: dict[str, str]) -> str:
+    """The first line over several loops: "INCONCLUSIVE  differential mode: pass, common mode: inconclusive"."""
+    return f"{verdict.upper()}  " + ", ".join(f"{name}: {v}" for name, v in parts.items())
 
 
 def coupling_document(coupling) -> dict:
@@ -259,6 +302,7 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))
     else:
+        print(verdicts_line(pair.verdict, {f"{mode} mode": r.verdict for mode, r in pair.modes.items()}))
         parts = [f"{mode} mode\n{report.format_text(r)}" for mode, r in pair.modes.items()]
         print("\n".join(parts) + "\n" + coupling_line(pair.coupling))
     return exit_status(pair.verdict)

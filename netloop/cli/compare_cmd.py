@@ -10,7 +10,8 @@ one entry per location in the shape of ``check --json``, ``passed``, and
     poles_agree   true | false | null (no two locations on one loop group, or no fitted poles)
     tolerances    {t_relative, pole_relative}
 
-Exit status: 0 every location stable and every requirement met, 1 otherwise, 2 bad input.
+Exit status: 0 every location stable and every requirement met, 1 a location unstable or a requirement failed,
+2 bad input or a simulator failure, 3 inconclusive (a location's self-check failed and none failed).
 """
 
 from __future__ import annotations
@@ -33,7 +34,8 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     add_measure_options(parser, methods=("tian", "middlebrook", "both"), driver=False)  # drivers go with each --at
     parser.add_argument("--json", action="store_true", help="print one JSON document: locations (each as check --json), differences, poles_agree")
     parser.add_argument("--plot", metavar="FILE", help="write overlaid Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
-    parser.epilog = "Exit status: 0 every location stable and every requirement met, 1 otherwise, 2 bad input."
+    parser.epilog = ("Exit status: 0 every location stable and every requirement met, 1 a location unstable or a requirement failed, "
+                     "2 bad input or a simulator failure, 3 inconclusive (a location's data supports no verdict).")
 
 
 def _locations(specs: list[str]) -> tuple[list[str], dict[str, str]]:
@@ -65,7 +67,7 @@ def _cells(r) -> list[str]:
         deg(m.phase_margin_deg),
         db(m.gain_margin_db),
         f"{number(m.modulus_margin)} ({db(ratio_db(m.modulus_margin))})",
-        "-" if pole is None else f"{eng(abs(pole) / math.tau, 'Hz')} z={number(-pole.real / abs(pole), 2)}",
+        "-" if pole is None else f"{eng(abs(pole) / math.tau, 'Hz')}, damping {number(-pole.real / abs(pole), 2)}",
         {"pass": "PASS ", "fail": "FAIL ", "inconclusive": "INCONCLUSIVE "}[r.verdict] + a.classification,
     ]
 
@@ -106,12 +108,13 @@ def _pole_document(c) -> dict:
 
 def run(args: argparse.Namespace) -> int:
     from netloop import report
-    from netloop.analysis import parse_requirements
     from netloop.jobs.compare import POLE_RTOL, T_RTOL, compare
     from netloop.errors import NetloopError
     from netloop.jobs.measure import load_netlist
 
-    requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
+    from netloop.cli.check_cmd import requirements_from
+
+    requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
     if args.open_loop_rhp_poles is not None and args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
@@ -119,7 +122,7 @@ def run(args: argparse.Namespace) -> int:
     netlist = load_netlist(args.netlist)
     result = compare(
         netlist, nodes, drivers=drivers, method=args.method, sweep=sweep_from(args), open_loop_rhp_poles=args.open_loop_rhp_poles,
-        requirements=requirements, keep_decks=args.keep_decks, processes=args.jobs,
+        requirements=requirements, keep_decks=args.keep_decks, processes=args.processes,
     )
     if args.plot:
         report.plot_bode(list(result.results), args.plot)
@@ -134,7 +137,11 @@ def run(args: argparse.Namespace) -> int:
         )
         print(json.dumps(doc, indent=2, allow_nan=False))
     else:
-        lines = [comparison_table(result), "", "differences"]
+        from netloop.cli.check_cmd import verdicts_line
+
+        heads = [r.label or r.breaks.node for r in result.results]
+        lines = [verdicts_line(result.verdict, dict(zip(heads, (r.verdict for r in result.results)))), "",
+                 comparison_table(result), "", "differences"]
         lines += [f"  {d.locations[0]} / {d.locations[1]} ({d.method}): {d.explanation}" for d in result.differences]
         lines += ["", "closed-loop poles"]
         lines += [f"  {c.locations[0]} / {c.locations[1]} ({c.method}): {c.explanation}" for c in result.pole_checks] or ["  no two locations on one loop group"]

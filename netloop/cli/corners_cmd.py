@@ -12,9 +12,11 @@ __all__ = ["add_parser", "run"]
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("plan", help="the corner plan (TOML); see the README section 'Corner plans'")
+    parser.add_argument("plan", help="the corner plan (TOML); see the README section 'Corner regressions'")
     where = parser.add_mutually_exclusive_group()
-    where.add_argument("--jobs", type=process_count, metavar="N", help="worker processes of the local Dask cluster (default: one per CPU)")
+    where.add_argument("--workers", type=process_count, metavar="N",
+                       help="Dask worker processes of the local cluster, each with its own ngspice (default: one per CPU)")
+    where.add_argument("--jobs", dest="workers", type=process_count, help=argparse.SUPPRESS)  # the earlier name of --workers
     where.add_argument("--cluster", metavar="ADDRESS", help="run on an existing Dask scheduler, e.g. tcp://10.0.0.5:8786, instead of a local cluster")
     parser.add_argument("--out", metavar="FILE.jsonl", help="the results file, one JSON line per corner (default: PLAN.results.jsonl next to the plan)")
     again = parser.add_mutually_exclusive_group()
@@ -38,7 +40,7 @@ def run(args: argparse.Namespace) -> int:
     refuse_unwritable(args.csv, "corner table")  # before any corner runs
     refuse_unwritable(args.junit, "JUnit XML")
     progress = args.progress or sys.stderr.isatty()
-    result = corners.run_plan(plan, jobs=args.jobs, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)
+    result = corners.run_plan(plan, jobs=args.workers, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)
     if args.csv:
         corner_records.write_corner_csv(result.records, args.csv)
     if args.junit:
@@ -50,8 +52,9 @@ def run(args: argparse.Namespace) -> int:
         print()
         print(corner_records.counts_line(result.records))
         for r in corner_records.worst_first(result.records):
-            if r["outcome"] == "error":
-                print(f"  {r['corner']}: {r['error']}")
+            if corner_records.verdict(r) in ("error", "inconclusive"):
+                at = f" at {r['at']}" if len({x["at"] for x in result.records}) > 1 else ""
+                print("\n".join(f"  {r['corner']}{at}: {why}" for why in corner_records.reasons(r)))
         note = f"; {result.skipped} found done in the results file" if result.skipped else ""
         print(f"results: {result.results_path} ({result.ran} run now{note})")
         if result.stale:

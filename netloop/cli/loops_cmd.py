@@ -1,111 +1,167 @@
-"""``netloop loops NETLIST``: the feedback loop groups, their loops and the ranked break nodes, as text or JSON."""
+"""``netloop loops NETLIST``: the loop census: each loop group, the break chosen for it and why, counted in text, whole in JSON."""
 
 from __future__ import annotations
 
 import argparse
 import json
+import math
 
-__all__ = ["add_parser", "discovery_document", "format_discovery", "run"]
+__all__ = ["add_parser", "census_document", "discovery_document", "format_census", "run"]
 
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
-    parser.add_argument("--json", action="store_true", help="print one JSON document instead of the text listing")
+    parser.add_argument("--json", action="store_true", help="print one JSON document (every loop, node, candidate and coarse figure)")
+    parser.add_argument("--no-sweep", action="store_true",
+                        help="do not measure the candidate breaks with a coarse sweep (no ngspice; the choice follows the loop structure)")
     parser.add_argument("--max-loops", type=int, default=None, metavar="N", help="loops listed per group at most (default 200)")
     parser.add_argument("--length-bound", type=int, default=None, metavar="N", help="nodes per loop at most, a passive network counting two (default 16)")
-    parser.add_argument("--candidates", type=int, default=5, metavar="N", help="break candidates shown per group in the text listing (default 5; JSON lists all)")
+    parser.add_argument("--candidates", type=int, default=0, metavar="N",
+                        help="also list the best N break candidates of each group with their reasons (default 0; JSON lists all)")
     parser.add_argument("--split-checks", type=int, default=None, metavar="N",
                         help="candidates per group whose real probe split is worked out and stated (default 8; 0: loop structure only)")
 
 
+def _loop_document(k: int, lp) -> dict:
+    return {
+        "number": k,
+        "path": lp.describe(),
+        "nodes": list(lp.nodes),
+        "passes": list(lp.passes),
+        "elements": list(lp.elements),
+        "steps": [{"from": s.source, "to": s.target, "elements": list(s.elements), "pins": list(s.pins), "passive": s.passive,
+                   "through": list(s.through)} for s in lp.steps],
+        "opened_by": list(lp.opened_by),
+        "active_steps": lp.active_steps,
+    }
+
+
+def _candidate_document(c) -> dict:
+    return {
+        "rank": c.rank,
+        "node": c.node,
+        "split_checked": c.split_checked,
+        "driver_side": list(c.driver_side),
+        "load_side": list(c.load_side),
+        "refused": c.refused,
+        "opens_all": c.opens_all,
+        "opened": list(c.opened),
+        "left_closed": list(c.left_closed),
+        "kept_closed": list(c.kept_closed),
+        "drivers": list(c.drivers),
+        "loads": list(c.loads),
+        "single_driver": c.single_driver,
+        "high_impedance_load": c.high_impedance_load,
+        "low_impedance_driver": c.low_impedance_driver,
+        "reason": c.reason,
+    }
+
+
+def _group_document(g) -> dict:
+    return {
+        "index": g.index,
+        "label": g.label,
+        "nodes": list(g.nodes),
+        "looked_through": list(g.looked_through),
+        "merged": [list(m) for m in g.merged],
+        "capped": g.capped,
+        "loops": [_loop_document(k, lp) for k, lp in enumerate(g.loops, 1)],
+        "candidates": [_candidate_document(c) for c in g.candidates],
+    }
+
+
 def discovery_document(source: str, found) -> dict:
-    """The plain-data form of a LoopDiscovery (what --json prints)."""
-    groups = []
-    for g in found.groups:
-        groups.append({
-            "index": g.index,
-            "label": g.label,
-            "nodes": list(g.nodes),
-            "capped": g.capped,
-            "loops": [
-                {
-                    "number": k,
-                    "path": lp.describe(),
-                    "nodes": list(lp.nodes),
-                    "elements": list(lp.elements),
-                    "steps": [{"from": s.source, "to": s.target, "elements": list(s.elements), "pins": list(s.pins), "passive": s.passive} for s in lp.steps],
-                    "opened_by": list(lp.opened_by),
-                    "active_steps": lp.active_steps,
-                }
-                for k, lp in enumerate(g.loops, 1)
-            ],
-            "candidates": [
-                {
-                    "rank": c.rank,
-                    "node": c.node,
-                    "split_checked": c.split_checked,
-                    "driver_side": list(c.driver_side),
-                    "load_side": list(c.load_side),
-                    "refused": c.refused,
-                    "opens_all": c.opens_all,
-                    "opened": list(c.opened),
-                    "left_closed": list(c.left_closed),
-                    "kept_closed": list(c.kept_closed),
-                    "drivers": list(c.drivers),
-                    "loads": list(c.loads),
-                    "single_driver": c.single_driver,
-                    "high_impedance_load": c.high_impedance_load,
-                    "low_impedance_driver": c.low_impedance_driver,
-                    "reason": c.reason,
-                }
-                for c in g.candidates
-            ],
-        })
+    """The plain-data form of a LoopDiscovery (loop structure and probe splits, no measurement)."""
     return {
         "schema": "netloop.loop-groups/1",
         "netlist": source,
         "signal_nodes": found.signal_nodes,
         "length_bound": found.length_bound,
         "max_loops": found.max_loops,
-        "groups": groups,
+        "groups": [_group_document(g) for g in found.groups],
         "notes": list(found.notes),
     }
 
 
-TEXT_NODES = 24  # names listed in the text before the rest are counted (--json lists every one)
-TEXT_STEPS = 16  # steps of a loop shown in the text
+def _finite(x: float | None) -> float | None:
+    return x if x is not None and math.isfinite(x) else None
 
 
-def _listed(names, most: int = TEXT_NODES) -> str:
-    """``a, b, c`` or, for a long list, its first names and how many more."""
-    if len(names) <= most:
-        return ", ".join(names)
-    return f"{len(names)} nodes: {', '.join(names[:most])}, ... and {len(names) - most} more (--json lists them all)"
+def census_document(census) -> dict:
+    """The plain-data form of a Census (what --json prints): the discovery, and per group its coarse figures and chosen break."""
+    doc = discovery_document(census.source, census.discovery)
+    doc["swept"] = census.swept
+    for entry, gc in zip(doc["groups"], census.groups):
+        entry["chosen"] = gc.chosen
+        entry["why"] = gc.why
+        entry["can_ring"] = gc.can_ring
+        entry["passed_over"] = list(gc.passed_over)  # "node (why)"
+        entry["coarse"] = [{"node": c.node, "dc_db": _finite(c.dc_db), "peak_db": _finite(c.peak_db), "peak_hz": c.peak_hz,
+                            "unity_hz": c.unity_hz, "top_db": _finite(c.top_db), "negligible": c.negligible, "falls": c.falls,
+                            "error": c.error} for c in gc.coarse]
+    return doc
 
 
-def format_discovery(source: str, found, candidates: int = 5) -> str:
-    """The text listing: each group, its loops, its best break nodes with the reason."""
+_REASON = 160  # characters of a refusal shown in the text (--json has it whole)
+
+
+def _short(text: str, most: int = _REASON) -> str:
+    return text if len(text) <= most else text[: most - 3].rstrip() + "..."
+
+
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _group_line(gc) -> str:
+    g = gc.group
+    counts = f"{_plural(len(g.loops), 'loop')}{' (capped)' if g.capped else ''}, {_plural(len(g.nodes), 'node')}"
+    measured = sum(1 for c in gc.coarse if c.measured)
+    if measured:
+        counts += f", {measured} of {len(g.candidates)} candidate breaks swept"
+    if gc.chosen is None:
+        return f"  loop {g.index}: {counts}; no break: {_short(gc.why, 2 * _REASON)}"
+    over = f"; passed over {'; '.join(gc.passed_over_briefly)}" if gc.passed_over_briefly else ""
+    return f"  {g.label}: {counts}; break at {gc.chosen}: {gc.why}{over}"
+
+
+def format_census(census, candidates: int = 0) -> str:
+    """The census in one screen: one line per group (can ring first), its break and why, and counts; lists only in --json."""
+    found = census.discovery
     n = len(found.groups)
-    lines = [f"{source}: {n} loop group{'s' if n != 1 else ''} among {found.signal_nodes} signal nodes"]
+    lines = [f"{census.source}: {_plural(n, 'loop group')} among {found.signal_nodes} signal nodes"]
     if not n:
         lines.append("no signal path leads from a node back to itself without passing through ground or a supply")
-    for g in found.groups:
-        more = " (capped: more exist)" if g.capped else ""
-        lines += ["", f"{g.label}: {len(g.loops)} loop{'s' if len(g.loops) != 1 else ''}{more} through {_listed(g.nodes)}"]
-        lines += [f"  {g.index}.{k}  {lp.describe(TEXT_STEPS)}" for k, lp in enumerate(g.loops, 1)]
-        lines.append("  break candidates:")
-        for c in g.candidates[:candidates]:
-            unchecked = "" if c.split_checked else " [loop structure only: the probe's split here was not worked out (--split-checks)]"
-            lines.append(f"    {c.rank}. {c.node}: {c.reason}{unchecked}")
-        if len(g.candidates) > candidates:
-            lines.append(f"    ... {len(g.candidates) - candidates} more (--candidates N, or --json)")
-    lines += [f"note: {t}" for t in found.notes]
+        return "\n".join(lines)
+    inner = sorted({x for g in found.groups for x in g.looked_through})
+    merged = [m for g in found.groups for m in g.merged]
+    elementary = sum(len(g.loops) for g in found.groups)
+    collapsed = [f"{_plural(elementary, 'loop')} in all"]
+    if inner:
+        collapsed.append(f"{_plural(len(inner), 'node')} looked through inside stages (mirror inputs, pair tails)")
+    if merged:
+        collapsed.append(f"{sum(len(m) for m in merged)} nodes joined by 0 V sources into {_plural(len(merged), 'loop node')}")
+    lines.append("counted as a designer reads the circuit: " + "; ".join(collapsed))
+    sections = [("can ring (|T| above 0 dB at a break):", [gc for gc in census.groups if gc.chosen and gc.can_ring]),
+                ("cannot ring on its own (|T| below 0 dB at every break swept):", [gc for gc in census.groups if gc.chosen and gc.can_ring is False]),
+                ("not swept:" if census.swept else "loop groups (the choice follows the loop structure; no coarse sweep):",
+                 [gc for gc in census.groups if gc.chosen and gc.can_ring is None]),
+                ("no break measures these (check reports them as inconclusive):", [gc for gc in census.groups if not gc.chosen])]
+    for title, members in sections:
+        if members:
+            lines.append(title)
+            for gc in members:
+                lines.append(_group_line(gc))
+                for c in gc.group.candidates[:candidates]:
+                    lines.append(f"      {c.rank}. {c.node}: {c.reason}")
+    lines += [f"note: {t}" for t in census.notes]
+    lines.append("--json lists every loop, node, candidate and coarse figure; `netloop check NETLIST` measures each group at its break")
     return "\n".join(lines)
 
 
 def run(args: argparse.Namespace) -> int:
-    from netloop.jobs.discover import discover_loops
     from netloop.errors import NetloopError
+    from netloop.jobs.discover import take_census
     from netloop.jobs.measure import load_netlist
 
     bounds = {}
@@ -121,10 +177,12 @@ def run(args: argparse.Namespace) -> int:
         if args.split_checks < 0:
             raise NetloopError(f"--split-checks must be at least 0, got {args.split_checks}")
         bounds["split_checks"] = args.split_checks
+    if args.candidates < 0:
+        raise NetloopError(f"--candidates must be at least 0, got {args.candidates}")
     netlist = load_netlist(args.netlist)
-    found = discover_loops(netlist, **bounds)
+    census = take_census(netlist, sweep=not args.no_sweep and bounds.get("split_checks", 1) > 0, **bounds)
     if args.json:
-        print(json.dumps(discovery_document(netlist.source, found), indent=2))
+        print(json.dumps(census_document(census), indent=2, allow_nan=False))
     else:
-        print(format_discovery(netlist.source, found, args.candidates))
+        print(format_census(census, args.candidates))
     return 0

@@ -15,6 +15,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "check": ("netloop.cli.check_cmd", "measure a loop's return ratio and stability margins"),
     "loops": ("netloop.cli.loops_cmd", "list the feedback loops and where to break them"),
     "compare": ("netloop.cli.compare_cmd", "compare break locations side by side"),
+    "sensitivity": ("netloop.cli.sensitivity_cmd", "rank the values that set a loop's margins; solve for one that meets a requirement"),
     "corners": ("netloop.cli.corners_cmd", "run a corner plan as a regression"),
     "demo": ("netloop.cli.demo_cmd", "check a bundled demo circuit and write its report"),
 }

@@ -65,13 +65,15 @@ def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: froze
 
 
 def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: frozenset[str], capped: bool,
-                    elements_at: dict[str, list[int]] | None = None) -> tuple[BreakCandidate, ...]:
+                    elements_at: dict[str, list[int]] | None = None, group_nodes: frozenset[str] | None = None) -> tuple[BreakCandidate, ...]:
     """Every node that opens at least one of ``loops``, ranked (see the module docstring).
 
     ``elements_at`` (from ``touching``) may be given for every node of the loops, to save a pass over the circuit.
+    ``group_nodes`` are the real nodes of the group (looked-through nodes and nodes joined by 0 V sources
+    included); by default the nodes of the loops' steps.
     """
     order = {n: i for i, n in enumerate(circuit.nets)}
-    group = frozenset(n for lp in loops for n in lp.nodes)
+    group = group_nodes if group_nodes is not None else frozenset(n for lp in loops for n in lp.passes)
     opened: dict[str, list[int]] = {}
     for k, lp in enumerate(loops, 1):
         for n in lp.opened_by:

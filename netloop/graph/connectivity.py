@@ -60,7 +60,7 @@ def supply_nets(circuit: FlatCircuit) -> Mapping[str, str]:
             adj.setdefault(b, []).append((a, name))
     seen = set(circuit.ground)
     out: dict[str, str] = {}
-    queue = deque(seen)
+    queue = deque(sorted(seen))
     while queue:
         net = queue.popleft()
         for other, src in adj.get(net, ()):

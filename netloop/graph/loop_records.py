@@ -16,11 +16,18 @@ class Step:
     target: str
     pins: tuple[str, str]  # pins of the first element at source and target ("g", "d"); ("", "") for a passive step
     passive: bool
+    # (element, pin, node) terminals by which the step leaves ``source`` and enters ``target``; the node is the real
+    # (flattened) node, which differs from source/target when a 0 V source joins it to them (netloop.graph.collapse)
+    leaves: tuple[tuple[str, str, str], ...] = ()
+    enters: tuple[tuple[str, str, str], ...] = ()
+    through: tuple[str, ...] = ()  # nodes looked through inside the step (a mirror's input, a pair's tail), in order
 
     def describe(self) -> str:
         who = "|".join(self.elements)
-        if not self.passive and self.pins[0]:
+        if not self.passive and self.pins[0] and len(self.elements) == 1:
             who += f"({self.pins[0]}>{self.pins[1]})"
+        if self.through:
+            who += f" via {','.join(self.through)}"
         return f"-{who}->"
 
 
@@ -35,6 +42,11 @@ class Loop:
     def nodes(self) -> tuple[str, ...]:
         """The nodes the loop passes, in order, from the first."""
         return tuple(s.source for s in self.steps)
+
+    @property
+    def passes(self) -> tuple[str, ...]:
+        """Every node the loop passes, in order: the step nodes and the nodes looked through inside steps."""
+        return tuple(n for s in self.steps for n in (s.source, *s.through))
 
     @property
     def elements(self) -> tuple[str, ...]:
@@ -93,10 +105,12 @@ class LoopGroup:
     """A strongly connected part of the signal-flow graph: loops that can reach each other."""
 
     index: int  # 1-based, in order of the circuit's first node of the group
-    nodes: tuple[str, ...]  # every node on one of its loops, in circuit order
+    nodes: tuple[str, ...]  # every node on one of its loops (looked-through and joined nodes included), in circuit order
     loops: tuple[Loop, ...]
     capped: bool  # True when more loops exist than were enumerated
     candidates: tuple[BreakCandidate, ...]  # best first
+    looked_through: tuple[str, ...] = ()  # nodes inside a stage, passed through by the loops' steps (netloop.graph.collapse)
+    merged: tuple[tuple[str, ...], ...] = ()  # nodes joined by 0 V (independent voltage) sources, each group as one loop node
 
     @property
     def best(self) -> BreakCandidate:

@@ -21,8 +21,8 @@ Rules (one per element letter; an edge is ``control node -> output node``):
 - Independent current sources carry no signal (infinite small-signal impedance).
 - Ground, ``.global`` nets and supplies (nets tied to ground through independent V sources) are not
   signal nodes: no edge starts or ends there.
-- A diode-connected transistor (gate on drain, base on collector) is a two-terminal device (its
-  current depends on one voltage only): a passive both ways between drain and source (collector
+- A diode-connected transistor (gate on drain, base on collector, directly or through a 0 V
+  source) is a two-terminal device (its current depends on one voltage only): a passive both ways between drain and source (collector
   and emitter). An edge from a node to itself is dropped: it is a local impedance, not a loop
   one could break.
 
@@ -34,7 +34,7 @@ expanded by flattening and their elements carry hierarchical names.
 from __future__ import annotations
 
 import re
-from collections.abc import Iterator
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -126,8 +126,13 @@ def _expression_controls(circuit: FlatCircuit, index: int) -> list[tuple[str, st
     return out
 
 
-def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str]) -> list[FlowEdge]:
-    """The signal-flow edges of one element (see the module docstring), between signal nodes only."""
+def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str], joined: Mapping[str, str] | None = None) -> list[FlowEdge]:
+    """The signal-flow edges of one element (see the module docstring), between signal nodes only.
+
+    ``joined`` maps nodes joined by zero-impedance series elements to one name
+    (netloop.graph.collapse.Shorts.vertex): a transistor whose gate reaches its drain that way is
+    diode-connected too. The edges keep the element's own nodes.
+    """
     name, kind = circuit.names[index], circuit.kinds[index]
     nodes, pins = circuit.element_nodes[index], circuit.element_pins[index]
     out: list[FlowEdge] = []
@@ -146,7 +151,9 @@ def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str]) -> l
     if kind in _TRANSISTOR:
         at = dict(zip(pins, nodes))
         control, output = _TRANSISTOR[kind][0], _T_OUTPUTS[kind][0]
-        if control in at and at.get(control) == at.get(output):  # diode-connected: a two-terminal device
+        same = at.get(control) == at.get(output) or (joined is not None and control in at and output in at
+                                                     and joined.get(at[control], at[control]) == joined.get(at[output], at[output]))
+        if control in at and same:  # diode-connected (directly or through a 0 V source): a two-terminal device
             both((at[p], p) for p in (output, _T_OUTPUTS[kind][1]) if p in at)
             return out
         controls = [(at[p], p) for p in _TRANSISTOR[kind] if p in at]

@@ -5,9 +5,11 @@ split but not the loops. A caller that has both (netloop.jobs.discover) hands th
 ``apply_splits`` as a ``NodeSplit``: which side each flattened terminal ``(element, pin)`` at the
 node goes to. A loop passing the node is opened when its way in and its way out sit on opposite
 sides of the split, and stays closed when both sit on one side. A loop that stays closed on the
-driver side and enters the node through an active output (a drain, a collector, a controlled
-source) is the driver stage's own feedback, e.g. a Miller capacitor kept with its amplifier on
-purpose: a *local* loop. The ranking then prefers a node whose split opens every loop of the group
+driver side, enters the node through an active output (a drain, a collector, a controlled
+source) and leaves it through a passive network (R, C, L) is the driver stage's own feedback, e.g.
+a Miller capacitor kept with its amplifier on purpose: a *local* loop. (One that leaves through an
+active input on the driver side is closed around the probe, not local: the split put the loop's
+input with its driver, as when a whole block's pin is the driver side.) The ranking then prefers a node whose split opens every loop of the group
 except local loops (common practice: the global loop is measured with the local compensation in
 place), and each reason says plainly which loops are opened and which stay closed, and why.
 """
@@ -18,6 +20,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
+from netloop.errors import NetloopError
+from netloop.graph.collapse import Shorts, series_shorts
 from netloop.graph.loop_records import BreakCandidate, Loop, LoopGroup
 from netloop.graph.signal_flow import element_edges, signal_nodes
 
@@ -75,11 +79,30 @@ def _pins(circuit: FlatCircuit, signal: frozenset[str], at_node: dict[str, list[
     return tuple(dict.fromkeys(out))
 
 
+def _resolved(terminals, node: str, shorts: Shorts) -> list[tuple[str, str]]:
+    """(element, pin) terminals as seen at the real ``node``: one on another node joined to it by 0 V sources is
+    reached through the first of those sources, whose terminal at ``node`` stands for it."""
+    out = []
+    for el, pin, at in terminals:
+        via = None if at == node else shorts.way(node, at)
+        out.append(via if via is not None else (el, pin))
+    return out
+
+
+def _passive(circuit: FlatCircuit, element: str) -> bool:
+    try:
+        return circuit.element(element).kind in "RCL"
+    except NetloopError:  # a name the circuit does not know (read by name in an expression) is not passive
+        return False
+
+
 def loop_fates(circuit: FlatCircuit, loops: tuple[Loop, ...], split: NodeSplit, signal: frozenset[str] | None = None) -> tuple[LoopFate, ...]:
     """The fate of every loop of a group under one split of ``split.node`` (see the module docstring)."""
     if signal is None:
         signal = signal_nodes(circuit)
     node = split.node
+    shorts = series_shorts(circuit, signal)
+    vertex = shorts.of(node)
     at_node: dict[str, list[tuple[str, int]]] = {}
     for t in circuit.terminals(node):
         at_node.setdefault(t.element, []).append((t.pin, t.index))
@@ -88,18 +111,24 @@ def loop_fates(circuit: FlatCircuit, loops: tuple[Loop, ...], split: NodeSplit, 
         if node not in lp.opened_by:
             fates.append(LoopFate(k, NOT_THROUGH))
             continue
-        way_in = tuple(p for s in lp.steps if s.target == node for p in _pins(circuit, signal, at_node, s, node, True))
-        way_out = tuple(p for s in lp.steps if s.source == node for p in _pins(circuit, signal, at_node, s, node, False))
-        sides = {split.sides.get(t, "load") for t in (*way_in, *way_out)}
+        way_in: list[tuple[str, str]] = []
+        way_out: list[tuple[str, str]] = []
+        for s in lp.steps:
+            if s.target == vertex:
+                way_in.extend(_resolved(s.enters, node, shorts) if s.enters else _pins(circuit, signal, at_node, s, node, True))
+            if s.source == vertex:
+                way_out.extend(_resolved(s.leaves, node, shorts) if s.leaves else _pins(circuit, signal, at_node, s, node, False))
+        way_in_t, way_out_t = tuple(dict.fromkeys(way_in)), tuple(dict.fromkeys(way_out))
+        sides = {split.sides.get(t, "load") for t in (*way_in_t, *way_out_t)}
         if len(sides) != 1:
             fate = OPENED
         elif sides == {"load"}:
             fate = CLOSED_LOAD
-        elif any(s.target == node and not s.passive for s in lp.steps):
+        elif any(s.target == vertex and not s.passive for s in lp.steps) and all(_passive(circuit, el) for el, _ in way_out_t):
             fate = LOCAL
         else:
             fate = CLOSED_DRIVER
-        fates.append(LoopFate(k, fate, way_in, way_out))
+        fates.append(LoopFate(k, fate, way_in_t, way_out_t))
     return tuple(fates)
 
 

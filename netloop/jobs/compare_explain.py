@@ -119,6 +119,7 @@ class Place:
     closed: tuple[int, ...]  # loops through the node that the break leaves closed (both ends on one side)
     near: bool = False  # not on a listed loop, but in a passive network the group's loops cross
     linear: bool = False  # every element on the group's loops is a controlled source or R, L, C
+    inside: tuple[int, ...] = ()  # loops that pass the node inside a step (looked through: a mirror's input, a pair's tail)
 
 
 def _group_near(flat: FlatCircuit, node: str, found: LoopDiscovery) -> LoopGroup | None:
@@ -174,6 +175,9 @@ def place(p: ProbedNetlist, found: LoopDiscovery, original: FlatCircuit) -> Plac
     if group is None:
         group = _group_near(original, node, found) if node in original.nets else None
         return Place(p.node, group, (), (), near=group is not None, linear=group is not None and _linear(original, group))
+    if node in group.looked_through:
+        inside = tuple(k for k, lp in enumerate(group.loops, 1) if any(node in s.through for s in lp.steps))
+        return Place(p.node, group, (), (), linear=_linear(original, group), inside=inside)
     opened, closed = [], []
     flat = flatten(p.netlist)
     sides = {p.side_a: "driver", p.side_b: "load"}
@@ -228,11 +232,17 @@ def explain(a: Place, b: Place, method: str, rel: float) -> Difference:
         parts = []
         for x, only, other in ((a, only_a, b), (b, only_b, a)):
             kept = tuple(k for k in only if k in other.closed)
-            bypass = tuple(k for k in only if k not in other.closed)
+            within = tuple(k for k in only if k in other.inside)
+            bypass = tuple(k for k in only if k not in other.closed and k not in other.inside)
             if kept:
                 one = len(kept) == 1
                 parts.append(f"{x.location} opens loop{'' if one else 's'} {_listing(g, kept)} which {other.location} leaves closed "
                              f"({'it enters' if one else 'each enters'} and leaves {other.location} on one side of its break)")
+            if within:
+                one = len(within) == 1
+                parts.append(f"{x.location} opens loop{'' if one else 's'} {_listing(g, within)}, which {'passes' if one else 'pass'} "
+                             f"{other.location} inside a stage ({other.location} is looked through, a current mirror's input or a pair's "
+                             "tail: a break there opens only the routes through it)")
             if bypass:
                 one = len(bypass) == 1
                 parts.append(f"{x.location} opens loop{'' if one else 's'} {_listing(g, bypass)} which "

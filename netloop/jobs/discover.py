@@ -1,26 +1,41 @@
-"""Every loop of a netlist, composed: flatten, find the loop groups, state each break from the probe's real split, measure."""
+"""Every loop of a netlist, composed: flatten, find the loop groups, state each break from the probe's real split, take the
+census (netloop.jobs.census), measure each group on its own."""
 
 from __future__ import annotations
 
 import logging
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from os import PathLike
 
 import numpy as np
 
+from netloop.analysis.results import Check
 from netloop.errors import NetloopError, ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.graph.split_effects import NodeSplit, apply_splits
-from netloop.jobs.loop_result import LoopResult
+from netloop.jobs.census import COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
+from netloop.jobs.loop_result import LoopResult, Verdict, combined_verdict
 from netloop.jobs.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
 from netloop.netlist.model import Element
 from netloop.probe.breaking import locate_split
 from netloop.probe.scope import Scope, child_scope, elements_of
 from netloop.probe.sides import ac_ground_nodes
+from netloop.sim import Simulator
 
-__all__ = ["DEFAULT_SPLIT_CHECKS", "discover_loops", "measure_all_loops", "node_split", "opened_circuit_rhp_poles", "probe_splits"]
+__all__ = [
+    "DEFAULT_SPLIT_CHECKS",
+    "GroupResult",
+    "LoopsCheck",
+    "check_loops",
+    "discover_loops",
+    "measure_all_loops",
+    "node_split",
+    "opened_circuit_rhp_poles",
+    "probe_splits",
+    "take_census",
+]
 
 DEFAULT_SPLIT_CHECKS = 8  # candidates per group (in structural order) whose real split is asked of the probe
 
@@ -98,6 +113,7 @@ def discover_loops(
 
     The first ``split_checks`` candidates of each group are stated from the probe's real split of the
     node (which loops it opens, which stay closed and why) and re-ranked; 0 keeps the structural view.
+    No simulation: take_census adds the coarse sweep and the choice of each group's break.
     """
     parsed = load_netlist(netlist)
     circuit = flatten(parsed)
@@ -106,6 +122,43 @@ def discover_loops(
     found = probe_splits(parsed, circuit, found, checks=split_checks)
     _log.info("loop search done", extra=CLEARS_STATUS)  # a status line is cleared
     return found
+
+
+def take_census(
+    netlist: Netlist | str | PathLike[str], *, sweep: bool = True, simulator: Simulator | None = None, method: str = "tian",
+    length_bound: int = DEFAULT_LENGTH_BOUND, max_loops: int = DEFAULT_MAX_LOOPS, split_checks: int = DEFAULT_SPLIT_CHECKS,
+    coarse_breaks: int = COARSE_BREAKS, driver: str | None = None, keep_decks: str | PathLike[str] | None = None,
+    timeout_s: float = 600.0,
+) -> Census:
+    """Every loop group with its best candidate breaks measured by one coarse sweep each, and the break chosen for it.
+
+    See netloop.jobs.census. ``sweep=False`` skips the simulation (the choice is then the structural
+    ranking's). Without ``simulator`` one ngspice is started for the census and closed after it.
+    """
+    parsed = load_netlist(netlist)
+    circuit = flatten(parsed)
+    _log.info("finding the loops of %d elements", len(circuit))
+    found = find_loops(circuit, length_bound=length_bound, max_loops=max_loops)
+    return _census(parsed, circuit, found, sweep=sweep, simulator=simulator, method=method, split_checks=split_checks,
+                   coarse_breaks=coarse_breaks, driver=driver, keep_decks=keep_decks, timeout_s=timeout_s)
+
+
+def _census(parsed: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, sweep: bool, simulator: Simulator | None, method: str,
+            split_checks: int, coarse_breaks: int, driver: str | None, keep_decks, timeout_s: float) -> Census:
+    found = probe_splits(parsed, circuit, found, checks=max(split_checks, 1) if sweep else split_checks, driver=driver)
+    own = sweep and simulator is None and bool(found.groups)
+    sim = own_simulator(None, parsed, 2, keep_decks) if own else simulator
+    try:
+        groups = []
+        for g in found.groups:
+            coarse = coarse_group(parsed, g, sim, method=method, breaks=coarse_breaks, timeout_s=timeout_s) if sweep else ()
+            groups.append(choose(g, coarse, swept=sweep))
+    finally:
+        if own and hasattr(sim, "close"):
+            sim.close()
+    _log.info("loop census done", extra=CLEARS_STATUS)
+    discovery = replace(found, groups=tuple(gc.group for gc in groups))
+    return Census(parsed.source, discovery, tuple(groups), sweep, found.notes)
 
 
 def opened_circuit_rhp_poles(result: LoopResult) -> int | None:
@@ -132,73 +185,172 @@ def _closed_note(group: LoopGroup, node: str, left: tuple[int, ...]) -> str:
             "the opened circuit may itself be unstable, so P (its right-half-plane poles) may be nonzero: read the Nyquist count with care")
 
 
-def _measure_group(parsed: Netlist, group: LoopGroup, options: dict, notes: list[str]) -> LoopResult:
-    tried = []
-    for cand in group.candidates:
+@dataclass(frozen=True, slots=True)
+class GroupResult:
+    """One loop group checked without --at: its census, its measured result, or why it has none."""
+
+    census: GroupCensus
+    result: LoopResult | None  # None when no break of the group could be measured
+    reason: str = ""  # why there is no result (empty when there is one)
+    advice: str = ""  # what to try when there is none
+    why: str = ""  # why the result's break (its structure and coarse T)
+    tried: tuple[str, ...] = ()  # breaks measured or refused before the reported one, each with why it was not kept
+
+    @property
+    def label(self) -> str:
+        return self.result.label if self.result is not None else self.census.label
+
+    @property
+    def verdict(self) -> Verdict:
+        """The result's verdict; "inconclusive" when the group could not be measured."""
+        return self.result.verdict if self.result is not None else "inconclusive"
+
+
+@dataclass(frozen=True, slots=True)
+class LoopsCheck:
+    """Every loop group of a netlist measured on its own (``check`` without --at)."""
+
+    census: Census
+    groups: tuple[GroupResult, ...]  # in group order
+    notes: tuple[str, ...] = ()
+
+    @property
+    def results(self) -> tuple[LoopResult, ...]:
+        return tuple(g.result for g in self.groups if g.result is not None)
+
+    @property
+    def verdict(self) -> Verdict:
+        """Every group's verdict combined (netloop.jobs.loop_result.combined_verdict): an unmeasured group is inconclusive."""
+        return combined_verdict(g.verdict for g in self.groups)
+
+
+def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2) -> GroupResult:
+    """Measure a group at its chosen break; on a refusal or an inconclusive result, at the next usable candidates."""
+    group = gc.group
+    if gc.chosen is None:
+        return GroupResult(gc, None, gc.why, "name a node of the group and its driver: --at NODE --driver ELEMENT[.PIN] "
+                           "(netloop loops NETLIST lists the candidates and why each was ruled out)")
+    tried: list[str] = []
+    first: tuple[LoopResult, str] | None = None
+    chosen = next(c for c in group.candidates if c.node == gc.chosen)
+    rings = gc.coarse_at(chosen.node).can_ring if gc.coarse_at(chosen.node) else None
+    # After the chosen break, only breaks whose coarse T is as good a measurement (not about 0, falling at the top)
+    # and tells the same story (|T| above 0 dB somewhere or not) are tried: never a lesser loop's T instead.
+    others = [c for c in group.candidates[1:] if c.split_checked and not c.refused and c.opened
+              and gc.coarse_at(c.node) is not None and gc.coarse_at(c.node).usable and gc.coarse_at(c.node).can_ring == rings]
+    for cand in [chosen, *others][: 1 + retries]:
         label = f"loop {group.index} ({cand.node})"
-        if cand.refused or (cand.split_checked and not cand.opened):
-            why = cand.refused or "the probe's split there opens none of the group's loops"
-            tried.append(f"{cand.node} ({why})")
-            continue
         try:
             result = measure(parsed, cand.node, label=label, **options)
         except ProbeError as exc:
-            tried.append(f"{cand.node} ({exc})")
+            tried.append(f"{cand.node} (the probe refused: {exc})")
             continue
-        if tried:
-            notes.append(f"loop {group.index}: could not break at {'; '.join(tried)}; fell back to rank {cand.rank}")
-        notes.append(f"loop {group.index}: broken at {cand.node}: {cand.reason}")
-        # Local loops kept closed on purpose (a Miller Cc with its stage) are stated in the reason, as common practice
-        # measures the global loop with them closed; any other loop left closed is warned about and checked.
-        other = tuple(k for k in cand.left_closed if k not in cand.kept_closed)
-        if other:
-            extra = [_closed_note(group, cand.node, other)]
-            notes.extend(extra)
-            rhp = opened_circuit_rhp_poles(result)
-            if rhp:
-                extra.append(f"a rational fit of the measured T has {rhp} right-half-plane pole(s): the opened circuit looks unstable by itself; "
-                             f"if so, rerun with --open-loop-rhp-poles {rhp}")
-                notes.append(f"loop {group.index}: {extra[-1]}")
-            poles = result.analysis.poles
-            if poles is not None and not poles.agrees_with_nyquist:
-                extra.append("the closed-loop poles fitted from 1/(1+T) disagree with the Nyquist count made with P = "
-                             f"{result.analysis.nyquist.open_loop_rhp_poles}: another sign that P is not what was assumed")
-            result = replace(result, warnings=tuple(dict.fromkeys((*result.warnings, *extra))))
+        result = _with_closed_notes(group, cand, result)
+        why = why_at(group, cand, gc.coarse_at(cand.node))
+        if result.verdict != "inconclusive":
+            if tried:
+                result = replace(result, warnings=(*result.warnings, f"{group.label}: measured at {cand.node} after " + "; ".join(tried)))
+            return GroupResult(gc, result, why=why, tried=tuple(tried))
+        first = first or (result, why)
+        doubt = result.failed_checks[0].detail if result.failed_checks else "inconclusive"
+        tried.append(f"{cand.node} (inconclusive: {doubt})")
+    if first is not None:
+        return GroupResult(gc, first[0], why=first[1], tried=tuple(tried))
+    return GroupResult(gc, None, "no candidate break of this group could be measured: " + "; ".join(tried),
+                       "name a node of the group and its driver: --at NODE --driver ELEMENT[.PIN]", tried=tuple(tried))
+
+
+def _with_closed_notes(group: LoopGroup, cand, result: LoopResult) -> LoopResult:
+    """The result with a warning and a self-check ("opened-circuit") when the break leaves loops closed that are not local.
+
+    A loop left closed may make the opened circuit unstable by itself, so the count P the Nyquist verdict
+    used (0 unless given) may be wrong. The check fails, and the verdict is "inconclusive", when a rational
+    fit of T finds another number of right-half-plane poles than P, or when the closed-loop poles fitted from
+    1/(1+T) disagree with the Nyquist count.
+    """
+    # Local loops kept closed on purpose (a Miller Cc with its stage) are stated in the reason, as common practice
+    # measures the global loop with them closed; any other loop left closed is warned about and checked.
+    other = tuple(k for k in cand.left_closed if k not in cand.kept_closed)
+    if not other:
         return result
-    raise ProbeError(f"loop {group.index}: no node of the group could be broken: {'; '.join(tried)}")
+    extra = [_closed_note(group, cand.node, other)]
+    p = result.analysis.nyquist.open_loop_rhp_poles
+    rhp = opened_circuit_rhp_poles(result)
+    poles = result.analysis.poles
+    if rhp is not None and rhp != p:
+        extra.append(f"a rational fit of the measured T has {rhp} right-half-plane pole(s): the opened circuit looks unstable by itself; "
+                     f"if so, rerun with --open-loop-rhp-poles {rhp}")
+        check = Check("opened-circuit", False,
+                      f"breaking {cand.node} leaves {len(other)} loop(s) of {group.label} closed, and a rational fit of T finds {rhp} "
+                      f"right-half-plane pole(s) of the opened circuit where the Nyquist count assumed P = {p}",
+                      f"rerun with --open-loop-rhp-poles {rhp} if the opened circuit is unstable by itself, or break where no loop stays "
+                      "closed (netloop loops NETLIST)")
+    elif poles is not None and not poles.agrees_with_nyquist:
+        extra.append("the closed-loop poles fitted from 1/(1+T) disagree with the Nyquist count made with P = "
+                     f"{p}: another sign that P is not what was assumed")
+        check = Check("opened-circuit", False,
+                      f"breaking {cand.node} leaves {len(other)} loop(s) of {group.label} closed, and the closed-loop poles fitted from "
+                      f"1/(1+T) disagree with the Nyquist count made with P = {p}",
+                      "break where no loop stays closed (netloop loops NETLIST), or give the opened circuit's RHP poles with --open-loop-rhp-poles")
+    else:
+        check = Check("opened-circuit", True, f"the loops left closed at {cand.node} add no right-half-plane pole to T (rational fit)"
+                      if rhp is not None else f"the loops left closed at {cand.node}: no rational fit of T was possible")
+    return replace(result, warnings=tuple(dict.fromkeys((*result.warnings, *extra))), checks=(*result.checks, check))
 
 
-def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> tuple[list[LoopResult], list[str]]:
-    """Break each independent loop group at its best node and measure it; returns (results, notes).
+def check_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> LoopsCheck:
+    """Every loop group, measured on its own at the break the census chooses (netloop.jobs.census).
 
     ``measure_options`` are those of netloop.jobs.measure.measure (except ``at`` and ``label``); one
-    simulator is started for all loops unless one is given. Each result is labelled
-    ``loop K (NODE)``; the notes say which node was chosen for which group and why, which loops
-    the probe's split there opens and which it leaves closed (local loops kept closed with their
-    driver on purpose apart from the others, which are warned about). Raises ProbeError when the
-    netlist has no loop.
+    simulator serves the census and every measurement unless one is given. A group that cannot be
+    broken, or whose measurement fails its self-checks at every break tried, is "inconclusive" with
+    the reason; the others still get their results. Raises ProbeError only when the netlist has no
+    loop at all, or ``driver`` is given for several groups.
     """
     parsed = load_netlist(netlist)
     options = {k: v for k, v in measure_options.items() if k not in ("at", "label")}
+    driver = options.get("driver")
+    if driver is None:
+        options.pop("driver", None)
     circuit = flatten(parsed)
     _log.info("finding the loops of %d elements", len(circuit))
     found = find_loops(circuit)
-    notes = list(found.notes)
     if not found.groups:
         raise ProbeError(f"no feedback loop found in {parsed.source}: no signal path leads from a node back to itself "
                          "without passing through ground or a supply; name a node with --at to break it anyway")
-    if options.get("driver") is not None and len(found.groups) > 1:
+    if driver is not None and len(found.groups) > 1:
         raise ProbeError(f"--driver names one break's driver, but {parsed.source} has {len(found.groups)} loop groups; give --at too")
-    if options.get("driver") is None:
-        options.pop("driver", None)
-    found = probe_splits(parsed, circuit, found, driver=options.get("driver"))
     own = options.get("simulator") is None
     processes = options.pop("processes", None)
     if own:
         options["simulator"] = own_simulator(processes, parsed, 2, options.pop("keep_decks", None))
     try:
-        results = [_measure_group(parsed, g, options, notes) for g in found.groups]
+        census = _census(parsed, circuit, found, sweep=True, simulator=options["simulator"], method=options.get("method", "tian"),
+                         split_checks=DEFAULT_SPLIT_CHECKS, coarse_breaks=COARSE_BREAKS, driver=driver, keep_decks=None,
+                         timeout_s=options.get("timeout_s", 600.0))
+        groups = tuple(_measure_group(parsed, gc, options) for gc in census.groups)
     finally:
         if own and hasattr(options["simulator"], "close"):
             options["simulator"].close()
-    return results, notes
+    notes = list(census.notes)
+    for g in groups:
+        if g.result is not None:
+            notes.append(f"{g.result.label}: broken at {g.result.breaks.node}: {g.why}")
+            notes.extend(f"{g.census.label}: passed over {p}" for p in g.census.passed_over)
+        else:
+            notes.append(f"{g.census.label}: not measured: {g.reason}")
+    return LoopsCheck(census, groups, tuple(notes))
+
+
+def measure_all_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> tuple[list[LoopResult], list[str]]:
+    """Every loop group measured at the break the census chooses; returns (results, notes).
+
+    check_loops with the older shape: the results of the groups measured and the notes. Raises
+    ProbeError when the netlist has no loop or when a group could not be measured (check_loops
+    reports such a group as inconclusive instead).
+    """
+    check = check_loops(netlist, **measure_options)
+    missing = [g for g in check.groups if g.result is None]
+    if missing:
+        raise ProbeError("; ".join(f"{g.census.label}: no node of the group could be broken: {g.reason}" for g in missing))
+    return list(check.results), list(check.notes)

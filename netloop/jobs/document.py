@@ -21,6 +21,9 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                           and every requirement met
     checks                [{name, passed, detail, advice}]: the measurement's self-checks (a failed
                           one makes the verdict "inconclusive"; netloop.analysis.checks)
+    below_common_practice [{text, value, reason}]: a passing loop checked without requirements,
+                          the rules of thumb it misses (netloop.jobs.loop_result.COMMON_PRACTICE:
+                          pm>=45, gm>=10, peak<=3); they do not change the verdict
     dc_loop_gain_db       20 log10 |T| at the lowest swept frequency
     margins               the worst case over all crossovers:
         phase_margin_deg, unity_gain_hz, gain_margin_db, phase_crossover_hz,
@@ -52,6 +55,12 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
     caution               the caution sentence
     infinite              {dotted.path: "+inf" | "-inf"}
 
+Every loop group (``check`` without --at): ``groups_document(check)`` gives ``multi_document("loops", ...)``'s
+shape with one entry per group, in group order: a measured group's entry is its loop document plus
+``measured: true`` and ``group`` {index, chosen, why, can_ring, passed_over, tried}; a group no break
+could measure has only ``label``, ``verdict`` ("inconclusive"), ``passed`` (false), ``measured``
+(false), ``reason``, ``advice`` and ``group``.
+
 Several loops: ``multi_document("loops" | "locations", results)`` gives
 ``{"schema": "netloop.loops/1", "loops": [loop, ...], "verdict": ..., "passed": ...}`` (or ``locations``), and
 ``multi_document("modes", {"differential": r1, "common": r2})`` gives ``{"modes": {name: loop}}``.
@@ -69,7 +78,7 @@ from netloop.analysis.response import ratio_db
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover
 from netloop.jobs.loop_result import LoopResult, combined_verdict
 
-__all__ = ["CORNERS_SCHEMA", "SCHEMA", "multi_document", "to_document"]
+__all__ = ["CORNERS_SCHEMA", "SCHEMA", "groups_document", "json_document", "multi_document", "to_document"]
 
 SCHEMA = "netloop.loop/1"
 CORNERS_SCHEMA = "netloop.corners/1"  # a corner run: netloop.report.corner_records; its results file: netloop.jobs.corners.journal
@@ -198,6 +207,14 @@ def _plain(value, path: str, infinite: dict[str, str]):
     return value
 
 
+def json_document(raw: dict) -> dict:
+    """``raw`` with builtins only and non-finite floats as null, listed under ``infinite`` (see the module docstring)."""
+    infinite: dict[str, str] = {}
+    doc = _plain(raw, "", infinite)
+    doc["infinite"] = infinite
+    return doc
+
+
 def to_document(result: LoopResult) -> dict:
     """The JSON document of one loop (see the module docstring): builtins only, json.dumps(allow_nan=False) works."""
     a = result.analysis
@@ -209,6 +226,8 @@ def to_document(result: LoopResult) -> dict:
         "verdict": result.verdict,
         "passed": result.passed,
         "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail, "advice": c.advice} for c in result.all_checks],
+        "below_common_practice": [{"text": o.requirement.text, "value": o.value, "reason": o.reason}
+                                  for o in result.below_common_practice],
         **_analysis(a),
         "break": _break(result),
         "requirements": _requirements(result),
@@ -222,10 +241,7 @@ def to_document(result: LoopResult) -> dict:
         },
         "caution": result.caution,
     }
-    infinite: dict[str, str] = {}
-    doc = _plain(raw, "", infinite)
-    doc["infinite"] = infinite
-    return doc
+    return json_document(raw)
 
 
 def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopResult], **extra) -> dict:
@@ -250,3 +266,19 @@ def multi_document(kind: str, results: Iterable[LoopResult] | Mapping[str, LoopR
     if infinite:
         head["infinite"] = infinite
     return {"schema": f"netloop.{kind}/1", **head, kind: body, "verdict": verdict, "passed": verdict == "pass"}
+
+
+def groups_document(check) -> dict:
+    """The document of every loop group measured on its own (a netloop.jobs.discover.LoopsCheck): one entry per group."""
+    entries = []
+    for g in check.groups:
+        about = {"index": g.census.group.index, "chosen": g.census.chosen, "why": g.why or g.census.why, "can_ring": g.census.can_ring,
+                 "passed_over": list(g.census.passed_over), "tried": list(g.tried)}
+        if g.result is not None:
+            entries.append({**to_document(g.result), "measured": True, "group": about})
+        else:
+            entries.append({"label": g.label, "verdict": g.verdict, "passed": False, "measured": False, "reason": g.reason,
+                            "advice": g.advice, "group": about})
+    verdict = check.verdict
+    return {"schema": "netloop.loops/1", "netlist": check.census.source, "loops": entries, "verdict": verdict,
+            "passed": verdict == "pass", "notes": list(check.notes)}

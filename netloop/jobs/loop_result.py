@@ -6,10 +6,10 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Literal
 
-from netloop.analysis.requirements import RequirementOutcome
+from netloop.analysis.requirements import RequirementOutcome, parse_requirements
 from netloop.analysis.results import Check, LoopAnalysis
 
-__all__ = ["CAUTION", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "combined_verdict"]
+__all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "combined_verdict"]
 
 Verdict = Literal["pass", "fail", "inconclusive"]
 VERDICTS: tuple[Verdict, ...] = ("pass", "fail", "inconclusive")
@@ -19,6 +19,11 @@ pass          every self-check passed, the loop is stable by the Nyquist count a
 fail          every self-check passed, and the loop is unstable or a requirement failed;
 inconclusive  a self-check failed: the data supports no verdict (the result says why and what to try).
 """
+
+COMMON_PRACTICE = ("pm>=45", "gm>=10", "peak<=3")
+"""Rules of thumb said beside a PASS when no requirement was given (common practice, no source): a phase
+margin of 45 to 60 deg (45 the least), a gain margin of 10 dB, closed-loop peaking under 3 dB. They never
+change the verdict: only requirements the user gives do."""
 
 CAUTION = (
     "Small-signal margins around one operating point do not prove large-signal stability; "
@@ -86,6 +91,16 @@ class LoopResult:
         if self.failed_checks:
             return "inconclusive"
         return "pass" if self.analysis.stable and all(r.passed for r in self.requirements) else "fail"
+
+    @property
+    def below_common_practice(self) -> tuple[RequirementOutcome, ...]:
+        """The rules of COMMON_PRACTICE that a passing loop misses when no requirement was given (a margin
+        that does not exist, such as the phase margin of a loop that does not regulate, is not a shortfall);
+        empty when requirements were given or the verdict is not "pass"."""
+        if self.requirements or self.verdict != "pass":
+            return ()
+        outcomes = (rule.check(self.analysis) for rule in parse_requirements(COMMON_PRACTICE))
+        return tuple(o for o in outcomes if o.value is not None and not o.passed)
 
     @property
     def stable(self) -> bool:

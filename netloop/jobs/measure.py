@@ -22,7 +22,7 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, pz_check, second_break_check, settle_split
-from netloop.probe import ProbedNetlist, break_loop, split_loop
+from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
 from netloop.sim.pole_zero import node_poles
@@ -85,9 +85,9 @@ def load_netlist(source: Netlist | str | PathLike[str]) -> Netlist:
     return parse_file(Path(source))
 
 
-def return_ratio(probed: ProbedNetlist, series: dict, shunt: dict, method: str) -> np.ndarray:
-    """T from the vectors of the two runs, by Tian et al. (2001) or Middlebrook (1975)."""
-    q = probed.vectors.quantities(series, shunt)
+def return_ratio(probed: ProbedNetlist | ProbeVectors, series: dict, shunt: dict, method: str) -> np.ndarray:
+    """T from the vectors of the two runs of a probe (or of its ProbeVectors), by Tian et al. (2001) or Middlebrook (1975)."""
+    q = (probed.vectors if isinstance(probed, ProbedNetlist) else probed).quantities(series, shunt)
     if method == "tian":
         return tian(q.va1, q.vb1, q.ib2)
     if method == "middlebrook":
@@ -254,7 +254,8 @@ def sample_loops(
         return {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
 
     analyses = analyse_all(False)
-    active = [name for name, a in analyses.items() if a.gain_crossovers] if sweep.refine else []
+    # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz)
+    active = [name for name, a in analyses.items() if a.gain_crossovers or a.nyquist.coarse_hz] if sweep.refine else []
     settled = {name: name not in active for name in t}
     rounds = 0
     if active:
@@ -271,7 +272,8 @@ def sample_loops(
             current = {name: analyses[name].margins.phase_margin_deg for name in active}
             for name in active:
                 p, c = previous[name], current[name]
-                settled[name] = p is not None and c is not None and abs(c - p) < sweep.tol_deg
+                same = p is None and c is None if p is None or c is None else abs(c - p) < sweep.tol_deg
+                settled[name] = same and not analyses[name].nyquist.coarse_hz
             if all(settled[name] for name in active):
                 break
             previous = current

@@ -1,13 +1,14 @@
-"""Split a node and insert the probe sources, copying the subcircuit definitions on the path of one instance."""
+"""Split a node and insert the probe sources (or replace elements), copying the subcircuit definitions on the path of one instance."""
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 
 from netloop.netlist.model import Element, Statement, Subcircuit
 from netloop.probe.scope import Scope
 
-__all__ = ["Rewrite", "fresh_name", "split_node"]
+__all__ = ["Rewrite", "fresh_name", "replace_elements", "split_node"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -75,8 +76,27 @@ def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tupl
     other instances of the same subcircuit stay untouched. ``pin`` = (node, new node) renames that
     pin of the innermost definition: the net outside the instance then meets the new node.
     """
+    return _rewrite_scope(statements, scope, lambda body: _split_body(body, moves, probe), taken, "broken_in")
+
+
+def replace_elements(statements: tuple[Statement, ...], scope: Scope, elements: Mapping[str, Element], taken: set[str]) -> Rewrite:
+    """New statements with the elements of ``scope`` named in ``elements`` (by key) replaced by their new cards.
+
+    Inside an instance the definitions on its path are copied under new names, as split_node copies
+    them, so the change reaches that one instance only.
+    """
+
+    def changed(body: tuple[Statement, ...]) -> tuple[Statement, ...]:
+        return tuple(elements.get(s.key, s) if isinstance(s, Element) else s for s in body)
+
+    return _rewrite_scope(statements, scope, changed, taken, "changed_in")
+
+
+def _rewrite_scope(statements: tuple[Statement, ...], scope: Scope, rebody: Callable[[tuple[Statement, ...]], tuple[Statement, ...]],
+                   taken: set[str], tag: str) -> Rewrite:
+    """``rebody`` applied to the body of ``scope``: the top-level statements, or a copy of each definition on an instance's path."""
     if not scope.path:
-        return Rewrite(_split_body(statements, moves, probe), ())
+        return Rewrite(rebody(statements), ())
     defs = scope.definitions
     k = len(defs)
     inserts: dict[int, list[tuple[str, Subcircuit]]] = {}  # container level (-1 top) -> copies to add
@@ -84,9 +104,9 @@ def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tupl
     new_def: Subcircuit | None = None
     for j in range(k - 1, -1, -1):
         d = defs[j]
-        name = fresh_name(f"{d.name}_broken_in_{'_'.join(scope.path[:j + 1])}", taken)
+        name = fresh_name(f"{d.name}_{tag}_{'_'.join(scope.path[:j + 1])}", taken)
         if j == k - 1:
-            body = _split_body(d.body, moves, probe)
+            body = rebody(d.body)
         else:
             body = d.body
         body = _rebody(body, scope.path[j + 1] if j + 1 < k else None, new_def.name if new_def and j + 1 < k else None, inserts.pop(j, []))

@@ -5,8 +5,7 @@ document      the JSON document of a loop (schema "netloop.loop/1") and of sever
 text          the terminal summary of one loop, verdict first
 samples       the sampled return ratio as CSV
 corner_records  corner records (one JSON line each): verdicts, worst-first order, table, counts, CSV, JUnit, run document
-corners       CornerOutcome (LoopResult-based), turned into corner records: the corner table worst first, its CSV and JSON
-junit         corner outcomes as JUnit XML
+corners       CornerOutcome (LoopResult-based), turned into corner records: table worst first, CSV, JUnit XML, JSON
 phrases       the wording of the figures, shared by text and HTML
 files         writing files: OSError -> OutputError
 figure        matplotlib plumbing: lazy import, no pyplot, format by file extension
@@ -25,12 +24,12 @@ from netloop.report.corners import (
     corner_document,
     corner_summary,
     corner_table,
+    junit_xml,
     sort_worst_first,
     write_corner_csv,
 )
-from netloop.jobs.document import SCHEMA, multi_document, to_document
+from netloop.jobs.document import SCHEMA, groups_document, multi_document, to_document
 from netloop.report.html import render_html, write_html
-from netloop.report.junit import junit_xml
 from netloop.report.nyquist_plot import compress_radius, nyquist_figure, plot_nyquist
 from netloop.report.samples import SAMPLE_COLUMNS, sample_table, write_csv
 from netloop.report.text import format_text, requirement_text, verdict_line
@@ -47,6 +46,7 @@ __all__ = [
     "corner_table",
     "format_text",
     "junit_xml",
+    "groups_document",
     "multi_document",
     "nyquist_figure",
     "plot_bode",

@@ -1,8 +1,8 @@
 """Corner runs presented from their per-corner records: verdicts, worst-first order, table, counts, CSV, JUnit XML, JSON.
 
 A record is one corner measured at one break node, as the corners stage writes it to its results
-file (one JSON line): ``corner`` (name), ``at`` (break node), ``outcome`` ("pass", "fail" or
-"error"), ``loop`` (the loop's document, netloop.jobs.document.to_document, or null), ``error``,
+file (one JSON line): ``corner`` (name), ``at`` (break node), ``outcome`` ("pass", "fail",
+"inconclusive" or "error"), ``loop`` (the loop's document, netloop.jobs.document.to_document, or null), ``error``,
 ``settings``, ``seconds``. A resumed run has only these records for the corners finished earlier,
 and netloop.report.corners turns its LoopResult outcomes into the same records, so the verdicts
 and the order below are decided in this one place.
@@ -21,12 +21,17 @@ from netloop.report.notation import NONE, db, deg, eng
 
 __all__ = [
     "CORNERS_SCHEMA",
+    "CSV_FIELDS",
     "VERDICTS",
     "corner_entry",
     "corner_table",
     "counts_line",
+    "failed_checks",
     "failed_requirements",
+    "junit_xml",
     "margin",
+    "notes",
+    "reasons",
     "run_document",
     "verdict",
     "verdict_counts",
@@ -37,7 +42,14 @@ __all__ = [
 ]
 
 VERDICTS = ("error", "inconclusive", "unstable", "fail", "pass")
-"""The verdicts, worst first."""
+"""The verdicts, worst first:
+
+    error         the corner could not be measured (the simulation or a stage before the analysis failed)
+    inconclusive  measured, but a self-check failed: the data supports no verdict (the record says why)
+    unstable      the Nyquist count says unstable
+    fail          stable, but a requirement failed
+    pass          stable and every requirement met (a loop that does not regulate passes, with a note)
+"""
 
 
 def _margins(r: dict) -> dict:
@@ -80,6 +92,38 @@ def failed_requirements(r: dict) -> tuple[str, ...]:
     return tuple(q["text"] for q in (r.get("loop") or {}).get("requirements", ()) if not q["passed"])
 
 
+def failed_checks(r: dict) -> tuple[dict, ...]:
+    """The self-checks a record's loop failed ({name, passed, detail, advice}); they make it inconclusive."""
+    return tuple(c for c in (r.get("loop") or {}).get("checks", ()) if not c["passed"])
+
+
+def notes(r: dict) -> tuple[str, ...]:
+    """What a passing corner's verdict does not say by itself: "does not regulate", margins below common practice."""
+    loop = r.get("loop") or {}
+    if verdict(r) != "pass":
+        return ()
+    out = []
+    if loop.get("classification") == "does not regulate":
+        out.append("does not regulate (|T| < 0 dB throughout)")
+    below = loop.get("below_common_practice") or ()
+    if below:
+        out.append("below common practice: " + ", ".join(q["text"] for q in below))
+    return tuple(out)
+
+
+def _note(r: dict) -> str:
+    """The table's note: why a corner is not a plain pass."""
+    v = verdict(r)
+    if v == "error":
+        return "simulation failed" if r.get("simulator_output") else "not measured"
+    if v == "inconclusive":
+        return "no verdict: self-check " + ", ".join(c["name"] for c in failed_checks(r)) + " failed"
+    parts = list(failed_requirements(r))
+    if v == "unstable":
+        parts.insert(0, f"{r['loop']['stability']['closed_loop_rhp_poles']} RHP pole(s)")
+    return "; ".join([*parts, *notes(r)]) or NONE
+
+
 def worst_first_key(r: dict) -> tuple[int, float]:
     """Sort key: verdict rank (error first), then phase margin, lowest first; no phase margin sorts first."""
     pm = _margins(r).get("phase_margin_deg")
@@ -87,8 +131,14 @@ def worst_first_key(r: dict) -> tuple[int, float]:
 
 
 def worst_first(records: tuple[dict, ...]) -> tuple[dict, ...]:
-    """Errors, then unstable corners, then failed requirements, then the rest; each group by phase margin, lowest first."""
+    """Errors, then inconclusive corners, unstable ones, failed requirements, then the rest; each group by phase
+    margin, lowest first."""
     return tuple(sorted(records, key=lambda r: (*worst_first_key(r), r["corner"], r["at"])))
+
+
+def _several_nodes(records) -> bool:
+    """Whether the records were measured at more than one break node (a record not measured names none)."""
+    return len({r["at"] for r in records if r["at"]}) > 1
 
 
 def _gm(r: dict) -> str:
@@ -101,15 +151,15 @@ def _gm(r: dict) -> str:
 
 
 def corner_table(records: tuple[dict, ...]) -> str:
-    """A plain-text table, worst corner first: corner, [break node], phase margin, gain margin, crossover, verdict, failed requirement."""
-    show_at = len({r["at"] for r in records}) > 1
-    head = ["corner", *(["at"] if show_at else []), "phase margin", "gain margin", "crossover", "verdict", "failed requirement"]
+    """A plain-text table, worst corner first: corner, [break node], phase margin, gain margin, crossover, verdict, note
+    (failed requirements, the failed self-check, "does not regulate", ...)."""
+    show_at = _several_nodes(records)
+    head = ["corner", *(["at"] if show_at else []), "phase margin", "gain margin", "crossover", "verdict", "note"]
     rows = []
     for r in worst_first(records):
         m = _margins(r)
-        failed = ", ".join(failed_requirements(r)) if r["outcome"] != "error" else "simulation failed"
         rows.append([r["corner"], *([r["at"]] if show_at else []), deg(m.get("phase_margin_deg")), _gm(r),
-                     eng(m.get("unity_gain_hz"), "Hz"), verdict(r), failed or NONE])
+                     eng(m.get("unity_gain_hz"), "Hz"), verdict(r), _note(r)])
     widths = [max(len(str(x)) for x in col) for col in zip(head, *rows)]
     lines = ["  ".join(str(x).ljust(w) for x, w in zip(row, widths)).rstrip() for row in (head, *rows)]
     lines.insert(1, "  ".join("-" * w for w in widths))
@@ -117,63 +167,119 @@ def corner_table(records: tuple[dict, ...]) -> str:
 
 
 def counts_line(records: tuple[dict, ...]) -> str:
-    """"12 corners: 9 pass, 2 fail a requirement, 0 unstable, 1 error (not measured)"."""
+    """"12 corners: 8 pass, 2 fail a requirement, 0 unstable, 1 inconclusive (no verdict), 1 error (not measured)"."""
     n = verdict_counts(records)
-    parts = [f"{n['pass']} pass", f"{n['fail']} fail a requirement", f"{n['unstable']} unstable", f"{n['error']} error (not measured)"]
-    corners, nodes = len({r["corner"] for r in records}), len({r["at"] for r in records})
-    if nodes > 1:
+    parts = [f"{n['pass']} pass", f"{n['fail']} fail a requirement", f"{n['unstable']} unstable",
+             f"{n['inconclusive']} inconclusive (no verdict)", f"{n['error']} error (not measured)"]
+    corners, nodes = len({r["corner"] for r in records}), len({r["at"] for r in records if r["at"]})
+    if _several_nodes(records):
         return f"{len(records)} loops measured ({corners} corners at {nodes} break nodes): " + ", ".join(parts)
     return f"{len(records)} corner{'s' if len(records) != 1 else ''}: " + ", ".join(parts)
 
 
-_CSV_FIELDS = ("corner", "at", "verdict", "phase_margin_deg", "gain_margin_db", "unity_gain_hz", "phase_crossover_hz",
-               "modulus_margin", "delay_margin_s", "failed_requirements", "error", "seconds", "settings")
+def reasons(r: dict) -> list[str]:
+    """Why a corner is not a pass, one sentence each: the error, the failed self-checks with what to try, instability,
+    the failed requirements' reasons."""
+    v = verdict(r)
+    if v == "error":
+        return [r.get("error") or "not measured"]
+    if v == "inconclusive":
+        return [f"no verdict: {c['detail']}; try: {c['advice']}" for c in failed_checks(r)]
+    out = [q["reason"] for q in r["loop"]["requirements"] if not q["passed"]]
+    if v == "unstable":
+        out.insert(0, f"the loop is unstable: {r['loop']['stability']['closed_loop_rhp_poles']} closed-loop pole(s) "
+                      "in the right half plane by the Nyquist count")
+    return out
 
 
-def write_corner_csv(records: tuple[dict, ...], path: str | Path) -> None:
-    """One row per corner (worst first); empty cells where a quantity does not exist; settings as k=v pairs."""
+CSV_FIELDS = ("corner", "at", "verdict", "phase_margin_deg", "unity_gain_hz", "gain_margin_db", "phase_crossover_hz",
+              "lower_gain_margin_db", "modulus_margin", "delay_margin_s", "dc_loop_gain_db", "closed_loop_rhp_poles",
+              "failed_requirements", "failed_checks", "notes", "error", "seconds", "settings")
+"""Columns of write_corner_csv. An empty cell means the quantity does not exist (or the corner was not measured)."""
+
+
+def _csv_row(r: dict) -> list[str]:
+    loop = r.get("loop") or {}
+
+    def num(value) -> str:
+        return "" if value is None else repr(float(value))
+
+    dc = loop.get("dc_loop_gain_db")
+    if dc is None and (loop.get("infinite") or {}).get("dc_loop_gain_db") in ("+inf", "-inf"):
+        dc = float(loop["infinite"]["dc_loop_gain_db"])
+    rhp = (loop.get("stability") or {}).get("closed_loop_rhp_poles")
+    return [r["corner"], r["at"], verdict(r),
+            *(num(margin(r, k, infinite=True)) for k in CSV_FIELDS[3:10]),
+            num(dc), "" if rhp is None else str(rhp),
+            "; ".join(failed_requirements(r)), "; ".join(c["name"] for c in failed_checks(r)), "; ".join(notes(r)),
+            r.get("error") or "", f"{r.get('seconds', 0.0):.3f}",
+            " ".join(f"{k}={v}" for k, v in (r.get("settings") or {}).items())]
+
+
+def write_corner_csv(records: tuple[dict, ...], path: str | Path) -> Path:
+    """One row per corner (worst first, columns CSV_FIELDS); empty cells where a quantity does not exist; settings as k=v pairs."""
     with output_file(path, "corner table") as out, out.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow(_CSV_FIELDS)
-        for r in worst_first(records):
-            m = _margins(r)
-            def cell(k: str):
-                v = m.get(k)
-                return "" if v is None else repr(float(v))
-            w.writerow([r["corner"], r["at"], verdict(r), cell("phase_margin_deg"), cell("gain_margin_db"), cell("unity_gain_hz"),
-                        cell("phase_crossover_hz"), cell("modulus_margin"), cell("delay_margin_s"),
-                        "; ".join(failed_requirements(r)), r.get("error") or "", f"{r['seconds']:.3f}",
-                        " ".join(f"{k}={v}" for k, v in r["settings"].items())])
+        w.writerow(CSV_FIELDS)
+        w.writerows(_csv_row(r) for r in worst_first(records))
+    return out
 
 
-def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> None:
-    """JUnit XML: one test case per corner (and break node); unstable or a failed requirement is a failure,
-    a corner that could not be measured is an error carrying ngspice's message."""
-    v = [verdict(r) for r in records]
+_PROPERTIES = ("phase_margin_deg", "unity_gain_hz", "gain_margin_db", "lower_gain_margin_db", "modulus_margin", "delay_margin_s")
+
+
+def junit_xml(records: tuple[dict, ...], suite: str) -> str:
+    """JUnit XML (a string with an XML declaration): one test case per corner (and break node).
+
+        <testsuites tests= failures= errors= time=>
+          <testsuite name=SUITE tests= failures= errors= skipped="0" time=>
+            <testcase classname=netloop.corners.SUITE name=CORNER time=SECONDS>
+              <properties><property name="phase_margin_deg" value=.../> ...</properties>  the margins that exist
+              <failure type="unstable"|"requirement"|"inconclusive" message=...>reasons</failure>
+              <error type="simulation" message=...>ngspice's output or the error</error>
+              <system-out>the margins, notes and settings</system-out>
+
+    An unstable corner or a failed requirement is a failure; an inconclusive corner is a failure too (type
+    "inconclusive", with the failed self-check and what to try): CI must not go green on a measurement that
+    supports no verdict, and it is not an error because the corner was simulated. A corner that could not be
+    measured is an error. Nothing is skipped.
+    """
     n = verdict_counts(records)
-    counts = {"tests": str(len(records)), "failures": str(n["fail"] + n["unstable"]), "errors": str(n["error"])}
-    total = f"{sum(r['seconds'] for r in records):.3f}"
+    counts = {"tests": str(len(records)), "failures": str(n["fail"] + n["unstable"] + n["inconclusive"]), "errors": str(n["error"])}
+    total = f"{sum(r.get('seconds', 0.0) for r in records):.3f}"
     root = ET.Element("testsuites", name=suite, **counts, time=total)
     ts = ET.SubElement(root, "testsuite", name=suite, **counts, skipped="0", time=total)
-    for r, verdict_ in zip(records, v):
-        name = r["corner"] if len({x["at"] for x in records}) == 1 else f"{r['corner']} at {r['at']}"
-        tc = ET.SubElement(ts, "testcase", classname=f"netloop.jobs.corners.{suite}", name=name, time=f"{r['seconds']:.3f}")
+    several = _several_nodes(records)
+    for r in records:
+        v = verdict(r)
+        name = f"{r['corner']} at {r['at']}" if several and r["at"] else r["corner"]
+        tc = ET.SubElement(ts, "testcase", classname=f"netloop.corners.{suite}", name=name, time=f"{r.get('seconds', 0.0):.3f}")
         m = _margins(r)
-        if verdict_ == "error":
-            el = ET.SubElement(tc, "error", message=(r.get("error") or "")[:500], type="simulation")
-            el.text = r.get("simulator_output") or r.get("error") or ""
-        elif verdict_ in ("fail", "unstable"):
-            reasons = [q["reason"] for q in r["loop"]["requirements"] if not q["passed"]]
-            if verdict_ == "unstable":
-                reasons.insert(0, "the loop is unstable by the Nyquist count")
-            el = ET.SubElement(tc, "failure", message="; ".join(reasons)[:500], type="unstable" if verdict_ == "unstable" else "requirement")
-            el.text = "\n".join(reasons)
+        present = [(k, m.get(k)) for k in _PROPERTIES if m.get(k) is not None]
+        if present:
+            props = ET.SubElement(tc, "properties")
+            for k, value in present:
+                ET.SubElement(props, "property", name=k, value=repr(float(value)))
+        why = reasons(r)
+        if v == "error":
+            el = ET.SubElement(tc, "error", message=why[0].splitlines()[0][:500] if why[0] else "", type="simulation")
+            el.text = r.get("simulator_output") or why[0]
+        elif v != "pass":
+            el = ET.SubElement(tc, "failure", message="; ".join(why)[:500], type={"fail": "requirement"}.get(v, v))
+            el.text = "\n".join(why)
         out = ET.SubElement(tc, "system-out")
-        out.text = (f"phase margin {deg(m.get('phase_margin_deg'))}, gain margin {_gm(r)}, crossover {eng(m.get('unity_gain_hz'), 'Hz')}; "
-                    + " ".join(f"{k}={val}" for k, val in r["settings"].items()))
+        out.text = "; ".join([f"{v.upper()}: phase margin {deg(m.get('phase_margin_deg'))}, gain margin {_gm(r)}, "
+                              f"crossover {eng(m.get('unity_gain_hz'), 'Hz')}", *notes(r),
+                              " ".join(f"{k}={val}" for k, val in (r.get("settings") or {}).items())]).rstrip("; ")
     ET.indent(root)
+    return ET.tostring(root, encoding="unicode", xml_declaration=True) + "\n"
+
+
+def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> Path:
+    """Write junit_xml(records, suite) to path (UTF-8); returns the path."""
     with output_file(path, "JUnit XML") as target:
-        ET.ElementTree(root).write(target, encoding="utf-8", xml_declaration=True)
+        target.write_text(junit_xml(records, suite), encoding="utf-8")
+    return target
 
 
 def run_document(run) -> dict:
@@ -190,5 +296,6 @@ def run_document(run) -> dict:
         "skipped": run.skipped,
         "corners": corners,
         "counts": verdict_counts(run.records),
+        "verdict": run.verdict,
         "passed": run.passed,
     }

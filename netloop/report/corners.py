@@ -1,29 +1,21 @@
-"""Corner runs presented together: the outcome record, a text table worst first, its CSV and JSON forms.
+"""Corner runs from LoopResults: CornerOutcome turned into a corner record, presented by netloop.report.corner_records.
 
-A corner's verdict is one of (worst first):
-
-    error      the simulation (or any stage before the analysis) failed: no result
-    unstable   the Nyquist count says unstable
-    fail       stable, but a requirement failed
-    pass       stable and every requirement met
-
-Within a verdict, corners are sorted by worst phase margin, smallest first; a corner with no phase
-margin (no gain crossover) sorts before those that have one, since nothing is known of its margin.
+A library user who measured corners with ``measure()`` hands CornerOutcomes here; each becomes the
+same record the corners stage stores, so the verdicts (error, inconclusive, unstable, fail, pass),
+the worst-first order, the table, the CSV and the JUnit XML are decided in one place
+(netloop.report.corner_records) whatever ran the corners.
 """
 
 from __future__ import annotations
 
-import csv
 from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
 
+from netloop.jobs.document import to_document
 from netloop.jobs.loop_result import LoopResult
 from netloop.report import corner_records as records
-from netloop.report.corner_records import CORNERS_SCHEMA, VERDICTS, corner_entry, failed_requirements, margin, verdict_counts, worst_first_key
-from netloop.jobs.document import to_document
-from netloop.report.files import output_file
-from netloop.report.notation import db, deg, eng
+from netloop.report.corner_records import CORNERS_SCHEMA, VERDICTS, corner_entry, verdict_counts
 
 __all__ = [
     "CORNER_COLUMNS",
@@ -32,9 +24,14 @@ __all__ = [
     "corner_document",
     "corner_summary",
     "corner_table",
+    "junit_xml",
     "sort_worst_first",
     "write_corner_csv",
 ]
+
+CORNER_COLUMNS = records.CSV_FIELDS
+"""Columns of write_corner_csv. An empty cell means the quantity does not exist (or the corner was not measured)."""
+
 
 @dataclass(frozen=True, slots=True)
 class CornerOutcome:
@@ -52,14 +49,15 @@ class CornerOutcome:
     def record(self) -> dict:
         """This outcome as a corner record of netloop.report.corner_records (the shape the corners stage stores)."""
         if self.result is None:
-            return {"corner": self.label, "at": "", "outcome": "error", "loop": None, "error": self.error}
-        loop = to_document(self.result)
-        return {"corner": self.label, "at": self.result.breaks.node, "outcome": "pass" if self.result.passed else "fail",
-                "loop": loop, "error": None}
+            return {"corner": self.label, "at": "", "outcome": "error", "loop": None, "error": self.error,
+                    "settings": {}, "seconds": 0.0, "simulator_output": None}
+        return {"corner": self.label, "at": self.result.breaks.node, "outcome": self.result.verdict,
+                "loop": to_document(self.result), "error": None, "settings": {}, "seconds": self.result.sim.seconds,
+                "simulator_output": None}
 
     @property
     def verdict(self) -> str:
-        """"error", "unstable", "fail" or "pass" (see the module docstring)."""
+        """"error", "inconclusive", "unstable", "fail" or "pass" (netloop.report.corner_records.VERDICTS)."""
         return records.verdict(self.record)
 
     @property
@@ -67,114 +65,35 @@ class CornerOutcome:
         return self.verdict == "pass"
 
 
+def _records(outcomes: Iterable[CornerOutcome]) -> tuple[dict, ...]:
+    return tuple(o.record for o in outcomes)
+
+
 def sort_worst_first(outcomes: Iterable[CornerOutcome]) -> list[CornerOutcome]:
-    """The outcomes ordered error, unstable, fail, pass, and by phase margin within each (stable sort)."""
-    return [o for o, _ in _worst_first(outcomes)]
-
-
-def _worst_first(outcomes: Iterable[CornerOutcome]) -> list[tuple[CornerOutcome, dict]]:
-    """Each outcome with its record, worst first (a stable sort on records.worst_first_key)."""
-    return sorted(((o, o.record) for o in outcomes), key=lambda pair: worst_first_key(pair[1]))
-
-
-def _note(o: CornerOutcome, r: dict) -> str:
-    if o.result is None:
-        return (o.error or "").splitlines()[0] if o.error else ""
-    failed = ", ".join(failed_requirements(r))
-    if records.verdict(r) == "unstable":
-        z = r["loop"]["stability"]["closed_loop_rhp_poles"]
-        return f"{z} RHP pole(s)" + (f"; {failed}" if failed else "")
-    return failed
-
-
-def _row(o: CornerOutcome, r: dict) -> tuple[str, ...]:
-    if o.result is None:
-        return (o.label, "ERROR", "", "", "", "", _note(o, r))
-    pm, gm, lgm = (margin(r, k, infinite=True) for k in ("phase_margin_deg", "gain_margin_db", "lower_gain_margin_db"))
-    return (o.label, records.verdict(r).upper(), "none" if pm is None else deg(pm), eng(margin(r, "unity_gain_hz", infinite=True), "Hz"),
-            "none" if gm is None else db(gm), "" if lgm is None else db(lgm), _note(o, r))
+    """The outcomes ordered error, inconclusive, unstable, fail, pass, and by phase margin within each (stable sort)."""
+    pairs = [(o, o.record) for o in outcomes]
+    return [o for o, _ in sorted(pairs, key=lambda pair: records.worst_first_key(pair[1]))]
 
 
 def corner_summary(outcomes: Iterable[CornerOutcome]) -> str:
-    """One line: how many corners passed, failed (and why) or could not be simulated, and the worst phase margin."""
-    return _summary([o.record for o in outcomes])
-
-
-def _summary(recs: list[dict]) -> str:
-    counts = verdict_counts(recs)
-    failed = counts["unstable"] + counts["fail"]
-    text = f"{len(recs)} corner(s): {counts['pass']} pass, {failed} fail ({counts['unstable']} unstable, {counts['fail']} failed requirement)"
-    text += f", {counts['error']} simulation error(s)"
-    with_pm = [r for r in recs if margin(r, "phase_margin_deg") is not None]
-    if with_pm:
-        worst = min(with_pm, key=lambda r: margin(r, "phase_margin_deg"))
-        text += f"; worst phase margin {deg(margin(worst, 'phase_margin_deg'))} at {worst['corner']}"
-    return text
+    """One line: how many corners have each verdict (netloop.report.corner_records.counts_line)."""
+    return records.counts_line(_records(outcomes))
 
 
 def corner_table(outcomes: Iterable[CornerOutcome]) -> str:
-    """A text table, worst corner first (corner, verdict, PM, crossover, GM, lower GM, failed requirement or error), then the summary."""
-    pairs = _worst_first(outcomes)
-    head = ("corner", "verdict", "phase margin", "crossover", "gain margin", "lower GM", "failed / error")
-    rows = [head, *(_row(o, r) for o, r in pairs)]
-    widths = [max(len(r[i]) for r in rows) for i in range(len(head) - 1)]
-    lines = []
-    for r in rows:
-        cells = [r[0].ljust(widths[0]), r[1].ljust(widths[1]), *(c.rjust(w) for c, w in zip(r[2:-1], widths[2:])), r[-1]]
-        lines.append("  ".join(cells).rstrip())
-    lines.insert(1, "-" * max(len(line) for line in lines))
-    lines.append(_summary([r for _, r in pairs]))
-    return "\n".join(lines) + "\n"
-
-
-CORNER_COLUMNS = (
-    "corner",
-    "verdict",
-    "phase_margin_deg",
-    "unity_gain_hz",
-    "gain_margin_db",
-    "phase_crossover_hz",
-    "lower_gain_margin_db",
-    "modulus_margin",
-    "delay_margin_s",
-    "dc_loop_gain_db",
-    "closed_loop_rhp_poles",
-    "failed_requirements",
-    "error",
-)
-"""Columns of write_corner_csv. An empty cell means the quantity does not exist (or the corner failed)."""
-
-
-def _csv_row(o: CornerOutcome, r: dict) -> list[str]:
-    def num(key: str) -> str:
-        x = margin(r, key, infinite=True)
-        return "" if x is None else repr(float(x))
-
-    if o.result is None:
-        return [o.label, "error", *[""] * (len(CORNER_COLUMNS) - 3), o.error or ""]
-    loop = r["loop"]
-    dc = loop["dc_loop_gain_db"]
-    if dc is None and loop["infinite"].get("dc_loop_gain_db") in ("+inf", "-inf"):
-        dc = float(loop["infinite"]["dc_loop_gain_db"])
-    return [
-        o.label,
-        records.verdict(r),
-        *(num(k) for k in CORNER_COLUMNS[2:9]),
-        "" if dc is None else repr(float(dc)),
-        str(loop["stability"]["closed_loop_rhp_poles"]),
-        ";".join(failed_requirements(r)),
-        "",
-    ]
+    """The table worst corner first (netloop.report.corner_records.corner_table), a blank line and the counts."""
+    recs = _records(outcomes)
+    return f"{records.corner_table(recs)}\n\n{records.counts_line(recs)}\n"
 
 
 def write_corner_csv(outcomes: Iterable[CornerOutcome], path: str | Path) -> Path:
-    """Write one row per corner, worst first (columns CORNER_COLUMNS, csv-module quoting); returns the path."""
-    rows = [_csv_row(o, r) for o, r in _worst_first(outcomes)]
-    with output_file(path, "corner table") as out, out.open("w", newline="", encoding="utf-8") as fh:
-        writer = csv.writer(fh)
-        writer.writerow(CORNER_COLUMNS)
-        writer.writerows(rows)
-    return out
+    """Write one row per corner, worst first (columns CORNER_COLUMNS); returns the path."""
+    return records.write_corner_csv(_records(outcomes), path)
+
+
+def junit_xml(outcomes: Iterable[CornerOutcome], suite_name: str) -> str:
+    """The JUnit XML document of the outcomes (netloop.report.corner_records.junit_xml)."""
+    return records.junit_xml(_records(outcomes), suite_name)
 
 
 def corner_document(outcomes: Iterable[CornerOutcome], **extra) -> dict:
@@ -183,11 +102,14 @@ def corner_document(outcomes: Iterable[CornerOutcome], **extra) -> dict:
     ``loop`` is to_document() of the corner's result, or null for a corner that failed to simulate.
     Corners keep the order given (the plan's order); ``counts`` has one entry per verdict.
     """
-    recs = [o.record for o in outcomes]
+    recs = _records(outcomes)
+    verdicts = {records.verdict(r) for r in recs}
+    verdict = "fail" if verdicts & {"error", "unstable", "fail"} else "inconclusive" if "inconclusive" in verdicts else "pass"
     return {
         "schema": CORNERS_SCHEMA,
         **extra,
         "corners": [corner_entry(r) for r in recs],
         "counts": verdict_counts(recs),
-        "passed": all(records.verdict(r) == "pass" for r in recs),
+        "verdict": verdict,
+        "passed": verdict == "pass",
     }

@@ -11,16 +11,16 @@ import re
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 
-from netloop.jobs.loop_result import LoopResult
+from netloop.jobs.loop_result import LoopResult, combined_verdict
 from netloop.report.bode_plot import bode_figure, verdict_title
 from netloop.report.figure import as_results, loop_name, render
 from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
 from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase, phase_crossover_margin
 from netloop.report.nyquist_plot import nyquist_figure
-from netloop.report.text import format_text, requirement_text, verdict_line
+from netloop.report.text import format_text, requirement_status, requirement_text, verdict_line
 
-__all__ = ["TEMPLATE_DIR", "render_html", "write_html"]
+__all__ = ["TEMPLATE_DIR", "page_template", "png_uri", "render_html", "write_html"]
 
 TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
 TEMPLATE = "report.html.j2"
@@ -39,7 +39,13 @@ def _environment():
     )
 
 
-def _png_uri(fig) -> str:
+def page_template(name: str):
+    """A template of templates/ in the report's environment (autoescaped, StrictUndefined)."""
+    return _environment().get_template(name)
+
+
+def png_uri(fig) -> str:
+    """A figure as a PNG data URI, for a self-contained page."""
     return "data:image/png;base64," + base64.b64encode(render(fig, "png")).decode("ascii")
 
 
@@ -56,12 +62,23 @@ def _anchor(index: int, result: LoopResult) -> str:
     return f"loop-{index}-{slug}" if slug else f"loop-{index}"
 
 
+_CLASSIFICATION_CLASS = {"stable": "ok", "unstable": "bad", "does not regulate": "warn", "inconclusive": "warn"}
+
+
+def _verdict_class(r: LoopResult) -> str:
+    """The banner's colour: "pass" (green) only for a PASS that needs no note; "note" (amber) for a PASS of a loop
+    that does not regulate or is below common practice; "fail" (red); "inconclusive" (grey)."""
+    if r.verdict == "pass" and (not r.analysis.regulates or r.below_common_practice):
+        return "note"
+    return r.verdict
+
+
 def _summary(r: LoopResult) -> list[dict]:
     a = r.analysis
     pm = a.margins.phase_margin_deg
     classes = {"worst phase margin": "" if pm is None else ("ok" if pm > 0 else "bad")}
     rows = [
-        _kv("classification", a.classification, "ok" if a.classification == "stable" else "bad"),
+        _kv("classification", a.classification, _CLASSIFICATION_CLASS[a.classification]),
         _kv("DC loop gain", db(a.dc_gain_db)),
     ]
     return rows + [_kv(label, value, classes.get(label, "")) for label, value in margin_phrases(a)]
@@ -144,11 +161,11 @@ def _loop(index: int, r: LoopResult, results: Sequence[LoopResult], plots: bool)
         "anchor": _anchor(index, r),
         "heading": heading,
         "verdict": verdict_line(r),
-        "verdict_class": "pass" if r.passed else "fail",
+        "verdict_class": _verdict_class(r),
         "summary": _summary(r),
         "plots": [
-            {"uri": _png_uri(bode_figure(r)), "alt": f"Bode plot of the loop broken at {r.breaks.node}"},
-            {"uri": _png_uri(nyquist_figure(r)), "alt": f"Nyquist plot of the loop broken at {r.breaks.node}"},
+            {"uri": png_uri(bode_figure(r)), "alt": f"Bode plot of the loop broken at {r.breaks.node}"},
+            {"uri": png_uri(nyquist_figure(r)), "alt": f"Nyquist plot of the loop broken at {r.breaks.node}"},
         ] if plots else [],
         "gain_head": ["frequency", "direction", "phase", "phase margin", "|T/(1+T)| there", "delay margin"],
         "gain_rows": _gain_rows(r),
@@ -160,7 +177,8 @@ def _loop(index: int, r: LoopResult, results: Sequence[LoopResult], plots: bool)
                          if ignored else ""),
         "closed_loop": _closed_loop(r),
         "requirements": [
-            {"text": o.requirement.text, "status": "PASS" if o.passed else "FAIL", "cls": "ok" if o.passed else "bad",
+            {"text": o.requirement.text, "status": (status := requirement_status(r, o)),
+             "cls": {"PASS": "ok", "FAIL": "bad"}.get(status, "warn"),
              "detail": requirement_text(o)}
             for o in r.requirements
         ],
@@ -180,7 +198,7 @@ def _overview(results: Sequence[LoopResult], plots: bool) -> dict:
         first["link"] = _anchor(i, r)
         rows.append({"cells": [
             first,
-            _cell("PASS" if r.passed else "FAIL", "ok" if r.passed else "bad"),
+            _cell(r.verdict.upper(), {"pass": "ok", "fail": "bad"}.get(r.verdict, "warn")),
             _cell(r.analysis.classification, ""),
             _cell(deg(m.phase_margin_deg)),
             _cell(eng(m.unity_gain_hz, "Hz")),
@@ -189,20 +207,25 @@ def _overview(results: Sequence[LoopResult], plots: bool) -> dict:
             _cell(f"{m.modulus_margin:.3f}"),
         ]})
     passed = sum(r.passed for r in results)
+    verdict = combined_verdict(r.verdict for r in results)
     return {
         "head": ["loop", "verdict", "classification", "phase margin", "crossover", "gain margin", "lower GM", "min |1+T|"],
         "rows": rows,
-        "verdict": f"{'PASS' if passed == len(results) else 'FAIL'}: {passed} of {len(results)} loop(s) pass",
-        "verdict_class": "pass" if passed == len(results) else "fail",
+        "verdict": f"{verdict.upper()}: {passed} of {len(results)} loop(s) pass"
+                   + "".join(f", {n} {v}" for v in ("fail", "inconclusive") if (n := sum(r.verdict == v for r in results))),
+        "verdict_class": verdict,
         "plots": [
-            {"uri": _png_uri(bode_figure(results)), "alt": "Bode plots of all loops"},
-            {"uri": _png_uri(nyquist_figure(results)), "alt": "Nyquist plots of all loops"},
+            {"uri": png_uri(bode_figure(results)), "alt": "Bode plots of all loops"},
+            {"uri": png_uri(nyquist_figure(results)), "alt": "Nyquist plots of all loops"},
         ] if plots else [],
     }
 
 
-def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None = None, plots: bool = True) -> str:
-    """The HTML page of one loop or several (an overview with overlaid plots, then one section per loop)."""
+def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None = None, plots: bool = True, sections: Sequence[str] = ()) -> str:
+    """The HTML page of one loop or several (an overview with overlaid plots, then one section per loop).
+
+    ``sections``: HTML of other jobs' sections (already rendered and escaped), placed before the loops.
+    """
     rs = as_results(results)
     netlists = sorted({r.netlist for r in rs})
     if title is None:
@@ -214,8 +237,15 @@ def render_html(results: LoopResult | Iterable[LoopResult], *, title: str | None
         "overview": _overview(rs, plots) if len(rs) > 1 else None,
         "loops": [_loop(i, r, rs, plots) for i, r in enumerate(rs)],
         "caution": rs[0].caution,
+        "sections": [_markup(section) for section in sections],
     }
     return _environment().get_template(TEMPLATE).render(**context)
+
+
+def _markup(html: str):
+    from markupsafe import Markup  # noqa: PLC0415 - jinja2's own dependency, loaded with it
+
+    return Markup(html)
 
 
 def write_html(results: LoopResult | Iterable[LoopResult], path: str | Path, *, title: str | None = None) -> Path:

@@ -2,11 +2,26 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
+import numpy as np
+
+from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis, PhaseCrossover
 from netloop.jobs.document import worst_crossover
-from netloop.report.notation import db, deg, eng, number, ratio_db
+from netloop.report.notation import db, deg, eng, number, ratio_db, requirement_value
 
-__all__ = ["closed_loop_phrases", "margin_phrases", "nyquist_phrase", "origin_phrase", "phase_crossover_margin"]
+__all__ = [
+    "closed_loop_phrases",
+    "margin_phrases",
+    "nyquist_phrase",
+    "origin_phrase",
+    "phase_crossover_margin",
+    "practice_phrase",
+    "regulation_phrase",
+]
+
+PRACTICE = "common practice, no source: PM 45-60 deg, GM 10 dB, peaking under 3 dB"
 
 
 def _at(freq_hz: float | None) -> str:
@@ -77,3 +92,19 @@ def origin_phrase(origin_poles: int) -> str:
     if origin_poles > 0:
         return f"{origin_poles} pole(s) of T at s = 0 (integrators)"
     return f"{-origin_poles} zero(s) of T at s = 0 (AC coupling)"
+
+
+def regulation_phrase(a: LoopAnalysis, *, advise: bool = True) -> str:
+    """What "does not regulate" means for this loop and (``advise``) what to do if it should regulate."""
+    peak = float(np.max(np.abs(a.t))) if len(a.t) else 0.0
+    text = f"does not regulate: |T| stays below 0 dB (at most {db(ratio_db(peak))}), so there is no phase margin"
+    if advise:
+        text += "; if it should regulate, check the break node, the driver side and the bias; --require 'dc>=40' makes this a failure"
+    return text
+
+
+def practice_phrase(shortfalls: Sequence[RequirementOutcome]) -> str:
+    """ "below common practice (no requirement given; ...): gain margin 4.65 dB, closed-loop peaking 7.11 dB"."""
+    missed = ", ".join(f"{METRICS[o.requirement.metric][0]} {requirement_value(METRICS[o.requirement.metric][1], o.value)}"
+                       for o in shortfalls)
+    return f"below common practice (no requirement given; {PRACTICE}): {missed}"

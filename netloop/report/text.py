@@ -9,9 +9,16 @@ from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis
 from netloop.jobs.loop_result import LoopResult
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
-from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase, phase_crossover_margin
+from netloop.report.phrases import (
+    closed_loop_phrases,
+    margin_phrases,
+    nyquist_phrase,
+    phase_crossover_margin,
+    practice_phrase,
+    regulation_phrase,
+)
 
-__all__ = ["format_text", "requirement_text", "verdict_line"]
+__all__ = ["format_text", "requirement_status", "requirement_text", "verdict_line"]
 
 _WIDTH = 30  # label column
 _LINE = 120  # wrap values beyond this many columns
@@ -25,7 +32,8 @@ def _row(label: str, value: str) -> str:
 
 
 def verdict_line(result: LoopResult) -> str:
-    """One line, PASS, FAIL or INCONCLUSIVE first: the classification and the reason in a few words."""
+    """One line, PASS, FAIL or INCONCLUSIVE first: the classification and the reason in a few words, then what
+    a PASS does not say by itself (a loop that does not regulate, margins below common practice)."""
     a = result.analysis
     m = a.margins
     failed = result.failed_requirements
@@ -38,7 +46,7 @@ def verdict_line(result: LoopResult) -> str:
         z = a.nyquist.closed_loop_rhp_poles
         why = f"unstable: {z} closed-loop pole(s) in the right half plane by the Nyquist count"
     elif not a.regulates:
-        why = "stable but does not regulate: |T| stays below 0 dB, so no phase margin exists"
+        why = f"stable but {regulation_phrase(a, advise=not result.requirements)}"
     elif m.phase_margin_deg is None:
         why = "stable by the Nyquist count; no gain crossover in the sweep"
     else:
@@ -51,7 +59,17 @@ def verdict_line(result: LoopResult) -> str:
         why += f"; {len(failed)} of {len(result.requirements)} requirement(s) failed ({', '.join(o.requirement.text for o in failed)})"
     elif result.requirements:
         why += f"; all {len(result.requirements)} requirement(s) met"
+    if result.below_common_practice:
+        why += f"; {practice_phrase(result.below_common_practice)}"
     return f"{word}  {why}"
+
+
+def requirement_status(result: LoopResult, outcome: RequirementOutcome) -> str:
+    """PASS or FAIL for one requirement; "NO VERDICT" for every requirement of an inconclusive loop (its figures are
+    shown, but data that failed a self-check passes and fails nothing)."""
+    if result.verdict == "inconclusive":
+        return "NO VERDICT"
+    return "PASS" if outcome.passed else "FAIL"
 
 
 def requirement_text(outcome: RequirementOutcome) -> str:
@@ -126,7 +144,7 @@ def _context_lines(result: LoopResult) -> list[str]:
             lines.append(f"    try: {c.advice}")
     if result.requirements:
         lines.append("requirements")
-        lines.extend(f"  {'PASS' if o.passed else 'FAIL'}  {requirement_text(o)}" for o in result.requirements)
+        lines.extend(f"  {requirement_status(result, o)}  {requirement_text(o)}" for o in result.requirements)
     if result.warnings:
         lines.append("warnings")
         lines.extend(f"  - {w}" for w in result.warnings)

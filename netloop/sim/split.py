@@ -23,7 +23,7 @@ __all__ = ["MAX_AUTO_PROCESSES", "SPLIT_MIN_ELEMENTS", "SplitRunsSimulator", "pr
 
 # Below this many elements a second ngspice's fixed costs (its start, its own load of the deck) eat
 # what it saves. `netloop check --at out` on benchmarks/check_speed.py's RC-ladder loop, 2 CPUs,
-# --jobs 1 vs 2: 20k elements 1.38 vs 1.38-1.53 s; 40k 3.6-3.7 vs 2.7 s; 60k 7.1-7.3 vs 4.6 s;
+# --processes 1 vs 2: 20k elements 1.38 vs 1.38-1.53 s; 40k 3.6-3.7 vs 2.7 s; 60k 7.1-7.3 vs 4.6 s;
 # 100k 18.2 vs 10.3 s (ngspice's own time grows faster than the element count there).
 SPLIT_MIN_ELEMENTS = 30_000
 

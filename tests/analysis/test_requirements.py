@@ -40,7 +40,7 @@ def three_pole():
     ],
 )
 def test_parse(text, metric, op, threshold):
-    """Metric, operator and SI-scaled threshold (SPICE suffixes: m is milli, meg is mega) are read exactly."""
+    """Metric, operator and scaled threshold (m is milli, meg is mega; every spelling: tests/analysis/test_quantities.py) are read exactly."""
     r = parse_requirement(text)
     assert (r.metric, r.op) == (metric, op)
     assert r.threshold == pytest.approx(threshold, rel=1e-15)
@@ -49,18 +49,21 @@ def test_parse(text, metric, op, threshold):
 @pytest.mark.parametrize(
     "text,fault",
     [
-        ("pm=60", "METRIC OP NUMBER"),
+        ("pm=60", "does not have the form METRIC OP VALUE"),
         ("phase>=60", "unknown metric 'phase'"),
-        ("pm>=sixty", "METRIC OP NUMBER"),
-        ("pm>=60db", "'db' is not an SI suffix or 'deg'"),
-        ("mm>=0.5db", "'db' is not an SI suffix"),
-        ("fc>1x", "'x' is not an SI suffix"),
-        ("", "METRIC OP NUMBER"),
+        ("pm>=sixty", "'sixty' is not a number"),
+        ("pm>=60db", "is a level in dB (dB), but an angle is expected"),
+        ("mm>=0.5db", "but a plain number is expected"),
+        ("fc>1x", "'x' is not a multiplier or unit for a frequency"),
+        ("fc>=100M", "is ambiguous: SPICE reads M as milli, SI as mega; write 100meg or 100MHz"),
+        ("fc>=100mhz", "write 100MHz (or 100meg) for mega hertz, 100mHz for milli hertz"),
+        ("fc>=10ns", "'10ns' is a time (s), but a frequency is expected"),
+        ("", "does not have the form METRIC OP VALUE"),
     ],
 )
 def test_bad_text_raises_plan_error_saying_what_was_expected(text, fault):
     """Unreadable text raises PlanError (a ValueError) that quotes it, names the fault and shows the expected form."""
-    with pytest.raises(PlanError, match="expected METRIC OP NUMBER") as info:
+    with pytest.raises(PlanError, match="expected METRIC OP VALUE") as info:
         parse_requirement(text)
     assert fault in str(info.value) and repr(text) in str(info.value)
     assert isinstance(info.value, ValueError)

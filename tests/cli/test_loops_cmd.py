@@ -1,4 +1,4 @@
-"""`netloop loops` (text and JSON) and `netloop check` without --at, called through main()."""
+"""`netloop loops` (the census: text and JSON) and `netloop check` without --at, called through main()."""
 
 from __future__ import annotations
 
@@ -20,31 +20,34 @@ Rc c 0 1k
 """
 
 
-def test_loops_text_lists_groups_loops_and_reasons(tmp_path, capsys):
-    """The text listing names the group by its best node, lists both loops and gives a reason for each candidate."""
-    # Reference: by construction, the loops of NESTED are a->b->c->a and b->c->b; b and c are on both,
-    # and c is driven by G2 alone while b has two drivers (G1, G4).
+def _nested(tmp_path):
     path = tmp_path / "nested.cir"
     path.write_text(NESTED)
-    assert main(["loops", str(path)]) == 0
+    return path
+
+
+def test_loops_text_is_one_line_per_group_with_its_break_and_why(tmp_path, capsys):
+    """Without a sweep the text gives the group, its counts and its break with the reason on one line; loops are counted, not listed."""
+    # Reference: by construction, the loops of NESTED are a->b->c->a and b->c->b; b and c are on both,
+    # and c is driven by G2 alone while b has two drivers (G1, G4); the probe puts g2.n alone on c's driver side.
+    assert main(["loops", str(_nested(tmp_path)), "--no-sweep"]) == 0
     out = capsys.readouterr().out
-    assert "1 loop group among 3 signal nodes" in out
-    assert "b -g2(cp>n)-> c -g4(cp>n)-> b" in out
-    assert "b -g2(cp>n)-> c -g3(cp>n)-> a -g1(cp>n)-> b" in out
-    # The probe's split of c: G2's output on the driver side, G3's and G4's inputs on the load side (netloop.probe.break_loop).
-    assert "loop 1 (c)" in out and "1. c: the probe splits c into driver side g2.n and load side" in out
-    assert "which opens all 2 loops of the group" in out and "driven by one element (g2)" in out
+    assert "1 loop group among 3 signal nodes" in out and "2 loops in all" in out
+    (line,) = [x for x in out.splitlines() if x.startswith("  loop 1")]
+    assert line.startswith("  loop 1 (c): 2 loops, 3 nodes; break at c: opens every loop of the group, driven by g2 alone")
+    assert "-g2(cp>n)->" not in out  # the loops themselves only in --json
+    assert main(["loops", str(_nested(tmp_path)), "--no-sweep", "--candidates", "3"]) == 0
+    out = capsys.readouterr().out
+    assert "1. c: the probe splits c into driver side g2.n and load side" in out
     assert "3. a: the probe splits a into driver side g3.n" in out and "it opens loop 1.2; it leaves loop 1.1 (does not pass a) closed" in out
 
 
 def test_loops_json_document(tmp_path, capsys):
-    """--json prints one document with each group's loops (steps, nodes) and every candidate with rank and reason."""
+    """--json prints one document with each group's loops (steps, nodes), every candidate with rank and reason, and the chosen break."""
     # Reference: by construction (NESTED, as above).
-    path = tmp_path / "nested.cir"
-    path.write_text(NESTED)
-    assert main(["loops", str(path), "--json"]) == 0
+    assert main(["loops", str(_nested(tmp_path)), "--json", "--no-sweep"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    assert doc["schema"] == "netloop.loop-groups/1"
+    assert doc["schema"] == "netloop.loop-groups/1" and doc["swept"] is False
     (group,) = doc["groups"]
     assert [set(lp["nodes"]) for lp in group["loops"]] == [{"b", "c"}, {"a", "b", "c"}]
     assert [c["node"] for c in group["candidates"]] == ["c", "b", "a"]
@@ -52,29 +55,30 @@ def test_loops_json_document(tmp_path, capsys):
     assert group["candidates"][2]["left_closed"] == [1] and group["candidates"][2]["reason"]
     assert group["candidates"][2]["kept_closed"] == [] and group["candidates"][2]["split_checked"] is True
     assert group["candidates"][0]["driver_side"] == ["g2.n"] and "g3.cp" in group["candidates"][0]["load_side"]
+    assert group["chosen"] == "c" and group["coarse"] == [] and group["can_ring"] is None
 
 
 def test_loops_json_states_the_miller_loop_kept_closed_at_out(circuits, capsys):
     """On the Miller buffer the JSON lists, for out, the Cc/Rz/M6 loop as kept closed and every other loop as opened."""
     # Reference: circuits/miller_buffer.cir: break_loop(out) keeps cc.n with the drivers m6.d, m7.d (Cc's far end
     # leads through Rz to M6's gate), so the loop out -cc-> cz -rz-> o1 -m6-> out never crosses the probe.
-    assert main(["loops", str(circuits / "miller_buffer.cir"), "--json"]) == 0
+    assert main(["loops", str(circuits / "miller_buffer.cir"), "--json", "--no-sweep"]) == 0
     (group,) = json.loads(capsys.readouterr().out)["groups"]
     out = group["candidates"][0]
     miller = next(lp["number"] for lp in group["loops"] if set(lp["elements"]) == {"m6", "cc", "rz"})
     assert out["node"] == "out" and out["driver_side"] == ["m6.d", "m7.d", "cc.n"]
     assert out["kept_closed"] == out["left_closed"] == [miller] and not out["opens_all"]
     assert sorted(out["opened"] + [miller]) == [lp["number"] for lp in group["loops"]]
+    assert group["looked_through"] == ["tail", "d1"] or set(group["looked_through"]) == {"tail", "d1"}
 
 
 def test_loops_split_checks_zero_keeps_the_structural_view(tmp_path, capsys):
-    """--split-checks 0 lists candidates from the loop structure alone and says so."""
+    """--split-checks 0 chooses from the loop structure alone (no sweep) and says so."""
     # Reference: by construction (NESTED): with no split worked out, no candidate names a driver side.
-    path = tmp_path / "nested.cir"
-    path.write_text(NESTED)
-    assert main(["loops", str(path), "--split-checks", "0"]) == 0
+    path = _nested(tmp_path)
+    assert main(["loops", str(path), "--split-checks", "0", "--candidates", "3"]) == 0
     out = capsys.readouterr().out
-    assert "driver side" not in out and out.count("loop structure only") == 3
+    assert "driver side" not in out and "loop structure only" in out and "no coarse sweep" in out
     assert main(["loops", str(path), "--split-checks", "-1"]) == 2
     assert "--split-checks must be at least 0" in capsys.readouterr().err
 
@@ -82,8 +86,7 @@ def test_loops_split_checks_zero_keeps_the_structural_view(tmp_path, capsys):
 def test_loops_bad_bound_and_missing_file_exit_2(tmp_path, capsys):
     """A cap below 1 or a missing netlist is one clear message and exit status 2."""
     # Reference: netloop/errors.py contract (NetloopError -> one line, exit 2).
-    path = tmp_path / "nested.cir"
-    path.write_text(NESTED)
+    path = _nested(tmp_path)
     assert main(["loops", str(path), "--max-loops", "0"]) == 2
     assert "--max-loops must be at least 1" in capsys.readouterr().err
     assert main(["loops", str(tmp_path / "absent.cir")]) == 2
@@ -91,11 +94,43 @@ def test_loops_bad_bound_and_missing_file_exit_2(tmp_path, capsys):
 
 
 @pytest.mark.ngspice
+def test_the_regulator_census_reads_in_one_screen(circuits, capsys):
+    """`netloop loops` on the bandgap regulator bench fits one screen: a line per group, the groups that can ring first."""
+    # Reference: circuits/benches/bandgap_reg.cir header: two loops (the regulation loop, the bandgap's), both with
+    # loop gain above 0 dB at DC or near it; a screen is 24 lines of 120 columns at most (common practice, from memory).
+    assert main(["loops", str(circuits / "benches" / "bandgap_reg.cir")]) == 0
+    out = capsys.readouterr().out
+    lines = out.splitlines()
+    assert len(lines) <= 24 and sum(len(x) // 120 + 1 for x in lines) <= 24
+    assert lines[2].startswith("can ring") and sum(x.startswith("  loop ") for x in lines) == 2
+    assert "break at fb:" in out and "0 dB near" in out
+
+
+@pytest.mark.ngspice
 def test_check_without_at_measures_each_group(circuits, capsys):
-    """`netloop check` without --at on two buffers prints one JSON document per loop under "loops", and notes on stderr."""
+    """`netloop check` without --at on two buffers prints one JSON entry per group under "loops", and notes on stderr."""
     # Reference: circuits/testbench/shared_bias.cir header (loops at outa and outb, both stable).
     assert main(["check", str(circuits / "testbench" / "shared_bias.cir"), "--json"]) == 0
     captured = capsys.readouterr()
     doc = json.loads(captured.out)
-    assert len(doc["loops"]) == 2 and doc["passed"] is True
-    assert "loop 1: broken at outa" in captured.err and "loop 2: broken at outb" in captured.err
+    assert len(doc["loops"]) == 2 and doc["passed"] is True and all(e["measured"] for e in doc["loops"])
+    assert [e["group"]["chosen"] for e in doc["loops"]] == ["outa", "outb"]
+    assert "loop 1 (outa): broken at outa" in captured.err and "loop 2 (outb): broken at outb" in captured.err
+
+
+@pytest.mark.ngspice
+def test_an_open_loop_copy_is_reported_inconclusive_and_the_buffer_still_measured(circuits, capsys):
+    """A testbench with an open-loop copy of its amplifier: the buffer gets its PASS, the copy's group is INCONCLUSIVE with the
+    reason, nothing is an error, and the exit status is 3 (inconclusive) for the whole."""
+    # Reference: circuits/benches/tb_open_copy.cir header: the buffer's loop closes at out; the copy has only its Miller
+    # branch, which no break of its own nodes opens (its output olout carries only the copy's pin and a capacitor).
+    assert main(["check", str(circuits / "benches" / "tb_open_copy.cir"), "--json"]) == 3
+    doc = json.loads(capsys.readouterr().out)
+    first, second = doc["loops"]
+    assert first["measured"] and first["verdict"] == "pass" and first["break"]["node"] == "out"
+    assert not second["measured"] and second["verdict"] == "inconclusive" and "xol.o1" in second["reason"]
+    assert doc["verdict"] == "inconclusive"
+    assert main(["check", str(circuits / "benches" / "tb_open_copy.cir")]) == 3
+    text = capsys.readouterr().out
+    assert text.startswith("INCONCLUSIVE  loop 1 (out): pass, loop 2: inconclusive\n")
+    assert "\n\nPASS" in text and "\nINCONCLUSIVE  loop 2: not measured:" in text

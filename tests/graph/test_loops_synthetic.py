@@ -168,8 +168,9 @@ def test_bad_bounds_are_refused():
 
 def test_a_long_loop_is_described_shortened_on_request_and_listed_whole_in_json():
     """A ring of 60 stages: describe() gives every step; describe(16) the first and last 8 steps around the count of the
-    44 others, starting and ending where the whole description does; `netloop loops` text stays short, its JSON whole."""
-    from netloop.cli.loops_cmd import discovery_document, format_discovery
+    44 others, starting and ending where the whole description does; `netloop loops` text counts it in one line, its JSON is whole."""
+    from netloop.cli.loops_cmd import census_document, format_census
+    from netloop.jobs.discover import take_census
 
     nodes = [f"n{i}" for i in range(60)]
     found = _found(_deck(list(zip(nodes, nodes[1:] + nodes[:1]))), length_bound=80)
@@ -179,6 +180,7 @@ def test_a_long_loop_is_described_shortened_on_request_and_listed_whole_in_json(
     assert short.count("->") == 16 and "... 44 more steps ..." in short
     assert short.split(" ... ")[0] == whole[: len(short.split(" ... ")[0])]  # the same first steps
     assert whole.endswith(short.split(" ... ")[-1].split(" ", 1)[1])  # the same last steps
-    text = format_discovery("ring.cir", found)
-    assert "60 nodes:" in text and "and 36 more" in text and len(text) < 3000
-    assert discovery_document("ring.cir", found)["groups"][0]["loops"][0]["path"] == whole
+    census = take_census(_deck(list(zip(nodes, nodes[1:] + nodes[:1]))), sweep=False, length_bound=80)
+    text = format_census(census)
+    assert "loop 1 (n1): 1 loop, 60 nodes; break at n1" in text and "n59" not in text and len(text) < 1000
+    assert census_document(census)["groups"][0]["loops"][0]["path"] == whole

@@ -150,15 +150,16 @@ def _pz_poles(netlist: Path, transfer: str, tmp_path: Path) -> np.ndarray:
 
 @pytest.mark.ngspice
 def test_miller_locations_differ_by_named_loops_and_share_the_poles(tmp_path):
-    """On the Miller buffer, o1 broken with Rz on its driver side opens the Cc/Rz local loop that out leaves closed, out opens the tail loops that bypass d1; the differences name them, and every location finds ngspice's .pz dominant pole."""
+    """On the Miller buffer, o1 broken with Rz on its driver side opens the Cc/Rz local loop that out leaves closed, out opens the global loops that pass d1 inside the first stage; the differences name them, and every location finds ngspice's .pz dominant pole."""
     c = compare(MILLER, ["out", "o1", "d1"], drivers={"o1": "m2.d,m4.d,rz.p"})
     by_pair = {d.locations: d for d in c.differences}
     d = by_pair[("out", "o1")]
     assert d.kind == "different loops opened"
     assert any(lp.endswith("out -cc-> cz -rz-> o1 -m6(g>d)-> out") for lp in d.loops)
     assert "o1 opens loop 1.2 which out leaves closed" in d.explanation
-    # the loops through the tail and M1's source never pass d1 (loop discovery: 1.3 and 1.6 run tail -> o1 -> out -> tail)
-    assert "out opens loops 1.3, 1.6 which bypass d1" in by_pair[("out", "d1")].explanation
+    # d1 is the first stage's mirror input: the global loops 1.1 and 1.3 (out -> o1 -> out, directly and through Cc) pass it
+    # inside the stage, along with the route through the tail that bypasses it (circuits/miller_buffer.cir: M3 d1 d1 vdd)
+    assert "out opens loops 1.1, 1.3, which pass d1 inside a stage" in by_pair[("out", "d1")].explanation
     assert c.poles_agree is True
     pz = _pz_poles(MILLER, "inp 0 out 0", tmp_path)
     expected = max((p for p in pz if p.imag >= 0), key=lambda p: p.real)  # reference: ngspice .pz, least damped pole
@@ -233,7 +234,7 @@ def test_hierarchical_locations_inside_instances():
     c = compare(ROOT / "circuits" / "hier" / "top.cir", ["out1", "xa1.o1", "out2"])
     by_pair = {d.locations: d for d in c.differences}
     inside = by_pair[("out1", "xa1.o1")]
-    assert inside.kind == "loading" and "both leave 1.1 closed" in inside.explanation
+    assert inside.kind == "loading" and "both leave 1.2 closed" in inside.explanation  # 1.2: o1 -m6-> out1 -cc-> cz -rz-> o1
     assert inside.loops and all(lp.startswith("loop 1.") for lp in inside.loops)
     assert by_pair[("out1", "out2")].kind == "different loop groups"
     assert by_pair[("xa1.o1", "out2")].kind == "different loop groups"

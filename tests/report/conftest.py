@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from report_loops import conditional, make_result, quiet, two_stage, unstable
+import numpy as np
+from report_loops import conditional, make_result, marginal, quiet, two_stage, unstable
 
 
 @pytest.fixture(scope="session")
@@ -25,3 +26,21 @@ def unstable_result():
 @pytest.fixture(scope="session")
 def quiet_result():
     return make_result(quiet, requirements=("pm>=45", "gm>=6"))
+
+
+@pytest.fixture(scope="session")
+def quiet_free_result():
+    """The loop that never reaches 0 dB, checked without requirements."""
+    return make_result(quiet)
+
+
+@pytest.fixture(scope="session")
+def marginal_result():
+    """A stable loop below common practice, checked without requirements."""
+    return make_result(marginal, label="sf_m40c")
+
+
+@pytest.fixture(scope="session")
+def inconclusive_result():
+    """The two-stage loop swept only up to 1 MHz, below its 9.5 MHz crossover: the Nyquist count is doubtful."""
+    return make_result(two_stage, requirements=("pm>=45",), label="fs_27c", freq_hz=np.logspace(0, 6, 61))

@@ -29,6 +29,12 @@ def unstable(f):
     return 1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 1e6)) * (1 + s / (W * 2e6)))
 
 
+def marginal(f):
+    """A three-pole loop short of common practice: A0 = 1e3, poles at 1 kHz, 1 MHz and 2 MHz (PM 32.7 deg, GM 9.56 dB)."""
+    s = 1j * W * np.asarray(f)
+    return 1e3 / ((1 + s / (W * 1e3)) * (1 + s / (W * 1e6)) * (1 + s / (W * 2e6)))
+
+
 def quiet(f):
     """A loop that never reaches 0 dB: 0.1 / (1 + s / 1 kHz)."""
     s = 1j * W * np.asarray(f)

@@ -1,4 +1,5 @@
-"""Corner outcomes: the table worst first with counts, the corner CSV, and JUnit XML with the right counts."""
+"""Corner outcomes: the table worst first with counts, the corner CSV, and JUnit XML with the right counts; an
+inconclusive corner is never counted or shown as a pass, and a passing loop that does not regulate says so."""
 
 from __future__ import annotations
 
@@ -20,40 +21,51 @@ def _rhp_roots_of_unstable_loop() -> int:
 
 
 @pytest.fixture
-def outcomes(stable_result, unstable_result, conditional_result, quiet_result):
+def outcomes(stable_result, unstable_result, conditional_result, quiet_result, inconclusive_result, quiet_free_result):
     return [
         CornerOutcome("tt_27c", stable_result),
         CornerOutcome("ff_m40c", unstable_result),
         CornerOutcome("ss_125c", conditional_result),
         CornerOutcome("fs_0c", None, "ngspice: timestep too small at 1.2 ns\n(more output)"),
         CornerOutcome("sf_27c", quiet_result),
+        CornerOutcome("fs_27c", inconclusive_result),
+        CornerOutcome("tt_0c", quiet_free_result),
     ]
 
 
 def test_table_sorts_worst_first_and_counts(outcomes):
-    """The error comes first, then the unstable corner, then the failed requirement, then passes by rising phase margin."""
+    """The error comes first, then the inconclusive corner, the unstable one, the failed requirement, then passes by rising
+    phase margin (none first); the inconclusive corner names its failed self-check and a loop that does not regulate says so."""
     assert _rhp_roots_of_unstable_loop() == 2  # numpy.roots of the closed-loop characteristic polynomial: unstable
     lines = corner_table(outcomes).splitlines()
-    order = [line.split()[0] for line in lines[2:-1]]
-    assert order == ["fs_0c", "ff_m40c", "sf_27c", "tt_27c", "ss_125c"]
-    assert "ERROR" in lines[2] and "timestep too small" in lines[2]
-    assert "UNSTABLE" in lines[3] and "2 RHP pole(s)" in lines[3]
-    assert lines[-1].startswith("5 corner(s): 2 pass, 2 fail (1 unstable, 1 failed requirement), 1 simulation error(s)")
+    rows = {line.split()[0]: line for line in lines[2:-2]}
+    assert list(rows) == ["fs_0c", "fs_27c", "ff_m40c", "sf_27c", "tt_0c", "tt_27c", "ss_125c"]
+    assert "error" in rows["fs_0c"] and "not measured" in rows["fs_0c"]
+    assert "inconclusive" in rows["fs_27c"] and "self-check nyquist-data failed" in rows["fs_27c"] and "pass" not in rows["fs_27c"]
+    assert "unstable" in rows["ff_m40c"] and "2 RHP pole(s); pm>=45" in rows["ff_m40c"]
+    assert " pass " in rows["tt_0c"] and "does not regulate" in rows["tt_0c"]
+    assert lines[-1] == "7 loops measured (7 corners at 2 break nodes): 3 pass, 1 fail a requirement, 1 unstable, 1 inconclusive (no verdict), 1 error (not measured)"
 
 
 def test_junit_xml_parses_and_counts(outcomes):
-    """The JUnit XML parses, has one testcase per corner, and counts 2 failures and 1 error in both count attributes."""
+    """The JUnit XML parses, has one testcase per corner, and counts the unstable, failed and inconclusive corners as
+    failures (3) and the unmeasured one as an error, in both count attributes; nothing is skipped."""
     root = ET.fromstring(junit_xml(outcomes, "front_end").encode("utf-8"))
     suite = root.find("testsuite")
     for node in (root, suite):
-        assert (node.get("tests"), node.get("failures"), node.get("errors")) == ("5", "2", "1")
-    cases = {c.get("name"): c for c in suite.findall("testcase")}
-    assert set(cases) == {"tt_27c", "ff_m40c", "ss_125c", "fs_0c", "sf_27c"}
+        assert (node.get("tests"), node.get("failures"), node.get("errors")) == ("7", "3", "1")
+    assert suite.get("skipped") == "0" and not suite.findall(".//skipped")
+    cases = {c.get("name").split(" at ")[0]: c for c in suite.findall("testcase")}
+    assert set(cases) == {"tt_27c", "ff_m40c", "ss_125c", "fs_0c", "sf_27c", "fs_27c", "tt_0c"}
     assert cases["ff_m40c"].find("failure").get("type") == "unstable"
     assert cases["sf_27c"].find("failure").get("type") == "requirement"
+    doubt = cases["fs_27c"].find("failure")
+    assert doubt.get("type") == "inconclusive" and "sweep ends at" in doubt.get("message") and "try:" in doubt.text
     assert cases["fs_0c"].find("error") is not None and cases["fs_0c"].find("failure") is None
-    assert cases["tt_27c"].find("failure") is None and cases["tt_27c"].find("error") is None
+    for name in ("tt_27c", "tt_0c"):
+        assert cases[name].find("failure") is None and cases[name].find("error") is None
     assert "PASS" in cases["tt_27c"].find("system-out").text
+    assert "does not regulate" in cases["tt_0c"].find("system-out").text
     props = {p.get("name"): float(p.get("value")) for p in cases["tt_27c"].iter("property")}
     assert props["phase_margin_deg"] == outcomes[0].result.analysis.margins.phase_margin_deg
     assert "phase_margin_deg" not in {p.get("name") for p in cases["sf_27c"].iter("property")}  # no crossover, no property
@@ -68,9 +80,18 @@ def test_corner_csv_and_document(tmp_path, outcomes, stable_result):
     assert float(by["tt_27c"]["phase_margin_deg"]) == stable_result.analysis.margins.phase_margin_deg
     assert by["sf_27c"]["phase_margin_deg"] == "" and by["fs_0c"]["verdict"] == "error"
     assert by["ff_m40c"]["closed_loop_rhp_poles"] == "2"
+    assert by["fs_27c"]["verdict"] == "inconclusive" and by["fs_27c"]["failed_checks"] == "nyquist-data"
+    assert by["tt_0c"]["verdict"] == "pass" and "does not regulate" in by["tt_0c"]["notes"]
     doc = corner_document(outcomes)
-    assert doc["counts"] == {"error": 1, "inconclusive": 0, "unstable": 1, "fail": 1, "pass": 2} and doc["passed"] is False
+    assert doc["counts"] == {"error": 1, "inconclusive": 1, "unstable": 1, "fail": 1, "pass": 3} and doc["passed"] is False
     assert doc["corners"][3]["loop"] is None
+
+
+def test_inconclusive_corners_alone_are_not_a_pass(stable_result, inconclusive_result):
+    """A run whose only doubt is an inconclusive corner is "inconclusive", not passed, in the document and the counts."""
+    doc = corner_document([CornerOutcome("tt", stable_result), CornerOutcome("fs", inconclusive_result)])
+    assert (doc["verdict"], doc["passed"]) == ("inconclusive", False)
+    assert corner_table([CornerOutcome("fs", inconclusive_result)]).rstrip().endswith("1 inconclusive (no verdict), 0 error (not measured)")
 
 
 def test_outcome_needs_exactly_one_of_result_and_error(stable_result):

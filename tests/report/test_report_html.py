@@ -51,5 +51,24 @@ def test_html_of_several_loops_links_each_section(tmp_path, stable_result, unsta
     refs.feed(page)
     anchors = [r[1:] for r in refs.refs if r.startswith("#")]
     assert len(anchors) == 2 and all(f'id="{a}"' in page for a in anchors)
-    assert "FAIL: 1 of 2 loop(s) pass" in page
+    assert "FAIL: 1 of 2 loop(s) pass, 1 fail" in page
     assert sum(r.startswith("data:image/png;base64,") for r in refs.refs) == 6
+
+
+def _banners(page: str) -> list[str]:
+    return [part.split('"', 1)[0] for part in page.split('<div class="verdict ')[1:]]
+
+
+def test_html_banner_is_green_only_for_a_pass_that_needs_no_note(stable_result, quiet_free_result, marginal_result, inconclusive_result):
+    """The banner is green (pass) for a plain PASS, amber (note) for a PASS of a loop that does not regulate or sits below
+    common practice, grey for an inconclusive loop, and an inconclusive loop never reads PASS."""
+    from netloop.report import render_html
+
+    assert _banners(render_html(stable_result, plots=False)) == ["pass"]
+    assert _banners(render_html(quiet_free_result, plots=False)) == ["note"]
+    page = render_html(marginal_result, plots=False)
+    assert _banners(page) == ["note"] and "below common practice" in page
+    page = render_html(inconclusive_result, plots=False)
+    assert _banners(page) == ["inconclusive"] and ">INCONCLUSIVE " in page and ">PASS " not in page
+    page = render_html([stable_result, inconclusive_result], plots=False)
+    assert _banners(page)[0] == "inconclusive" and "INCONCLUSIVE: 1 of 2 loop(s) pass, 1 inconclusive" in page

@@ -6,7 +6,7 @@ import math
 import re
 
 import control
-from report_loops import W
+from report_loops import W, make_result, two_stage
 
 from netloop.report import format_text
 
@@ -49,6 +49,41 @@ def test_no_crossover_is_stated_not_hidden(quiet_result):
     assert "does not regulate" in text.splitlines()[0]
     assert "none in the sweep" in text
     assert text.isascii()
+
+
+def test_a_loop_that_does_not_regulate_passes_and_says_what_to_do(quiet_free_result):
+    """Without requirements a stable loop that never reaches 0 dB is PASS (the project's decision), and the verdict line
+    says plainly that it does not regulate, its largest |T| (0.1 = -20 dB, the analytic loop's DC gain) and the
+    requirement that makes it a failure."""
+    first = format_text(quiet_free_result).splitlines()[0]
+    assert first.startswith("PASS  stable but does not regulate")
+    assert "at most -20.00 dB" in first and "--require 'dc>=40'" in first and "below common practice" not in first
+
+
+def test_margins_below_common_practice_are_said_beside_pass(marginal_result, stable_result):
+    """Without requirements, a stable loop with PM 32.69 deg and GM 9.56 dB (python-control's stability_margins on the
+    same T(s)) keeps PASS, and the verdict line says which common-practice rules it misses; a loop with requirements,
+    or one within common practice, gets no such note."""
+    s = control.tf("s")
+    gm, pm, _, _, _, _ = control.stability_margins(1e3 / ((1 + s / (W * 1e3)) * (1 + s / (W * 1e6)) * (1 + s / (W * 2e6))))
+    first = format_text(marginal_result).splitlines()[0]
+    assert first.startswith("PASS  stable")
+    note = first.split("; below common practice", 1)[1]
+    assert "PM 45-60 deg, GM 10 dB, peaking under 3 dB" in note  # common practice, no source
+    assert f"worst phase margin {pm:.2f} deg" in note and f"upper gain margin {20 * math.log10(gm):.2f} dB" in note
+    assert "common practice" not in format_text(stable_result)
+    assert make_result(two_stage).below_common_practice == ()  # 67 deg, 22 dB, no peaking: within common practice
+
+
+def test_inconclusive_loop_never_says_pass(inconclusive_result):
+    """A loop whose sweep ends before its crossover starts with INCONCLUSIVE, names the failed check and what to try,
+    and prints neither PASS nor unstable."""
+    text = format_text(inconclusive_result)
+    first = text.splitlines()[0]
+    assert first.startswith("INCONCLUSIVE  the data supports no verdict") and "try: let the sweep run higher" in first
+    assert "PASS" not in text and "unstable" not in text.lower()
+    doubtful = make_result(two_stage, requirements=("dc>=40",), freq_hz=inconclusive_result.analysis.freq_hz)
+    assert "  NO VERDICT  dc>=40: DC loop gain = 80.00 dB" in format_text(doubtful)  # 1e4: 80 dB by the formula
 
 
 def test_colour_only_paints_the_verdicts(unstable_result):

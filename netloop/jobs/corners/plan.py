@@ -284,9 +284,12 @@ def _sweep(raw: object, path: str, text: str) -> Sweep:
                 raise PlanError(f"{where}: points_per_decade must be a whole number")
             kwargs[key] = value
         else:
-            from netloop.netlist import parse_value
+            from netloop.analysis.quantities import parse_quantity
 
-            number = parse_value(_number_text(value, where, key))
+            try:
+                number = parse_quantity(_as_text(value, where, key), "hz")
+            except PlanError as exc:
+                raise PlanError(f"{where}: {key}: {exc}") from exc
             kwargs[key] = number
             kwargs[key.replace("_hz", "_given")] = True
     try:

@@ -74,6 +74,8 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
     [
         ('[axes]\ncolour = ["red"]\n', "colour", "unknown setting"),
         ('require = ["pm >> 60"]\n', "require", "cannot read requirement"),
+        ('require = ["fc >= 100M"]\n', "require", "write 100meg or 100MHz for mega"),
+        ('[sweep]\nfmax_hz = "100M"\n', "fmax_hz", "write 100meg or 100MHz for mega"),
         ('method = "guess"\n', "method", "method must be one of"),
         ('[axes]\ntemp = ["hot"]\n', "temp", "must be a number"),
         ('[axes]\nparam = ["1p"]\n', "param", "needs a name"),
@@ -172,3 +174,10 @@ def test_toml_cut_short_names_its_last_line(tmp_path):
     plan.write_text('netlist = "x.cir"\nat = [\n')
     with pytest.raises(PlanError, match=r"plan\.toml:2: not valid TOML"):
         load_plan(plan)
+
+
+def test_plan_values_with_units_mean_what_an_engineer_means(tmp_path):
+    """A plan's requirement and sweep limits read 100MHz as 1e8 Hz and 10mHz as 0.01 Hz (SI), as the command line does."""
+    plan = load_plan(_plan(tmp_path, 'require = ["fc >= 100MHz", "dm >= 1ns"]\n[sweep]\nfmin_hz = "10mHz"\nfmax_hz = "2.5GHz"\n'))
+    assert [r.threshold for r in plan.requirements] == [100e6, 1e-9]
+    assert (plan.sweep.fmin_hz, plan.sweep.fmax_hz) == (0.01, 2.5e9)

@@ -169,3 +169,22 @@ def test_automatic_break_nodes_match_loop_discovery_in_one_process(tmp_path, sch
     assert [r["at"] for r in run.records] == [x.breaks.node for x in ref]
     assert [r["loop"]["margins"]["phase_margin_deg"] for r in run.records] == [x.analysis.margins.phase_margin_deg for x in ref]
     assert all(r["corner"] == "ff" and r["loop"]["label"] == "ff" for r in run.records)
+
+
+def test_a_corner_swept_below_its_crossover_is_inconclusive_everywhere(tmp_path, scheduler, capsys):
+    """A plan whose sweep stops at 1 MHz, below the buffer's 44.7 MHz crossover (check's own result at tt), gives
+    inconclusive corners: exit status 3, the self-check and what to try below the table, a JUnit failure of type
+    "inconclusive", and no "pass" anywhere."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{MILLER}"\nat = "out"\n[sweep]\nfmax_hz = "1meg"\n[axes]\ntemp = [27]\n')
+    out, junit, table = tmp_path / "r.jsonl", tmp_path / "j.xml", tmp_path / "t.csv"
+    rc = main(["corners", str(plan), "--cluster", scheduler, "--out", str(out), "--junit", str(junit), "--csv", str(table)])
+    text = capsys.readouterr().out
+    assert rc == 3
+    row = text.splitlines()[2]
+    assert row.startswith("27C") and "inconclusive" in row and "nyquist-data" in row and " pass" not in row
+    assert "1 corner: 0 pass, 0 fail a requirement, 0 unstable, 1 inconclusive (no verdict), 0 error (not measured)" in text
+    assert "27C: no verdict: the Nyquist count is doubtful" in text and "try: let the sweep run higher" in text
+    case = ET.parse(junit).getroot().find("testsuite/testcase")
+    assert case.find("failure").get("type") == "inconclusive" and case.find("error") is None
+    assert table.read_text().splitlines()[1].split(",")[2] == "inconclusive"

@@ -1,0 +1,120 @@
+"""Loops at a designer's level: 0 V sources join nodes, mirror inputs and pair tails are looked through, no loop is lost."""
+
+from __future__ import annotations
+
+import networkx as nx
+
+from netloop.graph import flatten
+from netloop.graph.cycles import bounded_cycles, strong_components
+from netloop.graph.loops import find_loops
+from netloop.netlist import parse_text
+
+MODELS = ".model nch nmos (level=1 vto=0.5 kp=100u)\n.model pch pmos (level=1 vto=-0.5 kp=40u)\n"
+
+
+def _groups(text: str):
+    return find_loops(flatten(parse_text(text))).groups
+
+
+# Two stages in a ring, the second a five-transistor pair whose mirror input is d1 and whose tail is t:
+# x -> (M1 gate, M2 drain) ... By construction the signal reaches y from x by two routes inside the pair
+# (x -M1-> d1 -M4-> y through the mirror, x -M1-> t -M2-> y through the tail), and y returns to x through
+# the transconductor G1: one loop for a designer, four elementary cycles of the transistor-level graph.
+PAIR_RING = """pair in a ring (invented)
+Vdd vdd 0 3
+Vr r 0 1.5
+M1 d1 x t 0 nch w=10u l=1u
+M2 y r t 0 nch w=10u l=1u
+M3 d1 d1 vdd vdd pch w=10u l=1u
+M4 y d1 vdd vdd pch w=10u l=1u
+I5 t 0 20u
+G1 0 x y 0 1m
+Rx x 0 10k
+Ry y 0 100k
+""" + MODELS + ".end\n"
+
+
+def test_a_pair_with_its_mirror_is_one_step_of_one_loop():
+    """The routes through the mirror input d1 and through the tail t become one step x -> y: one loop, d1 and t looked through."""
+    # Reference: by construction (PAIR_RING): the only loop a designer names is x -> pair -> y -> G1 -> x.
+    (group,) = _groups(PAIR_RING)
+    (loop,) = group.loops
+    assert loop.nodes == ("x", "y")
+    (step,) = [s for s in loop.steps if s.source == "x"]
+    assert set(step.elements) == {"m1", "m2", "m4"} and set(step.through) == {"d1", "t"}
+    assert set(group.looked_through) == {"d1", "t"}
+    assert {c.node for c in group.candidates} == {"x", "y"}
+    assert {t[:2] for t in step.enters} == {("m2", "d"), ("m4", "d")}  # the terminals by which the step reaches y
+
+
+def test_without_looking_through_the_same_netlist_has_several_elementary_cycles():
+    """The transistor-level signal-flow graph of PAIR_RING has more elementary cycles than the one loop listed (what the collapse removes)."""
+    # Reference: networkx simple_cycles on netloop's own signal-flow multigraph (one edge per element and pin pair).
+    from netloop.graph import signal_flow_graph
+
+    g = nx.DiGraph(signal_flow_graph(flatten(parse_text(PAIR_RING))))
+    assert len(list(nx.simple_cycles(g))) >= 3
+
+
+def test_a_zero_volt_source_joins_two_nodes_and_a_diode_through_it_stays_a_diode():
+    """A 0 V current-sense source between a mirror's diode drain and its gate joins the nodes; the device is still a diode, so no
+    two-node loop appears through it, and the loop through the mirror is listed once with both nodes named as joined."""
+    # Reference: by construction: M3's gate g3 reaches its drain d3 only through Vsense (an AC short), so M3 is
+    # diode-connected and d3/g3 is the mirror's input; the ring x -> (M1) -> d3=g3 -> (M4) -> y -> G1 -> x is the only loop.
+    text = PAIR_RING.replace("M3 d1 d1 vdd vdd", "M3 d3 g3 vdd vdd").replace("M1 d1 x t 0", "M1 d3 x t 0").replace(
+        "M4 y d1 vdd vdd", "M4 y g3 vdd vdd").replace("Rx x 0 10k\n", "Rx x 0 10k\nVsense d3 g3 0\n")
+    (group,) = _groups(text)
+    assert len(group.loops) == 1
+    assert group.merged == (("d3", "g3"),) or group.merged == (("g3", "d3"),)
+    assert {"d3", "g3"} <= set(group.nodes) and "d3" not in {c.node for c in group.candidates}
+
+
+def test_a_sense_source_in_series_on_the_loop_makes_both_its_nodes_break_candidates():
+    """A 0 V source in series between a stage's output and the next stage's input: one loop; both of its nodes are candidates."""
+    # Reference: by construction: y -Vs-> y2 is a short for AC, so the ring x -> y=y2 -> x has one loop, and a break
+    # on either side of the source cuts it.
+    text = """series sense (invented)
+G1 0 y x 0 1m
+Vs y y2 0
+G2 0 x y2 0 1m
+Rx x 0 1k
+Ry y 0 1k
+.end
+"""
+    (group,) = _groups(text)
+    (loop,) = group.loops
+    assert set(loop.opened_by) == {"x", "y", "y2"}
+    assert group.merged == (("y", "y2"),)
+    assert {c.node for c in group.candidates} == {"x", "y", "y2"}
+
+
+def test_a_loop_made_only_of_mirror_inputs_is_kept():
+    """A beta-multiplier bias cell, whose loop runs through two diode-connected mirror inputs only, keeps its loop."""
+    # Reference: by construction: ng (diode M1) -> M2 -> pg (diode M4) -> M3 -> ng is the cell's self-biasing loop;
+    # looking through either node would close it on the other.
+    text = """beta multiplier (invented)
+Vdd vdd 0 3
+M1 ng ng 0 0 nch w=5u l=2u
+M2 pg ng s2 0 nch w=20u l=2u
+Rs s2 0 10k
+M3 ng pg vdd vdd pch w=20u l=2u
+M4 pg pg vdd vdd pch w=20u l=2u
+""" + MODELS + ".end\n"
+    (group,) = _groups(text)
+    assert group.loops and {"ng", "pg"} <= {n for lp in group.loops for n in lp.nodes}
+
+
+def test_components_and_cycles_follow_the_given_order():
+    """strong_components and bounded_cycles list the same components and cycles as networkx, in the given vertex order."""
+    # Reference: networkx 3 strongly_connected_components and simple_cycles on the same graph (as sets);
+    # the order is by construction: components by first vertex, each cycle starting at its earliest vertex.
+    edges = [("a", "b"), ("b", "a"), ("b", "c"), ("c", "b"), ("c", "a"), ("d", "e"), ("e", "d"), ("a", "d")]
+    vertices = ["a", "b", "c", "d", "e"]
+    graph = {v: [b for a, b in edges if a == v] for v in vertices}
+    comps = strong_components(graph, vertices)
+    assert comps == [["a", "b", "c"], ["d", "e"]]
+    assert {frozenset(c) for c in comps} == {frozenset(c) for c in nx.strongly_connected_components(nx.DiGraph(edges))}
+    cycles = list(bounded_cycles(graph, vertices, 8))
+    assert sorted(map(sorted, cycles)) == sorted(map(sorted, nx.simple_cycles(nx.DiGraph(edges))))
+    assert all(c[0] == min(c, key=vertices.index) for c in cycles)
+    assert list(bounded_cycles(graph, vertices, 8)) == cycles

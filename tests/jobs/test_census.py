@@ -1,0 +1,139 @@
+"""The loop census: coarse figures of a sampled T, the choice of each group's break, and the same choices under any hash seed."""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from netloop.graph import flatten
+from netloop.graph.loops import find_loops
+from netloop.jobs.census import CoarseBreak, choose, coarse_figures
+from netloop.netlist import parse_text
+
+ROOT = Path(__file__).resolve().parent.parent.parent
+
+# Three stages in a ring, each with 1k || 1n to ground: every node is on the one loop (by construction).
+RING = """three-stage ring (invented)
+G1 0 b a 0 2m
+G2 0 c b 0 2m
+G3 a 0 c 0 2m
+Ra a 0 1k
+Ca a 0 1n
+Rb b 0 1k
+Cb b 0 1n
+Rc c 0 1k
+Cc c 0 1n
+.end
+"""
+
+
+def _group():
+    (group,) = find_loops(flatten(parse_text(RING))).groups
+    # every candidate as the probe's split states it: opens the loop (as netloop.jobs.discover.probe_splits would)
+    return replace(group, candidates=tuple(replace(c, split_checked=True, opened=(1,), left_closed=()) for c in group.candidates))
+
+
+def test_coarse_figures_of_a_known_return_ratio():
+    """DC gain, peak, the 0 dB crossing and the top of the sweep of T = 10 / (1 + s/w)^2 match the closed form."""
+    # Reference: closed form. |T| = 10 / (1 + (f/f0)^2) crosses 1 at f = f0 * sqrt(10 - 1) = 3 f0.
+    f = np.logspace(-2, 12, 43)
+    f0 = 1e3
+    t = 10.0 / (1 + 1j * f / f0) ** 2
+    c = coarse_figures("x", f, t)
+    assert c.dc_db == pytest.approx(20.0, abs=1e-6) and c.peak_db == pytest.approx(20.0, abs=1e-6)
+    assert c.unity_hz == pytest.approx(3 * f0, rel=0.05)  # interpolated between samples a third of a decade apart
+    assert c.top_db == pytest.approx(20 - 40 * 9, abs=0.01) and c.falls and c.can_ring and not c.negligible
+
+
+def test_a_break_where_t_is_about_0_or_does_not_fall_is_passed_over():
+    """The best-ranked candidate measuring T about 0, and the next whose T stays flat at the top, give way to the third."""
+    # Reference: by construction: the coarse figures are given; the rule is netloop.jobs.census's module docstring.
+    group = _group()
+    a, b, c = (x.node for x in group.candidates)
+    coarse = (CoarseBreak(a, -200.0, -190.0, 1.0, None, -300.0), CoarseBreak(b, 20.0, 20.0, 1.0, 3e3, -15.0),
+              CoarseBreak(c, 20.0, 20.0, 1.0, 3e3, -200.0))
+    gc = choose(group, coarse)
+    assert gc.chosen == c and gc.group.best.node == c and gc.group.label == f"loop 1 ({c})"
+    assert [p.split(" (")[0] for p in gc.passed_over] == [a, b]
+    assert "T is about 0" in gc.passed_over[0] and "does not fall" in gc.passed_over[1]
+    assert gc.can_ring is True and "0 dB near 3 kHz" in gc.why
+
+
+def test_a_break_that_can_ring_is_preferred_to_a_minor_loop():
+    """When |T| exceeds 0 dB at some break, a break where |T| stays below 1 is passed over as a minor loop."""
+    # Reference: by construction (as above).
+    group = _group()
+    a, b, _ = (x.node for x in group.candidates)
+    gc = choose(group, (CoarseBreak(a, -8.0, -6.0, 1.0, None, -200.0), CoarseBreak(b, 10.0, 10.0, 1.0, 3e7, -200.0)))
+    assert gc.chosen == b and "a minor loop" in gc.passed_over[0]
+
+
+def test_a_group_measuring_nothing_anywhere_has_no_break():
+    """When every candidate measures T about 0, no break is chosen and the reason says so (check reports it inconclusive)."""
+    # Reference: by construction (as above).
+    group = _group()
+    coarse = tuple(CoarseBreak(x.node, -250.0, -240.0, 1.0, None, -300.0) for x in group.candidates)
+    gc = choose(group, coarse)
+    assert gc.chosen is None and gc.why.startswith("every break of this group measures T about 0") and gc.can_ring is None
+
+
+@pytest.mark.ngspice
+def test_coarse_sweep_of_a_linear_ring_matches_its_closed_form(tmp_path):
+    """The census's coarse T of the three-stage ring at each node equals the closed form (each stage 2 / (1 + s tau))."""
+    from netloop.jobs.discover import take_census
+
+    census = take_census(RING)
+    (gc,) = census.groups
+    # Reference: closed form. Each stage has gm R = 2 (G1, G2 non-inverting, G3 inverting), so T(0) = 8 (negative feedback),
+    # |T| = 8 / (1 + (f/fp)^3) with fp = 1/(2 pi 1k 1n) = 159 kHz; |T| = 1 at f = fp sqrt(8^(2/3) - 1) = fp sqrt(3).
+    fp = 1 / (2 * np.pi * 1e3 * 1e-9)
+    for c in gc.coarse:
+        assert c.dc_db == pytest.approx(20 * np.log10(8), abs=1e-3)
+        assert c.unity_hz == pytest.approx(fp * np.sqrt(3), rel=0.15)
+    assert gc.chosen is not None and gc.can_ring
+
+
+CAPPED = "every stage feeding every other (invented)\n" + "".join(
+    f"G{i}_{j} 0 n{j} n{i} 0 1m\n" for i in range(7) for j in range(7) if i != j) + "".join(f"R{i} n{i} 0 1k\n" for i in range(7)) + ".end\n"
+
+_CHOICES = r"""
+import json, sys
+from netloop.jobs.discover import take_census
+from netloop.cli.loops_cmd import census_document
+out = {}
+for path, sweep, bounds in json.loads(sys.argv[1]):
+    out[path] = census_document(take_census(path, sweep=sweep, **bounds))
+print(json.dumps(out, sort_keys=True))
+"""
+
+
+@pytest.mark.ngspice
+def test_every_choice_is_the_same_under_five_hash_seeds():
+    """Groups, labels, loops, candidate order, the sides of each split, the coarse figures and the chosen break are identical
+    in five processes with different PYTHONHASHSEED (set and dict order of names never decide)."""
+    # Reference: by construction: the same netlist must give the same census in every process.
+    benches = ROOT / "circuits" / "benches"
+    jobs = [(str(p), False, {}) for p in sorted(benches.glob("*.cir"))]
+    jobs += [(str(p), False, {}) for p in (ROOT / "circuits" / "hier" / "top.cir", ROOT / "circuits" / "fd_amp_cmfb.cir")]
+    jobs += [(str(benches / "bandgap_reg.cir"), True, {}), (str(benches / "fd_cap_amp.cir"), True, {})]
+    # A group with more loops than listed (every stage of 7 feeding every other, 20 loops kept): which 20 are listed, and so
+    # the candidates' order, followed networkx's set order before netloop enumerated cycles itself.
+    jobs += [(CAPPED, False, {"max_loops": 20})]
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    runs = [subprocess.Popen([sys.executable, "-c", _CHOICES, json.dumps(jobs)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                             text=True, env={**env, "PYTHONHASHSEED": str(seed)}) for seed in (0, 1, 2, 3, 4)]
+    outs = []
+    for run in runs:
+        out, err = run.communicate(timeout=300)
+        assert run.returncode == 0, err[-2000:]
+        outs.append(out)
+    docs = [json.loads(o) for o in outs]
+    assert all(d == docs[0] for d in docs[1:])
+    assert docs[0][str(benches / "bandgap_reg.cir")]["groups"][0]["coarse"]  # the swept ones were swept
