@@ -67,8 +67,9 @@ def data_checks(freq_hz: np.ndarray, gain_db: np.ndarray) -> tuple[Check, ...]:
         falls = Check(
             "falls-at-top",
             False,
-            f"|T| is still {top:.4g} dB at the top of the sweep ({freq_hz[-1]:.4g} Hz), not below {TOP_LIMIT_DB:g} dB: a path around "
-            "the probe (an element that bridges the split, left on the side where it closes the loop), or loop gain beyond the sweep",
+            f"the sweep ends at {freq_hz[-1]:.4g} Hz with |T| still {top:.4g} dB, not below {TOP_LIMIT_DB:g} dB: the loop has gain "
+            "beyond the sweep, or a path around the probe keeps |T| from falling (an element that bridges the split, left on the "
+            "side where it closes the loop)",
             "let the sweep run higher (drop --fmax, or raise it), check the split (a capacitor or resistor from the node to "
             "another node of the loop belongs with the stage it wraps), or break the loop at another node",
         )

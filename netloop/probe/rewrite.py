@@ -76,7 +76,7 @@ def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tupl
     other instances of the same subcircuit stay untouched. ``pin`` = (node, new node) renames that
     pin of the innermost definition: the net outside the instance then meets the new node.
     """
-    return _rewrite_scope(statements, scope, lambda body: _split_body(body, moves, probe), taken, "broken_in")
+    return _rewrite_scope(statements, scope, lambda body: _split_body(body, moves, probe), taken, "broken_in", pin)
 
 
 def replace_elements(statements: tuple[Statement, ...], scope: Scope, elements: Mapping[str, Element], taken: set[str]) -> Rewrite:
@@ -93,8 +93,9 @@ def replace_elements(statements: tuple[Statement, ...], scope: Scope, elements: 
 
 
 def _rewrite_scope(statements: tuple[Statement, ...], scope: Scope, rebody: Callable[[tuple[Statement, ...]], tuple[Statement, ...]],
-                   taken: set[str], tag: str) -> Rewrite:
-    """``rebody`` applied to the body of ``scope``: the top-level statements, or a copy of each definition on an instance's path."""
+                   taken: set[str], tag: str, pin: tuple[str, str] | None = None) -> Rewrite:
+    """``rebody`` applied to the body of ``scope``: the top-level statements, or a copy of each definition on an instance's path
+    (``pin`` = (old, new) renames one pin of the innermost copy)."""
     if not scope.path:
         return Rewrite(rebody(statements), ())
     defs = scope.definitions
