@@ -10,7 +10,8 @@ corners   corner plans run as a regression on Dask, results journalled line by l
 cli       the ``netloop`` command, a thin shell over this API
 
 The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
-``measure_all_loops`` (every loop group), ``compare`` (several breaks in one deck),
+``check_loops`` (every loop group on its own, from the census ``take_census``; ``measure_all_loops``
+gives only their results), ``compare`` (several breaks in one deck),
 ``run_plan`` (a corner plan from ``load_plan``), ``sensitivities`` (which values set a loop's margins,
 and the value of one that meets a requirement).
 Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
@@ -39,6 +40,7 @@ _EXPORTS = {
     "Sweep": "netloop.jobs.measure",
     "UnknownNodeError": "netloop.errors",
     "analyse": "netloop.analysis",
+    "check_loops": "netloop.jobs.discover",
     "break_loop": "netloop.probe",
     "Comparison": "netloop.jobs.compare",
     "compare": "netloop.jobs.compare",
@@ -53,6 +55,7 @@ _EXPORTS = {
     "parse_text": "netloop.netlist",
     "run_plan": "netloop.jobs.corners",
     "SensitivityRun": "netloop.jobs.sensitivity",
+    "take_census": "netloop.jobs.discover",
     "sensitivities": "netloop.jobs.sensitivity",
     "write_netlist": "netloop.netlist",
 }
