@@ -14,7 +14,7 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.graph.split_effects import NodeSplit, apply_splits
-from netloop.jobs.census import COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
+from netloop.jobs.census import COARSE_BREAKS, LARGE_COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
 from netloop.jobs.loop_result import LoopResult, Verdict, combined_verdict
 from netloop.jobs.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
@@ -23,6 +23,7 @@ from netloop.probe.breaking import locate_split
 from netloop.probe.scope import Scope, child_scope, elements_of
 from netloop.probe.sides import ac_ground_nodes
 from netloop.sim import Simulator
+from netloop.sim.split import SPLIT_MIN_ELEMENTS
 
 __all__ = [
     "DEFAULT_SPLIT_CHECKS",
@@ -148,6 +149,8 @@ def _census(parsed: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, swee
     found = probe_splits(parsed, circuit, found, checks=max(split_checks, 1) if sweep else split_checks, driver=driver)
     own = sweep and simulator is None and bool(found.groups)
     sim = own_simulator(None, parsed, 2, keep_decks) if own else simulator
+    if coarse_breaks == COARSE_BREAKS and len(circuit) >= SPLIT_MIN_ELEMENTS:
+        coarse_breaks = LARGE_COARSE_BREAKS  # on a large netlist every extra AC run costs a whole operating point
     try:
         groups = []
         for g in found.groups:
