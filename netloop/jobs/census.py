@@ -101,7 +101,7 @@ class GroupCensus:
 
     group: LoopGroup  # candidates re-ranked: the chosen break is ``group.best``
     coarse: tuple[CoarseBreak, ...]  # the candidates measured (or tried), in their rank order before the choice
-    chosen: str | None  # the break node; None when no candidate can be broken
+    chosen: str | None  # the name broken (the candidate's break_name); None when no candidate can be broken
     why: str  # one sentence: why this break, or why none
     passed_over: tuple[str, ...] = ()  # "node (reason)" for better-ranked candidates the coarse sweep ruled out
     passed_over_briefly: tuple[str, ...] = ()  # "node: a few words" for the same candidates
@@ -171,7 +171,7 @@ def coarse_group(parsed: Netlist, group: LoopGroup, simulator: Simulator, *, met
     placed: list[tuple[str, ProbedNetlist]] = []
     for c in chosen:
         try:
-            q = break_loop(current, c.node, driver=",".join(c.driver_side))
+            q = break_loop(current, c.break_name, driver=",".join(c.driver_side))
         except NetloopError as exc:
             out[c.node] = CoarseBreak(c.node, error=str(exc), refused=True)
             continue
@@ -290,4 +290,4 @@ def choose(group: LoopGroup, coarse: Sequence[CoarseBreak], swept: bool = True) 
         why += " (no candidate's T falls well below 1 at the top of the sweep)"
     order = [pick] + [c for c in group.candidates if c is not pick]
     regrouped = replace(group, candidates=tuple(replace(c, rank=r) for r, c in enumerate(order, 1)))
-    return GroupCensus(regrouped, tuple(coarse), pick.node, why, passed_over, briefly)
+    return GroupCensus(regrouped, tuple(coarse), pick.break_name, why, passed_over, briefly)
