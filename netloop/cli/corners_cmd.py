@@ -51,6 +51,9 @@ def run(args: argparse.Namespace) -> int:
         print(corner_records.corner_table(result.records))
         print()
         print(corner_records.counts_line(result.records))
+        loads = corner_records.loads_line(result.records)
+        if loads:
+            print(loads)
         for r in corner_records.worst_first(result.records):
             if corner_records.verdict(r) in ("error", "inconclusive"):
                 at = f" at {r['at']}" if len({x["at"] for x in result.records}) > 1 else ""
