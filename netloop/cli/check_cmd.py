@@ -80,6 +80,22 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio as CSV")
     parser.add_argument("--plot", metavar="FILE", help="write Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
     parser.add_argument("--report", metavar="FILE", help="write a self-contained HTML report")
+    parser.add_argument("--seed", type=seed_number, metavar="N",
+                        help="ngspice's random seed: the netlist's agauss/gauss values (a process's mismatch models) are drawn as for "
+                             "the sample with seed N of 'netloop yield' (netloop's copy of the netlist starts with .option seed=N)")
+
+
+def seed_number(text: str) -> int:
+    """An argparse type: ngspice's random seed, a whole number from 1 to 2**31 - 1."""
+    from netloop.jobs.statistics.plan import MAX_SEED
+
+    try:
+        n = int(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from exc
+    if not 1 <= n <= MAX_SEED:
+        raise argparse.ArgumentTypeError(f"a seed is from 1 to {MAX_SEED}, got {n}")
+    return n
 
 
 def sweep_from(args: argparse.Namespace):
@@ -203,17 +219,25 @@ def run(args: argparse.Namespace) -> int:
         keep_decks=args.keep_decks,
         processes=args.processes,
     )
+    source = args.netlist if args.seed is None else seeded(args.netlist, args.seed)
     if args.at_pair:
-        return run_pair(args, load_netlist(args.netlist), common)
+        return run_pair(args, load_netlist(source), common)
     if not args.at:
-        return run_groups(args, load_netlist(args.netlist), common)
-    results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
+        return run_groups(args, load_netlist(source), common)
+    results = [measure(source, args.at, **common)]  # measure reads the file while ngspice starts
     if args.json:  # the result first: a file that cannot be written afterwards loses nothing
         print(json.dumps(report.to_document(results[0]), indent=2, allow_nan=False))
     else:
         print(report.format_text(results[0]))
     write_outputs(args, results)
     return exit_status(results[0].verdict)
+
+
+def seeded(path: str, seed: int):
+    """The netlist at ``path`` as a sample with ``seed`` reads it (netloop.jobs.statistics.seeded_netlist)."""
+    from netloop.jobs.statistics import seeded_netlist
+
+    return seeded_netlist(path, seed)
 
 
 def unmeasured_text(group) -> str:

@@ -11,7 +11,7 @@ from netloop.jobs.corners.plan import Setting
 from netloop.errors import NetlistError, NetloopError
 from netloop.netlist import Directive, Element, Netlist, SourceLocation, parse_file, parse_text
 
-__all__ = ["CornerApplyError", "apply_settings", "include_lines", "lib_lines", "param_text"]
+__all__ = ["CornerApplyError", "apply_settings", "include_lines", "lib_lines", "param_text", "seed_line"]
 
 _LIB_LINE = re.compile(r"^(?P<head>\s*\.lib\s+(?:\"[^\"]*\"|'[^']*'|\S+)\s+)(?P<section>[^\s$;]+)", re.IGNORECASE)
 _PATH = re.compile(r"^\s*\.(?:include|inc|lib)\s+(?:\"(?P<dq>[^\"]*)\"|'(?P<sq>[^']*)'|(?P<bare>[^\s\"']+))", re.IGNORECASE)
@@ -179,6 +179,13 @@ def _set_temp(statements: tuple, celsius: str, where: SourceLocation) -> tuple:
     return tuple(out)
 
 
+def seed_line(seed: str, where: SourceLocation) -> Directive:
+    """The line that gives ngspice its random seed, ``.option seed=N``: the ``agauss``/``gauss``/``unif`` values of
+    the circuit (a process's mismatch models) are drawn from it when ngspice reads the circuit. It goes first,
+    because ngspice takes the first seed it reads (a netlist's own ``.option seed`` after it is overruled)."""
+    return Directive(".option", f".option seed={seed}", where)
+
+
 def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, origin: SourceLocation | None = None) -> Netlist:
     """The netlist with the settings applied (the ``netlist`` setting is the caller's business: pass that file).
 
@@ -186,7 +193,8 @@ def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, ori
     line, and the corner word in its include paths, replaced (``process`` settings arrive expanded into these).
     ``.param NAME``: every top-level definition of NAME gets the value. ``supply`` NAME: the DC value
     of the top-level voltage source NAME. ``temp``: any ``.temp`` (and ``temp=`` option) is dropped
-    and ``.temp VALUE`` added. CornerApplyError when the netlist has no such line, parameter or source.
+    and ``.temp VALUE`` added. ``seed`` (a statistical sample's): ``.option seed=VALUE`` first (`seed_line`).
+    CornerApplyError when the netlist has no such line, parameter or source.
     """
     base = parse_file(netlist) if isinstance(netlist, str) else netlist
     libs = tuple(s for s in settings if s.kind == "lib")
@@ -205,6 +213,8 @@ def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, ori
                 raise CornerApplyError(f"{nl.source} has no top-level voltage source {s.target!r}", s)
         elif s.kind == "temp":
             statements = _set_temp(statements, s.value, where)
+        elif s.kind == "seed":
+            statements = (seed_line(s.value, where), *statements)
     if statements is nl.statements:
         return nl
     return replace(nl, statements=statements, _index={})

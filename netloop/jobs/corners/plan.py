@@ -12,7 +12,7 @@ from netloop.analysis.requirements import Requirement, parse_requirements
 from netloop.errors import PlanError
 from netloop.jobs.measure import METHODS, Sweep
 
-__all__ = ["AUTO", "IN_PLACE", "KINDS", "Axis", "CornerSpec", "Plan", "ProcessCorner", "Setting", "load_plan", "parse_plan"]
+__all__ = ["AUTO", "IN_PLACE", "KINDS", "Axis", "CornerSpec", "Plan", "ProcessCorner", "Setting", "load_plan", "parse_plan", "read_plan_text"]
 
 AUTO = "auto"
 KINDS = ("netlist", "process", "lib", "include", "temp", "param", "supply")  # what a setting can change, in naming order
@@ -29,7 +29,9 @@ class Setting:
     kind     "netlist" (value: a path), "process" (value: the name of a [process.NAME] table),
              "lib" (value: a section; target: the .lib line, by its file or its section as written, "" for the only one),
              "include" (target: the corner word as the netlist's include paths write it; value: the word that replaces it),
-             "temp" (value: degrees C as text), "param" (target: the .param name), "supply" (target: a V source)
+             "temp" (value: degrees C as text), "param" (target: the .param name), "supply" (target: a V source),
+             "seed" (value: ngspice's random seed, a whole number: a statistical sample's, netloop.jobs.statistics;
+             never written in a plan)
     """
 
     kind: str
@@ -47,6 +49,8 @@ class Setting:
             return f"{self.value}C"
         if self.kind == "supply":
             return f"{self.target}={self.value}V"
+        if self.kind == "seed":
+            return f"seed={self.value}"
         return f"{self.target}={self.value}"
 
 
@@ -235,8 +239,11 @@ def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many:
     return out
 
 
-def parse_plan(text: str, path: str = "<string>") -> Plan:
-    """Read plan text; relative paths resolve against the plan's folder. PlanError with file:line otherwise."""
+def parse_plan(text: str, path: str = "<string>", *, extra: frozenset[str] = frozenset()) -> Plan:
+    """Read plan text; relative paths resolve against the plan's folder. PlanError with file:line otherwise.
+
+    ``extra``: top-level keys another job reads from the same file (``samples`` for netloop.jobs.statistics); the
+    Plan leaves them out."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -251,7 +258,10 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
         where = f"{path}:{line}" if line else path
         raise PlanError(f"{where}: not valid TOML: {message}{column}") from exc
     for key in data:
-        if key not in _TOP_KEYS:
+        if key == "samples" and key not in extra:
+            raise PlanError(f"{_where(path, text, key)}: [samples] makes this a statistical plan: run it with "
+                            "'netloop yield PLAN' (netloop corners runs plans without [samples])")
+        if key not in _TOP_KEYS | extra:
             raise PlanError(f"{_where(path, text, key)}: unknown key {key!r}; expected one of {', '.join(sorted(_TOP_KEYS))}")
     base = Path(path).parent if path != "<string>" else Path.cwd()
     if "netlist" not in data or not isinstance(data["netlist"], str):
@@ -358,8 +368,8 @@ def _sweep(raw: object, path: str, text: str) -> Sweep:
         raise PlanError(f"{_where(path, text, 'sweep')}: {exc}") from exc
 
 
-def load_plan(path: str | Path) -> Plan:
-    """Read a plan file; PlanError (file:line) when it cannot be read."""
+def read_plan_text(path: str | Path) -> tuple[str, str]:
+    """(text, absolute path) of a plan file; PlanError when it cannot be read."""
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
@@ -367,4 +377,9 @@ def load_plan(path: str | Path) -> Plan:
         raise PlanError(f"cannot read plan {str(path)!r}: {exc.strerror or exc}") from exc
     except UnicodeDecodeError as exc:
         raise PlanError(f"cannot read plan {str(path)!r}: not UTF-8 text (byte {exc.start}); a plan is a TOML file") from exc
-    return parse_plan(text, str(p.resolve()))
+    return text, str(p.resolve())
+
+
+def load_plan(path: str | Path) -> Plan:
+    """Read a plan file; PlanError (file:line) when it cannot be read."""
+    return parse_plan(*read_plan_text(path))

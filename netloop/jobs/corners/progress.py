@@ -12,8 +12,9 @@ __all__ = ["Progress"]
 class Progress:
     """Redraws one line with a carriage return; silent unless ``enabled``."""
 
-    def __init__(self, total: int, *, enabled: bool, stream: TextIO | None = None, width: int = 30):
+    def __init__(self, total: int, *, enabled: bool, stream: TextIO | None = None, width: int = 30, noun: str = "corners"):
         self.total = total
+        self.noun = noun  # what is counted: "corners", "samples"
         self.enabled = enabled
         self.stream = stream if stream is not None else sys.stderr
         self.width = width
@@ -40,8 +41,8 @@ class Progress:
         elapsed = time.monotonic() - self.started
         left = elapsed / self.done * (self.total - self.done) if self.done else None
         eta = f", about {left:.0f} s left" if left is not None and self.done < self.total else ""
-        shared = f", {self.loads} loads ({self.shared} corners on a loaded circuit)" if self.loads or self.shared else ""
-        line = f"\r[{'#' * filled}{'.' * (self.width - filled)}] {self.done}/{self.total} corners, {self.bad} failed{shared}, {elapsed:.0f} s{eta}"
+        shared = f", {self.loads} loads ({self.shared} {self.noun} on a loaded circuit)" if self.loads or self.shared else ""
+        line = f"\r[{'#' * filled}{'.' * (self.width - filled)}] {self.done}/{self.total} {self.noun}, {self.bad} failed{shared}, {elapsed:.0f} s{eta}"
         self.stream.write(line.ljust(80))
         self.stream.flush()
 

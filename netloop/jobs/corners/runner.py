@@ -19,7 +19,8 @@ from netloop.jobs.corners.progress import Progress
 from netloop.jobs.corners.worker import TaskOptions, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
 
-__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "share_out"]
+__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "run_tasks",
+           "share_out"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -242,14 +243,21 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     plan) as soon as it finishes. An existing file is continued with ``resume`` (corners already in it are
     not run again), replaced with ``force``, and otherwise refused with an error saying so.
     """
-    tasks = check_plan(plan)
+    return run_tasks(plan, check_plan(plan), jobs=jobs, cluster=cluster, out=out, resume=resume, force=force, progress=progress)
+
+
+def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, cluster: str | None = None,
+              out: str | Path | None = None, resume: bool = False, force: bool = False, progress: bool = False,
+              noun: str = "corners") -> CornerRun:
+    """Run the tasks (checked: `check_plan`, or another job's tasks built from its corners) not yet in the results
+    file, as `run_plan` does; ``noun`` names them on the progress bar."""
     path = Path(out) if out is not None else default_results_path(plan.path)
     cache: dict[str, str] = {}
     inputs = {t.key: fingerprints(t.inputs, cache) for t in tasks}
     journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force, inputs=inputs)
     by_key: dict[str, tuple[dict, ...]] = {k: tuple(v) for k, v in journal.done.items()}
     pending = [t for t in tasks if t.key not in by_key]
-    bar = Progress(len(tasks), enabled=progress)
+    bar = Progress(len(tasks), enabled=progress, noun=noun)
     bar.done = len(tasks) - len(pending)
     bar.bad = sum(1 for t in tasks if t.key in by_key and any(r["outcome"] != "pass" for r in by_key[t.key]))
     workers = 0

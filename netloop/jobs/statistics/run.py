@@ -1,0 +1,76 @@
+"""Run a statistical plan's samples on Dask as corner tasks (journalled, resumable), and rerun one sample alone."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+from netloop.errors import NetloopError
+from netloop.jobs.corners.apply import apply_settings
+from netloop.jobs.corners.plan import AUTO
+from netloop.jobs.corners.runner import CornerRun, run_tasks
+from netloop.jobs.loop_result import LoopResult
+from netloop.jobs.statistics.plan import SamplePlan
+from netloop.jobs.statistics.samples import SEPARATOR, sample_tasks
+from netloop.jobs.statistics.summary import YieldStatistics, summarise
+
+__all__ = ["SampleRun", "rerun_sample", "run_samples"]
+
+
+@dataclass(frozen=True, slots=True)
+class SampleRun:
+    """A statistical plan run: its records and bookkeeping (as a corner run's), and the statistics they show."""
+
+    plan: SamplePlan
+    run: CornerRun  # records in plan order (corner by corner, samples in seed order), results file, ran, skipped
+    statistics: YieldStatistics
+
+    @property
+    def verdict(self) -> str:
+        """The statistics' verdict (YieldStatistics.verdict)."""
+        return self.statistics.verdict
+
+    @property
+    def passed(self) -> bool:
+        return self.verdict == "pass"
+
+
+def run_samples(splan: SamplePlan, *, workers: int | None = None, cluster: str | None = None, out: str | Path | None = None,
+                resume: bool = False, force: bool = False, progress: bool = False, target: float | None = None,
+                confidence: float | None = None) -> SampleRun:
+    """Measure every sample at every corner of the plan (those not yet in the results file), then the statistics.
+
+    Each sample is a corner task with its seed (netloop.jobs.statistics.samples) run as corner runs are
+    (netloop.jobs.corners.run_tasks): on Dask workers with their own ngspice, each record appended to
+    the results file (default PLAN.results.jsonl) the moment it finishes, ``resume`` skipping the samples
+    it already holds. ``target`` and ``confidence`` (fractions) override the plan's."""
+    tasks = sample_tasks(splan)
+    run = run_tasks(splan.plan, tasks, jobs=workers, cluster=cluster, out=out, resume=resume, force=force, progress=progress,
+                    noun="samples")
+    confidence = confidence if confidence is not None else splan.confidence
+    target = target if target is not None else splan.target
+    statistics = summarise(run.records, [r.text for r in splan.plan.requirements], confidence=confidence, target=target)
+    return SampleRun(splan, run, statistics)
+
+
+def rerun_sample(splan: SamplePlan, name: str, *, keep_decks: str | Path | None = None) -> tuple[LoopResult, ...]:
+    """Measure one sample (``"27C#17"``) again, alone, in this process: its corner's netlist with its seed, as the
+    workers measure it, so its T is bit for bit the one in the results file. One result per break node of the
+    plan (for ``at = "auto"``, one per loop group). NetloopError naming the samples when there is none of that name."""
+    from netloop.jobs.measure import measure
+
+    every = sample_tasks(splan)
+    tasks = [t for t in every if t.corner.name == name.strip()]
+    if not tasks:
+        raise NetloopError(f"the plan has no sample named {name!r}; samples are named CORNER{SEPARATOR}N with N from 1 to "
+                           f"{splan.count}, as the tables show (such as {every[0].corner.name!r})")
+    plan = splan.plan
+    options = dict(driver=plan.driver, method=plan.method, sweep=plan.sweep, open_loop_rhp_poles=plan.open_loop_rhp_poles,
+                   requirements=[r.text for r in plan.requirements], timeout_s=plan.timeout_s, keep_decks=keep_decks)
+    netlist = apply_settings(tasks[0].corner.netlist, tasks[0].corner.settings)
+    if tasks[0].at == AUTO:
+        from netloop.jobs.discover import measure_all_loops
+
+        results, _notes = measure_all_loops(netlist, **options)
+        return tuple(results)
+    return tuple(measure(netlist, t.at, label=name, **options) for t in tasks)
