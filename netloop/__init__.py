@@ -7,12 +7,14 @@ sim       run ngspice (shared library in a worker process, or batch mode) on AC 
 analysis  return ratio, margins, Nyquist count, peaking, closed-loop poles (numpy/scipy)
 report    text, JSON, CSV, JUnit XML, plots and HTML from results
 corners   corner plans run as a regression on Dask, results journalled line by line
+statistics  Monte Carlo samples of a corner plan: the yield of the margins with Clopper-Pearson bounds
 cli       the ``netloop`` command, a thin shell over this API
 
 The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
 ``check_loops`` (every loop group on its own, from the census ``take_census``; ``measure_all_loops``
 gives only their results), ``compare`` (several breaks in one deck),
-``run_plan`` (a corner plan from ``load_plan``), ``sensitivities`` (which values set a loop's margins,
+``run_plan`` (a corner plan from ``load_plan``), ``run_samples`` (a statistical plan from
+``load_sample_plan``: the yield of the margins), ``sensitivities`` (which values set a loop's margins,
 and the value of one that meets a requirement).
 Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
 """
@@ -48,12 +50,15 @@ _EXPORTS = {
     "find_loops": "netloop.graph",
     "flatten": "netloop.graph",
     "load_plan": "netloop.jobs.corners",
+    "load_sample_plan": "netloop.jobs.statistics",
     "measure": "netloop.jobs.measure",
     "measure_all_loops": "netloop.jobs.discover",
     "measure_pair": "netloop.jobs.measure_pair",
     "parse_file": "netloop.netlist",
     "parse_text": "netloop.netlist",
     "run_plan": "netloop.jobs.corners",
+    "run_samples": "netloop.jobs.statistics",
+    "SampleRun": "netloop.jobs.statistics",
     "SensitivityRun": "netloop.jobs.sensitivity",
     "take_census": "netloop.jobs.discover",
     "sensitivities": "netloop.jobs.sensitivity",

@@ -16,7 +16,7 @@ def test_all_is_sorted_and_pinned():
         "SimulationError", "SimulatorUnavailableError", "Sweep", "UnknownNodeError",
         "__version__", "analyse", "break_loop", "check_loops", "compare", "Comparison", "default_simulator",
         "find_loops", "flatten", "load_plan", "measure", "measure_all_loops", "measure_pair", "parse_file",
-        "parse_text", "run_plan", "SensitivityRun", "sensitivities", "take_census", "write_netlist",
+        "parse_text", "run_plan", "load_sample_plan", "run_samples", "SampleRun", "SensitivityRun", "sensitivities", "take_census", "write_netlist",
     ]
     assert netloop.__all__ == sorted(expected)
 

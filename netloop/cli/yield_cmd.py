@@ -45,8 +45,22 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--keep-decks", metavar="DIR", help="with --sample: keep the ngspice decks netloop writes in DIR")
 
 
+def _refuse_bad_outputs(args: argparse.Namespace) -> None:
+    """OutputError before any sample runs for a --csv, --plot or --report path that cannot be written."""
+    from netloop.report.files import refuse_unwritable
+
+    if args.plot:
+        from netloop.report.figure import file_format
+        from netloop.report.yield_plot import scatter_path
+
+        file_format(args.plot)
+        refuse_unwritable(args.plot, "histograms")
+        refuse_unwritable(scatter_path(args.plot), "scatter plot")
+    refuse_unwritable(args.csv, "sample table")
+    refuse_unwritable(args.report, "HTML report")
+
+
 def run(args: argparse.Namespace) -> int:
-    from netloop.cli.check_cmd import refuse_bad_outputs
     from netloop.cli.main import exit_status
     from netloop.jobs import statistics
 
@@ -57,12 +71,7 @@ def run(args: argparse.Namespace) -> int:
         from netloop.errors import NetloopError
 
         raise NetloopError("--keep-decks goes with --sample (one sample measured here); the workers of a whole run keep no decks")
-    refuse_bad_outputs(args)
-    if args.plot:
-        from netloop.report.files import refuse_unwritable
-        from netloop.report.yield_plot import scatter_path
-
-        refuse_unwritable(scatter_path(args.plot), "scatter plot")
+    _refuse_bad_outputs(args)
     progress = args.progress or sys.stderr.isatty()
     result = statistics.run_samples(splan, workers=args.workers, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force,
                                     progress=progress, target=args.target, confidence=args.confidence)

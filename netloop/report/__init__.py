@@ -13,6 +13,7 @@ labels        non-overlapping margin labels
 bode_plot     Bode plot with every margin drawn
 nyquist_plot  Nyquist plot with a compressed radius
 html          the self-contained HTML report (templates/report.html.j2)
+yield_text, yield_document, yield_plot, yield_html   a statistical run: summary, JSON and CSV, histograms and scatter, page
 
 matplotlib and jinja2 are imported only when a plot or a page is made.
 """

@@ -31,13 +31,14 @@ METHOD = "Clopper-Pearson (1934)"
 
 def percent(fraction: float | None, way: str = "round") -> str:
     """A fraction as a percentage to 0.1 %: ``way`` "down" for a lower bound and "up" for an upper bound, so that the
-    text never claims more than the bound ("99.006 %" is "99.0 %" as a lower bound); "100 %" and "0 %" only when exact."""
+    text never claims more than the bound ("99.006 %" is "99.0 %" as a lower bound); an estimate or a lower bound reads
+    "100 %" only for 100 % itself, and "0 %" only for 0."""
     if fraction is None:
         return NONE
     tenths = fraction * 1000.0
     tenths = {"down": math.floor(tenths + 1e-9), "up": math.ceil(tenths - 1e-9)}.get(way, round(tenths))
-    if tenths >= 1000 and fraction < 1.0:
-        tenths = 999  # never "100 %" for less than all
+    if tenths >= 1000 and fraction < 1.0 and way != "up":
+        tenths = 999  # an estimate or a lower bound never reads "100 %" for less than all
     if tenths <= 0 and fraction > 0.0:
         tenths = 1 if way != "down" else 0
     text = f"{tenths / 10:.1f}"
@@ -50,7 +51,7 @@ def share(fraction: float) -> str:
 
 
 def _count(n: int, one: str, many: str) -> str:
-    return f"{'no' if n == 0 else n} {one if n == 1 else many}"
+    return f"no {one}" if n == 0 else f"{n} {one if n == 1 else many}"
 
 
 def supports(y: Yield) -> str:

@@ -32,6 +32,8 @@ def inputs(tmp_path: Path) -> dict[str, str]:
     (tmp_path / "missing_netlist.toml").write_text('netlist = "missing.cir"\nat = "out"\n')
     (tmp_path / "bad_require.toml").write_text('netlist = "good.cir"\nat = "out"\nrequire = ["pm >> 5"]\n')
     (tmp_path / "ok.toml").write_text('netlist = "good.cir"\nat = "out"\n')
+    (tmp_path / "samples.toml").write_text('netlist = "good.cir"\nat = "out"\n[samples]\ncount = 2\n')
+    (tmp_path / "no_count.toml").write_text('netlist = "good.cir"\nat = "out"\n[samples]\ntarget = "99%"\n')
     return {"dir": str(tmp_path), "good": str(good), "garbage": str(garbage), "syntax": str(syntax),
             "folder": str(folder), "blocker": str(blocker)}
 
@@ -132,6 +134,24 @@ CASES = [
     pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--csv", "{dir}/nodir/c.csv"], "cannot write the corner table",
                  id="corners-csv-into-missing-folder-refused-before-running"),
     pytest.param(["corners", "{dir}/ok.toml", "--jobs", "0"], "--jobs: expected 1 or more processes", id="corners-bad-jobs"),
+    pytest.param(["corners", "{dir}/samples.toml"], "samples.toml:3: [samples] makes this a statistical plan: run it with 'netloop yield PLAN'",
+                 id="corners-plan-with-samples-names-yield"),
+    # yield
+    pytest.param(["yield", "{dir}/missing.toml"], "cannot read plan", id="yield-missing-plan-is-named"),
+    pytest.param(["yield", "{dir}/ok.toml"], "needs a [samples] table", id="yield-plan-without-samples-names-corners"),
+    pytest.param(["yield", "{dir}/no_count.toml"], "no_count.toml:3: [samples] needs count = N", id="yield-samples-without-count-gives-plan-line"),
+    pytest.param(["yield", "{dir}/unknown_node.toml"], "unknown_node.toml:1: a statistical plan needs", id="yield-corner-plan-refused"),
+    pytest.param(["yield", "{dir}/samples.toml", "--target", "99"], "argument --target: the value '99' is ambiguous: write \"99%\"",
+                 id="yield-target-without-percent-is-ambiguous"),
+    pytest.param(["yield", "{dir}/samples.toml", "--sample", "nominal#3"], "no sample named 'nominal#3'",
+                 id="yield-unknown-sample-refused-before-simulating"),
+    pytest.param(["yield", "{dir}/samples.toml", "--sample", "nominal#1", "--target", "90%"], "--target does not go with it",
+                 id="yield-sample-with-target-refused-before-simulating"),
+    pytest.param(["yield", "{dir}/samples.toml", "--keep-decks", "{folder}"], "--keep-decks goes with --sample",
+                 id="yield-keep-decks-without-sample-refused-before-simulating"),
+    pytest.param(["yield", "{dir}/samples.toml", "--workers", "1", "--out", "{dir}/r.jsonl", "--plot", "{blocker}/h.png"], "cannot write the histograms",
+                 id="yield-plot-below-a-file-refused-before-simulating"),
+    pytest.param(["check", "{good}", "--at", "out", "--seed", "0"], "argument --seed: a seed is from 1 to 2147483647", id="check-seed-zero"),
     # sensitivity
     pytest.param(["sensitivity", "{dir}/missing.cir", "--at", "out"], "missing.cir", id="sensitivity-missing-file-is-named"),
     pytest.param(["sensitivity", "{garbage}", "--at", "out"], "garbage.cir:", id="sensitivity-binary-garbage-gives-file-line"),
@@ -169,7 +189,7 @@ def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys, requ
     assert "Traceback" not in captured.err
     # only a netlist syntax error adds context below its one line: the offending line and a caret
     assert len(lines) == 1 or (len(lines) == 3 and lines[2].strip() == "^"), captured.err
-    if args[0] == "corners":  # a refused corner run starts nothing: no results file appears
+    if args[0] in ("corners", "yield"):  # a refused corner run starts nothing: no results file appears
         assert not (Path(inputs["dir"]) / "r.jsonl").exists()
     if "refused-before-simulating" in request.node.callspec.id:  # refused up front: the simulator never started
         assert simulator_starts == []

@@ -231,7 +231,7 @@ def _spread(figure: str, corner: str, at: str, samples: Sequence[SampleOutcome])
     infinite = sum(1 for v in values if v is not None and not math.isfinite(v))
     missing = sum(1 for v in values if v is None)
     n = len(finite)
-    mean = math.fsum(finite) / n if n else None
+    mean = finite[0] + math.fsum(v - finite[0] for v in finite) / n if n else None  # about the first value: equal values give it exactly
     std = math.sqrt(math.fsum((v - mean) ** 2 for v in finite) / (n - 1)) if n > 1 else None
     return Spread(figure, corner, at, n, mean, std, min(finite) if finite else None, max(finite) if finite else None,
                   infinite, missing, len(samples) - len(judged))

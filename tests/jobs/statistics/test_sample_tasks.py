@@ -1,0 +1,57 @@
+"""A statistical plan's samples: every corner once per seed, each sample's netlist starting with ngspice's seed."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from netloop.jobs.measure import measure
+from netloop.jobs.statistics import parse_sample_plan, sample_of, sample_tasks, seeded_netlist
+from netloop.netlist import write_netlist
+
+LOOP = """invented one-pole loop whose gain element is drawn by agauss
+Vin in 0 dc 0 ac 1
+G1 0 n1 in out {agauss(1e-3, 3e-4, 3)}
+R1 n1 0 1e5
+C1 n1 0 1n
+E3 out 0 n1 0 1
+.param k=1
+.end
+"""
+
+
+def _plan(tmp_path, body: str):
+    (tmp_path / "loop.cir").write_text(LOOP)
+    (tmp_path / "plan.toml").write_text(f'netlist = "loop.cir"\nat = "out"\n{body}')
+    return parse_sample_plan((tmp_path / "plan.toml").read_text(), str(tmp_path / "plan.toml"))
+
+
+def test_each_corner_gets_every_seed_and_each_sample_reads_its_seed_first(tmp_path):
+    """Two corners x three samples from seed 40: names CORNER#i, seeds 40-42 at each corner (the same die at both),
+    distinct keys, and each sample's netlist has .option seed=N as its first statement."""
+    plan = _plan(tmp_path, '[axes]\nparam.k = ["1", "2"]\n[samples]\ncount = 3\nfirst_seed = 40\n')
+    tasks = sample_tasks(plan)
+    assert [t.corner.name for t in tasks] == ["k=1#1", "k=1#2", "k=1#3", "k=2#1", "k=2#2", "k=2#3"]
+    assert [t.corner.describe()["seed"] for t in tasks] == ["40", "41", "42"] * 2
+    assert len({t.key for t in tasks}) == 6 and all(t.inputs == (str(tmp_path / "loop.cir"),) for t in tasks)
+    from netloop.jobs.corners import apply_settings
+
+    for t in tasks:
+        text = write_netlist(apply_settings(t.corner.netlist, t.corner.settings)).splitlines()
+        assert text[1] == f".option seed={t.corner.describe()['seed']}"  # first after the title line
+    assert sample_of({"corner": "k=2#3", "settings": {"seed": "42"}}) == ("k=2", 42)
+
+
+@pytest.mark.ngspice
+def test_the_samples_seed_overrules_a_seed_the_netlist_sets(tmp_path):
+    """A netlist with its own .option seed=3 measured with seed 9 gives the T of the netlist without that line with
+    seed 9, not that of seed 3: ngspice takes the first seed it reads, and the sample's comes first."""
+    plain = tmp_path / "plain.cir"
+    plain.write_text(LOOP)
+    own = tmp_path / "own.cir"
+    own.write_text(LOOP.replace(".param k=1", ".param k=1\n.option seed=3"))
+    t_own = measure(seeded_netlist(str(own), 9), "out").analysis.t
+    t_plain = measure(seeded_netlist(str(plain), 9), "out").analysis.t
+    t_three = measure(seeded_netlist(str(plain), 3), "out").analysis.t
+    assert np.array_equal(t_own, t_plain)
+    assert not np.array_equal(t_own[:5], t_three[:5])

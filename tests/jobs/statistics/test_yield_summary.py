@@ -1,0 +1,116 @@
+"""How samples enter the statistics: counted by hand on made-up records, bounds from scipy's exact binomial intervals."""
+
+from __future__ import annotations
+
+import statistics
+
+import pytest
+from scipy.stats import binomtest
+
+from netloop.jobs.statistics import EVERY, STABLE, summarise
+
+
+def record(corner: str, seed: int, outcome: str, pm: float | None = 60.0, *, met: bool = True, stable: bool = True,
+           gm: float | None = 20.0, infinite_gm: bool = False) -> dict:
+    """A results-file record of one sample as a worker writes it (only the keys the statistics read)."""
+    loop = None
+    if outcome != "error":
+        loop = {
+            "requirements": [{"text": "pm >= 45", "passed": met}],
+            "stability": {"stable": stable},
+            "checks": [{"name": "nyquist-data", "passed": outcome != "inconclusive", "detail": "Z = N + P < 0", "advice": ""}],
+            "margins": {"phase_margin_deg": pm, "gain_margin_db": gm, "unity_gain_hz": 1e6},
+            "peaking": {"peak_db": 0.5},
+            "infinite": {"margins.gain_margin_db": "+inf"} if infinite_gm else {},
+        }
+    return {"corner": f"{corner}#{seed}", "at": "out", "settings": {"seed": str(seed)}, "outcome": outcome,
+            "error": "op did not converge" if outcome == "error" else None, "loop": loop}
+
+
+def test_samples_without_a_verdict_count_against_the_yield_and_for_its_upper_bound():
+    """7 pass, 1 fails, 1 is inconclusive, 1 not measured: yield 7/10; lower bound of 7 in 10, upper bound of 9 in 10."""
+    recs = [record("tt", s, "pass") for s in range(1, 8)] + [record("tt", 8, "fail", 40.0, met=False),
+                                                             record("tt", 9, "inconclusive"), record("tt", 10, "error")]
+    y = summarise(recs, ["pm >= 45"]).yields_of("pm >= 45")[0]
+    assert (y.samples, y.passed, y.failed, y.no_verdict, y.estimate) == (10, 7, 1, 2, 0.7)
+    assert y.lower == pytest.approx(binomtest(7, 10, alternative="greater").proportion_ci(0.95, "exact").low, abs=1e-9)
+    assert y.upper == pytest.approx(binomtest(9, 10, alternative="less").proportion_ci(0.95, "exact").high, abs=1e-9)
+    assert y.interval == pytest.approx(tuple(binomtest(7, 10).proportion_ci(0.95, "exact")), abs=1e-9)
+
+
+def test_a_die_passes_only_where_it_passes_at_every_corner():
+    """Seed 1 passes at both corners, seed 2 fails at one, seed 3 is inconclusive at one: the dies' yield is 1 pass,
+    1 fail, 1 without a verdict; each corner's own yield counts its samples alone."""
+    recs = [record("cold", 1, "pass"), record("cold", 2, "pass"), record("cold", 3, "pass"),
+            record("hot", 1, "pass"), record("hot", 2, "fail", 40.0, met=False), record("hot", 3, "inconclusive")]
+    stats = summarise(recs, ["pm >= 45"])
+    cold, hot, dies = stats.yields_of("pm >= 45")
+    assert (cold.corner, cold.passed, hot.corner, hot.passed, hot.failed, hot.no_verdict) == ("cold", 3, "hot", 1, 1, 1)
+    assert (dies.corner, dies.samples, dies.passed, dies.failed, dies.no_verdict) == ("", 3, 1, 1, 1)
+    assert stats.deciding == stats.yields_of(EVERY)[-1] and stats.deciding.corner == ""
+
+
+def test_an_unstable_sample_fails_stability_and_every_requirement():
+    """A sample the Nyquist count calls unstable fails the stable yield and the samples' own verdict."""
+    stats = summarise([record("tt", 1, "fail", -5.0, met=False, stable=False), record("tt", 2, "pass")], ["pm >= 45"])
+    assert [(y.passed, y.failed) for y in (*stats.yields_of(STABLE), *stats.yields_of(EVERY))] == [(1, 1), (1, 1)]
+    assert stats.worst[0].why == "unstable"
+
+
+@pytest.mark.parametrize("passes,fails,target,verdict", [(300, 0, 0.99, "pass"), (80, 20, 0.95, "fail"), (20, 0, 0.99, "inconclusive"),
+                                                         (295, 5, 0.99, "inconclusive")])
+def test_a_target_decides_on_the_bounds(passes, fails, target, verdict):
+    """PASS when the lower bound reaches the target, FAIL when the upper bound stays below it, else INCONCLUSIVE."""
+    recs = [record("tt", s, "pass") for s in range(1, passes + 1)]
+    recs += [record("tt", passes + s, "fail", 40.0, met=False) for s in range(1, fails + 1)]
+    assert summarise(recs, ["pm >= 45"], target=target).verdict == verdict
+
+
+def test_inconclusive_samples_never_pass_a_target():
+    """300 samples of which 3 are inconclusive: the lower bound (3 counted failing) misses 99 %, and the upper bound
+    (3 counted passing) does not rule it out, so the verdict is INCONCLUSIVE, not PASS."""
+    recs = [record("tt", s, "pass") for s in range(1, 298)] + [record("tt", s, "inconclusive") for s in (298, 299, 300)]
+    stats = summarise(recs, ["pm >= 45"], target=0.99)
+    assert stats.verdict == "inconclusive" and stats.deciding.no_verdict == 3
+
+
+@pytest.mark.parametrize("outcomes,verdict", [(("pass", "pass"), "pass"), (("pass", "inconclusive"), "inconclusive"),
+                                              (("inconclusive", "fail"), "fail"), (("pass", "error"), "fail")])
+def test_without_a_target_every_sample_must_pass(outcomes, verdict):
+    """Without a target the run is judged as a corner run: any failure or unmeasured sample fails it, else any sample
+    without a verdict makes it inconclusive."""
+    recs = [record("tt", i + 1, o, 40.0 if o == "fail" else 60.0, met=o != "fail") for i, o in enumerate(outcomes)]
+    assert summarise(recs, ["pm >= 45"]).verdict == verdict
+
+
+def test_spreads_are_over_the_samples_with_a_verdict():
+    """Mean and standard deviation (n - 1) of the phase margins of the judged samples (statistics.stdev as reference);
+    the inconclusive one is left out and said so; a gain margin that does not exist or is infinite is counted apart."""
+    pms = [50.0, 52.5, 61.0, 58.25]
+    recs = [record("tt", i + 1, "pass", pm) for i, pm in enumerate(pms)]
+    recs += [record("tt", 5, "inconclusive", 10.0), record("tt", 6, "pass", 55.0, gm=None), record("tt", 7, "pass", 57.0, gm=None, infinite_gm=True)]
+    spreads = {s.figure: s for s in summarise(recs, []).spreads}
+    judged = [*pms, 55.0, 57.0]
+    pm = spreads["pm"]
+    assert (pm.count, pm.without_verdict, pm.min, pm.max) == (6, 1, 50.0, 61.0)
+    assert pm.mean == pytest.approx(statistics.fmean(judged), rel=1e-15) and pm.std == pytest.approx(statistics.stdev(judged), rel=1e-12)
+    gm = spreads["gm"]
+    assert (gm.count, gm.missing, gm.infinite, gm.mean) == (4, 1, 1, 20.0)
+
+
+def test_worst_samples_come_unmeasured_first_then_without_verdict_then_failed_then_lowest_margin():
+    """The worst list runs error, inconclusive, fail, then passing samples by phase margin, each with its seed."""
+    recs = [record("tt", 1, "pass", 70.0), record("tt", 2, "pass", 48.0), record("tt", 3, "fail", 44.0, met=False),
+            record("tt", 4, "error"), record("tt", 5, "inconclusive", 80.0), record("tt", 6, "pass", 46.0)]
+    worst = summarise(recs, ["pm >= 45"]).worst
+    assert [(w.seed, w.verdict) for w in worst] == [(4, "error"), (5, "inconclusive"), (3, "fail"), (6, "pass"), (2, "pass"), (1, "pass")]
+    assert worst[0].why == "op did not converge" and worst[1].why == "nyquist-data: Z = N + P < 0" and worst[2].why == "pm >= 45"
+
+
+def test_samples_needed_use_the_failure_rate_seen():
+    """Target 99 % at 95 %: 299 samples with no failure (ln 0.05 / ln 0.99, rounded up); at 1 failure in 400 seen,
+    the count where a quarter-percent of failures still shows 99 %."""
+    recs = [record("tt", s, "pass") for s in range(1, 400)] + [record("tt", 400, "fail", 40.0, met=False)]
+    needed = summarise(recs, ["pm >= 45"], target=0.99).needed
+    assert (needed.with_no_failure, needed.rate_seen) == (299, 1 / 400)
+    assert needed.at_rate_seen > 299

@@ -1,0 +1,114 @@
+"""A statistical run as the designer reads it: the sentences, the tables, the JSON document, the CSV, the pictures
+(read back from the figures' own data) and the page, from made-up records with known counts."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+import pytest
+from matplotlib.colors import to_hex
+
+from netloop.jobs.corners.runner import CornerRun
+from netloop.jobs.statistics import SampleRun, parse_sample_plan, summarise
+from netloop.report.yield_document import SAMPLE_COLUMNS, sample_csv, yield_document
+from netloop.report.yield_html import render_yield_html
+from netloop.report.yield_plot import FAILS, PASSES, histogram_figure, scatter_figure
+from netloop.report.yield_text import percent, supports, verdict_line, yield_summary
+
+
+def record(corner: str, seed: int, outcome: str, pm: float, fc: float = 1e6, gm: float | None = 20.0) -> dict:
+    met = outcome == "pass"
+    loop = {"requirements": [{"text": "pm >= 45", "passed": pm >= 45}], "stability": {"stable": True},
+            "checks": [{"name": "nyquist-data", "passed": outcome != "inconclusive", "detail": "doubtful", "advice": ""}],
+            "margins": {"phase_margin_deg": pm, "gain_margin_db": gm, "unity_gain_hz": fc}, "peaking": {"peak_db": 0.1 * met},
+            "infinite": {} if gm is not None else {"margins.gain_margin_db": "+inf"}}
+    return {"corner": f"{corner}#{seed}", "at": "out", "settings": {"seed": str(seed)}, "outcome": outcome, "error": None, "loop": loop}
+
+
+def make_run(records: list[dict], target: float | None = None, corners: str = "") -> SampleRun:
+    plan = parse_sample_plan(f'netlist = "amp.cir"\nat = "out"\nrequire = ["pm >= 45"]\n{corners}[samples]\ncount = 5\n', "/plans/amp.toml")
+    stats = summarise(records, ["pm >= 45"], target=target)
+    return SampleRun(plan, CornerRun(plan.plan.path, "/plans/amp.results.jsonl", tuple(records), len(records), 0), stats)
+
+
+@pytest.mark.parametrize("fraction,way,text", [(0.990063918, "down", "99.0 %"), (0.9999, "down", "99.9 %"), (0.9999, "up", "100 %"),
+                                               (0.99, "up", "99.0 %"), (0.99999, "round", "99.9 %"), (1.0, "down", "100 %"),
+                                               (0.0004, "up", "0.1 %"), (0.0, "up", "0 %"), (0.7254, "round", "72.5 %")])
+def test_percentages_never_claim_more_than_the_bound(fraction, way, text):
+    """A lower bound is rounded down and an upper bound up; an estimate or a lower bound reads "100 %" only for 100 %."""
+    assert percent(fraction, way) == text
+
+
+def test_three_hundred_passing_samples_support_ninety_nine_percent():
+    """The sentence of the issue: with 300 samples and no failure, yield >= 99.0 % at 95 % confidence
+    (Clopper-Pearson lower bound 0.05 ** (1/300) = 0.99006); a target of 99 % passes on it."""
+    run = make_run([record("tt", s, "pass", 60.0) for s in range(1, 301)], target=0.99)
+    assert supports(run.statistics.deciding) == "with 300 samples and no failure, yield >= 99.0 % at 95 % confidence"
+    assert verdict_line(run.statistics).startswith("PASS  yield >= 99.0 % at 95 % confidence, target 99 %")
+
+
+def test_summary_names_no_verdict_samples_and_how_to_rerun_the_worst():
+    """The summary says how a sample without a verdict is counted, lists the worst with its seed and the command that
+    reruns it, the samples a target needs, and the statistical caution."""
+    recs = [record("tt", 1, "pass", 60.0), record("tt", 2, "inconclusive", 30.0), record("tt", 3, "fail", 40.0)]
+    text = yield_summary(make_run(recs, target=0.9))
+    assert text.startswith("INCONCLUSIVE  the target 90 % is neither shown nor ruled out")
+    assert "with 3 samples and 1 failure, 1 without a verdict (counted as failing), yield >= 1.6 % at 95 % confidence" in text
+    assert "netloop yield /plans/amp.toml --sample 'tt#2'" in text
+    assert "29 with no failure" in text  # ln 0.05 / ln 0.9 = 28.4
+    assert "statistical models are the foundry's" in text and "small-signal" in text
+
+
+def test_json_document_has_every_key_and_no_infinity():
+    """The netloop.yield/1 document holds every documented key, JSON has no infinity (an infinite gain margin is null
+    and listed), and the deciding yield is the last of the yields."""
+    recs = [record("tt", 1, "pass", 60.0, gm=None), record("tt", 2, "fail", 40.0)]
+    doc = yield_document(make_run(recs))
+    json.dumps(doc, allow_nan=False)
+    assert set(doc) == {"schema", "plan", "results_file", "verdict", "passed", "target", "confidence", "method", "samples", "deciding",
+                        "yields", "spreads", "worst", "needed", "each_sample", "caution", "infinite"}
+    assert doc["schema"] == "netloop.yield/1" and doc["verdict"] == "fail" and doc["deciding"] == doc["yields"][-1]
+    assert doc["infinite"] == {"each_sample.0.figures.gm": "+inf", "worst.1.figures.gm": "+inf"}
+    assert doc["each_sample"][1]["met"] == {"pm >= 45": False, "stable": True, "every requirement": False}
+
+
+def test_csv_has_a_row_per_sample_with_its_seed_and_requirements():
+    """One row per sample in plan order: seed, verdict, figures, and 1/0/empty per requirement."""
+    recs = [record("tt", 1, "pass", 60.0), record("tt", 2, "inconclusive", 30.0)]
+    rows = list(csv.reader(io.StringIO(sample_csv(make_run(recs)))))
+    assert rows[0] == [*SAMPLE_COLUMNS, "pm >= 45"]
+    assert [(r[0], r[3], r[4], r[-1]) for r in rows[1:]] == [("tt#1", "1", "pass", "1"), ("tt#2", "2", "inconclusive", "")]
+
+
+def test_histograms_count_the_judged_samples_and_draw_the_requirement():
+    """The phase-margin panel's bars add up to the samples with a verdict, per corner when stacked, and a dashed line
+    stands at the requirement's 45 deg; the gain-margin panel of loops without one says so."""
+    recs = [record(c, s, "pass" if pm >= 45 else "fail", pm) for c in ("cold", "hot") for s, pm in enumerate((50.0, 44.0, 61.5, 47.0), 1)]
+    recs.append(record("hot", 9, "inconclusive", 10.0))
+    fig = histogram_figure(make_run(recs, corners='[axes]\ntemp = [-40, 125]\n'))
+    pm_ax = fig.axes[0]
+    assert [sum(bar.get_height() for bar in bars) for bars in pm_ax.containers] == [4, 4]  # one stack per corner
+    assert [line.get_xdata()[0] for line in pm_ax.lines] == [45.0]
+    none = make_run([record("tt", 1, "pass", 60.0, gm=None)])
+    assert "no sample has a gain margin" in histogram_figure(none).axes[1].texts[0].get_text()
+
+
+def test_scatter_colours_each_sample_by_its_verdict():
+    """Three passing samples are green and one failing red, at their (crossover, phase margin)."""
+    recs = [record("tt", 1, "pass", 60.0, 1e6), record("tt", 2, "pass", 55.0, 2e6), record("tt", 3, "pass", 50.0, 3e6),
+            record("tt", 4, "fail", 40.0, 4e6)]
+    ax = scatter_figure(make_run(recs)).axes[0]
+    points = {to_hex(c.get_facecolors()[0]): c.get_offsets().tolist() for c in ax.collections}
+    assert points == {PASSES: [[1e6, 60.0], [2e6, 55.0], [3e6, 50.0]], FAILS: [[4e6, 40.0]]}
+
+
+def test_page_is_self_contained_with_both_pictures_and_the_caution():
+    """The HTML page embeds the histograms and the scatter, the sentence the data supports and the caution."""
+    page = render_yield_html(make_run([record("tt", s, "pass", 60.0) for s in range(1, 11)]))
+    assert page.count("data:image/png;base64,") == 2 and "src=\"http" not in page
+    assert "with 10 samples and no failure, yield &gt;= 74.1 % at 95 % confidence" in page
+    assert math.isclose(0.05 ** 0.1, 0.7411, abs_tol=1e-4)
+    assert "statistical models are the foundry" in page
