@@ -37,3 +37,34 @@ def pytest_collection_modifyitems(config, items):
 @pytest.fixture
 def circuits() -> Path:
     return CIRCUITS
+
+
+@pytest.fixture
+def killed_midway():
+    """kill(argv, results, at_least, timeout_s=60): run ``netloop ARGV`` in a process session of its own and kill the whole
+    session (client, Dask workers, ngspice) with SIGKILL once the results file holds ``at_least`` finished records;
+    returns those records, as a run killed mid-way leaves them."""
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    from netloop.jobs.corners import read_records
+
+    def kill(argv: list[str], results: Path, at_least: int, timeout_s: float = 60) -> list[dict]:
+        cmd = [sys.executable, "-c", "import sys; from netloop.cli.main import main; sys.exit(main())", *argv]
+        proc = subprocess.Popen(cmd, cwd=results.parent, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
+        try:
+            deadline = time.monotonic() + timeout_s
+            while time.monotonic() < deadline and proc.poll() is None:
+                if results.exists() and sum(1 for r in read_records(results)[0] if r["record"] == "corner") >= at_least:
+                    break
+                time.sleep(0.02)
+        finally:
+            if proc.poll() is None:
+                os.killpg(proc.pid, signal.SIGKILL)
+            proc.wait()
+            proc.stderr.close()
+        return [r for r in read_records(results)[0] if r["record"] == "corner"]
+
+    return kill

@@ -29,7 +29,14 @@ import io
 import math
 from pathlib import Path
 
-from netloop.jobs.statistics import FIGURES, STATISTICAL_CAUTION, SampleOutcome, SampleRun, Spread, Yield
+from netloop.jobs.statistics import (
+    FIGURES,
+    STATISTICAL_CAUTION,
+    SampleOutcome,
+    SampleRun,
+    Spread,
+    Yield,
+)
 from netloop.report.files import output_file
 from netloop.report.yield_text import METHOD, rerun_command, supports
 

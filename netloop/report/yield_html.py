@@ -9,7 +9,17 @@ from netloop.jobs.statistics import STATISTICAL_CAUTION, SampleRun
 from netloop.report.files import output_file
 from netloop.report.html import page_template, png_uri
 from netloop.report.yield_plot import histogram_figure, scatter_figure
-from netloop.report.yield_text import METHOD, needed_line, spread_rows, worst_rows, yield_rows, rerun_command, share, supports, verdict_line
+from netloop.report.yield_text import (
+    METHOD,
+    needed_line,
+    rerun_command,
+    share,
+    spread_rows,
+    supports,
+    verdict_line,
+    worst_rows,
+    yield_rows,
+)
 
 __all__ = ["render_yield_html", "write_yield_html"]
 
@@ -57,7 +67,7 @@ def render_yield_html(run: SampleRun) -> str:
                        for c in _cells(worst, 2 + (len(stats.nodes) > 1))],
     }
     section = page_template(TEMPLATE).render(**context)
-    from markupsafe import Markup  # noqa: PLC0415 - jinja2's own dependency
+    from markupsafe import Markup
 
     return page_template("report.html.j2").render(
         title=f"netloop yield: {Path(splan.plan.path).name}",

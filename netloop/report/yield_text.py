@@ -6,7 +6,17 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from netloop.jobs.statistics import EVERY, FIGURES, STABLE, STATISTICAL_CAUTION, SampleOutcome, SampleRun, Spread, Yield, YieldStatistics
+from netloop.jobs.statistics import (
+    EVERY,
+    FIGURES,
+    STABLE,
+    STATISTICAL_CAUTION,
+    SampleOutcome,
+    SampleRun,
+    Spread,
+    Yield,
+    YieldStatistics,
+)
 from netloop.report.notation import NONE, db, deg, eng
 
 __all__ = [

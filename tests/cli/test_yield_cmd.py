@@ -4,11 +4,6 @@
 from __future__ import annotations
 
 import json
-import os
-import signal
-import subprocess
-import sys
-import time
 
 import pytest
 
@@ -73,25 +68,12 @@ def test_a_sample_reruns_alone_by_name_and_by_seed_bit_for_bit(tmp_path, capsys)
     assert [float(r[2]) for r in rows] == record["loop"]["loop_gain"]["im"]
 
 
-def test_killed_run_resumes_without_losing_or_repeating_a_sample(tmp_path):
+def test_killed_run_resumes_without_losing_or_repeating_a_sample(tmp_path, killed_midway):
     """A `netloop yield` process killed after its first samples are written loses nothing: --resume runs only the rest,
     each sample once, and the finished ones keep their records."""
     plan = _write(tmp_path, 8, "[sweep]\npoints_per_decade = 400\n")  # a fine sweep makes each sample slow enough to kill mid-run
     out = tmp_path / "r.jsonl"
-    cmd = [sys.executable, "-c", "import sys; from netloop.cli.main import main; sys.exit(main())", "yield", plan, "--workers", "1", "--out", str(out)]
-    proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
-    try:
-        deadline = time.monotonic() + 90
-        while time.monotonic() < deadline and proc.poll() is None:
-            if out.exists() and sum(1 for r in read_records(out)[0] if r["record"] == "corner") >= 2:
-                break
-            time.sleep(0.02)
-    finally:
-        if proc.poll() is None:
-            os.killpg(proc.pid, signal.SIGKILL)  # the whole session we started: client, Dask workers, ngspice
-        proc.wait()
-        proc.stderr.close()
-    done = [r for r in read_records(out)[0] if r["record"] == "corner"]
+    done = killed_midway(["yield", plan, "--workers", "1", "--out", str(out)], out, 2, timeout_s=90)
     assert 2 <= len(done) < 8, "the run was not killed mid-way"
     run = run_samples(load_sample_plan(plan), workers=1, out=out, resume=True)
     assert (run.run.skipped, run.run.ran) == (len(done), 8 - len(done))

@@ -7,11 +7,37 @@ summary   yields per requirement with Clopper-Pearson bounds, spreads, worst sam
 bounds    the Clopper-Pearson (1934) bounds and the samples a yield target needs
 """
 
-from netloop.jobs.statistics.bounds import interval, lower_bound, samples_needed, upper_bound
-from netloop.jobs.statistics.plan import SamplePlan, load_sample_plan, parse_fraction, parse_sample_plan
+from netloop.jobs.statistics.bounds import (
+    interval,
+    lower_bound,
+    samples_needed,
+    upper_bound,
+)
+from netloop.jobs.statistics.plan import (
+    SamplePlan,
+    load_sample_plan,
+    parse_fraction,
+    parse_sample_plan,
+)
 from netloop.jobs.statistics.run import SampleRun, rerun_sample, run_samples
-from netloop.jobs.statistics.samples import sample_name, sample_of, sample_tasks, seeded_netlist
-from netloop.jobs.statistics.summary import EVERY, FIGURES, STABLE, STATISTICAL_CAUTION, Needed, SampleOutcome, Spread, Yield, YieldStatistics, summarise
+from netloop.jobs.statistics.samples import (
+    sample_name,
+    sample_of,
+    sample_tasks,
+    seeded_netlist,
+)
+from netloop.jobs.statistics.summary import (
+    EVERY,
+    FIGURES,
+    STABLE,
+    STATISTICAL_CAUTION,
+    Needed,
+    SampleOutcome,
+    Spread,
+    Yield,
+    YieldStatistics,
+    summarise,
+)
 
 __all__ = [
     "EVERY",

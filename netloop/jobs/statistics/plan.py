@@ -13,9 +13,10 @@ from __future__ import annotations
 
 import math
 import re
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
+
+import tomllib
 
 from netloop.errors import PlanError
 from netloop.jobs.corners.plan import Plan, find_line, parse_plan, read_plan_text

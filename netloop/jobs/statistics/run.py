@@ -65,8 +65,8 @@ def rerun_sample(splan: SamplePlan, name: str, *, keep_decks: str | Path | None 
         raise NetloopError(f"the plan has no sample named {name!r}; samples are named CORNER{SEPARATOR}N with N from 1 to "
                            f"{splan.count}, as the tables show (such as {every[0].corner.name!r})")
     plan = splan.plan
-    options = dict(driver=plan.driver, method=plan.method, sweep=plan.sweep, open_loop_rhp_poles=plan.open_loop_rhp_poles,
-                   requirements=[r.text for r in plan.requirements], timeout_s=plan.timeout_s, keep_decks=keep_decks)
+    options = {"driver": plan.driver, "method": plan.method, "sweep": plan.sweep, "open_loop_rhp_poles": plan.open_loop_rhp_poles,
+               "requirements": [r.text for r in plan.requirements], "timeout_s": plan.timeout_s, "keep_decks": keep_decks}
     netlist = apply_settings(tasks[0].corner.netlist, tasks[0].corner.settings)
     if tasks[0].at == AUTO:
         from netloop.jobs.discover import measure_all_loops

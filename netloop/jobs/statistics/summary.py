@@ -22,14 +22,19 @@ import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 
-from netloop.jobs.statistics.bounds import interval, lower_bound, samples_needed, upper_bound
+from netloop.jobs.statistics.bounds import (
+    interval,
+    lower_bound,
+    samples_needed,
+    upper_bound,
+)
 from netloop.jobs.statistics.samples import sample_of
 
 __all__ = [
     "EVERY",
-    "STATISTICAL_CAUTION",
     "FIGURES",
     "STABLE",
+    "STATISTICAL_CAUTION",
     "Needed",
     "SampleOutcome",
     "Spread",

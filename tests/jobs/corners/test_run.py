@@ -5,10 +5,6 @@ from __future__ import annotations
 import json
 import os
 import shutil
-import signal
-import subprocess
-import sys
-import time
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
@@ -122,28 +118,13 @@ def test_an_existing_results_file_is_never_overwritten_without_resume_or_force(t
     assert out.read_bytes() == before
 
 
-def test_killed_run_resumes_without_losing_or_repeating_a_corner(tmp_path, scheduler):
+def test_killed_run_resumes_without_losing_or_repeating_a_corner(tmp_path, scheduler, killed_midway):
     """A `netloop corners` process killed after its first corners are written loses nothing: --resume runs only the rest, each corner once."""
     plan = tmp_path / "plan.toml"
     # a fine sweep makes each corner take about a second, so the kill lands mid-run
     plan.write_text(PLAN.split("[[corner]]")[0] + "\n[sweep]\npoints_per_decade = 200\n")
     out = tmp_path / "r.jsonl"
-    cmd = [sys.executable, "-c", "import sys; from netloop.cli.main import main; sys.exit(main())",
-           "corners", str(plan), "--jobs", "1", "--out", str(out)]
-    proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, start_new_session=True)
-    try:
-        deadline = time.monotonic() + 60
-        while time.monotonic() < deadline and proc.poll() is None:
-            if out.exists() and sum(1 for r in read_records(out)[0] if r["record"] == "corner") >= 2:
-                break
-            time.sleep(0.02)
-    finally:
-        if proc.poll() is None:
-            os.killpg(proc.pid, signal.SIGKILL)  # the whole session we started: client, Dask workers, ngspice
-        proc.wait()
-        proc.stderr.close()
-    first, _ = read_records(out)
-    done = [r for r in first if r["record"] == "corner"]
+    done = killed_midway(["corners", str(plan), "--jobs", "1", "--out", str(out)], out, 2)
     assert 2 <= len(done) < 6, "the run was not killed mid-way"
     run = run_plan(load_plan(plan), cluster=scheduler, out=out, resume=True)
     assert run.skipped == len(done) and run.ran == 6 - len(done)

@@ -6,7 +6,12 @@ import numpy as np
 import pytest
 
 from netloop.jobs.measure import measure
-from netloop.jobs.statistics import parse_sample_plan, sample_of, sample_tasks, seeded_netlist
+from netloop.jobs.statistics import (
+    parse_sample_plan,
+    sample_of,
+    sample_tasks,
+    seeded_netlist,
+)
 from netloop.netlist import write_netlist
 
 LOOP = """invented one-pole loop whose gain element is drawn by agauss
