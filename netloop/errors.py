@@ -8,7 +8,8 @@
     │  └─ SimulatorUnavailableError                    how to install ngspice
     ├─ AnalysisError                                   malformed data (not "no crossover")
     ├─ PlanError(ValueError)                           a corner plan or requirement that cannot be read
-    └─ OutputError(ValueError)                         a report file that cannot be written (format, path)
+    ├─ OutputError(ValueError)                         a report file that cannot be written (format, path)
+    └─ ResultsError(ValueError)                        a results file of a corner run that cannot be read (file:line)
 
 The CLI catches NetloopError at the boundary, prints ``str(error)`` (one clear message)
 and exits with status 2. A traceback reaching a user is a bug.
@@ -29,6 +30,7 @@ __all__ = [
     "OutputError",
     "PlanError",
     "ProbeError",
+    "ResultsError",
     "SimulationError",
     "SimulatorUnavailableError",
     "UnknownNodeError",
@@ -141,6 +143,10 @@ class PlanError(NetloopError, ValueError):
 
 class OutputError(NetloopError, ValueError):
     """A report, plot or data file that cannot be written: an unknown format or a path that cannot be opened."""
+
+
+class ResultsError(NetloopError, ValueError):
+    """A results file of a corner run (a baseline, a trend) that cannot be read; says file:line where it applies."""
 
 
 def in_netlist(exc: NetloopError, where: str) -> NetloopError:

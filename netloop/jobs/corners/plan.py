@@ -16,7 +16,7 @@ __all__ = ["AUTO", "KINDS", "Axis", "CornerSpec", "Plan", "Setting", "load_plan"
 
 AUTO = "auto"
 KINDS = ("netlist", "lib", "temp", "param", "supply")  # what a setting can change, in naming order
-_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s sweep axes corner".split())
+_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s sweep axes corner units regression".split())
 _SWEEP_KEYS = frozenset("fmin_hz fmax_hz points_per_decade".split())
 
 
@@ -82,6 +82,9 @@ class Plan:
     axes: tuple[Axis, ...]  # combined as a product
     corners: tuple[CornerSpec, ...]  # explicit list, run after the product
     text: str  # the plan's text, for finding lines of semantic errors
+    units: tuple[tuple[str, str], ...] = ()  # [units]: a setting's unit on maps ("iload", "A")
+    limits: tuple = ()  # [regression]: netloop.jobs.runs.Limit, how much worse than a baseline a figure may get
+    baseline: str = ""  # [regression] baseline: the results file to compare with (absolute path), "" for none
 
     def line_of(self, *keys: str) -> int:
         """The plan line of a key (see `find_line`)."""
@@ -268,7 +271,23 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
             raise PlanError(f"{_where(path, text, *section, 'name')}: a corner's name must be text")
         pairs = _settings(table, path, text, section, many=False)
         corners.append(CornerSpec(name.strip(), tuple(s for s, _ in pairs), line, tuple(ln for _, ln in pairs)))
-    return Plan(path, netlist, at, driver, method, requirements, rhp, float(timeout), sweep, axes, tuple(corners), text)
+    units = _units(data.get("units", {}), _where(path, text, "units"))
+    from netloop.jobs.runs.limits import regression_table
+
+    limits, baseline = regression_table(data.get("regression", {}), _where(path, text, "regression"), str(base))
+    return Plan(path, netlist, at, driver, method, requirements, rhp, float(timeout), sweep, axes, tuple(corners), text,
+                units, limits, baseline)
+
+
+def _units(raw: object, where: str) -> tuple[tuple[str, str], ...]:
+    """[units]: setting name (as in [axes], e.g. iload or param.iload) -> the unit its values are in, for maps."""
+    flat = {}
+    for key, value in (raw.items() if isinstance(raw, dict) else ()):
+        pairs = value.items() if isinstance(value, dict) else (("", value),)  # param.iload = "A" is a nested table
+        flat.update({f"{key}.{k}" if k else key: v for k, v in pairs})
+    if not isinstance(raw, dict) or not all(isinstance(v, str) for v in flat.values()):
+        raise PlanError(f"{where}: units must be a table of texts, e.g. [units] iload = \"A\"")
+    return tuple((k.lower(), v.strip()) for k, v in flat.items())
 
 
 def _sweep(raw: object, path: str, text: str) -> Sweep:
