@@ -9,7 +9,7 @@ from netloop.jobs.runs.axes import NumericAxis, lines_along, numeric_axes
 from netloop.jobs.runs.boundary import INTERPOLATION, Boundary, Crossing, boundaries
 from netloop.report.notation import eng
 
-__all__ = ["METHOD", "axis_range", "axis_value", "boundary_sentence", "boundary_sentences"]
+__all__ = ["METHOD", "axis_range", "axis_value", "boundary_sentence", "boundary_sentences", "boundary_text"]
 
 METHOD = "Boundaries are interpolated between the two corners that bracket them, by " + INTERPOLATION + "."
 """The interpolation method, stated wherever boundaries are given."""
@@ -90,3 +90,30 @@ def boundary_sentences(records: tuple[dict, ...], requirements: Sequence[Require
         if sentences:
             out.append((f"along {axis_range(axis)}", sentences))
     return out
+
+
+def boundary_text(records: tuple[dict, ...], requirements: Sequence[Requirement], units: dict[str, str] | None = None) -> str:
+    """The boundaries for the terminal: per axis, the lines where a requirement changes or holds nowhere, one
+    sentence each, and how many lines it holds over entirely; then the method. "" without numeric axes or requirements."""
+    out = []
+    interpolated = False
+    several = len({r.get("at") for r in records if r.get("at")}) > 1
+    for axis in numeric_axes(records, units):
+        lines = lines_along(records, axis)
+        shown, whole = [], {}
+        for req in requirements:
+            for b in boundaries(req, lines):
+                if b.everywhere is True:
+                    whole[req.text] = whole.get(req.text, 0) + 1
+                else:
+                    shown.append(boundary_sentence(b, several_nodes=several))
+        if not shown and not whole:
+            continue
+        out.append(f"  along {axis_range(axis)}:")
+        out += [f"    {s}" for s in shown]
+        out += [f"    {text} holds over the whole line on {n} of {len(lines)} line(s)" for text, n in whole.items()]
+        interpolated = interpolated or any(shown)
+    if not out:
+        return ""
+    head = "where the requirements hold, along each numeric axis with the other settings fixed:"
+    return "\n".join([head, *out, *([METHOD] if interpolated else [])])

@@ -211,15 +211,23 @@ def map_figure(plane: Plane, metric: str, requirements: Sequence[Requirement] = 
         ax.set_yscale("log")
     ax.set_xlim(x.values[0], x.values[-1])
     ax.set_ylim(y.values[0], y.values[-1])
-    ax.xaxis.set_major_formatter(EngFormatter(unit=x.unit, sep=" "))
-    ax.yaxis.set_major_formatter(EngFormatter(unit=y.unit, sep=" "))
+    for axis, which in ((x, ax.xaxis), (y, ax.yaxis)):
+        which.set_major_formatter(EngFormatter(unit=axis.unit, sep=" "))
+        if axis.log and axis.values[-1] / axis.values[0] < 10:  # less than a decade: the minor ticks carry the labels
+            which.set_minor_formatter(EngFormatter(unit=axis.unit, sep=" "))
     ax.set_xlabel(_axis_label(x))
     ax.set_ylabel(_axis_label(y))
     ax.tick_params(labelsize=8)
     _key(ax, drawn, marks)
     where = f" at {plane.context}" if plane.context else ""
     where += f" (break node {plane.at})" if plane.at else ""
-    fig.suptitle(title or f"{FIGURES[metric].name} over {x.name} and {y.name}{where}", fontsize=11)
+    title = title or f"{FIGURES[metric].name} over {x.name} and {y.name}{where}"
+    for req in requirements:
+        if req.metric == metric and req not in drawn:
+            outcomes = {o for b in boundaries(req, plane.lines) for o in b.holds if o is not None}
+            if len(outcomes) == 1:
+                title += f"\n{req.text} {'holds at every corner' if outcomes.pop() else 'fails at every corner'} of this map"
+    fig.suptitle(title, fontsize=11)
     return fig
 
 

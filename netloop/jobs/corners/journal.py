@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import os
 from dataclasses import dataclass
+from datetime import datetime, timezone
 from pathlib import Path
 
 from netloop.errors import NetloopError, OutputError
@@ -65,7 +66,8 @@ class Journal:
         except OSError as exc:
             raise OutputError(f"cannot write the results file {str(p)!r}: {exc.strerror or exc}") from exc
         journal = cls(p, done, fh)
-        journal._write({"record": "run", "schema": SCHEMA, "plan": plan, "corners": total, "resumed": bool(done)})
+        started = datetime.now(timezone.utc).isoformat(timespec="seconds")  # for trends over several results files
+        journal._write({"record": "run", "schema": SCHEMA, "plan": plan, "corners": total, "resumed": bool(done), "started": started})
         return journal
 
     @staticmethod
