@@ -49,6 +49,10 @@ def run(args: argparse.Namespace) -> int:
     refuse_unwritable(args.csv, "corner table")  # before any corner runs
     refuse_unwritable(args.junit, "JUnit XML")
     refuse_unwritable(args.report, "HTML report")
+    if args.maps:
+        from netloop.report.maps import refuse_maps_folder
+
+        refuse_maps_folder(args.maps)
     baseline, limits = _baseline(args, plan)  # a bad limit or baseline stops the run before anything is simulated
     progress = args.progress or sys.stderr.isatty()
     result = corners.run_plan(plan, jobs=args.workers, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)

@@ -5,8 +5,10 @@ results file; reports that draw a corner's Bode or Nyquist plot later, from that
 LoopResult again. Every field of the record is in the document except two that are derived: a gain
 crossover's small-angle peaking (1 / |PM in radians|, computed here as the analysis does) and
 ``regulates`` (|T| > 1 somewhere in the sampled return ratio, read from it). A number the document
-lists under ``infinite`` comes back as that infinity. All self-checks come back as the result's own
-``checks`` (the document does not say which were the analysis's), so ``all_checks`` is unchanged.
+lists under ``infinite`` comes back as that infinity. The document lists every self-check without
+saying whose it was: they come back as the analysis's own when its classification is "inconclusive"
+(an analysis check failed), else as the job's, so ``all_checks``, the verdict and the
+classification are unchanged.
 """
 
 from __future__ import annotations
@@ -73,7 +75,7 @@ def _phases(rd: _Reader, items: list[dict], where: str) -> tuple[PhaseCrossover,
     return tuple(PhaseCrossover(**rd.fields(f"crossovers.{where}[{i}]", c, keys)) for i, c in enumerate(items))
 
 
-def _analysis(rd: _Reader, doc: dict) -> LoopAnalysis:
+def _analysis(rd: _Reader, doc: dict, checks: tuple[Check, ...]) -> LoopAnalysis:
     gain = doc["loop_gain"]
     freq = np.asarray(gain["freq_hz"], dtype=float)
     t = np.asarray(gain["re"], dtype=float) + 1j * np.asarray(gain["im"], dtype=float)
@@ -112,6 +114,7 @@ def _analysis(rd: _Reader, doc: dict) -> LoopAnalysis:
         nyquist=nyquist,
         poles=poles,
         warnings=(),
+        checks=checks,
     )
 
 
@@ -128,6 +131,8 @@ def result_from_document(doc: dict) -> LoopResult:
         raise ResultsError(f"not a loop document of schema {SCHEMA}")
     rd = _Reader(doc)
     try:
+        checks = tuple(Check(c["name"], c["passed"], c["detail"], c["advice"]) for c in doc["checks"])
+        inconclusive = doc["classification"] == "inconclusive"  # the analysis's own checks failed: they go back there
         b = doc["break"]
         breaks = BreakInfo(b["node"], b["side_a"], b["side_b"], tuple(b["driver_terminals"]), tuple(b["load_terminals"]),
                            tuple(b["shunt_terminals"]), b["decided_by"], tuple(b["silenced_sources"]),
@@ -137,13 +142,13 @@ def result_from_document(doc: dict) -> LoopResult:
             label=doc["label"],
             method=doc["method"],
             breaks=breaks,
-            analysis=_analysis(rd, doc),
+            analysis=_analysis(rd, doc, checks if inconclusive else ()),
             requirements=tuple(_requirement(rd, i, q) for i, q in enumerate(doc["requirements"])),
             ignored_statements=tuple(doc["ignored_statements"]),
             warnings=tuple(doc["warnings"]),
             sim=SimInfo(**doc["simulation"]),
             caution=doc["caution"],
-            checks=tuple(Check(c["name"], c["passed"], c["detail"], c["advice"]) for c in doc["checks"]),
+            checks=() if inconclusive else checks,
         )
     except (KeyError, TypeError, ValueError) as exc:
         raise ResultsError(f"an incomplete loop document ({type(exc).__name__}: {exc}); was it written by this version of netloop?") from exc

@@ -29,7 +29,7 @@ from netloop.report.boundaries import axis_value
 from netloop.report.figure import COLOURS, new_figure, render, save
 from netloop.report.files import output_file
 
-__all__ = ["MAP_FORMATS", "figure_label", "lines_figure", "map_figure", "map_figures", "write_maps"]
+__all__ = ["MAP_FORMATS", "figure_label", "lines_figure", "map_figure", "map_figures", "refuse_maps_folder", "write_maps"]
 
 MAP_FORMATS = ("png", "svg")
 """Each map is written in both."""
@@ -315,6 +315,18 @@ def map_figures(records: tuple[dict, ...], requirements: Sequence[Requirement] =
                         stem += "-" + _slug("-".join(p for p in (plane.context, plane.at) if p))
                     out.append((stem, f"{FIGURES[metric].name} over {x.name} and {y.name}", map_figure(plane, metric, requirements)))
     return out
+
+
+def refuse_maps_folder(folder: str | Path | None) -> None:
+    """OutputError now (before any long work) when ``folder`` cannot become a folder of maps; None passes."""
+    if folder is None:
+        return
+    from netloop.errors import OutputError  # noqa: PLC0415
+
+    path = Path(folder)
+    existing = next(p for p in (path, *path.parents) if p.exists() or p == Path(p.anchor))
+    if not existing.is_dir():
+        raise OutputError(f"cannot write the maps to {str(path)!r}: {str(existing)!r} is not a folder")
 
 
 def write_maps(records: tuple[dict, ...], folder: str | Path, requirements: Sequence[Requirement] = (),

@@ -31,6 +31,10 @@ class ResultsFile:
         return Path(self.path).name
 
 
+_NOT_RESULTS = (f"not a results file of `netloop corners` (its first line is not the {CORNERS_SCHEMA} run record); "
+                "give the PLAN.results.jsonl file a corner run wrote")
+
+
 def _fail(path: str, line: int | None, message: str) -> ResultsError:
     return ResultsError(f"{path}{f':{line}' if line else ''}: {message}")
 
@@ -56,6 +60,8 @@ def read_results(path: str | Path) -> ResultsFile:
         try:
             item = json.loads(raw)
         except ValueError:
+            if header is None:
+                raise _fail(p, number, _NOT_RESULTS) from None
             if last:
                 break  # cut short by a killed run
             raise _fail(p, number, "not a JSON line; a results file has one JSON object a line, as `netloop corners` writes it") from None
@@ -63,8 +69,7 @@ def read_results(path: str | Path) -> ResultsFile:
             raise _fail(p, number, "not a JSON object; a results file has one JSON object a line")
         if header is None:
             if item.get("record") != "run" or item.get("schema") != CORNERS_SCHEMA:
-                raise _fail(p, number, f"not a results file of `netloop corners` (its first line is not a {CORNERS_SCHEMA} run "
-                                       "record); give the PLAN.results.jsonl file a corner run wrote")
+                raise _fail(p, number, _NOT_RESULTS)
             header = item
             continue
         if item.get("record") != "corner":
