@@ -10,7 +10,8 @@ corners   corner plans run as a regression on Dask, results journalled line by l
 cli       the ``netloop`` command, a thin shell over this API
 
 The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and common mode),
-``measure_all_loops`` (every loop group), ``compare`` (several breaks in one deck),
+``check_loops`` (every loop group on its own, from the census ``take_census``; ``measure_all_loops``
+gives only their results), ``compare`` (several breaks in one deck),
 ``run_plan`` (a corner plan from ``load_plan``), ``sensitivities`` (which values set a loop's margins,
 and the value of one that meets a requirement), ``read_results`` (a corner run's results file),
 ``compare_runs`` (a run against its baseline) and ``trend_of`` (the worst phase margin over several runs).
@@ -41,6 +42,7 @@ _EXPORTS = {
     "Sweep": "netloop.jobs.measure",
     "UnknownNodeError": "netloop.errors",
     "analyse": "netloop.analysis",
+    "check_loops": "netloop.jobs.discover",
     "break_loop": "netloop.probe",
     "Comparison": "netloop.jobs.compare",
     "compare": "netloop.jobs.compare",
@@ -57,6 +59,7 @@ _EXPORTS = {
     "read_results": "netloop.jobs.runs",
     "run_plan": "netloop.jobs.corners",
     "SensitivityRun": "netloop.jobs.sensitivity",
+    "take_census": "netloop.jobs.discover",
     "sensitivities": "netloop.jobs.sensitivity",
     "trend_of": "netloop.jobs.runs",
     "write_netlist": "netloop.netlist",

@@ -14,10 +14,10 @@ def test_all_is_sorted_and_pinned():
         "AnalysisError", "BreakInfo", "CAUTION", "LoopAnalysis", "LoopResult", "NetlistError",
         "NetlistSyntaxError", "NetloopError", "PairResult", "PlanError", "ProbeError", "ResultsError",
         "SimulationError", "SimulatorUnavailableError", "Sweep", "UnknownNodeError",
-        "__version__", "analyse", "break_loop", "compare", "Comparison", "default_simulator",
+        "__version__", "analyse", "break_loop", "check_loops", "compare", "Comparison", "default_simulator",
         "find_loops", "flatten", "load_plan", "measure", "measure_all_loops", "measure_pair", "parse_file",
-        "parse_text", "run_plan", "SensitivityRun", "sensitivities", "write_netlist", "compare_runs", "read_results",
-        "trend_of",
+        "parse_text", "run_plan", "SensitivityRun", "sensitivities", "take_census", "write_netlist",
+        "compare_runs", "read_results", "trend_of",
     ]
     assert netloop.__all__ == sorted(expected)
 

@@ -63,26 +63,11 @@ def run(args: argparse.Namespace) -> int:
         comparison = compare_runs(baseline.records, result.records, limits, baseline_path=baseline.path)
     verdict = combined_verdict([result.verdict, *([comparison.verdict] if comparison else [])])
     units = dict(plan.units)
-    if args.csv:
-        corner_records.write_corner_csv(result.records, args.csv)
-    if args.junit:
-        from netloop.report.baseline import regression_suite
-
-        suite = Path(plan.path).stem
-        corner_records.write_junit(result.records, args.junit, suite=suite, more=[regression_suite(comparison, suite)] if comparison else [])
-    if args.maps:
-        from netloop.report.maps import write_maps
-
-        written = write_maps(result.records, args.maps, plan.requirements, units)
-        if not args.json:
-            print(f"maps: {len(written)} file(s) in {args.maps}" if written else "maps: none (the plan has no numeric axis with two values or more)")
-    if args.report:
-        from netloop.report.corner_page import write_corner_html
-
-        write_corner_html(result.records, args.report, verdict=verdict, title=f"netloop corners: {Path(plan.path).name}",
-                          plan=plan.path, results_file=result.results_path, requirements=plan.requirements, units=units,
-                          comparison=comparison)
-    if args.json:
+    if result.rerun:  # said first: the table below holds the new measurements of these corners
+        changed = sorted({f for files in result.rerun.values() for f in files})
+        print(f"netloop: {len(result.rerun)} corner(s) measured again because their input files changed since they were recorded: "
+              + ", ".join(changed[:5]) + (f" and {len(changed) - 5} more" if len(changed) > 5 else ""), file=sys.stderr)
+    if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = corner_records.run_document(result)
         if comparison is not None:
             from netloop.report.baseline import baseline_document
@@ -94,6 +79,9 @@ def run(args: argparse.Namespace) -> int:
         print(corner_records.corner_table(result.records))
         print()
         print(corner_records.counts_line(result.records))
+        loads = corner_records.loads_line(result.records)
+        if loads:
+            print(loads)
         for r in corner_records.worst_first(result.records):
             if corner_records.verdict(r) in ("error", "inconclusive"):
                 at = f" at {r['at']}" if len({x["at"] for x in result.records}) > 1 else ""
@@ -107,11 +95,31 @@ def run(args: argparse.Namespace) -> int:
             _print_comparison(comparison)
         note = f"; {result.skipped} found done in the results file" if result.skipped else ""
         print(f"results: {result.results_path} ({result.ran} run now{note})")
-        if args.report:
-            print(f"report: {args.report}")
         if result.stale:
             print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
                   "(the plan changed since they were written) and were left out", file=sys.stderr)
+    sys.stdout.flush()
+    if args.csv:
+        corner_records.write_corner_csv(result.records, args.csv)
+    if args.junit:
+        from netloop.report.baseline import regression_suite
+
+        suite = Path(plan.path).stem
+        corner_records.write_junit(result.records, args.junit, suite=suite, more=[regression_suite(comparison, suite)] if comparison else [])
+    if args.maps:
+        from netloop.report.maps import write_maps
+
+        written = write_maps(result.records, args.maps, plan.requirements, units)
+        print(f"maps: {len(written)} file(s) in {args.maps}" if written else "maps: none (the plan has no numeric axis with two values or more)",
+              file=sys.stderr if args.json else sys.stdout)
+    if args.report:
+        from netloop.report.corner_page import write_corner_html
+
+        write_corner_html(result.records, args.report, verdict=verdict, title=f"netloop corners: {Path(plan.path).name}",
+                          plan=plan.path, results_file=result.results_path, requirements=plan.requirements, units=units,
+                          comparison=comparison)
+        if not args.json:
+            print(f"report: {args.report}")
     from netloop.cli.main import exit_status
 
     return exit_status(verdict)

@@ -50,7 +50,7 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
     ignored_statements    ["file:line: statement"]
     warnings              [sentence]
     simulation            {backend, points, refinement_rounds, refined, convergence_aid,
-                           deck_path, seconds, processes}
+                           deck_path, seconds, processes, loads}
     loop_gain             {freq_hz, re, im}: the sampled return ratio T
     caution               the caution sentence
     infinite              {dotted.path: "+inf" | "-inf"}

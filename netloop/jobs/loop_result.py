@@ -58,6 +58,7 @@ class SimInfo:
     deck_path: str | None  # where the probe deck was kept (--keep-decks), else None
     seconds: float  # wall time of the simulations
     processes: int = 1  # ngspice processes that shared each job's runs (netloop.sim.SplitRunsSimulator)
+    loads: int = 1  # times ngspice read the netlist (and its model files) for this measurement; 0: it ran on a circuit already loaded
 
 
 @dataclass(frozen=True, slots=True)

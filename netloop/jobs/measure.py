@@ -176,6 +176,7 @@ class _Runner:
         self.deck_path: str | None = None
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
         self.processes = len(getattr(simulator, "simulators", ())) or 1
+        self.loads = 0  # jobs for which ngspice read the netlist (SimResult.loaded)
 
     def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None, stage: str = "") -> tuple[np.ndarray, dict[str, np.ndarray]]:
         """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (netloop.sim.background.run_while).
@@ -186,6 +187,7 @@ class _Runner:
         start = time.perf_counter()
         result = self.simulator.run(job) if meanwhile is None else run_while(self.simulator, job, meanwhile)[0]
         self.seconds += time.perf_counter() - start
+        self.loads += result.loaded
         self.aid = self.aid or result.convergence_aid
         self.deck_path = self.deck_path or result.deck_path
         self.backend = result.backend or self.backend
@@ -276,6 +278,7 @@ def sample_loops(
         deck_path=runner.deck_path,
         seconds=runner.seconds,
         processes=runner.processes,
+        loads=runner.loads,
     )
     warnings: dict[str, tuple[str, ...]] = {}
     for name, a in analyses.items():

@@ -27,6 +27,7 @@ __all__ = [
     "corner_entry",
     "corner_table",
     "counts_line",
+    "loads_line",
     "failed_checks",
     "failed_requirements",
     "gain_margin_text",
@@ -179,6 +180,21 @@ def counts_line(records: tuple[dict, ...]) -> str:
     if _several_nodes(records):
         return f"{len(records)} loops measured ({corners} corners at {nodes} break nodes): " + ", ".join(parts)
     return f"{len(records)} corner{'s' if len(records) != 1 else ''}: " + ", ".join(parts)
+
+
+def loads_line(records: tuple[dict, ...]) -> str | None:
+    """"circuit loads: 3 for 18 corners; 15 ran on a circuit another corner had loaded (...)", from the records'
+    ``loads``; None when no record says (a results file written before netloop counted them)."""
+    known = [r["loads"] for r in records if r.get("loads") is not None]
+    if not known:
+        return None
+    shared = sum(1 for n in known if n == 0)
+    what = "corners" if len({r["at"] for r in records}) <= 1 else "measurements"
+    line = f"circuit loads: {sum(known)} for {len(records)} {what}"
+    if shared:
+        line += (f"; {shared} ran on a circuit another corner had loaded, with its temperature, supplies or parameters "
+                 "changed in place (share_loads)")
+    return line
 
 
 def reasons(r: dict) -> list[str]:

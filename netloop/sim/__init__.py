@@ -19,7 +19,7 @@ from netloop.sim.analytic import AnalyticSimulator
 from netloop.sim.batch import BatchSimulator
 from netloop.sim.convergence import DEFAULT_OP_AIDS
 from netloop.sim.frequency import sweep_frequencies
-from netloop.sim.job import AcRun, AcSweep, Alter, RunResult, SimJob, SimResult, Simulator
+from netloop.sim.job import AcRun, AcSweep, Alter, Change, RunResult, SimJob, SimResult, Simulator
 from netloop.sim.library import find_libngspice, find_ngspice_binary
 from netloop.sim.rawfile import RawPlot, read_raw
 from netloop.sim.shared import SharedLibrarySimulator
@@ -32,6 +32,7 @@ __all__ = [
     "Alter",
     "AnalyticSimulator",
     "BatchSimulator",
+    "Change",
     "RawPlot",
     "RunResult",
     "SharedLibrarySimulator",

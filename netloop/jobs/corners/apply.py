@@ -11,9 +11,10 @@ from netloop.jobs.corners.plan import Setting
 from netloop.errors import NetlistError, NetloopError
 from netloop.netlist import Directive, Element, Netlist, SourceLocation, parse_file, parse_text
 
-__all__ = ["CornerApplyError", "apply_settings", "lib_lines"]
+__all__ = ["CornerApplyError", "apply_settings", "include_lines", "lib_lines", "param_text"]
 
 _LIB_LINE = re.compile(r"^(?P<head>\s*\.lib\s+(?:\"[^\"]*\"|'[^']*'|\S+)\s+)(?P<section>[^\s$;]+)", re.IGNORECASE)
+_PATH = re.compile(r"^\s*\.(?:include|inc|lib)\s+(?:\"(?P<dq>[^\"]*)\"|'(?P<sq>[^']*)'|(?P<bare>[^\s\"']+))", re.IGNORECASE)
 _SOURCE_WORDS = frozenset("ac dc pulse sin exp pwl sffm am trnoise trrandom distof1 distof2 portnum z0".split())
 
 
@@ -34,26 +35,52 @@ def lib_lines(netlist: Netlist) -> tuple[tuple[str, int, str, str], ...]:
     return tuple(out)
 
 
+def include_lines(netlist: Netlist) -> tuple[tuple[int, str], ...]:
+    """The top file's ``.include`` and ``.lib FILE`` lines: (line, resolved path of the file read)."""
+    return tuple((inc.location.line, inc.path) for inc in netlist.inclusions if inc.location.file == netlist.source)
+
+
 def _pick_lib(netlist: Netlist, target: str) -> tuple[str, int, str, str]:
+    """The .lib line a setting's target names: "" for the only one, else by its file (the end of its path) or,
+    when no file matches, by its section word as the netlist writes it."""
     lines = lib_lines(netlist)
     if not lines:
         raise CornerApplyError(f"{netlist.source} has no '.lib FILE SECTION' line of its own to change")
+    listed = ", ".join(f"{b} {sec} (line {ln})" for _, ln, sec, b in lines)
     if not target:
         if len(lines) > 1:
-            names = ", ".join(f"{b} (line {ln})" for _, ln, _, b in lines)
-            raise CornerApplyError(f"{netlist.source} has several .lib lines ({names}); name the file, e.g. lib.\"{lines[0][3]}\" = ...")
+            raise CornerApplyError(f"{netlist.source} has several .lib lines ({listed}); name the one to change, by its section as "
+                                   f"written (lib.{lines[0][2] or 'SECTION'} = ...) or its file (lib.\"{lines[0][3]}\" = ...), or "
+                                   "switch them together with a process corner ([process.NAME], see the README)")
         return lines[0]
     want = target.replace("\\", "/").lower()
-    hits = [ln for ln in lines if ln[0].replace("\\", "/").lower().endswith(want)]
-    if len(hits) != 1:
-        names = ", ".join(b for _, _, _, b in lines)
-        raise CornerApplyError(f"{netlist.source}: {'no' if not hits else 'more than one'} .lib line reads {target!r} (its .lib files: {names})")
-    return hits[0]
+    by_file = [ln for ln in lines if ln[0].replace("\\", "/").lower().endswith(want)]
+    if len(by_file) == 1:
+        return by_file[0]
+    if len(by_file) > 1:
+        sections = ", ".join(f"{sec} (line {ln})" for _, ln, sec, _ in by_file)
+        first = by_file[0][2]
+        raise CornerApplyError(f"{netlist.source}: {len(by_file)} .lib lines read {target!r}, one per device family: {sections}; "
+                               f"name each by its section as written, e.g. lib.{first} = ..., and switch them together with a "
+                               f"process corner: [process.NAME] with lib.{first} = \"...\" and the others, then process = [\"NAME\", ...] "
+                               "in [axes] (see the README)")
+    by_section = [ln for ln in lines if ln[2].lower() == target.lower()]
+    if len(by_section) == 1:
+        return by_section[0]
+    what = "more than one" if by_section else "no"
+    raise CornerApplyError(f"{netlist.source}: {what} .lib line reads a file ending in {target!r} or has the section {target!r} "
+                           f"(its .lib lines: {listed})")
 
 
-def _with_libs(netlist: Netlist, libs: tuple[Setting, ...]) -> Netlist:
-    """Re-read the top file with the section of the chosen .lib lines replaced (one physical line each)."""
-    if not libs:
+def _swap_word(path: str, word: str, value: str) -> str:
+    """``path`` with every occurrence of ``word`` that letters and digits do not adjoin replaced by ``value``."""
+    return re.sub(rf"(?<![A-Za-z0-9]){re.escape(word)}(?![A-Za-z0-9])", lambda _: value, path)
+
+
+def _with_lines(netlist: Netlist, libs: tuple[Setting, ...], includes: tuple[Setting, ...]) -> Netlist:
+    """Re-read the top file with the section word of the chosen .lib lines and the corner word of its include
+    paths replaced (one physical line each); CornerApplyError names the setting a line cannot take."""
+    if not libs and not includes:
         return netlist
     path = netlist.source
     try:
@@ -69,14 +96,41 @@ def _with_libs(netlist: Netlist, libs: tuple[Setting, ...]) -> Netlist:
         if m is None:
             raise CornerApplyError(f"{path}:{line}: cannot find the section word of this .lib line", s)
         raw[line - 1] = m["head"] + s.value + raw[line - 1][m.end("section"):]
+    for s in includes:
+        swapped = 0
+        for line, _ in include_lines(netlist):
+            m = _PATH.match(raw[line - 1])
+            if m is None or (raw[line - 1].lstrip().lower().startswith(".lib") and _LIB_LINE.match(raw[line - 1]) is None):
+                continue
+            group = next(g for g in ("dq", "sq", "bare") if m[g] is not None)
+            old = m[group]
+            new = _swap_word(old, s.target, s.value)
+            if new == old and not re.search(rf"(?<![A-Za-z0-9]){re.escape(s.target)}(?![A-Za-z0-9])", old):
+                continue
+            target = new if os.path.isabs(new) else os.path.join(os.path.dirname(path), new)
+            if not os.path.isfile(target):
+                raise CornerApplyError(f"{path}:{line}: with {s.target!r} replaced by {s.value!r} this line would read {new!r}, "
+                                       "which does not exist", s)
+            raw[line - 1] = raw[line - 1][:m.start(group)] + new + raw[line - 1][m.end(group):]
+            swapped += 1
+        if not swapped:
+            paths = ", ".join(os.path.basename(p) for _, p in include_lines(netlist)[:4]) or "none"
+            raise CornerApplyError(f"{path}: no .include or .lib path of its own holds the corner word {s.target!r} "
+                                   f"(as a word of its own, e.g. .../{s.target}/... or ..._{s.target}.spice; its include files: {paths})", s)
     try:
         return parse_text("\n".join(raw) + "\n", source=path, base_dir=os.path.dirname(path))
     except NetlistError as exc:
-        raise CornerApplyError(str(exc), libs[0] if len(libs) == 1 else None) from exc
+        settings = (*libs, *includes)
+        raise CornerApplyError(str(exc), settings[0] if len(settings) == 1 else None) from exc
+
+
+def param_text(value: str) -> str:
+    """How a param setting's value is written on the .param line: as given when it is a plain word, else in braces."""
+    return value if re.fullmatch(r"[\w.+-]+", value) else "{" + value.strip("{}") + "}"
 
 
 def _set_param(netlist_statements: tuple, name: str, value: str) -> tuple[tuple, bool]:
-    shown = value if re.fullmatch(r"[\w.+-]+", value) else "{" + value.strip("{}") + "}"
+    shown = param_text(value)
     pat = re.compile(rf"(?P<pre>(?:^|[\s,]){re.escape(name)}\s*=\s*)(?P<val>\{{[^}}]*\}}|'[^']*'|\"[^\"]*\"|[^\s,]+)", re.IGNORECASE)
     found = False
     out = []
@@ -128,14 +182,16 @@ def _set_temp(statements: tuple, celsius: str, where: SourceLocation) -> tuple:
 def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, origin: SourceLocation | None = None) -> Netlist:
     """The netlist with the settings applied (the ``netlist`` setting is the caller's business: pass that file).
 
-    ``.lib`` sections: the top file is read again with the section word of that line replaced.
+    ``.lib`` sections and include corner words: the top file is read again with the section word of that
+    line, and the corner word in its include paths, replaced (``process`` settings arrive expanded into these).
     ``.param NAME``: every top-level definition of NAME gets the value. ``supply`` NAME: the DC value
     of the top-level voltage source NAME. ``temp``: any ``.temp`` (and ``temp=`` option) is dropped
     and ``.temp VALUE`` added. CornerApplyError when the netlist has no such line, parameter or source.
     """
     base = parse_file(netlist) if isinstance(netlist, str) else netlist
     libs = tuple(s for s in settings if s.kind == "lib")
-    nl = _with_libs(base, libs)
+    includes = tuple(s for s in settings if s.kind == "include")
+    nl = _with_lines(base, libs, includes)
     statements = nl.statements
     where = origin or SourceLocation("<corner>", 1)
     for s in settings:

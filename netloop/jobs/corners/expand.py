@@ -33,6 +33,7 @@ class Task:
     corner: Corner
     at: str
     key: str  # stable identity of everything that decides the result, for --resume
+    inputs: tuple[str, ...] = ()  # every file the corner's netlist reads (netlist, includes, libraries), for --resume
 
     @property
     def title(self) -> str:
@@ -57,11 +58,13 @@ def expand(plan: Plan) -> tuple[Corner, ...]:
         line = plan.axes[0].line
         pools = [[Setting(a.kind, a.target, v) for v in a.values] for a in plan.axes]
         for combo in itertools.product(*pools):
-            settings = _ordered(tuple(combo))
-            corners.append(Corner(_name(settings), _netlist(plan, settings), settings, line))
+            given = _ordered(tuple(combo))
+            settings = _with_process(plan, given, line)
+            corners.append(Corner(_name(given), _netlist(plan, settings), settings, line))
     for spec in plan.corners:
-        settings = _ordered(spec.settings)
-        corners.append(Corner(spec.name or _name(settings), _netlist(plan, settings), settings, spec.line))
+        given = _ordered(spec.settings)
+        settings = _with_process(plan, given, spec.line)
+        corners.append(Corner(spec.name or _name(given), _netlist(plan, settings), settings, spec.line))
     if not plan.axes and not plan.corners:
         corners.append(Corner("nominal", plan.netlist, (), 1))
     seen: dict[str, Corner] = {}
@@ -70,6 +73,22 @@ def expand(plan: Plan) -> tuple[Corner, ...]:
             raise plan.error(f"two corners are named {c.name!r} (the other comes from line {seen[c.name].line}); give each [[corner]] its own name", line=c.line)
         seen[c.name] = c
     return tuple(corners)
+
+
+def _with_process(plan: Plan, given: tuple[Setting, ...], line: int) -> tuple[Setting, ...]:
+    """The corner's settings with its process corner's lib and include settings added (the process setting kept, for
+    its name); a .lib line or include word set both by the process corner and by the corner itself is a PlanError."""
+    chosen = next((s for s in given if s.kind == "process"), None)
+    process = plan.process(chosen.value) if chosen is not None else None
+    if process is None:
+        return given
+    own = {(s.kind, s.target.lower()): s for s in given}
+    for s in process.settings:
+        if (s.kind, s.target.lower()) in own:
+            what = f"{s.kind}.{s.target}" if s.target else s.kind
+            raise plan.error(f"{what} is set both by process corner {process.name!r} (line {process.line}) and by the corner itself; "
+                             "set it in one place", line=line)
+    return _ordered((*given, *process.settings))
 
 
 def _netlist(plan: Plan, settings: tuple[Setting, ...]) -> str:

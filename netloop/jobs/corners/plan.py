@@ -12,11 +12,13 @@ from netloop.analysis.requirements import Requirement, parse_requirements
 from netloop.errors import PlanError
 from netloop.jobs.measure import METHODS, Sweep
 
-__all__ = ["AUTO", "KINDS", "Axis", "CornerSpec", "Plan", "Setting", "load_plan", "parse_plan"]
+__all__ = ["AUTO", "IN_PLACE", "KINDS", "Axis", "CornerSpec", "Plan", "ProcessCorner", "Setting", "load_plan", "parse_plan"]
 
 AUTO = "auto"
-KINDS = ("netlist", "lib", "temp", "param", "supply")  # what a setting can change, in naming order
-_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s sweep axes corner units regression".split())
+KINDS = ("netlist", "process", "lib", "include", "temp", "param", "supply")  # what a setting can change, in naming order
+IN_PLACE = ("temp", "param", "supply")  # kinds ngspice changes on a loaded circuit (netloop.sim.Change); the others need a load
+_PROCESS_KINDS = ("lib", "include")  # what a [process.NAME] table may set
+_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s share_loads sweep process axes corner units regression".split())
 _SWEEP_KEYS = frozenset("fmin_hz fmax_hz points_per_decade".split())
 
 
@@ -24,7 +26,9 @@ _SWEEP_KEYS = frozenset("fmin_hz fmax_hz points_per_decade".split())
 class Setting:
     """One change a corner makes to the netlist.
 
-    kind     "netlist" (value: a path), "lib" (value: a section; target: the .lib file, "" for the only one),
+    kind     "netlist" (value: a path), "process" (value: the name of a [process.NAME] table),
+             "lib" (value: a section; target: the .lib line, by its file or its section as written, "" for the only one),
+             "include" (target: the corner word as the netlist's include paths write it; value: the word that replaces it),
              "temp" (value: degrees C as text), "param" (target: the .param name), "supply" (target: a V source)
     """
 
@@ -37,7 +41,7 @@ class Setting:
         """How the setting reads in a corner name."""
         if self.kind == "netlist":
             return Path(self.value).stem
-        if self.kind == "lib":
+        if self.kind in ("lib", "include", "process"):
             return self.value
         if self.kind == "temp":
             return f"{self.value}C"
@@ -67,6 +71,17 @@ class CornerSpec:
 
 
 @dataclass(frozen=True, slots=True)
+class ProcessCorner:
+    """A named process corner of the plan's [process.NAME] tables: the section of each .lib line and the corner
+    word of the include paths it switches together; ``process = "NAME"`` in a corner or an axis selects it."""
+
+    name: str
+    settings: tuple[Setting, ...]  # kinds "lib" and "include" only
+    line: int  # the [process.NAME] table's line
+    setting_lines: tuple[int, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
 class Plan:
     """A corner plan as read: paths are absolute, requirements parsed, nothing simulated yet."""
 
@@ -82,9 +97,15 @@ class Plan:
     axes: tuple[Axis, ...]  # combined as a product
     corners: tuple[CornerSpec, ...]  # explicit list, run after the product
     text: str  # the plan's text, for finding lines of semantic errors
+    processes: tuple[ProcessCorner, ...] = ()  # the [process.NAME] tables, in plan order
+    share_loads: bool = True  # corners that differ only in temp, supply and .param values share a loaded circuit
     units: tuple[tuple[str, str], ...] = ()  # [units]: a setting's unit on maps ("iload", "A")
     limits: tuple = ()  # [regression]: netloop.jobs.runs.Limit, how much worse than a baseline a figure may get
     baseline: str = ""  # [regression] baseline: the results file to compare with (absolute path), "" for none
+
+    def process(self, name: str) -> ProcessCorner | None:
+        """The [process.NAME] table called ``name``."""
+        return next((p for p in self.processes if p.name == name), None)
 
     def line_of(self, *keys: str) -> int:
         """The plan line of a key (see `find_line`)."""
@@ -92,8 +113,8 @@ class Plan:
 
     def line_of_setting(self, setting: Setting, corner_line: int) -> int:
         """The plan line that asked for a setting: its [[corner]] key, else its axis, else ``corner_line``."""
-        for spec in self.corners:
-            if spec.line == corner_line:
+        for spec in (*self.corners, *self.processes):
+            if spec.line == corner_line or spec in self.processes:
                 for s, ln in zip(spec.settings, spec.setting_lines):
                     if s == setting:
                         return ln
@@ -162,8 +183,10 @@ def _values(raw: object, where: str, what: str) -> tuple:
     return items
 
 
-def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many: bool) -> list[tuple[Setting | tuple, int]]:
-    """Settings (or axes, with ``many``) from an [axes] or [[corner]] table; (item, line) pairs in key order."""
+def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many: bool,
+              kinds: tuple[str, ...] | None = None) -> list[tuple[Setting | tuple, int]]:
+    """Settings (or axes, with ``many``) from an [axes], [[corner]] or [process.NAME] table (``kinds``: the kinds
+    it may hold); (item, line) pairs in key order."""
     out: list = []
     for key, raw in table.items():
         where = _where(path, text, *section, key)
@@ -171,18 +194,25 @@ def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many:
         kind = key.lower()
         if kind == "name" and not many:
             continue
-        if kind in ("lib", "param", "supply") and isinstance(raw, dict):
+        if kinds is not None and kind not in kinds:
+            raise PlanError(f"{where}: a process corner sets {' and '.join(kinds)} only, not {key!r}; other settings belong in [axes] or [[corner]]")
+        if kind in ("lib", "include", "param", "supply") and isinstance(raw, dict):
             targets = raw.items()
-        elif kind in ("netlist", "temp"):
+        elif kind in ("netlist", "temp", "lib", "process"):
             targets = (("", raw),)
-        elif kind == "lib":
-            targets = (("", raw),)
+        elif kind == "include":
+            example = '["tt", "ss"]' if many else '"ss"'
+            raise PlanError(f"{where}: include needs the corner word the netlist's include paths hold, e.g. include.tt = {example}")
         elif kind in ("param", "supply"):
             raise PlanError(f"{where}: {key} needs a name, e.g. {key}.vdd = {'[3.0, 3.3]' if many else '3.0'}")
         else:
             raise PlanError(f"{where}: unknown setting {key!r}; expected one of {', '.join(KINDS)}")
+        key_line = line
         for target, value in targets:
             what = f"{key}.{target}" if target else key
+            dotted = find_line(text, *section, what) if target else key_line
+            line = dotted if dotted > find_line(text, *section) and dotted >= key_line else key_line  # lib.typical = ... on its own line
+            where = f"{path}:{line}"
             if isinstance(value, dict):
                 raise PlanError(f"{where}: {what} must be {'a list of values' if many else 'a value'}, not a table")
             values = _values(value, where, what) if many else (value,)
@@ -200,10 +230,11 @@ def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many:
                     texts.append(_as_text(v, where, what))
             if len(set(texts)) != len(texts):
                 raise PlanError(f"{where}: {what} lists a value twice")
+            keep_case = kind in ("lib", "include")  # file names and include paths are case-sensitive
             if many:
-                out.append((Axis(kind, target.lower() if kind != "lib" else target, tuple(texts), line), line))
+                out.append((Axis(kind, target if keep_case else target.lower(), tuple(texts), line), line))
             else:
-                out.append((Setting(kind, target.lower() if kind != "lib" else target, texts[0]), line))
+                out.append((Setting(kind, target if keep_case else target.lower(), texts[0]), line))
     return out
 
 
@@ -255,6 +286,10 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
     if driver is not None and not isinstance(driver, str):
         raise PlanError(f"{_where(path, text, 'driver')}: driver must be text such as \"m6.d\"")
     sweep = _sweep(data.get("sweep", {}), path, text)
+    share = data.get("share_loads", True)
+    if not isinstance(share, bool):
+        raise PlanError(f"{_where(path, text, 'share_loads')}: share_loads must be true or false")
+    processes = _processes(data.get("process", {}), path, text)
     axes_raw = data.get("axes", {})
     if not isinstance(axes_raw, dict):
         raise PlanError(f"{_where(path, text, 'axes')}: axes must be a table ([axes])")
@@ -271,12 +306,19 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
             raise PlanError(f"{_where(path, text, *section, 'name')}: a corner's name must be text")
         pairs = _settings(table, path, text, section, many=False)
         corners.append(CornerSpec(name.strip(), tuple(s for s, _ in pairs), line, tuple(ln for _, ln in pairs)))
+    names = {p.name for p in processes}
+    for kind, values, line in [*((a.kind, a.values, a.line) for a in axes),
+                               *((s.kind, (s.value,), ln) for c in corners for s, ln in zip(c.settings, c.setting_lines))]:
+        unknown = [v for v in values if kind == "process" and v not in names]
+        if unknown:
+            known = ", ".join(sorted(names)) or "none: add [process.NAME] tables"
+            raise PlanError(f"{path}:{line}: no process corner named {unknown[0]!r} (the plan's process corners: {known})")
     units = _units(data.get("units", {}), _where(path, text, "units"))
     from netloop.jobs.runs.limits import regression_table
 
     limits, baseline = regression_table(data.get("regression", {}), _where(path, text, "regression"), str(base))
     return Plan(path, netlist, at, driver, method, requirements, rhp, float(timeout), sweep, axes, tuple(corners), text,
-                units, limits, baseline)
+                processes, share, units, limits, baseline)
 
 
 def _units(raw: object, where: str) -> tuple[tuple[str, str], ...]:
@@ -288,6 +330,23 @@ def _units(raw: object, where: str) -> tuple[tuple[str, str], ...]:
     if not isinstance(raw, dict) or not all(isinstance(v, str) for v in flat.values()):
         raise PlanError(f"{where}: units must be a table of texts, e.g. [units] iload = \"A\"")
     return tuple((k.lower(), v.strip()) for k, v in flat.items())
+
+
+def _processes(raw: object, path: str, text: str) -> tuple[ProcessCorner, ...]:
+    """The [process.NAME] tables: each a named set of lib and include settings with one value each."""
+    if not isinstance(raw, dict) or not all(isinstance(t, dict) for t in raw.values()):
+        raise PlanError(f"{_where(path, text, 'process')}: process corners are tables: [process.NAME] with lib.LINE = \"SECTION\" "
+                        "(and include.WORD = \"WORD\") keys")
+    out = []
+    for name, table in raw.items():
+        header = re.search(rf"^\s*\[\s*process\.[\"']?{re.escape(name)}[\"']?\s*\]", text, flags=re.MULTILINE)
+        section = (f"process.{name}",) if header else ("process", name)
+        line = text.count("\n", 0, header.start()) + 1 if header else find_line(text, *section)
+        if not table:
+            raise PlanError(f"{path}:{line}: process corner {name!r} sets nothing; give it lib.LINE = \"SECTION\" keys")
+        pairs = _settings(table, path, text, section, many=False, kinds=_PROCESS_KINDS)
+        out.append(ProcessCorner(name, tuple(s for s, _ in pairs), line, tuple(ln for _, ln in pairs)))
+    return tuple(out)
 
 
 def _sweep(raw: object, path: str, text: str) -> Sweep:

@@ -1,4 +1,4 @@
-"""A plain one-line progress bar on stderr: done/total, failures, elapsed time and an estimate of what is left."""
+"""A plain one-line progress bar on stderr: done/total, failures, circuit loads, elapsed time and an estimate of what is left."""
 
 from __future__ import annotations
 
@@ -19,11 +19,17 @@ class Progress:
         self.width = width
         self.done = 0
         self.bad = 0
+        self.loads = 0  # times ngspice read a netlist for the corners done now
+        self.shared = 0  # corners done now on a circuit another corner loaded
         self.started = time.monotonic()
 
-    def advance(self, bad: bool) -> None:
+    def advance(self, bad: bool, loads: int | None = None) -> None:
+        """One more corner done; ``loads``: how often ngspice read its netlist (0: it shared a loaded circuit)."""
         self.done += 1
         self.bad += bool(bad)
+        if loads is not None:
+            self.loads += loads
+            self.shared += loads == 0
         self.draw()
 
     def draw(self) -> None:
@@ -34,7 +40,8 @@ class Progress:
         elapsed = time.monotonic() - self.started
         left = elapsed / self.done * (self.total - self.done) if self.done else None
         eta = f", about {left:.0f} s left" if left is not None and self.done < self.total else ""
-        line = f"\r[{'#' * filled}{'.' * (self.width - filled)}] {self.done}/{self.total} corners, {self.bad} failed, {elapsed:.0f} s{eta}"
+        shared = f", {self.loads} loads ({self.shared} corners on a loaded circuit)" if self.loads or self.shared else ""
+        line = f"\r[{'#' * filled}{'.' * (self.width - filled)}] {self.done}/{self.total} corners, {self.bad} failed{shared}, {elapsed:.0f} s{eta}"
         self.stream.write(line.ljust(80))
         self.stream.flush()
 

@@ -8,18 +8,18 @@ import os
 import uuid
 import warnings
 from collections.abc import Iterator
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from netloop.jobs.corners.apply import CornerApplyError, apply_settings
 from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
-from netloop.jobs.corners.journal import Journal, default_results_path
-from netloop.jobs.corners.plan import AUTO, Plan
+from netloop.jobs.corners.journal import Journal, default_results_path, fingerprints
+from netloop.jobs.corners.plan import AUTO, IN_PLACE, Plan
 from netloop.jobs.corners.progress import Progress
 from netloop.jobs.corners.worker import TaskOptions, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
 
-__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "local_cluster", "run_plan"]
+__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "share_out"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -34,6 +34,7 @@ class CornerRun:
     workers: int = 0
     counts: dict = field(default_factory=dict)
     stale: int = 0  # records in a resumed file that belong to no task of this plan (an earlier version of it): left out
+    rerun: dict = field(default_factory=dict)  # resumed corners measured again: corner name -> the input files that changed
 
     @property
     def passed(self) -> bool:
@@ -60,6 +61,7 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
         except ImportError as exc:
             raise plan.error("at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes", "at") from exc
     parsed: dict[tuple, object] = {}
+    files: dict[str, tuple[str, ...]] = {}  # corner name -> every file its netlist reads
     _check_breaks(plan, corners)
     for c in corners:
         libs = tuple(s for s in c.settings if s.kind == "lib")
@@ -69,13 +71,13 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
             if base is None:
                 base = apply_settings(c.netlist, libs)
                 parsed[(c.netlist, libs)] = base
-            apply_settings(base, rest)
+            files[c.name] = apply_settings(base, rest).files
         except CornerApplyError as exc:
             line = plan.line_of_setting(exc.setting, c.line) if exc.setting is not None else c.line
             raise plan.error(f"corner {c.name!r}: {exc}", line=line) from exc
         except NetlistError as exc:
             raise plan.error(f"corner {c.name!r}: {exc}", line=c.line) from exc
-    return tasks_of(plan, corners)
+    return tuple(replace(t, inputs=files.get(t.corner.name, ())) for t in tasks_of(plan, corners))
 
 
 def _check_breaks(plan: Plan, corners: tuple[Corner, ...]) -> None:
@@ -129,8 +131,9 @@ def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Itera
         if cluster:
             try:
                 client = Client(cluster, timeout="30s")
-            except OSError as exc:
-                raise PlanError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from exc
+            except (OSError, ValueError, TypeError) as exc:  # unreachable (OSError) or not an address (ValueError)
+                raise NetloopError(f"cannot reach a Dask scheduler at {cluster!r} ({exc}); give the address of a running "
+                                   "scheduler, such as tcp://10.0.0.5:8786") from exc
             try:
                 yield client
             finally:
@@ -151,12 +154,14 @@ def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Itera
 # about 6.5 % to 2.5 % of a CPU without them.
 # And the scheduler sends every corner to a worker at once rather than one at a time (queuing, the
 # default, makes each worker wait a round trip to the scheduler between two corners: 16 trivial tasks
-# on 2 workers took 27 ms with it and 13-19 ms without); work stealing still evens out the workers.
+# on 2 workers took 27 ms with it and 13-19 ms without).
 LOCAL_CLUSTER_CONFIG = {
     "distributed.worker.profile.enabled": False,
     "distributed.admin.tick.interval": "1s",
     "distributed.admin.system-monitor.interval": "5s",
     "distributed.scheduler.worker-saturation": float("inf"),
+    # corners are placed on workers by the circuit they need loaded (share_out); a stolen corner would load its own
+    "distributed.scheduler.work-stealing": False,
 }
 
 
@@ -178,7 +183,48 @@ def local_cluster(workers: int) -> Iterator[object]:
 
 def _options(plan: Plan) -> TaskOptions:
     return TaskOptions(method=plan.method, driver=plan.driver, sweep=plan.sweep, open_loop_rhp_poles=plan.open_loop_rhp_poles,
-                       requirements=tuple(r.text for r in plan.requirements), timeout_s=plan.timeout_s)
+                       requirements=tuple(r.text for r in plan.requirements), timeout_s=plan.timeout_s, share_loads=plan.share_loads)
+
+
+def load_groups(tasks: list[Task], share_loads: bool = True) -> list[list[Task]]:
+    """The tasks grouped by the circuit they need loaded, in plan order: tasks of one group differ only in values ngspice
+    changes in place (temperature, supplies, .param values), so one load serves them all. Without ``share_loads`` every
+    task is a group of its own."""
+    groups: dict[tuple, list[Task]] = {}
+    for i, task in enumerate(tasks):
+        loaded = tuple((s.kind, s.target, s.value) for s in task.corner.settings if s.kind not in IN_PLACE)
+        changed = tuple(sorted((s.kind, s.target) for s in task.corner.settings if s.kind in IN_PLACE))
+        key = (task.corner.netlist, task.at, loaded, changed) if share_loads and changed else ("own", i)
+        groups.setdefault(key, []).append(task)
+    return list(groups.values())
+
+
+# What a load costs against a corner on a loaded circuit, for sharing groups out (sky130 regulator, official
+# process sections: a load about 5 s, a corner after it about 0.1 s; benchmarks/corners_reuse.py).
+_LOAD_IN_CORNERS = 10
+
+
+def share_out(groups: list[list[Task]], workers: int) -> list[list[Task]]:
+    """Each worker's tasks, in the order it should run them: whole groups where possible, the largest split so that
+    every worker has work and the loads spread evenly (a multiple of ``workers`` chunks); then the chunks dealt out
+    largest first to the worker with the least work (a load counting as _LOAD_IN_CORNERS corners)."""
+    chunks = [list(g) for g in groups if g]
+    if workers < 1 or not chunks:
+        return [chunks[0] if chunks else []] if workers >= 1 else []
+    wanted = -(-len(chunks) // workers) * workers
+    while len(chunks) < wanted:
+        largest = max(range(len(chunks)), key=lambda i: (len(chunks[i]), -i))
+        if len(chunks[largest]) < 2:
+            break
+        half = (len(chunks[largest]) + 1) // 2
+        chunks[largest:largest + 1] = [chunks[largest][:half], chunks[largest][half:]]
+    lists: list[list[Task]] = [[] for _ in range(workers)]
+    work = [0] * workers
+    for chunk in sorted(chunks, key=len, reverse=True):  # stable: equal chunks keep plan order
+        w = min(range(workers), key=lambda i: (work[i], i))
+        lists[w].extend(chunk)
+        work[w] += _LOAD_IN_CORNERS + len(chunk)
+    return lists
 
 
 def _lost(task: Task, exc: BaseException) -> tuple[dict, ...]:
@@ -198,7 +244,9 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     """
     tasks = check_plan(plan)
     path = Path(out) if out is not None else default_results_path(plan.path)
-    journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force)
+    cache: dict[str, str] = {}
+    inputs = {t.key: fingerprints(t.inputs, cache) for t in tasks}
+    journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force, inputs=inputs)
     by_key: dict[str, tuple[dict, ...]] = {k: tuple(v) for k, v in journal.done.items()}
     pending = [t for t in tasks if t.key not in by_key]
     bar = Progress(len(tasks), enabled=progress)
@@ -208,7 +256,8 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     try:
         if pending:
             bar.draw()
-            workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster)
+            workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
+                           inputs=inputs)
     finally:
         journal.close()
         bar.finish()
@@ -216,8 +265,10 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "inconclusive", "error")}
     keys = {t.key for t in tasks}
     stale = sum(len(v) for k, v in journal.done.items() if k not in keys)
+    names = {t.key: t.corner.name for t in tasks}
+    rerun = {names[k]: files for k, files in journal.rerun.items() if k in names}
     return CornerRun(plan.path, str(path), records, ran=len(pending), skipped=len(tasks) - len(pending), workers=workers,
-                     counts=counts, stale=stale)
+                     counts=counts, stale=stale, rerun=rerun)
 
 
 def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
@@ -236,21 +287,33 @@ def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
     return [(f, got.get(id(f))) for f in batch]
 
 
-def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None) -> int:
+def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None,
+         inputs: dict[str, dict[str, str]]) -> int:
     from distributed import as_completed
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
-        workers = len(client.scheduler_info().get("workers", {}))
+        addresses = sorted(client.scheduler_info().get("workers", {}))
+        workers = len(addresses)
         run_id = uuid.uuid4().hex[:8]  # two runs on one scheduler never share a task
-        # one message to the scheduler for every corner (a submit each costs a round trip of its own)
-        keys = [f"netloop-corner-{t.key}-{run_id}" for t in pending]
-        futures = dict(zip(client.map(run_task, pending, options=options, key=keys, pure=False), pending, strict=True))
+        futures: dict = {}
+        # each worker gets whole groups of corners that share one loaded circuit, in order (one message to the
+        # scheduler per worker: a submit each costs a round trip of its own); a worker that is lost hands its
+        # corners on (allow_other_workers), and the local cluster steals none (LOCAL_CLUSTER_CONFIG)
+        lists = share_out(load_groups(pending, options.share_loads), workers) if workers else [pending]
+        for address, tasks in zip(addresses or [None], lists):
+            if not tasks:
+                continue
+            keys = [f"netloop-corner-{i:05d}-{t.key}-{run_id}" for i, t in enumerate(tasks)]
+            place = {"workers": [address], "allow_other_workers": True} if address else {}
+            futures.update(zip(client.map(run_task, tasks, options=options, key=keys, pure=False, **place), tasks, strict=True))
         # the futures that finished together are fetched in one round trip to the scheduler
         for batch in as_completed(futures).batches():
             for future, records in _fetch(client, batch):
                 task = futures[future]
                 records = records if records is not None else _lost(task, future.exception())
+                records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
                 journal.write(records)
                 by_key[task.key] = records
-                bar.advance(any(r["outcome"] != "pass" for r in records))
+                loads = [r.get("loads") for r in records]
+                bar.advance(any(r["outcome"] != "pass" for r in records), sum(loads) if None not in loads else None)
     return workers

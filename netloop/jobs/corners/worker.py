@@ -10,10 +10,11 @@ from dataclasses import dataclass, replace
 
 from netloop.jobs.corners.apply import apply_settings
 from netloop.jobs.corners.expand import Task
+from netloop.jobs.corners.plan import Setting
 from netloop.errors import NetloopError, SimulationError
 from netloop.jobs.measure import Sweep, measure
 
-__all__ = ["TaskOptions", "close_simulator", "run_task", "worker_simulator"]
+__all__ = ["TaskOptions", "close_simulator", "in_place_changes", "run_task", "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
 
@@ -28,6 +29,7 @@ class TaskOptions:
     open_loop_rhp_poles: int = 0
     requirements: tuple[str, ...] = ()
     timeout_s: float = 600.0
+    share_loads: bool = True  # a corner may run on the circuit the previous one left loaded (in_place_changes)
 
 
 def worker_simulator():
@@ -48,7 +50,40 @@ def close_simulator() -> None:
         sim.close()
 
 
-def _record(task: Task, at: str, started: float, *, loop: dict | None = None, outcome: str, error: str | None = None, output: str | None = None, sim_seconds: float = 0.0) -> dict:
+def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
+    """The corner's settings that ngspice can change on a loaded circuit, as netloop.sim.Change records:
+    the temperature, supply DC values and top-level .param values (as apply_settings writes them)."""
+    from netloop.jobs.corners.apply import param_text
+    from netloop.sim import Change
+
+    out = []
+    for s in settings:
+        if s.kind == "temp":
+            out.append(Change("temp", "", s.value))
+        elif s.kind == "supply":
+            out.append(Change("source", s.target, s.value))
+        elif s.kind == "param":
+            out.append(Change("param", s.target, param_text(s.value)))
+    return tuple(out)
+
+
+class _InPlace:
+    """The worker's simulator, every job of one corner naming the values ngspice may change in place (SimJob.changes):
+    the next corner that differs only in those values runs on the circuit this one leaves loaded."""
+
+    def __init__(self, simulator, changes: tuple):
+        self._simulator = simulator
+        self._changes = changes
+
+    def run(self, job):
+        return self._simulator.run(replace(job, changes=self._changes))
+
+    def __getattr__(self, name: str):
+        return getattr(self._simulator, name)
+
+
+def _record(task: Task, at: str, started: float, *, loop: dict | None = None, outcome: str, error: str | None = None, output: str | None = None, sim_seconds: float = 0.0,
+            loads: int | None = None) -> dict:
     return {
         "record": "corner",
         "key": task.key,
@@ -61,6 +96,7 @@ def _record(task: Task, at: str, started: float, *, loop: dict | None = None, ou
         "simulator_output": output,
         "seconds": time.perf_counter() - started,
         "sim_seconds": sim_seconds,
+        "loads": loads,  # times ngspice read the netlist for this corner; 0: it ran on a circuit already loaded
         "worker": f"{socket.gethostname()}:{os.getpid()}",
         "loop": loop,
     }
@@ -83,6 +119,9 @@ def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
     try:
         netlist = apply_settings(task.corner.netlist, task.corner.settings)
         simulator = worker_simulator()
+        changes = in_place_changes(task.corner.settings) if options.share_loads else ()
+        if changes:
+            simulator = _InPlace(simulator, changes)
         if task.at == "auto":
             results = _measure_all(netlist, options, simulator)
         else:
@@ -98,5 +137,5 @@ def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
     records = []
     for r in results:
         doc = to_document(replace(r, label=task.corner.name))
-        records.append(_record(task, r.breaks.node, started, loop=doc, outcome=r.verdict, sim_seconds=r.sim.seconds))
+        records.append(_record(task, r.breaks.node, started, loop=doc, outcome=r.verdict, sim_seconds=r.sim.seconds, loads=r.sim.loads))
     return tuple(records)

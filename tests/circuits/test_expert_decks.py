@@ -1,0 +1,67 @@
+"""The expert decks of the verification benches are right: two breaks of one loop agree, and ngspice's .pz agrees."""
+
+from __future__ import annotations
+
+import re
+import subprocess
+
+import numpy as np
+import pytest
+
+from bench_experts import BENCH, BENCHES, expert
+from netloop.analysis import analyse
+
+pytestmark = pytest.mark.ngspice
+
+
+def _dominant(stem: str) -> tuple[float, float]:
+    """(frequency, damping) of the dominant closed-loop pole fitted from an expert deck's 1/(1+T)."""
+    f, t = expert(stem)
+    poles = analyse(f, t).poles
+    assert poles is not None and poles.dominant_freq_hz is not None, stem
+    return poles.dominant_freq_hz, poles.dominant_damping
+
+
+@pytest.mark.parametrize("name", sorted(BENCH))
+def test_two_complete_expert_breaks_find_the_same_closed_loop_poles(name):
+    """Two different hand-made breaks of one loop give the same dominant closed-loop pole and the same Nyquist verdict."""
+    # Reference: the zeros of 1 + T at any break are the closed-loop poles of the one circuit (Bode's return
+    # ratio; Tian et al. 2001), so two expert breaks must agree; the fit is netloop.analysis's AAA fit of 1/(1+T).
+    bench = BENCH[name]
+    one, two = bench.complete
+    (f1, z1), (f2, z2) = _dominant(one), _dominant(two)
+    assert f1 == pytest.approx(f2, rel=2e-2) and z1 == pytest.approx(z2, rel=2e-2, abs=2e-2)
+    for stem in (one, two):
+        f, t = expert(stem)
+        assert analyse(f, t).stable == bench.stable
+
+
+@pytest.mark.parametrize("name", sorted(n for n, b in BENCH.items() if b.pz))
+def test_expert_breaks_find_ngspice_pz_poles(name, tmp_path):
+    """On the small benches, the expert break's dominant closed-loop pole is one of ngspice's .pz poles of the closed circuit."""
+    bench = BENCH[name]
+    deck = tmp_path / "pz.cir"
+    text = re.sub(r"(?ms)^\.control.*?^\.endc\s*$", "", (BENCHES / name).read_text())
+    text = re.sub(r"(?m)^\.end\s*$", "", text).replace(".lib ../", f".lib {BENCHES.parent.as_posix()}/")
+    deck.write_text(text + f".control\npz {bench.pz} pol\nprint all\nquit\n.endc\n.end\n")
+    run = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=120, cwd=BENCHES)
+    found = re.findall(r"pole\(\d+\)\s*=\s*([-+0-9.eE]+),\s*([-+0-9.eE]+)", run.stdout)
+    assert found, run.stdout[-2000:]
+    poles = np.array([complex(float(r), float(i)) for r, i in found])  # ngspice .pz, rad/s
+    assert np.all(poles.real < 0) == bench.stable
+    f, t = expert(bench.pz_break)
+    fit = analyse(f, t).poles
+    w = 2 * np.pi * fit.dominant_freq_hz
+    want = complex(-fit.dominant_damping * w, w * np.sqrt(max(1 - fit.dominant_damping ** 2, 0.0)))
+    nearest = poles[np.argmin(np.abs(poles - want))]
+    assert abs(nearest - want) < 2e-2 * abs(want)  # .pz prints 6 digits; the fit of 1/(1+T) is good to better than 1 %
+
+
+@pytest.mark.parametrize("name", sorted(BENCH))
+def test_every_loop_group_has_a_plausible_node_listed(name):
+    """Each loop group the census finds has at least one of the bench's plausible break nodes, so every loop is covered here."""
+    from netloop.jobs.discover import take_census
+
+    census = take_census(BENCHES / name, sweep=False)
+    for gc in census.groups:
+        assert set(gc.group.nodes) & set(BENCH[name].nodes), (name, gc.group.label)

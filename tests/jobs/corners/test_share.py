@@ -1,0 +1,191 @@
+"""Corners that differ only in values ngspice changes in place share one loaded circuit, with the margins of a fresh load
+and of `netloop check` on the netlist edited by hand to each corner."""
+
+from __future__ import annotations
+
+import itertools
+import re
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from netloop.jobs.corners import check_plan, load_plan, run_plan, run_task
+from netloop.jobs.corners.runner import load_groups, local_cluster, share_out
+from netloop.jobs.corners.worker import TaskOptions, close_simulator
+from netloop.jobs.measure import measure
+from netloop.sim import default_simulator
+
+ROOT = Path(__file__).resolve().parents[3]
+MILLER = ROOT / "circuits" / "miller_buffer.cir"
+
+
+def _t(loop: dict) -> tuple[np.ndarray, np.ndarray]:
+    gain = loop["loop_gain"]
+    return np.asarray(gain["freq_hz"]), np.asarray(gain["re"]) + 1j * np.asarray(gain["im"])
+
+
+def _tasks(tmp_path: Path, body: str, netlist: Path = MILLER):
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{netlist}"\nat = "out"\n{body}')
+    plan = load_plan(path)
+    return plan, check_plan(plan)
+
+
+def test_groups_are_the_corners_one_load_serves(tmp_path):
+    """Corners group by everything but temperature, supply and .param values (and the set of those they change); without
+    share_loads each corner is a group of its own."""
+    plan, tasks = _tasks(tmp_path, '[axes]\nlib = ["tt", "ss"]\ntemp = [0, 50]\nsupply.vdd = [3.0, 3.6]\n\n'
+                                   '[[corner]]\nlib = "ss"\ntemp = 80\n\n[[corner]]\nlib = "ss"\ntemp = 90\nsupply.vdd = 3.3\n')
+    groups = load_groups(list(tasks))
+    assert [[t.corner.name for t in g] for g in groups] == [
+        [t.corner.name for t in tasks[:4]], [*(t.corner.name for t in tasks[4:8]), tasks[9].corner.name], [tasks[8].corner.name]]
+    assert len(load_groups(list(tasks), share_loads=False)) == len(tasks)
+
+
+def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
+    """Three groups of six on two workers: four chunks (the largest split), two loads and nine corners per worker, each
+    chunk in plan order; one worker takes every group whole, in order."""
+    _, tasks = _tasks(tmp_path, '[axes]\nlib = ["tt", "ss", "ff"]\ntemp = [-40, 27, 125]\nsupply.vdd = [3.0, 3.6]\n')
+    groups = load_groups(list(tasks))
+    two = share_out(groups, 2)
+    assert sorted(len(w) for w in two) == [9, 9]
+    for w in two:
+        runs = [k for k, _ in itertools.groupby(t.corner.settings[0].value for t in w)]
+        assert len(runs) == 2  # two loads each: two unbroken runs of one section
+    assert share_out(groups, 1) == [list(tasks)]
+    assert sorted(len(w) for w in share_out(load_groups(list(tasks), share_loads=False), 2)) == [9, 9]
+
+
+@pytest.mark.ngspice
+def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(tmp_path):
+    """Eight corners of one section (temperature, supply, a .param) run one after the other in one worker: with share_loads
+    one load serves all eight and each corner's sampled T and margins are bit for bit those of one load per corner."""
+    plan, tasks = _tasks(tmp_path, '[axes]\ntemp = [-40, 125]\nsupply.vdd = [3.0, 3.6]\nparam.cc = ["0.9p", "1.5p"]\n')
+    records = {}
+    for share in (True, False):
+        close_simulator()
+        records[share] = [run_task(t, TaskOptions(share_loads=share))[0] for t in tasks]
+    close_simulator()
+    assert [r["loads"] for r in records[True]] == [1, 0, 0, 0, 0, 0, 0, 0]
+    assert [r["loads"] for r in records[False]] == [1] * 8
+    for shared, fresh in zip(records[True], records[False]):
+        f1, t1 = _t(shared["loop"])
+        f2, t2 = _t(fresh["loop"])
+        assert np.array_equal(f1, f2) and np.array_equal(t1, t2), shared["corner"]
+        assert shared["loop"]["margins"] == fresh["loop"]["margins"]
+    assert len({r["loop"]["margins"]["phase_margin_deg"] for r in records[True]}) == 8  # every corner really differs
+
+
+@pytest.fixture(scope="module")
+def scheduler():
+    """A local Dask cluster of two worker processes, as `netloop corners --jobs 2` starts it."""
+    with local_cluster(2) as cluster:
+        yield cluster.scheduler_address
+
+
+def _hand_edited(path: Path, settings: dict[str, str], edits) -> str:
+    """The netlist text edited by hand to a corner: the edits of its process, the supply's DC value, a .temp line."""
+    text = path.read_text()
+    for old, new in edits:
+        text = text.replace(old, new)
+    for key, value in settings.items():
+        if key.startswith("supply."):
+            name = key.split(".", 1)[1]
+            text, found = re.subn(rf"(?im)^({name}\s+\S+\s+\S+\s+dc)\s+\S+", rf"\g<1> {value}", text)
+            assert found == 1
+    return text.replace("\n.end", f"\n.temp {settings['temp']}\n.end")
+
+
+def _compare_with_hand_edits(records, netlist: Path, at: str, driver: str | None, edits_of) -> None:
+    """Each corner's T equals that of `netloop check` (measure) on the netlist edited by hand, to 1e-9 relative."""
+    simulator = default_simulator()
+    try:
+        for i, r in enumerate(records):
+            edited = netlist.parent / f"corner{i}.cir"  # beside the netlist: its relative paths hold
+            edited.write_text(_hand_edited(netlist, r["settings"], edits_of(r["settings"])))
+            check = measure(edited, at, driver=driver, simulator=simulator)
+            f, t = _t(r["loop"])
+            np.testing.assert_allclose(check.analysis.freq_hz, f, rtol=1e-12, err_msg=r["corner"])
+            np.testing.assert_allclose(check.analysis.t, t, rtol=1e-9, atol=0, err_msg=r["corner"])
+    finally:
+        simulator.close()
+
+
+@pytest.mark.ngspice
+def test_families_plan_equals_check_on_netlists_edited_by_hand(tmp_path, scheduler):
+    """Every corner of circuits/plans/families_corners.toml (three .lib lines of one invented file per process corner,
+    temperature, supply), run on two workers with shared loads, has the T of `netloop check` on the netlist edited by hand
+    to that corner (relative 1e-9); the 18 corners took 4 loads, each worker running its corners of one section together."""
+    plan = load_plan(ROOT / "circuits" / "plans" / "families_corners.toml")
+    run = run_plan(plan, cluster=scheduler, out=tmp_path / "families.jsonl")
+    assert run.counts["error"] == 0 and len(run.records) == 18
+    assert sum(r["loads"] for r in run.records) == 4
+    assert all(n == 2 for n in Counter(r["worker"] for r in run.records for _ in range(r["loads"])).values())
+    sections = {"typical": ("typical", "res_typical", "cap_typical"), "slow": ("slow", "res_high", "cap_high"),
+                "fast": ("fast", "res_low", "cap_low")}
+    netlist = tmp_path / "circuits" / "miller_families.cir"
+    netlist.parent.mkdir()
+    netlist.write_text((ROOT / "circuits" / "miller_families.cir").read_text())
+    (netlist.parent / "models").symlink_to(ROOT / "circuits" / "models")
+
+    def edits(settings):
+        new = sections[settings["process"]]
+        return [(f"families.lib {old}\n", f"families.lib {n}\n") for old, n in zip(sections["typical"], new)]
+
+    _compare_with_hand_edits(run.records, netlist, "out", None, edits)
+
+
+def _sky130_by_file(tmp_path: Path) -> Path:
+    """circuits/sky130/ldo.cir with its `.lib process.spice tt` line replaced by the tt section's own lines: the sky130
+    model files included one by one, the corner in their names (absolute paths into the installed process)."""
+    process = (ROOT / "circuits" / "sky130" / "process.spice").read_text()
+    section = re.search(r"^\.lib tt\n(.*?)^\.endl tt", process, flags=re.MULTILINE | re.DOTALL)[1]
+    section = section.replace('"../../.venv', f'"{ROOT}/.venv')
+    netlist = tmp_path / "ldo_files.cir"
+    netlist.write_text((ROOT / "circuits" / "sky130" / "ldo.cir").read_text().replace(".lib process.spice tt\n", section))
+    return netlist
+
+
+@pytest.mark.ngspice
+def test_sky130_include_corners_equal_check_on_netlists_edited_by_hand(tmp_path, scheduler):
+    """The sky130 regulator including its model files one by one, corners chosen by the corner word of the files' names
+    (ss, ff) at two temperatures, sharing loads: each corner has the T of `netloop check` on the netlist with its include
+    lines edited by hand (relative 1e-9)."""
+    netlist = _sky130_by_file(tmp_path)
+    plan_path = tmp_path / "plan.toml"
+    plan_path.write_text(f'netlist = "{netlist}"\nat = "fb"\ndriver = "r1.n,r2.p"\n\n'
+                         '[axes]\ninclude.tt = ["ss", "ff"]\ntemp = [-40, 125]\nsupply.vsup = [1.7]\n')
+    run = run_plan(load_plan(plan_path), cluster=scheduler, out=tmp_path / "sky130.jsonl")
+    assert run.counts["error"] == 0 and len(run.records) == 4
+    assert sum(r["loads"] for r in run.records) <= 3
+
+    def edits(settings):
+        word = settings["include.tt"]
+        return [("__nfet_01v8__tt.pm3", f"__nfet_01v8__{word}.pm3"), ("__pfet_01v8__tt.corner", f"__pfet_01v8__{word}.corner")]
+
+    _compare_with_hand_edits(run.records, netlist, "fb", "r1.n,r2.p", edits)
+
+
+@pytest.mark.ngspice
+def test_sky130_plan_sections_equal_check_on_netlists_edited_by_hand(tmp_path, scheduler):
+    """Corners of circuits/plans/sky130_ldo_corners.toml (the regulator's process.spice section, temperature, supply),
+    sharing loads, have the T of `netloop check` on the netlist edited by hand (relative 1e-9); six of them, to keep the
+    test short."""
+    demo = load_plan(ROOT / "circuits" / "plans" / "sky130_ldo_corners.toml")
+    plan_path = tmp_path / "plan.toml"
+    plan_path.write_text(f'netlist = "{demo.netlist}"\nat = "fb"\ndriver = "r1.n,r2.p"\n\n'
+                         '[axes]\nlib = ["ss", "ff"]\ntemp = [-40, 27, 125]\nsupply.vsup = [1.9]\n')
+    run = run_plan(load_plan(plan_path), cluster=scheduler, out=tmp_path / "sections.jsonl")
+    assert run.counts["error"] == 0 and len(run.records) == 6
+    assert sum(r["loads"] for r in run.records) == 2
+
+    netlist = tmp_path / "ldo.cir"  # a copy reading the same process file by its absolute path
+    process = ROOT / "circuits" / "sky130" / "process.spice"
+    netlist.write_text(Path(demo.netlist).read_text().replace(".lib process.spice tt\n", f".lib {process} tt\n"))
+
+    def edits(settings):
+        return [(f"{process} tt\n", f"{process} {settings['lib']}\n")]
+
+    _compare_with_hand_edits(run.records, netlist, "fb", "r1.n,r2.p", edits)

@@ -1,0 +1,162 @@
+"""A job whose netlist differs from the loaded circuit only in values ngspice changes in place runs on that circuit, bit for bit as a fresh load."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from netloop.sim import AcRun, AcSweep, Alter, Change, SimJob
+from netloop.sim.in_place import change_commands, explained
+from netloop.sim.numbers import netlist_number
+
+# A two-stage amplifier of invented level-1 cards (for tests only): its model card's threshold is an
+# expression of the parameter dvt, its compensation capacitor the parameter cc, its supply a V source,
+# its bias an I source; the temperature moves the operating point through the cards' temperature laws.
+AMP = """two-stage amplifier (invented level-1 cards)
+.param dvt=0 cc=1.2p
+.model nch nmos (level=1 vto={{0.55+dvt}} kp=180u lambda=0.06 cgso=0.3n cgdo=0.3n cj=0.6m)
+.model pch pmos (level=1 vto=-0.6 kp=70u lambda=0.08 cgso=0.3n cgdo=0.3n cj=0.8m)
+vdd vdd 0 dc {vdd}
+ibias vdd nb dc {ibias}
+vin inp 0 dc 1.65 ac 0
+m8 nb nb 0 0 nch w=10u l=1u
+m5 tail nb 0 0 nch w=20u l=1u
+m1 d1 out tail 0 nch w=20u l=1u
+m2 o1 inp tail 0 nch w=20u l=1u
+m3 d1 d1 vdd vdd pch w=20u l=1u
+m4 o1 d1 vdd vdd pch w=20u l=1u
+m6 out o1 vdd vdd pch w=80u l=1u
+m7 out nb 0 0 nch w=50u l=1u
+cc o1 out {{cc}}
+cl out 0 2p
+{temp}"""
+SWEEP = (AcSweep("dec", 10, 1e2, 1e9),)
+BASE = {"vdd": "3.3", "ibias": "20u", "dvt": "0", "cc": "1.2p", "temp": "27"}
+
+
+def _netlist(values: dict[str, str]) -> str:
+    text = AMP.format(vdd=values["vdd"], ibias=values["ibias"], temp=f".temp {values['temp']}")
+    return text.replace("dvt=0 cc=1.2p", f"dvt={values['dvt']} cc={values['cc']}")
+
+
+def _changes(values: dict[str, str]) -> tuple[Change, ...]:
+    return (Change("temp", "", values["temp"]), Change("source", "vdd", values["vdd"]), Change("source", "ibias", values["ibias"]),
+            Change("param", "dvt", values["dvt"]), Change("param", "cc", values["cc"]))
+
+
+def _job(values: dict[str, str], name: str, in_place: bool = True, op_voltages: bool = False) -> SimJob:
+    return SimJob(_netlist(values), runs=(AcRun("a", {"vin": 1.0}, SWEEP),), save=("v(out)", "v(o1)"), excitable=("vin",),
+                  op_voltages=op_voltages, circuit_id=name, changes=_changes(values) if in_place else ())
+
+
+def _vectors(result) -> np.ndarray:
+    return np.concatenate([result.runs[0].vectors["v(out)"], result.runs[0].vectors["v(o1)"]])
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize(("key", "value"), [
+    ("temp", "125"), ("temp", "-40"), ("vdd", "3.0"), ("vdd", "1.65"), ("ibias", "17u"), ("cc", "0.6p"), ("dvt", "0.08"),
+], ids=["temp-125", "temp-minus-40", "supply-3.0", "supply-1.65", "current-source", "param-element", "param-in-model-card"])
+def test_a_change_in_place_equals_a_fresh_load_bit_for_bit(shared_sim, key, value):
+    """After another corner ran on the loaded circuit, a job that changes one value in place (temperature, a V or I
+    source's DC value, a .param of an element value or inside a model card's expression) runs without a load and gives
+    exactly the vectors of loading its netlist afresh, which differ from the first corner's (ngspice is the reference)."""
+    changed = {**BASE, key: value}
+    first = shared_sim.run(_job(BASE, f"first-{key}-{value}"))
+    in_place = shared_sim.run(_job(changed, f"second-{key}-{value}"))
+    fresh = shared_sim.run(_job(changed, f"fresh-{key}-{value}", in_place=False))
+    assert first.loaded and not in_place.loaded and fresh.loaded
+    assert np.array_equal(_vectors(in_place), _vectors(fresh))
+    assert np.array_equal(in_place.runs[0].freq_hz, fresh.runs[0].freq_hz)
+    assert not np.array_equal(_vectors(in_place), _vectors(first))  # the value really changed the circuit
+
+
+@pytest.mark.ngspice
+def test_several_changes_in_a_row_each_equal_a_fresh_load(shared_sim):
+    """Five corners in a row on one loaded circuit, each changing every value, give the vectors of five fresh loads."""
+    corners = [{**BASE, "temp": t, "vdd": v, "dvt": d, "cc": c}
+               for t, v, d, c in (("-40", "3.0", "0.05", "1p"), ("125", "3.6", "-0.05", "1.4p"), ("27", "3.3", "0", "1.2p"),
+                                  ("85", "2.7", "0.1", "0.8p"), ("0", "3.3", "0", "1.2p"))]
+    chain = [shared_sim.run(_job(c, f"chain-{i}")) for i, c in enumerate(corners)]
+    assert [r.loaded for r in chain] == [True, False, False, False, False]
+    for i, c in enumerate(corners):
+        assert np.array_equal(_vectors(chain[i]), _vectors(shared_sim.run(_job(c, f"chain-fresh-{i}", in_place=False))))
+
+
+@pytest.mark.ngspice
+def test_the_operating_point_of_a_job_changed_in_place_is_its_own(shared_sim):
+    """With op_voltages a job changed in place reports the node voltages of its own operating point, those of a fresh load."""
+    hot = {**BASE, "temp": "125", "vdd": "3.0"}
+    shared_sim.run(_job(BASE, "op-first", op_voltages=True))
+    in_place = shared_sim.run(_job(hot, "op-second", op_voltages=True))
+    fresh = shared_sim.run(_job(hot, "op-fresh", in_place=False, op_voltages=True))
+    assert not in_place.loaded
+    assert in_place.operating_point == fresh.operating_point
+    assert in_place.operating_point["vdd"] == pytest.approx(3.0)
+
+
+@pytest.mark.ngspice
+def test_a_netlist_that_differs_elsewhere_is_loaded_afresh(shared_sim):
+    """A job whose netlist differs in a line no change explains (another load capacitor) is read afresh, never changed in place."""
+    shared_sim.run(_job(BASE, "elsewhere-first"))
+    other = _job({**BASE, "temp": "85"}, "elsewhere-second")
+    other = SimJob(other.netlist.replace("cl out 0 2p", "cl out 0 3p"), other.runs, other.save, other.excitable,
+                   op_voltages=False, circuit_id="elsewhere-second", changes=other.changes)
+    assert shared_sim.run(other).loaded
+
+
+def test_explained_accepts_only_the_values_of_the_changes():
+    """Two netlists count as one circuit when they differ only in the changed values (the temperature, a source's DC
+    value, a changed parameter's value on a .param line that also defines others); any other difference, an unchanged
+    parameter's value or a source's AC value included, makes them two circuits."""
+    a = _netlist(BASE)
+    changes = _changes(BASE)
+    assert explained(a, _netlist({**BASE, "temp": "125", "vdd": "3.0", "cc": "1p"}), changes)
+    assert not explained(a, a.replace("cl out 0 2p", "cl out 0 3p"), changes)
+    only_cc = (Change("param", "cc", "1p"),)
+    assert explained(a, _netlist({**BASE, "cc": "1p"}), only_cc)
+    assert not explained(a, _netlist({**BASE, "cc": "1p", "dvt": "0.1"}), only_cc)  # dvt is not among the changes
+    assert not explained(a, a + "\nr9 out 0 1k\n", changes)
+    vin = (Change("source", "vin", "1.65"),)
+    assert explained(a, a.replace("vin inp 0 dc 1.65 ac 0", "vin inp 0 dc 1.7 ac 0"), vin)
+    assert not explained(a, a.replace("vin inp 0 dc 1.65 ac 0", "vin inp 0 dc 1.65 ac 1"), vin)
+
+
+def test_a_parameter_change_resets_the_circuit_and_sets_temperature_and_sources_again():
+    """alterparam needs ngspice's reset, after which the temperature and every source value are given again; without a
+    parameter change only the values that differ are sent, numbers as ngspice's netlist reader makes them."""
+    current = {c.key: c.value for c in _changes(BASE)}
+    commands, reset = change_commands(_changes({**BASE, "cc": "1p"}), current)
+    assert reset and commands[:2] == ["alterparam cc=1p", "reset"]
+    assert {"option temp=27", "alter vdd dc = 33 * 1e-1", "alter ibias dc = 20 * 1e-6"} <= set(commands)
+    commands, reset = change_commands(_changes({**BASE, "vdd": "1.65"}), current)
+    assert not reset and commands == ["alter vdd dc = 165 * 1e-2"]
+
+
+@pytest.mark.ngspice
+def test_netlist_number_is_the_double_ngspice_reads_from_a_netlist(shared_sim):
+    """For values whose correctly rounded double differs from ngspice's (1.65, 3.3) and others, netlist_number gives
+    bit for bit the DC value ngspice 39 stores for a source card (its loaded value, read back through an Alter)."""
+    tokens = ("1.65", "3.3", "3.3e0", "0.1", "-40", "2.7", "10u", "17u", "2.5meg", "1.2345678901234", "125", "1.8v", "3.", "-1.65")
+    netlist = "values\n" + "".join(f"v{i} n{i} 0 dc {t}\nr{i} n{i} 0 1k\n" for i, t in enumerate(tokens))
+    result = shared_sim.run(SimJob(netlist, runs=(), save=(), alters=tuple(Alter(f"v{i}", "dc") for i in range(len(tokens)))))
+    for i, token in enumerate(tokens):
+        assert result.parameters[f"@v{i}[dc]"] == netlist_number(token), token
+    assert netlist_number("1.65") != 1.65  # ngspice's reader is not correctly rounded: why numbers go through netlist_product
+
+
+@pytest.mark.ngspice
+def test_netlist_product_gives_alter_the_readers_double(shared_sim):
+    """alter with netlist_product(token) leaves a source holding exactly what a card "dc token" loads (both read back
+    from ngspice), where the token's own text or its repr would not always."""
+    tokens = ("1.65", "3.3", "17u", "1.7e-05", "0.1", "-40.1", "2.5meg", "123.456789", "4.7n", "-0.0123")
+    for i, token in enumerate(tokens):
+        source = f"v1 a 0 dc {token}\nr1 a 0 1k\n"
+        loaded = shared_sim.run(SimJob("value\n" + source, runs=(), save=(), alters=(Alter("v1", "dc"),)))
+        first = shared_sim.run(SimJob("value\nv1 a 0 dc 0\nr1 a 0 1k\n", runs=(), save=(), circuit_id=f"product-{i}",
+                                      changes=(Change("source", "v1", "0"),)))
+        assert first.loaded
+        changed = shared_sim.run(SimJob("value\n" + source, runs=(), save=(), circuit_id=f"product-{i}-b",
+                                        changes=(Change("source", "v1", token),), alters=(Alter("v1", "dc"),)))
+        assert not changed.loaded
+        assert changed.parameters["@v1[dc]"] == loaded.parameters["@v1[dc]"], token
