@@ -32,15 +32,8 @@ def inputs(tmp_path: Path) -> dict[str, str]:
     (tmp_path / "missing_netlist.toml").write_text('netlist = "missing.cir"\nat = "out"\n')
     (tmp_path / "bad_require.toml").write_text('netlist = "good.cir"\nat = "out"\nrequire = ["pm >> 5"]\n')
     (tmp_path / "ok.toml").write_text('netlist = "good.cir"\nat = "out"\n')
-    (tmp_path / "bad_limit.toml").write_text('netlist = "good.cir"
-at = "out"
-[regression]
-pm = "2 apples"
-')
-    (tmp_path / "results.jsonl").write_text('{"record":"run","schema":"netloop.corners/1","plan":"ok.toml"}
-not json
-{"record":"corner"}
-')
+    (tmp_path / "bad_limit.toml").write_text('netlist = "good.cir"\nat = "out"\n[regression]\npm = "2 apples"\n')
+    (tmp_path / "results.jsonl").write_text('{"record":"run","schema":"netloop.corners/1","plan":"ok.toml"}\nnot json\n{"record":"corner"}\n')
     return {"dir": str(tmp_path), "good": str(good), "garbage": str(garbage), "syntax": str(syntax),
             "folder": str(folder), "blocker": str(blocker)}
 
