@@ -91,7 +91,8 @@ def _analysis(rd: _Reader, doc: dict, checks: tuple[Check, ...]) -> LoopAnalysis
                                                                               "overshoot_pct", "resonant_peak_db")))
     st = doc["stability"]
     nyquist = NyquistVerdict(st["encirclements"], st["open_loop_rhp_poles"], st["closed_loop_rhp_poles"], st["stable"],
-                             st["reliable"], tuple(st["reasons"]), st["origin_poles"])
+                             st["reliable"], tuple(st["reasons"]), st["origin_poles"],
+                             st.get("open_loop_rhp_from", "given"))  # results files written before it was recorded
     cp = doc["closed_loop_poles"]
     poles = None
     if cp.get("fitted"):
