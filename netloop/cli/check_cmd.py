@@ -119,22 +119,25 @@ def refuse_bad_outputs(args: argparse.Namespace) -> None:
         raise OutputError(f"cannot keep the decks in {keep!r}: it is a file, not a folder")
 
 
-def write_outputs(args: argparse.Namespace, results) -> None:
-    """The files asked for with --csv, --plot and --report (one loop or several)."""
+def write_outputs(args: argparse.Namespace, results, names: list[str] | None = None) -> None:
+    """The files asked for with --csv, --plot and --report (one loop or several; several CSV files get each loop's
+    name, ``names`` or its break node, before the extension). Called after the results are printed, so that a file
+    that cannot be written (exit status 2) loses no result."""
     from netloop import report
 
+    sys.stdout.flush()  # the printed results reach the terminal before any error about a file
     single = results[0] if len(results) == 1 else None
-    if args.csv:
+    if getattr(args, "csv", None):
         if single is not None:
             report.write_csv(single, args.csv)
         else:
-            for r in results:
-                stem, dot, ext = args.csv.rpartition(".")
-                report.write_csv(r, f"{stem}-{r.breaks.node}.{ext}" if dot else f"{args.csv}-{r.breaks.node}")
-    if args.plot:
+            stem, dot, ext = args.csv.rpartition(".")
+            for r, name in zip(results, names or [r.breaks.node for r in results]):
+                report.write_csv(r, f"{stem}-{name}.{ext}" if dot else f"{args.csv}-{name}")
+    if getattr(args, "plot", None):
         report.plot_bode(single if single is not None else results, args.plot)
         report.plot_nyquist(single if single is not None else results, nyquist_path(args.plot))
-    if args.report:
+    if getattr(args, "report", None):
         report.write_html(single if single is not None else results, args.report)
 
 
@@ -174,11 +177,11 @@ def _run(args: argparse.Namespace) -> int:
     results = [measure(args.netlist, args.at, **common)]  # measure reads the file while ngspice starts
     from netloop import report
 
-    write_outputs(args, results)
-    if args.json:
+    if args.json:  # the result first: a file that cannot be written afterwards loses nothing
         print(json.dumps(report.to_document(results[0]), indent=2, allow_nan=False))
     else:
         print(report.format_text(results[0]))
+    write_outputs(args, results)
     return exit_status(results[0].verdict)
 
 
@@ -197,15 +200,15 @@ def run_groups(args: argparse.Namespace, netlist, common: dict) -> int:
     for note in check.notes:
         print(f"netloop: {note}", file=sys.stderr)
     results = list(check.results)
-    if results:
-        write_outputs(args, results)
-    if args.json:
+    if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         print(json.dumps(report.groups_document(check), indent=2, allow_nan=False))
     else:
         parts = [report.format_text(g.result) if g.result is not None else unmeasured_text(g) for g in check.groups]
         if len(check.groups) > 1:
             parts.insert(0, verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups}))
         print("\n\n".join(parts))
+    if results:
+        write_outputs(args, results)
     return exit_status(check.verdict)
 
 
@@ -247,21 +250,12 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     if common.pop("driver"):
         raise NetloopError("--driver applies to a single node; with --at-pair the drivers of each node are decided from the circuit")
     pair = measure_pair(netlist, args.at_pair, **common)
-    if args.csv:
-        stem, dot, ext = args.csv.rpartition(".")
-        for mode, r in pair.modes.items():
-            report.write_csv(r, f"{stem}-{mode}.{ext}" if dot else f"{args.csv}-{mode}")
-    results = list(pair.modes.values())
-    if args.plot:
-        report.plot_bode(results, args.plot)
-        report.plot_nyquist(results, nyquist_path(args.plot))
-    if args.report:
-        report.write_html(results, args.report)
-    if args.json:
+    if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))
     else:
         print(verdicts_line(pair.verdict, {f"{mode} mode": r.verdict for mode, r in pair.modes.items()}))
         parts = [f"{mode} mode\n{report.format_text(r)}" for mode, r in pair.modes.items()]
         print("\n".join(parts) + "\n" + coupling_line(pair.coupling))
+    write_outputs(args, list(pair.modes.values()), names=list(pair.modes))
     return exit_status(pair.verdict)

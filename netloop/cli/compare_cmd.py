@@ -19,8 +19,9 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import re
 
-from netloop.cli.check_cmd import add_measure_options, nyquist_path, refuse_bad_outputs, sweep_from
+from netloop.cli.check_cmd import add_measure_options, refuse_bad_outputs, sweep_from, write_outputs
 
 __all__ = ["add_parser", "comparison_table", "run"]
 
@@ -34,6 +35,8 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     add_measure_options(parser, methods=("tian", "middlebrook", "both"), driver=False)  # drivers go with each --at
     parser.add_argument("--json", action="store_true", help="print one JSON document: locations (each as check --json), differences, poles_agree")
     parser.add_argument("--plot", metavar="FILE", help="write overlaid Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
+    parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio of each location (FILE-LOCATION.csv, as check --csv)")
+    parser.add_argument("--report", metavar="FILE", help="write one self-contained HTML report of every location")
     parser.epilog = ("Exit status: 0 every location stable and every requirement met, 1 a location unstable or a requirement failed, "
                      "2 bad input or a simulator failure, 3 inconclusive (a location's data supports no verdict).")
 
@@ -124,10 +127,7 @@ def run(args: argparse.Namespace) -> int:
         netlist, nodes, drivers=drivers, method=args.method, sweep=sweep_from(args), open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements, keep_decks=args.keep_decks, processes=args.processes,
     )
-    if args.plot:
-        report.plot_bode(list(result.results), args.plot)
-        report.plot_nyquist(list(result.results), nyquist_path(args.plot))
-    if args.json:
+    if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = report.multi_document(
             "locations", result.results,
             differences=[_difference_document(d) for d in result.differences],
@@ -151,6 +151,8 @@ def run(args: argparse.Namespace) -> int:
         if warnings:
             lines += ["", "warnings", *dict.fromkeys(warnings)]
         print("\n".join(lines))
+    results = list(result.results)
+    write_outputs(args, results, names=[re.sub(r"[^A-Za-z0-9.]+", "-", r.label or r.breaks.node).strip("-") for r in results])
     from netloop.cli.main import exit_status
 
     return exit_status(result.verdict)

@@ -41,11 +41,11 @@ def run(args: argparse.Namespace) -> int:
     refuse_unwritable(args.junit, "JUnit XML")
     progress = args.progress or sys.stderr.isatty()
     result = corners.run_plan(plan, jobs=args.workers, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force, progress=progress)
-    if args.csv:
-        corner_records.write_corner_csv(result.records, args.csv)
-    if args.junit:
-        corner_records.write_junit(result.records, args.junit, suite=Path(plan.path).stem)
-    if args.json:
+    if result.rerun:  # said first: the table below holds the new measurements of these corners
+        changed = sorted({f for files in result.rerun.values() for f in files})
+        print(f"netloop: {len(result.rerun)} corner(s) measured again because their input files changed since they were recorded: "
+              + ", ".join(changed[:5]) + (f" and {len(changed) - 5} more" if len(changed) > 5 else ""), file=sys.stderr)
+    if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         print(json.dumps(corner_records.run_document(result), indent=2, allow_nan=False))
     else:
         print(corner_records.corner_table(result.records))
@@ -63,6 +63,11 @@ def run(args: argparse.Namespace) -> int:
         if result.stale:
             print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
                   "(the plan changed since they were written) and were left out", file=sys.stderr)
+    sys.stdout.flush()
+    if args.csv:
+        corner_records.write_corner_csv(result.records, args.csv)
+    if args.junit:
+        corner_records.write_junit(result.records, args.junit, suite=Path(plan.path).stem)
     from netloop.cli.main import exit_status
 
     return exit_status(result.verdict)

@@ -81,3 +81,19 @@ def test_bad_input_exits_2(loop, capsys):
     with pytest.raises(SystemExit) as usage:  # drivers are given per location (--at NODE=ELEMENT), not with --driver
         main(["compare", loop, "--at", "out", "--at", "n0", "--driver", "e0"])
     assert usage.value.code == 2
+
+
+@pytest.mark.ngspice
+def test_compare_writes_each_locations_samples_and_one_report(loop, capsys, tmp_path):
+    """compare --csv writes each location's sampled T (FILE-LOCATION.csv, the rows check --csv gives for that break)
+    and --report one HTML page with a section per location."""
+    csv_path, page = tmp_path / "t.csv", tmp_path / "cmp.html"
+    assert main(["compare", loop, "--at", "out", "--at", "n0", "--csv", str(csv_path), "--report", str(page), *SWEEP]) == 0
+    capsys.readouterr()
+    assert sorted(p.name for p in tmp_path.glob("t-*.csv")) == ["t-n0.csv", "t-out.csv"]
+    single = tmp_path / "single.csv"
+    assert main(["check", loop, "--at", "out", "--csv", str(single), *SWEEP]) == 0
+    head = single.read_text().splitlines()[0]
+    assert (tmp_path / "t-out.csv").read_text().splitlines()[0] == head  # reference: check --csv, the same columns
+    text = page.read_text(encoding="utf-8")
+    assert text.count('<section id="loop-') == 2

@@ -33,6 +33,7 @@ class Task:
     corner: Corner
     at: str
     key: str  # stable identity of everything that decides the result, for --resume
+    inputs: tuple[str, ...] = ()  # every file the corner's netlist reads (netlist, includes, libraries), for --resume
 
     @property
     def title(self) -> str:

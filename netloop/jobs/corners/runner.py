@@ -8,12 +8,12 @@ import os
 import uuid
 import warnings
 from collections.abc import Iterator
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from netloop.jobs.corners.apply import CornerApplyError, apply_settings
 from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
-from netloop.jobs.corners.journal import Journal, default_results_path
+from netloop.jobs.corners.journal import Journal, default_results_path, fingerprints
 from netloop.jobs.corners.plan import AUTO, IN_PLACE, Plan
 from netloop.jobs.corners.progress import Progress
 from netloop.jobs.corners.worker import TaskOptions, run_task
@@ -34,6 +34,7 @@ class CornerRun:
     workers: int = 0
     counts: dict = field(default_factory=dict)
     stale: int = 0  # records in a resumed file that belong to no task of this plan (an earlier version of it): left out
+    rerun: dict = field(default_factory=dict)  # resumed corners measured again: corner name -> the input files that changed
 
     @property
     def passed(self) -> bool:
@@ -60,6 +61,7 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
         except ImportError as exc:
             raise plan.error("at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes", "at") from exc
     parsed: dict[tuple, object] = {}
+    files: dict[str, tuple[str, ...]] = {}  # corner name -> every file its netlist reads
     _check_breaks(plan, corners)
     for c in corners:
         libs = tuple(s for s in c.settings if s.kind == "lib")
@@ -69,13 +71,13 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
             if base is None:
                 base = apply_settings(c.netlist, libs)
                 parsed[(c.netlist, libs)] = base
-            apply_settings(base, rest)
+            files[c.name] = apply_settings(base, rest).files
         except CornerApplyError as exc:
             line = plan.line_of_setting(exc.setting, c.line) if exc.setting is not None else c.line
             raise plan.error(f"corner {c.name!r}: {exc}", line=line) from exc
         except NetlistError as exc:
             raise plan.error(f"corner {c.name!r}: {exc}", line=c.line) from exc
-    return tasks_of(plan, corners)
+    return tuple(replace(t, inputs=files.get(t.corner.name, ())) for t in tasks_of(plan, corners))
 
 
 def _check_breaks(plan: Plan, corners: tuple[Corner, ...]) -> None:
@@ -129,8 +131,9 @@ def dask_client(*, jobs: int | None = None, cluster: str | None = None) -> Itera
         if cluster:
             try:
                 client = Client(cluster, timeout="30s")
-            except OSError as exc:
-                raise PlanError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from exc
+            except (OSError, ValueError, TypeError) as exc:  # unreachable (OSError) or not an address (ValueError)
+                raise NetloopError(f"cannot reach a Dask scheduler at {cluster!r} ({exc}); give the address of a running "
+                                   "scheduler, such as tcp://10.0.0.5:8786") from exc
             try:
                 yield client
             finally:
@@ -241,7 +244,9 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     """
     tasks = check_plan(plan)
     path = Path(out) if out is not None else default_results_path(plan.path)
-    journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force)
+    cache: dict[str, str] = {}
+    inputs = {t.key: fingerprints(t.inputs, cache) for t in tasks}
+    journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force, inputs=inputs)
     by_key: dict[str, tuple[dict, ...]] = {k: tuple(v) for k, v in journal.done.items()}
     pending = [t for t in tasks if t.key not in by_key]
     bar = Progress(len(tasks), enabled=progress)
@@ -251,7 +256,8 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     try:
         if pending:
             bar.draw()
-            workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster)
+            workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
+                           inputs=inputs)
     finally:
         journal.close()
         bar.finish()
@@ -259,8 +265,10 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "inconclusive", "error")}
     keys = {t.key for t in tasks}
     stale = sum(len(v) for k, v in journal.done.items() if k not in keys)
+    names = {t.key: t.corner.name for t in tasks}
+    rerun = {names[k]: files for k, files in journal.rerun.items() if k in names}
     return CornerRun(plan.path, str(path), records, ran=len(pending), skipped=len(tasks) - len(pending), workers=workers,
-                     counts=counts, stale=stale)
+                     counts=counts, stale=stale, rerun=rerun)
 
 
 def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
@@ -279,7 +287,8 @@ def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
     return [(f, got.get(id(f))) for f in batch]
 
 
-def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None) -> int:
+def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None,
+         inputs: dict[str, dict[str, str]]) -> int:
     from distributed import as_completed
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
@@ -302,6 +311,7 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
             for future, records in _fetch(client, batch):
                 task = futures[future]
                 records = records if records is not None else _lost(task, future.exception())
+                records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
                 journal.write(records)
                 by_key[task.key] = records
                 loads = [r.get("loads") for r in records]

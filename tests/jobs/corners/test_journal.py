@@ -7,7 +7,7 @@ import json
 import pytest
 
 from netloop.jobs.corners import Setting, apply_settings, read_records
-from netloop.jobs.corners.journal import Journal
+from netloop.jobs.corners.journal import Journal, fingerprints
 from netloop.errors import NetloopError
 
 
@@ -37,7 +37,62 @@ def test_existing_file_needs_resume_or_force(tmp_path):
         Journal.open(path, plan="p.toml", total=1, resume=True, force=True)
     assert path.read_bytes() == before
     Journal.open(path, plan="p.toml", total=1, resume=False, force=True).close()
-    assert b'"key": "a"' not in path.read_bytes()
+    assert path.read_bytes() == before  # --force replaces the file only when a corner is written
+    forced = Journal.open(path, plan="p.toml", total=1, resume=False, force=True)
+    forced.write(({"record": "corner", "key": "b"},))
+    forced.close()
+    assert b'"key": "a"' not in path.read_bytes() and b'"key":"b"' in path.read_bytes()
+
+
+def test_a_second_run_on_a_held_results_file_refuses_and_leaves_it_alone(tmp_path):
+    """While one run holds the results file, a second one (even with --resume or --force) refuses at once with a
+    message naming the file and --out, and the first run's records stay whole."""
+    path = tmp_path / "r.jsonl"
+    first = Journal.open(path, plan="p.toml", total=2, resume=False, force=False)
+    first.write(({"record": "corner", "key": "a", "outcome": "pass"},))
+    for resume, force in ((True, False), (False, True)):
+        with pytest.raises(NetloopError, match=r"r\.jsonl is in use by another netloop corners run.*--out"):
+            Journal.open(path, plan="p.toml", total=2, resume=resume, force=force)
+    first.write(({"record": "corner", "key": "b", "outcome": "pass"},))
+    first.close()
+    records, good = read_records(path)
+    assert [r.get("key") for r in records] == [None, "a", "b"] and good == path.stat().st_size
+
+
+def test_nothing_is_written_until_a_corner_finishes(tmp_path):
+    """A run that ends before its first corner (an unreachable scheduler) leaves no results file behind, so the same
+    command can be given again."""
+    path = tmp_path / "r.jsonl"
+    Journal.open(path, plan="p.toml", total=3, resume=False, force=False).close()
+    assert not path.exists()
+    Journal.open(path, plan="p.toml", total=3, resume=False, force=False).close()  # not refused: nothing was left
+
+
+def test_resume_measures_again_the_corners_whose_input_files_changed(tmp_path):
+    """A record is kept by --resume only while the fingerprints of its input files match; a corner whose netlist or
+    model file changed is not done (its changed files are named), and the records of a later run supersede earlier ones."""
+    net, lib = tmp_path / "a.cir", tmp_path / "m.lib"
+    net.write_text("t\n.end\n")
+    lib.write_text("* models\n")
+    path = tmp_path / "r.jsonl"
+    now = {"k1": fingerprints([str(net), str(lib)]), "k2": fingerprints([str(net)])}
+    j = Journal.open(path, plan="p.toml", total=2, resume=False, force=False, inputs=now)
+    j.write(({"record": "corner", "key": "k1", "outcome": "pass", "inputs": now["k1"]},))
+    j.write(({"record": "corner", "key": "k2", "outcome": "fail", "inputs": now["k2"]},))
+    j.close()
+    lib.write_text("* models, edited\n")
+    later = {"k1": fingerprints([str(net), str(lib)]), "k2": fingerprints([str(net)])}
+    j = Journal.open(path, plan="p.toml", total=2, resume=True, force=False, inputs=later)
+    assert set(j.done) == {"k2"} and j.rerun == {"k1": (str(lib),)}
+    j.write(({"record": "corner", "key": "k1", "outcome": "fail", "inputs": later["k1"]},))
+    j.close()
+    j = Journal.open(path, plan="p.toml", total=2, resume=True, force=False, inputs=later)
+    assert {k: [r["outcome"] for r in v] for k, v in j.done.items()} == {"k1": ["fail"], "k2": ["fail"]} and not j.rerun
+    j.close()
+    path.write_text('{"record": "corner", "key": "k3", "outcome": "pass"}\n')  # written by a netloop without fingerprints
+    j = Journal.open(path, plan="p.toml", total=1, resume=True, force=False, inputs={"k3": later["k2"]})
+    assert j.rerun == {"k3": ("<input fingerprints not recorded>",)} and not j.done
+    j.close()
 
 
 @pytest.mark.parametrize(

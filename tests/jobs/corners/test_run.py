@@ -188,3 +188,42 @@ def test_a_corner_swept_below_its_crossover_is_inconclusive_everywhere(tmp_path,
     case = ET.parse(junit).getroot().find("testsuite/testcase")
     assert case.find("failure").get("type") == "inconclusive" and case.find("error") is None
     assert table.read_text().splitlines()[1].split(",")[2] == "inconclusive"
+
+
+def test_resume_after_a_model_file_edit_measures_the_corner_again_and_says_which_file(tmp_path, scheduler, capsys):
+    """--resume after an edit to the model library a corner reads runs that corner again (its new margins, not the
+    old record) and names the edited file; without an edit --resume runs nothing."""
+    (tmp_path / "models").mkdir()
+    lib = tmp_path / "models" / "corners.lib"
+    shutil.copy(LIB, lib)
+    net = tmp_path / "buffer.cir"
+    shutil.copy(MILLER, net)
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{net}"\nat = "out"\n[axes]\nlib = ["tt"]\n')
+    out = tmp_path / "r.jsonl"
+    args = ["corners", str(plan), "--cluster", scheduler, "--out", str(out), "--json"]
+    assert main(args) in (0, 1)
+    first = json.loads(capsys.readouterr().out)["corners"][0]["loop"]["margins"]["phase_margin_deg"]
+    assert main([*args, "--resume"]) in (0, 1)
+    again = capsys.readouterr()
+    assert json.loads(again.out)["ran"] == 0 and "measured again" not in again.err
+    # an edit to the library (a comment: the file changes, the circuit does not)
+    lib.write_text(lib.read_text().replace("\n.endl", "\n* edited by hand\n.endl"))
+    assert main([*args, "--resume"]) in (0, 1)
+    edited = capsys.readouterr()
+    doc = json.loads(edited.out)
+    assert doc["ran"] == 1 and doc["skipped"] == 0
+    assert "1 corner(s) measured again because their input files changed" in edited.err and str(lib) in edited.err
+    assert doc["corners"][0]["loop"]["margins"]["phase_margin_deg"] == first  # a comment changes the file, not T
+
+
+def test_an_unreachable_scheduler_is_one_line_exit_2_and_leaves_no_results_file(tmp_path, capsys):
+    """--cluster garbage: one 'netloop: error:' line naming the address, exit status 2, and no results file, so the
+    same command can be given again."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{MILLER}"\nat = "out"\n')
+    out = tmp_path / "r.jsonl"
+    assert main(["corners", str(plan), "--cluster", "garbage", "--out", str(out)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("netloop: error: cannot reach a Dask scheduler at 'garbage'")
+    assert not out.exists()
