@@ -8,7 +8,7 @@ STAMP := $(VENV)/.installed
 SUDO  := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
 NGSPICE_PKGS := ngspice libngspice0 libngspice0-dev
 
-.PHONY: demo test ngspice venv bench clean
+.PHONY: demo test ngspice venv bench clean mutate
 
 ngspice:
 	@if command -v ngspice >/dev/null && ldconfig -p | grep -q 'libngspice\.so '; then :; \
@@ -37,4 +37,12 @@ bench: venv
 	$(PY) benchmarks/run_all.py
 
 clean:
-	rm -rf $(VENV) demo-report .pytest_cache
+	rm -rf $(VENV) demo-report .pytest_cache .mutate
+
+# Mutation testing (slow, outside `make test` and CI): one package at a time, its own tests only.
+#   make mutate PKG=analysis        # analysis, netlist, probe or corners; no PKG: all four, one after the other
+#   make mutate PKG=probe ARGS=--again   # re-test only the last run's survivors
+PKG ?=
+mutate: venv
+	$(PY) -m pip install -q 'mutmut==3.8.1'  # pyproject.toml's `mutate` extra (by name: an editable reinstall is not needed)
+	$(PY) tools/mutate.py $(PKG) $(ARGS)

@@ -3,15 +3,16 @@
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 
-from netloop.analysis.checks import nyquist_checks
+from netloop.analysis.checks import data_checks, nyquist_checks
 from netloop.analysis.closed_loop import closed_loop_peaking, modulus_margin
 from netloop.analysis.crossovers import dc_phase_crossover, find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.margins import summarise_margins
 from netloop.analysis.nyquist import nyquist_verdict
-from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles
+from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles, disagreement
 from netloop.analysis.response import Response
 from netloop.analysis.results import LoopAnalysis, Peaking
 from netloop.analysis.second_order import second_order_estimate
@@ -33,7 +34,7 @@ def analyse(
     freq_hz,
     t,
     *,
-    open_loop_rhp_poles: int = 0,
+    open_loop_rhp_poles: int | None = None,
     floor_db: float = DEFAULT_FLOOR_DB,
     fit_poles: bool = True,
     pole_fit_rtol: float = DEFAULT_RTOL,
@@ -41,8 +42,10 @@ def analyse(
 ) -> LoopAnalysis:
     """Analyse the loop whose return ratio T was sampled at freq_hz (Hz, ascending, positive).
 
-    open_loop_rhp_poles  P, the poles of T in the right half plane (known from the design; 0 for
-                         a loop made of stable blocks). Z = N + P decides stability.
+    open_loop_rhp_poles  P, the poles of T in the right half plane. None (the default): read from
+                         the data, as the right-half-plane zeros of the rational fit of 1/(1+T)
+                         (netloop.analysis.poles); 0 in a draft or without the fit. A number
+                         overrides it (known from the design). Z = N + P decides stability.
     floor_db             numerical floor of |T| in dB (DEFAULT_FLOOR_DB); phase crossovers below it
                          are ignored and counted.
     fit_poles            also fit the closed-loop poles (AAA on 1/(1+T)); a second verdict.
@@ -65,7 +68,8 @@ def analyse(
       self-check in ``checks`` and the classification "inconclusive" (netloop.analysis.checks).
     * NaN or infinite T: AnalysisError naming the first bad frequency (never dropped).
     """
-    if int(open_loop_rhp_poles) != open_loop_rhp_poles or open_loop_rhp_poles < 0:
+    given = open_loop_rhp_poles is not None
+    if given and (int(open_loop_rhp_poles) != open_loop_rhp_poles or open_loop_rhp_poles < 0):
         raise AnalysisError(f"open_loop_rhp_poles must be a whole number >= 0, got {open_loop_rhp_poles!r}")
     resp = Response.from_data(freq_hz, t)
     warnings: list[str] = []
@@ -73,7 +77,25 @@ def analyse(
 
     gains = find_gain_crossovers(resp)
     phases, ignored = find_phase_crossovers(resp, floor_abs_db)
-    nyquist, dc_sign = nyquist_verdict(resp, int(open_loop_rhp_poles), floor_abs_db)
+    nyquist, dc_sign = nyquist_verdict(resp, int(open_loop_rhp_poles) if given else 0, floor_abs_db)
+    if not given:
+        nyquist = replace(nyquist, open_loop_rhp_from="assumed")
+    pole_notes: tuple[str, ...] = ()
+    poles = None
+    if fit_poles and not draft:
+        poles, notes = closed_loop_poles(resp.freq_hz, resp.t, nyquist.closed_loop_rhp_poles, pole_fit_rtol)
+        if poles is not None and not given:  # P from the data: the fit's right-half-plane zeros are T's own poles
+            p = len(poles.open_loop_rhp_poles_rad_s)
+            z = nyquist.encirclements + p
+            old = disagreement(poles.rhp_count, nyquist.closed_loop_rhp_poles, float(resp.freq_hz[-1]))
+            nyquist = replace(nyquist, open_loop_rhp_poles=p, closed_loop_rhp_poles=z, stable=z == 0, open_loop_rhp_from="fit")
+            notes = tuple(n for n in notes if n != old)
+            if poles.rhp_count != z:
+                notes = (*notes, disagreement(poles.rhp_count, z, float(resp.freq_hz[-1])))
+            poles = replace(poles, agrees_with_nyquist=poles.rhp_count == z)
+        pole_notes = notes
+
+
     if dc_sign == "negative" and nyquist.origin_poles == 0 and resp.gain_db[0] >= floor_abs_db:
         # T(0) is real and negative: the curve starts on the negative real axis, a phase crossover at DC
         phases = (dc_phase_crossover(resp), *phases)
@@ -97,11 +119,7 @@ def analyse(
         peaking = closed_loop_peaking(resp)
         second = second_order_estimate(margins.phase_margin_deg)
 
-    poles = None
-    if fit_poles and not draft:
-        poles, notes = closed_loop_poles(resp.freq_hz, resp.t, nyquist.closed_loop_rhp_poles, pole_fit_rtol)
-        warnings.extend(notes)
-
+    warnings.extend(pole_notes)
     return LoopAnalysis(
         freq_hz=resp.freq_hz,
         t=resp.t,
@@ -117,5 +135,5 @@ def analyse(
         nyquist=nyquist,
         poles=poles,
         warnings=tuple(warnings),
-        checks=nyquist_checks(nyquist),
+        checks=(*data_checks(resp.freq_hz, resp.gain_db), *nyquist_checks(nyquist)),
     )

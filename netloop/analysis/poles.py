@@ -13,6 +13,12 @@ are dropped as artefacts of the noise, and so are complex poles without a conjug
 real, so its poles are real or conjugate pairs; a lone one is the fit imitating a delay, say). Only poles below the top of the sweep (|p| < 2 pi f_max) are reported: the
 data says nothing reliable beyond it.
 
+The same fit gives P, the poles of T itself in the right half plane: S = D / (D + N) vanishes where
+T = N / D has a pole, so the fit's zeros in the right half plane within the sweep (and above a tenth
+of its bottom, where integrators sit at s = 0) are the opened loop's unstable poles. A zero kept must
+have its conjugate (S is real) and no fitted pole beside it (a pole-zero doublet is the fit's, not the
+circuit's). netloop.analysis.engine uses their count as P unless the caller gives P.
+
 Limitation: S = den / (den + num) has a zero at every open-loop pole. A closed-loop pole that the
 loop barely moves from an open-loop pole (where |T| << 1) sits on that zero, has almost no
 effect on the data, and is missed; the count then disagrees with the Nyquist count, which knows
@@ -33,7 +39,7 @@ from netloop.analysis.results import ClosedLoopPoles
 if TYPE_CHECKING:
     from scipy.interpolate import AAA
 
-__all__ = ["DEFAULT_RTOL", "closed_loop_poles"]
+__all__ = ["DEFAULT_RTOL", "closed_loop_poles", "disagreement"]
 
 DEFAULT_RTOL = 1e-10
 _MAX_TERMS = 50  # degree 49: ample for loops seen through a probe, and bounds the cost on noisy data
@@ -125,6 +131,7 @@ def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol
         )
     poles = poles[np.argsort(np.abs(poles), kind="stable")]
     rhp = int(np.sum(poles.real > 1e-9 * np.maximum(np.abs(poles), 1e-300)))
+    open_rhp = _open_loop_rhp_poles(fit, f_ref, float(freq_hz[0]), float(freq_hz[-1]), max(_PAIR_RTOL, 10.0 * used))
     complex_upper = [p for p in poles if p.imag > 1e-9 * abs(p)]
     damping = q = freq = None
     if complex_upper:
@@ -134,8 +141,31 @@ def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol
         freq = float(abs(p) / (2.0 * math.pi))
     agrees = rhp == nyquist_rhp
     if not agrees:
-        notes.append(
-            f"the closed-loop pole fit finds {rhp} right-half-plane pole(s) below {freq_hz[-1]:.4g} Hz "
-            f"but the Nyquist count says {nyquist_rhp}"
-        )
-    return ClosedLoopPoles(tuple(complex(p) for p in poles), rhp, damping, q, freq, agrees, fit_error), tuple(notes)
+        notes.append(disagreement(rhp, nyquist_rhp, float(freq_hz[-1])))
+    return ClosedLoopPoles(tuple(complex(p) for p in poles), rhp, damping, q, freq, agrees, fit_error,
+                           tuple(complex(p) for p in open_rhp)), tuple(notes)
+
+
+def disagreement(fit_rhp: int, nyquist_rhp: int, f_max_hz: float) -> str:
+    """The warning when the pole fit's right-half-plane count differs from the Nyquist count."""
+    return f"the closed-loop pole fit finds {fit_rhp} right-half-plane pole(s) below {f_max_hz:.4g} Hz but the Nyquist count says {nyquist_rhp}"
+
+
+_RHP_REAL = 1e-6  # a zero counts as right-half-plane when its real part exceeds this fraction of its size
+_DOUBLET = 1e-3  # a zero this close (relative) to a fitted pole is a pole-zero doublet of the fit
+
+
+def _open_loop_rhp_poles(fit: AAA, f_ref: float, f_min_hz: float, f_max_hz: float, pair_rtol: float) -> np.ndarray:
+    """The right-half-plane zeros of the fitted S within the sweep (rad/s, sorted by size): the poles of T there."""
+    zeros = np.asarray(fit.roots(), dtype=complex)
+    poles = np.asarray(fit.poles(), dtype=complex)
+    zeros = zeros[np.isfinite(zeros)]
+    size = np.abs(zeros)
+    inside = (size < f_max_hz / f_ref) & (size > 0.1 * f_min_hz / f_ref) & (zeros.real > _RHP_REAL * size)
+    zeros = zeros[inside]
+    if poles.size and zeros.size:
+        apart = np.min(np.abs(zeros[:, None] - poles[None, :]), axis=1) > _DOUBLET * np.abs(zeros)
+        zeros = zeros[apart]
+    zeros, _ = _conjugate_pairs(zeros, pair_rtol)
+    zeros = zeros * (2.0 * math.pi * f_ref)
+    return zeros[np.argsort(np.abs(zeros), kind="stable")]

@@ -74,7 +74,7 @@ def refine(
     tol_deg: float = 1e-4,
     max_rounds: int = 8,
     points_per_interval: int = 3,
-    open_loop_rhp_poles: int = 0,
+    open_loop_rhp_poles: int | None = None,
     floor_db: float = DEFAULT_FLOOR_DB,
     fit_poles: bool = True,
 ) -> Refinement:

@@ -185,7 +185,10 @@ class NyquistVerdict:
 
     encirclements          N: net CLOCKWISE encirclements of -1 by T(j w), w over (-inf, inf),
                            the negative frequencies taken from conjugate symmetry.
-    open_loop_rhp_poles    P: open-loop poles in the right half plane (given by the caller).
+    open_loop_rhp_poles    P: open-loop poles in the right half plane (poles of T itself).
+    open_loop_rhp_from     where P comes from: "fit" (zeros of the rational fit of 1/(1+T), the
+                           default), "given" (the caller's override) or "assumed" (0, in a draft
+                           analysis between refinement rounds).
     closed_loop_rhp_poles  Z = N + P.
     stable                 Z == 0.
     reliable               False when the data cannot support the count (coarse sampling, a sweep
@@ -208,6 +211,7 @@ class NyquistVerdict:
     reliable: bool
     reasons: tuple[str, ...]
     origin_poles: int
+    open_loop_rhp_from: str = "given"
     coarse_hz: tuple[tuple[float, float], ...] = ()
 
 
@@ -243,6 +247,9 @@ class ClosedLoopPoles:
     dominant_freq_hz     |p| / (2 pi) of that pair; None with it.
     agrees_with_nyquist  rhp_count == NyquistVerdict.closed_loop_rhp_poles.
     fit_error            max |S_fit - S| / max(|S|) over the data: how well the fit holds.
+    open_loop_rhp_poles_rad_s  the poles of T itself in the right half plane, found as zeros of
+                         the same fit (S = D / (D + N) vanishes where T = N / D has a pole), within
+                         the sweep: P, the open-loop right-half-plane pole count, read from the data.
     """
 
     poles_rad_s: tuple[complex, ...]
@@ -252,6 +259,7 @@ class ClosedLoopPoles:
     dominant_freq_hz: float | None
     agrees_with_nyquist: bool
     fit_error: float
+    open_loop_rhp_poles_rad_s: tuple[complex, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)

@@ -55,12 +55,15 @@ def process_count(text: str) -> int:
 def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...] = ("tian", "middlebrook"), driver: bool = True) -> None:
     """The options every measuring command shares (check, compare, demo); ``methods`` are the --method choices, ``driver`` adds --driver."""
     if driver:
-        parser.add_argument("--driver", metavar="ELEMENT[.PIN]", help="the element terminal(s) that drive the break node (comma-separated); decided from the circuit by default")
+        parser.add_argument("--driver", action="append", metavar="[NODE=]ELEMENT[.PIN],...",
+                            help="the element terminal(s) that drive the break node (comma-separated; hierarchical names like "
+                                 "x1.x2.m3.d allowed); with --at-pair give one per node, NODE=ELEMENT[.PIN],...; decided from the circuit by default")
     parser.add_argument("--method", choices=methods, default="tian", help="how T is formed from the two runs (default: tian)")
     parser.add_argument("--fmin", type=frequency, metavar="HZ", help="lowest frequency, e.g. 1k or 10MHz (default 10 mHz, widened when the phase has not settled)")
     parser.add_argument("--fmax", type=frequency, metavar="HZ", help="highest frequency, e.g. 100meg or 1GHz (default 10 GHz, widened until |T| << 1)")
     parser.add_argument("--ppd", type=int, default=10, metavar="N", help="points per decade of the first sweep; crossovers are refined adaptively (default 10)")
-    parser.add_argument("--open-loop-rhp-poles", type=int, default=0, metavar="P", help="open-loop right-half-plane poles for the Nyquist verdict (default 0)")
+    parser.add_argument("--open-loop-rhp-poles", type=int, default=None, metavar="P",
+                        help="open-loop right-half-plane poles for the Nyquist verdict (default: read from the data, by a rational fit of T)")
     parser.add_argument("--require", action="append", default=[], metavar="EXPR", help="a requirement such as 'pm>=60', 'gm>=10dB', 'fc>=100MHz', 'dc>=40' (repeatable; quote it for the shell)")
     parser.add_argument("--keep-decks", metavar="DIR", help="keep the ngspice decks netloop writes in DIR")
     parser.add_argument("--processes", type=process_count, metavar="N", help="ngspice processes that run the excitations side by side "
@@ -141,6 +144,48 @@ def write_outputs(args: argparse.Namespace, results, names: list[str] | None = N
         report.write_html(single if single is not None else results, args.report)
 
 
+def _driver_spec(text: str) -> tuple[str | None, str]:
+    """"NODE=ELEMENT[.PIN],..." -> (node, spec); "ELEMENT[.PIN],..." -> (None, spec)."""
+    node, eq, spec = text.partition("=")
+    if not eq:
+        return None, text.strip()
+    if not node.strip() or not spec.strip():
+        from netloop.errors import NetloopError
+
+        raise NetloopError(f"--driver {text!r}: expected ELEMENT[.PIN],... or NODE=ELEMENT[.PIN],...")
+    return node.strip().lower(), spec.strip()
+
+
+def single_driver(values: list[str] | None, at: str | None) -> str | None:
+    """The one --driver of a single break (NODE= may prefix it and must then name the --at node)."""
+    from netloop.errors import NetloopError
+
+    if not values:
+        return None
+    if len(values) > 1:
+        raise NetloopError("--driver is given once for a single break (several terminals go in one comma-separated list)")
+    node, spec = _driver_spec(values[0])
+    if node is not None and at is not None and node != at.strip().lower():
+        raise NetloopError(f"--driver {values[0]!r} names node {node}, but the break is at {at}")
+    return spec
+
+
+def pair_drivers(values: list[str] | None, nodes: tuple[str, str]) -> tuple[str | None, str | None]:
+    """The --driver NODE=ELEMENT[.PIN],... of each node of --at-pair (None for a node not named: decided)."""
+    from netloop.errors import NetloopError
+
+    out: dict[str, str] = {}
+    for value in values or ():
+        node, spec = _driver_spec(value)
+        if node is None or node not in nodes:
+            raise NetloopError(f"--driver {value!r}: with --at-pair {','.join(nodes)} each driver names its node: "
+                               f"--driver {nodes[0]}=ELEMENT[.PIN],... --driver {nodes[1]}=ELEMENT[.PIN],...")
+        if node in out:
+            raise NetloopError(f"--driver names node {node} twice; put its terminals in one comma-separated list")
+        out[node] = spec
+    return out.get(nodes[0]), out.get(nodes[1])
+
+
 def run(args: argparse.Namespace) -> int:
     from netloop.jobs.early import ngspice_started_early
 
@@ -157,12 +202,12 @@ def _run(args: argparse.Namespace) -> int:
 
     requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
-    if args.open_loop_rhp_poles < 0:
+    if args.open_loop_rhp_poles is not None and args.open_loop_rhp_poles < 0:
         from netloop.errors import NetloopError
 
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
     common = dict(
-        driver=args.driver,
+        driver=single_driver(args.driver, args.at) if not args.at_pair else args.driver,
         method=args.method,
         sweep=sweep_from(args),
         open_loop_rhp_poles=args.open_loop_rhp_poles,
@@ -242,14 +287,21 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     """--at-pair P,N: both loops of a differential pair, text or one JSON document with a part per mode."""
     from netloop import report
     from netloop.cli.main import exit_status
-    from netloop.errors import NetloopError
-    from netloop.jobs.measure_pair import measure_pair
+    from netloop.errors import NetloopError, ProbeError
+    from netloop.jobs.measure_pair import measure_pair, parse_pair
 
     if args.at:
         raise NetloopError("give either --at NODE or --at-pair P,N, not both")
-    if common.pop("driver"):
-        raise NetloopError("--driver applies to a single node; with --at-pair the drivers of each node are decided from the circuit")
-    pair = measure_pair(netlist, args.at_pair, **common)
+    nodes = parse_pair(args.at_pair)
+    drivers = pair_drivers(common.pop("driver"), nodes)
+    try:
+        pair = measure_pair(netlist, nodes, drivers=drivers, **common)
+    except ProbeError as exc:  # say how to name a driver on this command line
+        text = str(exc)
+        for node in nodes:
+            if f"at {node}:" in text or f"node {node}" in text:
+                text = text.replace("driver=ELEMENT[.PIN]", f"--driver {node}=ELEMENT[.PIN]").replace("use driver=", f"use --driver {node}=")
+        raise ProbeError(text) from exc
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))

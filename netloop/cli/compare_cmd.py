@@ -119,7 +119,7 @@ def run(args: argparse.Namespace) -> int:
 
     requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
-    if args.open_loop_rhp_poles < 0:
+    if args.open_loop_rhp_poles is not None and args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
     nodes, drivers = _locations(args.at)
     netlist = load_netlist(args.netlist)

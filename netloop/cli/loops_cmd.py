@@ -40,6 +40,7 @@ def _candidate_document(c) -> dict:
     return {
         "rank": c.rank,
         "node": c.node,
+        "at": c.break_name,
         "split_checked": c.split_checked,
         "driver_side": list(c.driver_side),
         "load_side": list(c.load_side),

@@ -9,6 +9,7 @@ from netloop.cli.check_cmd import (
     add_measure_options,
     process_count,
     refuse_bad_outputs,
+    single_driver,
     sweep_from,
 )
 
@@ -84,12 +85,12 @@ def run(args: argparse.Namespace) -> int:
 
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
-    if args.open_loop_rhp_poles < 0:
+    if args.open_loop_rhp_poles is not None and args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
     if args.solve and not requirements:
         raise NetloopError("--solve needs a requirement to solve for, e.g. --require 'pm>=60'")
     result = sensitivities(
-        args.netlist, args.at, driver=args.driver, method=args.method, sweep=sweep_from(args), open_loop_rhp_poles=args.open_loop_rhp_poles,
+        args.netlist, args.at, driver=single_driver(args.driver, args.at), method=args.method, sweep=sweep_from(args), open_loop_rhp_poles=args.open_loop_rhp_poles,
         requirements=requirements, knobs=args.knob, solve=args.solve, top=args.top, step=args.step, span=args.range,
         rank_by=args.rank_by, keep_decks=args.keep_decks, processes=args.processes, workers=args.workers,
     )

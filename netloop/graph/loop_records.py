@@ -98,6 +98,14 @@ class BreakCandidate:
     driver_side: tuple[str, ...] = ()  # the probe's driver-side terminals ("m6.d", "cc.n")
     load_side: tuple[str, ...] = ()  # the probe's load-side terminals, shunts included
     refused: str = ""  # why the probe cannot break this node (empty when it can or was not asked)
+    # the name the probe is given for this node: "" for the node itself, or a deeper name of the same net, at the level of
+    # the block whose element drives it (a pin inside that block), when the probe's split there opens more of the group
+    at: str = ""
+
+    @property
+    def break_name(self) -> str:
+        """The name to break: ``at`` when set, else the node."""
+        return self.at or self.node
 
 
 @dataclass(frozen=True, slots=True)
@@ -119,7 +127,7 @@ class LoopGroup:
     @property
     def label(self) -> str:
         """``loop 1 (out)``: the group's number and its best break node."""
-        return f"loop {self.index} ({self.best.node})"
+        return f"loop {self.index} ({self.best.break_name})"
 
 
 @dataclass(frozen=True, slots=True)

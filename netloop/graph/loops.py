@@ -129,17 +129,18 @@ def _inner(comp: list, active: dict[tuple[str, str], Passage], succ, diodes: fro
     return out
 
 
-def _terminals_at(circuit: FlatCircuit, elements, vertex: str, shorts: Shorts) -> tuple[tuple[str, str, str], ...]:
-    """(element, pin, node) of ``elements`` on any node of ``vertex``."""
-    want = set(shorts.nodes(vertex))
+def _terminals_at(circuit: FlatCircuit, index: dict[str, int], elements, vertex: str, shorts: Shorts) -> tuple[tuple[str, str, str], ...]:
+    """(element, pin, node) of ``elements`` on any node of ``vertex`` (``index``: element name -> position)."""
+    want = shorts.nodes(vertex)
     out = []
+    pins_col, nodes_col = circuit.element_pins, circuit.element_nodes
     for el in elements:
-        fe = circuit.element(el)
-        out.extend((el, pin, n) for pin, n in zip(fe.pins, fe.nodes) if n in want)
+        i = index[el]
+        out.extend((el, pin, n) for pin, n in zip(pins_col[i], nodes_col[i]) if n in want)
     return tuple(dict.fromkeys(out))
 
 
-def _loop(circuit: FlatCircuit, cycle: list, active, nets: PassiveNetworks, shorts: Shorts, key) -> Loop:
+def _loop(circuit: FlatCircuit, index: dict[str, int], cycle: list, active, nets: PassiveNetworks, shorts: Shorts, key) -> Loop:
     """The Loop of a cycle of the collapsed graph."""
     k = min((i for i, v in enumerate(cycle) if not isinstance(v, _Hub)), key=lambda i: key(cycle[i]))
     cycle = cycle[k:] + cycle[:k]
@@ -154,8 +155,8 @@ def _loop(circuit: FlatCircuit, cycle: list, active, nets: PassiveNetworks, shor
             q = cycle[(i + 2) % n]
             opened.extend(shorts.nodes(a))
             for els, x, y in nets.passage(a, q):
-                steps.append(Step(els, x, y, ("", ""), True, leaves=_terminals_at(circuit, els, x, shorts),
-                                  enters=_terminals_at(circuit, els, y, shorts)))
+                steps.append(Step(els, x, y, ("", ""), True, leaves=_terminals_at(circuit, index, els, x, shorts),
+                                  enters=_terminals_at(circuit, index, els, y, shorts)))
             opened.extend(m for s in nets.separators(a, q) for m in shorts.nodes(s))
             i += 2
             continue
@@ -204,6 +205,7 @@ def find_loops(circuit: FlatCircuit, *, length_bound: int = DEFAULT_LENGTH_BOUND
     key = _key(order)
     vertices, succ = _adjacency(active, nets, ports, order)
     diodes = diode_nodes(circuit, shorts, signal)
+    index = {n: i for i, n in enumerate(circuit.names)}
     notes: list[str] = []
     found = []
     for comp in strong_components(succ, vertices):
@@ -230,7 +232,7 @@ def find_loops(circuit: FlatCircuit, *, length_bound: int = DEFAULT_LENGTH_BOUND
         taken = taken[:max_loops]
         if not taken:
             continue
-        built = [_loop(circuit, c, edges, nets, shorts, key) for c in taken]
+        built = [_loop(circuit, index, c, edges, nets, shorts, key) for c in taken]
         parts = _split(tuple(built))
         for loops in parts:
             found.append((tuple(sorted(loops, key=lambda lp: (len(lp.steps), lp.describe()))), capped, len(found) if len(parts) > 1 else None))

@@ -37,6 +37,7 @@ from netloop.sim import AcSweep, Simulator
 
 __all__ = [
     "COARSE_BREAKS",
+    "LARGE_COARSE_BREAKS",
     "COARSE_SWEEP",
     "FALLS_DB",
     "NEGLIGIBLE_DB",
@@ -50,6 +51,7 @@ __all__ = [
 
 COARSE_SWEEP = AcSweep("dec", 3, 1e-2, 1e12)  # 3 points a decade, 10 mHz to 1 THz: 43 frequencies
 COARSE_BREAKS = 6  # candidates of a group measured by the coarse sweep (in rank order, those the probe can split)
+LARGE_COARSE_BREAKS = 3  # ... on a netlist of netloop.sim.SPLIT_MIN_ELEMENTS elements or more (each AC run redoes its operating point)
 NEGLIGIBLE_DB = -60.0  # |T| below this everywhere: the break measures nothing (common practice: 1/1000 is no loop gain)
 FALLS_DB = -20.0  # |T| at the top of the coarse sweep below this: T falls as a loop's must (the widening rule of measure)
 
@@ -99,7 +101,7 @@ class GroupCensus:
 
     group: LoopGroup  # candidates re-ranked: the chosen break is ``group.best``
     coarse: tuple[CoarseBreak, ...]  # the candidates measured (or tried), in their rank order before the choice
-    chosen: str | None  # the break node; None when no candidate can be broken
+    chosen: str | None  # the name broken (the candidate's break_name); None when no candidate can be broken
     why: str  # one sentence: why this break, or why none
     passed_over: tuple[str, ...] = ()  # "node (reason)" for better-ranked candidates the coarse sweep ruled out
     passed_over_briefly: tuple[str, ...] = ()  # "node: a few words" for the same candidates
@@ -158,23 +160,25 @@ def _breakable(c: BreakCandidate) -> bool:
 
 def coarse_group(parsed: Netlist, group: LoopGroup, simulator: Simulator, *, method: str = "tian", breaks: int = COARSE_BREAKS,
                  timeout_s: float = 600.0) -> tuple[CoarseBreak, ...]:
-    """The first ``breaks`` breakable candidates of a group, measured together by one coarse sweep (one simulator job)."""
-    nodes = [c.node for c in group.candidates if _breakable(c)][:breaks]
+    """The first ``breaks`` breakable candidates of a group, measured together by one coarse sweep (one simulator job).
+
+    Each probe is placed with the driver side its candidate states (the probe's own split of the node,
+    netloop.jobs.discover.probe_splits), so later probes in the deck never change how an earlier node is divided.
+    """
+    chosen = [c for c in group.candidates if _breakable(c)][:breaks]
     out: dict[str, CoarseBreak] = {}
-    alone: list[tuple[str, ProbedNetlist]] = []
-    for node in nodes:
+    current = parsed
+    placed: list[tuple[str, ProbedNetlist]] = []
+    for c in chosen:
         try:
-            alone.append((node, break_loop(parsed, node)))
+            q = break_loop(current, c.break_name, driver=",".join(c.driver_side))
         except NetloopError as exc:
-            out[node] = CoarseBreak(node, error=str(exc), refused=True)
-    if alone:
-        current = parsed
-        placed: list[tuple[str, ProbedNetlist]] = []
+            out[c.node] = CoarseBreak(c.node, error=str(exc), refused=True)
+            continue
+        current = q.netlist
+        placed.append((c.node, q))
+    if placed:
         try:
-            for node, p in alone:  # the same split as the break alone (as compare places its probes)
-                q = break_loop(current, node, driver=",".join(p.driver_terminals))
-                current = q.netlist
-                placed.append((node, q))
             job = compare_job(current, [q for _, q in placed], (COARSE_SWEEP,), label=f"{group.label}: coarse sweep", timeout_s=timeout_s)
             _log.info("%s: measuring %d candidate break(s) with a coarse sweep", f"loop {group.index}", len(placed))
             result = simulator.run(job)
@@ -184,9 +188,9 @@ def coarse_group(parsed: Netlist, group: LoopGroup, simulator: Simulator, *, met
                 freq = np.asarray(result.run(f"{k}.series").freq_hz, dtype=float)
                 out[node] = coarse_figures(node, freq, return_ratio(q, series, shunt, method))
         except NetloopError as exc:
-            for node, _ in alone:
+            for node, _ in placed:
                 out.setdefault(node, CoarseBreak(node, error=f"the coarse sweep failed: {exc}"))
-    return tuple(out[n] for n in nodes if n in out)
+    return tuple(out[c.node] for c in chosen if c.node in out)
 
 
 def _figures(c: CoarseBreak) -> str:
@@ -286,4 +290,4 @@ def choose(group: LoopGroup, coarse: Sequence[CoarseBreak], swept: bool = True) 
         why += " (no candidate's T falls well below 1 at the top of the sweep)"
     order = [pick] + [c for c in group.candidates if c is not pick]
     regrouped = replace(group, candidates=tuple(replace(c, rank=r) for r, c in enumerate(order, 1)))
-    return GroupCensus(regrouped, tuple(coarse), pick.node, why, passed_over, briefly)
+    return GroupCensus(regrouped, tuple(coarse), pick.break_name, why, passed_over, briefly)

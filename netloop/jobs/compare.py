@@ -171,7 +171,7 @@ def compare(
     drivers: Mapping[str, str] | None = None,
     method: str = "tian",
     sweep: Sweep = Sweep(),
-    open_loop_rhp_poles: int = 0,
+    open_loop_rhp_poles: int | None = None,
     requirements: Iterable[str | Requirement] = (),
     simulator: Simulator | None = None,
     keep_decks: str | PathLike[str] | None = None,

@@ -14,7 +14,7 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.graph.split_effects import NodeSplit, apply_splits
-from netloop.jobs.census import COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
+from netloop.jobs.census import COARSE_BREAKS, LARGE_COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
 from netloop.jobs.loop_result import LoopResult, Verdict, combined_verdict
 from netloop.jobs.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
 from netloop.netlist import Netlist
@@ -23,6 +23,7 @@ from netloop.probe.breaking import locate_split
 from netloop.probe.scope import Scope, child_scope, elements_of
 from netloop.probe.sides import ac_ground_nodes
 from netloop.sim import Simulator
+from netloop.sim.split import SPLIT_MIN_ELEMENTS
 
 __all__ = [
     "DEFAULT_SPLIT_CHECKS",
@@ -87,10 +88,41 @@ def node_split(netlist: Netlist, circuit: FlatCircuit, node: str, *, driver: str
 _log = logging.getLogger("netloop")  # the status line (netloop.cli.status)
 
 
+def driver_alias(circuit: FlatCircuit, node: str, drivers: tuple[str, ...], index: dict[str, int]) -> str | None:
+    """A deeper name of the net ``node``: its local name inside the deepest block whose element drives it, or None.
+
+    A net that leaves a block through a pin has one name at each level (an amplifier's out, the bandgap's pg,
+    the regulator's pbias); flattening names it by the outermost. The drivers sit in the innermost, so a
+    break named there separates them from everything else on the net.
+    """
+    best: tuple[int, str] | None = None
+    for el in drivers:
+        i = index.get(el)
+        if i is None:
+            continue
+        path = circuit.paths[i]
+        for k, n in enumerate(circuit.element_nodes[i]):
+            if n == node and k < len(circuit.originals[i].nodes):
+                name = ".".join((*path, circuit.originals[i].nodes[k].lower()))
+                if best is None or len(path) > best[0]:
+                    best = (len(path), name)
+    if best is None or best[1] == node or best[0] <= node.count("."):
+        return None
+    return best[1]
+
+
+def _opened(circuit: FlatCircuit, group: LoopGroup, split: NodeSplit) -> int:
+    from netloop.graph.split_effects import OPENED, loop_fates
+
+    return 0 if split.refused else sum(f.fate == OPENED for f in loop_fates(circuit, group.loops, split))
+
+
 def probe_splits(netlist: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, checks: int = DEFAULT_SPLIT_CHECKS,
                  driver: str | None = None) -> LoopDiscovery:
     """``found`` with the first ``checks`` candidates of each group restated and re-ranked from the probe's real split.
 
+    A candidate whose net has a deeper name inside the block that drives it (driver_alias) is also split
+    under that name; when that split opens more of the group's loops, the candidate breaks there (its ``at``).
     See netloop.graph.split_effects.apply_splits for what is said and how the candidates are ranked.
     """
     if checks < 1:
@@ -100,8 +132,19 @@ def probe_splits(netlist: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *
     groups = []
     for g in found.groups:
         _log.info("working out the probe's split at the best %d break nodes of %s", min(checks, len(g.candidates)), g.label)
-        splits = {c.node: node_split(netlist, circuit, c.node, driver=driver, ac_ground=ac_ground, index=index) for c in g.candidates[:checks]}
-        groups.append(apply_splits(circuit, g, splits))
+        splits: dict[str, NodeSplit] = {}
+        at: dict[str, str] = {}
+        for c in g.candidates[:checks]:
+            split = node_split(netlist, circuit, c.node, driver=driver, ac_ground=ac_ground, index=index)
+            alias = driver_alias(circuit, c.node, c.drivers, index) if driver is None else None
+            if alias is not None:
+                inner = node_split(netlist, circuit, alias, driver=driver, ac_ground=ac_ground, index=index)
+                inner = replace(inner, node=c.node)  # the same net: its loops are read at the flat node
+                if _opened(circuit, g, inner) > _opened(circuit, g, split):
+                    split, at[c.node] = inner, alias
+            splits[c.node] = split
+        g = apply_splits(circuit, g, splits)
+        groups.append(replace(g, candidates=tuple(replace(c, at=at.get(c.node, "")) for c in g.candidates)))
     return replace(found, groups=tuple(groups))
 
 
@@ -148,6 +191,8 @@ def _census(parsed: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, swee
     found = probe_splits(parsed, circuit, found, checks=max(split_checks, 1) if sweep else split_checks, driver=driver)
     own = sweep and simulator is None and bool(found.groups)
     sim = own_simulator(None, parsed, 2, keep_decks) if own else simulator
+    if coarse_breaks == COARSE_BREAKS and len(circuit) >= SPLIT_MIN_ELEMENTS:
+        coarse_breaks = LARGE_COARSE_BREAKS  # on a large netlist every extra AC run costs a whole operating point
     try:
         groups = []
         for g in found.groups:
@@ -232,28 +277,28 @@ def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int
                            "(netloop loops NETLIST lists the candidates and why each was ruled out)")
     tried: list[str] = []
     first: tuple[LoopResult, str] | None = None
-    chosen = next(c for c in group.candidates if c.node == gc.chosen)
+    chosen = next(c for c in group.candidates if c.break_name == gc.chosen)
     rings = gc.coarse_at(chosen.node).can_ring if gc.coarse_at(chosen.node) else None
     # After the chosen break, only breaks whose coarse T is as good a measurement (not about 0, falling at the top)
     # and tells the same story (|T| above 0 dB somewhere or not) are tried: never a lesser loop's T instead.
     others = [c for c in group.candidates[1:] if c.split_checked and not c.refused and c.opened
               and gc.coarse_at(c.node) is not None and gc.coarse_at(c.node).usable and gc.coarse_at(c.node).can_ring == rings]
     for cand in [chosen, *others][: 1 + retries]:
-        label = f"loop {group.index} ({cand.node})"
+        label = f"loop {group.index} ({cand.break_name})"
         try:
-            result = measure(parsed, cand.node, label=label, **options)
+            result = measure(parsed, cand.break_name, label=label, **options)
         except ProbeError as exc:
-            tried.append(f"{cand.node} (the probe refused: {exc})")
+            tried.append(f"{cand.break_name} (the probe refused: {exc})")
             continue
         result = _with_closed_notes(group, cand, result)
         why = why_at(group, cand, gc.coarse_at(cand.node))
         if result.verdict != "inconclusive":
             if tried:
-                result = replace(result, warnings=(*result.warnings, f"{group.label}: measured at {cand.node} after " + "; ".join(tried)))
+                result = replace(result, warnings=(*result.warnings, f"{group.label}: measured at {cand.break_name} after " + "; ".join(tried)))
             return GroupResult(gc, result, why=why, tried=tuple(tried))
         first = first or (result, why)
         doubt = result.failed_checks[0].detail if result.failed_checks else "inconclusive"
-        tried.append(f"{cand.node} (inconclusive: {doubt})")
+        tried.append(f"{cand.break_name} (inconclusive: {doubt})")
     if first is not None:
         return GroupResult(gc, first[0], why=first[1], tried=tuple(tried))
     return GroupResult(gc, None, "no candidate break of this group could be measured: " + "; ".join(tried),

@@ -39,8 +39,8 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                            at_worst_crossover_db (peaking_db of the worst-PM crossover)}
     second_order_estimate {is_estimate: true, phase_margin_deg, damping_ratio, q, overshoot_pct,
                            resonant_peak_db}   all null when there is no estimate
-    stability             {stable, encirclements, open_loop_rhp_poles, closed_loop_rhp_poles,
-                           reliable, reasons, origin_poles}
+    stability             {stable, encirclements, open_loop_rhp_poles, open_loop_rhp_from ("fit": read from
+                           the data, "given", "assumed"), closed_loop_rhp_poles, reliable, reasons, origin_poles}
     closed_loop_poles     {fitted, poles_rad_s ([re, im] pairs in rad/s), rhp_count,
                            dominant_freq_hz, dominant_damping, dominant_q, agrees_with_nyquist,
                            fit_error}   fitted false and the rest null/[] when no fit was made
@@ -148,6 +148,7 @@ def _analysis(a: LoopAnalysis) -> dict:
             "stable": nyq.stable,
             "encirclements": nyq.encirclements,
             "open_loop_rhp_poles": nyq.open_loop_rhp_poles,
+            "open_loop_rhp_from": nyq.open_loop_rhp_from,
             "closed_loop_rhp_poles": nyq.closed_loop_rhp_poles,
             "reliable": nyq.reliable,
             "reasons": list(nyq.reasons),

@@ -17,13 +17,15 @@ import numpy as np
 from netloop.analysis import analyse, middlebrook, parse_requirements, propose_frequencies, tian
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
-from netloop.analysis.results import LoopAnalysis
-from netloop.errors import NetloopError
+from netloop.analysis.results import Check, LoopAnalysis
+from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
-from netloop.probe import ProbedNetlist, ProbeVectors, split_loop
+from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, pz_check, second_break_check, settle_split
+from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
+from netloop.sim.pole_zero import node_poles
 
 __all__ = [
     "CLEARS_STATUS",
@@ -144,6 +146,16 @@ def _merge(f: np.ndarray, t: np.ndarray, f2: np.ndarray, t2: np.ndarray) -> tupl
     return ff[keep], tt[keep]
 
 
+def _levels_off(f: np.ndarray, t: np.ndarray) -> bool:
+    """True when |T| has stopped falling over the top decade of the sweep (it moves by less than 3 dB there): T
+    tends to a constant, a path around the probe; widening the sweep would not bring it down (the check
+    falls-at-top then says so, netloop.analysis.checks)."""
+    i = int(np.searchsorted(f, f[-1] / 10.0))
+    if i >= f.size - 1 or abs(t[i]) == 0.0 or abs(t[-1]) == 0.0:
+        return False
+    return abs(20.0 * math.log10(abs(t[-1]) / abs(t[i]))) < 3.0
+
+
 def _phase_settled(f: np.ndarray, t: np.ndarray) -> bool:
     """True when the bottom of the sweep is settled: the phase moves by less than 3 deg over the lowest
     decade (common practice) and no unity crossing hides below it, i.e. |T| is not above 1 while falling
@@ -206,7 +218,7 @@ def sample_loops(
     ratios: Callable[[SimResult], Mapping[str, np.ndarray]],
     simulator: Simulator,
     sweep: Sweep,
-    open_loop_rhp_poles: Mapping[str, int],
+    open_loop_rhp_poles: Mapping[str, int | None],
     meanwhile: Callable[[], object] | None = None,
 ) -> tuple[dict[str, LoopAnalysis], SimInfo, dict[str, tuple[str, ...]]]:
     """Sweep, widen and refine the return ratios of one break's jobs, all on the same frequencies.
@@ -226,7 +238,7 @@ def sample_loops(
     # widen the sweep where the data asks for it and the user did not fix the limit
     for _ in range(3):
         more: list[AcSweep] = []
-        if not sweep.fmax_given and any(abs(v[-1]) > 0.1 for v in t.values()) and fmax < sweep.ceiling_hz:
+        if not sweep.fmax_given and any(abs(v[-1]) > 0.1 and not _levels_off(f, v) for v in t.values()) and fmax < sweep.ceiling_hz:
             new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
             more.append(AcSweep("dec", ppd, fmax, new_fmax))
             fmax = new_fmax
@@ -297,7 +309,7 @@ def measure_probed(
     method: str = "tian",
     sweep: Sweep = Sweep(),
     simulator: Simulator,
-    open_loop_rhp_poles: int = 0,
+    open_loop_rhp_poles: int | None = None,
     label: str = "",
     timeout_s: float = 600.0,
     meanwhile: Callable[[], object] | None = None,
@@ -365,13 +377,14 @@ def measure(
     driver: str | None = None,
     method: str = "tian",
     sweep: Sweep = Sweep(),
-    open_loop_rhp_poles: int = 0,
+    open_loop_rhp_poles: int | None = None,
     requirements: Iterable[str | Requirement] = (),
     simulator: Simulator | None = None,
     keep_decks: str | PathLike[str] | None = None,
     label: str = "",
     timeout_s: float = 600.0,
     processes: int | None = None,
+    placement: Mapping[str, str] | None = None,
 ) -> LoopResult:
     """Break the loop at node ``at``, measure its return ratio in ngspice and analyse its stability.
 
@@ -380,18 +393,25 @@ def measure(
     backend is started for this call and closed after it, with ``processes`` ngspice processes
     sharing the two runs (None: two on a large netlist when two CPUs are free, else one; see
     netloop.sim.processes_for); ``processes`` is ignored when a simulator is given.
+    ``open_loop_rhp_poles`` (P) is read from the data unless given. ``placement`` puts bridging
+    elements on a side ({"cc": "driver"}, netloop.probe.break_loop); without it and without
+    ``driver`` the split the rules give is checked, and another placement of the bridging elements
+    is measured when it fails its checks (netloop.jobs.measure_checks; ``decided_by`` and the
+    job check "split" say what was moved and why).
     """
     with _simulator_for(simulator, keep_decks) as sim:  # ngspice starts now, while the netlist is read and broken
         parsed = load_netlist(netlist)
         reqs = parse_requirements(requirements)
         if simulator is None:
             sim.use_processes(simulator_processes(processes, parsed, runs=2))
-        unchecked, loop_check = split_loop(parsed, at, driver=driver)  # is the node on a loop? asked during the first simulation
-        analysis, info, sim_warnings = measure_probed(
-            unchecked, method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles,
-            label=label, timeout_s=timeout_s, meanwhile=loop_check,
-        )
-    probed = loop_check()  # its outcome, found while the first simulation ran
+        options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s)
+        unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
+        analysis, info, sim_warnings = measure_probed(unchecked, meanwhile=loop_check, **options)
+        probed = loop_check()  # its outcome, found while the first simulation ran
+        free = driver is None and placement is None
+        probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free)
+    if probed.inputs_only:
+        _refuse_inputs_only(probed, analysis, driver or "", checks)
     outcomes = tuple(r.check(analysis) for r in reqs)
     warnings = (*parsed.warnings, *probed.warnings, *sim_warnings, *analysis.warnings)
     return LoopResult(
@@ -404,7 +424,65 @@ def measure(
         ignored_statements=ignored_lines(parsed),
         warnings=tuple(dict.fromkeys(warnings)),
         sim=info,
+        checks=checks,
     )
+
+
+def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: LoopAnalysis, info: SimInfo, sim_warnings: tuple[str, ...],
+                   options: dict, free: bool) -> tuple[ProbedNetlist, LoopAnalysis, SimInfo, tuple[str, ...], tuple[Check, ...]]:
+    """The measured split, settled: another placement of its bridging elements when it fails its checks, a second
+    break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
+    extra = 0.0
+    coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
+
+    def measure_coarse(place: Mapping[str, str]) -> Trial | None:
+        nonlocal extra
+        try:
+            other = break_loop(parsed, at, placement=place)
+        except ProbeError:
+            return None
+        a, i, _ = measure_probed(other, **coarse_options)
+        extra += i.seconds
+        return Trial(place, other, a)
+
+    checks: list[Check] = []
+    first = Trial({}, probed, analysis)
+    if free:
+        chosen, split_check, _ = settle_split(first, measure_coarse)
+        if chosen is not None:
+            _log.info("measuring the loop again with %s", split_check.detail.split(":")[0])
+            other = break_loop(parsed, at, placement=chosen.placement)
+            analysis, info, sim_warnings = measure_probed(other, **options)
+            probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
+        if split_check is not None:
+            checks.append(split_check)
+        elif not first.failed:
+            second = second_break_check(first, measure_coarse)
+            if second is not None:
+                checks.append(second)
+    n = analysis.nyquist
+    if n.open_loop_rhp_from == "fit" and n.open_loop_rhp_poles > 0 and flat_element_count(parsed) <= PZ_MAX_ELEMENTS:
+        source = parsed.source
+        workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
+        pz = pz_check(analysis, node_poles(write_netlist(parsed), probed.side_b, workdir=workdir))
+        if pz is not None:
+            checks.append(pz)
+    return probed, analysis, replace(info, seconds=info.seconds + extra), sim_warnings, tuple(checks)
+
+
+def _refuse_inputs_only(probed: ProbedNetlist, analysis: LoopAnalysis, driver: str, checks: tuple[Check, ...]) -> None:
+    """driver= naming only inputs (a gate, a base, a control input) stands only when the measured T passes every check and
+    regulates with negative feedback: else the split is backwards, and netloop says which outputs sit on the node."""
+    failed = [c for c in (*analysis.checks, *checks) if not c.passed]
+    backwards = not analysis.regulates or float(np.real(analysis.t[0])) < 0.0
+    if not failed and not backwards:
+        return
+    outputs = ", ".join(probed.outputs) or "none found by the rules: name the element that drives the node"
+    why = "; ".join(c.detail for c in failed) if failed else (
+        f"T never reaches 0 dB (at most {float(np.max(20.0 * np.log10(np.abs(analysis.t) + 1e-300))):.4g} dB)" if not analysis.regulates
+        else "T is negative at low frequency (positive feedback)")
+    raise ProbeError(f"driver={driver!r} names only inputs on node {probed.node} (gates, bases or control inputs), and the T it "
+                     f"gives fails its checks ({why}); the outputs on the node are: {outputs}; name one of them as the driver")
 
 
 def with_label(result: LoopResult, label: str) -> LoopResult:

@@ -28,12 +28,13 @@ import numpy as np
 
 from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
-from netloop.analysis.results import LoopAnalysis
+from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, Verdict, combined_verdict
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict
+from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements
 from netloop.jobs.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
 from netloop.netlist import Netlist, write_netlist
-from netloop.probe.differential import MODES, PairProbe, break_pair
+from netloop.probe.differential import MODES, RUNS, PairProbe, break_pair
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
 
 __all__ = ["COUPLING_THRESHOLD_DB", "Coupling", "PairResult", "measure_pair", "pair_job", "parse_pair"]
@@ -166,13 +167,74 @@ def _break_info(pair: PairProbe, mode: str) -> BreakInfo:
     )
 
 
-def _rhp(value: int | Mapping[str, int]) -> dict[str, int]:
+def _rhp(value: int | None | Mapping[str, int]) -> dict[str, int | None]:
+    """P for each mode: the caller's count, or None (read from the data) for a mode not given."""
     if isinstance(value, Mapping):
         unknown = set(value) - set(MODES)
         if unknown:
             raise NetloopError(f"open_loop_rhp_poles names unknown modes {', '.join(sorted(unknown))}; expected {', '.join(MODES)}")
-        return {m: int(value.get(m, 0)) for m in MODES}
-    return dict.fromkeys(MODES, int(value))
+        return {m: None if value.get(m) is None else int(value[m]) for m in MODES}
+    return dict.fromkeys(MODES, None if value is None else int(value))
+
+
+@dataclass(frozen=True, slots=True)
+class _Sampled:
+    """One pair break, simulated and analysed."""
+
+    probe: PairProbe
+    analyses: dict[str, LoopAnalysis]
+    info: SimInfo
+    warnings: dict[str, tuple[str, ...]]
+    samples: _CouplingSamples
+
+    @property
+    def doubts(self) -> str:
+        return "; ".join(f"{mode} mode: {why}" for mode in MODES if (why := analysis_doubts(self.analyses[mode])))
+
+
+def _sample_pair(parsed: Netlist, nodes: tuple[str, str], drivers, placements, *, method: str, sweep: Sweep, simulator: Simulator,
+                 rhp: dict[str, int | None], label: str, timeout_s: float) -> _Sampled:
+    probe = break_pair(parsed, *nodes, drivers=drivers, placements=placements)
+    samples = _CouplingSamples()
+
+    def ratios(result: SimResult) -> dict[str, np.ndarray]:
+        q = probe.quantities({r.name: dict(r.vectors) for r in result.runs})
+        samples.add(result.runs[0].freq_hz, q.dm_to_cm, q.cm_to_dm)
+        return {"differential": _mode_ratio(q.differential, method), "common": _mode_ratio(q.common, method)}
+
+    base = pair_job(probe, (), label=label, timeout_s=timeout_s)  # written once: every round shares its circuit_id
+
+    def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
+        return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
+
+    analyses, info, sim_warnings = sample_loops(job_for, ratios, simulator, sweep, rhp)
+    return _Sampled(probe, analyses, info, sim_warnings, samples)
+
+
+def _settled(first: _Sampled, again) -> tuple[_Sampled, tuple[Check, ...]]:
+    """The pair's split settled as a single node's is (netloop.jobs.measure_checks): when a mode fails its checks or has
+    poles of its own, the other placements of the bridging elements (the halves alike) are tried on a coarse sweep."""
+    why = first.doubts
+    if not why or not (first.probe.p.bridges or first.probe.n.bridges):
+        return first, ()
+    tried = []
+    for place in pair_placements(first.probe.p, first.probe.n):
+        try:
+            trial = again(place, True)
+        except ProbeError:
+            continue
+        tried.append((place, trial))
+        if not trial.doubts:
+            done = again(place, False)
+            what = "; ".join(f"{node}: {moved(pl)}" for node, pl in zip(first.probe.nodes, place) if pl)
+            return done, (Check("split", True, f"moved {what}: with the rules' placement, {why}; with this one both modes pass "
+                                f"every self-check and T has no right-half-plane pole"),)
+    listing = "; ".join(f"{'; '.join(f'{node}: {moved(pl)}' for node, pl in zip(first.probe.nodes, place) if pl)}: {t.doubts}"
+                        for place, t in tried) or "no other placement could be built"
+    failed = any(not c.passed for a in first.analyses.values() for c in a.checks)
+    return first, (Check("split", not failed, f"{'no placement of the bridging elements passes the self-checks' if failed else 'kept the rules placement'}"
+                         f": as placed, {why}; tried {listing}",
+                         "name each node's driver side with --driver NODE=ELEMENT[.PIN],..., or break the pair at other nodes" if failed else ""),)
 
 
 def measure_pair(
@@ -182,7 +244,7 @@ def measure_pair(
     drivers: tuple[str | None, str | None] = (None, None),
     method: str = "tian",
     sweep: Sweep = Sweep(),
-    open_loop_rhp_poles: int | Mapping[str, int] = 0,
+    open_loop_rhp_poles: int | None | Mapping[str, int] = None,
     requirements: Iterable[str | Requirement] = (),
     simulator: Simulator | None = None,
     keep_decks: str | PathLike[str] | None = None,
@@ -194,8 +256,13 @@ def measure_pair(
     """Break the node pair ``pair`` ("outp,outn" or a tuple) and measure its differential- and common-mode loops.
 
     Takes the arguments of ``measure`` (``requirements`` apply to both modes;
-    ``open_loop_rhp_poles`` is one count for both or a mapping by mode name) and returns a
-    PairResult whose two LoopResults have the single-ended shape.
+    ``open_loop_rhp_poles`` is one count for both or a mapping by mode name, read from the data
+    when not given) and returns a PairResult whose two LoopResults have the single-ended shape.
+    ``drivers`` = (P's, N's) chooses each node's driver side as ``driver=`` does for one node (None:
+    decided). Without them each node is split by the single-node rules (netloop.probe.sides) on the
+    netlist as given, and when a mode fails its self-checks or T has poles of its own, the other
+    placements of the bridging elements are tried, the halves alike (the job check "split" says
+    what was moved and why).
     """
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
@@ -203,26 +270,26 @@ def measure_pair(
     rhp = _rhp(open_loop_rhp_poles)
     parsed = load_netlist(netlist)
     reqs = parse_requirements(requirements)
-    probe = break_pair(parsed, p_node, n_node, drivers=drivers)
-    samples = _CouplingSamples()
-
-    def ratios(result: SimResult) -> dict[str, np.ndarray]:
-        q = probe.quantities({r.name: dict(r.vectors) for r in result.runs})
-        samples.add(result.runs[0].freq_hz, q.dm_to_cm, q.cm_to_dm)
-        return {"differential": _mode_ratio(q.differential, method), "common": _mode_ratio(q.common, method)}
-
     own = simulator is None
-    sim = own_simulator(processes, parsed, len(probe.runs), keep_decks) if own else simulator
-    base = pair_job(probe, (), label=label, timeout_s=timeout_s)  # written once: every round shares its circuit_id
-
-    def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
-        return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
-
+    sim = own_simulator(processes, parsed, len(RUNS), keep_decks) if own else simulator
+    options = dict(method=method, simulator=sim, rhp=rhp, label=label, timeout_s=timeout_s)
     try:
-        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, rhp)
+        first = _sample_pair(parsed, (p_node, n_node), drivers, (None, None), sweep=sweep, **options)
+        job_checks: tuple[Check, ...] = ()
+        if drivers == (None, None):
+            extra = []
+
+            def again(place, coarse: bool) -> _Sampled:
+                done = _sample_pair(parsed, (p_node, n_node), drivers, place, sweep=replace(sweep, refine=False) if coarse else sweep, **options)
+                extra.append(done.info.seconds)
+                return done
+
+            first, job_checks = _settled(first, again)
+            first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(extra)))
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
+    probe, analyses, info, sim_warnings, samples = first.probe, first.analyses, first.info, first.warnings, first.samples
 
     dm_band, cm_band = _band_hz(analyses["differential"]), _band_hz(analyses["common"])
     coupling = Coupling(
@@ -253,5 +320,6 @@ def measure_pair(
             ignored_statements=ignored_lines(parsed),
             warnings=tuple(dict.fromkeys(warnings)),
             sim=info,
+            checks=job_checks,
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))

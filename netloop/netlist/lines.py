@@ -10,7 +10,7 @@ __all__ = ["LogicalLine", "logical_lines", "tokenize", "token_columns"]
 LogicalLine = tuple[str, int, bool]
 
 _EQ = re.compile(r"\s*=\s*")
-_DOLLAR = re.compile(r"(?:^|\s)\$(?:\s|$)")
+_DOLLAR = re.compile(r"(?:^|\s)\$")  # as ngspice 39 reads it: a $ after a space starts a comment, whatever follows
 
 
 def _strip_inline(s: str) -> str:
@@ -68,7 +68,7 @@ def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:
     """Join one file's lines (``lines[start:]``) into statements with the number of their first line.
 
     ``*`` lines and blank lines are dropped (also between a statement and its continuation);
-    ``;`` and ``$ `` start inline comments; a ``.control`` ... ``.endc`` block becomes one raw
+    ``;`` and a ``$`` after a space or tab start inline comments; a ``.control`` ... ``.endc`` block becomes one raw
     statement holding its lines verbatim, since nothing inside it is netlist syntax.
     """
     kind = _kind(lines, start)

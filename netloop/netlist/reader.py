@@ -343,6 +343,15 @@ class _Reader:
             new = s
             if isinstance(s, Element):
                 k = s.kind
+                if k == "Q":  # first: a model defined after the card changes which token is the model
+                    count = resolve_bjt(s.tokens, self.models)
+                    if count != len(s.node_slots):
+                        slots = tuple(range(count))
+                        toks = list(s.tokens)
+                        for j in slots:
+                            toks[j] = toks[j].lower()
+                        new = replace(s, tokens=tuple(toks), node_slots=slots,
+                                      pins=("c", "b", "e", "sub")[:count], model=s.tokens[count].lower())
                 if k == "X":
                     sub = next((sc[s.model] for sc in scopes if s.model in sc), None)
                     if sub is None:
@@ -353,18 +362,9 @@ class _Reader:
                             s.location, s.card())
                     elif sub.pins != s.pins:
                         new = replace(s, pins=sub.pins)
-                elif s.model is not None and k in _MODEL_KINDS and s.model not in self.models:
-                    if not any(s.model in sc for sc in scopes):  # ngspice also accepts a subcircuit here
-                        self.warnings.append(f"{s.location}: {s.name}: undefined model {s.model!r}")
-                if k == "Q":
-                    count = resolve_bjt(s.tokens, self.models)
-                    if count != len(s.node_slots):
-                        slots = tuple(range(count))
-                        toks = list(s.tokens)
-                        for j in slots:
-                            toks[j] = toks[j].lower()
-                        new = replace(s, tokens=tuple(toks), node_slots=slots,
-                                      pins=("c", "b", "e", "sub")[:count], model=s.tokens[count].lower())
+                elif new.model is not None and k in _MODEL_KINDS and new.model not in self.models:
+                    if not any(new.model in sc for sc in scopes):  # ngspice also accepts a subcircuit here
+                        self.warnings.append(f"{s.location}: {s.name}: undefined model {new.model!r}")
             elif isinstance(s, Subcircuit):
                 body = self._resolve(s.body, scopes)
                 if body != s.body:

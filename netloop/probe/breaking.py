@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import functools
 
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Mapping
 from contextlib import contextmanager
 from dataclasses import replace
 
@@ -16,11 +16,15 @@ from netloop.netlist.reader import gc_paused
 from netloop.probe.loops import connectivity, loop_report
 from netloop.probe.records import ProbedNetlist, ProbeVectors
 from netloop.probe.rewrite import fresh_name, split_node
-from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, resolve_node, scope_names, walk_scopes
-from netloop.probe.sides import Split, Terminal, ac_ground_nodes, decide_sides, terminals_at
+from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, resolve_node, scope_names, scope_of_path, walk_scopes
+from netloop.probe.sides import PIN_ELEMENT, Split, Terminal, ac_ground_nodes, decide_sides, terminals_at
 from netloop.probe.silence import silence_statements
 
-__all__ = ["break_loop", "locate_split", "split_loop"]
+__all__ = ["Located", "break_loop", "locate_split", "split_loop"]
+
+Located = tuple[Scope, str, Split]
+"""Where and how a node is split: locate_split's answer."""
+
 
 SERIES_NAME = "vnl_series"
 SHUNT_NAME = "inl_shunt"
@@ -55,28 +59,33 @@ def _tied_by(netlist: Netlist, flat: str, globals_: frozenset[str]) -> str:
     return "it is tied to ground by independent voltage sources"
 
 
-def break_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> ProbedNetlist:
+def break_loop(netlist: Netlist, at: str, *, driver: str | None = None, placement: Mapping[str, str] | None = None) -> ProbedNetlist:
     """Split node ``at`` into a driver side a and a load side b and insert the probe; the input is not modified.
 
     ``driver="ELEMENT[.PIN],..."`` chooses the driver side; by default it is decided from the circuit
-    (``decided_by`` says how). Raises UnknownNodeError for a node the netlist lacks and ProbeError
-    for ground, a supply, a node with one connection, no driver, or a node on no loop.
+    (``decided_by`` says how, netloop.probe.sides the rules). ``placement`` puts named bridging
+    elements on the "driver" or "load" side ({"cc": "load"}) and leaves the rest to the rules.
+    Raises UnknownNodeError for a node the netlist lacks and ProbeError for ground, a supply, a
+    node with one connection, no driver, or a node on no loop.
     """
-    _, check = split_loop(netlist, at, driver=driver)
+    _, check = split_loop(netlist, at, driver=driver, placement=placement)
     return check()
 
 
-def split_loop(netlist: Netlist, at: str, *, driver: str | None = None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
+def split_loop(netlist: Netlist, at: str, *, driver: str | None = None, placement: Mapping[str, str] | None = None,
+               decided: Located | None = None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
     """break_loop in two steps: the probed netlist at once, and ``check()`` for the loop search.
 
     The first element is ready to simulate but carries no warnings; ``check()`` returns what
     break_loop returns (the same record with the loop warnings) or raises break_loop's ProbeError
     for a node on no loop; it searches once, and a later call gives the same record at once. A caller may simulate while it checks, and must drop its results when
     ``check()`` raises. Errors found before the split are raised at once, as break_loop raises them.
+    ``decided`` (locate_split's answer on another netlist with the same instance paths, such as the
+    original of a netlist that already holds one probe) is applied instead of deciding here.
     """
     with gc_paused():  # the passes below build hundreds of thousands of acyclic records for a large netlist
         with _located(netlist):
-            probed, check = _break(netlist, at, driver)
+            probed, check = _break(netlist, at, driver, placement, decided)
 
     @functools.cache  # the search runs once; later calls give its outcome again
     def checked() -> ProbedNetlist:
@@ -113,7 +122,65 @@ def _into_instance(netlist: Netlist, scope: Scope, node: str, terminals: tuple[T
     return scope, node, terminals
 
 
-def locate_split(netlist: Netlist, at: str, *, driver: str | None = None, ac_ground: frozenset[str] | None = None) -> tuple[Scope, str, Split]:
+def _outside(netlist: Netlist, scope: Scope, node: str, ac_ground, globals_) -> Terminal | None:
+    """For a node inside an instance that is one of its pins: the rest of the net outside the instance, as one terminal
+    (PIN_ELEMENT) whose role is that of what sits out there, at every level up (a driver when anything drives it). None
+    for any other node, or when nothing outside connects to the pin."""
+    if not scope.path or node not in scope.definitions[-1].pins:
+        return None
+    roles: list[str] = []
+    labels: list[str] = []
+    inner, net = scope, node
+    while inner.path and net in inner.definitions[-1].pins:
+        parent = scope_of_path(netlist, inner.path[:-1], globals_)
+        instance = next(e for e in elements_of(netlist, parent) if e.key == inner.path[-1] and e.kind == "X")
+        slots = [k for k, pin in enumerate(inner.definitions[-1].pins) if pin == net]
+        net = instance.nodes[slots[0]]
+        for t in terminals_at(netlist, parent, net, ac_ground, globals_):
+            if not (t.element is instance and t.slot in slots):
+                roles.append(t.role)
+                labels.append(t.label)
+        inner = parent
+    if not labels:
+        return None
+    role = "driver" if "driver" in roles else "cg" if "cg" in roles else "shunt" if set(roles) == {"shunt"} else "load"
+    shown = ", ".join(labels[:3]) + (f" and {len(labels) - 3} more" if len(labels) > 3 else "")
+    return Terminal(PIN_ELEMENT, -1, node, role, f"{'.'.join((*scope.path, node))} outside {scope.path[-1]} ({shown})")
+
+
+def _scope_of_driver(netlist: Netlist, scope: Scope, node: str, driver: str, globals_) -> tuple[Scope, str]:
+    """Where a driver= naming terminals deeper in the hierarchy than the node (``x1.x2.m3.d``) puts the break: inside
+    that instance, on the net those terminals sit on (the same net as the node). Else (scope, node) unchanged."""
+    flat = scope.flat(node, globals_)
+    found: set[tuple[tuple[str, ...], str]] = set()
+    for spec in (s.strip().lower() for s in driver.split(",") if s.strip()):
+        parts = spec.split(".")
+        depth = 0
+        while depth < len(parts) - 1 and scope_of_path(netlist, tuple(parts[:depth + 1]), globals_) is not None:
+            depth += 1
+        path = tuple(parts[:depth])
+        if len(path) <= len(scope.path) or path[:len(scope.path)] != scope.path:
+            return scope, node
+        inner = scope_of_path(netlist, path, globals_)
+        element = next((e for e in elements_of(netlist, inner) if e.key == parts[depth]), None)
+        if element is None:
+            return scope, node
+        nets = {n for n in element.nodes if inner.flat(n, globals_) == flat}
+        if len(nets) != 1:
+            raise ProbeError(f"driver {spec!r} is not on node {'.'.join((*scope.path, node))}: none of {'.'.join(path)}.{element.key}'s "
+                             f"terminals sits on that net")
+        found.add((path, nets.pop()))
+    if len(found) > 1:
+        raise ProbeError(f"driver={driver!r} names terminals in different instances ({', '.join(sorted('.'.join(p) for p, _ in found))}); "
+                         "name the drivers of one instance, and netloop breaks the net inside it")
+    if not found:
+        return scope, node
+    path, local = found.pop()
+    return scope_of_path(netlist, path, globals_), local
+
+
+def locate_split(netlist: Netlist, at: str, *, driver: str | None = None, ac_ground: frozenset[str] | None = None,
+                 placement: Mapping[str, str] | None = None) -> tuple[Scope, str, Split]:
     """Where break_loop splits node ``at`` and how: (its scope, its name there, the split into sides).
 
     Raises break_loop's refusals (unknown node, AC ground or a supply, one connection, no driver).
@@ -122,35 +189,47 @@ def locate_split(netlist: Netlist, at: str, *, driver: str | None = None, ac_gro
     """
     given = at.strip().lower()
     globals_ = frozenset(netlist.globals)
-    scope, node = resolve_node(netlist, given, globals_)
+    scope, node = resolve_node(netlist, given, globals_, lift=False)
     if ac_ground is None:
         ac_ground = ac_ground_nodes(netlist, globals_)
     flat = scope.flat(node, globals_)
     if flat in ac_ground:
         raise ProbeError(f"cannot break node {given}: {_tied_by(netlist, flat, globals_)}, so it is AC ground or a supply, not a loop node")
+    if driver is not None:
+        scope, node = _scope_of_driver(netlist, scope, node, driver, globals_)
     terminals = terminals_at(netlist, scope, node, ac_ground, globals_)
-    scope, node, terminals = _into_instance(netlist, scope, node, terminals, ac_ground, globals_)
+    outside = _outside(netlist, scope, node, ac_ground, globals_)
+    if outside is not None:
+        terminals = (*terminals, outside)
+    else:
+        scope, node, terminals = _into_instance(netlist, scope, node, terminals, ac_ground, globals_)
     if len(terminals) < 2:
         which = terminals[0].label if terminals else "nothing"
         raise ProbeError(f"cannot break node {given}: it has one connection ({which}), so no loop passes through it")
-    return scope, node, decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_)
+    return scope, node, decide_sides(netlist, scope, node, terminals, driver, ac_ground, globals_, placement)
 
 
-def _break(netlist: Netlist, at: str, driver: str | None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
+def _break(netlist: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None,
+           decided: Located | None) -> tuple[ProbedNetlist, Callable[[], ProbedNetlist]]:
     given = at.strip().lower()
     globals_ = frozenset(netlist.globals)
     ac_ground = ac_ground_nodes(netlist, globals_)
-    scope, node, split = locate_split(netlist, given, driver=driver, ac_ground=ac_ground)
+    if decided is None:
+        scope, node, split = locate_split(netlist, given, driver=driver, ac_ground=ac_ground, placement=placement)
+    else:
+        path, node, split = decided[0].path, decided[1], decided[2]
+        scope = scope_of_path(netlist, path, globals_)
 
     local_nodes, element_keys = scope_names(netlist, scope)
     node_a = fresh_name(node + DRIVE_SUFFIX, set(local_nodes))
     names = set(element_keys)
     series = fresh_name(SERIES_NAME, names)
     shunt = fresh_name(SHUNT_NAME, names)
-    first = split.driver[0].element.location
+    first = next(t.element.location for t in (*split.driver, *split.load, *split.shunt) if t.slot >= 0)
     probe = _probe_elements(series, shunt, node_a, node, first)
-    moves = {(t.element.key, t.slot): node_a for t in split.driver}
-    rewrite = split_node(netlist.statements, scope, moves, probe, _subckt_names(netlist.statements))
+    moves = {(t.element.key, t.slot): node_a for t in split.driver if t.slot >= 0}
+    pin = (node, node_a) if any(t.slot < 0 for t in split.driver) else None  # the net outside goes with the driver side
+    rewrite = split_node(netlist.statements, scope, moves, probe, _subckt_names(netlist.statements), pin)
 
     statements, hits = silence_statements(rewrite.statements, frozenset())
     new = replace(netlist, statements=statements, _index={})
@@ -189,6 +268,9 @@ def _break(netlist: Netlist, at: str, driver: str | None) -> tuple[ProbedNetlist
         decided_by=split.decided_by,
         silenced_sources=tuple(silenced),
         copied_subcircuits=rewrite.copies,
+        bridges=split.bridges,
+        inputs_only=split.inputs_only,
+        outputs=split.outputs,
     )
 
     def check() -> ProbedNetlist:

@@ -61,7 +61,7 @@ import numpy as np
 
 from netloop.errors import ProbeError
 from netloop.netlist.model import Netlist
-from netloop.probe.breaking import break_loop
+from netloop.probe.breaking import break_loop, locate_split, split_loop
 from netloop.probe.records import ProbedNetlist, ProbeQuantities
 
 __all__ = ["MODES", "RUNS", "PairProbe", "PairQuantities", "break_pair", "modal_currents", "modal_voltages"]
@@ -206,20 +206,31 @@ class PairProbe:
 _SEVERAL_LOOPS = " loops through its load side "
 
 
-def break_pair(netlist: Netlist, p: str, n: str, *, drivers: tuple[str | None, str | None] = (None, None)) -> PairProbe:
+def break_pair(netlist: Netlist, p: str, n: str, *, drivers: tuple[str | None, str | None] = (None, None),
+               placements: tuple[Mapping[str, str] | None, Mapping[str, str] | None] = (None, None)) -> PairProbe:
     """Break nodes ``p`` and ``n`` together with a differential probe; the input is not modified.
 
-    Each node is split as ``break_loop`` splits it (``drivers`` overrides each side's driver choice).
-    Raises ProbeError for one node given twice, and whatever ``break_loop`` raises for either node.
+    Each node is split exactly as ``break_loop`` splits it on its own: both splits are decided on
+    the netlist as given (the first probe does not change the second node's decision), by the same
+    rules (netloop.probe.sides); ``drivers`` and ``placements`` override them node by node, as
+    ``driver=`` and ``placement=`` do for one node. Raises ProbeError for one node given twice, and
+    whatever ``break_loop`` raises for either node (the message names the node).
     """
     first, second = p.strip().lower(), n.strip().lower()
     if not first or not second:
         raise ProbeError(f"a differential break needs two nodes P,N; got {p!r} and {n!r}")
     if first == second:
         raise ProbeError(f"a differential break needs two different nodes; got {first!r} twice")
-    half_p = break_loop(netlist, first, driver=drivers[0])
+    decided = []
+    for node, driver, placement in zip((first, second), drivers, placements):
+        try:
+            decided.append(locate_split(netlist, node, driver=driver, placement=placement))
+        except ProbeError as exc:
+            raise ProbeError(f"cannot break the pair {first},{second} at {node}: {exc}") from exc
+    half_p = break_loop(netlist, first, driver=drivers[0], placement=placements[0])
     try:
-        half_n = break_loop(half_p.netlist, second, driver=drivers[1])
+        _, check = split_loop(half_p.netlist, second, decided=decided[1])
+        half_n = check()
     except ProbeError as exc:
         raise ProbeError(f"cannot break the pair {first},{second} at {second}: {exc}") from exc
     if half_n.side_a == half_p.side_b or half_n.side_b == half_p.side_b:

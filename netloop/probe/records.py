@@ -8,6 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from netloop.netlist.model import Netlist
+from netloop.probe.sides import Bridge
 
 __all__ = ["ProbeQuantities", "ProbeVectors", "ProbedNetlist"]
 
@@ -89,6 +90,9 @@ class ProbedNetlist:
     silenced_sources: tuple[str, ...]
     warnings: tuple[str, ...] = ()
     copied_subcircuits: tuple[tuple[str, str], ...] = ()  # (original, copy) for a break inside an instance
+    bridges: tuple[Bridge, ...] = ()  # bridging elements at the node and the side each was put on, and why
+    inputs_only: bool = False  # driver= named only inputs (gates, bases, control inputs) on the node
+    outputs: tuple[str, ...] = ()  # the terminals on the node that drive it by the split rules ("m6.d")
 
     @property
     def series_run_ac(self) -> Mapping[str, float]:

@@ -68,13 +68,15 @@ def _rebody(body: tuple[Statement, ...], instance: str | None, model: str | None
     return tuple(out)
 
 
-def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tuple[str, int], str], probe: tuple[Element, ...], taken: set[str]) -> Rewrite:
+def split_node(statements: tuple[Statement, ...], scope: Scope, moves: dict[tuple[str, int], str], probe: tuple[Element, ...], taken: set[str],
+               pin: tuple[str, str] | None = None) -> Rewrite:
     """New statements: in the node's scope the driver terminals move to the new node and the probe is added.
 
     Inside an instance, each definition on the instance path is copied under a new name, so that
-    other instances of the same subcircuit stay untouched.
+    other instances of the same subcircuit stay untouched. ``pin`` = (node, new node) renames that
+    pin of the innermost definition: the net outside the instance then meets the new node.
     """
-    return _rewrite_scope(statements, scope, lambda body: _split_body(body, moves, probe), taken, "broken_in")
+    return _rewrite_scope(statements, scope, lambda body: _split_body(body, moves, probe), taken, "broken_in", pin)
 
 
 def replace_elements(statements: tuple[Statement, ...], scope: Scope, elements: Mapping[str, Element], taken: set[str]) -> Rewrite:
@@ -91,8 +93,9 @@ def replace_elements(statements: tuple[Statement, ...], scope: Scope, elements: 
 
 
 def _rewrite_scope(statements: tuple[Statement, ...], scope: Scope, rebody: Callable[[tuple[Statement, ...]], tuple[Statement, ...]],
-                   taken: set[str], tag: str) -> Rewrite:
-    """``rebody`` applied to the body of ``scope``: the top-level statements, or a copy of each definition on an instance's path."""
+                   taken: set[str], tag: str, pin: tuple[str, str] | None = None) -> Rewrite:
+    """``rebody`` applied to the body of ``scope``: the top-level statements, or a copy of each definition on an instance's path
+    (``pin`` = (old, new) renames one pin of the innermost copy)."""
     if not scope.path:
         return Rewrite(rebody(statements), ())
     defs = scope.definitions
@@ -108,7 +111,8 @@ def _rewrite_scope(statements: tuple[Statement, ...], scope: Scope, rebody: Call
         else:
             body = d.body
         body = _rebody(body, scope.path[j + 1] if j + 1 < k else None, new_def.name if new_def and j + 1 < k else None, inserts.pop(j, []))
-        new_def = replace(d, name=name, body=body, header="")
+        pins = tuple(pin[1] if pin is not None and j == k - 1 and p == pin[0] else p for p in d.pins)
+        new_def = replace(d, name=name, body=body, header="", pins=pins)
         copies.append((d.name, name))
         container = next((m for m in range(j - 1, -1, -1) if d.name in defs[m].subcircuits), -1)
         inserts.setdefault(container, []).append((d.name, new_def))

@@ -9,7 +9,8 @@ from netloop.errors import ProbeError, UnknownNodeError
 from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist, Subcircuit
 
-__all__ = ["FlatTerminal", "GROUND_NAMES", "Scope", "flat_terminals", "flattener", "primitive_elements", "resolve_node", "walk_scopes"]
+__all__ = ["FlatTerminal", "GROUND_NAMES", "Scope", "flat_terminals", "flattener", "primitive_elements", "resolve_node", "scope_of_path",
+           "walk_scopes"]
 
 GROUND_NAMES = frozenset({"0", "gnd"})
 
@@ -169,11 +170,12 @@ def _local_nodes(netlist: Netlist, scope: Scope) -> frozenset[str]:
     return scope_names(netlist, scope)[0]
 
 
-def resolve_node(netlist: Netlist, at: str, globals_: frozenset[str]) -> tuple[Scope, str]:
+def resolve_node(netlist: Netlist, at: str, globals_: frozenset[str], *, lift: bool = True) -> tuple[Scope, str]:
     """The scope and local name where a (possibly hierarchical) node really lives.
 
-    A pin of an instance is the net it is wired to one level up, so ``xamp.out`` with ``out`` a pin
-    of xamp's subcircuit resolves to the top-level net on that pin.
+    With ``lift`` a pin of an instance is the net it is wired to one level up, so ``xamp.out`` with
+    ``out`` a pin of xamp's subcircuit resolves to the top-level net on that pin. Without it the name
+    stays where it was given (inside xamp, on its pin ``out``): netloop.probe breaks it there.
     """
     name = at.strip().lower()
     top = Scope((), (), ())
@@ -190,12 +192,14 @@ def resolve_node(netlist: Netlist, at: str, globals_: frozenset[str]) -> tuple[S
         if child is None:
             rest = ".".join(parts[depth:])
             if rest in _local_nodes(netlist, scope):  # a node name that itself contains dots
-                return _lift(netlist, scope, rest, globals_)
+                return _lift(netlist, scope, rest, globals_) if lift else (scope, rest)
             raise UnknownNodeError("node", name, _all_flat_nodes(netlist, globals_))
         scope = child
     local = parts[-1]
     if local not in _local_nodes(netlist, scope):
         raise UnknownNodeError("node", name, _all_flat_nodes(netlist, globals_))
+    if not lift and local not in GROUND_NAMES and local not in globals_:
+        return scope, local
     return _lift(netlist, scope, local, globals_)
 
 
@@ -210,6 +214,18 @@ def _lift(netlist: Netlist, scope: Scope, local: str, globals_: frozenset[str]) 
     if local in GROUND_NAMES or local in globals_:
         return Scope((), (), ()), local
     return scope, local
+
+
+def scope_of_path(netlist: Netlist, path: tuple[str, ...], globals_: frozenset[str]) -> Scope | None:
+    """The scope inside the instance path ``path`` (("x1", "x2")), or None when an instance on it is unknown or a device."""
+    scope = Scope((), (), ())
+    for inst in path:
+        instance = next((e for e in elements_of(netlist, scope) if e.key == inst and e.kind == "X"), None)
+        child = child_scope(netlist, scope, instance, globals_) if instance is not None else None
+        if child is None or is_device_subcircuit(child.definitions[-1]):
+            return None
+        scope = child
+    return scope
 
 
 def _rebuild(netlist: Netlist, scope: Scope, globals_: frozenset[str]) -> Scope:

@@ -284,6 +284,21 @@ class _Neighbourhood:
                         (todo.appendleft if step == 0 else todo.append)(m)
         return depth
 
+    def beyond(self, source: Terminal, node: str, roles: tuple[str, ...]) -> list[tuple[Element, int]]:
+        """The active terminals of the given roles on the far side of a series voltage source at ``node`` (looked through)."""
+        seen, todo, out = {node}, [n for n in source.element.nodes if n != node], []
+        while todo:
+            n = todo.pop()
+            if n in seen or self.grounded(n):
+                continue
+            seen.add(n)
+            for e, k, pin in self.at.get(n, ()):
+                if e.kind == "V":
+                    todo.extend(m for m in e.nodes if m not in seen)
+                elif e.kind in _ACTIVE and self.role(e, k, pin) in roles:
+                    out.append((e, k))
+        return out
+
     def onward(self, starts: list[Terminal], avoid: str) -> set[str]:
         """Signal nodes reached from the terminals ``starts`` at node ``avoid`` along the signal's way: through passive
         elements and series voltage sources both ways, and through an active element from an input to its outputs;
@@ -371,9 +386,11 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
             units.setdefault(id(t.element), []).append(t)
     if not units:
         return []
-    back = near.stages(node, [(t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0], "driver")
-    on = near.stages(node, [(t.element, t.slot) for t in loads if t.element.kind in _ACTIVE and t.role == "load" and t.slot >= 0
-                            and id(t.element) not in units], "load")
+    back = near.stages(node, [*((t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0),
+                              *(hit for t in drivers if t.via for hit in near.beyond(t, node, ("driver", "cg")))], "driver")
+    on = near.stages(node, [*((t.element, t.slot) for t in loads if t.element.kind in _ACTIVE and t.role == "load" and t.slot >= 0
+                              and id(t.element) not in units),
+                            *(hit for t in loads if t.via for hit in near.beyond(t, node, ("load",)))], "load")
     far_of = {key: tuple(sorted({n for u in members for n in near.other_nodes(u.element, u.slot)})) for key, members in units.items()}
     out = []
     for key, members in units.items():
@@ -382,7 +399,7 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
         given = placement.get(label)
         if given is not None:
             side = "driver" if given == "driver" else "load"
-            out.extend((u, Bridge(label, side, f"placed on the {side} side as asked", True, True), 0.0) for u in members)
+            out.extend((u, Bridge(label, side, "placed there on request", True, True), 0.0) for u in members)
             continue
         if t.role == "cg":
             bridge = Bridge(label, "driver", "a common-gate device (gate at AC ground) beside the node's other outputs: a cascode or "
@@ -396,7 +413,7 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
             # Local feedback of the driver stage only if the loop measured comes back to that stage's input through the
             # node's other branches (elements in parallel are one branch): then the bridge is a loop inside the loop.
             others = [u for u in loads if far_of.get(id(u.element)) != far_of[key]]
-            if d_node not in near.onward(others, node):
+            if d_node not in near.onward(others, node) and not any(u.slot < 0 for u in others):  # the net outside: unseen
                 d_score = float("inf")
         if d_score < l_score:
             bridge = Bridge(label, "driver", f"closes a local loop around the driver stage {d_elem} (back to {d_node}{_path(reach, d_node)}): "
@@ -422,8 +439,8 @@ def _path(reach: dict[str, int], node: str) -> str:
 
 
 def _matches(spec: str, t: Terminal, scope: Scope) -> bool:
-    if t.slot < 0:
-        return spec in (t.label, t.label.rsplit(".", 1)[0])
+    if t.slot < 0:  # the net outside the instance
+        return spec in ("outside", t.label.split(" ", 1)[0] + ".outside")
     local = f"{t.element.key}.{t.pin}"
     return spec in (t.label, local, scope.label(t.element), t.element.key)
 

@@ -79,7 +79,9 @@ def nyquist_phrase(a: LoopAnalysis) -> str:
     """The Nyquist count in one line: N, P, Z and the verdict."""
     n = a.nyquist
     word = "stable" if n.stable else "UNSTABLE"
-    text = f"{word}: N = {n.encirclements} clockwise encirclement(s) of -1, P = {n.open_loop_rhp_poles}, Z = N + P = {n.closed_loop_rhp_poles}"
+    source = {"fit": " (read from the data)", "given": " (given)", "assumed": " (assumed)"}.get(n.open_loop_rhp_from, "")
+    text = (f"{word}: N = {n.encirclements} clockwise encirclement(s) of -1, P = {n.open_loop_rhp_poles}{source}, "
+            f"Z = N + P = {n.closed_loop_rhp_poles}")
     if n.origin_poles:
         text += f" ({origin_phrase(n.origin_poles)})"
     return text

@@ -198,3 +198,17 @@ def test_resonance_that_lifts_the_gain_above_unity_again():
     num, den = loop.num[0][0], loop.den[0][0]
     assert int(np.sum(np.roots(np.polyadd(den, num)).real > 0)) == 0
     assert a.stable and a.nyquist.reliable and a.poles.rhp_count == 0
+
+
+def test_lower_gain_margin_is_the_nearest_of_several_lower_crossovers():
+    """A triple pole at 10 Hz, a double zero at 1 kHz, poles at 1 and 10 MHz: of its two lower phase crossovers the lower
+    gain margin is the one nearest 0 dB, as python-control's phase crossovers give it."""
+    w = TWO_PI
+    loop = 1e8 * (1 + S / (w * 1e3)) ** 2 / ((1 + S / (w * 10)) ** 3 * (1 + S / (w * 1e6)) * (1 + S / (w * 1e7)))
+    gm, _, _, w_pc, _, _ = reference(loop)
+    lower = sorted((-20 * math.log10(g), wc) for g, wc in zip(gm, w_pc) if g < 1)  # python-control 0.10: GM < 1
+    assert len(lower) == 2 and lower[1][0] - lower[0][0] > 90.0  # 46.5 dB at 971 Hz and 141.4 dB at 17.8 Hz
+    a = analyse(*sample(loop, 1.0, 1e9), fit_poles=False)
+    assert a.stable and a.nyquist.reliable and [c.kind for c in a.phase_crossovers] == ["lower", "lower", "upper"]
+    assert a.margins.lower_gain_margin_db == pytest.approx(lower[0][0], abs=1e-4)
+    assert a.margins.lower_phase_crossover_hz * TWO_PI == pytest.approx(lower[0][1], rel=1e-6)

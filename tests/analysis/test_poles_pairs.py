@@ -46,3 +46,16 @@ def test_ngspice_data_of_a_100k_rc_ladder_loop_gives_its_closed_loop_pole_and_no
     expected_hz = 1001 / (2 * math.pi * 1e3 * 1.59e-9)  # circuit theory: one-pole loop of gain 1000
     assert -p.real / (2 * math.pi) == pytest.approx(expected_hz, rel=1e-3)
     assert any("without a complex-conjugate partner" in n for n in notes)
+
+
+def test_a_closed_loop_pole_inside_the_sweep_is_kept():
+    """T = K/(1 + s/w1) with its closed-loop pole at 200 Hz, swept to 1 kHz: the pole (|p| = 2 pi 200 rad/s, below
+    2 pi f_max) is reported at -(1 + K) w1, the root of 1 + T (circuit theory), not cut off as beyond the sweep."""
+    k = 100.0
+    w1 = 2 * math.pi * 200.0 / (1 + k)  # open-loop pole placed so that the closed-loop one sits at 200 Hz
+    f = np.logspace(-2, 3, 101)  # 10 mHz to 1 kHz
+    poles, notes = closed_loop_poles(f, k / (1 + 2j * math.pi * f / w1), nyquist_rhp=0)
+    (p,) = poles.poles_rad_s
+    assert p.real == pytest.approx(-(1 + k) * w1, rel=1e-6) and abs(p.imag) <= 1e-6 * abs(p)
+    assert abs(p) > 1e3  # 1257 rad/s: a cut-off at f_max read as rad/s (1000) would drop it
+    assert poles.agrees_with_nyquist and not notes

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import control
 import numpy as np
 import pytest
@@ -81,7 +83,9 @@ def test_a_draft_analysis_has_every_crossover_and_margin_of_the_whole_one():
         if loop is conditional:
             assert len(whole.phase_crossovers) == 3 and whole.margins.lower_gain_margin_db is not None  # the case is what it claims
         assert draft.gain_crossovers == whole.gain_crossovers and draft.phase_crossovers == whole.phase_crossovers
-        assert draft.nyquist == whole.nyquist
+        # a draft assumes P = 0; the whole analysis reads P from the data (0 for these stable-block loops)
+        assert draft.nyquist.open_loop_rhp_from == "assumed" and whole.nyquist.open_loop_rhp_from == "fit"
+        assert replace(draft.nyquist, open_loop_rhp_from="fit") == whole.nyquist
         for field in ("phase_margin_deg", "unity_gain_hz", "gain_margin_db", "lower_gain_margin_db", "delay_margin_s"):
             assert getattr(draft.margins, field) == getattr(whole.margins, field), field
         assert np.isnan(draft.margins.modulus_margin) and np.isnan(draft.peaking.peak_db)

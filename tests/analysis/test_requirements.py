@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 import control
+import numpy as np
 import pytest
 from analysis_loops import sample
 
@@ -112,3 +113,25 @@ def test_unstable_loop_has_no_lower_gain_margin_to_pass():
     out = parse_requirement("lgm>=0").check(a)
     assert not out.passed and "unstable" in out.reason
     assert not parse_requirement("gm>=0").check(a).passed  # python-control: GM 0.72 < 1
+
+
+def test_gain_requirement_on_a_doubtful_nyquist_count_does_not_pass():
+    """30/(s(s+3)) swept only to 1 Hz, where |T| is still -3.3 dB: the data cannot show the phase stays off -180 deg, so gm>=6 and lgm>=6 do not pass."""
+    w = 2 * math.pi  # closed form at the top of the sweep: |T(j 2 pi 1 Hz)| = 30 / (w sqrt(w^2 + 9)) = 0.685
+    assert 20 * math.log10(30 / (w * math.hypot(w, 3))) == pytest.approx(-3.28, abs=0.01)
+    a = analyse(*sample(30 / (S * (S + 3)), 1e-4, 1.0), fit_poles=False)
+    assert not a.nyquist.reliable and a.margins.gain_margin_db is None and not a.phase_crossovers
+    for text in ("gm>=6", "lgm>=6", "gm>6"):
+        out = parse_requirement(text).check(a)
+        assert not out.passed and out.value is None, text
+        assert "Nyquist count is not reliable" in out.reason and "-20 dB" in out.reason  # says why and what to try
+
+
+@pytest.mark.parametrize("op,passes", [(">", False), (">=", True), ("<", False), ("<=", True)])
+def test_operators_at_equality(op, passes):
+    """At a value exactly equal to the threshold the strict operators fail and the others pass."""
+    f = np.logspace(-12, 3, 151)  # T = 100/(1 + s) from 1e-12 Hz: |T| = 100 there to 1e-22 (closed form)
+    a = analyse(f, 100.0 / (1 + 2j * math.pi * f), fit_poles=False)
+    assert a.dc_gain_db == 40.0  # 20 log10(100), exact in binary floating point
+    out = parse_requirement(f"dc{op}40").check(a)
+    assert out.passed is passes and out.value == 40.0

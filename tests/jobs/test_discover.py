@@ -80,26 +80,27 @@ def test_shared_bias_measures_both_buffers(circuits):
 
 
 @pytest.mark.ngspice
-def test_break_leaving_an_unstable_loop_closed_is_inconclusive_and_another_break_gives_the_verdict(tmp_path):
-    """The best break a leaves the unstable loop c<->d closed: its T has an RHP pole the Nyquist count did not assume, so a is
-    inconclusive (never PASS); d, which leaves only the stable loop closed, is measured instead and finds the circuit unstable."""
+def test_break_leaving_an_unstable_loop_closed_reads_p_from_its_data_and_gives_the_verdict(tmp_path):
+    """The best break a leaves the unstable loop c<->d closed: its T has an RHP pole, which the measurement reads from its own
+    data (P = 1), so a gives the verdict itself: unstable, with Z = N + P the circuit's own RHP pole count."""
     path = tmp_path / "eight.cir"
     path.write_text(FIGURE_EIGHT)
     check = check_loops(path)
     (g,) = check.groups
-    assert g.tried and g.tried[0].startswith("a (inconclusive: breaking a leaves 1 loop(s)")
     r = g.result
-    assert r.breaks.node == "d" and r.verdict == "fail"
     # Reference: numpy eigenvalues of the circuit's state matrix (written by hand from the netlist): one RHP pole.
     want = int(np.sum(np.linalg.eigvals(_figure_eight_state_matrix()).real > 0))
-    assert want == 1 and r.analysis.nyquist.closed_loop_rhp_poles == want
+    assert want == 1 and r.breaks.node == "a" and r.verdict == "fail"
+    assert r.analysis.nyquist.open_loop_rhp_poles == 1 and r.analysis.nyquist.open_loop_rhp_from == "fit"
+    assert r.analysis.nyquist.closed_loop_rhp_poles == want
+    assert [c.passed for c in r.checks if c.name == "opened-circuit"] == [True]
     # Reference: closed form. With a opened, the loop c<->d alone has 1 - 4/(1 + s tau)^2 = 0, i.e. s tau = 1 or -3:
     # exactly one right-half-plane pole of the opened circuit, so of T at a.
     at_a = measure(path, "a")
     assert opened_circuit_rhp_poles(at_a) == 1
-    # With P = 1 given, a itself is measured and the Nyquist count gives the closed-loop RHP poles of the whole circuit.
-    (r1,), _ = measure_all_loops(path, open_loop_rhp_poles=1)
-    assert r1.breaks.node == "a" and r1.analysis.nyquist.closed_loop_rhp_poles == want and r1.verdict == "fail"
+    # With P = 0 given (the old assumption) the break at a contradicts its own fit: never a PASS.
+    (r0,), _ = measure_all_loops(path, open_loop_rhp_poles=0)
+    assert r0.verdict != "pass"
 
 
 def test_no_loop_is_an_error_before_any_simulation(tmp_path):
@@ -229,3 +230,18 @@ def test_fd_amp_outn_leaves_the_sense_resistor_loop_closed_on_its_load_side(circ
                  and any(s.source == "outn" and "rf1" in s.elements for s in lp.steps))
     assert sense in outn.left_closed and sense not in outn.kept_closed
     assert "enters and leaves outn on the load side" in outn.reason
+
+
+def test_a_net_named_at_three_levels_has_its_drivers_level_name(circuits):
+    """The bandgap amplifier's output net, named xreg.pbias by flattening, is named inside the amplifier block where it is driven."""
+    # Reference: circuits/benches/bandgap_reg.cir: MA2 and MA4 drive the port out of bgamp (instance xamp), which the
+    # bandgap block (xbg) calls pg and the regulator block (xreg) pbias; the start-up MS1 drives it one level up.
+    from netloop.graph import flatten
+    from netloop.jobs.discover import driver_alias
+    from netloop.netlist import parse_file
+
+    circuit = flatten(parse_file(circuits / "benches" / "bandgap_reg.cir"))
+    index = {n: i for i, n in enumerate(circuit.names)}
+    assert driver_alias(circuit, "xreg.pbias", ("xreg.xbg.ms1", "xreg.xbg.xamp.ma2"), index) == "xreg.xbg.xamp.out"
+    assert driver_alias(circuit, "xreg.pbias", ("xreg.xbg.ms1",), index) == "xreg.xbg.pg"
+    assert driver_alias(circuit, "fb", ("r1",), index) is None  # driven at its own level

@@ -8,6 +8,7 @@ import pytest
 
 from netloop.errors import NetlistError, NetlistSyntaxError, UnknownNodeError
 from netloop.netlist import Directive, Element, Subcircuit, controlling_sources, parse_file, parse_text
+from netloop.netlist.cards import resolve_bjt
 
 
 def test_title_comments_and_continuations():
@@ -286,3 +287,143 @@ def test_ngspice_also_closes_innermost_on_misnamed_ends(tmp_path, op_of):
     op = op_of(deck, tmp_path)  # reference: ngspice op
     assert abs(op["v1#branch"] + 1e-3) < 1e-9
     assert parse_text(deck).subcircuit("inner").elements[0].name == "R1"
+
+
+DOLLARS = """dollar comments
+V1 in 0 dc 1
+R1 in mid$a 1k $ a comment
+R2 mid$a 0 3k $a comment glued to its dollar
+R3 mid$a x$ 1k\t$\ttabbed
+R4 x$ 0 1k $$ two
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_dollar_starts_a_comment_only_after_a_space(tmp_path, listing_of):
+    """`$` after a space or tab starts a comment, whatever follows it; inside a name (mid$a, x$) it is part of the name, as ngspice reads them."""
+    ours = [" ".join((e.name, *e.tokens)).lower() for e in parse_text(DOLLARS).elements]
+    assert ours == listing_of(DOLLARS, tmp_path)[1:]  # reference: ngspice 39 `listing e` (after its title line)
+    assert ours[2] == "r2 mid$a 0 3k"
+
+
+BJT_CAPITALS = """bjt whose model is named in capitals
+V1 vcc 0 dc 5
+V2 bb 0 dc 0.8
+RB bb b 100k
+RC vcc c 1k
+RC2 vcc c2 2k
+.model qn npn bf=100
+Q1 c b 0 QN off
+Q2 c2 b 0 QLATE off
+.model qlate npn bf=50
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_bjt_model_name_is_matched_whatever_its_case(tmp_path, op_of):
+    """`Q1 c b 0 QN off` with `.model qn` before or after it: QN is the model (names ignore case), so Q1 has three nodes, as ngspice's op has no node qn."""
+    nl = parse_text(BJT_CAPITALS)
+    for name, collector, model in (("q1", "c", "qn"), ("q2", "c2", "qlate")):
+        q = nl.element(name)
+        assert q.nodes == (collector, "b", "0") and q.pins == ("c", "b", "e") and q.model == model
+    assert not nl.warnings
+    assert resolve_bjt(("c", "b", "0", "QN", "off"), {"qn"}) == 3  # the card as written, against the lower-case model names
+    nodes = {n for e in nl.elements for n in e.nodes} - {"0"}
+    op = op_of(BJT_CAPITALS, tmp_path)  # reference: ngspice op, which names every node it solved for
+    assert nodes == {name for name in op if "#" not in name}
+    assert op["c"] < 5.0 and op["c2"] < 5.0  # both conduct: ngspice found their models
+
+
+def test_quoted_and_unquoted_include_and_library_paths(tmp_path):
+    """Paths may be quoted (and then hold spaces), the section word is read in any case, and each inclusion says what it was."""
+    folder = tmp_path / "my models"
+    folder.mkdir()
+    (folder / "c.lib").write_text(".lib tt\n.param k=1\n.endl tt\n")
+    (folder / "a b.inc").write_text("R2 b 0 2k\n")
+    (tmp_path / "plain.inc").write_text("R3 c 0 3k\n")
+    top = tmp_path / "top.cir"
+    top.write_text('t\n.lib "my models/c.lib" TT\n.include \'my models/a b.inc\'\n.inc plain.inc\n.include "plain.inc\nR1 a 0 1k\n')
+    nl = parse_file(top)
+    assert nl.lib_sections == ((str(folder / "c.lib"), "tt"),)
+    assert [(i.kind, i.path, i.section) for i in nl.inclusions] == [
+        ("lib", str(folder / "c.lib"), "tt"), ("include", str(folder / "a b.inc"), None),
+        ("include", str(tmp_path / "plain.inc"), None), ("include", str(tmp_path / "plain.inc"), None)]  # an unclosed quote runs to the end
+    assert [i.location.line for i in nl.inclusions] == [2, 3, 4, 5]
+    assert [e.name for e in nl.elements] == ["R2", "R3", "R3", "R1"]
+
+
+def test_binned_model_names_count_for_their_base_name():
+    """`.model nch.1 nmos` (an ngspice model bin) defines nch for M cards; `.model a.b` and `.model .2` define only their own names."""
+    nl = parse_text("t\n.model nch.1 nmos\n.model pch.x pmos\n.model .2 nmos\n.model\nM1 d g 0 0 nch\nM2 d g 0 0 pch\nM3 d g 0 0 pch.x\n")
+    assert [w.split(": ", 1)[1] for w in nl.warnings] == ["M2: undefined model 'pch'"]
+
+
+def test_undefined_model_is_found_without_any_model_card():
+    """A diode whose model is defined nowhere (and no .model at all) is still warned about."""
+    nl = parse_text("t\nD1 a 0 dnone\nR1 a 0 1k\n", source="d.cir")
+    assert nl.warnings == ("d.cir:2:1: D1: undefined model 'dnone'",)
+
+
+def test_global_nets_are_lower_case_once_each_in_order():
+    """.global names are recorded lower-case, first appearance first, each once."""
+    nl = parse_text("t\n.global VDD gnd\n.GLOBAL vdd Vss\nR1 vdd 0 1\n")
+    assert nl.globals == ("vdd", "gnd", "vss")
+    assert [d.keyword for d in nl.directives] == [".global", ".global"]
+
+
+def test_subcircuit_header_pins_and_parameters():
+    """Pins before params: (lower-case), key=value anywhere, and bare names after params: as parameters without a default."""
+    nl = parse_text("t\n.SUBCKT Amp IN Out params: Gain=2 bw\n.ends\n.subckt b x y params:k=1 w = 3\n.ends b\n.subckt c p q=4\n.ends\n")
+    amp, b, c = nl.subcircuit("amp"), nl.subcircuit("b"), nl.subcircuit("c")
+    assert (amp.pins, amp.params, amp.header) == (("in", "out"), (("gain", "2"), ("bw", "")), ".SUBCKT Amp IN Out params: Gain=2 bw")
+    assert (b.pins, b.params) == (("x", "y"), (("k", "1"), ("w", "3")))
+    assert (c.pins, c.params) == (("p",), (("q", "4"),))
+    assert not nl.warnings
+
+
+def test_misnamed_ends_and_unknown_statements_are_warnings_with_their_place():
+    """'.ends other' and a dot statement netloop does not know are each one warning at file:line, and reading goes on."""
+    nl = parse_text("t\n.subckt inner a\nR1 a 0 1\n.ends outer\n.frobnicate x=1\nR2 b 0 1\n", source="w.cir")
+    assert nl.warnings == ("w.cir:4:1: .ends outer closes .subckt inner (the innermost open definition)",
+                           "w.cir:5:1: unknown statement .frobnicate kept verbatim")
+    assert [(d.keyword, d.text, d.location.line) for d in nl.directives] == [(".frobnicate", ".frobnicate x=1", 5)]
+
+
+def test_set_aside_statements_keep_their_text_and_place(tmp_path):
+    """Analyses and .control blocks set aside in Netlist.ignored keep their text, file and line (also from an included file)."""
+    (tmp_path / "runs.inc").write_text(".tran 1n 1u\n.control\nrun\n.endc\n")
+    top = tmp_path / "top.cir"
+    top.write_text("t\nR1 a 0 1\n.ac dec 10 1 1g\n.include runs.inc\n")
+    ignored = parse_file(top).ignored
+    assert [(d.keyword, d.text, d.location.file, d.location.line) for d in ignored] == [
+        (".ac", ".ac dec 10 1 1g", str(top), 3), (".tran", ".tran 1n 1u", str(tmp_path / "runs.inc"), 1),
+        (".control", ".control\nrun\n.endc", str(tmp_path / "runs.inc"), 2)]
+
+
+def test_included_file_with_bytes_that_are_not_utf8_is_read(tmp_path):
+    """A library whose comments hold Latin-1 bytes (as old vendor files do) is read; the bad bytes become replacement characters."""
+    (tmp_path / "old.lib").write_bytes(b"* \xb5A model, \xa9 vendor\n.model dold d is=1e-14\n")
+    top = tmp_path / "top.cir"
+    top.write_text("t\n.include old.lib\nD1 a 0 dold\n")
+    nl = parse_file(top)
+    assert not nl.warnings and nl.directives[0].text == ".model dold d is=1e-14"
+
+
+def test_spiceinit_beside_a_netlist_read_from_elsewhere(tmp_path, monkeypatch):
+    """A .spiceinit next to the netlist but not in the current folder gives one warning quoting its set/option lines; none from its own folder."""
+    folder = tmp_path / "bench"
+    folder.mkdir()
+    (folder / ".spiceinit").write_text("* init\nset ngbehavior=hsa\n  option klu\necho hi\n")
+    net = folder / "n.cir"
+    net.write_text("t\nR1 a 0 1\n")
+    monkeypatch.chdir(tmp_path)
+    (note,) = parse_file(net).warnings
+    init = folder / ".spiceinit"
+    assert note == (f"{init} (it says: set ngbehavior=hsa; option klu) is not read: ngspice reads .spiceinit only from the folder it "
+                    f"runs in (netloop runs it in the current folder, {tmp_path}); run netloop from {folder} or copy the file to the current folder")
+    (folder / ".spiceinit").write_text("echo nothing to set\n")
+    assert parse_file(net).warnings[0].startswith(f"{init} is not read:")
+    monkeypatch.chdir(folder)
+    assert parse_file(net).warnings == ()

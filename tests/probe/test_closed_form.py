@@ -94,3 +94,22 @@ def test_tian_equals_middlebrook_with_bypass(simulator):
     assert np.allclose(q.vb1 - q.va1, 1.0, rtol=0, atol=1e-12) and np.allclose(q.ib2 - q.ia2, 1.0, rtol=0, atol=1e-12)
     assert np.max(np.abs(t_mb - t_tian) / np.abs(t_tian)) < 1e-9
     assert np.max(np.abs(t_tian - closed_form_t(freq)) / np.abs(closed_form_t(freq))) > 1e-3  # the bypass matters
+
+
+# The same loop with its bias source (still `ac 1`) inside a subcircuit instance: the probe must silence it there too.
+NESTED_BIAS = BEHAVIOURAL.replace(
+    "Vbias bias 0 dc 1 ac 1\nRbias bias inn 1e9\n",
+    ".subckt biasgen out\nVb b 0 dc 1 ac 1\nRb b out 1e9\n.ends\nXbias inn biasgen\n",
+)
+
+
+@pytest.mark.ngspice
+def test_ac_source_inside_a_subcircuit_is_silenced(simulator):
+    """A stray `ac 1` source inside a subcircuit instance is set to AC 0 and listed, so T still equals the closed form within 1e-9."""
+    assert NESTED_BIAS != BEHAVIOURAL
+    p = break_loop(parse_text(NESTED_BIAS), "out")
+    assert p.silenced_sources == ("v.xbias.vb",)  # ngspice's flat name of vb inside xbias
+    freq, q, _ = probe_runs(simulator, p, 1.0, 1e10, 20)
+    t = tian(q.va1, q.vb1, q.ib2)
+    ref = closed_form_t(freq)  # the closed form above: Vb is AC ground, Rb the same 1e9 from inn to it
+    assert np.max(np.abs(t - ref) / np.abs(ref)) < 1e-9

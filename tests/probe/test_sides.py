@@ -103,16 +103,38 @@ def test_break_inside_one_instance():
     assert new[at:at + len(block)] == block  # original definition unchanged
 
 
-def test_pin_name_resolves_to_parent_net():
-    """A hierarchical name that is a pin of its instance (xa.out) is the parent net (mid), split at the top level by whole pins."""
+def test_a_pin_named_inside_its_instance_is_broken_there():
+    """A hierarchical name that is a pin of its instance (xa.out) is broken inside that instance, between its own terminals and the net outside it."""
     nl = parse_text(HIER)
-    # inside xa the follower's source drives pin out; xb.in loads mid; xa's own feedback stays inside the pin
-    with pytest.raises(ProbeError, match=r"node xa\.out is not on any loop: .*\(xb\.in\) back to its driver side \(xa\.out\)"):
+    # inside xa the follower's source drives pin out, with the stage's own feedback Rf; outside, xb.in loads the net
+    with pytest.raises(ProbeError, match=r"node xa\.out is not on any loop: .*\(xa\.out outside xa \(xb\.in\)\) back to its driver side \(xa\.m2\.s, xa\.rf\.p\)"):
         break_loop(nl, "xa.out")
     looped = parse_text(HIER.replace("Vin in 0", "Rsrc src in 10k\nVin src 0") + "Rback out in 1meg\n")  # a global path from xb's output back to xa's input
     p = break_loop(looped, "xa.out")
-    assert p.side_b == "mid" and p.side_a == "mid_drive" and p.copied_subcircuits == ()
-    assert p.driver_terminals == ("xa.out",) and p.load_terminals == ("xb.in",)
+    assert p.side_b == "mid" and p.side_a == "xa.out_drive" and p.copied_subcircuits == (("stage", "stage_broken_in_xa"),)
+    assert p.driver_terminals == ("xa.m2.s", "xa.rf.p") and p.load_terminals == ("xa.out outside xa (xb.in)",)
+    top = break_loop(looped, "mid")  # the top-level name splits between whole pins, as before
+    assert top.side_b == "mid" and top.side_a == "mid_drive" and top.copied_subcircuits == ()
+    assert top.driver_terminals == ("xa.out",) and top.load_terminals == ("xb.in",)
+
+
+def test_an_input_pin_named_inside_its_instance_takes_the_outside_as_driver():
+    """Inside xb at its input pin the net outside drives: the copy's pin is renamed to the driver side, the inner load keeps the node."""
+    looped = parse_text(HIER.replace("Vin in 0", "Rsrc src in 10k\nVin src 0") + "Rback out in 1meg\n")
+    p = break_loop(looped, "xb.in")
+    assert p.side_a == "mid" and p.side_b == "xb.in" and p.series_source == "v.xb.vnl_series"
+    assert p.driver_terminals == ("xb.in outside xb (xa.out)",) and p.load_terminals == ("xb.rin.p",)
+    assert ".subckt stage_broken_in_xb in_drive out vdd" in write_netlist(p.netlist).splitlines()
+
+
+def test_a_driver_named_deeper_than_the_node_breaks_inside_its_instance():
+    """driver= naming a terminal inside an instance (xa.m2.s) on a top-level net breaks the net inside that instance."""
+    looped = parse_text(HIER.replace("Vin in 0", "Rsrc src in 10k\nVin src 0") + "Rback out in 1meg\n")
+    p = break_loop(looped, "mid", driver="xa.m2.s")
+    assert p.side_a == "xa.out_drive" and p.side_b == "mid" and p.driver_terminals == ("xa.m2.s",)
+    assert set(p.load_terminals) == {"xa.rf.p", "xa.out outside xa (xb.in)"}
+    with pytest.raises(ProbeError, match=r"names terminals in different instances \(xa, xb\)"):
+        break_loop(looped, "mid", driver="xa.m2.s,xb.rin")
 
 
 def test_driver_override():

@@ -41,7 +41,7 @@ def test_table_sorts_worst_first_and_counts(outcomes):
     rows = {line.split()[0]: line for line in lines[2:-2]}
     assert list(rows) == ["fs_0c", "fs_27c", "ff_m40c", "sf_27c", "tt_0c", "tt_27c", "ss_125c"]
     assert "error" in rows["fs_0c"] and "not measured" in rows["fs_0c"]
-    assert "inconclusive" in rows["fs_27c"] and "self-check nyquist-data failed" in rows["fs_27c"] and "pass" not in rows["fs_27c"]
+    assert "inconclusive" in rows["fs_27c"] and "self-check falls-at-top failed" in rows["fs_27c"] and "pass" not in rows["fs_27c"]
     assert "unstable" in rows["ff_m40c"] and "2 RHP pole(s); pm>=45" in rows["ff_m40c"]
     assert " pass " in rows["tt_0c"] and "does not regulate" in rows["tt_0c"]
     assert lines[-1] == "7 loops measured (7 corners at 2 break nodes): 3 pass, 1 fail a requirement, 1 unstable, 1 inconclusive (no verdict), 1 error (not measured)"
@@ -80,7 +80,7 @@ def test_corner_csv_and_document(tmp_path, outcomes, stable_result):
     assert float(by["tt_27c"]["phase_margin_deg"]) == stable_result.analysis.margins.phase_margin_deg
     assert by["sf_27c"]["phase_margin_deg"] == "" and by["fs_0c"]["verdict"] == "error"
     assert by["ff_m40c"]["closed_loop_rhp_poles"] == "2"
-    assert by["fs_27c"]["verdict"] == "inconclusive" and by["fs_27c"]["failed_checks"] == "nyquist-data"
+    assert by["fs_27c"]["verdict"] == "inconclusive" and by["fs_27c"]["failed_checks"] == "falls-at-top"
     assert by["tt_0c"]["verdict"] == "pass" and "does not regulate" in by["tt_0c"]["notes"]
     doc = corner_document(outcomes)
     assert doc["counts"] == {"error": 1, "inconclusive": 1, "unstable": 1, "fail": 1, "pass": 3} and doc["passed"] is False

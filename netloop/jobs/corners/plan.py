@@ -91,7 +91,7 @@ class Plan:
     driver: str | None
     method: str
     requirements: tuple[Requirement, ...]
-    open_loop_rhp_poles: int
+    open_loop_rhp_poles: int | None
     timeout_s: float
     sweep: Sweep
     axes: tuple[Axis, ...]  # combined as a product
@@ -273,8 +273,8 @@ def parse_plan(text: str, path: str = "<string>") -> Plan:
         requirements = parse_requirements([str(r) for r in req_list])
     except PlanError as exc:
         raise PlanError(f"{_where(path, text, 'require')}: {exc}") from exc
-    rhp = data.get("open_loop_rhp_poles", 0)
-    if not isinstance(rhp, int) or isinstance(rhp, bool) or rhp < 0:
+    rhp = data.get("open_loop_rhp_poles")  # None: read from each corner's data
+    if rhp is not None and (not isinstance(rhp, int) or isinstance(rhp, bool) or rhp < 0):
         raise PlanError(f"{_where(path, text, 'open_loop_rhp_poles')}: open_loop_rhp_poles must be a whole number 0 or more")
     timeout = data.get("timeout_s", 600.0)
     if isinstance(timeout, bool) or not isinstance(timeout, (int, float)) or not timeout > 0:

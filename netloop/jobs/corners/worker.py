@@ -26,7 +26,7 @@ class TaskOptions:
     method: str = "tian"
     driver: str | None = None
     sweep: Sweep = Sweep()
-    open_loop_rhp_poles: int = 0
+    open_loop_rhp_poles: int | None = None
     requirements: tuple[str, ...] = ()
     timeout_s: float = 600.0
     share_loads: bool = True  # a corner may run on the circuit the previous one left loaded (in_place_changes)

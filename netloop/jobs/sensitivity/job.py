@@ -82,7 +82,7 @@ class _Loop:
     driver: str | None
     method: str
     sweep: Sweep
-    open_loop_rhp_poles: int
+    open_loop_rhp_poles: int | None
     timeout_s: float
 
     def measure(self, netlist: Netlist, simulator: Simulator, requirements: tuple[Requirement, ...], label: str = "") -> LoopResult:
@@ -112,7 +112,7 @@ def sensitivities(
     driver: str | None = None,
     method: str = "tian",
     sweep: Sweep = Sweep(),
-    open_loop_rhp_poles: int = 0,
+    open_loop_rhp_poles: int | None = None,
     requirements: Iterable[str | Requirement] = (),
     knobs: Sequence[str] = (),
     solve: Sequence[str] = (),

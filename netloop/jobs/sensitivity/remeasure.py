@@ -40,7 +40,7 @@ class Remeasure:
     vectors: ProbeVectors
     method: str
     sweep: Sweep
-    open_loop_rhp_poles: int
+    open_loop_rhp_poles: int | None
     windows: tuple[Window, ...]
     stable: bool
     floor_db: float

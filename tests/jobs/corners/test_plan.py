@@ -176,6 +176,17 @@ def test_toml_cut_short_names_its_last_line(tmp_path):
         load_plan(plan)
 
 
+def test_a_param_setting_changes_only_the_parameter_it_names(tmp_path):
+    """Setting vdd=2.5 in `.param vdd=3.3 avdd=1.8 vdd_hi=4` changes vdd alone: the netlist equals a hand-edited copy."""
+    text = "t\n.param vdd=3.3 avdd=1.8 vdd_hi=4\n.param xvdd = 5\nV1 a 0 dc {vdd}\nV2 b 0 dc {avdd}\nR1 a b 1k\n.end\n"
+    src = tmp_path / "p.cir"
+    src.write_text(text)
+    ours = apply_settings(str(src), (Setting("param", "vdd", "2.5"),))
+    hand = parse_text(text.replace("vdd=3.3", "vdd=2.5"), source=str(src))  # reference: the one edit made by hand
+    assert write_netlist(ours) == write_netlist(hand)
+    assert [d.text for d in ours.directives if d.keyword == ".param"] == [".param vdd=2.5 avdd=1.8 vdd_hi=4", ".param xvdd = 5"]
+
+
 def test_plan_values_with_units_mean_what_an_engineer_means(tmp_path):
     """A plan's requirement and sweep limits read 100MHz as 1e8 Hz and 10mHz as 0.01 Hz (SI), as the command line does."""
     plan = load_plan(_plan(tmp_path, 'require = ["fc >= 100MHz", "dm >= 1ns"]\n[sweep]\nfmin_hz = "10mHz"\nfmax_hz = "2.5GHz"\n'))

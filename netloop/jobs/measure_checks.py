@@ -1,0 +1,207 @@
+"""A measurement's checks that need more than its own data: the other placements of the bridging elements,
+a second break of the same loop, and ngspice's own pole analysis of the closed circuit.
+
+How a split is settled (docs/splitting.md says it for designers):
+
+1. The split the rules give (netloop.probe.sides) is measured; its data checks itself
+   (netloop.analysis.checks: loop-present, falls-at-top, nyquist-data, rhp-count).
+2. When a check fails, or T has right-half-plane poles of its own (P > 0: the opened circuit is
+   unstable by itself, and margins read off such a T are not the usual ones), and the node has
+   bridging elements, the other placements are measured on a coarse sweep, one job each: every
+   bridge moved alone, then all of them. The first placement whose data passes every check with
+   P = 0 is measured in full and reported, with what was moved and why (the job check "split").
+   When none passes, the measurement keeps its first split and the "split" check fails: the verdict
+   is inconclusive, with what was tried.
+3. A bridge the rules could not place (as close to both stages) is confirmed by a second break:
+   the same node with that bridge on the other side, on a coarse sweep. Both are exact return
+   ratios of the same circuit, so the closed-loop poles fitted from each 1/(1+T) must agree
+   (the job check "second-break").
+4. When P > 0 and the circuit is small, ngspice's own pole analysis of the closed circuit gives
+   Z directly; N + P must equal it (the job check "closed-loop-pz").
+
+Plain loops (no bridge at the node, every check passed, P = 0) run none of this.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from netloop.analysis.results import Check, LoopAnalysis
+from netloop.probe import ProbedNetlist
+
+__all__ = ["PLACEMENT_TRIES", "PZ_MAX_ELEMENTS", "Trial", "analysis_doubts", "doubts", "fitted_rhp_poles", "moved", "other_placements",
+           "pair_placements", "poles_agree", "pz_check", "second_break_check", "settle_split"]
+
+PLACEMENT_TRIES = 4  # other placements measured at most (each one coarse job)
+PZ_MAX_ELEMENTS = 400  # ngspice's pz is asked only on circuits this small (flattened elements): it is cheap there
+_POLE_RTOL = 2e-2  # two breaks' closed-loop poles agree to this (relative), the coarse sweep's fit included
+
+
+@dataclass(frozen=True, slots=True)
+class Trial:
+    """One placement of the bridging elements, measured."""
+
+    placement: Mapping[str, str]  # bridge label -> "driver" | "load" (empty: the rules' own split)
+    probed: ProbedNetlist
+    analysis: LoopAnalysis
+
+    @property
+    def failed(self) -> tuple[Check, ...]:
+        return tuple(c for c in self.analysis.checks if not c.passed)
+
+    @property
+    def good(self) -> bool:
+        """Every check passed and the opened circuit is stable by itself (P = 0)."""
+        return not doubts(self)
+
+
+def fitted_rhp_poles(analysis: LoopAnalysis) -> int:
+    """P when it was read from the data (0 when it was given or assumed)."""
+    n = analysis.nyquist
+    return n.open_loop_rhp_poles if n.open_loop_rhp_from == "fit" else 0
+
+
+def analysis_doubts(analysis: LoopAnalysis) -> str:
+    """Why a measured T is doubted, in one clause ("" when it is not): a failed check, or poles of T in the right half plane."""
+    failed = [c for c in analysis.checks if not c.passed]
+    if failed:
+        return "; ".join(c.detail for c in failed)
+    p = fitted_rhp_poles(analysis)
+    if p:
+        return (f"T has {p} right-half-plane pole(s) of its own: the opened circuit is unstable by itself, "
+                "and margins read off such a T are not the usual ones")
+    return ""
+
+
+def doubts(trial: Trial) -> str:
+    """Why a split is doubted, in one clause ("" when it is not)."""
+    return analysis_doubts(trial.analysis)
+
+
+def other_placements(probed: ProbedNetlist) -> list[dict[str, str]]:
+    """Placements to try: each bridge the rules placed moved alone (those they were unsure of first), then all moved."""
+    movable = [b for b in probed.bridges if not b.given]
+    flip = {"driver": "load", "load": "driver"}
+    order = sorted(movable, key=lambda b: b.by_rule)  # stable: the unsure ones first, else in the split's order
+    out = [{b.element: flip[b.side]} for b in order]
+    if len(movable) > 1:
+        out.append({b.element: flip[b.side] for b in movable})
+    return out[:PLACEMENT_TRIES]
+
+
+def pair_placements(p: ProbedNetlist, n: ProbedNetlist) -> list[tuple[dict[str, str], dict[str, str]]]:
+    """Placements to try at a node pair: the k-th bridge of each half moved together (the halves mirror each other), then all."""
+    flip = {"driver": "load", "load": "driver"}
+    bp, bn = [b for b in p.bridges if not b.given], [b for b in n.bridges if not b.given]
+    out = []
+    for k in range(max(len(bp), len(bn))):
+        out.append(({bp[k].element: flip[bp[k].side]} if k < len(bp) else {}, {bn[k].element: flip[bn[k].side]} if k < len(bn) else {}))
+    if max(len(bp), len(bn)) > 1:
+        out.append(({b.element: flip[b.side] for b in bp}, {b.element: flip[b.side] for b in bn}))
+    return out[:PLACEMENT_TRIES]
+
+
+def moved(placement: Mapping[str, str]) -> str:
+    """"cc to the load side, rz to the driver side"."""
+    return _moved(placement)
+
+
+def _moved(placement: Mapping[str, str]) -> str:
+    return ", ".join(f"{name} to the {side} side" for name, side in placement.items())
+
+
+def settle_split(first: Trial, measure_coarse: Callable[[Mapping[str, str]], Trial | None]) -> tuple[Trial | None, Check | None, list[Trial]]:
+    """The placement to report, after ``first`` (the rules' split) and what ``measure_coarse`` gives for the others.
+
+    Returns (the placement to measure in full, or None to keep ``first``; the job check "split", or
+    None when there was nothing to settle; every trial measured). ``measure_coarse(placement)``
+    gives None for a placement the probe refuses (the node would be left without a load).
+    """
+    why = doubts(first)
+    if not why or not first.probed.bridges:
+        return None, None, []
+    trials = []
+    for placement in other_placements(first.probed):
+        trial = measure_coarse(placement)
+        if trial is None:
+            continue
+        trials.append(trial)
+        if trial.good:
+            detail = (f"moved {_moved(placement)}: with the rules' placement, {why}; with this one every self-check passes "
+                      f"and T has no right-half-plane pole")
+            return trial, Check("split", True, detail), trials
+    tried = "; ".join(f"{_moved(t.placement)}: {doubts(t) or 'passes'}" for t in trials) or "no other placement could be built"
+    if first.failed:
+        check = Check("split", False, f"no placement of the bridging elements ({', '.join(b.element for b in first.probed.bridges)}) "
+                      f"passes the self-checks: as placed, {why}; tried {tried}",
+                      "name the driver side with --driver, break the loop at another node (netloop loops NETLIST lists the "
+                      "candidates and what each opens), or widen the sweep")
+    else:
+        check = Check("split", True, f"kept the rules' placement ({why}); no other placement did better: tried {tried}")
+    return None, check, trials
+
+
+def _relevant(poles: tuple[complex, ...], f_max_hz: float) -> np.ndarray:
+    p = np.asarray(poles, dtype=complex)
+    return p[np.abs(p) < 2.0 * np.pi * f_max_hz]
+
+
+def poles_agree(a: LoopAnalysis, b: LoopAnalysis, band_hz: float) -> tuple[bool, str]:
+    """Whether two breaks' fitted closed-loop poles below ``band_hz`` agree (each near one of the other's), and how far apart."""
+    if a.poles is None or b.poles is None:
+        return True, "no pole fit to compare"
+    pa, pb = _relevant(a.poles.poles_rad_s, band_hz), _relevant(b.poles.poles_rad_s, band_hz)
+    if pa.size == 0 and pb.size == 0:
+        return True, f"neither break has a closed-loop pole below {band_hz:.4g} Hz"
+    if pa.size == 0 or pb.size == 0:
+        return False, f"one break has {max(pa.size, pb.size)} closed-loop pole(s) below {band_hz:.4g} Hz, the other none"
+    worst = max(float(np.min(np.abs(pb - p)) / abs(p)) for p in pa)
+    worst = max(worst, max(float(np.min(np.abs(pa - p)) / abs(p)) for p in pb))
+    return worst <= _POLE_RTOL, f"the closed-loop poles below {band_hz:.4g} Hz differ by at most {worst:.2g} (relative)"
+
+
+def _band(a: LoopAnalysis) -> float:
+    """Where closed-loop poles matter: ten times the highest gain crossover, else the top of the sweep."""
+    if a.gain_crossovers:
+        return min(10.0 * max(c.freq_hz for c in a.gain_crossovers), float(a.freq_hz[-1]))
+    return float(a.freq_hz[-1])
+
+
+def second_break_check(first: Trial, measure_coarse: Callable[[Mapping[str, str]], Trial | None]) -> Check | None:
+    """The check "second-break" for a split with a bridge the rules could not place; None when there is none."""
+    unsure = [b for b in first.probed.bridges if not b.by_rule and not b.given]
+    if not unsure:
+        return None
+    flip = {"driver": "load", "load": "driver"}
+    placement = {b.element: flip[b.side] for b in unsure}
+    other = measure_coarse(placement)
+    if other is None:
+        return None
+    agree, how = poles_agree(first.analysis, other.analysis, _band(first.analysis))
+    detail = f"a second break, {_moved(placement)}: {how}"
+    if agree:
+        return Check("second-break", True, detail)
+    return Check("second-break", False, detail + "; two exact breaks of one circuit must find the same closed-loop poles",
+                 "sample more densely (raise --ppd), or break the loop at another node and compare (netloop compare)")
+
+
+def pz_check(analysis: LoopAnalysis, poles: np.ndarray | None) -> Check | None:
+    """The check "closed-loop-pz": Z = N + P against the right-half-plane count of ngspice's pz of the closed circuit."""
+    if poles is None:
+        return None
+    poles = poles[np.isfinite(poles)]
+    z_pz = int(np.sum(poles.real > 1e-9 * np.maximum(np.abs(poles), 1e-300)))
+    n = analysis.nyquist
+    detail = f"ngspice's pole analysis of the closed circuit finds {z_pz} right-half-plane pole(s); Z = N + P = {n.closed_loop_rhp_poles}"
+    if z_pz == n.closed_loop_rhp_poles:
+        return Check("closed-loop-pz", True, detail)
+    return Check("closed-loop-pz", False, detail + ": P read from the data does not fit the circuit",
+                 "give the opened loop's right-half-plane pole count with --open-loop-rhp-poles, or break the loop at another node")
+
+
+def with_job_checks(result, checks: tuple[Check, ...]):
+    """``result`` (a LoopResult) with ``checks`` added to its job checks."""
+    return replace(result, checks=(*result.checks, *checks))

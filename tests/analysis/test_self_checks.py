@@ -1,0 +1,60 @@
+"""The data's own checks: P read from a rational fit of T, a T that measured no loop, a T that never falls."""
+
+from __future__ import annotations
+
+import control
+import numpy as np
+import pytest
+from analysis_loops import closed_loop_rhp_roots, poly_loop, sample
+
+from netloop.analysis import analyse
+from netloop.analysis.checks import NEGLIGIBLE_DB
+
+S = control.tf("s")
+
+
+@pytest.mark.parametrize("k, stable", [(30.0, True), (0.5, False)])
+def test_open_loop_rhp_poles_are_read_from_the_data(k, stable):
+    """T = k/((s - 1)(s/10 + 1)) has one RHP pole: the fit finds P = 1 by itself, and Z = N + P equals numpy.roots of the closed loop."""
+    num, den = [k], np.polymul([1.0, -1.0], [0.1, 1.0])
+    a = analyse(*sample(poly_loop(num, den), 1e-4, 1e4))
+    assert a.nyquist.open_loop_rhp_poles == 1 and a.nyquist.open_loop_rhp_from == "fit"
+    assert a.poles.open_loop_rhp_poles_rad_s == pytest.approx((1.0,), rel=1e-6)  # the pole of T at s = +1 rad/s
+    assert a.nyquist.closed_loop_rhp_poles == closed_loop_rhp_roots(num, den)  # reference: numpy.roots of den + num
+    assert a.stable is stable
+    assert all(c.passed for c in a.checks)
+
+
+def test_a_given_p_overrides_the_fit():
+    """open_loop_rhp_poles= is an override: the count given is used as it is, and said to be given."""
+    a = analyse(*sample(30.0 / ((S - 1) * (S / 10 + 1)), 1e-4, 1e4), open_loop_rhp_poles=0)
+    assert a.nyquist.open_loop_rhp_poles == 0 and a.nyquist.open_loop_rhp_from == "given"
+    assert a.nyquist.closed_loop_rhp_poles == -1
+    assert [c.name for c in a.checks if not c.passed] == ["rhp-count"] and a.classification == "inconclusive"
+
+
+@pytest.mark.parametrize("loop", [100.0 / ((S + 1) * (S / 100 + 1)), 1e4 * (S / 10 + 1) ** 2 / ((S + 1e-3) * (S / 0.1 + 1) * (S + 1) * (S / 100 + 1) ** 2)])
+def test_stable_blocks_give_p_zero(loop):
+    """Loops made of stable blocks (a two-pole loop, a conditionally stable one) read P = 0 from their data, as python-control's poles say."""
+    a = analyse(*sample(loop, 1e-5, 1e5))
+    assert int(np.sum(np.real(control.poles(loop)) > 0)) == 0  # reference: python-control
+    assert a.nyquist.open_loop_rhp_poles == 0 and a.nyquist.open_loop_rhp_from == "fit" and a.stable
+
+
+def test_a_negligible_t_is_inconclusive_not_a_pass():
+    """A T below -60 dB everywhere measured no loop: the check loop-present fails and the verdict is inconclusive, never 'does not regulate'."""
+    a = analyse(*sample(1e-4 / (S + 1), 1e-4, 1e4))
+    (failed,) = [c for c in a.checks if not c.passed]
+    assert failed.name == "loop-present" and f"{NEGLIGIBLE_DB:g} dB" in failed.detail and "--driver" in failed.advice
+    assert a.classification == "inconclusive"
+    weak = analyse(*sample(0.5 / (S + 1), 1e-4, 1e4))  # a weak loop that does not regulate is not "no loop"
+    assert all(c.passed for c in weak.checks) and weak.classification == "does not regulate"
+
+
+def test_a_t_that_levels_off_fails_falls_at_top():
+    """T = 5 (s/10 + 1)/(s + 1) tends to 0.5 (-6 dB): |T| never falls, and the check falls-at-top fails with the path-around-the-probe reason."""
+    a = analyse(*sample(5.0 * (S / 10 + 1) / (S + 1), 1e-4, 1e4))
+    failed = {c.name: c for c in a.checks if not c.passed}
+    assert "falls-at-top" in failed and "path around the probe" in failed["falls-at-top"].detail
+    assert "nyquist-data" not in failed  # the top of the sweep is falls-at-top's, said once
+    assert a.classification == "inconclusive"

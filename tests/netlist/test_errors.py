@@ -1,0 +1,88 @@
+"""Every malformed statement the reader refuses: one message at file:line:column saying what was expected, the line, and a caret under the fault."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.errors import NetlistError, NetlistSyntaxError
+from netloop.netlist import parse_file, parse_text
+
+END = "end"  # the caret stands one column past the end of the statement: something is missing there
+
+# (statement on line 3 of amp.cir, message, column of the fault: END, or the text the caret points at)
+CARDS = [
+    ("Y1 a b 1", "unknown element type 'Y': expected one of R C L K V I E F G H B D M Q J Z S W T O U X A", "Y1"),
+    ("R1 a", "R1: expected 2 nodes and a value", END),
+    ("V1 a", "V1: expected 2 nodes", END),
+    ("M1 d g s nch", "M1: expected 4 nodes and a model", END),
+    ("F1 o 0 POLY(2) vx", "F1: expected 2 controlling sources after POLY(2)", END),
+    ("H1 o 0 poly(3) va vb", "H1: expected 3 controlling sources after poly(3)", END),
+    ("E1 o 0", "E1: expected 2 output nodes and a gain, POLY(n), VALUE= or TABLE form", END),
+    ("G1 o 0 POLY(2) a 0", "G1: expected 4 controlling nodes after POLY(2)", END),
+    ("E1 o 0 a 0", "E1: expected 2 output nodes, 2 controlling nodes and a gain", END),
+    ("Q1 c b e", "Q1: expected 3 or 4 nodes and a model", END),
+    ("X1 w=1 l=2", "X1: expected nodes and a subcircuit name", END),
+    ("A1 x", "A1: expected connections and a model", END),
+    ("R1 a {b} 1", "R1: expected a node name, got '{b}'", "{b}"),
+    ("M1 d g s=1 b nch", "M1: expected a node name, got 's=1'", "s=1"),
+    (".include", ".include: expected a file name", END),
+    (".inc  ", ".inc: expected a file name", END),
+    (".lib", ".lib: expected a file name and a section, or a section name", END),
+    (".subckt", ".subckt: expected a name and pins", END),
+    (".ends", ".ends without a .subckt before it", ".ends"),
+    (".lib models.lib\nR1 a 0 1", ".lib models.lib: a library section with no .endl; to read a section of a file write .lib FILE SECTION", END),
+]
+
+
+@pytest.mark.parametrize("card,message,fault", CARDS, ids=[c[0].split("\n")[0] for c in CARDS])
+def test_malformed_statement_message(card, message, fault):
+    """The first line is amp.cir:3:COLUMN: what was expected; then the statement as read and a caret at that column."""
+    text = f"title\nR0 x 0 1\n{card}\nR9 y 0 1\n"
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(text, source="amp.cir")
+    statement = card.split("\n")[0].strip()  # the reader strips the line and reports the statement as read
+    column = len(statement) + 2 if fault == END else statement.index(fault) + 1
+    head, line, caret = str(info.value).splitlines()
+    assert head == f"amp.cir:3:{column}: {message}"
+    assert line == f"    {statement}"
+    assert caret == "    " + " " * (column - 1) + "^"
+    assert (info.value.location.file, info.value.location.line, info.value.location.column) == ("amp.cir", 3, column)
+
+
+@pytest.mark.parametrize("text,line", [("t\n+ r=1\n", 2), ("t\n.control\nop\n.endc\n+ r=1\n", 5)])
+def test_continuation_with_nothing_to_continue(text, line):
+    """A '+' line right after the title, or after a .control block (which nothing continues), is refused at its own line."""
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(text, source="amp.cir")
+    assert str(info.value).splitlines() == [f"amp.cir:{line}:1: a continuation line ('+') with no statement before it to continue", "    + r=1", "    ^"]
+
+
+def test_unclosed_subcircuit_points_at_its_header():
+    """A .subckt never closed is reported at its own line, with the header as written."""
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text("t\nR0 a 0 1\n.SUBCKT Amp in out\nR1 in out 1k\n", source="amp.cir")
+    assert str(info.value).splitlines()[:2] == ["amp.cir:3:1: .subckt amp: expected .ends before the end of the netlist", "    .SUBCKT Amp in out"]
+
+
+def _refused(path) -> str:
+    """The message of the NetlistError that reading ``path`` raises."""
+    with pytest.raises(NetlistError) as info:
+        parse_file(path)
+    return str(info.value)
+
+
+def test_files_that_cannot_be_read(tmp_path):
+    """A missing top file names itself; a missing include names the including line; a self-include and a missing section say so."""
+    assert _refused(tmp_path / "nothere.cir") == f"cannot read netlist {str(tmp_path / 'nothere.cir')!r}: No such file or directory"
+    top = tmp_path / "top.cir"
+    top.write_text("t\nR1 a 0 1\n.include 'parts.inc'\n")
+    assert _refused(top) == f"{top}:3:1: cannot read {str(tmp_path / 'parts.inc')!r}: No such file or directory"
+    (tmp_path / "loop.inc").write_text("R2 b 0 1\n.include loop.inc\n")
+    top.write_text("t\n.inc loop.inc\n")
+    assert _refused(top) == f"{tmp_path / 'loop.inc'}:2:1: {str(tmp_path / 'loop.inc')!r} includes itself"
+    (tmp_path / "l.lib").write_text(".lib tt\n.endl\n.lib ss\n.endl ss\n")
+    top.write_text("t\n.lib l.lib ff\n")
+    assert _refused(top) == f"{top}:2:1: library {str(tmp_path / 'l.lib')!r} has no section 'ff' (sections: ss, tt)"
+    (tmp_path / "empty.lib").write_text("* no sections\n")
+    top.write_text("t\n.lib empty.lib ff\n")
+    assert _refused(top).endswith("has no section 'ff' (sections: none)")

