@@ -92,20 +92,33 @@ def _mutmut(work: Path, *args: str) -> subprocess.CompletedProcess:
 
 def verdicts(work: Path) -> dict[str, str]:
     """Every mutant of the copy with mutmut's verdict."""
-    out = _mutmut(work, "results", "--all", "true").stdout
-    return dict(m.groups() for m in re.finditer(r"^\s*(\S+): (.+?)\s*$", out, re.MULTILINE))
+    if not (work / "mutants").is_dir():
+        raise SystemExit(f"mutate: {work} holds no mutmut run; run it first (make mutate PKG={work.name})")
+    run = _mutmut(work, "results", "--all", "true")
+    found = dict(m.groups() for m in re.finditer(r"^\s*(\S+): (.+?)\s*$", run.stdout, re.MULTILINE))
+    if run.returncode != 0 or not found:  # never a kill rate from results mutmut could not read (say, a run cut short)
+        raise SystemExit(f"mutate: mutmut could not list the mutants of {work} ({(run.stderr.strip().splitlines() or ['no mutants'])[-1]}); "
+                         f"run again from scratch: make mutate PKG={work.name}")
+    return found
 
 
 def summary(package: str, found: dict[str, str], equivalent: dict[str, str]) -> tuple[str, int]:
-    """The kill rate over non-equivalent mutants and the survivors, as text; and the number of survivors."""
-    killed = [n for n, v in found.items() if v in KILLED]
-    judged = [n for n in found if n in equivalent and found[n] not in KILLED]
-    survived = sorted(n for n, v in found.items() if v not in KILLED and n not in equivalent)
-    counted = len(found) - len(judged)
+    """The kill rate over non-equivalent mutants and the survivors ("no tests" among them), as text; and the number of survivors.
+
+    A run cut short leaves mutants "not checked": they are counted apart and the figure says the run is incomplete.
+    """
+    unchecked = sorted(n for n, v in found.items() if v == "not checked")
+    tested = {n: v for n, v in found.items() if v != "not checked"}
+    killed = [n for n, v in tested.items() if v in KILLED]
+    judged = [n for n in tested if n in equivalent and tested[n] not in KILLED]
+    survived = sorted(n for n, v in tested.items() if v not in KILLED and n not in equivalent)
+    counted = len(tested) - len(judged)
     rate = 100.0 * len(killed) / counted if counted else 100.0
     lines = [f"{package}: {len(killed)} of {counted} non-equivalent mutants killed ({rate:.1f} %); "
              f"{len(judged)} judged equivalent (tools/mutate_equivalent.json), {len(survived)} survived"]
-    lines += [f"  survived ({found[n]}): {n}" for n in survived]
+    if unchecked:
+        lines[0] += f"; INCOMPLETE: {len(unchecked)} of {len(found)} mutants not checked (run again with --again)"
+    lines += [f"  survived ({tested[n]}): {n}" for n in survived]
     return "\n".join(lines), len(survived)
 
 

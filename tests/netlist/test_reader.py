@@ -427,3 +427,12 @@ def test_spiceinit_beside_a_netlist_read_from_elsewhere(tmp_path, monkeypatch):
     assert parse_file(net).warnings[0].startswith(f"{init} is not read:")
     monkeypatch.chdir(folder)
     assert parse_file(net).warnings == ()
+
+
+def test_bjt_fifth_token_decides_the_substrate_only_when_it_is_a_name():
+    """With its model defined nowhere, `Q1 c b e qnone area=2` still has three nodes (area=2 is a parameter); `Q2 c b e s XQ` has a substrate s and model xq."""
+    nl = parse_text("t\nQ1 c b e qnone area=2\nQ2 c b e s XQ\n.model xq npn\n", source="q.cir")
+    q1, q2 = nl.element("q1"), nl.element("q2")
+    assert (q1.nodes, q1.model) == (("c", "b", "e"), "qnone")
+    assert (q2.nodes, q2.pins, q2.model) == (("c", "b", "e", "s"), ("c", "b", "e", "sub"), "xq")
+    assert nl.warnings == ("q.cir:2:1: Q1: undefined model 'qnone'",)

@@ -1,0 +1,70 @@
+"""A corner's netlist: each setting kind gives what a designer gets by editing a copy of the netlist by hand."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.jobs.corners import Setting, apply_settings
+from netloop.jobs.corners.apply import CornerApplyError
+from netloop.netlist import parse_text, write_netlist
+
+
+def _both(tmp_path, text: str, settings: tuple[Setting, ...], edit) -> tuple[str, str]:
+    """The corner's netlist and the hand-edited copy (``edit`` applied to the text), both written out."""
+    src = tmp_path / "c.cir"
+    src.write_text(text)
+    ours = apply_settings(str(src), settings)
+    hand = parse_text(edit(text), source=str(src), base_dir=str(tmp_path))  # reference: the same change made by hand
+    return write_netlist(ours), write_netlist(hand)
+
+
+@pytest.mark.parametrize("value,written", [("2.5", "2.5"), ("vdd*0.9", "{vdd*0.9}"), ("{k+1}", "{k+1}")])
+def test_param_value_replaces_a_whole_group(tmp_path, value, written):
+    """The old value goes whole (a {...} group with spaces, a quoted text), the others stay; an expression is written in braces."""
+    text = "t\n.param a = {b * 2}, c='x y' d=1\n.param A=3\nR1 n 0 {a}\n.end\n"
+    ours, hand = _both(tmp_path, text, (Setting("param", "a", value),),
+                       lambda t: t.replace("a = {b * 2}", f"a = {written}").replace("A=3", f"A={written}"))
+    assert ours == hand
+
+
+def test_temperature_setting_drops_every_other_temperature(tmp_path):
+    """.temp lines go, and temp= leaves .options/.opt lines (other options stay); one .temp with the corner's value is added."""
+    text = "t\n.temp 60\n.options TEMP = 50 reltol=1e-4\n.opt temp=40\n.option gmin=1e-12\nR1 n 0 1k\n.end\n"
+    src = tmp_path / "c.cir"
+    src.write_text(text)
+    nl = apply_settings(str(src), (Setting("temp", "", "-40"),))
+    assert [d.text for d in nl.directives] == [".options reltol=1e-4", ".opt", ".option gmin=1e-12", ".temp -40"]
+    assert nl.directives[-1].location.file == "<corner>"
+
+
+def test_supply_setting_needs_a_voltage_source(tmp_path):
+    """A supply setting naming a resistor, or a source the netlist lacks, is refused with the element's place and the setting."""
+    src = tmp_path / "c.cir"
+    src.write_text("t\nRvdd vdd 0 1k\nV1 vdd 0 dc 1\n.end\n")
+    bad = Setting("supply", "rvdd", "2.5")
+    with pytest.raises(CornerApplyError) as info:
+        apply_settings(str(src), (bad,))
+    assert str(info.value) == f"{src}:2:1: Rvdd is not a voltage source; a supply setting needs a V element" and info.value.setting is bad
+    with pytest.raises(CornerApplyError, match=r"has no top-level voltage source 'V9'"):
+        apply_settings(str(src), (Setting("supply", "V9", "2.5"),))
+    with pytest.raises(CornerApplyError, match=r"has no top-level '\.param k=\.\.\.' to change"):
+        apply_settings(str(src), (Setting("param", "k", "2"),))
+
+
+def test_library_line_chosen_by_file_or_section(tmp_path):
+    """With two .lib lines, lib.FILE or lib.SECTION picks one; no name, or a name matching neither, is refused listing the lines."""
+    (tmp_path / "n.lib").write_text(".lib tt\n.param kn=1\n.endl\n.lib ss\n.param kn=2\n.endl\n")
+    (tmp_path / "p.lib").write_text(".lib ptt\n.param kp=1\n.endl\n.lib pss\n.param kp=2\n.endl\n")
+    text = "t\n.lib n.lib tt\n.lib 'p.lib' ptt\nR1 a 0 {kn+kp}\n.end\n"
+    for setting, edit in ((Setting("lib", "n.lib", "ss"), (".lib n.lib tt", ".lib n.lib ss")),
+                          (Setting("lib", "ptt", "pss"), (".lib 'p.lib' ptt", ".lib 'p.lib' pss"))):
+        ours, hand = _both(tmp_path, text, (setting,), lambda t, e=edit: t.replace(*e))
+        assert ours == hand
+    src = tmp_path / "c.cir"
+    with pytest.raises(CornerApplyError, match=r"has several \.lib lines \(n\.lib tt \(line 2\), p\.lib ptt \(line 3\)\)"):
+        apply_settings(str(src), (Setting("lib", "", "ss"),))
+    with pytest.raises(CornerApplyError, match=r"no \.lib line reads a file ending in 'x\.lib' or has the section 'x\.lib'"):
+        apply_settings(str(src), (Setting("lib", "x.lib", "ss"),))
+    src.write_text("t\nR1 a 0 1k\n.end\n")
+    with pytest.raises(CornerApplyError, match=r"c\.cir has no '\.lib FILE SECTION' line of its own to change"):
+        apply_settings(str(src), (Setting("lib", "", "ss"),))
