@@ -10,10 +10,9 @@ from dataclasses import replace
 from pathlib import Path
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
-from netloop.sim.convergence import op_failure
 from netloop.sim.backend import NgspiceBackend
 from netloop.sim.job import AcRun, RunResult, SimJob, SimResult
-from netloop.sim.keep import keep_deck, runnable_deck
+from netloop.sim.keep import job_error, keep_deck, runnable_deck
 from netloop.sim.library import find_libngspice
 from netloop.sim.protocol import FrameTimeout, WorkerGone, read_frame_fd, write_frame
 from netloop.sim.spawn import spawn, take
@@ -200,10 +199,7 @@ class SharedLibrarySimulator(NgspiceBackend):
     def _result(self, job: SimJob, reply: tuple) -> SimResult:
         if reply[0] == "failed":
             _, kind, message, output, aid, tried = reply
-            deck = keep_deck(runnable_deck(job, aid), job.label, self.keep_dir)
-            if kind == "op":
-                raise op_failure(job, tried, message, deck, output)
-            raise SimulationError(message, deck_path=deck, simulator_output=output, corner=job.label or None)
+            raise job_error(job, kind, message, output, runnable_deck(job, aid), self.keep_dir, tried)
         payload = reply[1]
         deck_path = keep_deck(runnable_deck(job, payload.aid), job.label, self.keep_dir) if self.keep_dir is not None else None
         runs = tuple(RunResult(name=name, freq_hz=freq, vectors=vectors) for name, freq, vectors in payload.runs)
