@@ -49,16 +49,27 @@ def _axis_label(axis: NumericAxis) -> str:
     return f"{axis.name} ({axis.unit})" if axis.unit else axis.name
 
 
-def _style_x(ax, axis: NumericAxis) -> None:
-    from matplotlib.ticker import EngFormatter  # noqa: PLC0415
+def _tick_labels(which, axis: NumericAxis) -> None:
+    """Engineering notation with the axis's unit, the ticks at the corners' own values (up to 12 of them; more: the
+    usual ticks, and on a log axis only the decades labelled)."""
+    from matplotlib.ticker import EngFormatter, FixedLocator, NullFormatter  # noqa: PLC0415
 
+    if len(axis.values) <= 12:
+        which.set_major_locator(FixedLocator(list(axis.values)))
+        if len(axis.values) > 5 and which.axis_name == "x":
+            which.set_tick_params(labelrotation=35)
+    which.set_major_formatter(EngFormatter(unit=axis.unit, sep=" "))
+    which.set_minor_formatter(NullFormatter())
+
+
+def _style_x(ax, axis: NumericAxis) -> None:
     if axis.log:
         ax.set_xscale("log")
-    ax.xaxis.set_major_formatter(EngFormatter(unit=axis.unit, sep=" "))
+    _tick_labels(ax.xaxis, axis)
     ax.set_xlabel(_axis_label(axis))
     ax.grid(True, which="major", color="#d0d0d0", lw=0.7)
     ax.grid(True, which="minor", axis="x", color="#ececec", lw=0.5)
-    ax.tick_params(labelsize=8)
+    ax.tick_params(which="both", labelsize=8)
 
 
 def _curve_points(line: Line, metric: str) -> tuple[np.ndarray, np.ndarray]:
@@ -211,13 +222,11 @@ def map_figure(plane: Plane, metric: str, requirements: Sequence[Requirement] = 
         ax.set_yscale("log")
     ax.set_xlim(x.values[0], x.values[-1])
     ax.set_ylim(y.values[0], y.values[-1])
-    for axis, which in ((x, ax.xaxis), (y, ax.yaxis)):
-        which.set_major_formatter(EngFormatter(unit=axis.unit, sep=" "))
-        if axis.log and axis.values[-1] / axis.values[0] < 10:  # less than a decade: the minor ticks carry the labels
-            which.set_minor_formatter(EngFormatter(unit=axis.unit, sep=" "))
+    _tick_labels(ax.xaxis, x)
+    _tick_labels(ax.yaxis, y)
     ax.set_xlabel(_axis_label(x))
     ax.set_ylabel(_axis_label(y))
-    ax.tick_params(labelsize=8)
+    ax.tick_params(which="both", labelsize=8)
     _key(ax, drawn, marks)
     where = f" at {plane.context}" if plane.context else ""
     where += f" (break node {plane.at})" if plane.at else ""
