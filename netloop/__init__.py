@@ -15,7 +15,8 @@ The composed jobs: ``measure`` (one loop), ``measure_pair`` (differential and co
 gives only their results), ``compare`` (several breaks in one deck),
 ``run_plan`` (a corner plan from ``load_plan``), ``run_samples`` (a statistical plan from
 ``load_sample_plan``: the yield of the margins), ``sensitivities`` (which values set a loop's margins,
-and the value of one that meets a requirement).
+and the value of one that meets a requirement), ``read_results`` (a corner run's results file),
+``compare_runs`` (a run against its baseline) and ``trend_of`` (the worst phase margin over several runs).
 Names are imported on first use, so ``import netloop`` and ``netloop --help`` stay fast.
 """
 
@@ -36,6 +37,7 @@ _EXPORTS = {
     "NetloopError": "netloop.errors",
     "PairResult": "netloop.jobs.measure_pair",
     "PlanError": "netloop.errors",
+    "ResultsError": "netloop.errors",
     "ProbeError": "netloop.errors",
     "SimulationError": "netloop.errors",
     "SimulatorUnavailableError": "netloop.errors",
@@ -46,6 +48,7 @@ _EXPORTS = {
     "break_loop": "netloop.probe",
     "Comparison": "netloop.jobs.compare",
     "compare": "netloop.jobs.compare",
+    "compare_runs": "netloop.jobs.runs",
     "default_simulator": "netloop.sim",
     "find_loops": "netloop.graph",
     "flatten": "netloop.graph",
@@ -56,12 +59,14 @@ _EXPORTS = {
     "measure_pair": "netloop.jobs.measure_pair",
     "parse_file": "netloop.netlist",
     "parse_text": "netloop.netlist",
+    "read_results": "netloop.jobs.runs",
     "run_plan": "netloop.jobs.corners",
     "run_samples": "netloop.jobs.statistics",
     "SampleRun": "netloop.jobs.statistics",
     "SensitivityRun": "netloop.jobs.sensitivity",
     "take_census": "netloop.jobs.discover",
     "sensitivities": "netloop.jobs.sensitivity",
+    "trend_of": "netloop.jobs.runs",
     "write_netlist": "netloop.netlist",
 }
 

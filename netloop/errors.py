@@ -8,7 +8,8 @@
     │  └─ SimulatorUnavailableError                    how to install ngspice
     ├─ AnalysisError                                   malformed data (not "no crossover")
     ├─ PlanError(ValueError)                           a corner plan or requirement that cannot be read
-    └─ OutputError(ValueError)                         a report file that cannot be written (format, path)
+    ├─ OutputError(ValueError)                         a report file that cannot be written (format, path)
+    └─ ResultsError(ValueError)                        a results file of a corner run that cannot be read (file:line)
 
 The CLI catches NetloopError at the boundary, prints ``str(error)`` (one clear message)
 and exits with status 2. A traceback reaching a user is a bug.
@@ -29,6 +30,7 @@ __all__ = [
     "OutputError",
     "PlanError",
     "ProbeError",
+    "ResultsError",
     "SimulationError",
     "SimulatorUnavailableError",
     "UnknownNodeError",
@@ -109,14 +111,16 @@ class ProbeError(NetloopError):
 class SimulationError(NetloopError):
     """ngspice failed. Carries the kept deck's path and ngspice's own message."""
 
-    def __init__(self, message: str, deck_path: str | None = None, simulator_output: str = "", corner: str | None = None):
+    def __init__(self, message: str, deck_path: str | None = None, simulator_output: str = "", corner: str | None = None,
+                 log_path: str | None = None):
         self.message = message
         self.deck_path = deck_path
         self.simulator_output = simulator_output
         self.corner = corner
+        self.log_path = log_path  # ngspice's whole output, kept beside the deck
         parts = [f"[{corner}] {message}" if corner else message]
         if deck_path:
-            parts.append(f"deck kept at {deck_path}")
+            parts.append(f"deck kept at {deck_path}" + (f" (ngspice's whole output: {log_path})" if log_path else ""))
         super().__init__("; ".join(parts))
 
 
@@ -141,6 +145,10 @@ class PlanError(NetloopError, ValueError):
 
 class OutputError(NetloopError, ValueError):
     """A report, plot or data file that cannot be written: an unknown format or a path that cannot be opened."""
+
+
+class ResultsError(NetloopError, ValueError):
+    """A results file of a corner run (a baseline, a trend) that cannot be read; says file:line where it applies."""
 
 
 def in_netlist(exc: NetloopError, where: str) -> NetloopError:

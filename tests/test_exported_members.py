@@ -12,11 +12,12 @@ def test_all_is_sorted_and_pinned():
     """__all__ is the sorted list of exactly these names (a change here is a change of the public API)."""
     expected = [
         "AnalysisError", "BreakInfo", "CAUTION", "LoopAnalysis", "LoopResult", "NetlistError",
-        "NetlistSyntaxError", "NetloopError", "PairResult", "PlanError", "ProbeError",
+        "NetlistSyntaxError", "NetloopError", "PairResult", "PlanError", "ProbeError", "ResultsError",
         "SimulationError", "SimulatorUnavailableError", "Sweep", "UnknownNodeError",
         "__version__", "analyse", "break_loop", "check_loops", "compare", "Comparison", "default_simulator",
         "find_loops", "flatten", "load_plan", "measure", "measure_all_loops", "measure_pair", "parse_file",
-        "parse_text", "run_plan", "load_sample_plan", "run_samples", "SampleRun", "SensitivityRun", "sensitivities", "take_census", "write_netlist",
+        "parse_text", "run_plan", "load_sample_plan", "run_samples", "SampleRun", "SensitivityRun", "sensitivities", "take_census",
+        "write_netlist", "compare_runs", "read_results", "trend_of",
     ]
     assert netloop.__all__ == sorted(expected)
 

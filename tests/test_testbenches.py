@@ -358,7 +358,7 @@ def test_operating_point_that_cannot_converge_gives_up_with_one_line(tmp_path, c
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1
     assert "operating point did not converge" in err and "ngspice said:" in err
-    deck = Path(re.search(r"deck kept at (\S+)$", err)[1])
+    deck = Path(re.search(r"deck kept at (\S+) \(ngspice.s whole output: \S+\)$", err)[1])
     assert deck.parent == decks and deck.is_file()
     assert "b1 n 0 i=1m + v(n)*v(n)" in deck.read_text().splitlines()
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import importlib
 import threading
 
-__all__ = ["SCIPY_MODULES", "load_scipy", "load_scipy_in_background"]
+__all__ = ["SCIPY_MODULES", "load_also", "load_scipy", "load_scipy_in_background"]
 
 # scipy.optimize: crossovers (brentq), closed-loop peaking (minimize_scalar); scipy.interpolate: the
 # response spline and the AAA pole fit, whose clean-up of Froissart doublets imports scipy.stats.
@@ -15,6 +15,14 @@ SCIPY_MODULES = ("scipy.optimize", "scipy.interpolate", "scipy.stats")
 _lock = threading.RLock()  # one thread at a time imports them, in one order: no import-lock cycles
 _loaded = False
 _started = False
+_also: list[str] = []  # modules a caller wants loaded in the same background thread, after scipy's
+
+
+def load_also(*modules: str) -> None:
+    """Have load_scipy_in_background import ``modules`` too, after scipy's (the CLI adds its report stage: it then
+    loads while ngspice reads the netlist instead of before). Names only: this stage imports none of them itself."""
+    with _lock:
+        _also.extend(m for m in modules if m not in _also)
 
 
 def load_scipy() -> None:
@@ -36,7 +44,11 @@ def load_scipy() -> None:
 def _load_quietly() -> None:
     try:
         load_scipy()
-    except Exception:  # noqa: BLE001 - the analysis calls load_scipy again and the failure surfaces there
+        with _lock:
+            also = list(_also)
+        for name in also:
+            importlib.import_module(name)
+    except Exception:  # noqa: BLE001 - the analysis calls load_scipy again (the caller imports its modules) and a failure surfaces there
         pass
 
 

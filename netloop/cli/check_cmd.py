@@ -121,13 +121,16 @@ def nyquist_path(path: str) -> str:
 
 def refuse_bad_outputs(args: argparse.Namespace) -> None:
     """OutputError before any simulation for a --csv, --plot, --report or --keep-decks path that cannot be written."""
-    from netloop.report.figure import file_format
-    from netloop.report.files import refuse_unwritable
+    outputs = [(option, what) for option, what in (("csv", "CSV samples"), ("plot", "Bode plot"), ("report", "HTML report"))
+               if getattr(args, option, None)]
+    if outputs:  # the report stage loads only when a file is asked for (else while ngspice runs: check's load_also)
+        from netloop.report.figure import file_format
+        from netloop.report.files import refuse_unwritable
 
-    if getattr(args, "plot", None):
-        file_format(args.plot)
-    for option, what in (("csv", "CSV samples"), ("plot", "Bode plot"), ("report", "HTML report")):
-        refuse_unwritable(getattr(args, option, None), what)
+        if getattr(args, "plot", None):
+            file_format(args.plot)
+        for option, what in outputs:
+            refuse_unwritable(getattr(args, option, None), what)
     keep = getattr(args, "keep_decks", None)
     if keep and Path(keep).exists() and not Path(keep).is_dir():
         from netloop.errors import OutputError
@@ -200,9 +203,18 @@ def pair_drivers(values: list[str] | None, nodes: tuple[str, str]) -> tuple[str 
 
 
 def run(args: argparse.Namespace) -> int:
-    from netloop import report
+    from netloop.jobs.early import ngspice_started_early
+
+    with ngspice_started_early():  # ngspice starts while netloop's own modules load and the netlist is read
+        return _run(args)
+
+
+def _run(args: argparse.Namespace) -> int:
+    from netloop.analysis.preload import load_also
     from netloop.cli.main import exit_status
     from netloop.jobs.measure import load_netlist, measure
+
+    load_also("netloop.report")  # imported while ngspice reads the netlist, not before the netlist is sent to it
 
     requirements = requirements_from(args.require)  # bad expressions fail before any simulation
     refuse_bad_outputs(args)
@@ -225,6 +237,8 @@ def run(args: argparse.Namespace) -> int:
     if not args.at:
         return run_groups(args, load_netlist(source), common)
     results = [measure(source, args.at, **common)]  # measure reads the file while ngspice starts
+    from netloop import report
+
     if args.json:  # the result first: a file that cannot be written afterwards loses nothing
         print(json.dumps(report.to_document(results[0]), indent=2, allow_nan=False))
     else:

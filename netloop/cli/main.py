@@ -17,6 +17,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "compare": ("netloop.cli.compare_cmd", "compare break locations side by side"),
     "sensitivity": ("netloop.cli.sensitivity_cmd", "rank the values that set a loop's margins; solve for one that meets a requirement"),
     "corners": ("netloop.cli.corners_cmd", "run a corner plan as a regression"),
+    "trend": ("netloop.cli.trend_cmd", "the worst phase margin of each corner over several corner runs"),
     "yield": ("netloop.cli.yield_cmd", "the yield of the margins over a process's statistical models (Monte Carlo samples)"),
     "demo": ("netloop.cli.demo_cmd", "check a bundled demo circuit and write its report"),
 }

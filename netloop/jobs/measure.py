@@ -185,6 +185,7 @@ class _Runner:
         self.simulator = simulator
         self.seconds = 0.0
         self.aid: str | None = None
+        self.notes: dict[str, None] = {}
         self.deck_path: str | None = None
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
         self.processes = len(getattr(simulator, "simulators", ())) or 1
@@ -201,6 +202,7 @@ class _Runner:
         self.seconds += time.perf_counter() - start
         self.loads += result.loaded
         self.aid = self.aid or result.convergence_aid
+        self.notes.update(dict.fromkeys(result.warnings))  # what ngspice ignored (unrecognized model parameters)
         self.deck_path = self.deck_path or result.deck_path
         self.backend = result.backend or self.backend
         t = {name: np.asarray(v, dtype=complex) for name, v in self.ratios(result).items()}
@@ -294,7 +296,7 @@ def sample_loops(
     )
     warnings: dict[str, tuple[str, ...]] = {}
     for name, a in analyses.items():
-        notes = []
+        notes = list(runner.notes)
         if runner.aid:
             notes.append(f"the operating point converged only with {runner.aid}")
         if sweep.refine and a.gain_crossovers and not settled[name]:

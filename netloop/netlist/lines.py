@@ -27,14 +27,41 @@ _CONT = re.compile(r"^[ \t]*\+", re.MULTILINE)
 _CONTROL = re.compile(r"^[ \t]*\.control", re.MULTILINE | re.IGNORECASE)
 
 
-def _plain(lines: list[str], start: int) -> bool:
-    """True when no line continues another, carries an inline comment or opens a ``.control`` block."""
+def _kind(lines: list[str], start: int) -> str:
+    """"plain" when no line continues another, carries an inline comment or opens a ``.control`` block;
+    "control" when a ``.control`` block may be there; else "joined" (continuations, inline comments)."""
     text = "\n".join(lines[start:])
-    if ";" in text or "$" in text:
-        return False
-    if "+" in text and _CONT.search(text):
-        return False
-    return ".control" not in text.lower() or _CONTROL.search(text) is None
+    if ".control" in text.lower() and _CONTROL.search(text) is not None:
+        return "control"
+    if ";" in text or "$" in text or ("+" in text and _CONT.search(text)):
+        return "joined"
+    return "plain"
+
+
+def _joined(lines: list[str], start: int) -> list[LogicalLine]:
+    """logical_lines of a file without ``.control`` blocks: each statement's continuations are gathered and joined
+    once (a model card of hundreds of ``+`` lines is not copied once per line, as adding to a string would)."""
+    out: list[list] = []
+    parts: list[str] = []
+    for i, s in enumerate([x.strip() for x in lines[start:]], start + 1):
+        if not s or s[0] == "*":
+            continue
+        if ";" in s or "$" in s:
+            s = _strip_inline(s)
+            if not s:
+                continue
+        if s[0] == "+" and out:
+            rest = s[1:].strip()
+            if rest:
+                parts.append(rest)
+            continue
+        if len(parts) > 1:
+            out[-1][0] = " ".join(parts)
+        parts = [s]
+        out.append([s, i, False])  # a continuation with nothing to continue stays: the reader reports it
+    if len(parts) > 1:
+        out[-1][0] = " ".join(parts)
+    return [(t, ln, raw) for t, ln, raw in out]
 
 
 def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:
@@ -44,9 +71,12 @@ def logical_lines(lines: list[str], start: int = 0) -> list[LogicalLine]:
     ``;`` and a ``$`` after a space or tab start inline comments; a ``.control`` ... ``.endc`` block becomes one raw
     statement holding its lines verbatim, since nothing inside it is netlist syntax.
     """
-    if _plain(lines, start):
+    kind = _kind(lines, start)
+    if kind == "plain":
         stripped = [x.strip() for x in lines[start:]]
         return [(s, i, False) for i, s in enumerate(stripped, start + 1) if s and s[0] != "*"]
+    if kind == "joined":
+        return _joined(lines, start)
     out: list[list] = []
     append = out.append
     i = start

@@ -13,6 +13,11 @@ labels        non-overlapping margin labels
 bode_plot     Bode plot with every margin drawn
 nyquist_plot  Nyquist plot with a compressed radius
 html          the self-contained HTML report (templates/report.html.j2)
+boundaries    requirement boundaries along numeric plan axes, in words, with the interpolation method
+maps          margins against one numeric axis, a figure over two with the requirement's boundary (PNG, SVG)
+baseline      a corner run against its baseline: summary, table of changes, regressions, JSON, JUnit suite
+trend         the worst phase margin of each corner over several runs: table, chart, JSON
+corner_page   the HTML page of a corner run (templates/corners_section.html.j2 within the report page)
 yield_text, yield_document, yield_plot, yield_html   a statistical run: summary, JSON and CSV, histograms and scatter, page
 
 matplotlib and jinja2 are imported only when a plot or a page is made.

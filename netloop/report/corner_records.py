@@ -13,6 +13,7 @@ from __future__ import annotations
 import csv
 import math
 import xml.etree.ElementTree as ET
+from collections.abc import Sequence
 from pathlib import Path
 
 from netloop.jobs.document import CORNERS_SCHEMA
@@ -29,11 +30,13 @@ __all__ = [
     "loads_line",
     "failed_checks",
     "failed_requirements",
+    "gain_margin_text",
     "junit_xml",
     "margin",
     "notes",
     "reasons",
     "run_document",
+    "table_note",
     "verdict",
     "verdict_counts",
     "worst_first",
@@ -112,8 +115,8 @@ def notes(r: dict) -> tuple[str, ...]:
     return tuple(out)
 
 
-def _note(r: dict) -> str:
-    """The table's note: why a corner is not a plain pass."""
+def table_note(r: dict) -> str:
+    """The table's note: why a corner is not a plain pass ("-" when it is)."""
     v = verdict(r)
     if v == "error":
         return "simulation failed" if r.get("simulator_output") else "not measured"
@@ -142,7 +145,8 @@ def _several_nodes(records) -> bool:
     return len({r["at"] for r in records if r["at"]}) > 1
 
 
-def _gm(r: dict) -> str:
+def gain_margin_text(r: dict) -> str:
+    """A record's gain margin as the table prints it: "12.10 dB", "inf" (no phase crossover, stable), "-" (none)."""
     if r.get("loop") is None:
         return NONE
     value = margin(r, "gain_margin_db", infinite=True)
@@ -159,8 +163,8 @@ def corner_table(records: tuple[dict, ...]) -> str:
     rows = []
     for r in worst_first(records):
         m = _margins(r)
-        rows.append([r["corner"], *([r["at"]] if show_at else []), deg(m.get("phase_margin_deg")), _gm(r),
-                     eng(m.get("unity_gain_hz"), "Hz"), verdict(r), _note(r)])
+        rows.append([r["corner"], *([r["at"]] if show_at else []), deg(m.get("phase_margin_deg")), gain_margin_text(r),
+                     eng(m.get("unity_gain_hz"), "Hz"), verdict(r), table_note(r)])
     widths = [max(len(str(x)) for x in col) for col in zip(head, *rows)]
     lines = ["  ".join(str(x).ljust(w) for x, w in zip(row, widths)).rstrip() for row in (head, *rows)]
     lines.insert(1, "  ".join("-" * w for w in widths))
@@ -244,7 +248,7 @@ def write_corner_csv(records: tuple[dict, ...], path: str | Path) -> Path:
 _PROPERTIES = ("phase_margin_deg", "unity_gain_hz", "gain_margin_db", "lower_gain_margin_db", "modulus_margin", "delay_margin_s")
 
 
-def junit_xml(records: tuple[dict, ...], suite: str) -> str:
+def junit_xml(records: tuple[dict, ...], suite: str, more: Sequence[ET.Element] = ()) -> str:
     """JUnit XML (a string with an XML declaration): one test case per corner (and break node).
 
         <testsuites tests= failures= errors= time=>
@@ -254,6 +258,9 @@ def junit_xml(records: tuple[dict, ...], suite: str) -> str:
               <failure type="unstable"|"requirement"|"inconclusive" message=...>reasons</failure>
               <error type="simulation" message=...>ngspice's output or the error</error>
               <system-out>the margins, notes and settings</system-out>
+
+    ``more``: further <testsuite> elements (a run against its baseline: netloop.report.baseline.regression_suite),
+    added after the corners' suite and counted in <testsuites>.
 
     An unstable corner or a failed requirement is a failure; an inconclusive corner is a failure too (type
     "inconclusive", with the failed self-check and what to try): CI must not go green on a measurement that
@@ -284,17 +291,21 @@ def junit_xml(records: tuple[dict, ...], suite: str) -> str:
             el = ET.SubElement(tc, "failure", message="; ".join(why)[:500], type={"fail": "requirement"}.get(v, v))
             el.text = "\n".join(why)
         out = ET.SubElement(tc, "system-out")
-        out.text = "; ".join([f"{v.upper()}: phase margin {deg(m.get('phase_margin_deg'))}, gain margin {_gm(r)}, "
+        out.text = "; ".join([f"{v.upper()}: phase margin {deg(m.get('phase_margin_deg'))}, gain margin {gain_margin_text(r)}, "
                               f"crossover {eng(m.get('unity_gain_hz'), 'Hz')}", *notes(r),
                               " ".join(f"{k}={val}" for k, val in (r.get("settings") or {}).items())]).rstrip("; ")
+    for extra in more:
+        root.append(extra)
+        for key in ("tests", "failures", "errors"):
+            root.set(key, str(int(root.get(key)) + int(extra.get(key, "0"))))
     ET.indent(root)
     return ET.tostring(root, encoding="unicode", xml_declaration=True) + "\n"
 
 
-def write_junit(records: tuple[dict, ...], path: str | Path, suite: str) -> Path:
-    """Write junit_xml(records, suite) to path (UTF-8); returns the path."""
+def write_junit(records: tuple[dict, ...], path: str | Path, suite: str, more: Sequence[ET.Element] = ()) -> Path:
+    """Write junit_xml(records, suite, more) to path (UTF-8); returns the path."""
     with output_file(path, "JUnit XML") as target:
-        target.write_text(junit_xml(records, suite), encoding="utf-8")
+        target.write_text(junit_xml(records, suite, more), encoding="utf-8")
     return target
 
 

@@ -7,23 +7,20 @@ analytic    a fake simulator from formulas, for testing the stages above without
 split       the runs of one job shared out to several simulators, run side by side
 rawfile     reader for ngspice's binary and ascii raw files
 library     where libngspice and the ngspice binary are
+spawn       the worker process started ahead of the first job (``netloop check`` starts it first thing)
+in_place    values of a loaded circuit changed in place for the next job (temperature, sources, .param)
+
+Names are imported on first use (as in the netloop package), so that the worker process and an early
+start of it (spawn) do not wait for the modules they do not need.
 """
 
 from __future__ import annotations
 
-from concurrent.futures import ThreadPoolExecutor
+import importlib
+import sys
 from typing import Literal
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
-from netloop.sim.analytic import AnalyticSimulator
-from netloop.sim.batch import BatchSimulator
-from netloop.sim.convergence import DEFAULT_OP_AIDS
-from netloop.sim.frequency import sweep_frequencies
-from netloop.sim.job import AcRun, AcSweep, Alter, Change, RunResult, SimJob, SimResult, Simulator
-from netloop.sim.library import find_libngspice, find_ngspice_binary
-from netloop.sim.rawfile import RawPlot, read_raw
-from netloop.sim.shared import SharedLibrarySimulator
-from netloop.sim.split import SplitRunsSimulator, processes_for
 
 __all__ = [
     "DEFAULT_OP_AIDS",
@@ -49,10 +46,47 @@ __all__ = [
     "sweep_frequencies",
 ]
 
+_EXPORTS = {
+    "AcRun": "netloop.sim.job",
+    "AcSweep": "netloop.sim.job",
+    "Alter": "netloop.sim.job",
+    "AnalyticSimulator": "netloop.sim.analytic",
+    "BatchSimulator": "netloop.sim.batch",
+    "Change": "netloop.sim.job",
+    "DEFAULT_OP_AIDS": "netloop.sim.convergence",
+    "RawPlot": "netloop.sim.rawfile",
+    "RunResult": "netloop.sim.job",
+    "SharedLibrarySimulator": "netloop.sim.shared",
+    "SimJob": "netloop.sim.job",
+    "SimResult": "netloop.sim.job",
+    "Simulator": "netloop.sim.job",
+    "SplitRunsSimulator": "netloop.sim.split",
+    "find_libngspice": "netloop.sim.library",
+    "find_ngspice_binary": "netloop.sim.library",
+    "processes_for": "netloop.sim.split",
+    "read_raw": "netloop.sim.rawfile",
+    "sweep_frequencies": "netloop.sim.frequency",
+}
+
+
+def __getattr__(name: str):
+    """A public name, imported from its module on first use."""
+    if name not in _EXPORTS:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(_EXPORTS[name]), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *_EXPORTS})
+
 
 def start_simulators(count: int, backend: Literal["auto", "shared", "batch"] = "auto") -> list[Simulator]:
     """``count`` default simulators (no kept decks), started side by side; if one fails to start, the
     others are closed and its error raised."""
+    from concurrent.futures import ThreadPoolExecutor  # noqa: PLC0415
+
     with ThreadPoolExecutor(max(count, 1), thread_name_prefix="netloop-sim-start") as pool:
         starting = [pool.submit(default_simulator, None, backend) for _ in range(count)]
     started = [s.result() for s in starting if s.exception() is None]
@@ -71,28 +105,29 @@ def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "sha
     ``processes`` > 1: that many ngspice processes, started side by side, share every job's runs
     (a SplitRunsSimulator).
     """
+    this = sys.modules[__name__]  # names looked up on the package, where they load on first use (and tests replace them)
     if processes > 1:
-        return SplitRunsSimulator(start_simulators(processes, backend), keep_dir=keep_dir)
+        return this.SplitRunsSimulator(start_simulators(processes, backend), keep_dir=keep_dir)
     if backend == "shared":
-        simulator = SharedLibrarySimulator(keep_dir=keep_dir)
+        simulator = this.SharedLibrarySimulator(keep_dir=keep_dir)
         simulator.start()
         return simulator
     if backend == "batch":
-        return BatchSimulator(keep_dir=keep_dir)
+        return this.BatchSimulator(keep_dir=keep_dir)
     if backend != "auto":
         raise ValueError(f"backend must be 'auto', 'shared' or 'batch', not {backend!r}")
     problems = []
-    if find_libngspice() is not None:
-        simulator = SharedLibrarySimulator(keep_dir=keep_dir)
+    if this.find_libngspice() is not None:
+        simulator = this.SharedLibrarySimulator(keep_dir=keep_dir)
         try:
             simulator.start()
-        except SimulationError as exc:
+        except this.SimulationError as exc:
             problems.append(str(exc))
         else:
             return simulator
     else:
         problems.append("libngspice not found")
-    if find_ngspice_binary() is not None:
-        return BatchSimulator(keep_dir=keep_dir)
+    if this.find_ngspice_binary() is not None:
+        return this.BatchSimulator(keep_dir=keep_dir)
     problems.append("no ngspice binary on PATH")
-    raise SimulatorUnavailableError("; ".join(problems))
+    raise this.SimulatorUnavailableError("; ".join(problems))

@@ -13,13 +13,13 @@ import numpy as np
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.backend import NgspiceBackend
-from netloop.sim.convergence import aid_ladder, describe_aid, op_failure, option_words
+from netloop.sim.convergence import aid_ladder, describe_aid, option_words
 from netloop.sim.deck import OP_RAW, PARAMS_RAW, alter_vector, control_steps, raw_name, render_deck, save_key
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.job import RunResult, SimJob, SimResult
-from netloop.sim.keep import keep_deck, runnable_deck
+from netloop.sim.keep import job_error, keep_deck, runnable_deck
 from netloop.sim.library import find_ngspice_binary
-from netloop.sim.output import ngspice_fallback, op_failed, summary, tail
+from netloop.sim.output import fatal_lines, op_failed, recovery, summary, tail
 from netloop.sim.rawfile import RawPlot, read_raw
 from netloop.sim.vectors import unknown_saves
 
@@ -56,8 +56,7 @@ class BatchSimulator(NgspiceBackend):
             tried.append(aid)
 
             def failure(message: str, aid: str | None = aid) -> SimulationError:
-                path = keep_deck(runnable_deck(job, aid), job.label, self.keep_dir)
-                return SimulationError(message, path, tail(log, 60), job.label or None)
+                return job_error(job, "analysis", message, "\n".join(log), runnable_deck(job, aid), self.keep_dir)
 
             with tempfile.TemporaryDirectory(prefix="netloop-batch-") as work:
                 deck = render_deck(job, option_words(job, aid), control_steps(job, write_raw=True, raw_dir=work))
@@ -70,8 +69,9 @@ class BatchSimulator(NgspiceBackend):
                         continue
                     raise failure("ngspice could not read the netlist or run the deck: " + (summary(lines) or tail(lines, 6).replace("\n", " | ")))
                 missing = unknown_saves(job.save, op.names)
-                if missing or summary(lines):  # e.g. 'alter' of a source the circuit lacks: ngspice goes on regardless
-                    raise failure(missing or f"ngspice reported errors: {summary(lines)}")
+                fatal = fatal_lines(lines)  # not those ngspice prints while it iterates: the analyses' data decide those
+                if missing or fatal:  # e.g. 'alter' of a source the circuit lacks: ngspice goes on regardless
+                    raise failure(missing or "ngspice reported errors: " + " | ".join(dict.fromkeys(fatal)))
                 runs = tuple(self._run(job, r, Path(work), lines, failure) for r in range(len(job.runs)))
                 parameters = _parameters(job, Path(work) / PARAMS_RAW, failure)
             return SimResult(
@@ -79,12 +79,11 @@ class BatchSimulator(NgspiceBackend):
                 operating_point=_node_voltages(op),
                 log="\n".join(log),
                 deck_path=keep_deck(runnable_deck(job, aid), job.label, self.keep_dir) if self.keep_dir is not None else None,
-                convergence_aid=describe_aid(aid, ngspice_fallback(lines)),
+                convergence_aid=describe_aid(aid, recovery(lines)),
                 backend=self.backend,
                 parameters=parameters,
             )
-        path = keep_deck(runnable_deck(job, tried[-1]), job.label, self.keep_dir)
-        raise op_failure(job, tried, said, path, tail(log, 60))
+        raise job_error(job, "op", said, "\n".join(log), runnable_deck(job, tried[-1]), self.keep_dir, tried)
 
     def _ngspice(self, job: SimJob, deck: str, work: Path, deadline: float, failure) -> list[str]:
         """Run ngspice -b on ``deck`` (written into ``work``) from the job's folder; its output lines."""

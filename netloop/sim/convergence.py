@@ -5,7 +5,9 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from netloop.errors import SimulationError
+from netloop.sim.diagnostics import Diagnosis
 from netloop.sim.job import SimJob
+from netloop.sim.output import tail
 
 __all__ = ["DEFAULT_OP_AIDS", "aid_ladder", "describe_aid", "op_failure", "option_words"]
 
@@ -44,13 +46,20 @@ def option_words(job: SimJob, aid: str | None) -> tuple[str, ...]:
     return (*job.options, *(aid.split() if aid else ()))
 
 
-def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck_path: str | None, output: str) -> SimulationError:
-    """The error raised when no attempt found an operating point."""
+def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck_path: str | None, output: str,
+               diagnoses: Sequence[Diagnosis] = (), log_path: str | None = None) -> SimulationError:
+    """The error raised when no attempt found an operating point: ngspice's own diagnosis first (when it named a
+    structural cause, such as a floating node or sources in parallel, the convergence advice is left out: no aid
+    can help), then what was tried, the usual remedies and ngspice's error lines."""
     aids = [a for a in tried if a]
     what = "the operating point did not converge"
     if aids:
         what += " (tried ngspice's defaults, then " + ", ".join(f"'.option {a}'" for a in aids) + ")"
-    message = f"{what}; {HELP}"
+    lead = "; ".join(d.text for d in diagnoses)
+    if any(d.structural for d in diagnoses):
+        message = f"{lead}; so {what}"
+    else:
+        message = (f"{lead}; " if lead else "") + f"{what}; {HELP}"
     if ngspice_says:
         message += "; ngspice said: " + ngspice_says.replace("\n", " | ")
-    return SimulationError(message, deck_path=deck_path, simulator_output=output, corner=job.label or None)
+    return SimulationError(message, deck_path=deck_path, simulator_output=tail(output, 60), corner=job.label or None, log_path=log_path)

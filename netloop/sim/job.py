@@ -136,6 +136,13 @@ class SimResult:
     # SimJob.changes ngspice made in place); True when ngspice read the netlist (and its model files) for it
     loaded: bool = True
 
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        """What ngspice ignored and went on without (unrecognized model parameters), from its log."""
+        from netloop.sim.diagnostics import model_warnings  # noqa: PLC0415 - records stay import-light
+
+        return model_warnings(self.log.splitlines())
+
     def run(self, name: str) -> RunResult:
         for r in self.runs:
             if r.name == name:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 
-__all__ = ["ac_op_failed", "error_lines", "ngspice_fallback", "op_failed", "summary", "tail"]
+__all__ = ["ac_op_failed", "error_lines", "fatal_lines", "ngspice_fallback", "op_failed", "recovery", "summary", "tail"]
 
 # Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
 # and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
@@ -89,3 +89,22 @@ def ngspice_fallback(lines: Iterable[str]) -> str | None:
         if marker in text:
             return f"ngspice: {name}"
     return None
+
+
+def fatal_lines(lines: Iterable[str]) -> tuple[str, ...]:
+    """The error lines that are not ngspice's notes while it iterates (netloop.sim.diagnostics.numerical): an analysis
+    that finished despite those recovered from them; these others (a command or netlist it refused) are failures."""
+    from netloop.sim.diagnostics import numerical  # noqa: PLC0415
+
+    return tuple(line for line in error_lines(lines) if not numerical(line))
+
+
+def recovery(lines: Iterable[str]) -> str | None:
+    """How ngspice found its way through an analysis that finished after error lines: its fallback ("ngspice: true gmin
+    stepping"), or "ngspice: recovered after '<the first error>'"; None when it printed no error and used no fallback."""
+    lines = list(lines)
+    fallback = ngspice_fallback(lines)
+    if fallback is not None:
+        return fallback
+    errors = error_lines(lines)
+    return f"ngspice: recovered after '{errors[0]}'" if errors else None

@@ -20,7 +20,8 @@ from netloop.sim.deck import Step, alter_vector, control_steps, excited_sources,
 from netloop.sim.frequency import merge_sweeps
 from netloop.sim.in_place import change_commands, explained, values_of
 from netloop.sim.job import SimJob
-from netloop.sim.output import ac_op_failed, error_lines, ngspice_fallback, op_failed, summary, tail
+from netloop.sim.frequency import sweep_frequencies
+from netloop.sim.output import ac_op_failed, error_lines, fatal_lines, op_failed, recovery, summary
 from netloop.sim.session import NgspiceSession
 from netloop.sim.vectors import unknown_saves
 
@@ -46,7 +47,7 @@ class JobFailure(Exception):
 
     kind: str
     message: str
-    output: str = ""
+    output: str = ""  # ngspice's whole output for the job
     aid: str | None = None
     tried: tuple[str | None, ...] = field(default_factory=tuple)
 
@@ -147,7 +148,7 @@ class JobRunner:
         changed = _Loaded(key, None, log=tuple(log), netlist=job.netlist, values=values_of(job.changes), saves_set=not saves_dropped)
 
         def failure(kind: str, message: str) -> JobFailure:
-            return JobFailure(kind, message, tail(log, 60))
+            return JobFailure(kind, message, "\n".join(log))
 
         try:
             return _operating_point(self.session, job, changed, log, failure)[0]
@@ -174,7 +175,7 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
     tried: list[str | None] = []
 
     def failure(kind: str, message: str) -> JobFailure:
-        return JobFailure(kind, message, tail(log, 60), tried[-1] if tried else None, tuple(tried))
+        return JobFailure(kind, message, "\n".join(log), tried[-1] if tried else None, tuple(tried))
 
     steps = control_steps(job, write_raw=False)
     ladder = aid_ladder(job) if loaded is None else (loaded.aid,)
@@ -186,7 +187,7 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
             loaded, said = _load(session, job, key, aid, log, failure)
             if loaded is None:
                 continue  # the operating point failed: next aid
-        parts, ac_lines, parameters = _sweeps(session, job, steps, log, failure, saves_set=not fresh and loaded.saves_set)
+        parts, ac_lines, parameters, later = _sweeps(session, job, steps, log, failure, saves_set=not fresh and loaded.saves_set)
         if parts is None:  # the first ac's own operating point failed
             if not fresh:
                 raise failure("op", summary(ac_lines))
@@ -196,10 +197,11 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
             continue
         loaded.saves_set = True
         if not loaded.op_done:
-            loaded.found_by = describe_aid(aid, ngspice_fallback(ac_lines))
+            loaded.found_by = describe_aid(aid, recovery(ac_lines))
             loaded.op_done = True
         runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
-        payload = JobPayload(dict(loaded.voltages), runs, "\n".join(log), aid, loaded.found_by, parameters, loaded=fresh)
+        found_by = loaded.found_by or later  # a later sweep ngspice finished only after recovering says so too
+        payload = JobPayload(dict(loaded.voltages), runs, "\n".join(log), aid, found_by, parameters, loaded=fresh)
         return payload, loaded
     raise failure("op", summary(said))
 
@@ -227,14 +229,15 @@ def _operating_point(session: NgspiceSession, job: SimJob, record: _Loaded, log:
     log.extend(op_lines)
     plot = session.current_plot()
     voltages = session.node_voltages(plot) if plot.startswith("op") else {}
-    if op_failed(op_lines) or error_lines(op_lines) or not (voltages or not _has_nodes(session, plot)):
+    # judged by what the op produced: error lines ngspice printed while it iterated, and then recovered from, do not count
+    if op_failed(op_lines) or fatal_lines(op_lines) or not (voltages or not _has_nodes(session, plot)):
         return None, op_lines
     missing = unknown_saves(job.save, session.vector_names(plot))
     if missing:
         raise failure("netlist", missing)
     session.command("destroy all")
     record.voltages = voltages
-    record.found_by = describe_aid(record.aid, ngspice_fallback(op_lines))
+    record.found_by = describe_aid(record.aid, recovery(op_lines))
     record.op_done = True
     record.log = tuple(log)
     return record, op_lines
@@ -242,11 +245,14 @@ def _operating_point(session: NgspiceSession, job: SimJob, record: _Loaded, log:
 
 def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: list[str], failure, saves_set: bool):
     """Run the job's saves, alters and sweeps; returns ({run: parts}, first ac's lines, the loaded value
-    of each altered parameter), or (None, lines, {}) when the first ac's own operating point failed."""
+    of each altered parameter, how ngspice recovered in a later sweep or None), or (None, lines, {}, None) when the
+    first ac's own operating point failed. An ac that printed error lines while it iterated but finished every point
+    counts as done (its data and vectors exist): ngspice recovered."""
     saves = tuple(save_key(s) for s in job.save)
     parts: dict[int, list] = {r: [] for r in range(len(job.runs))}
     parameters: dict[str, float] = {}
     first_ac: list[str] | None = None
+    recovered: list[str | None] = []
     for step in steps:
         if step.kind in ("op", "free") or (step.kind == "save" and saves_set):
             continue  # the operating point is done; plots are freed below, once read; saves stay set
@@ -255,8 +261,8 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
         if step.kind == "ac" and first_ac is None:
             first_ac = lines
             if ac_op_failed(lines) or op_failed(lines):
-                return None, lines, {}
-        if error_lines(lines):
+                return None, lines, {}, None
+        if (fatal_lines(lines) if step.kind == "ac" else error_lines(lines)):
             raise failure("analysis", f"'{step.command}' failed: " + summary(lines))
         if step.kind == "let":  # the loaded value of the job's next altered parameter
             alter = job.alters[len(parameters)]
@@ -269,7 +275,11 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
         plot = session.current_plot()
         freq = session.vector(plot, "frequency")
         if not plot.startswith("ac") or freq is None or freq.size == 0:
-            raise failure("analysis", f"'{step.command}' produced no data")
+            raise failure("analysis", f"'{step.command}' produced no data" + (f": {summary(lines)}" if summary(lines) else ""))
+        if error_lines(lines) and freq.size != sweep_frequencies(job.runs[step.run_index].sweeps[step.sweep_index]).size:
+            raise failure("analysis", f"'{step.command}' stopped after {freq.size} point(s): " + summary(lines))
+        if error_lines(lines) and lines is not first_ac:
+            recovered.append(recovery(lines))  # finished regardless: what ngspice recovered from
         vectors = {}
         for key in saves:
             data = session.vector(plot, key)
@@ -279,7 +289,7 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
             vectors[key] = np.asarray(data, dtype=np.complex128)
         parts[step.run_index].append((np.real(freq).astype(float), vectors))
         session.command("destroy all")
-    return parts, first_ac or [], parameters
+    return parts, first_ac or [], parameters, next((r for r in recovered if r), None)
 
 
 def _has_nodes(session: NgspiceSession, plot: str) -> bool:

@@ -3,9 +3,6 @@
 from __future__ import annotations
 
 import os
-import subprocess
-import sys
-import tempfile
 import threading
 import weakref
 from collections.abc import Mapping
@@ -13,37 +10,21 @@ from dataclasses import replace
 from pathlib import Path
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
-from netloop.sim.convergence import op_failure
 from netloop.sim.backend import NgspiceBackend
 from netloop.sim.job import AcRun, RunResult, SimJob, SimResult
-from netloop.sim.keep import keep_deck, runnable_deck
+from netloop.sim.keep import job_error, keep_deck, runnable_deck
 from netloop.sim.library import find_libngspice
 from netloop.sim.protocol import FrameTimeout, WorkerGone, read_frame_fd, write_frame
+from netloop.sim.spawn import spawn, take
 
 __all__ = ["SharedLibrarySimulator"]
 
-_PACKAGE_ROOT = str(Path(__file__).resolve().parent.parent.parent)
-
-
 class _Worker:
-    """One running worker process and its pipes."""
+    """One running worker process and its pipes (one started ahead, netloop.sim.spawn, when there is one)."""
 
     def __init__(self, library_path: str, startup_timeout_s: float):
-        self.scratch = tempfile.TemporaryDirectory(prefix="netloop-worker-")
-        self.log_path = Path(self.scratch.name) / "worker.log"
-        env = dict(os.environ)
-        env["PYTHONPATH"] = os.pathsep.join(p for p in (_PACKAGE_ROOT, env.get("PYTHONPATH", "")) if p)
-        env["PYTHONWARNINGS"] = "ignore"
-        with open(self.log_path, "wb") as log:
-            self.process = subprocess.Popen(
-                [sys.executable, "-m", "netloop.sim.worker", library_path],
-                stdin=subprocess.PIPE,
-                stdout=subprocess.PIPE,
-                stderr=log,
-                # ngspice reads .spiceinit from the folder it starts in: the caller's, as batch mode and ngspice itself do
-                cwd=os.getcwd(),
-                env=env,
-            )
+        self.spawned = take(library_path) or spawn(library_path)
+        self.process, self.log_path = self.spawned.process, self.spawned.log_path
         try:
             reply = read_frame_fd(self.process.stdout.fileno(), startup_timeout_s)
         except (FrameTimeout, WorkerGone) as exc:
@@ -70,15 +51,7 @@ class _Worker:
         return self.process.poll() is None
 
     def stop(self) -> None:
-        if self.process.poll() is None:
-            self.process.kill()
-        self.process.wait()
-        for pipe in (self.process.stdin, self.process.stdout):
-            try:
-                pipe.close()
-            except OSError:
-                pass
-        self.scratch.cleanup()
+        self.spawned.stop()
 
 
 def _portable(job: SimJob) -> SimJob:
@@ -226,10 +199,7 @@ class SharedLibrarySimulator(NgspiceBackend):
     def _result(self, job: SimJob, reply: tuple) -> SimResult:
         if reply[0] == "failed":
             _, kind, message, output, aid, tried = reply
-            deck = keep_deck(runnable_deck(job, aid), job.label, self.keep_dir)
-            if kind == "op":
-                raise op_failure(job, tried, message, deck, output)
-            raise SimulationError(message, deck_path=deck, simulator_output=output, corner=job.label or None)
+            raise job_error(job, kind, message, output, runnable_deck(job, aid), self.keep_dir, tried)
         payload = reply[1]
         deck_path = keep_deck(runnable_deck(job, payload.aid), job.label, self.keep_dir) if self.keep_dir is not None else None
         runs = tuple(RunResult(name=name, freq_hz=freq, vectors=vectors) for name, freq, vectors in payload.runs)

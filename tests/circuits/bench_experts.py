@@ -58,7 +58,7 @@ BENCH = {
         True, ("fd_cap_amp.cm", "fd_cap_amp.cmfb")),  # ngspice 39 .pz lists a pole pair 20 % off what every break fits here
     "tb_open_copy.cir": Bench(
         {"out": ("tb_open_copy.out",), "xbuf.o1": ("tb_open_copy.xbuf.o1.rz-load", "tb_open_copy.xbuf.o1.rz-driver"),
-         "xol.o1": ("tb_open_copy.xol.o1",)},
+         "xol.o1": ("tb_open_copy.xol.o1",), "xol.out": ("tb_open_copy.xol.out",)},
         True, ("tb_open_copy.out", "tb_open_copy.xbuf.o1.rz-load"), pz="in 0 out 0 vol", pz_break="tb_open_copy.out"),
 }
 CASES = [(b, n) for b, bench in BENCH.items() for n in bench.nodes]

@@ -52,6 +52,10 @@ DESIGN_DC = {
     "benches/fc_ota_cmfb.cir": ("cm", 0.9, 0.05),  # output common mode near Vcmref
     "benches/fd_cap_amp.cir": ("cm", 1.65, 0.05),  # output common mode near Vcmref
     "benches/tb_open_copy.cir": ("out", 1.65, 0.01),  # the buffer follows Vin
+    # vref*(1+R1/R2) less the loop's DC error: the pass current (load + divider) needs vin - v(gate) = I/gmp, which the
+    # error amplifier makes from an error of (I/gmp)/aea at fb: about 0.5 mV there at 10 mA (behavioural, linear)
+    "regulator/ldo_rev_a.cir": ("vout", 1.2 * (1 + 50e3 / 100e3), 0.005),
+    "regulator/ldo_rev_b.cir": ("vout", 1.2 * (1 + 50e3 / 100e3), 0.005),
 }
 
 ERROR_LINE = re.compile(r"error|simulation\(s\) aborted|DC solution failed", re.IGNORECASE)

@@ -32,6 +32,8 @@ def inputs(tmp_path: Path) -> dict[str, str]:
     (tmp_path / "missing_netlist.toml").write_text('netlist = "missing.cir"\nat = "out"\n')
     (tmp_path / "bad_require.toml").write_text('netlist = "good.cir"\nat = "out"\nrequire = ["pm >> 5"]\n')
     (tmp_path / "ok.toml").write_text('netlist = "good.cir"\nat = "out"\n')
+    (tmp_path / "bad_limit.toml").write_text('netlist = "good.cir"\nat = "out"\n[regression]\npm = "2 apples"\n')
+    (tmp_path / "results.jsonl").write_text('{"record":"run","schema":"netloop.corners/1","plan":"ok.toml"}\nnot json\n{"record":"corner"}\n')
     (tmp_path / "samples.toml").write_text('netlist = "good.cir"\nat = "out"\n[samples]\ncount = 2\n')
     (tmp_path / "no_count.toml").write_text('netlist = "good.cir"\nat = "out"\n[samples]\ntarget = "99%"\n')
     return {"dir": str(tmp_path), "good": str(good), "garbage": str(garbage), "syntax": str(syntax),
@@ -134,6 +136,30 @@ CASES = [
     pytest.param(["corners", "{dir}/ok.toml", "--jobs", "1", "--out", "{dir}/r.jsonl", "--csv", "{dir}/nodir/c.csv"], "cannot write the corner table",
                  id="corners-csv-into-missing-folder-refused-before-running"),
     pytest.param(["corners", "{dir}/ok.toml", "--jobs", "0"], "--jobs: expected 1 or more processes", id="corners-bad-jobs"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--report", "{blocker}/r.html"], "cannot write the HTML report",
+                 id="corners-report-below-a-file-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--maps", "{blocker}/maps"], "cannot write the maps",
+                 id="corners-maps-below-a-file-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--limit", "pm=2deg"], "--limit needs a baseline",
+                 id="corners-limit-without-baseline-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--baseline", "{dir}/results.jsonl", "--limit", "pm>2"],
+                 "cannot read limit 'pm>2'", id="corners-bad-limit-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--baseline", "{dir}/results.jsonl", "--limit", "pm=-2"],
+                 "the amount must be a finite number, 0 or more", id="corners-negative-limit-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/bad_limit.toml", "--out", "{dir}/r.jsonl"], "bad_limit.toml:3: cannot read limit",
+                 id="corners-bad-plan-limit-gives-plan-line"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--baseline", "{good}"], "good.cir:1: not a results file",
+                 id="corners-baseline-not-a-results-file-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--baseline", "{dir}/results.jsonl"], "results.jsonl:2: not a JSON line",
+                 id="corners-baseline-bad-line-gives-file-line-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--baseline", "{dir}/nosuch.jsonl"], "cannot read the results file",
+                 id="corners-missing-baseline-refused-before-simulating"),
+    pytest.param(["corners", "{dir}/ok.toml", "--out", "{dir}/r.jsonl", "--baseline", "{dir}/r.jsonl"], "is the results file this run writes",
+                 id="corners-baseline-is-the-output-refused-before-simulating"),
+    # trend
+    pytest.param(["trend", "{dir}/nosuch.jsonl"], "cannot read the results file", id="trend-missing-file-is-named"),
+    pytest.param(["trend", "{good}"], "good.cir:1: not a results file", id="trend-not-a-results-file"),
+    pytest.param(["trend", "{dir}/results.jsonl", "--plot", "{dir}/t.bmp"], "expected a file name ending in", id="trend-plot-unknown-format"),
     pytest.param(["corners", "{dir}/samples.toml"], "samples.toml:3: [samples] makes this a statistical plan: run it with 'netloop yield PLAN'",
                  id="corners-plan-with-samples-names-yield"),
     # yield

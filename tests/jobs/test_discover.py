@@ -231,17 +231,3 @@ def test_fd_amp_outn_leaves_the_sense_resistor_loop_closed_on_its_load_side(circ
     assert sense in outn.left_closed and sense not in outn.kept_closed
     assert "enters and leaves outn on the load side" in outn.reason
 
-
-def test_a_net_named_at_three_levels_has_its_drivers_level_name(circuits):
-    """The bandgap amplifier's output net, named xreg.pbias by flattening, is named inside the amplifier block where it is driven."""
-    # Reference: circuits/benches/bandgap_reg.cir: MA2 and MA4 drive the port out of bgamp (instance xamp), which the
-    # bandgap block (xbg) calls pg and the regulator block (xreg) pbias; the start-up MS1 drives it one level up.
-    from netloop.graph import flatten
-    from netloop.jobs.discover import driver_alias
-    from netloop.netlist import parse_file
-
-    circuit = flatten(parse_file(circuits / "benches" / "bandgap_reg.cir"))
-    index = {n: i for i, n in enumerate(circuit.names)}
-    assert driver_alias(circuit, "xreg.pbias", ("xreg.xbg.ms1", "xreg.xbg.xamp.ma2"), index) == "xreg.xbg.xamp.out"
-    assert driver_alias(circuit, "xreg.pbias", ("xreg.xbg.ms1",), index) == "xreg.xbg.pg"
-    assert driver_alias(circuit, "fb", ("r1",), index) is None  # driven at its own level

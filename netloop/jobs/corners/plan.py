@@ -18,7 +18,7 @@ AUTO = "auto"
 KINDS = ("netlist", "process", "lib", "include", "temp", "param", "supply")  # what a setting can change, in naming order
 IN_PLACE = ("temp", "param", "supply")  # kinds ngspice changes on a loaded circuit (netloop.sim.Change); the others need a load
 _PROCESS_KINDS = ("lib", "include")  # what a [process.NAME] table may set
-_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s share_loads sweep process axes corner".split())
+_TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s share_loads sweep process axes corner units regression".split())
 _SWEEP_KEYS = frozenset("fmin_hz fmax_hz points_per_decade".split())
 
 
@@ -103,6 +103,9 @@ class Plan:
     text: str  # the plan's text, for finding lines of semantic errors
     processes: tuple[ProcessCorner, ...] = ()  # the [process.NAME] tables, in plan order
     share_loads: bool = True  # corners that differ only in temp, supply and .param values share a loaded circuit
+    units: tuple[tuple[str, str], ...] = ()  # [units]: a setting's unit on maps ("iload", "A")
+    limits: tuple = ()  # [regression]: netloop.jobs.runs.Limit, how much worse than a baseline a figure may get
+    baseline: str = ""  # [regression] baseline: the results file to compare with (absolute path), "" for none
 
     def process(self, name: str) -> ProcessCorner | None:
         """The [process.NAME] table called ``name``."""
@@ -320,8 +323,23 @@ def parse_plan(text: str, path: str = "<string>", *, extra: frozenset[str] = fro
         if unknown:
             known = ", ".join(sorted(names)) or "none: add [process.NAME] tables"
             raise PlanError(f"{path}:{line}: no process corner named {unknown[0]!r} (the plan's process corners: {known})")
+    units = _units(data.get("units", {}), _where(path, text, "units"))
+    from netloop.jobs.runs.limits import regression_table
+
+    limits, baseline = regression_table(data.get("regression", {}), _where(path, text, "regression"), str(base))
     return Plan(path, netlist, at, driver, method, requirements, rhp, float(timeout), sweep, axes, tuple(corners), text,
-                processes, share)
+                processes, share, units, limits, baseline)
+
+
+def _units(raw: object, where: str) -> tuple[tuple[str, str], ...]:
+    """[units]: setting name (as in [axes], e.g. iload or param.iload) -> the unit its values are in, for maps."""
+    flat = {}
+    for key, value in (raw.items() if isinstance(raw, dict) else ()):
+        pairs = value.items() if isinstance(value, dict) else (("", value),)  # param.iload = "A" is a nested table
+        flat.update({f"{key}.{k}" if k else key: v for k, v in pairs})
+    if not isinstance(raw, dict) or not all(isinstance(v, str) for v in flat.values()):
+        raise PlanError(f"{where}: units must be a table of texts, e.g. [units] iload = \"A\"")
+    return tuple((k.lower(), v.strip()) for k, v in flat.items())
 
 
 def _processes(raw: object, path: str, text: str) -> tuple[ProcessCorner, ...]:

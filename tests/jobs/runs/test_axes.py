@@ -1,0 +1,53 @@
+"""The numeric axes of a run's settings and the lines of corners along one, the same whatever order the corners finished in."""
+
+from __future__ import annotations
+
+import random
+
+import pytest
+
+from netloop.jobs.runs import lines_along, numeric_axes
+from netloop.jobs.runs.axes import planes
+
+
+def _rec(**settings) -> dict:
+    return {"corner": "/".join(f"{k}={v}" for k, v in settings.items()), "at": "out", "outcome": "pass", "loop": None,
+            "settings": {k.replace("_", "."): v for k, v in settings.items()}}
+
+
+RUN = tuple(_rec(lib=lib, temp=t, param_iload=i) for lib in ("tt", "ss") for t in ("-40", "27", "125") for i in ("100u", "1m", "10m"))
+
+
+def test_numeric_settings_become_axes_with_units_and_scale():
+    """temp (three values, linear, deg C) and a .param spanning two decades (log, the plan's unit) are axes; the
+    process section is not; values are read as SPICE reads them (10m is 0.01)."""
+    axes = numeric_axes(RUN, {"iload": "A"})
+    assert [(a.key, a.unit, a.log) for a in axes] == [("temp", "°C", False), ("param.iload", "A", True)]
+    assert axes[1].values == pytest.approx((1e-4, 1e-3, 1e-2), rel=1e-12)
+    assert axes[0].values == (-40.0, 27.0, 125.0)
+
+
+def test_lines_hold_the_corners_equal_in_every_other_setting_in_a_fixed_order():
+    """Along iload: one line per (lib, temp), three corners each, ascending; the lines are ordered by their settings
+    (numbers by value) whatever order the records came in (a results file is in the order corners finished)."""
+    axis = numeric_axes(RUN)[1]
+    shuffled = list(RUN)
+    random.Random(7).shuffle(shuffled)
+    lines = lines_along(tuple(shuffled), axis)
+    assert [ln.context for ln in lines] == [f"{lib}/{t}C" for lib in ("ss", "tt") for t in ("-40", "27", "125")]
+    assert all([v for v, _ in ln.points] == sorted(v for v, _ in ln.points) and len(ln.points) == 3 for ln in lines)
+    assert lines == lines_along(RUN, axis)
+
+
+def test_planes_over_two_axes_group_by_the_remaining_settings():
+    """Over temp and iload there is one plane per process section, each with one line along temp per load."""
+    temp, iload = numeric_axes(RUN)
+    found = planes(RUN, temp, iload)
+    assert [p.context for p in found] == ["ss", "tt"]
+    assert all(len(p.lines) == 3 and all(len(ln.points) == 3 for ln in p.lines) for p in found)
+
+
+def test_a_setting_with_a_value_that_is_not_a_number_is_no_axis():
+    """A .param given as an expression in one corner makes that setting a non-numeric one."""
+    run = (_rec(param_cc="1p"), _rec(param_cc="2p"), _rec(param_cc="{2*x}"))
+    assert numeric_axes(run) == ()

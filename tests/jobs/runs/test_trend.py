@@ -1,0 +1,33 @@
+"""The worst phase margin of each corner over several runs."""
+
+from __future__ import annotations
+
+import json
+
+from netloop.jobs.runs import read_results, trend_of
+
+HEADER = {"record": "run", "schema": "netloop.corners/1", "plan": "p.toml"}
+
+
+def _corner(name, at, pm, outcome="pass"):
+    loop = None if outcome == "error" else {"margins": {"phase_margin_deg": pm}}
+    return {"record": "corner", "corner": name, "at": at, "outcome": outcome, "settings": {}, "loop": loop}
+
+
+def _file(path, *records):
+    path.write_text("".join(json.dumps(r) + "\n" for r in (HEADER, *records)))
+    return read_results(path)
+
+
+def test_each_run_gives_the_lowest_phase_margin_over_a_corners_break_nodes(tmp_path):
+    """A corner measured at two break nodes counts with its lower phase margin; a corner missing from a run is absent
+    there; an error has no phase margin and the outcome says so; the change is latest minus first."""
+    one = _file(tmp_path / "1.jsonl", _corner("ss", "out", 60.0), _corner("ss", "fb", 52.0), _corner("ff", "out", 70.0))
+    two = _file(tmp_path / "2.jsonl", _corner("ss", "out", 58.0), _corner("ss", "fb", 49.5), _corner("tt", "out", 65.0))
+    three = _file(tmp_path / "3.jsonl", _corner("ss", "out", 0.0, "error"), _corner("ss", "fb", 48.0), _corner("tt", "out", 66.0))
+    trend = trend_of((one, two, three))
+    rows = {r.corner: r for r in trend.rows}
+    assert rows["ss"].phase_margin_deg == (52.0, 49.5, 48.0) and rows["ss"].outcomes == ("pass", "pass", "error")
+    assert rows["ss"].latest_drop_deg == 4.0
+    assert rows["ff"].phase_margin_deg == (70.0, None, None) and rows["ff"].outcomes == ("pass", "", "")
+    assert rows["tt"].phase_margin_deg == (None, 65.0, 66.0) and rows["tt"].latest_drop_deg == -1.0

@@ -1,0 +1,86 @@
+"""The HTML page of a corner run: self-contained, with the table, each corner's details, maps, baseline and worst corners."""
+
+from __future__ import annotations
+
+import html
+import sys
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "jobs" / "runs"))
+from ldo_model import CDEC, record, t_of  # noqa: E402
+
+from netloop.analysis.requirements import parse_requirements  # noqa: E402
+from netloop.jobs.runs import compare_runs, parse_limits  # noqa: E402
+from netloop.report.corner_page import WORST, render_corner_html, write_corner_html  # noqa: E402
+
+REQS = parse_requirements(["pm >= 45"])
+
+
+class _Page(HTMLParser):
+    """Collects what a self-contained page may not have (external references) and what it must (ids, images)."""
+
+    def __init__(self):
+        super().__init__()
+        self.external, self.ids, self.images, self.details = [], [], [], []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        for key in ("src", "href"):
+            value = a.get(key) or ""
+            if value and not value.startswith(("#", "data:")):
+                self.external.append(value)
+        if "id" in a:
+            self.ids.append(a["id"])
+        if tag == "img":
+            self.images.append(a.get("alt", ""))
+        if tag == "details":
+            self.details.append(a.get("id"))
+
+
+@pytest.fixture(scope="module")
+def runs():
+    """A 3 x 3 run of the LDO over load and ESR (the corners outside the ESR window fail pm >= 45), one corner an
+    error; its baseline is the same loops without revision B's 200 MHz pole at fb."""
+    def run(pole):
+        out = [record({"param.iload": i, "param.esr": e}, lambda f, i=i, e=e: t_of(f, float(i[:-1]) * 1e-3, float(e), cdec=CDEC,
+                      fb_pole_hz=pole), requirements=("pm >= 45",)) for i in ("1m", "10m", "100m") for e in ("0.01", "0.3", "3")]
+        return tuple(out)
+    now = list(run(200e6))
+    now[3] = {**now[3], "outcome": "error", "loop": None, "error": "the operating point did not converge", "simulator_output": "ngspice says no"}
+    return run(None), tuple(now)
+
+
+def test_the_page_is_self_contained_and_has_every_part(runs):
+    """No external reference; one details element per corner, each linked from the table; maps (margins against each
+    axis and the map over both) as embedded images; the boundary sentences and method; the baseline section; the
+    worst corners' overlaid Bode and Nyquist plots and a section each."""
+    baseline, now = runs
+    cmp = compare_runs(baseline, now, parse_limits(["pm=1deg"]), baseline_path="old.jsonl")
+    page = render_corner_html(now, verdict="fail", title="netloop corners: ldo.toml", requirements=REQS,
+                              units={"iload": "A", "esr": "Ω"}, comparison=cmp)
+    p = _Page()
+    p.feed(page)
+    assert p.external == []
+    assert [d for d in p.details if d] == [f"corner-{i}" for i in range(1, len(now) + 1)]
+    assert all(f'href="#corner-{i}"' in page for i in range(1, len(now) + 1))
+    assert {"margins against iload", "margins against esr", "phase margin over iload and esr"} <= set(p.images)
+    assert "Bode plots of all loops" in p.images and "Nyquist plots of all loops" in p.images
+    assert "pm >= 45 holds for" in html.unescape(page) and "PCHIP" in page
+    assert "Against the baseline" in page and "regression" in page
+    assert "the operating point did not converge" in page and "ngspice says no" in page
+    assert len([i for i in p.ids if i.startswith("loop-")]) == WORST  # the worst measured corners, each in a section
+
+
+def test_the_verdict_line_names_the_regressions_when_every_requirement_is_met(runs, tmp_path):
+    """A run whose corners all pass but two regressed reads "FAIL: 2 regressions against the baseline; every corner
+    meets its requirements"."""
+    baseline, now = runs
+    passing = tuple(r for r in now if r["outcome"] == "pass")
+    cmp = compare_runs(baseline, passing, parse_limits(["pm=1deg"]))
+    n = len(cmp.regressions)
+    assert n == 2  # 1.1 and 1.4 deg lost (iload=1m/esr=3, iload=100m/esr=0.3)
+    path = write_corner_html(passing, tmp_path / "r.html", verdict="fail", title="t", requirements=REQS, comparison=cmp)
+    assert "FAIL: 2 regressions against the baseline; every corner meets its requirements" in html.unescape(path.read_text(encoding="utf-8"))

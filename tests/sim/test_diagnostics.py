@@ -1,0 +1,108 @@
+"""ngspice's own diagnosis leads the message, its whole output is kept beside the deck, a recovery is not a failure."""
+
+from __future__ import annotations
+
+import re
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from netloop.errors import SimulationError
+from netloop.sim import AcRun, AcSweep, SimJob
+from netloop.sim.diagnostics import diagnose, model_warnings
+
+SWEEP = (AcSweep("dec", 2, 1.0, 1e3),)
+
+
+def _job(netlist: str, op_voltages: bool = True, save: str = "v(a)") -> SimJob:
+    return SimJob(netlist=netlist, runs=(AcRun("run", {"v1": 1.0}, SWEEP),), save=(save,), excitable=("v1",), op_voltages=op_voltages)
+
+
+def _failure(simulator, netlist: str, op_voltages: bool) -> SimulationError:
+    with pytest.raises(SimulationError) as info:
+        simulator.run(_job(netlist, op_voltages))
+    return info.value
+
+
+CASES = [
+    pytest.param("undefined\nv1 a 0 dc 1 ac 1\nr1 a b {rval}\nr2 b 0 1k\n",
+                 "undefined parameter 'rval' (used in 'r1 a b {rval}')", "Undefined parameter [rval]", id="undefined-parameter"),
+    pytest.param("floating\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nr2 b 0 1k\nc1 fl1 fl2 1p\nr3 fl1 fl2 1k\n",
+                 "singular matrix at node 'fl1': it has no DC path to ground", "check node fl1", id="floating-node"),
+    pytest.param("parallel\nv1 a 0 dc 1 ac 1\nv2 a 0 dc 2\nr1 a 0 1k\n",
+                 "singular matrix: the current of voltage source v1 is not determined; two ideal voltage sources in parallel",
+                 "check node v1#branch", id="parallel-sources"),
+    pytest.param("no model\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 nosuch\n",
+                 "model 'nosuch' is not defined (used by 'd1 b 0 nosuch')", "can't find model 'nosuch'", id="undefined-model"),
+]
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("op_voltages", [True, False])
+@pytest.mark.parametrize(("netlist", "lead", "ngspice_said"), CASES)
+def test_ngspice_diagnosis_leads_the_message(simulator, netlist, lead, ngspice_said, op_voltages):
+    """Each small deck fails with ngspice's own cause first (what ngspice 39 prints for it, found in the kept output),
+    the deck and ngspice's whole output kept side by side, and no convergence advice for a structural fault."""
+    error = _failure(simulator, netlist, op_voltages)
+    assert error.message.startswith(lead), error.message
+    assert "options that usually help" not in error.message  # no aid helps a floating node, parallel sources or a missing definition
+    log = Path(error.log_path)
+    assert log.parent == Path(error.deck_path).parent and ngspice_said in log.read_text()
+    assert str(log) in str(error)
+
+
+@pytest.mark.ngspice
+def test_the_texts_match_ngspice_run_on_its_own(tmp_path):
+    """diagnose() reads ngspice -b's own output of the same decks (run here by hand, no netloop in between) the same way."""
+    for case in CASES:
+        netlist, lead, _ = case.values
+        deck = tmp_path / "deck.cir"
+        deck.write_text(netlist + ".control\nac dec 2 1 1k\n.endc\n.end\n")
+        done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
+        found = diagnose((done.stdout + done.stderr).splitlines(), deck.read_text())
+        assert found and found[0].text.startswith(lead) and found[0].structural
+
+
+UNRECOGNIZED = "unrecognized\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 dm\n.model dm d is=1e-14 cox=3\n"
+
+
+@pytest.mark.ngspice
+def test_an_ignored_model_parameter_is_a_warning(simulator):
+    """A model parameter ngspice does not know ('unrecognized parameter (cox) - ignored', ngspice 39) is not an
+    error; the result names it among its warnings."""
+    result = simulator.run(_job(UNRECOGNIZED))
+    assert result.warnings == ("ngspice ignored the unrecognized parameter 'cox' of model 'dm': check the model card "
+                               "(or the level it selects)",)
+    assert model_warnings(["unrecognized parameter (cox) - ignored"])  # without the .model line before it, still said
+
+
+# During the operating point of the first ac, ngspice evaluates sqrt(0.70 - v(c)) at v(c) a little above 0.70
+# ("Error: -0.0104898 out of range for sqrt"), then finds the point by dynamic gmin stepping and finishes the sweep.
+RECOVERS = """recovers
+vdd vdd 0 dc 5
+r1 vdd c 1k
+d1 c 0 dmod
+b1 f 0 v = sqrt(0.70-v(c))
+r3 f 0 1k
+v1 in 0 dc 0 ac 1
+rin in c 1meg
+.model dmod d is=1e-14
+"""
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("op_voltages", [True, False])
+def test_an_error_line_ngspice_recovers_from_is_a_convergence_aid_not_a_failure(simulator, op_voltages, tmp_path):
+    """The analysis finished and its vectors exist, so the job succeeds: v(f) equals what ngspice -b prints for the same
+    deck, and the recovery is reported as the convergence aid (ngspice's 'Dynamic gmin stepping completed')."""
+    result = simulator.run(_job(RECOVERS, op_voltages, save="v(f)"))
+    assert "out of range for sqrt" in result.log
+    assert result.convergence_aid == "ngspice: dynamic gmin stepping"
+    deck = tmp_path / "by_hand.cir"
+    deck.write_text(RECOVERS + ".control\nac dec 2 1 1k\nprint v(f)\n.endc\n.end\n")
+    printed = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False).stdout
+    rows = [float(m.group(1)) for m in re.finditer(r"^\d+\s+\S+\s+(\S+),", printed, re.M)]
+    assert len(rows) == 7
+    got = result.runs[0].vectors["v(f)"]
+    assert got.real.tolist() == pytest.approx(rows, rel=1e-5)  # ngspice prints 6 significant digits
