@@ -436,3 +436,12 @@ def test_bjt_fifth_token_decides_the_substrate_only_when_it_is_a_name():
     assert (q1.nodes, q1.model) == (("c", "b", "e"), "qnone")
     assert (q2.nodes, q2.pins, q2.model) == (("c", "b", "e", "s"), ("c", "b", "e", "sub"), "xq")
     assert nl.warnings == ("q.cir:2:1: Q1: undefined model 'qnone'",)
+
+
+def test_controlling_node_named_like_poly_is_a_node():
+    """A linear E/G card whose first controlling node is named "polyin" is the four-node form (ngspice manual, linear
+    VCVS/VCCS: N+ N- NC+ NC- VALUE), not a POLY(n) form; and only F, H and W cards have controlling sources."""
+    nl = parse_text("t\nE1 out 0 polyin 0 10\nG1 0 o2 poly 0 1m\nX1 a b sub\n.subckt sub p q\nR1 p q 1\n.ends\n")
+    assert nl.element("e1").nodes == ("out", "0", "polyin", "0") and nl.element("e1").pins == ("p", "n", "cp", "cn")
+    assert nl.element("g1").nodes == ("0", "o2", "poly", "0")
+    assert [controlling_sources(nl.element(n)) for n in ("e1", "g1", "x1")] == [(), (), ()]
