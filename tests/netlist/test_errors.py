@@ -86,3 +86,13 @@ def test_files_that_cannot_be_read(tmp_path):
     (tmp_path / "empty.lib").write_text("* no sections\n")
     top.write_text("t\n.lib empty.lib ff\n")
     assert _refused(top).endswith("has no section 'ff' (sections: none)")
+
+
+def test_instance_with_the_wrong_number_of_nodes():
+    """An X card giving 3 nodes to a 2-pin definition (defined after it) is refused at the card's own line, naming the pins."""
+    text = "title\nR0 x 0 1\nX1 a b c amp\n.subckt amp in out\nR1 in out 1k\n.ends amp\n"
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(text, source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head == "amp.cir:3:1: X1: subcircuit amp has 2 pins (in out), the card gives 3 nodes"
+    assert (line, caret) == ("    X1 a b c amp", "    ^")

@@ -88,3 +88,11 @@ def test_include_paths_with_spaces_are_written_quoted(tmp_path):
     again = tmp_path / "again.cir"
     again.write_text(written)
     assert [e.card() for e in parse_file(again).elements] == ["R2 b 0 2k", "R1 a b 1k"]
+
+
+def test_one_character_quoted_include_path(tmp_path):
+    """`.include "a"` names the file a: the closing quote is looked for from the character after the opening one."""
+    (tmp_path / "a").write_text("R2 b 0 2k\n")
+    top = tmp_path / "top.cir"
+    top.write_text('t\n.include "a"\nR1 a b 1k\n')
+    assert [i.path for i in parse_file(top).inclusions] == [str(tmp_path / "a")]

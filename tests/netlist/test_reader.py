@@ -374,12 +374,14 @@ def test_global_nets_are_lower_case_once_each_in_order():
 
 
 def test_subcircuit_header_pins_and_parameters():
-    """Pins before params: (lower-case), key=value anywhere, and bare names after params: as parameters without a default."""
+    """Pins before params: (lower-case), key=value anywhere, and bare names after params: as parameters without a default; each
+    definition is located at its .subckt line."""
     nl = parse_text("t\n.SUBCKT Amp IN Out params: Gain=2 bw\n.ends\n.subckt b x y params:k=1 w = 3\n.ends b\n.subckt c p q=4\n.ends\n")
     amp, b, c = nl.subcircuit("amp"), nl.subcircuit("b"), nl.subcircuit("c")
     assert (amp.pins, amp.params, amp.header) == (("in", "out"), (("gain", "2"), ("bw", "")), ".SUBCKT Amp IN Out params: Gain=2 bw")
     assert (b.pins, b.params) == (("x", "y"), (("k", "1"), ("w", "3")))
     assert (c.pins, c.params) == (("p",), (("q", "4"),))
+    assert [(s.location.line, s.location.column) for s in (amp, b, c)] == [(2, 1), (4, 1), (6, 1)]  # each at its .subckt line
     assert not nl.warnings
 
 
