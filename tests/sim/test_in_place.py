@@ -76,6 +76,49 @@ def test_a_change_in_place_equals_a_fresh_load_bit_for_bit(shared_sim, key, valu
     assert not np.array_equal(_vectors(in_place), _vectors(first))  # the value really changed the circuit
 
 
+# A process library as real ones are written (invented cards, for tests only): a section whose model card's threshold
+# is an expression of a library parameter, itself an expression of the netlist's top-level dvt; and a cell (subcircuit)
+# whose width takes a parameter of the instance line, an expression of dvt too.
+LIBRARY = """* INVENTED library for tests: one section
+.lib typ
+.param vt_lib={0.55 + 2*dvt}
+.model nlib nmos (level=1 vto={vt_lib} kp=180u lambda=0.06 cgso=0.3n cgdo=0.3n cj=0.6m)
+.endl typ
+"""
+CELL = """library parameters through two levels (invented)
+.param dvt={dvt}
+.lib {library} typ
+.subckt cell d g s k=1
+m1 d g s s nlib w={{10u*k}} l=1u
+.ends
+vdd vdd 0 dc 3
+vg g 0 dc 1.2 ac 1
+r1 vdd d 10k
+x1 d g 0 cell k={{1+dvt}}
+c1 d 0 1p
+"""
+
+
+@pytest.mark.ngspice
+def test_a_parameter_reaching_a_library_model_and_a_cell_is_evaluated_again_in_place(shared_sim, tmp_path):
+    """A top-level .param that reaches a model card only through a library section's own .param, and a cell's width only
+    through its instance line, changed in place (alterparam, reset) gives the vectors of a fresh load of the edited
+    netlist, which differ from the first: ngspice evaluates the whole chain again, so such a change needs no reload."""
+    library = tmp_path / "invented.lib"
+    library.write_text(LIBRARY)
+
+    def job(dvt: str, name: str, in_place: bool = True) -> SimJob:
+        return SimJob(CELL.format(dvt=dvt, library=library), runs=(AcRun("a", {"vg": 1.0}, SWEEP),), save=("v(d)",),
+                      excitable=("vg",), circuit_id=name, changes=(Change("param", "dvt", dvt),) if in_place else ())
+
+    first = shared_sim.run(job("0", "chain-first"))
+    in_place = shared_sim.run(job("0.05", "chain-second"))
+    fresh = shared_sim.run(job("0.05", "chain-fresh", in_place=False))
+    assert first.loaded and not in_place.loaded and fresh.loaded
+    assert np.array_equal(in_place.runs[0].vectors["v(d)"], fresh.runs[0].vectors["v(d)"])
+    assert not np.array_equal(in_place.runs[0].vectors["v(d)"], first.runs[0].vectors["v(d)"])
+
+
 @pytest.mark.ngspice
 def test_several_changes_in_a_row_each_equal_a_fresh_load(shared_sim):
     """Five corners in a row on one loaded circuit, each changing every value, give the vectors of five fresh loads."""
