@@ -22,7 +22,7 @@ from __future__ import annotations
 
 from collections import deque
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from netloop.errors import ProbeError
 from netloop.netlist.devices import is_device_subcircuit
@@ -56,6 +56,8 @@ class Terminal:
     label: str  # "m6.d", "xamp.m6.d", "xamp.out"
     via: str = ""  # for a series voltage source: what sits on its far side ("m5.d")
     whole: bool = False  # one of several (non-bulk) terminals of one element on the node: the element is one unit
+    tied: str = ""  # the label of a series voltage source at the node whose far side holds another terminal of this element:
+    # the element is one unit across the source (a diode connected through a 0 V sense source), so it goes with the source
 
 
 @dataclass(frozen=True, slots=True)
@@ -111,10 +113,36 @@ def _grounded(scope: Scope, node: str, ac_ground, globals_) -> bool:
     return scope.flat(node, globals_) in ac_ground
 
 
+def _diode_connected(netlist: Netlist, scope: Scope, e: Element, globals_: frozenset[str]) -> bool:
+    """A transistor whose control terminal is tied to its main output (a MOS gate to its drain, a base to its collector):
+    a two-terminal element between that node and its source or emitter (a nonlinear resistor, such as a pseudo-resistor)."""
+    if e.kind not in _FOLLOWER and e.kind != "X":
+        return False
+    pins = _device_pins(netlist, scope, e)
+    if e.kind == "X":
+        if not ("d" in pins and "g" in pins) or not _is_device(netlist, scope, e):
+            return False
+        main, control = "d", "g"
+    else:
+        main, control = _FOLLOWER[e.kind][0], _CONTROL[e.kind]
+    if main not in pins or control not in pins or max(pins.index(main), pins.index(control)) >= len(e.nodes):
+        return False
+    return scope.flat(e.nodes[pins.index(main)], globals_) == scope.flat(e.nodes[pins.index(control)], globals_)
+
+
+def _passive_like(netlist: Netlist, scope: Scope, e: Element, globals_: frozenset[str]) -> bool:
+    """R, C, L, a diode, or a diode-connected transistor: a two-terminal element that carries a signal both ways."""
+    return e.kind in _PASSIVE_PATH or e.kind == "D" or _diode_connected(netlist, scope, e, globals_)
+
+
 def _role(netlist: Netlist, scope: Scope, e: Element, slot: int, pin: str, ac_ground: frozenset[str], globals_: frozenset[str], depth: int = 0) -> str:
     """The role of one terminal on its own: "driver", "cg" (a common-gate device's drain or a switch: drives only
     when nothing else does), "load", "shunt" or "series" (an independent voltage source to another signal node)."""
     kind = e.kind
+    if kind in _FOLLOWER and _diode_connected(netlist, scope, e, globals_):  # a two-terminal element: a load, or a shunt to AC ground
+        pins = e.pins
+        others = [scope.flat(n, globals_) for k, n in enumerate(e.nodes) if k != slot and not (k < len(pins) and pins[k] in _BULK)]
+        return "shunt" if all(n in ac_ground for n in others) else "load"
     if kind in _OUTPUTS:
         return "driver" if pin in _OUTPUTS[kind] else "load"
     if kind in _FOLLOWER:
@@ -180,8 +208,11 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
     voltage source takes the role of what sits on its far side (looked through, as far as it goes).
     """
     out = []
+    sources: list[Element] = []  # the voltage sources of the scope: they join nodes for AC
     for e in elements_of(netlist, scope):
         nodes = e.nodes
+        if e.kind == "V":
+            sources.append(e)
         if node not in nodes:
             continue
         pins = _device_pins(netlist, scope, e)
@@ -203,6 +234,48 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
                 role, via = _through_source(netlist, scope, node, e, ac_ground, globals_, depth, _through | {node})
         whole = len(main) > 1
         out.extend(Terminal(e, k, p, role, f"{scope.label(e)}.{p}", via, whole) for k, p in zip(slots, pin_of))
+    return _units_across_sources(netlist, scope, node, tuple(out), sources, ac_ground, globals_)
+
+
+def _units_across_sources(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], sources: list[Element],
+                          ac_ground, globals_) -> tuple[Terminal, ...]:
+    """The terminals with each element that also sits beyond a series voltage source at the node made one unit with that
+    source: a 0 V source has no AC impedance, so a transistor whose drain is beyond it and whose gate is on the node is
+    diode-connected (a one-port to AC ground when its other terminals are there), and it goes to the source's side whole."""
+    ours = [t for t in terminals if t.role == "series" or t.via or (t.element.kind == "V" and t.slot >= 0)]
+    if not ours:
+        return terminals
+    # the nodes each source terminal at the node joins to it, through chains of voltage sources
+    joined: dict[str, str] = {}  # joined node -> the label of the source terminal at the node that leads there
+    for t in ours:
+        if t.element.kind != "V":
+            continue
+        todo = [n for n in t.element.nodes if n != node]
+        while todo:
+            n = todo.pop()
+            if n in joined or n == node or _grounded(scope, n, ac_ground, globals_):
+                continue
+            joined[n] = joined.get(n, t.label)
+            for v in sources:
+                if n in v.nodes:
+                    todo.extend(m for m in v.nodes if m != n and m not in joined)
+    if not joined:
+        return terminals
+    out = []
+    for t in terminals:
+        e = t.element
+        if t.slot < 0 or e.kind == "V":
+            out.append(t)
+            continue
+        pins = _device_pins(netlist, scope, e)
+        signal = [n for k, n in enumerate(e.nodes) if not (k < len(pins) and pins[k] in _BULK)]
+        across = [n for n in signal if n in joined]
+        if not across:
+            out.append(t)
+            continue
+        rest = [n for n in signal if n != node and n not in joined]
+        role = "shunt" if all(_grounded(scope, n, ac_ground, globals_) for n in rest) else "load"
+        out.append(replace(t, role=role, whole=True, tied=joined[across[0]]))
     return tuple(out)
 
 
@@ -246,6 +319,14 @@ class _Neighbourhood:
             for k, n in enumerate(e.nodes):
                 self.at.setdefault(n, []).append((e, k, pins[k] if k < len(pins) else str(k + 1)))
         self._roles: dict[tuple[int, int], str] = {}
+        self._passive: dict[int, bool] = {}
+
+    def passive(self, e: Element) -> bool:
+        """R, C, L, a diode or a diode-connected transistor (a pseudo-resistor): a two-terminal path for the signal."""
+        key = id(e)
+        if key not in self._passive:
+            self._passive[key] = _passive_like(self.netlist, self.scope, e, self.globals_)
+        return self._passive[key]
 
     def grounded(self, node: str) -> bool:
         return _grounded(self.scope, node, self.ac_ground, self.globals_)
@@ -264,7 +345,8 @@ class _Neighbourhood:
         return [n for k, n in enumerate(e.nodes) if n != node and not (k < len(pins) and pins[k] in _BULK) and not self.grounded(n)]
 
     def passive_reach(self, start: list[str], avoid: str) -> dict[str, int]:
-        """Nodes reached from ``start`` through at most _LOCAL_DEPTH R, C, L elements (the first counted as 1);
+        """Nodes reached from ``start`` through at most _LOCAL_DEPTH passive elements (R, C, L, diodes and diode-connected
+        transistors; the first counted as 1);
         series voltage sources are looked through; never through ``avoid`` or AC ground."""
         depth = {n: 1 for n in start if n != avoid and not self.grounded(n)}
         todo = deque(depth)
@@ -274,7 +356,7 @@ class _Neighbourhood:
                 kind = e.kind
                 if kind == "V":
                     step = 0
-                elif kind in _PASSIVE_PATH and depth[n] < _LOCAL_DEPTH:
+                elif self.passive(e) and depth[n] < _LOCAL_DEPTH:
                     step = 1
                 else:
                     continue
@@ -283,6 +365,23 @@ class _Neighbourhood:
                         depth[m] = depth[n] + step
                         (todo.appendleft if step == 0 else todo.append)(m)
         return depth
+
+    def chain_end(self, node: str, came: Element) -> str:
+        """Where a series chain of passive elements that leaves through ``came`` to ``node`` ends: while nothing but the
+        chain's next passive element meets a node, the chain goes on (two diode-connected transistors in series, the two
+        halves of a pseudo-resistor, are one element between its ends)."""
+        seen = {node}
+        while not self.grounded(node):
+            here = list(dict.fromkeys(id(e) for e, _, _ in self.at.get(node, ())))
+            nxt = [e for e, _, _ in self.at.get(node, ()) if e is not came]
+            if len(here) != 2 or not nxt or not self.passive(nxt[0]):
+                return node
+            ends = [m for m in nxt[0].nodes if m != node and m not in seen]
+            if len(set(ends)) != 1:
+                return node
+            came, node = nxt[0], ends[0]
+            seen.add(node)
+        return node
 
     def beyond(self, source: Terminal, node: str, roles: tuple[str, ...]) -> list[tuple[Element, int]]:
         """The active terminals of the given roles on the far side of a series voltage source at ``node`` (looked through)."""
@@ -295,7 +394,7 @@ class _Neighbourhood:
             for e, k, pin in self.at.get(n, ()):
                 if e.kind == "V":
                     todo.extend(m for m in e.nodes if m not in seen)
-                elif e.kind in _ACTIVE and self.role(e, k, pin) in roles:
+                elif e.kind in _ACTIVE and not self.passive(e) and self.role(e, k, pin) in roles:
                     out.append((e, k))
         return out
 
@@ -319,7 +418,7 @@ class _Neighbourhood:
             n = todo.popleft()
             for e, k, pin in self.at.get(n, ()):
                 kind = e.kind
-                if kind in _PASSIVE_PATH or kind == "V":
+                if kind == "V" or self.passive(e):
                     visit(self.other_nodes(e, k))
                 elif kind in _ACTIVE and self.role(e, k, pin) == "load":
                     visit(self.outputs(e, k, pin))
@@ -356,7 +455,7 @@ class _Neighbourhood:
             frontier = []
             for m, first in reached:
                 for e, k, pin in self.at.get(m, ()):
-                    if e.kind not in _ACTIVE or node in e.nodes:
+                    if e.kind not in _ACTIVE or node in e.nodes or self.passive(e):
                         continue
                     role = self.role(e, k, pin)
                     if (direction == "driver" and role in ("driver", "cg")) or (direction == "load" and role == "load"):
@@ -382,16 +481,17 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
     distance to the driver stage (passive elements + stages; inf when it wraps none)."""
     units: dict[int, list[Terminal]] = {}
     for t in loads:
-        if t.element.kind in _PASSIVE_PATH or t.element.kind == "D" or t.role == "cg" or t.whole or _switch_like(near, t.element):
+        if near.passive(t.element) or t.role == "cg" or t.whole or _switch_like(near, t.element):
             units.setdefault(id(t.element), []).append(t)
     if not units:
         return []
-    back = near.stages(node, [*((t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0),
+    back = near.stages(node, [*((t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0 and not near.passive(t.element)),
                               *(hit for t in drivers if t.via for hit in near.beyond(t, node, ("driver", "cg")))], "driver")
     on = near.stages(node, [*((t.element, t.slot) for t in loads if t.element.kind in _ACTIVE and t.role == "load" and t.slot >= 0
-                              and id(t.element) not in units),
+                              and id(t.element) not in units and not near.passive(t.element)),
                             *(hit for t in loads if t.via for hit in near.beyond(t, node, ("load",)))], "load")
     far_of = {key: tuple(sorted({n for u in members for n in near.other_nodes(u.element, u.slot)})) for key, members in units.items()}
+    branch_of = {key: tuple(sorted({near.chain_end(m, units[key][0].element) for m in far})) for key, far in far_of.items()}
     out = []
     for key, members in units.items():
         t = members[0]
@@ -411,8 +511,9 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
         l_score, l_node, l_elem = _closest(reach, on)
         if d_score < l_score:
             # Local feedback of the driver stage only if the loop measured comes back to that stage's input through the
-            # node's other branches (elements in parallel are one branch): then the bridge is a loop inside the loop.
-            others = [u for u in loads if far_of.get(id(u.element)) != far_of[key]]
+            # node's other branches (elements in parallel are one branch, a series chain of passive elements counting as
+            # one element, such as a pseudo-resistor across a feedback capacitor): then the bridge is a loop inside the loop.
+            others = [u for u in loads if branch_of.get(id(u.element)) != branch_of[key]]
             if d_node not in near.onward(others, node) and not any(u.slot < 0 for u in others):  # the net outside: unseen
                 d_score = float("inf")
         if d_score < l_score:
@@ -448,7 +549,8 @@ def _matches(spec: str, t: Terminal, scope: Scope) -> bool:
 def _whole(terminals: tuple[Terminal, ...], chosen: list[Terminal]) -> list[Terminal]:
     """The chosen terminals and every other terminal of the same elements on the node (an element goes whole)."""
     ids = {id(t.element) for t in chosen if t.whole}
-    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids)]
+    labels = {t.label for t in chosen} | {t.tied for t in chosen if t.tied}  # a source and what is one unit across it
+    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids) or t.label in labels or t.tied in labels]
 
 
 def _given_split(name: str, terminals: tuple[Terminal, ...], driver: str, listing: str, scope: Scope) -> Split:
@@ -487,15 +589,17 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     listing = ", ".join(f"{t.label} ({t.role})" for t in terminals)
     if driver is not None:
         return _given_split(name, terminals, driver, listing, scope)
-    drivers = [t for t in terminals if t.role == "driver"]
-    shunt = [t for t in terminals if t.role == "shunt"]
-    loads = [t for t in terminals if t.role in ("load", "cg")]
+    tied = [t for t in terminals if t.tied]  # one unit with a series source at the node: they follow it (below)
+    free = [t for t in terminals if not t.tied]
+    drivers = [t for t in free if t.role == "driver"]
+    shunt = [t for t in free if t.role == "shunt"]
+    loads = [t for t in free if t.role in ("load", "cg")]
     how = "outputs"
     if not drivers:  # a divider tap, a feedback capacitor at an amplifier's input, and a switch beside it
         near = _Neighbourhood(netlist, scope, ac_ground, globals_)
         fed = []
         for t in loads:
-            if t.element.kind in _PASSIVE_PATH:
+            if near.passive(t.element):
                 to_out, to_in = _signal_distances(near, node, t)
                 if to_out <= to_in and to_out < float("inf"):  # it brings the signal from an output, rather than on to an input
                     fed.append(t)
@@ -539,11 +643,15 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     if not loads:
         raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
     bridges = tuple(dict.fromkeys(b for _, b, _ in placed))
-    text = _sentence(drivers, moved, loads, shunt, bridges, how)
-    return Split(tuple([*drivers, *moved]), tuple(loads), tuple(shunt), text, bridges)
+    on_driver = {t.label for t in (*drivers, *moved)}
+    with_driver = [t for t in tied if t.tied in on_driver]
+    loads += [t for t in tied if t.tied not in on_driver and t.role != "shunt"]
+    shunt += [t for t in tied if t.tied not in on_driver and t.role == "shunt"]
+    text = _sentence(drivers, moved, loads, shunt, bridges, how, tied)
+    return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges)
 
 
-def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
+def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
     """decided_by: one sentence a designer can check against the schematic."""
     if how == "through":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these bring the signal "
@@ -565,7 +673,10 @@ def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
     for b in bridges:
         if b.side == "load" and b.reason:
             parts.append(f"{b.element} on the load side ({b.reason})")
-    return "; ".join(parts) + _shunt_note(tuple(shunt)) + "."
+    for t in tied:
+        parts.append(f"{t.label} goes with {t.tied}: its element has another terminal beyond that source, which has no AC "
+                     "impedance, so it is one unit across it" + (" (diode-connected)" if t.role == "shunt" else ""))
+    return "; ".join(parts) + _shunt_note(tuple(t for t in shunt if not t.tied)) + "."
 
 
 def _switch_like(near: _Neighbourhood, e: Element) -> bool:
@@ -588,7 +699,7 @@ def _signal_distances(near: _Neighbourhood, node: str, t: Terminal) -> tuple[flo
     to_out = to_in = float("inf")
     for n in sorted(reach, key=lambda n: (reach[n], n)):
         for e, k, pin in near.at.get(n, ()):
-            if e.kind in _ACTIVE and e is not t.element:
+            if e.kind in _ACTIVE and e is not t.element and not near.passive(e):
                 role = near.role(e, k, pin)
                 if role in ("driver", "cg"):
                     to_out = min(to_out, reach[n])
