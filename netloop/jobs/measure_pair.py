@@ -30,7 +30,7 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements
 from netloop.jobs.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
 from netloop.netlist import Netlist, write_netlist
@@ -309,7 +309,6 @@ def measure_pair(
     results = {}
     for mode in MODES:
         a = analyses[mode]
-        warnings = (*parsed.warnings, *probe.warnings, *coupling_warning, *sim_warnings[mode], *a.warnings)
         results[mode] = LoopResult(
             netlist=parsed.source,
             label=label,
@@ -318,8 +317,8 @@ def measure_pair(
             analysis=a,
             requirements=tuple(r.check(a) for r in reqs),
             ignored_statements=ignored_lines(parsed),
-            warnings=tuple(dict.fromkeys(warnings)),
             sim=info,
             checks=job_checks,
+            **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings),
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))
