@@ -52,7 +52,7 @@ def close_simulator() -> None:
 
 def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
     """The corner's settings that ngspice can change on a loaded circuit, as netloop.sim.Change records:
-    the temperature, supply DC values and top-level .param values (as apply_settings writes them)."""
+    the temperature, supply DC values, top-level .param values and R, C, L values (as apply_settings writes them)."""
     from netloop.jobs.corners.apply import param_text
     from netloop.sim import Change
 
@@ -64,6 +64,8 @@ def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
             out.append(Change("source", s.target, s.value))
         elif s.kind == "param":
             out.append(Change("param", s.target, param_text(s.value)))
+        elif s.kind == "element":
+            out.append(Change("element", s.target, s.value))
     return tuple(out)
 
 
