@@ -5,12 +5,14 @@ from __future__ import annotations
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
 
 from netloop.analysis.requirements import RequirementOutcome, parse_requirements
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError
-from netloop.netlist import Netlist
+
+if TYPE_CHECKING:  # reports read LoopResults without loading the netlist stage
+    from netloop.netlist import Netlist
 
 __all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "caveats_on_error",
            "combined_verdict", "netlist_notes"]
