@@ -41,6 +41,14 @@ def requirements_from(texts: list[str]):
     return parse_requirements(texts)
 
 
+def node_name(text: str) -> str:
+    """An argparse type: a node to break at; an empty name (--at '', an unset shell variable) is refused, never read as
+    "every loop" (which is what leaving --at out means for check)."""
+    if not text.strip():
+        raise argparse.ArgumentTypeError("an empty node name; name the node to break, as in --at out")
+    return text
+
+
 def process_count(text: str) -> int:
     """An argparse type: a number of processes, 1 or more."""
     try:
@@ -73,8 +81,8 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
-    parser.add_argument("--at", metavar="NODE", help="the node where the loop is broken (hierarchical names like xamp.n5 allowed); every loop when omitted")
-    parser.add_argument("--at-pair", metavar="P,N", help="break a fully differential node pair and report its differential- and common-mode loops")
+    parser.add_argument("--at", type=node_name, metavar="NODE", help="the node where the loop is broken (hierarchical names like xamp.n5 allowed); every loop when omitted")
+    parser.add_argument("--at-pair", type=node_name, metavar="P,N", help="break a fully differential node pair and report its differential- and common-mode loops")
     add_measure_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of the text summary")
     parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio as CSV")

@@ -30,7 +30,7 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
                                   refuse_inputs_only, sample_loops)
@@ -370,8 +370,6 @@ def measure_pair(
     for mode in MODES:
         a = analyses[mode]
         pz = closed_circuit_pz(parsed, a, probe.p.side_b)  # as for one node: when T has poles of its own, on a small circuit
-        warnings = (*parsed.warnings, *probe.warnings, *coupling_warning, *sim_warnings[mode], *a.warnings,
-                    *_elsewhere(mode, analyses, (p_node, n_node)))
         results[mode] = LoopResult(
             netlist=parsed.source,
             label=label,
@@ -380,8 +378,8 @@ def measure_pair(
             analysis=a,
             requirements=tuple(r.check(a) for r in reqs),
             ignored_statements=ignored_lines(parsed),
-            warnings=tuple(dict.fromkeys(warnings)),
             sim=info,
             checks=(*job_checks, *((pz,) if pz is not None else ())),
+            **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings, _elsewhere(mode, analyses, (p_node, n_node))),
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))
