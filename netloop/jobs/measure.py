@@ -19,7 +19,7 @@ from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, pz_check, second_break_check, settle_split
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
@@ -410,15 +410,15 @@ def measure(
         if simulator is None:
             sim.use_processes(simulator_processes(processes, parsed, runs=2))
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s)
-        unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
-        analysis, info, sim_warnings = measure_probed(unchecked, meanwhile=loop_check, **options)
-        probed = loop_check()  # its outcome, found while the first simulation ran
-        free = driver is None and placement is None
-        probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free)
+        with caveats_on_error(parsed):
+            unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
+            analysis, info, sim_warnings = measure_probed(unchecked, meanwhile=loop_check, **options)
+            probed = loop_check()  # its outcome, found while the first simulation ran
+            free = driver is None and placement is None
+            probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free)
     if probed.inputs_only:
         _refuse_inputs_only(probed, analysis, driver or "", checks)
     outcomes = tuple(r.check(analysis) for r in reqs)
-    warnings = (*parsed.warnings, *probed.warnings, *sim_warnings, *analysis.warnings)
     return LoopResult(
         netlist=parsed.source,
         label=label,
@@ -427,9 +427,9 @@ def measure(
         analysis=analysis,
         requirements=outcomes,
         ignored_statements=ignored_lines(parsed),
-        warnings=tuple(dict.fromkeys(warnings)),
         sim=info,
         checks=checks,
+        **netlist_notes(parsed, probed.warnings, sim_warnings, analysis.warnings),
     )
 
 

@@ -30,7 +30,7 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
                                   refuse_inputs_only, sample_loops)
@@ -282,6 +282,17 @@ def _told(probe: PairProbe, checks: tuple[Check, ...]) -> PairProbe:
     return replace(probe, n=replace(probe.n, decided_by=f"{probe.n.decided_by[:-1]}; netloop {moves[0]}."))
 
 
+def _elsewhere(mode: str, analyses: Mapping[str, LoopAnalysis], nodes: tuple[str, str]) -> tuple[str, ...]:
+    """A warning for a mode that does not regulate at the pair while the other mode does: its loop closes elsewhere."""
+    other = next(m for m in MODES if m != mode)
+    a = analyses[mode]
+    if a.regulates or not analyses[other].regulates:
+        return ()
+    peak = float(np.max(20.0 * np.log10(np.abs(a.t) + 1e-300)))
+    return (f"the {mode}-mode loop hardly passes {nodes[0]},{nodes[1]} (|T| at most {peak:.4g} dB there, while the {other}-mode loop "
+            f"regulates): measure it where it closes (netloop loops NETLIST lists the candidates), or at a pair both loops pass",)
+
+
 def measure_pair(
     netlist: Netlist | str | PathLike[str],
     pair: str | tuple[str, str],
@@ -359,7 +370,6 @@ def measure_pair(
     for mode in MODES:
         a = analyses[mode]
         pz = closed_circuit_pz(parsed, a, probe.p.side_b)  # as for one node: when T has poles of its own, on a small circuit
-        warnings = (*parsed.warnings, *probe.warnings, *coupling_warning, *sim_warnings[mode], *a.warnings)
         results[mode] = LoopResult(
             netlist=parsed.source,
             label=label,
@@ -368,8 +378,8 @@ def measure_pair(
             analysis=a,
             requirements=tuple(r.check(a) for r in reqs),
             ignored_statements=ignored_lines(parsed),
-            warnings=tuple(dict.fromkeys(warnings)),
             sim=info,
             checks=(*job_checks, *((pz,) if pz is not None else ())),
+            **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings, _elsewhere(mode, analyses, (p_node, n_node))),
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))
