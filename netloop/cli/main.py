@@ -84,6 +84,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return int(module.run(args))
     except NetloopError as exc:
         print(f"netloop: error: {exc}", file=sys.stderr)
+        for note in getattr(exc, "__notes__", ()):  # what in the netlist may be behind it (netloop.jobs.loop_result.caveats_on_error)
+            print(f"netloop: note: {note}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("netloop: interrupted", file=sys.stderr)

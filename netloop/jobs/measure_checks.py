@@ -33,7 +33,7 @@ from netloop.analysis.results import Check, LoopAnalysis
 from netloop.probe import ProbedNetlist
 
 __all__ = ["PLACEMENT_TRIES", "PZ_MAX_ELEMENTS", "Trial", "analysis_doubts", "doubts", "fitted_rhp_poles", "moved", "other_placements",
-           "pair_placements", "poles_agree", "pz_check", "second_break_check", "settle_split"]
+           "pair_placements", "poles_agree", "pz_check", "second_break_band", "second_break_check", "settle_split"]
 
 PLACEMENT_TRIES = 4  # other placements measured at most (each one coarse job)
 PZ_MAX_ELEMENTS = 400  # ngspice's pz is asked only on circuits this small (flattened elements): it is cheap there
@@ -181,8 +181,8 @@ def poles_agree(a: LoopAnalysis, b: LoopAnalysis, band_hz: float) -> tuple[bool,
     return worst <= _POLE_RTOL, f"the closed-loop poles below {band_hz:.4g} Hz differ by at most {worst:.2g} (relative)"
 
 
-def _band(a: LoopAnalysis) -> float:
-    """Where closed-loop poles matter: ten times the highest gain crossover, else the top of the sweep."""
+def second_break_band(a: LoopAnalysis) -> float:
+    """Where two breaks' closed-loop poles are compared: ten times the highest gain crossover, else the top of the sweep."""
     if a.gain_crossovers:
         return min(10.0 * max(c.freq_hz for c in a.gain_crossovers), float(a.freq_hz[-1]))
     return float(a.freq_hz[-1])
@@ -198,7 +198,7 @@ def second_break_check(first: Trial, measure_coarse: Callable[[Mapping[str, str]
     other = measure_coarse(placement)
     if other is None:
         return None
-    agree, how = poles_agree(first.analysis, other.analysis, _band(first.analysis))
+    agree, how = poles_agree(first.analysis, other.analysis, second_break_band(first.analysis))
     detail = f"a second break, {_moved(placement)}: {how}"
     if agree:
         return Check("second-break", True, detail)

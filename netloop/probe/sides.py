@@ -15,7 +15,12 @@ The rules, from circuit theory (docs/splitting.md says them for designers):
   capacitor stays with the stage it wraps: with the driver at that stage's output, with the load
   at its input); otherwise, or when both sides are as close, it goes with the load, and the
   measurement's self-checks confirm the placement (netloop.jobs.measure tries the other one when
-  they fail).
+  they fail). Elements in parallel are one branch: a chain of diode-connected devices (a
+  pseudo-resistor) beside a feedback capacitor goes where the capacitor goes, and a
+  diode-connected device is no stage that a bridge could wrap.
+* A node no output sits on (an amplifier's input) is driven by the passive elements that bring the
+  signal from an output sooner than they lead on to an input, with the switches and
+  pseudo-resistors beside them; inside an instance, by the net outside when that is how it is fed.
 """
 
 from __future__ import annotations
@@ -29,7 +34,7 @@ from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist
 from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, walk_scopes
 
-__all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "terminals_at"]
+__all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "fed_terminals", "terminals_at"]
 
 # Output terminals of each element letter; a source/emitter drives only when the drain/collector is AC ground.
 _OUTPUTS = {"E": ("p", "n"), "G": ("p", "n"), "F": ("p", "n"), "H": ("p", "n"), "B": ("p", "n")}
@@ -56,6 +61,7 @@ class Terminal:
     label: str  # "m6.d", "xamp.m6.d", "xamp.out"
     via: str = ""  # for a series voltage source: what sits on its far side ("m5.d")
     whole: bool = False  # one of several (non-bulk) terminals of one element on the node: the element is one unit
+    fed: str = ""  # for the net outside an instance: its passive elements that bring the signal from an output ("rf2.n")
     tied: str = ""  # the label of a series voltage source at the node whose far side holds another terminal of this element:
     # the element is one unit across the source (a diode connected through a 0 V sense source), so it goes with the source
 
@@ -113,36 +119,10 @@ def _grounded(scope: Scope, node: str, ac_ground, globals_) -> bool:
     return scope.flat(node, globals_) in ac_ground
 
 
-def _diode_connected(netlist: Netlist, scope: Scope, e: Element, globals_: frozenset[str]) -> bool:
-    """A transistor whose control terminal is tied to its main output (a MOS gate to its drain, a base to its collector):
-    a two-terminal element between that node and its source or emitter (a nonlinear resistor, such as a pseudo-resistor)."""
-    if e.kind not in _FOLLOWER and e.kind != "X":
-        return False
-    pins = _device_pins(netlist, scope, e)
-    if e.kind == "X":
-        if not ("d" in pins and "g" in pins) or not _is_device(netlist, scope, e):
-            return False
-        main, control = "d", "g"
-    else:
-        main, control = _FOLLOWER[e.kind][0], _CONTROL[e.kind]
-    if main not in pins or control not in pins or max(pins.index(main), pins.index(control)) >= len(e.nodes):
-        return False
-    return scope.flat(e.nodes[pins.index(main)], globals_) == scope.flat(e.nodes[pins.index(control)], globals_)
-
-
-def _passive_like(netlist: Netlist, scope: Scope, e: Element, globals_: frozenset[str]) -> bool:
-    """R, C, L, a diode, or a diode-connected transistor: a two-terminal element that carries a signal both ways."""
-    return e.kind in _PASSIVE_PATH or e.kind == "D" or _diode_connected(netlist, scope, e, globals_)
-
-
 def _role(netlist: Netlist, scope: Scope, e: Element, slot: int, pin: str, ac_ground: frozenset[str], globals_: frozenset[str], depth: int = 0) -> str:
     """The role of one terminal on its own: "driver", "cg" (a common-gate device's drain or a switch: drives only
     when nothing else does), "load", "shunt" or "series" (an independent voltage source to another signal node)."""
     kind = e.kind
-    if kind in _FOLLOWER and _diode_connected(netlist, scope, e, globals_):  # a two-terminal element: a load, or a shunt to AC ground
-        pins = e.pins
-        others = [scope.flat(n, globals_) for k, n in enumerate(e.nodes) if k != slot and not (k < len(pins) and pins[k] in _BULK)]
-        return "shunt" if all(n in ac_ground for n in others) else "load"
     if kind in _OUTPUTS:
         return "driver" if pin in _OUTPUTS[kind] else "load"
     if kind in _FOLLOWER:
@@ -319,14 +299,6 @@ class _Neighbourhood:
             for k, n in enumerate(e.nodes):
                 self.at.setdefault(n, []).append((e, k, pins[k] if k < len(pins) else str(k + 1)))
         self._roles: dict[tuple[int, int], str] = {}
-        self._passive: dict[int, bool] = {}
-
-    def passive(self, e: Element) -> bool:
-        """R, C, L, a diode or a diode-connected transistor (a pseudo-resistor): a two-terminal path for the signal."""
-        key = id(e)
-        if key not in self._passive:
-            self._passive[key] = _passive_like(self.netlist, self.scope, e, self.globals_)
-        return self._passive[key]
 
     def grounded(self, node: str) -> bool:
         return _grounded(self.scope, node, self.ac_ground, self.globals_)
@@ -344,10 +316,10 @@ class _Neighbourhood:
         node = e.nodes[slot]
         return [n for k, n in enumerate(e.nodes) if n != node and not (k < len(pins) and pins[k] in _BULK) and not self.grounded(n)]
 
-    def passive_reach(self, start: list[str], avoid: str) -> dict[str, int]:
-        """Nodes reached from ``start`` through at most _LOCAL_DEPTH passive elements (R, C, L, diodes and diode-connected
-        transistors; the first counted as 1);
-        series voltage sources are looked through; never through ``avoid`` or AC ground."""
+    def passive_reach(self, start: list[str], avoid: str, diodes: bool = False) -> dict[str, int]:
+        """Nodes reached from ``start`` through at most _LOCAL_DEPTH R, C, L elements (the first counted as 1), and
+        diode-connected transistors too with ``diodes``; series voltage sources are looked through; never through
+        ``avoid`` or AC ground."""
         depth = {n: 1 for n in start if n != avoid and not self.grounded(n)}
         todo = deque(depth)
         while todo:
@@ -356,7 +328,7 @@ class _Neighbourhood:
                 kind = e.kind
                 if kind == "V":
                     step = 0
-                elif self.passive(e) and depth[n] < _LOCAL_DEPTH:
+                elif (kind in _PASSIVE_PATH or (diodes and self.two_terminal(e))) and depth[n] < _LOCAL_DEPTH:
                     step = 1
                 else:
                     continue
@@ -366,22 +338,15 @@ class _Neighbourhood:
                         (todo.appendleft if step == 0 else todo.append)(m)
         return depth
 
-    def chain_end(self, node: str, came: Element) -> str:
-        """Where a series chain of passive elements that leaves through ``came`` to ``node`` ends: while nothing but the
-        chain's next passive element meets a node, the chain goes on (two diode-connected transistors in series, the two
-        halves of a pseudo-resistor, are one element between its ends)."""
-        seen = {node}
-        while not self.grounded(node):
-            here = list(dict.fromkeys(id(e) for e, _, _ in self.at.get(node, ())))
-            nxt = [e for e, _, _ in self.at.get(node, ()) if e is not came]
-            if len(here) != 2 or not nxt or not self.passive(nxt[0]):
-                return node
-            ends = [m for m in nxt[0].nodes if m != node and m not in seen]
-            if len(set(ends)) != 1:
-                return node
-            came, node = nxt[0], ends[0]
-            seen.add(node)
-        return node
+    def two_terminal(self, e: Element) -> bool:
+        """A diode-connected transistor: its control pin on its drain or collector."""
+        return _diode_connected(self.netlist, self.scope, e)
+
+    def parallel_reach(self, t: Terminal, avoid: str) -> set[str]:
+        """Nodes reached from terminal ``t``'s element through at most _LOCAL_DEPTH two-terminal elements: R, C, L and
+        diode-connected transistors (a pseudo-resistor's devices), series voltage sources looked through; never
+        through ``avoid`` or AC ground. A bridge's end reached this way is the far end of a branch in parallel with it."""
+        return set(self.passive_reach(self.other_nodes(t.element, t.slot), avoid, diodes=True))
 
     def beyond(self, source: Terminal, node: str, roles: tuple[str, ...]) -> list[tuple[Element, int]]:
         """The active terminals of the given roles on the far side of a series voltage source at ``node`` (looked through)."""
@@ -394,7 +359,7 @@ class _Neighbourhood:
             for e, k, pin in self.at.get(n, ()):
                 if e.kind == "V":
                     todo.extend(m for m in e.nodes if m not in seen)
-                elif e.kind in _ACTIVE and not self.passive(e) and self.role(e, k, pin) in roles:
+                elif e.kind in _ACTIVE and self.role(e, k, pin) in roles:
                     out.append((e, k))
         return out
 
@@ -418,7 +383,7 @@ class _Neighbourhood:
             n = todo.popleft()
             for e, k, pin in self.at.get(n, ()):
                 kind = e.kind
-                if kind == "V" or self.passive(e):
+                if kind in _PASSIVE_PATH or kind == "V":
                     visit(self.other_nodes(e, k))
                 elif kind in _ACTIVE and self.role(e, k, pin) == "load":
                     visit(self.outputs(e, k, pin))
@@ -455,12 +420,23 @@ class _Neighbourhood:
             frontier = []
             for m, first in reached:
                 for e, k, pin in self.at.get(m, ()):
-                    if e.kind not in _ACTIVE or node in e.nodes or self.passive(e):
+                    if e.kind not in _ACTIVE or node in e.nodes or self.two_terminal(e):
                         continue
                     role = self.role(e, k, pin)
                     if (direction == "driver" and role in ("driver", "cg")) or (direction == "load" and role == "load"):
                         frontier.append((e, k, first))
         return found
+
+
+def _diode_connected(netlist: Netlist, scope: Scope, e: Element) -> bool:
+    """A transistor whose control pin sits on its drain or collector: a two-terminal element (a diode, a pseudo-resistor's half)."""
+    if e.kind not in _CONTROL:
+        return False
+    pins = _device_pins(netlist, scope, e)
+    main, control = _FOLLOWER[e.kind][0], _CONTROL[e.kind]
+    if main not in pins or control not in pins or max(pins.index(main), pins.index(control)) >= len(e.nodes):
+        return False
+    return e.nodes[pins.index(main)] == e.nodes[pins.index(control)]
 
 
 def _closest(reach: dict[str, int], stages: dict[str, tuple[int, str]]) -> tuple[float, str, str]:
@@ -481,17 +457,16 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
     distance to the driver stage (passive elements + stages; inf when it wraps none)."""
     units: dict[int, list[Terminal]] = {}
     for t in loads:
-        if near.passive(t.element) or t.role == "cg" or t.whole or _switch_like(near, t.element):
+        if t.element.kind in _PASSIVE_PATH or t.element.kind == "D" or t.role == "cg" or t.whole or _switch_like(near, t.element):
             units.setdefault(id(t.element), []).append(t)
     if not units:
         return []
-    back = near.stages(node, [*((t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0 and not near.passive(t.element)),
+    back = near.stages(node, [*((t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0),
                               *(hit for t in drivers if t.via for hit in near.beyond(t, node, ("driver", "cg")))], "driver")
     on = near.stages(node, [*((t.element, t.slot) for t in loads if t.element.kind in _ACTIVE and t.role == "load" and t.slot >= 0
-                              and id(t.element) not in units and not near.passive(t.element)),
+                              and id(t.element) not in units and not near.two_terminal(t.element)),
                             *(hit for t in loads if t.via for hit in near.beyond(t, node, ("load",)))], "load")
     far_of = {key: tuple(sorted({n for u in members for n in near.other_nodes(u.element, u.slot)})) for key, members in units.items()}
-    branch_of = {key: tuple(sorted({near.chain_end(m, units[key][0].element) for m in far})) for key, far in far_of.items()}
     out = []
     for key, members in units.items():
         t = members[0]
@@ -509,13 +484,20 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
         reach = near.passive_reach(list(far_of[key]), node)
         d_score, d_node, d_elem = _closest(reach, back)
         l_score, l_node, l_elem = _closest(reach, on)
+        parallel: list[Terminal] = []
         if d_score < l_score:
             # Local feedback of the driver stage only if the loop measured comes back to that stage's input through the
-            # node's other branches (elements in parallel are one branch, a series chain of passive elements counting as
-            # one element, such as a pseudo-resistor across a feedback capacitor): then the bridge is a loop inside the loop.
-            others = [u for u in loads if branch_of.get(id(u.element)) != branch_of[key]]
+            # node's other branches (elements in parallel are one branch: the same far end, or an active load that reaches
+            # it through two-terminal elements, such as a pseudo-resistor across a feedback capacitor): then the bridge is
+            # a loop inside the loop.
+            others = [u for u in loads if far_of.get(id(u.element)) != far_of[key]]
+            beside = {id(u.element) for u in others if id(u.element) not in units and u.slot >= 0 and near.two_terminal(u.element)
+                      and d_node in near.parallel_reach(u, node)}
+            parallel = [u for u in others if id(u.element) in beside]
+            others = [u for u in others if id(u.element) not in beside]
             if d_node not in near.onward(others, node) and not any(u.slot < 0 for u in others):  # the net outside: unseen
                 d_score = float("inf")
+                parallel = []
         if d_score < l_score:
             bridge = Bridge(label, "driver", f"closes a local loop around the driver stage {d_elem} (back to {d_node}{_path(reach, d_node)}): "
                             "kept with it", True)
@@ -528,7 +510,13 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
             bridge = Bridge(label, "load", f"as close to the driver stage {d_elem} as to the stage {l_elem} that the node drives: "
                             "put with the load, and confirmed by the measurement's self-checks", False)
         out.extend((u, bridge, d_score) for u in members)
-    return out
+        if bridge.side == "driver":  # a branch in parallel with it goes along (an element goes whole)
+            out.extend((u, replace(bridge, element=u.label.rsplit(".", 1)[0], reason=f"in parallel with {label}: {bridge.reason}"), d_score)
+                       for u in parallel)
+    once: dict[tuple[int, int], tuple[Terminal, Bridge, float]] = {}
+    for item in out:  # a branch in parallel with two bridges is placed once
+        once.setdefault((id(item[0].element), item[0].slot), item)
+    return list(once.values())
 
 
 def _path(reach: dict[str, int], node: str) -> str:
@@ -597,15 +585,12 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     how = "outputs"
     if not drivers:  # a divider tap, a feedback capacitor at an amplifier's input, and a switch beside it
         near = _Neighbourhood(netlist, scope, ac_ground, globals_)
-        fed = []
-        for t in loads:
-            if near.passive(t.element):
-                to_out, to_in = _signal_distances(near, node, t)
-                if to_out <= to_in and to_out < float("inf"):  # it brings the signal from an output, rather than on to an input
-                    fed.append(t)
-        ends = {n for t in fed for k, n in enumerate(t.element.nodes) if k != t.slot}
-        drivers = [*fed, *(t for t in loads if t not in fed and (t.role == "cg" or _switch_like(near, t.element))
-                           and any(n in ends for k, n in enumerate(t.element.nodes) if k != t.slot))]
+        fed = [t for t in loads if t.slot < 0 and t.fed] + _fed(near, node, loads)  # the net outside an instance: fed there
+        ends = {n for t in fed if t.slot >= 0 for k, n in enumerate(t.element.nodes) if k != t.slot}
+        # with them: a switch beside them, and a diode-connected device whose branch (a pseudo-resistor) ends where they do
+        drivers = [*fed, *(t for t in loads if t not in fed and (((t.role == "cg" or _switch_like(near, t.element))
+                                                                  and any(n in ends for k, n in enumerate(t.element.nodes) if k != t.slot))
+                                                                 or (t.slot >= 0 and near.two_terminal(t.element) and ends & near.parallel_reach(t, node))))]
         how = "through" if drivers else how
     if not drivers:  # the output of a folded cascode
         drivers = [t for t in loads if t.role == "cg"]
@@ -651,12 +636,30 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges)
 
 
+def _fed(near: _Neighbourhood, node: str, loads) -> list[Terminal]:
+    """The passive terminals among ``loads`` that bring the signal to the node from an active output (within
+    _LOCAL_DEPTH passive elements) sooner than they lead on to an active input."""
+    fed = []
+    for t in loads:
+        if t.element.kind in _PASSIVE_PATH:
+            to_out, to_in = _signal_distances(near, node, t)
+            if to_out <= to_in and to_out < float("inf"):
+                fed.append(t)
+    return fed
+
+
+def fed_terminals(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], ac_ground, globals_) -> tuple[Terminal, ...]:
+    """The passive terminals on ``node`` that bring the signal from an output (the rule for a node no output sits on)."""
+    return tuple(_fed(_Neighbourhood(netlist, scope, ac_ground, globals_), node, [t for t in terminals if t.role == "load"]))
+
+
 def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
     """decided_by: one sentence a designer can check against the schematic."""
     if how == "through":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these bring the signal "
                  f"through at most {_LOCAL_DEPTH} passive elements from a node that a drain, collector, controlled source or instance "
-                 "output drives, sooner than they lead on to an input)"]
+                 "output drives, sooner than they lead on to an input"
+                 + "".join(f"; outside the instance, {t.fed} does" for t in drivers if t.slot < 0 and t.fed) + ")"]
     elif how == "cg":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (common-gate or cascode devices: their gate is at AC ground, "
                  "and no other output sits on the node)"]
@@ -699,7 +702,7 @@ def _signal_distances(near: _Neighbourhood, node: str, t: Terminal) -> tuple[flo
     to_out = to_in = float("inf")
     for n in sorted(reach, key=lambda n: (reach[n], n)):
         for e, k, pin in near.at.get(n, ()):
-            if e.kind in _ACTIVE and e is not t.element and not near.passive(e):
+            if e.kind in _ACTIVE and e is not t.element:
                 role = near.role(e, k, pin)
                 if role in ("driver", "cg"):
                     to_out = min(to_out, reach[n])

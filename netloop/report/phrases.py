@@ -28,6 +28,11 @@ def _at(freq_hz: float | None) -> str:
     return f" at {eng(freq_hz, 'Hz')}" if freq_hz is not None else ""
 
 
+def _plain_number(x: float) -> str:
+    """A ratio with three decimals, or in 4 significant digits with an exponent when it is that large (1e300 stays one line)."""
+    return f"{x:.3f}" if abs(x) < 1e6 else f"{x:.4g}"
+
+
 def margin_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
     """Worst phase margin, gain margin, lower gain margin (when there is one), modulus and delay margin."""
     m = a.margins
@@ -38,7 +43,7 @@ def margin_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
     ]
     if m.lower_gain_margin_db is not None:
         rows.append(("lower gain margin", f"{db(m.lower_gain_margin_db)}{_at(m.lower_phase_crossover_hz)} (the gain may fall this much)"))
-    rows.append(("modulus margin", f"{m.modulus_margin:.3f} ({db(ratio_db(m.modulus_margin))}) min |1+T|{_at(m.modulus_freq_hz)}"))
+    rows.append(("modulus margin", f"{_plain_number(m.modulus_margin)} ({db(ratio_db(m.modulus_margin))}) min |1+T|{_at(m.modulus_freq_hz)}"))
     rows.append(("delay margin", eng(m.delay_margin_s, "s") if m.delay_margin_s is not None else "none (no crossover with a positive phase margin)"))
     return rows
 

@@ -174,6 +174,7 @@ def _plain_text(result: LoopResult) -> str:
     sim = result.sim
     lines = [
         verdict_line(result),
+        *(f"  but: {c}" for c in result.caveats),  # what may make the verdict answer another circuit than the one meant
         _row("netlist", title),
         *_break_lines(result),
         _row("DC loop gain", db(a.dc_gain_db)),
