@@ -13,6 +13,7 @@ from netloop.report.notation import db, deg, eng, number, ratio_db, requirement_
 
 __all__ = [
     "closed_loop_phrases",
+    "low_gain_phrase",
     "margin_phrases",
     "nyquist_phrase",
     "origin_phrase",
@@ -31,6 +32,14 @@ def _at(freq_hz: float | None) -> str:
 def _plain_number(x: float) -> str:
     """A ratio with three decimals, or in 4 significant digits with an exponent when it is that large (1e300 stays one line)."""
     return f"{x:.3f}" if abs(x) < 1e6 else f"{x:.4g}"
+
+
+def low_gain_phrase(a: LoopAnalysis) -> tuple[str, str]:
+    """("DC loop gain", value) when |T| at the bottom of the sweep stands for DC (LoopAnalysis.gain_is_dc), else the
+    label says it is |T| at the lowest frequency swept, and at which (a sweep started above a pole reads less)."""
+    if a.gain_is_dc:
+        return "DC loop gain", db(a.dc_gain_db)
+    return "|T| at the lowest frequency", f"{db(a.dc_gain_db)} at {eng(float(a.freq_hz[0]), 'Hz')} (not the DC loop gain: T is not flat there)"
 
 
 def margin_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:

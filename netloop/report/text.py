@@ -11,6 +11,7 @@ from netloop.jobs.loop_result import LoopResult
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
 from netloop.report.phrases import (
     closed_loop_phrases,
+    low_gain_phrase,
     margin_phrases,
     nyquist_phrase,
     phase_crossover_margin,
@@ -177,7 +178,7 @@ def _plain_text(result: LoopResult) -> str:
         *(f"  but: {c}" for c in result.caveats),  # what may make the verdict answer another circuit than the one meant
         _row("netlist", title),
         *_break_lines(result),
-        _row("DC loop gain", db(a.dc_gain_db)),
+        _row(*low_gain_phrase(a)),
         *_crossover_lines(a),
         *(_row(label, value) for label, value in margin_phrases(a)),
         *(_row(label, value) for label, value in closed_loop_phrases(a)),

@@ -6,6 +6,7 @@ import math
 import re
 
 import control
+import numpy as np
 from report_loops import W, make_result, two_stage
 
 from netloop.report import format_text
@@ -94,3 +95,32 @@ def test_colour_only_paints_the_verdicts(unstable_result):
     assert "  \x1b[1;31mFAIL\x1b[0m  pm>=45" in painted
     assert re.sub(r"\x1b\[[0-9;]*m", "", painted) == plain
     assert "\x1b" not in plain
+
+
+def test_a_sweep_started_above_the_first_pole_labels_the_gain_at_its_lowest_frequency():
+    """Sweeping the two-stage loop from 1 MHz (issue 15.5) reads |T(1 MHz)|, which is not the DC loop gain: the label
+    says so and names the frequency, and the figure is the closed form's |T(j 2 pi 1 MHz)|; from 1 Hz up, T is flat at
+    the bottom and the row reads DC loop gain, 80 dB (the closed form's A0 = 1e4)."""
+    above = make_result(two_stage, freq_hz=np.logspace(6, 10, 81))
+    row = next(line for line in format_text(above).splitlines() if line.startswith("|T| at the lowest frequency"))
+    expected = 20 * math.log10(abs(two_stage(1e6)))  # closed form: 1e4 / |(1 + 1000j)(1 + j/30)(1 + j/100)|
+    assert f"{expected:.2f} dB at 1.00 MHz (not the DC loop gain" in row
+    assert "DC loop gain  " not in format_text(above)
+    full = format_text(make_result(two_stage))
+    assert re.search(r"^DC loop gain +80\.00 dB$", full, re.M)
+
+
+def test_an_ac_coupled_loop_swept_above_its_low_crossover_warns_that_it_is_missed():
+    """An AC-coupled loop (a zero at s = 0 and a pole at 10 Hz before a gain of 1e3, closed form) swept from 100 Hz leads
+    there by atan(10/100) = 5.7 deg with |T| = 60 dB: the summary warns that the low gain crossover (at 0.01 Hz by the
+    closed form) lies below the sweep and does not call 60 dB the DC loop gain; the two-stage loop swept alike does not."""
+    def coupled(f):
+        s = 1j * W * np.asarray(f)
+        return 1e3 * (s / (W * 10)) / (1 + s / (W * 10)) / ((1 + s / (W * 1e6)) * (1 + s / (W * 1e8)))
+
+    text = format_text(make_result(coupled, freq_hz=np.logspace(2, 10, 161)))
+    lead = math.degrees(math.atan(10 / 100))  # closed form: the coupling's phase lead at 100 Hz
+    assert f"its phase leads by {lead:.2g} deg: T falls toward DC (AC coupling), and its low gain crossover" in text
+    assert "|T| at the lowest frequency" in text and "DC loop gain  " not in text
+    settled = format_text(make_result(two_stage, freq_hz=np.logspace(2, 10, 161)))
+    assert "AC coupling" not in settled
