@@ -250,8 +250,10 @@ class ClosedLoopPoles:
     poles_rad_s          poles in rad/s (complex, s-plane), only those with |p| below the top of
                          the sweep (2 pi f_max), sorted by |p|; both members of a complex pair appear.
     rhp_count            how many of them have a positive real part.
-    dominant_damping     damping ratio -Re(p)/|p| of the complex pair closest to the imaginary
-                         axis (smallest damping); None when there is no complex pair.
+    dominant_damping     damping ratio -Re(p)/|p| of the dominant pole when it is one of a complex pair
+                         (netloop.analysis.poles.dominant_pole: the least-damped pole among those that visibly
+                         shape 1/(1+T), the definition check, compare and every report use); None when the
+                         dominant pole is real or there is none.
     dominant_q           1 / (2 dominant_damping) (inf when the damping is <= 0); None with it.
     dominant_freq_hz     |p| / (2 pi) of that pair; None with it.
     agrees_with_nyquist  rhp_count == NyquistVerdict.closed_loop_rhp_poles.

@@ -104,7 +104,7 @@ def _crossover_lines(a: LoopAnalysis) -> list[str]:
     for c in a.gain_crossovers:
         lines.append(
             f"  {eng(c.freq_hz, 'Hz'):>11}  {c.direction:<4}  phase {deg(c.phase_deg):>12}  PM {deg(c.phase_margin_deg):>11}"
-            f"  peaking {db(c.peaking_db):>9}  delay margin {eng(c.delay_margin_s, 's') if c.delay_margin_s is not None else 'none'}"
+            f"  |T/(1+T)| {db(c.peaking_db):>9}  delay margin {eng(c.delay_margin_s, 's') if c.delay_margin_s is not None else 'none'}"
         )
     lines.append(f"phase crossovers (phase = odd multiple of 180 deg): {len(a.phase_crossovers) or 'none above the floor'}")
     for c in a.phase_crossovers:
