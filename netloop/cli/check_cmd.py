@@ -315,6 +315,17 @@ def coupling_line(coupling) -> str:
             f"CM->DM {db(coupling.cm_to_dm_db)} up to {eng(coupling.cm_band_hz, 'Hz')} (threshold {db(coupling.threshold_db)})")
 
 
+def pair_driver_words(text: str, nodes: tuple[str, str]) -> str:
+    """A probe message about one node of a pair in this command line's words: driver=... becomes --driver NODE=..."""
+    import re
+
+    for node in nodes:
+        if f"at {node}:" in text or f"node {node}" in text:
+            text = text.replace("driver=ELEMENT[.PIN]", f"--driver {node}=ELEMENT[.PIN]").replace("use driver=", f"use --driver {node}=")
+            text = re.sub(r"\bdriver='([^']*)'", lambda m: f"--driver {node}={m.group(1)}", text)
+    return text
+
+
 def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     """--at-pair P,N: both loops of a differential pair, text or one JSON document with a part per mode."""
     from netloop import report
@@ -329,11 +340,7 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     try:
         pair = measure_pair(netlist, nodes, drivers=drivers, **common)
     except ProbeError as exc:  # say how to name a driver on this command line
-        text = str(exc)
-        for node in nodes:
-            if f"at {node}:" in text or f"node {node}" in text:
-                text = text.replace("driver=ELEMENT[.PIN]", f"--driver {node}=ELEMENT[.PIN]").replace("use driver=", f"use --driver {node}=")
-        raise ProbeError(text) from exc
+        raise ProbeError(pair_driver_words(str(exc), nodes)) from exc
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))

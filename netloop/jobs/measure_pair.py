@@ -282,6 +282,17 @@ def _told(probe: PairProbe, checks: tuple[Check, ...]) -> PairProbe:
     return replace(probe, n=replace(probe.n, decided_by=f"{probe.n.decided_by[:-1]}; netloop {moves[0]}."))
 
 
+def _elsewhere(mode: str, analyses: Mapping[str, LoopAnalysis], nodes: tuple[str, str]) -> tuple[str, ...]:
+    """A warning for a mode that does not regulate at the pair while the other mode does: its loop closes elsewhere."""
+    other = next(m for m in MODES if m != mode)
+    a = analyses[mode]
+    if a.regulates or not analyses[other].regulates:
+        return ()
+    peak = float(np.max(20.0 * np.log10(np.abs(a.t) + 1e-300)))
+    return (f"the {mode}-mode loop hardly passes {nodes[0]},{nodes[1]} (|T| at most {peak:.4g} dB there, while the {other}-mode loop "
+            f"regulates): measure it where it closes (netloop loops NETLIST lists the candidates), or at a pair both loops pass",)
+
+
 def measure_pair(
     netlist: Netlist | str | PathLike[str],
     pair: str | tuple[str, str],
@@ -369,6 +380,6 @@ def measure_pair(
             ignored_statements=ignored_lines(parsed),
             sim=info,
             checks=(*job_checks, *((pz,) if pz is not None else ())),
-            **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings),
+            **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings, _elsewhere(mode, analyses, (p_node, n_node))),
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))

@@ -14,6 +14,7 @@ pytestmark = pytest.mark.ngspice
 
 FD_MILLER = BENCHES / "fd_miller_pair.cir"
 FD_CAP = BENCHES / "fd_cap_amp.cir"
+FD_MILLER_SKY130 = BENCHES / "fd_miller_pair_sky130.cir"  # the same amplifier on the real sky130 process
 
 # (bench, pair) -> the expert pair decks that are right there (either, where an expert accepts either side for a bridge)
 
@@ -33,6 +34,8 @@ PAIRS = {
     (FD_MILLER, "xamp.outp,xamp.outn"): ("fd_miller_pair.out",),
     (FD_MILLER, "xamp.inp,xamp.inn"): ("fd_miller_pair.in",),
     (FD_MILLER, "xp,xn"): ("fd_miller_pair.in",),
+    (FD_MILLER_SKY130, "xamp.o1p,xamp.o1n"): ("fd_miller_pair_sky130.o1.rz-load", "fd_miller_pair_sky130.o1.rz-driver"),
+    (FD_MILLER_SKY130, "xamp.inp,xamp.inn"): ("fd_miller_pair_sky130.in",),
     (FD_CAP, "xp,xn"): ("fd_cap_amp.pair-in",),
     (FD_CAP, "outp,outn"): ("fd_cap_amp.pair-out",),
 }
@@ -61,6 +64,7 @@ def test_pair_break_equals_an_expert_pair_probe_or_is_inconclusive(bench, nodes,
 
 
 @pytest.mark.parametrize(("bench", "nodes"), [(FD_MILLER, "xamp.o1p,xamp.o1n"), (FD_MILLER, "xamp.outp,xamp.outn"),
+                                              (FD_MILLER_SKY130, "xamp.o1p,xamp.o1n"),
                                               (FD_MILLER, "xamp.inp,xamp.inn"), (FD_CAP, "xp,xn"), (FD_CAP, "outp,outn")])
 def test_each_side_of_a_pair_is_decided_as_the_single_node_break_decides_it(bench, nodes, simulator):
     """Each node of a pair is split exactly as break_loop splits it alone: the same terminals on the driver side."""
@@ -119,6 +123,7 @@ def _closed_loop_poles(t: np.ndarray, f: np.ndarray, band_hz: float) -> np.ndarr
 
 
 @pytest.mark.parametrize("stems", [("fd_miller_pair.o1.rz-load", "fd_miller_pair.o1.rz-driver", "fd_miller_pair.out", "fd_miller_pair.in"),
+                                   ("fd_miller_pair_sky130.o1.rz-load", "fd_miller_pair_sky130.o1.rz-driver", "fd_miller_pair_sky130.in"),
                                    ("fd_cap_amp.pair-in", "fd_cap_amp.pair-out")])
 def test_expert_pair_probes_of_one_circuit_find_the_same_differential_closed_loop_poles(stems):
     """Expert pair probes at different node pairs of one circuit give the same DM closed-loop poles up to ten times the crossover."""
@@ -159,3 +164,61 @@ def test_capacitive_feedback_pair_at_the_inputs_is_never_a_bogus_no_regulation(s
     assert pair.differential.analysis.regulates
     assert not pair.coupling.coupled
     assert same_t(pair.differential, f, t_dm) and same_t(pair.common, f, t_cm)
+
+
+def test_pair_drivers_naming_only_inputs_are_refused_with_the_outputs_named(simulator):
+    """drivers= naming only the second stage's gates at the first-stage outputs is refused, as driver= is at one node,
+    and the error names the outputs that sit there."""
+    # Reference: common practice; the outputs on xamp.o1p are the drains of M1 and M3 (the bench's netlist). With the
+    # gate on the driver side T never reaches 0 dB in either mode: a backwards split.
+    from netloop.errors import ProbeError
+
+    with pytest.raises(ProbeError, match=r"names only inputs on node xamp\.o1p .* the outputs on the node are: xamp\.m1\.d, xamp\.m3\.d"):
+        measure_pair(FD_MILLER, "xamp.o1p,xamp.o1n", simulator=simulator, drivers=("xamp.m6.g", "xamp.m7.g"))
+
+
+def test_check_at_pair_takes_one_driver_per_node_and_says_so(capsys):
+    """check --at-pair with --driver NODE=... for each node measures the expert's split and says the drivers were given."""
+    # Reference: expert/fd_miller_pair.o1.rz-driver.sp (its DM crossover and Nyquist verdict, read by netloop.analysis
+    # from the expert's T; P = 2 there: opening each Miller loop leaves T with poles of its own, and Z = N + P = 0).
+    import json
+
+    from netloop.cli.main import main
+
+    status = main(["check", str(FD_MILLER), "--at-pair", "xamp.o1p,xamp.o1n", "--json",
+                   "--driver", "xamp.o1p=xamp.m1.d,xamp.m3.d,xamp.rz1", "--driver", "xamp.o1n=xamp.m2.d,xamp.m4.d,xamp.rz2"])
+    dm = json.loads(capsys.readouterr().out)["modes"]["differential"]
+    assert "xamp.o1p: driver side given by driver='xamp.m1.d,xamp.m3.d,xamp.rz1'" in dm["break"]["decided_by"]
+    assert "xamp.o1n: driver side given by driver='xamp.m2.d,xamp.m4.d,xamp.rz2'" in dm["break"]["decided_by"]
+    f, t_dm, _ = pair_expert("fd_miller_pair.o1.rz-driver")
+    want = analyse(f, t_dm)
+    assert dm["margins"]["unity_gain_hz"] == pytest.approx(want.margins.unity_gain_hz, rel=1e-3)
+    assert want.stable and status == 0
+
+
+def test_a_mode_that_does_not_pass_the_pair_says_where_to_measure_it(simulator):
+    """At the capacitive-feedback amplifier's inputs the CM mode, which closes through CMFB, does not regulate and says to
+    measure it where it closes; the DM mode there carries no such warning."""
+    # Reference: expert/fd_cap_amp.pair-in.sp: |T_cm| below -40 dB at the inputs, |T_dm| about 39 dB at DC.
+    pair = measure_pair(FD_CAP, "xp,xn", simulator=simulator)
+    assert any("common-mode loop hardly passes xp,xn" in w for w in pair.common.warnings)
+    assert not any("hardly passes" in w for w in pair.differential.warnings)
+
+
+def test_pair_splits_are_the_same_under_five_hash_seeds():
+    """break_pair's decision at each pair of both benches is identical under five PYTHONHASHSEED values."""
+    # Reference: issue 14 d (every automatic choice independent of the hash seed); five processes compared.
+    import os
+    import subprocess
+    import sys
+
+    code = ("import sys; from netloop.netlist import parse_file; from netloop.probe.differential import break_pair\n"
+            "for bench, pair in [(sys.argv[1], 'xamp.o1p,xamp.o1n'), (sys.argv[1], 'xamp.inp,xamp.inn'), (sys.argv[2], 'xp,xn'), (sys.argv[2], 'outp,outn')]:\n"
+            "    p = break_pair(parse_file(bench), *pair.split(','))\n"
+            "    print(p.p.driver_terminals, p.n.driver_terminals, p.p.decided_by, p.n.decided_by)\n")
+    outs = set()
+    for seed in ("0", "1", "7", "42", "1234"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        run = subprocess.run([sys.executable, "-c", code, str(FD_MILLER), str(FD_CAP)], capture_output=True, text=True, env=env, check=True)
+        outs.add(run.stdout)
+    assert len(outs) == 1
