@@ -192,7 +192,7 @@ def loads_line(records: tuple[dict, ...]) -> str | None:
     what = "corners" if len({r["at"] for r in records}) <= 1 else "measurements"
     line = f"circuit loads: {sum(known)} for {len(records)} {what}"
     if shared:
-        line += (f"; {shared} ran on a circuit another corner had loaded, with its temperature, supplies or parameters "
+        line += (f"; {shared} ran on a circuit another corner had loaded, with its temperature, supplies, parameters or element values "
                  "changed in place (share_loads)")
     return line
 

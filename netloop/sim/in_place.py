@@ -1,4 +1,4 @@
-"""Changing a loaded circuit in place (temperature, a source's DC value, a .param) instead of reading its netlist again.
+"""Changing a loaded circuit in place (temperature, a source's DC value, a .param, an R, C or L value) instead of reading its netlist again.
 
 A job names the values its netlist holds that ngspice can change in place (SimJob.changes). When the
 circuit loaded for an earlier job differs from the new job's netlist only in the lines those changes
@@ -10,7 +10,9 @@ explain, and both name the same values, the worker changes them with ngspice's o
 - the temperature: ``option temp=VALUE``, the text of the netlist's ``.temp`` line (ngspice reads both alike:
   159 temperatures from -55 to 150 C gave a diode's operating point bit for bit either way);
 - a source's DC value: ``alter NAME dc = M * 1eE``, the product ngspice's netlist reader computes
-  (netloop.sim.numbers), so the source holds the double a fresh load reads.
+  (netloop.sim.numbers), so the source holds the double a fresh load reads;
+- a resistor's, capacitor's or inductor's value: ``alter NAME = M * 1eE`` likewise (ngspice sets its
+  temperature-dependent values again before the next analysis, as after a load).
 
 tests/sim/test_in_place.py shows the results equal a fresh load bit for bit.
 """
@@ -62,6 +64,9 @@ def _masked(line: str, keys: set[tuple[str, str]]) -> str:
             if kind == "param":
                 line = re.sub(rf"(?<![\w.]){re.escape(name)}{_VALUE}", f"{name}=*", line)
         return " ".join(line.split())
+    if ("element", head) in keys and len(words) > 3:
+        words[3] = "*"
+        return " ".join(words)
     if ("source", head) in keys and len(words) > 3:
         at = 4 if words[3] == "dc" else 3
         if at < len(words) and (at == 4 or words[3].split("(")[0] not in _SOURCE_WORDS):
@@ -72,7 +77,8 @@ def _masked(line: str, keys: set[tuple[str, str]]) -> str:
 
 def explained(loaded: str, wanted: str, changes: Iterable[Change]) -> bool:
     """True when netlist text ``wanted`` differs from ``loaded`` only in the values ``changes`` set: the
-    ``.temp`` value, the DC value of a changed source's card, a changed parameter's value on a ``.param`` line."""
+    ``.temp`` value, the DC value of a changed source's card, a changed parameter's value on a ``.param`` line, the
+    value of a changed R, C or L card."""
     keys = {c.key for c in changes}
     a, b = _statements(loaded), _statements(wanted)
     return len(a) == len(b) and all(x == y or _masked(x, keys) == _masked(y, keys) for x, y in zip(a, b))
@@ -98,6 +104,8 @@ def change_commands(changes: Iterable[Change], current: Mapping[tuple[str, str],
             commands.append(f"option temp={c.value.strip()}")  # read as the netlist's .temp line is (see module doc)
         elif c.kind == "source":
             commands.append(f"alter {c.target.strip().lower()} dc = {netlist_product(c.value)}")
+        elif c.kind == "element":
+            commands.append(f"alter {c.target.strip().lower()} = {netlist_product(c.value)}")
         else:
             raise ValueError(f"unknown kind of change {c.kind!r}")
     return commands, reset

@@ -62,11 +62,12 @@ class Change:
 
     kind "temp": the circuit temperature in degrees C (``target`` empty), as a ``.temp VALUE`` line sets it;
     "source": the DC value of the independent source ``target`` (a V or I element at the top level);
-    "param": the top-level ``.param target=VALUE`` (ngspice evaluates every expression that uses it again).
+    "param": the top-level ``.param target=VALUE`` (ngspice evaluates every expression that uses it again);
+    "element": the value of the top-level resistor, capacitor or inductor ``target`` (the token after its nodes).
     ``value`` is the text the job's netlist holds for it (see SimJob.changes), read as ngspice reads it there.
     """
 
-    kind: Literal["temp", "source", "param"]
+    kind: Literal["temp", "source", "param", "element"]
     target: str
     value: str
 

@@ -14,7 +14,7 @@ CARDS = [
     ("Y1 a b 1", "unknown element type 'Y': expected one of R C L K V I E F G H B D M Q J Z S W T O U X A", "Y1"),
     ("R1 a", "R1: expected 2 nodes and a value", END),
     ("V1 a", "V1: expected 2 nodes", END),
-    ("M1 d g s nch", "M1: expected 4 nodes and a model", END),
+    ("M1 d g s nch", "M1: expected 4 nodes and a model (3, or 5 with the thermal nodes, for a vdmos model)", END),
     ("F1 o 0 POLY(2) vx", "F1: expected 2 controlling sources and the coefficients after POLY(2)", END),
     ("H1 o 0 poly(3) va vb", "H1: expected 3 controlling sources and the coefficients after poly(3)", END),
     ("F1 o 0 POLY(1) vx", "F1: expected 1 controlling sources and the coefficients after POLY(1)", END),  # ngspice 39 refuses it too

@@ -11,7 +11,8 @@ from netloop.sim.numbers import netlist_number
 
 # A two-stage amplifier of invented level-1 cards (for tests only): its model card's threshold is an
 # expression of the parameter dvt, its compensation capacitor the parameter cc, its supply a V source,
-# its bias an I source; the temperature moves the operating point through the cards' temperature laws.
+# its bias an I source, its nulling resistor and load capacitor plain values; the temperature moves the
+# operating point through the cards' temperature laws and the resistor's temperature coefficient.
 AMP = """two-stage amplifier (invented level-1 cards)
 .param dvt=0 cc=1.2p
 .model nch nmos (level=1 vto={{0.55+dvt}} kp=180u lambda=0.06 cgso=0.3n cgdo=0.3n cj=0.6m)
@@ -27,21 +28,23 @@ m3 d1 d1 vdd vdd pch w=20u l=1u
 m4 o1 d1 vdd vdd pch w=20u l=1u
 m6 out o1 vdd vdd pch w=80u l=1u
 m7 out nb 0 0 nch w=50u l=1u
-cc o1 out {{cc}}
-cl out 0 2p
+rz o1 cz {rz} tc1=2e-3
+cc cz out {{cc}}
+cl out 0 {cl}
 {temp}"""
 SWEEP = (AcSweep("dec", 10, 1e2, 1e9),)
-BASE = {"vdd": "3.3", "ibias": "20u", "dvt": "0", "cc": "1.2p", "temp": "27"}
+BASE = {"vdd": "3.3", "ibias": "20u", "dvt": "0", "cc": "1.2p", "temp": "27", "rz": "1.5k", "cl": "2p"}
 
 
 def _netlist(values: dict[str, str]) -> str:
-    text = AMP.format(vdd=values["vdd"], ibias=values["ibias"], temp=f".temp {values['temp']}")
+    text = AMP.format(vdd=values["vdd"], ibias=values["ibias"], rz=values["rz"], cl=values["cl"], temp=f".temp {values['temp']}")
     return text.replace("dvt=0 cc=1.2p", f"dvt={values['dvt']} cc={values['cc']}")
 
 
 def _changes(values: dict[str, str]) -> tuple[Change, ...]:
     return (Change("temp", "", values["temp"]), Change("source", "vdd", values["vdd"]), Change("source", "ibias", values["ibias"]),
-            Change("param", "dvt", values["dvt"]), Change("param", "cc", values["cc"]))
+            Change("param", "dvt", values["dvt"]), Change("param", "cc", values["cc"]), Change("element", "rz", values["rz"]),
+            Change("element", "cl", values["cl"]))
 
 
 def _job(values: dict[str, str], name: str, in_place: bool = True, op_voltages: bool = False) -> SimJob:
@@ -56,10 +59,12 @@ def _vectors(result) -> np.ndarray:
 @pytest.mark.ngspice
 @pytest.mark.parametrize(("key", "value"), [
     ("temp", "125"), ("temp", "-40"), ("vdd", "3.0"), ("vdd", "1.65"), ("ibias", "17u"), ("cc", "0.6p"), ("dvt", "0.08"),
-], ids=["temp-125", "temp-minus-40", "supply-3.0", "supply-1.65", "current-source", "param-element", "param-in-model-card"])
+    ("rz", "2.7k"), ("cl", "3.3p"),
+], ids=["temp-125", "temp-minus-40", "supply-3.0", "supply-1.65", "current-source", "param-element", "param-in-model-card",
+        "element-resistor", "element-capacitor"])
 def test_a_change_in_place_equals_a_fresh_load_bit_for_bit(shared_sim, key, value):
     """After another corner ran on the loaded circuit, a job that changes one value in place (temperature, a V or I
-    source's DC value, a .param of an element value or inside a model card's expression) runs without a load and gives
+    source's DC value, a .param of an element value or inside a model card's expression, an R or C value) runs without a load and gives
     exactly the vectors of loading its netlist afresh, which differ from the first corner's (ngspice is the reference)."""
     changed = {**BASE, key: value}
     first = shared_sim.run(_job(BASE, f"first-{key}-{value}"))
@@ -71,12 +76,55 @@ def test_a_change_in_place_equals_a_fresh_load_bit_for_bit(shared_sim, key, valu
     assert not np.array_equal(_vectors(in_place), _vectors(first))  # the value really changed the circuit
 
 
+# A process library as real ones are written (invented cards, for tests only): a section whose model card's threshold
+# is an expression of a library parameter, itself an expression of the netlist's top-level dvt; and a cell (subcircuit)
+# whose width takes a parameter of the instance line, an expression of dvt too.
+LIBRARY = """* INVENTED library for tests: one section
+.lib typ
+.param vt_lib={0.55 + 2*dvt}
+.model nlib nmos (level=1 vto={vt_lib} kp=180u lambda=0.06 cgso=0.3n cgdo=0.3n cj=0.6m)
+.endl typ
+"""
+CELL = """library parameters through two levels (invented)
+.param dvt={dvt}
+.lib {library} typ
+.subckt cell d g s k=1
+m1 d g s s nlib w={{10u*k}} l=1u
+.ends
+vdd vdd 0 dc 3
+vg g 0 dc 1.2 ac 1
+r1 vdd d 10k
+x1 d g 0 cell k={{1+dvt}}
+c1 d 0 1p
+"""
+
+
+@pytest.mark.ngspice
+def test_a_parameter_reaching_a_library_model_and_a_cell_is_evaluated_again_in_place(shared_sim, tmp_path):
+    """A top-level .param that reaches a model card only through a library section's own .param, and a cell's width only
+    through its instance line, changed in place (alterparam, reset) gives the vectors of a fresh load of the edited
+    netlist, which differ from the first: ngspice evaluates the whole chain again, so such a change needs no reload."""
+    library = tmp_path / "invented.lib"
+    library.write_text(LIBRARY)
+
+    def job(dvt: str, name: str, in_place: bool = True) -> SimJob:
+        return SimJob(CELL.format(dvt=dvt, library=library), runs=(AcRun("a", {"vg": 1.0}, SWEEP),), save=("v(d)",),
+                      excitable=("vg",), circuit_id=name, changes=(Change("param", "dvt", dvt),) if in_place else ())
+
+    first = shared_sim.run(job("0", "chain-first"))
+    in_place = shared_sim.run(job("0.05", "chain-second"))
+    fresh = shared_sim.run(job("0.05", "chain-fresh", in_place=False))
+    assert first.loaded and not in_place.loaded and fresh.loaded
+    assert np.array_equal(in_place.runs[0].vectors["v(d)"], fresh.runs[0].vectors["v(d)"])
+    assert not np.array_equal(in_place.runs[0].vectors["v(d)"], first.runs[0].vectors["v(d)"])
+
+
 @pytest.mark.ngspice
 def test_several_changes_in_a_row_each_equal_a_fresh_load(shared_sim):
     """Five corners in a row on one loaded circuit, each changing every value, give the vectors of five fresh loads."""
-    corners = [{**BASE, "temp": t, "vdd": v, "dvt": d, "cc": c}
-               for t, v, d, c in (("-40", "3.0", "0.05", "1p"), ("125", "3.6", "-0.05", "1.4p"), ("27", "3.3", "0", "1.2p"),
-                                  ("85", "2.7", "0.1", "0.8p"), ("0", "3.3", "0", "1.2p"))]
+    corners = [{**BASE, "temp": t, "vdd": v, "dvt": d, "cc": c, "cl": cl}
+               for t, v, d, c, cl in (("-40", "3.0", "0.05", "1p", "2p"), ("125", "3.6", "-0.05", "1.4p", "1.5p"), ("27", "3.3", "0", "1.2p", "2p"),
+                                      ("85", "2.7", "0.1", "0.8p", "4.7p"), ("0", "3.3", "0", "1.2p", "4.7p"))]
     chain = [shared_sim.run(_job(c, f"chain-{i}")) for i, c in enumerate(corners)]
     assert [r.loaded for r in chain] == [True, False, False, False, False]
     for i, c in enumerate(corners):
@@ -97,10 +145,10 @@ def test_the_operating_point_of_a_job_changed_in_place_is_its_own(shared_sim):
 
 @pytest.mark.ngspice
 def test_a_netlist_that_differs_elsewhere_is_loaded_afresh(shared_sim):
-    """A job whose netlist differs in a line no change explains (another load capacitor) is read afresh, never changed in place."""
+    """A job whose netlist differs in a line no change explains (another sink width) is read afresh, never changed in place."""
     shared_sim.run(_job(BASE, "elsewhere-first"))
     other = _job({**BASE, "temp": "85"}, "elsewhere-second")
-    other = SimJob(other.netlist.replace("cl out 0 2p", "cl out 0 3p"), other.runs, other.save, other.excitable,
+    other = SimJob(other.netlist.replace("m7 out nb 0 0 nch w=50u", "m7 out nb 0 0 nch w=60u"), other.runs, other.save, other.excitable,
                    op_voltages=False, circuit_id="elsewhere-second", changes=other.changes)
     assert shared_sim.run(other).loaded
 
@@ -108,11 +156,13 @@ def test_a_netlist_that_differs_elsewhere_is_loaded_afresh(shared_sim):
 def test_explained_accepts_only_the_values_of_the_changes():
     """Two netlists count as one circuit when they differ only in the changed values (the temperature, a source's DC
     value, a changed parameter's value on a .param line that also defines others); any other difference, an unchanged
-    parameter's value or a source's AC value included, makes them two circuits."""
+    parameter's value or a source's AC value included, makes them two circuits; an R, C or L value counts when changed."""
     a = _netlist(BASE)
     changes = _changes(BASE)
     assert explained(a, _netlist({**BASE, "temp": "125", "vdd": "3.0", "cc": "1p"}), changes)
-    assert not explained(a, a.replace("cl out 0 2p", "cl out 0 3p"), changes)
+    assert not explained(a, a.replace("m7 out nb 0 0 nch w=50u", "m7 out nb 0 0 nch w=60u"), changes)
+    assert explained(a, a.replace("cl out 0 2p", "cl out 0 3p"), changes)
+    assert not explained(a, a.replace("cl out 0 2p", "cl out 0 3p"), changes[:-1])  # cl is not among these
     only_cc = (Change("param", "cc", "1p"),)
     assert explained(a, _netlist({**BASE, "cc": "1p"}), only_cc)
     assert not explained(a, _netlist({**BASE, "cc": "1p", "dvt": "0.1"}), only_cc)  # dvt is not among the changes
@@ -123,14 +173,16 @@ def test_explained_accepts_only_the_values_of_the_changes():
 
 
 def test_a_parameter_change_resets_the_circuit_and_sets_temperature_and_sources_again():
-    """alterparam needs ngspice's reset, after which the temperature and every source value are given again; without a
+    """alterparam needs ngspice's reset, after which the temperature, every source value and every R, C, L value are given again; without a
     parameter change only the values that differ are sent, numbers as ngspice's netlist reader makes them."""
     current = {c.key: c.value for c in _changes(BASE)}
     commands, reset = change_commands(_changes({**BASE, "cc": "1p"}), current)
     assert reset and commands[:2] == ["alterparam cc=1p", "reset"]
-    assert {"option temp=27", "alter vdd dc = 33 * 1e-1", "alter ibias dc = 20 * 1e-6"} <= set(commands)
+    assert {"option temp=27", "alter vdd dc = 33 * 1e-1", "alter ibias dc = 20 * 1e-6", "alter rz = 15 * 1e2", "alter cl = 2 * 1e-12"} <= set(commands)
     commands, reset = change_commands(_changes({**BASE, "vdd": "1.65"}), current)
     assert not reset and commands == ["alter vdd dc = 165 * 1e-2"]
+    commands, reset = change_commands(_changes({**BASE, "cl": "4.7p"}), current)
+    assert not reset and commands == ["alter cl = 47 * 1e-13"]
 
 
 @pytest.mark.ngspice

@@ -166,6 +166,21 @@ def _set_supply(statements: tuple, setting: Setting) -> tuple[tuple, bool]:
     return tuple(out), found
 
 
+def _set_element(statements: tuple, setting: Setting) -> tuple[tuple, bool]:
+    """The value of the top-level resistor, capacitor or inductor ``setting.target`` (the token after its nodes) replaced."""
+    key, out, found = setting.target.lower(), [], False
+    for s in statements:
+        if isinstance(s, Element) and s.key == key:
+            if s.kind not in "RCL" or len(s.tokens) < 3 or "=" in s.tokens[2]:
+                raise CornerApplyError(f"{s.location}: {s.name} is not a resistor, capacitor or inductor with its value after its "
+                                       "nodes; an element setting changes such a value (a source's is supply.NAME, anything else "
+                                       "a .param the card uses)", setting)
+            s = replace(s, tokens=(*s.tokens[:2], setting.value, *s.tokens[3:]))
+            found = True
+        out.append(s)
+    return tuple(out), found
+
+
 def _set_temp(statements: tuple, celsius: str, where: SourceLocation) -> tuple:
     temp_opt = re.compile(r"(?:^|\s)temp\s*=\s*\S+", re.IGNORECASE)
     out = []
@@ -192,7 +207,7 @@ def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, ori
     ``.lib`` sections and include corner words: the top file is read again with the section word of that
     line, and the corner word in its include paths, replaced (``process`` settings arrive expanded into these).
     ``.param NAME``: every top-level definition of NAME gets the value. ``supply`` NAME: the DC value
-    of the top-level voltage source NAME. ``temp``: any ``.temp`` (and ``temp=`` option) is dropped
+    of the top-level voltage source NAME. ``element`` NAME: the value of the top-level R, C or L NAME. ``temp``: any ``.temp`` (and ``temp=`` option) is dropped
     and ``.temp VALUE`` added. ``seed`` (a statistical sample's): ``.option seed=VALUE`` first (`seed_line`).
     CornerApplyError when the netlist has no such line, parameter or source.
     """
@@ -211,6 +226,10 @@ def apply_settings(netlist: Netlist | str, settings: tuple[Setting, ...], *, ori
             statements, found = _set_supply(statements, s)
             if not found:
                 raise CornerApplyError(f"{nl.source} has no top-level voltage source {s.target!r}", s)
+        elif s.kind == "element":
+            statements, found = _set_element(statements, s)
+            if not found:
+                raise CornerApplyError(f"{nl.source} has no top-level resistor, capacitor or inductor {s.target!r}", s)
         elif s.kind == "temp":
             statements = _set_temp(statements, s.value, where)
         elif s.kind == "seed":

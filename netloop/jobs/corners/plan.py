@@ -15,8 +15,8 @@ from netloop.jobs.measure import METHODS, Sweep
 __all__ = ["AUTO", "IN_PLACE", "KINDS", "Axis", "CornerSpec", "Plan", "ProcessCorner", "Setting", "load_plan", "parse_plan", "read_plan_text"]
 
 AUTO = "auto"
-KINDS = ("netlist", "process", "lib", "include", "temp", "param", "supply")  # what a setting can change, in naming order
-IN_PLACE = ("temp", "param", "supply")  # kinds ngspice changes on a loaded circuit (netloop.sim.Change); the others need a load
+KINDS = ("netlist", "process", "lib", "include", "temp", "param", "supply", "element")  # what a setting can change, in naming order
+IN_PLACE = ("temp", "param", "supply", "element")  # kinds ngspice changes on a loaded circuit (netloop.sim.Change); the others need a load
 _PROCESS_KINDS = ("lib", "include")  # what a [process.NAME] table may set
 _TOP_KEYS = frozenset("netlist at driver method require open_loop_rhp_poles timeout_s share_loads sweep process axes corner units regression".split())
 _SWEEP_KEYS = frozenset("fmin_hz fmax_hz points_per_decade".split())
@@ -30,6 +30,7 @@ class Setting:
              "lib" (value: a section; target: the .lib line, by its file or its section as written, "" for the only one),
              "include" (target: the corner word as the netlist's include paths write it; value: the word that replaces it),
              "temp" (value: degrees C as text), "param" (target: the .param name), "supply" (target: a V source),
+             "element" (target: a top-level resistor, capacitor or inductor; value: its value, a number),
              "seed" (value: ngspice's random seed, a whole number: a statistical sample's, netloop.jobs.statistics;
              never written in a plan)
     """
@@ -102,7 +103,7 @@ class Plan:
     corners: tuple[CornerSpec, ...]  # explicit list, run after the product
     text: str  # the plan's text, for finding lines of semantic errors
     processes: tuple[ProcessCorner, ...] = ()  # the [process.NAME] tables, in plan order
-    share_loads: bool = True  # corners that differ only in temp, supply and .param values share a loaded circuit
+    share_loads: bool = True  # corners that differ only in temp, supply, .param and element values share a loaded circuit
     units: tuple[tuple[str, str], ...] = ()  # [units]: a setting's unit on maps ("iload", "A")
     limits: tuple = ()  # [regression]: netloop.jobs.runs.Limit, how much worse than a baseline a figure may get
     baseline: str = ""  # [regression] baseline: the results file to compare with (absolute path), "" for none
@@ -200,15 +201,16 @@ def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many:
             continue
         if kinds is not None and kind not in kinds:
             raise PlanError(f"{where}: a process corner sets {' and '.join(kinds)} only, not {key!r}; other settings belong in [axes] or [[corner]]")
-        if kind in ("lib", "include", "param", "supply") and isinstance(raw, dict):
+        if kind in ("lib", "include", "param", "supply", "element") and isinstance(raw, dict):
             targets = raw.items()
         elif kind in ("netlist", "temp", "lib", "process"):
             targets = (("", raw),)
         elif kind == "include":
             example = '["tt", "ss"]' if many else '"ss"'
             raise PlanError(f"{where}: include needs the corner word the netlist's include paths hold, e.g. include.tt = {example}")
-        elif kind in ("param", "supply"):
-            raise PlanError(f"{where}: {key} needs a name, e.g. {key}.vdd = {'[3.0, 3.3]' if many else '3.0'}")
+        elif kind in ("param", "supply", "element"):
+            name, values = ("cl", '["1p", "3p"]' if many else '"3p"') if kind == "element" else ("vdd", "[3.0, 3.3]" if many else "3.0")
+            raise PlanError(f"{where}: {key} needs a name, e.g. {key}.{name} = {values}")
         else:
             raise PlanError(f"{where}: unknown setting {key!r}; expected one of {', '.join(KINDS)}")
         key_line = line
@@ -224,7 +226,7 @@ def _settings(table: dict, path: str, text: str, section: tuple[str, ...], many:
                 raise PlanError(f"{where}: {what} takes one value in a [[corner]]; lists belong in [axes]")
             texts = []
             for v in values:
-                if kind == "temp" or kind == "supply":
+                if kind in ("temp", "supply", "element"):
                     texts.append(_number_text(v, where, what))
                 elif kind == "netlist":
                     p = _as_text(v, where, what)

@@ -16,6 +16,7 @@ from netloop.netlist import parse_value
 __all__ = ["KIND_UNITS", "Line", "NumericAxis", "Plane", "lines_along", "numeric_axes", "planes", "setting_label", "setting_number"]
 
 KIND_UNITS = {"temp": "°C", "supply": "V"}
+ELEMENT_UNITS = {"r": "Ω", "c": "F", "l": "H"}  # an element setting's unit, by the element's letter
 """The unit of a setting kind's values; a .param's unit is what the plan's [units] table gives, else none."""
 
 LOG_SPAN = 10.0
@@ -97,7 +98,8 @@ def numeric_axes(records: tuple[dict, ...], units: dict[str, str] | None = None)
         ordered = tuple(sorted(values))
         log = ordered[0] > 0 and ordered[-1] / ordered[0] >= LOG_SPAN
         kind = key.partition(".")[0]
-        unit = units.get(key.lower(), units.get(_name(key).lower(), KIND_UNITS.get(kind, "")))
+        default = ELEMENT_UNITS.get(_name(key)[:1].lower(), "") if kind == "element" else KIND_UNITS.get(kind, "")
+        unit = units.get(key.lower(), units.get(_name(key).lower(), default))
         out.append(NumericAxis(key, _name(key), unit, ordered, log))
     return tuple(out)
 

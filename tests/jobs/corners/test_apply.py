@@ -51,6 +51,23 @@ def test_supply_setting_needs_a_voltage_source(tmp_path):
         apply_settings(str(src), (Setting("param", "k", "2"),))
 
 
+def test_element_setting_replaces_the_value_after_the_nodes(tmp_path):
+    """element.NAME gives an R, C or L card the new value in place of the one after its nodes (a {...} group too), its
+    other words kept: the copy a designer edits by hand."""
+    text = "t\n.param c0=1p\nR1 a b 10k tc1=1e-3\nC1 b 0 {2*c0}\nL1 a 0 1u ic=0\nV1 a 0 dc 1\n.end\n"
+    settings = (Setting("element", "r1", "4.7k"), Setting("element", "c1", "3p"), Setting("element", "l1", "2.2u"))
+    ours, hand = _both(tmp_path, text, settings, lambda t: t.replace("10k tc1", "4.7k tc1").replace("{2*c0}", "3p").replace("1u ic", "2.2u ic"))
+    assert ours == hand
+    src = tmp_path / "c.cir"
+    bad = Setting("element", "v1", "2")
+    with pytest.raises(CornerApplyError) as info:
+        apply_settings(str(src), (bad,))
+    assert str(info.value).startswith(f"{src}:6:1: V1 is not a resistor, capacitor or inductor") and info.value.setting is bad
+    src.write_text("t\nR1 a 0 r=10k\n.end\n")
+    with pytest.raises(CornerApplyError, match=r"R1 is not a resistor, capacitor or inductor with its value after its nodes"):
+        apply_settings(str(src), (Setting("element", "r1", "1k"),))
+
+
 def test_library_line_chosen_by_file_or_section(tmp_path):
     """With two .lib lines, lib.FILE or lib.SECTION picks one; no name, or a name matching neither, is refused listing the lines."""
     (tmp_path / "n.lib").write_text(".lib tt\n.param kn=1\n.endl\n.lib ss\n.param kn=2\n.endl\n")
@@ -68,3 +85,33 @@ def test_library_line_chosen_by_file_or_section(tmp_path):
     src.write_text("t\nR1 a 0 1k\n.end\n")
     with pytest.raises(CornerApplyError, match=r"c\.cir has no '\.lib FILE SECTION' line of its own to change"):
         apply_settings(str(src), (Setting("lib", "", "ss"),))
+
+
+def test_worker_reads_a_corner_once_until_a_file_it_read_changes(tmp_path, monkeypatch):
+    """corner_netlist gives what apply_settings gives for every sample of a corner (the reference: the uncached path),
+    reads the files once for all of them, and reads them again when an included library changes (its size and
+    modification time, as os.stat reports them)."""
+    from netloop.jobs.corners import worker
+    from netloop.jobs.corners.expand import Corner
+
+    (tmp_path / "lib.inc").write_text(".lib typ\n.param k=1\n.endl typ\n.lib hot\n.param k=2\n.endl hot\n")
+    (tmp_path / "c.cir").write_text("t\n.lib lib.inc typ\nR1 n 0 {1k*k}\nV1 n 0 dc 1\n.end\n")
+    monkeypatch.setattr(worker, "_READ", {})
+    reads = []
+    real = worker.apply_settings
+    monkeypatch.setattr(worker, "apply_settings", lambda nl, s: reads.append(isinstance(nl, str)) or real(nl, s))
+
+    def sample(seed: int) -> Corner:
+        return Corner(f"hot#{seed}", str(tmp_path / "c.cir"), (Setting("lib", "lib.inc", "hot"), Setting("temp", "", "85"),
+                                                                Setting("seed", "", str(seed))), 1)
+
+    def same(seed: int) -> tuple:
+        ours, reference = worker.corner_netlist(sample(seed)), real(sample(seed).netlist, sample(seed).settings)
+        assert ours.statements == reference.statements and write_netlist(ours) == write_netlist(reference)
+        return tuple(getattr(s, "text", "") for s in ours.statements)
+
+    for seed in (1, 2, 3):
+        assert ".option seed=%d" % seed in same(seed) and ".param k=2" in same(seed)
+    assert reads.count(True) == 1  # the files read once, for the first sample
+    (tmp_path / "lib.inc").write_text(".lib typ\n.param k=1\n.endl typ\n.lib hot\n.param k=3.5\n.endl hot\n")
+    assert ".param k=3.5" in same(4) and reads.count(True) == 2

@@ -79,6 +79,8 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('method = "guess"\n', "method", "method must be one of"),
         ('[axes]\ntemp = ["hot"]\n', "temp", "must be a number"),
         ('[axes]\nparam = ["1p"]\n', "param", "needs a name"),
+        ('[axes]\nelement = ["1p"]\n', "element", r"needs a name, e\.g\. element\.cl"),
+        ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
     ],
 )
@@ -95,6 +97,8 @@ def test_semantic_errors_point_at_the_offending_key(tmp_path, body, key, expecte
     [
         ('param.nosuch = ["1"]', "no top-level '.param nosuch"),
         ('supply.vnone = [1.0]', "no top-level voltage source 'vnone'"),
+        ('element.rnone = ["1k"]', "no top-level resistor, capacitor or inductor 'rnone'"),
+        ('element.m6 = ["1k"]', "M6 is not a resistor, capacitor or inductor"),
         ('lib = ["xx"]', "has no section 'xx'"),
     ],
 )

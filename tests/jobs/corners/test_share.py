@@ -60,22 +60,24 @@ def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
 
 @pytest.mark.ngspice
 def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(tmp_path):
-    """Eight corners of one section (temperature, supply, a .param) run one after the other in one worker: with share_loads
-    one load serves all eight and each corner's sampled T and margins are bit for bit those of one load per corner."""
-    plan, tasks = _tasks(tmp_path, '[axes]\ntemp = [-40, 125]\nsupply.vdd = [3.0, 3.6]\nparam.cc = ["0.9p", "1.5p"]\n')
+    """Sixteen corners of one section (temperature, supply, a .param, an element's value) run one after the other in one
+    worker: with share_loads one load serves all sixteen and each corner's sampled T and margins are bit for bit those of
+    one load per corner (ngspice's own fresh load is the reference)."""
+    plan, tasks = _tasks(tmp_path, '[axes]\ntemp = [-40, 125]\nsupply.vdd = [3.0, 3.6]\nparam.cc = ["0.9p", "1.5p"]\n'
+                                   'element.cl = ["2p", "4.7p"]\n')
     records = {}
     for share in (True, False):
         close_simulator()
         records[share] = [run_task(t, TaskOptions(share_loads=share))[0] for t in tasks]
     close_simulator()
-    assert [r["loads"] for r in records[True]] == [1, 0, 0, 0, 0, 0, 0, 0]
-    assert [r["loads"] for r in records[False]] == [1] * 8
+    assert [r["loads"] for r in records[True]] == [1] + [0] * 15
+    assert [r["loads"] for r in records[False]] == [1] * 16
     for shared, fresh in zip(records[True], records[False]):
         f1, t1 = _t(shared["loop"])
         f2, t2 = _t(fresh["loop"])
         assert np.array_equal(f1, f2) and np.array_equal(t1, t2), shared["corner"]
         assert shared["loop"]["margins"] == fresh["loop"]["margins"]
-    assert len({r["loop"]["margins"]["phase_margin_deg"] for r in records[True]}) == 8  # every corner really differs
+    assert len({r["loop"]["margins"]["phase_margin_deg"] for r in records[True]}) == 16  # every corner really differs
 
 
 @pytest.fixture(scope="module")
@@ -189,3 +191,28 @@ def test_sky130_plan_sections_equal_check_on_netlists_edited_by_hand(tmp_path, s
         return [(f"{process} tt\n", f"{process} {settings['lib']}\n")]
 
     _compare_with_hand_edits(run.records, netlist, "fb", "r1.n,r2.p", edits)
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("share", [True, False])
+def test_progress_and_summary_count_the_loads(tmp_path, scheduler, capsys, share):
+    """`netloop corners --progress` on two sections x two temperatures: the bar and the summary say how often ngspice read
+    the netlist and how many corners ran on a loaded circuit: two loads (one per section, the plan's only load-needing
+    axis) with share_loads, four without, as the records' own counts say."""
+    from netloop.cli.main import main
+    from netloop.jobs.corners import read_records
+
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{MILLER}"\nat = "out"\nshare_loads = {str(share).lower()}\n\n'
+                    '[axes]\nlib = ["tt", "ss"]\ntemp = [27, 85]\n')
+    out = tmp_path / "r.jsonl"
+    assert main(["corners", str(plan), "--cluster", scheduler, "--out", str(out), "--progress"]) == 0
+    printed = capsys.readouterr()
+    records = [r for r in read_records(out)[0] if r["record"] == "corner"]
+    loads, shared = (2, 2) if share else (4, 0)
+    assert sum(r["loads"] for r in records) == loads and sum(r["loads"] == 0 for r in records) == shared
+    assert f"4/4 corners, 0 failed, {loads} loads ({shared} corners on a loaded circuit)" in printed.err.split("\r")[-1]
+    summary = f"circuit loads: {loads} for 4 corners"
+    if share:
+        summary += "; 2 ran on a circuit another corner had loaded, with its temperature, supplies, parameters or element values changed in place (share_loads)"
+    assert summary + "\n" in printed.out

@@ -27,6 +27,14 @@ def test_numeric_settings_become_axes_with_units_and_scale():
     assert axes[0].values == (-40.0, 27.0, 125.0)
 
 
+def test_element_settings_carry_the_unit_of_their_element_letter():
+    """An element setting's axis is in ohms, farads or henries by its element's letter (SI units), unless the plan's
+    [units] names another."""
+    run = tuple(_rec(element_rz=r, element_cl=c, element_l1=h) for r, c, h in (("1k", "1p", "1u"), ("2k", "3p", "2u")))
+    assert [(a.key, a.unit) for a in numeric_axes(run)] == [("element.rz", "Ω"), ("element.cl", "F"), ("element.l1", "H")]
+    assert [a.unit for a in numeric_axes(run, {"cl": "pF"})] == ["Ω", "pF", "H"]
+
+
 def test_lines_hold_the_corners_equal_in_every_other_setting_in_a_fixed_order():
     """Along iload: one line per (lib, temp), three corners each, ascending; the lines are ordered by their settings
     (numbers by value) whatever order the records came in (a results file is in the order corners finished)."""
