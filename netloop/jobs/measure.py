@@ -22,6 +22,7 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, pz_check, second_break_check, settle_split
+from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
@@ -439,26 +440,56 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
     extra = 0.0
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
+    structure: list[LoopStructure] = []  # the loop search, done once and only when a split must be judged by it
 
-    def measure_coarse(place: Mapping[str, str]) -> Trial | None:
+    def opens(trial: Trial) -> Trial:
+        """The trial with the check "opens-loop" when its T does not regulate: a split that opens no loop measures none."""
+        if trial.analysis.regulates:
+            return trial
+        if not structure:
+            structure.append(LoopStructure(parsed, at))
+        return replace(trial, opens=structure[0].opens_check(trial.at or at, trial.placement))
+
+    def names() -> list[str]:
+        """The net's deeper name inside the block that drives it, when the split under the name given is doubted."""
+        if not structure:
+            structure.append(LoopStructure(parsed, at))
+        alias = structure[0].alias(at)
+        return [alias] if alias else []
+
+    full: dict[int, tuple[SimInfo, tuple[str, ...]]] = {}  # trials measured in full: id -> (SimInfo, warnings)
+
+    def measure_other(place: Mapping[str, str], name: str | None = None, coarse: bool = False) -> Trial | None:
+        """Another split measured: coarse for a second opinion, in full (refined: its Nyquist data must hold) for a
+        split that may be reported instead."""
         nonlocal extra
         try:
-            other = break_loop(parsed, at, placement=place)
+            other = break_loop(parsed, name or at, placement=place)
         except ProbeError:
             return None
-        a, i, _ = measure_probed(other, **coarse_options)
+        a, i, w = measure_probed(other, **(coarse_options if coarse else options))
         extra += i.seconds
-        return Trial(place, other, a)
+        trial = opens(Trial(place, other, a, name or ""))
+        if not coarse:
+            full[id(trial)] = (i, w)
+        return trial
+
+    def measure_coarse(place: Mapping[str, str], name: str | None = None) -> Trial | None:
+        return measure_other(place, name, coarse=True)
 
     checks: list[Check] = []
     first = Trial({}, probed, analysis)
     if free:
-        chosen, split_check, _ = settle_split(first, measure_coarse)
-        if chosen is not None:
-            _log.info("measuring the loop again with %s", split_check.detail.split(":")[0])
-            other = break_loop(parsed, at, placement=chosen.placement)
-            analysis, info, sim_warnings = measure_probed(other, **options)
+        first = opens(first)
+        chosen, split_check, _ = settle_split(first, measure_other, names)
+        if chosen is not None:  # measured in full already; its seconds are in ``extra`` with the other trials'
+            analysis, (i, sim_warnings), other = chosen.analysis, full[id(chosen)], chosen.probed
+            info = replace(i, seconds=info.seconds)
             probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
+            if chosen.opens is not None:
+                checks.append(chosen.opens)
+        elif first.opens is not None:
+            checks.append(first.opens)
         if split_check is not None:
             checks.append(split_check)
         elif not first.failed:

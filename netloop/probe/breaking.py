@@ -122,10 +122,13 @@ def _into_instance(netlist: Netlist, scope: Scope, node: str, terminals: tuple[T
     return scope, node, terminals
 
 
-def _outside(netlist: Netlist, scope: Scope, node: str, ac_ground, globals_) -> Terminal | None:
+def _outside(netlist: Netlist, scope: Scope, node: str, ac_ground, globals_, inside_drives: bool = False) -> Terminal | None:
     """For a node inside an instance that is one of its pins: the rest of the net outside the instance, as one terminal
-    (PIN_ELEMENT) whose role is that of what sits out there, at every level up (a driver when anything drives it). None
-    for any other node, or when nothing outside connects to the pin."""
+    (PIN_ELEMENT) whose role is that of what sits out there, at every level up: a driver when anything drives it, unless
+    the instance drives the net itself (``inside_drives``) and inputs sit out there too: the rest of the net is then
+    where the signal goes on, a load (an output out there, such as a start-up device beside the block, is one more
+    source of current into the node, which cannot leave the net's loads behind on the driver side). None for any other
+    node, or when nothing outside connects to the pin."""
     if not scope.path or node not in scope.definitions[-1].pins:
         return None
     roles: list[str] = []
@@ -144,7 +147,9 @@ def _outside(netlist: Netlist, scope: Scope, node: str, ac_ground, globals_) -> 
         inner = parent
     if not labels:
         return None
-    role = "driver" if "driver" in roles else "cg" if "cg" in roles else "shunt" if set(roles) == {"shunt"} else "load"
+    loads_too = inside_drives and "load" in roles
+    role = ("driver" if "driver" in roles and not loads_too else "cg" if "cg" in roles and not loads_too
+            else "shunt" if set(roles) == {"shunt"} else "load")
     shown = ", ".join(labels[:3]) + (f" and {len(labels) - 3} more" if len(labels) > 3 else "")
     return Terminal(PIN_ELEMENT, -1, node, role, f"{'.'.join((*scope.path, node))} outside {scope.path[-1]} ({shown})",
                     fed=", ".join(fed) if role == "load" else "")
@@ -200,7 +205,7 @@ def locate_split(netlist: Netlist, at: str, *, driver: str | None = None, ac_gro
     if driver is not None:
         scope, node = _scope_of_driver(netlist, scope, node, driver, globals_)
     terminals = terminals_at(netlist, scope, node, ac_ground, globals_)
-    outside = _outside(netlist, scope, node, ac_ground, globals_)
+    outside = _outside(netlist, scope, node, ac_ground, globals_, any(t.role == "driver" for t in terminals))
     if outside is not None:
         terminals = (*terminals, outside)
     else:

@@ -62,6 +62,8 @@ class Terminal:
     via: str = ""  # for a series voltage source: what sits on its far side ("m5.d")
     whole: bool = False  # one of several (non-bulk) terminals of one element on the node: the element is one unit
     fed: str = ""  # for the net outside an instance: its passive elements that bring the signal from an output ("rf2.n")
+    tied: str = ""  # the label of a series voltage source at the node whose far side holds another terminal of this element:
+    # the element is one unit across the source (a diode connected through a 0 V sense source), so it goes with the source
 
 
 @dataclass(frozen=True, slots=True)
@@ -186,8 +188,11 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
     voltage source takes the role of what sits on its far side (looked through, as far as it goes).
     """
     out = []
+    sources: list[Element] = []  # the voltage sources of the scope: they join nodes for AC
     for e in elements_of(netlist, scope):
         nodes = e.nodes
+        if e.kind == "V":
+            sources.append(e)
         if node not in nodes:
             continue
         pins = _device_pins(netlist, scope, e)
@@ -209,6 +214,48 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
                 role, via = _through_source(netlist, scope, node, e, ac_ground, globals_, depth, _through | {node})
         whole = len(main) > 1
         out.extend(Terminal(e, k, p, role, f"{scope.label(e)}.{p}", via, whole) for k, p in zip(slots, pin_of))
+    return _units_across_sources(netlist, scope, node, tuple(out), sources, ac_ground, globals_)
+
+
+def _units_across_sources(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], sources: list[Element],
+                          ac_ground, globals_) -> tuple[Terminal, ...]:
+    """The terminals with each element that also sits beyond a series voltage source at the node made one unit with that
+    source: a 0 V source has no AC impedance, so a transistor whose drain is beyond it and whose gate is on the node is
+    diode-connected (a one-port to AC ground when its other terminals are there), and it goes to the source's side whole."""
+    ours = [t for t in terminals if t.role == "series" or t.via or (t.element.kind == "V" and t.slot >= 0)]
+    if not ours:
+        return terminals
+    # the nodes each source terminal at the node joins to it, through chains of voltage sources
+    joined: dict[str, str] = {}  # joined node -> the label of the source terminal at the node that leads there
+    for t in ours:
+        if t.element.kind != "V":
+            continue
+        todo = [n for n in t.element.nodes if n != node]
+        while todo:
+            n = todo.pop()
+            if n in joined or n == node or _grounded(scope, n, ac_ground, globals_):
+                continue
+            joined[n] = joined.get(n, t.label)
+            for v in sources:
+                if n in v.nodes:
+                    todo.extend(m for m in v.nodes if m != n and m not in joined)
+    if not joined:
+        return terminals
+    out = []
+    for t in terminals:
+        e = t.element
+        if t.slot < 0 or e.kind == "V":
+            out.append(t)
+            continue
+        pins = _device_pins(netlist, scope, e)
+        signal = [n for k, n in enumerate(e.nodes) if not (k < len(pins) and pins[k] in _BULK)]
+        across = [n for n in signal if n in joined]
+        if not across:
+            out.append(t)
+            continue
+        rest = [n for n in signal if n != node and n not in joined]
+        role = "shunt" if all(_grounded(scope, n, ac_ground, globals_) for n in rest) else "load"
+        out.append(replace(t, role=role, whole=True, tied=joined[across[0]]))
     return tuple(out)
 
 
@@ -490,7 +537,8 @@ def _matches(spec: str, t: Terminal, scope: Scope) -> bool:
 def _whole(terminals: tuple[Terminal, ...], chosen: list[Terminal]) -> list[Terminal]:
     """The chosen terminals and every other terminal of the same elements on the node (an element goes whole)."""
     ids = {id(t.element) for t in chosen if t.whole}
-    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids)]
+    labels = {t.label for t in chosen} | {t.tied for t in chosen if t.tied}  # a source and what is one unit across it
+    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids) or t.label in labels or t.tied in labels]
 
 
 def _given_split(name: str, terminals: tuple[Terminal, ...], driver: str, listing: str, scope: Scope) -> Split:
@@ -529,9 +577,11 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     listing = ", ".join(f"{t.label} ({t.role})" for t in terminals)
     if driver is not None:
         return _given_split(name, terminals, driver, listing, scope)
-    drivers = [t for t in terminals if t.role == "driver"]
-    shunt = [t for t in terminals if t.role == "shunt"]
-    loads = [t for t in terminals if t.role in ("load", "cg")]
+    tied = [t for t in terminals if t.tied]  # one unit with a series source at the node: they follow it (below)
+    free = [t for t in terminals if not t.tied]
+    drivers = [t for t in free if t.role == "driver"]
+    shunt = [t for t in free if t.role == "shunt"]
+    loads = [t for t in free if t.role in ("load", "cg")]
     how = "outputs"
     if not drivers:  # a divider tap, a feedback capacitor at an amplifier's input, and a switch beside it
         near = _Neighbourhood(netlist, scope, ac_ground, globals_)
@@ -578,8 +628,12 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     if not loads:
         raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
     bridges = tuple(dict.fromkeys(b for _, b, _ in placed))
-    text = _sentence(drivers, moved, loads, shunt, bridges, how)
-    return Split(tuple([*drivers, *moved]), tuple(loads), tuple(shunt), text, bridges)
+    on_driver = {t.label for t in (*drivers, *moved)}
+    with_driver = [t for t in tied if t.tied in on_driver]
+    loads += [t for t in tied if t.tied not in on_driver and t.role != "shunt"]
+    shunt += [t for t in tied if t.tied not in on_driver and t.role == "shunt"]
+    text = _sentence(drivers, moved, loads, shunt, bridges, how, tied)
+    return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges)
 
 
 def _fed(near: _Neighbourhood, node: str, loads) -> list[Terminal]:
@@ -599,7 +653,7 @@ def fed_terminals(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Te
     return tuple(_fed(_Neighbourhood(netlist, scope, ac_ground, globals_), node, [t for t in terminals if t.role == "load"]))
 
 
-def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
+def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
     """decided_by: one sentence a designer can check against the schematic."""
     if how == "through":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these bring the signal "
@@ -622,7 +676,10 @@ def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
     for b in bridges:
         if b.side == "load" and b.reason:
             parts.append(f"{b.element} on the load side ({b.reason})")
-    return "; ".join(parts) + _shunt_note(tuple(shunt)) + "."
+    for t in tied:
+        parts.append(f"{t.label} goes with {t.tied}: its element has another terminal beyond that source, which has no AC "
+                     "impedance, so it is one unit across it" + (" (diode-connected)" if t.role == "shunt" else ""))
+    return "; ".join(parts) + _shunt_note(tuple(t for t in shunt if not t.tied)) + "."
 
 
 def _switch_like(near: _Neighbourhood, e: Element) -> bool:
