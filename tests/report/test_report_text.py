@@ -196,3 +196,14 @@ def test_check_and_compare_name_the_same_dominant_pole():
     assert poles.dominant_freq_hz * W == pytest.approx(abs(pair), rel=1e-3)
     assert poles.dominant_damping == pytest.approx(-pair.real / abs(pair), rel=1e-3)
     assert dominant_pole(r) == pytest.approx(pair, rel=1e-3)
+
+
+def test_a_crossover_row_names_the_closed_loop_gain_it_shows():
+    """The figure on a gain-crossover row is |T/(1+T)| there (issue 15.14), -3.0 dB for the two-stage loop's PM of 67 deg
+    by the closed form |1 / (1 + e^{-j(180 - PM)})| at |T| = 1; the row names it so and never calls it peaking."""
+    text = format_text(make_result(two_stage))
+    row = next(line for line in text.splitlines() if " down " in line and "PM" in line)
+    pm = math.radians(make_result(two_stage).analysis.margins.phase_margin_deg)
+    expected = 20 * math.log10(1 / abs(1 + complex(math.cos(math.pi - pm), -math.sin(math.pi - pm))))
+    assert re.search(rf"\|T/\(1\+T\)\| +{expected:.2f} dB", row)
+    assert "peaking" not in row
