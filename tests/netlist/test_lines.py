@@ -47,6 +47,9 @@ def test_unclosed_control_block_runs_to_the_end_of_the_file():
     ("R1 a b 1k\n+ ; nothing but a comment\nR2 b 0 1\n", ["R1 a b 1k", "R2 b 0 1"]),
     ("R1 a b\n+ 1k ; the value\n\n   \n* note\nR2 b 0 1\n", ["R1 a b 1k", "R2 b 0 1"]),
     ("; only a comment\nR2 b 0 1\n", ["R2 b 0 1"]),
+    ("R1 a b 1k ; one ; two\n", ["R1 a b 1k"]),  # the first ; ends the card
+    ("C1 a 0\n+10p\n", ["C1 a 0 10p"]),  # '+' with no space, as in the ngspice listing test above
+    ("R1 a b 1k\nR2 b 0\n+ 2k\n", ["R1 a b 1k", "R2 b 0 2k"]),  # the last statement continued once
 ])
 def test_logical_lines_strip_comments_and_join_continuations(text, expected):
     """Whether or not a file needs the slow path (comments, continuations), the statements come out the same."""
