@@ -204,3 +204,20 @@ def test_unsettled_bottom_claims_no_dc_feedback_sign():
     assert abs(math.degrees(np.angle(a.t[0]))) > 90  # nearer 180 than 0, yet T(0) = 2.5 > 0
     assert not any("positive feedback" in w for w in a.warnings)
     assert all(c.freq_hz > 0 for c in a.phase_crossovers)
+
+
+@pytest.mark.parametrize("loop, lo_hz, is_dc", [
+    (100 / (S + 1), 1e-4, True),  # swept three decades below its pole: flat, phase -0.04 deg
+    (100 / (S / (TWO_PI * 1e-3) + 1), 1e-4, True),  # pole a decade above the bottom: -0.04 dB/decade, -5.7 deg
+    (100 / (S / (TWO_PI * 1e-4) + 1), 1e-4, False),  # pole at the bottom: -3 dB/decade, -45 deg
+    (100 / (S + 1), 10.0, False),  # swept above its pole: -20 dB/decade
+    (-100 / (S + 1), 1e-4, True),  # positive feedback at DC: flat, on the negative real axis
+    (100 / S / (S / 10 + 1), 1e-4, False),  # an integrator: no DC gain at all
+    (100 * S / (S + TWO_PI * 1e-5) / (S / 10 + 1), 1e-4, False),  # AC coupling a decade below the bottom: +5.7 deg of lead
+])
+def test_gain_at_the_bottom_stands_for_dc_only_when_t_is_flat_there(loop, lo_hz, is_dc):
+    """|T| at the lowest frequency is the DC loop gain only without integrators, with T flat there (closed forms of a single
+    pole p at f: slope and phase -atan(f/p); a pole a decade above the bottom leaves -0.04 dB/decade and -5.7 deg, one at the
+    bottom -3 dB/decade and -45 deg) and without an AC coupling's lead (atan(10) - 90 = +5.7 deg a decade above its zero)."""
+    a = analyse(*sample(loop, lo_hz, 1e4), fit_poles=False)
+    assert a.gain_is_dc is is_dc
