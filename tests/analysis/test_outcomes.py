@@ -123,15 +123,18 @@ def test_nan_or_infinite_samples_raise_analysis_error(bad):
 @pytest.mark.parametrize(
     "freq,t,message",
     [
-        ([1, 2, 3], [1, 1, 1], "at least 4"),
-        ([1, 3, 2, 4], [1, 1, 1, 1], "strictly ascending"),
-        ([0, 1, 2, 3], [1, 1, 1, 1], "positive"),
-        ([1, 2, 3, 4], [1, 1, 1], "T has 3"),
-        ([[1, 2], [3, 4]], [[1, 1], [1, 1]], "one-dimensional"),
+        ([1, 2, 3], [1, 1, 1], r"^need at least 4 frequency samples to analyse a loop, got 3$"),
+        ([1, 3, 2, 4], [1, 1, 1, 1], r"^frequencies must be strictly ascending: sample 2 \(2 Hz\) follows 3 Hz$"),
+        ([0, 1, 2, 3], [1, 1, 1, 1], r"^frequencies must be finite and positive \(Hz\)$"),
+        ([1, 2, float("inf"), 4], [1, 1, 1, 1], r"^frequencies must be finite and positive \(Hz\)$"),
+        ([1, 2, 3, 4], [1, 1, 1], r"^freq_hz has 4 samples but T has 3; expected one T per frequency$"),
+        ([[1, 2], [3, 4]], [[1, 1], [1, 1]], r"^expected one-dimensional arrays, got freq_hz of shape \(2, 2\) and T of shape \(2, 2\)$"),
+        (["1", "2", "x", "4"], [1, 1, 1, 1], r"^frequencies must be real numbers in Hz: "),
+        ([1, 2, 3, 4], [1, 1, "x", 1], r"^the return ratio T must be complex numbers: "),
     ],
 )
 def test_malformed_data_says_what_was_expected(freq, t, message):
-    """Malformed arrays raise AnalysisError with a message that names the fault."""
+    """Malformed arrays raise AnalysisError with one message that names the fault and what was expected (house rule on bad input)."""
     with pytest.raises(AnalysisError, match=message):
         analyse(freq, t)
 
