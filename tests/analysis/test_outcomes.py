@@ -224,3 +224,27 @@ def test_gain_at_the_bottom_stands_for_dc_only_when_t_is_flat_there(loop, lo_hz,
     bottom -3 dB/decade and -45 deg) and without an AC coupling's lead (atan(10) - 90 = +5.7 deg a decade above its zero)."""
     a = analyse(*sample(loop, lo_hz, 1e4), fit_poles=False)
     assert a.gain_is_dc is is_dc
+
+
+def _db(loop, f_hz: float) -> float:
+    """20 log10 |L(j 2 pi f)| of a python-control transfer function (the closed form the messages quote)."""
+    return 20 * math.log10(abs(complex(loop(TWO_PI * 1j * f_hz))))
+
+
+def test_warnings_quote_their_figures():
+    """Each documented warning is one sentence carrying its figure, here equal to the closed form of the loop it is about:
+    the most |T| reaches for a loop that does not regulate; |T| at the top of a sweep ended too early; the AC coupling
+    whose crossover lies below the sweep; positive feedback at DC."""
+    weak = 0.5 / (S + 1) ** 2
+    a = analyse(*sample(weak, 1e-3, 1e3), fit_poles=False)
+    assert f"the loop gain never reaches 0 dB (at most {_db(weak, 1e-3):.4g} dB): the loop does not regulate" in a.warnings
+    early = 100 / (S + 1)
+    a = analyse(*sample(early, 1e-3, 1e2), fit_poles=False)
+    assert (f"|T| at the top of the sweep ({_db(early, 1e2):.3g} dB at 100 Hz) is not far below 1; extend the sweep until "
+            "it is under -20 dB") in a.warnings
+    coupled = 1e4 * S / (S / 1e3 + 1) ** 2
+    a = analyse(*sample(coupled, 1e-3, 1e5), fit_poles=False)
+    assert "|T| is above 1 at 0.001 Hz but falls toward DC (AC coupling): a crossover lies below the sweep" in a.warnings
+    assert _db(coupled, 1e-3) > 0  # closed form: 1e4 * 2 pi 1e-3 = 63 at the bottom
+    a = analyse(*sample(-5 / (S + 1), 1e-4, 1e4), fit_poles=False)
+    assert "T is negative at low frequency: positive feedback at DC" in a.warnings
