@@ -248,3 +248,12 @@ def test_warnings_quote_their_figures():
     assert _db(coupled, 1e-3) > 0  # closed form: 1e4 * 2 pi 1e-3 = 63 at the bottom
     a = analyse(*sample(-5 / (S + 1), 1e-4, 1e4), fit_poles=False)
     assert "T is negative at low frequency: positive feedback at DC" in a.warnings
+
+
+@pytest.mark.parametrize("p", [-1, 1.5])
+def test_a_given_p_must_be_a_count(p):
+    """P, the open-loop right-half-plane pole count given by the caller, is a whole number >= 0 (a count of poles); anything
+    else is refused with what was expected."""
+    with pytest.raises(AnalysisError, match=rf"^open_loop_rhp_poles must be a whole number >= 0, got {p!r}$"):
+        analyse(*sample(THREE_POLE, 1e-2, 1e2), open_loop_rhp_poles=p)
+    assert analyse(*sample(THREE_POLE, 1e-2, 1e2), open_loop_rhp_poles=2.0, fit_poles=False).nyquist.open_loop_rhp_poles == 2
