@@ -139,3 +139,19 @@ def test_misnamed_ends_of_an_included_library_are_folded_once(tmp_path):
     assert nl.warnings == ("b.cir:7:1: .ends theirs closes .subckt mine (the innermost open definition)",
                            "5 warning(s) about library content the circuit does not use (5 .ends naming another definition; "
                            "in lib.spice); each is listed in library_warnings (--json)")
+
+
+def test_folded_library_warnings_count_each_kind_and_name_the_files(tmp_path):
+    """Warnings from cells the circuit never reaches are folded into one line counted by kind (undefined model, undefined
+    subcircuit, .ends naming another definition) naming the first file and how many more; a cell reached only through
+    another cell's instance is reached, so its warnings stay the circuit's own (counted here by hand from the two files)."""
+    lib1, lib2 = tmp_path / "one.spice", tmp_path / "two.spice"
+    lib1.write_text(".subckt cella a\nxa a cellb\n.ends cella\n.subckt cellc a\nd1 a 0 dnone\n.ends cellc\n")
+    lib2.write_text(".subckt cellb a\nxb a missing\n.ends cellb\n.subckt celld a\nxd a gone\n.ends wrongname\n")
+    nl = parse_text(f"t\n.include {lib1}\n.include {lib2}\nx1 n cella\nv1 n 0 1\n", source="b.cir")
+    # own: cellb's card (reached through cella); library: the .ends (read first), cellc's diode, celld's instance
+    assert nl.warnings == (
+        f"{lib2}:2:1: xb: undefined subcircuit 'missing'",
+        "3 warning(s) about library content the circuit does not use (1 .ends naming another definition, 1 undefined model, "
+        "1 undefined subcircuit; in two.spice and 1 more file(s)); each is listed in library_warnings (--json)")
+    assert [w.split(": ", 1)[0] for w in nl.library_warnings] == [f"{lib2}:6:1", f"{lib1}:5:1", f"{lib2}:5:1"]

@@ -77,3 +77,14 @@ def test_token_columns_are_one_based_starts():
     text = "  R1  a\tb 1k"
     assert token_columns(text) == [text.index("R1") + 1, text.index("a") + 1, text.index("b") + 1, text.index("1k") + 1]
     assert token_columns("R1") == [1] and token_columns("") == []
+
+
+def test_control_path_strips_comments_and_joins_like_the_joined_path():
+    """A file with a .control block (read on the general path) gives the statements the same file without it gives on the
+    joined path (an independent implementation, itself checked against ngspice's listing above), the block kept verbatim
+    with the trailing spaces of its .control line."""
+    body = "; only a comment\nC1 a 0 ; c\n+10p $ d\nR1 a b 1k ; one ; two\nR2 b 0\n+ 2k\nR3 b 0\n+ 3k\n"
+    control = ".control   \n  op  \n.endc"
+    plain = logical_lines(body.splitlines())
+    assert [t for t, _, _ in plain] == ["C1 a 0 10p", "R1 a b 1k", "R2 b 0 2k", "R3 b 0 3k"]
+    assert logical_lines((body + control).splitlines()) == [*plain, (control, 9, True)]  # the block starts on line 9
