@@ -31,6 +31,7 @@ from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
+from netloop.jobs.splits import LoopStructure
 from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
                                   refuse_inputs_only, sample_loops)
@@ -274,9 +275,63 @@ def _refuse_inputs_only(sampled: _Sampled, drivers: tuple[str | None, str | None
         refuse_inputs_only(half, driver, "; ".join(f"{mode} mode: {why}" for mode, why in zip(MODES, whys)))
 
 
+class _Structure:
+    """The loops through each node of the pair (netloop.jobs.splits.LoopStructure), worked out only when asked."""
+
+    def __init__(self, parsed: Netlist):
+        self.parsed = parsed
+        self.known: dict[str, LoopStructure] = {}
+
+    def of(self, node: str) -> LoopStructure:
+        if node not in self.known:
+            self.known[node] = LoopStructure(self.parsed, node)
+        return self.known[node]
+
+
+def _deeper(first: _Sampled, structure: _Structure, again) -> tuple[_Sampled, tuple[Check, ...]]:
+    """The pair under the nets' names inside the block that drives them, as a single node's split is tried there when
+    doubted: when the pair as named is doubted, or one mode does not regulate while the other does (a net named above the
+    block that drives it keeps that block's own loop closed on the driver side), and there every mode passes its checks
+    and no fewer modes regulate. Else ``first`` unchanged."""
+    lagging = [m for m in MODES if not first.analyses[m].regulates]
+    why = first.doubts or ("; ".join(f"the {m} mode does not regulate (|T| at most {_peak_db(first.analyses[m]):.4g} dB)" for m in lagging)
+                           if 0 < len(lagging) < len(MODES) else "")
+    if not why:
+        return first, ()
+    nodes = first.probe.nodes
+    aliases = tuple(structure.of(node).alias(node) or node for node in nodes)
+    if aliases == nodes:
+        return first, ()
+    try:
+        trial = again((None, None), False, aliases)
+    except ProbeError:
+        return first, ()
+    if trial.doubts or sum(a.regulates for a in trial.analyses.values()) < sum(a.regulates for a in first.analyses.values()):
+        return first, ()
+    return trial, (Check("split", True, f"broke the pair under the names the nets have inside the block that drives them ({','.join(aliases)}): "
+                         f"at {','.join(nodes)}, {why}; here every self-check passes in both modes"),)
+
+
+def _peak_db(a: LoopAnalysis) -> float:
+    return float(np.max(20.0 * np.log10(np.abs(a.t) + 1e-300)))
+
+
+def _opens(sampled: _Sampled, mode: str, structure: _Structure) -> tuple[Check, ...]:
+    """The check "opens-loop" for a mode whose T does not regulate, as for a single node: the pair's split must open a loop
+    through at least one of its nodes; a split that opens none measures no loop, and its "does not regulate" is no promise."""
+    if sampled.analyses[mode].regulates:
+        return ()
+    found = [c for node in sampled.probe.nodes if (c := structure.of(node).opens_check(node)) is not None]
+    if not found:
+        return ()
+    if any(c.passed for c in found):
+        return (Check("opens-loop", True, "; ".join(c.detail for c in found if c.passed)),)
+    return (Check("opens-loop", False, "; ".join(c.detail for c in found), found[0].advice),)
+
+
 def _told(probe: PairProbe, checks: tuple[Check, ...]) -> PairProbe:
     """The probe whose halves' decided_by also say what the pair's checks moved (the job check "split" when it moved)."""
-    moves = [c.detail for c in checks if c.name == "split" and c.passed and c.detail.startswith("moved ")]
+    moves = [c.detail for c in checks if c.name == "split" and c.passed and not c.detail.startswith("kept ")]
     if not moves:
         return probe
     return replace(probe, n=replace(probe.n, decided_by=f"{probe.n.decided_by[:-1]}; netloop {moves[0]}."))
@@ -288,7 +343,7 @@ def _elsewhere(mode: str, analyses: Mapping[str, LoopAnalysis], nodes: tuple[str
     a = analyses[mode]
     if a.regulates or not analyses[other].regulates:
         return ()
-    peak = float(np.max(20.0 * np.log10(np.abs(a.t) + 1e-300)))
+    peak = _peak_db(a)
     return (f"the {mode}-mode loop hardly passes {nodes[0]},{nodes[1]} (|T| at most {peak:.4g} dB there, while the {other}-mode loop "
             f"regulates): measure it where it closes (netloop loops NETLIST lists the candidates), or at a pair both loops pass",)
 
@@ -318,7 +373,8 @@ def measure_pair(
     decided). Without them each node is split by the single-node rules (netloop.probe.sides) on the
     netlist as given, and when a mode fails its self-checks or T has poles of its own, the other
     placements of the bridging elements are tried, the halves alike (the job check "split" says
-    what was moved and why).
+    what was moved and why); a pair named above the block that drives it is tried under its names
+    inside that block when doubted or when one mode does not regulate (docs/splitting.md).
     """
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
@@ -332,11 +388,12 @@ def measure_pair(
     try:
         first = _sample_pair(parsed, (p_node, n_node), drivers, (None, None), sweep=sweep, **options)
         job_checks: tuple[Check, ...] = ()
+        mode_checks: dict[str, tuple[Check, ...]] = dict.fromkeys(MODES, ())
         if drivers == (None, None):
             extra = []
 
-            def again(place, coarse: bool) -> _Sampled:
-                done = _sample_pair(parsed, (p_node, n_node), drivers, place, sweep=replace(sweep, refine=False) if coarse else sweep, **options)
+            def again(place, coarse: bool, nodes: tuple[str, str] = (p_node, n_node)) -> _Sampled:
+                done = _sample_pair(parsed, nodes, drivers, place, sweep=replace(sweep, refine=False) if coarse else sweep, **options)
                 extra.append(done.info.seconds)
                 return done
 
@@ -344,6 +401,10 @@ def measure_pair(
             if not job_checks and not any(not c.passed for a in first.analyses.values() for c in a.checks):
                 second = _second_break(first, again)
                 job_checks = (second,) if second is not None else ()
+            structure = _Structure(parsed)
+            first, deeper = _deeper(first, structure, again)
+            job_checks = (*job_checks, *deeper)
+            mode_checks = {mode: _opens(first, mode, structure) for mode in MODES}
             first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(extra)))
     finally:
         if own and hasattr(sim, "close"):
@@ -379,7 +440,7 @@ def measure_pair(
             requirements=tuple(r.check(a) for r in reqs),
             ignored_statements=ignored_lines(parsed),
             sim=info,
-            checks=(*job_checks, *((pz,) if pz is not None else ())),
+            checks=(*job_checks, *mode_checks[mode], *((pz,) if pz is not None else ())),
             **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings, _elsewhere(mode, analyses, (p_node, n_node))),
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))

@@ -32,6 +32,7 @@ def simulator():
 PAIRS = {
     (FD_MILLER, "xamp.o1p,xamp.o1n"): ("fd_miller_pair.o1.rz-load", "fd_miller_pair.o1.rz-driver"),
     (FD_MILLER, "xamp.outp,xamp.outn"): ("fd_miller_pair.out",),
+    (FD_MILLER, "outp,outn"): ("fd_miller_pair.out",),  # named above the amplifier that drives them: broken inside it
     (FD_MILLER, "xamp.inp,xamp.inn"): ("fd_miller_pair.in",),
     (FD_MILLER, "xp,xn"): ("fd_miller_pair.in",),
     (FD_MILLER_SKY130, "xamp.o1p,xamp.o1n"): ("fd_miller_pair_sky130.o1.rz-load", "fd_miller_pair_sky130.o1.rz-driver"),
@@ -203,6 +204,19 @@ def test_a_mode_that_does_not_pass_the_pair_says_where_to_measure_it(simulator):
     pair = measure_pair(FD_CAP, "xp,xn", simulator=simulator)
     assert any("common-mode loop hardly passes xp,xn" in w for w in pair.common.warnings)
     assert not any("hardly passes" in w for w in pair.differential.warnings)
+    # and its "does not regulate" is a promise: the split opens loops through the pair (the DM loops the expert measures)
+    assert [c.passed for c in pair.common.checks if c.name == "opens-loop"] == [True]
+
+
+def test_a_pair_named_above_the_block_that_drives_it_is_broken_inside_the_block(simulator):
+    """outp,outn named at the testbench level, where the amplifier's own CMFB sense resistors would stay on the driver side
+    and the CM mode would not regulate, is broken as xamp.outp,xamp.outn and says so."""
+    # Reference: expert/fd_miller_pair.out.sp (probes inside the amplifier, Rcm1/Rcm2 on the load side): its CM T
+    # regulates (about 68 dB at DC), and the pair's T equals it (test above).
+    pair = measure_pair(FD_MILLER, "outp,outn", simulator=simulator)
+    assert pair.common.analysis.regulates and pair.differential.analysis.regulates
+    assert pair.common.breaks.node.startswith("xamp.outp,xamp.outn")
+    assert "broke the pair under the names the nets have inside the block that drives them (xamp.outp,xamp.outn)" in pair.common.breaks.decided_by
 
 
 def test_pair_splits_are_the_same_under_five_hash_seeds():
