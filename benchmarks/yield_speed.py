@@ -17,8 +17,8 @@ times and the fastest of each counts, so bursts of other work on a shared machin
 Two measures of the cost beyond ngspice, both from the 1-worker run:
 - wall time: the run's wall time per sample against the time the worker waited for its ngspice
   (SimInfo.seconds: the load, the operating point and every sweep);
-- CPU time (psutil): the ngspice processes' CPU against everything else's (the calling process with
-  the scheduler, the Dask worker processes), steadier than wall time on a busy machine.
+- CPU time (psutil), steadier than wall time on a busy machine: the ngspice processes' CPU against
+  the Dask worker's and the calling process's (which also hosts the idle cluster's scheduler).
 Targets: overhead <= 10 % of ngspice's own time; 2 workers >= 1.8x one worker.
 ``--quick``: the Miller buffer on the invented models (no mismatch: every sample alike), 4 samples, once (a smoke run
 of the path; ngspice needs a few ms there, so the targets do not apply).
@@ -72,17 +72,17 @@ def _cpu() -> tuple[float, float]:
     return own.user + own.system, children
 
 
-def cpu_snapshot(client) -> tuple[float, float]:
-    """(CPU seconds of everything but ngspice, CPU seconds of the ngspice processes), summed over this process (the
-    client and the local schedulers) and the workers of ``client``."""
-    own = _cpu()
+def cpu_snapshot(client) -> tuple[float, float, float]:
+    """CPU seconds so far of (the calling process, with the client and both local schedulers; the Dask worker processes
+    of ``client``; their ngspice processes)."""
+    own = _cpu()[0]
     workers = client.run(_cpu)
-    return own[0] + own[1] + sum(w[0] for w in workers.values()), sum(w[1] for w in workers.values())
+    return own, sum(w[0] for w in workers.values()), sum(w[1] for w in workers.values())
 
 
-def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, tuple[dict, ...], tuple[float, float]]:
+def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, tuple[dict, ...], tuple[float, ...]]:
     """Wall time of run_samples on ``client``'s scheduler (journal, Dask, statistics included), its records, and the CPU
-    seconds (everything else, ngspice) spent meanwhile."""
+    seconds spent meanwhile (as cpu_snapshot splits them)."""
     from netloop.jobs.statistics import load_sample_plan, run_samples
 
     cpu_before = cpu_snapshot(client)
@@ -90,7 +90,7 @@ def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, 
     run = run_samples(load_sample_plan(plan_path), cluster=address, out=out, force=True)
     wall = time.perf_counter() - start
     cpu_after = cpu_snapshot(client)
-    return wall, run.run.records, (cpu_after[0] - cpu_before[0], cpu_after[1] - cpu_before[1])
+    return wall, run.run.records, tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True))
 
 
 def main() -> None:
@@ -134,7 +134,7 @@ def main() -> None:
         loads = sum(r["loads"] or 0 for r in rec1)
         per_sample = wall1 / n
         overhead = (per_sample - sim) / sim
-        cpu_rest, cpu_ngspice = cpu1
+        cpu_caller, cpu_workers, cpu_ngspice = cpu1
         speedup = wall1 / wall2
         same = [a["loop"]["loop_gain"] == b["loop"]["loop_gain"] for a, b in zip(rec1, rec2, strict=True)]
         spread = {}
@@ -152,8 +152,9 @@ def main() -> None:
               f"in the worker {task * 1e3:.0f} ms, wall {per_sample * 1e3:.0f} ms")
         print(f"overhead beyond ngspice's own, wall time: {overhead * 100:.1f} %" + judged.format("meets" if overhead <= OVERHEAD_TARGET else "misses", OVERHEAD_TARGET * 100)
               + f"  (netlist, probe and analysis in the worker {(task - sim) * 1e3:.0f} ms, Dask, results file and statistics {(per_sample - task) * 1e3:.0f} ms per sample)")
-        print(f"overhead beyond ngspice's own, CPU time: {cpu_rest / cpu_ngspice * 100:.1f} %  (ngspice processes {cpu_ngspice:.2f} s, "
-              f"everything else {cpu_rest:.2f} s: the calling process with both schedulers, the Dask workers)")
+        print(f"CPU time on 1 worker: ngspice processes {cpu_ngspice:.2f} s; the Dask worker (netloop's measurement and Dask) "
+              f"{cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} % of ngspice's; the calling process (plan, results file, "
+              f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} %")
         print(f"T of every sample the same on 1 and 2 workers, bit for bit: {all(same)} ({sum(same)} of {len(same)})")
 
 
