@@ -314,6 +314,7 @@ def coupling_document(coupling) -> dict:
         "cm_band_hz": coupling.cm_band_hz,
         "threshold_db": coupling.threshold_db,
         "coupled": coupling.coupled,
+        "unjudged": coupling.unjudged or None,
     }
 
 
@@ -321,6 +322,8 @@ def coupling_line(coupling) -> str:
     """One line: both coupling figures, their bands and whether they pass the threshold."""
     from netloop.report.notation import db, eng
 
+    if coupling.unjudged:
+        return f"coupling  not judged: {coupling.unjudged}"
     word = "COUPLED" if coupling.coupled else "negligible"
     return (f"coupling  {word}: DM->CM {db(coupling.dm_to_cm_db)} up to {eng(coupling.dm_band_hz, 'Hz')}, "
             f"CM->DM {db(coupling.cm_to_dm_db)} up to {eng(coupling.cm_band_hz, 'Hz')} (threshold {db(coupling.threshold_db)})")

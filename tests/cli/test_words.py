@@ -24,6 +24,20 @@ def test_the_librarys_option_is_named_as_the_commands_option(text, command, said
     assert command_words(text, command) == said
 
 
+def test_a_json_document_stays_json_when_its_warnings_end_in_driver():
+    """A --json document whose warnings end with 'choose with driver=' is still valid JSON after the rewording, each
+    warning reworded alone (a bare driver= at the end of a string never takes the string's closing quote as a value)."""
+    # Reference: Python's json module (the document is read back); the warnings as break_loop writes them.
+    import json
+
+    doc = {"warnings": ["xp: the split changes T; choose with driver=", "xn: the split changes T; choose with driver="],
+           "decided_by": "driver side given by driver='m1.d,m3.d': m1.d, m3.d"}
+    for text in (command_words(json.dumps(doc, indent=2), "check"), command_words(json.dumps(doc), "check")):
+        back = json.loads(text)
+        assert back["warnings"] == ["xp: the split changes T; choose with --driver", "xn: the split changes T; choose with --driver"]
+        assert back["decided_by"] == "driver side given by --driver m1.d,m3.d: m1.d, m3.d"
+
+
 @pytest.mark.ngspice
 def test_check_warnings_and_errors_name_the_driver_option(tmp_path, capsys):
     """On the command line, check's warning about a node feeding two loops says 'choose with --driver', and the error for
