@@ -434,17 +434,18 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
                    options: dict, free: bool) -> tuple[ProbedNetlist, LoopAnalysis, SimInfo, tuple[str, ...], tuple[Check, ...]]:
     """The measured split, settled: another placement of its bridging elements when it fails its checks, a second
     break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
-    extra = 0.0
+    extra, extra_loads = 0.0, 0  # the trials' simulations (and, when another split is measured, the first one's loads)
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
 
     def measure_coarse(place: Mapping[str, str]) -> Trial | None:
-        nonlocal extra
+        nonlocal extra, extra_loads
         try:
             other = break_loop(parsed, at, placement=place)
         except ProbeError:
             return None
         a, i, _ = measure_probed(other, **coarse_options)
         extra += i.seconds
+        extra_loads += i.loads
         return Trial(place, other, a)
 
     checks: list[Check] = []
@@ -454,6 +455,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         if chosen is not None:
             _log.info("measuring the loop again with %s", split_check.detail.split(":")[0])
             other = break_loop(parsed, at, placement=chosen.placement)
+            extra_loads += info.loads
             analysis, info, sim_warnings = measure_probed(other, **options)
             probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
         if split_check is not None:
@@ -469,7 +471,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         pz = pz_check(analysis, node_poles(write_netlist(parsed), probed.side_b, workdir=workdir))
         if pz is not None:
             checks.append(pz)
-    return probed, analysis, replace(info, seconds=info.seconds + extra), sim_warnings, tuple(checks)
+    return probed, analysis, replace(info, seconds=info.seconds + extra, loads=info.loads + extra_loads), sim_warnings, tuple(checks)
 
 
 def _refuse_inputs_only(probed: ProbedNetlist, analysis: LoopAnalysis, driver: str, checks: tuple[Check, ...]) -> None:
