@@ -17,6 +17,8 @@ from netloop.jobs.measure import Sweep, measure
 __all__ = ["TaskOptions", "close_simulator", "in_place_changes", "run_task", "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
+_READ_AGAIN = ("lib", "include")  # settings that make apply_settings read the files again
+_PARSED: dict[tuple, tuple[tuple, object]] = {}  # (netlist, its file-reading settings) -> (file stamps, Netlist)
 
 
 @dataclass(frozen=True, slots=True)
@@ -69,6 +71,33 @@ def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
     return tuple(out)
 
 
+def _stamps(files) -> tuple:
+    """What a file looks like from outside (path, modification time, size), to see that none changed."""
+    out = []
+    for path in files:
+        try:
+            st = os.stat(path)
+        except OSError:
+            return ()
+        out.append((path, st.st_mtime_ns, st.st_size))
+    return tuple(out)
+
+
+def corner_netlist(task: Task):
+    """The corner's netlist (apply_settings), its files read once per worker for every corner that reads the same files
+    (same netlist, sections and include words), again when one of them changed: a process library takes a parse of
+    about 0.2 s a corner otherwise, all of it the same."""
+    reading = tuple(s for s in task.corner.settings if s.kind in _READ_AGAIN)
+    key = (task.corner.netlist, reading)
+    hit = _PARSED.get(key)
+    if hit is None or not hit[0] or _stamps(hit[1].files) != hit[0]:
+        base = apply_settings(task.corner.netlist, reading)
+        if len(_PARSED) >= 4:  # a few process corners' netlists; the oldest leaves first
+            _PARSED.pop(next(iter(_PARSED)))
+        _PARSED[key] = hit = (_stamps(base.files), base)
+    return apply_settings(hit[1], tuple(s for s in task.corner.settings if s.kind not in _READ_AGAIN))
+
+
 class _InPlace:
     """The worker's simulator, every job of one corner naming the values ngspice may change in place (SimJob.changes):
     the next corner that differs only in those values runs on the circuit this one leaves loaded."""
@@ -119,7 +148,7 @@ def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
 
     started = time.perf_counter()
     try:
-        netlist = apply_settings(task.corner.netlist, task.corner.settings)
+        netlist = corner_netlist(task)
         simulator = worker_simulator()
         changes = in_place_changes(task.corner.settings) if options.share_loads else ()
         if changes:
