@@ -67,8 +67,16 @@ class NetlistSyntaxError(NetlistError, ValueError):
         if not self.source_line:
             return head
         line = self.source_line.rstrip("\n")
-        caret = " " * max(self.location.column - 1, 0) + "^"
-        return f"{head}\n    {line}\n    {caret}"
+        column = max(self.location.column - 1, 0)
+        if len(line) > _SHOWN:  # a window around the caret
+            start = max(0, min(column - _SHOWN // 2, len(line) - _SHOWN))
+            line, column = line[start : start + _SHOWN], column - start
+        # bytes a terminal would act on (escape sequences, bells, binary junk) are shown as '?', one for one
+        line = "".join(ch if ch.isprintable() or ch == "\t" else "?" for ch in line)
+        return f"{head}\n    {line}\n    {' ' * column}^"
+
+
+_SHOWN = 160  # characters of a netlist line an error shows
 
 
 class UnknownNodeError(NetlistError, KeyError):

@@ -68,3 +68,24 @@ def killed_midway():
         return [r for r in read_records(results)[0] if r["record"] == "corner"]
 
     return kill
+
+
+@pytest.fixture
+def under_hash_seeds():
+    """run(code, args, timeout_s=600): ``python -c CODE ARGS...`` in five processes at once, with PYTHONHASHSEED 0 to 4 and
+    netloop importable; returns their standard outputs (each process must exit 0)."""
+    import subprocess
+    import sys
+
+    def run(code: str, args: list[str], timeout_s: float = 600) -> list[str]:
+        env = {**os.environ, "PYTHONPATH": str(ROOT)}
+        procs = [subprocess.Popen([sys.executable, "-c", code, *args], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                                  env={**env, "PYTHONHASHSEED": str(seed)}) for seed in (0, 1, 2, 3, 4)]
+        outs = []
+        for proc in procs:
+            out, err = proc.communicate(timeout=timeout_s)
+            assert proc.returncode == 0, err[-2000:]
+            outs.append(out)
+        return outs
+
+    return run

@@ -14,7 +14,7 @@ from netloop.analysis.margins import summarise_margins
 from netloop.analysis.nyquist import nyquist_verdict
 from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles, disagreement
 from netloop.analysis.response import Response
-from netloop.analysis.results import LoopAnalysis, Peaking
+from netloop.analysis.results import AC_COUPLING_LEAD_DEG, LoopAnalysis, Peaking
 from netloop.analysis.second_order import second_order_estimate
 from netloop.errors import AnalysisError
 
@@ -106,6 +106,12 @@ def analyse(
         warnings.append(f"the loop gain never reaches 0 dB (at most {float(np.max(resp.gain_db)):.4g} dB): the loop does not regulate")
     if dc_sign == "negative":
         warnings.append("T is negative at low frequency: positive feedback at DC")
+    lead = float(resp.phase_deg[0])
+    if nyquist.origin_poles == 0 and dc_sign != "negative" and resp.gain_db[0] > 0.0 and lead > AC_COUPLING_LEAD_DEG:
+        # T leads at the bottom of the sweep with |T| > 1: it falls toward DC, and crosses 0 dB somewhere below the sweep
+        warnings.append(f"|T| is {float(resp.gain_db[0]):.4g} dB at {float(resp.freq_hz[0]):.4g} Hz, the bottom of the sweep, and "
+                        f"its phase leads by {lead:.2g} deg: T falls toward DC (AC coupling), and its low gain crossover, "
+                        "with its own phase margin, lies below the sweep; start the sweep lower")
     if ignored:
         warnings.append(
             f"{len(ignored)} phase crossover(s) below the numerical floor ({floor_abs_db:.4g} dB) ignored: the phase is noise there"

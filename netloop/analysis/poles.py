@@ -39,7 +39,11 @@ from netloop.analysis.results import ClosedLoopPoles
 if TYPE_CHECKING:
     from scipy.interpolate import AAA
 
-__all__ = ["DEFAULT_RTOL", "closed_loop_poles", "disagreement"]
+__all__ = ["DEFAULT_RTOL", "DOMINANT_SHARE", "closed_loop_poles", "disagreement", "dominant_pole"]
+
+# A fitted pole shapes 1/(1+T) visibly when its peak weight is at least 1 % of the largest pole's (our choice:
+# on the demo circuits a loop's own poles weigh 1 % to 100 %, another loop's seen through coupling about 0.1 %).
+DOMINANT_SHARE = 0.01
 
 DEFAULT_RTOL = 1e-10
 _MAX_TERMS = 50  # degree 49: ample for loops seen through a probe, and bounds the cost on noisy data
@@ -132,10 +136,9 @@ def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol
     poles = poles[np.argsort(np.abs(poles), kind="stable")]
     rhp = int(np.sum(poles.real > 1e-9 * np.maximum(np.abs(poles), 1e-300)))
     open_rhp = _open_loop_rhp_poles(fit, f_ref, float(freq_hz[0]), float(freq_hz[-1]), max(_PAIR_RTOL, 10.0 * used))
-    complex_upper = [p for p in poles if p.imag > 1e-9 * abs(p)]
     damping = q = freq = None
-    if complex_upper:
-        p = min(complex_upper, key=lambda p: -p.real / abs(p))
+    p = dominant_pole(freq_hz, t, poles)
+    if p is not None and p.imag > 1e-9 * abs(p):  # the dominant pole is one of a complex pair
         damping = float(-p.real / abs(p))
         q = 1.0 / (2.0 * damping) if damping > 0 else math.inf
         freq = float(abs(p) / (2.0 * math.pi))
@@ -144,6 +147,34 @@ def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol
         notes.append(disagreement(rhp, nyquist_rhp, float(freq_hz[-1])))
     return ClosedLoopPoles(tuple(complex(p) for p in poles), rhp, damping, q, freq, agrees, fit_error,
                            tuple(complex(p) for p in open_rhp)), tuple(notes)
+
+
+def dominant_pole(freq_hz, t, poles) -> complex | None:
+    """The dominant closed-loop pole (rad/s), the one definition every report uses: the least-damped pole among those
+    that visibly shape 1/(1+T), the upper member of a pair; None without poles.
+
+    Each pole's weight is the peak its term reaches on the jw axis, |r| / |Re p|, with the residues r from a linear
+    least-squares fit of S = 1/(1+T) = c + sum r_k / (s - p_k) over the data at these poles. Poles below
+    ``DOMINANT_SHARE`` of the largest weight only show faintly (another loop's, seen through weak coupling) and are
+    passed over; among the rest the one with the smallest damping -Re p / |p| is taken (ties: the slower one).
+    """
+    p = np.asarray(poles, dtype=complex)
+    if p.size == 0:
+        return None
+    f = np.asarray(freq_hz, dtype=float)
+    s = 2j * math.pi * f
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        sens = 1.0 / (1.0 + np.asarray(t, dtype=complex))
+        basis = np.column_stack([np.ones_like(s), *(1.0 / (s - pk) for pk in p)])
+    good = np.all(np.isfinite(basis), axis=1) & np.isfinite(sens)
+    if np.count_nonzero(good) <= p.size:
+        return None
+    coef = np.linalg.lstsq(basis[good], sens[good], rcond=None)[0]
+    weight = np.abs(coef[1:]) / np.maximum(np.abs(p.real), 1e-12 * np.abs(p))
+    keep = (p.imag >= -1e-9 * np.abs(p)) & (weight >= DOMINANT_SHARE * np.max(weight))
+    if not np.any(keep):
+        return None
+    return complex(min(p[keep], key=lambda q: (-q.real / abs(q), -q.real)))
 
 
 def disagreement(fit_rhp: int, nyquist_rhp: int, f_max_hz: float) -> str:

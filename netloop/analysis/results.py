@@ -21,6 +21,7 @@ These records only hold numbers: no printing or formatting happens here (that is
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Literal
 
@@ -39,6 +40,14 @@ __all__ = [
     "SecondOrderEstimate",
 ]
 
+
+# How flat T must be at the bottom of the sweep for |T| there to be called the DC loop gain (from memory: a single pole a
+# decade above the bottom already gives -0.04 dB/decade and 5.7 deg, one at the bottom -3 dB/decade and 45 deg)
+DC_FLAT_DB_PER_DEC = 1.0
+DC_FLAT_DEG = 10.0
+# A phase lead at the bottom of the sweep beyond this, with |T| > 1 there, is an AC coupling's zero below the sweep
+# (from memory: a zero a decade below the bottom leads by 5.7 deg, the phase noise of a settled T is far below 1 deg)
+AC_COUPLING_LEAD_DEG = 1.0
 
 @dataclass(frozen=True, slots=True)
 class GainCrossover:
@@ -241,8 +250,10 @@ class ClosedLoopPoles:
     poles_rad_s          poles in rad/s (complex, s-plane), only those with |p| below the top of
                          the sweep (2 pi f_max), sorted by |p|; both members of a complex pair appear.
     rhp_count            how many of them have a positive real part.
-    dominant_damping     damping ratio -Re(p)/|p| of the complex pair closest to the imaginary
-                         axis (smallest damping); None when there is no complex pair.
+    dominant_damping     damping ratio -Re(p)/|p| of the dominant pole when it is one of a complex pair
+                         (netloop.analysis.poles.dominant_pole: the least-damped pole among those that visibly
+                         shape 1/(1+T), the definition check, compare and every report use); None when the
+                         dominant pole is real or there is none.
     dominant_q           1 / (2 dominant_damping) (inf when the damping is <= 0); None with it.
     dominant_freq_hz     |p| / (2 pi) of that pair; None with it.
     agrees_with_nyquist  rhp_count == NyquistVerdict.closed_loop_rhp_poles.
@@ -306,6 +317,23 @@ class LoopAnalysis:
     poles: ClosedLoopPoles | None
     warnings: tuple[str, ...]
     checks: tuple[Check, ...] = ()
+
+    @property
+    def gain_is_dc(self) -> bool:
+        """Whether ``dc_gain_db`` stands for DC: no poles of T at s = 0, and T flat at the bottom of the sweep (|T|
+        within DC_FLAT_DB_PER_DEC over the lowest 3 samples, its phase within DC_FLAT_DEG of 0 or 180 deg); else it is
+        only |T| at the lowest frequency swept (a sweep started above a pole, or an AC coupling: a phase lead beyond
+        AC_COUPLING_LEAD_DEG where |T| > 1)."""
+        from netloop.analysis.response import low_frequency_slope  # noqa: PLC0415 - records stay import-light
+
+        f = np.asarray(self.freq_hz, dtype=float)
+        t = np.asarray(self.t, dtype=complex)
+        if self.nyquist.origin_poles != 0 or f.size < 3 or t[0] == 0:
+            return False
+        _, slope = low_frequency_slope(np.log10(f), 20.0 * np.log10(np.abs(t)))
+        off_axis = abs(math.degrees(math.atan(t[0].imag / t[0].real))) if t[0].real != 0 else 90.0
+        coupled = abs(t[0]) > 1.0 and t[0].real > 0 and math.degrees(math.atan2(t[0].imag, t[0].real)) > AC_COUPLING_LEAD_DEG
+        return abs(slope) <= DC_FLAT_DB_PER_DEC and off_axis <= DC_FLAT_DEG and not coupled
 
     @property
     def supported(self) -> bool:

@@ -24,7 +24,8 @@ def tian(va1, vb1, ib2) -> np.ndarray:
     Written in this form, not as 1/S - 1, so that |T| far below 1 keeps its relative precision.
     """
     va1, vb1, ib2 = (np.asarray(x, dtype=complex) for x in (va1, vb1, ib2))
-    return -(va1 + ib2) / (vb1 + ib2)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # a sample that is not finite is judged by analyse()
+        return -(va1 + ib2) / (vb1 + ib2)
 
 
 def sensitivity(vb1, ib2) -> np.ndarray:
@@ -40,4 +41,5 @@ def middlebrook(va1, vb1, ia2, ib2) -> np.ndarray:
     when ib2 = 0 (an ideal voltage driver, where the textbook form gives NaN).
     """
     va1, vb1, ia2, ib2 = (np.asarray(x, dtype=complex) for x in (va1, vb1, ia2, ib2))
-    return (va1 * ia2 - vb1 * ib2) / (2.0 * vb1 * ib2 - va1 * ib2 - ia2 * vb1)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # a sample that is not finite is judged by analyse()
+        return (va1 * ia2 - vb1 * ib2) / (2.0 * vb1 * ib2 - va1 * ib2 - ia2 * vb1)

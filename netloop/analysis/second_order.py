@@ -17,7 +17,7 @@ import math
 from netloop.analysis.preload import load_scipy
 from netloop.analysis.results import SecondOrderEstimate
 
-__all__ = ["damping_from_phase_margin", "phase_margin_from_damping", "second_order_estimate"]
+__all__ = ["damping_from_phase_margin", "phase_margin_from_damping", "resonant_peak_db", "second_order_estimate"]
 
 
 def phase_margin_from_damping(zeta: float) -> float:
@@ -36,13 +36,21 @@ def damping_from_phase_margin(pm_deg: float) -> float:
     return math.exp(brentq(lambda u: phase_margin_from_damping(math.exp(u)) - pm_deg, math.log(1e-12), math.log(1e12), xtol=1e-14))
 
 
+def resonant_peak_db(zeta: float) -> float | None:
+    """The resonant peak of a lone second-order pair, 20 log10(1 / (2 z sqrt(1 - z^2))) for 0 < z < 1/sqrt(2) (Ogata,
+    Modern Control Engineering, the resonant peak magnitude); 0 dB for z >= 1/sqrt(2) (no peak); None for z <= 0."""
+    if zeta <= 0.0:
+        return None
+    if zeta >= 1.0 / math.sqrt(2.0):
+        return 0.0
+    return 20.0 * math.log10(1.0 / (2.0 * zeta * math.sqrt(1.0 - zeta * zeta)))
+
+
 def second_order_estimate(pm_deg: float | None) -> SecondOrderEstimate | None:
     """Damping, Q, overshoot and resonant peak of the second-order loop with this phase margin; None outside (0, 90)."""
     if pm_deg is None or not 0.0 < pm_deg < 90.0:
         return None
     zeta = damping_from_phase_margin(pm_deg)
     overshoot = 100.0 * math.exp(-math.pi * zeta / math.sqrt(1.0 - zeta * zeta)) if zeta < 1.0 else 0.0
-    peak = None
-    if zeta < 1.0 / math.sqrt(2.0):
-        peak = 20.0 * math.log10(1.0 / (2.0 * zeta * math.sqrt(1.0 - zeta * zeta)))
+    peak = resonant_peak_db(zeta) if zeta < 1.0 / math.sqrt(2.0) else None
     return SecondOrderEstimate(pm_deg, zeta, 1.0 / (2.0 * zeta), overshoot, peak)

@@ -41,6 +41,14 @@ def requirements_from(texts: list[str]):
     return parse_requirements(texts)
 
 
+def node_name(text: str) -> str:
+    """An argparse type: a node to break at; an empty name (--at '', an unset shell variable) is refused, never read as
+    "every loop" (which is what leaving --at out means for check)."""
+    if not text.strip():
+        raise argparse.ArgumentTypeError("an empty node name; name the node to break, as in --at out")
+    return text
+
+
 def process_count(text: str) -> int:
     """An argparse type: a number of processes, 1 or more."""
     try:
@@ -73,8 +81,8 @@ def add_measure_options(parser: argparse.ArgumentParser, methods: tuple[str, ...
 
 def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
-    parser.add_argument("--at", metavar="NODE", help="the node where the loop is broken (hierarchical names like xamp.n5 allowed); every loop when omitted")
-    parser.add_argument("--at-pair", metavar="P,N", help="break a fully differential node pair and report its differential- and common-mode loops")
+    parser.add_argument("--at", type=node_name, metavar="NODE", help="the node where the loop is broken (hierarchical names like xamp.n5 allowed); every loop when omitted")
+    parser.add_argument("--at-pair", type=node_name, metavar="P,N", help="break a fully differential node pair and report its differential- and common-mode loops")
     add_measure_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of the text summary")
     parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio as CSV")
@@ -295,6 +303,7 @@ def coupling_document(coupling) -> dict:
         "cm_band_hz": coupling.cm_band_hz,
         "threshold_db": coupling.threshold_db,
         "coupled": coupling.coupled,
+        "unjudged": coupling.unjudged or None,
     }
 
 
@@ -302,9 +311,22 @@ def coupling_line(coupling) -> str:
     """One line: both coupling figures, their bands and whether they pass the threshold."""
     from netloop.report.notation import db, eng
 
+    if coupling.unjudged:
+        return f"coupling  not judged: {coupling.unjudged}"
     word = "COUPLED" if coupling.coupled else "negligible"
     return (f"coupling  {word}: DM->CM {db(coupling.dm_to_cm_db)} up to {eng(coupling.dm_band_hz, 'Hz')}, "
             f"CM->DM {db(coupling.cm_to_dm_db)} up to {eng(coupling.cm_band_hz, 'Hz')} (threshold {db(coupling.threshold_db)})")
+
+
+def pair_driver_words(text: str, nodes: tuple[str, str]) -> str:
+    """A probe message about one node of a pair in this command line's words: driver=... becomes --driver NODE=..."""
+    import re
+
+    for node in nodes:
+        if f"at {node}:" in text or f"node {node}" in text:
+            text = text.replace("driver=ELEMENT[.PIN]", f"--driver {node}=ELEMENT[.PIN]").replace("use driver=", f"use --driver {node}=")
+            text = re.sub(r"\bdriver='([^']*)'", lambda m: f"--driver {node}={m.group(1)}", text)
+    return text
 
 
 def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
@@ -321,11 +343,7 @@ def run_pair(args: argparse.Namespace, netlist, common: dict) -> int:
     try:
         pair = measure_pair(netlist, nodes, drivers=drivers, **common)
     except ProbeError as exc:  # say how to name a driver on this command line
-        text = str(exc)
-        for node in nodes:
-            if f"at {node}:" in text or f"node {node}" in text:
-                text = text.replace("driver=ELEMENT[.PIN]", f"--driver {node}=ELEMENT[.PIN]").replace("use driver=", f"use --driver {node}=")
-        raise ProbeError(text) from exc
+        raise ProbeError(pair_driver_words(str(exc), nodes)) from exc
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = report.multi_document("modes", pair.modes, coupling=coupling_document(pair.coupling))
         print(json.dumps(doc, indent=2, allow_nan=False))

@@ -21,7 +21,7 @@ import json
 import math
 import re
 
-from netloop.cli.check_cmd import add_measure_options, refuse_bad_outputs, sweep_from, write_outputs
+from netloop.cli.check_cmd import add_measure_options, node_name, refuse_bad_outputs, sweep_from, write_outputs
 
 __all__ = ["add_parser", "comparison_table", "run"]
 
@@ -29,7 +29,7 @@ __all__ = ["add_parser", "comparison_table", "run"]
 def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
     parser.add_argument(
-        "--at", action="append", default=[], required=True, metavar="NODE[=ELEMENT[.PIN],...]",
+        "--at", type=node_name, action="append", default=[], required=True, metavar="NODE[=ELEMENT[.PIN],...]",
         help="a break location (repeat, at least twice); '=' names that location's driver terminals, decided from the circuit otherwise",
     )
     add_measure_options(parser, methods=("tian", "middlebrook", "both"), driver=False)  # drivers go with each --at

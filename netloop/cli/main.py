@@ -67,7 +67,6 @@ def exit_status(verdict: str) -> int:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run one netloop command; returns the exit status (0 pass, 1 unstable or failed, 2 bad input or simulator failure, 3 inconclusive)."""
-    from netloop.errors import NetloopError
 
     argv = list(sys.argv[1:] if argv is None else argv)
     command = next((a for a in argv if not a.startswith("-")), None)
@@ -77,13 +76,24 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     module = importlib.import_module(COMMANDS[args.command][0])
+    from netloop.cli.words import said_on_the_command_line
+
+    with said_on_the_command_line(args.command):  # results, warnings and errors name this command's options
+        return _run(module, args)
+
+
+def _run(module, args: argparse.Namespace) -> int:
+    """One command's run, its errors mapped to exit statuses."""
     from netloop.cli.status import status_line
+    from netloop.errors import NetloopError
 
     try:
         with status_line():  # on a terminal: what is being simulated, on one line of stderr
             return int(module.run(args))
     except NetloopError as exc:
         print(f"netloop: error: {exc}", file=sys.stderr)
+        for note in getattr(exc, "__notes__", ()):  # what in the netlist may be behind it (netloop.jobs.loop_result.caveats_on_error)
+            print(f"netloop: note: {note}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("netloop: interrupted", file=sys.stderr)

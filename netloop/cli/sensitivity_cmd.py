@@ -7,6 +7,7 @@ import json
 
 from netloop.cli.check_cmd import (
     add_measure_options,
+    node_name,
     process_count,
     refuse_bad_outputs,
     single_driver,
@@ -56,7 +57,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.epilog = ("Slopes are local, and a solved value holds for this operating point and corner only: re-check the corners. "
                      "See README section 'What sets the margin, and what value fixes it'.")
     parser.add_argument("netlist", help="the netlist file (ngspice syntax); it is never modified")
-    parser.add_argument("--at", required=True, metavar="NODE", help="the node where the loop is broken, as for `netloop check`")
+    parser.add_argument("--at", type=node_name, required=True, metavar="NODE", help="the node where the loop is broken, as for `netloop check`")
     add_measure_options(parser)
     parser.add_argument("--knob", action="append", default=[], metavar="NAME",
                         help="a value to try: an element (cc, xa1.rz) or a transistor size (m6:w, xa1.m3:l) (repeatable; default: every one)")

@@ -37,7 +37,7 @@ from netloop.jobs.compare_explain import (
     relative_difference,
 )
 from netloop.graph import find_loops, flatten
-from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict
+from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
@@ -229,7 +229,6 @@ def compare(
     for p in probes:
         for m in methods:
             a = analyses[_key(p.location, m)]
-            warnings = (*parsed.warnings, *p.alone.warnings, *sim_warnings[_key(p.location, m)], *a.warnings)
             results.append(LoopResult(
                 netlist=parsed.source,
                 label=_key(p.location, m) if len(methods) > 1 else p.location,
@@ -238,8 +237,8 @@ def compare(
                 analysis=a,
                 requirements=tuple(r.check(a) for r in reqs),
                 ignored_statements=ignored_lines(parsed),
-                warnings=tuple(dict.fromkeys(warnings)),
                 sim=info,
+                **netlist_notes(parsed, p.alone.warnings, sim_warnings[_key(p.location, m)], a.warnings),
             ))
     by_key = {(r.breaks.node, r.method): r for r in results}
 

@@ -31,6 +31,8 @@ from typing import Literal
 
 import numpy as np
 
+from netloop.analysis.poles import DOMINANT_SHARE
+from netloop.analysis.poles import dominant_pole as analysis_dominant_pole
 from netloop.errors import NetloopError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, Step, flatten
 from netloop.jobs.loop_result import LoopResult
@@ -59,9 +61,6 @@ T_FLOOR = 1e-3  # |T| below which T is not compared (-60 dB, common practice for
 # to 1e-12; 2 % leaves room for fits that reach the data's noise on harder circuits, and is still far
 # below the spacing of distinct poles worth reporting).
 POLE_RTOL = 0.02
-# A fitted pole shapes 1/(1+T) visibly when its peak weight is at least 1 % of the largest pole's (our choice:
-# on the demo circuits a loop's own poles weigh 1 % to 100 %, another loop's seen through coupling about 0.1 %).
-DOMINANT_SHARE = 0.01
 
 Kind = Literal["same", "defect", "loading", "different loops opened", "different loop groups", "not on a listed loop"]
 
@@ -297,34 +296,12 @@ def method_difference(location: str, tt: np.ndarray, tm: np.ndarray) -> Differen
 
 
 def dominant_pole(result: LoopResult) -> complex | None:
-    """The least-damped closed-loop pole among those that visibly shape 1/(1+T) (upper member of a pair), or None.
-
-    Each fitted pole's weight is the peak its term reaches on the jw axis, |r| / |Re p|, with the
-    residues r from a linear least-squares fit of S = 1/(1+T) = c + sum r_k / (s - p_k) over the
-    data at the fitted poles. Poles below ``DOMINANT_SHARE`` of the largest weight only show
-    faintly (another loop's, seen through weak coupling) and are passed over; among the rest the
-    one with the smallest damping -Re p / |p| is taken (ties: the slower one).
-    """
+    """The dominant closed-loop pole of a measured loop (netloop.analysis.poles.dominant_pole, the one definition that
+    check reports too), or None when no poles were fitted."""
     poles = result.analysis.poles
-    if poles is None or not poles.poles_rad_s:
+    if poles is None:
         return None
-    p = np.asarray(poles.poles_rad_s, dtype=complex)
-    f = np.asarray(result.analysis.freq_hz, dtype=float)
-    t = np.asarray(result.analysis.t, dtype=complex)
-    s = 2j * math.pi * f
-    with np.errstate(divide="ignore", invalid="ignore"):
-        sens = 1.0 / (1.0 + t)
-        basis = np.column_stack([np.ones_like(s), *(1.0 / (s - pk) for pk in p)])
-    good = np.all(np.isfinite(basis), axis=1) & np.isfinite(sens)
-    if np.count_nonzero(good) <= p.size:
-        return None
-    coef = np.linalg.lstsq(basis[good], sens[good], rcond=None)[0]
-    weight = np.abs(coef[1:]) / np.maximum(np.abs(p.real), 1e-12 * np.abs(p))
-    keep = (p.imag >= -1e-9 * np.abs(p)) & (weight >= DOMINANT_SHARE * np.max(weight))
-    if not np.any(keep):
-        return None
-    return complex(min(p[keep], key=lambda q: (-q.real / abs(q), -q.real)))
-
+    return analysis_dominant_pole(result.analysis.freq_hz, result.analysis.t, poles.poles_rad_s)
 
 def _near(p: complex, poles: Iterable[complex]) -> bool:
     return any(abs(p - q) <= POLE_RTOL * abs(p) for q in poles)

@@ -14,7 +14,7 @@ from netloop.errors import ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
 from netloop.jobs.census import COARSE_BREAKS, LARGE_COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
-from netloop.jobs.loop_result import LoopResult, Verdict, combined_verdict
+from netloop.jobs.loop_result import LoopResult, Verdict, caveats_on_error, combined_verdict
 from netloop.jobs.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
 from netloop.jobs.splits import DEFAULT_SPLIT_CHECKS, driver_alias, node_split, probe_splits
 from netloop.netlist import Netlist
@@ -251,8 +251,9 @@ def check_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> Lo
     _log.info("finding the loops of %d elements", len(circuit))
     found = find_loops(circuit)
     if not found.groups:
-        raise ProbeError(f"no feedback loop found in {parsed.source}: no signal path leads from a node back to itself "
-                         "without passing through ground or a supply; name a node with --at to break it anyway")
+        with caveats_on_error(parsed):
+            raise ProbeError(f"no feedback loop found in {parsed.source}: no signal path leads from a node back to itself "
+                             "without passing through ground or a supply; name a node with --at to break it anyway")
     if driver is not None and len(found.groups) > 1:
         raise ProbeError(f"--driver names one break's driver, but {parsed.source} has {len(found.groups)} loop groups; give --at too")
     own = options.get("simulator") is None

@@ -48,7 +48,12 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                            decided_by, silenced_sources, copied_subcircuits ([original, copy])}
     requirements          [{text, metric, op, threshold, value, passed, reason}]
     ignored_statements    ["file:line: statement"]
-    warnings              [sentence]
+    warnings              [sentence]: the netlist's caveats first, the circuit's own, then one line that counts
+                          the library_warnings
+    caveats               [sentence]: what in the netlist may make the verdict answer another circuit than the one
+                          meant (a title line that reads as an element, a .control block left open or changing a
+                          source, parameter or the temperature), with file:line; also said beside the verdict
+    library_warnings      [sentence]: each warning about library content the circuit does not instantiate
     simulation            {backend, points, refinement_rounds, refined, convergence_aid,
                            deck_path, seconds, processes, loads}
     loop_gain             {freq_hz, re, im}: the sampled return ratio T
@@ -233,6 +238,8 @@ def to_document(result: LoopResult) -> dict:
         "requirements": _requirements(result),
         "ignored_statements": list(result.ignored_statements),
         "warnings": list(result.warnings),
+        "caveats": list(result.caveats),
+        "library_warnings": list(result.library_warnings),
         "simulation": asdict(result.sim),
         "loop_gain": {
             "freq_hz": np.asarray(a.freq_hz, dtype=float).tolist(),

@@ -150,6 +150,8 @@ def result_from_document(doc: dict) -> LoopResult:
             sim=SimInfo(**doc["simulation"]),
             caution=doc["caution"],
             checks=() if inconclusive else checks,
+            caveats=tuple(doc.get("caveats", ())),  # not in files written before the key existed
+            library_warnings=tuple(doc.get("library_warnings", ())),
         )
     except (KeyError, TypeError, ValueError) as exc:
         raise ResultsError(f"an incomplete loop document ({type(exc).__name__}: {exc}); was it written by this version of netloop?") from exc

@@ -2,14 +2,20 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
 
 from netloop.analysis.requirements import RequirementOutcome, parse_requirements
 from netloop.analysis.results import Check, LoopAnalysis
+from netloop.errors import NetloopError
 
-__all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "combined_verdict"]
+if TYPE_CHECKING:  # reports read LoopResults without loading the netlist stage
+    from netloop.netlist import Netlist
+
+__all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "caveats_on_error",
+           "combined_verdict", "netlist_notes"]
 
 Verdict = Literal["pass", "fail", "inconclusive"]
 VERDICTS: tuple[Verdict, ...] = ("pass", "fail", "inconclusive")
@@ -76,6 +82,11 @@ class LoopResult:
     sim: SimInfo
     caution: str = CAUTION
     checks: tuple[Check, ...] = ()  # self-checks the job ran beyond the analysis's own (analysis.checks)
+    # what in the netlist may make the verdict answer another circuit than the one meant (Netlist.caveats: the title
+    # line reads as an element, a .control block is left open or changes a source, parameter or the temperature);
+    # said beside the verdict, and also in warnings
+    caveats: tuple[str, ...] = ()
+    library_warnings: tuple[str, ...] = ()  # about library content the circuit does not use (one line in warnings)
 
     @property
     def all_checks(self) -> tuple[Check, ...]:
@@ -125,3 +136,26 @@ def combined_verdict(verdicts: Iterable[Verdict]) -> Verdict:
     if "fail" in seen:
         return "fail"
     return "inconclusive" if "inconclusive" in seen else "pass"
+
+
+def netlist_notes(netlist: Netlist, *later: Iterable[str]) -> dict:
+    """A LoopResult's ``warnings``, ``caveats`` and ``library_warnings`` from its netlist: the netlist's own warnings
+    (caveats first), then ``later`` (the probe's, the simulation's, the analysis's), then the one line that counts the
+    warnings about library content the circuit does not use; each warning once."""
+    folded = bool(netlist.library_warnings)
+    own = netlist.warnings[:-1] if folded else netlist.warnings
+    tail = netlist.warnings[-1:] if folded else ()
+    warnings = tuple(dict.fromkeys((*own, *(w for ws in later for w in ws), *tail)))
+    return {"warnings": warnings, "caveats": netlist.caveats, "library_warnings": netlist.library_warnings}
+
+
+@contextmanager
+def caveats_on_error(netlist: Netlist) -> Iterator[None]:
+    """A NetloopError raised inside carries the netlist's caveats as notes (an unknown node or no loop at all is often
+    what a title line read as an element or an unclosed .control block leaves): the CLI prints them under the error."""
+    try:
+        yield
+    except NetloopError as exc:
+        for caveat in netlist.caveats:
+            exc.add_note(caveat)
+        raise

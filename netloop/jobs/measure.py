@@ -19,9 +19,10 @@ from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, pz_check, second_break_check, settle_split
+from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
@@ -31,11 +32,14 @@ __all__ = [
     "CLEARS_STATUS",
     "METHODS",
     "Sweep",
+    "closed_circuit_pz",
+    "inputs_only_doubt",
     "load_netlist",
     "measure",
     "measure_probed",
     "own_simulator",
     "probe_job",
+    "refuse_inputs_only",
     "return_ratio",
     "sample_loops",
     "simulator_processes",
@@ -407,15 +411,15 @@ def measure(
         if simulator is None:
             sim.use_processes(simulator_processes(processes, parsed, runs=2))
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s)
-        unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
-        analysis, info, sim_warnings = measure_probed(unchecked, meanwhile=loop_check, **options)
-        probed = loop_check()  # its outcome, found while the first simulation ran
-        free = driver is None and placement is None
-        probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free)
+        with caveats_on_error(parsed):
+            unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
+            analysis, info, sim_warnings = measure_probed(unchecked, meanwhile=loop_check, **options)
+            probed = loop_check()  # its outcome, found while the first simulation ran
+            free = driver is None and placement is None
+            probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free)
     if probed.inputs_only:
         _refuse_inputs_only(probed, analysis, driver or "", checks)
     outcomes = tuple(r.check(analysis) for r in reqs)
-    warnings = (*parsed.warnings, *probed.warnings, *sim_warnings, *analysis.warnings)
     return LoopResult(
         netlist=parsed.source,
         label=label,
@@ -424,9 +428,9 @@ def measure(
         analysis=analysis,
         requirements=outcomes,
         ignored_statements=ignored_lines(parsed),
-        warnings=tuple(dict.fromkeys(warnings)),
         sim=info,
         checks=checks,
+        **netlist_notes(parsed, probed.warnings, sim_warnings, analysis.warnings),
     )
 
 
@@ -434,59 +438,107 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
                    options: dict, free: bool) -> tuple[ProbedNetlist, LoopAnalysis, SimInfo, tuple[str, ...], tuple[Check, ...]]:
     """The measured split, settled: another placement of its bridging elements when it fails its checks, a second
     break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
-    extra, extra_loads = 0.0, 0  # the trials' simulations (and, when another split is measured, the first one's loads)
+    extra, extra_loads = 0.0, 0  # the other splits' simulations: their time and the loads they took
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
+    structure: list[LoopStructure] = []  # the loop search, done once and only when a split must be judged by it
 
-    def measure_coarse(place: Mapping[str, str]) -> Trial | None:
+    def opens(trial: Trial) -> Trial:
+        """The trial with the check "opens-loop" when its T does not regulate: a split that opens no loop measures none."""
+        if trial.analysis.regulates:
+            return trial
+        if not structure:
+            structure.append(LoopStructure(parsed, at))
+        return replace(trial, opens=structure[0].opens_check(trial.at or at, trial.placement))
+
+    def names() -> list[str]:
+        """The net's deeper name inside the block that drives it, when the split under the name given is doubted."""
+        if not structure:
+            structure.append(LoopStructure(parsed, at))
+        alias = structure[0].alias(at)
+        return [alias] if alias else []
+
+    full: dict[int, tuple[SimInfo, tuple[str, ...]]] = {}  # trials measured in full: id -> (SimInfo, warnings)
+
+    def measure_other(place: Mapping[str, str], name: str | None = None, coarse: bool = False) -> Trial | None:
+        """Another split measured: coarse for a second opinion, in full (refined: its Nyquist data must hold) for a
+        split that may be reported instead."""
         nonlocal extra, extra_loads
         try:
-            other = break_loop(parsed, at, placement=place)
+            other = break_loop(parsed, name or at, placement=place)
         except ProbeError:
             return None
-        a, i, _ = measure_probed(other, **coarse_options)
+        a, i, w = measure_probed(other, **(coarse_options if coarse else options))
         extra += i.seconds
         extra_loads += i.loads
-        return Trial(place, other, a)
+        trial = opens(Trial(place, other, a, name or ""))
+        if not coarse:
+            full[id(trial)] = (i, w)
+        return trial
+
+    def measure_coarse(place: Mapping[str, str], name: str | None = None) -> Trial | None:
+        return measure_other(place, name, coarse=True)
 
     checks: list[Check] = []
     first = Trial({}, probed, analysis)
     if free:
-        chosen, split_check, _ = settle_split(first, measure_coarse)
-        if chosen is not None:
-            _log.info("measuring the loop again with %s", split_check.detail.split(":")[0])
-            other = break_loop(parsed, at, placement=chosen.placement)
-            extra_loads += info.loads
-            analysis, info, sim_warnings = measure_probed(other, **options)
+        first = opens(first)
+        chosen, split_check, _ = settle_split(first, measure_other, names)
+        if chosen is not None:  # measured in full already; its seconds are in ``extra`` with the other trials'
+            analysis, (i, sim_warnings), other = chosen.analysis, full[id(chosen)], chosen.probed
+            info = replace(i, seconds=info.seconds, loads=info.loads)  # the first split's loads; the chosen one's are in extra_loads
             probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
+            if chosen.opens is not None:
+                checks.append(chosen.opens)
+        elif first.opens is not None:
+            checks.append(first.opens)
         if split_check is not None:
             checks.append(split_check)
         elif not first.failed:
             second = second_break_check(first, measure_coarse)
             if second is not None:
                 checks.append(second)
-    n = analysis.nyquist
-    if n.open_loop_rhp_from == "fit" and n.open_loop_rhp_poles > 0 and flat_element_count(parsed) <= PZ_MAX_ELEMENTS:
-        source = parsed.source
-        workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
-        pz = pz_check(analysis, node_poles(write_netlist(parsed), probed.side_b, workdir=workdir))
-        if pz is not None:
-            checks.append(pz)
+    pz = closed_circuit_pz(parsed, analysis, probed.side_b)
+    if pz is not None:
+        checks.append(pz)
     return probed, analysis, replace(info, seconds=info.seconds + extra, loads=info.loads + extra_loads), sim_warnings, tuple(checks)
+
+
+def closed_circuit_pz(parsed: Netlist, analysis: LoopAnalysis, node: str) -> Check | None:
+    """The check "closed-loop-pz" when T has right-half-plane poles read from the data and the circuit is small: ngspice's
+    own pole analysis of the closed circuit (seen from ``node``) must find Z = N + P of them; None otherwise."""
+    n = analysis.nyquist
+    if not (n.open_loop_rhp_from == "fit" and n.open_loop_rhp_poles > 0 and flat_element_count(parsed) <= PZ_MAX_ELEMENTS):
+        return None
+    source = parsed.source
+    workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
+    return pz_check(analysis, node_poles(write_netlist(parsed), node, workdir=workdir))
+
+
+def inputs_only_doubt(analysis: LoopAnalysis, checks: tuple[Check, ...]) -> str:
+    """Why a T measured with driver= naming only inputs does not stand ("" when it does): a failed check, no
+    regulation, or positive feedback at low frequency (a backwards split)."""
+    failed = [c for c in (*analysis.checks, *checks) if not c.passed]
+    backwards = not analysis.regulates or float(np.real(analysis.t[0])) < 0.0
+    if not failed and not backwards:
+        return ""
+    return "; ".join(c.detail for c in failed) if failed else (
+        f"T never reaches 0 dB (at most {float(np.max(20.0 * np.log10(np.abs(analysis.t) + 1e-300))):.4g} dB)" if not analysis.regulates
+        else "T is negative at low frequency (positive feedback)")
+
+
+def refuse_inputs_only(probed: ProbedNetlist, driver: str, why: str) -> None:
+    """Raise the ProbeError for driver= naming only inputs on a node whose T does not stand (``why``), naming the outputs there."""
+    outputs = ", ".join(probed.outputs) or "none found by the rules: name the element that drives the node"
+    raise ProbeError(f"driver={driver!r} names only inputs on node {probed.node} (gates, bases or control inputs), and the T it "
+                     f"gives fails its checks ({why}); the outputs on the node are: {outputs}; name one of them as the driver")
 
 
 def _refuse_inputs_only(probed: ProbedNetlist, analysis: LoopAnalysis, driver: str, checks: tuple[Check, ...]) -> None:
     """driver= naming only inputs (a gate, a base, a control input) stands only when the measured T passes every check and
     regulates with negative feedback: else the split is backwards, and netloop says which outputs sit on the node."""
-    failed = [c for c in (*analysis.checks, *checks) if not c.passed]
-    backwards = not analysis.regulates or float(np.real(analysis.t[0])) < 0.0
-    if not failed and not backwards:
-        return
-    outputs = ", ".join(probed.outputs) or "none found by the rules: name the element that drives the node"
-    why = "; ".join(c.detail for c in failed) if failed else (
-        f"T never reaches 0 dB (at most {float(np.max(20.0 * np.log10(np.abs(analysis.t) + 1e-300))):.4g} dB)" if not analysis.regulates
-        else "T is negative at low frequency (positive feedback)")
-    raise ProbeError(f"driver={driver!r} names only inputs on node {probed.node} (gates, bases or control inputs), and the T it "
-                     f"gives fails its checks ({why}); the outputs on the node are: {outputs}; name one of them as the driver")
+    why = inputs_only_doubt(analysis, checks)
+    if why:
+        refuse_inputs_only(probed, driver, why)
 
 
 def with_label(result: LoopResult, label: str) -> LoopResult:

@@ -33,7 +33,7 @@ from netloop.analysis.results import Check, LoopAnalysis
 from netloop.probe import ProbedNetlist
 
 __all__ = ["PLACEMENT_TRIES", "PZ_MAX_ELEMENTS", "Trial", "analysis_doubts", "doubts", "fitted_rhp_poles", "moved", "other_placements",
-           "pair_placements", "poles_agree", "pz_check", "second_break_check", "settle_split"]
+           "pair_placements", "poles_agree", "pz_check", "second_break_band", "second_break_check", "settle_split"]
 
 PLACEMENT_TRIES = 4  # other placements measured at most (each one coarse job)
 PZ_MAX_ELEMENTS = 400  # ngspice's pz is asked only on circuits this small (flattened elements): it is cheap there
@@ -47,10 +47,12 @@ class Trial:
     placement: Mapping[str, str]  # bridge label -> "driver" | "load" (empty: the rules' own split)
     probed: ProbedNetlist
     analysis: LoopAnalysis
+    at: str = ""  # the name the net was broken under, when not the one asked for (a deeper name of the same net)
+    opens: Check | None = None  # the check "opens-loop" (netloop.jobs.splits.LoopStructure), when it was asked
 
     @property
     def failed(self) -> tuple[Check, ...]:
-        return tuple(c for c in self.analysis.checks if not c.passed)
+        return tuple(c for c in (*self.analysis.checks, *((self.opens,) if self.opens else ())) if not c.passed)
 
     @property
     def good(self) -> bool:
@@ -78,6 +80,8 @@ def analysis_doubts(analysis: LoopAnalysis) -> str:
 
 def doubts(trial: Trial) -> str:
     """Why a split is doubted, in one clause ("" when it is not)."""
+    if trial.opens is not None and not trial.opens.passed:
+        return trial.opens.detail
     return analysis_doubts(trial.analysis)
 
 
@@ -113,30 +117,44 @@ def _moved(placement: Mapping[str, str]) -> str:
     return ", ".join(f"{name} to the {side} side" for name, side in placement.items())
 
 
-def settle_split(first: Trial, measure_coarse: Callable[[Mapping[str, str]], Trial | None]) -> tuple[Trial | None, Check | None, list[Trial]]:
+def _what(trial: Trial) -> str:
+    """What a trial changed: "cc to the load side", "broke it as xamp.out", or both."""
+    return ", ".join(p for p in (f"broke the net as {trial.at}" if trial.at else "", _moved(trial.placement)) if p)
+
+
+def settle_split(first: Trial, measure_coarse: Callable[..., Trial | None],
+                 alternatives: Callable[[], list[str]] = lambda: []) -> tuple[Trial | None, Check | None, list[Trial]]:
     """The placement to report, after ``first`` (the rules' split) and what ``measure_coarse`` gives for the others.
 
     Returns (the placement to measure in full, or None to keep ``first``; the job check "split", or
-    None when there was nothing to settle; every trial measured). ``measure_coarse(placement)``
-    gives None for a placement the probe refuses (the node would be left without a load).
+    None when there was nothing to settle; every trial measured). ``measure_coarse(placement, at=None)``
+    gives None for a placement the probe refuses (the node would be left without a load); ``at`` names
+    the net under another name. ``alternatives()`` gives such other names of the net (a deeper name inside
+    the block that drives it), tried with the rules' own placement after the bridges are moved.
     """
     why = doubts(first)
-    if not why or not first.probed.bridges:
+    if not why:
+        return None, None, []
+    names = alternatives()
+    if not first.probed.bridges and not names:
         return None, None, []
     trials = []
-    for placement in other_placements(first.probed):
-        trial = measure_coarse(placement)
+    tries = [(placement, None) for placement in other_placements(first.probed)] + [({}, name) for name in names]
+    for placement, name in tries:
+        trial = measure_coarse(placement, name)
         if trial is None:
             continue
         trials.append(trial)
         if trial.good:
-            detail = (f"moved {_moved(placement)}: with the rules' placement, {why}; with this one every self-check passes "
+            detail = (f"{_what(trial)}: with the rules' split, {why}; with this one every self-check passes "
                       f"and T has no right-half-plane pole")
             return trial, Check("split", True, detail), trials
-    tried = "; ".join(f"{_moved(t.placement)}: {doubts(t) or 'passes'}" for t in trials) or "no other placement could be built"
+    tried = "; ".join(f"{_what(t)}: {doubts(t) or 'passes'}" for t in trials) or "no other placement could be built"
     if first.failed:
-        check = Check("split", False, f"no placement of the bridging elements ({', '.join(b.element for b in first.probed.bridges)}) "
-                      f"passes the self-checks: as placed, {why}; tried {tried}",
+        moving = f"no placement of the bridging elements ({', '.join(b.element for b in first.probed.bridges)})" if first.probed.bridges else ""
+        other = f"no other name of the net ({', '.join(names)})" if names else ""
+        check = Check("split", False, f"{' and '.join(p for p in (moving, other) if p)} "
+                      f"passes the self-checks: as split, {why}; tried {tried}",
                       "name the driver side with --driver, break the loop at another node (netloop loops NETLIST lists the "
                       "candidates and what each opens), or widen the sweep")
     else:
@@ -163,8 +181,8 @@ def poles_agree(a: LoopAnalysis, b: LoopAnalysis, band_hz: float) -> tuple[bool,
     return worst <= _POLE_RTOL, f"the closed-loop poles below {band_hz:.4g} Hz differ by at most {worst:.2g} (relative)"
 
 
-def _band(a: LoopAnalysis) -> float:
-    """Where closed-loop poles matter: ten times the highest gain crossover, else the top of the sweep."""
+def second_break_band(a: LoopAnalysis) -> float:
+    """Where two breaks' closed-loop poles are compared: ten times the highest gain crossover, else the top of the sweep."""
     if a.gain_crossovers:
         return min(10.0 * max(c.freq_hz for c in a.gain_crossovers), float(a.freq_hz[-1]))
     return float(a.freq_hz[-1])
@@ -180,7 +198,7 @@ def second_break_check(first: Trial, measure_coarse: Callable[[Mapping[str, str]
     other = measure_coarse(placement)
     if other is None:
         return None
-    agree, how = poles_agree(first.analysis, other.analysis, _band(first.analysis))
+    agree, how = poles_agree(first.analysis, other.analysis, second_break_band(first.analysis))
     detail = f"a second break, {_moved(placement)}: {how}"
     if agree:
         return Check("second-break", True, detail)

@@ -30,9 +30,11 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict
-from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements
-from netloop.jobs.measure import METHODS, Sweep, ignored_lines, load_netlist, own_simulator, sample_loops
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
+from netloop.jobs.splits import LoopStructure
+from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band
+from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
+                                  refuse_inputs_only, sample_loops)
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe.differential import MODES, RUNS, PairProbe, break_pair
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
@@ -57,11 +59,12 @@ class Coupling:
     dm_band_hz: float
     cm_band_hz: float
     threshold_db: float = COUPLING_THRESHOLD_DB
+    unjudged: str = ""  # why the figures judge nothing ("" when they do): a mode that measured no loop is no reference
 
     @property
     def coupled(self) -> bool:
-        """True when either direction is above the threshold."""
-        return max(self.dm_to_cm_db, self.cm_to_dm_db) > self.threshold_db
+        """True when either direction is above the threshold (never when the figures judge nothing)."""
+        return not self.unjudged and max(self.dm_to_cm_db, self.cm_to_dm_db) > self.threshold_db
 
 
 @dataclass(frozen=True, slots=True)
@@ -237,6 +240,125 @@ def _settled(first: _Sampled, again) -> tuple[_Sampled, tuple[Check, ...]]:
                          "name each node's driver side with --driver NODE=ELEMENT[.PIN],..., or break the pair at other nodes" if failed else ""),)
 
 
+def _second_break(first: _Sampled, again) -> Check | None:
+    """The check "second-break" at a pair whose rules could not place a bridge (as close to both stages): the same pair with
+    those bridges on the other side, on a coarse sweep; both modes' closed-loop poles must agree (as for a single node)."""
+    flip = {"driver": "load", "load": "driver"}
+    unsure = tuple({b.element: flip[b.side] for b in half.bridges if not b.by_rule and not b.given} for half in (first.probe.p, first.probe.n))
+    if not any(unsure):
+        return None
+    try:
+        other = again(unsure, True)
+    except ProbeError:
+        return None
+    hows, agree = [], True
+    for mode in MODES:
+        ok, how = poles_agree(first.analyses[mode], other.analyses[mode], second_break_band(first.analyses[mode]))
+        agree = agree and ok
+        hows.append(f"{mode} mode: {how}")
+    what = "; ".join(f"{node}: {moved(pl)}" for node, pl in zip(first.probe.nodes, unsure) if pl)
+    detail = f"a second break, {what}: {'; '.join(hows)}"
+    if agree:
+        return Check("second-break", True, detail)
+    return Check("second-break", False, detail + "; two exact breaks of one circuit must find the same closed-loop poles",
+                 "sample more densely (raise --ppd), or break the pair at other nodes and compare")
+
+
+def _refuse_inputs_only(sampled: _Sampled, drivers: tuple[str | None, str | None], checks: tuple[Check, ...]) -> None:
+    """A node's driver naming only inputs stands when at least one mode's T passes every check and regulates with negative
+    feedback (as driver= at one node); else the split is backwards, and the error names the outputs on that node."""
+    halves = [(half, d) for half, d in zip((sampled.probe.p, sampled.probe.n), drivers) if d is not None and half.inputs_only]
+    if not halves:
+        return
+    whys = [why for mode in MODES if (why := inputs_only_doubt(sampled.analyses[mode], checks))]
+    if len(whys) == len(MODES):
+        half, driver = halves[0]
+        refuse_inputs_only(half, driver, "; ".join(f"{mode} mode: {why}" for mode, why in zip(MODES, whys)))
+
+
+class _Structure:
+    """The loops through each node of the pair (netloop.jobs.splits.LoopStructure), worked out only when asked."""
+
+    def __init__(self, parsed: Netlist):
+        self.parsed = parsed
+        self.known: dict[str, LoopStructure] = {}
+
+    def of(self, node: str) -> LoopStructure:
+        if node not in self.known:
+            self.known[node] = LoopStructure(self.parsed, node)
+        return self.known[node]
+
+
+def _deeper(first: _Sampled, structure: _Structure, again) -> tuple[_Sampled, tuple[Check, ...]]:
+    """The pair under the nets' names inside the block that drives them, as a single node's split is tried there when
+    doubted: when the pair as named is doubted, or one mode does not regulate while the other does (a net named above the
+    block that drives it keeps that block's own loop closed on the driver side), and there every mode passes its checks
+    and no fewer modes regulate. Else ``first`` unchanged."""
+    lagging = [m for m in MODES if not first.analyses[m].regulates]
+    why = first.doubts or ("; ".join(f"the {m} mode does not regulate (|T| at most {_peak_db(first.analyses[m]):.4g} dB)" for m in lagging)
+                           if 0 < len(lagging) < len(MODES) else "")
+    if not why:
+        return first, ()
+    nodes = first.probe.nodes
+    aliases = tuple(structure.of(node).alias(node) or node for node in nodes)
+    if aliases == nodes:
+        return first, ()
+    try:
+        trial = again((None, None), False, aliases)
+    except ProbeError:
+        return first, ()
+    if trial.doubts or sum(a.regulates for a in trial.analyses.values()) < sum(a.regulates for a in first.analyses.values()):
+        return first, ()
+    return trial, (Check("split", True, f"broke the pair under the names the nets have inside the block that drives them ({','.join(aliases)}): "
+                         f"at {','.join(nodes)}, {why}; here every self-check passes in both modes"),)
+
+
+def _peak_db(a: LoopAnalysis) -> float:
+    return float(np.max(20.0 * np.log10(np.abs(a.t) + 1e-300)))
+
+
+def _opens(sampled: _Sampled, mode: str, structure: _Structure) -> tuple[Check, ...]:
+    """The check "opens-loop" for a mode whose T does not regulate, as for a single node: the pair's split must open a loop
+    through at least one of its nodes; a split that opens none measures no loop, and its "does not regulate" is no promise."""
+    if sampled.analyses[mode].regulates:
+        return ()
+    found = [c for node in sampled.probe.nodes if (c := structure.of(node).opens_check(node)) is not None]
+    if not found:
+        return ()
+    if any(c.passed for c in found):
+        return (Check("opens-loop", True, "; ".join(c.detail for c in found if c.passed)),)
+    return (Check("opens-loop", False, "; ".join(c.detail for c in found), found[0].advice),)
+
+
+def _told(probe: PairProbe, checks: tuple[Check, ...]) -> PairProbe:
+    """The probe whose halves' decided_by also say what the pair's checks moved (the job check "split" when it moved)."""
+    moves = [c.detail for c in checks if c.name == "split" and c.passed and not c.detail.startswith("kept ")]
+    if not moves:
+        return probe
+    return replace(probe, n=replace(probe.n, decided_by=f"{probe.n.decided_by[:-1]}; netloop {moves[0]}."))
+
+
+def _unjudged(analyses: Mapping[str, LoopAnalysis]) -> str:
+    """Why the coupling figures judge nothing, or "": a mode whose T is negligible everywhere (its check loop-present
+    failed) returns no signal, and a ratio to it says nothing about mismatched halves."""
+    dead = [m for m in MODES if any(c.name == "loop-present" and not c.passed for c in analyses[m].checks)]
+    if not dead:
+        return ""
+    return (f"the {' and the '.join(dead)} mode{'s' if len(dead) > 1 else ''} measured no loop (|T| negligible everywhere), "
+            "so the signal returned there is no reference for a coupling")
+
+
+def _elsewhere(mode: str, analyses: Mapping[str, LoopAnalysis], nodes: tuple[str, str]) -> tuple[str, ...]:
+    """A warning for a mode that does not regulate at the pair while the other mode does: its loop closes elsewhere."""
+    other = next(m for m in MODES if m != mode)
+    a = analyses[mode]
+    if a.regulates or not analyses[other].regulates:
+        return ()
+    peak = _peak_db(a)
+    return (f"the {mode}-mode loop hardly passes {nodes[0]},{nodes[1]} (|T| at most {peak:.4g} dB there, while the {other}-mode loop "
+            f"regulates): measure it where it closes (netloop loops NETLIST lists the candidates), or at a pair both loops pass",)
+
+
 def measure_pair(
     netlist: Netlist | str | PathLike[str],
     pair: str | tuple[str, str],
@@ -262,7 +384,8 @@ def measure_pair(
     decided). Without them each node is split by the single-node rules (netloop.probe.sides) on the
     netlist as given, and when a mode fails its self-checks or T has poles of its own, the other
     placements of the bridging elements are tried, the halves alike (the job check "split" says
-    what was moved and why).
+    what was moved and why); a pair named above the block that drives it is tried under its names
+    inside that block when doubted or when one mode does not regulate (docs/splitting.md).
     """
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
@@ -276,20 +399,29 @@ def measure_pair(
     try:
         first = _sample_pair(parsed, (p_node, n_node), drivers, (None, None), sweep=sweep, **options)
         job_checks: tuple[Check, ...] = ()
+        mode_checks: dict[str, tuple[Check, ...]] = dict.fromkeys(MODES, ())
         if drivers == (None, None):
             extra = []
 
-            def again(place, coarse: bool) -> _Sampled:
-                done = _sample_pair(parsed, (p_node, n_node), drivers, place, sweep=replace(sweep, refine=False) if coarse else sweep, **options)
+            def again(place, coarse: bool, nodes: tuple[str, str] = (p_node, n_node)) -> _Sampled:
+                done = _sample_pair(parsed, nodes, drivers, place, sweep=replace(sweep, refine=False) if coarse else sweep, **options)
                 extra.append(done.info.seconds)
                 return done
 
             first, job_checks = _settled(first, again)
+            if not job_checks and not any(not c.passed for a in first.analyses.values() for c in a.checks):
+                second = _second_break(first, again)
+                job_checks = (second,) if second is not None else ()
+            structure = _Structure(parsed)
+            first, deeper = _deeper(first, structure, again)
+            job_checks = (*job_checks, *deeper)
+            mode_checks = {mode: _opens(first, mode, structure) for mode in MODES}
             first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(extra)))
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
-    probe, analyses, info, sim_warnings, samples = first.probe, first.analyses, first.info, first.warnings, first.samples
+    _refuse_inputs_only(first, drivers, job_checks)
+    probe, analyses, info, sim_warnings, samples = _told(first.probe, job_checks), first.analyses, first.info, first.warnings, first.samples
 
     dm_band, cm_band = _band_hz(analyses["differential"]), _band_hz(analyses["common"])
     coupling = Coupling(
@@ -298,6 +430,7 @@ def measure_pair(
         dm_band_hz=dm_band,
         cm_band_hz=cm_band,
         threshold_db=coupling_threshold_db,
+        unjudged=_unjudged(analyses),
     )
     coupling_warning = ()
     if coupling.coupled:
@@ -309,7 +442,7 @@ def measure_pair(
     results = {}
     for mode in MODES:
         a = analyses[mode]
-        warnings = (*parsed.warnings, *probe.warnings, *coupling_warning, *sim_warnings[mode], *a.warnings)
+        pz = closed_circuit_pz(parsed, a, probe.p.side_b)  # as for one node: when T has poles of its own, on a small circuit
         results[mode] = LoopResult(
             netlist=parsed.source,
             label=label,
@@ -318,8 +451,8 @@ def measure_pair(
             analysis=a,
             requirements=tuple(r.check(a) for r in reqs),
             ignored_statements=ignored_lines(parsed),
-            warnings=tuple(dict.fromkeys(warnings)),
             sim=info,
-            checks=job_checks,
+            checks=(*job_checks, *mode_checks[mode], *((pz,) if pz is not None else ())),
+            **netlist_notes(parsed, probe.warnings, coupling_warning, sim_warnings[mode], a.warnings, _elsewhere(mode, analyses, (p_node, n_node))),
         )
     return PairResult(results["differential"], results["common"], coupling, (p_node, n_node))

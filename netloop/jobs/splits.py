@@ -3,18 +3,20 @@
 from __future__ import annotations
 
 import logging
+from collections.abc import Mapping
 from dataclasses import replace
 
+from netloop.analysis.results import Check
 from netloop.errors import NetloopError
-from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup
-from netloop.graph.split_effects import OPENED, NodeSplit, apply_splits, loop_fates
+from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
+from netloop.graph.split_effects import NOT_THROUGH, OPENED, LoopFate, NodeSplit, apply_splits, loop_fates
 from netloop.netlist import Netlist
 from netloop.netlist.model import Element
 from netloop.probe.breaking import locate_split
-from netloop.probe.scope import Scope, child_scope, elements_of
+from netloop.probe.scope import Scope, child_scope, elements_of, resolve_node
 from netloop.probe.sides import ac_ground_nodes
 
-__all__ = ["DEFAULT_SPLIT_CHECKS", "driver_alias", "node_split", "probe_splits"]
+__all__ = ["DEFAULT_SPLIT_CHECKS", "LoopStructure", "driver_alias", "node_split", "probe_splits"]
 
 _log = logging.getLogger("netloop")  # the status line (netloop.cli.status)
 
@@ -41,7 +43,8 @@ def _flat_terminals(netlist: Netlist, circuit: FlatCircuit, index: dict[str, int
 
 
 def node_split(netlist: Netlist, circuit: FlatCircuit, node: str, *, driver: str | None = None,
-               ac_ground: frozenset[str] | None = None, index: dict[str, int] | None = None) -> NodeSplit:
+               ac_ground: frozenset[str] | None = None, index: dict[str, int] | None = None,
+               placement: Mapping[str, str] | None = None) -> NodeSplit:
     """How netloop.probe.break_loop would split ``node`` (same side decision, no netlist built), or why it refuses.
 
     ``circuit`` is ``flatten(netlist)``; each probe terminal is mapped to the flattened terminals it
@@ -54,7 +57,7 @@ def node_split(netlist: Netlist, circuit: FlatCircuit, node: str, *, driver: str
     if ac_ground is None:
         ac_ground = ac_ground_nodes(netlist, globals_)
     try:
-        scope, _, split = locate_split(netlist, node, driver=driver, ac_ground=ac_ground)  # break_loop's own steps
+        scope, _, split = locate_split(netlist, node, driver=driver, ac_ground=ac_ground, placement=placement)  # break_loop's own steps
     except NetloopError as exc:
         return NodeSplit(node, refused=str(exc))
     sides: dict[tuple[str, str], str] = {}
@@ -121,3 +124,63 @@ def probe_splits(netlist: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *
         g = apply_splits(circuit, g, splits)
         groups.append(replace(g, candidates=tuple(replace(c, at=at.get(c.node, "")) for c in g.candidates)))
     return replace(found, groups=tuple(groups))
+
+
+class LoopStructure:
+    """The loops through one net of a netlist and what a given split of it opens, worked out once (flatten and loop
+    search) when a measurement asks: netloop.jobs.measure asks only when a measured T does not regulate, or is doubted."""
+
+    def __init__(self, netlist: Netlist, at: str):
+        self.netlist = netlist
+        self.circuit = flatten(netlist)
+        self.index = {n: i for i, n in enumerate(self.circuit.names)}
+        globals_ = frozenset(netlist.globals)
+        self.ac_ground = ac_ground_nodes(netlist, globals_)
+        scope, local = resolve_node(netlist, at, globals_, lift=False)
+        self.flat = scope.flat(local, globals_)
+        found = find_loops(self.circuit)
+        self.group: LoopGroup | None = next((g for g in found.groups if self.flat in g.nodes), None)
+
+    def split(self, at: str, placement: Mapping[str, str] | None = None) -> NodeSplit:
+        """The probe's split of the net under the name ``at``, stated on the flattened net."""
+        split = node_split(self.netlist, self.circuit, at, ac_ground=self.ac_ground, index=self.index, placement=placement)
+        return replace(split, node=self.flat)
+
+    def fates(self, at: str, placement: Mapping[str, str] | None = None) -> tuple[LoopFate, ...]:
+        """What the split under ``at`` does to each loop of the net's group; empty when the net is on no loop."""
+        split = self.split(at, placement)
+        if self.group is None or split.refused:
+            return ()
+        return loop_fates(self.circuit, self.group.loops, split)
+
+    def opens_check(self, at: str, placement: Mapping[str, str] | None = None) -> Check | None:
+        """The check "opens-loop": the split opens at least one of the loops that pass through the net (None when no loop
+        found passes through it: the probe's own loop search speaks for such a node)."""
+        through = [f for f in self.fates(at, placement) if f.fate != NOT_THROUGH]
+        if self.group is None or not through:
+            return None
+        opened = [f for f in through if f.fate == OPENED]
+        label = self.group.label
+        if opened:
+            return Check("opens-loop", True, f"the split at {at} opens {len(opened)} of the {len(through)} loop(s) of {label} through it")
+        by: dict[str, int] = {}
+        for f in through:
+            by[f.fate] = by.get(f.fate, 0) + 1
+        how = ", ".join(f"{n} {fate}" for fate, n in sorted(by.items()))
+        alias = self.alias(at)
+        where = (f"break the same net under the name it has inside the block that drives it (--at {alias}), " if alias else "")
+        return Check("opens-loop", False,
+                     f"the split at {at} opens none of the {len(through)} loop(s) of {label} that pass through the net ({how}): "
+                     "T there measures no loop of the circuit, so its 'does not regulate' would be no promise",
+                     f"{where}name the driver side with --driver, or break the loop at another node (netloop loops NETLIST lists "
+                     "what each break opens)")
+
+    def alias(self, at: str) -> str | None:
+        """A deeper name of the net, inside the block that drives it (driver_alias), when ``at`` is not already that name."""
+        if self.group is None:
+            return None
+        cand = next((c for c in self.group.candidates if c.node == self.flat), None)
+        drivers = cand.drivers if cand is not None and cand.drivers else tuple(
+            dict.fromkeys(el for (el, _), side in self.split(at).sides.items() if side == "driver"))
+        alias = driver_alias(self.circuit, self.flat, drivers, self.index)
+        return None if alias is None or alias == at.strip().lower() else alias

@@ -10,8 +10,9 @@ from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Element
 from netloop.netlist.values import looks_numeric
 
-__all__ = ["ELEMENT_LETTERS", "controlling_sources", "parse_card", "resolve_bjt", "two_terminal"]
+__all__ = ["ELEMENT_LETTERS", "MOS_NEEDS", "MOS_PINS", "controlling_sources", "parse_card", "resolve_bjt", "resolve_mos", "two_terminal"]
 
+MOS_NEEDS = "4 nodes and a model (3, or 5 with the thermal nodes, for a vdmos model)"
 # Fixed-arity elements: (pin roles, minimum token count after the name, what the card needs).
 _FIXED: dict[str, tuple[tuple[str, ...], int, str]] = {
     "R": (("p", "n"), 3, "2 nodes and a value"),
@@ -21,7 +22,7 @@ _FIXED: dict[str, tuple[tuple[str, ...], int, str]] = {
     "I": (("p", "n"), 2, "2 nodes"),
     "B": (("p", "n"), 3, "2 nodes and an expression"),
     "D": (("p", "n"), 3, "2 nodes and a model"),
-    "M": (("d", "g", "s", "b"), 5, "4 nodes and a model"),
+    "M": (("d", "g", "s", "b"), 4, MOS_NEEDS),
     "J": (("d", "g", "s"), 4, "3 nodes and a model"),
     "Z": (("d", "g", "s"), 4, "3 nodes and a model"),
     "S": (("p", "n", "cp", "cn"), 5, "4 nodes and a model"),
@@ -100,6 +101,21 @@ def resolve_bjt(tokens: tuple[str, ...] | list[str], models: Collection[str]) ->
     return 3
 
 
+MOS_PINS = {3: ("d", "g", "s"), 4: ("d", "g", "s", "b"), 5: ("d", "g", "s", "tj", "tc")}  # by node count (resolve_mos)
+
+
+def resolve_mos(tokens: tuple[str, ...] | list[str], vdmos: Collection[str]) -> int:
+    """How many nodes an M card has: 3 (d g s) or 5 (d g s tj tc, the thermal nodes) when the model there is a vdmos
+    model (ngspice manual, VDMOS: "Mxxx nd ng ns [tj tc] mname"), else 4 (d g s b); 3 when the card has only 4 tokens."""
+    if len(tokens) < 5:
+        return 3
+    if tokens[3].lower() in vdmos:
+        return 3
+    if len(tokens) >= 6 and tokens[5].lower() in vdmos:
+        return 5
+    return 4
+
+
 def _xspice_slots(toks: list[str]) -> list[int]:
     slots = []
     for i, t in enumerate(toks[:-1]):
@@ -109,8 +125,9 @@ def _xspice_slots(toks: list[str]) -> list[int]:
     return slots
 
 
-def parse_card(text: str, loc: SourceLocation, models: Collection[str] = ()) -> Element:
-    """Parse one element statement (continuations already joined) into an ``Element``."""
+def parse_card(text: str, loc: SourceLocation, models: Collection[str] = (), vdmos: Collection[str] = ()) -> Element:
+    """Parse one element statement (continuations already joined) into an ``Element``; ``models`` are the model names
+    defined so far, ``vdmos`` those of type vdmos (resolve_bjt, resolve_mos: a card before its model is resolved later)."""
     toks = tokenize(text)
     name = toks[0]
     kind = name[0].upper()
@@ -123,22 +140,25 @@ def parse_card(text: str, loc: SourceLocation, models: Collection[str] = ()) -> 
         pins, need, what = _FIXED[kind]
         if n < need:
             raise _fail(f"{name}: expected {what}", text, loc)
+        if kind == "M":
+            count = resolve_mos(rest, vdmos)
+            pins = MOS_PINS[count]
         slots = tuple(range(len(pins)))
-        at = _MODEL_AT.get(kind)
+        at = len(pins) if kind == "M" else _MODEL_AT.get(kind)
         if at is not None:
             model = rest[at].lower()
         elif kind in "FH":
             order = _poly_order(rest[2])
-            if order is not None and n < 3 + order:
-                raise _fail(f"{name}: expected {order} controlling sources after {rest[2]}", text, loc)
+            if order is not None and n < 4 + order:  # ngspice 39 refuses a POLY card without coefficients too
+                raise _fail(f"{name}: expected {order} controlling sources and the coefficients after {rest[2]}", text, loc)
     elif kind in "EG":
         if n < 3:
             raise _fail(f"{name}: expected 2 output nodes and a gain, POLY(n), VALUE= or TABLE form", text, loc)
         third = rest[2].lower()
         order = _poly_order(third)
         if order is not None:
-            if n < 3 + 2 * order:
-                raise _fail(f"{name}: expected {2 * order} controlling nodes after {rest[2]}", text, loc)
+            if n < 4 + 2 * order:  # ngspice 39 refuses a POLY card without coefficients too
+                raise _fail(f"{name}: expected {2 * order} controlling nodes and the coefficients after {rest[2]}", text, loc)
             slots = (0, 1, *range(3, 3 + 2 * order))
             pins = ("p", "n", *(f"{r}{k}" for k in range(1, order + 1) for r in ("cp", "cn")))
         elif "=" in third or third.startswith(("value", "table", "laplace", "freq", "vol", "cur", "{", "'")):
@@ -184,6 +204,10 @@ def parse_card(text: str, loc: SourceLocation, models: Collection[str] = ()) -> 
         if "=" in t or t[0] in "{'":
             cols = token_columns(text)
             raise _fail(f"{name}: expected a node name, got {t!r}", text, loc, cols[min(i + 1, len(cols) - 1)])
+        if not t.isascii():
+            cols = token_columns(text)
+            raise _fail(f"{name}: node {t!r} has characters outside ASCII, which ngspice cannot name in its output; rename "
+                        "it with ASCII letters, digits and _", text, loc, cols[min(i + 1, len(cols) - 1)])
         low = t.lower()
         if low != t:
             rest[i] = low

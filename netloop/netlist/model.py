@@ -141,7 +141,10 @@ class Netlist:
     and what was read to get there.
 
     ``ignored`` holds what netloop never runs: analyses (.op .ac .tran ...), output statements
-    and ``.control`` blocks; they are not in ``statements``.
+    and ``.control`` blocks; they are not in ``statements``. ``caveats`` are the warnings that bear on what a verdict
+    is about (netloop.netlist.caveats: the title line reads as an element, a ``.control`` block is left open or
+    changes the circuit); they also lead ``warnings``. ``library_warnings`` are the warnings about library content
+    the circuit does not instantiate, folded into one line at the end of ``warnings``.
     """
 
     title: str
@@ -152,6 +155,8 @@ class Netlist:
     lib_sections: tuple[tuple[str, str], ...] = ()  # (file, section) pairs selected by .lib
     globals: tuple[str, ...] = ()  # .global nets, lower-case
     warnings: tuple[str, ...] = ()
+    caveats: tuple[str, ...] = ()
+    library_warnings: tuple[str, ...] = ()
     inclusions: tuple[Inclusion, ...] = field(default=(), compare=False)  # top-level includes, outer first
     _index: dict = field(default_factory=dict, repr=False, compare=False)
 

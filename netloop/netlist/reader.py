@@ -9,7 +9,8 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 
 from netloop.errors import NetlistError, NetlistSyntaxError
-from netloop.netlist.cards import parse_card, resolve_bjt, two_terminal
+from netloop.netlist.cards import MOS_NEEDS, MOS_PINS, parse_card, resolve_bjt, resolve_mos, two_terminal
+from netloop.netlist.caveats import control_caveats, open_control, title_caveat
 from netloop.netlist.lines import LogicalLine, logical_lines, tokenize
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
@@ -98,14 +99,18 @@ class _Reader:
         self.lib_sections: list[tuple[str, str]] = []
         self.ignored: list[Directive] = []
         self.warnings: list[str] = []
+        # warnings that may concern library content: (top-level definition they are in, or "" for any, warning)
+        self.maybe_library: list[tuple[str, str]] = []
         self.globals: list[str] = []
         self.inclusions: list[Inclusion | None] = []
         self.models: set[str] = set()
+        self.vdmos: set[str] = set()  # models of type vdmos (their M cards have 3 nodes, or 5 with the thermal nodes)
         self.stack: list[_Frame] = [_Frame("", (), (), SourceLocation("", 0), "")]
         self.cache: dict[str, _FileText] = {}
         self.active: set[tuple[str, str | None]] = set()
         self.has_q = False
         self.has_x = False
+        self.top_file = ""
         self.has_model = False  # some card names a model (so undefined models are looked for)
 
     # -- files ---------------------------------------------------------------------------
@@ -119,6 +124,7 @@ class _Reader:
         except OSError as exc:
             where = f"{at}: " if at else ""
             raise NetlistError(f"{where}cannot read {path!r}: {exc.strerror or exc}") from exc
+        refuse_binary(path, text, at)
         if path not in self.files:
             self.files.append(path)
         ft = _indexed(path, text)
@@ -142,6 +148,7 @@ class _Reader:
         return _FileText(lines, sections)
 
     def read_top(self, lines: list[LogicalLine], file: str, base_dir: str) -> None:
+        self.top_file = file
         self._run(_FileText(lines, {}).lines, 0, len(lines), file, base_dir)
 
     def _include(self, kind: str, path: str, section: str | None, at: SourceLocation) -> None:
@@ -192,7 +199,7 @@ class _Reader:
                 continue
             c = text[0]
             if c != ".":
-                if c in _TWO_TERMINAL and "=" not in text and "{" not in text and "'" not in text:
+                if c in _TWO_TERMINAL and "=" not in text and "{" not in text and "'" not in text and text.isascii():
                     # fast path for the bulk of large netlists: "R1 a b 1k", "V1 a 0 DC 1"
                     toks = text.split()
                     if len(toks) >= 4:
@@ -200,7 +207,7 @@ class _Reader:
                         continue
                 if c == "+":
                     raise NetlistSyntaxError("a continuation line ('+') with no statement before it to continue", SourceLocation(file, ln), text)
-                el = parse_card(text, SourceLocation(file, ln), models)
+                el = parse_card(text, SourceLocation(file, ln), models, self.vdmos)
                 if el.model is not None:
                     self.has_model = True
                 k = c.upper()
@@ -214,7 +221,11 @@ class _Reader:
             loc = SourceLocation(file, ln)
             if kw in KEPT_KEYWORDS:
                 if kw == ".model":
-                    models.update(_model_names(text))
+                    names = _model_names(text)
+                    models.update(names)
+                    kind = text.split(None, 3)[2:3]
+                    if kind and kind[0].split("(")[0].lower() == "vdmos":
+                        self.vdmos.update(names)
                 elif kw == ".global":
                     for g in text.split()[1:]:
                         g = g.lower()
@@ -286,6 +297,9 @@ class _Reader:
                 params.append((k.strip().lower(), v.strip()))
             elif in_params:
                 params.append((t.lower(), ""))
+            elif not t.isascii():
+                raise NetlistSyntaxError(f".subckt {toks[1]}: pin {t!r} has characters outside ASCII, which ngspice cannot name in "
+                                         "its output; rename it with ASCII letters, digits and _", SourceLocation(loc.file, loc.line, text.find(t) + 1), text)
             else:
                 pins.append(low)
         self.stack.append(_Frame(name, tuple(pins), tuple(params), loc, text))
@@ -297,7 +311,11 @@ class _Reader:
         toks = text.split()
         if len(toks) > 1 and toks[1].lower() != fr.name:
             # ngspice 39 closes the innermost open definition whatever the name says (see the tests); so do we, with a warning
-            self.warnings.append(f"{loc}: .ends {toks[1]} closes .subckt {fr.name} (the innermost open definition)")
+            said = f"{loc}: .ends {toks[1]} closes .subckt {fr.name} (the innermost open definition)"
+            if loc.file == self.top_file:
+                self.warnings.append(said)
+            else:  # a library's own habit, whether or not the circuit uses the definition
+                self.maybe_library.append(("", said))
         self.stack[-1].body.append(Subcircuit(fr.name, fr.pins, fr.params, tuple(fr.body), fr.location, fr.header))
 
     # -- finishing -----------------------------------------------------------------------
@@ -308,10 +326,16 @@ class _Reader:
         body = self.stack[0].body
         statements: tuple[Statement, ...] = tuple(body)
         if self.has_q or self.has_x or self.models or self.has_model:
-            statements = self._resolve(statements, ({},))
+            statements = self._resolve(statements, ({},), None)
             if statements != tuple(body):
                 # inclusions hold the unresolved records; re-slice them from the resolved list by identity of position
                 self._reslice(tuple(body), statements)
+        library = self._library_warnings(statements)
+        own = tuple(w for _, w in self.maybe_library if w not in library)
+        folded = (_folded(library),) if library else ()
+        blocks = [d for d in self.ignored if d.keyword == ".control"]
+        caveats = tuple(w for w in (title_caveat(title, source, statements, self.models), *map(open_control, blocks)) if w)
+        caveats = (*caveats, *control_caveats(blocks, statements))
         return Netlist(
             title=title,
             statements=statements,
@@ -320,7 +344,9 @@ class _Reader:
             files=tuple(self.files),
             lib_sections=tuple(self.lib_sections),
             globals=tuple(self.globals),
-            warnings=tuple(self.warnings),
+            warnings=(*caveats, *self.warnings, *own, *folded),
+            caveats=caveats,
+            library_warnings=library,
             inclusions=tuple(x for x in self.inclusions if x is not None),
         )
 
@@ -333,8 +359,39 @@ class _Reader:
             if i is not None:
                 self.inclusions[k] = replace(inc, statements=new[i : i + len(inc.statements)])
 
-    def _resolve(self, statements: tuple, scopes: tuple) -> tuple:
-        """Give X cards their definitions' pin names and Q cards their final node count (definitions may come later)."""
+    def _library_warnings(self, statements: tuple) -> tuple[str, ...]:
+        """The warnings about library content: in top-level definitions no instance of the circuit reaches, and .ends
+        habits of included files."""
+        if not self.maybe_library:
+            return ()
+        defs = {s.name: s for s in statements if isinstance(s, Subcircuit)}
+        reached: set[str] = set()
+        todo = [s.model for s in statements if isinstance(s, Element) and s.kind == "X"]
+        while todo:
+            name = todo.pop()
+            if name in reached or name not in defs:
+                continue
+            reached.add(name)
+            bodies = [defs[name].body]
+            while bodies:
+                for s in bodies.pop():
+                    if isinstance(s, Element) and s.kind == "X":
+                        todo.append(s.model)
+                    elif isinstance(s, Subcircuit):
+                        bodies.append(s.body)
+        return tuple(w for within, w in self.maybe_library if within not in reached)
+
+    def _warn(self, within: str | None, file: str, warning: str) -> None:
+        """A warning about a card of the top level (``within`` None) or of a definition: one in an included file may be
+        about library content the circuit does not use (decided once every definition is known)."""
+        if within is None or file == self.top_file:
+            self.warnings.append(warning)
+        else:
+            self.maybe_library.append((within, warning))
+
+    def _resolve(self, statements: tuple, scopes: tuple, within: str | None) -> tuple:
+        """Give X cards their definitions' pin names and Q cards their final node count (definitions may come later).
+        ``within``: the top-level definition these statements are in (None: the top level)."""
         local = {s.name: s for s in statements if isinstance(s, Subcircuit)}
         scopes = (local, *scopes) if local else scopes
         out = []
@@ -352,10 +409,16 @@ class _Reader:
                             toks[j] = toks[j].lower()
                         new = replace(s, tokens=tuple(toks), node_slots=slots,
                                       pins=("c", "b", "e", "sub")[:count], model=s.tokens[count].lower())
+                elif k == "M":  # a vdmos model defined after the card changes how many nodes it has
+                    count = resolve_mos(s.tokens, self.vdmos)
+                    if count == 3 and s.tokens[3].lower() not in self.vdmos:
+                        raise NetlistSyntaxError(f"{s.name}: expected {MOS_NEEDS}", SourceLocation(s.location.file, s.location.line, len(s.card()) + 2), s.card())
+                    if count != len(s.node_slots):
+                        new = replace(s, node_slots=tuple(range(count)), pins=MOS_PINS[count], model=s.tokens[count].lower())
                 if k == "X":
                     sub = next((sc[s.model] for sc in scopes if s.model in sc), None)
                     if sub is None:
-                        self.warnings.append(f"{s.location}: {s.name}: undefined subcircuit {s.model!r}")
+                        self._warn(within, s.location.file, f"{s.location}: {s.name}: undefined subcircuit {s.model!r}")
                     elif len(sub.pins) != len(s.node_slots):
                         raise NetlistSyntaxError(
                             f"{s.name}: subcircuit {sub.name} has {len(sub.pins)} pins ({' '.join(sub.pins)}), the card gives {len(s.node_slots)} nodes",
@@ -364,14 +427,27 @@ class _Reader:
                         new = replace(s, pins=sub.pins)
                 elif new.model is not None and k in _MODEL_KINDS and new.model not in self.models:
                     if not any(new.model in sc for sc in scopes):  # ngspice also accepts a subcircuit here
-                        self.warnings.append(f"{s.location}: {s.name}: undefined model {new.model!r}")
+                        self._warn(within, s.location.file, f"{s.location}: {s.name}: undefined model {new.model!r}")
             elif isinstance(s, Subcircuit):
-                body = self._resolve(s.body, scopes)
+                body = self._resolve(s.body, scopes, s.name if within is None else within)
                 if body != s.body:
                     new = replace(s, body=body)
             changed |= new is not s
             out.append(new)
         return tuple(out) if changed else statements
+
+
+def _folded(library: tuple[str, ...]) -> str:
+    """One line for the warnings about library content the circuit does not use: counted by kind, the files named."""
+    kinds: dict[str, int] = {}
+    for w in library:
+        kind = next((k for k in ("undefined subcircuit", "undefined model", ".ends") if k in w), "other")
+        kinds[kind] = kinds.get(kind, 0) + 1
+    files = list(dict.fromkeys(w.split(":", 1)[0] for w in library))
+    counts = ", ".join(f"{n} {'.ends naming another definition' if k == '.ends' else k}" for k, n in kinds.items())
+    where = os.path.basename(files[0]) + (f" and {len(files) - 1} more file(s)" if len(files) > 1 else "")
+    return (f"{len(library)} warning(s) about library content the circuit does not use ({counts}; in {where}); "
+            "each is listed in library_warnings (--json)")
 
 
 def _title_and_rest(raw: list[str]) -> tuple[str, list[LogicalLine]]:
@@ -420,9 +496,22 @@ def parse_file(path: str | os.PathLike) -> Netlist:
             text = fh.read()
     except OSError as exc:
         raise NetlistError(f"cannot read netlist {os.fspath(path)!r}: {exc.strerror or exc}") from exc
+    refuse_binary(os.fspath(path), text)
     netlist = parse_text(text, source=p, base_dir=os.path.dirname(p))
     note = spiceinit_note(os.path.dirname(p))
     return replace(netlist, warnings=(*netlist.warnings, note)) if note else netlist
+
+
+def refuse_binary(path: str, text: str, at: SourceLocation | None = None) -> None:
+    """NetlistError when a file meant as a netlist holds a NUL byte (an object file, an image, a raw file): no SPICE text
+    does, and its lines are not echoed to the terminal."""
+    nul = text.find("\x00")
+    if nul < 0:
+        return
+    line = text.count("\n", 0, nul) + 1
+    where = f"{at}: " if at else ""
+    raise NetlistError(f"{where}{path}:{line}: not a text netlist: it holds binary bytes (a NUL byte on line {line}); "
+                       "give the SPICE netlist file")
 
 
 def spiceinit_note(folder: str) -> str | None:

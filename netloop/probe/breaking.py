@@ -17,7 +17,7 @@ from netloop.probe.loops import connectivity, loop_report
 from netloop.probe.records import ProbedNetlist, ProbeVectors
 from netloop.probe.rewrite import fresh_name, split_node
 from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, resolve_node, scope_names, scope_of_path, walk_scopes
-from netloop.probe.sides import PIN_ELEMENT, Split, Terminal, ac_ground_nodes, decide_sides, terminals_at
+from netloop.probe.sides import PIN_ELEMENT, Split, Terminal, ac_ground_nodes, decide_sides, fed_terminals, terminals_at
 from netloop.probe.silence import silence_statements
 
 __all__ = ["Located", "break_loop", "locate_split", "split_loop"]
@@ -122,30 +122,37 @@ def _into_instance(netlist: Netlist, scope: Scope, node: str, terminals: tuple[T
     return scope, node, terminals
 
 
-def _outside(netlist: Netlist, scope: Scope, node: str, ac_ground, globals_) -> Terminal | None:
+def _outside(netlist: Netlist, scope: Scope, node: str, ac_ground, globals_, inside_drives: bool = False) -> Terminal | None:
     """For a node inside an instance that is one of its pins: the rest of the net outside the instance, as one terminal
-    (PIN_ELEMENT) whose role is that of what sits out there, at every level up (a driver when anything drives it). None
-    for any other node, or when nothing outside connects to the pin."""
+    (PIN_ELEMENT) whose role is that of what sits out there, at every level up: a driver when anything drives it, unless
+    the instance drives the net itself (``inside_drives``) and inputs sit out there too: the rest of the net is then
+    where the signal goes on, a load (an output out there, such as a start-up device beside the block, is one more
+    source of current into the node, which cannot leave the net's loads behind on the driver side). None for any other
+    node, or when nothing outside connects to the pin."""
     if not scope.path or node not in scope.definitions[-1].pins:
         return None
     roles: list[str] = []
     labels: list[str] = []
+    fed: list[str] = []
     inner, net = scope, node
     while inner.path and net in inner.definitions[-1].pins:
         parent = scope_of_path(netlist, inner.path[:-1], globals_)
         instance = next(e for e in elements_of(netlist, parent) if e.key == inner.path[-1] and e.kind == "X")
         slots = [k for k, pin in enumerate(inner.definitions[-1].pins) if pin == net]
         net = instance.nodes[slots[0]]
-        for t in terminals_at(netlist, parent, net, ac_ground, globals_):
-            if not (t.element is instance and t.slot in slots):
-                roles.append(t.role)
-                labels.append(t.label)
+        outside = [t for t in terminals_at(netlist, parent, net, ac_ground, globals_) if not (t.element is instance and t.slot in slots)]
+        roles.extend(t.role for t in outside)
+        labels.extend(t.label for t in outside)
+        fed.extend(t.label for t in fed_terminals(netlist, parent, net, tuple(outside), ac_ground, globals_))
         inner = parent
     if not labels:
         return None
-    role = "driver" if "driver" in roles else "cg" if "cg" in roles else "shunt" if set(roles) == {"shunt"} else "load"
+    loads_too = inside_drives and "load" in roles
+    role = ("driver" if "driver" in roles and not loads_too else "cg" if "cg" in roles and not loads_too
+            else "shunt" if set(roles) == {"shunt"} else "load")
     shown = ", ".join(labels[:3]) + (f" and {len(labels) - 3} more" if len(labels) > 3 else "")
-    return Terminal(PIN_ELEMENT, -1, node, role, f"{'.'.join((*scope.path, node))} outside {scope.path[-1]} ({shown})")
+    return Terminal(PIN_ELEMENT, -1, node, role, f"{'.'.join((*scope.path, node))} outside {scope.path[-1]} ({shown})",
+                    fed=", ".join(fed) if role == "load" else "")
 
 
 def _scope_of_driver(netlist: Netlist, scope: Scope, node: str, driver: str, globals_) -> tuple[Scope, str]:
@@ -198,7 +205,7 @@ def locate_split(netlist: Netlist, at: str, *, driver: str | None = None, ac_gro
     if driver is not None:
         scope, node = _scope_of_driver(netlist, scope, node, driver, globals_)
     terminals = terminals_at(netlist, scope, node, ac_ground, globals_)
-    outside = _outside(netlist, scope, node, ac_ground, globals_)
+    outside = _outside(netlist, scope, node, ac_ground, globals_, any(t.role == "driver" for t in terminals))
     if outside is not None:
         terminals = (*terminals, outside)
     else:

@@ -15,21 +15,26 @@ The rules, from circuit theory (docs/splitting.md says them for designers):
   capacitor stays with the stage it wraps: with the driver at that stage's output, with the load
   at its input); otherwise, or when both sides are as close, it goes with the load, and the
   measurement's self-checks confirm the placement (netloop.jobs.measure tries the other one when
-  they fail).
+  they fail). Elements in parallel are one branch: a chain of diode-connected devices (a
+  pseudo-resistor) beside a feedback capacitor goes where the capacitor goes, and a
+  diode-connected device is no stage that a bridge could wrap.
+* A node no output sits on (an amplifier's input) is driven by the passive elements that bring the
+  signal from an output sooner than they lead on to an input, with the switches and
+  pseudo-resistors beside them; inside an instance, by the net outside when that is how it is fed.
 """
 
 from __future__ import annotations
 
 from collections import deque
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from netloop.errors import ProbeError
 from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist
 from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, walk_scopes
 
-__all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "terminals_at"]
+__all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "fed_terminals", "terminals_at"]
 
 # Output terminals of each element letter; a source/emitter drives only when the drain/collector is AC ground.
 _OUTPUTS = {"E": ("p", "n"), "G": ("p", "n"), "F": ("p", "n"), "H": ("p", "n"), "B": ("p", "n")}
@@ -56,6 +61,9 @@ class Terminal:
     label: str  # "m6.d", "xamp.m6.d", "xamp.out"
     via: str = ""  # for a series voltage source: what sits on its far side ("m5.d")
     whole: bool = False  # one of several (non-bulk) terminals of one element on the node: the element is one unit
+    fed: str = ""  # for the net outside an instance: its passive elements that bring the signal from an output ("rf2.n")
+    tied: str = ""  # the label of a series voltage source at the node whose far side holds another terminal of this element:
+    # the element is one unit across the source (a diode connected through a 0 V sense source), so it goes with the source
 
 
 @dataclass(frozen=True, slots=True)
@@ -180,8 +188,11 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
     voltage source takes the role of what sits on its far side (looked through, as far as it goes).
     """
     out = []
+    sources: list[Element] = []  # the voltage sources of the scope: they join nodes for AC
     for e in elements_of(netlist, scope):
         nodes = e.nodes
+        if e.kind == "V":
+            sources.append(e)
         if node not in nodes:
             continue
         pins = _device_pins(netlist, scope, e)
@@ -203,6 +214,48 @@ def terminals_at(netlist: Netlist, scope: Scope, node: str, ac_ground: frozenset
                 role, via = _through_source(netlist, scope, node, e, ac_ground, globals_, depth, _through | {node})
         whole = len(main) > 1
         out.extend(Terminal(e, k, p, role, f"{scope.label(e)}.{p}", via, whole) for k, p in zip(slots, pin_of))
+    return _units_across_sources(netlist, scope, node, tuple(out), sources, ac_ground, globals_)
+
+
+def _units_across_sources(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], sources: list[Element],
+                          ac_ground, globals_) -> tuple[Terminal, ...]:
+    """The terminals with each element that also sits beyond a series voltage source at the node made one unit with that
+    source: a 0 V source has no AC impedance, so a transistor whose drain is beyond it and whose gate is on the node is
+    diode-connected (a one-port to AC ground when its other terminals are there), and it goes to the source's side whole."""
+    ours = [t for t in terminals if t.role == "series" or t.via or (t.element.kind == "V" and t.slot >= 0)]
+    if not ours:
+        return terminals
+    # the nodes each source terminal at the node joins to it, through chains of voltage sources
+    joined: dict[str, str] = {}  # joined node -> the label of the source terminal at the node that leads there
+    for t in ours:
+        if t.element.kind != "V":
+            continue
+        todo = [n for n in t.element.nodes if n != node]
+        while todo:
+            n = todo.pop()
+            if n in joined or n == node or _grounded(scope, n, ac_ground, globals_):
+                continue
+            joined[n] = joined.get(n, t.label)
+            for v in sources:
+                if n in v.nodes:
+                    todo.extend(m for m in v.nodes if m != n and m not in joined)
+    if not joined:
+        return terminals
+    out = []
+    for t in terminals:
+        e = t.element
+        if t.slot < 0 or e.kind == "V":
+            out.append(t)
+            continue
+        pins = _device_pins(netlist, scope, e)
+        signal = [n for k, n in enumerate(e.nodes) if not (k < len(pins) and pins[k] in _BULK)]
+        across = [n for n in signal if n in joined]
+        if not across:
+            out.append(t)
+            continue
+        rest = [n for n in signal if n != node and n not in joined]
+        role = "shunt" if all(_grounded(scope, n, ac_ground, globals_) for n in rest) else "load"
+        out.append(replace(t, role=role, whole=True, tied=joined[across[0]]))
     return tuple(out)
 
 
@@ -263,9 +316,10 @@ class _Neighbourhood:
         node = e.nodes[slot]
         return [n for k, n in enumerate(e.nodes) if n != node and not (k < len(pins) and pins[k] in _BULK) and not self.grounded(n)]
 
-    def passive_reach(self, start: list[str], avoid: str) -> dict[str, int]:
-        """Nodes reached from ``start`` through at most _LOCAL_DEPTH R, C, L elements (the first counted as 1);
-        series voltage sources are looked through; never through ``avoid`` or AC ground."""
+    def passive_reach(self, start: list[str], avoid: str, diodes: bool = False) -> dict[str, int]:
+        """Nodes reached from ``start`` through at most _LOCAL_DEPTH R, C, L elements (the first counted as 1), and
+        diode-connected transistors too with ``diodes``; series voltage sources are looked through; never through
+        ``avoid`` or AC ground."""
         depth = {n: 1 for n in start if n != avoid and not self.grounded(n)}
         todo = deque(depth)
         while todo:
@@ -274,7 +328,7 @@ class _Neighbourhood:
                 kind = e.kind
                 if kind == "V":
                     step = 0
-                elif kind in _PASSIVE_PATH and depth[n] < _LOCAL_DEPTH:
+                elif (kind in _PASSIVE_PATH or (diodes and self.two_terminal(e))) and depth[n] < _LOCAL_DEPTH:
                     step = 1
                 else:
                     continue
@@ -283,6 +337,16 @@ class _Neighbourhood:
                         depth[m] = depth[n] + step
                         (todo.appendleft if step == 0 else todo.append)(m)
         return depth
+
+    def two_terminal(self, e: Element) -> bool:
+        """A diode-connected transistor: its control pin on its drain or collector."""
+        return _diode_connected(self.netlist, self.scope, e)
+
+    def parallel_reach(self, t: Terminal, avoid: str) -> set[str]:
+        """Nodes reached from terminal ``t``'s element through at most _LOCAL_DEPTH two-terminal elements: R, C, L and
+        diode-connected transistors (a pseudo-resistor's devices), series voltage sources looked through; never
+        through ``avoid`` or AC ground. A bridge's end reached this way is the far end of a branch in parallel with it."""
+        return set(self.passive_reach(self.other_nodes(t.element, t.slot), avoid, diodes=True))
 
     def beyond(self, source: Terminal, node: str, roles: tuple[str, ...]) -> list[tuple[Element, int]]:
         """The active terminals of the given roles on the far side of a series voltage source at ``node`` (looked through)."""
@@ -356,12 +420,23 @@ class _Neighbourhood:
             frontier = []
             for m, first in reached:
                 for e, k, pin in self.at.get(m, ()):
-                    if e.kind not in _ACTIVE or node in e.nodes:
+                    if e.kind not in _ACTIVE or node in e.nodes or self.two_terminal(e):
                         continue
                     role = self.role(e, k, pin)
                     if (direction == "driver" and role in ("driver", "cg")) or (direction == "load" and role == "load"):
                         frontier.append((e, k, first))
         return found
+
+
+def _diode_connected(netlist: Netlist, scope: Scope, e: Element) -> bool:
+    """A transistor whose control pin sits on its drain or collector: a two-terminal element (a diode, a pseudo-resistor's half)."""
+    if e.kind not in _CONTROL:
+        return False
+    pins = _device_pins(netlist, scope, e)
+    main, control = _FOLLOWER[e.kind][0], _CONTROL[e.kind]
+    if main not in pins or control not in pins or max(pins.index(main), pins.index(control)) >= len(e.nodes):
+        return False
+    return e.nodes[pins.index(main)] == e.nodes[pins.index(control)]
 
 
 def _closest(reach: dict[str, int], stages: dict[str, tuple[int, str]]) -> tuple[float, str, str]:
@@ -389,7 +464,7 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
     back = near.stages(node, [*((t.element, t.slot) for t in drivers if t.element.kind in _ACTIVE and t.slot >= 0),
                               *(hit for t in drivers if t.via for hit in near.beyond(t, node, ("driver", "cg")))], "driver")
     on = near.stages(node, [*((t.element, t.slot) for t in loads if t.element.kind in _ACTIVE and t.role == "load" and t.slot >= 0
-                              and id(t.element) not in units),
+                              and id(t.element) not in units and not near.two_terminal(t.element)),
                             *(hit for t in loads if t.via for hit in near.beyond(t, node, ("load",)))], "load")
     far_of = {key: tuple(sorted({n for u in members for n in near.other_nodes(u.element, u.slot)})) for key, members in units.items()}
     out = []
@@ -409,12 +484,20 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
         reach = near.passive_reach(list(far_of[key]), node)
         d_score, d_node, d_elem = _closest(reach, back)
         l_score, l_node, l_elem = _closest(reach, on)
+        parallel: list[Terminal] = []
         if d_score < l_score:
             # Local feedback of the driver stage only if the loop measured comes back to that stage's input through the
-            # node's other branches (elements in parallel are one branch): then the bridge is a loop inside the loop.
+            # node's other branches (elements in parallel are one branch: the same far end, or an active load that reaches
+            # it through two-terminal elements, such as a pseudo-resistor across a feedback capacitor): then the bridge is
+            # a loop inside the loop.
             others = [u for u in loads if far_of.get(id(u.element)) != far_of[key]]
+            beside = {id(u.element) for u in others if id(u.element) not in units and u.slot >= 0 and near.two_terminal(u.element)
+                      and d_node in near.parallel_reach(u, node)}
+            parallel = [u for u in others if id(u.element) in beside]
+            others = [u for u in others if id(u.element) not in beside]
             if d_node not in near.onward(others, node) and not any(u.slot < 0 for u in others):  # the net outside: unseen
                 d_score = float("inf")
+                parallel = []
         if d_score < l_score:
             bridge = Bridge(label, "driver", f"closes a local loop around the driver stage {d_elem} (back to {d_node}{_path(reach, d_node)}): "
                             "kept with it", True)
@@ -427,7 +510,13 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
             bridge = Bridge(label, "load", f"as close to the driver stage {d_elem} as to the stage {l_elem} that the node drives: "
                             "put with the load, and confirmed by the measurement's self-checks", False)
         out.extend((u, bridge, d_score) for u in members)
-    return out
+        if bridge.side == "driver":  # a branch in parallel with it goes along (an element goes whole)
+            out.extend((u, replace(bridge, element=u.label.rsplit(".", 1)[0], reason=f"in parallel with {label}: {bridge.reason}"), d_score)
+                       for u in parallel)
+    once: dict[tuple[int, int], tuple[Terminal, Bridge, float]] = {}
+    for item in out:  # a branch in parallel with two bridges is placed once
+        once.setdefault((id(item[0].element), item[0].slot), item)
+    return list(once.values())
 
 
 def _path(reach: dict[str, int], node: str) -> str:
@@ -448,7 +537,8 @@ def _matches(spec: str, t: Terminal, scope: Scope) -> bool:
 def _whole(terminals: tuple[Terminal, ...], chosen: list[Terminal]) -> list[Terminal]:
     """The chosen terminals and every other terminal of the same elements on the node (an element goes whole)."""
     ids = {id(t.element) for t in chosen if t.whole}
-    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids)]
+    labels = {t.label for t in chosen} | {t.tied for t in chosen if t.tied}  # a source and what is one unit across it
+    return [t for t in terminals if t in chosen or (t.whole and id(t.element) in ids) or t.label in labels or t.tied in labels]
 
 
 def _given_split(name: str, terminals: tuple[Terminal, ...], driver: str, listing: str, scope: Scope) -> Split:
@@ -487,21 +577,20 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     listing = ", ".join(f"{t.label} ({t.role})" for t in terminals)
     if driver is not None:
         return _given_split(name, terminals, driver, listing, scope)
-    drivers = [t for t in terminals if t.role == "driver"]
-    shunt = [t for t in terminals if t.role == "shunt"]
-    loads = [t for t in terminals if t.role in ("load", "cg")]
+    tied = [t for t in terminals if t.tied]  # one unit with a series source at the node: they follow it (below)
+    free = [t for t in terminals if not t.tied]
+    drivers = [t for t in free if t.role == "driver"]
+    shunt = [t for t in free if t.role == "shunt"]
+    loads = [t for t in free if t.role in ("load", "cg")]
     how = "outputs"
     if not drivers:  # a divider tap, a feedback capacitor at an amplifier's input, and a switch beside it
         near = _Neighbourhood(netlist, scope, ac_ground, globals_)
-        fed = []
-        for t in loads:
-            if t.element.kind in _PASSIVE_PATH:
-                to_out, to_in = _signal_distances(near, node, t)
-                if to_out <= to_in and to_out < float("inf"):  # it brings the signal from an output, rather than on to an input
-                    fed.append(t)
-        ends = {n for t in fed for k, n in enumerate(t.element.nodes) if k != t.slot}
-        drivers = [*fed, *(t for t in loads if t not in fed and (t.role == "cg" or _switch_like(near, t.element))
-                           and any(n in ends for k, n in enumerate(t.element.nodes) if k != t.slot))]
+        fed = [t for t in loads if t.slot < 0 and t.fed] + _fed(near, node, loads)  # the net outside an instance: fed there
+        ends = {n for t in fed if t.slot >= 0 for k, n in enumerate(t.element.nodes) if k != t.slot}
+        # with them: a switch beside them, and a diode-connected device whose branch (a pseudo-resistor) ends where they do
+        drivers = [*fed, *(t for t in loads if t not in fed and (((t.role == "cg" or _switch_like(near, t.element))
+                                                                  and any(n in ends for k, n in enumerate(t.element.nodes) if k != t.slot))
+                                                                 or (t.slot >= 0 and near.two_terminal(t.element) and ends & near.parallel_reach(t, node))))]
         how = "through" if drivers else how
     if not drivers:  # the output of a folded cascode
         drivers = [t for t in loads if t.role == "cg"]
@@ -539,16 +628,38 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     if not loads:
         raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
     bridges = tuple(dict.fromkeys(b for _, b, _ in placed))
-    text = _sentence(drivers, moved, loads, shunt, bridges, how)
-    return Split(tuple([*drivers, *moved]), tuple(loads), tuple(shunt), text, bridges)
+    on_driver = {t.label for t in (*drivers, *moved)}
+    with_driver = [t for t in tied if t.tied in on_driver]
+    loads += [t for t in tied if t.tied not in on_driver and t.role != "shunt"]
+    shunt += [t for t in tied if t.tied not in on_driver and t.role == "shunt"]
+    text = _sentence(drivers, moved, loads, shunt, bridges, how, tied)
+    return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges)
 
 
-def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
+def _fed(near: _Neighbourhood, node: str, loads) -> list[Terminal]:
+    """The passive terminals among ``loads`` that bring the signal to the node from an active output (within
+    _LOCAL_DEPTH passive elements) sooner than they lead on to an active input."""
+    fed = []
+    for t in loads:
+        if t.element.kind in _PASSIVE_PATH:
+            to_out, to_in = _signal_distances(near, node, t)
+            if to_out <= to_in and to_out < float("inf"):
+                fed.append(t)
+    return fed
+
+
+def fed_terminals(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Terminal, ...], ac_ground, globals_) -> tuple[Terminal, ...]:
+    """The passive terminals on ``node`` that bring the signal from an output (the rule for a node no output sits on)."""
+    return tuple(_fed(_Neighbourhood(netlist, scope, ac_ground, globals_), node, [t for t in terminals if t.role == "load"]))
+
+
+def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
     """decided_by: one sentence a designer can check against the schematic."""
     if how == "through":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these bring the signal "
                  f"through at most {_LOCAL_DEPTH} passive elements from a node that a drain, collector, controlled source or instance "
-                 "output drives, sooner than they lead on to an input)"]
+                 "output drives, sooner than they lead on to an input"
+                 + "".join(f"; outside the instance, {t.fed} does" for t in drivers if t.slot < 0 and t.fed) + ")"]
     elif how == "cg":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (common-gate or cascode devices: their gate is at AC ground, "
                  "and no other output sits on the node)"]
@@ -565,7 +676,10 @@ def _sentence(drivers, moved, loads, shunt, bridges, how) -> str:
     for b in bridges:
         if b.side == "load" and b.reason:
             parts.append(f"{b.element} on the load side ({b.reason})")
-    return "; ".join(parts) + _shunt_note(tuple(shunt)) + "."
+    for t in tied:
+        parts.append(f"{t.label} goes with {t.tied}: its element has another terminal beyond that source, which has no AC "
+                     "impedance, so it is one unit across it" + (" (diode-connected)" if t.role == "shunt" else ""))
+    return "; ".join(parts) + _shunt_note(tuple(t for t in shunt if not t.tied)) + "."
 
 
 def _switch_like(near: _Neighbourhood, e: Element) -> bool:

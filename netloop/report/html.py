@@ -16,7 +16,7 @@ from netloop.report.bode_plot import bode_figure, verdict_title
 from netloop.report.figure import as_results, loop_name, render
 from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
-from netloop.report.phrases import closed_loop_phrases, margin_phrases, nyquist_phrase, phase_crossover_margin
+from netloop.report.phrases import closed_loop_phrases, low_gain_phrase, margin_phrases, nyquist_phrase, phase_crossover_margin
 from netloop.report.nyquist_plot import nyquist_figure
 from netloop.report.text import format_text, requirement_status, requirement_text, verdict_line
 
@@ -79,7 +79,7 @@ def _summary(r: LoopResult) -> list[dict]:
     classes = {"worst phase margin": "" if pm is None else ("ok" if pm > 0 else "bad")}
     rows = [
         _kv("classification", a.classification, _CLASSIFICATION_CLASS[a.classification]),
-        _kv("DC loop gain", db(a.dc_gain_db)),
+        _kv(*low_gain_phrase(a)),
     ]
     return rows + [_kv(label, value, classes.get(label, "")) for label, value in margin_phrases(a)]
 

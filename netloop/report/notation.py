@@ -6,7 +6,7 @@ import math
 
 from netloop.analysis.response import ratio_db
 
-__all__ = ["NONE", "db", "deg", "eng", "fixed", "number", "ratio_db", "requirement_value"]
+__all__ = ["NONE", "db", "deg", "eng", "fixed", "number", "prefix_for", "ratio_db", "requirement_value"]
 
 _PREFIXES = ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f"))
 NONE = "-"
@@ -31,15 +31,16 @@ def eng(value: float | None, unit: str = "", digits: int = 3) -> str:
     if value == 0:
         return f"0 {unit}".rstrip()
     rounded = float(f"{value:.{digits - 1}e}")  # round first, so 999.96e3 becomes 1.00e6 and reads "1.00 M"
-    for scale, prefix in _PREFIXES:
-        if abs(rounded) >= scale:
-            break
-    else:
-        scale, prefix = _PREFIXES[-1]
+    scale, prefix = prefix_for(rounded)
     scaled = rounded / scale
     decimals = max(digits - 1 - int(math.floor(math.log10(abs(scaled)))), 0)
     text = f"{scaled:.{decimals}f}"
     return f"{text} {prefix}{unit}".rstrip()
+
+
+def prefix_for(value: float) -> tuple[float, str]:
+    """The SI prefix engineering notation writes ``value`` with, and its scale: prefix_for(38e6) == (1e6, "M")."""
+    return next(((scale, prefix) for scale, prefix in _PREFIXES if abs(value) >= scale), _PREFIXES[-1])
 
 
 def fixed(value: float | None, unit: str, decimals: int = 2) -> str:

@@ -8,11 +8,13 @@ import numpy as np
 
 from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis, PhaseCrossover
+from netloop.analysis.second_order import resonant_peak_db
 from netloop.jobs.document import worst_crossover
 from netloop.report.notation import db, deg, eng, number, ratio_db, requirement_value
 
 __all__ = [
     "closed_loop_phrases",
+    "low_gain_phrase",
     "margin_phrases",
     "nyquist_phrase",
     "origin_phrase",
@@ -28,6 +30,19 @@ def _at(freq_hz: float | None) -> str:
     return f" at {eng(freq_hz, 'Hz')}" if freq_hz is not None else ""
 
 
+def _plain_number(x: float) -> str:
+    """A ratio with three decimals, or in 4 significant digits with an exponent when it is that large (1e300 stays one line)."""
+    return f"{x:.3f}" if abs(x) < 1e6 else f"{x:.4g}"
+
+
+def low_gain_phrase(a: LoopAnalysis) -> tuple[str, str]:
+    """("DC loop gain", value) when |T| at the bottom of the sweep stands for DC (LoopAnalysis.gain_is_dc), else the
+    label says it is |T| at the lowest frequency swept, and at which (a sweep started above a pole reads less)."""
+    if a.gain_is_dc:
+        return "DC loop gain", db(a.dc_gain_db)
+    return "|T| at the lowest frequency", f"{db(a.dc_gain_db)} at {eng(float(a.freq_hz[0]), 'Hz')} (not the DC loop gain: T is not flat there)"
+
+
 def margin_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
     """Worst phase margin, gain margin, lower gain margin (when there is one), modulus and delay margin."""
     m = a.margins
@@ -38,33 +53,47 @@ def margin_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
     ]
     if m.lower_gain_margin_db is not None:
         rows.append(("lower gain margin", f"{db(m.lower_gain_margin_db)}{_at(m.lower_phase_crossover_hz)} (the gain may fall this much)"))
-    rows.append(("modulus margin", f"{m.modulus_margin:.3f} ({db(ratio_db(m.modulus_margin))}) min |1+T|{_at(m.modulus_freq_hz)}"))
+    rows.append(("modulus margin", f"{_plain_number(m.modulus_margin)} ({db(ratio_db(m.modulus_margin))}) min |1+T|{_at(m.modulus_freq_hz)}"))
     rows.append(("delay margin", eng(m.delay_margin_s, "s") if m.delay_margin_s is not None else "none (no crossover with a positive phase margin)"))
     return rows
 
 
 def closed_loop_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
-    """Closed-loop peaking, |T/(1+T)| at the worst crossover, the second-order estimate and the fitted poles."""
+    """The closed loop, measured figures first: the peaking of T/(1+T), |T/(1+T)| at the worst crossover, the poles fitted to
+    the measured 1/(1+T) (the dominant one as netloop.analysis.poles.dominant_pole defines it) and, when the fitted pair
+    alone would peak otherwise than measured, why; the second-order estimate from the phase margin only when no poles
+    were fitted (nothing measured then gives the damping)."""
     p = a.peaking
     worst = worst_crossover(a)
     rows = [("closed-loop peaking", f"{db(p.peak_db)} at {eng(p.peak_freq_hz, 'Hz')} (relative to {db(p.reference_db)} in band)")]
     if worst is not None:
         rows.append(("|T/(1+T)| at worst crossover", db(worst.peaking_db)))
-    s = a.second_order
-    if s is not None:
-        res = "no resonant peak" if s.resonant_peak_db is None else f"resonant peak {db(s.resonant_peak_db)}"
-        rows.append(("2nd-order ESTIMATE", f"damping {s.damping_ratio:.3f}, Q {s.q:.3f}, overshoot {s.overshoot_pct:.1f} %, {res} (from PM, not measured)"))
     poles = a.poles
     if poles is None:
         rows.append(("closed-loop poles", "not fitted"))
+        s = a.second_order
+        if s is not None:
+            res = "no resonant peak" if s.resonant_peak_db is None else f"resonant peak {db(s.resonant_peak_db)}"
+            rows.append(("2nd-order ESTIMATE", f"damping {s.damping_ratio:.3f}, Q {s.q:.3f}, overshoot {s.overshoot_pct:.1f} %, {res} "
+                                               "(from PM alone, as if the loop had two poles: no poles were fitted)"))
+        return rows
+    if poles.dominant_freq_hz is None:
+        dom = "dominant pole real (no complex pair shapes 1/(1+T))"
     else:
-        if poles.dominant_freq_hz is None:
-            dom = "no complex pair"
-        else:
-            dom = f"dominant pair {eng(poles.dominant_freq_hz, 'Hz')}, damping {number(poles.dominant_damping)}, Q {number(poles.dominant_q)}"
-        agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
-        rows.append(("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fit error {poles.fit_error:.2g}) [estimate]"))
+        dom = f"dominant pair {eng(poles.dominant_freq_hz, 'Hz')}, damping {number(poles.dominant_damping)}, Q {number(poles.dominant_q)}"
+    agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
+    rows.append(("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fitted to the measured 1/(1+T), "
+                                      f"fit error {poles.fit_error:.2g})"))
+    alone = None if poles.dominant_damping is None else resonant_peak_db(poles.dominant_damping)
+    if alone is not None and abs(alone - p.peak_db) > PEAK_AGREE_DB:
+        rows.append(("why these differ", f"the dominant pair alone would peak {db(alone)}; the measured peaking is the whole "
+                                         "loop's, which its other poles and zeros shape too"))
     return rows
+
+
+# The measured peaking and the dominant pair's own peak are said to differ beyond this (our choice: a tenth of the 3 dB
+# of common practice would be lost in the rounding of a report; 1 dB is not)
+PEAK_AGREE_DB = 1.0
 
 
 def phase_crossover_margin(c: PhaseCrossover, stable: bool) -> str:

@@ -11,6 +11,7 @@ from netloop.jobs.loop_result import LoopResult
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
 from netloop.report.phrases import (
     closed_loop_phrases,
+    low_gain_phrase,
     margin_phrases,
     nyquist_phrase,
     phase_crossover_margin,
@@ -103,7 +104,7 @@ def _crossover_lines(a: LoopAnalysis) -> list[str]:
     for c in a.gain_crossovers:
         lines.append(
             f"  {eng(c.freq_hz, 'Hz'):>11}  {c.direction:<4}  phase {deg(c.phase_deg):>12}  PM {deg(c.phase_margin_deg):>11}"
-            f"  peaking {db(c.peaking_db):>9}  delay margin {eng(c.delay_margin_s, 's') if c.delay_margin_s is not None else 'none'}"
+            f"  |T/(1+T)| {db(c.peaking_db):>9}  delay margin {eng(c.delay_margin_s, 's') if c.delay_margin_s is not None else 'none'}"
         )
     lines.append(f"phase crossovers (phase = odd multiple of 180 deg): {len(a.phase_crossovers) or 'none above the floor'}")
     for c in a.phase_crossovers:
@@ -174,9 +175,10 @@ def _plain_text(result: LoopResult) -> str:
     sim = result.sim
     lines = [
         verdict_line(result),
+        *(f"  but: {c}" for c in result.caveats),  # what may make the verdict answer another circuit than the one meant
         _row("netlist", title),
         *_break_lines(result),
-        _row("DC loop gain", db(a.dc_gain_db)),
+        _row(*low_gain_phrase(a)),
         *_crossover_lines(a),
         *(_row(label, value) for label, value in margin_phrases(a)),
         *(_row(label, value) for label, value in closed_loop_phrases(a)),

@@ -51,7 +51,10 @@ def render_yield_html(run: SampleRun) -> str:
         ],
         "method": (f"{METHOD} bounds at {share(stats.confidence)} confidence: the interval is two-sided, the lower bound one-sided. "
                    "A sample without a verdict (a self-check failed, or it could not be measured) counts as failing in the yield, "
-                   "the interval and the lower bound, and as passing in the upper bound."),
+                   "the interval and the lower bound, and as passing in the upper bound. A lower bound at "
+                   f"{share(stats.confidence)} confidence means: were the yield below it, as few failures as these would be seen in "
+                   f"fewer than {share(1.0 - stats.confidence)} of runs like this one. It holds under the statistical models the "
+                   "netlist reads, at the corners of the plan."),
         "yield_head": ["requirement", "corner", "samples", "pass", "fail", "no verdict", "yield", "interval", "lower bound"],
         "yield_rows": _cells(yield_rows(stats), 2),
         "supports": supports(stats.deciding),
@@ -71,7 +74,8 @@ def render_yield_html(run: SampleRun) -> str:
 
     return page_template("report.html.j2").render(
         title=f"netloop yield: {Path(splan.plan.path).name}",
-        subtitle=f"{len(stats.samples)} samples of {Path(splan.plan.netlist).name}",
+        subtitle=f"{splan.count} samples of {Path(splan.plan.netlist).name}" + (f" at each of {len(stats.corners)} corners "
+                                                                               f"({len(stats.samples)} measurements)" if len(stats.corners) > 1 else ""),
         sections=[Markup(section)], overview=None, loops=[], caution=STATISTICAL_CAUTION)
 
 

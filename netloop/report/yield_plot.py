@@ -14,7 +14,7 @@ from pathlib import Path
 
 from netloop.jobs.statistics import FIGURES, SampleRun, YieldStatistics
 from netloop.report.figure import COLOURS, new_figure, save
-from netloop.report.notation import eng
+from netloop.report.notation import prefix_for
 from netloop.report.yield_text import figure_text
 
 __all__ = ["FAILS", "NO_VERDICT", "PASSES", "histogram_figure", "plot_yield", "scatter_figure", "scatter_path"]
@@ -37,12 +37,28 @@ def _values(stats: YieldStatistics, figure: str, corner: str) -> list[float]:
             if s.conclusive and s.corner == corner and s.figures.get(figure) is not None and math.isfinite(s.figures[figure])]
 
 
-def _frequency_axis(axis) -> None:
-    axis.set_major_formatter(lambda v, _pos: eng(v, "Hz", 3) if v else "0")
+def _frequency_axis(axis, values: list[float]) -> str:
+    """Tick labels of a frequency axis as plain numbers in one unit chosen from the largest value ("MHz"), which is
+    returned for the axis label: tick labels that each carry a unit run into each other on a narrow panel."""
+    from matplotlib.ticker import MaxNLocator  # noqa: PLC0415 - lazy, as every plot module
+
+    scale, prefix = prefix_for(max((abs(v) for v in values if v), default=1.0))
+    axis.set_major_formatter(lambda v, _pos: f"{v / scale:g}")
+    axis.set_major_locator(MaxNLocator(nbins=6))
+    return f"{prefix}Hz"
+
+
+def _requirement_label(ax, threshold: float, op: str, text: str) -> None:
+    """The requirement's text beside its line, on the passing side, in a white box so bars behind it stay readable."""
+    ax.text(threshold, 0.98, f" {text} ", transform=ax.get_xaxis_transform(), ha="left" if op in (">=", ">") else "right",
+            va="top", fontsize=8, color=REQUIREMENT, zorder=5,
+            bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.8, "pad": 1.0})
 
 
 def histogram_figure(run: SampleRun):
     """One histogram per figure (phase margin, gain margin, crossover frequency, peaking), requirement lines drawn."""
+    from matplotlib.patches import Patch  # noqa: PLC0415 - lazy, as every plot module
+
     stats = run.statistics
     fig = new_figure(10.0, 7.0)
     axes = fig.subplots(2, 2).flatten()
@@ -65,27 +81,27 @@ def histogram_figure(run: SampleRun):
         pad = (high - low) * 0.05 or abs(high) * 0.01 or 1.0
         bins = [low - pad + i * (high - low + 2 * pad) / _BINS for i in range(_BINS + 1)]
         colours = [COLOURS[i % len(COLOURS)] for i in range(len(series))]
-        ax.hist([vs for _, vs in series], bins=bins, stacked=True, color=colours, edgecolor="white", linewidth=0.4,
-                label=[c for c, _ in series] if len(series) > 1 else None)
+        ax.hist([vs for _, vs in series], bins=bins, stacked=True, color=colours, edgecolor="white", linewidth=0.4)
         for threshold, op, text in lines:
             ax.axvline(threshold, color=REQUIREMENT, linestyle="--", linewidth=1.4)
             if op in (">=", ">"):
                 ax.axvspan(bins[0], threshold, color=REQUIREMENT, alpha=0.07, linewidth=0)
             else:
                 ax.axvspan(threshold, bins[-1], color=REQUIREMENT, alpha=0.07, linewidth=0)
-            ax.text(threshold, 0.98, f" {text} ", transform=ax.get_xaxis_transform(), ha="left" if op in (">=", ">") else "right",
-                    va="top", fontsize=8, color=REQUIREMENT)
+            _requirement_label(ax, threshold, op, text)
         ax.set_xlim(bins[0], bins[-1])
-        mean = sum(every) / len(every)
-        ax.set_title(f"{name}: {len(every)} samples, mean {figure_text(figure, mean)}", fontsize=10)
+        if len(series) > 1:  # one mean over several corners' distributions says little: the spread table has each
+            ax.set_title(f"{name}: {len(every)} samples at {len(series)} corners", fontsize=10)
+        else:
+            ax.set_title(f"{name}: {len(every)} samples, mean {figure_text(figure, sum(every) / len(every))}", fontsize=10)
         if unit == "Hz":
-            _frequency_axis(ax.xaxis)
-            ax.set_xlabel("")
+            ax.set_xlabel(_frequency_axis(ax.xaxis, every), fontsize=9)
         ax.tick_params(labelsize=8)
         ax.grid(axis="y", color="#e3e3e3", linewidth=0.6)
         ax.set_axisbelow(True)
-        if len(series) > 1:
-            ax.legend(fontsize=7, frameon=False, loc="upper right" if not lines else "best")
+    if len(stats.corners) > 1:  # one legend for the four panels, below them, where no bar can hide behind it
+        handles = [Patch(facecolor=COLOURS[i % len(COLOURS)], label=c) for i, c in enumerate(stats.corners)]
+        fig.legend(handles=handles, loc="outside lower center", ncols=min(len(handles), 6), fontsize=8, frameon=False)
     fig.suptitle(f"{Path(run.plan.plan.path).name}: {_headline(stats)}", fontsize=10)
     return fig
 
@@ -94,8 +110,10 @@ def _headline(stats: YieldStatistics) -> str:
     from netloop.report.yield_text import percent, share
 
     y = stats.deciding
-    return (f"{len(stats.samples)} samples, yield {percent(y.estimate)} (>= {percent(y.lower, 'down')} at {share(y.confidence)} "
-            f"confidence), every requirement")
+    where = [f"{n} {word}" for n, word in ((len(stats.corners), "corners"), (len(stats.nodes), "break nodes")) if n > 1]
+    what = f"{y.samples} dies at {' and '.join(where)}" if y.corner == "" and where else f"{y.samples} samples"
+    return (f"{what}: every requirement met by {percent(y.estimate)} (yield >= {percent(y.lower, 'down')} at {share(y.confidence)} "
+            "confidence)")
 
 
 def scatter_figure(run: SampleRun):
@@ -103,7 +121,8 @@ def scatter_figure(run: SampleRun):
     stats = run.statistics
     fig = new_figure(8.0, 5.6)
     ax = fig.subplots()
-    seen = set()
+    seen: set[str] = set()
+    shown: list[float] = []
     for i, corner in enumerate(stats.corners):
         marker = MARKERS[i % len(MARKERS)]
         for verdict, colour, word in (("pass", PASSES, "pass"), ("fail", FAILS, "fail"), ("inconclusive", NO_VERDICT, "no verdict")):
@@ -112,17 +131,20 @@ def scatter_figure(run: SampleRun):
             if not pts:
                 continue
             label = f"{word}" + (f", {corner}" if len(stats.corners) > 1 else "")
-            ax.scatter([p[0] for p in pts], [p[1] for p in pts], s=18, marker=marker, facecolors=colour,
-                       edgecolors="white", linewidths=0.4, alpha=0.85, label=label, zorder=3)
+            rare = verdict != "pass"  # the few that fail or have no verdict are what the reader looks for: larger, on top
+            ax.scatter([p[0] for p in pts], [p[1] for p in pts], s=44 if rare else 22, marker=marker, facecolors=colour,
+                       edgecolors="black" if rare else "white", linewidths=0.6 if rare else 0.4, alpha=0.95 if rare else 0.8,
+                       label=label, zorder=4 if rare else 3)
             seen.add(verdict)
+            shown.extend(p[0] for p in pts)
     for threshold, _op, text in _thresholds(run, "pm"):
         ax.axhline(threshold, color=REQUIREMENT, linestyle="--", linewidth=1.2)
-        ax.text(0.005, threshold, f" {text}", transform=ax.get_yaxis_transform(), va="bottom", fontsize=8, color=REQUIREMENT)
+        ax.text(0.005, threshold, f" {text}", transform=ax.get_yaxis_transform(), va="bottom", fontsize=8, color=REQUIREMENT, zorder=5,
+                bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.8, "pad": 1.0})
     for threshold, _op, text in _thresholds(run, "fc"):
         ax.axvline(threshold, color=REQUIREMENT, linestyle="--", linewidth=1.2)
         ax.text(threshold, 0.01, f" {text}", transform=ax.get_xaxis_transform(), va="bottom", fontsize=8, color=REQUIREMENT, rotation=90)
-    _frequency_axis(ax.xaxis)
-    ax.set_xlabel("crossover frequency", fontsize=9)
+    ax.set_xlabel(f"crossover frequency ({_frequency_axis(ax.xaxis, shown)})", fontsize=9)
     ax.set_ylabel("phase margin (deg)", fontsize=9)
     ax.tick_params(labelsize=8)
     ax.grid(color="#e6e6e6", linewidth=0.6)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
@@ -88,3 +89,17 @@ def test_tian_keeps_relative_precision_for_tiny_loop_gain():
     assert abs(tian(va1, vb1, ib2) - t_true) < 1e-9 * abs(t_true)
     # the cancelling form 1/S - 1 loses about four digits here (double precision: eps / |T| ~ 1e-4)
     assert abs((1.0 / sensitivity(vb1, ib2) - 1.0) - t_true) > 1e-6 * abs(t_true)
+
+
+def test_a_zero_denominator_gives_no_numpy_warning_and_analyse_names_the_sample():
+    """vb1 + ib2 = 0 at one sample (what a gain of 1e300 leaves in ngspice's data, issue 15.13) makes that T infinite or
+    NaN without a numpy RuntimeWarning (filterwarnings = error would raise it here), by either formula, and analyse()
+    refuses the data naming the first such frequency (IEEE 754: x/0 is inf, 0/0 NaN; from memory)."""
+    from netloop.analysis import analyse
+    from netloop.errors import AnalysisError
+
+    t1 = tian([2.0, 2.0, 2.0, 2.0, 0.0], [1.0, 1.0, 1.0, -1.0, 0.0], [0.0, 0.0, 0.0, 1.0, 0.0])
+    t2 = middlebrook([2.0, 0.0], [1.0, 0.0], [-1.0, 0.0], [0.0, 0.0])
+    assert np.isinf(t1[3]) and np.isnan(t1[4]) and np.isnan(t2[1]) and t1[0] == -2.0
+    with pytest.raises(AnalysisError, match=r"T has 2 NaN or infinite sample\(s\), the first at 4000 Hz"):
+        analyse(np.array([1e3, 2e3, 3e3, 4e3, 5e3]), t1)

@@ -51,6 +51,8 @@ DESIGN_DC = {
     "benches/bandgap_reg.cir": ("vout", 2 * (0.64 + 112 / 11 * 0.025852 * math.log(8)), 0.06),
     "benches/fc_ota_cmfb.cir": ("cm", 0.9, 0.05),  # output common mode near Vcmref
     "benches/fd_cap_amp.cir": ("cm", 1.65, 0.05),  # output common mode near Vcmref
+    "benches/fd_miller_pair.cir": ("outp", 1.65, 0.05),  # at zero differential input each output sits at the common mode, near Vcmref
+    "benches/fd_miller_pair_sky130.cir": ("outp", 0.9, 0.05),  # the same on sky130 at 1.8 V
     "benches/tb_open_copy.cir": ("out", 1.65, 0.01),  # the buffer follows Vin
     # vref*(1+R1/R2) less the loop's DC error: the pass current (load + divider) needs vin - v(gate) = I/gmp, which the
     # error amplifier makes from an error of (I/gmp)/aea at fb: about 0.5 mV there at 10 mA (behavioural, linear)

@@ -23,6 +23,9 @@ def inputs(tmp_path: Path) -> dict[str, str]:
     garbage.write_bytes(bytes(range(256)) * 4)  # seeded by construction: every byte value, not valid UTF-8
     syntax = tmp_path / "syntax.cir"
     syntax.write_text("title\nR1 a 0 1k\nR2 a\n.end\n")  # R2 lacks its second node and value
+    (tmp_path / "umlaut.cir").write_text("title\nv1 ausgangµ 0 dc 1\nr1 ausgangµ 0 1k\n.end\n", encoding="utf-8")
+    # terminal escapes and a bell, no NUL byte: read as text, and the faulty line is not echoed raw
+    (tmp_path / "escapes.cir").write_bytes(b"title\nr1 a 0 1k\n\x1b[2J\x1b]0\x07 junk\n")
     folder = tmp_path / "folder"
     folder.mkdir()
     blocker = tmp_path / "blocker"  # a plain file: nothing can be written below it
@@ -98,6 +101,14 @@ CASES = [
                  id="check-require-without-operator-hints-at-quoting"),
     pytest.param(["check", "{good}", "--at", "out", "--ppd", "0"], "points per decade", id="check-bad-points-per-decade"),
     pytest.param(["check", "{good}", "--at-pair", "a"], "P,N", id="check-bad-node-pair"),
+    pytest.param(["check", "{good}", "--at-pair", "out,err", "--driver", "eo"],
+                 "each driver names its node: --driver out=ELEMENT[.PIN],... --driver err=ELEMENT[.PIN],...", id="check-pair-driver-without-its-node"),
+    pytest.param(["check", "{good}", "--at-pair", "out,err", "--driver", "nosuch=eo"], "each driver names its node",
+                 id="check-pair-driver-names-another-node"),
+    pytest.param(["check", "{good}", "--at-pair", "out,err", "--driver", "out=eo", "--driver", "out=ro"],
+                 "--driver names node out twice; put its terminals in one comma-separated list", id="check-pair-driver-node-twice"),
+    pytest.param(["check", "{good}", "--at-pair", "out,err", "--driver", "out="], "expected ELEMENT[.PIN],... or NODE=ELEMENT[.PIN],...",
+                 id="check-pair-driver-empty"),
     pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/x.bmp"], "expected a file name ending in", id="check-plot-unknown-format"),
     pytest.param(["check", "{good}", "--at", "out", "--plot", "{dir}/nodir/x.png"], "cannot write the Bode plot",
                  id="check-plot-into-missing-folder-refused-before-simulating"),
@@ -177,6 +188,14 @@ CASES = [
                  id="yield-keep-decks-without-sample-refused-before-simulating"),
     pytest.param(["yield", "{dir}/samples.toml", "--workers", "1", "--out", "{dir}/r.jsonl", "--plot", "{blocker}/h.png"], "cannot write the histograms",
                  id="yield-plot-below-a-file-refused-before-simulating"),
+    pytest.param(["check", "{good}", "--at", ""], "argument --at: an empty node name; name the node to break, as in --at out",
+                 id="check-empty-at-is-no-every-loop-refused-before-simulating"),
+    pytest.param(["compare", "{good}", "--at", "out", "--at", " "], "argument --at: an empty node name",
+                 id="compare-empty-at-refused-before-simulating"),
+    pytest.param(["check", "{dir}/umlaut.cir", "--at", "ausgangµ"], "umlaut.cir:2:4: v1: node 'ausgangµ' has characters outside ASCII",
+                 id="check-non-ascii-node-gives-file-line-refused-before-simulating"),
+    pytest.param(["check", "{dir}/escapes.cir", "--at", "a"], "escapes.cir:3:1: unknown element type",
+                 id="check-terminal-escapes-give-file-line"),
     pytest.param(["check", "{good}", "--at", "out", "--seed", "0"], "argument --seed: a seed is from 1 to 2147483647", id="check-seed-zero"),
     # sensitivity
     pytest.param(["sensitivity", "{dir}/missing.cir", "--at", "out"], "missing.cir", id="sensitivity-missing-file-is-named"),
@@ -221,3 +240,28 @@ def test_bad_input_is_one_error_line_exit_2(inputs, argv, expected, capsys, requ
         assert simulator_starts == []
     after = _snapshot(inputs["dir"])
     assert {p: v for p, v in after.items() if p in before} == before
+
+
+def test_binary_junk_and_terminal_escapes_never_reach_the_terminal(inputs, capsys):
+    """A binary file is refused as not a text netlist, with its file:line; a line of terminal escapes is shown with '?'
+    in their place, one for one, so the caret still points at the fault (common practice: compilers escape such bytes)."""
+    assert _run(["check", inputs["garbage"], "--at", "out"]) == 2
+    err = capsys.readouterr().err
+    assert err == f"netloop: error: {inputs['garbage']}:1: not a text netlist: it holds binary bytes (a NUL byte on line 1); give the SPICE netlist file\n"
+    assert _run(["check", f"{inputs['dir']}/escapes.cir", "--at", "a"]) == 2
+    lines = capsys.readouterr().err.splitlines()
+    assert lines[1:] == ["    ?[2J?]0? junk", "    ^"]
+    assert all(ch.isprintable() for line in lines for ch in line)
+
+
+@pytest.mark.ngspice
+def test_a_gain_of_1e300_leaks_no_numpy_warning(tmp_path, capsys):
+    """A controlled source of gain 1e300 (issue 15.13) leaves samples whose T is not finite: every loop measured gives an
+    INCONCLUSIVE verdict (exit 3), and no numpy RuntimeWarning reaches the terminal (filterwarnings = error would also
+    turn one into a traceback)."""
+    path = tmp_path / "big.cir"
+    path.write_text("loop with an absurd gain\nvin in 0 dc 0.9\ne1 a 0 in fb 1e300\nr1 a out 1k\nc1 out 0 1n\n"
+                    "rf out fb 1k\nrg fb 0 1k\n.end\n")
+    assert _run(["check", str(path)]) == 3
+    captured = capsys.readouterr()
+    assert captured.out.startswith("INCONCLUSIVE  ") and "Warning" not in captured.err and "Traceback" not in captured.err

@@ -18,7 +18,7 @@ def _help(command: str, capsys) -> str:
     return " ".join(capsys.readouterr().out.split())
 
 
-@pytest.mark.parametrize("command", ["check", "compare", "corners", "loops", "inspect", "demo", "sensitivity", "trend"])
+@pytest.mark.parametrize("command", ["check", "compare", "corners", "loops", "inspect", "demo", "sensitivity", "trend", "yield"])
 def test_help_points_only_to_readme_sections_that_exist(command, capsys):
     """Every "README section 'X'" a --help page names is a heading of README.md."""
     headings = {line.lstrip("#").strip() for line in README.read_text(encoding="utf-8").splitlines() if line.startswith("#")}

@@ -3,9 +3,6 @@
 from __future__ import annotations
 
 import json
-import os
-import subprocess
-import sys
 from dataclasses import replace
 from pathlib import Path
 
@@ -115,7 +112,7 @@ print(json.dumps(out, sort_keys=True))
 
 
 @pytest.mark.ngspice
-def test_every_choice_is_the_same_under_five_hash_seeds():
+def test_every_choice_is_the_same_under_five_hash_seeds(under_hash_seeds):
     """Groups, labels, loops, candidate order, the sides of each split, the coarse figures and the chosen break are identical
     in five processes with different PYTHONHASHSEED (set and dict order of names never decide)."""
     # Reference: by construction: the same netlist must give the same census in every process.
@@ -126,14 +123,6 @@ def test_every_choice_is_the_same_under_five_hash_seeds():
     # A group with more loops than listed (every stage of 7 feeding every other, 20 loops kept): which 20 are listed, and so
     # the candidates' order, followed networkx's set order before netloop enumerated cycles itself.
     jobs += [(CAPPED, False, {"max_loops": 20})]
-    env = {**os.environ, "PYTHONPATH": str(ROOT)}
-    runs = [subprocess.Popen([sys.executable, "-c", _CHOICES, json.dumps(jobs)], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                             text=True, env={**env, "PYTHONHASHSEED": str(seed)}) for seed in (0, 1, 2, 3, 4)]
-    outs = []
-    for run in runs:
-        out, err = run.communicate(timeout=300)
-        assert run.returncode == 0, err[-2000:]
-        outs.append(out)
-    docs = [json.loads(o) for o in outs]
+    docs = [json.loads(o) for o in under_hash_seeds(_CHOICES, [json.dumps(jobs)], timeout_s=300)]
     assert all(d == docs[0] for d in docs[1:])
     assert docs[0][str(benches / "bandgap_reg.cir")]["groups"][0]["coarse"]  # the swept ones were swept

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from netloop.errors import ProbeError
-from netloop.netlist import parse_text
+from netloop.netlist import parse_file, parse_text
 from netloop.probe import break_loop
 
 MODELS = ".model nch nmos level=1 vto=0.5 kp=20u lambda=0.05\n.model pch pmos level=1 vto=-0.5 kp=8u lambda=0.05\n"  # INVENTED
@@ -122,3 +122,42 @@ def test_a_bias_node_with_only_a_diode_is_refused_with_the_reason():
     """A node that only a diode-connected device and inputs share is on no loop, and the message says why."""
     with pytest.raises(ProbeError, match=r"node nb is not on any loop: besides inputs \(m5\.g, m7\.g\) only one-ports"):
         break_loop(parse_text(TWO_STAGE), "nb")
+
+
+# An invented CMFB amplifier stage: Mc2 (gate at the reference, AC ground) drives cmd; Mc4's drain is on cmd and its gate on
+# cmfb, with the 0 V source Vsense from cmd to cmfb: Mc4 is diode-connected through the source; cmfb drives M3's gate.
+SENSED_DIODE = ("diode through a sense source (invented)\n" + MODELS +
+                "Vdd vdd 0 dc 3.3\nVref ref 0 dc 1.6\nIb vdd nb dc 20u\nMb nb nb 0 0 nch w=10u l=1u\nMt ct nb 0 0 nch w=10u l=1u\n"
+                "Mc1 c3 cm ct 0 nch w=10u l=1u\nMc2 cmd ref ct 0 nch w=10u l=1u\nMc3 c3 c3 vdd vdd pch w=10u l=1u\n"
+                "Mc4 cmd cmfb vdd vdd pch w=10u l=1u\nVsense cmd cmfb dc 0\n"
+                "M3 out cmfb vdd vdd pch w=20u l=1u\nM9 out nb 0 0 nch w=10u l=1u\nRcm out cm 100k\nCcm cm 0 1p\n")
+
+
+@pytest.mark.parametrize("node, driver, load", [
+    ("cmfb", {"vsense.n", "mc4.g"}, {"m3.g"}),  # the source and the diode across it are driven from cmd (Mc2)
+    ("cmd", {"mc2.d"}, {"vsense.p", "mc4.d"}),  # the diode goes with the source to the load side, with M3's gate beyond
+])
+def test_a_diode_connected_through_a_sense_source_goes_whole_with_the_source(node, driver, load):
+    """A transistor whose drain and gate sit on the two ends of a 0 V source is diode-connected: it goes with the source whole."""
+    # Issue 14 patterns 2 and 3 together: a 0 V source has no AC impedance (common practice), so Mc4 with drain on cmd and
+    # gate on cmfb is a diode; split across the sides its own gain closes a loop around the probe (circuits/benches/
+    # fc_ota_cmfb.cir, where the expert decks fc_ota_cmfb.cmfb.sp and .cmd.sp place XC4 so).
+    p = break_loop(parse_text(SENSED_DIODE), node)
+    assert set(p.driver_terminals) == driver and set(p.load_terminals) | set(p.shunt_terminals) == load
+    assert "goes with vsense" in p.decided_by and "one unit across it" in p.decided_by
+
+
+def test_driver_naming_the_sense_source_takes_the_diode_across_it():
+    """--driver naming a 0 V source takes the element diode-connected through it too (an element goes whole)."""
+    # Reference: as above (a diode is one element).
+    p = break_loop(parse_text(SENSED_DIODE), "cmfb", driver="vsense")
+    assert set(p.driver_terminals) == {"vsense.n", "mc4.g"}
+
+
+def test_the_net_outside_a_block_that_drives_the_node_is_a_load_beside_an_output_out_there(circuits):
+    """Inside a block that drives its output pin, the rest of the net goes to the load side, even with a start-up device's drain out there."""
+    # Reference: circuits/benches/bandgap_reg.cir header and its expert deck expert/bandgap_reg.pg.sp (driver side: MA2's and
+    # MA4's drains inside the amplifier; everything else on the net out/pg/pbias on the load side, MS1's drain included).
+    p = break_loop(parse_file(circuits / "benches" / "bandgap_reg.cir"), "xreg.xbg.xamp.out")
+    assert set(p.driver_terminals) == {"xreg.xbg.xamp.ma2.d", "xreg.xbg.xamp.ma4.d"}
+    assert "xreg.xbg.xamp.mat.g" in p.load_terminals and any(t.startswith("xreg.xbg.xamp.out outside xamp") for t in p.load_terminals)

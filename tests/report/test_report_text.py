@@ -6,6 +6,8 @@ import math
 import re
 
 import control
+import numpy as np
+import pytest
 from report_loops import W, make_result, two_stage
 
 from netloop.report import format_text
@@ -94,3 +96,114 @@ def test_colour_only_paints_the_verdicts(unstable_result):
     assert "  \x1b[1;31mFAIL\x1b[0m  pm>=45" in painted
     assert re.sub(r"\x1b\[[0-9;]*m", "", painted) == plain
     assert "\x1b" not in plain
+
+
+def test_a_sweep_started_above_the_first_pole_labels_the_gain_at_its_lowest_frequency():
+    """Sweeping the two-stage loop from 1 MHz (issue 15.5) reads |T(1 MHz)|, which is not the DC loop gain: the label
+    says so and names the frequency, and the figure is the closed form's |T(j 2 pi 1 MHz)|; from 1 Hz up, T is flat at
+    the bottom and the row reads DC loop gain, 80 dB (the closed form's A0 = 1e4)."""
+    above = make_result(two_stage, freq_hz=np.logspace(6, 10, 81))
+    row = next(line for line in format_text(above).splitlines() if line.startswith("|T| at the lowest frequency"))
+    expected = 20 * math.log10(abs(two_stage(1e6)))  # closed form: 1e4 / |(1 + 1000j)(1 + j/30)(1 + j/100)|
+    assert f"{expected:.2f} dB at 1.00 MHz (not the DC loop gain" in row
+    assert "DC loop gain  " not in format_text(above)
+    full = format_text(make_result(two_stage))
+    assert re.search(r"^DC loop gain +80\.00 dB$", full, re.M)
+
+
+def test_an_ac_coupled_loop_swept_above_its_low_crossover_warns_that_it_is_missed():
+    """An AC-coupled loop (a zero at s = 0 and a pole at 10 Hz before a gain of 1e3, closed form) swept from 100 Hz leads
+    there by atan(10/100) = 5.7 deg with |T| = 60 dB: the summary warns that the low gain crossover (at 0.01 Hz by the
+    closed form) lies below the sweep and does not call 60 dB the DC loop gain; the two-stage loop swept alike does not."""
+    def coupled(f):
+        s = 1j * W * np.asarray(f)
+        return 1e3 * (s / (W * 10)) / (1 + s / (W * 10)) / ((1 + s / (W * 1e6)) * (1 + s / (W * 1e8)))
+
+    text = format_text(make_result(coupled, freq_hz=np.logspace(2, 10, 161)))
+    lead = math.degrees(math.atan(10 / 100))  # closed form: the coupling's phase lead at 100 Hz
+    assert f"its phase leads by {lead:.2g} deg: T falls toward DC (AC coupling), and its low gain crossover" in text
+    assert "|T| at the lowest frequency" in text and "DC loop gain  " not in text
+    settled = format_text(make_result(two_stage, freq_hz=np.logspace(2, 10, 161)))
+    assert "AC coupling" not in settled
+
+
+def _poly(*factors):
+    """The polynomial in s (numpy.polyval order) of a product of (1 + s / (2 pi f)) factors."""
+    out = np.array([1.0])
+    for f in factors:
+        out = np.polymul(out, [1.0 / (W * f), 1.0])
+    return out
+
+
+def _least_damped_upper(roots):
+    """The upper member of the least-damped complex pair among closed-form roots (rad/s)."""
+    return min((r for r in roots if r.imag > 0), key=lambda r: -r.real / abs(r))
+
+
+def test_closed_loop_rows_lead_with_measured_figures_and_say_why_the_pair_differs():
+    """A loop with a zero near its crossover (issue 15.6): the measured peaking and |T/(1+T)| come first, then the poles
+    fitted to the measured 1/(1+T), whose dominant pair matches the closed form's roots (numpy.roots of D + A N); no
+    estimate from the phase margin is shown beside them, and since that pair alone would peak 1/(2 z sqrt(1 - z^2))
+    (Ogata, Modern Control Engineering) and not what was measured, a row says why."""
+    def zero_near(f):
+        s = 1j * W * np.asarray(f)
+        return 1e4 * (1 + s / (W * 2e6)) / ((1 + s / (W * 1e3)) * (1 + s / (W * 5e5)) * (1 + s / (W * 1e7)) ** 2)
+
+    r = make_result(zero_near)
+    text = format_text(r)
+    labels = [line[:30].strip() for line in text.splitlines()]
+    assert labels.index("closed-loop peaking") < labels.index("|T/(1+T)| at worst crossover") < labels.index("closed-loop poles")
+    assert "ESTIMATE" not in text
+    char = np.polyadd(_poly(1e3, 5e5, 1e7, 1e7), 1e4 * _poly(2e6))  # closed form: 1 + T = 0
+    pair = _least_damped_upper(np.roots(char))
+    z = -pair.real / abs(pair)
+    assert r.analysis.poles.dominant_damping == pytest.approx(z, rel=1e-6)
+    alone = -20 * math.log10(2 * z * math.sqrt(1 - z * z))  # 2.40 dB, measured 4.94 dB
+    assert f"why these differ              the dominant pair alone would peak {alone:.2f} dB; the measured peaking is" in text
+    assert abs(alone - r.analysis.peaking.peak_db) > 1.0
+
+
+def test_a_loop_with_no_fit_shows_the_estimate_and_says_why():
+    """Only where no poles were fitted does the second-order estimate from the phase margin appear, saying it stands in
+    for a fit (its damping the textbook's for PM 67 deg: z = tan(PM) sqrt(cos PM) / 2, Ogata)."""
+    from dataclasses import replace
+
+    r = make_result(two_stage)
+    unfitted = replace(r, analysis=replace(r.analysis, poles=None))
+    text = " ".join(format_text(unfitted).split())  # wrapped rows read as one
+    pm = math.radians(r.analysis.margins.phase_margin_deg)
+    z = math.tan(pm) * math.sqrt(math.cos(pm)) / 2
+    assert re.search(rf"2nd-order ESTIMATE damping {z:.3f}, .*\(from PM alone, as if the loop had two poles: no poles were fitted\)", text)
+    assert "ESTIMATE" not in format_text(r)
+
+
+def test_check_and_compare_name_the_same_dominant_pole():
+    """One definition (netloop.analysis.poles.dominant_pole): a faint high-Q resonance (weight 1e-3 of the loop's own
+    pair) beside the two-stage loop is passed over by check's figures and by compare alike, both naming the closed
+    form's own pair of 1 + T (numpy.roots), not the 2 MHz resonance that is the least damped of all fitted poles."""
+    from netloop.jobs.compare_explain import dominant_pole
+
+    def faint(f):
+        s = 1j * W * np.asarray(f)
+        x = s / (W * 2e6)
+        return two_stage(f) * (1 + 1e-3 * x / (1 + 0.02 * x + x * x))
+
+    r = make_result(faint, freq_hz=np.logspace(0, 10, 401))
+    poles = r.analysis.poles
+    least = min((p for p in poles.poles_rad_s if p.imag > 0), key=lambda p: -p.real / abs(p))
+    assert abs(least) / W == pytest.approx(2e6, rel=1e-2)  # the faint resonance is among the fitted poles
+    pair = _least_damped_upper(np.roots(np.polyadd(_poly(1e3, 3e7, 1e8), [1e4])))  # closed form of two_stage alone
+    assert poles.dominant_freq_hz * W == pytest.approx(abs(pair), rel=1e-3)
+    assert poles.dominant_damping == pytest.approx(-pair.real / abs(pair), rel=1e-3)
+    assert dominant_pole(r) == pytest.approx(pair, rel=1e-3)
+
+
+def test_a_crossover_row_names_the_closed_loop_gain_it_shows():
+    """The figure on a gain-crossover row is |T/(1+T)| there (issue 15.14), -3.0 dB for the two-stage loop's PM of 67 deg
+    by the closed form |1 / (1 + e^{-j(180 - PM)})| at |T| = 1; the row names it so and never calls it peaking."""
+    text = format_text(make_result(two_stage))
+    row = next(line for line in text.splitlines() if " down " in line and "PM" in line)
+    pm = math.radians(make_result(two_stage).analysis.margins.phase_margin_deg)
+    expected = 20 * math.log10(1 / abs(1 + complex(math.cos(math.pi - pm), -math.sin(math.pi - pm))))
+    assert re.search(rf"\|T/\(1\+T\)\| +{expected:.2f} dB", row)
+    assert "peaking" not in row

@@ -7,14 +7,16 @@ import csv
 import io
 import json
 import math
+from pathlib import Path
 
 import pytest
 from matplotlib.colors import to_hex
 
 from netloop.jobs.corners.runner import CornerRun
-from netloop.jobs.statistics import SampleRun, parse_sample_plan, summarise
+from netloop.jobs.statistics import STATISTICAL_CAUTION, SampleRun, parse_sample_plan, summarise
 from netloop.report.yield_document import SAMPLE_COLUMNS, sample_csv, yield_document
 from netloop.report.yield_html import render_yield_html
+from netloop.report.notation import prefix_for
 from netloop.report.yield_plot import FAILS, PASSES, histogram_figure, scatter_figure
 from netloop.report.yield_text import percent, supports, verdict_line, yield_summary
 
@@ -103,6 +105,59 @@ def test_scatter_colours_each_sample_by_its_verdict():
     ax = scatter_figure(make_run(recs)).axes[0]
     points = {to_hex(c.get_facecolors()[0]): c.get_offsets().tolist() for c in ax.collections}
     assert points == {PASSES: [[1e6, 60.0], [2e6, 55.0], [3e6, 50.0]], FAILS: [[4e6, 40.0]]}
+
+
+def test_frequency_axes_carry_their_unit_once_and_the_corners_one_legend():
+    """A crossover frequency axis labels its ticks as plain numbers and names the unit once (tick labels that each carry
+    "MHz" ran into each other), and several corners get one legend for the four panels instead of one in each."""
+    recs = [record(c, s, "pass", 50.0 + s, fc=f) for c, f in (("cold", 44e6), ("hot", 31e6)) for s in range(1, 5)]
+    fig = histogram_figure(make_run(recs, corners='[axes]\ntemp = [-40, 125]\n'))
+    fc_ax = fig.axes[2]
+    fig.canvas.draw()
+    assert fc_ax.get_xlabel() == "MHz"
+    labels = [t.get_text() for t in fc_ax.get_xticklabels() if t.get_text()]
+    assert labels and all(text.replace(".", "").replace("−", "").isdigit() for text in labels)
+    assert [len(ax.get_legend_handles_labels()[0]) for ax in fig.axes] == [0, 0, 0, 0]
+    assert [t.get_text() for t in fig.legends[0].get_texts()] == ["cold", "hot"]
+    scatter = scatter_figure(make_run(recs, corners='[axes]\ntemp = [-40, 125]\n')).axes[0]
+    assert scatter.get_xlabel() == "crossover frequency (MHz)"
+
+
+@pytest.mark.parametrize("value,scale,prefix", [(38e6, 1e6, "M"), (999.0, 1.0, ""), (1e3, 1e3, "k"), (2.5e-9, 1e-9, "n")])
+def test_prefix_is_the_si_prefix_of_engineering_notation(value, scale, prefix):
+    """The prefix a frequency axis is labelled with is the SI prefix of the largest value's engineering notation (BIPM, The
+    International System of Units, 9th edition 2019, table 7: M = 1e6, k = 1e3, n = 1e-9)."""
+    assert prefix_for(value) == (scale, prefix)
+
+
+# The caution the issue asks of the README and the reports (issue 17, item 6), in DEVELOPERS.md's words ("Caution that
+# goes with every result"): the models are the foundry's; small-signal around each sample's operating point only; sign-off
+# follows the team's flow and the foundry's guidance.
+CAUTION_PARTS = ("statistical models are the foundry's", "small-signal stability yield around each sample's operating point only",
+                 "sign-off follows your team's own verification flow and the foundry's guidance")
+
+
+def _flat(text: str) -> str:
+    return " ".join(text.replace("&#39;", "'").split()).lower()  # a sentence may begin with any of the parts
+
+
+def test_every_report_of_a_statistical_run_carries_the_whole_caution():
+    """The summary, the JSON document and the HTML page each carry all three parts of the statistical caution."""
+    run = make_run([record("tt", s, "pass", 60.0) for s in range(1, 4)])
+    for text in (yield_summary(run), yield_document(run)["caution"], render_yield_html(run), STATISTICAL_CAUTION):
+        for part in CAUTION_PARTS:
+            assert part in _flat(text)
+
+
+def test_readme_and_the_yield_page_carry_the_caution_and_the_reload_per_sample():
+    """README.md and docs/yield.md say that the models are the foundry's, that the yield is small-signal around each sample's
+    operating point only, that sign-off follows the team's flow and foundry guidance, and why each sample reloads."""
+    root = Path(__file__).resolve().parents[2]
+    for name in ("README.md", "docs/yield.md"):
+        text = _flat((root / name).read_text(encoding="utf-8"))
+        assert "foundry's" in text and "small-signal stability yield around each sample's operating point only" in text, name
+        assert "sign-off follows your team's own verification flow and the foundry's guidance" in text, name
+        assert "a reload per sample is expected" in text and "draws the mismatch values when it reads the circuit" in text, name
 
 
 def test_page_is_self_contained_with_both_pictures_and_the_caution():

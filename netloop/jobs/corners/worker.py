@@ -14,11 +14,12 @@ from netloop.jobs.corners.plan import Setting
 from netloop.errors import NetloopError, SimulationError
 from netloop.jobs.measure import Sweep, measure
 
-__all__ = ["TaskOptions", "close_simulator", "in_place_changes", "run_task", "worker_simulator"]
+__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "in_place_changes", "run_task", "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
-_READ_AGAIN = ("lib", "include")  # settings that make apply_settings read the files again
-_PARSED: dict[tuple, tuple[tuple, object]] = {}  # (netlist, its file-reading settings) -> (file stamps, Netlist)
+_READ: dict[tuple, tuple[object, tuple]] = {}  # corner netlists this worker read: (netlist, its files' state) by what it was read from
+_READ_KEEP = 8
+_REREAD = ("lib", "include")  # the settings apply_settings reads the files again for (process arrives expanded into them)
 
 
 @dataclass(frozen=True, slots=True)
@@ -52,6 +53,36 @@ def close_simulator() -> None:
         sim.close()
 
 
+def _state(files: tuple[str, ...]) -> tuple:
+    """What says a file is unchanged without reading it: size and modification time of each (None when it is gone)."""
+    out = []
+    for f in files:
+        try:
+            st = os.stat(f)
+            out.append((st.st_size, st.st_mtime_ns))
+        except OSError:
+            out.append(None)
+    return tuple(out)
+
+
+def corner_netlist(corner):
+    """The corner's netlist with its settings applied, as apply_settings gives it. The settings that read the files again
+    (lib, include) are applied once per worker and kept while none of the files read changes (size and modification
+    time), so the samples of one corner, which differ only in their seed, do not each read the netlist and its model files
+    in Python; the other settings (temperature, .param, supply, element, seed) are applied to that copy each time."""
+    reread = tuple(s for s in corner.settings if s.kind in _REREAD)
+    rest = tuple(s for s in corner.settings if s.kind not in _REREAD)
+    key = (corner.netlist, tuple((s.kind, s.target, s.value) for s in reread))
+    kept = _READ.pop(key, None)
+    if kept is None or _state(kept[0].files) != kept[1]:
+        netlist = apply_settings(corner.netlist, reread)
+        kept = (netlist, _state(netlist.files))
+    _READ[key] = kept  # the most recent last
+    while len(_READ) > _READ_KEEP:
+        del _READ[next(iter(_READ))]
+    return apply_settings(kept[0], rest)
+
+
 def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
     """The corner's settings that ngspice can change on a loaded circuit, as netloop.sim.Change records:
     the temperature, supply DC values, top-level .param values and R, C, L values (as apply_settings writes them)."""
@@ -69,33 +100,6 @@ def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
         elif s.kind == "element":
             out.append(Change("element", s.target, s.value))
     return tuple(out)
-
-
-def _stamps(files) -> tuple:
-    """What a file looks like from outside (path, modification time, size), to see that none changed."""
-    out = []
-    for path in files:
-        try:
-            st = os.stat(path)
-        except OSError:
-            return ()
-        out.append((path, st.st_mtime_ns, st.st_size))
-    return tuple(out)
-
-
-def corner_netlist(task: Task):
-    """The corner's netlist (apply_settings), its files read once per worker for every corner that reads the same files
-    (same netlist, sections and include words), again when one of them changed: a process library takes a parse of
-    about 0.2 s a corner otherwise, all of it the same."""
-    reading = tuple(s for s in task.corner.settings if s.kind in _READ_AGAIN)
-    key = (task.corner.netlist, reading)
-    hit = _PARSED.get(key)
-    if hit is None or not hit[0] or _stamps(hit[1].files) != hit[0]:
-        base = apply_settings(task.corner.netlist, reading)
-        if len(_PARSED) >= 4:  # a few process corners' netlists; the oldest leaves first
-            _PARSED.pop(next(iter(_PARSED)))
-        _PARSED[key] = hit = (_stamps(base.files), base)
-    return apply_settings(hit[1], tuple(s for s in task.corner.settings if s.kind not in _READ_AGAIN))
 
 
 class _InPlace:
@@ -148,7 +152,7 @@ def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
 
     started = time.perf_counter()
     try:
-        netlist = corner_netlist(task)
+        netlist = corner_netlist(task.corner)
         simulator = worker_simulator()
         changes = in_place_changes(task.corner.settings) if options.share_loads else ()
         if changes:

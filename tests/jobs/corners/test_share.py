@@ -217,26 +217,3 @@ def test_progress_and_summary_count_the_loads(tmp_path, scheduler, capsys, share
         summary += "; 2 ran on a circuit another corner had loaded, with its temperature, supplies, parameters or element values changed in place (share_loads)"
     assert summary + "\n" in printed.out
 
-
-def test_a_worker_reads_the_files_of_a_process_corner_once_and_again_when_one_changes(tmp_path, monkeypatch):
-    """corner_netlist gives each corner the netlist apply_settings gives (written out the same), reading the netlist
-    and its library once for the corners of one section, and again once the library file changes on disk."""
-    from netloop.jobs.corners import apply_settings
-    from netloop.jobs.corners import worker
-    from netloop.netlist import write_netlist
-
-    (tmp_path / "models").mkdir()
-    library = tmp_path / "models" / "corners.lib"
-    library.write_text((ROOT / "circuits" / "models" / "corners.lib").read_text())
-    netlist = tmp_path / "amp.cir"
-    netlist.write_text(MILLER.read_text())
-    _, tasks = _tasks(tmp_path, '[axes]\nlib = ["tt", "ss"]\ntemp = [0, 50]\nparam.cc = ["1p", "2p"]\n', netlist)
-    reads = []
-    monkeypatch.setattr(worker, "apply_settings", lambda nl, s: (reads.append(isinstance(nl, str)), apply_settings(nl, s))[1])
-    monkeypatch.setattr(worker, "_PARSED", {})
-    for t in tasks:
-        assert write_netlist(worker.corner_netlist(t)) == write_netlist(apply_settings(t.corner.netlist, t.corner.settings))
-    assert reads.count(True) == 2  # one read of the files per section, for its four corners
-    library.write_text(library.read_text() + "\n* edited\n")
-    worker.corner_netlist(tasks[0])
-    assert reads.count(True) == 3

@@ -145,5 +145,5 @@ def test_loads_count_every_netlist_ngspice_read_for_the_measurement():
         result = measure(netlist, "gate", simulator=counting)
     finally:
         simulator.close()
-    assert [c.name for c in result.checks] == ["split"]  # other placements were measured
+    assert "split" in [c.name for c in result.checks]  # other placements were measured
     assert result.sim.loads == counting.loads >= 2

@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from netloop.errors import PlanError
 from netloop.jobs.corners import parse_plan
-from netloop.jobs.statistics import parse_fraction, parse_sample_plan
+from netloop.jobs.statistics import load_sample_plan, parse_fraction, parse_sample_plan, sample_tasks
 
 HEAD = 'netlist = "amp.cir"\nat = "out"\nrequire = ["pm >= 60"]\n'
 
@@ -56,3 +58,16 @@ def test_a_plan_without_samples_belongs_to_corners_and_one_with_them_to_yield():
         parse_sample_plan(HEAD, "plan.toml")
     with pytest.raises(PlanError, match="^plan.toml:4: \\[samples\\] makes this a statistical plan: run it with 'netloop yield PLAN'"):
         parse_plan(HEAD + "[samples]\ncount = 3\n", "plan.toml")
+
+
+def test_bundled_plan_crosses_sixty_seeds_with_three_temperatures_at_the_mismatch_section():
+    """circuits/plans/sky130_miller_yield.toml (the README's example) reads: 60 samples, seeds 1 to 60, at tt_mm and three
+    temperatures, each sample's netlist with ngspice's seed first and the section word tt_mm; a 95 % target at 90 %
+    confidence; 180 tasks (plan written from the issue's own example: samples crossed with temperatures)."""
+    root = Path(__file__).resolve().parents[3]
+    splan = load_sample_plan(root / "circuits" / "plans" / "sky130_miller_yield.toml")
+    assert (splan.count, list(splan.seeds)[::59], splan.target, splan.confidence) == (60, [1, 60], 0.95, 0.9)
+    tasks = sample_tasks(splan)
+    assert len(tasks) == 180 and len({t.corner.name.rpartition("#")[0] for t in tasks}) == 3
+    settings = {s.kind: s.value for s in tasks[-1].corner.settings}
+    assert settings["seed"] == "60" and settings["lib"] == "tt_mm" and tasks[-1].corner.name == "tt_mm/125C#60"

@@ -1,0 +1,162 @@
+"""A statistical plan's samples on Dask: 2 workers against 1, and the cost per sample beyond ngspice's own load and analysis.
+
+Run:  .venv/bin/python benchmarks/yield_speed.py [--samples 12] [--repeat 2] [--quick]
+
+The plan is the sky130 Miller buffer (circuits/sky130/miller_buffer.cir) at section tt_mm, device
+mismatch on: every sample reads the circuit and its model files again, because ngspice draws the
+mismatch values (the agauss terms of the foundry's device wrappers) when it reads the circuit. A
+sample is therefore a load, an operating point and the sweeps of one measurement; what netloop adds
+(the netlist, the probe, the analysis, Dask, the results file) is the overhead.
+
+Both clusters (1 worker, 2 workers) are started as `netloop yield --workers N` starts them
+(netloop.jobs.corners.runner.local_cluster) and warmed (ngspice started, scipy and the report stage
+imported) before the clock starts. The runs go through run_samples (journal, Dask, collection,
+statistics), the same path as `netloop yield PLAN --cluster ADDRESS`; they take turns ``--repeat``
+times and the fastest of each counts, so bursts of other work on a shared machine hit both alike.
+
+Two measures of the cost beyond ngspice, both from the 1-worker run:
+- wall time: the run's wall time per sample against the time the worker waited for its ngspice
+  (SimInfo.seconds: the load, the operating point and every sweep);
+- CPU time (psutil), steadier than wall time on a busy machine: the ngspice processes' CPU against
+  the Dask worker's and the calling process's (which also hosts the idle cluster's scheduler).
+Targets: overhead <= 10 % of ngspice's own time; 2 workers >= 1.8x one worker.
+``--quick``: the Miller buffer on the invented models (no mismatch: every sample alike), 4 samples, once (a smoke run
+of the path; ngspice needs a few ms there, so the targets do not apply).
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import os
+import statistics
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+OVERHEAD_TARGET = 0.10
+SPEEDUP_TARGET = 1.8
+PLAN = """
+netlist = "{netlist}"
+at = "out"
+require = ["pm >= 60"]
+{axes}
+[samples]
+count = {count}
+first_seed = 1
+"""
+
+
+def _warm() -> None:
+    """Start the worker's ngspice and load what its first sample would otherwise load on the clock."""
+    import netloop.report  # noqa: F401 - run_task's record writer
+    from netloop.analysis.preload import load_scipy
+    from netloop.jobs.corners.worker import worker_simulator
+
+    worker_simulator()
+    load_scipy()
+
+
+def _cpu() -> tuple[float, float]:
+    """(CPU seconds of this process, of its children): on a Dask worker, the children are its ngspice."""
+    import psutil
+
+    me = psutil.Process()
+    own = me.cpu_times()
+    children = 0.0
+    for child in me.children(recursive=True):
+        with contextlib.suppress(psutil.Error):
+            t = child.cpu_times()
+            children += t.user + t.system
+    return own.user + own.system, children
+
+
+def cpu_snapshot(client) -> tuple[float, float, float]:
+    """CPU seconds so far of (the calling process, with the client and both local schedulers; the Dask worker processes
+    of ``client``; their ngspice processes)."""
+    own = _cpu()[0]
+    workers = client.run(_cpu)
+    return own, sum(w[0] for w in workers.values()), sum(w[1] for w in workers.values())
+
+
+def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, tuple[dict, ...], tuple[float, ...]]:
+    """Wall time of run_samples on ``client``'s scheduler (journal, Dask, statistics included), its records, and the CPU
+    seconds spent meanwhile (as cpu_snapshot splits them)."""
+    from netloop.jobs.statistics import load_sample_plan, run_samples
+
+    cpu_before = cpu_snapshot(client)
+    start = time.perf_counter()
+    run = run_samples(load_sample_plan(plan_path), cluster=address, out=out, force=True)
+    wall = time.perf_counter() - start
+    cpu_after = cpu_snapshot(client)
+    return wall, run.run.records, tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True))
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--samples", type=int, default=12, help="samples of the plan (default 12)")
+    parser.add_argument("--repeat", type=int, default=2, help="runs per worker count, taking turns; the fastest counts (default 2)")
+    parser.add_argument("--quick", action="store_true", help="a smoke run: the invented Miller buffer, 4 samples, once")
+    args = parser.parse_args()
+    if args.quick:
+        args.samples, args.repeat = 4, 1
+    from distributed import Client
+
+    from netloop.jobs.corners.runner import local_cluster
+
+    with tempfile.TemporaryDirectory(prefix="netloop-bench-") as tmp:
+        work = Path(tmp)
+        if args.quick:
+            netlist, axes, what = ROOT / "circuits" / "miller_buffer.cir", "", "the invented Miller buffer (no mismatch models: a smoke run)"
+        else:
+            netlist, axes, what = ROOT / "circuits" / "sky130" / "miller_buffer.cir", '[axes]\nlib = ["tt_mm"]\n', "the sky130 Miller buffer at tt_mm (mismatch on)"
+        plan = work / "bench.toml"
+        plan.write_text(PLAN.format(netlist=netlist.as_posix(), axes=axes, count=args.samples))
+        load_before = os.getloadavg()
+        runs: dict[int, list] = {1: [], 2: []}
+        with contextlib.ExitStack() as stack:
+            clients, addresses = {}, {}
+            for workers in (1, 2):
+                cluster = stack.enter_context(local_cluster(workers))  # as `netloop yield --workers N` starts it
+                clients[workers] = stack.enter_context(Client(cluster))
+                clients[workers].wait_for_workers(workers)
+                clients[workers].run(_warm)  # each worker's ngspice started before the clock starts
+                addresses[workers] = cluster.scheduler_address
+            for i in range(args.repeat):
+                for workers in ((1, 2) if i % 2 == 0 else (2, 1)):  # taking turns: a burst of other work hits both counts
+                    runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
+        load_after = os.getloadavg()
+        (wall1, rec1, cpu1), (wall2, rec2, _cpu2) = (min(runs[w], key=lambda x: x[0]) for w in (1, 2))
+        n = len(rec1)
+        sim = statistics.fmean(r["sim_seconds"] for r in rec1)
+        task = statistics.fmean(r["seconds"] for r in rec1)
+        loads = sum(r["loads"] or 0 for r in rec1)
+        per_sample = wall1 / n
+        overhead = (per_sample - sim) / sim
+        cpu_caller, cpu_workers, cpu_ngspice = cpu1
+        speedup = wall1 / wall2
+        same = [a["loop"]["loop_gain"] == b["loop"]["loop_gain"] for a, b in zip(rec1, rec2, strict=True)]
+        spread = {}
+        for r in rec2:
+            spread[r["worker"]] = spread.get(r["worker"], 0) + 1
+        judged = "" if args.quick else " ({} the {:.0f} % target)"
+        print(f"{n} samples of {what}, best of {args.repeat} per worker count; {os.cpu_count()} CPUs, load average (1, 5, 15 min) "
+              f"{', '.join(f'{x:.2f}' for x in load_before)} before and {', '.join(f'{x:.2f}' for x in load_after)} after "
+              "(other work on the machine lowers the speed-up)")
+        print(f"1 worker : {wall1:7.2f} s  ({per_sample * 1e3:.0f} ms per sample; runs {', '.join(f'{r[0]:.2f}' for r in runs[1])} s)")
+        print(f"2 workers: {wall2:7.2f} s  ({wall2 / n * 1e3:.0f} ms per sample; runs {', '.join(f'{r[0]:.2f}' for r in runs[2])} s; "
+              f"samples per worker {sorted(spread.values(), reverse=True)})")
+        print(f"speed-up 2 workers / 1 worker: {speedup:.2f}x" + ("" if args.quick else f" ({'meets' if speedup >= SPEEDUP_TARGET else 'misses'} the {SPEEDUP_TARGET}x target)"))
+        print(f"per sample on 1 worker: ngspice's load, operating point and sweeps {sim * 1e3:.0f} ms (SimInfo.seconds; {loads} loads for {n} samples), "
+              f"in the worker {task * 1e3:.0f} ms, wall {per_sample * 1e3:.0f} ms")
+        print(f"overhead beyond ngspice's own, wall time: {overhead * 100:.1f} %" + judged.format("meets" if overhead <= OVERHEAD_TARGET else "misses", OVERHEAD_TARGET * 100)
+              + f"  (netlist, probe and analysis in the worker {(task - sim) * 1e3:.0f} ms, Dask, results file and statistics {(per_sample - task) * 1e3:.0f} ms per sample)")
+        print(f"CPU time on 1 worker: ngspice processes {cpu_ngspice:.2f} s; the Dask worker (netloop's measurement and Dask) "
+              f"{cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} % of ngspice's; the calling process (plan, results file, "
+              f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} %")
+        print(f"T of every sample the same on 1 and 2 workers, bit for bit: {all(same)} ({sum(same)} of {len(same)})")
+
+
+if __name__ == "__main__":
+    main()

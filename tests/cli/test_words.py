@@ -1,0 +1,52 @@
+"""Messages in the words of the command line (issue 15.14): the library's driver= is --driver, or --at NODE= in compare."""
+
+from __future__ import annotations
+
+import pytest
+
+from netloop.cli.main import main
+from netloop.cli.words import command_words
+
+
+@pytest.mark.parametrize(("text", "command", "said"), [
+    ("the split changes T; choose with driver=", "check", "the split changes T; choose with --driver"),
+    ("nothing is left for the load side: use driver= to choose", "check", "nothing is left for the load side: use --driver to choose"),
+    ("driver='m1.g' names only inputs on node fb", "check", "--driver m1.g names only inputs on node fb"),
+    ("candidates: m1.g; name the driver with driver=ELEMENT[.PIN]", "sensitivity", "candidates: m1.g; name the driver with --driver ELEMENT[.PIN]"),
+    ("the split changes T; choose with driver=", "compare", "the split changes T; choose with --at NODE=ELEMENT"),
+    ("driver='m1.g' names only inputs on node fb", "compare", "--at NODE=m1.g names only inputs on node fb"),
+    ("driver side given by --driver m1.d: m1.d", "check", "driver side given by --driver m1.d: m1.d"),
+    ("the driver side and the load side", "check", "the driver side and the load side"),
+])
+def test_the_librarys_option_is_named_as_the_commands_option(text, command, said):
+    """Each phrasing of driver= the library uses becomes the command's own option (common practice: a message speaks the
+    interface the user is in); text without it, or already in command-line words, is left as it is."""
+    assert command_words(text, command) == said
+
+
+def test_a_json_document_stays_json_when_its_warnings_end_in_driver():
+    """A --json document whose warnings end with 'choose with driver=' is still valid JSON after the rewording, each
+    warning reworded alone (a bare driver= at the end of a string never takes the string's closing quote as a value)."""
+    # Reference: Python's json module (the document is read back); the warnings as break_loop writes them.
+    import json
+
+    doc = {"warnings": ["xp: the split changes T; choose with driver=", "xn: the split changes T; choose with driver="],
+           "decided_by": "driver side given by driver='m1.d,m3.d': m1.d, m3.d"}
+    for text in (command_words(json.dumps(doc, indent=2), "check"), command_words(json.dumps(doc), "check")):
+        back = json.loads(text)
+        assert back["warnings"] == ["xp: the split changes T; choose with --driver", "xn: the split changes T; choose with --driver"]
+        assert back["decided_by"] == "driver side given by --driver m1.d,m3.d: m1.d, m3.d"
+
+
+@pytest.mark.ngspice
+def test_check_warnings_and_errors_name_the_driver_option(tmp_path, capsys):
+    """On the command line, check's warning about a node feeding two loops says 'choose with --driver', and the error for
+    --driver naming only inputs says '--driver e1.cp' (not driver=), the same sentences the library gives with driver=."""
+    path = tmp_path / "two.cir"
+    path.write_text("two loops through one node\nvin in 0 dc 0\ne1 o1 0 in x 100\ne2 o2 0 in x 100\nr1 o1 x 1k\nr2 o2 x 1k\n.end\n")
+    main(["check", str(path), "--at", "x", "--fmax", "1meg"])
+    out = capsys.readouterr().out
+    assert "and which terminals sit on the driver side changes T; choose with --driver" in out and "driver=" not in out
+    assert main(["check", str(path), "--at", "x", "--driver", "e1.cn", "--fmax", "1meg"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("netloop: error: --driver e1.cn names only inputs on node x") and "driver=" not in err
