@@ -280,13 +280,24 @@ def run_groups(args: argparse.Namespace, netlist, common: dict) -> int:
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         print(json.dumps(report.groups_document(check), indent=2, allow_nan=False))
     else:
-        parts = [report.format_text(g.result) if g.result is not None else unmeasured_text(g) for g in check.groups]
+        shared = netlist.warnings if len(check.groups) > 1 else ()  # the netlist's own: said once, not under every loop
+        parts = [report.format_text(without_warnings(g.result, shared)) if g.result is not None else unmeasured_text(g)
+                 for g in check.groups]
         if len(check.groups) > 1:
-            parts.insert(0, verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups}))
+            head = verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups})
+            said = [w for w in shared if any(g.result is not None and w in g.result.warnings for g in check.groups)]
+            parts.insert(0, head + "".join(f"\n  - {w}" for w in said))
         print("\n\n".join(parts))
     if results:
         write_outputs(args, results)
     return exit_status(check.verdict)
+
+
+def without_warnings(result, shared):
+    """``result`` with the warnings in ``shared`` left out (said once above several loops' summaries)."""
+    from dataclasses import replace
+
+    return replace(result, warnings=tuple(w for w in result.warnings if w not in shared)) if shared else result
 
 
 def verdicts_line(verdict: str, parts: dict[str, str]) -> str:
