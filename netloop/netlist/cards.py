@@ -149,16 +149,16 @@ def parse_card(text: str, loc: SourceLocation, models: Collection[str] = (), vdm
             model = rest[at].lower()
         elif kind in "FH":
             order = _poly_order(rest[2])
-            if order is not None and n < 3 + order:
-                raise _fail(f"{name}: expected {order} controlling sources after {rest[2]}", text, loc)
+            if order is not None and n < 4 + order:  # ngspice 39 refuses a POLY card without coefficients too
+                raise _fail(f"{name}: expected {order} controlling sources and the coefficients after {rest[2]}", text, loc)
     elif kind in "EG":
         if n < 3:
             raise _fail(f"{name}: expected 2 output nodes and a gain, POLY(n), VALUE= or TABLE form", text, loc)
         third = rest[2].lower()
         order = _poly_order(third)
         if order is not None:
-            if n < 3 + 2 * order:
-                raise _fail(f"{name}: expected {2 * order} controlling nodes after {rest[2]}", text, loc)
+            if n < 4 + 2 * order:  # ngspice 39 refuses a POLY card without coefficients too
+                raise _fail(f"{name}: expected {2 * order} controlling nodes and the coefficients after {rest[2]}", text, loc)
             slots = (0, 1, *range(3, 3 + 2 * order))
             pins = ("p", "n", *(f"{r}{k}" for k in range(1, order + 1) for r in ("cp", "cn")))
         elif "=" in third or third.startswith(("value", "table", "laplace", "freq", "vol", "cur", "{", "'")):

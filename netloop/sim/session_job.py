@@ -6,11 +6,13 @@ excited sources all equal; only the sweeps differ, as in the widening and refine
 the load and the operating point and runs its sweeps at once. A job that names values ngspice can
 change in place (SimJob.changes; netloop.sim.in_place) runs on the circuit an earlier job left loaded
 when the two netlists differ only in those values: ngspice changes them instead of reading the netlist
-and its model files again.
+and its model files again. ngspice reads only the model cards and subcircuits of its libraries that the
+circuit uses (netloop.sim.used_models).
 """
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -23,6 +25,7 @@ from netloop.sim.job import SimJob
 from netloop.sim.frequency import sweep_frequencies
 from netloop.sim.output import ac_op_failed, error_lines, fatal_lines, op_failed, recovery, summary
 from netloop.sim.session import NgspiceSession
+from netloop.sim.used_models import used_only
 from netloop.sim.vectors import unknown_saves
 
 __all__ = ["JobFailure", "JobPayload", "JobRunner", "run_job"]
@@ -212,7 +215,12 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
     Returns (None, ngspice's lines) when the operating point failed, else the loaded record.
     """
     session.clear()
-    loaded_lines = session.load(render_deck(job, option_words(job, aid)))
+    deck = render_deck(job, option_words(job, aid))
+    lean = used_only(deck, os.getcwd())  # the worker runs in the job's folder, where relative library paths start
+    loaded_lines = session.load(lean or deck)
+    if lean is not None and error_lines(loaded_lines):  # never expected: then ngspice reads the libraries as written
+        session.clear()
+        loaded_lines = session.load(deck)
     log.extend(loaded_lines)
     if error_lines(loaded_lines):
         raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded_lines))

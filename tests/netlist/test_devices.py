@@ -50,3 +50,12 @@ def test_real_circuits_are_not_wrappers(name):
     assert not is_device_subcircuit(sub)
     with pytest.raises(ValueError):
         device_pin_roles(sub)
+
+
+def test_a_pin_the_device_does_not_use_keeps_its_name():
+    """A wrapper pin that no terminal of its device uses (a spare well tie, say) keeps its own name as its role; a circuit
+    asked for roles is refused by name (device_pin_roles' documented contract)."""
+    nl = parse_text("t\n.subckt nw d g s b well\nM1 d g s b nmod\n.model nmod nmos\n.ends\n" + DEFS.split("\n", 1)[1])
+    assert device_pin_roles(nl.subcircuit("nw")) == ("d", "g", "s", "b", "well")
+    with pytest.raises(ValueError, match="^subcircuit resistor is not a device wrapper$"):
+        device_pin_roles(nl.subcircuit("resistor"))

@@ -15,15 +15,18 @@ CARDS = [
     ("R1 a", "R1: expected 2 nodes and a value", END),
     ("V1 a", "V1: expected 2 nodes", END),
     ("M1 d g s nch", "M1: expected 4 nodes and a model (3, or 5 with the thermal nodes, for a vdmos model)", END),
-    ("F1 o 0 POLY(2) vx", "F1: expected 2 controlling sources after POLY(2)", END),
-    ("H1 o 0 poly(3) va vb", "H1: expected 3 controlling sources after poly(3)", END),
+    ("F1 o 0 POLY(2) vx", "F1: expected 2 controlling sources and the coefficients after POLY(2)", END),
+    ("H1 o 0 poly(3) va vb", "H1: expected 3 controlling sources and the coefficients after poly(3)", END),
+    ("F1 o 0 POLY(1) vx", "F1: expected 1 controlling sources and the coefficients after POLY(1)", END),  # ngspice 39 refuses it too
     ("E1 o 0", "E1: expected 2 output nodes and a gain, POLY(n), VALUE= or TABLE form", END),
-    ("G1 o 0 POLY(2) a 0", "G1: expected 4 controlling nodes after POLY(2)", END),
+    ("G1 o 0 POLY(2) a 0", "G1: expected 4 controlling nodes and the coefficients after POLY(2)", END),
+    ("G1 o 0 POLY(2) a 0 b 0", "G1: expected 4 controlling nodes and the coefficients after POLY(2)", END),  # ngspice 39 refuses it too
     ("E1 o 0 a 0", "E1: expected 2 output nodes, 2 controlling nodes and a gain", END),
     ("Q1 c b e", "Q1: expected 3 or 4 nodes and a model", END),
     ("X1 w=1 l=2", "X1: expected nodes and a subcircuit name", END),
     ("A1 x", "A1: expected connections and a model", END),
     ("R1 a {b} 1", "R1: expected a node name, got '{b}'", "{b}"),
+    ("V1 a {b}", "V1: expected a node name, got '{b}'", "{b}"),  # the fault is the card's last piece
     ("M1 d g s=1 b nch", "M1: expected a node name, got 's=1'", "s=1"),
     (".include", ".include: expected a file name", END),
     (".inc  ", ".inc: expected a file name", END),
@@ -86,3 +89,13 @@ def test_files_that_cannot_be_read(tmp_path):
     (tmp_path / "empty.lib").write_text("* no sections\n")
     top.write_text("t\n.lib empty.lib ff\n")
     assert _refused(top).endswith("has no section 'ff' (sections: none)")
+
+
+def test_instance_with_the_wrong_number_of_nodes():
+    """An X card giving 3 nodes to a 2-pin definition (defined after it) is refused at the card's own line, naming the pins."""
+    text = "title\nR0 x 0 1\nX1 a b c amp\n.subckt amp in out\nR1 in out 1k\n.ends amp\n"
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(text, source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head == "amp.cir:3:1: X1: subcircuit amp has 2 pins (in out), the card gives 3 nodes"
+    assert (line, caret) == ("    X1 a b c amp", "    ^")

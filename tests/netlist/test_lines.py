@@ -58,6 +58,8 @@ def test_logical_lines_strip_comments_and_join_continuations(text, expected):
     ("R1 a b r = 1k", ["R1", "a", "b", "r=1k"]),
     ("B1 o 0 v = 'v(a) * 2' tc1 = {k * 2}", ["B1", "o", "0", "v='v(a) * 2'", "tc1={k * 2}"]),
     ("E1 o 0 value = {v(a)*{g + 1}} x", ["E1", "o", "0", "value={v(a)*{g + 1}}", "x"]),
+    ("B1 o 0 v = {a*{b} + c} d", ["B1", "o", "0", "v={a*{b} + c}", "d"]),
+    ("R1 a b r = 'x * 2'", ["R1", "a", "b", "r='x * 2'"]),
     (".param s = 'a b' t={1 + 2}", [".param", "s='a b'", "t={1 + 2}"]),
     ("X1 a} b sub", ["X1", "a}", "b", "sub"]),
     ("X1 {a b} c' d'", ["X1", "{a b}", "c' d'"]),

@@ -228,11 +228,13 @@ def test_malformed_lines(text, expected):
 
 
 def test_warnings_for_undefined_model_and_subcircuit():
-    """Undefined models and subcircuits are warnings with the card's location, not errors."""
+    """Undefined models and subcircuits are warnings with the card's location, not errors; the instance of a missing
+    definition has positional pins."""
     nl = parse_text("t\nM1 d g 0 0 nope\nX1 a b missing\nD1 a 0 dm.3\n.model dm.3 d\n")
     assert any("<string>:2:1" in w and "nope" in w for w in nl.warnings)
     assert any("<string>:3:1" in w and "missing" in w for w in nl.warnings)
     assert not any("dm.3" in w for w in nl.warnings)
+    assert nl.element("x1").pins == ("1", "2")  # no definition names its pins: they keep their places, as ngspice connects them
 
 
 def test_records_are_frozen_records():
@@ -254,10 +256,13 @@ def test_unknown_subcircuit_query_suggests_close_names():
 
 
 def test_xspice_vector_connections():
-    """XSPICE A cards: nodes inside [ ] vectors and after %-prefixes are node slots; the model is the last token."""
-    nl = parse_text("t\nA1 [IN1 in2] %v OUT amod\n.model amod d_and\n")
+    """XSPICE A cards (ngspice manual, XSPICE instance lines): nodes inside [ ] vectors and after %-prefixes are node slots;
+    the model is the last token; a one-port model has one connection."""
+    nl = parse_text("t\nA1 [IN1 in2] %v OUT amod\nA2 clk src\n.model amod d_and\n.model src d_osc\n")
     a1 = nl.element("a1")
     assert a1.nodes == ("in1", "in2", "out") and a1.model == "amod"
+    assert a1.pins == ("a1", "a2", "a3")  # netloop's own labels, one per connection in card order (cards.py)
+    assert (nl.element("a2").nodes, nl.element("a2").model) == (("clk",), "src")  # one connection and a model: the least an A card has
     assert a1.tokens[0] == "[" and a1.tokens[4] == "%v"
 
 
@@ -374,12 +379,14 @@ def test_global_nets_are_lower_case_once_each_in_order():
 
 
 def test_subcircuit_header_pins_and_parameters():
-    """Pins before params: (lower-case), key=value anywhere, and bare names after params: as parameters without a default."""
+    """Pins before params: (lower-case), key=value anywhere, and bare names after params: as parameters without a default; each
+    definition is located at its .subckt line."""
     nl = parse_text("t\n.SUBCKT Amp IN Out params: Gain=2 bw\n.ends\n.subckt b x y params:k=1 w = 3\n.ends b\n.subckt c p q=4\n.ends\n")
     amp, b, c = nl.subcircuit("amp"), nl.subcircuit("b"), nl.subcircuit("c")
     assert (amp.pins, amp.params, amp.header) == (("in", "out"), (("gain", "2"), ("bw", "")), ".SUBCKT Amp IN Out params: Gain=2 bw")
     assert (b.pins, b.params) == (("x", "y"), (("k", "1"), ("w", "3")))
     assert (c.pins, c.params) == (("p",), (("q", "4"),))
+    assert [(s.location.line, s.location.column) for s in (amp, b, c)] == [(2, 1), (4, 1), (6, 1)]  # each at its .subckt line
     assert not nl.warnings
 
 
@@ -436,3 +443,44 @@ def test_bjt_fifth_token_decides_the_substrate_only_when_it_is_a_name():
     assert (q1.nodes, q1.model) == (("c", "b", "e"), "qnone")
     assert (q2.nodes, q2.pins, q2.model) == (("c", "b", "e", "s"), ("c", "b", "e", "sub"), "xq")
     assert nl.warnings == ("q.cir:2:1: Q1: undefined model 'qnone'",)
+    assert nl.source == "q.cir"
+    q3 = parse_text("t\n.model QA npn\nQ3 c b e QA off\n").element("q3")  # "off" is a keyword, not a substrate node
+    assert (q3.nodes, q3.model, q3.tokens[3]) == (("c", "b", "e"), "qa", "QA")  # the model name stays as written in the tokens
+
+
+def test_controlling_node_named_like_poly_is_a_node():
+    """A linear E/G card whose first controlling node is named "polyin" is the four-node form (ngspice manual, linear
+    VCVS/VCCS: N+ N- NC+ NC- VALUE), not a POLY(n) form; and only F, H and W cards have controlling sources."""
+    nl = parse_text("t\nE1 out 0 polyin 0 10\nG1 0 o2 poly 0 1m\nX1 a b sub\n.subckt sub p q\nR1 p q 1\n.ends\n")
+    assert nl.element("e1").nodes == ("out", "0", "polyin", "0") and nl.element("e1").pins == ("p", "n", "cp", "cn")
+    assert nl.element("g1").nodes == ("0", "o2", "poly", "0")
+    assert [controlling_sources(nl.element(n)) for n in ("e1", "g1", "x1")] == [(), (), ()]
+
+
+POLY_ONE_COEFFICIENT = """poly cards with one coefficient each (invented)
+va a 0 dc 2
+vb b 0 dc 3
+e2 o 0 poly(2) a 0 b 0 1
+r1 o 0 1k
+h1 q 0 poly(1) va 2
+r2 q 0 1k
+"""
+
+
+@pytest.mark.ngspice
+def test_poly_cards_with_a_single_coefficient(tmp_path, op_of):
+    """A POLY(n) card with its controlling nodes or sources and one coefficient (p0) is read, as ngspice 39 reads it:
+    its op gives v(o) = p0 = 1 and v(q) = 2 (with no coefficient at all both refuse the card, see test_errors)."""
+    nl = parse_text(POLY_ONE_COEFFICIENT)
+    assert nl.element("e2").nodes == ("o", "0", "a", "0", "b", "0")
+    assert nl.element("h1").nodes == ("q", "0") and controlling_sources(nl.element("h1")) == ("va",)
+    op = op_of(POLY_ONE_COEFFICIENT, tmp_path)  # reference: ngspice's own operating point
+    assert (op["o"], op["q"]) == (pytest.approx(1.0), pytest.approx(2.0))
+
+
+def test_laplace_and_freq_forms_have_only_output_nodes():
+    """E/G cards in the LAPLACE and FREQ behavioural forms (PSpice's syntax, from memory) connect only their two output nodes;
+    a value written in quotes with spaces is one token, also on a plain two-terminal card."""
+    nl = parse_text("t\nE1 o 0 LAPLACE {V(a)} = {1/(1+s)}\nG1 0 p FREQ {V(a)} = (0,0,0) (1k,-3,-45)\nR1 a b 'x * 2'\n")
+    assert nl.element("e1").nodes == ("o", "0") and nl.element("g1").nodes == ("0", "p")
+    assert nl.element("r1").tokens == ("a", "b", "'x * 2'")

@@ -41,3 +41,23 @@ xr n1 loop
 v1 n1 0 1
 """
     assert flat_element_count(parse_text(text)) == 3 * (2 + 3) + 1 + 1 + 1
+
+
+def test_nested_definitions_are_counted_as_flatten_expands_them():
+    """A definition nested inside another is found for the instances inside it; an M card whose model shares a subcircuit's
+    name is one device; both as graph.flatten (an independent expansion) counts them."""
+    text = """t
+.subckt outer a b
+.subckt inner p q
+r1 p q 1k
+r2 p q 1k
+.ends inner
+xi a b inner
+m1 a b 0 0 inner
+.ends outer
+.model inner nmos
+x1 n1 n2 outer
+x2 n2 0 outer
+"""
+    netlist = parse_text(text)
+    assert flat_element_count(netlist) == len(flatten(netlist)) == 2 * (2 + 1)

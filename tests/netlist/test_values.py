@@ -44,3 +44,10 @@ def test_not_a_number(text):
         parse_value(text)
     with pytest.raises(ValueError):
         parse_value(text)
+
+
+@pytest.mark.parametrize("text", ["abc", "1.5.5x!"])
+def test_bad_number_message_names_the_token(text):
+    """The refusal says what was expected and quotes the token as written (house rule: one clear message with what was expected)."""
+    with pytest.raises(NetlistError, match=r"^expected a number such as 10k, 2\.2u or 1e-3, got " + repr(text).replace(".", r"\.") + "$"):
+        parse_value(text)
