@@ -440,21 +440,27 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
     extra, extra_loads = 0.0, 0  # the other splits' simulations: their time and the loads they took
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
-    structure: list[LoopStructure] = []  # the loop search, done once and only when a split must be judged by it
+    structure: list[LoopStructure | None] = []  # the loop search, done once and only when a split must be judged by it
+
+    def loops() -> LoopStructure | None:
+        """The loops through the net (None when the search cannot state them: the measurement stands without this check)."""
+        if not structure:
+            try:
+                structure.append(LoopStructure(parsed, at))
+            except NetloopError as exc:
+                _log.info("the loops through %s could not be stated: %s", at, exc)
+                structure.append(None)
+        return structure[0]
 
     def opens(trial: Trial) -> Trial:
         """The trial with the check "opens-loop" when its T does not regulate: a split that opens no loop measures none."""
-        if trial.analysis.regulates:
+        if trial.analysis.regulates or loops() is None:
             return trial
-        if not structure:
-            structure.append(LoopStructure(parsed, at))
-        return replace(trial, opens=structure[0].opens_check(trial.at or at, trial.placement))
+        return replace(trial, opens=loops().opens_check(trial.at or at, trial.placement))
 
     def names() -> list[str]:
         """The net's deeper name inside the block that drives it, when the split under the name given is doubted."""
-        if not structure:
-            structure.append(LoopStructure(parsed, at))
-        alias = structure[0].alias(at)
+        alias = loops().alias(at) if loops() is not None else None
         return [alias] if alias else []
 
     full: dict[int, tuple[SimInfo, tuple[str, ...]]] = {}  # trials measured in full: id -> (SimInfo, warnings)

@@ -270,3 +270,21 @@ def test_differential_closed_loop_poles_are_ngspice_pz_poles(tmp_path):
     f, t_dm, _ = pair_expert("fd_miller_pair.o1.rz-load")
     fitted = _closed_loop_poles(t_dm, f, 5 * analyse(f, t_dm).margins.unity_gain_hz)
     assert fitted.size >= 2 and _near(fitted, pz)
+
+
+@pytest.mark.parametrize("bench", ["fd_miller_pair", "fd_miller_pair_sky130"])
+def test_check_without_at_finds_the_closed_loop_poles_of_the_expert_pair_probes(bench, simulator):
+    """check without --at on the FD Miller benches measures one loop group at a single node, passes, and its closed-loop
+    poles up to five times its crossover are the expert pair probes' DM and CM closed-loop poles."""
+    # Reference: the zeros of 1 + T at any break are poles of the one closed circuit (Bode's return ratio; Tian et al. 2001),
+    # and the circuit's poles are those of its DM and CM half circuits (Hurst and Lewis 1995), read here from the expert
+    # pair probe at the first-stage outputs (rational fit of each mode's 1/(1+T) by netloop.analysis).
+    from netloop.jobs.discover import check_loops
+
+    check = check_loops(BENCHES / f"{bench}.cir", simulator=simulator)
+    assert check.verdict == "pass" and len(check.groups) == 1
+    result = check.groups[0].result
+    f, t_dm, t_cm = pair_expert(f"{bench}.o1.rz-load")
+    reference = np.concatenate([analyse(f, t_dm).poles.poles_rad_s, analyse(f, t_cm).poles.poles_rad_s])
+    found = _closed_loop_poles(result.analysis.t, result.analysis.freq_hz, 5 * result.analysis.margins.unity_gain_hz)
+    assert found.size >= 2 and _near(found, reference)
