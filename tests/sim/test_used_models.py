@@ -167,3 +167,17 @@ def test_the_official_sky130_section_gives_the_same_numbers_from_a_third_of_the_
     lean_errors, ours = _vectors(session, lean, "v(out) v(mid)", "dec 5 1 1e10")
     assert not full_errors and not lean_errors
     assert np.array_equal(full, ours)
+
+
+def test_warm_reads_the_libraries_a_netlist_names(tmp_path, monkeypatch):
+    """warm(netlist) reads the three files of the invented library (the .lib section's includes, by relative paths),
+    the ones the first deck of that netlist will need; a netlist that cannot be read is left for later, silently."""
+    from netloop.sim import used_models
+
+    library = _library(tmp_path)
+    netlist = tmp_path / "amp.cir"
+    netlist.write_text(CIRCUIT.format(lib="lib/invented.lib") + ".end\n")
+    monkeypatch.setattr(used_models, "_FILES", {})
+    used_models.warm(str(netlist))
+    assert set(used_models._FILES) == {str(library), str(tmp_path / "lib" / "params" / "shared.inc"), str(tmp_path / "lib" / "cards" / "typ.inc")}
+    used_models.warm(str(tmp_path / "missing.cir"))
