@@ -195,6 +195,6 @@ def select_knobs(knobs: tuple[Knob, ...], names: Iterable[str]) -> tuple[Knob, .
             close = difflib.get_close_matches(name, sorted({k.name for k in knobs} | {k.element for k in knobs}), n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
             raise NetloopError(f"{raw!r} is not a value netloop can change in this netlist (an R, C, L, a linear E/G/F/H gain, "
-                               f"or a MOSFET's W, L or m written ELEMENT:w){hint}")
+                               f"a MOSFET's W, L or m, or a process device wrapper's size, written ELEMENT:w){hint}")
         chosen.extend(k for k in hits if k not in chosen)
     return tuple(chosen)
