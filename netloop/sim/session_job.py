@@ -72,6 +72,8 @@ class _Loaded:
     netlist: str = ""  # the netlist text the circuit stands for now (as loaded, or as changed in place)
     values: dict[tuple[str, str], str] = field(default_factory=dict)  # its in-place changeable values (SimJob.changes)
     saves_set: bool = True  # the job's saves are given to ngspice (a reset drops them)
+    slot: int = 0  # which load this circuit came from, in order (kept when it is changed in place)
+    label: str = ""  # the label of the last job that ran on it (a corner's name)
 
 
 def circuit_key(job: SimJob) -> tuple:
@@ -111,15 +113,17 @@ def _resets(job: SimJob, loaded: _Loaded) -> bool:
 class JobRunner:
     """Runs jobs one after the other in ``session``, reusing the loaded circuit where it can.
 
-    ngspice holds up to two circuits: the one the last job ran on, and the one before it when that is small
-    (KEEP_MAX_CHARS). A job for the older one (the same measurement, or values it can change in place) switches back
-    to it (``setcirc``) instead of loading it again: a corner whose split was doubted measures other splits on
-    circuits of their own, and the next corner still finds its own circuit loaded."""
+    ngspice holds up to two circuits: the one the last job ran on, and one before it when that is small
+    (KEEP_MAX_CHARS): the first loaded of those whose last job had the new job's label (a corner's name), else the
+    current one. A job for the older one (the same measurement, or values it can change in place) switches back to it
+    (``setcirc``) instead of loading it again: a corner whose split was doubted measures other splits on circuits of
+    their own, one after the other, and the next corner still finds its own circuit loaded."""
 
     def __init__(self, session: NgspiceSession):
         self.session = session
         self._loaded: _Loaded | None = None  # the circuit ngspice works on now
         self._held: list[_Loaded] = []  # every circuit ngspice holds, in its own order (the newest is number 1)
+        self._loads = 0
 
     def run(self, job: SimJob) -> JobPayload:
         """Do ``job``; raises JobFailure with ngspice's own lines when it cannot."""
@@ -145,9 +149,10 @@ class JobRunner:
             if loaded is None:
                 self._remove(target)  # refused part-way: its values are no longer known
             else:
+                loaded.slot = target.slot
                 self._held[self._held.index(target)] = loaded
         if loaded is None:
-            keep = target or current
+            keep = self._worth_keeping(job, target or current)
             for held in list(self._held):
                 if held is not keep or len(held.netlist) > KEEP_MAX_CHARS:
                     self._remove(held)
@@ -160,12 +165,22 @@ class JobRunner:
                 raise
             return self.run_fresh(job)  # changed in place, the operating point failed: as a fresh load would go
         if loaded is None:
+            self._loads += 1
+            record.slot = self._loads
             self._held.insert(0, record)
             if len(self._held) > 1 and self._count() != len(self._held):  # never expected: keep only the new one
                 for held in self._held[1:]:
                     self._remove(held)
+        record.label = job.label
         self._loaded = record
         return payload
+
+    def _worth_keeping(self, job: SimJob, current: _Loaded | None) -> _Loaded | None:
+        """Which held circuit to keep beside the one loaded for ``job``: of those whose last job had ``job``'s label
+        (the same corner), the first loaded (the corner's own circuit, not another split measured after it), else
+        ``current``."""
+        same = [h for h in self._held if job.label and h.label == job.label]
+        return min(same, key=lambda h: h.slot) if same else current
 
     def _count(self) -> int:
         """How many circuits ngspice holds, as its ``setcirc`` lists them."""
@@ -179,6 +194,8 @@ class JobRunner:
         except JobFailure:
             self.forget()
             raise
+        self._loads += 1
+        record.slot, record.label = self._loads, job.label
         self._held, self._loaded = [record], record
         return payload
 

@@ -48,9 +48,9 @@ def _changes(values: dict[str, str]) -> tuple[Change, ...]:
             Change("element", "cl", values["cl"]))
 
 
-def _job(values: dict[str, str], name: str, in_place: bool = True, op_voltages: bool = False, title: str = "") -> SimJob:
+def _job(values: dict[str, str], name: str, in_place: bool = True, op_voltages: bool = False, title: str = "", label: str = "") -> SimJob:
     return SimJob(_netlist(values, title), runs=(AcRun("a", {"vin": 1.0}, SWEEP),), save=("v(out)", "v(o1)"), excitable=("vin",),
-                  op_voltages=op_voltages, circuit_id=name, changes=_changes(values) if in_place else ())
+                  op_voltages=op_voltages, circuit_id=name, changes=_changes(values) if in_place else (), label=label)
 
 
 def _vectors(result) -> np.ndarray:
@@ -222,13 +222,28 @@ def test_a_circuit_kept_beside_another_takes_its_next_corner_without_a_load(shar
     exactly the vectors of a fresh load; a parameter change on it (which needs ngspice's reset, only for the circuit it
     read last) loads afresh, with exactly those vectors too (ngspice's fresh load is the reference)."""
     title = "kept beside another"
-    shared_sim.run(_job(BASE, "kept-corner-1", title=title))
-    other = shared_sim.run(_job(BASE, "kept-other", title="another circuit"))
+    shared_sim.run(_job(BASE, "kept-corner-1", title=title, label="corner 1"))
+    other = shared_sim.run(_job(BASE, "kept-other", title="another circuit", label="corner 1"))
     hot = {**BASE, "temp": "85", "vdd": "3.0"}
-    second = shared_sim.run(_job(hot, "kept-corner-2", title=title))
+    second = shared_sim.run(_job(hot, "kept-corner-2", title=title, label="corner 2"))
     assert other.loaded and not second.loaded
     assert np.array_equal(_vectors(second), _vectors(shared_sim.run(_job(hot, "kept-fresh-2", in_place=False, title=title))))
     shared_sim.run(_job(BASE, "kept-other-2", title="another circuit"))
     param = {**hot, "cc": "0.8p"}
     third = shared_sim.run(_job(param, "kept-corner-3", title=title))
     assert np.array_equal(_vectors(third), _vectors(shared_sim.run(_job(param, "kept-fresh-3", in_place=False, title=title))))
+
+
+@pytest.mark.ngspice
+def test_a_corner_circuit_outlasts_several_other_circuits_loaded_after_it(shared_sim):
+    """A corner's circuit, then three other circuits one after the other (the other splits of a doubted corner: jobs of
+    the same label), then the next corner: it runs on the corner's circuit without a load, bit for bit a fresh load
+    (ngspice's reference)."""
+    title = "outlasts others"
+    shared_sim.run(_job(BASE, "outlast-corner-1", title=title, label="corner 1"))
+    for n in range(3):
+        assert shared_sim.run(_job(BASE, f"outlast-other-{n}", title=f"other split {n}", label="corner 1")).loaded
+    cold = {**BASE, "temp": "-40", "ibias": "17u"}
+    second = shared_sim.run(_job(cold, "outlast-corner-2", title=title, label="corner 2"))
+    assert not second.loaded
+    assert np.array_equal(_vectors(second), _vectors(shared_sim.run(_job(cold, "outlast-fresh", in_place=False, title=title))))
