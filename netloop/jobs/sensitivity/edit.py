@@ -32,9 +32,12 @@ def _scaled(text: str, factor: float) -> str:
 
 def changed_card(element: Element, knob: Knob, factor: float, loaded_value: float) -> Element:
     """The element with the knob's value multiplied by ``factor``; a size the card does not write
-    (W or L taken from the model) is written as ``w=`` with ngspice's loaded value times ``factor``."""
+    (W or L taken from the model) is written as ``w=`` with ngspice's loaded value times ``factor``, and
+    one a device wrapper's instance does not write as its parameter with the wrapper's default times ``factor``."""
     tokens = list(element.tokens)
-    if knob.token is None:
+    if knob.token is None and knob.default:
+        tokens.append(f"{knob.parameter}={_scaled(knob.default, factor)}")
+    elif knob.token is None:
         if element.kind != "M":
             raise NetloopError(f"{element.name} at {element.location.file}:{element.location.line}: the card writes no value to change")
         tokens.append(f"{knob.parameter}={_number(loaded_value * factor)}")
