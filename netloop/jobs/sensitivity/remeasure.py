@@ -9,11 +9,11 @@ import numpy as np
 from netloop.analysis.local import LocalReading, Window, read_windows, reading_of
 from netloop.analysis.results import LoopAnalysis
 from netloop.jobs.measure import Sweep, probe_job, return_ratio, sample_loops
-from netloop.jobs.sensitivity.edit import changed_netlist
+from netloop.jobs.sensitivity.edit import SCALE_PARAM, scaled_netlist
 from netloop.jobs.sensitivity.knobs import Knob
 from netloop.netlist import Netlist
 from netloop.probe import ProbeVectors, split_loop
-from netloop.sim import AcSweep, SimJob, SimResult, Simulator
+from netloop.sim import AcSweep, Change, SimJob, SimResult, Simulator
 
 __all__ = ["Copies", "Reading", "Remeasure"]
 
@@ -28,10 +28,13 @@ class Copies:
     timeout_s: float
 
     def probed(self, knob: Knob, scale: float) -> tuple[SimJob, ProbeVectors]:
-        """The probe job (no sweeps yet) and vectors of a copy of the netlist with ``knob`` at ``scale`` times its value."""
-        changed, _card = changed_netlist(self.netlist, knob, scale, knob.written if knob.written is not None else 1.0)
-        probed = split_loop(changed, self.at, driver=self.driver)[0]
-        return probe_job(probed, (), label=f"{knob.name} x{scale:.6g}", timeout_s=self.timeout_s), probed.vectors
+        """The probe job (no sweeps yet) and vectors of a copy of the netlist with ``knob`` at ``scale`` times its value.
+
+        The copy scales the knob by a parameter (edit.scaled_netlist) and the job names it as a Change: the
+        first value of a knob is a load of the copy, the knob's next values are changed in place by ngspice."""
+        probed = split_loop(scaled_netlist(self.netlist, knob, scale), self.at, driver=self.driver)[0]
+        job = probe_job(probed, (), label=f"{knob.name} x{scale:.6g}", timeout_s=self.timeout_s)
+        return replace(job, changes=(Change("param", SCALE_PARAM, repr(scale)),)), probed.vectors
 
 
 @dataclass(frozen=True, slots=True)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from netloop.jobs.sensitivity import find_knobs
-from netloop.jobs.sensitivity.edit import changed_netlist
+from netloop.jobs.sensitivity.edit import changed_netlist, scaled_netlist
 from netloop.netlist import parse_text
 
 NETLIST = """knobs
@@ -100,6 +100,9 @@ def test_wrapper_sizes_are_written_into_the_x_card():
     assert netlist.subcircuit("stage").elements[0].card() == "xm1 out in 0 0 nwrap w=2 l=0.5"  # the input is not modified
     xs = changed.element("xs")
     assert xs.model != "stage" and changed.subcircuit(xs.model).elements[0].card() == card  # xs's own copy of the block
+    scaled = scaled_netlist(netlist, by["xm1:w"], 1.5)  # the copy whose next values ngspice takes in place
+    assert scaled.directives[0].text == ".param netloop_knob_scale=1.5"
+    assert scaled.element("xm1").card() == "xm1 d g 0 0 nwrap w={(2)*netloop_knob_scale} l=0.5 mult=2 ad=1 sa=0.1"
 
 
 def test_sky130_wrapper_sizes_read_from_its_parameter_list():
