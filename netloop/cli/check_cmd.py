@@ -213,7 +213,7 @@ def pair_drivers(values: list[str] | None, nodes: tuple[str, str]) -> tuple[str 
 def run(args: argparse.Namespace) -> int:
     from netloop.jobs.early import ngspice_started_early
 
-    with ngspice_started_early():  # ngspice starts while netloop's own modules load and the netlist is read
+    with ngspice_started_early(args.netlist):  # ngspice starts, and reads the model libraries, while netloop's own modules load and the netlist is read
         return _run(args)
 
 
@@ -280,13 +280,24 @@ def run_groups(args: argparse.Namespace, netlist, common: dict) -> int:
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         print(json.dumps(report.groups_document(check), indent=2, allow_nan=False))
     else:
-        parts = [report.format_text(g.result) if g.result is not None else unmeasured_text(g) for g in check.groups]
+        shared = netlist.warnings if len(check.groups) > 1 else ()  # the netlist's own: said once, not under every loop
+        parts = [report.format_text(without_warnings(g.result, shared)) if g.result is not None else unmeasured_text(g)
+                 for g in check.groups]
         if len(check.groups) > 1:
-            parts.insert(0, verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups}))
+            head = verdicts_line(check.verdict, {g.label: g.verdict for g in check.groups})
+            said = [w for w in shared if any(g.result is not None and w in g.result.warnings for g in check.groups)]
+            parts.insert(0, head + "".join(f"\n  - {w}" for w in said))
         print("\n\n".join(parts))
     if results:
         write_outputs(args, results)
     return exit_status(check.verdict)
+
+
+def without_warnings(result, shared):
+    """``result`` with the warnings in ``shared`` left out (said once above several loops' summaries)."""
+    from dataclasses import replace
+
+    return replace(result, warnings=tuple(w for w in result.warnings if w not in shared)) if shared else result
 
 
 def verdicts_line(verdict: str, parts: dict[str, str]) -> str:
@@ -303,6 +314,7 @@ def coupling_document(coupling) -> dict:
         "cm_band_hz": coupling.cm_band_hz,
         "threshold_db": coupling.threshold_db,
         "coupled": coupling.coupled,
+        "unjudged": coupling.unjudged or None,
     }
 
 
@@ -310,6 +322,8 @@ def coupling_line(coupling) -> str:
     """One line: both coupling figures, their bands and whether they pass the threshold."""
     from netloop.report.notation import db, eng
 
+    if coupling.unjudged:
+        return f"coupling  not judged: {coupling.unjudged}"
     word = "COUPLED" if coupling.coupled else "negligible"
     return (f"coupling  {word}: DM->CM {db(coupling.dm_to_cm_db)} up to {eng(coupling.dm_band_hz, 'Hz')}, "
             f"CM->DM {db(coupling.cm_to_dm_db)} up to {eng(coupling.cm_band_hz, 'Hz')} (threshold {db(coupling.threshold_db)})")

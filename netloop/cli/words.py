@@ -9,8 +9,10 @@ from contextlib import contextmanager
 
 __all__ = ["command_words", "said_on_the_command_line"]
 
-# driver= as the library says it: bare, with a quoted value, or with the ELEMENT[.PIN] pattern
-_DRIVER = re.compile(r"\bdriver=('[^']*'|\"[^\"]*\"|ELEMENT\[\.PIN\](?:,\.\.\.)?)?")
+# driver= as the library says it: bare, with a quoted value on one line or a plain one, or with the ELEMENT[.PIN] pattern (a quote
+# right after a bare driver= at the end of a JSON string is that string's end: a double-quoted value never spans a line
+# or a comma, as the next JSON string would)
+_DRIVER = re.compile(r"\bdriver=('[^'\n]*'|\"[^\"\n,]*\"|ELEMENT\[\.PIN\](?:,\.\.\.)?|[A-Za-z_][\w.]*(?:,[A-Za-z_][\w.]*)*)?")
 
 
 def command_words(text: str, command: str) -> str:

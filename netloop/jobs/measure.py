@@ -438,23 +438,29 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
                    options: dict, free: bool) -> tuple[ProbedNetlist, LoopAnalysis, SimInfo, tuple[str, ...], tuple[Check, ...]]:
     """The measured split, settled: another placement of its bridging elements when it fails its checks, a second
     break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
-    extra = 0.0
+    extra, extra_loads = 0.0, 0  # the other splits' simulations: their time and the loads they took
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
-    structure: list[LoopStructure] = []  # the loop search, done once and only when a split must be judged by it
+    structure: list[LoopStructure | None] = []  # the loop search, done once and only when a split must be judged by it
+
+    def loops() -> LoopStructure | None:
+        """The loops through the net (None when the search cannot state them: the measurement stands without this check)."""
+        if not structure:
+            try:
+                structure.append(LoopStructure(parsed, at))
+            except NetloopError as exc:
+                _log.info("the loops through %s could not be stated: %s", at, exc)
+                structure.append(None)
+        return structure[0]
 
     def opens(trial: Trial) -> Trial:
         """The trial with the check "opens-loop" when its T does not regulate: a split that opens no loop measures none."""
-        if trial.analysis.regulates:
+        if trial.analysis.regulates or loops() is None:
             return trial
-        if not structure:
-            structure.append(LoopStructure(parsed, at))
-        return replace(trial, opens=structure[0].opens_check(trial.at or at, trial.placement))
+        return replace(trial, opens=loops().opens_check(trial.at or at, trial.placement))
 
     def names() -> list[str]:
         """The net's deeper name inside the block that drives it, when the split under the name given is doubted."""
-        if not structure:
-            structure.append(LoopStructure(parsed, at))
-        alias = structure[0].alias(at)
+        alias = loops().alias(at) if loops() is not None else None
         return [alias] if alias else []
 
     full: dict[int, tuple[SimInfo, tuple[str, ...]]] = {}  # trials measured in full: id -> (SimInfo, warnings)
@@ -462,13 +468,14 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     def measure_other(place: Mapping[str, str], name: str | None = None, coarse: bool = False) -> Trial | None:
         """Another split measured: coarse for a second opinion, in full (refined: its Nyquist data must hold) for a
         split that may be reported instead."""
-        nonlocal extra
+        nonlocal extra, extra_loads
         try:
             other = break_loop(parsed, name or at, placement=place)
         except ProbeError:
             return None
         a, i, w = measure_probed(other, **(coarse_options if coarse else options))
         extra += i.seconds
+        extra_loads += i.loads
         trial = opens(Trial(place, other, a, name or ""))
         if not coarse:
             full[id(trial)] = (i, w)
@@ -484,7 +491,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         chosen, split_check, _ = settle_split(first, measure_other, names)
         if chosen is not None:  # measured in full already; its seconds are in ``extra`` with the other trials'
             analysis, (i, sim_warnings), other = chosen.analysis, full[id(chosen)], chosen.probed
-            info = replace(i, seconds=info.seconds)
+            info = replace(i, seconds=info.seconds, loads=info.loads)  # the first split's loads; the chosen one's are in extra_loads
             probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
             if chosen.opens is not None:
                 checks.append(chosen.opens)
@@ -499,7 +506,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     pz = closed_circuit_pz(parsed, analysis, probed.side_b)
     if pz is not None:
         checks.append(pz)
-    return probed, analysis, replace(info, seconds=info.seconds + extra), sim_warnings, tuple(checks)
+    return probed, analysis, replace(info, seconds=info.seconds + extra, loads=info.loads + extra_loads), sim_warnings, tuple(checks)
 
 
 def closed_circuit_pz(parsed: Netlist, analysis: LoopAnalysis, node: str) -> Check | None:

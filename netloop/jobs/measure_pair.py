@@ -59,11 +59,12 @@ class Coupling:
     dm_band_hz: float
     cm_band_hz: float
     threshold_db: float = COUPLING_THRESHOLD_DB
+    unjudged: str = ""  # why the figures judge nothing ("" when they do): a mode that measured no loop is no reference
 
     @property
     def coupled(self) -> bool:
-        """True when either direction is above the threshold."""
-        return max(self.dm_to_cm_db, self.cm_to_dm_db) > self.threshold_db
+        """True when either direction is above the threshold (never when the figures judge nothing)."""
+        return not self.unjudged and max(self.dm_to_cm_db, self.cm_to_dm_db) > self.threshold_db
 
 
 @dataclass(frozen=True, slots=True)
@@ -337,6 +338,16 @@ def _told(probe: PairProbe, checks: tuple[Check, ...]) -> PairProbe:
     return replace(probe, n=replace(probe.n, decided_by=f"{probe.n.decided_by[:-1]}; netloop {moves[0]}."))
 
 
+def _unjudged(analyses: Mapping[str, LoopAnalysis]) -> str:
+    """Why the coupling figures judge nothing, or "": a mode whose T is negligible everywhere (its check loop-present
+    failed) returns no signal, and a ratio to it says nothing about mismatched halves."""
+    dead = [m for m in MODES if any(c.name == "loop-present" and not c.passed for c in analyses[m].checks)]
+    if not dead:
+        return ""
+    return (f"the {' and the '.join(dead)} mode{'s' if len(dead) > 1 else ''} measured no loop (|T| negligible everywhere), "
+            "so the signal returned there is no reference for a coupling")
+
+
 def _elsewhere(mode: str, analyses: Mapping[str, LoopAnalysis], nodes: tuple[str, str]) -> tuple[str, ...]:
     """A warning for a mode that does not regulate at the pair while the other mode does: its loop closes elsewhere."""
     other = next(m for m in MODES if m != mode)
@@ -419,6 +430,7 @@ def measure_pair(
         dm_band_hz=dm_band,
         cm_band_hz=cm_band,
         threshold_db=coupling_threshold_db,
+        unjudged=_unjudged(analyses),
     )
     coupling_warning = ()
     if coupling.coupled:

@@ -610,7 +610,10 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
             f"sits on it; candidates: {candidates}; name the driver with driver=ELEMENT[.PIN]"
         )
     if not loads and not shunt:
-        raise ProbeError(f"node {name} has only driver terminals ({listing}); nothing is left for the load side: use driver= to choose")
+        why = {"through": "each brings the signal from an output through passive elements",
+               "cg": "each is a common-gate output"}.get(how, "each is an output")
+        raise ProbeError(f"node {name}: the rules put every terminal on the driver side ({', '.join(t.label for t in drivers)}: {why}), "
+                         f"so nothing is left for the load side; choose the driver side with driver=ELEMENT[.PIN], e.g. driver={drivers[0].label}")
     placed: list[tuple[Terminal, Bridge, float]] = []
     if loads and (how == "outputs" or placement):
         near = _Neighbourhood(netlist, scope, ac_ground, globals_)

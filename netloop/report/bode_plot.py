@@ -29,6 +29,11 @@ PM_OK = "#2e7d32"
 PM_BAD = "#c62828"
 GM_UPPER = "#5e35b1"
 GM_LOWER = "#e65100"
+# The margin that governs (the worst phase margin, the nearest gain margin of each kind) gets the biggest mark; the
+# others (a crossing at -540 deg far below 0 dB, say) are drawn thin and faint, so they never outweigh it
+_ARROW = {True: 2.2, False: 0.8}
+_MARK = {True: 7, False: 4}
+_FAINT = 0.55
 IGNORED = "#9e9e9e"
 CURVE = "#1f5fa8"
 _DEEPEST_DB = 200.0  # the magnitude axis shows at most this many dB below the top of the curve
@@ -100,11 +105,11 @@ def _single_annotations(ax_mag, ax_ph, r: LoopResult, f: np.ndarray) -> tuple[li
         ref = _odd_180(c.phase_deg)
         for ax in (ax_mag, ax_ph):
             ax.axvline(c.freq_hz, color=colour, lw=0.9, ls=":", alpha=0.8, zorder=2)
-        ax_mag.plot([c.freq_hz], [0.0], "o", color=colour, ms=5, zorder=5)
-        ax_ph.annotate("", xy=(c.freq_hz, c.phase_deg), xytext=(c.freq_hz, ref),
-                       arrowprops={"arrowstyle": "<|-|>", "color": colour, "lw": 1.4, "shrinkA": 0, "shrinkB": 0,
-                                   "mutation_scale": 9}, zorder=5)
         worst = m.unity_gain_hz is not None and c.freq_hz == m.unity_gain_hz
+        ax_mag.plot([c.freq_hz], [0.0], "o", color=colour, ms=_MARK[worst], zorder=5)
+        ax_ph.annotate("", xy=(c.freq_hz, c.phase_deg), xytext=(c.freq_hz, ref),
+                       arrowprops={"arrowstyle": "<|-|>", "color": colour, "lw": _ARROW[worst], "shrinkA": 0, "shrinkB": 0,
+                                   "mutation_scale": 9, "alpha": 1.0 if worst else _FAINT}, zorder=5)
         text = f"PM {c.phase_margin_deg:.2f}° @ {eng(c.freq_hz, 'Hz')}" + ("" if c.direction == "down" else " (rising)")
         ph_labels.append(Label(c.freq_hz, (c.phase_deg + ref) / 2, text, colour, worst))
     f_lo = float(f[0])
@@ -113,14 +118,14 @@ def _single_annotations(ax_mag, ax_ph, r: LoopResult, f: np.ndarray) -> tuple[li
         colour = GM_UPPER if c.kind == "upper" else GM_LOWER
         for ax in (ax_mag, ax_ph):
             ax.axvline(x, color=colour, lw=0.9, ls=":", alpha=0.8, zorder=2)
-        ax_ph.plot([x], [c.phase_deg], "s", color=colour, ms=5, zorder=5)
+        worst = c.freq_hz == (m.lower_phase_crossover_hz if c.kind == "lower" and stable else m.phase_crossover_hz)
+        ax_ph.plot([x], [c.phase_deg], "s", color=colour, ms=_MARK[worst], zorder=5)
         shown_gain = max(c.gain_db, ax_mag.get_ylim()[0])
         ax_mag.annotate("", xy=(x, shown_gain), xytext=(x, 0.0),
-                        arrowprops={"arrowstyle": "<|-|>", "color": colour, "lw": 1.4, "shrinkA": 0, "shrinkB": 0,
-                                    "mutation_scale": 9}, zorder=5)
+                        arrowprops={"arrowstyle": "<|-|>", "color": colour, "lw": _ARROW[worst], "shrinkA": 0, "shrinkB": 0,
+                                    "mutation_scale": 9, "alpha": 1.0 if worst else _FAINT}, zorder=5)
         where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
         text = f"{phase_crossover_margin(c, stable)} @ {where}"
-        worst = c.freq_hz == (m.lower_phase_crossover_hz if c.kind == "lower" and stable else m.phase_crossover_hz)
         mag_labels.append(Label(x, (shown_gain + 0.0) / 2, text, colour, worst))
     if a.ignored_phase_crossovers:
         xs = [c.freq_hz for c in a.ignored_phase_crossovers]

@@ -48,6 +48,22 @@ def compress_radius(t) -> np.ndarray:
     return rc * np.exp(1j * np.angle(t))
 
 
+# Where a ring's label may sit (degrees), the first that is clear of the curves (of both halves) wins the ties
+_LABEL_ANGLES = (62.0, -62.0, 118.0, -118.0, 30.0, -30.0, 150.0, -150.0)
+
+
+def _clear_angle(drawn: np.ndarray, radius: float) -> float:
+    """The angle (radians) on the ring of ``radius`` whose label anchor is farthest from every drawn curve point."""
+    best, far = math.radians(_LABEL_ANGLES[0]), -1.0
+    for deg_ in _LABEL_ANGLES:
+        p = radius * complex(math.cos(math.radians(deg_)), math.sin(math.radians(deg_)))
+        # the label stands right of and above its anchor: look a little past it too
+        d = float(np.min(np.abs(drawn - p) + np.abs(drawn - p * complex(1.08, 0.04)))) / 2.0
+        if d > far + 1e-9:
+            best, far = math.radians(deg_), d
+    return best
+
+
 def _ring_label(k: int) -> str:
     value = 10**k
     text = f"{value:g}" if k < 5 else f"1e{k}"
@@ -116,11 +132,16 @@ def _margins(ax, r: LoopResult) -> list:
     for c in a.phase_crossovers:
         colour = GM_UPPER if c.kind == "upper" else GM_LOWER
         x = -float(compress_radius(10 ** (c.gain_db / 20.0)).real)
-        ax.plot([x, -1.0], [0.0, 0.0], color=colour, lw=3.0, alpha=0.8, zorder=5, solid_capstyle="butt")
-        ax.plot([x], [0.0], "s", color=colour, ms=5, zorder=6)
         text = phase_crossover_margin(c, a.stable)
         where = "DC" if c.freq_hz == 0 else eng(c.freq_hz, "Hz")
-        entries.append(Line2D([], [], color=colour, lw=3.0, marker="s", ms=5, label=f"{text} @ {where}: segment to -1"))
+        if c.freq_hz == (m.lower_phase_crossover_hz if c.kind == "lower" and a.stable else m.phase_crossover_hz):
+            # the governing margin of its kind: the one segment to -1 (segments of one kind would overlap on the axis)
+            ax.plot([x, -1.0], [0.0, 0.0], color=colour, lw=3.0, alpha=0.8, zorder=5, solid_capstyle="butt")
+            ax.plot([x], [0.0], "s", color=colour, ms=5, zorder=6)
+            entries.append(Line2D([], [], color=colour, lw=3.0, marker="s", ms=5, label=f"{text} @ {where}: segment to -1"))
+        else:  # a crossing that does not govern: its point on the axis, hollow
+            ax.plot([x], [0.0], "s", mfc="white", mec=colour, ms=5, zorder=6)
+            entries.append(Line2D([], [], color="none", marker="s", mfc="white", mec=colour, ms=5, label=f"{text} @ {where} (not the governing one)"))
     z = compress_radius(_t_at(r, m.modulus_freq_hz))
     ax.plot([-1.0, z.real], [0.0, z.imag], color="#00838f", lw=1.2, ls="--", zorder=5)
     entries.append(Line2D([], [], color="#00838f", lw=1.2, ls="--", label=f"min |1+T| = {m.modulus_margin:.3f} @ {eng(m.modulus_freq_hz, 'Hz')}"))
@@ -162,8 +183,10 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
     rmax_true = max(float(np.max(np.abs(r.analysis.t))) for r in rs)
 
     theta = np.linspace(0, 2 * np.pi, 361)
+    drawn = np.concatenate([*curves, *(np.conj(z) for z in curves)])  # both halves: the mirror image is drawn too
     ax.plot(np.cos(theta), np.sin(theta), color="#555555", lw=1.1, ls="-.", zorder=2)
-    ax.annotate("|T| = 1 (0 dB)", xy=(math.cos(math.radians(62)), math.sin(math.radians(62))), fontsize=7.5, color="#555555",
+    ang = _clear_angle(drawn, 1.0)
+    ax.annotate("|T| = 1 (0 dB)", xy=(math.cos(ang), math.sin(ang)), fontsize=7.5, color="#555555",
                 ha="left", va="bottom", xytext=(2, 2), textcoords="offset points")
     decades = min(int(math.ceil(math.log10(rmax_true))) if rmax_true > 1 else 0, _MAX_RINGS)
     every = 1 if decades <= 8 else 2
@@ -172,7 +195,7 @@ def nyquist_figure(results: LoopResult | Iterable[LoopResult]):
         ax.plot(rr * np.cos(theta), rr * np.sin(theta), color=_RING, lw=0.7, ls=":", zorder=1)
         if k % every:
             continue
-        ang = math.radians(62)
+        ang = _clear_angle(drawn, rr)
         ax.annotate(_ring_label(k), xy=(rr * math.cos(ang), rr * math.sin(ang)), fontsize=7.5, color="#6d6d6d",
                     ha="left", va="bottom", xytext=(2, 2), textcoords="offset points",
                     bbox={"boxstyle": "round,pad=0.1", "facecolor": "white", "edgecolor": "none", "alpha": 0.7})

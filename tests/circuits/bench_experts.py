@@ -56,6 +56,11 @@ BENCH = {
         {"xp": ("fd_cap_amp.xp.switch-driver", "fd_cap_amp.xp.switch-load"), "outn": ("fd_cap_amp.outn",),
          "cm": ("fd_cap_amp.cm",), "cmfb": ("fd_cap_amp.cmfb",)},
         True, ("fd_cap_amp.cm", "fd_cap_amp.cmfb")),  # ngspice 39 .pz lists a pole pair 20 % off what every break fits here
+    "fd_miller_pair.cir": Bench(
+        {"xamp.cm": ("fd_miller_pair.cm",), "xamp.cmfb": ("fd_miller_pair.cmfb",),
+         "xamp.o1p": ("fd_miller_pair.o1p.rz-load", "fd_miller_pair.o1p.rz-driver"), "xamp.outp": ("fd_miller_pair.xamp-outp",),
+         "outp": ("fd_miller_pair.outp",), "xp": ("fd_miller_pair.xp",)},
+        True, ("fd_miller_pair.cm", "fd_miller_pair.cmfb")),
     "tb_open_copy.cir": Bench(
         {"out": ("tb_open_copy.out",), "xbuf.o1": ("tb_open_copy.xbuf.o1.rz-load", "tb_open_copy.xbuf.o1.rz-driver"),
          "xol.o1": ("tb_open_copy.xol.o1",), "xol.out": ("tb_open_copy.xol.out",)},

@@ -60,6 +60,8 @@ def test_both_methods_table_and_overlaid_plots(loop, capsys, tmp_path):
     for row in ("DC loop gain", "gain crossovers", "phase margin", "gain margin", "modulus margin", "dominant pole", "verdict"):
         assert any(line.startswith(row) for line in out.splitlines())
     assert "Tian's and Middlebrook's T agree at out" in out
+    pole_row = next(line for line in lines if line.startswith("dominant pole"))
+    assert "damping" in pole_row and "z=" not in out  # issue 15.14: the word, as check writes it
     assert plot.stat().st_size > 0 and (tmp_path / "cmp-nyquist.png").stat().st_size > 0
 
 

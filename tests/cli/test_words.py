@@ -16,12 +16,28 @@ from netloop.cli.words import command_words
     ("the split changes T; choose with driver=", "compare", "the split changes T; choose with --at NODE=ELEMENT"),
     ("driver='m1.g' names only inputs on node fb", "compare", "--at NODE=m1.g names only inputs on node fb"),
     ("driver side given by --driver m1.d: m1.d", "check", "driver side given by --driver m1.d: m1.d"),
+    ("choose the driver side with driver=ELEMENT[.PIN], e.g. driver=rz.n", "check",
+     "choose the driver side with --driver ELEMENT[.PIN], e.g. --driver rz.n"),
     ("the driver side and the load side", "check", "the driver side and the load side"),
 ])
 def test_the_librarys_option_is_named_as_the_commands_option(text, command, said):
     """Each phrasing of driver= the library uses becomes the command's own option (common practice: a message speaks the
     interface the user is in); text without it, or already in command-line words, is left as it is."""
     assert command_words(text, command) == said
+
+
+def test_a_json_document_stays_json_when_its_warnings_end_in_driver():
+    """A --json document whose warnings end with 'choose with driver=' is still valid JSON after the rewording, each
+    warning reworded alone (a bare driver= at the end of a string never takes the string's closing quote as a value)."""
+    # Reference: Python's json module (the document is read back); the warnings as break_loop writes them.
+    import json
+
+    doc = {"warnings": ["xp: the split changes T; choose with driver=", "xn: the split changes T; choose with driver="],
+           "decided_by": "driver side given by driver='m1.d,m3.d': m1.d, m3.d"}
+    for text in (command_words(json.dumps(doc, indent=2), "check"), command_words(json.dumps(doc), "check")):
+        back = json.loads(text)
+        assert back["warnings"] == ["xp: the split changes T; choose with --driver", "xn: the split changes T; choose with --driver"]
+        assert back["decided_by"] == "driver side given by --driver m1.d,m3.d: m1.d, m3.d"
 
 
 @pytest.mark.ngspice
@@ -36,3 +52,19 @@ def test_check_warnings_and_errors_name_the_driver_option(tmp_path, capsys):
     assert main(["check", str(path), "--at", "x", "--driver", "e1.cn", "--fmax", "1meg"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("netloop: error: --driver e1.cn names only inputs on node x") and "driver=" not in err
+
+
+@pytest.mark.ngspice
+def test_a_node_between_two_passive_branches_is_refused_without_contradiction(capsys):
+    """The Miller buffer's cz joins Rz (from o1) and Cc (from out) only (circuits/miller_buffer.cir): the rules put both on
+    the driver side, and the refusal says so with the element terminals and why, without calling them 'load' in the same
+    breath as 'only driver terminals' (issue 15.14), and offers a --driver to try."""
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parents[2] / "circuits" / "miller_buffer.cir"
+    assert main(["check", str(path), "--at", "cz"]) == 2
+    err = capsys.readouterr().err
+    assert ("node cz: the rules put every terminal on the driver side (rz.n, cc.p: each brings the signal from an output "
+            "through passive elements), so nothing is left for the load side; choose the driver side with --driver "
+            "ELEMENT[.PIN], e.g. --driver rz.n") in err
+    assert "(load)" not in err

@@ -248,3 +248,52 @@ def test_check_at_pair_rejects_a_malformed_pair(tmp_path, capsys):
     path.write_text(norton_netlist())
     assert main(["check", str(path), "--at-pair", "outp"]) == 2
     assert "P,N" in capsys.readouterr().err
+
+
+TIE = """two uncoupled matched halves, each with a bridge Cx as close to its driver stage as to the stage its node drives
+ga1 0 np gp 0 1m
+ra1 np 0 10k
+ca1 np 0 1p
+gb1 ob 0 np 0 1m
+rb1 ob 0 10k
+cb1 ob 0 2p
+cx1 np xp 0.1p
+r11 xp gp 1k
+r21 xp ob 1k
+rf1 ob gp 10k
+rg1 gp 0 10k
+ga2 0 nn gn 0 1m
+ra2 nn 0 10k
+ca2 nn 0 1p
+gb2 obn 0 nn 0 1m
+rb2 obn 0 10k
+cb2 obn 0 2p
+cx2 nn xn 0.1p
+r12 xn gn 1k
+r22 xn obn 1k
+rf2 obn gn 10k
+rg2 gn 0 10k
+.end
+"""
+
+
+def test_an_unsure_bridge_at_a_pair_gets_the_second_break_a_single_node_gets(simulator, tmp_path):
+    """A bridge the rules cannot place at either node (as close to both stages) is confirmed at the pair as at one node:
+    the pair with both bridges on the other side finds the same closed-loop poles in both modes (check second-break)."""
+    # References: two exact breaks of one circuit share its closed-loop poles (Bode's return ratio; Tian et al. 2001);
+    # the halves share no element, so each mode's T is the half circuit's (Hurst and Lewis 1995): the single-node
+    # break at np, which gets its own second break.
+    from netloop.jobs.measure import measure
+
+    path = tmp_path / "tie.cir"
+    path.write_text(TIE)
+    pair = measure_pair(path, "np,nn", simulator=simulator)
+    alone = measure(path, "np", simulator=simulator)
+    assert [c.passed for c in alone.checks if c.name == "second-break"] == [True]
+    for mode in (pair.differential, pair.common):
+        second = [c for c in mode.checks if c.name == "second-break"]
+        assert len(second) == 1 and second[0].passed, second
+        assert "np: cx1 to the driver side; nn: cx2 to the driver side" in second[0].detail
+        common, i, j = np.intersect1d(mode.analysis.freq_hz, alone.analysis.freq_hz, return_indices=True)
+        assert common.size >= 50 and np.allclose(mode.analysis.t[i], alone.analysis.t[j], rtol=1e-6)
+    assert "cx1 on the load side (as close to the driver stage ga1 as to the stage gb1" in pair.differential.breaks.decided_by

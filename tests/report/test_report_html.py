@@ -72,3 +72,22 @@ def test_html_banner_is_green_only_for_a_pass_that_needs_no_note(stable_result, 
     assert _banners(page) == ["inconclusive"] and ">INCONCLUSIVE " in page and ">PASS " not in page
     page = render_html([stable_result, inconclusive_result], plots=False)
     assert _banners(page)[0] == "inconclusive" and "INCONCLUSIVE: 1 of 2 loop(s) pass, 1 inconclusive" in page
+
+
+def test_the_page_leads_the_closed_loop_with_measured_figures(tmp_path, marginal_result):
+    """Issue 15.6: on the page the closed-loop table starts with the measured peaking and |T/(1+T)|, then the poles fitted
+    to the measured 1/(1+T); no estimate from the phase margin stands beside them (the marginal loop's fitted pair
+    matches numpy.roots of its closed-form 1 + T: (1 + s/w1)(1 + s/w2)(1 + s/w3) + 1000)."""
+    import re
+
+    import numpy as np
+
+    page = write_html(marginal_result, tmp_path / "m.html").read_text(encoding="utf-8")
+    rows = re.findall(r"<tr><th>([^<]*)</th><td[^>]*>([^<]*)</td></tr>", page)
+    labels = [html.unescape(label) for label, _ in rows]
+    i = labels.index("closed-loop peaking")
+    assert labels[i : i + 3] == ["closed-loop peaking", "|T/(1+T)| at worst crossover", "closed-loop poles"]
+    assert "ESTIMATE" not in page
+    char = np.polyadd(np.polymul(np.polymul([1 / (W * 1e3), 1], [1 / (W * 1e6), 1]), [1 / (W * 2e6), 1]), [1e3])
+    pair = max((r for r in np.roots(char) if r.imag > 0), key=lambda r: r.real)
+    assert f"damping {-pair.real / abs(pair):.3f}" in html.unescape(rows[i + 2][1])

@@ -120,3 +120,65 @@ def test_every_label_and_legend_lies_inside_the_figure_without_overlap(stable_re
                 extent = legend.get_window_extent(renderer)
                 for other in (fig.axes[0].get_window_extent(renderer), fig.axes[0].xaxis.label.get_window_extent(renderer)):
                     assert not extent.overlaps(other), make.__name__
+
+
+def _eight_pole(f):
+    """The marginal three-pole loop with eight more poles at 30 MHz: its phase crosses -180 deg at 1.05 MHz (GM 4.73 dB,
+    governing) and -540 deg at 20.8 MHz, 86.8 dB below 0 dB (a crossing that governs nothing)."""
+    s = 1j * W * np.asarray(f)
+    return 1e3 / ((1 + s / (W * 1e3)) * (1 + s / (W * 1e6)) * (1 + s / (W * 2e6)) * (1 + s / (W * 3e7)) ** 8)
+
+
+def test_the_governing_gain_margin_gets_the_biggest_mark_on_both_plots():
+    """Issue 15.16: on the Bode plot the governing gain margin (4.73 dB at the closed form's -180 deg) has the thickest arrow and the
+    -540 deg crossing a thin, faint one; on the Nyquist plot only the governing one is a segment to -1 (two segments of
+    one colour overlapped there), the other a hollow point."""
+    from matplotlib.text import Annotation
+
+    from netloop.report.bode_plot import GM_UPPER
+
+    from scipy.optimize import brentq
+
+    def phase(f):  # the closed form's phase in degrees, a sum of pole angles
+        return -math.degrees(sum(math.atan(f / p) for p in (1e3, 1e6, 2e6, *[3e7] * 8)))
+
+    f_pc = brentq(lambda f: phase(f) + 180.0, 1e5, 1e7, xtol=1e-6)  # closed form, scipy.optimize.brentq
+    gm_db = -20 * math.log10(abs(_eight_pole(f_pc)))
+    r = make_result(_eight_pole, freq_hz=np.logspace(0, 10, 401))
+    crossings = r.analysis.phase_crossovers
+    assert [round(c.phase_deg) for c in crossings] == [-180, -540]
+    assert r.analysis.margins.gain_margin_db == pytest.approx(gm_db, abs=0.01)
+    fig = bode_figure(r)
+    arrows = {round(t.xy[0]): t.arrow_patch for t in fig.axes[0].texts
+              if isinstance(t, Annotation) and t.arrow_patch is not None and not t.get_text()}  # the margin arrows, not the labels
+    governing, other = arrows[round(crossings[0].freq_hz)], arrows[round(crossings[1].freq_hz)]
+    assert crossings[0].freq_hz == pytest.approx(f_pc, rel=1e-4)
+    assert governing.get_linewidth() > 2 * other.get_linewidth() and other.get_alpha() < 1.0
+    nyq = nyquist_figure(r)
+    segments = [ln for ln in nyq.axes[0].lines if ln.get_color() == GM_UPPER and ln.get_linewidth() == 3.0]
+    assert len(segments) == 1 and segments[0].get_xdata()[1] == -1.0
+    hollow = [ln for ln in nyq.axes[0].lines if ln.get_markeredgecolor() == GM_UPPER and ln.get_markerfacecolor() == "white"]
+    assert len(hollow) == 1
+
+
+def test_ring_labels_stand_clear_of_the_curve_and_its_mirror_image(stable_result):
+    """Issue 15.16: each |T| ring's label sits where neither T(jw) nor its mirror image passes near its anchor (at least
+    0.15 of the unit circle's radius away in the compressed plot; common practice: a label never sits on a curve)."""
+    from matplotlib.text import Annotation
+
+    from netloop.report import compress_radius
+
+    def through_a_label(f):  # its mirror image passes +62 deg at |T| = 100: 213 / |1 + j tan 62deg| = 100 (closed form)
+        s = 1j * W * np.asarray(f)
+        return 213.0 / ((1 + s / (W * 1e3)) * (1 + s / (W * 1e9)))
+
+    for r in (stable_result, make_result(_eight_pole, freq_hz=np.logspace(0, 10, 401)), make_result(through_a_label)):
+        fig = nyquist_figure(r)
+        z = compress_radius(np.asarray(r.analysis.t))
+        drawn = np.concatenate([z, np.conj(z)])
+        rings = [t for t in fig.axes[0].texts if isinstance(t, Annotation) and (t.get_text().startswith("|T| =") or "dB" in t.get_text())
+                 and t.arrow_patch is None and t.get_text() != "-1"]
+        assert rings
+        for t in rings:
+            anchor = complex(*t.xy)
+            assert float(np.min(np.abs(drawn - anchor))) >= 0.15, (t.get_text(), anchor)

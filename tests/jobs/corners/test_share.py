@@ -216,3 +216,4 @@ def test_progress_and_summary_count_the_loads(tmp_path, scheduler, capsys, share
     if share:
         summary += "; 2 ran on a circuit another corner had loaded, with its temperature, supplies, parameters or element values changed in place (share_loads)"
     assert summary + "\n" in printed.out
+

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -105,3 +106,44 @@ def test_fixed_sweep_is_not_widened(tmp_path):
     f = result.analysis.freq_hz
     assert f[0] == pytest.approx(10.0)
     assert f[-1] == pytest.approx(1e7)
+
+
+class _CountingLoads:
+    """The default simulator, counting the jobs for which ngspice read a netlist (SimResult.loaded)."""
+
+    def __init__(self, simulator):
+        self.simulator, self.loads = simulator, 0
+
+    def run(self, job):
+        result = self.simulator.run(job)
+        self.loads += result.loaded
+        return result
+
+    def __getattr__(self, name: str):
+        return getattr(self.simulator, name)
+
+
+@pytest.mark.ngspice
+def test_loads_count_every_netlist_ngspice_read_for_the_measurement():
+    """A regulator whose supply sits below its reference (invented operating point, sky130 cards) measures no loop at the
+    rules' split, so netloop measures other placements too: SimInfo.loads counts those loads as well, exactly the loads
+    the simulator reports (ngspice's SimResult.loaded, counted job by job)."""
+    from netloop.sim import default_simulator
+
+    process = Path(__file__).resolve().parents[3] / "circuits" / "sky130" / "process.spice"
+    netlist = "\n".join([
+        "regulator below dropout (invented operating point)", ".param vin=0.9 vref=0.9", f".lib {process} tt",
+        "Vsup vin 0 dc {vin}", "Vref ref 0 dc {vref}", "Ibias vin nbias dc 10u",
+        "XM8 nbias nbias 0 0 sky130_fd_pr__nfet_01v8 w=4 l=1", "XM5 tail nbias 0 0 sky130_fd_pr__nfet_01v8 w=8 l=1",
+        "XM1 d1 fb tail 0 sky130_fd_pr__nfet_01v8 w=8 l=1", "XM2 gate ref tail 0 sky130_fd_pr__nfet_01v8 w=8 l=1",
+        "XM3 d1 d1 vin vin sky130_fd_pr__pfet_01v8 w=8 l=1", "XM4 gate d1 vin vin sky130_fd_pr__pfet_01v8 w=8 l=1",
+        "XMP vout gate vin vin sky130_fd_pr__pfet_01v8 w=20 l=0.5 m=100", "R1 vout fb 25k", "R2 fb 0 50k", "C1 vout fb 200f",
+        "Cout vout cesr 1u", "Resr cesr 0 1", "Iload vout 0 dc 5m", ".end", ""])
+    simulator = default_simulator()
+    try:
+        counting = _CountingLoads(simulator)
+        result = measure(netlist, "gate", simulator=counting)
+    finally:
+        simulator.close()
+    assert "split" in [c.name for c in result.checks]  # other placements were measured
+    assert result.sim.loads == counting.loads >= 2

