@@ -148,10 +148,11 @@ def test_folded_library_warnings_count_each_kind_and_name_the_files(tmp_path):
     lib1, lib2 = tmp_path / "one.spice", tmp_path / "two.spice"
     lib1.write_text(".subckt cella a\nxa a cellb\n.ends cella\n.subckt cellc a\nd1 a 0 dnone\n.ends cellc\n")
     lib2.write_text(".subckt cellb a\nxb a missing\n.ends cellb\n.subckt celld a\nxd a gone\n.ends wrongname\n")
-    nl = parse_text(f"t\n.include {lib1}\n.include {lib2}\nx1 n cella\nv1 n 0 1\n", source="b.cir")
-    # own: cellb's card (reached through cella); library: the .ends (read first), cellc's diode, celld's instance
+    nl = parse_text(f"t\n.include {lib1}\n.include {lib2}\nx1 n cella\nx0 n nowhere\nv1 n 0 1\n", source="b.cir")
+    # own: cellb's card (reached through cella, whatever comes after x1) and x0's; library: the .ends (read first), cellc's
+    # diode, celld's instance
     assert nl.warnings == (
-        f"{lib2}:2:1: xb: undefined subcircuit 'missing'",
+        "b.cir:5:1: x0: undefined subcircuit 'nowhere'", f"{lib2}:2:1: xb: undefined subcircuit 'missing'",  # top file first
         "3 warning(s) about library content the circuit does not use (1 .ends naming another definition, 1 undefined model, "
         "1 undefined subcircuit; in two.spice and 1 more file(s)); each is listed in library_warnings (--json)")
     assert [w.split(": ", 1)[0] for w in nl.library_warnings] == [f"{lib2}:6:1", f"{lib1}:5:1", f"{lib2}:5:1"]

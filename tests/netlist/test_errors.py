@@ -112,3 +112,15 @@ def test_binary_files_are_refused_at_their_nul_byte(tmp_path):
     blob = tmp_path / "blob.inc"
     assert _refused(top) == (f"{top}:3:1: {blob}:1: not a text netlist: it holds binary bytes (a NUL byte on line 1); "
                              "give the SPICE netlist file")
+
+
+def test_a_pin_outside_ascii_is_refused_at_its_column():
+    """A .subckt pin with a non-ASCII character is refused at the pin, saying why and what to write instead (ngspice cannot
+    name such a node in its output)."""
+    text = "title\nR0 x 0 1\n.subckt amp in ôut\nR1 in ôut 1k\n.ends\n"
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(text, source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head == ("amp.cir:3:16: .subckt amp: pin 'ôut' has characters outside ASCII, which ngspice cannot name in its output; "
+                    "rename it with ASCII letters, digits and _")
+    assert (line, caret) == ("    .subckt amp in ôut", "    " + " " * 15 + "^")

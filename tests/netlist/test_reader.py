@@ -505,3 +505,10 @@ def test_text_without_a_file(tmp_path, monkeypatch):
     named = parse_text("t\nR1 a b 1k\n", source="amp.cir")
     assert (named.source, named.files) == ("amp.cir", ("amp.cir",))
     assert parse_text("").title == ""
+
+
+def test_subcircuit_parameters_after_a_glued_params_word_and_with_comparisons():
+    """After `params:k=1` (the word glued to the first parameter) a bare name is a parameter without a default, and a
+    default holding '==' keeps everything after the first '=' (ngspice expressions compare with ==)."""
+    sub = parse_text("t\n.subckt c p params:k=1 w sel={m==1}\n.ends\n").subcircuit("c")
+    assert (sub.pins, sub.params) == (("p",), (("k", "1"), ("w", ""), ("sel", "{m==1}")))
