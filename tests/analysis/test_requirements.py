@@ -155,3 +155,13 @@ def test_every_metric_reads_its_own_figure(three_pole):
         assert out.passed and out.reason.startswith(f"{metric}>=-1e9: passes, ")
         assert out.reason.endswith(f" is {out.value:.6g}" + (f" {unit}" if unit else "")), out.reason
         assert not parse_requirement(f"{metric}<-1e9").check(three_pole).passed
+
+
+def test_a_requirement_that_is_not_text_is_refused_with_the_whole_expected_form():
+    """A number given where requirement text belongs (say from a plan's TOML) is refused by one message that quotes it and
+    lists every metric and operator (house rule: what was expected)."""
+    with pytest.raises(PlanError) as info:
+        parse_requirement(60)
+    assert str(info.value) == ("cannot read requirement '60': it is not text; expected METRIC OP VALUE such as 'pm>=60', "
+                               "'fc>100MHz' or 'dm>=1ns', with METRIC one of pm, gm, lgm, fc, mm, dm, dc, peak and OP one of "
+                               ">= <= > <")
