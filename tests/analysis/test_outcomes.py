@@ -257,3 +257,13 @@ def test_a_given_p_must_be_a_count(p):
     with pytest.raises(AnalysisError, match=rf"^open_loop_rhp_poles must be a whole number >= 0, got {p!r}$"):
         analyse(*sample(THREE_POLE, 1e-2, 1e2), open_loop_rhp_poles=p)
     assert analyse(*sample(THREE_POLE, 1e-2, 1e2), open_loop_rhp_poles=2.0, fit_poles=False).nyquist.open_loop_rhp_poles == 2
+
+
+def test_peaking_of_a_loop_below_unity_is_measured_from_0_db():
+    """With |T| < 1 at the bottom there is no regulated level: peaking is |T/(1+T)| itself, from 0 dB. For
+    T = 0.5/(s+1)^2, |T/(1+T)|^2 = 0.25/(2.25 + w^2 + w^4) (closed form) is largest at DC (1/3, -9.54 dB), so over the sweep at its bottom."""
+    a = analyse(*sample(0.5 / (S + 1) ** 2, 1e-3, 1e3), fit_poles=False)
+    assert a.peaking.reference_db == 0.0
+    w = TWO_PI * 1e-3  # the bottom of the sweep, where the sampled curve is largest
+    assert a.peaking.peak_db == a.peaking.absolute_peak_db == pytest.approx(10 * math.log10(0.25 / (2.25 + w**2 + w**4)), abs=1e-6)
+    assert a.peaking.peak_freq_hz == pytest.approx(1e-3, rel=1e-6)  # the bottom of the sweep
