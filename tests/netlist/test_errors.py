@@ -124,3 +124,13 @@ def test_a_pin_outside_ascii_is_refused_at_its_column():
     assert head == ("amp.cir:3:16: .subckt amp: pin 'ôut' has characters outside ASCII, which ngspice cannot name in its output; "
                     "rename it with ASCII letters, digits and _")
     assert (line, caret) == ("    .subckt amp in ôut", "    " + " " * 15 + "^")
+
+
+def test_a_four_token_mosfet_of_a_later_model_is_refused_at_its_line():
+    """`M1 d g s nch` with `.model nch nmos` after it is found short of its bulk node only once the model is known; it is
+    still refused at its own line with the caret past its end (ngspice manual, MOSFETs: Mxxx nd ng ns nb mname)."""
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text("title\nR0 x 0 1\nM1 d g s nch\n.model nch nmos\n", source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head == "amp.cir:3:14: M1: expected 4 nodes and a model (3, or 5 with the thermal nodes, for a vdmos model)"
+    assert (line, caret) == ("    M1 d g s nch", "    " + " " * 13 + "^")
