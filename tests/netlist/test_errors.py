@@ -61,10 +61,13 @@ def test_continuation_with_nothing_to_continue(text, line):
 
 
 def test_unclosed_subcircuit_points_at_its_header():
-    """A .subckt never closed is reported at its own line, with the header as written."""
+    """A .subckt never closed is reported at its own line, with the header as written; of nested ones, the innermost."""
     with pytest.raises(NetlistSyntaxError) as info:
         parse_text("t\nR0 a 0 1\n.SUBCKT Amp in out\nR1 in out 1k\n", source="amp.cir")
     assert str(info.value).splitlines()[:2] == ["amp.cir:3:1: .subckt amp: expected .ends before the end of the netlist", "    .SUBCKT Amp in out"]
+    with pytest.raises(NetlistSyntaxError) as info:  # nested: the innermost, which the next .ends would close (as ngspice closes)
+        parse_text("t\n.subckt outer a\n.subckt inner b\nR1 b 0 1k\n", source="amp.cir")
+    assert str(info.value).splitlines()[0] == "amp.cir:3:1: .subckt inner: expected .ends before the end of the netlist"
 
 
 def _refused(path) -> str:
