@@ -457,25 +457,30 @@ def test_controlling_node_named_like_poly_is_a_node():
     assert [controlling_sources(nl.element(n)) for n in ("e1", "g1", "x1")] == [(), (), ()]
 
 
-POLY_ONE_COEFFICIENT = """poly cards with one coefficient each (invented)
+POLY_ONE_COEFFICIENT = """poly cards with one coefficient each, and a node named poly2 (invented)
 va a 0 dc 2
 vb b 0 dc 3
 e2 o 0 poly(2) a 0 b 0 1
 r1 o 0 1k
 h1 q 0 poly(1) va 2
 r2 q 0 1k
+vp poly2 0 dc 2
+e3 lin 0 poly2 0 10
+r3 lin 0 1k
 """
 
 
 @pytest.mark.ngspice
 def test_poly_cards_with_a_single_coefficient(tmp_path, op_of):
     """A POLY(n) card with its controlling nodes or sources and one coefficient (p0) is read, as ngspice 39 reads it:
-    its op gives v(o) = p0 = 1 and v(q) = 2 (with no coefficient at all both refuse the card, see test_errors)."""
+    its op gives v(o) = p0 = 1 and v(q) = 2 (with no coefficient at all both refuse the card, see test_errors); a node
+    named poly2 is a node, and its linear source gives 10 * 2 V."""
     nl = parse_text(POLY_ONE_COEFFICIENT)
     assert nl.element("e2").nodes == ("o", "0", "a", "0", "b", "0")
     assert nl.element("h1").nodes == ("q", "0") and controlling_sources(nl.element("h1")) == ("va",)
+    assert nl.element("e3").nodes == ("lin", "0", "poly2", "0")  # a linear source: poly2 is a node, not POLY(2)
     op = op_of(POLY_ONE_COEFFICIENT, tmp_path)  # reference: ngspice's own operating point
-    assert (op["o"], op["q"]) == (pytest.approx(1.0), pytest.approx(2.0))
+    assert (op["o"], op["q"], op["lin"]) == (pytest.approx(1.0), pytest.approx(2.0), pytest.approx(20.0))
 
 
 def test_laplace_and_freq_forms_have_only_output_nodes():
