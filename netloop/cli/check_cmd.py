@@ -213,7 +213,7 @@ def pair_drivers(values: list[str] | None, nodes: tuple[str, str]) -> tuple[str 
 def run(args: argparse.Namespace) -> int:
     from netloop.jobs.early import ngspice_started_early
 
-    with ngspice_started_early():  # ngspice starts while netloop's own modules load and the netlist is read
+    with ngspice_started_early(args.netlist):  # ngspice starts, and reads the model libraries, while netloop's own modules load and the netlist is read
         return _run(args)
 
 

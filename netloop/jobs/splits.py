@@ -160,7 +160,7 @@ class LoopStructure:
         if self.group is None or not through:
             return None
         opened = [f for f in through if f.fate == OPENED]
-        label = self.group.label
+        label = f"loop {self.group.index}"  # its number; its name follows the census's choice, made elsewhere
         if opened:
             return Check("opens-loop", True, f"the split at {at} opens {len(opened)} of the {len(through)} loop(s) of {label} through it")
         by: dict[str, int] = {}

@@ -14,6 +14,7 @@ from netloop.report.sensitivity_text import (
     FIGURE_NAMES,
     accuracy_text,
     knob_value,
+    reload_text,
     slope_text,
 )
 
@@ -63,7 +64,8 @@ def sensitivity_section(run: SensitivityRun) -> str:
         "withheld": run.withheld,
         "intro": (f"{len(run.sensitivities)} knob(s), each changed by about ±{100 * math.expm1(run.step):.3g} % and "
                   f"±{100 * math.expm1(2 * run.step):.3g} % on the loaded circuit (only the frequencies near the "
-                  "crossovers re-simulated); each slope is the change of the figure per decade of the value, by central differences."),
+                  "crossovers re-simulated); each slope is the change of the figure per decade of the value, by central differences."
+                  + (f" {reload_text(run)}." if reload_text(run) else "")),
         "chart": png_uri(sensitivity_figure(run)) if run.sensitivities else "",
         "chart_alt": f"ranking of the knobs by {FIGURE_NAMES[run.rank_by]}",
         "rank_name": FIGURE_NAMES[run.rank_by],

@@ -9,7 +9,7 @@ from netloop.jobs.sensitivity.records import FIGURES, SensitivityRun, Slope, Wha
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
 from netloop.report.text import verdict_line
 
-__all__ = ["FIGURE_NAMES", "SHOWN_ROWS", "accuracy_text", "format_sensitivity_text", "knob_value", "slope_text", "what_if_line"]
+__all__ = ["FIGURE_NAMES", "SHOWN_ROWS", "accuracy_text", "format_sensitivity_text", "knob_value", "reload_text", "slope_text", "what_if_line"]
 
 SHOWN_ROWS = 15
 """Rows of the ranked table printed; the rest are counted (all are in --json)."""
@@ -23,6 +23,17 @@ def knob_value(value: float | None, unit: str) -> str:
     if value is None or math.isnan(value):
         return NONE
     return eng(value, unit) if unit else f"{value:.4g}"
+
+
+def reload_text(run: SensitivityRun) -> str:
+    """The sentence naming the knobs whose changes were edited copies of the netlist read again, and why; "" when none."""
+    reloaded = [s.knob for s in run.sensitivities if s.knob.reload]
+    if not reloaded:
+        return ""
+    names = ", ".join(k.name for k in reloaded[:6]) + (f" and {len(reloaded) - 6} more" if len(reloaded) > 6 else "")
+    return (f"{len(reloaded)} of them ({names}) are sizes of process device wrappers: ngspice applies them when it reads the "
+            "instance and the wrapper derives its device's other values from them, so each was an edited copy of the "
+            "netlist read again by ngspice (its first value a load, the others changed in the copy ngspice held)")
 
 
 def slope_text(figure: str, slope: Slope) -> str:
@@ -120,6 +131,8 @@ def format_sensitivity_text(run: SensitivityRun) -> str:
             f"slopes by central differences, d figure / d log10 value; re-simulated near the crossovers only"
             + (f"; {run.workers} worker processes" if run.workers > 1 else "")
         )
+        if reload_text(run):
+            lines.append(reload_text(run))
         lines.append(f"ranked by {FIGURE_NAMES[run.rank_by]} (largest slope first)")
         lines.append("")
         lines += _table(run, tuple(dict.fromkeys(w.requirement for w in run.what_ifs)))

@@ -58,6 +58,7 @@ def _requirement_label(ax, threshold: float, op: str, text: str) -> None:
 def histogram_figure(run: SampleRun):
     """One histogram per figure (phase margin, gain margin, crossover frequency, peaking), requirement lines drawn."""
     from matplotlib.patches import Patch  # noqa: PLC0415 - lazy, as every plot module
+    from matplotlib.ticker import MaxNLocator  # noqa: PLC0415
 
     stats = run.statistics
     fig = new_figure(10.0, 7.0)
@@ -96,6 +97,7 @@ def histogram_figure(run: SampleRun):
             ax.set_title(f"{name}: {len(every)} samples, mean {figure_text(figure, sum(every) / len(every))}", fontsize=10)
         if unit == "Hz":
             ax.set_xlabel(_frequency_axis(ax.xaxis, every), fontsize=9)
+        ax.yaxis.set_major_locator(MaxNLocator(integer=True))  # counts of samples: no "1.75 samples"
         ax.tick_params(labelsize=8)
         ax.grid(axis="y", color="#e3e3e3", linewidth=0.6)
         ax.set_axisbelow(True)

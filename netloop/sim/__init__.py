@@ -8,7 +8,8 @@ split       the runs of one job shared out to several simulators, run side by si
 rawfile     reader for ngspice's binary and ascii raw files
 library     where libngspice and the ngspice binary are
 spawn       the worker process started ahead of the first job (``netloop check`` starts it first thing)
-in_place    values of a loaded circuit changed in place for the next job (temperature, sources, .param)
+in_place    values of a loaded circuit changed in place for the next job (temperature, sources, .param, R/C/L values)
+used_models the deck's model libraries written out with only the model cards and subcircuits the circuit uses
 
 Names are imported on first use (as in the netloop package), so that the worker process and an early
 start of it (spawn) do not wait for the modules they do not need.

@@ -13,6 +13,7 @@ circuit uses (netloop.sim.used_models).
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -71,6 +72,8 @@ class _Loaded:
     netlist: str = ""  # the netlist text the circuit stands for now (as loaded, or as changed in place)
     values: dict[tuple[str, str], str] = field(default_factory=dict)  # its in-place changeable values (SimJob.changes)
     saves_set: bool = True  # the job's saves are given to ngspice (a reset drops them)
+    slot: int = 0  # which load this circuit came from, in order (kept when it is changed in place)
+    label: str = ""  # the label of the last job that ran on it (a corner's name)
 
 
 def circuit_key(job: SimJob) -> tuple:
@@ -94,43 +97,115 @@ def _changeable(loaded: _Loaded, job: SimJob, key: tuple) -> bool:
     )
 
 
+KEEP_MAX_CHARS = 400_000  # a circuit is kept loaded beside the next one only when its netlist is this small (memory)
+
+
+def _resets(job: SimJob, loaded: _Loaded) -> bool:
+    """True when changing ``loaded`` to ``job`` needs ngspice's ``reset`` (a parameter changes): ngspice evaluates the
+    parameters again from the state its netlist reader keeps for the circuit it read last, so only the newest
+    circuit may take one."""
+    try:
+        return change_commands(job.changes, loaded.values)[1]
+    except ValueError:
+        return True
+
+
 class JobRunner:
-    """Runs jobs one after the other in ``session``, reusing the loaded circuit where it can."""
+    """Runs jobs one after the other in ``session``, reusing the loaded circuit where it can.
+
+    ngspice holds up to two circuits: the one the last job ran on, and one before it when that is small
+    (KEEP_MAX_CHARS): the first loaded of those whose last job had the new job's label (a corner's name), else the
+    current one. A job for the older one (the same measurement, or values it can change in place) switches back to it
+    (``setcirc``) instead of loading it again: a corner whose split was doubted measures other splits on circuits of
+    their own, one after the other, and the next corner still finds its own circuit loaded."""
 
     def __init__(self, session: NgspiceSession):
         self.session = session
-        self._loaded: _Loaded | None = None
+        self._loaded: _Loaded | None = None  # the circuit ngspice works on now
+        self._held: list[_Loaded] = []  # every circuit ngspice holds, in its own order (the newest is number 1)
+        self._loads = 0
 
     def run(self, job: SimJob) -> JobPayload:
         """Do ``job``; raises JobFailure with ngspice's own lines when it cannot."""
         key = circuit_key(job)
-        previous, self._loaded = self._loaded, None
-        if previous is not None and job.circuit_id and previous.key == key:
-            loaded = previous
-        elif previous is not None and _changeable(previous, job, key):
-            loaded = self._change_in_place(previous, job, key)
-        else:
-            loaded = None
+        current, self._loaded = self._loaded, None
+        if len(self._held) > 1 and self._count() != len(self._held):  # never expected: then trust none of them
+            self.forget()
+            current = None
+        target, same = None, False
+        for held in sorted(self._held, key=lambda h: h is not current):  # the current circuit first
+            if job.circuit_id and held.key == key:
+                target, same = held, True
+                break
+            if _changeable(held, job, key) and (self._held.index(held) == 0 or not _resets(job, held)):
+                target = held
+                break
+        if target is not None and target is not current:
+            self.session.command("destroy all")
+            self.session.command(f"setcirc {self._held.index(target) + 1}")
+        loaded = target if same else None
+        if target is not None and not same:
+            loaded = self._change_in_place(target, job, key)
+            if loaded is None:
+                self._remove(target)  # refused part-way: its values are no longer known
+            else:
+                loaded.slot = target.slot
+                self._held[self._held.index(target)] = loaded
         if loaded is None:
-            self.session.clear()  # whatever circuit a previous job left
+            keep = self._worth_keeping(job, target or current)
+            for held in list(self._held):
+                if held is not keep or len(held.netlist) > KEEP_MAX_CHARS:
+                    self._remove(held)
+            self.session.command("destroy all")
         try:
-            payload, self._loaded = _run(self.session, job, key, loaded)
+            payload, record = _run(self.session, job, key, loaded)
         except JobFailure as failure:
-            self.session.clear()
-            if loaded is None or loaded is previous or failure.kind != "op":
+            self.forget()
+            if loaded is None or same or failure.kind != "op":
                 raise
             return self.run_fresh(job)  # changed in place, the operating point failed: as a fresh load would go
+        if loaded is None:
+            self._loads += 1
+            record.slot = self._loads
+            self._held.insert(0, record)
+            if len(self._held) > 1 and self._count() != len(self._held):  # never expected: keep only the new one
+                for held in self._held[1:]:
+                    self._remove(held)
+        record.label = job.label
+        self._loaded = record
         return payload
+
+    def _worth_keeping(self, job: SimJob, current: _Loaded | None) -> _Loaded | None:
+        """Which held circuit to keep beside the one loaded for ``job``: of those whose last job had ``job``'s label
+        (the same corner), the first loaded (the corner's own circuit, not another split measured after it), else
+        ``current``."""
+        same = [h for h in self._held if job.label and h.label == job.label]
+        return min(same, key=lambda h: h.slot) if same else current
+
+    def _count(self) -> int:
+        """How many circuits ngspice holds, as its ``setcirc`` lists them."""
+        return sum(1 for line in self.session.command("setcirc") if re.match(r"^(?:current\s+)?\d+\s", line.strip(), re.IGNORECASE))
 
     def run_fresh(self, job: SimJob) -> JobPayload:
         """Do ``job`` on a circuit loaded for it (its convergence aids tried in order)."""
         self.forget()
         try:
-            payload, self._loaded = _run(self.session, job, circuit_key(job), None)
+            payload, record = _run(self.session, job, circuit_key(job), None)
         except JobFailure:
-            self.session.clear()
+            self.forget()
             raise
+        self._loads += 1
+        record.slot, record.label = self._loads, job.label
+        self._held, self._loaded = [record], record
         return payload
+
+    def _remove(self, held: _Loaded) -> None:
+        """Take one circuit out of ngspice (the current one is then the newest left)."""
+        self.session.command(f"setcirc {self._held.index(held) + 1}")
+        self.session.clear()
+        self._held.remove(held)
+        if self._loaded is held:
+            self._loaded = None
 
     def _change_in_place(self, loaded: _Loaded, job: SimJob, key: tuple) -> _Loaded | None:
         """The loaded circuit with the job's changes made in place, or None when ngspice refused them."""
@@ -159,9 +234,13 @@ class JobRunner:
             return None
 
     def forget(self) -> None:
-        """Remove the loaded circuit (the next job loads its own)."""
-        self._loaded = None
+        """Remove every loaded circuit (the next job loads its own)."""
         self.session.clear()
+        for _ in range(8):  # whatever a failed load may have left too
+            if not self._count():
+                break
+            self.session.clear()
+        self._held, self._loaded = [], None
 
 
 def run_job(session: NgspiceSession, job: SimJob) -> JobPayload:
@@ -210,11 +289,10 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
 
 
 def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log: list[str], failure) -> tuple[_Loaded | None, list[str]]:
-    """Load the circuit with ``aid``; with ``job.op_voltages`` also run its operating point.
+    """Load the circuit with ``aid`` beside those ngspice holds; with ``job.op_voltages`` also run its operating point.
 
-    Returns (None, ngspice's lines) when the operating point failed, else the loaded record.
+    Returns (None, ngspice's lines) when the operating point failed (that circuit taken out again), else the loaded record.
     """
-    session.clear()
     deck = render_deck(job, option_words(job, aid))
     lean = used_only(deck, os.getcwd())  # the worker runs in the job's folder, where relative library paths start
     loaded_lines = session.load(lean or deck)
@@ -225,7 +303,10 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
     if error_lines(loaded_lines):
         raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded_lines))
     record = _Loaded(key, aid, log=tuple(log), netlist=job.netlist, values=values_of(job.changes), saves_set=False)
-    return _operating_point(session, job, record, log, failure)
+    loaded, lines = _operating_point(session, job, record, log, failure)
+    if loaded is None:
+        session.clear()  # the circuit whose operating point failed; the next aid loads its own
+    return loaded, lines
 
 
 def _operating_point(session: NgspiceSession, job: SimJob, record: _Loaded, log: list[str], failure) -> tuple[_Loaded | None, list[str]]:

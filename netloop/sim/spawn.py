@@ -22,6 +22,7 @@ from netloop.sim.library import find_libngspice
 
 __all__ = ["Spawned", "discard", "spawn", "start_ahead", "take"]
 
+WARM_ENV = "NETLOOP_WORKER_WARM"  # the netlist whose libraries a worker started ahead reads while it waits
 _PACKAGE_ROOT = str(Path(__file__).resolve().parent.parent.parent)
 
 
@@ -50,13 +51,17 @@ def _key(library_path: str) -> tuple:
     return (library_path, os.getcwd(), os.environ.get("PYTHONPATH", ""), sys.executable)
 
 
-def spawn(library_path: str) -> Spawned:
-    """Start a worker process for ``library_path`` (``python -m netloop.sim.worker``); it says "ready" when it is."""
+def spawn(library_path: str, warm: str | None = None) -> Spawned:
+    """Start a worker process for ``library_path`` (``python -m netloop.sim.worker``); it says "ready" when it is.
+    ``warm``: a netlist whose model libraries it reads then, while its caller works (netloop.sim.used_models.warm)."""
     scratch = tempfile.TemporaryDirectory(prefix="netloop-worker-")
     log_path = Path(scratch.name) / "worker.log"
     env = dict(os.environ)
     env["PYTHONPATH"] = os.pathsep.join(p for p in (_PACKAGE_ROOT, env.get("PYTHONPATH", "")) if p)
     env["PYTHONWARNINGS"] = "ignore"
+    env.pop(WARM_ENV, None)
+    if warm:
+        env[WARM_ENV] = os.path.abspath(warm)
     with open(log_path, "wb") as log:
         process = subprocess.Popen(
             [sys.executable, "-m", "netloop.sim.worker", library_path],
@@ -74,15 +79,16 @@ _AHEAD: list[Spawned] = []
 _LOCK = threading.Lock()
 
 
-def start_ahead() -> None:
+def start_ahead(warm: str | None = None) -> None:
     """Start one worker process now, for the first simulator that starts in this folder to take; nothing when
-    libngspice is not found (the simulator then says why) or one is already waiting."""
+    libngspice is not found (the simulator then says why) or one is already waiting. ``warm``: the netlist the job
+    will read, whose model libraries the worker reads while the caller reads the netlist itself."""
     library_path = find_libngspice()
     if library_path is None:
         return
     with _LOCK:
         if not _AHEAD:
-            _AHEAD.append(spawn(library_path))
+            _AHEAD.append(spawn(library_path, warm))
 
 
 def take(library_path: str) -> Spawned | None:

@@ -11,7 +11,7 @@ conditional blocks, comments. Only names that are never looked up go, so ngspice
 circuit and gives the same numbers bit for bit (tests/sim/test_used_models.py compares them on the
 sky130 regulator and on invented libraries) while reading a third of the text.
 
-Which definitions a circuit uses is read from the words of its element lines (any word, wherever it
+Which definitions a circuit uses is read from the words of the lines it keeps (any word, wherever it
 stands, counts as a use: a name kept by mistake costs time, never a result). A binned model
 (``nch.1``, ``nch.2``, ...) is used whenever ``nch`` is. When a library holds something this reading
 does not follow (a file that cannot be read, an ``.include`` inside a subcircuit, a ``.lib`` line
@@ -25,7 +25,7 @@ import os
 import re
 from dataclasses import dataclass
 
-__all__ = ["used_only"]
+__all__ = ["used_only", "warm"]
 
 _WORD = re.compile(r"[^\s=(),\[\]{}']+")
 _BIN = re.compile(r"^(.*)\.\d+$")
@@ -74,7 +74,6 @@ class _Item:
 
     text: str
     name: str = ""  # "" for text; the model (bin suffix dropped) or subcircuit it defines
-    uses: tuple[str, ...] = ()  # the words of the element lines in it (text and subcircuits)
 
 
 _FILES: dict[str, tuple[tuple[int, int], list[_Statement]]] = {}  # path -> ((mtime_ns, size), statements)
@@ -105,11 +104,10 @@ def _path(word: str, here: str) -> str:
     raise _Unfollowed(f"no file {word}")
 
 
-def _element_words(statement: _Statement) -> tuple[str, ...]:
-    if statement.text.lstrip()[:1] in ".*+":
-        return ()
-    words = _WORD.findall(" ".join(statement.words[1:]))
-    return tuple(words) + tuple(m[1] for w in words if (m := _BIN.match(w)))
+def _words(text: str) -> set[str]:
+    """Every name-like word of ``text``, lower-case, binned names also without their bin suffix."""
+    words = set(_WORD.findall(text.lower()))
+    return words | {m[1] for w in words if (m := _BIN.match(w))}
 
 
 def _section(statements: list[_Statement], section: str, path: str) -> list[_Statement]:
@@ -125,6 +123,7 @@ def _section(statements: list[_Statement], section: str, path: str) -> list[_Sta
 
 
 _READS = (".include", ".inc", ".lib")
+_READS_ANY = re.compile(r"^[ \t]*\.(?:include|inc|lib)\b", re.MULTILINE | re.IGNORECASE)
 _NOT_FOLLOWED = (".lib", ".endl", ".end", ".control", ".endc")
 
 
@@ -163,7 +162,7 @@ def _items(statements: list[_Statement], here: str, depth: int, seen: tuple[str,
             w = s.words
             if len(w) < 2:
                 raise _Unfollowed("a .subckt line without a name")
-            block, level, uses = [s.text], 1, []
+            block, level = [s.text], 1
             while level:
                 if i >= len(statements):
                     raise _Unfollowed(f"no .ends for {w[1]}")
@@ -173,11 +172,10 @@ def _items(statements: list[_Statement], here: str, depth: int, seen: tuple[str,
                 if bk in _READS or bk in _NOT_FOLLOWED:
                     raise _Unfollowed(f"{bk} inside a subcircuit")
                 level += (bk == ".subckt") - (bk == ".ends")
-                uses.extend(_element_words(b))
                 block.append(b.text)
-            items.append(_Item("\n".join(block), w[1], tuple(uses)))
+            items.append(_Item("\n".join(block), w[1]))
         else:
-            items.append(_Item(s.text, "", _element_words(s)))
+            items.append(_Item(s.text))
     return items
 
 
@@ -193,6 +191,8 @@ def used_only(deck: str, here: str) -> str | None:
     """``deck`` with its top-level ``.include`` and ``.lib`` lines written out, less the unused ``.model`` cards and
     ``.subckt`` blocks (see the module doc); ``here`` is the folder relative paths start from. None when the deck
     reads no library, when nothing would be left out, or when the libraries hold something not followed here."""
+    if not _READS_ANY.search(deck):
+        return None
     title, _, rest = deck.partition("\n")
     end = re.search(r"^[ \t]*\.(?:control|end)\b", rest, flags=re.MULTILINE | re.IGNORECASE)
     body, tail = (rest[:end.start()], rest[end.start():]) if end else (rest, "")
@@ -208,15 +208,25 @@ def used_only(deck: str, here: str) -> str | None:
         if item.name:
             defined.setdefault(item.name, []).append(item)
     used: set[str] = set()
-    todo = [u for item in items if not item.name for u in item.uses]
+    todo = list(_words("\n".join(item.text for item in items if not item.name)) & defined.keys())
     while todo:
         name = todo.pop()
-        if name in used or name not in defined:
+        if name in used:
             continue
         used.add(name)
         for item in defined[name]:
-            todo.extend(item.uses)
+            todo.extend((_words(item.text) & defined.keys()) - used)
     if all(name in used for name in defined):
         return None
     kept = [_joined(item.text) for item in items if not item.name or item.name in used]
     return "\n".join([title, *kept, tail.rstrip("\n")]) + "\n"
+
+
+def warm(netlist: str) -> None:
+    """Read the model libraries ``netlist`` names (statements kept for ``used_only``), before its deck arrives: a
+    worker started ahead does this while its caller reads the netlist. Anything unreadable is left for later."""
+    try:
+        with open(netlist, encoding="utf-8", errors="replace") as fh:
+            used_only(fh.read(), os.path.dirname(os.path.abspath(netlist)))
+    except (OSError, ValueError):
+        pass

@@ -28,6 +28,11 @@ def main(argv: list[str]) -> int:
         write_frame(replies, ("unavailable", f"{type(exc).__name__}: {exc}"))
         return 1
     write_frame(replies, ("ready", session.version))
+    warm = os.environ.get("NETLOOP_WORKER_WARM")  # netloop.sim.spawn.WARM_ENV: read while the caller reads its netlist
+    if warm:
+        from netloop.sim.used_models import warm as read_libraries  # noqa: PLC0415
+
+        read_libraries(warm)
     home = os.getcwd()
     while True:
         try:

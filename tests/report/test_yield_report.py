@@ -94,6 +94,8 @@ def test_histograms_count_the_judged_samples_and_draw_the_requirement():
     pm_ax = fig.axes[0]
     assert [sum(bar.get_height() for bar in bars) for bars in pm_ax.containers] == [4, 4]  # one stack per corner
     assert [line.get_xdata()[0] for line in pm_ax.lines] == [45.0]
+    fig.canvas.draw()
+    assert all(float(t).is_integer() for t in pm_ax.get_yticks())  # sample counts: whole numbers on the axis
     none = make_run([record("tt", 1, "pass", 60.0, gm=None)])
     assert "no sample has a gain margin" in histogram_figure(none).axes[1].texts[0].get_text()
 

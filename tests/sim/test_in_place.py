@@ -36,8 +36,9 @@ SWEEP = (AcSweep("dec", 10, 1e2, 1e9),)
 BASE = {"vdd": "3.3", "ibias": "20u", "dvt": "0", "cc": "1.2p", "temp": "27", "rz": "1.5k", "cl": "2p"}
 
 
-def _netlist(values: dict[str, str]) -> str:
-    text = AMP.format(vdd=values["vdd"], ibias=values["ibias"], rz=values["rz"], cl=values["cl"], temp=f".temp {values['temp']}")
+def _netlist(values: dict[str, str], title: str = "") -> str:
+    """The amplifier at ``values``; ``title`` (a test's own) makes it a circuit no earlier test left loaded."""
+    text = (title + " " if title else "") + AMP.format(vdd=values["vdd"], ibias=values["ibias"], rz=values["rz"], cl=values["cl"], temp=f".temp {values['temp']}")
     return text.replace("dvt=0 cc=1.2p", f"dvt={values['dvt']} cc={values['cc']}")
 
 
@@ -47,9 +48,9 @@ def _changes(values: dict[str, str]) -> tuple[Change, ...]:
             Change("element", "cl", values["cl"]))
 
 
-def _job(values: dict[str, str], name: str, in_place: bool = True, op_voltages: bool = False) -> SimJob:
-    return SimJob(_netlist(values), runs=(AcRun("a", {"vin": 1.0}, SWEEP),), save=("v(out)", "v(o1)"), excitable=("vin",),
-                  op_voltages=op_voltages, circuit_id=name, changes=_changes(values) if in_place else ())
+def _job(values: dict[str, str], name: str, in_place: bool = True, op_voltages: bool = False, title: str = "", label: str = "") -> SimJob:
+    return SimJob(_netlist(values, title), runs=(AcRun("a", {"vin": 1.0}, SWEEP),), save=("v(out)", "v(o1)"), excitable=("vin",),
+                  op_voltages=op_voltages, circuit_id=name, changes=_changes(values) if in_place else (), label=label)
 
 
 def _vectors(result) -> np.ndarray:
@@ -67,9 +68,9 @@ def test_a_change_in_place_equals_a_fresh_load_bit_for_bit(shared_sim, key, valu
     source's DC value, a .param of an element value or inside a model card's expression, an R or C value) runs without a load and gives
     exactly the vectors of loading its netlist afresh, which differ from the first corner's (ngspice is the reference)."""
     changed = {**BASE, key: value}
-    first = shared_sim.run(_job(BASE, f"first-{key}-{value}"))
-    in_place = shared_sim.run(_job(changed, f"second-{key}-{value}"))
-    fresh = shared_sim.run(_job(changed, f"fresh-{key}-{value}", in_place=False))
+    first = shared_sim.run(_job(BASE, f"first-{key}-{value}", title=f"{key}={value}"))
+    in_place = shared_sim.run(_job(changed, f"second-{key}-{value}", title=f"{key}={value}"))
+    fresh = shared_sim.run(_job(changed, f"fresh-{key}-{value}", in_place=False, title=f"{key}={value}"))
     assert first.loaded and not in_place.loaded and fresh.loaded
     assert np.array_equal(_vectors(in_place), _vectors(fresh))
     assert np.array_equal(in_place.runs[0].freq_hz, fresh.runs[0].freq_hz)
@@ -125,10 +126,10 @@ def test_several_changes_in_a_row_each_equal_a_fresh_load(shared_sim):
     corners = [{**BASE, "temp": t, "vdd": v, "dvt": d, "cc": c, "cl": cl}
                for t, v, d, c, cl in (("-40", "3.0", "0.05", "1p", "2p"), ("125", "3.6", "-0.05", "1.4p", "1.5p"), ("27", "3.3", "0", "1.2p", "2p"),
                                       ("85", "2.7", "0.1", "0.8p", "4.7p"), ("0", "3.3", "0", "1.2p", "4.7p"))]
-    chain = [shared_sim.run(_job(c, f"chain-{i}")) for i, c in enumerate(corners)]
+    chain = [shared_sim.run(_job(c, f"chain-{i}", title="chain")) for i, c in enumerate(corners)]
     assert [r.loaded for r in chain] == [True, False, False, False, False]
     for i, c in enumerate(corners):
-        assert np.array_equal(_vectors(chain[i]), _vectors(shared_sim.run(_job(c, f"chain-fresh-{i}", in_place=False))))
+        assert np.array_equal(_vectors(chain[i]), _vectors(shared_sim.run(_job(c, f"chain-fresh-{i}", in_place=False, title="chain"))))
 
 
 @pytest.mark.ngspice
@@ -205,10 +206,44 @@ def test_netlist_product_gives_alter_the_readers_double(shared_sim):
     for i, token in enumerate(tokens):
         source = f"v1 a 0 dc {token}\nr1 a 0 1k\n"
         loaded = shared_sim.run(SimJob("value\n" + source, runs=(), save=(), alters=(Alter("v1", "dc"),)))
-        first = shared_sim.run(SimJob("value\nv1 a 0 dc 0\nr1 a 0 1k\n", runs=(), save=(), circuit_id=f"product-{i}",
+        first = shared_sim.run(SimJob(f"value {i}\nv1 a 0 dc 0\nr1 a 0 1k\n", runs=(), save=(), circuit_id=f"product-{i}",
                                       changes=(Change("source", "v1", "0"),)))
         assert first.loaded
-        changed = shared_sim.run(SimJob("value\n" + source, runs=(), save=(), circuit_id=f"product-{i}-b",
+        changed = shared_sim.run(SimJob(f"value {i}\n" + source, runs=(), save=(), circuit_id=f"product-{i}-b",
                                         changes=(Change("source", "v1", token),), alters=(Alter("v1", "dc"),)))
         assert not changed.loaded
         assert changed.parameters["@v1[dc]"] == loaded.parameters["@v1[dc]"], token
+
+
+@pytest.mark.ngspice
+def test_a_circuit_kept_beside_another_takes_its_next_corner_without_a_load(shared_sim):
+    """A corner's circuit, then another circuit (as the other splits a doubted corner measures), then the next corner:
+    ngspice still holds the first circuit and the corner runs on it, its temperature and supply changed in place, with
+    exactly the vectors of a fresh load; a parameter change on it (which needs ngspice's reset, only for the circuit it
+    read last) loads afresh, with exactly those vectors too (ngspice's fresh load is the reference)."""
+    title = "kept beside another"
+    shared_sim.run(_job(BASE, "kept-corner-1", title=title, label="corner 1"))
+    other = shared_sim.run(_job(BASE, "kept-other", title="another circuit", label="corner 1"))
+    hot = {**BASE, "temp": "85", "vdd": "3.0"}
+    second = shared_sim.run(_job(hot, "kept-corner-2", title=title, label="corner 2"))
+    assert other.loaded and not second.loaded
+    assert np.array_equal(_vectors(second), _vectors(shared_sim.run(_job(hot, "kept-fresh-2", in_place=False, title=title))))
+    shared_sim.run(_job(BASE, "kept-other-2", title="another circuit"))
+    param = {**hot, "cc": "0.8p"}
+    third = shared_sim.run(_job(param, "kept-corner-3", title=title))
+    assert np.array_equal(_vectors(third), _vectors(shared_sim.run(_job(param, "kept-fresh-3", in_place=False, title=title))))
+
+
+@pytest.mark.ngspice
+def test_a_corner_circuit_outlasts_several_other_circuits_loaded_after_it(shared_sim):
+    """A corner's circuit, then three other circuits one after the other (the other splits of a doubted corner: jobs of
+    the same label), then the next corner: it runs on the corner's circuit without a load, bit for bit a fresh load
+    (ngspice's reference)."""
+    title = "outlasts others"
+    shared_sim.run(_job(BASE, "outlast-corner-1", title=title, label="corner 1"))
+    for n in range(3):
+        assert shared_sim.run(_job(BASE, f"outlast-other-{n}", title=f"other split {n}", label="corner 1")).loaded
+    cold = {**BASE, "temp": "-40", "ibias": "17u"}
+    second = shared_sim.run(_job(cold, "outlast-corner-2", title=title, label="corner 2"))
+    assert not second.loaded
+    assert np.array_equal(_vectors(second), _vectors(shared_sim.run(_job(cold, "outlast-fresh", in_place=False, title=title))))

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from netloop.sim import SharedLibrarySimulator, find_libngspice
@@ -40,3 +42,24 @@ def test_a_process_started_elsewhere_is_not_taken(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     assert spawn_module.take(find_libngspice()) is None
     spawn_module.discard()
+
+
+def test_a_process_started_ahead_for_a_netlist_is_told_which(tmp_path, monkeypatch):
+    """start_ahead(netlist) gives the worker the netlist's absolute path (its environment, as Linux shows it in
+    /proc/PID/environ), where it reads the model libraries while the caller reads the netlist; without one the worker
+    is given none, even when the caller's own environment names one; the simulator still takes that process."""
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "amp.cir").write_text("amp\nv1 a 0 dc 2\nr1 a b 1k\nr2 b 0 1k\n")
+    monkeypatch.setenv(spawn_module.WARM_ENV, "/elsewhere.cir")
+    for warm, told in (("amp.cir", str(tmp_path / "amp.cir")), (None, None)):
+        spawn_module.start_ahead(warm)
+        waiting = spawn_module._AHEAD[0].process
+        raw = (Path("/proc") / str(waiting.pid) / "environ").read_bytes().decode()
+        environ = dict(e.split("=", 1) for e in raw.split("\0") if "=" in e)
+        assert environ.get(spawn_module.WARM_ENV) == told
+        simulator = SharedLibrarySimulator()
+        try:
+            simulator.start()
+            assert simulator._holder["worker"].process.pid == waiting.pid
+        finally:
+            simulator.close()

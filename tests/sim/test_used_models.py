@@ -6,10 +6,8 @@ import re
 from importlib.util import find_spec
 from pathlib import Path
 
-import numpy as np
 import pytest
 
-from netloop.sim import find_libngspice
 from netloop.sim.used_models import used_only
 
 # An invented process library (for tests only; its cards describe no real process): one file with two corner sections,
@@ -108,45 +106,53 @@ def test_a_deck_is_left_as_written_when_the_reading_cannot_follow_it(tmp_path, c
     assert used_only(deck + ".end\n", str(tmp_path)) is None, why
 
 
-@pytest.fixture(scope="module")
-def session():
-    from netloop.sim.session import NgspiceSession  # noqa: PLC0415 - loads libngspice in this process
+# Run in a process of its own: libngspice loads once per process, and other test modules load it in theirs.
+_COMPARE = """
+import json, sys
+import numpy as np
+from netloop.sim import find_libngspice
+from netloop.sim.session import NgspiceSession
 
-    path = find_libngspice()
-    if path is None:
-        pytest.skip("libngspice not found")
-    return NgspiceSession(path)
-
-
-def _vectors(session, deck: str, save: str, sweep: str) -> tuple[list[str], np.ndarray]:
-    """What ngspice gives for ``deck``: its load messages' errors and the saved vectors of one ac sweep."""
+full, lean, save, sweep = json.loads(sys.stdin.read())
+session = NgspiceSession(find_libngspice())
+out = []
+for deck in (full, lean):
     session.clear()
     said = session.load(deck)
-    session.command(f"save {save}")
-    session.command(f"ac {sweep}")
+    session.command("save " + save)
+    session.command("ac " + sweep)
     plot = session.current_plot()
     data = np.concatenate([session.vector(plot, v) for v in save.split()])
-    session.clear()
-    return [line for line in said if "error" in line.lower()], data
+    out.append(([line for line in said if "error" in line.lower()], data))
+print(json.dumps({"errors": out[0][0] + out[1][0], "same": bool(np.array_equal(out[0][1], out[1][1])), "points": int(out[0][1].size)}))
+"""
+
+
+def _compare(full: str, lean: str, save: str, sweep: str, cwd: Path) -> dict:
+    """ngspice's vectors for the deck as written and for the lean deck, compared bit for bit in a process of its own."""
+    import json
+    import subprocess
+    import sys
+
+    run = subprocess.run([sys.executable, "-c", _COMPARE], input=json.dumps([full, lean, save, sweep]), capture_output=True,
+                         text=True, timeout=300, check=True, cwd=cwd)
+    return json.loads(run.stdout.strip().splitlines()[-1])
 
 
 @pytest.mark.ngspice
-def test_the_invented_library_gives_the_same_numbers_bit_for_bit(tmp_path, session, monkeypatch):
+def test_the_invented_library_gives_the_same_numbers_bit_for_bit(tmp_path):
     """The circuit on the written-out library gives exactly the vectors of ngspice reading the library itself (ngspice's
     own reading is the reference), in both sections."""
     _library(tmp_path)
-    monkeypatch.chdir(tmp_path)
     for section in ("typ", "slow"):
         deck = CIRCUIT.format(lib="lib/invented.lib").replace(" typ\n", f" {section}\n") + ".end\n"
         lean = used_only(deck, str(tmp_path))
-        full_errors, full = _vectors(session, deck, "v(out)", "dec 10 1 1e9")
-        lean_errors, ours = _vectors(session, lean, "v(out)", "dec 10 1 1e9")
-        assert not full_errors and not lean_errors
-        assert np.array_equal(full, ours), section
+        got = _compare(deck, lean, "v(out)", "dec 10 1 1e9", tmp_path)
+        assert got["errors"] == [] and got["points"] == 91 and got["same"], section  # 10 points a decade, 1 Hz to 1 GHz, both ends
 
 
 @pytest.mark.ngspice
-def test_the_official_sky130_section_gives_the_same_numbers_from_a_third_of_the_cards(tmp_path, session):
+def test_the_official_sky130_section_gives_the_same_numbers_from_a_third_of_the_cards(tmp_path):
     """A sky130 amplifier reading the official tt corner section (171 files) gives bit for bit ngspice's own vectors
     when only the cards and cells it uses are written out: its two MOSFET families, the xhigh_po resistor, the MIM
     capacitor, out of every device of the process."""
@@ -163,7 +169,19 @@ def test_the_official_sky130_section_gives_the_same_numbers_from_a_third_of_the_
     assert lean is not None and len(lean) < len(deck) + 3_000_000  # the full section is about 7 MB of text
     assert {"sky130_fd_pr__nfet_01v8", "sky130_fd_pr__pfet_01v8", "sky130_fd_pr__res_xhigh_po_0p35"} <= _names(lean)
     assert "sky130_fd_pr__nfet_g5v0d10v5" not in _names(lean)
-    full_errors, full = _vectors(session, deck, "v(out) v(mid)", "dec 5 1 1e10")
-    lean_errors, ours = _vectors(session, lean, "v(out) v(mid)", "dec 5 1 1e10")
-    assert not full_errors and not lean_errors
-    assert np.array_equal(full, ours)
+    got = _compare(deck, lean, "v(out) v(mid)", "dec 5 1 1e10", tmp_path)
+    assert got["errors"] == [] and got["points"] == 2 * 51 and got["same"]
+
+
+def test_warm_reads_the_libraries_a_netlist_names(tmp_path, monkeypatch):
+    """warm(netlist) reads the three files of the invented library (the .lib section's includes, by relative paths),
+    the ones the first deck of that netlist will need; a netlist that cannot be read is left for later, silently."""
+    from netloop.sim import used_models
+
+    library = _library(tmp_path)
+    netlist = tmp_path / "amp.cir"
+    netlist.write_text(CIRCUIT.format(lib="lib/invented.lib") + ".end\n")
+    monkeypatch.setattr(used_models, "_FILES", {})
+    used_models.warm(str(netlist))
+    assert set(used_models._FILES) == {str(library), str(tmp_path / "lib" / "params" / "shared.inc"), str(tmp_path / "lib" / "cards" / "typ.inc")}
+    used_models.warm(str(tmp_path / "missing.cir"))

@@ -45,6 +45,7 @@ def _sensitivity(rank: int, s: Sensitivity) -> dict:
         "value": s.value,
         "location": f"{k.location.file}:{k.location.line}",
         "keeps_operating_point": k.keeps_operating_point,
+        "reload": k.reload or None,
     }
     for figure in FIGURES:
         slope = s.slope(figure)

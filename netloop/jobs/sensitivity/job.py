@@ -26,7 +26,7 @@ from netloop.jobs.measure import (
 from netloop.jobs.sensitivity.edit import changed_netlist
 from netloop.jobs.sensitivity.knobs import Knob, find_knobs, select_knobs
 from netloop.jobs.sensitivity.records import Sensitivity, SensitivityRun, WhatIf
-from netloop.jobs.sensitivity.remeasure import Remeasure
+from netloop.jobs.sensitivity.remeasure import Copies, Remeasure
 from netloop.jobs.sensitivity.slopes import slopes_of
 from netloop.jobs.sensitivity.spread import SPREAD_MIN_SECONDS, spread_slopes
 from netloop.jobs.sensitivity.whatif import figure_of, solve_knob
@@ -182,23 +182,37 @@ def _remeasure(loop: _Loop, nominal: LoopResult, jobs: list[SimJob]) -> Remeasur
         job = probe_job(probed, (), timeout_s=loop.timeout_s)
     analysis = nominal.analysis
     return Remeasure(job, probed.vectors, loop.method, loop.sweep, loop.open_loop_rhp_poles, windows_of(analysis),
-                     analysis.nyquist.stable, analysis.floor_db)
+                     analysis.nyquist.stable, analysis.floor_db, Copies(loop.netlist, loop.at, loop.driver, loop.timeout_s))
 
 
 def _slopes(remeasure: Remeasure, sim: Simulator, knobs: tuple[Knob, ...], step: float, workers: int | None) -> tuple[tuple[Sensitivity, ...], int]:
-    """Every knob's slopes here, or spread over Dask workers when asked or when one process would take long."""
+    """Every knob's slopes here, or spread over Dask workers when asked or when one process would take long.
+
+    The knobs ngspice changes in place go first, on the measured loop's loaded circuit; those that need
+    an edited copy read again (Knob.reload) go last, so the loaded circuit is left once. The time of the
+    first knob of each kind judges the rest."""
     if not knobs:
         return (), 1
+    ordered = (*(k for k in knobs if k.in_place), *(k for k in knobs if not k.in_place))
     if workers is None or workers > 1:
-        first = time.perf_counter()
-        head = slopes_of(remeasure, sim, knobs[:1], step)
-        seconds = time.perf_counter() - first
-        rest = knobs[1:]
-        if rest and (workers is not None or seconds * len(rest) > SPREAD_MIN_SECONDS):
+        head: list[Sensitivity] = []
+        estimate = 0.0
+        for group in ([k for k in ordered if k.in_place], [k for k in ordered if not k.in_place]):
+            if group:
+                first = time.perf_counter()
+                head.extend(slopes_of(remeasure, sim, group[:1], step))
+                estimate += (time.perf_counter() - first) * (len(group) - 1)
+        done = {s.knob for s in head}
+        rest = tuple(k for k in ordered if k not in done)
+        if rest and (workers is not None or estimate > SPREAD_MIN_SECONDS):
             spread, used = spread_slopes(remeasure, rest, step, workers)
-            return (*head, *spread), used
-        return (*head, *slopes_of(remeasure, sim, rest, step)), 1
-    return slopes_of(remeasure, sim, knobs, step), 1
+            found, count = (*head, *spread), used
+        else:
+            found, count = (*head, *slopes_of(remeasure, sim, rest, step)), 1
+    else:
+        found, count = slopes_of(remeasure, sim, ordered, step), 1
+    by_knob = {s.knob: s for s in found}
+    return tuple(by_knob[k] for k in knobs), count
 
 
 def _targets(ranked: tuple[Sensitivity, ...], chosen: tuple[Knob, ...], figure: str, top: int) -> tuple[Sensitivity, ...]:

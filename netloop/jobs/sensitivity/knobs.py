@@ -7,8 +7,10 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 
 from netloop.errors import NetloopError
-from netloop.netlist import Element, Netlist, SourceLocation
-from netloop.probe.scope import primitive_elements
+from netloop.netlist import Element, Netlist, SourceLocation, parse_value
+from netloop.netlist.devices import WrapperSize, wrapper_sizes
+from netloop.netlist.model import Directive, Subcircuit
+from netloop.probe.scope import find_definition, primitive_elements
 from netloop.sim import Alter
 
 __all__ = ["Knob", "find_knobs", "select_knobs"]
@@ -37,6 +39,12 @@ class Knob:
     unit         its SI unit ("F", "ohm", "m", "S", "V/V"; "" for a multiplier).
     token        the index in the element's tokens that holds the value (None: the card does not write it).
     location     where the element is written (inside a subcircuit definition for an instance's element).
+    reload       "" for a value ngspice changes on the loaded circuit; else why a change needs the netlist
+                 read again (a size of a process device wrapper: the wrapper derives its device's other
+                 values from it when ngspice reads the instance), and each change is an edited copy.
+    written      for a reloaded knob, its value as the card (or the wrapper's default) gives it, in its
+                 SI unit (``.option scale`` applied to a width or length); None when it is no plain number.
+    default      for a reloaded knob the card does not write, the wrapper's default as written (``1``).
     """
 
     element: str
@@ -46,6 +54,9 @@ class Knob:
     unit: str
     token: int | None
     location: SourceLocation
+    reload: str = ""
+    written: float | None = None
+    default: str = ""
 
     @property
     def name(self) -> str:
@@ -56,6 +67,11 @@ class Knob:
     def keeps_operating_point(self) -> bool:
         """A capacitor or an inductor carries no DC current or voltage drop: changing it leaves the operating point."""
         return self.parameter in ("capacitance", "inductance")
+
+    @property
+    def in_place(self) -> bool:
+        """Whether ngspice changes this value on the loaded circuit (else each change is an edited copy of the netlist)."""
+        return not self.reload
 
     def alter(self, scale: float) -> Alter:
         """The simulator's change that multiplies this value by ``scale`` on the loaded circuit."""
@@ -86,10 +102,15 @@ def find_knobs(netlist: Netlist) -> tuple[Knob, ...]:
     """Every knob of the netlist, in netlist order, each instance's elements separately.
 
     Resistors, capacitors and inductors (their value), linear E, G, F, H sources (their gain), and
-    MOSFETs (W and L; the multiplier m where the card writes one). Transistors wrapped in device
-    subcircuits (as process libraries write them) and other devices are not knobs.
+    MOSFETs (W and L; the multiplier m where the card writes one). For an X instance of a process
+    device wrapper (netloop.netlist.devices: one transistor or diode and its models), the wrapper's
+    size parameters (wrapper_sizes: those it hands to the device's width, length, fingers or
+    multiplier, and device counts its models multiply with them) and ngspice's instance multiplier
+    ``m``; these need the netlist read again (Knob.reload). Parameters of ordinary subcircuit
+    instances are not knobs (the elements inside each instance are), nor other devices.
     """
     out: list[Knob] = []
+    scale = _option_scale(netlist)
     for scope, e in primitive_elements(netlist, frozenset(netlist.globals)):
         kind = e.kind
         if kind in _VALUES and (kind in "RCL" or _value_token(e) is not None):
@@ -101,7 +122,62 @@ def find_knobs(netlist: Netlist) -> tuple[Knob, ...]:
                 if key == "m" and token is None:
                     continue  # a multiplier only where the card writes one (W covers the rest)
                 out.append(Knob(scope.label(e), key, scope.flat_element(e), quantity, unit, token, e.location))
+        elif kind == "X":
+            wrapper = find_definition(netlist, scope.definitions, e.model or "")
+            if wrapper is not None:
+                out.extend(_wrapper_knobs(scope.label(e), scope.flat_element(e), e, wrapper, scale))
     return tuple(out)
+
+
+# a wrapper size's role (the device parameter it sets) -> what it is, SI unit, scaled by .option scale
+_ROLES = {"w": ("width", "m", True), "l": ("length", "m", True), "nf": ("fingers", "", False), "m": ("multiplier", "", False),
+          "area": ("area factor", "", False), "": ("device count in the models' mismatch terms", "", False)}
+
+
+def _wrapper_knobs(label: str, device: str, e: Element, wrapper: Subcircuit, scale: float) -> list[Knob]:
+    """The sizes of one instance of a device wrapper (wrapper_sizes), and ngspice's own multiplier ``m`` when the card writes it.
+
+    Width and length are knobs always (from the wrapper's default when the card does not write them);
+    fingers, multipliers and counts only where the X card writes them, as a MOSFET card's m."""
+    sizes = list(wrapper_sizes(wrapper))
+    if not any(s.name == "m" for s in sizes):
+        sizes.append(WrapperSize("m", "1", "m"))  # ngspice multiplies every element of an instance by m
+    why = (f"a size of the device wrapper {wrapper.name}, applied when ngspice reads the instance "
+           "(the wrapper derives its device's other values from it): each change is an edited copy of the netlist, read again")
+    out = []
+    for size in sorted(sizes, key=lambda z: tuple(_ROLES).index(z.role)):
+        token = _size_token(e, size.name)
+        if token is None and size.role not in ("w", "l"):
+            continue
+        quantity, unit, scaled = _ROLES[size.role]
+        text = e.tokens[token].partition("=")[2] if token is not None else size.default
+        try:
+            written = parse_value(text.strip()) * (scale if scaled else 1.0)
+        except NetloopError:
+            written = None  # an expression: the what-if scales it as written, but its value is not known here
+        out.append(Knob(label, size.name, device, quantity, unit, token, e.location, why, written, "" if token is not None else size.default))
+    return out
+
+
+def _option_scale(netlist: Netlist) -> float:
+    """``.option scale=`` as the netlist sets it (sky130's models: 1u, sizes written in microns), else 1."""
+    scale = 1.0
+    for s in _directives(netlist.statements):
+        if s.keyword in (".option", ".options", ".opt"):
+            for word in s.text.split()[1:]:
+                key, eq, value = word.partition("=")
+                if eq and key.strip().lower() == "scale":
+                    try:
+                        scale = parse_value(value.strip())
+                    except NetloopError:
+                        pass
+    return scale
+
+
+def _directives(statements):
+    for s in statements:
+        if isinstance(s, Directive):
+            yield s
 
 
 def select_knobs(knobs: tuple[Knob, ...], names: Iterable[str]) -> tuple[Knob, ...]:
@@ -119,6 +195,6 @@ def select_knobs(knobs: tuple[Knob, ...], names: Iterable[str]) -> tuple[Knob, .
             close = difflib.get_close_matches(name, sorted({k.name for k in knobs} | {k.element for k in knobs}), n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
             raise NetloopError(f"{raw!r} is not a value netloop can change in this netlist (an R, C, L, a linear E/G/F/H gain, "
-                               f"or a MOSFET's W, L or m written ELEMENT:w){hint}")
+                               f"a MOSFET's W, L or m, or a process device wrapper's size, written ELEMENT:w){hint}")
         chosen.extend(k for k in hits if k not in chosen)
     return tuple(chosen)

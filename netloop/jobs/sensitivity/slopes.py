@@ -30,8 +30,8 @@ def knob_slopes(remeasure: Remeasure, simulator: Simulator, knob: Knob, step: fl
     try:
         for k in STEPS:
             scale = math.exp(k * step)
-            reading = remeasure.read(simulator, (knob.alter(scale),))
-            value = reading.loaded.get(knob.alter(scale).ref, value)
+            reading = remeasure.read(simulator, knob, scale)
+            value = reading.loaded.get(knob.alter(scale).ref, value) if knob.in_place else knob.written
             probes.append(Probe(scale, reading.figures, reading.whole_sweep))
     except SimulationError as exc:
         return Sensitivity(knob, value, _NONE, _NONE, _NONE, _NONE, tuple(probes), f"the simulation failed: {exc.message}")

@@ -69,7 +69,7 @@ class _Figure:
         if phi not in self.seen:
             factor = math.exp(phi)
             try:
-                analysis = self.remeasure.whole(self.simulator, (self.knob.alter(factor),), label=f"{self.knob.name} x{factor:.4g}")[0]
+                analysis = self.remeasure.whole(self.simulator, self.knob, factor, label=f"{self.knob.name} x{factor:.4g}")[0]
             except SimulationError as exc:
                 self.failure = self.failure or f"the simulation failed at {factor:.4g}x: {exc.message}"
                 analysis = None

@@ -66,7 +66,7 @@ def test_the_written_value_measures_as_the_altered_one():
         remembering = _Remembering(sim)
         loop = _Loop(netlist, "out", None, "tian", Sweep(), 0, 600.0)
         nominal = loop.measure(netlist, remembering, ())
-        altered, loaded = _remeasure(loop, nominal, remembering.jobs).whole(sim, (knob.alter(1.3),))
+        altered, loaded = _remeasure(loop, nominal, remembering.jobs).whole(sim, knob, 1.3)
         written = measure(changed_netlist(netlist, knob, 1.3, loaded[knob.alter(1.3).ref])[0], "out", simulator=sim)
     assert loaded == {"@cc[capacitance]": pytest.approx(1.2e-12)}
     assert written.analysis.margins.phase_margin_deg == pytest.approx(altered.margins.phase_margin_deg, abs=1e-9)
