@@ -116,13 +116,15 @@ def main() -> None:
         load_before = os.getloadavg()
         runs: dict[int, list] = {1: [], 2: []}
         with contextlib.ExitStack() as stack:
-            clients, addresses = {}, {}
+            clients, addresses, startup = {}, {}, {}
             for workers in (1, 2):
+                started = time.perf_counter()
                 cluster = stack.enter_context(local_cluster(workers))  # as `netloop yield --workers N` starts it
                 clients[workers] = stack.enter_context(Client(cluster))
                 clients[workers].wait_for_workers(workers)
                 clients[workers].run(_warm)  # each worker's ngspice started before the clock starts
                 addresses[workers] = cluster.scheduler_address
+                startup[workers] = time.perf_counter() - started
             for i in range(args.repeat):
                 for workers in ((1, 2) if i % 2 == 0 else (2, 1)):  # taking turns: a burst of other work hits both counts
                     runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
@@ -155,6 +157,8 @@ def main() -> None:
         print(f"CPU time on 1 worker: ngspice processes {cpu_ngspice:.2f} s; the Dask worker (netloop's measurement and Dask) "
               f"{cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} % of ngspice's; the calling process (plan, results file, "
               f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} %")
+        print(f"not counted above, once per run: starting the local cluster and its ngspice, {startup[1]:.1f} s for 1 worker, "
+              f"{startup[2]:.1f} s for 2")
         print(f"T of every sample the same on 1 and 2 workers, bit for bit: {all(same)} ({sum(same)} of {len(same)})")
 
 

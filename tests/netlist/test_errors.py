@@ -99,3 +99,16 @@ def test_instance_with_the_wrong_number_of_nodes():
     head, line, caret = str(info.value).splitlines()
     assert head == "amp.cir:3:1: X1: subcircuit amp has 2 pins (in out), the card gives 3 nodes"
     assert (line, caret) == ("    X1 a b c amp", "    ^")
+
+
+def test_binary_files_are_refused_at_their_nul_byte(tmp_path):
+    """A netlist or include holding a NUL byte (no SPICE text does) is refused naming the file and the line of the byte,
+    and for an include the including line too; its lines are not echoed (house rule: file:line and what was expected)."""
+    top = tmp_path / "top.cir"
+    top.write_bytes(b"t\nR1 a 0 1\nR2 a\x00 0 1\n")
+    assert _refused(top) == f"{top}:3: not a text netlist: it holds binary bytes (a NUL byte on line 3); give the SPICE netlist file"
+    (tmp_path / "blob.inc").write_bytes(b"\x7fELF\x00\x01")
+    top.write_text("t\nR1 a 0 1\n.include blob.inc\n")
+    blob = tmp_path / "blob.inc"
+    assert _refused(top) == (f"{top}:3:1: {blob}:1: not a text netlist: it holds binary bytes (a NUL byte on line 1); "
+                             "give the SPICE netlist file")

@@ -484,3 +484,24 @@ def test_laplace_and_freq_forms_have_only_output_nodes():
     nl = parse_text("t\nE1 o 0 LAPLACE {V(a)} = {1/(1+s)}\nG1 0 p FREQ {V(a)} = (0,0,0) (1k,-3,-45)\nR1 a b 'x * 2'\n")
     assert nl.element("e1").nodes == ("o", "0") and nl.element("g1").nodes == ("0", "p")
     assert nl.element("r1").tokens == ("a", "b", "'x * 2'")
+
+
+def test_section_definitions_in_the_read_file_are_skipped(tmp_path):
+    """A `.lib NAME` ... `.endl` section in the file being read is only a definition (ngspice manual, .lib): its statements
+    are skipped, and reading goes on after its `.endl`."""
+    top = tmp_path / "top.cir"
+    top.write_text("t\nR1 a 0 1k\n.lib tt\nR5 x 0 5k\n.control\n.endl\n.endc\n.ENDL tt\nR2 a 0 2k\n")
+    nl = parse_file(top)
+    assert [e.name for e in nl.elements] == ["R1", "R2"] and nl.ignored == () and nl.warnings == ()
+
+
+def test_text_without_a_file(tmp_path, monkeypatch):
+    """parse_text reads no file: the source is "<string>" (or the name given), files lists none but a named source, includes
+    resolve against the current folder when no base_dir is given, and empty text has an empty title."""
+    (tmp_path / "p.inc").write_text("R2 b 0 2k\n")
+    monkeypatch.chdir(tmp_path)
+    nl = parse_text("t\n.include p.inc\nR1 a b 1k\n")
+    assert (nl.source, nl.files, [e.name for e in nl.elements]) == ("<string>", (str(tmp_path / "p.inc"),), ["R2", "R1"])
+    named = parse_text("t\nR1 a b 1k\n", source="amp.cir")
+    assert (named.source, named.files) == ("amp.cir", ("amp.cir",))
+    assert parse_text("").title == ""
