@@ -90,3 +90,18 @@ def test_wrapper_sizes_follow_the_wrappers_own_text():
     assert [(s.name, s.role) for s in wrapper_sizes(netlist.subcircuit("nw"))] == [("l", "l"), ("w", "w"), ("nf", "nf"), ("mult", "")]
     assert [(s.name, s.default, s.role) for s in wrapper_sizes(netlist.subcircuit("dw"))] == [("area", "1", "area")]
     assert wrapper_sizes(netlist.subcircuit("block")) == ()
+
+
+def test_wrapper_sizes_are_read_from_the_wrapper_itself():
+    """An invented nfet wrapper (the shape of sky130's, read by hand): w, l and nf are handed to the device, so they are
+    sizes with those roles; cnt multiplies w and l in the mismatch term of a .param line, and mult in a quoted one of the
+    model card, so both are sizes with no device role; ad (a device parameter that is no size), sa (unused) and the derived
+    wl are not; each size keeps its declared default."""
+    from netloop.netlist.devices import WrapperSize, wrapper_sizes  # noqa: PLC0415
+
+    text = ("t\n.subckt nw d g s b w=1 l=0.15 nf=2 mult=1 cnt=3 ad=0 sa=0\n.param wl = {w*l}\n.param dvt = {0.01/sqrt(l*w*cnt)}\n"
+            "M1 d g s b nmod w={w} l={l} nf={nf} ad={ad}\n.model nmod nmos vth0='0.4 + 0.02/sqrt(w*l*mult)'\n.ends nw\n")
+    assert wrapper_sizes(parse_text(text).subcircuit("nw")) == (
+        WrapperSize("w", "1", "w"), WrapperSize("l", "0.15", "l"), WrapperSize("nf", "2", "nf"), WrapperSize("cnt", "3", ""),
+        WrapperSize("mult", "1", ""))
+    assert wrapper_sizes(parse_text(DEFS).subcircuit("resistor")) == ()  # no wrapper, no sizes
