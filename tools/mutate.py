@@ -140,7 +140,8 @@ def main(argv: list[str] | None = None) -> int:
         else:
             previous = ROOT / ".mutate" / package
             judged = equivalent.get(package, {})  # not tested again: a judged-equivalent mutant survives every test by definition
-            survivors = ([n for n, v in verdicts(previous).items() if v not in KILLED and n not in judged]
+            # "not checked" mutants are tested by the first run below anyway: naming them would test them twice
+            survivors = ([n for n, v in verdicts(previous).items() if v not in KILLED and v != "not checked" and n not in judged]
                          if args.again and (previous / "mutants").is_dir() else [])
             work = prepare(package, fresh=not args.again)
             _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)
