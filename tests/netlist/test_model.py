@@ -46,7 +46,7 @@ def test_lookups_ignore_case_and_suggest_close_names(lookup, name, message):
 
 @pytest.mark.parametrize("fresh", [False, True], ids=["module", "built-here"])
 @pytest.mark.parametrize("toks", [["R1", "A", "Out", "1k"], ["C2", "x", "0", "1p", "ic=0"]])
-def test_fast_two_terminal_records_equal_the_dataclass_ones(fresh, toks):
+def test_two_terminal_constructor_called_in_the_test_makes_the_dataclass_records(fresh, toks):
     """The slot-setting constructor makes exactly the Element and SourceLocation that the dataclass constructors make."""
     # built inside the test, not at collection: the constructor runs once at import, and a mutation tool that
     # switches mutants after importing the tests reaches the constructor's body only through a call made here
