@@ -3,6 +3,7 @@
     .venv/bin/python tools/mutate.py analysis           # what `make mutate PKG=analysis` runs
     .venv/bin/python tools/mutate.py netlist --jobs 2   # two mutants at a time (default 1: the machine is shared)
     .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts: test new or changed mutants and the survivors
+                                                        # (not those judged equivalent in tools/mutate_equivalent.json)
 
 Each package is mutated in its own copy of the repository under .mutate/PKG (mutmut reads its settings
 from the pyproject.toml of the folder it runs in, so each copy gets its own [tool.mutmut] table: which
@@ -126,7 +127,7 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("packages", nargs="*", metavar="PKG", help=f"one or more of {', '.join(PACKAGES)} (default: all, one after the other)")
     parser.add_argument("--jobs", type=int, default=1, help="mutants tested at a time (default 1)")
-    parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants and its survivors")
+    parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants and its survivors not judged equivalent")
     parser.add_argument("--report", action="store_true", help="only print the last run's figures")
     args = parser.parse_args(argv)
     unknown = [p for p in args.packages if p not in PACKAGES]
@@ -138,7 +139,9 @@ def main(argv: list[str] | None = None) -> int:
             work = ROOT / ".mutate" / package
         else:
             previous = ROOT / ".mutate" / package
-            survivors = [n for n, v in verdicts(previous).items() if v not in KILLED] if args.again and (previous / "mutants").is_dir() else []
+            judged = equivalent.get(package, {})  # not tested again: a judged-equivalent mutant survives every test by definition
+            survivors = ([n for n, v in verdicts(previous).items() if v not in KILLED and n not in judged]
+                         if args.again and (previous / "mutants").is_dir() else [])
             work = prepare(package, fresh=not args.again)
             _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)
             if survivors:  # mutmut keeps a verdict unless the mutant is named: name the survivors to test them again

@@ -35,7 +35,8 @@ def _minus_closed_loop(t):
     t = np.asarray(t, dtype=complex)
     den = 1.0 + t
     out = np.full(t.shape, -np.inf)
-    np.divide(-np.abs(t), np.abs(den), out=out, where=den != 0.0)
+    with np.errstate(invalid="ignore", over="ignore"):  # inf / inf where |T| overflowed: NaN, never the extremum
+        np.divide(-np.abs(t), np.abs(den), out=out, where=den != 0.0)
     return out
 
 

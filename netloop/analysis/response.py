@@ -120,7 +120,8 @@ class Response:
 
     def t_at(self, x) -> np.ndarray:
         """Interpolated complex T at x = log10 f."""
-        return 10.0 ** (self.gain_spline(x) / 20.0) * np.exp(1j * np.radians(self.phase_spline(x)))
+        with np.errstate(over="ignore", invalid="ignore"):  # |T| beyond 1e308 (a gain of 1e300 in a netlist) is inf, said elsewhere
+            return 10.0 ** (self.gain_spline(x) / 20.0) * np.exp(1j * np.radians(self.phase_spline(x)))
 
     def dense_x(self, per_interval: int = 16) -> np.ndarray:
         """A grid in log10 f with per_interval points in each sample interval (samples included)."""

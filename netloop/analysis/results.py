@@ -328,9 +328,9 @@ class LoopAnalysis:
 
         f = np.asarray(self.freq_hz, dtype=float)
         t = np.asarray(self.t, dtype=complex)
-        if self.nyquist.origin_poles != 0 or f.size < 3 or t[0] == 0:
+        if self.nyquist.origin_poles != 0 or f.size < 3 or not np.all(np.abs(t[:3]) > 0):
             return False
-        _, slope = low_frequency_slope(np.log10(f), 20.0 * np.log10(np.abs(t)))
+        _, slope = low_frequency_slope(np.log10(f[:3]), 20.0 * np.log10(np.abs(t[:3])))
         off_axis = abs(math.degrees(math.atan(t[0].imag / t[0].real))) if t[0].real != 0 else 90.0
         coupled = abs(t[0]) > 1.0 and t[0].real > 0 and math.degrees(math.atan2(t[0].imag, t[0].real)) > AC_COUPLING_LEAD_DEG
         return abs(slope) <= DC_FLAT_DB_PER_DEC and off_axis <= DC_FLAT_DEG and not coupled

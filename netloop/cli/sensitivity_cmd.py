@@ -60,7 +60,8 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--at", type=node_name, required=True, metavar="NODE", help="the node where the loop is broken, as for `netloop check`")
     add_measure_options(parser)
     parser.add_argument("--knob", action="append", default=[], metavar="NAME",
-                        help="a value to try: an element (cc, xa1.rz) or a transistor size (m6:w, xa1.m3:l) (repeatable; default: every one)")
+                        help="a value to try: an element (cc, xa1.rz) or a transistor size (m6:w, xa1.m3:l; a wrapped process device's "
+                             "xop.xm6:w) (repeatable; default: every one)")
     parser.add_argument("--solve", action="append", default=[], metavar="NAME",
                         help="with --require: the knob whose value is solved for (repeatable; default: the --top ranked ones)")
     parser.add_argument("--top", type=positive, default=3, metavar="N", help="with --require: solve for the N knobs that move the requirement's figure most (default 3)")

@@ -83,10 +83,12 @@ def _fail(what: str, text: str, loc: SourceLocation, col: int | None = None) -> 
 
 
 def _poly_order(tok: str) -> int | None:
+    """n of a ``POLY(n)`` token; None for anything else, such as a node named poly2 (ngspice 39 reads
+    ``E1 o 0 poly2 0 10`` as a linear source controlled by the node poly2)."""
     t = tok.lower()
-    if not t.startswith("poly"):
+    if not (t.startswith("poly(") and t.endswith(")")):
         return None
-    digits = t[4:].strip("()")
+    digits = t[5:-1]
     return int(digits) if digits.isdigit() else None
 
 

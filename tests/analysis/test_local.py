@@ -75,3 +75,23 @@ def test_a_crossover_that_leaves_its_window_is_flagged():
 def test_a_loop_without_crossover_has_no_windows():
     """A loop that never reaches 0 dB has nothing to follow: no windows (the caller measures whole sweeps)."""
     assert windows_of(analyse(F, three_pole(F, gain=0.5))) == ()
+
+
+def test_a_reading_the_windows_cannot_support_says_why():
+    """Windows read from samples that cannot carry the figures fail with the reason and the window's edges, never with
+    numbers: no sample at the bottom or at the peak, fewer than 4 samples in a window, or a window holding another number
+    of crossovers than the measured loop had there (a second pole moved 30-fold, three-pole closed form)."""
+    a = analyse(F, three_pole(F))
+    windows = windows_of(a)
+    f, t = _samples(windows, 1e6)
+    crossing, peak, bottom = windows[0], windows[2], windows[3]
+    read = lambda keep, tt=None: read_windows(windows, f[keep], (t if tt is None else tt)[keep], stable=True, floor_db=-120).problem  # noqa: E731
+    assert read(~bottom.holds(f)) == "no sample at the bottom of the sweep"
+    assert read(~peak.holds(f)) == f"no sample at the closed-loop peak ({peak.fstart_hz:.6g} Hz)"
+    sparse = ~crossing.holds(f) | (np.cumsum(crossing.holds(f)) <= 3)
+    assert read(sparse) == f"fewer than 4 samples between {crossing.fstart_hz:.6g} and {crossing.fstop_hz:.6g} Hz"
+    everywhere = np.ones(f.size, dtype=bool)
+    moved = three_pole(f, 3e7)  # the loop's crossover leaves the window (and GM's phase crossover moves up)
+    assert read(everywhere, moved) == (f"0 gain crossover(s) between {crossing.fstart_hz:.6g} and {crossing.fstop_hz:.6g} Hz, "
+                                       "where the measured loop had 1")
+    assert read_windows(windows, f, t, stable=True, floor_db=-120).problem is None

@@ -123,15 +123,18 @@ def test_nan_or_infinite_samples_raise_analysis_error(bad):
 @pytest.mark.parametrize(
     "freq,t,message",
     [
-        ([1, 2, 3], [1, 1, 1], "at least 4"),
-        ([1, 3, 2, 4], [1, 1, 1, 1], "strictly ascending"),
-        ([0, 1, 2, 3], [1, 1, 1, 1], "positive"),
-        ([1, 2, 3, 4], [1, 1, 1], "T has 3"),
-        ([[1, 2], [3, 4]], [[1, 1], [1, 1]], "one-dimensional"),
+        ([1, 2, 3], [1, 1, 1], r"^need at least 4 frequency samples to analyse a loop, got 3$"),
+        ([1, 3, 2, 4], [1, 1, 1, 1], r"^frequencies must be strictly ascending: sample 2 \(2 Hz\) follows 3 Hz$"),
+        ([0, 1, 2, 3], [1, 1, 1, 1], r"^frequencies must be finite and positive \(Hz\)$"),
+        ([1, 2, float("inf"), 4], [1, 1, 1, 1], r"^frequencies must be finite and positive \(Hz\)$"),
+        ([1, 2, 3, 4], [1, 1, 1], r"^freq_hz has 4 samples but T has 3; expected one T per frequency$"),
+        ([[1, 2], [3, 4]], [[1, 1], [1, 1]], r"^expected one-dimensional arrays, got freq_hz of shape \(2, 2\) and T of shape \(2, 2\)$"),
+        (["1", "2", "x", "4"], [1, 1, 1, 1], r"^frequencies must be real numbers in Hz: "),
+        ([1, 2, 3, 4], [1, 1, "x", 1], r"^the return ratio T must be complex numbers: "),
     ],
 )
 def test_malformed_data_says_what_was_expected(freq, t, message):
-    """Malformed arrays raise AnalysisError with a message that names the fault."""
+    """Malformed arrays raise AnalysisError with one message that names the fault and what was expected (house rule on bad input)."""
     with pytest.raises(AnalysisError, match=message):
         analyse(freq, t)
 
@@ -204,3 +207,63 @@ def test_unsettled_bottom_claims_no_dc_feedback_sign():
     assert abs(math.degrees(np.angle(a.t[0]))) > 90  # nearer 180 than 0, yet T(0) = 2.5 > 0
     assert not any("positive feedback" in w for w in a.warnings)
     assert all(c.freq_hz > 0 for c in a.phase_crossovers)
+
+
+@pytest.mark.parametrize("loop, lo_hz, is_dc", [
+    (100 / (S + 1), 1e-4, True),  # swept three decades below its pole: flat, phase -0.04 deg
+    (100 / (S / (TWO_PI * 1e-3) + 1), 1e-4, True),  # pole a decade above the bottom: -0.04 dB/decade, -5.7 deg
+    (100 / (S / (TWO_PI * 1e-4) + 1), 1e-4, False),  # pole at the bottom: -3 dB/decade, -45 deg
+    (100 / (S + 1), 10.0, False),  # swept above its pole: -20 dB/decade
+    (-100 / (S + 1), 1e-4, True),  # positive feedback at DC: flat, on the negative real axis
+    (100 / S / (S / 10 + 1), 1e-4, False),  # an integrator: no DC gain at all
+    (100 * S / (S + TWO_PI * 1e-5) / (S / 10 + 1), 1e-4, False),  # AC coupling a decade below the bottom: +5.7 deg of lead
+])
+def test_gain_at_the_bottom_stands_for_dc_only_when_t_is_flat_there(loop, lo_hz, is_dc):
+    """|T| at the lowest frequency is the DC loop gain only without integrators, with T flat there (closed forms of a single
+    pole p at f: slope and phase -atan(f/p); a pole a decade above the bottom leaves -0.04 dB/decade and -5.7 deg, one at the
+    bottom -3 dB/decade and -45 deg) and without an AC coupling's lead (atan(10) - 90 = +5.7 deg a decade above its zero)."""
+    a = analyse(*sample(loop, lo_hz, 1e4), fit_poles=False)
+    assert a.gain_is_dc is is_dc
+
+
+def _db(loop, f_hz: float) -> float:
+    """20 log10 |L(j 2 pi f)| of a python-control transfer function (the closed form the messages quote)."""
+    return 20 * math.log10(abs(complex(loop(TWO_PI * 1j * f_hz))))
+
+
+def test_warnings_quote_their_figures():
+    """Each documented warning is one sentence carrying its figure, here equal to the closed form of the loop it is about:
+    the most |T| reaches for a loop that does not regulate; |T| at the top of a sweep ended too early; the AC coupling
+    whose crossover lies below the sweep; positive feedback at DC."""
+    weak = 0.5 / (S + 1) ** 2
+    a = analyse(*sample(weak, 1e-3, 1e3), fit_poles=False)
+    assert f"the loop gain never reaches 0 dB (at most {_db(weak, 1e-3):.4g} dB): the loop does not regulate" in a.warnings
+    early = 100 / (S + 1)
+    a = analyse(*sample(early, 1e-3, 1e2), fit_poles=False)
+    assert (f"|T| at the top of the sweep ({_db(early, 1e2):.3g} dB at 100 Hz) is not far below 1; extend the sweep until "
+            "it is under -20 dB") in a.warnings
+    coupled = 1e4 * S / (S / 1e3 + 1) ** 2
+    a = analyse(*sample(coupled, 1e-3, 1e5), fit_poles=False)
+    assert "|T| is above 1 at 0.001 Hz but falls toward DC (AC coupling): a crossover lies below the sweep" in a.warnings
+    assert _db(coupled, 1e-3) > 0  # closed form: 1e4 * 2 pi 1e-3 = 63 at the bottom
+    a = analyse(*sample(-5 / (S + 1), 1e-4, 1e4), fit_poles=False)
+    assert "T is negative at low frequency: positive feedback at DC" in a.warnings
+
+
+@pytest.mark.parametrize("p", [-1, 1.5])
+def test_a_given_p_must_be_a_count(p):
+    """P, the open-loop right-half-plane pole count given by the caller, is a whole number >= 0 (a count of poles); anything
+    else is refused with what was expected."""
+    with pytest.raises(AnalysisError, match=rf"^open_loop_rhp_poles must be a whole number >= 0, got {p!r}$"):
+        analyse(*sample(THREE_POLE, 1e-2, 1e2), open_loop_rhp_poles=p)
+    assert analyse(*sample(THREE_POLE, 1e-2, 1e2), open_loop_rhp_poles=2.0, fit_poles=False).nyquist.open_loop_rhp_poles == 2
+
+
+def test_peaking_of_a_loop_below_unity_is_measured_from_0_db():
+    """With |T| < 1 at the bottom there is no regulated level: peaking is |T/(1+T)| itself, from 0 dB. For
+    T = 0.5/(s+1)^2, |T/(1+T)|^2 = 0.25/(2.25 + w^2 + w^4) (closed form) is largest at DC (1/3, -9.54 dB), so over the sweep at its bottom."""
+    a = analyse(*sample(0.5 / (S + 1) ** 2, 1e-3, 1e3), fit_poles=False)
+    assert a.peaking.reference_db == 0.0
+    w = TWO_PI * 1e-3  # the bottom of the sweep, where the sampled curve is largest
+    assert a.peaking.peak_db == a.peaking.absolute_peak_db == pytest.approx(10 * math.log10(0.25 / (2.25 + w**2 + w**4)), abs=1e-6)
+    assert a.peaking.peak_freq_hz == pytest.approx(1e-3, rel=1e-6)  # the bottom of the sweep

@@ -59,3 +59,22 @@ def test_a_closed_loop_pole_inside_the_sweep_is_kept():
     assert p.real == pytest.approx(-(1 + k) * w1, rel=1e-6) and abs(p.imag) <= 1e-6 * abs(p)
     assert abs(p) > 1e3  # 1257 rad/s: a cut-off at f_max read as rad/s (1000) would drop it
     assert poles.agrees_with_nyquist and not notes
+
+
+def test_t_equal_to_minus_one_at_a_sample_is_no_fit():
+    """Where T = -1 exactly, 1/(1+T) has no value: the closed loop has a pole on the imaginary axis there (circuit theory),
+    and no fit is made; the note says so."""
+    f = np.logspace(0, 3, 31)
+    t = 10.0 / (1 + 1j * f / 10.0)
+    t[12] = -1.0
+    assert closed_loop_poles(f, t, nyquist_rhp=0) == (None, (
+        "T equals -1 at a sample: the closed loop has a pole on the imaginary axis; no pole fit",))
+
+
+def test_a_fit_that_disagrees_with_the_nyquist_count_says_both_counts():
+    """A one-pole loop has no right-half-plane closed-loop pole (its one pole is -(1 + K) w1, circuit theory); told that the
+    Nyquist count says 1, the fit disagrees and the note names both counts and the top of the sweep."""
+    f = np.logspace(-2, 3, 101)
+    poles, notes = closed_loop_poles(f, 100.0 / (1 + 2j * math.pi * f / 10.0), nyquist_rhp=1)
+    assert poles.rhp_count == 0 and not poles.agrees_with_nyquist
+    assert "the closed-loop pole fit finds 0 right-half-plane pole(s) below 1000 Hz but the Nyquist count says 1" in notes

@@ -135,3 +135,33 @@ def test_operators_at_equality(op, passes):
     assert a.dc_gain_db == 40.0  # 20 log10(100), exact in binary floating point
     out = parse_requirement(f"dc{op}40").check(a)
     assert out.passed is passes and out.value == 40.0
+
+
+def test_every_metric_reads_its_own_figure(three_pole):
+    """Each metric checks the figure of its name, in its unit, against python-control 0.10 on the three-pole loop 25/(s^3 +
+    10 s^2 + 10 s + 10): pm, gm (20 log10), fc (w/2 pi), mm (stability margin, min |1 + L|), dm (PM in rad / w_gc), dc
+    (20 log10 L(0) = 20 log10 2.5) and peak (max |L/(1+L)| over its value at DC, on python-control's closed loop)."""
+    gm, pm, sm, _, wgc, _ = control.stability_margins(THREE_POLE)  # python-control 0.10
+    w = np.logspace(-3, 2, 20001)
+    closed = np.abs(control.feedback(THREE_POLE, 1)(1j * w))
+    expected = {
+        "pm": (pm, "deg"), "gm": (20 * math.log10(gm), "dB"), "fc": (wgc / (2 * math.pi), "Hz"), "mm": (sm, ""),
+        "dm": (math.radians(pm) / wgc, "s"), "dc": (20 * math.log10(2.5), "dB"),
+        "peak": (20 * math.log10(closed.max() / closed[0]), "dB"),
+    }
+    for metric, (value, unit) in expected.items():
+        out = parse_requirement(f"{metric}>=-1e9").check(three_pole)
+        assert out.value == pytest.approx(value, rel=1e-3, abs=1e-6), metric
+        assert out.passed and out.reason.startswith(f"{metric}>=-1e9: passes, ")
+        assert out.reason.endswith(f" is {out.value:.6g}" + (f" {unit}" if unit else "")), out.reason
+        assert not parse_requirement(f"{metric}<-1e9").check(three_pole).passed
+
+
+def test_a_requirement_that_is_not_text_is_refused_with_the_whole_expected_form():
+    """A number given where requirement text belongs (say from a plan's TOML) is refused by one message that quotes it and
+    lists every metric and operator (house rule: what was expected)."""
+    with pytest.raises(PlanError) as info:
+        parse_requirement(60)
+    assert str(info.value) == ("cannot read requirement '60': it is not text; expected METRIC OP VALUE such as 'pm>=60', "
+                               "'fc>100MHz' or 'dm>=1ns', with METRIC one of pm, gm, lgm, fc, mm, dm, dc, peak and OP one of "
+                               ">= <= > <")

@@ -84,3 +84,19 @@ def test_overdamped_estimate_has_no_overshoot_or_peak():
     est = second_order_estimate(phase_margin_from_damping(1.5))
     assert est.damping_ratio == pytest.approx(1.5)
     assert est.overshoot_pct == 0.0 and est.resonant_peak_db is None
+
+
+def test_overdamped_and_unpeaked_estimates():
+    """Above PM = 76.35 deg (zeta = 1, closed form: atan(2 sqrt(sqrt(5) + 2))) the second-order loop is overdamped: no
+    overshoot; between 65.5 deg (zeta = 1/sqrt(2)) and there it overshoots but has no resonant peak (textbook relations in
+    the module docstring); PM outside (0, 90) has no second-order equivalent."""
+    zeta_one = math.degrees(math.atan(2 * math.sqrt(math.sqrt(5) + 2)))  # PM of zeta = 1, closed form
+    over = second_order_estimate(zeta_one + 3.0)
+    assert over.damping_ratio > 1.0 and over.overshoot_pct == 0.0 and over.resonant_peak_db is None
+    zeta = 0.8  # between 1/sqrt(2) and 1
+    mid = second_order_estimate(phase_margin_from_damping(zeta))
+    assert mid.overshoot_pct == pytest.approx(100 * math.exp(-math.pi * zeta / math.sqrt(1 - zeta**2)), rel=1e-9)
+    assert mid.resonant_peak_db is None
+    assert second_order_estimate(None) is None and second_order_estimate(90.0) is None and second_order_estimate(0.0) is None
+    with pytest.raises(ValueError, match=r"^a second-order loop has a phase margin in \(0, 90\) deg, not 95"):
+        damping_from_phase_margin(95.0)

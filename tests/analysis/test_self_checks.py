@@ -58,3 +58,33 @@ def test_a_t_that_levels_off_fails_falls_at_top():
     assert "falls-at-top" in failed and "path around the probe" in failed["falls-at-top"].detail
     assert "nyquist-data" not in failed  # the top of the sweep is falls-at-top's, said once
     assert a.classification == "inconclusive"
+
+
+@pytest.mark.parametrize("loop, lo_hz, ppd, words, flag", [
+    (100 / (S / (2 * np.pi * 1e-2) + 1) / (S / 10 + 1), 1e-2, 20, "start the sweep lower", "--fmin"),  # starts on a pole
+    (0.01 / S / (S / 10 + 1), 1e-2, 20, "a crossover lies below the sweep", "--fmin"),  # integrator, |T| = 0.16 at the bottom
+    (1e4 / (S**2 / 100 + 0.002 * S + 1) / (S / 1e3 + 1), 1e-2, 2, "sample more densely", "--ppd"),  # Q = 500, 2 per decade
+])
+def test_a_doubtful_count_says_what_to_change(loop, lo_hz, ppd, words, flag):
+    """When the Nyquist count is doubtful, nyquist-data fails with every reason given, and its advice names the option
+    that does what the reason asks (a lower --fmin for a bottom that is not settled, a higher --ppd for coarse data)."""
+    a = analyse(*sample(loop, lo_hz, 1e5, per_decade=ppd), fit_poles=False)
+    (check,) = [c for c in a.checks if c.name == "nyquist-data"]
+    assert not check.passed and words in check.detail and flag in check.advice
+    assert check.detail == "the Nyquist count is doubtful: " + "; ".join(r for r in a.nyquist.reasons if "top of the sweep" not in r and "the sweep ends at" not in r)
+    assert a.classification == "inconclusive"
+
+
+def test_the_rhp_count_check_shows_its_sum_and_where_p_came_from():
+    """rhp-count shows Z = N + P with its terms and says where P came from: read from the data (the fit), given, or assumed
+    0 without the fit; a negative Z (here T = 30/((s - 1)(s/10 + 1)), whose one RHP pole is told away) says P does not fit."""
+    loop = 30.0 / ((S - 1) * (S / 10 + 1))  # N = -1 (one counter-clockwise turn), P = 1 (numpy.roots of the denominator)
+    details = {}
+    for how, kwargs in (("read from the data", {}), ("given", {"open_loop_rhp_poles": 1}), ("assumed", {"fit_poles": False})):
+        (check,) = [c for c in analyse(*sample(loop, 1e-4, 1e4), **kwargs).checks if c.name == "rhp-count"]
+        details[how] = (check.passed, check.detail)
+    assert details["read from the data"] == (True, "Z = N + P = -1 + 1 = 0 (P read from the data)")
+    assert details["given"] == (True, "Z = N + P = -1 + 1 = 0 (P given)")
+    passed, detail = details["assumed"]
+    assert not passed and detail.startswith("Z = N + P = -1 + 0 = -1 is negative, which no circuit has: P = 0 open-loop "
+                                            "right-half-plane pole(s) (assumed) does not fit this data")

@@ -255,13 +255,21 @@ def test_binary_junk_and_terminal_escapes_never_reach_the_terminal(inputs, capsy
 
 
 @pytest.mark.ngspice
-def test_a_gain_of_1e300_leaks_no_numpy_warning(tmp_path, capsys):
-    """A controlled source of gain 1e300 (issue 15.13) leaves samples whose T is not finite: every loop measured gives an
-    INCONCLUSIVE verdict (exit 3), and no numpy RuntimeWarning reaches the terminal (filterwarnings = error would also
-    turn one into a traceback)."""
+@pytest.mark.parametrize(("element", "argv", "status"), [
+    ("e1 a 0 in fb 1e300", ["check"], 3),
+    ("c1 out 0 1e300", ["check", "--at", "fb"], 3),
+    ("c1 out 0 1e300", ["check"], 3),
+])
+def test_values_of_1e300_leak_no_numpy_warning(tmp_path, capsys, element, argv, status):
+    """A gain of 1e300 (|T| beyond what a float holds once squared) or a capacitor of 1e300 F (T exactly 0 at the
+    bottom of the sweep) in a netlist (issue 15.13): the loop is INCONCLUSIVE (exit 3), and no numpy RuntimeWarning
+    reaches the terminal (filterwarnings = error would also turn one into a traceback)."""
     path = tmp_path / "big.cir"
-    path.write_text("loop with an absurd gain\nvin in 0 dc 0.9\ne1 a 0 in fb 1e300\nr1 a out 1k\nc1 out 0 1n\n"
-                    "rf out fb 1k\nrg fb 0 1k\n.end\n")
-    assert _run(["check", str(path)]) == 3
+    text = "loop with an absurd value\nvin in 0 dc 0.9\ne1 a 0 in fb 1000\nr1 a out 1k\nc1 out 0 1n\nrf out fb 1k\nrg fb 0 1k\n.end\n"
+    card = element.split()[0] + " "
+    text = "\n".join(element if line.startswith(card) else line for line in text.split("\n"))
+    assert element in text
+    path.write_text(text)
+    assert _run([argv[0], str(path), *argv[1:]]) == status
     captured = capsys.readouterr()
-    assert captured.out.startswith("INCONCLUSIVE  ") and "Warning" not in captured.err and "Traceback" not in captured.err
+    assert "INCONCLUSIVE" in captured.out and "Warning" not in captured.err and "Traceback" not in captured.err

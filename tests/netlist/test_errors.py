@@ -61,10 +61,13 @@ def test_continuation_with_nothing_to_continue(text, line):
 
 
 def test_unclosed_subcircuit_points_at_its_header():
-    """A .subckt never closed is reported at its own line, with the header as written."""
+    """A .subckt never closed is reported at its own line, with the header as written; of nested ones, the innermost."""
     with pytest.raises(NetlistSyntaxError) as info:
         parse_text("t\nR0 a 0 1\n.SUBCKT Amp in out\nR1 in out 1k\n", source="amp.cir")
     assert str(info.value).splitlines()[:2] == ["amp.cir:3:1: .subckt amp: expected .ends before the end of the netlist", "    .SUBCKT Amp in out"]
+    with pytest.raises(NetlistSyntaxError) as info:  # nested: the innermost, which the next .ends would close (as ngspice closes)
+        parse_text("t\n.subckt outer a\n.subckt inner b\nR1 b 0 1k\n", source="amp.cir")
+    assert str(info.value).splitlines()[0] == "amp.cir:3:1: .subckt inner: expected .ends before the end of the netlist"
 
 
 def _refused(path) -> str:
@@ -99,3 +102,38 @@ def test_instance_with_the_wrong_number_of_nodes():
     head, line, caret = str(info.value).splitlines()
     assert head == "amp.cir:3:1: X1: subcircuit amp has 2 pins (in out), the card gives 3 nodes"
     assert (line, caret) == ("    X1 a b c amp", "    ^")
+
+
+def test_binary_files_are_refused_at_their_nul_byte(tmp_path):
+    """A netlist or include holding a NUL byte (no SPICE text does) is refused naming the file and the line of the byte,
+    and for an include the including line too; its lines are not echoed (house rule: file:line and what was expected)."""
+    top = tmp_path / "top.cir"
+    top.write_bytes(b"t\nR1 a 0 1\nR2 a\x00 0 1\n")
+    assert _refused(top) == f"{top}:3: not a text netlist: it holds binary bytes (a NUL byte on line 3); give the SPICE netlist file"
+    (tmp_path / "blob.inc").write_bytes(b"\x7fELF\x00\x01")
+    top.write_text("t\nR1 a 0 1\n.include blob.inc\n")
+    blob = tmp_path / "blob.inc"
+    assert _refused(top) == (f"{top}:3:1: {blob}:1: not a text netlist: it holds binary bytes (a NUL byte on line 1); "
+                             "give the SPICE netlist file")
+
+
+def test_a_pin_outside_ascii_is_refused_at_its_column():
+    """A .subckt pin with a non-ASCII character is refused at the pin, saying why and what to write instead (ngspice cannot
+    name such a node in its output)."""
+    text = "title\nR0 x 0 1\n.subckt amp in ôut\nR1 in ôut 1k\n.ends\n"
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(text, source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head == ("amp.cir:3:16: .subckt amp: pin 'ôut' has characters outside ASCII, which ngspice cannot name in its output; "
+                    "rename it with ASCII letters, digits and _")
+    assert (line, caret) == ("    .subckt amp in ôut", "    " + " " * 15 + "^")
+
+
+def test_a_four_token_mosfet_of_a_later_model_is_refused_at_its_line():
+    """`M1 d g s nch` with `.model nch nmos` after it is found short of its bulk node only once the model is known; it is
+    still refused at its own line with the caret past its end (ngspice manual, MOSFETs: Mxxx nd ng ns nb mname)."""
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text("title\nR0 x 0 1\nM1 d g s nch\n.model nch nmos\n", source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head == "amp.cir:3:14: M1: expected 4 nodes and a model (3, or 5 with the thermal nodes, for a vdmos model)"
+    assert (line, caret) == ("    M1 d g s nch", "    " + " " * 13 + "^")

@@ -47,6 +47,9 @@ def test_unclosed_control_block_runs_to_the_end_of_the_file():
     ("R1 a b 1k\n+ ; nothing but a comment\nR2 b 0 1\n", ["R1 a b 1k", "R2 b 0 1"]),
     ("R1 a b\n+ 1k ; the value\n\n   \n* note\nR2 b 0 1\n", ["R1 a b 1k", "R2 b 0 1"]),
     ("; only a comment\nR2 b 0 1\n", ["R2 b 0 1"]),
+    ("R1 a b 1k ; one ; two\n", ["R1 a b 1k"]),  # the first ; ends the card
+    ("C1 a 0\n+10p\n", ["C1 a 0 10p"]),  # '+' with no space, as in the ngspice listing test above
+    ("R1 a b 1k\nR2 b 0\n+ 2k\n", ["R1 a b 1k", "R2 b 0 2k"]),  # the last statement continued once
 ])
 def test_logical_lines_strip_comments_and_join_continuations(text, expected):
     """Whether or not a file needs the slow path (comments, continuations), the statements come out the same."""
@@ -74,3 +77,14 @@ def test_token_columns_are_one_based_starts():
     text = "  R1  a\tb 1k"
     assert token_columns(text) == [text.index("R1") + 1, text.index("a") + 1, text.index("b") + 1, text.index("1k") + 1]
     assert token_columns("R1") == [1] and token_columns("") == []
+
+
+def test_control_path_strips_comments_and_joins_like_the_joined_path():
+    """A file with a .control block (read on the general path) gives the statements the same file without it gives on the
+    joined path (an independent implementation, itself checked against ngspice's listing above), the block kept verbatim
+    with the trailing spaces of its .control line."""
+    body = "; only a comment\nC1 a 0 ; c\n+10p $ d\nR1 a b 1k ; one ; two\nR2 b 0\n+ 2k\nR3 b 0\n+ 3k\n"
+    control = ".control   \n  op  \n.endc"
+    plain = logical_lines(body.splitlines())
+    assert [t for t, _, _ in plain] == ["C1 a 0 10p", "R1 a b 1k", "R2 b 0 2k", "R3 b 0 3k"]
+    assert logical_lines((body + control).splitlines()) == [*plain, (control, 9, True)]  # the block starts on line 9

@@ -457,25 +457,30 @@ def test_controlling_node_named_like_poly_is_a_node():
     assert [controlling_sources(nl.element(n)) for n in ("e1", "g1", "x1")] == [(), (), ()]
 
 
-POLY_ONE_COEFFICIENT = """poly cards with one coefficient each (invented)
+POLY_ONE_COEFFICIENT = """poly cards with one coefficient each, and a node named poly2 (invented)
 va a 0 dc 2
 vb b 0 dc 3
 e2 o 0 poly(2) a 0 b 0 1
 r1 o 0 1k
 h1 q 0 poly(1) va 2
 r2 q 0 1k
+vp poly2 0 dc 2
+e3 lin 0 poly2 0 10
+r3 lin 0 1k
 """
 
 
 @pytest.mark.ngspice
 def test_poly_cards_with_a_single_coefficient(tmp_path, op_of):
     """A POLY(n) card with its controlling nodes or sources and one coefficient (p0) is read, as ngspice 39 reads it:
-    its op gives v(o) = p0 = 1 and v(q) = 2 (with no coefficient at all both refuse the card, see test_errors)."""
+    its op gives v(o) = p0 = 1 and v(q) = 2 (with no coefficient at all both refuse the card, see test_errors); a node
+    named poly2 is a node, and its linear source gives 10 * 2 V."""
     nl = parse_text(POLY_ONE_COEFFICIENT)
     assert nl.element("e2").nodes == ("o", "0", "a", "0", "b", "0")
     assert nl.element("h1").nodes == ("q", "0") and controlling_sources(nl.element("h1")) == ("va",)
+    assert nl.element("e3").nodes == ("lin", "0", "poly2", "0")  # a linear source: poly2 is a node, not POLY(2)
     op = op_of(POLY_ONE_COEFFICIENT, tmp_path)  # reference: ngspice's own operating point
-    assert (op["o"], op["q"]) == (pytest.approx(1.0), pytest.approx(2.0))
+    assert (op["o"], op["q"], op["lin"]) == (pytest.approx(1.0), pytest.approx(2.0), pytest.approx(20.0))
 
 
 def test_laplace_and_freq_forms_have_only_output_nodes():
@@ -484,3 +489,31 @@ def test_laplace_and_freq_forms_have_only_output_nodes():
     nl = parse_text("t\nE1 o 0 LAPLACE {V(a)} = {1/(1+s)}\nG1 0 p FREQ {V(a)} = (0,0,0) (1k,-3,-45)\nR1 a b 'x * 2'\n")
     assert nl.element("e1").nodes == ("o", "0") and nl.element("g1").nodes == ("0", "p")
     assert nl.element("r1").tokens == ("a", "b", "'x * 2'")
+
+
+def test_section_definitions_in_the_read_file_are_skipped(tmp_path):
+    """A `.lib NAME` ... `.endl` section in the file being read is only a definition (ngspice manual, .lib): its statements
+    are skipped, and reading goes on after its `.endl`."""
+    top = tmp_path / "top.cir"
+    top.write_text("t\nR1 a 0 1k\n.lib tt\nR5 x 0 5k\n.control\n.endl\n.endc\n.ENDL tt\nR2 a 0 2k\n")
+    nl = parse_file(top)
+    assert [e.name for e in nl.elements] == ["R1", "R2"] and nl.ignored == () and nl.warnings == ()
+
+
+def test_text_without_a_file(tmp_path, monkeypatch):
+    """parse_text reads no file: the source is "<string>" (or the name given), files lists none but a named source, includes
+    resolve against the current folder when no base_dir is given, and empty text has an empty title."""
+    (tmp_path / "p.inc").write_text("R2 b 0 2k\n")
+    monkeypatch.chdir(tmp_path)
+    nl = parse_text("t\n.include p.inc\nR1 a b 1k\n")
+    assert (nl.source, nl.files, [e.name for e in nl.elements]) == ("<string>", (str(tmp_path / "p.inc"),), ["R2", "R1"])
+    named = parse_text("t\nR1 a b 1k\n", source="amp.cir")
+    assert (named.source, named.files) == ("amp.cir", ("amp.cir",))
+    assert parse_text("").title == ""
+
+
+def test_subcircuit_parameters_after_a_glued_params_word_and_with_comparisons():
+    """After `params:k=1` (the word glued to the first parameter) a bare name is a parameter without a default, and a
+    default holding '==' keeps everything after the first '=' (ngspice expressions compare with ==)."""
+    sub = parse_text("t\n.subckt c p params:k=1 w sel={m==1}\n.ends\n").subcircuit("c")
+    assert (sub.pins, sub.params) == (("p",), (("k", "1"), ("w", ""), ("sel", "{m==1}")))

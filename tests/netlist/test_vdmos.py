@@ -41,3 +41,11 @@ def test_a_vdmos_model_defined_after_its_card_and_a_four_token_card_of_another_m
     assert nl.element("m1").nodes == ("d", "g", "s", "tj", "tc")
     with pytest.raises(NetlistSyntaxError, match="M1: expected 4 nodes and a model"):
         parse_text("t\nM1 d g s nch\n.model nch nmos\n")
+
+
+def test_a_three_node_vdmos_card_with_parameters():
+    """`M3 d g s PWR m=2` is a three-node VDMOS with a parameter (ngspice manual, VDMOS: "Mxxx nd ng ns [tj tc] mname
+    [thermal]"; m= is the instance multiplier), its model named in any case, before or after the card."""
+    for text in ("t\n.model pwr vdmos\nM3 d g s PWR m=2\n", "t\nM3 d g s PWR m=2\n.model pwr vdmos\n"):
+        m3 = parse_text(text).element("m3")
+        assert (m3.nodes, m3.pins, m3.model) == (("d", "g", "s"), ("d", "g", "s"), "pwr")

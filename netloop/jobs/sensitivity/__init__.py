@@ -1,7 +1,7 @@
 """The sensitivity job: which values set a loop's margins, and what value of one meets a requirement.
 
-knobs      the values that can change: R, C, L values, linear E/G/F/H gains, MOSFET W, L (and m), per instance
-remeasure  the measured loop again with values altered on the loaded circuit: near its crossovers, or whole
+knobs      the values that can change: R, C, L values, linear E/G/F/H gains, MOSFET W, L (and m), process device wrappers' sizes, per instance
+remeasure  the measured loop again with values altered on the loaded circuit (a wrapper's size: on an edited copy): near its crossovers, or whole
 slopes     central differences of PM, GM, fc and peaking for each knob (x e^+-h, x e^+-2h)
 spread     knobs shared out to Dask workers when one ngspice would take long
 whatif     bracket and solve the value of one knob that meets a requirement

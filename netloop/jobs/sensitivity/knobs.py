@@ -152,7 +152,7 @@ def _wrapper_knobs(label: str, device: str, e: Element, wrapper: Subcircuit, sca
         quantity, unit, scaled = _ROLES[size.role]
         text = e.tokens[token].partition("=")[2] if token is not None else size.default
         try:
-            written = parse_value(text.strip()) * (scale if scaled else 1.0)
+            written = float(f"{parse_value(text.strip()) * (scale if scaled else 1.0):.15g}")  # 40 x 1u is 4e-05, not 3.9999999999999996e-05
         except NetloopError:
             written = None  # an expression: the what-if scales it as written, but its value is not known here
         out.append(Knob(label, size.name, device, quantity, unit, token, e.location, why, written, "" if token is not None else size.default))
