@@ -7,7 +7,7 @@ import logging
 import os
 import uuid
 import warnings
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -18,6 +18,7 @@ from netloop.jobs.corners.plan import AUTO, IN_PLACE, Plan
 from netloop.jobs.corners.progress import Progress
 from netloop.jobs.corners.worker import TaskOptions, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
+from netloop.netlist import Netlist, parse_file
 
 __all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "run_tasks",
            "share_out"]
@@ -61,16 +62,23 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
             import netloop.jobs.discover  # noqa: F401
         except ImportError as exc:
             raise plan.error("at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes", "at") from exc
+    written: dict[str, Netlist] = {}  # each netlist as written, read once: every section of a process axis starts from it
+
+    def read(path: str) -> Netlist:
+        if path not in written:
+            written[path] = parse_file(path)
+        return written[path]
+
     parsed: dict[tuple, object] = {}
     files: dict[str, tuple[str, ...]] = {}  # corner name -> every file its netlist reads
-    _check_breaks(plan, corners)
+    _check_breaks(plan, corners, read)
     for c in corners:
         libs = tuple(s for s in c.settings if s.kind == "lib")
         rest = tuple(s for s in c.settings if s.kind not in ("lib", "netlist"))
         try:
             base = parsed.get((c.netlist, libs))
             if base is None:
-                base = apply_settings(c.netlist, libs)
+                base = apply_settings(read(c.netlist), libs)
                 parsed[(c.netlist, libs)] = base
             files[c.name] = apply_settings(base, rest).files
         except CornerApplyError as exc:
@@ -81,17 +89,16 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
     return tuple(replace(t, inputs=files.get(t.corner.name, ())) for t in tasks_of(plan, corners))
 
 
-def _check_breaks(plan: Plan, corners: tuple[Corner, ...]) -> None:
-    """Break each named node once in each netlist the plan uses (as written): a node that is not there, or cannot
-    be broken, is a PlanError at the ``at`` line instead of one failed corner per corner."""
-    from netloop.jobs.measure import load_netlist
+def _check_breaks(plan: Plan, corners: tuple[Corner, ...], read: Callable[[str], Netlist]) -> None:
+    """Break each named node once in each netlist the plan uses (as written, ``read(path)``): a node that is not there,
+    or cannot be broken, is a PlanError at the ``at`` line instead of one failed corner per corner."""
     from netloop.probe import break_loop
 
     if AUTO in plan.at:
         return
     for path in dict.fromkeys(c.netlist for c in corners):
         try:
-            netlist = load_netlist(path)
+            netlist = read(path)
         except NetlistError as exc:
             raise plan.error(str(exc), "netlist") from exc
         for node in plan.at:

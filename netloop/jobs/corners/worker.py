@@ -13,6 +13,7 @@ from netloop.jobs.corners.expand import Task
 from netloop.jobs.corners.plan import Setting
 from netloop.errors import NetloopError, SimulationError
 from netloop.jobs.measure import Sweep, measure
+from netloop.netlist import parse_file
 
 __all__ = ["TaskOptions", "close_simulator", "corner_netlist", "in_place_changes", "run_task", "worker_simulator"]
 
@@ -69,18 +70,27 @@ def corner_netlist(corner):
     """The corner's netlist with its settings applied, as apply_settings gives it. The settings that read the files again
     (lib, include) are applied once per worker and kept while none of the files read changes (size and modification
     time), so the samples of one corner, which differ only in their seed, do not each read the netlist and its model files
-    in Python; the other settings (temperature, .param, supply, element, seed) are applied to that copy each time."""
+    in Python, and the netlist as written is read once for all of them; the other settings (temperature, .param, supply, element, seed) are applied to that copy each time."""
     reread = tuple(s for s in corner.settings if s.kind in _REREAD)
     rest = tuple(s for s in corner.settings if s.kind not in _REREAD)
+    written = _kept((corner.netlist, ()), lambda: parse_file(corner.netlist))  # each section of a process axis starts from it
+    if not reread:
+        return apply_settings(written, rest)
     key = (corner.netlist, tuple((s.kind, s.target, s.value) for s in reread))
+    return apply_settings(_kept(key, lambda: apply_settings(written, reread)), rest)
+
+
+def _kept(key: tuple, read):
+    """The netlist this worker read for ``key`` (``read()``), read again when one of its files changed (size or
+    modification time); the _READ_KEEP most recently used are kept."""
     kept = _READ.pop(key, None)
     if kept is None or _state(kept[0].files) != kept[1]:
-        netlist = apply_settings(corner.netlist, reread)
+        netlist = read()
         kept = (netlist, _state(netlist.files))
     _READ[key] = kept  # the most recent last
     while len(_READ) > _READ_KEEP:
         del _READ[next(iter(_READ))]
-    return apply_settings(kept[0], rest)
+    return kept[0]
 
 
 def in_place_changes(settings: tuple[Setting, ...]) -> tuple:

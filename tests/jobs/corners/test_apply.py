@@ -89,29 +89,31 @@ def test_library_line_chosen_by_file_or_section(tmp_path):
 
 def test_worker_reads_a_corner_once_until_a_file_it_read_changes(tmp_path, monkeypatch):
     """corner_netlist gives what apply_settings gives for every sample of a corner (the reference: the uncached path),
-    reads the files once for all of them, and reads them again when an included library changes (its size and
-    modification time, as os.stat reports them)."""
+    reads the files once for all of them, reads them again when an included library changes (its size and
+    modification time, as os.stat reports them), and reads only the section for another section."""
     from netloop.jobs.corners import worker
     from netloop.jobs.corners.expand import Corner
 
     (tmp_path / "lib.inc").write_text(".lib typ\n.param k=1\n.endl typ\n.lib hot\n.param k=2\n.endl hot\n")
     (tmp_path / "c.cir").write_text("t\n.lib lib.inc typ\nR1 n 0 {1k*k}\nV1 n 0 dc 1\n.end\n")
     monkeypatch.setattr(worker, "_READ", {})
-    reads = []
-    real = worker.apply_settings
-    monkeypatch.setattr(worker, "apply_settings", lambda nl, s: reads.append(isinstance(nl, str)) or real(nl, s))
+    reads = []  # "written": the netlist as written parsed; "section": the .lib line's section read again
+    real, parse = worker.apply_settings, worker.parse_file
+    monkeypatch.setattr(worker, "parse_file", lambda path: reads.append("written") or parse(path))
+    monkeypatch.setattr(worker, "apply_settings", lambda nl, s: reads.extend(["section"] * any(x.kind == "lib" for x in s)) or real(nl, s))
 
-    def sample(seed: int) -> Corner:
-        return Corner(f"hot#{seed}", str(tmp_path / "c.cir"), (Setting("lib", "lib.inc", "hot"), Setting("temp", "", "85"),
-                                                                Setting("seed", "", str(seed))), 1)
+    def sample(seed: int, section: str = "hot") -> Corner:
+        return Corner(f"{section}#{seed}", str(tmp_path / "c.cir"), (Setting("lib", "lib.inc", section), Setting("temp", "", "85"),
+                                                                     Setting("seed", "", str(seed))), 1)
 
-    def same(seed: int) -> tuple:
-        ours, reference = worker.corner_netlist(sample(seed)), real(sample(seed).netlist, sample(seed).settings)
+    def same(seed: int, section: str = "hot") -> tuple:
+        ours, reference = worker.corner_netlist(sample(seed, section)), real(sample(seed).netlist, sample(seed, section).settings)
         assert ours.statements == reference.statements and write_netlist(ours) == write_netlist(reference)
         return tuple(getattr(s, "text", "") for s in ours.statements)
 
     for seed in (1, 2, 3):
         assert ".option seed=%d" % seed in same(seed) and ".param k=2" in same(seed)
-    assert reads.count(True) == 1  # the files read once, for the first sample
+    assert reads == ["written", "section"]  # the files read once, for the first sample
     (tmp_path / "lib.inc").write_text(".lib typ\n.param k=1\n.endl typ\n.lib hot\n.param k=3.5\n.endl hot\n")
-    assert ".param k=3.5" in same(4) and reads.count(True) == 2
+    assert ".param k=3.5" in same(4) and reads == ["written", "section"] * 2
+    assert ".param k=1" in same(5, "typ") and reads == ["written", "section"] * 2 + ["section"]  # another section: from the same parse
