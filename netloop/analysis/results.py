@@ -341,6 +341,11 @@ class LoopAnalysis:
         return all(c.passed for c in self.checks)
 
     @property
+    def largest_gain_db(self) -> float:
+        """The largest |T| of the sweep in dB (what a loop that does not regulate reaches at most)."""
+        return float(np.max(20.0 * np.log10(np.abs(self.t) + 1e-300)))
+
+    @property
     def stable(self) -> bool:
         """The Nyquist verdict (check ``nyquist.reliable`` before trusting it)."""
         return self.nyquist.stable

@@ -528,7 +528,7 @@ def inputs_only_doubt(analysis: LoopAnalysis, checks: tuple[Check, ...]) -> str:
     if not failed and not backwards:
         return ""
     return "; ".join(c.detail for c in failed) if failed else (
-        f"T never reaches 0 dB (at most {float(np.max(20.0 * np.log10(np.abs(analysis.t) + 1e-300))):.4g} dB)" if not analysis.regulates
+        f"T never reaches 0 dB (at most {analysis.largest_gain_db:.4g} dB)" if not analysis.regulates
         else "T is negative at low frequency (positive feedback)")
 
 

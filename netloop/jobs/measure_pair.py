@@ -295,7 +295,7 @@ def _deeper(first: _Sampled, structure: _Structure, again) -> tuple[_Sampled, tu
     block that drives it keeps that block's own loop closed on the driver side), and there every mode passes its checks
     and no fewer modes regulate. Else ``first`` unchanged."""
     lagging = [m for m in MODES if not first.analyses[m].regulates]
-    why = first.doubts or ("; ".join(f"the {m} mode does not regulate (|T| at most {_peak_db(first.analyses[m]):.4g} dB)" for m in lagging)
+    why = first.doubts or ("; ".join(f"the {m} mode does not regulate (|T| at most {first.analyses[m].largest_gain_db:.4g} dB)" for m in lagging)
                            if 0 < len(lagging) < len(MODES) else "")
     if not why:
         return first, ()
@@ -311,10 +311,6 @@ def _deeper(first: _Sampled, structure: _Structure, again) -> tuple[_Sampled, tu
         return first, ()
     return trial, (Check("split", True, f"broke the pair under the names the nets have inside the block that drives them ({','.join(aliases)}): "
                          f"at {','.join(nodes)}, {why}; here every self-check passes in both modes"),)
-
-
-def _peak_db(a: LoopAnalysis) -> float:
-    return float(np.max(20.0 * np.log10(np.abs(a.t) + 1e-300)))
 
 
 def _opens(sampled: _Sampled, mode: str, structure: _Structure) -> tuple[Check, ...]:
@@ -354,7 +350,7 @@ def _elsewhere(mode: str, analyses: Mapping[str, LoopAnalysis], nodes: tuple[str
     a = analyses[mode]
     if a.regulates or not analyses[other].regulates:
         return ()
-    peak = _peak_db(a)
+    peak = a.largest_gain_db
     return (f"the {mode}-mode loop hardly passes {nodes[0]},{nodes[1]} (|T| at most {peak:.4g} dB there, while the {other}-mode loop "
             f"regulates): measure it where it closes (netloop loops NETLIST lists the candidates), or at a pair both loops pass",)
 
