@@ -58,6 +58,37 @@ def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
     assert sorted(len(w) for w in share_out(load_groups(list(tasks), share_loads=False), 2)) == [9, 9]
 
 
+def test_workers_take_the_netlists_the_plan_check_read_while_their_files_are_unchanged(tmp_path, monkeypatch):
+    """A worker given checked_plan's netlists reads no netlist for the corners they cover and builds the same corner
+    netlist as its own read; once the netlist file changes (size and modification time, os.stat) it reads it again."""
+    from netloop.jobs.corners.runner import checked_plan
+    from netloop.jobs.corners import worker
+    from netloop.netlist import parse_file, write_netlist
+
+    netlist = tmp_path / "miller.cir"
+    netlist.write_text(MILLER.read_text())
+    (tmp_path / "models").symlink_to(MILLER.parent / "models")
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{netlist}"\nat = "out"\n[axes]\nlib = ["tt", "ss"]\ntemp = [0, 50]\n')
+    tasks, netlists = checked_plan(load_plan(path))
+    assert set(netlists) == {worker.read_key(t.corner) for t in tasks} and len(netlists) == 2
+    reads = []
+    monkeypatch.setattr(worker, "parse_file", lambda p: reads.append(p) or parse_file(p))
+    monkeypatch.setattr(worker, "_READ", {})
+    own = [write_netlist(worker.corner_netlist(t.corner)) for t in tasks]  # the reference: the worker's own read
+    assert reads == [str(netlist)]
+    worker._READ.clear()
+    worker.use_netlists(netlists)
+    try:
+        assert [write_netlist(worker.corner_netlist(t.corner)) for t in tasks] == own and reads == [str(netlist)]
+        worker._READ.clear()
+        netlist.write_text(MILLER.read_text().replace("\n.end", "\n.param edited=1\n.end"))
+        changed = write_netlist(worker.corner_netlist(tasks[0].corner))
+        assert reads == [str(netlist)] * 2 and ".param edited=1" in changed and changed != own[0]
+    finally:
+        worker.use_netlists(None)
+
+
 @pytest.mark.ngspice
 def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(tmp_path):
     """Sixteen corners of one section (temperature, supply, a .param, an element's value) run one after the other in one
