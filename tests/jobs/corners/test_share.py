@@ -80,6 +80,43 @@ def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(
     assert len({r["loop"]["margins"]["phase_margin_deg"] for r in records[True]}) == 16  # every corner really differs
 
 
+# circuits/sky130/ldo.cir (an invented regulator on sky130 cards) with its supply at its reference: at node gate the rules'
+# split measures no loop, so every corner doubts it and measures the other placement of the cascode xm2 too.
+LDO = ROOT / "circuits" / "sky130" / "ldo.cir"
+
+
+@pytest.mark.ngspice
+def test_corners_that_doubt_their_split_measure_the_other_split_on_the_shared_load(tmp_path):
+    """Two corners (temperature; the supply changed too) of a regulator whose split is doubted at each run in one worker on one
+    load: the other placement of the bridge is measured on the same loaded circuit (both probes in one netlist,
+    netloop.probe.chain), and each corner's T, margins and checks are bit for bit those of one load per corner and those
+    of `netloop check` (measure) on the netlist edited by hand to that corner (ngspice's fresh loads are the reference)."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{LDO}"\nat = "gate"\n\n[axes]\ntemp = [27, 85]\nsupply.vsup = [0.9]\n')
+    tasks = check_plan(load_plan(plan))
+    records = {}
+    for share in (True, False):
+        close_simulator()
+        records[share] = [run_task(t, TaskOptions(share_loads=share))[0] for t in tasks]
+    close_simulator()
+    assert [r["loads"] for r in records[True]] == [1, 0]
+    assert [r["loads"] for r in records[False]] == [1, 1]
+    simulator = default_simulator()
+    try:
+        for i, (shared, fresh) in enumerate(zip(records[True], records[False])):
+            assert [c["name"] for c in shared["loop"]["checks"] if not c["passed"]][-1:] == ["split"], shared["corner"]
+            assert shared["loop"]["checks"] == fresh["loop"]["checks"] and shared["loop"]["margins"] == fresh["loop"]["margins"]
+            f1, t1 = _t(shared["loop"])
+            f2, t2 = _t(fresh["loop"])
+            assert np.array_equal(f1, f2) and np.array_equal(t1, t2), shared["corner"]
+            edited = tmp_path / f"corner{i}.cir"  # reading the same process file by its absolute path
+            edited.write_text(_hand_edited(LDO, shared["settings"], [(".lib process.spice tt", f".lib {LDO.with_name('process.spice')} tt")]))
+            check = measure(edited, "gate", simulator=simulator)
+            assert np.array_equal(check.analysis.freq_hz, f1) and np.array_equal(check.analysis.t, t1), shared["corner"]
+    finally:
+        simulator.close()
+
+
 @pytest.fixture(scope="module")
 def scheduler():
     """A local Dask cluster of two worker processes, as `netloop corners --jobs 2` starts it."""
