@@ -137,6 +137,14 @@ def plan_check(plan_path: Path, repeat: int = 3) -> float:
     return min(times)
 
 
+def idle_rate(seconds: float = 2.0) -> float:
+    """CPU seconds a second of the calling process with no work: the clients, schedulers and nannies of both local clusters
+    keeping time (heartbeats, ticks). A run's calling-process CPU holds this for both clusters, though only one works."""
+    before = _cpu()[0]
+    time.sleep(seconds)
+    return (_cpu()[0] - before) / seconds
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--samples", type=int, default=12, help="samples of the plan (default 12)")
@@ -169,6 +177,7 @@ def main() -> None:
                 clients[workers].run(_warm)  # each worker's ngspice started before the clock starts
                 addresses[workers] = cluster.scheduler_address
                 startup[workers] = time.perf_counter() - started
+            idle = idle_rate()  # both clusters up, no work: what the calling process spends on them regardless
             for i in range(args.repeat):
                 for workers in ((1, 2) if i % 2 == 0 else (2, 1)):  # taking turns: a burst of other work hits both counts
                     runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
@@ -208,7 +217,8 @@ def main() -> None:
         print(f"CPU time on 1 worker: ngspice's own {cpu_ngspice:.2f} s (its processes' {cpu_spice_process:.2f} s less the deck preparation "
               f"{cpu_prepare:.2f} s); netloop {cpu_netloop:.2f} s, {cpu_netloop / cpu_ngspice * 100:.1f} % of ngspice's: the Dask worker "
               f"(measurement and Dask) {cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} %; the calling process (plan, results file, "
-              f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} %; the deck "
+              f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} % (of which both "
+              f"clusters idling, {idle * 100:.1f} % of a CPU with no work, about {idle * wall1:.2f} s); the deck "
               f"preparation {cpu_prepare / cpu_ngspice * 100:.1f} %")
         print(f"once per run, in both figures: the plan checked (every corner applied, the loop broken) {check * 1e3:.0f} ms, "
               f"{check / n * 1e3:.1f} ms a sample at {n} samples")
