@@ -47,6 +47,22 @@ def test_splits_that_are_not_nested_are_not_chained(placement):
     assert chain_probes(parsed, "gate", first, placement) is None
 
 
+def test_a_split_inside_an_instance_is_not_chained():
+    """The regulator drawn as one instance of a subcircuit: the split of x1.gate copies the definition (a change for that
+    instance only), so the other split is left to a netlist of its own (from memory: chain_probes works at the top level)."""
+    from netloop.jobs.measure_checks import other_placements
+    from netloop.netlist import parse_text
+
+    lines = [line for line in LDO.read_text().splitlines() if line.strip() and not line.startswith("*")]
+    body = [line for line in lines[1:] if not line.lower().startswith((".param", ".lib", ".end", "vsup", "vref"))]
+    parsed = parse_text("\n".join([lines[0], *(line for line in lines if line.startswith(".param")),
+                                   f".lib {LDO.with_name('process.spice')} tt", ".subckt reg vin ref vout", *body, ".ends reg",
+                                   "Vsup vin 0 dc {vin}", "Vref ref 0 dc {vref}", "X1 vin ref vout reg", ".end", ""]))
+    first = break_loop(parsed, "x1.gate")
+    assert first.copied_subcircuits and other_placements(first) == [{"x1.xm2": "load"}]
+    assert chain_probes(parsed, "x1.gate", first, other_placements(first)[0]) is None
+
+
 @pytest.mark.ngspice
 def test_each_chained_split_measures_what_its_own_netlist_measures():
     """Both splits run on one load of the chained netlist; each one's T equals that of its own single-probe netlist loaded
