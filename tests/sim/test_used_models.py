@@ -185,3 +185,26 @@ def test_warm_reads_the_libraries_a_netlist_names(tmp_path, monkeypatch):
     used_models.warm(str(netlist))
     assert set(used_models._FILES) == {str(library), str(tmp_path / "lib" / "params" / "shared.inc"), str(tmp_path / "lib" / "cards" / "typ.inc")}
     used_models.warm(str(tmp_path / "missing.cir"))
+
+
+def test_what_is_kept_between_decks_changes_no_deck_and_follows_a_changed_library(tmp_path, monkeypatch):
+    """Decks that read one library in turn (two seeds, then the other section, then the cards file edited) are each written
+    out exactly as a process that never read the library before writes them (reference: the same reading with nothing kept)."""
+    from netloop.sim import used_models
+
+    _library(tmp_path)
+    base = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
+    decks = [base.replace("\n", "\n.option seed=1\n", 1), base.replace("\n", "\n.option seed=2\n", 1), base.replace(" typ\n", " slow\n")]
+
+    def fresh(deck: str) -> str | None:
+        with monkeypatch.context() as m:
+            m.setattr(used_models, "_FILES", {})
+            m.setattr(used_models, "_DERIVED", {})
+            return used_only(deck, str(tmp_path))
+
+    for deck in decks:
+        assert used_only(deck, str(tmp_path)) == fresh(deck) is not None
+    assert used_models._DERIVED  # the library's items were kept
+    (tmp_path / "lib" / "cards" / "typ.inc").write_text(CARDS.replace("{20*lam}", "{20.5*lam}"))
+    lean = used_only(decks[0], str(tmp_path))
+    assert "pclm={20.5*lam}" in lean and "pclm={20*lam}" not in lean and lean == fresh(decks[0])
