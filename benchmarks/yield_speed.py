@@ -15,10 +15,16 @@ statistics), the same path as `netloop yield PLAN --cluster ADDRESS`; they take 
 times and the fastest of each counts, so bursts of other work on a shared machine hit both alike.
 
 Two measures of the cost beyond ngspice, both from the 1-worker run:
-- wall time: the run's wall time per sample against the time the worker waited for its ngspice
-  (SimInfo.seconds: the load, the operating point and every sweep);
-- CPU time (psutil), steadier than wall time on a busy machine: the ngspice processes' CPU against
-  the Dask worker's and the calling process's (which also hosts the idle cluster's scheduler).
+- wall time: the run's wall time per sample against ngspice's own time, which is the time the worker
+  waited for its ngspice (SimInfo.seconds: the load, the operating point and every sweep) less what
+  netloop's own code does in the ngspice process before each load (the deck written from its template,
+  the libraries' used cards written out: netloop.sim.used_models), timed here on a sample's deck with
+  the libraries already read, as a worker has them from its second sample on;
+- CPU time (psutil), steadier than wall time on a busy machine: the ngspice processes' CPU, less that
+  deck preparation, against the Dask worker's, the calling process's (which also hosts the idle
+  cluster's scheduler) and the deck preparation's.
+Both include what a run does once (the plan checked: every corner applied and the loop broken; the
+client connected; the statistics); the plan check is timed alone and printed beside them.
 Targets: overhead <= 10 % of ngspice's own time; 2 workers >= 1.8x one worker.
 ``--quick``: the Miller buffer on the invented models (no mismatch: every sample alike), 4 samples, once (a smoke run
 of the path; ngspice needs a few ms there, so the targets do not apply).
@@ -93,6 +99,52 @@ def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, 
     return wall, run.run.records, tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True))
 
 
+def deck_preparation(plan_path: Path, repeat: int = 5) -> float:
+    """CPU seconds of netloop's own code in the ngspice process before one load of a sample: its deck written from the
+    template and the libraries' used cards written out (netloop.sim.used_models), the libraries already read."""
+    from netloop.jobs.corners.worker import corner_netlist
+    from netloop.jobs.measure import probe_job
+    from netloop.jobs.statistics import load_sample_plan, sample_tasks
+    from netloop.probe import break_loop
+    from netloop.sim import AcSweep
+    from netloop.sim.convergence import option_words
+    from netloop.sim.deck import render_deck
+    from netloop.sim.used_models import used_only
+
+    task = sample_tasks(load_sample_plan(plan_path))[0]
+    job = probe_job(break_loop(corner_netlist(task.corner), task.at), (AcSweep("dec", 10, 1e-2, 1e10),))
+
+    def prepare() -> None:
+        used_only(render_deck(job, option_words(job, None)), job.workdir or os.getcwd())
+
+    prepare()  # the libraries read, as a worker has them after its first sample
+    start = time.process_time()
+    for _ in range(repeat):
+        prepare()
+    return (time.process_time() - start) / repeat
+
+
+def plan_check(plan_path: Path, repeat: int = 3) -> float:
+    """Wall seconds of what a run does once before its first sample: the plan read and checked (every corner applied,
+    the loop broken at each node), the fastest of ``repeat``."""
+    from netloop.jobs.statistics import load_sample_plan, sample_tasks
+
+    times = []
+    for _ in range(repeat):
+        start = time.perf_counter()
+        sample_tasks(load_sample_plan(plan_path))
+        times.append(time.perf_counter() - start)
+    return min(times)
+
+
+def idle_rate(seconds: float = 2.0) -> float:
+    """CPU seconds a second of the calling process with no work: the clients, schedulers and nannies of both local clusters
+    keeping time (heartbeats, ticks). A run's calling-process CPU holds this for both clusters, though only one works."""
+    before = _cpu()[0]
+    time.sleep(seconds)
+    return (_cpu()[0] - before) / seconds
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--samples", type=int, default=12, help="samples of the plan (default 12)")
@@ -125,18 +177,22 @@ def main() -> None:
                 clients[workers].run(_warm)  # each worker's ngspice started before the clock starts
                 addresses[workers] = cluster.scheduler_address
                 startup[workers] = time.perf_counter() - started
+            idle = idle_rate()  # both clusters up, no work: what the calling process spends on them regardless
             for i in range(args.repeat):
                 for workers in ((1, 2) if i % 2 == 0 else (2, 1)):  # taking turns: a burst of other work hits both counts
                     runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
         load_after = os.getloadavg()
+        prepare, check = deck_preparation(plan), plan_check(plan)
         (wall1, rec1, cpu1), (wall2, rec2, _cpu2) = (min(runs[w], key=lambda x: x[0]) for w in (1, 2))
         n = len(rec1)
-        sim = statistics.fmean(r["sim_seconds"] for r in rec1)
+        waited = statistics.fmean(r["sim_seconds"] for r in rec1)
         task = statistics.fmean(r["seconds"] for r in rec1)
         loads = sum(r["loads"] or 0 for r in rec1)
+        sim = waited - prepare * loads / n  # ngspice's own: what the worker waited for, less netloop's deck preparation
         per_sample = wall1 / n
         overhead = (per_sample - sim) / sim
-        cpu_caller, cpu_workers, cpu_ngspice = cpu1
+        cpu_caller, cpu_workers, cpu_spice_process = cpu1
+        cpu_ngspice, cpu_prepare = cpu_spice_process - prepare * loads, prepare * loads
         speedup = wall1 / wall2
         same = [a["loop"]["loop_gain"] == b["loop"]["loop_gain"] for a, b in zip(rec1, rec2, strict=True)]
         spread = {}
@@ -150,13 +206,22 @@ def main() -> None:
         print(f"2 workers: {wall2:7.2f} s  ({wall2 / n * 1e3:.0f} ms per sample; runs {', '.join(f'{r[0]:.2f}' for r in runs[2])} s; "
               f"samples per worker {sorted(spread.values(), reverse=True)})")
         print(f"speed-up 2 workers / 1 worker: {speedup:.2f}x" + ("" if args.quick else f" ({'meets' if speedup >= SPEEDUP_TARGET else 'misses'} the {SPEEDUP_TARGET}x target)"))
-        print(f"per sample on 1 worker: ngspice's load, operating point and sweeps {sim * 1e3:.0f} ms (SimInfo.seconds; {loads} loads for {n} samples), "
+        print(f"per sample on 1 worker: the worker waited {waited * 1e3:.0f} ms for its ngspice process (SimInfo.seconds; {loads} loads "
+              f"for {n} samples), of which netloop's deck preparation there {prepare * loads / n * 1e3:.1f} ms (template and used model "
+              f"cards, {prepare * 1e3:.1f} ms CPU a load) and ngspice's own load, operating point and sweeps {sim * 1e3:.0f} ms; "
               f"in the worker {task * 1e3:.0f} ms, wall {per_sample * 1e3:.0f} ms")
         print(f"overhead beyond ngspice's own, wall time: {overhead * 100:.1f} %" + judged.format("meets" if overhead <= OVERHEAD_TARGET else "misses", OVERHEAD_TARGET * 100)
-              + f"  (netlist, probe and analysis in the worker {(task - sim) * 1e3:.0f} ms, Dask, results file and statistics {(per_sample - task) * 1e3:.0f} ms per sample)")
-        print(f"CPU time on 1 worker: ngspice processes {cpu_ngspice:.2f} s; the Dask worker (netloop's measurement and Dask) "
-              f"{cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} % of ngspice's; the calling process (plan, results file, "
-              f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} %")
+              + f"  (deck preparation {prepare * loads / n * 1e3:.1f} ms, netlist, probe and analysis in the worker {(task - waited) * 1e3:.0f} ms, "
+              f"Dask, results file and statistics {(per_sample - task) * 1e3:.0f} ms per sample)")
+        cpu_netloop = cpu_workers + cpu_caller + cpu_prepare
+        print(f"CPU time on 1 worker: ngspice's own {cpu_ngspice:.2f} s (its processes' {cpu_spice_process:.2f} s less the deck preparation "
+              f"{cpu_prepare:.2f} s); netloop {cpu_netloop:.2f} s, {cpu_netloop / cpu_ngspice * 100:.1f} % of ngspice's: the Dask worker "
+              f"(measurement and Dask) {cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} %; the calling process (plan, results file, "
+              f"statistics, the client and both local schedulers) {cpu_caller:.2f} s, {cpu_caller / cpu_ngspice * 100:.1f} % (of which both "
+              f"clusters idling, {idle * 100:.1f} % of a CPU with no work, about {idle * wall1:.2f} s); the deck "
+              f"preparation {cpu_prepare / cpu_ngspice * 100:.1f} %")
+        print(f"once per run, in both figures: the plan checked (every corner applied, the loop broken) {check * 1e3:.0f} ms, "
+              f"{check / n * 1e3:.1f} ms a sample at {n} samples")
         print(f"not counted above, once per run: starting the local cluster and its ngspice, {startup[1]:.1f} s for 1 worker, "
               f"{startup[2]:.1f} s for 2")
         print(f"T of every sample the same on 1 and 2 workers, bit for bit: {all(same)} ({sum(same)} of {len(same)})")

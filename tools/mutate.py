@@ -4,6 +4,8 @@
     .venv/bin/python tools/mutate.py netlist --jobs 2   # two mutants at a time (default 1: the machine is shared)
     .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts: test new or changed mutants and the survivors
                                                         # (not those judged equivalent in tools/mutate_equivalent.json)
+    .venv/bin/python tools/mutate.py corners --sample 300   # a seeded random sample of 300 mutants, in .mutate/corners-sample:
+                                                        # the kill rate with its 95 % Clopper-Pearson interval
 
 Each package is mutated in its own copy of the repository under .mutate/PKG (mutmut reads its settings
 from the pyproject.toml of the folder it runs in, so each copy gets its own [tool.mutmut] table: which
@@ -16,6 +18,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import random
 import re
 import shutil
 import subprocess
@@ -55,10 +58,10 @@ def _config(pattern: str, tests: tuple[str, ...]) -> str:
     return "\n".join(lines) + "\n"
 
 
-def prepare(package: str, fresh: bool) -> Path:
-    """The scratch copy .mutate/PKG, brought up to date with the work tree (file times kept, so mutmut sees what changed)."""
+def prepare(package: str, fresh: bool, folder: str | None = None) -> Path:
+    """The scratch copy .mutate/PKG (or .mutate/FOLDER), brought up to date with the work tree (file times kept, so mutmut sees what changed)."""
     pattern, tests = PACKAGES[package]
-    work = ROOT / ".mutate" / package
+    work = ROOT / ".mutate" / (folder or package)
     if fresh and work.exists():
         shutil.rmtree(work)
     work.mkdir(parents=True, exist_ok=True)
@@ -83,12 +86,41 @@ def prepare(package: str, fresh: bool) -> Path:
     return work
 
 
-def _mutmut(work: Path, *args: str) -> subprocess.CompletedProcess:
-    """mutmut from the shared virtualenv, run in the scratch copy, its output passed through."""
+def _mutmut(work: Path, *args: str, quiet: bool = False) -> subprocess.CompletedProcess:
+    """mutmut from the shared virtualenv, run in the scratch copy, its output passed through (kept when quiet or listing results)."""
     env = dict(os.environ, PYTHONHASHSEED="0")
     env.pop("PYTHONPATH", None)  # mutmut puts the scratch copy's mutants/ first; nothing may shadow it
     exe = Path(sys.executable).with_name("mutmut")
-    return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=args[0] == "results")
+    return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=quiet or args[0] == "results")
+
+
+def mutant_names(work: Path) -> list[str]:
+    """Every mutant mutmut generated in the copy, by name, sorted (read from the .meta file it writes beside each mutated file)."""
+    names: set[str] = set()
+    for meta in (work / "mutants").rglob("*.py.meta"):
+        names.update(json.loads(meta.read_text())["exit_code_by_key"])
+    return sorted(names)
+
+
+def draw_sample(work: Path, size: int, seed: int, judged: dict[str, str], jobs: int) -> list[str]:
+    """Generate the copy's mutants and learn which tests reach what (mutmut does both before it filters by name: a name that
+    matches nothing stops it right after), then draw ``size`` of the mutants not judged equivalent, the same for the same seed
+    and code; the draw is kept in sample.json beside the copy so that --report reads the same sample."""
+    _mutmut(work, "run", "--max-children", str(jobs), "netloop.no_such_mutant", quiet=True)
+    names = [n for n in mutant_names(work) if n not in judged]
+    if not names:
+        raise SystemExit(f"mutate: mutmut generated no mutants in {work}; run it without --sample to see why")
+    chosen = sorted(random.Random(seed).sample(names, min(size, len(names))))
+    (work / "sample.json").write_text(json.dumps({"seed": seed, "of": len(names), "names": chosen}, indent=1))
+    return chosen
+
+
+def clopper_pearson(killed: int, tested: int, level: float = 0.95) -> tuple[float, float]:
+    """The exact binomial interval for a kill rate measured on a random sample (Clopper and Pearson, Biometrika 26, 1934)."""
+    from scipy.stats import binomtest  # noqa: PLC0415  (only a sampled run needs scipy)
+
+    ci = binomtest(killed, tested).proportion_ci(confidence_level=level, method="exact")
+    return ci.low, ci.high
 
 
 def verdicts(work: Path) -> dict[str, str]:
@@ -103,11 +135,14 @@ def verdicts(work: Path) -> dict[str, str]:
     return found
 
 
-def summary(package: str, found: dict[str, str], equivalent: dict[str, str]) -> tuple[str, int]:
+def summary(package: str, found: dict[str, str], equivalent: dict[str, str], sample: dict | None = None) -> tuple[str, int]:
     """The kill rate over non-equivalent mutants and the survivors ("no tests" among them), as text; and the number of survivors.
 
     A run cut short leaves mutants "not checked": they are counted apart and the figure says the run is incomplete.
+    A sampled run (``sample``, as sample.json holds it) counts its drawn mutants only, and adds the interval the sample supports.
     """
+    if sample is not None:
+        found = {n: v for n, v in found.items() if n in set(sample["names"])}
     unchecked = sorted(n for n, v in found.items() if v == "not checked")
     tested = {n: v for n, v in found.items() if v != "not checked"}
     killed = [n for n, v in tested.items() if v in KILLED]
@@ -119,6 +154,10 @@ def summary(package: str, found: dict[str, str], equivalent: dict[str, str]) -> 
              f"{len(judged)} judged equivalent (tools/mutate_equivalent.json), {len(survived)} survived"]
     if unchecked:
         lines[0] += f"; INCOMPLETE: {len(unchecked)} of {len(found)} mutants not checked (run again with --again)"
+    elif sample is not None and counted:
+        low, high = clopper_pearson(len(killed), counted)
+        lines[0] += (f"; a random sample (seed {sample['seed']}) of {len(sample['names'])} of the package's {sample['of']} "
+                     f"mutants not judged equivalent: kill rate {100 * low:.1f} to {100 * high:.1f} % at 95 % confidence (Clopper-Pearson)")
     lines += [f"  survived ({tested[n]}): {n}" for n in survived]
     return "\n".join(lines), len(survived)
 
@@ -129,14 +168,21 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--jobs", type=int, default=1, help="mutants tested at a time (default 1)")
     parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants and its survivors not judged equivalent")
     parser.add_argument("--report", action="store_true", help="only print the last run's figures")
+    parser.add_argument("--sample", type=int, metavar="N", help="test a random sample of N mutants (in .mutate/PKG-sample) and give the kill rate's 95 %% interval")
+    parser.add_argument("--seed", type=int, default=1, help="the sample's seed (default 1)")
     args = parser.parse_args(argv)
     unknown = [p for p in args.packages if p not in PACKAGES]
     if unknown:
         parser.error(f"unknown package {unknown[0]!r}; expected one of {', '.join(PACKAGES)}")
     equivalent = json.loads((ROOT / "tools" / "mutate_equivalent.json").read_text())
     for package in args.packages or list(PACKAGES):
+        folder = f"{package}-sample" if args.sample else package
         if args.report:
-            work = ROOT / ".mutate" / package
+            work = ROOT / ".mutate" / folder
+        elif args.sample:
+            work = prepare(package, fresh=True, folder=folder)
+            chosen = draw_sample(work, args.sample, args.seed, equivalent.get(package, {}), args.jobs)
+            _mutmut(work, "run", "--max-children", str(args.jobs), *chosen)
         else:
             previous = ROOT / ".mutate" / package
             judged = equivalent.get(package, {})  # not tested again: a judged-equivalent mutant survives every test by definition
@@ -147,7 +193,9 @@ def main(argv: list[str] | None = None) -> int:
             _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)
             if survivors:  # mutmut keeps a verdict unless the mutant is named: name the survivors to test them again
                 _mutmut(work, "run", "--max-children", str(args.jobs), *survivors)
-        text, _ = summary(package, verdicts(work), equivalent.get(package, {}))
+        drawn = work / "sample.json"
+        sample = json.loads(drawn.read_text()) if drawn.exists() else None
+        text, _ = summary(package, verdicts(work), equivalent.get(package, {}), sample)
         print(text)
     return 0
 

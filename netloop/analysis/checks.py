@@ -37,13 +37,15 @@ common practice calls 60 dB below unity negligible."""
 _TOP_REASON = ("the sweep ends at", "at the top of the sweep")
 
 
+# What each doubt of the Nyquist count asks for, by the words its reason ends with (netloop.analysis.nyquist)
+_START_LOWER = ("crossover lies below the sweep", "start the sweep lower")
+_DENSER = ("whole number of turns", "sample more densely")
+
+
 def _nyquist_advice(reasons: tuple[str, ...]) -> str:
-    text = " ".join(reasons)
-    tips = []
-    if "crossover lies below the sweep" in text or "settled" in text:
-        tips.append("let the sweep start lower (drop --fmin, or lower it)")
-    if "whole number of turns" in text or "close to -1" in text or "coarse" in text:
-        tips.append("sample more densely (raise --ppd)")
+    tips = [tip for tip, words in (("let the sweep start lower (drop --fmin, or lower it)", _START_LOWER),
+                                   ("sample more densely (raise --ppd)", _DENSER))
+            if any(word in reason for reason in reasons for word in words)]
     return "; ".join(tips) or "widen the sweep and raise --ppd"
 
 

@@ -21,9 +21,10 @@ from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
-from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, pz_check, second_break_check, settle_split
+from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, other_placements, pz_check, second_break_check, settle_split
 from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
+from netloop.probe.chain import Chain, chain_probes
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
 from netloop.sim.pole_zero import node_poles
@@ -99,8 +100,10 @@ def return_ratio(probed: ProbedNetlist | ProbeVectors, series: dict, shunt: dict
     raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
 
 
-def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
-    """The simulator job for one probe: two AC runs on one operating point, only the probe vectors saved."""
+def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0,
+              circuit_id: str | None = None) -> SimJob:
+    """The simulator job for one probe: two AC runs on one operating point, only the probe vectors saved. ``circuit_id``
+    (SimJob.circuit_id; a new one when None) is given to run on the circuit another probe of the same netlist loaded."""
     text = write_netlist(probed.netlist)
     source = probed.netlist.source
     workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
@@ -110,13 +113,13 @@ def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str 
             AcRun("series", probed.series_run_ac, sweeps),
             AcRun("shunt", probed.shunt_run_ac, sweeps),
         ),
-        save=probed.vectors.save,
-        excitable=(probed.series_source, probed.shunt_source),
+        save=probed.saves,
+        excitable=probed.excitable,
         label=label,
         timeout_s=timeout_s,
         workdir=workdir,
         op_voltages=False,  # the first ac's own operating point serves: no separate op run
-        circuit_id=uuid.uuid4().hex,  # every round of this probe's measurement runs on one loaded circuit
+        circuit_id=circuit_id or uuid.uuid4().hex,  # every round of this probe's measurement runs on one loaded circuit
     )
 
 
@@ -319,11 +322,12 @@ def measure_probed(
     label: str = "",
     timeout_s: float = 600.0,
     meanwhile: Callable[[], object] | None = None,
+    circuit_id: str | None = None,
 ) -> tuple:
     """Simulate one probe and analyse it: returns (analysis, SimInfo, warnings).
 
     ``meanwhile()`` is called while the first simulation runs (measure checks the loop then); when
-    it raises, the simulation is abandoned and its exception raised.
+    it raises, the simulation is abandoned and its exception raised. ``circuit_id``: probe_job's.
     """
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
@@ -332,7 +336,7 @@ def measure_probed(
         series, shunt = result.run("series"), result.run("shunt")
         return {"loop": return_ratio(probed, dict(series.vectors), dict(shunt.vectors), method)}
 
-    base = probe_job(probed, (), label=label, timeout_s=timeout_s)  # the netlist is written once, not every round
+    base = probe_job(probed, (), label=label, timeout_s=timeout_s, circuit_id=circuit_id)  # the netlist is written once, not every round
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
@@ -413,10 +417,13 @@ def measure(
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s)
         with caveats_on_error(parsed):
             unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
-            analysis, info, sim_warnings = measure_probed(unchecked, meanwhile=loop_check, **options)
-            probed = loop_check()  # its outcome, found while the first simulation ran
             free = driver is None and placement is None
-            probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free)
+            chain = _chain(parsed, at, unchecked) if free else None  # the split tried first when this one is doubted, in the same netlist
+            circuit = uuid.uuid4().hex
+            analysis, info, sim_warnings = measure_probed(chain.first if chain else unchecked, meanwhile=loop_check, circuit_id=circuit, **options)
+            probed = loop_check()  # its outcome, found while the first simulation ran
+            probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free,
+                                                                          (chain, circuit))
     if probed.inputs_only:
         _refuse_inputs_only(probed, analysis, driver or "", checks)
     outcomes = tuple(r.check(analysis) for r in reqs)
@@ -434,10 +441,19 @@ def measure(
     )
 
 
+def _chain(parsed: Netlist, at: str, first: ProbedNetlist) -> Chain | None:
+    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None."""
+    places = other_placements(first)
+    return chain_probes(parsed, at, first, places[0]) if places else None
+
+
 def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: LoopAnalysis, info: SimInfo, sim_warnings: tuple[str, ...],
-                   options: dict, free: bool) -> tuple[ProbedNetlist, LoopAnalysis, SimInfo, tuple[str, ...], tuple[Check, ...]]:
+                   options: dict, free: bool, chained: tuple[Chain | None, str] = (None, "")
+                   ) -> tuple[ProbedNetlist, LoopAnalysis, SimInfo, tuple[str, ...], tuple[Check, ...]]:
     """The measured split, settled: another placement of its bridging elements when it fails its checks, a second
-    break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks)."""
+    break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks). ``chained``:
+    the chain the first split was measured in and its circuit id; the chain's other split runs on that loaded circuit."""
+    chain, circuit = chained
     extra, extra_loads = 0.0, 0  # the other splits' simulations: their time and the loads they took
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
     structure: list[LoopStructure | None] = []  # the loop search, done once and only when a split must be judged by it
@@ -473,7 +489,9 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
             other = break_loop(parsed, name or at, placement=place)
         except ProbeError:
             return None
-        a, i, w = measure_probed(other, **(coarse_options if coarse else options))
+        shared = chain is not None and name is None and dict(place) == chain.placement
+        measured = chain.other(other) if shared else other
+        a, i, w = measure_probed(measured, circuit_id=circuit if shared else None, **(coarse_options if coarse else options))
         extra += i.seconds
         extra_loads += i.loads
         trial = opens(Trial(place, other, a, name or ""))

@@ -93,6 +93,20 @@ class ProbedNetlist:
     bridges: tuple[Bridge, ...] = ()  # bridging elements at the node and the side each was put on, and why
     inputs_only: bool = False  # driver= named only inputs (gates, bases, control inputs) on the node
     outputs: tuple[str, ...] = ()  # the terminals on the node that drive it by the split rules ("m6.d")
+    # when the netlist holds another split's probe too (netloop.probe.chain): every probe source of the netlist and every
+    # vector either probe reads, in one order for both, so that both splits' jobs run on one loaded circuit
+    circuit_sources: tuple[str, ...] = ()
+    circuit_saves: tuple[str, ...] = ()
+
+    @property
+    def excitable(self) -> tuple[str, ...]:
+        """Every probe source of the netlist (another probe's stays at AC 0 in both runs: it is then exactly transparent)."""
+        return self.circuit_sources or (self.series_source, self.shunt_source)
+
+    @property
+    def saves(self) -> tuple[str, ...]:
+        """The vectors to save in both runs (the same for every probe of a chained netlist)."""
+        return self.circuit_saves or self.vectors.save
 
     @property
     def series_run_ac(self) -> Mapping[str, float]:

@@ -78,3 +78,50 @@ def test_a_fit_that_disagrees_with_the_nyquist_count_says_both_counts():
     poles, notes = closed_loop_poles(f, 100.0 / (1 + 2j * math.pi * f / 10.0), nyquist_rhp=1)
     assert poles.rhp_count == 0 and not poles.agrees_with_nyquist
     assert "the closed-loop pole fit finds 0 right-half-plane pole(s) below 1000 Hz but the Nyquist count says 1" in notes
+
+
+@pytest.mark.parametrize(
+    "poles, rtol, kept, lone",
+    [
+        # |Im p| at most half the tolerance of |p| is real: -1 + 0.4e-3j is real to 1e-3 (2 * 0.4e-3 <= 1e-3 * |p|)
+        ([-1 + 0.4e-3j], 1e-3, [-1 + 0.4e-3j], 0),
+        # the boundary itself, in exact binary arithmetic: 2 |Im| = 8 = 1.6 |-3 + 4j| (a 3-4-5 triangle)
+        ([-3 + 4j], 1.6, [-3 + 4j], 0),
+        # a partner exactly at the tolerance (|(-3.5 - 3j) - conj(-4 + 3j)| = 0.5 = 0.1 * 5) keeps the pole; the partner's own
+        # partner is 0.5 away against 0.1 * |-3.5 - 3j| = 0.46, so it goes
+        ([-4 + 3j, -3.5 - 3j], 0.1, [-4 + 3j], 1),
+        # the tolerance is relative to |p| (50 here): a partner 4.5 away is within 0.1 * 50 = 5
+        ([-40 + 30j, -40 - 34.5j], 0.1, [-40 + 30j, -40 - 34.5j], 0),
+    ],
+)
+def test_conjugate_partner_tolerance_is_relative_and_inclusive(poles, rtol, kept, lone):
+    """A pole is real when 2 |Im p| <= rtol |p|, and complex poles stay when a partner lies within rtol |p| of their conjugate
+    (both inclusive, both relative to the pole's size: _conjugate_pairs' docstring), here on exact binary cases."""
+    got, missing = _conjugate_pairs(np.array(poles, dtype=complex), rtol)
+    assert list(got) == kept and missing == lone
+
+
+def test_the_fit_stops_at_the_tolerance_asked():
+    """T = 100/(1 + s) (1 + 1e-4 s/(s + 10)) has closed-loop poles at the roots of s^2 + 111.01 s + 1010 (numpy.roots):
+    fitted to 1e-10 both come out; fitted to 1e-3 the fit stops once it holds to that (its error between 1e-6 and 1e-3,
+    scipy's AAA stopping rule), and the pole at -10 rad/s, whose term in 1/(1+T) is about 1e-4 of it, is not among them."""
+    f = np.logspace(-2, 4, 121)
+    s = 2j * math.pi * f
+    t = 100 / (1 + s) * (1 + 1e-4 * s / (s + 10))
+    exact = np.sort(np.roots([1.0, 111.01, 1010.0]).real)  # -101.01 and -10.0
+    tight, notes = closed_loop_poles(f, t, nyquist_rhp=0, rtol=1e-10)
+    assert np.sort([p.real for p in tight.poles_rad_s]) == pytest.approx(exact, rel=1e-6) and not notes
+    assert tight.fit_error <= 1e-10
+    loose, notes = closed_loop_poles(f, t, nyquist_rhp=0, rtol=1e-3)
+    assert 1e-6 < loose.fit_error <= 1e-3 and not notes
+    (p,) = loose.poles_rad_s
+    assert p.real == pytest.approx(exact[0], rel=1e-3)
+
+
+def test_a_short_sweep_is_fitted():
+    """Fifteen samples (fewer than the first fit's 20 terms) still give the one closed-loop pole of T = 100/(1 + s/10) at
+    -(1 + 100) 10 rad/s (circuit theory: the root of 1 + T)."""
+    f = np.logspace(-1, 3, 15)
+    poles, notes = closed_loop_poles(f, 100.0 / (1 + 2j * math.pi * f / 10.0), nyquist_rhp=0)
+    (p,) = poles.poles_rad_s
+    assert p.real == pytest.approx(-1010.0, rel=1e-6) and not notes

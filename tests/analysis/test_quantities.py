@@ -66,3 +66,30 @@ def test_refusals_say_what_to_write(text, unit, fault):
 def test_requirements_read_units_as_an_engineer_means_them(text, threshold):
     """A requirement's value follows the same rules: fc>=100MHz is 1e8 Hz (it was read as 0.1 Hz and passed every loop)."""
     assert parse_requirement(text).threshold == pytest.approx(threshold, rel=1e-15)
+
+
+@pytest.mark.parametrize(
+    "unit,expected",
+    [
+        ("hz", "a frequency such as 1k, 10meg, 100MHz or 2.5GHz"),
+        ("s", "a time such as 1n, 10ns or 2us"),
+        ("db", "a level in dB such as 3 or 3dB"),
+        ("deg", "an angle such as 45 or 45deg"),
+        ("", "a plain number such as 0.5 or 2"),
+    ],
+)
+def test_a_value_that_is_no_number_is_refused_with_examples_of_the_unit(unit, expected):
+    """The refusal of a value that is not a number shows, word for word, what the quantity is and how to write one (house
+    rule: say what was expected); each example given is itself accepted."""
+    with pytest.raises(PlanError) as info:
+        parse_quantity("fast", unit)
+    assert str(info.value) == f"'fast' is not a number; expected {expected}"
+    for example in expected.split(" such as ")[1].replace(" or ", ", ").split(", "):
+        parse_quantity(example, unit)
+
+
+@pytest.mark.parametrize("text,unit,value", [("100 M Hz", "hz", 100e6), ("2 n s", "s", 2e-9), ("3 k", "hz", 3e3)])
+def test_spaces_between_multiplier_and_unit(text, unit, value):
+    """Spaces are allowed between the number, the multiplier and the unit word (module docstring), SI prefixes as in
+    ACCEPTED."""
+    assert parse_quantity(text, unit) == pytest.approx(value, rel=1e-15)

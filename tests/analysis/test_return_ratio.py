@@ -103,3 +103,38 @@ def test_a_zero_denominator_gives_no_numpy_warning_and_analyse_names_the_sample(
     assert np.isinf(t1[3]) and np.isnan(t1[4]) and np.isnan(t2[1]) and t1[0] == -2.0
     with pytest.raises(AnalysisError, match=r"T has 2 NaN or infinite sample\(s\), the first at 4000 Hz"):
         analyse(np.array([1e3, 2e3, 3e3, 4e3, 5e3]), t1)
+
+
+def test_real_samples_give_a_complex_return_ratio():
+    """Samples given as real numbers (a probe at DC, where every phasor is real) still give complex arrays, so that the
+    result takes complex updates like any other T: the closed forms T = A of an ideal driver (see above) and S = vb1 + ib2."""
+    a_gain = np.array([4.0, 0.5, 100.0])
+    vb1, va1 = 1.0 / (1.0 + a_gain), -a_gain / (1.0 + a_gain)
+    ib2 = np.zeros(3)
+    for t in (tian(va1, vb1, ib2), middlebrook(va1, vb1, ib2 - 1.0, ib2)):
+        assert t.dtype == np.complex128
+        np.testing.assert_allclose(t, a_gain, rtol=1e-12)
+        t += 1j  # a float array refuses this
+    s = sensitivity(vb1, ib2)
+    assert s.dtype == np.complex128 and np.allclose(s, 1.0 / (1.0 + a_gain))
+
+
+def test_a_sample_that_overflows_is_left_to_analyse_without_a_warning():
+    """A sample whose quotient overflows (a node voltage of 1e300 V over 1e-300) gives an infinite T silently, as the
+    module says: analyse() then names the frequency (numpy would warn of the overflow, an error under this suite's filters)."""
+    import warnings
+
+    from netloop.analysis import analyse
+    from netloop.errors import AnalysisError
+
+    va1, vb1, ib2 = np.array([0.5, 0.5, 1e300, 0.5, 0.5]), np.array([0.5, 0.5, 1e-300, 0.5, 0.5]), np.zeros(5)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        t_tian = tian(va1, vb1, ib2)
+        t_mb = middlebrook(va1, vb1, ib2 - 1.0, ib2)
+        t_zero = middlebrook(np.array([1.0]), np.array([0.0]), np.array([1.0]), np.array([0.0]))  # 1 / 0
+        t_nan = middlebrook(np.array([1.0]), np.array([0.0]), np.array([0.0]), np.array([0.0]))  # 0 / 0
+    assert list(np.isfinite(t_tian)) == list(np.isfinite(t_mb)) == [True, True, False, True, True]
+    assert not np.isfinite(t_zero[0]) and not np.isfinite(t_nan[0])
+    with pytest.raises(AnalysisError, match="3 Hz"):
+        analyse(np.array([1.0, 2.0, 3.0, 4.0, 5.0]), t_tian)

@@ -100,3 +100,40 @@ def test_overdamped_and_unpeaked_estimates():
     assert second_order_estimate(None) is None and second_order_estimate(90.0) is None and second_order_estimate(0.0) is None
     with pytest.raises(ValueError, match=r"^a second-order loop has a phase margin in \(0, 90\) deg, not 95"):
         damping_from_phase_margin(95.0)
+
+
+@pytest.mark.parametrize("pm", [0.5, *np.linspace(1.0, 89.5, 178)])
+def test_damping_inverts_the_phase_margin_to_full_precision(pm):
+    """damping_from_phase_margin inverts the closed form to 1e-13 relative over all of (0, 90) deg, small margins below
+    1 deg included (the module docstring's PM(zeta), read back)."""
+    assert phase_margin_from_damping(damping_from_phase_margin(pm)) == pytest.approx(pm, rel=1e-13)
+
+
+@pytest.mark.parametrize("pm", [0.0, -1e-300, 90.0, 90.5, 180.0])
+def test_no_damping_for_a_margin_outside_zero_to_ninety(pm):
+    """A phase margin of 0 deg or less, or 90 deg or more, has no second-order loop (PM(zeta) covers exactly (0, 90) deg,
+    module docstring), and the error says so."""
+    with pytest.raises(ValueError, match=r"^a second-order loop has a phase margin in \(0, 90\) deg, not "):
+        damping_from_phase_margin(pm)
+
+
+@pytest.mark.parametrize("zeta", [0.05, 0.3, 0.5, 0.7, 1 / math.sqrt(2), 0.71, 0.8, 0.9, 1.0, 1.3, 2.0])
+def test_resonant_peak_against_python_control(zeta):
+    """The resonant peak of wn^2/(s^2 + 2 zeta wn s + wn^2) equals the largest |H(jw)| in dB on python-control's frequency
+    response (0 dB, at DC, for zeta >= 1/sqrt(2): no peak)."""
+    from netloop.analysis.second_order import resonant_peak_db
+
+    h = control.tf([1.0], [1.0, 2 * zeta, 1.0])
+    w = np.concatenate([[0.0], np.linspace(1e-4, 2.0, 400001)])
+    mag, _, _ = control.frequency_response(h, w)  # python-control 0.10
+    assert resonant_peak_db(zeta) == pytest.approx(20 * np.log10(np.max(mag)), abs=1e-7)
+    if zeta >= 1 / math.sqrt(2):
+        assert resonant_peak_db(zeta) == 0.0
+
+
+@pytest.mark.parametrize("zeta", [0.0, -0.1])
+def test_no_resonant_peak_without_damping(zeta):
+    """A pair with zero or negative damping has no finite resonant peak: None (the peak of an undamped pair is infinite)."""
+    from netloop.analysis.second_order import resonant_peak_db
+
+    assert resonant_peak_db(zeta) is None

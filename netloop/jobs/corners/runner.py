@@ -16,11 +16,11 @@ from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
 from netloop.jobs.corners.journal import Journal, default_results_path, fingerprints
 from netloop.jobs.corners.plan import AUTO, IN_PLACE, Plan
 from netloop.jobs.corners.progress import Progress
-from netloop.jobs.corners.worker import TaskOptions, run_task
+from netloop.jobs.corners.worker import TaskOptions, files_state, read_key, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
 from netloop.netlist import Netlist, parse_file
 
-__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "run_tasks",
+__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "checked_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "run_tasks",
            "share_out"]
 
 
@@ -56,6 +56,12 @@ class CornerRun:
 def check_plan(plan: Plan) -> tuple[Task, ...]:
     """Expand the plan and apply every corner once, here, so a setting the netlist cannot take stops the
     run before anything is simulated: PlanError at the plan line that asked for it."""
+    return checked_plan(plan)[0]
+
+
+def checked_plan(plan: Plan) -> tuple[tuple[Task, ...], dict[tuple, tuple]]:
+    """check_plan's tasks, and the netlists it read for them before their in-place settings, as workers keep them
+    ({worker.read_key: (netlist, worker.files_state of its files)}): run_plan sends them, so no worker reads them again."""
     corners = expand(plan)
     if AUTO in plan.at:
         try:
@@ -69,24 +75,24 @@ def check_plan(plan: Plan) -> tuple[Task, ...]:
             written[path] = parse_file(path)
         return written[path]
 
-    parsed: dict[tuple, object] = {}
+    parsed: dict[tuple, tuple] = {}  # read_key -> (netlist, files_state), as a worker keeps them
     files: dict[str, tuple[str, ...]] = {}  # corner name -> every file its netlist reads
     _check_breaks(plan, corners, read)
     for c in corners:
-        libs = tuple(s for s in c.settings if s.kind == "lib")
-        rest = tuple(s for s in c.settings if s.kind not in ("lib", "netlist"))
+        reread = tuple(s for s in c.settings if s.kind in ("lib", "include"))
+        rest = tuple(s for s in c.settings if s.kind not in ("lib", "include", "netlist"))
+        key = read_key(c)
         try:
-            base = parsed.get((c.netlist, libs))
-            if base is None:
-                base = apply_settings(read(c.netlist), libs)
-                parsed[(c.netlist, libs)] = base
-            files[c.name] = apply_settings(base, rest).files
+            if key not in parsed:
+                base = apply_settings(read(c.netlist), reread) if reread else read(c.netlist)
+                parsed[key] = (base, files_state(base.files))
+            files[c.name] = apply_settings(parsed[key][0], rest).files
         except CornerApplyError as exc:
             line = plan.line_of_setting(exc.setting, c.line) if exc.setting is not None else c.line
             raise plan.error(f"corner {c.name!r}: {exc}", line=line) from exc
         except NetlistError as exc:
             raise plan.error(f"corner {c.name!r}: {exc}", line=c.line) from exc
-    return tuple(replace(t, inputs=files.get(t.corner.name, ())) for t in tasks_of(plan, corners))
+    return tuple(replace(t, inputs=files.get(t.corner.name, ())) for t in tasks_of(plan, corners)), parsed
 
 
 def _check_breaks(plan: Plan, corners: tuple[Corner, ...], read: Callable[[str], Netlist]) -> None:
@@ -250,14 +256,15 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
     plan) as soon as it finishes. An existing file is continued with ``resume`` (corners already in it are
     not run again), replaced with ``force``, and otherwise refused with an error saying so.
     """
-    return run_tasks(plan, check_plan(plan), jobs=jobs, cluster=cluster, out=out, resume=resume, force=force, progress=progress)
+    tasks, netlists = checked_plan(plan)
+    return run_tasks(plan, tasks, jobs=jobs, cluster=cluster, out=out, resume=resume, force=force, progress=progress, netlists=netlists)
 
 
 def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, cluster: str | None = None,
               out: str | Path | None = None, resume: bool = False, force: bool = False, progress: bool = False,
-              noun: str = "corners") -> CornerRun:
+              noun: str = "corners", netlists: dict[tuple, tuple] | None = None) -> CornerRun:
     """Run the tasks (checked: `check_plan`, or another job's tasks built from its corners) not yet in the results
-    file, as `run_plan` does; ``noun`` names them on the progress bar."""
+    file, as `run_plan` does; ``noun`` names them on the progress bar; ``netlists`` (`checked_plan`'s) go to the workers."""
     path = Path(out) if out is not None else default_results_path(plan.path)
     cache: dict[str, str] = {}
     inputs = {t.key: fingerprints(t.inputs, cache) for t in tasks}
@@ -271,8 +278,10 @@ def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, c
     try:
         if pending:
             bar.draw()
+            needed = {read_key(t.corner) for t in pending}
+            given = {k: v for k, v in (netlists or {}).items() if k in needed}
             workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
-                           inputs=inputs)
+                           inputs=inputs, netlists=given)
     finally:
         journal.close()
         bar.finish()
@@ -303,7 +312,7 @@ def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
 
 
 def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None,
-         inputs: dict[str, dict[str, str]]) -> int:
+         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple]) -> int:
     from distributed import as_completed
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
@@ -315,12 +324,14 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
         # scheduler per worker: a submit each costs a round trip of its own); a worker that is lost hands its
         # corners on (allow_other_workers), and the local cluster steals none (LOCAL_CLUSTER_CONFIG)
         lists = share_out(load_groups(pending, options.share_loads), workers) if workers else [pending]
+        # the netlists the plan's check read, sent once to every worker (each task names the same data)
+        given = client.scatter([netlists], broadcast=True, hash=False)[0] if netlists else None
         for address, tasks in zip(addresses or [None], lists):
             if not tasks:
                 continue
             keys = [f"netloop-corner-{i:05d}-{t.key}-{run_id}" for i, t in enumerate(tasks)]
             place = {"workers": [address], "allow_other_workers": True} if address else {}
-            futures.update(zip(client.map(run_task, tasks, options=options, key=keys, pure=False, **place), tasks, strict=True))
+            futures.update(zip(client.map(run_task, tasks, options=options, netlists=given, key=keys, pure=False, **place), tasks, strict=True))
         # the futures that finished together are fetched in one round trip to the scheduler
         for batch in as_completed(futures).batches():
             for future, records in _fetch(client, batch):

@@ -15,12 +15,14 @@ from netloop.errors import NetloopError, SimulationError
 from netloop.jobs.measure import Sweep, measure
 from netloop.netlist import parse_file
 
-__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "in_place_changes", "run_task", "worker_simulator"]
+__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "files_state", "in_place_changes", "read_key", "run_task", "use_netlists",
+           "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
 _READ: dict[tuple, tuple[object, tuple]] = {}  # corner netlists this worker read: (netlist, its files' state) by what it was read from
 _READ_KEEP = 8
 _REREAD = ("lib", "include")  # the settings apply_settings reads the files again for (process arrives expanded into them)
+_GIVEN: dict[tuple, tuple[object, tuple]] = {}  # the netlists the plan's check read, sent with the task (run_task's ``netlists``)
 
 
 @dataclass(frozen=True, slots=True)
@@ -54,7 +56,7 @@ def close_simulator() -> None:
         sim.close()
 
 
-def _state(files: tuple[str, ...]) -> tuple:
+def files_state(files: tuple[str, ...]) -> tuple:
     """What says a file is unchanged without reading it: size and modification time of each (None when it is gone)."""
     out = []
     for f in files:
@@ -66,27 +68,44 @@ def _state(files: tuple[str, ...]) -> tuple:
     return tuple(out)
 
 
+def use_netlists(netlists: dict[tuple, tuple] | None) -> None:
+    """The netlists the plan's check read ({read_key: (netlist, files_state of its files)}), for this process's next
+    corners: corner_netlist takes one instead of reading it while its files are unchanged (None: none given)."""
+    global _GIVEN
+    _GIVEN = netlists or {}
+
+
+def read_key(corner) -> tuple:
+    """What a corner's netlist is read from before its in-place settings: its path and its settings that read the files
+    again (lib, include), in order. corner_netlist keeps what it read by this key; check_plan sends what it read so."""
+    return (corner.netlist, tuple((s.kind, s.target, s.value) for s in corner.settings if s.kind in _REREAD))
+
+
 def corner_netlist(corner):
     """The corner's netlist with its settings applied, as apply_settings gives it. The settings that read the files again
     (lib, include) are applied once per worker and kept while none of the files read changes (size and modification
     time), so the samples of one corner, which differ only in their seed, do not each read the netlist and its model files
-    in Python, and the netlist as written is read once for all of them; the other settings (temperature, .param, supply, element, seed) are applied to that copy each time."""
+    in Python, and the netlist as written is read once for all of them; the other settings (temperature, .param, supply, element, seed) are applied to that copy each time.
+    A netlist the plan's check read (run_task's ``netlists``) serves in place of a read of this worker's own while its
+    files are unchanged."""
     reread = tuple(s for s in corner.settings if s.kind in _REREAD)
     rest = tuple(s for s in corner.settings if s.kind not in _REREAD)
-    written = _kept((corner.netlist, ()), lambda: parse_file(corner.netlist))  # each section of a process axis starts from it
+
+    def written():  # each section of a process axis starts from it
+        return _kept((corner.netlist, ()), lambda: parse_file(corner.netlist))
+
     if not reread:
-        return apply_settings(written, rest)
-    key = (corner.netlist, tuple((s.kind, s.target, s.value) for s in reread))
-    return apply_settings(_kept(key, lambda: apply_settings(written, reread)), rest)
+        return apply_settings(written(), rest)
+    return apply_settings(_kept(read_key(corner), lambda: apply_settings(written(), reread)), rest)
 
 
 def _kept(key: tuple, read):
-    """The netlist this worker read for ``key`` (``read()``), read again when one of its files changed (size or
-    modification time); the _READ_KEEP most recently used are kept."""
-    kept = _READ.pop(key, None)
-    if kept is None or _state(kept[0].files) != kept[1]:
+    """The netlist this worker read for ``key`` (``read()`` gives it and its files' state) or was given, read again when
+    one of its files changed (size or modification time); the _READ_KEEP most recently used are kept."""
+    kept = _READ.pop(key, None) or _GIVEN.get(key)
+    if kept is None or files_state(kept[0].files) != kept[1]:
         netlist = read()
-        kept = (netlist, _state(netlist.files))
+        kept = (netlist, files_state(netlist.files))
     _READ[key] = kept  # the most recent last
     while len(_READ) > _READ_KEEP:
         del _READ[next(iter(_READ))]
@@ -156,10 +175,12 @@ def _measure_all(netlist, options: TaskOptions, simulator) -> list:
     return list(results)
 
 
-def run_task(task: Task, options: TaskOptions) -> tuple[dict, ...]:
-    """Measure one task; never raises for a corner's own failure: it comes back as an "error" record."""
+def run_task(task: Task, options: TaskOptions, netlists: dict[tuple, tuple] | None = None) -> tuple[dict, ...]:
+    """Measure one task; never raises for a corner's own failure: it comes back as an "error" record. ``netlists``: what
+    the plan's check read, {read_key: (netlist, files_state of its files)}, used while those files are unchanged."""
     from netloop.jobs.document import to_document
 
+    use_netlists(netlists)
     started = time.perf_counter()
     try:
         netlist = corner_netlist(task.corner)

@@ -177,7 +177,9 @@ def sensitivities(
 def _remeasure(loop: _Loop, nominal: LoopResult, jobs: list[SimJob]) -> Remeasure:
     """The Remeasure of the measured loop: its own probe job (whose circuit is still loaded) and windows around its features."""
     probed = split_loop(loop.netlist, loop.at, driver=loop.driver)[0]
-    job = next((j for j in reversed(jobs) if j.circuit_id and tuple(j.save) == probed.vectors.save), None)
+    # its last job exciting this split's series source (the netlist may hold another split's probe too: netloop.probe.chain)
+    job = next((j for j in reversed(jobs) if j.circuit_id and set(probed.vectors.save) <= set(j.save) and j.runs
+                and j.runs[0].ac.get(probed.series_source)), None)
     if job is None:
         job = probe_job(probed, (), timeout_s=loop.timeout_s)
     analysis = nominal.analysis

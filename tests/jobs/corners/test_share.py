@@ -58,6 +58,37 @@ def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
     assert sorted(len(w) for w in share_out(load_groups(list(tasks), share_loads=False), 2)) == [9, 9]
 
 
+def test_workers_take_the_netlists_the_plan_check_read_while_their_files_are_unchanged(tmp_path, monkeypatch):
+    """A worker given checked_plan's netlists reads no netlist for the corners they cover and builds the same corner
+    netlist as its own read; once the netlist file changes (size and modification time, os.stat) it reads it again."""
+    from netloop.jobs.corners.runner import checked_plan
+    from netloop.jobs.corners import worker
+    from netloop.netlist import parse_file, write_netlist
+
+    netlist = tmp_path / "miller.cir"
+    netlist.write_text(MILLER.read_text())
+    (tmp_path / "models").symlink_to(MILLER.parent / "models")
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{netlist}"\nat = "out"\n[axes]\nlib = ["tt", "ss"]\ntemp = [0, 50]\n')
+    tasks, netlists = checked_plan(load_plan(path))
+    assert set(netlists) == {worker.read_key(t.corner) for t in tasks} and len(netlists) == 2
+    reads = []
+    monkeypatch.setattr(worker, "parse_file", lambda p: reads.append(p) or parse_file(p))
+    monkeypatch.setattr(worker, "_READ", {})
+    own = [write_netlist(worker.corner_netlist(t.corner)) for t in tasks]  # the reference: the worker's own read
+    assert reads == [str(netlist)]
+    worker._READ.clear()
+    worker.use_netlists(netlists)
+    try:
+        assert [write_netlist(worker.corner_netlist(t.corner)) for t in tasks] == own and reads == [str(netlist)]
+        worker._READ.clear()
+        netlist.write_text(MILLER.read_text().replace("\n.end", "\n.param edited=1\n.end"))
+        changed = write_netlist(worker.corner_netlist(tasks[0].corner))
+        assert reads == [str(netlist)] * 2 and ".param edited=1" in changed and changed != own[0]
+    finally:
+        worker.use_netlists(None)
+
+
 @pytest.mark.ngspice
 def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(tmp_path):
     """Sixteen corners of one section (temperature, supply, a .param, an element's value) run one after the other in one
@@ -78,6 +109,43 @@ def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(
         assert np.array_equal(f1, f2) and np.array_equal(t1, t2), shared["corner"]
         assert shared["loop"]["margins"] == fresh["loop"]["margins"]
     assert len({r["loop"]["margins"]["phase_margin_deg"] for r in records[True]}) == 16  # every corner really differs
+
+
+# circuits/sky130/ldo.cir (an invented regulator on sky130 cards) with its supply at its reference: at node gate the rules'
+# split measures no loop, so every corner doubts it and measures the other placement of the cascode xm2 too.
+LDO = ROOT / "circuits" / "sky130" / "ldo.cir"
+
+
+@pytest.mark.ngspice
+def test_corners_that_doubt_their_split_measure_the_other_split_on_the_shared_load(tmp_path):
+    """Two corners (temperature; the supply changed too) of a regulator whose split is doubted at each run in one worker on one
+    load: the other placement of the bridge is measured on the same loaded circuit (both probes in one netlist,
+    netloop.probe.chain), and each corner's T, margins and checks are bit for bit those of one load per corner and those
+    of `netloop check` (measure) on the netlist edited by hand to that corner (ngspice's fresh loads are the reference)."""
+    plan = tmp_path / "plan.toml"
+    plan.write_text(f'netlist = "{LDO}"\nat = "gate"\n\n[axes]\ntemp = [27, 85]\nsupply.vsup = [0.9]\n')
+    tasks = check_plan(load_plan(plan))
+    records = {}
+    for share in (True, False):
+        close_simulator()
+        records[share] = [run_task(t, TaskOptions(share_loads=share))[0] for t in tasks]
+    close_simulator()
+    assert [r["loads"] for r in records[True]] == [1, 0]
+    assert [r["loads"] for r in records[False]] == [1, 1]
+    simulator = default_simulator()
+    try:
+        for i, (shared, fresh) in enumerate(zip(records[True], records[False])):
+            assert [c["name"] for c in shared["loop"]["checks"] if not c["passed"]][-1:] == ["split"], shared["corner"]
+            assert shared["loop"]["checks"] == fresh["loop"]["checks"] and shared["loop"]["margins"] == fresh["loop"]["margins"]
+            f1, t1 = _t(shared["loop"])
+            f2, t2 = _t(fresh["loop"])
+            assert np.array_equal(f1, f2) and np.array_equal(t1, t2), shared["corner"]
+            edited = tmp_path / f"corner{i}.cir"  # reading the same process file by its absolute path
+            edited.write_text(_hand_edited(LDO, shared["settings"], [(".lib process.spice tt", f".lib {LDO.with_name('process.spice')} tt")]))
+            check = measure(edited, "gate", simulator=simulator)
+            assert np.array_equal(check.analysis.freq_hz, f1) and np.array_equal(check.analysis.t, t1), shared["corner"]
+    finally:
+        simulator.close()
 
 
 @pytest.fixture(scope="module")

@@ -126,8 +126,9 @@ class _CountingLoads:
 @pytest.mark.ngspice
 def test_loads_count_every_netlist_ngspice_read_for_the_measurement():
     """A regulator whose supply sits below its reference (invented operating point, sky130 cards) measures no loop at the
-    rules' split, so netloop measures other placements too: SimInfo.loads counts those loads as well, exactly the loads
-    the simulator reports (ngspice's SimResult.loaded, counted job by job)."""
+    rules' split, so netloop measures the other placement of its bridge too, on the same loaded circuit (both probes are
+    in one netlist, netloop.probe.chain): SimInfo.loads is exactly the loads the simulator reports (ngspice's
+    SimResult.loaded, counted job by job), one for both splits."""
     from netloop.sim import default_simulator
 
     process = Path(__file__).resolve().parents[3] / "circuits" / "sky130" / "process.spice"
@@ -145,5 +146,6 @@ def test_loads_count_every_netlist_ngspice_read_for_the_measurement():
         result = measure(netlist, "gate", simulator=counting)
     finally:
         simulator.close()
-    assert "split" in [c.name for c in result.checks]  # other placements were measured
-    assert result.sim.loads == counting.loads >= 2
+    split = next(c for c in result.checks if c.name == "split")
+    assert "tried xm2 to the load side" in split.detail  # the other placement was measured
+    assert result.sim.loads == counting.loads == 1

@@ -140,3 +140,20 @@ def test_changed_values_simulate_only_near_the_crossovers(circuits_dir, simulato
         sweeps = job.runs[0].sweeps
         assert all(s.kind == "lin" for s in sweeps) and sum(s.points for s in sweeps) <= 40
         assert any(s.fstart_hz < fc < s.fstop_hz and s.fstop_hz / s.fstart_hz < 1.2 for s in sweeps)
+
+
+@pytest.mark.ngspice
+def test_a_chained_measurement_changes_its_values_on_the_measured_circuit(circuits_dir, simulator):
+    """At node gate of circuits/sky130/ldo.cir the measured netlist also holds the other split's probe at rest
+    (netloop.probe.chain): each changed value of a knob still runs on the measured circuit (its circuit_id and netlist:
+    no new load), exciting the split that was measured (its series source in the first run)."""
+    from netloop.jobs.sensitivity.job import _Remembering  # noqa: PLC0415 - records the jobs sent
+
+    recorder = _Remembering(simulator)
+    run = sensitivities(circuits_dir / "sky130" / "ldo.cir", "gate", knobs=["cout"], simulator=recorder)
+    measured = next(j for j in recorder.jobs if not j.alters)
+    changed = [j for j in recorder.jobs if j.alters]
+    assert len(measured.excitable) == 4 and len(changed) == 4 and run.sensitivities[0].whole_sweeps == 0
+    for job in changed:
+        assert job.circuit_id == measured.circuit_id and job.netlist == measured.netlist
+        assert job.runs[0].ac == measured.runs[0].ac == {"vnl_series": 1.0, "inl_shunt": 0.0}
