@@ -100,3 +100,23 @@ def test_poles_above_the_top_of_the_sweep_are_not_reported(where, kept):
     poles, _ = closed_loop_poles(f, 10.0 / (1 + 2j * math.pi * f / w1), nyquist_rhp=0)
     assert abs(-(1 + 10.0) * w1) > 2 * math.pi * f[-2]
     assert [round(p.real / (11.0 * w1), 6) for p in poles.poles_rad_s] == ([-1.0] if kept else [])
+
+
+@pytest.mark.parametrize("k", [30.0, 1.8])
+@pytest.mark.parametrize("lo_hz, hi_hz", [(1.0, 1e7), (2e3, 1e8)])
+def test_open_loop_rhp_pole_read_from_the_fit(k, lo_hz, hi_hz):
+    """T = k/((s/w0 - 1)(s/(10 w0) + 1)), w0 = 2 pi 1 kHz, has one pole in the right half plane at w0 (numpy.roots of its
+    denominator): the fit reads it back, on sweeps whose middle is not 1 Hz, and also from a sweep that starts at 2 kHz
+    (above the pole, but not ten times above); with k = 1.8 a closed-loop pole sits at -w0, the pole's mirror image, and
+    is not taken for its doublet. The closed-loop poles are numpy.roots of (s/w0 - 1)(s/(10 w0) + 1) + k."""
+    w0 = 2 * math.pi * 1e3
+    f = np.logspace(np.log10(lo_hz), np.log10(hi_hz), int(round(20 * np.log10(hi_hz / lo_hz))) + 1)
+    s = 2j * math.pi * f
+    den = np.polymul([1 / w0, -1.0], [1 / (10 * w0), 1.0])
+    poles, notes = closed_loop_poles(f, k / np.polyval(den, s), nyquist_rhp=0)
+    assert sorted(np.roots(den).real) == pytest.approx([-10 * w0, w0])  # the reference pole at +w0
+    (p,) = poles.open_loop_rhp_poles_rad_s
+    assert p == pytest.approx(w0, rel=1e-6)
+    expected = sorted(np.roots(np.polyadd(den, [k])), key=lambda r: (abs(r), r.imag))
+    assert sorted(poles.poles_rad_s, key=lambda r: (abs(r), r.imag)) == pytest.approx(expected, rel=1e-6)
+    assert not notes
