@@ -39,6 +39,7 @@ from netloop.jobs.compare_explain import (
 from netloop.graph import find_loops, flatten
 from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
+from netloop.jobs.measure_checks import voltage_sources
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
@@ -155,7 +156,7 @@ def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[Ac
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
-        op_voltages=False,  # as probe_job: the first ac's own operating point serves, no separate op run
+        op_voltages=True,  # its node voltages: the check "operating-point" (netloop.jobs.measure.sample_loops)
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this comparison runs on one loaded circuit
     )
 
@@ -220,7 +221,8 @@ def compare(
 
     try:
         names = [_key(p.location, m) for p in probes for m in methods]
-        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles))
+        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles),
+                                                    sources=voltage_sources(parsed))
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
