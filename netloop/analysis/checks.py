@@ -18,8 +18,9 @@ rhp-count     Z = N + P is a count: 0 or more. P, the open-loop right-half-plane
               P does not fit the data, so neither "stable" nor "unstable" can be claimed.
 operating-point  the DC operating point ngspice returned is credible: no node lies beyond the range of the
               circuit's independent DC voltage sources and ground by more than OP_SPAN_FACTOR times that
-              range's span (operating_point_check). Beyond it ngspice converged to a false solution (a model
-              driven far outside its range), and margins read around it describe no real bias. The job that
+              range's span (operating_point_check). Beyond it ngspice found a false solution (a model driven
+              far outside its range), or a current source drives a node nothing else holds (a device that is
+              off), and margins read around it describe no intended bias. The job that
               ran the simulation supplies the voltages (netloop.jobs.measure.sample_loops).
 """
 
@@ -158,8 +159,9 @@ def operating_point_check(voltages: Mapping[str, float], sources: Mapping[str, f
         "operating-point",
         False,
         f"the operating point ngspice returned is not credible: {shown}{more} lie beyond {credible}; no bias of these "
-        "sources reaches that, so ngspice converged to a false solution (a device model driven far outside its range) "
-        "and no margin read around it describes the circuit",
+        "sources reaches that: ngspice found a false solution (a device model driven far outside its range), or a "
+        "current source drives a node that nothing else holds, and no margin read around it describes the intended circuit",
         f"steer ngspice to the intended bias: a .nodeset near it for {nodes}, or a start-up hint (.ic, a start-up "
-        "path that sets the bias); then check that the device models hold at this corner and temperature",
+        "path that sets the bias); when the netlist itself gives that bias, look for a current source into a node that "
+        "only a resistance holds (a device that is off or of no size)",
     )
