@@ -74,3 +74,25 @@ def test_the_regulator_at_its_typical_corner_still_passes(tmp_path):
     op = result.analysis.checks[0]
     assert op.name == "operating-point" and op.passed and "-7.2 V to 9 V" in op.detail
     assert result.verdict == "pass"
+
+
+# a 10 mA current source into 100 kOhm that nothing else holds: "far" sits at 1000 V (closed form, I R), hundreds of
+# spans beyond the 0-3.3 V of fd_amp_cmfb.cir's supply (the limits of the rule, by hand: -13.2 V and 16.5 V)
+FAR = "ibig 0 far dc 10m\nrbig far 0 100k\n.end"
+
+
+@pytest.mark.ngspice
+def test_pairs_and_comparisons_carry_the_check(tmp_path):
+    """measure_pair and compare read the operating point too: a node at 1000 V makes every mode and location inconclusive."""
+    from netloop.jobs.compare import compare  # noqa: PLC0415 - the jobs under test, side by side
+    from netloop.jobs.measure_pair import measure_pair  # noqa: PLC0415
+
+    path = tmp_path / "fd_amp_cmfb.cir"
+    path.write_text((ROOT / "circuits" / "fd_amp_cmfb.cir").read_text().replace("\n.end", "\n" + FAR, 1))
+    (tmp_path / "models").symlink_to(ROOT / "circuits" / "models")
+    pair = measure_pair(path, "outp,outn")
+    comparison = compare(path, ["outp", "cmfb"])
+    for result in (*pair.modes.values(), *comparison.results):
+        op = result.analysis.checks[0]
+        assert op.name == "operating-point" and not op.passed and "far at 1000 V" in op.detail and "-13.2 V to 16.5 V" in op.detail
+        assert result.verdict == "inconclusive"
