@@ -19,7 +19,7 @@ __all__ = ["propose_frequencies", "refine"]
 
 
 def _brackets(analysis: LoopAnalysis) -> list[int]:
-    """Indices i such that a crossover lies in [f_i, f_i+1]."""
+    """Indices i such that a crossover lies in [f_i, f_i+1) (clipped to the first and last interval)."""
     f = analysis.freq_hz
     events = [c.freq_hz for c in analysis.gain_crossovers] + [c.freq_hz for c in analysis.phase_crossovers if c.freq_hz > 0.0]
     idx = np.clip(np.searchsorted(f, events, side="right") - 1, 0, f.size - 2)
@@ -30,9 +30,10 @@ def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: L
     """New frequencies (Hz, ascending, none already sampled) that subdivide each crossover's interval and its neighbours,
     and every interval the Nyquist count found too coarse (NyquistVerdict.coarse_hz).
 
-    Each interval [f_i, f_i+1] that holds a gain or phase crossover (above the floor; not the one
-    at DC of a loop with positive feedback there), and the interval on either side of it, is
-    split into points_per_interval + 1 equal steps in log f; so is each coarse interval.
+    Each interval [f_i, f_i+1) that holds a gain or phase crossover (above the floor; not the one
+    at DC of a loop with positive feedback there; the first and last intervals also hold a crossover
+    read a rounding error outside the sweep), and the interval on either side of it, is split into
+    points_per_interval + 1 equal steps in log f; so is each coarse interval.
     Returns an empty array when there is no crossover and no coarse interval.
     """
     if analysis is None:

@@ -132,8 +132,9 @@ def test_a_sample_that_overflows_is_left_to_analyse_without_a_warning():
         warnings.simplefilter("error")
         t_tian = tian(va1, vb1, ib2)
         t_mb = middlebrook(va1, vb1, ib2 - 1.0, ib2)
-        t_zero = middlebrook(np.array([1.0]), np.array([0.0]), np.array([0.0]), np.array([0.0]))  # 0 / 0
+        t_zero = middlebrook(np.array([1.0]), np.array([0.0]), np.array([1.0]), np.array([0.0]))  # 1 / 0
+        t_nan = middlebrook(np.array([1.0]), np.array([0.0]), np.array([0.0]), np.array([0.0]))  # 0 / 0
     assert list(np.isfinite(t_tian)) == list(np.isfinite(t_mb)) == [True, True, False, True, True]
-    assert not np.isfinite(t_zero[0])
+    assert not np.isfinite(t_zero[0]) and not np.isfinite(t_nan[0])
     with pytest.raises(AnalysisError, match="3 Hz"):
         analyse(np.array([1.0, 2.0, 3.0, 4.0, 5.0]), t_tian)
