@@ -41,8 +41,9 @@ def test_the_credible_range_names_the_sources_at_its_ends():
     assert "the range 0 V to 1.8 V of the independent voltage sources (ground to vdd)" in check.detail
     check = operating_point_check({"out": 1.0}, {"vcc": 5.0, "vee": -5.0})
     assert "the range -5 V to 5 V of the independent voltage sources (vee to vcc)" in check.detail
-    check = operating_point_check({"out": -1.0}, {"vneg": -12.0})
-    assert "(vneg to ground)" in check.detail
+    check = operating_point_check({"out": -1.0}, {"vneg": -12.0, "vamm": 0.0})
+    assert check.detail == ("every node of the operating point lies within the range -12 V to 0 V of the independent voltage sources "
+                            "(vneg to ground) widened by 4 times its span on each side: -60 V to 48 V")
 
 
 @pytest.mark.parametrize("node_v", [3.6, 5.4, -3.6])
@@ -68,7 +69,10 @@ def test_the_false_sky130_solution_is_flagged():
     assert not check.passed
     assert check.detail.startswith("the operating point ngspice returned is not credible: fb at -409.4 V, xc1.a at -409.4 V lie beyond")
     assert "-6.8 V to 8.5 V" in check.detail and "vout" not in check.detail
-    assert ".nodeset" in check.advice and "v(fb), v(xc1.a)" in check.advice
+    assert "no bias of these sources reaches that: ngspice found a false solution (a device model driven far outside its range)" in check.detail
+    assert "a current source drives a node that nothing else holds" in check.detail
+    assert check.advice.startswith("steer ngspice to the intended bias: a .nodeset near it for v(fb), v(xc1.a), or a start-up hint")
+    assert "look for a current source into a node that only a resistance holds" in check.advice
 
 
 def test_the_worst_three_nodes_are_named_first():
@@ -77,3 +81,5 @@ def test_the_worst_three_nodes_are_named_first():
     check = operating_point_check(op, {"v1": 1.0})  # limits -4 V and 5 V
     assert "c at nan V, d at 100 V, b at -30 V and 1 more node(s) lie beyond" in check.detail
     assert "v(c), v(d), v(b)" in check.advice and "e at" not in check.detail
+    check = operating_point_check({"a": 20.0, "b": -30.0, "d": 100.0}, {"v1": 1.0})
+    assert "d at 100 V, b at -30 V, a at 20 V lie beyond" in check.detail and "more node" not in check.detail
