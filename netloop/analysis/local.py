@@ -122,7 +122,7 @@ def windows_of(analysis: LoopAnalysis, half_width: float = 0.06, points: int = 9
     for group in groups:
         lo, hi = group[0][0] * math.exp(-half_width), group[-1][0] * math.exp(half_width)
         kinds = [kind for _, kind in group]
-        span = math.log(hi / lo) / (2.0 * half_width)  # in window widths
+        span = 1.0 + math.log(group[-1][0] / group[0][0]) / (2.0 * half_width)  # in window widths: exactly 1 for one crossover
         count = max(points, math.ceil((points - 1) * span) + 1)
         out.append(Window(lo, hi, count, float(resp.phase_at(math.log10((lo + hi) / 2.0))), kinds.count("gain"), kinds.count("phase")))
     if _has_inner_peak(analysis):

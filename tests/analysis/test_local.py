@@ -318,3 +318,13 @@ def test_windows_that_touch_at_an_edge_are_one():
         crossings = tuple(replace(a.gain_crossovers[0], freq_hz=float(fr)) for fr in (first, second))
         moved = replace(a, gain_crossovers=crossings, phase_crossovers=())
         assert [w.gain_crossovers for w in windows_of(moved) if w.points > 1] == ([2] if count == 1 else [1, 1])
+
+
+@pytest.mark.parametrize("half_width", [0.02, 0.06, 0.1, 0.3])
+@pytest.mark.parametrize("points", [5, 9, 17])
+def test_a_window_around_one_crossover_has_exactly_the_points_asked_for(half_width, points):
+    """A window around one crossover is swept at exactly ``points`` frequencies, whatever its width (windows_of's
+    docstring; each point is one more simulated frequency)."""
+    a = analyse(F, three_pole(F))
+    single = [w for w in windows_of(a, half_width=half_width, points=points) if w.gain_crossovers + w.phase_crossovers == 1]
+    assert [w.points for w in single] == [points, points]

@@ -283,3 +283,31 @@ def test_refine_returns_no_poles_when_asked_for_none():
         f, t = sample(loop, 1e-3, 1e3, per_decade=5)
         out = refine(evaluator(loop, []), f, t, fit_poles=False)
         assert out.analysis.poles is None and (out.rounds > 0) == (loop is RESONANT)
+
+
+def test_refine_goes_on_while_the_nyquist_count_asks_for_denser_samples():
+    """A resonance (12 rad/s, Q 12.24, |T| 1.02 at its peak) whose two crossovers hide between 5-per-decade samples:
+    the PM of the one crossover seen settles in two rounds, but the Nyquist count still finds the samples too coarse
+    there, so refine() goes on to python-control's three crossovers and worst PM (our own shape)."""
+    loop = 1 / (S * (S**2 / 12**2 + S / (12 * 12.24) + 1))
+    f, t = sample(loop, 1e-3, 1e3, per_decade=5)
+    assert len(analyse(f, t, fit_poles=False).gain_crossovers) == 1  # the coarse data sees one crossover
+    _, pms, _, _, wcs, _ = control.stability_margins(loop, returnall=True)  # python-control 0.10: every gain crossover
+    out = refine(evaluator(loop, []), f, t)
+    assert out.converged and out.analysis.nyquist.coarse_hz == ()
+    np.testing.assert_allclose([c.freq_hz for c in out.analysis.gain_crossovers], np.sort(wcs) / (2 * np.pi), rtol=1e-7)
+    assert out.analysis.margins.phase_margin_deg == pytest.approx(min(pms), abs=1e-4)
+
+
+def test_a_loop_without_crossovers_but_too_coarse_samples_is_refined_until_they_are_not():
+    """|T| < 1 everywhere but a Q = 5 resonance turns the phase by more than 60 deg between 5-per-decade samples: refine()
+    samples the coarse intervals (as propose_frequencies proposes) until the Nyquist count has what it needs (our own
+    shape; refine's docstring)."""
+    loop = 0.1 / (S**2 / 100 + S / (10 * 5) + 1)
+    f, t = sample(loop, 1e-3, 1e3, per_decade=5)
+    a = analyse(f, t, fit_poles=False)
+    assert a.gain_crossovers == () and a.nyquist.coarse_hz  # the case is what it claims
+    calls = []
+    out = refine(evaluator(loop, calls), f, t)
+    assert out.rounds >= 1 and out.converged and out.analysis.nyquist.coarse_hz == () and out.last_change_deg is None
+    np.testing.assert_array_equal(calls[0], propose_frequencies(f, t))
