@@ -59,7 +59,7 @@ class Window:
         return self.points == 1 and not self.peak
 
     def holds(self, freq_hz) -> np.ndarray:
-        """Which of ``freq_hz`` lie in this window (with a little room for rounding)."""
+        """Which of ``freq_hz`` lie in this window, edges included, with a relative room of 1e-9 for rounding."""
         f = np.asarray(freq_hz, dtype=float)
         return (f >= self.fstart_hz * (1.0 - 1e-9)) & (f <= self.fstop_hz * (1.0 + 1e-9))
 
@@ -69,8 +69,9 @@ class LocalReading:
     """The figures a sensitivity follows, read from the windows (or from a whole analysis).
 
     Each is None when it does not exist for the loop (as in netloop.analysis.results.Margins);
-    ``peak_db`` is None when |T/(1+T)| has no peak inside the sweep; from windows it is the level at
-    the measured peak's frequency (see the module docstring). ``problem`` is None for a
+    ``peak_db`` is None when |T/(1+T)| has no peak inside the sweep (strictly between its second and
+    its last-but-one sample: a maximum found at those or beyond is the sweep's edge, not a peak);
+    from windows it is the level at the measured peak's frequency (see the module docstring). ``problem`` is None for a
     reading that can be trusted, else why not (then the figures are None).
     """
 
@@ -121,7 +122,7 @@ def windows_of(analysis: LoopAnalysis, half_width: float = 0.06, points: int = 9
     for group in groups:
         lo, hi = group[0][0] * math.exp(-half_width), group[-1][0] * math.exp(half_width)
         kinds = [kind for _, kind in group]
-        span = math.log(hi / lo) / (2.0 * half_width)  # in window widths
+        span = 1.0 + math.log(group[-1][0] / group[0][0]) / (2.0 * half_width)  # in window widths: exactly 1 for one crossover
         count = max(points, math.ceil((points - 1) * span) + 1)
         out.append(Window(lo, hi, count, float(resp.phase_at(math.log10((lo + hi) / 2.0))), kinds.count("gain"), kinds.count("phase")))
     if _has_inner_peak(analysis):

@@ -19,7 +19,7 @@ __all__ = ["propose_frequencies", "refine"]
 
 
 def _brackets(analysis: LoopAnalysis) -> list[int]:
-    """Indices i such that a crossover lies in [f_i, f_i+1]."""
+    """Indices i such that a crossover lies in [f_i, f_i+1) (clipped to the first and last interval)."""
     f = analysis.freq_hz
     events = [c.freq_hz for c in analysis.gain_crossovers] + [c.freq_hz for c in analysis.phase_crossovers if c.freq_hz > 0.0]
     idx = np.clip(np.searchsorted(f, events, side="right") - 1, 0, f.size - 2)
@@ -30,9 +30,10 @@ def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: L
     """New frequencies (Hz, ascending, none already sampled) that subdivide each crossover's interval and its neighbours,
     and every interval the Nyquist count found too coarse (NyquistVerdict.coarse_hz).
 
-    Each interval [f_i, f_i+1] that holds a gain or phase crossover (above the floor; not the one
-    at DC of a loop with positive feedback there), and the interval on either side of it, is
-    split into points_per_interval + 1 equal steps in log f; so is each coarse interval.
+    Each interval [f_i, f_i+1) that holds a gain or phase crossover (above the floor; not the one
+    at DC of a loop with positive feedback there; the first and last intervals also hold a crossover
+    read a rounding error outside the sweep), and the interval on either side of it, is split into
+    points_per_interval + 1 equal steps in log f; so is each coarse interval.
     Returns an empty array when there is no crossover and no coarse interval.
     """
     if analysis is None:
@@ -66,6 +67,11 @@ def _pms(a: LoopAnalysis) -> np.ndarray:
     return np.array([c.phase_margin_deg for c in a.gain_crossovers])
 
 
+def _nothing_to_refine(a: LoopAnalysis) -> bool:
+    """No gain crossover whose margin could move, and no interval the Nyquist count found too coarse."""
+    return not a.gain_crossovers and not a.nyquist.coarse_hz
+
+
 def refine(
     evaluate: Callable[[np.ndarray], np.ndarray],
     freq_hz,
@@ -78,11 +84,16 @@ def refine(
     floor_db: float = DEFAULT_FLOOR_DB,
     fit_poles: bool = True,
 ) -> Refinement:
-    """Add samples around every crossover until each phase margin moves by less than tol_deg in a round.
+    """Add samples around every crossover, and in every interval the Nyquist count found too coarse,
+    until each phase margin moves by less than tol_deg in a round and no interval is too coarse
+    (or no crossover and no coarse interval is left).
 
     evaluate(new_freqs_hz) must return T at exactly those frequencies (same length, complex);
     AnalysisError otherwise. A round whose crossovers differ in number from the previous one is
-    never taken as converged. The returned analysis is of all samples merged (fit_poles as given).
+    never taken as converged, nor one after which the Nyquist count still asks for denser samples
+    (NyquistVerdict.coarse_hz: a resonance between samples can hide two crossovers while the
+    margins of the others settle). When no new frequency can be added (samples a rounding error
+    apart) refine() stops unconverged. The returned analysis is of all samples merged (fit_poles as given).
     """
     kwargs = {"open_loop_rhp_poles": open_loop_rhp_poles, "floor_db": floor_db}
     f = np.asarray(freq_hz, dtype=float)
@@ -90,7 +101,7 @@ def refine(
     current = analyse(f, tt, fit_poles=False, **kwargs)
     rounds = added = 0
     change: float | None = None
-    converged = not current.gain_crossovers
+    converged = _nothing_to_refine(current)
     while not converged and rounds < max_rounds:
         new = propose_frequencies(f, tt, points_per_interval=points_per_interval, analysis=current)
         if new.size == 0:
@@ -104,10 +115,7 @@ def refine(
         previous = current
         current = analyse(f, tt, fit_poles=False, **kwargs)
         before, after = _pms(previous), _pms(current)
-        if before.size == after.size and after.size:
-            change = float(np.max(np.abs(after - before)))
-            converged = change < tol_deg
-        else:
-            change = None
+        change = float(np.max(np.abs(after - before))) if before.size == after.size and after.size else None
+        converged = _nothing_to_refine(current) or (change is not None and change < tol_deg and not current.nyquist.coarse_hz)
     final = analyse(f, tt, fit_poles=fit_poles, **kwargs) if fit_poles else current
     return Refinement(final, rounds, added, converged, change)

@@ -377,10 +377,13 @@ class Refinement:
     analysis                  the LoopAnalysis of the merged, refined data.
     rounds                    how many times new frequencies were evaluated.
     points_added              how many frequencies were added in total.
-    converged                 True when the worst phase margin moved by less than the tolerance
-                              in the last round (or there is no gain crossover to refine).
-    last_change_deg           |change| of the worst phase margin in the last round; None when
-                              there was no round or no crossover.
+    converged                 True when every phase margin moved by less than the tolerance in
+                              the last round, with as many crossovers as the round before, and the
+                              Nyquist count found the samples dense enough everywhere (no
+                              NyquistVerdict.coarse_hz); or when there was nothing to refine (no
+                              gain crossover and no coarse interval).
+    last_change_deg           the largest |change| of a phase margin in the last round; None when
+                              there was no round, no crossover, or the round changed their number.
     """
 
     analysis: LoopAnalysis

@@ -32,7 +32,7 @@ from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.splits import LoopStructure
-from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band
+from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band, voltage_sources
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
                                   refuse_inputs_only, sample_loops)
 from netloop.netlist import Netlist, write_netlist
@@ -117,7 +117,7 @@ def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", t
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
-        op_voltages=False,  # as probe_job: the first ac's own operating point serves, no separate op run
+        op_voltages=True,  # its node voltages: the check "operating-point" (netloop.jobs.measure.sample_loops)
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this measurement runs on one loaded circuit
     )
 
@@ -210,7 +210,7 @@ def _sample_pair(parsed: Netlist, nodes: tuple[str, str], drivers, placements, *
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
-    analyses, info, sim_warnings = sample_loops(job_for, ratios, simulator, sweep, rhp)
+    analyses, info, sim_warnings = sample_loops(job_for, ratios, simulator, sweep, rhp, sources=voltage_sources(parsed))
     return _Sampled(probe, analyses, info, sim_warnings, samples)
 
 

@@ -3,24 +3,12 @@
 from __future__ import annotations
 
 import json
-import math
 
 import pytest
+from two_pole_loop import LOOP  # tests/two_pole_loop.py (tests/ is on the path with its conftest)
 
 from netloop.cli.main import main
 
-C1 = 1.0 / (2 * math.pi * 1e3 * 1e3)  # 1 kOhm, pole at 1 kHz
-C2 = 1.0 / (2 * math.pi * 1e3 * 1e6)  # 1 kOhm, pole at 1 MHz
-LOOP = f"""behavioural single loop: gain 1000, poles 1 kHz and 1 MHz
-vref ref 0 dc 0.5
-e0 n0 0 ref out 1000
-r1 n0 p1 1k
-c1 p1 0 {C1:.17g}
-eb b1 0 p1 0 1
-r2 b1 out 1k
-c2 out 0 {C2:.17g}
-.end
-"""
 SWEEP = ["--fmin", "1", "--fmax", "1g"]
 
 

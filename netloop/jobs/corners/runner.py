@@ -245,7 +245,7 @@ def _lost(task: Task, exc: BaseException) -> tuple[dict, ...]:
     """The record of a task whose worker failed outright (not the corner's own simulation)."""
     return ({"record": "corner", "key": task.key, "corner": task.corner.name, "at": task.at, "netlist": task.corner.netlist,
              "settings": task.corner.describe(), "outcome": "error", "error": f"the worker failed: {exc!r}",
-             "simulator_output": None, "seconds": 0.0, "sim_seconds": 0.0, "worker": None, "loop": None},)
+             "simulator_output": None, "seconds": 0.0, "sim_seconds": 0.0, "loads": None, "worker": None, "loop": None},)
 
 
 def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None, out: str | Path | None = None,

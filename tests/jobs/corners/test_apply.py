@@ -6,7 +6,7 @@ import pytest
 
 from netloop.jobs.corners import Setting, apply_settings
 from netloop.jobs.corners.apply import CornerApplyError
-from netloop.netlist import parse_text, write_netlist
+from netloop.netlist import SourceLocation, parse_text, write_netlist
 
 
 def _both(tmp_path, text: str, settings: tuple[Setting, ...], edit) -> tuple[str, str]:
@@ -35,6 +35,20 @@ def test_temperature_setting_drops_every_other_temperature(tmp_path):
     nl = apply_settings(str(src), (Setting("temp", "", "-40"),))
     assert [d.text for d in nl.directives] == [".options reltol=1e-4", ".opt", ".option gmin=1e-12", ".temp -40"]
     assert nl.directives[-1].location.file == "<corner>"
+
+
+def test_seed_setting_puts_the_seed_option_first(tmp_path):
+    """A seed setting gives the netlist edited by hand with ``.option seed=N`` as its first statement, ahead of the
+    netlist's own seed (ngspice takes the first seed it reads), at the corner's location (the plan line when given)."""
+    text = "t\n.option seed=1 reltol=1e-4\nR1 n 0 1k\n.end\n"
+    ours, hand = _both(tmp_path, text, (Setting("seed", "", "7"),), lambda t: t.replace(".option seed=1", ".option seed=7\n.option seed=1"))
+    assert ours == hand
+    src = tmp_path / "c.cir"
+    reference = parse_text(text.replace(".option seed=1", ".option seed=7\n.option seed=1"), source=str(src), base_dir=str(tmp_path))
+    for origin in (None, SourceLocation(str(tmp_path / "plan.toml"), 12)):
+        nl = apply_settings(str(src), (Setting("seed", "", "7"), Setting("temp", "", "50")), origin=origin)
+        assert [(d.keyword, d.text) for d in nl.directives] == [(d.keyword, d.text) for d in reference.directives] + [(".temp", ".temp 50")]
+        assert nl.directives[0].location == (origin or SourceLocation("<corner>", 1))
 
 
 def test_supply_setting_needs_a_voltage_source(tmp_path):

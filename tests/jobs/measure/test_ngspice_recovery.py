@@ -6,20 +6,11 @@ import math
 
 import control
 import pytest
+from two_pole_loop import ELEMENTS  # tests/two_pole_loop.py (tests/ is on the path with its conftest)
 
 from netloop.jobs.measure import Sweep, measure
 
-C1 = 1.0 / (2 * math.pi * 1e3 * 1e3)  # 1 kOhm, pole at 1 kHz
-C2 = 1.0 / (2 * math.pi * 1e3 * 1e6)  # 1 kOhm, pole at 1 MHz
-LOOP = f"""behavioural loop: gain 1000, poles 1 kHz and 1 MHz, beside a bias cell ngspice needs gmin stepping for
-vref ref 0 dc 0.5
-e0 n0 0 ref out 1000
-r1 n0 p1 1k
-c1 p1 0 {C1:.17g}
-eb b1 0 p1 0 1
-r2 b1 out 1k
-c2 out 0 {C2:.17g}
-* the bias cell: sqrt(0.70 - v(c)) is evaluated out of its domain while the operating point is searched
+LOOP = "behavioural loop: gain 1000, poles 1 kHz and 1 MHz, beside a bias cell ngspice needs gmin stepping for\n" + ELEMENTS + """* the bias cell: sqrt(0.70 - v(c)) is evaluated out of its domain while the operating point is searched
 vdd vdd 0 dc 5
 r9 vdd c 1k
 d9 c 0 dmod

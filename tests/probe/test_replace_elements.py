@@ -1,0 +1,103 @@
+"""replace_elements: new cards for elements of one scope, inside an instance on a copy of each definition on its path."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from netloop.netlist import parse_text, write_netlist
+from netloop.probe.rewrite import replace_elements
+from netloop.probe.scope import elements_of, walk_scopes
+
+# Invented: two channels of two stages each (as NESTED in test_nested.py), with a .param line inside stage; the model card is invented.
+TEXT = """replace test
+.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
+.subckt channel in out vdd
+.subckt stage in out vdd
+.param rl=20k
+Rd vdd n5 {rl}
+M1 n5 in 0 0 nch w=10u l=1u
+Rs n5 out 1k
+.ends stage
+xa in mid vdd stage
+xb mid out vdd stage
+.ends channel
+Vdd vdd 0 dc 3.3
+xc1 in o1 vdd channel
+xc2 in o2 vdd channel
+Rd in 0 5k
+.end
+"""
+
+# The same netlist edited by hand: Rd of xc2.xa only is 30k; channel is copied for xc2 and stage for xc2.xa (each copy
+# named after the original, the tag and the instance path), xc2 and the copy's xa point at the copies; xc1, xb, the
+# top-level Rd and the original definitions are untouched.
+EDITED = """replace test
+.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05
+.subckt channel in out vdd
+.subckt stage in out vdd
+.param rl=20k
+Rd vdd n5 {rl}
+M1 n5 in 0 0 nch w=10u l=1u
+Rs n5 out 1k
+.ends stage
+xa in mid vdd stage
+xb mid out vdd stage
+.ends channel
+.subckt channel_changed_in_xc2 in out vdd
+.subckt stage in out vdd
+.param rl=20k
+Rd vdd n5 {rl}
+M1 n5 in 0 0 nch w=10u l=1u
+Rs n5 out 1k
+.ends stage
+.subckt stage_changed_in_xc2_xa in out vdd
+.param rl=20k
+Rd vdd n5 30k
+M1 n5 in 0 0 nch w=10u l=1u
+Rs n5 out 1k
+.ends stage_changed_in_xc2_xa
+xa in mid vdd stage_changed_in_xc2_xa
+xb mid out vdd stage
+.ends channel_changed_in_xc2
+Vdd vdd 0 dc 3.3
+xc1 in o1 vdd channel
+xc2 in o2 vdd channel_changed_in_xc2
+Rd in 0 5k
+.end
+"""
+
+
+def _rd_at(netlist, path):
+    scope = next(s for s in walk_scopes(netlist, frozenset()) if s.path == path)
+    rd = next(e for e in elements_of(netlist, scope) if e.key == "rd")
+    return scope, replace(rd, tokens=(*rd.tokens[:2], "30k"))
+
+
+def test_an_element_inside_one_instance_is_replaced_on_copies_of_its_path():
+    """Rd inside xc2.xa gets its new card in copies of channel and stage; the written netlist equals the hand-edited one."""
+    nl = parse_text(TEXT)
+    scope, new = _rd_at(nl, ("xc2", "xa"))
+    taken = {"channel", "stage"}
+    r = replace_elements(nl.statements, scope, {"rd": new}, taken)
+    assert r.copies == (("channel", "channel_changed_in_xc2"), ("stage", "stage_changed_in_xc2_xa"))
+    assert taken == {"channel", "stage", "channel_changed_in_xc2", "stage_changed_in_xc2_xa"}  # the new names are taken now
+    assert write_netlist(replace(nl, statements=r.statements, _index={})) == write_netlist(parse_text(EDITED))
+
+
+def test_a_copy_name_already_taken_gets_a_number():
+    """A copy whose name is taken (by another definition) is named with the next free number, and the X line follows it."""
+    nl = parse_text(TEXT)
+    scope, new = _rd_at(nl, ("xc2", "xa"))
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage", "channel_changed_in_xc2"})
+    assert r.copies == (("channel", "channel_changed_in_xc2_2"), ("stage", "stage_changed_in_xc2_xa"))
+    assert "xc2 in o2 vdd channel_changed_in_xc2_2" in write_netlist(replace(nl, statements=r.statements, _index={})).splitlines()
+
+
+def test_a_top_level_element_is_replaced_in_place():
+    """At the top level only the named card changes: no definition is copied, every other statement stays the same object."""
+    nl = parse_text(TEXT)
+    scope, new = _rd_at(nl, ())
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage"})
+    assert r.copies == ()
+    changed = [(a, b) for a, b in zip(nl.statements, r.statements, strict=True) if a is not b]
+    assert changed == [(next(e for e in nl.elements if e.key == "rd"), new)]
