@@ -31,6 +31,7 @@ flattened elements only (``op_sources``), as closed-loop-pz is.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 
@@ -248,14 +249,14 @@ def op_sources(netlist: Netlist) -> tuple[tuple[str, str, str], ...] | None:
 
 def op_check(sources: tuple[tuple[str, str, str], ...], voltages: Mapping[str, float]) -> Check:
     """The check "operating-point" of the node ``voltages`` ngspice returned (lower-case names, ground left out), each
-    source's voltage read from them (a source with a node ngspice did not report is left out)."""
+    source's voltage read from them (a source with a node ngspice did not report, or not a finite number, is left out)."""
     def node(n: str) -> float | None:
         return 0.0 if n == "0" else voltages.get(n.lower())
 
     across = {}
     for name, plus, minus in sources:
         p, m = node(plus), node(minus)
-        if p is not None and m is not None:
+        if p is not None and m is not None and math.isfinite(p - m):
             across[name] = p - m
     return operating_point_check(voltages, across)
 

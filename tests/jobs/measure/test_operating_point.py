@@ -37,8 +37,10 @@ def test_sources_are_read_from_the_flattened_netlist():
     # a node at -200 V lies beyond them (the sources' own voltages are what ngspice enforces, as in any solution)
     check = op_check(sources, {"vdd": 3.3, "mid": 2.7, "sense": 2.7, "x1.out": 2.7, "far": -200.0})
     assert not check.passed and "far at -200 V lie beyond" in check.detail
-    # without a reading of vdd neither vdd nor x1.vshift has a voltage, and vamm's is 0 V: nothing sets a range
+    # without a reading of vdd (or with none that is a number) neither vdd nor x1.vshift has a voltage, and vamm's is 0 V:
+    # nothing sets a range
     assert op_check(sources, {"mid": 90.0, "sense": 90.0}).detail.startswith("not applicable")
+    assert op_check(sources, {"vdd": float("nan"), "mid": 90.0, "sense": 90.0}).detail.startswith("not applicable")
 
 
 @pytest.mark.parametrize("resistors, checked", [(OP_CHECK_MAX_ELEMENTS - 1, True), (OP_CHECK_MAX_ELEMENTS, False)])
