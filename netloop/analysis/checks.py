@@ -140,7 +140,7 @@ def operating_point_check(voltages: Mapping[str, float], sources: Mapping[str, f
     low, high = min(0.0, named[0][1]), max(0.0, named[-1][1])
     span = high - low
     floor, ceiling = low - OP_SPAN_FACTOR * span, high + OP_SPAN_FACTOR * span
-    ends = (f"{named[0][0]}" if named[0][1] < 0.0 else "ground", f"{named[-1][0]}" if named[-1][1] > 0.0 else "ground")
+    ends = (named[0][0] if named[0][1] < 0.0 else "ground", named[-1][0] if named[-1][1] > 0.0 else "ground")
     credible = (f"the range {_volts(low)} to {_volts(high)} of the independent voltage sources ({ends[0]} to {ends[1]}) "
                 f"widened by {OP_SPAN_FACTOR:g} times its span on each side: {_volts(floor)} to {_volts(ceiling)}")
 

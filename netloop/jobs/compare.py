@@ -39,7 +39,7 @@ from netloop.jobs.compare_explain import (
 from netloop.graph import find_loops, flatten
 from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
-from netloop.jobs.measure_checks import voltage_sources
+from netloop.jobs.measure_checks import op_sources
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
@@ -216,7 +216,9 @@ def compare(
 
     own = simulator is None
     sim = own_simulator(processes, parsed, 2 * len(probes), keep_decks) if own else simulator
-    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s, op_voltages=True)  # written once: every round shares its circuit_id
+    sources = op_sources(parsed)
+    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s,  # written once: every round shares its circuit_id
+                       op_voltages=sources is not None)
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
@@ -224,7 +226,7 @@ def compare(
     try:
         names = [_key(p.location, m) for p in probes for m in methods]
         analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles),
-                                                    sources=voltage_sources(parsed))
+                                                    sources=sources)
     finally:
         if own and hasattr(sim, "close"):
             sim.close()

@@ -22,7 +22,7 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other_placements, pz_check, second_break_check, settle_split,
-                                         voltage_sources)
+                                         op_sources)
 from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
 from netloop.probe.chain import Chain, chain_probes
@@ -431,7 +431,7 @@ def measure(
         if simulator is None:
             sim.use_processes(simulator_processes(processes, parsed, runs=2))
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s,
-                       sources=voltage_sources(parsed))  # whose voltages bound a credible operating point (measure_checks.op_check)
+                       sources=op_sources(parsed))  # whose voltages bound a credible operating point (measure_checks.op_check)
         with caveats_on_error(parsed):
             unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
             free = driver is None and placement is None

@@ -9,7 +9,7 @@ import pytest
 
 from netloop.cli.main import main
 from netloop.jobs.measure import measure
-from netloop.jobs.measure_checks import op_check, voltage_sources
+from netloop.jobs.measure_checks import OP_CHECK_MAX_ELEMENTS, op_check, op_sources, voltage_sources
 from netloop.netlist import parse_text
 
 ROOT = Path(__file__).resolve().parents[3]
@@ -37,8 +37,19 @@ def test_sources_are_read_from_the_flattened_netlist():
     # a node at -200 V lies beyond them (the sources' own voltages are what ngspice enforces, as in any solution)
     check = op_check(sources, {"vdd": 3.3, "mid": 2.7, "sense": 2.7, "x1.out": 2.7, "far": -200.0})
     assert not check.passed and "far at -200 V lie beyond" in check.detail
-    # without a reading of vdd neither vdd nor x1.vshift has a voltage, and vamm's is 0 V: nothing sets a range
+    # without a reading of vdd (or with none that is a number) neither vdd nor x1.vshift has a voltage, and vamm's is 0 V:
+    # nothing sets a range
     assert op_check(sources, {"mid": 90.0, "sense": 90.0}).detail.startswith("not applicable")
+    assert op_check(sources, {"vdd": float("nan"), "mid": 90.0, "sense": 90.0}).detail.startswith("not applicable")
+
+
+@pytest.mark.parametrize("resistors, checked", [(OP_CHECK_MAX_ELEMENTS - 1, True), (OP_CHECK_MAX_ELEMENTS, False)])
+def test_the_check_runs_on_circuits_up_to_its_size(resistors, checked):
+    """A source and a chain of resistors: with OP_CHECK_MAX_ELEMENTS elements in all the sources are read, with one more the check is not run."""
+    # the limit is our choice (netloop.jobs.measure_checks: beyond it a separate op costs as much as the sweeps)
+    chain = "\n".join(f"r{k} n{k} n{k + 1} 1k" for k in range(resistors))
+    sources = op_sources(parse_text(f"a resistor chain (invented)\nv1 n0 0 dc 1\n{chain}\n.end\n"))
+    assert sources == ((("v1", "n0", "0"),) if checked else None)
 
 
 def _regulator(tmp_path: Path, section: str, temp_c: float, supply_v: float) -> Path:
