@@ -140,6 +140,16 @@ def test_a_miller_branch_finds_its_stage_through_a_sense_source(at, sense, side,
     assert stage in decided
 
 
+def test_a_resistor_beyond_a_sense_source_is_no_stage():
+    """Beyond the sense source at o1, a self-bias resistor from M6's gate to its drain is a passive element, not the stage the Miller branch wraps."""
+    # By hand: only an active element is a stage (netloop/probe/sides.py); Rz-Cc wraps M6 from its gate side (o1, through the
+    # 0 V source) to its drain out, as without the resistor (the test above).
+    text = TWO_STAGE.replace("M6 out o1", "Rg6 g6 out 1meg\nM6 out g6") + "Vsense o1 g6 dc 0\n"
+    _, load, _, decided = _sides(text, "o1")
+    assert load == {"rz.p", "vsense.p"}
+    assert "rz on the load side (closes a local loop around the stage m6 that the node drives (on to out through 2 passive elements)" in decided
+
+
 @pytest.mark.ngspice
 def test_a_sense_source_in_series_with_the_driver_leaves_t_unchanged(simulator):
     """With a 0 V source between the output drains and the node, T equals that of the circuit without it (ngspice, 1e-6)."""
