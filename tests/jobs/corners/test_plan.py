@@ -91,6 +91,9 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\nelement = ["1p"]\n', "element", r"needs a name, e\.g\. element\.cl"),
         ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
+        ('[axes]\nlib = ["tt", "  "]\n', "lib", "lib is empty$"),
+        ('[axes]\ntemp = [27, inf]\n', "temp", "temp must be finite, got inf$"),  # TOML's inf
+        ('[axes]\nsupply.vdd = ["3.3", "1e999"]\n', "supply.vdd", "supply.vdd must be finite, got '1e999'$"),  # beyond a double
     ],
 )
 def test_semantic_errors_point_at_the_offending_key(tmp_path, body, key, expected):
