@@ -52,6 +52,16 @@ def test_a_block_wired_as_a_follower_keeps_its_pins_apart():
     assert (driver, load, shunt) == ({"x1.out"}, {"x1.inn"}, {"cl.p"})
 
 
+def test_a_follower_block_inside_an_instance_splits_the_same_by_the_rules_and_by_driver():
+    """Inside an instance the follower block's output drives, and driver= naming that pin (x1.out, local to the instance) gives the same split."""
+    # By hand, as above; R1 leads from the block's node y on to the channel's pin o (a load).
+    text = ("block in a channel (invented)\n" + MODELS + OTA + ".subckt chan in o vdd\nX1 in y y vdd ota\nR1 y o 1k\nCL y 0 1p\n"
+            ".ends chan\nVdd vdd 0 dc 3.3\nVin in 0 dc 1.6 ac 1\nXc in o vdd chan\nRl o 0 10k\n")
+    split = ({"xc.x1.out"}, {"xc.x1.inn", "xc.r1.p"}, {"xc.cl.p"})
+    assert _sides(text, "xc.y")[:3] == split
+    assert _sides(text, "xc.y", driver="x1.out")[:3] == split
+
+
 # An invented self-biased mirror loop (test_sides.py, test_diode_connected_device_goes_whole_to_one_side) with its
 # transistors written flat, and the same with each transistor in a one-device wrapper subcircuit (as process libraries do).
 MIRROR = ("Vdd vdd 0 dc 3.3\nM1 d d 0 0 nch w=10u l=1u\nM2 o d 0 0 nch w=10u l=1u\nRo vdd o 20k\nM3 vdd o s 0 nch w=10u l=1u\n"
@@ -114,10 +124,12 @@ def test_a_sense_source_to_two_gates_is_a_load_naming_them():
 
 @pytest.mark.parametrize("at, sense, side, stage", [
     ("out", "Vsense y out dc 0\n", "driver", "with cc (closes a local loop around the driver stage m6 (back to o1 through 2 passive elements)"),
+    ("out", "Vsense y z dc 0\nVsense2 z out dc 0\n", "driver", "with cc (closes a local loop around the driver stage m6 (back to o1 through 2 passive elements)"),
     ("o1", "Vsense o1 g6 dc 0\n", "load", "rz on the load side (closes a local loop around the stage m6 that the node drives (on to out through 2 passive elements)"),
-])
+    ("o1", "Vsense o1 z dc 0\nVsense2 z g6 dc 0\n", "load", "rz on the load side (closes a local loop around the stage m6 that the node drives (on to out through 2 passive elements)"),
+], ids=["out", "out, two sources", "o1", "o1, two sources"])
 def test_a_miller_branch_finds_its_stage_through_a_sense_source(at, sense, side, stage):
-    """The Miller branch Rz-Cc stays with the stage M6 it wraps when a sense source sits between the node and M6's drain or gate."""
+    """The Miller branch Rz-Cc stays with the stage M6 it wraps when sense sources (one, or two in series) sit between the node and M6's drain or gate."""
     # Reference: the same circuit without the sense source (test_split_rules.py,
     # test_miller_branch_goes_with_the_second_stage_at_both_of_its_ends): Cc with the driver at out, Rz with the load at o1.
     wiring = {"out": ("M6 y o1", "M7 y nb"), "o1": ("M6 out g6", "M7 out nb")}[at]
