@@ -6,6 +6,7 @@
                                                         # (not those judged equivalent in tools/mutate_equivalent.json)
     .venv/bin/python tools/mutate.py corners --sample 300   # a seeded random sample of 300 mutants, in .mutate/corners-sample:
                                                         # the kill rate with its 95 % Clopper-Pearson interval
+    .venv/bin/python tools/mutate.py corners --sample 300 --again   # the same sample: the mutants not yet checked and the survivors
 
 Each package is mutated in its own copy of the repository under .mutate/PKG (mutmut reads its settings
 from the pyproject.toml of the folder it runs in, so each copy gets its own [tool.mutmut] table: which
@@ -21,8 +22,10 @@ import os
 import random
 import re
 import shutil
+import signal
 import subprocess
 import sys
+import threading
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -86,12 +89,46 @@ def prepare(package: str, fresh: bool, folder: str | None = None) -> Path:
     return work
 
 
+# wall time after which a mutant's test run is stopped and counted as caught: mutmut's own limit is on CPU time, which a
+# test waiting for ever on a Dask future (a mutant that loses a corner's result) never uses up
+MUTANT_WALL_LIMIT_S = 600
+
+
+def _stop_hung_mutants(parent: int, done: threading.Event) -> None:
+    """Every 30 s, SIGKILL each child of the mutmut process ``parent`` that tests a mutant (titled "mutmut: NAME", or renamed by
+    the Dask cluster it started) and has run longer than MUTANT_WALL_LIMIT_S; mutmut records the kill as the tests noticing."""
+    ticks = os.sysconf("SC_CLK_TCK")
+    while not done.wait(30):
+        try:
+            children = " ".join(Path(t, "children").read_text() for t in Path(f"/proc/{parent}/task").iterdir()).split()
+        except OSError:
+            return
+        for child in children:
+            try:
+                title = Path(f"/proc/{child}/cmdline").read_text().replace("\0", " ")
+                started = int(Path(f"/proc/{child}/stat").read_text().rsplit(")", 1)[1].split()[19]) / ticks
+                age = float(Path("/proc/uptime").read_text().split()[0]) - started
+            except (OSError, ValueError, IndexError):
+                continue
+            if title.startswith(("mutmut:", "dask ")) and age > MUTANT_WALL_LIMIT_S:
+                print(f"mutate: stopped {title.strip()!r} after {age:.0f} s (counted as caught)", file=sys.stderr)
+                os.kill(int(child), signal.SIGKILL)
+
+
 def _mutmut(work: Path, *args: str, quiet: bool = False) -> subprocess.CompletedProcess:
     """mutmut from the shared virtualenv, run in the scratch copy, its output passed through (kept when quiet or listing results)."""
     env = dict(os.environ, PYTHONHASHSEED="0")
     env.pop("PYTHONPATH", None)  # mutmut puts the scratch copy's mutants/ first; nothing may shadow it
     exe = Path(sys.executable).with_name("mutmut")
-    return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=quiet or args[0] == "results")
+    capture = quiet or args[0] == "results"
+    with subprocess.Popen([str(exe), *args], cwd=work, env=env, text=True,
+                          stdout=subprocess.PIPE if capture else None, stderr=subprocess.PIPE if capture else None) as run:
+        done = threading.Event()
+        if args[0] == "run":
+            threading.Thread(target=_stop_hung_mutants, args=(run.pid, done), daemon=True).start()
+        out, err = run.communicate()
+        done.set()
+    return subprocess.CompletedProcess(run.args, run.returncode, out, err)
 
 
 def mutant_names(work: Path) -> list[str]:
@@ -180,9 +217,17 @@ def main(argv: list[str] | None = None) -> int:
         if args.report:
             work = ROOT / ".mutate" / folder
         elif args.sample:
-            work = prepare(package, fresh=True, folder=folder)
-            chosen = draw_sample(work, args.sample, args.seed, equivalent.get(package, {}), args.jobs)
-            _mutmut(work, "run", "--max-children", str(args.jobs), *chosen)
+            drawn = ROOT / ".mutate" / folder / "sample.json"
+            if args.again and drawn.exists():  # the same sample: its mutants not yet checked, and its survivors not judged equivalent
+                judged = equivalent.get(package, {})
+                chosen = [n for n, v in verdicts(drawn.parent).items()
+                          if n in set(json.loads(drawn.read_text())["names"]) and v not in KILLED and n not in judged]
+                work = prepare(package, fresh=False, folder=folder)
+            else:
+                work = prepare(package, fresh=True, folder=folder)
+                chosen = draw_sample(work, args.sample, args.seed, equivalent.get(package, {}), args.jobs)
+            if chosen:
+                _mutmut(work, "run", "--max-children", str(args.jobs), *chosen)
         else:
             previous = ROOT / ".mutate" / package
             judged = equivalent.get(package, {})  # not tested again: a judged-equivalent mutant survives every test by definition

@@ -16,18 +16,35 @@ nyquist-data  the Nyquist count is reliable: the sweep starts where T has settle
 rhp-count     Z = N + P is a count: 0 or more. P, the open-loop right-half-plane poles, is read from
               the data (the rational fit of 1/(1+T)) unless the caller gives it. A negative Z means
               P does not fit the data, so neither "stable" nor "unstable" can be claimed.
+operating-point  the DC operating point ngspice returned is credible: no node lies beyond the range of the
+              circuit's independent DC voltage sources and ground by more than OP_SPAN_FACTOR times that
+              range's span (operating_point_check). Beyond it ngspice found a false solution (a model driven
+              far outside its range), or a current source drives a node nothing else holds (a device that is
+              off), and margins read around it describe no intended bias. The job that
+              ran the simulation supplies the voltages (netloop.jobs.measure.sample_loops).
 """
 
 from __future__ import annotations
+
+import math
+from collections.abc import Mapping
 
 import numpy as np
 
 from netloop.analysis.nyquist import TOP_LIMIT_DB
 from netloop.analysis.results import Check, NyquistVerdict
 
-__all__ = ["CHECK_NAMES", "NEGLIGIBLE_DB", "data_checks", "nyquist_checks"]
+__all__ = ["CHECK_NAMES", "NEGLIGIBLE_DB", "OP_SPAN_FACTOR", "data_checks", "nyquist_checks", "operating_point_check"]
 
-CHECK_NAMES = ("loop-present", "falls-at-top", "nyquist-data", "rhp-count")
+CHECK_NAMES = ("loop-present", "falls-at-top", "nyquist-data", "rhp-count", "operating-point")
+
+OP_SPAN_FACTOR = 4.0
+"""How far beyond the range of the independent DC voltage sources (and ground) a node of a credible operating
+point may lie, in spans of that range. Our choice, with common practice behind it: in a DC operating point a
+node leaves the rails only through diode drops, ideal dependent sources or current sources into resistors, and
+the highest voltages designers expect from a supply, charge pumps and bootstrapped nodes (2-3 times the supply,
+and those only when clocked), stay well inside 1 + 4 = 5 spans from ground. The false solutions seen on the
+sky130 regulator (a 0-1.7 V range: a node at -409 V, another at -240 V) lie 140 to 240 spans beyond it."""
 
 NEGLIGIBLE_DB = -60.0
 """A return ratio below this everywhere (|T| < 1/1000) is taken as no loop measured: it moves nothing a
@@ -101,3 +118,50 @@ def nyquist_checks(nyquist: NyquistVerdict) -> tuple[Check, ...]:
             "node, or give the opened loop's RHP pole count with --open-loop-rhp-poles",
         )
     return (data, count)
+
+
+def _volts(v: float) -> str:
+    return f"{v:.4g} V"
+
+
+def operating_point_check(voltages: Mapping[str, float], sources: Mapping[str, float]) -> Check:
+    """operating-point, from the node voltages of the operating point and the voltage across each independent DC
+    voltage source there (its v(p) - v(n)).
+
+    The credible range runs from the lowest to the highest of the sources' voltages and ground (0 V); a node
+    more than OP_SPAN_FACTOR spans beyond either end of it (or not a finite number) fails the check. With no
+    source, or only 0 V sources (a circuit biased by current sources alone), nothing sets a range: the check
+    passes as not applicable.
+    """
+    if not any(v != 0.0 for v in sources.values()):
+        return Check("operating-point", True, "not applicable: no independent voltage source sets a voltage other than 0 V, "
+                     "so nothing bounds the operating point")
+    named = sorted(sources.items(), key=lambda kv: (kv[1], kv[0]))
+    low, high = min(0.0, named[0][1]), max(0.0, named[-1][1])
+    span = high - low
+    floor, ceiling = low - OP_SPAN_FACTOR * span, high + OP_SPAN_FACTOR * span
+    ends = (named[0][0] if named[0][1] < 0.0 else "ground", named[-1][0] if named[-1][1] > 0.0 else "ground")
+    credible = (f"the range {_volts(low)} to {_volts(high)} of the independent voltage sources ({ends[0]} to {ends[1]}) "
+                f"widened by {OP_SPAN_FACTOR:g} times its span on each side: {_volts(floor)} to {_volts(ceiling)}")
+
+    def beyond(v: float) -> float:
+        return math.inf if not math.isfinite(v) else max(floor - v, v - ceiling)
+
+    # the farthest first; among nodes of one net (equal to 6 digits) the designer's own, outside subcircuits, first
+    outside = sorted(((beyond(v), node, v) for node, v in voltages.items() if beyond(v) > 0.0),
+                     key=lambda x: (-float(f"{x[0]:.6g}"), x[1].count("."), x[1]))
+    if not outside:
+        return Check("operating-point", True, f"every node of the operating point lies within {credible}")
+    shown = ", ".join(f"{node} at {_volts(v)}" for _, node, v in outside[:3])
+    more = f" and {len(outside) - 3} more node(s)" if len(outside) > 3 else ""
+    nodes = ", ".join(f"v({node})" for _, node, _v in outside[:3])
+    return Check(
+        "operating-point",
+        False,
+        f"the operating point ngspice returned is not credible: {shown}{more} lie beyond {credible}; no bias of these "
+        "sources reaches that: ngspice found a false solution (a device model driven far outside its range), or a "
+        "current source drives a node that nothing else holds, and no margin read around it describes the intended circuit",
+        f"steer ngspice to the intended bias: a .nodeset near it for {nodes}, or a start-up hint (.ic, a start-up "
+        "path that sets the bias); when the netlist itself gives that bias, look for a current source into a node that "
+        "only a resistance holds (a device that is off or of no size)",
+    )

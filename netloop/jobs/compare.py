@@ -39,6 +39,7 @@ from netloop.jobs.compare_explain import (
 from netloop.graph import find_loops, flatten
 from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
+from netloop.jobs.measure_checks import op_sources
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
@@ -140,8 +141,10 @@ def _run_name(index: int, which: str) -> str:
     return f"{index}.{which}"
 
 
-def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
-    """One SimJob for every probe in ``deck``: runs "K.series" and "K.shunt" per probe K (0-based), others at AC 0."""
+def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0,
+                op_voltages: bool = False) -> SimJob:
+    """One SimJob for every probe in ``deck``: runs "K.series" and "K.shunt" per probe K (0-based), others at AC 0.
+    ``op_voltages``: as probe_job's (True: the node voltages the check "operating-point" reads)."""
     runs = []
     for k, p in enumerate(probes):
         runs.append(AcRun(_run_name(k, "series"), dict(p.series_run_ac), sweeps))
@@ -155,7 +158,7 @@ def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[Ac
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
-        op_voltages=False,  # as probe_job: the first ac's own operating point serves, no separate op run
+        op_voltages=op_voltages,  # False: the first ac's own operating point serves, no separate op run
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this comparison runs on one loaded circuit
     )
 
@@ -213,14 +216,17 @@ def compare(
 
     own = simulator is None
     sim = own_simulator(processes, parsed, 2 * len(probes), keep_decks) if own else simulator
-    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s)  # written once: every round shares its circuit_id
+    sources = op_sources(parsed)
+    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s,  # written once: every round shares its circuit_id
+                       op_voltages=sources is not None)
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
     try:
         names = [_key(p.location, m) for p in probes for m in methods]
-        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles))
+        analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles),
+                                                    sources=sources)
     finally:
         if own and hasattr(sim, "close"):
             sim.close()

@@ -21,7 +21,8 @@ from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
-from netloop.jobs.measure_checks import PZ_MAX_ELEMENTS, Trial, other_placements, pz_check, second_break_check, settle_split
+from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other_placements, pz_check, second_break_check, settle_split,
+                                         op_sources)
 from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
 from netloop.probe.chain import Chain, chain_probes
@@ -101,9 +102,10 @@ def return_ratio(probed: ProbedNetlist | ProbeVectors, series: dict, shunt: dict
 
 
 def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0,
-              circuit_id: str | None = None) -> SimJob:
+              circuit_id: str | None = None, op_voltages: bool = False) -> SimJob:
     """The simulator job for one probe: two AC runs on one operating point, only the probe vectors saved. ``circuit_id``
-    (SimJob.circuit_id; a new one when None) is given to run on the circuit another probe of the same netlist loaded."""
+    (SimJob.circuit_id; a new one when None) is given to run on the circuit another probe of the same netlist loaded.
+    ``op_voltages``: SimJob.op_voltages (True: a separate op gives the node voltages the check "operating-point" reads)."""
     text = write_netlist(probed.netlist)
     source = probed.netlist.source
     workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
@@ -118,7 +120,7 @@ def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str 
         label=label,
         timeout_s=timeout_s,
         workdir=workdir,
-        op_voltages=False,  # the first ac's own operating point serves: no separate op run
+        op_voltages=op_voltages,  # False: the first ac's own operating point serves, no separate op run
         circuit_id=circuit_id or uuid.uuid4().hex,  # every round of this probe's measurement runs on one loaded circuit
     )
 
@@ -197,6 +199,7 @@ class _Runner:
         self.backend = getattr(simulator, "backend", type(simulator).__name__)
         self.processes = len(getattr(simulator, "simulators", ())) or 1
         self.loads = 0  # jobs for which ngspice read the netlist (SimResult.loaded)
+        self.voltages: Mapping[str, float] = {}  # the operating point's node voltages (SimResult.operating_point)
 
     def evaluate(self, sweeps: tuple[AcSweep, ...], meanwhile: Callable[[], object] | None = None, stage: str = "") -> tuple[np.ndarray, dict[str, np.ndarray]]:
         """Run the job of ``sweeps``; ``meanwhile()`` is called while the simulator works (netloop.sim.background.run_while).
@@ -211,6 +214,7 @@ class _Runner:
         self.aid = self.aid or result.convergence_aid
         self.notes.update(dict.fromkeys(result.warnings))  # what ngspice ignored (unrecognized model parameters)
         self.deck_path = self.deck_path or result.deck_path
+        self.voltages = self.voltages or result.operating_point  # every round runs on the operating point of the first
         self.backend = result.backend or self.backend
         t = {name: np.asarray(v, dtype=complex) for name, v in self.ratios(result).items()}
         return np.asarray(result.runs[0].freq_hz, dtype=float), t
@@ -229,6 +233,7 @@ def sample_loops(
     sweep: Sweep,
     open_loop_rhp_poles: Mapping[str, int | None],
     meanwhile: Callable[[], object] | None = None,
+    sources: tuple[tuple[str, str, str], ...] | None = None,
 ) -> tuple[dict[str, LoopAnalysis], SimInfo, dict[str, tuple[str, ...]]]:
     """Sweep, widen and refine the return ratios of one break's jobs, all on the same frequencies.
 
@@ -236,7 +241,10 @@ def sample_loops(
     SimResult to {loop name: T} at the frequencies of the first run. Returns the analysis of each
     loop, the shared SimInfo (``refined`` when every loop settled) and each loop's warnings. With
     one loop this is exactly measure_probed's plan (see Sweep). ``meanwhile()`` is called while the
-    first job runs; when it raises, that job is abandoned and its exception raised.
+    first job runs; when it raises, that job is abandoned and its exception raised. ``sources``
+    (netloop.jobs.measure_checks.voltage_sources) asks for the check "operating-point" of the
+    operating point the jobs ran on (their SimJob.op_voltages must be True), first among each loop's
+    checks; a simulator that gives no operating point (the analytic fake) gives no such check.
     """
     runner = _Runner(job_for, ratios, simulator)
     load_scipy_in_background()  # the analysis's scipy modules load while the first simulation runs
@@ -261,8 +269,13 @@ def sample_loops(
         f, t = _merge_all(f, t, f2, t2)
 
     def analyse_all(final: bool) -> dict[str, LoopAnalysis]:
-        """Every loop's analysis: a draft between rounds (crossovers and margins), the whole of it at the end."""
-        return {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
+        """Every loop's analysis: a draft between rounds (crossovers and margins), the whole of it at the end, with
+        the check of the operating point first among its checks when it was asked for."""
+        out = {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
+        if final and sources is not None and runner.voltages:
+            op = op_check(sources, runner.voltages)
+            out = {name: replace(a, checks=(op, *a.checks)) for name, a in out.items()}
+        return out
 
     analyses = analyse_all(False)
     # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz)
@@ -323,11 +336,13 @@ def measure_probed(
     timeout_s: float = 600.0,
     meanwhile: Callable[[], object] | None = None,
     circuit_id: str | None = None,
+    sources: tuple[tuple[str, str, str], ...] | None = None,
 ) -> tuple:
     """Simulate one probe and analyse it: returns (analysis, SimInfo, warnings).
 
     ``meanwhile()`` is called while the first simulation runs (measure checks the loop then); when
     it raises, the simulation is abandoned and its exception raised. ``circuit_id``: probe_job's.
+    ``sources``: the netlist's independent voltage sources, for the check "operating-point" (sample_loops).
     """
     if method not in METHODS:
         raise NetloopError(f"unknown method {method!r}; expected one of {', '.join(METHODS)}")
@@ -336,12 +351,13 @@ def measure_probed(
         series, shunt = result.run("series"), result.run("shunt")
         return {"loop": return_ratio(probed, dict(series.vectors), dict(shunt.vectors), method)}
 
-    base = probe_job(probed, (), label=label, timeout_s=timeout_s, circuit_id=circuit_id)  # the netlist is written once, not every round
+    base = probe_job(probed, (), label=label, timeout_s=timeout_s, circuit_id=circuit_id,  # the netlist is written once, not every round
+                     op_voltages=sources is not None)
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
-    analyses, info, warnings = sample_loops(job_for, ratios, simulator, sweep, {"loop": open_loop_rhp_poles}, meanwhile)
+    analyses, info, warnings = sample_loops(job_for, ratios, simulator, sweep, {"loop": open_loop_rhp_poles}, meanwhile, sources)
     return analyses["loop"], info, warnings["loop"]
 
 
@@ -414,7 +430,8 @@ def measure(
         reqs = parse_requirements(requirements)
         if simulator is None:
             sim.use_processes(simulator_processes(processes, parsed, runs=2))
-        options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s)
+        options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s,
+                       sources=op_sources(parsed))  # whose voltages bound a credible operating point (measure_checks.op_check)
         with caveats_on_error(parsed):
             unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
             free = driver is None and placement is None

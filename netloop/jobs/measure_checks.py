@@ -20,23 +20,39 @@ How a split is settled (docs/splitting.md says it for designers):
    Z directly; N + P must equal it (the job check "closed-loop-pz").
 
 Plain loops (no bridge at the node, every check passed, P = 0) run none of this.
+
+Every measurement's operating point is checked too (the check "operating-point",
+netloop.analysis.checks.operating_point_check): the simulation that measures T gives its node voltages, and
+the independent voltage sources of the flattened netlist (``voltage_sources``) set the credible range.
+That takes a separate ``op`` beside the first ac's own (SimJob.op_voltages; ngspice's ac keeps only the
+saved vectors of its operating point), so it is run on circuits of at most OP_CHECK_MAX_ELEMENTS
+flattened elements only (``op_sources``), as closed-loop-pz is.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 
 import numpy as np
 
+from netloop.analysis.checks import operating_point_check
 from netloop.analysis.results import Check, LoopAnalysis
+from netloop.graph import flatten
+from netloop.netlist import Netlist, flat_element_count
 from netloop.probe import ProbedNetlist
 
-__all__ = ["PLACEMENT_TRIES", "PZ_MAX_ELEMENTS", "Trial", "analysis_doubts", "doubts", "fitted_rhp_poles", "moved", "other_placements",
-           "pair_placements", "poles_agree", "pz_check", "second_break_band", "second_break_check", "settle_split"]
+__all__ = ["OP_CHECK_MAX_ELEMENTS", "PLACEMENT_TRIES", "PZ_MAX_ELEMENTS", "Trial", "analysis_doubts", "doubts", "fitted_rhp_poles", "moved",
+           "op_check", "op_sources", "other_placements",
+           "pair_placements", "poles_agree", "pz_check", "second_break_band", "second_break_check", "settle_split", "voltage_sources"]
 
 PLACEMENT_TRIES = 4  # other placements measured at most (each one coarse job)
 PZ_MAX_ELEMENTS = 400  # ngspice's pz is asked only on circuits this small (flattened elements): it is cheap there
+# the check operating-point runs a separate op on circuits this small (flattened elements): there it costs a few of the
+# sweeps' points (a 5,000-element RC ladder: 0.06 s, its first decade sweep 0.2 s), while on the 100,000-element ladder of
+# benchmarks/check_speed.py one op took 13 s on the loaded 2-CPU development machine, as much as the sweeps themselves
+OP_CHECK_MAX_ELEMENTS = 10_000
 _POLE_RTOL = 2e-2  # two breaks' closed-loop poles agree to this (relative), the coarse sweep's fit included
 
 
@@ -218,6 +234,31 @@ def pz_check(analysis: LoopAnalysis, poles: np.ndarray | None) -> Check | None:
         return Check("closed-loop-pz", True, detail)
     return Check("closed-loop-pz", False, detail + ": P read from the data does not fit the circuit",
                  "give the opened loop's right-half-plane pole count with --open-loop-rhp-poles, or break the loop at another node")
+
+
+def voltage_sources(netlist: Netlist) -> tuple[tuple[str, str, str], ...]:
+    """The independent voltage sources of the flattened netlist, as (name, + node, - node), in circuit order."""
+    flat = flatten(netlist)
+    return tuple((name, *nodes[:2]) for name, kind, nodes in zip(flat.names, flat.kinds, flat.element_nodes) if kind == "V")
+
+
+def op_sources(netlist: Netlist) -> tuple[tuple[str, str, str], ...] | None:
+    """``voltage_sources`` of a circuit of at most OP_CHECK_MAX_ELEMENTS flattened elements; None (no check) for a larger one."""
+    return voltage_sources(netlist) if flat_element_count(netlist) <= OP_CHECK_MAX_ELEMENTS else None
+
+
+def op_check(sources: tuple[tuple[str, str, str], ...], voltages: Mapping[str, float]) -> Check:
+    """The check "operating-point" of the node ``voltages`` ngspice returned (lower-case names, ground left out), each
+    source's voltage read from them (a source with a node ngspice did not report, or not a finite number, is left out)."""
+    def node(n: str) -> float | None:
+        return 0.0 if n == "0" else voltages.get(n.lower())
+
+    across = {}
+    for name, plus, minus in sources:
+        p, m = node(plus), node(minus)
+        if p is not None and m is not None and math.isfinite(p - m):
+            across[name] = p - m
+    return operating_point_check(voltages, across)
 
 
 def with_job_checks(result, checks: tuple[Check, ...]):

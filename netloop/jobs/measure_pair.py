@@ -32,7 +32,7 @@ from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.splits import LoopStructure
-from netloop.jobs.measure_checks import analysis_doubts, moved, pair_placements, poles_agree, second_break_band
+from netloop.jobs.measure_checks import analysis_doubts, moved, op_sources, pair_placements, poles_agree, second_break_band
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
                                   refuse_inputs_only, sample_loops)
 from netloop.netlist import Netlist, write_netlist
@@ -106,8 +106,9 @@ def parse_pair(text: str) -> tuple[str, str]:
     return parts[0], parts[1]
 
 
-def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
-    """The simulator job of a differential probe: four AC runs on one operating point, only the probe vectors saved."""
+def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0, op_voltages: bool = False) -> SimJob:
+    """The simulator job of a differential probe: four AC runs on one operating point, only the probe vectors saved.
+    ``op_voltages``: as probe_job's (True: the node voltages the check "operating-point" reads)."""
     source = pair.netlist.source
     return SimJob(
         netlist=write_netlist(pair.netlist),
@@ -117,7 +118,7 @@ def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", t
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
-        op_voltages=False,  # as probe_job: the first ac's own operating point serves, no separate op run
+        op_voltages=op_voltages,  # False: as probe_job, the first ac's own operating point serves, no separate op run
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this measurement runs on one loaded circuit
     )
 
@@ -205,12 +206,13 @@ def _sample_pair(parsed: Netlist, nodes: tuple[str, str], drivers, placements, *
         samples.add(result.runs[0].freq_hz, q.dm_to_cm, q.cm_to_dm)
         return {"differential": _mode_ratio(q.differential, method), "common": _mode_ratio(q.common, method)}
 
-    base = pair_job(probe, (), label=label, timeout_s=timeout_s)  # written once: every round shares its circuit_id
+    sources = op_sources(parsed)
+    base = pair_job(probe, (), label=label, timeout_s=timeout_s, op_voltages=sources is not None)  # written once: every round shares its circuit_id
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
-    analyses, info, sim_warnings = sample_loops(job_for, ratios, simulator, sweep, rhp)
+    analyses, info, sim_warnings = sample_loops(job_for, ratios, simulator, sweep, rhp, sources=sources)
     return _Sampled(probe, analyses, info, sim_warnings, samples)
 
 

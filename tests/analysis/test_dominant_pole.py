@@ -79,7 +79,7 @@ def test_samples_where_s_or_a_basis_term_is_infinite_are_left_out_silently():
     f, t = _loop(terms)
     t = t.copy()
     t[10] = -1.0  # S infinite there
-    t[20] = -1.0 + 1e-310  # S overflows there
+    t[20] = complex(-1.0, 1e-310)  # 1 + T = 1e-310 j: S overflows there
     poles = [*_poles(terms), 2j * math.pi * f[30]]  # a pole exactly on the sample at f[30]
     with warnings.catch_warnings():
         warnings.simplefilter("error")

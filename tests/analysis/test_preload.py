@@ -52,6 +52,19 @@ def test_background_load_imports_scipy_then_the_added_modules_once(imports):
     assert imports == [(name, THREAD) for name in (*preload.SCIPY_MODULES, "colorsys")]
 
 
+def test_a_second_request_while_loading_starts_nothing(imports):
+    """A second request that comes while the first thread is still importing starts no second thread: each module is
+    imported once (once per process, load_scipy_in_background's docstring)."""
+    preload.load_also("colorsys")
+    before = set(threading.enumerate())
+    with preload._lock:  # the first thread cannot load before this block ends: the second request comes while it waits
+        preload.load_scipy_in_background()
+        preload.load_scipy_in_background()
+    for thread in set(threading.enumerate()) - before:
+        thread.join(timeout=60)
+    assert imports == [(name, THREAD) for name in (*preload.SCIPY_MODULES, "colorsys")]
+
+
 def test_nothing_starts_once_scipy_is_loaded(imports):
     """When an analysis has already loaded scipy, a later request to load it in the background starts no thread and imports
     nothing (its docstring: once per process)."""

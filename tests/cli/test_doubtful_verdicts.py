@@ -60,11 +60,16 @@ def test_a_driver_naming_a_gate_is_refused(ldo, capsys):
 @pytest.mark.ngspice
 @pytest.mark.parametrize("size", ["m=0", "w=0"])
 def test_a_pass_device_of_no_size_is_inconclusive(ldo, capsys, size):
-    """The LDO's pass device with m=0 or w=0 carries no signal, so |T| is far below -60 dB everywhere: INCONCLUSIVE, exit 3, 'the break measured no loop', never 'PASS ... does not regulate'."""
+    """The LDO's pass device with m=0 or w=0 carries no signal, so |T| is far below -60 dB everywhere: INCONCLUSIVE, exit 3, 'the break measured no loop', never 'PASS ... does not regulate'.
+
+    Nothing holds vout then but the divider, so the operating point is named first as not credible."""
     text = ldo.read_text()
     card = "Mpass vout gate vin vin pch w=2000u l=1u"
     assert card in text
     ldo.write_text(text.replace(card, card + " m=0" if size == "m=0" else card.replace("w=2000u", "w=0")))
     assert main(["check", str(ldo), "--at", "fb"]) == 3
-    first = capsys.readouterr().out.splitlines()[0]
-    assert first.startswith("INCONCLUSIVE  the data supports no verdict: |T| is below -60 dB at every frequency")
+    out = capsys.readouterr().out
+    # closed form: Iload (10 mA) flows through R1 + R2 (150k) alone, so vout = -1500 V, and fb = -1000 V from the divider
+    assert out.startswith("INCONCLUSIVE  the data supports no verdict: the operating point ngspice returned is not credible: "
+                          "vout at -1500 V, fb at -1000 V")
+    assert "  - loop-present: |T| is below -60 dB at every frequency" in out

@@ -7,6 +7,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from netloop.analysis.return_ratio import middlebrook
 from netloop.errors import ProbeError, UnknownNodeError
 from netloop.netlist import parse_text, write_netlist
 from netloop.probe import break_loop
@@ -156,6 +157,14 @@ def test_break_pair_splits_both_nodes_and_keeps_the_input():
     assert not any("loops through its load side" in w for w in pair.warnings)
 
 
+def test_quantities_need_all_four_runs():
+    """Modal quantities from fewer than the four runs are a ProbeError naming the runs needed and the ones missing."""
+    pair = break_pair(parse_text(fd_netlist()), "outp", "outn", drivers=DRIVERS)
+    with pytest.raises(ProbeError) as info:
+        pair.quantities({"dm-series": {}, "cm-series": {}})
+    assert str(info.value) == "the differential probe needs the runs dm-series, dm-shunt, cm-series, cm-shunt; missing dm-shunt, cm-shunt"
+
+
 def test_break_pair_refuses_one_node_twice_and_unknown_nodes():
     """The same node twice is a ProbeError and an unknown node an UnknownNodeError, before any simulation."""
     netlist = parse_text(fd_netlist())
@@ -182,6 +191,8 @@ def test_symmetric_pair_gives_the_half_circuit_closed_forms(simulator):
     assert keep.sum() > 40
     np.testing.assert_allclose(tian(q.differential)[keep], t_dm[keep], rtol=1e-9)
     np.testing.assert_allclose(tian(q.common)[keep], t_cm[keep], rtol=1e-9)
+    for mode, t in ((q.differential, t_dm), (q.common, t_cm)):  # Middlebrook (1975) with i_a2 = i_b2 - 1 gives the same T
+        np.testing.assert_allclose(middlebrook(mode.va1, mode.vb1, mode.ia2, mode.ib2)[keep], t[keep], rtol=1e-9)
     assert np.max(q.dm_to_cm[keep]) < 1e-9 and np.max(q.cm_to_dm[keep]) < 1e-9  # -180 dB: rounding only
 
 

@@ -101,6 +101,67 @@ def test_library_line_chosen_by_file_or_section(tmp_path):
         apply_settings(str(src), (Setting("lib", "", "ss"),))
 
 
+LIBS = "t\n.lib models/n.lib tt\n.lib models/fam.lib rtt\n.lib \"models/fam.lib\" tt\n.lib 'models\\p.lib' ptt\nR1 a 0 {kn+kr+kc+kp}\n.end\n"
+LISTED = "n.lib tt (line 2), fam.lib rtt (line 3), fam.lib tt (line 4), models\\p.lib ptt (line 5)"
+
+
+@pytest.mark.parametrize("target,edit,message", [
+    ("RTT", (".lib models/fam.lib rtt", ".lib models/fam.lib rss"), None),  # a section, any case
+    # a path written with backslashes (a netlist from Windows; here a file named so) is found by either separator
+    ("models/p.lib", ("'models\\p.lib' ptt", "'models\\p.lib' pss"), None),
+    ("models\\p.lib", ("'models\\p.lib' ptt", "'models\\p.lib' pss"), None),
+    ("", None, f"{{src}} has several .lib lines ({LISTED}); name the one to change, by its section as written (lib.tt = ...) or its "
+               "file (lib.\"n.lib\" = ...), or switch them together with a process corner ([process.NAME], see the README)"),
+    ("fam.lib", None, "{src}: 2 .lib lines read 'fam.lib', one per device family: rtt (line 3), tt (line 4); name each by its section as "
+                      "written, e.g. lib.rtt = ..., and switch them together with a process corner: [process.NAME] with lib.rtt = \"...\" and "
+                      "the others, then process = [\"NAME\", ...] in [axes] (see the README)"),
+    ("zz", None, f"{{src}}: no .lib line reads a file ending in 'zz' or has the section 'zz' (its .lib lines: {LISTED})"),
+    ("tt", None, f"{{src}}: more than one .lib line reads a file ending in 'tt' or has the section 'tt' (its .lib lines: {LISTED})"),
+])
+def test_library_line_named_by_file_section_or_windows_path(tmp_path, target, edit, message):
+    """A lib setting changes the one .lib line its target names (the netlist edited by hand), by a section in any case or a
+    file path with either separator; a target naming none, several, or one file read by several lines is refused with the
+    message, word for word, that lists the lines and says how to name one."""
+    (tmp_path / "models").mkdir()
+    (tmp_path / "models" / "n.lib").write_text(".lib tt\n.param kn=1\n.endl\n.lib ss\n.param kn=2\n.endl\n")
+    (tmp_path / "models" / "fam.lib").write_text(".lib tt\n.param kc=1\n.endl\n.lib rtt\n.param kr=1\n.endl\n.lib rss\n.param kr=2\n.endl\n")
+    (tmp_path / "models\\p.lib").write_text(".lib ptt\n.param kp=1\n.endl\n.lib pss\n.param kp=2\n.endl\n")
+    setting = Setting("lib", target, edit[1].split()[-1] if edit else "ss")
+    if message is None:
+        ours, hand = _both(tmp_path, LIBS, (setting,), lambda t: t.replace(*edit))
+        assert ours == hand
+        return
+    (tmp_path / "c.cir").write_text(LIBS)
+    with pytest.raises(CornerApplyError) as info:
+        apply_settings(str(tmp_path / "c.cir"), (setting,))
+    assert str(info.value) == message.format(src=tmp_path / "c.cir")
+
+
+def test_include_word_no_path_holds_is_refused_naming_the_setting(tmp_path):
+    """An include corner word on a netlist that includes nothing is refused word for word ("its include files: none") and
+    the error carries the setting, so the plan can point at its line."""
+    src = tmp_path / "c.cir"
+    src.write_text("t\nR1 a 0 1k\n.end\n")
+    bad = Setting("include", "tt", "ss")
+    with pytest.raises(CornerApplyError) as info:
+        apply_settings(str(src), (bad,))
+    assert str(info.value) == (f"{src}: no .include or .lib path of its own holds the corner word 'tt' (as a word of its own, "
+                               "e.g. .../tt/... or ..._tt.spice; its include files: none)") and info.value.setting is bad
+
+
+def test_lib_setting_reads_a_netlist_that_is_not_utf8(tmp_path):
+    """A netlist with a Latin-1 byte in a comment takes a lib setting as the netlist reader reads it (the byte replaced):
+    the result is the hand-edited file read by parse_file."""
+    from netloop.netlist import parse_file
+
+    (tmp_path / "m.lib").write_text(".lib tt\n.param k=1\n.endl\n.lib ss\n.param k=2\n.endl\n")
+    text = "t\n* 10 \xb5A bias (Latin-1)\n.lib m.lib tt\nR1 a 0 {k}\n.end\n"
+    (tmp_path / "c.cir").write_bytes(text.encode("latin-1"))
+    (tmp_path / "hand.cir").write_bytes(text.replace("m.lib tt", "m.lib ss").encode("latin-1"))
+    ours = apply_settings(str(tmp_path / "c.cir"), (Setting("lib", "", "ss"),))
+    assert write_netlist(ours) == write_netlist(parse_file(str(tmp_path / "hand.cir"))).replace("hand.cir", "c.cir")
+
+
 def test_worker_reads_a_corner_once_until_a_file_it_read_changes(tmp_path, monkeypatch):
     """corner_netlist gives what apply_settings gives for every sample of a corner (the reference: the uncached path),
     reads the files once for all of them, reads them again when an included library changes (its size and

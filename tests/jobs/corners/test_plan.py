@@ -40,6 +40,15 @@ def test_bundled_readout_plan_measures_each_corner_at_both_channels():
     assert len(tasks) == 8
 
 
+def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
+    """A plan with neither [axes] nor [[corner]] has one corner, "nominal": the netlist as written (README, corner plans)."""
+    plan = load_plan(_plan(tmp_path, ""))
+    (corner,) = expand(plan)
+    assert (corner.name, corner.netlist, corner.settings, corner.describe()) == ("nominal", plan.netlist, (), {})
+    (task,) = tasks_of(plan, (corner,))
+    assert (task.corner, task.at) == (corner, "out")
+
+
 def test_product_is_every_combination_in_axis_order(tmp_path):
     """The product holds each combination once (itertools.product is the reference), last axis fastest, names from the values."""
     plan = load_plan(_plan(tmp_path, '[axes]\nlib = ["tt", "ss"]\ntemp = [-40, 27, 125]\nsupply.vdd = [3.0, 3.6]\n'))
@@ -82,6 +91,9 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\nelement = ["1p"]\n', "element", r"needs a name, e\.g\. element\.cl"),
         ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
+        ('[axes]\nlib = ["tt", "  "]\n', "lib", "lib is empty$"),
+        ('[axes]\ntemp = [27, inf]\n', "temp", "temp must be finite, got inf$"),  # TOML's inf
+        ('[axes]\nsupply.vdd = ["3.3", "1e999"]\n', "supply.vdd", "supply.vdd must be finite, got '1e999'$"),  # beyond a double
     ],
 )
 def test_semantic_errors_point_at_the_offending_key(tmp_path, body, key, expected):

@@ -89,6 +89,33 @@ def test_workers_take_the_netlists_the_plan_check_read_while_their_files_are_unc
         worker.use_netlists(None)
 
 
+def test_run_task_builds_its_corner_from_the_netlists_it_is_sent(tmp_path, monkeypatch):
+    """run_task's ``netlists`` (checked_plan's) serve its corner: no netlist is parsed while they are given, the
+    worker's own read happens without them (parse_file calls counted; the simulation itself fails here, by design)."""
+    from two_pole_loop import LOOP
+
+    from netloop.errors import NetloopError
+    from netloop.jobs.corners import worker
+    from netloop.jobs.corners.runner import checked_plan
+    from netloop.netlist import parse_file
+
+    class Refusing:
+        def run(self, job):
+            raise NetloopError("not simulated")
+
+    (tmp_path / "loop.cir").write_text(LOOP)
+    (tmp_path / "plan.toml").write_text(f'netlist = "{tmp_path / "loop.cir"}"\nat = "n0"\n[axes]\ntemp = [0]\n')
+    (task,), netlists = checked_plan(load_plan(tmp_path / "plan.toml"))
+    reads = []
+    monkeypatch.setattr(worker, "parse_file", lambda p: reads.append(p) or parse_file(p))
+    monkeypatch.setattr(worker, "_SIMULATOR", Refusing())
+    monkeypatch.setattr(worker, "_GIVEN", {})
+    for given, read in ((netlists, []), (None, [task.corner.netlist])):
+        monkeypatch.setattr(worker, "_READ", {})
+        (record,) = run_task(task, TaskOptions(), netlists=given)
+        assert record["error"] == "not simulated" and reads == read
+
+
 @pytest.mark.ngspice
 def test_shared_loads_give_every_corner_the_results_of_a_fresh_load_bit_for_bit(tmp_path):
     """Sixteen corners of one section (temperature, supply, a .param, an element's value) run one after the other in one

@@ -133,15 +133,15 @@ def test_every_loop_of_an_auto_task_is_measured_with_the_plan_options(task, monk
     (record,), elapsed = _run(dataclasses.replace(task, at="auto"), options, sim, monkeypatch)
     _common(record, task, elapsed)
     loop = record["loop"]
-    assert record["error"] is None and record["at"] == loop["break"]["node"] in {"out", "n0", "p1", "b1"}
+    assert record["error"] is None and record["at"] == loop["break"]["node"] in {"out", "n0", "p1", "b1"} and loop["label"] == "50C"
     assert loop["margins"]["phase_margin_deg"] == pytest.approx(PM, abs=0.05)
     assert loop["requirements"][0]["passed"] is True and loop["stability"]["open_loop_rhp_poles"] == 1
     assert record["outcome"] == "fail"  # Z = N + P = 1 (Nyquist criterion), though PM >= 40
     assert loop["loop_gain"]["freq_hz"][0] == 1.0 and loop["loop_gain"]["freq_hz"][-1] == pytest.approx(1e9)
     assert sim.jobs and all(j.timeout_s == 42.0 for j in sim.jobs)
-    driven = TaskOptions(sweep=FIXED, driver="r1")  # the break's driver given: discovery breaks its node with it
+    driven = TaskOptions(sweep=FIXED, driver="r1", method="middlebrook")  # the break's driver given: discovery breaks its node with it
     (record,), _ = _run(dataclasses.replace(task, at="auto"), driven, _Loop(), monkeypatch)
-    assert [t.split(".")[0] for t in record["loop"]["break"]["driver_terminals"]] == ["r1"]
+    assert [t.split(".")[0] for t in record["loop"]["break"]["driver_terminals"]] == ["r1"] and record["loop"]["method"] == "middlebrook"
 
 
 FAILURES = [  # what the simulator raises; the record's error and simulator output (None: none)
