@@ -115,7 +115,8 @@ def test_supply_setting_writes_the_dc_value_where_ngspice_reads_it(tmp_path, car
 
 def test_a_new_results_file_starts_with_its_run_record_in_compact_strict_json(tmp_path):
     """A results file in folders that do not exist yet is created with them; its first line is the run record (plan,
-    corner count, not resumed, the start as ISO 8601 UTC between the calls around it), every line compact JSON."""
+    corner count, not resumed, the start as ISO 8601 UTC between the calls around it), then one line per record of a
+    task, every line compact JSON."""
     from datetime import datetime, timezone
 
     from netloop.jobs.corners.journal import SCHEMA
@@ -123,7 +124,7 @@ def test_a_new_results_file_starts_with_its_run_record_in_compact_strict_json(tm
     path = tmp_path / "a" / "b" / "r.jsonl"
     before = datetime.now(timezone.utc).replace(microsecond=0)
     journal = Journal.open(path, plan="p.toml", total=3, resume=False, force=False)
-    journal.write(({"record": "corner", "key": "a", "outcome": "pass", "seconds": 1.5},))
+    journal.write(({"record": "corner", "key": "a", "at": "out", "seconds": 1.5}, {"record": "corner", "key": "a", "at": "fb"}))  # one task, two loops
     journal.close()
     after = datetime.now(timezone.utc)
     lines = path.read_text().splitlines()
@@ -131,7 +132,7 @@ def test_a_new_results_file_starts_with_its_run_record_in_compact_strict_json(tm
     assert header == {"record": "run", "schema": SCHEMA, "plan": "p.toml", "corners": 3, "resumed": False, "started": header["started"]}
     assert before <= datetime.fromisoformat(header["started"]) <= after
     assert lines == [json.dumps(json.loads(x), separators=(",", ":")) for x in lines]  # no spaces: compact
-    assert json.loads(lines[1]) == {"record": "corner", "key": "a", "outcome": "pass", "seconds": 1.5}
+    assert [json.loads(x) for x in lines[1:]] == [{"record": "corner", "key": "a", "at": "out", "seconds": 1.5}, {"record": "corner", "key": "a", "at": "fb"}]
 
 
 def test_a_record_with_nan_is_refused_and_the_file_never_holds_it(tmp_path):
