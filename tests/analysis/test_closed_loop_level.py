@@ -23,3 +23,28 @@ def test_in_band_level(t0, level):
     """20 log10 |T/(1+T)| at the lowest frequency when |T| > 1 there, else 0 dB (Peaking.reference_db in results.py)."""
     assert in_band_db(t0) == pytest.approx(level, abs=1e-12)
 
+
+
+@pytest.mark.parametrize("k", [2.0, 4.0, 6.0])
+def test_extrema_are_located_to_full_precision(k):
+    """On T = k/(1 + s)^3 sampled 200 points a decade, the modulus margin min |1 + T| and the closed-loop peak max |T/(1 + T)|
+    sit where scipy's bounded minimiser puts them on the closed form itself (to 1e-7 in frequency): the polish between grid
+    points goes to the end, not to a default tolerance."""
+    import numpy as np
+    from scipy.optimize import minimize_scalar
+
+    from netloop.analysis import analyse
+
+    def closed_form(f_hz):
+        return k / (1 + 2j * math.pi * f_hz) ** 3
+
+    f = np.logspace(-3, 3, 1201)
+    a = analyse(f, closed_form(f), fit_poles=False)
+    modulus = minimize_scalar(lambda x: abs(1 + closed_form(10**x)), bounds=(-2, 1), method="bounded",
+                              options={"xatol": 1e-14})
+    peak = minimize_scalar(lambda x: -abs(closed_form(10**x) / (1 + closed_form(10**x))), bounds=(-2, 1), method="bounded",
+                           options={"xatol": 1e-14})
+    assert a.margins.modulus_freq_hz == pytest.approx(10**modulus.x, rel=1e-7)
+    assert a.margins.modulus_margin == pytest.approx(modulus.fun, rel=1e-9)
+    assert a.peaking.peak_freq_hz == pytest.approx(10**peak.x, rel=1e-7)
+    assert a.peaking.absolute_peak_db == pytest.approx(20 * math.log10(-peak.fun), abs=1e-9)
