@@ -101,3 +101,13 @@ def test_a_top_level_element_is_replaced_in_place():
     assert r.copies == ()
     changed = [(a, b) for a, b in zip(nl.statements, r.statements, strict=True) if a is not b]
     assert changed == [(next(e for e in nl.elements if e.key == "rd"), new)]
+
+
+def test_an_instance_with_a_parameter_before_its_subcircuit_name_points_at_the_copy():
+    """An X line with key=value tokens between its nodes and its subcircuit name (as sky130's cells write) gets the copy's name in the name's place."""
+    # By hand: only the subcircuit name changes on the X line; the parameter and the nodes stay where they were written.
+    nl = parse_text(TEXT.replace("xc2 in o2 vdd channel", "xc2 in o2 vdd m=1 channel"))
+    scope, new = _rd_at(nl, ("xc2", "xa"))
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage"})
+    lines = write_netlist(replace(nl, statements=r.statements, _index={})).splitlines()
+    assert "xc2 in o2 vdd m=1 channel_changed_in_xc2" in lines and "xc1 in o1 vdd channel" in lines
