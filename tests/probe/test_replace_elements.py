@@ -136,3 +136,19 @@ def test_the_probe_stands_after_the_last_element_before_trailing_directives():
     lines = write_netlist(break_loop(parse_text(text), "out").netlist).splitlines()
     assert lines[3:8] == ["R2 fb 0 1k", "vnl_series out out_drive dc 0 ac 0", "inl_shunt 0 out_drive dc 0 ac 0", ".param k=1",
                           ".model nch nmos level=1"]
+
+
+def test_a_copy_goes_into_the_definition_that_holds_its_original():
+    """A stage defined in system beside channel (not inside it) gets its copy inside system's copy; a nested helper on the path stays."""
+    # By hand: system holds stage and channel; channel holds an unrelated helper and instantiates stage (found in system).
+    text = ("nesting (invented model)\n.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05\n.subckt system in out vdd\n"
+            ".subckt stage in out vdd\nRd vdd n5 20k\nM1 n5 in 0 0 nch w=10u l=1u\nRs n5 out 1k\n.ends stage\n"
+            ".subckt channel in out vdd\n.subckt helper a\nRh a 0 1k\n.ends helper\nxa in mid vdd stage\nxh mid helper\nxb mid out vdd stage\n"
+            ".ends channel\nxk in out vdd channel\n.ends system\nVdd vdd 0 dc 3.3\nxc2 in o2 vdd system\n")
+    nl = parse_text(text)
+    scope, new = _rd_at(nl, ("xc2", "xk", "xa"))
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage", "system", "helper"})
+    lines = write_netlist(replace(nl, statements=r.statements, _index={})).splitlines()
+    inside = lines[lines.index(".subckt system_changed_in_xc2 in out vdd"):lines.index(".ends system_changed_in_xc2")]
+    assert ".subckt stage_changed_in_xc2_xk_xa in out vdd" in inside and "Rd vdd n5 30k" in inside
+    assert "xa in mid vdd stage_changed_in_xc2_xk_xa" in inside and "xb mid out vdd stage" in inside and ".subckt helper a" in inside
