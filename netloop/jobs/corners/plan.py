@@ -351,7 +351,7 @@ def _processes(raw: object, path: str, text: str) -> tuple[ProcessCorner, ...]:
                         "(and include.WORD = \"WORD\") keys")
     out = []
     for name, table in raw.items():
-        header = re.search(rf"^\s*\[\s*process\.[\"']?{re.escape(name)}[\"']?\s*\]", text, flags=re.MULTILINE)
+        header = re.search(rf"^[ \t]*\[[ \t]*process\.[\"']?{re.escape(name)}[\"']?[ \t]*\]", text, flags=re.MULTILINE)  # not \s: a blank line above is not its line
         section = (f"process.{name}",) if header else ("process", name)
         line = text.count("\n", 0, header.start()) + 1 if header else find_line(text, *section)
         if not table:

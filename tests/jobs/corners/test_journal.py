@@ -111,3 +111,51 @@ def test_supply_setting_writes_the_dc_value_where_ngspice_reads_it(tmp_path, car
     src.write_text(f"t\n.param vdd=3\n{card}\nR1 a 0 1k\n.end\n")
     nl = apply_settings(str(src), (Setting("supply", "vs", "2.5"),))
     assert nl.element("vs").card() == expected
+
+
+def test_a_new_results_file_starts_with_its_run_record_in_compact_strict_json(tmp_path):
+    """A results file in folders that do not exist yet is created with them; its first line is the run record (plan,
+    corner count, not resumed, the start as ISO 8601 UTC between the calls around it), then one line per record of a
+    task, every line compact JSON."""
+    from datetime import datetime, timezone
+
+    from netloop.jobs.corners.journal import SCHEMA
+
+    path = tmp_path / "a" / "b" / "r.jsonl"
+    before = datetime.now(timezone.utc).replace(microsecond=0)
+    journal = Journal.open(path, plan="p.toml", total=3, resume=False, force=False)
+    journal.write(({"record": "corner", "key": "a", "at": "out", "seconds": 1.5}, {"record": "corner", "key": "a", "at": "fb"}))  # one task, two loops
+    journal.close()
+    after = datetime.now(timezone.utc)
+    lines = path.read_text().splitlines()
+    header = json.loads(lines[0])
+    assert header == {"record": "run", "schema": SCHEMA, "plan": "p.toml", "corners": 3, "resumed": False, "started": header["started"]}
+    assert before <= datetime.fromisoformat(header["started"]) <= after
+    assert lines == [json.dumps(json.loads(x), separators=(",", ":")) for x in lines]  # no spaces: compact
+    assert [json.loads(x) for x in lines[1:]] == [{"record": "corner", "key": "a", "at": "out", "seconds": 1.5}, {"record": "corner", "key": "a", "at": "fb"}]
+
+
+def test_a_record_with_nan_is_refused_and_the_file_never_holds_it(tmp_path):
+    """The results file is strict JSON (RFC 8259 has no NaN): a record holding NaN raises ValueError, and a file that
+    got nothing written is not left behind."""
+    path = tmp_path / "r.jsonl"
+    journal = Journal.open(path, plan="p.toml", total=1, resume=False, force=False)
+    with pytest.raises(ValueError):
+        journal.write(({"record": "corner", "key": "a", "loop": {"pm": float("nan")}},))
+    journal.close()
+    assert not path.exists()
+
+
+def test_a_results_file_beneath_a_regular_file_is_refused_with_the_reason(tmp_path):
+    """A results path whose folder is a regular file cannot be written, even by root: OutputError naming the path and
+    the system's reason (os.strerror of the error the folder's creation gives)."""
+    import errno
+    import os
+
+    from netloop.errors import OutputError
+
+    (tmp_path / "plain").write_text("a file, not a folder\n")
+    path = tmp_path / "plain" / "r.jsonl"
+    with pytest.raises(OutputError) as info:
+        Journal.open(path, plan="p.toml", total=1, resume=False, force=False)
+    assert str(info.value) == f"cannot write the results file {str(path)!r}: {os.strerror(errno.EEXIST)}"

@@ -49,6 +49,16 @@ def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
     assert (task.corner, task.at) == (corner, "out")
 
 
+def test_netlist_axis_reads_each_netlist_beside_the_plan(tmp_path):
+    """A netlist axis gives one corner per netlist, each path taken relative to the plan's folder (as the top-level
+    netlist is), and the corner's netlist is that file."""
+    (tmp_path / "variants").mkdir()
+    for name in ("a.cir", "b.cir"):
+        shutil.copy(MILLER, tmp_path / "variants" / name)
+    plan = load_plan(_plan(tmp_path, '[axes]\nnetlist = ["variants/a.cir", "variants/b.cir"]\n'))
+    assert [c.netlist for c in expand(plan)] == [str(tmp_path / "variants" / "a.cir"), str(tmp_path / "variants" / "b.cir")]
+
+
 def test_product_is_every_combination_in_axis_order(tmp_path):
     """The product holds each combination once (itertools.product is the reference), last axis fastest, names from the values."""
     plan = load_plan(_plan(tmp_path, '[axes]\nlib = ["tt", "ss"]\ntemp = [-40, 27, 125]\nsupply.vdd = [3.0, 3.6]\n'))
@@ -91,6 +101,13 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\nelement = ["1p"]\n', "element", r"needs a name, e\.g\. element\.cl"),
         ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
+        ('[axes]\nlib = ["tt", "  "]\n', "lib", "lib is empty$"),
+        ('[axes]\ntemp = [27, inf]\n', "temp", "temp must be finite, got inf$"),  # TOML's inf
+        ('[axes]\nsupply.vdd = ["3.3", "1e999"]\n', "supply.vdd", "supply.vdd must be finite, got '1e999'$"),  # beyond a double
+        ('[axes]\ntemp = {x = 1}\n', "temp", "temp must be a list of values, not a table$"),
+        ('[[corner]]\ntemp = {x = 1}\n', "temp", "temp must be a value, not a table$"),
+        ('[axes]\nparam.k = ["1", " "]\n', "param", "param.k is empty$"),
+        ('[axes]\nnetlist = [" "]\n', "netlist = [", "netlist is empty$"),
     ],
 )
 def test_semantic_errors_point_at_the_offending_key(tmp_path, body, key, expected):

@@ -168,3 +168,20 @@ def test_plans_never_write_the_users_files(release):
     check_plan(plan)
     shutil.copy(release / "amp.cir", release / "copy.cir")
     assert {p: p.read_bytes() for p in before} == before
+
+
+def test_process_corner_mistakes_name_the_line_of_the_process_table(tmp_path):
+    """A process corner that sets nothing is refused at its [process.NAME] line, a corner setting a .lib line its process
+    corner sets names that table's line, and a process key that is not a table is refused at its own line (word for word)."""
+    path = _plan(tmp_path, PROCESS + '\n[process.empty]\n[axes]\nprocess = ["empty"]\n')
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    assert str(info.value) == f"{path}:{_line_of(path, '[process.empty]')}: process corner 'empty' sets nothing; give it lib.LINE = \"SECTION\" keys"
+    path = _plan(tmp_path, PROCESS + '\n[[corner]]\nprocess = "slow"\nlib.typical = "fast"\n')
+    with pytest.raises(PlanError, match=rf"set both by process corner 'slow' \(line {_line_of(path, '[process.slow]')}\)"):
+        check_plan(load_plan(path))
+    path = _plan(tmp_path, 'process = "slow"\n')
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    assert str(info.value) == (f"{path}:{_line_of(path, 'process =')}: process corners are tables: [process.NAME] with "
+                               'lib.LINE = "SECTION" (and include.WORD = "WORD") keys')
