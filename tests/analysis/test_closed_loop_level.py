@@ -48,3 +48,26 @@ def test_extrema_are_located_to_full_precision(k):
     assert a.margins.modulus_margin == pytest.approx(modulus.fun, rel=1e-9)
     assert a.peaking.peak_freq_hz == pytest.approx(10**peak.x, rel=1e-7)
     assert a.peaking.absolute_peak_db == pytest.approx(20 * math.log10(-peak.fun), abs=1e-9)
+
+
+def test_an_overflowing_interpolant_does_not_hide_the_peak():
+    """Where |T| between samples exceeds the largest float (samples up to 1e308, a gain of 1e300 in a netlist), T/(1+T) is
+    inf/inf there; those points are passed over without a warning, and the closed-loop peak is still at least the largest
+    |T/(1+T)| of the samples and of the gain crossover, 1/(2 sin(PM/2)) (both by definition of a maximum over the sweep)."""
+    import warnings
+
+    import numpy as np
+
+    from netloop.analysis import analyse
+
+    f = np.logspace(0, 4, 41)
+    gain_db = np.interp(np.log10(f), [0, 0.4, 0.6, 4], [6000, 6160, 6160, -200])  # 6160 dB is |T| = 1e308
+    t = 10 ** (gain_db / 20) * np.exp(-1j * np.radians(np.linspace(10, 170, f.size)))
+    assert np.all(np.isfinite(t))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        a = analyse(f, t, fit_poles=False)
+    samples_db = 20 * np.log10(np.max(np.abs(t / (1 + t))))
+    (crossing,) = a.gain_crossovers
+    assert a.peaking.absolute_peak_db >= max(samples_db, crossing.peaking_db) - 1e-9
+    assert math.isfinite(a.peaking.absolute_peak_db)

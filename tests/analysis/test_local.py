@@ -328,3 +328,20 @@ def test_a_window_around_one_crossover_has_exactly_the_points_asked_for(half_wid
     a = analyse(F, three_pole(F))
     single = [w for w in windows_of(a, half_width=half_width, points=points) if w.gain_crossovers + w.phase_crossovers == 1]
     assert [w.points for w in single] == [points, points]
+
+
+def test_windows_read_single_precision_data_in_double_precision():
+    """Frequencies in float32 and T in complex64 give the reading of the very same values in float64 and complex128
+    (numpy's exact widening), and Window.holds decides on the float64 value: a float32 frequency 3e-8 above the
+    window's top is outside it (three-pole closed form)."""
+    a = analyse(F, three_pole(F))
+    windows = tuple(w for w in windows_of(a) if not w.peak)  # float32 cannot hold the peak's frequency to 1e-9
+    f, t = _samples(windows, 1.02e6)
+    f32, t64 = f.astype(np.float32), t.astype(np.complex64)
+    single = read_windows(windows, f32, t64, stable=True, floor_db=-120)
+    assert single.problem is None
+    assert single == read_windows(windows, f32.astype(float), t64.astype(complex), stable=True, floor_db=-120)
+    top = np.float32(1001.0)  # float32 spacing near 1e3 is 6.1e-5: 1001 is exact, and so is the window below
+    above = np.nextafter(top, np.float32(np.inf))
+    w = Window(900.0, float(top) * (1.0 + 1e-9) * (1.0 + 3e-8), 9, 0.0)
+    assert w.holds(np.array([top, above])).tolist() == w.holds(np.array([top, above], dtype=float)).tolist() == [True, False]

@@ -6,7 +6,7 @@ from dataclasses import replace
 
 import pytest
 
-from netloop.netlist import parse_text, write_netlist
+from netloop.netlist import parse_file, parse_text, write_netlist
 from netloop.probe.silence import silence_element, silence_statements
 
 
@@ -34,9 +34,12 @@ def _card(line: str):
     ("V1 a 0 dc 1 ac 0e3", None),
     ("I1 0 a ac=0", None),
     ("V1 ac 0 dc 1", None),  # a node named ac is no AC part
+    ("V1 ac b dc 1", None),
+    ("V1 a 0 ac 1 90 sin(0 1 1k)", "V1 a 0 ac 0 sin(0 1 1k)"),  # magnitude and phase go, the function stays whole
     ("V1 a 0 dc 1", None),
     ("R1 a ac 1k", None),  # only independent sources are silenced
     ("E1 a 0 ac 0 2", None),
+    ("Xs a 0 sub ac=1", None),  # an instance parameter named ac is no source
 ])
 def test_the_ac_part_of_a_source_card_is_set_to_zero(line, silenced):
     """Each form of an AC specification becomes 'ac 0' (or ac=0) in place; a card with no AC part, or AC 0, is left alone (None)."""
@@ -53,7 +56,8 @@ Ri a 0 1k
 Vo b 0 ac 2
 Xin b inner
 .ends outer
-Vtop t 0 dc 0 ac 1
+.param amp=1
+vtop t 0 dc 0 ac {amp}
 Vkeep k 0 ac 1
 Vquiet q 0 dc 1
 X1 t outer
@@ -66,7 +70,20 @@ def test_sources_in_nested_definitions_are_silenced_and_reported_by_their_defini
     statements, hits = silence_statements(nl.statements, frozenset({"vkeep", "vi"}))
     assert hits == (("inner", "vi"), ("outer", "vo"), ("", "vtop"))  # in statement order; vi is kept only at the top, where it is not
     text = write_netlist(replace(nl, statements=statements, _index={}))
-    for card in ("Vi a 0 dc 1 ac 0", "Vo b 0 ac 0", "Vtop t 0 dc 0 ac 0", "Vkeep k 0 ac 1", "Vquiet q 0 dc 1", "Ri a 0 1k"):
+    for card in ("Vi a 0 dc 1 ac 0", "Vo b 0 ac 0", ".param amp=1", "vtop t 0 dc 0 ac 0", "Vkeep k 0 ac 1", "Vquiet q 0 dc 1", "Ri a 0 1k"):
         assert card in text.splitlines()
     _, again = silence_statements(statements, frozenset())  # silencing again finds only the source kept the first time
     assert again == (("", "vkeep"),)
+
+
+def test_an_included_file_with_nothing_to_silence_is_still_written_as_its_include(tmp_path):
+    """Definitions with no source to silence stay the very same records, so the written deck still refers to the included file."""
+    # Reference: write_netlist's docstring (netloop/netlist/writer.py): an .include is written again as that statement when every
+    # statement it brought in still stands unchanged as the very same record.
+    (tmp_path / "blocks.inc").write_text(".subckt buf a b\nE1 b 0 a 0 1\n.ends buf\n")
+    (tmp_path / "top.cir").write_text("top\n.include blocks.inc\nVin in 0 dc 0 ac 1\nX1 in out buf\nR1 out 0 1k\n.end\n")
+    nl = parse_file(tmp_path / "top.cir")
+    statements, hits = silence_statements(nl.statements, frozenset())
+    assert hits == (("", "vin"),)
+    lines = write_netlist(replace(nl, statements=statements, _index={})).splitlines()
+    assert any(line.startswith(".include") and "blocks.inc" in line for line in lines) and ".subckt buf a b" not in lines

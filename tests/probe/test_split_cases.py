@@ -140,6 +140,16 @@ def test_a_miller_branch_finds_its_stage_through_a_sense_source(at, sense, side,
     assert stage in decided
 
 
+def test_a_resistor_beyond_a_sense_source_is_no_stage():
+    """Beyond the sense source at o1, a self-bias resistor from M6's gate to its drain is a passive element, not the stage the Miller branch wraps."""
+    # By hand: only an active element is a stage (netloop/probe/sides.py); Rz-Cc wraps M6 from its gate side (o1, through the
+    # 0 V source) to its drain out, as without the resistor (the test above).
+    text = TWO_STAGE.replace("M6 out o1", "Rg6 g6 out 1meg\nM6 out g6") + "Vsense o1 g6 dc 0\n"
+    _, load, _, decided = _sides(text, "o1")
+    assert load == {"rz.p", "vsense.p"}
+    assert "rz on the load side (closes a local loop around the stage m6 that the node drives (on to out through 2 passive elements)" in decided
+
+
 @pytest.mark.ngspice
 def test_a_sense_source_in_series_with_the_driver_leaves_t_unchanged(simulator):
     """With a 0 V source between the output drains and the node, T equals that of the circuit without it (ngspice, 1e-6)."""
@@ -153,25 +163,38 @@ def test_a_sense_source_in_series_with_the_driver_leaves_t_unchanged(simulator):
     np.testing.assert_allclose(t1, t0, rtol=1e-6)
 
 
-def test_a_pseudo_resistor_beside_the_feedback_capacitor_goes_with_it():
-    """Two diode-connected devices in series from out to the summing node (a pseudo-resistor) go with the feedback capacitor beside them."""
+PSEUDO = ("capacitive feedback with a pseudo-resistor (invented)\n" + MODELS +
+          "Vin in 0 dc 1 ac 1\nCin in x 1p\nCf out x 0.5p\nMa x x m m pch w=1u l=10u\nMb out out m m pch w=1u l=10u\n"
+          "E1 out 0 1.2 x 1000\nMg dx x 0 0 nch w=1u l=1u\nRd dx 0 1k\n")
+
+
+@pytest.mark.parametrize("extra, with_cf", [
+    ("", set()),
+    ("Mc x x w w pch w=1u l=10u\nRw w 0 1meg\n", {"mc.d", "mc.g"}),  # to ground through Rw: beside nothing, a load
+], ids=["pseudo-resistor", "and a diode to a leak"])
+def test_a_pseudo_resistor_beside_the_feedback_capacitor_goes_with_it(extra, with_cf):
+    """Two diode-connected devices in series from out to the summing node (a pseudo-resistor) go with the feedback capacitor beside
+    them; a diode-connected device that leads elsewhere stays a load."""
     # By hand: no output sits on x; Cf brings the signal from E1's output out; Ma (drain and gate on x) and Mb (drain and gate
     # on out) meet at m: a two-terminal branch from out to x in parallel with Cf, so one branch with it. Cin goes to the
-    # input source (AC ground): a shunt.
-    text = ("capacitive feedback with a pseudo-resistor (invented)\n" + MODELS +
-            "Vin in 0 dc 1 ac 1\nCin in x 1p\nCf out x 0.5p\nMa x x m m pch w=1u l=10u\nMb out out m m pch w=1u l=10u\n"
-            "E1 out 0 1.2 x 1000\nMg dx x 0 0 nch w=1u l=1u\nRd dx 0 1k\n")
-    assert _sides(text, "x")[:3] == ({"cf.n", "ma.d", "ma.g"}, {"e1.cn", "mg.g"}, {"cin.n"})
+    # input source (AC ground): a shunt. Mc leads from x only to w and Rw to ground (its way to out would pass x itself).
+    text = PSEUDO + extra
+    assert _sides(text, "x")[:3] == ({"cf.n", "ma.d", "ma.g"}, {"e1.cn", "mg.g"} | with_cf, {"cin.n"})
 
 
-def test_the_net_outside_a_block_input_fed_through_a_divider_drives_it():
-    """Inside a block at its input pin, the net outside drives when a resistor there brings the signal from an output, and says which."""
-    # By hand: x1's output reaches mid through R1 (one passive element; R2 goes to ground); inside x1, inn is M1's gate.
+@pytest.mark.parametrize("feedback, fed", [
+    ("R1 out mid 10k\n", "r1.n"),
+    ("R1 out m1 5k\nR1b m1 m2 3k\nR1c m2 mid 2k\n", "r1c.n"),  # three elements from the output: the limit, still fed
+], ids=["one resistor", "three resistors"])
+def test_the_net_outside_a_block_input_fed_through_a_divider_drives_it(feedback, fed):
+    """Inside a block at its input pin, the net outside drives when resistors there bring the signal from an output, and says which."""
+    # By hand: x1's output reaches mid through R1 (or the chain R1, R1b, R1c; R2 goes to ground); inside x1, inn is M1's gate,
+    # which the chain reaches only back through mid itself.
     text = ("gain of two (invented)\n" + MODELS + OTA +
-            "Vdd vdd 0 dc 3.3\nVref ref 0 dc 1.6\nX1 ref mid out vdd ota\nR1 out mid 10k\nR2 mid 0 10k\nCL out 0 1p\n")
+            "Vdd vdd 0 dc 3.3\nVref ref 0 dc 1.6\nX1 ref mid out vdd ota\n" + feedback + "R2 mid 0 10k\nCL out 0 1p\n")
     driver, load, _, decided = _sides(text, "x1.inn")
-    assert (driver, load) == ({"x1.inn outside x1 (r1.n, r2.p)"}, {"x1.m1.g"})
-    assert "; outside the instance, r1.n does)" in decided
+    assert (driver, load) == ({f"x1.inn outside x1 ({fed}, r2.p)"}, {"x1.m1.g"})
+    assert f"; outside the instance, {fed} does)" in decided
 
 
 @pytest.mark.parametrize("text, driver, load", [
@@ -219,6 +242,41 @@ ONE_PORTS = (
     "several terminals on the node, a one-port placed whole, e.g. a diode connection).")
 
 
+THROUGH_BRANCH = (
+    "driver side: cf.n, ma.d, ma.g (no active output sits on the node; these bring the signal through at most 3 passive elements "
+    "from a node that a drain, collector, controlled source or instance output drives, sooner than they lead on to an input); "
+    "load side: e1.cn, mg.g; cin.n connects the node only to AC ground, which never changes T; placed on the load side (either "
+    "side gives the same T).")
+TWO_CASCODES = ("two cascodes (invented)\n" + MODELS + "Vdd vdd 0 dc 3.3\nVbn bn 0 dc 1.2\nVbp bp 0 dc 2\nRsp vdd sp 10k\n"
+                "Mcp out bp sp vdd pch w=20u l=1u\nMcn out bn sn 0 nch w=10u l=1u\nM1 sn in 0 0 nch w=10u l=1u\nRsn vdd sn 20k\n"
+                "Rl out 0 100k\nMo q out 0 0 nch w=10u l=1u\nRq vdd q 10k\nRf q in 100k\nRi in 0 100k\n")
+CASCODES = (
+    "driver side: mcp.d, mcn.d (common-gate or cascode devices: their gate is at AC ground, and no other output sits on the "
+    "node); load side: mo.g; rl.p connects the node only to AC ground, which never changes T; placed on the load side (either "
+    "side gives the same T).")
+EMITTER_FOLLOWER = "emitter follower (invented model)\n.model qn npn bf=100\nVcc vcc 0 dc 5\nQ1 vcc b out qn\nRe out 0 2k\nE1 b 0 0 out 100\n"
+EMITTER = (
+    "driver side: q1.e (outputs: drain, collector, controlled-source or instance output, or a follower's source/emitter); load "
+    "side: e1.cn; re.p connects the node only to AC ground, which never changes T; placed on the load side (either side gives "
+    "the same T).")
+TWO_SERIES = (
+    "driver side: vsense.n (outputs: drain, collector, controlled-source or instance output); vsense.n is a voltage source in "
+    "series (no AC impedance): it goes with m6.d, m7.d on its far side; vs2.p is a voltage source in series (no AC impedance): "
+    "it goes with m9.g on its far side; with cc (closes a local loop around the driver stage m6 (back to o1 through 2 passive "
+    "elements): kept with it); load side: rf.p, vs2.p; rf on the load side (leads on into the loop: it wraps no stage that the "
+    "loop measured passes through); cl.p connects the node only to AC ground, which never changes T; placed on the load side "
+    "(either side gives the same T).")
+ONE_PORTS_INSIDE = (
+    "driver side: xm.m4.d (outputs: drain, collector, controlled-source or instance output); load side: xm.m2.g; xm.m1.d, "
+    "xm.m1.g, xm.rb.n, xm.m5.d, xm.m5.g connect the node only to AC ground, which never changes T; placed on the load side "
+    "(either side gives the same T) (xm.m1, xm.m5: several terminals on the node, a one-port placed whole, e.g. a diode connection).")
+TIED_LOAD = (
+    "driver side: mc2.d (common-gate or cascode devices: their gate is at AC ground, and no other output sits on the node); "
+    "vsense.p is a voltage source in series (no AC impedance): it goes with mc4.g, m3.g on its far side; load side: vsense.p, "
+    "mc4.d; mc4.d goes with vsense.p: its element has another terminal beyond that source, which has no AC impedance, so it is "
+    "one unit across it.")
+
+
 @pytest.mark.parametrize("text, at, sentence", [
     (TWO_STAGE, "out", OUTPUTS_AND_BRIDGES),  # test_split_rules.py: test_miller_branch_goes_with_the_second_stage_at_both_of_its_ends
     (TWO_STAGE, "o1", CASCODE_BESIDE),  # M2's gate is at inp, a DC source: AC ground, so M2 is common-gate beside M4
@@ -226,7 +284,15 @@ ONE_PORTS = (
     ("divider\nVin in 0 dc 0 ac 1\nE1 x 0 y 0 2\nR1 x n 1k\nR2 n 0 1k\nRg n y 1k\nCg y 0 1p\n", "n", THROUGH),  # test_sides.py divider
     (FOLLOWER_LDO, "vout", FOLLOWER),  # test_split_rules.py: Mp's drain is at vdd, its gate carries signal; Cc wraps it gate to source
     ("mirror (invented)\n" + MODELS + MIRROR, "d", ONE_PORTS),  # test_sides.py: test_diode_connected_device_goes_whole_to_one_side
-], ids=["outputs and bridges", "cascode beside", "cascode and tied", "through", "follower", "one-ports"])
+    (PSEUDO, "x", THROUGH_BRANCH),  # test_a_pseudo_resistor_beside_the_feedback_capacitor_goes_with_it
+    (TWO_CASCODES, "out", CASCODES),  # both drains on out are common-gate (gates at the DC sources vbn, vbp); nothing else drives
+    (EMITTER_FOLLOWER, "out", EMITTER),  # Q1's collector at the supply, its base driven: its emitter drives out
+    (SENSED + "Vs2 out g9 dc 0\nM9 q g9 vdd vdd pch w=10u l=1u\nRq q 0 10k\n", "out", TWO_SERIES),  # a second source, to M9's gate
+    (SENSED_DIODE.replace("Mc4 cmd cmfb vdd vdd", "Mc4 cmd cmfb s4 vdd") + "Rs4 vdd s4 1k\n", "cmd", TIED_LOAD),  # Rs4 degenerates Mc4
+    ("mirror in an instance (invented)\n" + MODELS + ".subckt mirror vdd\n" + MIRROR.replace("Vdd vdd 0 dc 3.3\n", "")
+     + "M5 d d 0 0 nch w=1u l=1u\n.ends mirror\nVdd vdd 0 dc 3.3\nXm vdd mirror\n", "xm.d", ONE_PORTS_INSIDE),  # one more diode, M5
+], ids=["outputs and bridges", "cascode beside", "cascode and tied", "through", "follower", "one-ports", "through, a branch", "two cascodes",
+        "emitter follower", "two series sources", "tied load", "one-ports inside"])
 def test_the_sentence_says_the_split_and_each_reason(text, at, sentence):
     """decided_by names the driver side and why, each bridge and where it went, the load side, series sources, ties and shunts."""
     _, _, split = locate_split(parse_text(text), at)
