@@ -107,6 +107,7 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\ntemp = {x = 1}\n', "temp", "temp must be a list of values, not a table$"),
         ('[[corner]]\ntemp = {x = 1}\n', "temp", "temp must be a value, not a table$"),
         ('[axes]\nparam.k = ["1", " "]\n', "param", "param.k is empty$"),
+        ('sweep = 5\n', "sweep", r"sweep must be a table \(\[sweep\]\)$"),
         ('[axes]\nnetlist = [" "]\n', "netlist = [", "netlist is empty$"),
     ],
 )

@@ -186,27 +186,38 @@ def test_close_simulator_stops_the_worker_simulator_once(monkeypatch):
     assert worker._SIMULATOR is None
 
 
-def test_a_task_whose_worker_fails_is_recorded_as_an_error(task, tmp_path, monkeypatch):
+def test_a_task_whose_worker_fails_is_recorded_as_an_error(task, tmp_path, monkeypatch, capsys):
     """When the worker itself fails (its task raises in Dask, as a lost worker does), the run still records the corner: an
     "error" record with every field a measured corner's record has, the worker's exception in its message, nothing
-    measured (no time, no loop, no worker), written to the results file; the run fails."""
+    measured (no time, no loop, no worker), written to the results file, counted failed on the progress bar; the run
+    fails. The task reached the worker with the plan's options, each as the plan file gives it."""
     from distributed import LocalCluster
 
     from netloop.jobs.corners import read_records, runner
 
     def lost(task, options, **_):
-        raise RuntimeError("worker gone")
+        raise RuntimeError(options)  # the options it was sent come back in the record's message
 
     (measured,), _ = _run(task, TaskOptions(sweep=FIXED), _Loop(), monkeypatch)  # the fields of a corner's record
     monkeypatch.setattr(runner, "run_task", lost)
+    (tmp_path / "plan.toml").write_text(
+        f'netlist = "{task.corner.netlist}"\nat = "n0"\nmethod = "middlebrook"\ndriver = "r1"\nrequire = ["pm>=60"]\n'
+        'open_loop_rhp_poles = 1\ntimeout_s = 42\nshare_loads = false\n[sweep]\nfmin_hz = 1\nfmax_hz = 1e9\npoints_per_decade = 20\n'
+        '[axes]\ntemp = [50]\n')
     plan = load_plan(tmp_path / "plan.toml")
+    (task,) = check_plan(plan)
+    sent = TaskOptions(method="middlebrook", driver="r1", sweep=Sweep(fmin_hz=1.0, fmax_hz=1e9, points_per_decade=20, fmin_given=True,
+                                                                       fmax_given=True),
+                       open_loop_rhp_poles=1, requirements=("pm>=60",), timeout_s=42.0, share_loads=False)
+    capsys.readouterr()
     with LocalCluster(n_workers=1, processes=False, threads_per_worker=1, dashboard_address=None) as cluster:  # in this process
-        run = runner.run_tasks(plan, (task,), cluster=cluster.scheduler_address, out=tmp_path / "r.jsonl")
+        run = runner.run_tasks(plan, (task,), cluster=cluster.scheduler_address, out=tmp_path / "r.jsonl", progress=True)
     (record,) = run.records
     assert set(record) == {*measured, "inputs"}
     _common({**record, "worker": measured["worker"]}, task, 0.0)
-    assert (record["at"], record["outcome"], record["error"]) == ("n0", "error", "the worker failed: RuntimeError('worker gone')")
+    assert (record["at"], record["outcome"], record["error"]) == ("n0", "error", f"the worker failed: {RuntimeError(sent)!r}")
     assert (record["seconds"], record["sim_seconds"], record["loads"], record["worker"], record["loop"], record["simulator_output"]) == (
         0.0, 0.0, None, None, None, None)
     assert [r for r in read_records(tmp_path / "r.jsonl")[0] if r["record"] == "corner"] == [record]
     assert run.verdict == "fail" and run.counts["error"] == 1
+    assert "] 1/1 corners, 1 failed, " in capsys.readouterr().err.split("\r")[-1]
