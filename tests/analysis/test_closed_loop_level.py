@@ -14,6 +14,7 @@ from netloop.analysis.closed_loop import in_band_db
     [
         (100.0, 20 * math.log10(100 / 101)),  # regulated: |T/(1+T)| at the bottom of the sweep
         (2.0 - 1.0j, 20 * math.log10(abs((2 - 1j) / (3 - 1j)))),
+        (1.5, 20 * math.log10(1.5 / 2.5)),  # above 1, below 2
         (1.0, 0.0),  # |T| = 1 exactly is not above 1: the ideal in-band value 1, 0 dB
         (-1.0 + 0.0j, 0.0),
         (0.5, 0.0),  # does not regulate at the bottom
@@ -71,3 +72,20 @@ def test_an_overflowing_interpolant_does_not_hide_the_peak():
     (crossing,) = a.gain_crossovers
     assert a.peaking.absolute_peak_db >= max(samples_db, crossing.peaking_db) - 1e-9
     assert math.isfinite(a.peaking.absolute_peak_db)
+
+
+def test_a_loop_without_peaking_reads_its_level_at_the_bottom():
+    """T = 10/(1 + s/w1): |T/(1+T)| = 10/|11 + s/w1| falls from the bottom of the sweep (closed form), stays below 1 and
+    peaks nowhere: the peak is its value at the lowest frequency, which is also the reference, so peaking is 0 dB."""
+    import numpy as np
+
+    from netloop.analysis import analyse
+
+    f = np.logspace(-2, 4, 121)
+    w1 = 2 * math.pi * 10.0
+    a = analyse(f, 10.0 / (1 + 2j * math.pi * f / w1), fit_poles=False)
+    level = 20 * math.log10(abs(10.0 / (11.0 + 2j * math.pi * f[0] / w1)))  # closed form at the lowest frequency, < 0 dB
+    assert level < 0.0
+    assert a.peaking.reference_db == pytest.approx(level, abs=1e-12)
+    assert a.peaking.absolute_peak_db == pytest.approx(level, abs=1e-9)
+    assert a.peaking.peak_db == pytest.approx(0.0, abs=1e-9) and a.peaking.peak_freq_hz == pytest.approx(f[0], rel=1e-3)
