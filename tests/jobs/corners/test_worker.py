@@ -226,4 +226,5 @@ def test_a_task_whose_worker_fails_is_recorded_as_an_error(task, tmp_path, monke
     assert passed["corner"] == "60C" and passed["outcome"] == "pass"  # PM ~51.9 deg >= 40, P = 0 given: the other task measured
     assert [r for r in read_records(tmp_path / "r.jsonl")[0] if r["record"] == "corner"] == [record, passed]
     assert run.verdict == "fail" and (run.counts["error"], run.counts["pass"], run.workers) == (1, 1, 1)
-    assert "] 2/2 corners, 1 failed, " in capsys.readouterr().err.split("\r")[-1]
+    bar = capsys.readouterr().err.split("\r")[-1]  # the bar's last state: the lost task's loads unknown, the other's counted
+    assert f"] 2/2 corners, 1 failed, {passed['loads']} loads (0 corners on a loaded circuit), " in bar and passed["loads"] > 0
