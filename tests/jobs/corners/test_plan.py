@@ -53,6 +53,21 @@ def test_auto_without_loop_discovery_is_refused_at_the_at_line(tmp_path, monkeyp
     assert str(info.value) == f"{path}:3: at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes"
 
 
+@pytest.mark.parametrize("at", ['[" "]', "[5]", "[]", '"out" # fine', '["out", "auto"]'])
+def test_at_must_name_nodes(tmp_path, at):
+    """at must be a node, a list of nodes, or "auto" alone: a blank or non-text entry, an empty list, or auto among nodes
+    is refused word for word at the at line."""
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\nat = {at}\n')
+    if at.endswith("# fine"):
+        assert load_plan(path).at == ("out",)
+        return
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    said = '"auto" measures every loop; do not list nodes with it' if "auto" in at else 'at must be a node name, a list of node names, or "auto"'
+    assert str(info.value) == f"{path}:2: {said}"
+
+
 def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
     """A plan with neither [axes] nor [[corner]] has one corner, "nominal": the netlist as written (README, corner plans)."""
     plan = load_plan(_plan(tmp_path, ""))
