@@ -18,7 +18,7 @@ def _extremum(resp: Response, fun) -> tuple[float, float]:
     xs = resp.dense_x(16)
     with np.errstate(divide="ignore", invalid="ignore"):
         vals = fun(resp.t_at(xs))
-    i = int(np.argmin(vals))
+    i = int(np.nanargmin(vals))  # NaN (inf / inf where |T| overflowed) is never the extremum
     lo, hi = xs[max(i - 1, 0)], xs[min(i + 1, xs.size - 1)]
     if hi > lo:
         load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)

@@ -14,6 +14,7 @@ from netloop.analysis.closed_loop import in_band_db
     [
         (100.0, 20 * math.log10(100 / 101)),  # regulated: |T/(1+T)| at the bottom of the sweep
         (2.0 - 1.0j, 20 * math.log10(abs((2 - 1j) / (3 - 1j)))),
+        (1.5, 20 * math.log10(1.5 / 2.5)),  # above 1, below 2
         (1.0, 0.0),  # |T| = 1 exactly is not above 1: the ideal in-band value 1, 0 dB
         (-1.0 + 0.0j, 0.0),
         (0.5, 0.0),  # does not regulate at the bottom
@@ -48,3 +49,43 @@ def test_extrema_are_located_to_full_precision(k):
     assert a.margins.modulus_margin == pytest.approx(modulus.fun, rel=1e-9)
     assert a.peaking.peak_freq_hz == pytest.approx(10**peak.x, rel=1e-7)
     assert a.peaking.absolute_peak_db == pytest.approx(20 * math.log10(-peak.fun), abs=1e-9)
+
+
+def test_an_overflowing_interpolant_does_not_hide_the_peak():
+    """Where |T| between samples exceeds the largest float (samples up to 1e308, a gain of 1e300 in a netlist), T/(1+T) is
+    inf/inf there; those points are passed over without a warning, and the closed-loop peak is still at least the largest
+    |T/(1+T)| of the samples and of the gain crossover, 1/(2 sin(PM/2)) (both by definition of a maximum over the sweep)."""
+    import warnings
+
+    import numpy as np
+
+    from netloop.analysis import analyse
+
+    f = np.logspace(0, 4, 41)
+    gain_db = np.interp(np.log10(f), [0, 0.4, 0.6, 4], [6000, 6160, 6160, -200])  # 6160 dB is |T| = 1e308
+    t = 10 ** (gain_db / 20) * np.exp(-1j * np.radians(np.linspace(10, 170, f.size)))
+    assert np.all(np.isfinite(t))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        a = analyse(f, t, fit_poles=False)
+    samples_db = 20 * np.log10(np.max(np.abs(t / (1 + t))))
+    (crossing,) = a.gain_crossovers
+    assert a.peaking.absolute_peak_db >= max(samples_db, crossing.peaking_db) - 1e-9
+    assert math.isfinite(a.peaking.absolute_peak_db)
+
+
+def test_a_loop_without_peaking_reads_its_level_at_the_bottom():
+    """T = 10/(1 + s/w1): |T/(1+T)| = 10/|11 + s/w1| falls from the bottom of the sweep (closed form), stays below 1 and
+    peaks nowhere: the peak is its value at the lowest frequency, which is also the reference, so peaking is 0 dB."""
+    import numpy as np
+
+    from netloop.analysis import analyse
+
+    f = np.logspace(-2, 4, 121)
+    w1 = 2 * math.pi * 10.0
+    a = analyse(f, 10.0 / (1 + 2j * math.pi * f / w1), fit_poles=False)
+    level = 20 * math.log10(abs(10.0 / (11.0 + 2j * math.pi * f[0] / w1)))  # closed form at the lowest frequency, < 0 dB
+    assert level < 0.0
+    assert a.peaking.reference_db == pytest.approx(level, abs=1e-12)
+    assert a.peaking.absolute_peak_db == pytest.approx(level, abs=1e-9)
+    assert a.peaking.peak_db == pytest.approx(0.0, abs=1e-9) and a.peaking.peak_freq_hz == pytest.approx(f[0], rel=1e-3)
