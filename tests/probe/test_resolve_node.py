@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import pytest
 
+from netloop.errors import UnknownNodeError
 from netloop.netlist import parse_text
 from netloop.probe.scope import elements_of, resolve_node, walk_scopes
 
@@ -77,3 +78,24 @@ def test_lifting_keeps_the_net(text):
             names += 1
     assert names >= 10
 
+
+
+DOTTED = HIER.replace("Rin in g 10k\n", "Rin in a.b 10k\nRab a.b g 1k\n") + "Rdot mid n.1 1k\nRn n.1 0 1k\n"
+
+
+@pytest.mark.parametrize("name, scope, local", [
+    ("n.1", TOP, "n.1"),  # a top-level node whose own name has a dot (SPICE allows it)
+    ("xa.a.b", (("xa",), ("stage",), (("in", "in"), ("out", "mid"), ("vdd", "vdd"))), "a.b"),  # the same inside xa: a is no instance
+])
+def test_a_node_name_with_a_dot_is_found_where_it_is_written(name, scope, local):
+    """A node whose own name contains a dot resolves to that node, at the top or inside an instance, lifted or not."""
+    nl = parse_text(DOTTED)
+    assert _where(nl, name) == _where(nl, name, lift=False) == (*scope, local)
+
+
+@pytest.mark.parametrize("name", ["xq.n5", "xa.zz", "rdot.x", "xa.rin.x", "zz"])
+def test_an_unknown_name_is_refused_as_an_unknown_node(name):
+    """An unknown instance on the path, an unknown node inside a known one, an element that is no instance, or an unknown top node: UnknownNodeError."""
+    with pytest.raises(UnknownNodeError) as info:
+        resolve_node(parse_text(DOTTED), name, frozenset())
+    assert str(info.value).startswith(f"unknown node {name!r}")
