@@ -99,3 +99,18 @@ def test_an_unknown_name_is_refused_as_an_unknown_node(name):
     with pytest.raises(UnknownNodeError) as info:
         resolve_node(parse_text(DOTTED), name, frozenset())
     assert str(info.value).startswith(f"unknown node {name!r}")
+
+
+def test_a_pin_whose_name_has_a_dot_is_lifted_only_when_asked():
+    """A pin named with a dot (o.1) is lifted to the net on it (y) by default and stays inside the instance without lift."""
+    # By hand: X1 in y buf wires buf's pin o.1 to the top-level net y.
+    nl = parse_text("dotted pin (invented)\n.subckt buf a o.1\nE1 o.1 0 a 0 1\n.ends buf\nV1 in 0 dc 1\nX1 in y buf\nR1 y 0 1k\n")
+    assert _where(nl, "x1.o.1") == (*TOP, "y")
+    assert _where(nl, "x1.o.1", lift=False) == (("x1",), ("buf",), (("a", "in"), ("o.1", "y")), "o.1")
+
+
+@pytest.mark.parametrize("name, close", [("xq.n5", "xa.n5"), ("mdd", "mid")])
+def test_an_unknown_name_suggests_the_closest_nodes(name, close):
+    """The refusal of an unknown name suggests the closest flattened node names (an unknown instance on the path, an unknown top node)."""
+    with pytest.raises(UnknownNodeError, match=rf"did you mean .*'{close}'"):
+        resolve_node(parse_text(DOTTED), name, frozenset())
