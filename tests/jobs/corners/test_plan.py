@@ -68,6 +68,17 @@ def test_at_must_name_nodes(tmp_path, at):
     assert str(info.value) == f"{path}:2: {said}"
 
 
+@pytest.mark.parametrize("value", ["-1", "true", "1.5"])
+def test_open_loop_rhp_poles_must_be_a_whole_number(tmp_path, value):
+    """open_loop_rhp_poles (P of the Nyquist criterion) must be a whole number 0 or more: a negative, boolean or fractional
+    value is refused word for word at its line."""
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\nat = "out"\nopen_loop_rhp_poles = {value}\n')
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    assert str(info.value) == f"{path}:3: open_loop_rhp_poles must be a whole number 0 or more"
+
+
 def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
     """A plan with neither [axes] nor [[corner]] has one corner, "nominal": the netlist as written (README, corner plans)."""
     plan = load_plan(_plan(tmp_path, ""))
