@@ -68,15 +68,23 @@ def test_at_must_name_nodes(tmp_path, at):
     assert str(info.value) == f"{path}:2: {said}"
 
 
-@pytest.mark.parametrize("value", ["-1", "true", "1.5"])
-def test_open_loop_rhp_poles_must_be_a_whole_number(tmp_path, value):
-    """open_loop_rhp_poles (P of the Nyquist criterion) must be a whole number 0 or more: a negative, boolean or fractional
-    value is refused word for word at its line."""
+RHP = "open_loop_rhp_poles must be a whole number 0 or more"
+TIMEOUT = "timeout_s must be a positive number of seconds"
+
+
+@pytest.mark.parametrize("option,said", [
+    ("open_loop_rhp_poles = -1", RHP), ("open_loop_rhp_poles = true", RHP), ("open_loop_rhp_poles = 1.5", RHP),
+    ("timeout_s = 0", TIMEOUT), ("timeout_s = true", TIMEOUT), ('timeout_s = "60"', TIMEOUT),
+    ("driver = 5", 'driver must be text such as "m6.d"'), ('share_loads = "yes"', "share_loads must be true or false"),
+])
+def test_top_level_options_of_the_wrong_kind_are_refused_at_their_line(tmp_path, option, said):
+    """open_loop_rhp_poles (P of the Nyquist criterion) must be a whole number 0 or more, timeout_s a positive number,
+    driver a text, share_loads true or false: anything else is refused word for word at its line."""
     path = tmp_path / "plan.toml"
-    path.write_text(f'netlist = "{MILLER}"\nat = "out"\nopen_loop_rhp_poles = {value}\n')
+    path.write_text(f'netlist = "{MILLER}"\nat = "out"\n{option}\n')
     with pytest.raises(PlanError) as info:
         load_plan(path)
-    assert str(info.value) == f"{path}:3: open_loop_rhp_poles must be a whole number 0 or more"
+    assert str(info.value) == f"{path}:3: {said}"
 
 
 def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
