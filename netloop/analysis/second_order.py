@@ -20,6 +20,9 @@ from netloop.analysis.results import SecondOrderEstimate
 __all__ = ["damping_from_phase_margin", "phase_margin_from_damping", "resonant_peak_db", "second_order_estimate"]
 
 
+SMALL_ANGLE_DEG = 1e-6  # below this phase margin the damping ratio is radians(PM) / 2 to double precision
+
+
 def phase_margin_from_damping(zeta: float) -> float:
     """Phase margin (deg) of the second-order loop with closed-loop damping ratio zeta > 0."""
     z2 = zeta * zeta
@@ -30,6 +33,10 @@ def damping_from_phase_margin(pm_deg: float) -> float:
     """The damping ratio whose second-order loop has this phase margin; pm_deg in (0, 90)."""
     if not 0.0 < pm_deg < 90.0:
         raise ValueError(f"a second-order loop has a phase margin in (0, 90) deg, not {pm_deg}")
+    if pm_deg < SMALL_ANGLE_DEG:
+        # PM = atan(2 zeta (1 + O(zeta^2))) = 2 zeta (1 + O(zeta^2)): below 1e-6 deg the O(zeta^2) terms are under 1e-16
+        # relative, so the inverse is exact in double precision (a root search would need a bracket down to the denormals)
+        return math.radians(pm_deg) / 2.0
     load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
     from scipy.optimize import brentq  # noqa: PLC0415
 
@@ -53,4 +60,5 @@ def second_order_estimate(pm_deg: float | None) -> SecondOrderEstimate | None:
     zeta = damping_from_phase_margin(pm_deg)
     overshoot = 100.0 * math.exp(-math.pi * zeta / math.sqrt(1.0 - zeta * zeta)) if zeta < 1.0 else 0.0
     peak = resonant_peak_db(zeta) if zeta < 1.0 / math.sqrt(2.0) else None
-    return SecondOrderEstimate(pm_deg, zeta, 1.0 / (2.0 * zeta), overshoot, peak)
+    q = 1.0 / (2.0 * zeta) if zeta > 0.0 else math.inf  # zeta is 0 only when radians(PM) / 2 underflows (PM below 1e-321 deg)
+    return SecondOrderEstimate(pm_deg, zeta, q, overshoot, peak)

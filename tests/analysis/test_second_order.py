@@ -109,6 +109,23 @@ def test_damping_inverts_the_phase_margin_to_full_precision(pm):
     assert phase_margin_from_damping(damping_from_phase_margin(pm)) == pytest.approx(pm, rel=1e-13)
 
 
+@pytest.mark.parametrize("pm", [1e-300, 1e-200, 1e-12, 1.1e-10, 1.2e-10, 1e-8, 0.999e-6, 1e-6, 1.001e-6, 1e-4])
+def test_a_margin_a_hair_above_zero_has_its_damping(pm):
+    """A phase margin just above 0 deg (a loop on the edge) gets its damping ratio and estimate, not a failed root search:
+    PM(zeta) read back to 1e-13 relative (module docstring's closed form), on both sides of the small-angle switch."""
+    zeta = damping_from_phase_margin(pm)
+    assert phase_margin_from_damping(zeta) == pytest.approx(pm, rel=1e-13)
+    estimate = second_order_estimate(pm)
+    assert estimate.damping_ratio == zeta and estimate.q == pytest.approx(1 / (2 * zeta), rel=1e-15)
+
+
+def test_an_underflowing_margin_gives_an_infinite_q():
+    """The smallest positive phase margin (a denormal) has damping 0 in double precision: Q is infinite, not a
+    division by zero (Q = 1 / (2 zeta), module docstring)."""
+    estimate = second_order_estimate(5e-324)
+    assert estimate.damping_ratio == 0.0 and estimate.q == math.inf and estimate.resonant_peak_db is None
+
+
 @pytest.mark.parametrize("pm", [0.0, -1e-300, 90.0, 90.5, 180.0])
 def test_no_damping_for_a_margin_outside_zero_to_ninety(pm):
     """A phase margin of 0 deg or less, or 90 deg or more, has no second-order loop (PM(zeta) covers exactly (0, 90) deg,

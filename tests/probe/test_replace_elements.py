@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 from netloop.netlist import parse_text, write_netlist
+from netloop.probe import break_loop
 from netloop.probe.rewrite import replace_elements
 from netloop.probe.scope import elements_of, walk_scopes
 
@@ -101,3 +102,53 @@ def test_a_top_level_element_is_replaced_in_place():
     assert r.copies == ()
     changed = [(a, b) for a, b in zip(nl.statements, r.statements, strict=True) if a is not b]
     assert changed == [(next(e for e in nl.elements if e.key == "rd"), new)]
+
+
+def test_an_instance_with_a_parameter_before_its_subcircuit_name_points_at_the_copy():
+    """An X line with key=value tokens between its nodes and its subcircuit name (as sky130's cells write) gets the copy's name in the name's place."""
+    # By hand: only the subcircuit name changes on the X line; the parameter and the nodes stay where they were written.
+    nl = parse_text(TEXT.replace("xc2 in o2 vdd channel", "xc2 in o2 vdd m=1 channel"))
+    scope, new = _rd_at(nl, ("xc2", "xa"))
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage"})
+    lines = write_netlist(replace(nl, statements=r.statements, _index={})).splitlines()
+    assert "xc2 in o2 vdd m=1 channel_changed_in_xc2" in lines and "xc1 in o1 vdd channel" in lines
+
+
+def test_three_levels_down_each_copy_points_at_the_next():
+    """Replacing an element three instances down copies each definition on the path, and each copy's X line names the next copy."""
+    # By hand: TEXT with channel wrapped in system (xk inside it) and xc2 a system: the path is xc2 (system), xk (channel), xa (stage).
+    text = (TEXT.replace(".subckt channel in out vdd", ".subckt system in out vdd\n.subckt channel in out vdd")
+            .replace(".ends channel\n", ".ends channel\nxk in out vdd channel\n.ends system\n").replace("xc2 in o2 vdd channel", "xc2 in o2 vdd system"))
+    nl = parse_text(text)
+    scope, new = _rd_at(nl, ("xc2", "xk", "xa"))
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage", "system"})
+    assert r.copies == (("system", "system_changed_in_xc2"), ("channel", "channel_changed_in_xc2_xk"), ("stage", "stage_changed_in_xc2_xk_xa"))
+    lines = write_netlist(replace(nl, statements=r.statements, _index={})).splitlines()
+    for line in ("xc2 in o2 vdd system_changed_in_xc2", "xk in out vdd channel_changed_in_xc2_xk", "xa in mid vdd stage_changed_in_xc2_xk_xa",
+                 "xc1 in o1 vdd channel"):
+        assert line in lines
+    assert lines.count("Rd vdd n5 30k") == 1 and lines.count("xk in out vdd channel") == 1  # the original system is untouched
+
+
+def test_the_probe_stands_after_the_last_element_before_trailing_directives():
+    """The probe's two sources are written right after the last element of the scope; directives after it stay, in order."""
+    text = "probe placement (invented)\nE1 out 0 0 fb 100\nR1 out fb 1k\nR2 fb 0 1k\n.param k=1\n.model nch nmos level=1\n"
+    lines = write_netlist(break_loop(parse_text(text), "out").netlist).splitlines()
+    assert lines[3:8] == ["R2 fb 0 1k", "vnl_series out out_drive dc 0 ac 0", "inl_shunt 0 out_drive dc 0 ac 0", ".param k=1",
+                          ".model nch nmos level=1"]
+
+
+def test_a_copy_goes_into_the_definition_that_holds_its_original():
+    """A stage defined in system beside channel (not inside it) gets its copy inside system's copy; a nested helper on the path stays."""
+    # By hand: system holds stage and channel; channel holds an unrelated helper and instantiates stage (found in system).
+    text = ("nesting (invented model)\n.model nch nmos level=1 vto=0.5 kp=20u lambda=0.05\n.subckt system in out vdd\n"
+            ".subckt stage in out vdd\nRd vdd n5 20k\nM1 n5 in 0 0 nch w=10u l=1u\nRs n5 out 1k\n.ends stage\n"
+            ".subckt channel in out vdd\n.subckt helper a\nRh a 0 1k\n.ends helper\nxa in mid vdd stage\nxh mid helper\nxb mid out vdd stage\n"
+            ".ends channel\nxk in out vdd channel\n.ends system\nVdd vdd 0 dc 3.3\nxc2 in o2 vdd system\n")
+    nl = parse_text(text)
+    scope, new = _rd_at(nl, ("xc2", "xk", "xa"))
+    r = replace_elements(nl.statements, scope, {"rd": new}, {"channel", "stage", "system", "helper"})
+    lines = write_netlist(replace(nl, statements=r.statements, _index={})).splitlines()
+    inside = lines[lines.index(".subckt system_changed_in_xc2 in out vdd"):lines.index(".ends system_changed_in_xc2")]
+    assert ".subckt stage_changed_in_xc2_xk_xa in out vdd" in inside and "Rd vdd n5 30k" in inside
+    assert "xa in mid vdd stage_changed_in_xc2_xk_xa" in inside and "xb mid out vdd stage" in inside and ".subckt helper a" in inside

@@ -40,6 +40,53 @@ def test_bundled_readout_plan_measures_each_corner_at_both_channels():
     assert len(tasks) == 8
 
 
+def test_auto_without_loop_discovery_is_refused_at_the_at_line(tmp_path, monkeypatch):
+    """at = "auto" on an installation without netloop.jobs.discover (its import made to fail) is a PlanError at the plan's
+    at line saying so, before any corner is applied."""
+    import sys
+
+    monkeypatch.setitem(sys.modules, "netloop.jobs.discover", None)  # import raises ImportError, as when it is missing
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\n\nat = "auto"\n')
+    with pytest.raises(PlanError) as info:
+        check_plan(load_plan(path))
+    assert str(info.value) == f"{path}:3: at = \"auto\" needs netloop's loop discovery, which this installation lacks; name the break nodes"
+
+
+@pytest.mark.parametrize("at", ['[" "]', "[5]", "[]", '"out" # fine', '["out", "auto"]'])
+def test_at_must_name_nodes(tmp_path, at):
+    """at must be a node, a list of nodes, or "auto" alone: a blank or non-text entry, an empty list, or auto among nodes
+    is refused word for word at the at line."""
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\nat = {at}\n')
+    if at.endswith("# fine"):
+        assert load_plan(path).at == ("out",)
+        return
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    said = '"auto" measures every loop; do not list nodes with it' if "auto" in at else 'at must be a node name, a list of node names, or "auto"'
+    assert str(info.value) == f"{path}:2: {said}"
+
+
+RHP = "open_loop_rhp_poles must be a whole number 0 or more"
+TIMEOUT = "timeout_s must be a positive number of seconds"
+
+
+@pytest.mark.parametrize("option,said", [
+    ("open_loop_rhp_poles = -1", RHP), ("open_loop_rhp_poles = true", RHP), ("open_loop_rhp_poles = 1.5", RHP),
+    ("timeout_s = 0", TIMEOUT), ("timeout_s = true", TIMEOUT), ('timeout_s = "60"', TIMEOUT),
+    ("driver = 5", 'driver must be text such as "m6.d"'), ('share_loads = "yes"', "share_loads must be true or false"),
+])
+def test_top_level_options_of_the_wrong_kind_are_refused_at_their_line(tmp_path, option, said):
+    """open_loop_rhp_poles (P of the Nyquist criterion) must be a whole number 0 or more, timeout_s a positive number,
+    driver a text, share_loads true or false: anything else is refused word for word at its line."""
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\nat = "out"\n{option}\n')
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    assert str(info.value) == f"{path}:3: {said}"
+
+
 def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
     """A plan with neither [axes] nor [[corner]] has one corner, "nominal": the netlist as written (README, corner plans)."""
     plan = load_plan(_plan(tmp_path, ""))
@@ -108,6 +155,8 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[[corner]]\ntemp = {x = 1}\n', "temp", "temp must be a value, not a table$"),
         ('[axes]\nparam.k = ["1", " "]\n', "param", "param.k is empty$"),
         ('sweep = 5\n', "sweep", r"sweep must be a table \(\[sweep\]\)$"),
+        ('[sweep]\nfmin_hz = 1e6\nfmax_hz = 1\n', "[sweep]", "the sweep needs 0 < fmin < fmax, got fmin=1e\\+06 Hz, fmax=1 Hz$"),
+        ('[units]\niload = 5\n', "[units]", 'units must be a table of texts, e.g. \\[units\\] iload = "A"$'),
         ('[axes]\nnetlist = [" "]\n', "netlist = [", "netlist is empty$"),
     ],
 )
