@@ -68,6 +68,25 @@ def test_at_must_name_nodes(tmp_path, at):
     assert str(info.value) == f"{path}:2: {said}"
 
 
+RHP = "open_loop_rhp_poles must be a whole number 0 or more"
+TIMEOUT = "timeout_s must be a positive number of seconds"
+
+
+@pytest.mark.parametrize("option,said", [
+    ("open_loop_rhp_poles = -1", RHP), ("open_loop_rhp_poles = true", RHP), ("open_loop_rhp_poles = 1.5", RHP),
+    ("timeout_s = 0", TIMEOUT), ("timeout_s = true", TIMEOUT), ('timeout_s = "60"', TIMEOUT),
+    ("driver = 5", 'driver must be text such as "m6.d"'), ('share_loads = "yes"', "share_loads must be true or false"),
+])
+def test_top_level_options_of_the_wrong_kind_are_refused_at_their_line(tmp_path, option, said):
+    """open_loop_rhp_poles (P of the Nyquist criterion) must be a whole number 0 or more, timeout_s a positive number,
+    driver a text, share_loads true or false: anything else is refused word for word at its line."""
+    path = tmp_path / "plan.toml"
+    path.write_text(f'netlist = "{MILLER}"\nat = "out"\n{option}\n')
+    with pytest.raises(PlanError) as info:
+        load_plan(path)
+    assert str(info.value) == f"{path}:3: {said}"
+
+
 def test_plan_without_axes_or_corners_is_the_nominal_corner(tmp_path):
     """A plan with neither [axes] nor [[corner]] has one corner, "nominal": the netlist as written (README, corner plans)."""
     plan = load_plan(_plan(tmp_path, ""))

@@ -44,6 +44,15 @@ def test_groups_are_the_corners_one_load_serves(tmp_path):
     assert len(load_groups(list(tasks), share_loads=False)) == len(tasks)
 
 
+def test_share_out_deals_the_largest_chunk_first_and_leaves_spare_workers_idle():
+    """Chunks go out largest first, each to the worker with the least work so far (a load counting as 10 corners): the
+    longest-processing-time-first rule (Graham 1969), worked by hand for groups of 5, 1, 1, 1 on two workers (work 15 | 11,
+    then 15 | 22, then 26 | 22); three one-task groups on four workers leave one worker idle, none split further."""
+    a, b, c, d = ["a1", "a2", "a3", "a4", "a5"], ["b"], ["c"], ["d"]
+    assert share_out([b, a, c, d], 2) == [a + d, b + c]
+    assert share_out([b, c, d], 4) == [b, c, d, []]
+
+
 def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
     """Three groups of six on two workers: four chunks (the largest split), two loads and nine corners per worker, each
     chunk in plan order; one worker takes every group whole, in order."""
