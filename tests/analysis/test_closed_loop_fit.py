@@ -120,3 +120,15 @@ def test_open_loop_rhp_pole_read_from_the_fit(k, lo_hz, hi_hz):
     expected = sorted(np.roots(np.polyadd(den, [k])), key=lambda r: (abs(r), r.imag))
     assert sorted(poles.poles_rad_s, key=lambda r: (abs(r), r.imag)) == pytest.approx(expected, rel=1e-6)
     assert not notes
+
+
+def test_an_open_loop_rhp_pole_above_the_sweep_is_not_read():
+    """T = 30/((s/w0 - 1)(s/(10 w0) + 1)) with w0 = 2 pi 2 kHz, swept 1 Hz to 1 kHz: its right-half-plane pole lies above the
+    top of the sweep, where the data says nothing reliable (poles.py docstring: zeros of the fit within the sweep only), so
+    none is read from the fit."""
+    w0 = 2 * math.pi * 2e3
+    f = np.logspace(0, 3, 61)
+    s = 2j * math.pi * f
+    poles, _ = closed_loop_poles(f, 30.0 / ((s / w0 - 1) * (s / (10 * w0) + 1)), nyquist_rhp=0)
+    assert w0 > 2 * math.pi * f[-1]
+    assert poles.open_loop_rhp_poles_rad_s == ()
