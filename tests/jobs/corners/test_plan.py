@@ -76,10 +76,12 @@ TIMEOUT = "timeout_s must be a positive number of seconds"
     ("open_loop_rhp_poles = -1", RHP), ("open_loop_rhp_poles = true", RHP), ("open_loop_rhp_poles = 1.5", RHP),
     ("timeout_s = 0", TIMEOUT), ("timeout_s = true", TIMEOUT), ('timeout_s = "60"', TIMEOUT),
     ("driver = 5", 'driver must be text such as "m6.d"'), ('share_loads = "yes"', "share_loads must be true or false"),
+    ("axes = 5", "axes must be a table ([axes])"), ("corner = 5", "corners are tables written [[corner]]"),
+    ("corner = [5]", "corners are tables written [[corner]]"), ("units = 5", 'units must be a table of texts, e.g. [units] iload = "A"'),
 ])
 def test_top_level_options_of_the_wrong_kind_are_refused_at_their_line(tmp_path, option, said):
     """open_loop_rhp_poles (P of the Nyquist criterion) must be a whole number 0 or more, timeout_s a positive number,
-    driver a text, share_loads true or false: anything else is refused word for word at its line."""
+    driver a text, share_loads true or false, axes, corner and units tables: anything else is refused word for word at its line."""
     path = tmp_path / "plan.toml"
     path.write_text(f'netlist = "{MILLER}"\nat = "out"\n{option}\n')
     with pytest.raises(PlanError) as info:
