@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import time
 from pathlib import Path
 
 import pytest
@@ -54,7 +55,12 @@ def test_a_process_started_ahead_for_a_netlist_is_told_which(tmp_path, monkeypat
     for warm, told in (("amp.cir", str(tmp_path / "amp.cir")), (None, None)):
         spawn_module.start_ahead(warm)
         waiting = spawn_module._AHEAD[0].process
-        raw = (Path("/proc") / str(waiting.pid) / "environ").read_bytes().decode()
+        raw = ""
+        for _ in range(200):  # the kernel shows the new image's environment only once exec has set it up: read again until it does
+            raw = (Path("/proc") / str(waiting.pid) / "environ").read_bytes().decode()
+            if "=" in raw:
+                break
+            time.sleep(0.01)
         environ = dict(e.split("=", 1) for e in raw.split("\0") if "=" in e)
         assert environ.get(spawn_module.WARM_ENV) == told
         simulator = SharedLibrarySimulator()
