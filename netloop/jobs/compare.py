@@ -141,10 +141,8 @@ def _run_name(index: int, which: str) -> str:
     return f"{index}.{which}"
 
 
-def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0,
-                op_voltages: bool = False) -> SimJob:
-    """One SimJob for every probe in ``deck``: runs "K.series" and "K.shunt" per probe K (0-based), others at AC 0.
-    ``op_voltages``: as probe_job's (True: the node voltages the check "operating-point" reads)."""
+def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
+    """One SimJob for every probe in ``deck``: runs "K.series" and "K.shunt" per probe K (0-based), others at AC 0."""
     runs = []
     for k, p in enumerate(probes):
         runs.append(AcRun(_run_name(k, "series"), dict(p.series_run_ac), sweeps))
@@ -158,7 +156,7 @@ def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[Ac
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
-        op_voltages=op_voltages,  # False: the first ac's own operating point serves, no separate op run
+        op_voltages=False,  # as probe_job: the first ac's own operating point serves (sample_loops asks for an op when checked)
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this comparison runs on one loaded circuit
     )
 
@@ -217,8 +215,7 @@ def compare(
     own = simulator is None
     sim = own_simulator(processes, parsed, 2 * len(probes), keep_decks) if own else simulator
     sources = op_sources(parsed)
-    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s,  # written once: every round shares its circuit_id
-                       op_voltages=sources is not None)
+    base = compare_job(deck, placed, (), label="compare", timeout_s=timeout_s)  # written once: every round shares its circuit_id
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))

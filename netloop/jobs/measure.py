@@ -102,10 +102,9 @@ def return_ratio(probed: ProbedNetlist | ProbeVectors, series: dict, shunt: dict
 
 
 def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0,
-              circuit_id: str | None = None, op_voltages: bool = False) -> SimJob:
+              circuit_id: str | None = None) -> SimJob:
     """The simulator job for one probe: two AC runs on one operating point, only the probe vectors saved. ``circuit_id``
-    (SimJob.circuit_id; a new one when None) is given to run on the circuit another probe of the same netlist loaded.
-    ``op_voltages``: SimJob.op_voltages (True: a separate op gives the node voltages the check "operating-point" reads)."""
+    (SimJob.circuit_id; a new one when None) is given to run on the circuit another probe of the same netlist loaded."""
     text = write_netlist(probed.netlist)
     source = probed.netlist.source
     workdir = str(Path(source).resolve().parent) if source and not source.startswith("<") else None
@@ -120,7 +119,7 @@ def probe_job(probed: ProbedNetlist, sweeps: tuple[AcSweep, ...], *, label: str 
         label=label,
         timeout_s=timeout_s,
         workdir=workdir,
-        op_voltages=op_voltages,  # False: the first ac's own operating point serves, no separate op run
+        op_voltages=False,  # the first ac's own operating point serves, no separate op run (sample_loops asks for one when checked)
         circuit_id=circuit_id or uuid.uuid4().hex,  # every round of this probe's measurement runs on one loaded circuit
     )
 
@@ -243,9 +242,12 @@ def sample_loops(
     one loop this is exactly measure_probed's plan (see Sweep). ``meanwhile()`` is called while the
     first job runs; when it raises, that job is abandoned and its exception raised. ``sources``
     (netloop.jobs.measure_checks.voltage_sources) asks for the check "operating-point" of the
-    operating point the jobs ran on (their SimJob.op_voltages must be True), first among each loop's
+    operating point the jobs ran on (their SimJob.op_voltages is set here), first among each loop's
     checks; a simulator that gives no operating point (the analytic fake) gives no such check.
     """
+    if sources is not None:  # the check needs the node voltages of a separate op (ngspice's ac keeps only the saved vectors)
+        plain = job_for
+        job_for = lambda sweeps: replace(plain(sweeps), op_voltages=True)  # noqa: E731
     runner = _Runner(job_for, ratios, simulator)
     load_scipy_in_background()  # the analysis's scipy modules load while the first simulation runs
     fmin, fmax = sweep.fmin_hz, sweep.fmax_hz
@@ -351,8 +353,7 @@ def measure_probed(
         series, shunt = result.run("series"), result.run("shunt")
         return {"loop": return_ratio(probed, dict(series.vectors), dict(shunt.vectors), method)}
 
-    base = probe_job(probed, (), label=label, timeout_s=timeout_s, circuit_id=circuit_id,  # the netlist is written once, not every round
-                     op_voltages=sources is not None)
+    base = probe_job(probed, (), label=label, timeout_s=timeout_s, circuit_id=circuit_id)  # the netlist is written once, not every round
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))

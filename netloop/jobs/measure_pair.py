@@ -106,9 +106,8 @@ def parse_pair(text: str) -> tuple[str, str]:
     return parts[0], parts[1]
 
 
-def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0, op_voltages: bool = False) -> SimJob:
-    """The simulator job of a differential probe: four AC runs on one operating point, only the probe vectors saved.
-    ``op_voltages``: as probe_job's (True: the node voltages the check "operating-point" reads)."""
+def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
+    """The simulator job of a differential probe: four AC runs on one operating point, only the probe vectors saved."""
     source = pair.netlist.source
     return SimJob(
         netlist=write_netlist(pair.netlist),
@@ -118,7 +117,7 @@ def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", t
         label=label,
         timeout_s=timeout_s,
         workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
-        op_voltages=op_voltages,  # False: as probe_job, the first ac's own operating point serves, no separate op run
+        op_voltages=False,  # as probe_job: the first ac's own operating point serves (sample_loops asks for an op when checked)
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this measurement runs on one loaded circuit
     )
 
@@ -207,7 +206,7 @@ def _sample_pair(parsed: Netlist, nodes: tuple[str, str], drivers, placements, *
         return {"differential": _mode_ratio(q.differential, method), "common": _mode_ratio(q.common, method)}
 
     sources = op_sources(parsed)
-    base = pair_job(probe, (), label=label, timeout_s=timeout_s, op_voltages=sources is not None)  # written once: every round shares its circuit_id
+    base = pair_job(probe, (), label=label, timeout_s=timeout_s)  # written once: every round shares its circuit_id
 
     def job_for(sweeps: tuple[AcSweep, ...]) -> SimJob:
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
