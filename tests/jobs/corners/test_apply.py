@@ -18,7 +18,8 @@ def _both(tmp_path, text: str, settings: tuple[Setting, ...], edit) -> tuple[str
     return write_netlist(ours), write_netlist(hand)
 
 
-@pytest.mark.parametrize("value,written", [("2.5", "2.5"), ("vdd*0.9", "{vdd*0.9}"), ("{k+1}", "{k+1}")])
+@pytest.mark.parametrize("value,written", [("2.5", "2.5"), ("vdd*0.9", "{vdd*0.9}"), ("{k+1}", "{k+1}"),
+                                           ("2*VMAX", "{2*VMAX}"), ("{X0-1}", "{X0-1}")])  # only the braces go, not an X
 def test_param_value_replaces_a_whole_group(tmp_path, value, written):
     """The old value goes whole (a {...} group with spaces, a quoted text), the others stay; an expression is written in braces."""
     text = "t\n.param a = {b * 2}, c='x y' d=1\n.param A=3\nR1 n 0 {a}\n.end\n"

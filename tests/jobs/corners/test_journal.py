@@ -26,6 +26,19 @@ def test_a_line_cut_by_a_kill_is_dropped_and_resume_appends_after_the_last_whole
     assert [json.loads(x)["key"] for x in lines if json.loads(x)["record"] == "corner"] == ["a", "b", "c"]
 
 
+def test_resume_keeps_every_record_of_a_task_from_the_last_run_that_wrote_it(tmp_path):
+    """A task with one record a loop keeps all of them on resume, and a later run's records of a task replace an earlier run's."""
+    path = tmp_path / "r.jsonl"
+    first = [{"record": "corner", "key": "a", "at": "u1", "outcome": "fail"}, {"record": "corner", "key": "a", "at": "u2", "outcome": "pass"},
+             {"record": "corner", "key": "b", "at": "u1", "outcome": "pass"}]
+    second = [{"record": "corner", "key": "a", "at": "u1", "outcome": "pass"}, {"record": "corner", "key": "a", "at": "u2", "outcome": "pass"}]
+    # reference: the file written by hand, two runs (a run record opens each), task a measured again in the second
+    path.write_text("".join(json.dumps(r) + "\n" for r in [{"record": "run"}, *first, {"record": "run"}, *second]))
+    journal = Journal.open(path, plan="p.toml", total=2, resume=True, force=False)
+    journal.close()
+    assert journal.done == {"a": second, "b": first[2:]}
+
+
 def test_existing_file_needs_resume_or_force(tmp_path):
     """Without --resume or --force an existing results file is refused and left byte for byte as it was."""
     path = tmp_path / "r.jsonl"
