@@ -26,6 +26,16 @@ def test_a_line_cut_by_a_kill_is_dropped_and_resume_appends_after_the_last_whole
     assert [json.loads(x)["key"] for x in lines if json.loads(x)["record"] == "corner"] == ["a", "b", "c"]
 
 
+def test_a_whole_line_that_is_not_json_ends_the_good_part(tmp_path):
+    """read_records stops at a line that ends in a newline but is not JSON: the records before it, and their byte length."""
+    path = tmp_path / "r.jsonl"
+    whole = "".join(json.dumps({"record": "corner", "key": k, "outcome": "pass"}) + "\n" for k in "ab")
+    # reference: the file written by hand, a record cut short and a later whole line after it
+    path.write_text(whole + '{"record": "corner", "ke\n' + json.dumps({"record": "corner", "key": "c"}) + "\n")
+    records, good = read_records(path)
+    assert [r["key"] for r in records] == ["a", "b"] and good == len(whole.encode())
+
+
 def test_resume_keeps_every_record_of_a_task_from_the_last_run_that_wrote_it(tmp_path):
     """A task with one record a loop keeps all of them on resume, and a later run's records of a task replace an earlier run's."""
     path = tmp_path / "r.jsonl"
