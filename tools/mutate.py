@@ -106,7 +106,7 @@ def _mutmut(work: Path, *args: str, quiet: bool = False) -> subprocess.Completed
     """mutmut from the shared virtualenv, run in the scratch copy, its output passed through (kept when quiet or listing results)."""
     # mutmut puts the scratch copy's mutants/ first; tools/ holds no package to shadow it, only the watchdog each test run loads
     env = dict(os.environ, PYTHONHASHSEED="0", PYTHONPATH=str(ROOT / "tools"), PYTEST_PLUGINS="mutate_watchdog",
-               MUTATE_TEST_DURATIONS=str(work / "mutants" / "mutmut-stats.json"))
+               MUTATE_TEST_DURATIONS=str(work / "mutants" / "mutmut-stats.json"), MUTATE_HUNG_LOG=str(work / "hung.log"))
     exe = Path(sys.executable).with_name("mutmut")
     capture = quiet or args[0] == "results"
     return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=capture, check=False)
