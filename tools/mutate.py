@@ -2,16 +2,20 @@
 
     .venv/bin/python tools/mutate.py analysis           # what `make mutate PKG=analysis` runs
     .venv/bin/python tools/mutate.py netlist --jobs 2   # two mutants at a time (default 1: the machine is shared)
-    .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts: test new or changed mutants and the survivors
+    .venv/bin/python tools/mutate.py probe --again      # keep earlier verdicts: test new or changed mutants, the survivors
                                                         # (not those judged equivalent in tools/mutate_equivalent.json)
+                                                        # and the mutants stopped for time
     .venv/bin/python tools/mutate.py corners --sample 300   # a seeded random sample of 300 mutants, in .mutate/corners-sample:
                                                         # the kill rate with its 95 % Clopper-Pearson interval
-    .venv/bin/python tools/mutate.py corners --sample 300 --again   # the same sample: the mutants not yet checked and the survivors
+    .venv/bin/python tools/mutate.py corners --sample 300 --again   # the same sample: the mutants not yet checked, the survivors
+                                                        # and the mutants stopped for time
 
 Each package is mutated in its own copy of the repository under .mutate/PKG (mutmut reads its settings
 from the pyproject.toml of the folder it runs in, so each copy gets its own [tool.mutmut] table: which
 files to mutate and which test folders to run). mutmut runs the package's tests once to learn which test
-reaches which function, then runs, for each mutant, only the tests that reach the mutated function.
+reaches which function, then runs, for each mutant, only the tests that reach the mutated function. A test that runs
+far longer on a mutant than on the clean code (a wait for ever, a loop without end) is stopped by tools/mutate_watchdog.py
+and the mutant counts as caught: a user's run would hang the same way.
 """
 
 from __future__ import annotations
@@ -22,10 +26,8 @@ import os
 import random
 import re
 import shutil
-import signal
 import subprocess
 import sys
-import threading
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -41,6 +43,14 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
 COPIED = ("netloop", "tests", "circuits", "templates", "pyproject.toml")
 # mutmut's verdicts (`mutmut results --all true` prints "name: verdict")
 KILLED = ("killed", "timeout", "segfault")  # a timeout or crash is the tests noticing the mutant
+# the verdicts of a run stopped from outside (mutmut's time limits, tools/mutate_watchdog.py): a busy machine can give them
+# too, so --again tests these mutants once more
+STOPPED = ("timeout", "segfault")
+
+
+def _again(verdict: str) -> bool:
+    """Whether --again tests a mutant with this verdict once more: a survivor, or a mutant stopped rather than failed."""
+    return verdict not in KILLED or verdict in STOPPED
 
 
 def _config(pattern: str, tests: tuple[str, ...]) -> str:
@@ -55,6 +65,9 @@ def _config(pattern: str, tests: tuple[str, ...]) -> str:
         f"pytest_add_cli_args_test_selection = {json.dumps(list(tests))}",
         # ngspice tests take seconds; a mutant that makes a test run 10x longer counts as caught
         "timeout_multiplier = 10.0",
+        # each mutant is forked from a server that has only collected the tests; forked from mutmut's own process, which has
+        # run the clean tests (Dask clusters, ngspice threads), a mutant inherited their locks and could hang on them
+        'process_isolation = "forkserver"',
         'on_dependency_change = "rerun"',
         "use_git_change_detection = false",
     ]
@@ -89,46 +102,14 @@ def prepare(package: str, fresh: bool, folder: str | None = None) -> Path:
     return work
 
 
-# wall time after which a mutant's test run is stopped and counted as caught: mutmut's own limit is on CPU time, which a
-# test waiting for ever on a Dask future (a mutant that loses a corner's result) never uses up
-MUTANT_WALL_LIMIT_S = 600
-
-
-def _stop_hung_mutants(parent: int, done: threading.Event) -> None:
-    """Every 30 s, SIGKILL each child of the mutmut process ``parent`` that tests a mutant (titled "mutmut: NAME", or renamed by
-    the Dask cluster it started) and has run longer than MUTANT_WALL_LIMIT_S; mutmut records the kill as the tests noticing."""
-    ticks = os.sysconf("SC_CLK_TCK")
-    while not done.wait(30):
-        try:
-            children = " ".join(Path(t, "children").read_text() for t in Path(f"/proc/{parent}/task").iterdir()).split()
-        except OSError:
-            return
-        for child in children:
-            try:
-                title = Path(f"/proc/{child}/cmdline").read_text().replace("\0", " ")
-                started = int(Path(f"/proc/{child}/stat").read_text().rsplit(")", 1)[1].split()[19]) / ticks
-                age = float(Path("/proc/uptime").read_text().split()[0]) - started
-            except (OSError, ValueError, IndexError):
-                continue
-            if title.startswith(("mutmut:", "dask ")) and age > MUTANT_WALL_LIMIT_S:
-                print(f"mutate: stopped {title.strip()!r} after {age:.0f} s (counted as caught)", file=sys.stderr)
-                os.kill(int(child), signal.SIGKILL)
-
-
 def _mutmut(work: Path, *args: str, quiet: bool = False) -> subprocess.CompletedProcess:
     """mutmut from the shared virtualenv, run in the scratch copy, its output passed through (kept when quiet or listing results)."""
-    env = dict(os.environ, PYTHONHASHSEED="0")
-    env.pop("PYTHONPATH", None)  # mutmut puts the scratch copy's mutants/ first; nothing may shadow it
+    # mutmut puts the scratch copy's mutants/ first; tools/ holds no package to shadow it, only the watchdog each test run loads
+    env = dict(os.environ, PYTHONHASHSEED="0", PYTHONPATH=str(ROOT / "tools"), PYTEST_PLUGINS="mutate_watchdog",
+               MUTATE_TEST_DURATIONS=str(work / "mutants" / "mutmut-stats.json"))
     exe = Path(sys.executable).with_name("mutmut")
     capture = quiet or args[0] == "results"
-    with subprocess.Popen([str(exe), *args], cwd=work, env=env, text=True,
-                          stdout=subprocess.PIPE if capture else None, stderr=subprocess.PIPE if capture else None) as run:
-        done = threading.Event()
-        if args[0] == "run":
-            threading.Thread(target=_stop_hung_mutants, args=(run.pid, done), daemon=True).start()
-        out, err = run.communicate()
-        done.set()
-    return subprocess.CompletedProcess(run.args, run.returncode, out, err)
+    return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=capture, check=False)
 
 
 def mutant_names(work: Path) -> list[str]:
@@ -203,7 +184,7 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("packages", nargs="*", metavar="PKG", help=f"one or more of {', '.join(PACKAGES)} (default: all, one after the other)")
     parser.add_argument("--jobs", type=int, default=1, help="mutants tested at a time (default 1)")
-    parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants and its survivors not judged equivalent")
+    parser.add_argument("--again", action="store_true", help="keep the last run's verdicts: test only new or changed mutants, its survivors not judged equivalent and its mutants stopped for time")
     parser.add_argument("--report", action="store_true", help="only print the last run's figures")
     parser.add_argument("--sample", type=int, metavar="N", help="test a random sample of N mutants (in .mutate/PKG-sample) and give the kill rate's 95 %% interval")
     parser.add_argument("--seed", type=int, default=1, help="the sample's seed (default 1)")
@@ -218,10 +199,10 @@ def main(argv: list[str] | None = None) -> int:
             work = ROOT / ".mutate" / folder
         elif args.sample:
             drawn = ROOT / ".mutate" / folder / "sample.json"
-            if args.again and drawn.exists():  # the same sample: its mutants not yet checked, and its survivors not judged equivalent
+            if args.again and drawn.exists():  # the same sample: not yet checked, survived (not judged equivalent) or stopped
                 judged = equivalent.get(package, {})
                 chosen = [n for n, v in verdicts(drawn.parent).items()
-                          if n in set(json.loads(drawn.read_text())["names"]) and v not in KILLED and n not in judged]
+                          if n in set(json.loads(drawn.read_text())["names"]) and _again(v) and n not in judged]
                 work = prepare(package, fresh=False, folder=folder)
             else:
                 work = prepare(package, fresh=True, folder=folder)
@@ -232,7 +213,7 @@ def main(argv: list[str] | None = None) -> int:
             previous = ROOT / ".mutate" / package
             judged = equivalent.get(package, {})  # not tested again: a judged-equivalent mutant survives every test by definition
             # "not checked" mutants are tested by the first run below anyway: naming them would test them twice
-            survivors = ([n for n, v in verdicts(previous).items() if v not in KILLED and v != "not checked" and n not in judged]
+            survivors = ([n for n, v in verdicts(previous).items() if _again(v) and v != "not checked" and n not in judged]
                          if args.again and (previous / "mutants").is_dir() else [])
             work = prepare(package, fresh=not args.again)
             _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)

@@ -15,8 +15,8 @@ from netloop.errors import NetloopError, SimulationError
 from netloop.jobs.measure import Sweep, measure
 from netloop.netlist import parse_file
 
-__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "files_state", "in_place_changes", "read_key", "run_task", "use_netlists",
-           "worker_simulator"]
+__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "files_state", "in_place_changes", "read_key", "run_chunk", "run_task",
+           "use_netlists", "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
 _READ: dict[tuple, tuple[object, tuple]] = {}  # corner netlists this worker read: (netlist, its files' state) by what it was read from
@@ -205,3 +205,9 @@ def run_task(task: Task, options: TaskOptions, netlists: dict[tuple, tuple] | No
         doc = to_document(replace(r, label=task.corner.name))
         records.append(_record(task, r.breaks.node, started, loop=doc, outcome=r.verdict, sim_seconds=r.sim.seconds, loads=r.sim.loads))
     return tuple(records)
+
+
+def run_chunk(tasks: tuple[Task, ...], options: TaskOptions, netlists: dict[tuple, tuple] | None = None) -> tuple[tuple[dict, ...], ...]:
+    """run_task on each task in order, in one Dask task: each task's records, in the order of ``tasks``."""
+    return tuple(run_task(task, options, netlists) for task in tasks)
+
