@@ -14,7 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from netloop.analysis import analyse, middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis import middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis.engine import Draft, analyse_draft, finish
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
@@ -271,41 +272,40 @@ def sample_loops(
         f2, t2 = runner.evaluate(tuple(more), stage="a wider sweep")
         f, t = _merge_all(f, t, f2, t2)
 
-    def analyse_all(final: bool) -> dict[str, LoopAnalysis]:
-        """Every loop's analysis: a draft between rounds (crossovers and margins), the whole of it at the end, with
-        the check of the operating point first among its checks when it was asked for."""
-        out = {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
-        if final and sources is not None and runner.voltages:
-            op = op_check(sources, runner.voltages)
-            out = {name: replace(a, checks=(op, *a.checks)) for name, a in out.items()}
-        return out
+    def draft_all() -> dict[str, Draft]:
+        """Every loop's draft, what a round reads (crossovers, margins, the Nyquist count); the last is finished."""
+        return {name: analyse_draft(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name]) for name in t}
 
-    analyses = analyse_all(False)
+    drafts = draft_all()
     # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz)
-    active = [name for name, a in analyses.items() if a.gain_crossovers or a.nyquist.coarse_hz] if sweep.refine else []
+    active = [name for name, d in drafts.items() if d.analysis.gain_crossovers or d.analysis.nyquist.coarse_hz] if sweep.refine else []
     settled = {name: name not in active for name in t}
     rounds = 0
     if active:
-        previous = {name: analyses[name].margins.phase_margin_deg for name in active}
+        previous = {name: drafts[name].analysis.margins.phase_margin_deg for name in active}
         while rounds < sweep.max_rounds:
-            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=analyses[name]) for name in active])
+            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=drafts[name].analysis) for name in active])
             if proposals.size == 0:
                 settled.update(dict.fromkeys(active, True))
                 break
             f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd), stage=f"refinement round {rounds + 1}")
             f, t = _merge_all(f, t, f2, t2)
             rounds += 1
-            analyses = analyse_all(False)
-            current = {name: analyses[name].margins.phase_margin_deg for name in active}
+            drafts = draft_all()
+            current = {name: drafts[name].analysis.margins.phase_margin_deg for name in active}
             for name in active:
                 p, c = previous[name], current[name]
                 same = p is None and c is None if p is None or c is None else abs(c - p) < sweep.tol_deg
-                settled[name] = same and not analyses[name].nyquist.coarse_hz
+                settled[name] = same and not drafts[name].analysis.nyquist.coarse_hz
             if all(settled[name] for name in active):
                 break
             previous = current
     _log.info("simulations done", extra=CLEARS_STATUS)  # a status line is cleared
-    analyses = analyse_all(True)
+    # the whole analysis of each loop: its last draft, on the same data, finished
+    analyses = {name: finish(d) for name, d in drafts.items()}
+    if sources is not None and runner.voltages:  # the check of the operating point, first among the checks
+        op = op_check(sources, runner.voltages)
+        analyses = {name: replace(a, checks=(op, *a.checks)) for name, a in analyses.items()}
     info = SimInfo(
         backend=runner.backend,
         points=int(f.size),
