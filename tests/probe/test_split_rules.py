@@ -87,15 +87,18 @@ def test_a_series_sense_source_goes_with_the_driver_on_its_far_side():
     assert "vsense.p is a voltage source in series (no AC impedance): it goes with m1.d on its far side" in p.decided_by
 
 
-def test_a_switch_beside_the_feedback_capacitor_goes_with_it():
+@pytest.mark.parametrize("switch", ["Msw x vrst out 0 nch w=1u l=1u", "Xsw x vrst out 0 sky130_fd_pr__nfet_01v8"],
+                         ids=["transistor", "wrapper not loaded"])
+def test_a_switch_beside_the_feedback_capacitor_goes_with_it(switch):
     """At an amplifier's summing node an off reset switch (gate at a DC control) is not a driver: the feedback capacitor drives, the switch goes with it."""
     # Issue 14 pattern 7. Invented capacitive-feedback amplifier: E1 (the amplifier) drives out; Cf and the reset switch
-    # Msw (gate at the DC control vrst) both run from out back to the summing node x; Cin comes from the source.
+    # (gate at the DC control vrst) both run from out back to the summing node x; Cin comes from the source. The switch is a
+    # transistor, or a sky130-style wrapper (four pins d g s b) whose library is not included: the same device.
     text = ("switched-capacitor stage (invented)\n" + MODELS +
-            "Vin in 0 dc 1 ac 1\nVrst vrst 0 dc 0\nCin in x 1p\nCf out x 0.5p\nMsw x vrst out 0 nch w=1u l=1u\nE1 out 0 1.2 x 1000\n"
+            f"Vin in 0 dc 1 ac 1\nVrst vrst 0 dc 0\nCin in x 1p\nCf out x 0.5p\n{switch}\nE1 out 0 1.2 x 1000\n"
             "Mg dx x 0 0 nch w=1u l=1u\nRd dx 0 1k\n")
     p = break_loop(parse_text(text), "x")
-    assert set(p.driver_terminals) == {"cf.n", "msw.d"}
+    assert set(p.driver_terminals) == {"cf.n", switch.split()[0].lower() + ".d"}
     assert set(p.load_terminals) == {"e1.cn", "mg.g"}
 
 
@@ -161,3 +164,61 @@ def test_the_net_outside_a_block_that_drives_the_node_is_a_load_beside_an_output
     p = break_loop(parse_file(circuits / "benches" / "bandgap_reg.cir"), "xreg.xbg.xamp.out")
     assert set(p.driver_terminals) == {"xreg.xbg.xamp.ma2.d", "xreg.xbg.xamp.ma4.d"}
     assert "xreg.xbg.xamp.mat.g" in p.load_terminals and any(t.startswith("xreg.xbg.xamp.out outside xamp") for t in p.load_terminals)
+
+
+def test_in_a_one_stage_loop_the_farthest_feedback_branch_carries_the_loop():
+    """When every feedback branch at a one-stage amplifier's output wraps the stage, the farthest (the T network) goes with the load."""
+    # docs/splitting.md section 3: every way on from out leads back to E1's input x (Cf at one element, the T network Rf1, Rf2
+    # at two), so keeping all with the driver would measure no loop; the farthest branch carries the loop measured.
+    from .test_zero_volt_sources import ONE_STAGE
+
+    p = break_loop(parse_text(ONE_STAGE), "out")
+    assert set(p.driver_terminals) == {"e1.p", "cf.p"} and p.load_terminals == ("rf1.p",)
+    assert "with cf (closes a local loop around the driver stage e1 (back to x): kept with it)" in p.decided_by
+    assert ("rf1 on the load side (the farthest path from the node back to the driver stage: it carries the loop being measured)"
+            in p.decided_by)
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cf", "driver", True), ("rf1", "load", True)]
+
+
+def test_a_feedback_resistor_beside_an_output_filter_leads_on_into_the_loop():
+    """At an amplifier's output with resistive feedback and an RC output filter, the feedback resistor goes with the load."""
+    # By hand: Rf (out to E1's input x) is the only way back to the driver stage; the filter Ro, Co ends at ground, so the loop
+    # through Rf is the one measured and Rf cannot stay on the driver side (it would leave the load side no way back: no loop).
+    text = ("amplifier with an output filter (invented)\nVin in 0 dc 0 ac 1\nRin in x 10k\nRf out x 100k\nE1 out 0 0 x 1e4\n"
+            "Ro out o2 1k\nCo o2 0 1n\n")
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("e1.p",) and set(p.load_terminals) == {"rf.p", "ro.p"}
+    assert "rf on the load side (leads on into the loop: it wraps no stage that the loop measured passes through)" in p.decided_by
+
+
+def test_a_floating_current_source_on_the_node_is_a_shunt():
+    """An ideal current source from the node to another signal node is a shunt at either end: it carries no signal and never changes T."""
+    # Circuit theory: an ideal current source has infinite incremental impedance, so on either side it leaves T unchanged
+    # (docs/splitting.md section 1, one-ports); the rest of each split is the one derived by hand in the tests above.
+    nl = parse_text(TWO_STAGE + "Ix o1 out dc 1u\n")
+    at_out, at_o1 = break_loop(nl, "out"), break_loop(nl, "o1")
+    assert "ix.n" in at_out.shunt_terminals and "ix.n" not in at_out.load_terminals and at_out.load_terminals == ("rf.p",)
+    assert "ix.p" in at_o1.shunt_terminals and set(at_o1.load_terminals) == {"m6.g", "rz.p"}
+
+
+def test_an_undefined_four_pin_block_is_a_load_not_a_transistor():
+    """An instance of a four-pin block whose definition is not loaded, and whose name is no transistor's, is a load on every pin."""
+    # docs/splitting.md section 1: an instance pin drives only with an output inside; with nothing known inside it is a load
+    # ("everything else"). Only a wrapper named like a transistor ("fet", four pins) is read as one without its definition.
+    text = ("amplifier with an undefined block at its output (invented)\nVin in 0 dc 0 ac 1\nRin in x 10k\nRf out x 100k\n"
+            "E1 out 0 0 x 1e4\nXadc out a b c adc_core\nRa a 0 1k\n")
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("e1.p",) and set(p.load_terminals) == {"rf.p", "xadc.1"}
+
+
+def test_a_bridge_as_close_to_both_stages_is_a_default_left_to_the_checks():
+    """A bridge whose far end is as close to the driver stage's input as to the load stage's output goes with the load, marked as a default."""
+    # By hand (one half of tests/jobs/test_measure_pair.py TIE): cx1 reaches ga1's input gp through r11 and gb1's output ob
+    # through r21, two elements each, one stage each: a tie, which docs/splitting.md section 3 leaves to the checks.
+    text = ("bridge as close to both stages (invented)\nga1 0 np gp 0 1m\nra1 np 0 10k\nca1 np 0 1p\ngb1 ob 0 np 0 1m\nrb1 ob 0 10k\n"
+            "cb1 ob 0 2p\ncx1 np xp 0.1p\nr11 xp gp 1k\nr21 xp ob 1k\nrf1 ob gp 10k\nrg1 gp 0 10k\n")
+    p = break_loop(parse_text(text), "np")
+    assert p.driver_terminals == ("ga1.n",) and set(p.load_terminals) == {"cx1.p", "gb1.cp"}
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cx1", "load", False)]
+    assert "cx1 on the load side (as close to the driver stage ga1 as to the stage gb1 that the node drives" in p.decided_by
+
