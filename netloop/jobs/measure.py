@@ -26,6 +26,7 @@ from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other
                                          op_sources)
 from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
+from netloop.probe.breaking import locate_split
 from netloop.probe.chain import Chain, chain_probes
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
@@ -412,6 +413,7 @@ def measure(
     timeout_s: float = 600.0,
     processes: int | None = None,
     placement: Mapping[str, str] | None = None,
+    decisions: dict | None = None,
 ) -> LoopResult:
     """Break the loop at node ``at``, measure its return ratio in ngspice and analyse its stability.
 
@@ -424,7 +426,9 @@ def measure(
     elements on a side ({"cc": "driver"}, netloop.probe.break_loop); without it and without
     ``driver`` the split the rules give is checked, and another placement of the bridging elements
     is measured when it fails its checks (netloop.jobs.measure_checks; ``decided_by`` and the
-    job check "split" say what was moved and why).
+    job check "split" say what was moved and why). ``decisions``: where and how the node is split
+    (netloop.probe.locate_split's answers), kept by the caller for netlists that differ from this one
+    only in ngspice's seed (the samples of one corner): read when there, else found and added.
     """
     with _simulator_for(simulator, keep_decks) as sim:  # ngspice starts now, while the netlist is read and broken
         parsed = load_netlist(netlist)
@@ -434,9 +438,9 @@ def measure(
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s,
                        sources=op_sources(parsed))  # whose voltages bound a credible operating point (measure_checks.op_check)
         with caveats_on_error(parsed):
-            unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
+            unchecked, loop_check = _split(parsed, at, driver, placement, decisions)  # is the node on a loop? asked during the first simulation
             free = driver is None and placement is None
-            chain = _chain(parsed, at, unchecked) if free else None  # the split tried first when this one is doubted, in the same netlist
+            chain = _chain(parsed, at, unchecked, decisions) if free else None  # the split tried first when this one is doubted, in the same netlist
             circuit = uuid.uuid4().hex
             analysis, info, sim_warnings = measure_probed(chain.first if chain else unchecked, meanwhile=loop_check, circuit_id=circuit, **options)
             probed = loop_check()  # its outcome, found while the first simulation ran
@@ -459,10 +463,29 @@ def measure(
     )
 
 
-def _chain(parsed: Netlist, at: str, first: ProbedNetlist) -> Chain | None:
-    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None."""
+def _split(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, decisions: dict | None) -> tuple:
+    """split_loop's answer, its decision taken from ``decisions`` (measure's) when there, and added to them when not."""
+    key = ("split", at.strip().lower(), driver, tuple(sorted((placement or {}).items())))
+    split = split_loop(parsed, at, driver=driver, placement=placement, decided=(decisions or {}).get(key))
+    if decisions is not None and key not in decisions:
+        decisions[key] = locate_split(parsed, at, driver=driver, placement=placement)  # as split_loop found it: it did not raise
+    return split
+
+
+def _chain(parsed: Netlist, at: str, first: ProbedNetlist, decisions: dict | None = None) -> Chain | None:
+    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None;
+    ``decisions`` as measure's (None stands for a chain refused)."""
     places = other_placements(first)
-    return chain_probes(parsed, at, first, places[0]) if places else None
+    if not places:
+        return None
+    key = ("chain", first.node, tuple(sorted(places[0].items())))
+    if decisions is not None and key in decisions:
+        located = decisions[key]
+        return chain_probes(parsed, at, first, places[0], located) if located is not None else None
+    chain = chain_probes(parsed, at, first, places[0])
+    if decisions is not None:
+        decisions[key] = chain.located if chain is not None else None
+    return chain
 
 
 def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: LoopAnalysis, info: SimInfo, sim_warnings: tuple[str, ...],
