@@ -222,3 +222,63 @@ def test_a_bridge_as_close_to_both_stages_is_a_default_left_to_the_checks():
     assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cx1", "load", False)]
     assert "cx1 on the load side (as close to the driver stage ga1 as to the stage gb1 that the node drives" in p.decided_by
 
+
+
+# An invented two-stage amplifier with a folded-cascode first stage (input pair M1/M2 folded at f1/f2 into the PMOS cascodes
+# Mc1/Mc2, mirror M3/M4) and indirect compensation: Cc from out to f2, the source of the cascode Mc2, not to o1.
+AHUJA = ("two-stage amplifier, Cc to the cascode's source (invented)\n" + MODELS +
+         "Vdd vdd 0 dc 3.3\nVin inp 0 dc 1.2\nVref ref 0 dc 1.2\nVbp vbp 0 dc 2.3\nVcp vcp 0 dc 1.6\nIb vdd nb dc 20u\n"
+         "Mb nb nb 0 0 nch w=10u l=1u\nM5 tail nb 0 0 nch w=20u l=1u\nM1 f1 fb tail 0 nch w=20u l=1u\nM2 f2 inp tail 0 nch w=20u l=1u\n"
+         "Mp1 f1 vbp vdd vdd pch w=40u l=1u\nMp2 f2 vbp vdd vdd pch w=40u l=1u\nMc1 d1 vcp f1 vdd pch w=20u l=1u\n"
+         "Mc2 o1 vcp f2 vdd pch w=20u l=1u\nM3 d1 d1 0 0 nch w=10u l=1u\nM4 o1 d1 0 0 nch w=10u l=1u\nM6 out o1 0 0 nch w=50u l=1u\n"
+         "M7 out vbp vdd vdd pch w=80u l=1u\nCc out f2 1p\nRf out fb 20k\nRg fb ref 20k\nCL out 0 2p\n")
+
+
+def test_indirect_compensation_through_the_cascode_stays_with_the_output_stage():
+    """Cc from the output to the first stage's cascode source wraps the output stage through the cascode: it stays with the driver."""
+    # Ahuja, "An improved frequency compensation technique for CMOS operational amplifiers", IEEE JSSC 1983: Cc fed back
+    # into the cascode's source is the Miller capacitor of the second stage (M6), its current passed on by Mc2 to o1.
+    # docs/splitting.md section 3: one passive element and two stages (M6, then the common-gate Mc2 that drives o1) back
+    # to f2; the loop measured comes back to f2 through Rf, M1, the fold and the mirror.
+    p = break_loop(parse_text(AHUJA), "out")
+    assert set(p.driver_terminals) == {"m6.d", "cc.p"} and p.load_terminals == ("rf.p",)
+    assert set(p.shunt_terminals) == {"m7.d", "cl.p"}
+    assert "with cc (closes a local loop around the driver stage m6 (back to f2): kept with it)" in p.decided_by
+    assert "rf on the load side (leads on into the loop: it wraps no stage that the loop measured passes through)" in p.decided_by
+
+
+@pytest.mark.parametrize("prefix", ["", "xa."], ids=["top", "inside an instance"])
+def test_a_pseudo_resistor_across_the_miller_capacitor_goes_with_it(prefix):
+    """A pseudo-resistor (two diode-connected devices back to back) across the Miller capacitor is one branch with it: both stay with the output stage."""
+    # docs/splitting.md section 3: elements in parallel are one branch, a chain of diode-connected devices reaching the
+    # bridge's far end included; Cc from out to o1 wraps M6 (the loop measured comes back to o1 through Rf, M1, M3/M4).
+    amp = TWO_STAGE.replace("Rz o1 cz 1.5k\nCc cz out 1.2p\n", "Cc o1 out 1.2p\nMpa pm pm out out pch w=2u l=4u\nMpb pm pm o1 o1 pch w=2u l=4u\n")
+    if prefix:  # the same amplifier as a block, its supplies and references at the top
+        body = [line for line in amp.splitlines()[1:] if not line.startswith((".model", "Vdd", "Vin", "Vref"))]
+        amp = ("the amplifier in a block (invented)\n" + MODELS + ".subckt amp vdd inp ref\n" + "\n".join(body) +
+               "\n.ends amp\nVdd vdd 0 dc 3.3\nVin inp 0 dc 1.65\nVref ref 0 dc 1.2\nXa vdd inp ref amp\n")
+    p = break_loop(parse_text(amp), prefix + "out")
+    assert set(p.driver_terminals) == {prefix + t for t in ("m6.d", "m7.d", "cc.n", "mpa.s", "mpa.b")}
+    assert p.load_terminals == (prefix + "rf.p",)
+    assert [(b.element, b.side) for b in p.bridges if b.side == "driver"] == [(prefix + "cc", "driver"), (prefix + "mpa", "driver")]
+    assert f"with {prefix}mpa (in parallel with {prefix}cc: closes a local loop around the driver stage {prefix}m6" in p.decided_by
+
+
+def test_a_switch_across_the_miller_capacitor_goes_with_it():
+    """An off switch (gate at a DC control) from the output back to o1 is a branch around the output stage, kept with it as Cc is."""
+    # docs/splitting.md section 3: a switch from the node to another signal node is placed like a passive element; it reaches
+    # o1, the input of the driver stage M6, at once, and the loop measured comes back to o1 through Rf.
+    p = break_loop(parse_text(TWO_STAGE + "Vpd pd 0 dc 0\nMsw o1 pd out 0 nch w=1u l=1u\n"), "out")
+    assert set(p.driver_terminals) == {"m6.d", "m7.d", "cc.n", "msw.s"} and p.load_terminals == ("rf.p",)
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cc", "driver", True), ("rf", "load", True), ("msw", "driver", True)]
+
+
+def test_the_switched_capacitor_bench_splits_at_an_output_as_the_expert_does(circuits):
+    """At fd_cap_amp's outn the drains drive; the feedback branch, the pseudo-resistor, the off switch and the CMFB sense load it, each by a rule."""
+    # Reference: circuits/benches/expert/fd_cap_amp.outn.sp (driver side: M1's and M3's drains; load side: Rcm2, Cf1, Mpb,
+    # Mr1's source, CL2). The off reset switch Mr1 is no stage the node drives, so no bridge is a tie left to the checks.
+    p = break_loop(parse_file(circuits / "benches" / "fd_cap_amp.cir"), "outn")
+    assert set(p.driver_terminals) == {"m1.d", "m3.d"}
+    assert set(p.load_terminals) | set(p.shunt_terminals) == {"rcm2.p", "cf1.p", "mpb.s", "mpb.b", "mr1.s", "cl2.p"}
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("rcm2", "load", True), ("cf1", "load", True), ("mr1", "load", True)]
+    assert "leads on into the loop" in p.decided_by and "as close to" not in p.decided_by
