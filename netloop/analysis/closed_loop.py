@@ -23,9 +23,9 @@ def _extremum(resp: Response, fun) -> tuple[float, float]:
     intervals beside the smallest and samples them again, down to a bracket _ZOOM_XATOL wide: a handful of
     vectorised spline evaluations instead of a scalar minimiser's many single ones, the same minimum of the
     interpolant (tests/analysis/test_closed_loop_level.py against scipy's minimize_scalar on the closed form)."""
-    xs = resp.dense_x(16)
+    xs, t = resp.dense_t(16)  # the grid and T the Nyquist count read
     with np.errstate(divide="ignore", invalid="ignore"):
-        vals = fun(resp.t_at(xs))
+        vals = fun(t)
     i = int(np.nanargmin(vals))  # NaN (inf / inf where |T| overflowed) is never the extremum
     best_x, best = float(xs[i]), float(vals[i])
     lo, hi = xs[max(i - 1, 0)], xs[min(i + 1, xs.size - 1)]
