@@ -282,3 +282,28 @@ def test_the_switched_capacitor_bench_splits_at_an_output_as_the_expert_does(cir
     assert set(p.load_terminals) | set(p.shunt_terminals) == {"rcm2.p", "cf1.p", "mpb.s", "mpb.b", "mr1.s", "cl2.p"}
     assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("rcm2", "load", True), ("cf1", "load", True), ("mr1", "load", True)]
     assert "leads on into the loop" in p.decided_by and "as close to" not in p.decided_by
+
+
+# An invented two-stage amplifier whose output stage is a push-pull: M6 (PMOS) and M7 (NMOS) both driven from o1, M7 under
+# the cascode Mc7 (gate at the DC source vcn); Cc runs from out to s7, the cascode's source.
+CASCODED_OUTPUT = ("two-stage amplifier, cascoded push-pull output (invented)\n" + MODELS +
+                   "Vdd vdd 0 dc 3.3\nVin inp 0 dc 1.65\nVref ref 0 dc 1.2\nVcn vcn 0 dc 1.5\nIb vdd nb dc 20u\nM8 nb nb 0 0 nch w=10u l=1u\n"
+                   "M5 tail nb 0 0 nch w=20u l=1u\nM1 d1 fb tail 0 nch w=20u l=1u\nM2 o1 inp tail 0 nch w=20u l=1u\n"
+                   "M3 d1 d1 vdd vdd pch w=20u l=1u\nM4 o1 d1 vdd vdd pch w=20u l=1u\nM6 out o1 vdd vdd pch w=80u l=1u\n"
+                   "Mc7 out vcn s7 0 nch w=50u l=1u\nM7 s7 o1 0 0 nch w=50u l=1u\nCc out s7 1p\nRf out fb 20k\nRg fb ref 20k\nCL out 0 2p\n")
+
+
+@pytest.mark.parametrize("sensed", [False, True], ids=["drains on the node", "behind a 0 V sense source"])
+def test_a_capacitor_to_the_source_of_an_output_cascode_stays_with_the_cascode(sensed):
+    """Cc from out to the source of the cascode beside the output drains is the cascode's local loop: it stays on the driver side,
+    whether the drains sit on out or behind a 0 V sense source."""
+    # Circuit theory: out -> Cc -> s7 -> Mc7 (common gate) -> out is a loop through the cascode alone; with Mc7 on the driver
+    # side (docs/splitting.md section 3: a cascode beside the outputs goes with them) Cc must go too, or that local loop would
+    # cross the probe. Kirchhoff: a 0 V source is a wire, so the sense source between the drains and out changes nothing.
+    text = CASCODED_OUTPUT
+    if sensed:
+        text = text.replace("M6 out o1", "M6 y o1").replace("Mc7 out vcn", "Mc7 y vcn") + "Vsense y out dc 0\n"
+    p = break_loop(parse_text(text), "out")
+    assert set(p.driver_terminals) == ({"vsense.n", "cc.p"} if sensed else {"m6.d", "mc7.d", "cc.p"})
+    assert p.load_terminals == ("rf.p",)
+    assert "with cc (closes a local loop around the driver stage mc7 (back to s7): kept with it)" in p.decided_by
