@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -14,11 +14,11 @@ from netloop.analysis.margins import summarise_margins
 from netloop.analysis.nyquist import nyquist_verdict
 from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles, disagreement
 from netloop.analysis.response import Response
-from netloop.analysis.results import AC_COUPLING_LEAD_DEG, LoopAnalysis, Peaking
+from netloop.analysis.results import AC_COUPLING_LEAD_DEG, Check, LoopAnalysis, NyquistVerdict, Peaking
 from netloop.analysis.second_order import second_order_estimate
 from netloop.errors import AnalysisError
 
-__all__ = ["DEFAULT_FLOOR_DB", "analyse"]
+__all__ = ["DEFAULT_FLOOR_DB", "Draft", "analyse", "analyse_draft", "finish"]
 
 DEFAULT_FLOOR_DB = -120.0
 """Numerical floor of |T| in dB, relative to the probe's unit injection (so an absolute level of |T|).
@@ -54,6 +54,9 @@ def analyse(
                          Nyquist verdict; the modulus margin and peaking are NaN, with no estimate
                          and no poles (about a third of the time). Never for a report.
 
+    The whole analysis is a draft (analyse_draft) finished (finish); a caller that drafts between
+    rounds finishes its last draft instead of analysing the same data again.
+
     Outcomes worth knowing (each pinned by a test):
     * |T| < 1 everywhere: regulates is False ("does not regulate"), no gain crossover, phase
       margin None, the Nyquist verdict stable (with P = 0).
@@ -68,6 +71,26 @@ def analyse(
       self-check in ``checks`` and the classification "inconclusive" (netloop.analysis.checks).
     * NaN or infinite T: AnalysisError naming the first bad frequency (never dropped).
     """
+    first = analyse_draft(freq_hz, t, open_loop_rhp_poles=open_loop_rhp_poles, floor_db=floor_db)
+    return first.analysis if draft else finish(first, fit_poles=fit_poles, pole_fit_rtol=pole_fit_rtol)
+
+
+@dataclass(frozen=True, slots=True)
+class Draft:
+    """A draft analysis and what finishing it reads again: the checked data with its interpolants, and whether P was given.
+
+    analysis   what analyse(..., draft=True) returns on the same data.
+    response   the checked data and its splines, which the modulus margin, the peaking and the pole fit read.
+    rhp_given  True when the caller gave P (open_loop_rhp_poles); False when the pole fit is to read it.
+    """
+
+    analysis: LoopAnalysis
+    response: Response
+    rhp_given: bool
+
+
+def analyse_draft(freq_hz, t, *, open_loop_rhp_poles: int | None = None, floor_db: float = DEFAULT_FLOOR_DB) -> Draft:
+    """The draft analysis of analyse(freq_hz, t, draft=True) (its ``analysis``), kept with what finish() reads to complete it."""
     given = open_loop_rhp_poles is not None
     if given and (int(open_loop_rhp_poles) != open_loop_rhp_poles or open_loop_rhp_poles < 0):
         raise AnalysisError(f"open_loop_rhp_poles must be a whole number >= 0, got {open_loop_rhp_poles!r}")
@@ -80,28 +103,12 @@ def analyse(
     nyquist, dc_sign = nyquist_verdict(resp, int(open_loop_rhp_poles) if given else 0, floor_abs_db)
     if not given:
         nyquist = replace(nyquist, open_loop_rhp_from="assumed")
-    pole_notes: tuple[str, ...] = ()
-    poles = None
-    if fit_poles and not draft:
-        poles, notes = closed_loop_poles(resp.freq_hz, resp.t, nyquist.closed_loop_rhp_poles, pole_fit_rtol)
-        if poles is not None and not given:  # P from the data: the fit's right-half-plane zeros are T's own poles
-            p = len(poles.open_loop_rhp_poles_rad_s)
-            z = nyquist.encirclements + p
-            old = disagreement(poles.rhp_count, nyquist.closed_loop_rhp_poles, float(resp.freq_hz[-1]))
-            nyquist = replace(nyquist, open_loop_rhp_poles=p, closed_loop_rhp_poles=z, stable=z == 0, open_loop_rhp_from="fit")
-            notes = tuple(n for n in notes if n != old)
-            if poles.rhp_count != z:
-                notes = (*notes, disagreement(poles.rhp_count, z, float(resp.freq_hz[-1])))
-            poles = replace(poles, agrees_with_nyquist=poles.rhp_count == z)
-        pole_notes = notes
-
 
     if dc_sign == "negative" and nyquist.origin_poles == 0 and resp.gain_db[0] >= floor_abs_db:
         # T(0) is real and negative: the curve starts on the negative real axis, a phase crossover at DC
         phases = (dc_phase_crossover(resp), *phases)
     warnings.extend(nyquist.reasons)
     regulates = bool(np.any(resp.gain_db > 0.0))
-    dc_gain_db = float(resp.gain_db[0])
     if not regulates:
         warnings.append(f"the loop gain never reaches 0 dB (at most {float(np.max(resp.gain_db)):.4g} dB): the loop does not regulate")
     if dc_sign == "negative":
@@ -116,30 +123,58 @@ def analyse(
         warnings.append(
             f"{len(ignored)} phase crossover(s) below the numerical floor ({floor_abs_db:.4g} dB) ignored: the phase is noise there"
         )
-
-    if draft:
-        margins = summarise_margins(gains, phases, nyquist.stable, (math.nan, math.nan))
-        peaking, second = Peaking(math.nan, math.nan, math.nan, math.nan), None
-    else:
-        margins = summarise_margins(gains, phases, nyquist.stable, modulus_margin(resp))
-        peaking = closed_loop_peaking(resp)
-        second = second_order_estimate(margins.phase_margin_deg)
-
-    warnings.extend(pole_notes)
-    return LoopAnalysis(
+    analysis = LoopAnalysis(
         freq_hz=resp.freq_hz,
         t=resp.t,
-        dc_gain_db=dc_gain_db,
+        dc_gain_db=float(resp.gain_db[0]),
         regulates=regulates,
         gain_crossovers=gains,
         phase_crossovers=phases,
         ignored_phase_crossovers=ignored,
         floor_db=floor_abs_db,
+        margins=summarise_margins(gains, phases, nyquist.stable, (math.nan, math.nan)),
+        peaking=Peaking(math.nan, math.nan, math.nan, math.nan),
+        second_order=None,
+        nyquist=nyquist,
+        poles=None,
+        warnings=tuple(warnings),
+        checks=_checks(resp, nyquist),
+    )
+    return Draft(analysis, resp, given)
+
+
+def finish(draft: Draft, *, fit_poles: bool = True, pole_fit_rtol: float = DEFAULT_RTOL) -> LoopAnalysis:
+    """The whole analysis of the draft's data, as analyse() gives it: what the draft found, with the modulus margin, the
+    peaking, the second-order estimate and (fit_poles) the closed-loop poles, P read from their fit unless it was given."""
+    resp, a = draft.response, draft.analysis
+    nyquist = a.nyquist
+    pole_notes: tuple[str, ...] = ()
+    poles = None
+    if fit_poles:
+        poles, notes = closed_loop_poles(resp.freq_hz, resp.t, nyquist.closed_loop_rhp_poles, pole_fit_rtol)
+        if poles is not None and not draft.rhp_given:  # P from the data: the fit's right-half-plane zeros are T's own poles
+            p = len(poles.open_loop_rhp_poles_rad_s)
+            z = nyquist.encirclements + p
+            old = disagreement(poles.rhp_count, nyquist.closed_loop_rhp_poles, float(resp.freq_hz[-1]))
+            nyquist = replace(nyquist, open_loop_rhp_poles=p, closed_loop_rhp_poles=z, stable=z == 0, open_loop_rhp_from="fit")
+            notes = tuple(n for n in notes if n != old)
+            if poles.rhp_count != z:
+                notes = (*notes, disagreement(poles.rhp_count, z, float(resp.freq_hz[-1])))
+            poles = replace(poles, agrees_with_nyquist=poles.rhp_count == z)
+        pole_notes = notes
+    margins = summarise_margins(a.gain_crossovers, a.phase_crossovers, nyquist.stable, modulus_margin(resp))
+    return replace(
+        a,
         margins=margins,
-        peaking=peaking,
-        second_order=second,
+        peaking=closed_loop_peaking(resp),
+        second_order=second_order_estimate(margins.phase_margin_deg),
         nyquist=nyquist,
         poles=poles,
-        warnings=tuple(warnings),
-        checks=(*data_checks(resp.freq_hz, resp.gain_db), *nyquist_checks(nyquist)),
+        warnings=(*a.warnings, *pole_notes),
+        checks=_checks(resp, nyquist),
     )
+
+
+def _checks(resp: Response, nyquist: NyquistVerdict) -> tuple[Check, ...]:
+    """The self-checks of the data and of its Nyquist count (netloop.analysis.checks)."""
+    return (*data_checks(resp.freq_hz, resp.gain_db), *nyquist_checks(nyquist))

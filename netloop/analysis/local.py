@@ -29,7 +29,6 @@ import numpy as np
 from netloop.analysis.closed_loop import in_band_db
 from netloop.analysis.crossovers import find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.margins import summarise_margins
-from netloop.analysis.preload import load_scipy
 from netloop.analysis.response import Response
 from netloop.analysis.results import LoopAnalysis
 
@@ -135,16 +134,9 @@ def windows_of(analysis: LoopAnalysis, half_width: float = 0.06, points: int = 9
 
 def _window_response(window: Window, f: np.ndarray, t: np.ndarray) -> Response:
     """A Response of one window's samples, its phase on the measured loop's branch."""
-    load_scipy()
-    from scipy.interpolate import make_interp_spline  # noqa: PLC0415
-
-    x = np.log10(f)
-    gain = 20.0 * np.log10(np.maximum(np.abs(t), 1e-20))
     phase = np.degrees(np.unwrap(np.angle(t)))
-    middle = float(np.interp(math.log10((window.fstart_hz + window.fstop_hz) / 2.0), x, phase))
-    phase = phase - 360.0 * round((middle - window.phase_deg) / 360.0)
-    k = 5 if f.size >= 6 else 3
-    return Response(f, t, x, gain, phase, make_interp_spline(x, gain, k=k), make_interp_spline(x, phase, k=k))
+    middle = float(np.interp(math.log10((window.fstart_hz + window.fstop_hz) / 2.0), np.log10(f), phase))
+    return Response.of_samples(f, t, phase - 360.0 * round((middle - window.phase_deg) / 360.0))
 
 
 def read_windows(windows: tuple[Window, ...], freq_hz, t, *, stable: bool, floor_db: float) -> LocalReading:

@@ -32,7 +32,7 @@ import math
 
 import numpy as np
 
-from netloop.analysis.response import Response, low_frequency_slope
+from netloop.analysis.response import Response
 from netloop.analysis.results import NyquistVerdict
 
 __all__ = ["PHASE_TOL_DEG", "SLOPE_TOL_DB_PER_DEC", "TOP_LIMIT_DB", "nyquist_verdict", "origin_poles"]
@@ -59,7 +59,7 @@ def _wrap(a):
 
 def origin_poles(resp: Response) -> tuple[int, float]:
     """(k, slope): poles of T at s = 0 from the slope (dB/decade) over the lowest samples."""
-    return low_frequency_slope(resp.x, resp.gain_db)
+    return resp.bottom
 
 
 def _bottom_arc(t0: complex, k: int) -> tuple[np.ndarray, float, str]:
@@ -97,8 +97,8 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
             "sample more densely there"
         )
     # count on the interpolated curve, _DENSE points per sample interval
-    xs = resp.dense_x(_DENSE)
-    zd = 1.0 + resp.t_at(xs)
+    xs, td = resp.dense_t(_DENSE)
+    zd = 1.0 + td
     steps = _wrap(np.diff(np.angle(zd)))
     big = np.abs(np.degrees(steps)) > _MAX_STEP_DEG
     if np.any(big):

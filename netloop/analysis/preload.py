@@ -7,7 +7,7 @@ import threading
 
 __all__ = ["SCIPY_MODULES", "load_also", "load_scipy", "load_scipy_in_background"]
 
-# scipy.optimize: crossovers (brentq), closed-loop peaking (minimize_scalar); scipy.interpolate: the
+# scipy.optimize: crossovers (brentq); scipy.interpolate: the
 # response spline and the AAA pole fit, whose clean-up of Froissart doublets imports scipy.stats.
 # In this order each module's own scipy imports are already loaded.
 SCIPY_MODULES = ("scipy.optimize", "scipy.interpolate", "scipy.stats")

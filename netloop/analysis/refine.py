@@ -11,7 +11,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse
+from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse, analyse_draft, finish
 from netloop.analysis.results import LoopAnalysis, Refinement
 from netloop.errors import AnalysisError
 
@@ -37,7 +37,7 @@ def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: L
     Returns an empty array when there is no crossover and no coarse interval.
     """
     if analysis is None:
-        analysis = analyse(freq_hz, t, fit_poles=False, **analyse_kwargs)
+        analysis = analyse(freq_hz, t, draft=True, **analyse_kwargs)  # what the proposals read: the crossovers and the count
     x = np.log10(analysis.freq_hz)
     chosen: set[int] = set()
     for i in _brackets(analysis):
@@ -98,12 +98,12 @@ def refine(
     kwargs = {"open_loop_rhp_poles": open_loop_rhp_poles, "floor_db": floor_db}
     f = np.asarray(freq_hz, dtype=float)
     tt = np.asarray(t, dtype=complex)
-    current = analyse(f, tt, fit_poles=False, **kwargs)
+    current = analyse_draft(f, tt, **kwargs)  # each round reads a draft; the last one is finished
     rounds = added = 0
     change: float | None = None
-    converged = _nothing_to_refine(current)
+    converged = _nothing_to_refine(current.analysis)
     while not converged and rounds < max_rounds:
-        new = propose_frequencies(f, tt, points_per_interval=points_per_interval, analysis=current)
+        new = propose_frequencies(f, tt, points_per_interval=points_per_interval, analysis=current.analysis)
         if new.size == 0:
             break
         t_new = np.asarray(evaluate(new), dtype=complex)
@@ -113,9 +113,8 @@ def refine(
         rounds += 1
         added += int(new.size)
         previous = current
-        current = analyse(f, tt, fit_poles=False, **kwargs)
-        before, after = _pms(previous), _pms(current)
+        current = analyse_draft(f, tt, **kwargs)
+        before, after = _pms(previous.analysis), _pms(current.analysis)
         change = float(np.max(np.abs(after - before))) if before.size == after.size and after.size else None
-        converged = _nothing_to_refine(current) or (change is not None and change < tol_deg and not current.nyquist.coarse_hz)
-    final = analyse(f, tt, fit_poles=fit_poles, **kwargs) if fit_poles else current
-    return Refinement(final, rounds, added, converged, change)
+        converged = _nothing_to_refine(current.analysis) or (change is not None and change < tol_deg and not current.analysis.nyquist.coarse_hz)
+    return Refinement(finish(current, fit_poles=fit_poles), rounds, added, converged, change)

@@ -14,7 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from netloop.analysis import analyse, middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis import middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis.engine import Draft, analyse_draft, finish
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
@@ -25,6 +26,7 @@ from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other
                                          op_sources)
 from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
+from netloop.probe.breaking import locate_split
 from netloop.probe.chain import Chain, chain_probes
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
@@ -270,41 +272,40 @@ def sample_loops(
         f2, t2 = runner.evaluate(tuple(more), stage="a wider sweep")
         f, t = _merge_all(f, t, f2, t2)
 
-    def analyse_all(final: bool) -> dict[str, LoopAnalysis]:
-        """Every loop's analysis: a draft between rounds (crossovers and margins), the whole of it at the end, with
-        the check of the operating point first among its checks when it was asked for."""
-        out = {name: analyse(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name], draft=not final) for name in t}
-        if final and sources is not None and runner.voltages:
-            op = op_check(sources, runner.voltages)
-            out = {name: replace(a, checks=(op, *a.checks)) for name, a in out.items()}
-        return out
+    def draft_all() -> dict[str, Draft]:
+        """Every loop's draft, what a round reads (crossovers, margins, the Nyquist count); the last is finished."""
+        return {name: analyse_draft(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name]) for name in t}
 
-    analyses = analyse_all(False)
+    drafts = draft_all()
     # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz)
-    active = [name for name, a in analyses.items() if a.gain_crossovers or a.nyquist.coarse_hz] if sweep.refine else []
+    active = [name for name, d in drafts.items() if d.analysis.gain_crossovers or d.analysis.nyquist.coarse_hz] if sweep.refine else []
     settled = {name: name not in active for name in t}
     rounds = 0
     if active:
-        previous = {name: analyses[name].margins.phase_margin_deg for name in active}
+        previous = {name: drafts[name].analysis.margins.phase_margin_deg for name in active}
         while rounds < sweep.max_rounds:
-            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=analyses[name]) for name in active])
+            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=drafts[name].analysis) for name in active])
             if proposals.size == 0:
                 settled.update(dict.fromkeys(active, True))
                 break
             f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd), stage=f"refinement round {rounds + 1}")
             f, t = _merge_all(f, t, f2, t2)
             rounds += 1
-            analyses = analyse_all(False)
-            current = {name: analyses[name].margins.phase_margin_deg for name in active}
+            drafts = draft_all()
+            current = {name: drafts[name].analysis.margins.phase_margin_deg for name in active}
             for name in active:
                 p, c = previous[name], current[name]
                 same = p is None and c is None if p is None or c is None else abs(c - p) < sweep.tol_deg
-                settled[name] = same and not analyses[name].nyquist.coarse_hz
+                settled[name] = same and not drafts[name].analysis.nyquist.coarse_hz
             if all(settled[name] for name in active):
                 break
             previous = current
     _log.info("simulations done", extra=CLEARS_STATUS)  # a status line is cleared
-    analyses = analyse_all(True)
+    # the whole analysis of each loop: its last draft, on the same data, finished
+    analyses = {name: finish(d) for name, d in drafts.items()}
+    if sources is not None and runner.voltages:  # the check of the operating point, first among the checks
+        op = op_check(sources, runner.voltages)
+        analyses = {name: replace(a, checks=(op, *a.checks)) for name, a in analyses.items()}
     info = SimInfo(
         backend=runner.backend,
         points=int(f.size),
@@ -412,6 +413,7 @@ def measure(
     timeout_s: float = 600.0,
     processes: int | None = None,
     placement: Mapping[str, str] | None = None,
+    decisions: dict | None = None,
 ) -> LoopResult:
     """Break the loop at node ``at``, measure its return ratio in ngspice and analyse its stability.
 
@@ -424,7 +426,9 @@ def measure(
     elements on a side ({"cc": "driver"}, netloop.probe.break_loop); without it and without
     ``driver`` the split the rules give is checked, and another placement of the bridging elements
     is measured when it fails its checks (netloop.jobs.measure_checks; ``decided_by`` and the
-    job check "split" say what was moved and why).
+    job check "split" say what was moved and why). ``decisions``: where and how the node is split
+    (netloop.probe.locate_split's answers), kept by the caller for netlists that differ from this one
+    only in ngspice's seed (the samples of one corner): read when there, else found and added.
     """
     with _simulator_for(simulator, keep_decks) as sim:  # ngspice starts now, while the netlist is read and broken
         parsed = load_netlist(netlist)
@@ -434,9 +438,9 @@ def measure(
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s,
                        sources=op_sources(parsed))  # whose voltages bound a credible operating point (measure_checks.op_check)
         with caveats_on_error(parsed):
-            unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
+            unchecked, loop_check = _split(parsed, at, driver, placement, decisions)  # is the node on a loop? asked during the first simulation
             free = driver is None and placement is None
-            chain = _chain(parsed, at, unchecked) if free else None  # the split tried first when this one is doubted, in the same netlist
+            chain = _chain(parsed, at, unchecked, decisions) if free else None  # the split tried first when this one is doubted, in the same netlist
             circuit = uuid.uuid4().hex
             analysis, info, sim_warnings = measure_probed(chain.first if chain else unchecked, meanwhile=loop_check, circuit_id=circuit, **options)
             probed = loop_check()  # its outcome, found while the first simulation ran
@@ -459,10 +463,29 @@ def measure(
     )
 
 
-def _chain(parsed: Netlist, at: str, first: ProbedNetlist) -> Chain | None:
-    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None."""
+def _split(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, decisions: dict | None) -> tuple:
+    """split_loop's answer, its decision taken from ``decisions`` (measure's) when there, and added to them when not."""
+    key = ("split", at.strip().lower(), driver, tuple(sorted((placement or {}).items())))
+    split = split_loop(parsed, at, driver=driver, placement=placement, decided=(decisions or {}).get(key))
+    if decisions is not None and key not in decisions:
+        decisions[key] = locate_split(parsed, at, driver=driver, placement=placement)  # as split_loop found it: it did not raise
+    return split
+
+
+def _chain(parsed: Netlist, at: str, first: ProbedNetlist, decisions: dict | None = None) -> Chain | None:
+    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None;
+    ``decisions`` as measure's (None stands for a chain refused)."""
     places = other_placements(first)
-    return chain_probes(parsed, at, first, places[0]) if places else None
+    if not places:
+        return None
+    key = ("chain", first.node, tuple(sorted(places[0].items())))
+    if decisions is not None and key in decisions:
+        located = decisions[key]
+        return chain_probes(parsed, at, first, places[0], located) if located is not None else None
+    chain = chain_probes(parsed, at, first, places[0])
+    if decisions is not None:
+        decisions[key] = chain.located if chain is not None else None
+    return chain
 
 
 def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: LoopAnalysis, info: SimInfo, sim_warnings: tuple[str, ...],

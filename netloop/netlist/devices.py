@@ -13,12 +13,29 @@ __all__ = ["DEVICE_KINDS", "WrapperSize", "declared_parameters", "device_pin_rol
 DEVICE_KINDS = frozenset("MQDJZ")
 
 
+_PRIMITIVES: dict[int, tuple[Subcircuit, Element | None]] = {}  # by id: each entry holds its subcircuit, whose id stays its own
+_PRIMITIVES_KEEP = 4096
+
+
 def device_primitive(sub: Subcircuit) -> Element | None:
     """The one primitive a device-wrapper subcircuit holds, or None when ``sub`` is a real circuit.
 
     A wrapper's body is exactly one M/Q/D/J/Z element plus directives (.param, .model, ...), no
-    nested definitions, and every node of that element is one of the subcircuit's pins.
+    nested definitions, and every node of that element is one of the subcircuit's pins. The answer
+    is kept per subcircuit (they are immutable): a process's wrappers hold hundreds of statements
+    (sky130's with mismatch models), and every walk of a netlist's instances asks again.
     """
+    kept = _PRIMITIVES.get(id(sub))  # the entry holds sub, so no other object has its id meanwhile
+    if kept is not None:
+        return kept[1]
+    if len(_PRIMITIVES) >= _PRIMITIVES_KEEP:
+        _PRIMITIVES.clear()
+    prim = _primitive(sub)
+    _PRIMITIVES[id(sub)] = (sub, prim)
+    return prim
+
+
+def _primitive(sub: Subcircuit) -> Element | None:
     prim = None
     for s in sub.body:
         if isinstance(s, Element):

@@ -519,6 +519,12 @@ def _place_bridges(near: _Neighbourhood, node: str, drivers: list[Terminal], loa
     return list(once.values())
 
 
+def _driver_stage(drivers: list[Terminal], loads: list[Terminal], placement: Mapping[str, str]) -> list[Terminal]:
+    """The terminals of the stage that drives the node: its outputs, and the common-gate devices beside them, which go with
+    them (a cascode over the output device), as they do behind a series source (``_Neighbourhood.beyond``)."""
+    return [*drivers, *(t for t in loads if t.role == "cg" and placement.get(t.label.rsplit(".", 1)[0], "driver") == "driver")]
+
+
 def _path(reach: dict[str, int], node: str) -> str:
     return "" if reach.get(node, 1) <= 1 else f" through {reach[node]} passive elements"
 
@@ -617,7 +623,7 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     placed: list[tuple[Terminal, Bridge, float]] = []
     if loads and (how == "outputs" or placement):
         near = _Neighbourhood(netlist, scope, ac_ground, globals_)
-        placed = _place_bridges(near, node, drivers, loads, placement or {})
+        placed = _place_bridges(near, node, _driver_stage(drivers, loads, placement or {}), loads, placement or {})
     moved = [t for t, b, _ in placed if b.side == "driver"]
     if moved and not [t for t in loads if t not in moved] and any(not b.given for _, b, _ in placed if b.side == "driver"):
         # Every way on from the node would go to the driver side (a one-stage loop, where the feedback network is also

@@ -105,3 +105,19 @@ def test_wrapper_sizes_are_read_from_the_wrapper_itself():
         WrapperSize("w", "1", "w"), WrapperSize("l", "0.15", "l"), WrapperSize("nf", "2", "nf"), WrapperSize("cnt", "3", ""),
         WrapperSize("mult", "1", ""))
     assert wrapper_sizes(parse_text(DEFS).subcircuit("resistor")) == ()  # no wrapper, no sizes
+
+
+def test_kept_answers_are_each_subcircuits_own():
+    """device_primitive keeps its answer per subcircuit object: asked again, and asked alternately about a wrapper and a
+    circuit, each gets the answer its own body gives (the definition above: one device whose nodes are all pins), also
+    after the kept answers were dropped at their bound."""
+    from netloop.netlist import devices
+
+    nl = parse_text(DEFS)
+    wrapper, circuit = nl.subcircuit("nwrap"), nl.subcircuit("twostage")
+    for _ in range(2):
+        assert device_primitive(wrapper).name.lower() == "mx" and device_primitive(circuit) is None
+    for i in range(devices._PRIMITIVES_KEEP + 1):  # as many others as are kept, then these two again
+        device_primitive(parse_text(f"t\n.subckt s{i} a b\nR1 a b 1\n.ends\n").subcircuit(f"s{i}"))
+    assert len(devices._PRIMITIVES) <= devices._PRIMITIVES_KEEP
+    assert device_primitive(circuit) is None and device_primitive(wrapper).name.lower() == "mx"

@@ -272,3 +272,131 @@ def test_silencing_forms():
     assert cards["v3"] == "V3 c 0 dc 0 ac 0"
     assert cards["v4"] == "V4 d 0 dc 0 ac 0"
     assert p.silenced_sources == ("v1", "v2", "v3")
+
+
+def test_node_not_on_loop_lists_every_load_terminal():
+    """The refusal of a node on no loop lists all its load-side terminals, comma separated, word for word."""
+    # By hand: E1 drives mid; R1 and R3 lead only to resistors to ground, so no path returns from them to E1's output.
+    text = "open chain\nVin in 0 dc 0 ac 1\nE1 mid 0 in 0 10\nR1 mid out 1k\nR2 out 0 1k\nR3 mid o2 1k\nR4 o2 0 1k\n"
+    with pytest.raises(ProbeError) as info:
+        break_loop(parse_text(text), "mid")
+    assert str(info.value).endswith("node mid is not on any loop: after the split no path leads from its load side (r1.p, r3.p) back "
+                                    "to its driver side (e1.p) without passing through ground or a supply")
+
+
+def test_a_node_where_every_terminal_is_an_output_is_refused_naming_them():
+    """A node only outputs sit on (two controlled sources) is refused: nothing would be left for the load side, and the message says why."""
+    # By hand: E1's and G1's outputs both drive o; docs/splitting.md section 2 puts outputs on the driver side.
+    with pytest.raises(ProbeError) as info:
+        break_loop(parse_text("two outputs\nVin in 0 dc 0 ac 1\nE1 o 0 in 0 1\nG1 0 o in 0 1m\n"), "o")
+    assert str(info.value).endswith(
+        "node o: the rules put every terminal on the driver side (e1.p, g1.n: each is an output), so nothing is left for the load "
+        "side; choose the driver side with driver=ELEMENT[.PIN], e.g. driver=e1.p")
+
+
+def test_a_bias_node_inside_an_instance_names_its_one_ports_by_their_full_names():
+    """Inside an instance, the refusal of a bias node on no loop names the current source and the diode by their hierarchical names."""
+    # As test_shared_bias_node_driven_only_by_a_diode_is_on_no_loop, inside instance xb: Ib and the diode M0 are one-ports.
+    text = ("bias in a block (invented)\n.model nch nmos level=1\n.subckt bias vdd\nIb vdd nb dc 20u\nM0 nb nb 0 0 nch\n"
+            "M1 o1 nb 0 0 nch\nR1 vdd o1 50k\nM2 o2 nb 0 0 nch\nR2 vdd o2 50k\n.ends\nVdd vdd 0 3.3\nXb vdd bias\n")
+    with pytest.raises(ProbeError) as info:
+        break_loop(parse_text(text), "xb.nb")
+    assert ("node xb.nb is not on any loop: besides inputs (xb.m1.g, xb.m2.g) only one-ports to AC ground sit on it (xb.ib, xb.m0; "
+            "xb.m0: several terminals on the node, a diode connection), and nothing from elsewhere drives it") in str(info.value)
+
+
+LOOPED = HIER.replace("Vin in 0", "Rsrc src in 10k\nVin src 0") + "Rback out in 1meg\n"
+
+
+@pytest.mark.parametrize("caps, shown", [
+    (2, "xb.in, c0.p, c1.p"),
+    (3, "xb.in, c0.p, c1.p and 1 more"),
+    (4, "xb.in, c0.p, c1.p and 2 more"),
+])
+def test_the_net_outside_an_instance_shows_three_terminals_and_counts_the_rest(caps, shown):
+    """The terminal standing for the net outside an instance names the first three terminals out there and counts the others."""
+    # By hand: outside xa, mid carries xb's input pin and the capacitors C0, C1, ... to ground.
+    text = LOOPED + "".join(f"C{k} mid 0 1p\n" for k in range(caps))
+    p = break_loop(parse_text(text), "xa.out")
+    assert p.load_terminals == (f"xa.out outside xa ({shown})",)
+
+
+def test_a_copy_never_takes_the_name_of_a_subcircuit_the_netlist_defines():
+    """When the netlist already defines a subcircuit named like the copy for an instance, the copy gets the next free name."""
+    # Common practice: two .subckt definitions of one name are one too many (ngspice keeps one of them), so the copy must differ.
+    text = HIER.replace("Vdd vdd", ".subckt stage_broken_in_xa a b\nR1 a b 1k\n.ends\nVdd vdd")
+    p = break_loop(parse_text(text), "xa.n5")
+    assert p.copied_subcircuits == (("stage", "stage_broken_in_xa_2"),)
+    headers = [line.split()[1] for line in write_netlist(p.netlist).splitlines() if line.lower().startswith(".subckt")]
+    assert len(headers) == len(set(headers)) == 3
+
+
+def test_a_split_decided_on_the_original_gives_the_same_probe_inside_an_instance():
+    """split_loop given locate_split's decision inside an instance builds the same netlist and sides as break_loop deciding itself."""
+    # Reference: break_loop on the same netlist (the decision is the same; only who makes it differs).
+    from netloop.probe.breaking import locate_split, split_loop
+
+    nl = parse_text(HIER)
+    _, check = split_loop(nl, "xa.n5", decided=locate_split(nl, "xa.n5"))
+    given, own = check(), break_loop(nl, "xa.n5")
+    assert write_netlist(given.netlist) == write_netlist(own.netlist)
+    assert (given.side_a, given.side_b, given.driver_terminals) == (own.side_a, own.side_b, own.driver_terminals) == ("xa.n5_drive", "xa.n5", ("xa.m1.d",))
+
+
+def test_a_pair_of_two_names_for_one_net_is_refused():
+    """A pair naming one net twice, once inside the instance that drives it and once above, is refused as one net."""
+    # By hand: xa.out is the pin of xa wired to mid, so the two names are one net (ngspice's flattened circuit has one node).
+    from netloop.probe.differential import break_pair
+
+    with pytest.raises(ProbeError) as info:
+        break_pair(parse_text(LOOPED), "xa.out", "mid")
+    assert str(info.value) == "nodes xa.out and mid are the same net; a differential break needs two nets"
+
+
+def test_a_probed_netlist_splits_again_as_its_written_text_does():
+    """A netlist break_loop returned gives the same split at another node as the text it writes, read back (a renamed pin included)."""
+    # Reference: the written netlist read back by the parser, which names an instance's pins after its definition: the copy of
+    # stage for xb has its pin in renamed in_drive (the net outside goes with the driver side).
+    from netloop.probe.breaking import locate_split
+
+    probed = break_loop(parse_text(LOOPED), "xb.in").netlist
+    again = locate_split(probed, "mid")[2]
+    read_back = locate_split(parse_text(write_netlist(probed)), "mid")[2]
+    assert [t.label for t in (*again.driver, *again.load)] == [t.label for t in (*read_back.driver, *read_back.load)] == ["xa.out", "xb.in_drive"]
+
+
+def test_the_probe_sources_are_the_cards_they_write():
+    """The two probe sources in the new netlist equal their written cards read back: nodes, values and pin names."""
+    # Reference: the parser on the written text (a V or I card's pins are p, n).
+    p = break_loop(parse_text(HIER), "xa.n5")
+    written = parse_text(write_netlist(p.netlist))
+    sub, back = p.netlist.subcircuits["stage_broken_in_xa"], written.subcircuits["stage_broken_in_xa"]
+    for key in ("vnl_series", "inl_shunt"):
+        (new,) = [e for e in sub.elements if e.key == key]
+        (old,) = [e for e in back.elements if e.key == key]
+        assert (new.tokens, new.node_slots, new.pins) == (old.tokens, old.node_slots, old.pins)
+        assert new.pins == ("p", "n")
+
+
+def test_terminals_stop_at_the_nesting_guard_of_a_subcircuit_that_instantiates_itself():
+    """On a subcircuit that instantiates itself, terminals_at ends at the 64-level guard (the pin a load) instead of recursing without end."""
+    # Common practice: a subcircuit instantiating itself has no flattened circuit; walk_scopes refuses it at 64 levels, and the
+    # terminal search has the same bound.
+    from netloop.probe.scope import Scope
+    from netloop.probe.sides import terminals_at
+
+    nl = parse_text("recursive (invented)\n.subckt loop a b\nXi a b loop\nR1 a b 1k\n.ends\nE1 o 0 0 i 10\nX1 o i loop\nR2 o i 1k\n")
+    roles = [(t.label, t.role) for t in terminals_at(nl, Scope((), (), ()), "o", frozenset({"0"}), frozenset())]
+    assert roles == [("e1.p", "driver"), ("x1.a", "load"), ("r2.p", "load")]
+
+
+def test_flat_terminals_name_a_device_wrapper_pins_after_its_definition():
+    """Each terminal of a one-device wrapper takes the wrapper's pin name by position, whatever order the wrapper declares them in."""
+    # Reference: the .subckt header (ngspice connects an X line's nodes to the definition's pins by position); this wrapper
+    # declares its transistor's gate first.
+    from netloop.probe.scope import flat_terminals
+
+    text = ("wrapper with the gate first (invented)\n.model nch nmos level=1\n.subckt nfet_g g d s b\nM0 d g s b nch w=10u l=1u\n"
+            ".ends nfet_g\nVdd vdd 0 dc 3.3\nX1 a b 0 0 nfet_g\nR1 vdd b 1k\nR2 a 0 1k\n")
+    pins = [(t.element.key, t.pin, t.node) for t in flat_terminals(parse_text(text), frozenset()) if t.element.key == "x1"]
+    assert pins == [("x1", "g", "a"), ("x1", "d", "b"), ("x1", "s", "0"), ("x1", "b", "0")]

@@ -81,6 +81,24 @@ def test_a_diode_connected_device_wrapper_is_one_device():
     assert "x1: several terminals on the node" in wrapped[3]
 
 
+# An invented BJT cascode amplifier: Q1 (common emitter) drives e2, the emitter of the cascode Q2 (base at the DC source vb2);
+# the follower Q3 and Rf close the loop to Q1's base. WRAPPER_Q is a one-device wrapper of an NPN, as process libraries write them.
+BJT_CASCODE = ("bjt cascode (invented models)\n.model qn npn bf=100 is=1e-16\nVcc vcc 0 dc 5\nVb2 b2 0 dc 2\nVin in 0 dc 0.7 ac 1\n"
+               "Rb in b1 1k\nQ1 e2 b1 0 qn\nQ2 c2 b2 e2 qn\nRc vcc c2 10k\nQ3 vcc c2 out qn\nRe out 0 5k\nRf out b1 100k\nCe e2 0 1p\n")
+WRAPPER_Q = ".subckt npn_w c b e\nQ0 c b e qn\n.ends npn_w\n"
+
+
+@pytest.mark.parametrize("at", ["e2", "c2"])
+def test_a_cascode_in_a_bjt_wrapper_splits_as_the_bare_transistor(at):
+    """A common-base cascode written as a one-device NPN wrapper gives the split and the sentence of the bare transistor."""
+    # Reference: the flat circuit (a wrapper stands for its one device: netloop.netlist.devices). At e2 the cascode's
+    # emitter is a switch-like unit (base at AC ground) placed by the bridge rule; at c2 its collector is common-base.
+    flat = _sides(BJT_CASCODE, at)
+    wrapped = _sides(BJT_CASCODE.replace("Vcc vcc", WRAPPER_Q + "Vcc vcc").replace("Q2 c2 b2 e2 qn", "XQ2 c2 b2 e2 npn_w"), at)
+    assert wrapped[:3] == tuple({t.replace("q2.", "xq2.") for t in side} for side in flat[:3])
+    assert wrapped[3] == flat[3].replace("q2", "xq2")
+
+
 # A 0 V source in series has no AC impedance (common practice: ammeters in SPICE decks), so it is looked through.
 SENSED = TWO_STAGE.replace("M6 out o1", "M6 y o1").replace("M7 out nb", "M7 y nb") + "Vsense y out dc 0\n"
 

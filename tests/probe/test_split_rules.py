@@ -87,15 +87,18 @@ def test_a_series_sense_source_goes_with_the_driver_on_its_far_side():
     assert "vsense.p is a voltage source in series (no AC impedance): it goes with m1.d on its far side" in p.decided_by
 
 
-def test_a_switch_beside_the_feedback_capacitor_goes_with_it():
+@pytest.mark.parametrize("switch", ["Msw x vrst out 0 nch w=1u l=1u", "Xsw x vrst out 0 sky130_fd_pr__nfet_01v8"],
+                         ids=["transistor", "wrapper not loaded"])
+def test_a_switch_beside_the_feedback_capacitor_goes_with_it(switch):
     """At an amplifier's summing node an off reset switch (gate at a DC control) is not a driver: the feedback capacitor drives, the switch goes with it."""
     # Issue 14 pattern 7. Invented capacitive-feedback amplifier: E1 (the amplifier) drives out; Cf and the reset switch
-    # Msw (gate at the DC control vrst) both run from out back to the summing node x; Cin comes from the source.
+    # (gate at the DC control vrst) both run from out back to the summing node x; Cin comes from the source. The switch is a
+    # transistor, or a sky130-style wrapper (four pins d g s b) whose library is not included: the same device.
     text = ("switched-capacitor stage (invented)\n" + MODELS +
-            "Vin in 0 dc 1 ac 1\nVrst vrst 0 dc 0\nCin in x 1p\nCf out x 0.5p\nMsw x vrst out 0 nch w=1u l=1u\nE1 out 0 1.2 x 1000\n"
+            f"Vin in 0 dc 1 ac 1\nVrst vrst 0 dc 0\nCin in x 1p\nCf out x 0.5p\n{switch}\nE1 out 0 1.2 x 1000\n"
             "Mg dx x 0 0 nch w=1u l=1u\nRd dx 0 1k\n")
     p = break_loop(parse_text(text), "x")
-    assert set(p.driver_terminals) == {"cf.n", "msw.d"}
+    assert set(p.driver_terminals) == {"cf.n", switch.split()[0].lower() + ".d"}
     assert set(p.load_terminals) == {"e1.cn", "mg.g"}
 
 
@@ -161,3 +164,146 @@ def test_the_net_outside_a_block_that_drives_the_node_is_a_load_beside_an_output
     p = break_loop(parse_file(circuits / "benches" / "bandgap_reg.cir"), "xreg.xbg.xamp.out")
     assert set(p.driver_terminals) == {"xreg.xbg.xamp.ma2.d", "xreg.xbg.xamp.ma4.d"}
     assert "xreg.xbg.xamp.mat.g" in p.load_terminals and any(t.startswith("xreg.xbg.xamp.out outside xamp") for t in p.load_terminals)
+
+
+def test_in_a_one_stage_loop_the_farthest_feedback_branch_carries_the_loop():
+    """When every feedback branch at a one-stage amplifier's output wraps the stage, the farthest (the T network) goes with the load."""
+    # docs/splitting.md section 3: every way on from out leads back to E1's input x (Cf at one element, the T network Rf1, Rf2
+    # at two), so keeping all with the driver would measure no loop; the farthest branch carries the loop measured.
+    from .test_zero_volt_sources import ONE_STAGE
+
+    p = break_loop(parse_text(ONE_STAGE), "out")
+    assert set(p.driver_terminals) == {"e1.p", "cf.p"} and p.load_terminals == ("rf1.p",)
+    assert "with cf (closes a local loop around the driver stage e1 (back to x): kept with it)" in p.decided_by
+    assert ("rf1 on the load side (the farthest path from the node back to the driver stage: it carries the loop being measured)"
+            in p.decided_by)
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cf", "driver", True), ("rf1", "load", True)]
+
+
+def test_a_feedback_resistor_beside_an_output_filter_leads_on_into_the_loop():
+    """At an amplifier's output with resistive feedback and an RC output filter, the feedback resistor goes with the load."""
+    # By hand: Rf (out to E1's input x) is the only way back to the driver stage; the filter Ro, Co ends at ground, so the loop
+    # through Rf is the one measured and Rf cannot stay on the driver side (it would leave the load side no way back: no loop).
+    text = ("amplifier with an output filter (invented)\nVin in 0 dc 0 ac 1\nRin in x 10k\nRf out x 100k\nE1 out 0 0 x 1e4\n"
+            "Ro out o2 1k\nCo o2 0 1n\n")
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("e1.p",) and set(p.load_terminals) == {"rf.p", "ro.p"}
+    assert "rf on the load side (leads on into the loop: it wraps no stage that the loop measured passes through)" in p.decided_by
+
+
+def test_a_floating_current_source_on_the_node_is_a_shunt():
+    """An ideal current source from the node to another signal node is a shunt at either end: it carries no signal and never changes T."""
+    # Circuit theory: an ideal current source has infinite incremental impedance, so on either side it leaves T unchanged
+    # (docs/splitting.md section 1, one-ports); the rest of each split is the one derived by hand in the tests above.
+    nl = parse_text(TWO_STAGE + "Ix o1 out dc 1u\n")
+    at_out, at_o1 = break_loop(nl, "out"), break_loop(nl, "o1")
+    assert "ix.n" in at_out.shunt_terminals and "ix.n" not in at_out.load_terminals and at_out.load_terminals == ("rf.p",)
+    assert "ix.p" in at_o1.shunt_terminals and set(at_o1.load_terminals) == {"m6.g", "rz.p"}
+
+
+def test_an_undefined_four_pin_block_is_a_load_not_a_transistor():
+    """An instance of a four-pin block whose definition is not loaded, and whose name is no transistor's, is a load on every pin."""
+    # docs/splitting.md section 1: an instance pin drives only with an output inside; with nothing known inside it is a load
+    # ("everything else"). Only a wrapper named like a transistor ("fet", four pins) is read as one without its definition.
+    text = ("amplifier with an undefined block at its output (invented)\nVin in 0 dc 0 ac 1\nRin in x 10k\nRf out x 100k\n"
+            "E1 out 0 0 x 1e4\nXadc out a b c adc_core\nRa a 0 1k\n")
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("e1.p",) and set(p.load_terminals) == {"rf.p", "xadc.1"}
+
+
+def test_a_bridge_as_close_to_both_stages_is_a_default_left_to_the_checks():
+    """A bridge whose far end is as close to the driver stage's input as to the load stage's output goes with the load, marked as a default."""
+    # By hand (one half of tests/jobs/test_measure_pair.py TIE): cx1 reaches ga1's input gp through r11 and gb1's output ob
+    # through r21, two elements each, one stage each: a tie, which docs/splitting.md section 3 leaves to the checks.
+    text = ("bridge as close to both stages (invented)\nga1 0 np gp 0 1m\nra1 np 0 10k\nca1 np 0 1p\ngb1 ob 0 np 0 1m\nrb1 ob 0 10k\n"
+            "cb1 ob 0 2p\ncx1 np xp 0.1p\nr11 xp gp 1k\nr21 xp ob 1k\nrf1 ob gp 10k\nrg1 gp 0 10k\n")
+    p = break_loop(parse_text(text), "np")
+    assert p.driver_terminals == ("ga1.n",) and set(p.load_terminals) == {"cx1.p", "gb1.cp"}
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cx1", "load", False)]
+    assert "cx1 on the load side (as close to the driver stage ga1 as to the stage gb1 that the node drives" in p.decided_by
+
+
+
+# An invented two-stage amplifier with a folded-cascode first stage (input pair M1/M2 folded at f1/f2 into the PMOS cascodes
+# Mc1/Mc2, mirror M3/M4) and indirect compensation: Cc from out to f2, the source of the cascode Mc2, not to o1.
+AHUJA = ("two-stage amplifier, Cc to the cascode's source (invented)\n" + MODELS +
+         "Vdd vdd 0 dc 3.3\nVin inp 0 dc 1.2\nVref ref 0 dc 1.2\nVbp vbp 0 dc 2.3\nVcp vcp 0 dc 1.6\nIb vdd nb dc 20u\n"
+         "Mb nb nb 0 0 nch w=10u l=1u\nM5 tail nb 0 0 nch w=20u l=1u\nM1 f1 fb tail 0 nch w=20u l=1u\nM2 f2 inp tail 0 nch w=20u l=1u\n"
+         "Mp1 f1 vbp vdd vdd pch w=40u l=1u\nMp2 f2 vbp vdd vdd pch w=40u l=1u\nMc1 d1 vcp f1 vdd pch w=20u l=1u\n"
+         "Mc2 o1 vcp f2 vdd pch w=20u l=1u\nM3 d1 d1 0 0 nch w=10u l=1u\nM4 o1 d1 0 0 nch w=10u l=1u\nM6 out o1 0 0 nch w=50u l=1u\n"
+         "M7 out vbp vdd vdd pch w=80u l=1u\nCc out f2 1p\nRf out fb 20k\nRg fb ref 20k\nCL out 0 2p\n")
+
+
+def test_indirect_compensation_through_the_cascode_stays_with_the_output_stage():
+    """Cc from the output to the first stage's cascode source wraps the output stage through the cascode: it stays with the driver."""
+    # Ahuja, "An improved frequency compensation technique for CMOS operational amplifiers", IEEE JSSC 1983: Cc fed back
+    # into the cascode's source is the Miller capacitor of the second stage (M6), its current passed on by Mc2 to o1.
+    # docs/splitting.md section 3: one passive element and two stages (M6, then the common-gate Mc2 that drives o1) back
+    # to f2; the loop measured comes back to f2 through Rf, M1, the fold and the mirror.
+    p = break_loop(parse_text(AHUJA), "out")
+    assert set(p.driver_terminals) == {"m6.d", "cc.p"} and p.load_terminals == ("rf.p",)
+    assert set(p.shunt_terminals) == {"m7.d", "cl.p"}
+    assert "with cc (closes a local loop around the driver stage m6 (back to f2): kept with it)" in p.decided_by
+    assert "rf on the load side (leads on into the loop: it wraps no stage that the loop measured passes through)" in p.decided_by
+
+
+@pytest.mark.parametrize("prefix", ["", "xa."], ids=["top", "inside an instance"])
+def test_a_pseudo_resistor_across_the_miller_capacitor_goes_with_it(prefix):
+    """A pseudo-resistor (two diode-connected devices back to back) across the Miller capacitor is one branch with it: both stay with the output stage."""
+    # docs/splitting.md section 3: elements in parallel are one branch, a chain of diode-connected devices reaching the
+    # bridge's far end included; Cc from out to o1 wraps M6 (the loop measured comes back to o1 through Rf, M1, M3/M4).
+    amp = TWO_STAGE.replace("Rz o1 cz 1.5k\nCc cz out 1.2p\n", "Cc o1 out 1.2p\nMpa pm pm out out pch w=2u l=4u\nMpb pm pm o1 o1 pch w=2u l=4u\n")
+    if prefix:  # the same amplifier as a block, its supplies and references at the top
+        body = [line for line in amp.splitlines()[1:] if not line.startswith((".model", "Vdd", "Vin", "Vref"))]
+        amp = ("the amplifier in a block (invented)\n" + MODELS + ".subckt amp vdd inp ref\n" + "\n".join(body) +
+               "\n.ends amp\nVdd vdd 0 dc 3.3\nVin inp 0 dc 1.65\nVref ref 0 dc 1.2\nXa vdd inp ref amp\n")
+    p = break_loop(parse_text(amp), prefix + "out")
+    assert set(p.driver_terminals) == {prefix + t for t in ("m6.d", "m7.d", "cc.n", "mpa.s", "mpa.b")}
+    assert p.load_terminals == (prefix + "rf.p",)
+    assert [(b.element, b.side) for b in p.bridges if b.side == "driver"] == [(prefix + "cc", "driver"), (prefix + "mpa", "driver")]
+    assert f"with {prefix}mpa (in parallel with {prefix}cc: closes a local loop around the driver stage {prefix}m6" in p.decided_by
+
+
+def test_a_switch_across_the_miller_capacitor_goes_with_it():
+    """An off switch (gate at a DC control) from the output back to o1 is a branch around the output stage, kept with it as Cc is."""
+    # docs/splitting.md section 3: a switch from the node to another signal node is placed like a passive element; it reaches
+    # o1, the input of the driver stage M6, at once, and the loop measured comes back to o1 through Rf.
+    p = break_loop(parse_text(TWO_STAGE + "Vpd pd 0 dc 0\nMsw o1 pd out 0 nch w=1u l=1u\n"), "out")
+    assert set(p.driver_terminals) == {"m6.d", "m7.d", "cc.n", "msw.s"} and p.load_terminals == ("rf.p",)
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("cc", "driver", True), ("rf", "load", True), ("msw", "driver", True)]
+
+
+def test_the_switched_capacitor_bench_splits_at_an_output_as_the_expert_does(circuits):
+    """At fd_cap_amp's outn the drains drive; the feedback branch, the pseudo-resistor, the off switch and the CMFB sense load it, each by a rule."""
+    # Reference: circuits/benches/expert/fd_cap_amp.outn.sp (driver side: M1's and M3's drains; load side: Rcm2, Cf1, Mpb,
+    # Mr1's source, CL2). The off reset switch Mr1 is no stage the node drives, so no bridge is a tie left to the checks.
+    p = break_loop(parse_file(circuits / "benches" / "fd_cap_amp.cir"), "outn")
+    assert set(p.driver_terminals) == {"m1.d", "m3.d"}
+    assert set(p.load_terminals) | set(p.shunt_terminals) == {"rcm2.p", "cf1.p", "mpb.s", "mpb.b", "mr1.s", "cl2.p"}
+    assert [(b.element, b.side, b.by_rule) for b in p.bridges] == [("rcm2", "load", True), ("cf1", "load", True), ("mr1", "load", True)]
+    assert "leads on into the loop" in p.decided_by and "as close to" not in p.decided_by
+
+
+# An invented two-stage amplifier whose output stage is a push-pull: M6 (PMOS) and M7 (NMOS) both driven from o1, M7 under
+# the cascode Mc7 (gate at the DC source vcn); Cc runs from out to s7, the cascode's source.
+CASCODED_OUTPUT = ("two-stage amplifier, cascoded push-pull output (invented)\n" + MODELS +
+                   "Vdd vdd 0 dc 3.3\nVin inp 0 dc 1.65\nVref ref 0 dc 1.2\nVcn vcn 0 dc 1.5\nIb vdd nb dc 20u\nM8 nb nb 0 0 nch w=10u l=1u\n"
+                   "M5 tail nb 0 0 nch w=20u l=1u\nM1 d1 fb tail 0 nch w=20u l=1u\nM2 o1 inp tail 0 nch w=20u l=1u\n"
+                   "M3 d1 d1 vdd vdd pch w=20u l=1u\nM4 o1 d1 vdd vdd pch w=20u l=1u\nM6 out o1 vdd vdd pch w=80u l=1u\n"
+                   "Mc7 out vcn s7 0 nch w=50u l=1u\nM7 s7 o1 0 0 nch w=50u l=1u\nCc out s7 1p\nRf out fb 20k\nRg fb ref 20k\nCL out 0 2p\n")
+
+
+@pytest.mark.parametrize("sensed", [False, True], ids=["drains on the node", "behind a 0 V sense source"])
+def test_a_capacitor_to_the_source_of_an_output_cascode_stays_with_the_cascode(sensed):
+    """Cc from out to the source of the cascode beside the output drains is the cascode's local loop: it stays on the driver side,
+    whether the drains sit on out or behind a 0 V sense source."""
+    # Circuit theory: out -> Cc -> s7 -> Mc7 (common gate) -> out is a loop through the cascode alone; with Mc7 on the driver
+    # side (docs/splitting.md section 3: a cascode beside the outputs goes with them) Cc must go too, or that local loop would
+    # cross the probe. Kirchhoff: a 0 V source is a wire, so the sense source between the drains and out changes nothing.
+    text = CASCODED_OUTPUT
+    if sensed:
+        text = text.replace("M6 out o1", "M6 y o1").replace("Mc7 out vcn", "Mc7 y vcn") + "Vsense y out dc 0\n"
+    p = break_loop(parse_text(text), "out")
+    assert set(p.driver_terminals) == ({"vsense.n", "cc.p"} if sensed else {"m6.d", "mc7.d", "cc.p"})
+    assert p.load_terminals == ("rf.p",)
+    assert "with cc (closes a local loop around the driver stage mc7 (back to s7): kept with it)" in p.decided_by

@@ -187,6 +187,16 @@ def test_warm_reads_the_libraries_a_netlist_names(tmp_path, monkeypatch):
     used_models.warm(str(tmp_path / "missing.cir"))
 
 
+def _fresh(monkeypatch, deck: str, here: Path) -> str | None:
+    """``used_only`` as a process that never read a library runs it: nothing kept from earlier decks."""
+    from netloop.sim import used_models
+
+    with monkeypatch.context() as m:
+        for kept in ("_FILES", "_DERIVED", "_LIBRARIES", "_KEPT"):
+            m.setattr(used_models, kept, {})
+        return used_only(deck, str(here))
+
+
 def test_what_is_kept_between_decks_changes_no_deck_and_follows_a_changed_library(tmp_path, monkeypatch):
     """Decks that read one library in turn (two seeds, then the other section, then the cards file edited) are each written
     out exactly as a process that never read the library before writes them (reference: the same reading with nothing kept)."""
@@ -195,16 +205,68 @@ def test_what_is_kept_between_decks_changes_no_deck_and_follows_a_changed_librar
     _library(tmp_path)
     base = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
     decks = [base.replace("\n", "\n.option seed=1\n", 1), base.replace("\n", "\n.option seed=2\n", 1), base.replace(" typ\n", " slow\n")]
-
-    def fresh(deck: str) -> str | None:
-        with monkeypatch.context() as m:
-            m.setattr(used_models, "_FILES", {})
-            m.setattr(used_models, "_DERIVED", {})
-            return used_only(deck, str(tmp_path))
-
     for deck in decks:
-        assert used_only(deck, str(tmp_path)) == fresh(deck) is not None
-    assert used_models._DERIVED  # the library's items were kept
+        assert used_only(deck, str(tmp_path)) == _fresh(monkeypatch, deck, tmp_path) is not None
+    assert used_models._DERIVED and used_models._LIBRARIES and used_models._KEPT  # the library and its write-out were kept
     (tmp_path / "lib" / "cards" / "typ.inc").write_text(CARDS.replace("{20*lam}", "{20.5*lam}"))
     lean = used_only(decks[0], str(tmp_path))
-    assert "pclm={20.5*lam}" in lean and "pclm={20*lam}" not in lean and lean == fresh(decks[0])
+    assert "pclm={20.5*lam}" in lean and "pclm={20*lam}" not in lean and lean == _fresh(monkeypatch, decks[0], tmp_path)
+
+
+@pytest.mark.parametrize("telling", ["size", "mtime"])
+def test_a_library_file_changed_between_two_decks_is_read_again(tmp_path, telling):
+    """A cards file rewritten between two decks, only its size or only its modification time telling (the other as
+    before), is read again: the second deck carries the new card (reference: the file's text on disk)."""
+    import os
+
+    _library(tmp_path)
+    cards = tmp_path / "lib" / "cards" / "typ.inc"
+    deck = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
+    assert "pclm={20*lam}" in used_only(deck, str(tmp_path))
+    before = cards.stat()
+    new = "{20.5*lam}" if telling == "size" else "{21*lam}"  # "{21*lam}" is as long as "{20*lam}": the same size
+    cards.write_text(CARDS.replace("{20*lam}", new))
+    os.utime(cards, ns=(before.st_atime_ns, before.st_mtime_ns + (1_000_000_000 if telling == "mtime" else 0)))
+    assert (cards.stat().st_size == before.st_size) == (telling == "mtime")
+    lean = used_only(deck, str(tmp_path))
+    assert f"pclm={new}" in lean and "pclm={20*lam}" not in lean
+
+
+def test_a_file_put_where_a_path_is_looked_for_first_is_read_from_then_on(tmp_path, monkeypatch):
+    """An include found in the current folder is read from beside the deck once a file of that name appears there
+    (ngspice's order: beside the naming file, then the current folder); reference: the same reading with nothing kept."""
+    (tmp_path / "deck").mkdir()
+    (tmp_path / "run").mkdir()
+    (tmp_path / "run" / "cards.inc").write_text(CARDS)
+    monkeypatch.chdir(tmp_path / "run")
+    deck = CIRCUIT.replace(".lib {lib} typ", ".param dvt=0 kp_n=180u lam=0.06\n.include cards.inc") + ".end\n"
+    assert "pclm={20*lam}" in used_only(deck, str(tmp_path / "deck"))
+    (tmp_path / "deck" / "cards.inc").write_text(CARDS.replace("{20*lam}", "{21*lam}"))
+    lean = used_only(deck, str(tmp_path / "deck"))
+    assert "pclm={21*lam}" in lean and lean == _fresh(monkeypatch, deck, tmp_path / "deck")
+
+
+# The second deck of each pair: a line of the deck's own changed, the library line the same. The first has a cell of its own.
+OWN_CELL = ".subckt clamp a\nm1 a a 0 0 nch w=1u l=1u\n.ends clamp\nx3 out clamp\n"
+OWN_LINES = [
+    (lambda d: d.replace("m1 a a 0 0 nch", "m1 a a 0 0 pch"), "the deck's own cell using another card of the library"),
+    (lambda d: d.replace(".option seed=1", ".option seed=2"), "another seed: the same names used"),
+    (lambda d: d.replace("cl out 0 1p", "cl out 0 1p\nm2 out in 0 0 pch w=1u l=1u"), "an element using one more card"),
+    (lambda d: d.replace("xr vdd out rpoly w=2 l=40\n", ""), "the cell's one instance gone"),
+    (lambda d: d.replace("cl out 0 1p", "cl out 0 1p\nx2 out esd\n.model dio d (is=2e-14)"),
+     "a cell of the library using a card the deck defines too: both definitions kept"),
+    (lambda d: d + "m2 out in 0 0 pch w=1u l=1u\nx1 out esd\nx2 out in 0 hvcell\n", "every name used: left as written"),
+]
+
+
+@pytest.mark.parametrize(("second", "why"), OWN_LINES)
+def test_decks_differing_in_their_own_lines_are_written_out_as_by_fresh_processes(tmp_path, monkeypatch, second, why):
+    """Two decks reading the same library line that differ in a line of their own, read in turn and then the first
+    again, are each written out exactly as by a process that never read the library (reference: the same reading with
+    nothing kept)."""
+    _library(tmp_path)
+    first = CIRCUIT.format(lib="lib/invented.lib").replace("\n", "\n.option seed=1\n", 1) + OWN_CELL + ".end\n"
+    other = second(first.removesuffix(".end\n")) + ".end\n"
+    assert other != first and used_only(first, str(tmp_path)) is not None
+    for deck in (other, first):
+        assert used_only(deck, str(tmp_path)) == _fresh(monkeypatch, deck, tmp_path), why

@@ -16,12 +16,12 @@ from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
 from netloop.jobs.corners.journal import Journal, default_results_path, fingerprints
 from netloop.jobs.corners.plan import AUTO, IN_PLACE, Plan
 from netloop.jobs.corners.progress import Progress
-from netloop.jobs.corners.worker import TaskOptions, files_state, read_key, run_task
+from netloop.jobs.corners.worker import TaskOptions, files_state, read_key, run_chunk, run_task
 from netloop.errors import NetlistError, NetloopError, PlanError
 from netloop.netlist import Netlist, parse_file
 
-__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "checked_plan", "dask_client", "load_groups", "local_cluster", "run_plan", "run_tasks",
-           "share_out"]
+__all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "checked_plan", "chunk_size", "dask_client", "load_groups", "local_cluster",
+           "run_plan", "run_tasks", "share_out"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -262,9 +262,11 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
 
 def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, cluster: str | None = None,
               out: str | Path | None = None, resume: bool = False, force: bool = False, progress: bool = False,
-              noun: str = "corners", netlists: dict[tuple, tuple] | None = None) -> CornerRun:
+              noun: str = "corners", netlists: dict[tuple, tuple] | None = None, chunk: int = 1) -> CornerRun:
     """Run the tasks (checked: `check_plan`, or another job's tasks built from its corners) not yet in the results
-    file, as `run_plan` does; ``noun`` names them on the progress bar; ``netlists`` (`checked_plan`'s) go to the workers."""
+    file, as `run_plan` does; ``noun`` names them on the progress bar; ``netlists`` (`checked_plan`'s) go to the workers.
+    ``chunk``: up to that many of a worker's tasks in one Dask task (`chunk_size`), for tasks so short that Dask's own
+    cost per task counts; their records reach the results file when their Dask task ends."""
     path = Path(out) if out is not None else default_results_path(plan.path)
     cache: dict[str, str] = {}
     inputs = {t.key: fingerprints(t.inputs, cache) for t in tasks}
@@ -281,7 +283,7 @@ def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, c
             needed = {read_key(t.corner) for t in pending}
             given = {k: v for k, v in (netlists or {}).items() if k in needed}
             workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
-                           inputs=inputs, netlists=given)
+                           inputs=inputs, netlists=given, chunk=chunk)
     finally:
         journal.close()
         bar.finish()
@@ -311,8 +313,14 @@ def _fetch(client, batch: list) -> list[tuple[object, tuple[dict, ...] | None]]:
     return [(f, got.get(id(f))) for f in batch]
 
 
+def chunk_size(tasks: int, chunk: int) -> int:
+    """How many of a worker's ``tasks`` go in one Dask task: up to ``chunk``, and at most a quarter of them, so that a
+    worker's results still arrive in four parts or more (the progress bar moves, a killed run loses little)."""
+    return max(1, min(chunk, tasks // 4))
+
+
 def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None,
-         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple]) -> int:
+         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple], chunk: int = 1) -> int:
     from distributed import as_completed
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
@@ -329,17 +337,28 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
         for address, tasks in zip(addresses or [None], lists):
             if not tasks:
                 continue
-            keys = [f"netloop-corner-{i:05d}-{t.key}-{run_id}" for i, t in enumerate(tasks)]
+            size = chunk_size(len(tasks), chunk)
+            parts = [tuple(tasks[i:i + size]) for i in range(0, len(tasks), size)]
+            keys = [f"netloop-corner-{i:05d}-{part[0].key}-{run_id}" for i, part in enumerate(parts)]
             place = {"workers": [address], "allow_other_workers": True} if address else {}
-            futures.update(zip(client.map(run_task, tasks, options=options, netlists=given, key=keys, pure=False, **place), tasks, strict=True))
+            if size == 1:
+                sent = client.map(run_task, tasks, options=options, netlists=given, key=keys, pure=False, **place)
+            else:
+                sent = client.map(run_chunk, parts, options=options, netlists=given, key=keys, pure=False, **place)
+            futures.update(zip(sent, ((part, size > 1) for part in parts), strict=True))
         # the futures that finished together are fetched in one round trip to the scheduler
         for batch in as_completed(futures).batches():
-            for future, records in _fetch(client, batch):
-                task = futures[future]
-                records = records if records is not None else _lost(task, future.exception())
-                records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
-                journal.write(records)
-                by_key[task.key] = records
-                loads = [r.get("loads") for r in records]
-                bar.advance(any(r["outcome"] != "pass" for r in records), sum(loads) if None not in loads else None)
+            for future, value in _fetch(client, batch):
+                part, chunked = futures[future]
+                if value is None:
+                    failed = future.exception()
+                    results = [_lost(task, failed) for task in part]
+                else:
+                    results = list(value) if chunked else [value]
+                for task, records in zip(part, results, strict=True):
+                    records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
+                    journal.write(records)
+                    by_key[task.key] = records
+                    loads = [r.get("loads") for r in records]
+                    bar.advance(any(r["outcome"] != "pass" for r in records), sum(loads) if None not in loads else None)
     return workers

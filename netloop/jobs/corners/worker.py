@@ -15,14 +15,15 @@ from netloop.errors import NetloopError, SimulationError
 from netloop.jobs.measure import Sweep, measure
 from netloop.netlist import parse_file
 
-__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "files_state", "in_place_changes", "read_key", "run_task", "use_netlists",
-           "worker_simulator"]
+__all__ = ["TaskOptions", "close_simulator", "corner_netlist", "files_state", "in_place_changes", "read_key", "run_chunk", "run_task",
+           "sample_decisions", "use_netlists", "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
 _READ: dict[tuple, tuple[object, tuple]] = {}  # corner netlists this worker read: (netlist, its files' state) by what it was read from
 _READ_KEEP = 8
 _REREAD = ("lib", "include")  # the settings apply_settings reads the files again for (process arrives expanded into them)
 _GIVEN: dict[tuple, tuple[object, tuple]] = {}  # the netlists the plan's check read, sent with the task (run_task's ``netlists``)
+_DECISIONS: dict[tuple, dict] = {}  # split decisions kept for the samples of a corner (measure's ``decisions``), _READ_KEEP at most
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,6 +113,20 @@ def _kept(key: tuple, read):
     return kept[0]
 
 
+def sample_decisions(corner, netlist) -> dict | None:
+    """For a statistical sample (a corner with a seed), measure's ``decisions``: where and how its node is split, kept for
+    every sample of the corner, whose netlists differ only in ngspice's seed, while the files read are unchanged; None for
+    a corner without a seed (no other task shares its netlist)."""
+    if not any(s.kind == "seed" for s in corner.settings):
+        return None
+    key = (corner.netlist, tuple((s.kind, s.target, s.value) for s in corner.settings if s.kind != "seed"), files_state(netlist.files))
+    decisions = _DECISIONS.pop(key, None)
+    _DECISIONS[key] = decisions = decisions if decisions is not None else {}  # the most recent last
+    while len(_DECISIONS) > _READ_KEEP:
+        del _DECISIONS[next(iter(_DECISIONS))]
+    return decisions
+
+
 def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
     """The corner's settings that ngspice can change on a loaded circuit, as netloop.sim.Change records:
     the temperature, supply DC values, top-level .param values and R, C, L values (as apply_settings writes them)."""
@@ -193,7 +208,8 @@ def run_task(task: Task, options: TaskOptions, netlists: dict[tuple, tuple] | No
         else:
             results = [measure(netlist, task.at, driver=options.driver, method=options.method, sweep=options.sweep,
                                open_loop_rhp_poles=options.open_loop_rhp_poles, requirements=options.requirements,
-                               simulator=simulator, label=task.corner.name, timeout_s=options.timeout_s)]
+                               simulator=simulator, label=task.corner.name, timeout_s=options.timeout_s,
+                               decisions=sample_decisions(task.corner, netlist))]
     except SimulationError as exc:
         return (_record(task, task.at, started, outcome="error", error=str(exc), output=exc.simulator_output or None),)
     except NetloopError as exc:
@@ -205,3 +221,9 @@ def run_task(task: Task, options: TaskOptions, netlists: dict[tuple, tuple] | No
         doc = to_document(replace(r, label=task.corner.name))
         records.append(_record(task, r.breaks.node, started, loop=doc, outcome=r.verdict, sim_seconds=r.sim.seconds, loads=r.sim.loads))
     return tuple(records)
+
+
+def run_chunk(tasks: tuple[Task, ...], options: TaskOptions, netlists: dict[tuple, tuple] | None = None) -> tuple[tuple[dict, ...], ...]:
+    """run_task on each task in order, in one Dask task: each task's records, in the order of ``tasks``."""
+    return tuple(run_task(task, options, netlists) for task in tasks)
+

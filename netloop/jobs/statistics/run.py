@@ -14,7 +14,12 @@ from netloop.jobs.statistics.plan import SamplePlan
 from netloop.jobs.statistics.samples import SEPARATOR, sample_tasks
 from netloop.jobs.statistics.summary import YieldStatistics, summarise
 
-__all__ = ["SampleRun", "rerun_sample", "run_samples"]
+__all__ = ["SAMPLE_CHUNK", "SampleRun", "rerun_sample", "run_samples"]
+
+# Samples a Dask task runs at most (netloop.jobs.corners.runner.chunk_size): a sample takes about 0.2 s on the sky130 Miller
+# buffer, and Dask's own cost of a task, about 2 ms of CPU in the worker and 2 ms in the calling process (measured with
+# trivial tasks on the development machine), would otherwise be a tenth of netloop's share of it (benchmarks/yield_speed.py).
+SAMPLE_CHUNK = 4
 
 
 @dataclass(frozen=True, slots=True)
@@ -41,12 +46,13 @@ def run_samples(splan: SamplePlan, *, workers: int | None = None, cluster: str |
     """Measure every sample at every corner of the plan (those not yet in the results file), then the statistics.
 
     Each sample is a corner task with its seed (netloop.jobs.statistics.samples) run as corner runs are
-    (netloop.jobs.corners.run_tasks): on Dask workers with their own ngspice, each record appended to
-    the results file (default PLAN.results.jsonl) the moment it finishes, ``resume`` skipping the samples
-    it already holds. ``target`` and ``confidence`` (fractions) override the plan's."""
+    (netloop.jobs.corners.run_tasks): on Dask workers with their own ngspice, up to SAMPLE_CHUNK samples in
+    one Dask task, each record appended to the results file (default PLAN.results.jsonl) the moment its Dask
+    task finishes, ``resume`` skipping the samples it already holds (a killed run measures those of its
+    unfinished Dask tasks again). ``target`` and ``confidence`` (fractions) override the plan's."""
     tasks = sample_tasks(splan)
     run = run_tasks(splan.plan, tasks, jobs=workers, cluster=cluster, out=out, resume=resume, force=force, progress=progress,
-                    noun="samples")
+                    noun="samples", chunk=SAMPLE_CHUNK)
     confidence = confidence if confidence is not None else splan.confidence
     target = target if target is not None else splan.target
     statistics = summarise(run.records, [r.text for r in splan.plan.requirements], confidence=confidence, target=target)

@@ -48,3 +48,15 @@ def test_a_resonance_between_samples_is_sampled_densely_until_the_count_is_relia
     wn, w1 = W * F0, W * 1e3
     char = np.polyadd(np.polymul([1 / w1, 1], [1, 2 * ZETA * wn, wn**2]), [0.5 * wn**2])
     assert np.all(np.roots(char).real < 0)
+
+
+def test_the_measured_analysis_is_the_whole_analysis_of_the_final_samples():
+    """After refinement rounds, the analysis sample_loops returns (its last draft, finished) is analyse()'s whole analysis of
+    the samples it ends with, field for field and bit for bit, not one of an earlier round's samples; stable, as the closed
+    loop's roots say (numpy.roots, as above)."""
+    a, info = _sample(Sweep(fmin_hz=1.0, fmax_hz=1e9, fmin_given=True, fmax_given=True))
+    assert info.refinement_rounds >= 1 and a.poles is not None
+    whole = analyse(a.freq_hz, a.t, open_loop_rhp_poles=0)  # the P sample_loops was given
+    assert repr(a) == repr(whole) and a == whole  # floats in repr are exact
+    assert a.freq_hz.tobytes() == whole.freq_hz.tobytes() and a.t.tobytes() == whole.t.tobytes()
+    assert a.stable and a.freq_hz.size > 91  # the rounds added samples to the first sweep's 91

@@ -174,3 +174,34 @@ def test_samples_crossed_with_corners_are_the_same_die_at_each(tmp_path, schedul
     for r in run.run.records[::3]:
         again = _document(rerun_sample(plan, r["corner"])[0])
         assert again["loop_gain"] == r["loop"]["loop_gain"]
+
+
+def test_a_lost_chunk_of_samples_is_recorded_sample_by_sample(tmp_path, scheduler, monkeypatch):
+    """Samples go to the workers in chunks (SAMPLE_CHUNK, netloop.jobs.corners.runner.chunk_size): when a chunk's worker
+    fails outright, each of its samples gets the record a lost corner gets (an "error" naming the worker's failure, no
+    loop), written to the results file, and every other sample is measured, its T still its own seed's (each pass
+    record's gm1 differs, and its seed reruns bit for bit)."""
+    from netloop.jobs.corners import read_records, runner
+
+    measure_chunk = runner.run_chunk
+
+    def lost(tasks, options, netlists=None):  # run_chunk's own signature
+        if any(t.corner.name == "nominal#5" for t in tasks):
+            raise RuntimeError("worker lost")
+        return measure_chunk(tasks, options, netlists)
+
+    monkeypatch.setattr(runner, "run_chunk", lost)
+    (tmp_path / "loop.cir").write_text(LOOP)
+    (tmp_path / "plan.toml").write_text('netlist = "loop.cir"\nat = "out"\n[samples]\ncount = 16\n')
+    plan = load_sample_plan(tmp_path / "plan.toml")
+    run = run_samples(plan, cluster=scheduler, out=tmp_path / "r.jsonl")
+    assert runner.chunk_size(16 // 2, 4) == 2  # 8 samples a worker: chunks of two
+    errors = [r for r in run.run.records if r["outcome"] == "error"]
+    assert len(errors) == 2 and "nominal#5" in {r["corner"] for r in errors}
+    assert all("the worker failed: RuntimeError('worker lost')" in r["error"] and r["loop"] is None for r in errors)
+    measured = [r for r in run.run.records if r["outcome"] != "error"]
+    assert len(measured) == 14 and len({gain_of(r) for r in measured}) == 14
+    written, _ = read_records(tmp_path / "r.jsonl")
+    assert sorted(r["corner"] for r in written if r.get("record") == "corner") == sorted(f"nominal#{i}" for i in range(1, 17))
+    again = _document(rerun_sample(plan, measured[-1]["corner"])[0])
+    assert again["loop_gain"] == measured[-1]["loop"]["loop_gain"]
