@@ -1,4 +1,4 @@
-"""A plain one-line progress bar on stderr: done/total, failures, circuit loads, elapsed time and an estimate of what is left."""
+"""A plain one-line progress bar (30 cells unless told) on stderr: done/total, failures, circuit loads, elapsed time and an estimate of what is left."""
 
 from __future__ import annotations
 

@@ -51,6 +51,7 @@ def test_share_out_deals_the_largest_chunk_first_and_leaves_spare_workers_idle()
     a, b, c, d = ["a1", "a2", "a3", "a4", "a5"], ["b"], ["c"], ["d"]
     assert share_out([b, a, c, d], 2) == [a + d, b + c]
     assert share_out([b, c, d], 4) == [b, c, d, []]
+    assert share_out([b, c, d], 0) == []  # no worker: nothing is dealt (common practice)
 
 
 def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
@@ -321,3 +322,46 @@ def test_progress_and_summary_count_the_loads(tmp_path, scheduler, capsys, share
         summary += "; 2 ran on a circuit another corner had loaded, with its temperature, supplies, parameters or element values changed in place (share_loads)"
     assert summary + "\n" in printed.out
 
+
+
+def test_the_progress_bar_has_thirty_cells_and_fills_by_the_share_done():
+    """The bar is 30 cells unless told (netloop/jobs/corners/progress.py) and fills by the share done: 2 of 4 is 15 of 30."""
+    from io import StringIO
+
+    from netloop.jobs.corners.progress import Progress
+
+    out = StringIO()
+    bar = Progress(4, enabled=True, stream=out)
+    bar.advance(False)
+    bar.advance(True)
+    assert out.getvalue().split("\r")[-1].startswith("[" + "#" * 15 + "." * 15 + "] 2/4 corners, 1 failed")
+
+
+class _Finished:
+    """A Dask future that has finished: its result, or the error fetching it raises (a worker lost with the data)."""
+
+    status = "finished"
+
+    def __init__(self, value):
+        self.value = value
+
+    def result(self):
+        if isinstance(self.value, Exception):
+            raise self.value
+        return self.value
+
+
+class _LostData:
+    """A Dask client whose fetch of several results at once fails, as when one of the workers holding them is lost."""
+
+    def gather(self, futures):
+        raise OSError("worker lost")
+
+
+def test_a_failed_fetch_of_a_batch_fetches_each_result_alone():
+    """When fetching a batch fails, each finished future is fetched alone: its records, or None where that fetch fails too
+    (runner._fetch's contract; the caller records None as a corner whose worker failed)."""
+    from netloop.jobs.corners.runner import _fetch
+
+    kept, lost = _Finished(({"record": "corner", "key": "a"},)), _Finished(OSError("gone"))
+    assert _fetch(_LostData(), [kept, lost]) == [(kept, kept.value), (lost, None)]
