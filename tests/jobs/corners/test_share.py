@@ -365,3 +365,29 @@ def test_a_failed_fetch_of_a_batch_fetches_each_result_alone():
 
     kept, lost = _Finished(({"record": "corner", "key": "a"},)), _Finished(OSError("gone"))
     assert _fetch(_LostData(), [kept, lost]) == [(kept, kept.value), (lost, None)]
+
+
+def test_the_progress_bar_estimates_the_time_left_at_the_rate_so_far():
+    """The estimate is the time so far per corner done times the corners left (a constant rate): 1 of 4 done after 10 s
+    leaves about 30 s."""
+    import time
+    from io import StringIO
+
+    from netloop.jobs.corners.progress import Progress
+
+    out = StringIO()
+    bar = Progress(4, enabled=True, stream=out)
+    bar.started = time.monotonic() - 10.0
+    bar.advance(False)
+    elapsed, left = map(int, re.search(r", (\d+) s, about (\d+) s left\s*$", out.getvalue()).groups())
+    assert elapsed >= 10 and abs(left - 3 * elapsed) <= 2  # whole seconds as shown
+
+
+def test_run_tasks_draws_no_progress_bar_unless_asked(tmp_path, capsys):
+    """A library call of run_tasks writes nothing to stderr unless progress is asked for, as run_plan (the CLI asks only for
+    a terminal or --progress, netloop/cli/corners_cmd.py)."""
+    from netloop.jobs.corners.runner import run_tasks
+
+    plan, _ = _tasks(tmp_path, '[axes]\ntemp = [27]\n')
+    run = run_tasks(plan, (), out=tmp_path / "r.jsonl")
+    assert run.records == () and capsys.readouterr().err == ""
