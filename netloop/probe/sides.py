@@ -43,6 +43,7 @@ _CONTROL = {"M": "g", "Q": "b", "J": "g", "Z": "g"}
 _BULK = frozenset({"b", "sub"})
 _PASSIVE_PATH = frozenset("RCL")
 _ACTIVE = frozenset("MQJZEGFHBX")
+_TRANSISTOR_KINDS = frozenset("MQJZX")  # X: a device wrapper or a block, whose terminals on both ends make it a diode connection
 _LOCAL_DEPTH = 3  # passive elements in a compensation path around a stage (Cc and Rz are two)
 _STAGE_DEPTH = 2  # active stages a compensation path may wrap (Miller: one; nested Miller: two)
 
@@ -687,7 +688,7 @@ def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
             parts.append(f"{b.element} on the load side ({b.reason})")
     for t in tied:
         parts.append(f"{t.label} goes with {t.tied}: its element has another terminal beyond that source, which has no AC "
-                     "impedance, so it is one unit across it" + (" (diode-connected)" if t.role == "shunt" else ""))
+                     "impedance, so it is one unit across it" + (_across_note(t.element) if t.role == "shunt" else ""))
     return "; ".join(parts) + _shunt_note(tuple(t for t in shunt if not t.tied)) + "."
 
 
@@ -720,12 +721,23 @@ def _signal_distances(near: _Neighbourhood, node: str, t: Terminal) -> tuple[flo
     return to_out, to_in
 
 
+def _across_note(e: Element) -> str:
+    """What a one-port across a 0 V source at the node is: a transistor whose terminals sit on its two ends is
+    diode-connected; any other element there has no AC voltage across it, so no AC current."""
+    return " (diode-connected)" if e.kind in _TRANSISTOR_KINDS else " (no AC voltage across it, so no AC current in it)"
+
+
 def _shunt_note(shunt: tuple[Terminal, ...]) -> str:
     if not shunt:
         return ""
     oneports = sorted({t.label.rsplit(".", 1)[0] for t in shunt if t.whole})
-    note = (f"; {', '.join(t.label for t in shunt)} connect{'s' if len(shunt) == 1 else ''} the node only to AC ground, "
-            "which never changes T; placed on the load side (either side gives the same T)")
+    grounded = [t.label for t in shunt if t.element.kind != "I"]
+    sources = [t.label for t in shunt if t.element.kind == "I"]
+    said = [f"{', '.join(grounded)} connect{'s' if len(grounded) == 1 else ''} the node only to AC ground"] if grounded else []
+    if sources:
+        said.append(f"{', '.join(sources)} {'is an independent current source' if len(sources) == 1 else 'are independent current sources'} "
+                    "(no AC current, no AC admittance)")
+    note = f"; {' and '.join(said)}, which never changes T; placed on the load side (either side gives the same T)"
     if oneports:
         note += f" ({', '.join(oneports)}: several terminals on the node, a one-port placed whole, e.g. a diode connection)"
     return note

@@ -252,8 +252,9 @@ THROUGH = (
 FOLLOWER = (
     "driver side: mp.s (outputs: drain, collector, controlled-source or instance output, or a follower's source/emitter); "
     "with cc (closes a local loop around the driver stage mp (back to gate): kept with it); load side: r1.p; r1 on the load "
-    "side (leads on into the loop: it wraps no stage that the loop measured passes through); co.p, il.p connect the node only "
-    "to AC ground, which never changes T; placed on the load side (either side gives the same T).")
+    "side (leads on into the loop: it wraps no stage that the loop measured passes through); co.p connects the node only "
+    "to AC ground and il.p is an independent current source (no AC current, no AC admittance), which never changes T; placed "
+    "on the load side (either side gives the same T).")
 ONE_PORTS = (
     "driver side: m4.d (outputs: drain, collector, controlled-source or instance output); load side: m2.g; m1.d, m1.g, rb.n "
     "connect the node only to AC ground, which never changes T; placed on the load side (either side gives the same T) (m1: "
@@ -315,3 +316,33 @@ def test_the_sentence_says_the_split_and_each_reason(text, at, sentence):
     """decided_by names the driver side and why, each bridge and where it went, the load side, series sources, ties and shunts."""
     _, _, split = locate_split(parse_text(text), at)
     assert split.decided_by == sentence
+
+
+# An invented loop: a controlled-source amplifier, resistive feedback r1 to fb, a current source i1 from fb to out (a bias
+# current between two signal nodes), and at out a 0 V sense source vs with a resistor rs across it.
+_ACROSS = """current source between signal nodes, resistor across a sense source (invented)
+Vin in 0 dc 0 ac 1
+E1 out 0 in fb 1000
+R1 out fb 1k
+R2 fb 0 1k
+I1 fb out dc 1u
+Vs out outs dc 0
+Rs out outs 1k
+Cl outs 0 1p
+Rf outs fb2 1k
+"""
+
+
+def test_a_current_source_and_a_resistor_across_a_sense_source_are_described_as_what_they_are():
+    """An independent current source on the node is named as such, not as a connection to AC ground (its AC current is 0
+    and an ideal source has no AC admittance, so it never changes T); a resistor across a 0 V source at the node is not
+    called diode-connected (Kirchhoff: no AC voltage across it, so no AC current); a transistor there still is
+    (test_split_rules.py). The sentences word for word."""
+    nl = parse_text(_ACROSS)
+    assert break_loop(nl, "fb").decided_by.endswith(
+        "load side: e1.cn; r2.p connects the node only to AC ground and i1.p is an independent current source (no AC current, "
+        "no AC admittance), which never changes T; placed on the load side (either side gives the same T).")
+    assert break_loop(nl, "out").decided_by.endswith(
+        "rs.p goes with vs.p: its element has another terminal beyond that source, which has no AC impedance, so it is one unit "
+        "across it (no AC voltage across it, so no AC current in it); i1.n is an independent current source (no AC current, "
+        "no AC admittance), which never changes T; placed on the load side (either side gives the same T).")
