@@ -208,3 +208,12 @@ def test_an_unreachable_scheduler_is_one_line_exit_2_and_leaves_no_results_file(
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and err[0].startswith("netloop: error: cannot reach a Dask scheduler at 'garbage'")
     assert not out.exists()
+
+
+def test_a_local_cluster_has_no_more_workers_than_corners(tmp_path):
+    """Without --jobs a run starts one worker process per corner up to the CPUs (common practice: no idle workers), so a
+    one-corner plan runs on one worker, and its corner is measured."""
+    plan = tmp_path / "one.toml"
+    plan.write_text(f'netlist = "{MILLER}"\nat = "out"\n\n[[corner]]\nname = "room"\ntemp = 27\n')
+    run = run_plan(load_plan(plan), out=tmp_path / "r.jsonl")
+    assert run.workers == 1 and [r["corner"] for r in run.records] == ["room"]
