@@ -150,11 +150,16 @@ def test_a_diode_connected_through_a_sense_source_goes_whole_with_the_source(nod
     assert "goes with vsense" in p.decided_by and "one unit across it" in p.decided_by
 
 
-def test_driver_naming_the_sense_source_takes_the_diode_across_it():
-    """--driver naming a 0 V source takes the element diode-connected through it too (an element goes whole)."""
+@pytest.mark.parametrize("node, driver", [
+    ("cmfb", {"vsense.n", "mc4.g"}),  # the source's second terminal on the node
+    ("cmd", {"vsense.p", "mc4.d"}),  # its first
+])
+def test_driver_naming_the_sense_source_takes_the_diode_across_it(node, driver):
+    """--driver naming a 0 V source takes the element diode-connected through it too (an element goes whole), at either
+    end of the source."""
     # Reference: as above (a diode is one element).
-    p = break_loop(parse_text(SENSED_DIODE), "cmfb", driver="vsense")
-    assert set(p.driver_terminals) == {"vsense.n", "mc4.g"}
+    p = break_loop(parse_text(SENSED_DIODE), node, driver="vsense")
+    assert set(p.driver_terminals) == driver
 
 
 def test_the_net_outside_a_block_that_drives_the_node_is_a_load_beside_an_output_out_there(circuits):
