@@ -303,7 +303,8 @@ def test_sky130_plan_sections_equal_check_on_netlists_edited_by_hand(tmp_path, s
 def test_progress_and_summary_count_the_loads(tmp_path, scheduler, capsys, share):
     """`netloop corners --progress` on two sections x two temperatures: the bar and the summary say how often ngspice read
     the netlist and how many corners ran on a loaded circuit: two loads (one per section, the plan's only load-needing
-    axis) with share_loads, four without, as the records' own counts say."""
+    axis) with share_loads, four without, as the records' own counts say; the corners go to the workers as share_out deals
+    the load groups (one a corner without share_loads)."""
     from netloop.cli.main import main
     from netloop.jobs.corners import read_records
 
@@ -317,6 +318,10 @@ def test_progress_and_summary_count_the_loads(tmp_path, scheduler, capsys, share
     loads, shared = (2, 2) if share else (4, 0)
     assert sum(r["loads"] for r in records) == loads and sum(r["loads"] == 0 for r in records) == shared
     assert f"4/4 corners, 0 failed, {loads} loads ({shared} corners on a loaded circuit)" in printed.err.split("\r")[-1]
+    # which corners ran on one worker, worked by hand from share_out's rule: with share_loads each section's load group
+    # whole on a worker of its own; without, four one-corner groups dealt out in turn
+    together = sorted(sorted(r["corner"] for r in records if r["worker"] == w) for w in {r["worker"] for r in records})
+    assert together == ([["ss/27C", "ss/85C"], ["tt/27C", "tt/85C"]] if share else [["ss/27C", "tt/27C"], ["ss/85C", "tt/85C"]])
     summary = f"circuit loads: {loads} for 4 corners"
     if share:
         summary += "; 2 ran on a circuit another corner had loaded, with its temperature, supplies, parameters or element values changed in place (share_loads)"
