@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from netloop.cli.main import main
-from netloop.jobs.corners import load_plan, read_records, run_plan
+from netloop.jobs.corners import check_plan, load_plan, read_records, run_plan
 from netloop.jobs.corners.runner import LOCAL_CLUSTER_CONFIG, local_cluster
 from netloop.jobs.measure import measure
 
@@ -217,3 +217,22 @@ def test_a_local_cluster_has_no_more_workers_than_corners(tmp_path):
     plan.write_text(f'netlist = "{MILLER}"\nat = "out"\n\n[[corner]]\nname = "room"\ntemp = 27\n')
     run = run_plan(load_plan(plan), out=tmp_path / "r.jsonl")
     assert run.workers == 1 and [r["corner"] for r in run.records] == ["room"]
+
+
+def test_corners_sent_in_chunks_give_the_records_of_one_task_each(tmp_path, scheduler):
+    """Sixteen corners on two workers sent two to a Dask task (chunk=2, as the statistics job sends samples) give the
+    same outcomes and phase margins as the same corners sent one to a task (the reference run)."""
+    from netloop.jobs.corners.runner import chunk_size, run_tasks
+
+    plan_path = tmp_path / "plan.toml"
+    plan_path.write_text(f'netlist = "{MILLER}"\nat = "out"\n\n[axes]\nlib = ["tt", "ss"]\ntemp = [-40, -20, 0, 20, 40, 60, 80, 100]\n')
+    plan = load_plan(plan_path)
+    tasks = check_plan(plan)
+    assert chunk_size(len(tasks) // 2, 2) == 2  # eight tasks a worker: two to a Dask task
+
+    def measured(run):
+        return [(r["corner"], r["outcome"], r["loop"]["margins"]["phase_margin_deg"] if r["loop"] else None) for r in run.records]
+
+    one = run_tasks(plan, tasks, cluster=scheduler, out=tmp_path / "one.jsonl")
+    two = run_tasks(plan, tasks, cluster=scheduler, out=tmp_path / "two.jsonl", chunk=2)
+    assert measured(two) == measured(one) and {r["outcome"] for r in one.records} <= {"pass", "fail"}
