@@ -161,12 +161,13 @@ def summary(package: str, found: dict[str, str], equivalent: dict[str, str], sam
     """
     if sample is not None:
         found = {n: v for n, v in found.items() if n in set(sample["names"])}
-    unchecked = sorted(n for n, v in found.items() if v == "not checked")
+    # a mutant judged equivalent is not tested again (--again skips it), so "not checked" is no gap for it
+    unchecked = sorted(n for n, v in found.items() if v == "not checked" and n not in equivalent)
     tested = {n: v for n, v in found.items() if v != "not checked"}
     killed = [n for n, v in tested.items() if v in KILLED]
-    judged = [n for n in tested if n in equivalent and tested[n] not in KILLED]
+    judged = [n for n, v in found.items() if n in equivalent and v not in KILLED]
     survived = sorted(n for n, v in tested.items() if v not in KILLED and n not in equivalent)
-    counted = len(tested) - len(judged)
+    counted = len(killed) + len(survived)
     rate = 100.0 * len(killed) / counted if counted else 100.0
     lines = [f"{package}: {len(killed)} of {counted} non-equivalent mutants killed ({rate:.1f} %); "
              f"{len(judged)} judged equivalent (tools/mutate_equivalent.json), {len(survived)} survived"]

@@ -101,3 +101,31 @@ def test_a_finished_draft_ends_its_warnings_with_the_pole_fit_notes():
     assert whole.warnings[: len(draft.analysis.warnings)] == draft.analysis.warnings and len(whole.warnings) > len(draft.analysis.warnings)
     assert "equals -1" in whole.warnings[-1] and whole.poles is None
     assert whole.margins.modulus_margin < 1e-12
+
+
+def test_p_read_from_the_fit_leaves_no_stale_disagreement():
+    """T = 30/((s - 1)(s/10 + 1)) has P = 1 (python-control's poles) and Z = 0 (numpy.roots of den + num): the draft's count
+    with P assumed 0 (Z = -1) disagrees with the fit's 0, but once P is read from the fit the two agree, so the finished
+    analysis carries no note of a disagreement."""
+    loop, f, t = _data("RHP pole, P from the fit")
+    (num, den), _, _ = LOOPS["RHP pole, P from the fit"]
+    assert int(np.sum(np.real(control.poles(loop)) > 0)) == 1 and closed_loop_rhp_roots(num, den) == 0
+    draft = analyse_draft(f, t)
+    assert draft.analysis.nyquist.closed_loop_rhp_poles == -1  # N = -1, P assumed 0
+    whole = finish(draft)
+    assert whole.nyquist.closed_loop_rhp_poles == 0 and whole.poles.agrees_with_nyquist
+    assert not any("pole fit finds" in w for w in whole.warnings)
+
+
+def test_analyse_fits_the_poles_to_the_tolerance_asked():
+    """analyse() hands pole_fit_rtol to the fit: T = 100/(1 + s) (1 + 1e-4 s/(s + 10)) (closed-loop poles -101.01 and -10,
+    numpy.roots of s^2 + 111.01 s + 1010) fitted to 1e-3 stops with the one dominant pole (scipy's AAA stopping rule, as
+    tests/analysis/test_poles_pairs.py shows for closed_loop_poles), fitted to the default 1e-10 gives both."""
+    f = np.logspace(-2, 4, 121)
+    s = 2j * math.pi * f
+    t = 100 / (1 + s) * (1 + 1e-4 * s / (s + 10))
+    exact = np.sort(np.roots([1.0, 111.01, 1010.0]).real)
+    loose = analyse(f, t, pole_fit_rtol=1e-3).poles
+    assert 1e-6 < loose.fit_error <= 1e-3
+    assert [p.real for p in loose.poles_rad_s] == pytest.approx([exact[0]], rel=1e-3)
+    assert len(analyse(f, t).poles.poles_rad_s) == 2

@@ -125,6 +125,7 @@ def test_nan_or_infinite_samples_raise_analysis_error(bad):
     [
         ([1, 2, 3], [1, 1, 1], r"^need at least 4 frequency samples to analyse a loop, got 3$"),
         ([1, 3, 2, 4], [1, 1, 1, 1], r"^frequencies must be strictly ascending: sample 2 \(2 Hz\) follows 3 Hz$"),
+        ([1, 2, 2, 3], [1, 1, 1, 1], r"^frequencies must be strictly ascending: sample 2 \(2 Hz\) follows 2 Hz$"),  # a repeat
         ([0, 1, 2, 3], [1, 1, 1, 1], r"^frequencies must be finite and positive \(Hz\)$"),
         ([1, 2, float("inf"), 4], [1, 1, 1, 1], r"^frequencies must be finite and positive \(Hz\)$"),
         ([1, 2, 3, 4], [1, 1, 1], r"^freq_hz has 4 samples but T has 3; expected one T per frequency$"),
