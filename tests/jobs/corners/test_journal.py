@@ -47,6 +47,15 @@ def test_a_file_that_cannot_be_read_is_fingerprinted_missing(tmp_path):
     assert fingerprints([str(gone), str(there)]) == {str(gone): "missing", str(there): hashlib.sha256(there.read_bytes()).hexdigest()}
 
 
+def test_closing_a_results_file_twice_is_harmless(tmp_path):
+    """A second close of a journal does nothing, as a second close of a Python file object (common practice)."""
+    journal = Journal.open(tmp_path / "r.jsonl", plan="p.toml", total=1, resume=False, force=False)
+    journal.write(({"record": "corner", "key": "a", "outcome": "pass"},))
+    journal.close()
+    journal.close()
+    assert [r.get("key") for r in read_records(tmp_path / "r.jsonl")[0]] == [None, "a"]
+
+
 def test_resume_keeps_every_record_of_a_task_from_the_last_run_that_wrote_it(tmp_path):
     """A task with one record a loop keeps all of them on resume, and a later run's records of a task replace an earlier run's."""
     path = tmp_path / "r.jsonl"

@@ -151,6 +151,7 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
         ('[axes]\nlib = ["tt", "  "]\n', "lib", "lib is empty$"),
+        ('[axes]\nlib = ["tt", true]\n', "lib", "lib must be a number or a string, got True$"),  # TOML's true
         ('[axes]\ntemp = [27, inf]\n', "temp", "temp must be finite, got inf$"),  # TOML's inf
         ('[axes]\nsupply.vdd = ["3.3", "1e999"]\n', "supply.vdd", "supply.vdd must be finite, got '1e999'$"),  # beyond a double
         ('[axes]\ntemp = {x = 1}\n', "temp", "temp must be a list of values, not a table$"),
