@@ -36,6 +36,17 @@ def test_a_whole_line_that_is_not_json_ends_the_good_part(tmp_path):
     assert [r["key"] for r in records] == ["a", "b"] and good == len(whole.encode())
 
 
+def test_a_file_that_cannot_be_read_is_fingerprinted_missing(tmp_path):
+    """fingerprints gives each readable file the SHA-256 of its bytes (hashlib, FIPS 180-4) and a file that cannot be read
+    the word "missing", which the results file shows."""
+    import hashlib
+
+    there = tmp_path / "m.lib"
+    there.write_bytes(b".lib tt\n.endl\n")
+    gone = tmp_path / "gone.lib"
+    assert fingerprints([str(gone), str(there)]) == {str(gone): "missing", str(there): hashlib.sha256(there.read_bytes()).hexdigest()}
+
+
 def test_resume_keeps_every_record_of_a_task_from_the_last_run_that_wrote_it(tmp_path):
     """A task with one record a loop keeps all of them on resume, and a later run's records of a task replace an earlier run's."""
     path = tmp_path / "r.jsonl"
@@ -74,7 +85,8 @@ def test_a_second_run_on_a_held_results_file_refuses_and_leaves_it_alone(tmp_pat
     first = Journal.open(path, plan="p.toml", total=2, resume=False, force=False)
     first.write(({"record": "corner", "key": "a", "outcome": "pass"},))
     for resume, force in ((True, False), (False, True)):
-        with pytest.raises(NetloopError, match=r"r\.jsonl is in use by another netloop corners run.*--out"):
+        with pytest.raises(NetloopError, match=r"r\.jsonl is in use by another netloop corners run; wait for it to end, "
+                                               r"or give this run another file with --out$"):
             Journal.open(path, plan="p.toml", total=2, resume=resume, force=force)
     first.write(({"record": "corner", "key": "b", "outcome": "pass"},))
     first.close()
