@@ -143,3 +143,15 @@ def test_a_loop_of_higher_degree_is_fitted_with_more_terms():
     fit, notes = closed_loop_poles(f, np.polyval(num, s) / np.polyval(den, s), nyquist_rhp=0)
     assert not notes and len(fit.poles_rad_s) == 21
     assert np.sort_complex(np.array(fit.poles_rad_s)) == pytest.approx(np.sort_complex(exact), rel=1e-5)
+
+
+@pytest.mark.parametrize("gain", [1e4, 1e6])
+def test_a_loop_with_much_gain_at_every_frequency_keeps_its_pole(gain):
+    """T = K (1 + s/(2 pi 10))/(1 + s/(2 pi)) stays above K/10 over the sweep, so |1/(1+T)| is at most about 10/K there;
+    the fit still finds the one closed-loop pole, -(1 + K)/(1/p + K/z) (numpy.roots of den + num), however small S is."""
+    p, z = 2 * math.pi, 2 * math.pi * 10
+    f = np.logspace(-2, 3, 101)
+    s = 2j * math.pi * f
+    fit, notes = closed_loop_poles(f, gain * (1 + s / z) / (1 + s / p), nyquist_rhp=0)
+    (exact,) = np.roots(np.polyadd([1 / p, 1.0], [gain / z, gain]))
+    assert not notes and [q.real for q in fit.poles_rad_s] == pytest.approx([exact], rel=1e-9)
