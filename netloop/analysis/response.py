@@ -80,8 +80,9 @@ def anchored_phase_deg(t: np.ndarray, origin_poles: int = 0) -> np.ndarray:
 
     The asymptote's phase is arg(C) - 90 k with arg(C) = 0 (negative feedback at DC) or -180
     (positive feedback at DC); the unwrapped phase is shifted by whole turns so that the lowest
-    sample lies within 180 deg of it. Without poles at the origin and with negative feedback this
-    puts the low-frequency phase in (-180, 180]; a triple integrator starts near -270, not +90.
+    sample lies within 90 deg of the nearer of the two (tests/analysis/test_warning_figures.py).
+    Without poles at the origin and with negative feedback this puts the low-frequency phase in
+    (-180, 180]; a triple integrator starts near -270, not +90.
     """
     phase = np.degrees(np.unwrap(np.angle(t)))
     k = origin_poles

@@ -89,3 +89,23 @@ def test_a_loop_without_peaking_reads_its_level_at_the_bottom():
     assert a.peaking.reference_db == pytest.approx(level, abs=1e-12)
     assert a.peaking.absolute_peak_db == pytest.approx(level, abs=1e-9)
     assert a.peaking.peak_db == pytest.approx(0.0, abs=1e-9) and a.peaking.peak_freq_hz == pytest.approx(f[0], rel=1e-3)
+
+
+def test_a_minimum_at_the_top_of_the_sweep_is_read_there():
+    """T = 4/(1 + s)^3 swept up to 0.2 Hz ends before the loop comes closest to -1 (near w = sqrt 3, where T is real), so
+    over the sweep |1 + T| is smallest and |T/(1 + T)| largest at the top: both extrema are the closed form's values at
+    0.2 Hz (a minimum over an interval at its end)."""
+    import numpy as np
+
+    from netloop.analysis import analyse
+
+    def closed_form(f_hz):
+        return 4 / (1 + 2j * math.pi * f_hz) ** 3
+
+    f = np.logspace(-3, math.log10(0.2), 61)
+    a = analyse(f, closed_form(f), fit_poles=False)
+    top = closed_form(0.2)
+    assert a.margins.modulus_freq_hz == pytest.approx(0.2, rel=1e-12)
+    assert a.margins.modulus_margin == pytest.approx(abs(1 + top), rel=1e-9)
+    assert a.peaking.peak_freq_hz == pytest.approx(0.2, rel=1e-12)
+    assert a.peaking.absolute_peak_db == pytest.approx(20 * math.log10(abs(top / (1 + top))), abs=1e-9)

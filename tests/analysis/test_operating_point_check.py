@@ -28,7 +28,8 @@ def test_the_limits_fall_where_the_rule_puts_them(sources, floor, ceiling, end):
     assert OP_SPAN_FACTOR == 4.0  # the limits above were worked with this factor
     limit = floor if end == "floor" else ceiling
     inside, outside = limit * (1 - 1e-9), limit * (1 + 1e-9)  # toward 0 V is inside: both limits lie beyond ground
-    assert operating_point_check({"a": 0.5, "x": inside}, sources).passed
+    check = operating_point_check({"a": 0.5, "x": inside}, sources)
+    assert check.passed and check.name == "operating-point"  # passed or not, the record is the one check of that name
     check = operating_point_check({"a": 0.5, "x": outside}, sources)
     assert not check.passed and check.name == "operating-point"
     assert f"x at {outside:.4g} V" in check.detail and "a at" not in check.detail

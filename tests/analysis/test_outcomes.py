@@ -268,3 +268,18 @@ def test_peaking_of_a_loop_below_unity_is_measured_from_0_db():
     w = TWO_PI * 1e-3  # the bottom of the sweep, where the sampled curve is largest
     assert a.peaking.peak_db == a.peaking.absolute_peak_db == pytest.approx(10 * math.log10(0.25 / (2.25 + w**2 + w**4)), abs=1e-6)
     assert a.peaking.peak_freq_hz == pytest.approx(1e-3, rel=1e-6)  # the bottom of the sweep
+
+
+@pytest.mark.parametrize("fz_hz, bottom", [(30.0, 1.02), (30.0, 1.05), (10.0, 1.1)])
+def test_a_double_integrator_swept_from_just_above_its_crossing_counts_a_closed_contour(fz_hz, bottom):
+    """T = (w0/s)^2 (1 + s/wz)/(1 + s/wp) with |T| just above 1 at the bottom (1 Hz): the detour below the sweep turns T
+    once around at |T(1 Hz)|, passing just outside -1, and meets the data where it starts, so the angle of 1 + T closes
+    to a whole number of turns (the argument principle) and the count is reliable, with Z = N + P = 0 as numpy.roots of
+    the characteristic polynomial s^2 (1 + s/wp) + w0^2 (1 + s/wz) gives (P = 0: the integrators sit on the detour's left)."""
+    w0, wz, wp = TWO_PI * math.sqrt(bottom), TWO_PI * fz_hz, TWO_PI * 1e3
+    f = np.logspace(0, 5, 101)
+    s = 2j * np.pi * f
+    a = analyse(f, (w0 / s) ** 2 * (1 + s / wz) / (1 + s / wp), fit_poles=False)
+    char = np.polyadd(np.polymul([1 / wp, 1.0], [1.0, 0.0, 0.0]), [w0**2 / wz, w0**2])
+    assert a.nyquist.origin_poles == 2 and a.nyquist.reliable and a.nyquist.reasons == ()
+    assert a.nyquist.closed_loop_rhp_poles == int(np.sum(np.roots(char).real > 0)) == 0

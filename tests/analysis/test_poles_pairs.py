@@ -125,3 +125,33 @@ def test_a_short_sweep_is_fitted():
     poles, notes = closed_loop_poles(f, 100.0 / (1 + 2j * math.pi * f / 10.0), nyquist_rhp=0)
     (p,) = poles.poles_rad_s
     assert p.real == pytest.approx(-1010.0, rel=1e-6) and not notes
+
+
+def test_a_loop_of_higher_degree_is_fitted_with_more_terms():
+    """A lag-lead ladder of degree 21, T = 3 prod(1 + s/z_i) / (prod(1 + s/p_i) (1 + s/1e5)) with 20 poles p_i over 1 to
+    1e4 rad/s and each zero a tenth of a decade above its pole, has 21 closed-loop poles (numpy.roots of den + num),
+    more than a fit of 20 terms can hold (AAA of m terms is of type (m - 1, m - 1)): the fit goes on to more terms and
+    finds all 21, without a note."""
+    p = np.logspace(0, 4, 20)
+    z = p * 10 ** (4 / 20 / 2)
+    num = 3.0 * np.poly(-z) / np.prod(z)
+    den = np.polymul(np.poly(-p) / np.prod(p), [1e-5, 1.0])
+    f = np.logspace(-2, 6, 161)
+    s = 2j * math.pi * f
+    exact = np.roots(np.polyadd(den, num))
+    assert exact.size == 21 and np.all(np.abs(exact) < 2 * math.pi * f[-1])
+    fit, notes = closed_loop_poles(f, np.polyval(num, s) / np.polyval(den, s), nyquist_rhp=0)
+    assert not notes and len(fit.poles_rad_s) == 21
+    assert np.sort_complex(np.array(fit.poles_rad_s)) == pytest.approx(np.sort_complex(exact), rel=1e-5)
+
+
+@pytest.mark.parametrize("gain", [1e4, 1e6])
+def test_a_loop_with_much_gain_at_every_frequency_keeps_its_pole(gain):
+    """T = K (1 + s/(2 pi 10))/(1 + s/(2 pi)) stays above K/10 over the sweep, so |1/(1+T)| is at most about 10/K there;
+    the fit still finds the one closed-loop pole, -(1 + K)/(1/p + K/z) (numpy.roots of den + num), however small S is."""
+    p, z = 2 * math.pi, 2 * math.pi * 10
+    f = np.logspace(-2, 3, 101)
+    s = 2j * math.pi * f
+    fit, notes = closed_loop_poles(f, gain * (1 + s / z) / (1 + s / p), nyquist_rhp=0)
+    (exact,) = np.roots(np.polyadd([1 / p, 1.0], [gain / z, gain]))
+    assert not notes and [q.real for q in fit.poles_rad_s] == pytest.approx([exact], rel=1e-9)
