@@ -148,6 +148,7 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\ntemp = ["hot"]\n', "temp", "must be a number"),
         ('[axes]\nparam = ["1p"]\n', "param", "needs a name"),
         ('[axes]\nelement = ["1p"]\n', "element", r"needs a name, e\.g\. element\.cl"),
+        ('[[corner]]\nelement = "1p"\n', "element", r'needs a name, e\.g\. element\.cl = "3p"$'),  # one corner: one value
         ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
         ('[axes]\nlib = ["tt", "  "]\n', "lib", "lib is empty$"),
