@@ -148,8 +148,10 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
         ('[axes]\ntemp = ["hot"]\n', "temp", "must be a number"),
         ('[axes]\nparam = ["1p"]\n', "param", "needs a name"),
         ('[axes]\nelement = ["1p"]\n', "element", r"needs a name, e\.g\. element\.cl"),
+        ('[[corner]]\nelement = "1p"\n', "element", r'needs a name, e\.g\. element\.cl = "3p"$'),  # one corner: one value
         ('[axes]\nelement.cl = ["big"]\n', "element.cl", "must be a number"),
         ('[[corner]]\nlib = ["tt", "ss"]\n', "lib", "takes one value"),
+        ('[[corner]]\nlib = []\n', "lib", r"lib takes one value in a \[\[corner\]\]; lists belong in \[axes\]$"),
         ('[axes]\nlib = ["tt", "  "]\n', "lib", "lib is empty$"),
         ('[axes]\nlib = ["tt", true]\n', "lib", "lib must be a number or a string, got True$"),  # TOML's true
         ('[axes]\ntemp = [27, inf]\n', "temp", "temp must be finite, got inf$"),  # TOML's inf
@@ -275,3 +277,11 @@ def test_plan_values_with_units_mean_what_an_engineer_means(tmp_path):
     plan = load_plan(_plan(tmp_path, 'require = ["fc >= 100MHz", "dm >= 1ns"]\n[sweep]\nfmin_hz = "10mHz"\nfmax_hz = "2.5GHz"\n'))
     assert [r.threshold for r in plan.requirements] == [100e6, 1e-9]
     assert (plan.sweep.fmin_hz, plan.sweep.fmax_hz) == (0.01, 2.5e9)
+
+
+def test_lib_and_include_words_keep_their_case_and_other_names_are_lowered():
+    """File names and include paths are case-sensitive (POSIX file names), so include.TT and lib.Fam keep their case;
+    element, supply and param names are SPICE names, which ngspice reads case-insensitively (ngspice manual, General Structure and Conventions)."""
+    plan = parse_plan('netlist = "a.cir"\nat = "out"\n[axes]\ninclude.TT = ["TT", "SS"]\nlib.Fam = ["tt", "ss"]\n'
+                      'supply.VDD = [1, 2]\n')
+    assert [(a.kind, a.target) for a in plan.axes] == [("include", "TT"), ("lib", "Fam"), ("supply", "vdd")]
