@@ -106,6 +106,8 @@ def test_a_fit_that_contradicts_its_own_p_is_inconclusive_not_stable():
     assert read.classification == "inconclusive" and not check.passed
     assert read.nyquist.open_loop_rhp_from == "fit" and read.nyquist.closed_loop_rhp_poles == 0 and read.poles.rhp_count == 1
     assert "contradicts itself" in check.detail and "--open-loop-rhp-poles" in check.advice
+    # the fit reads T's pole at +1 rad/s and sets aside the one at +5 beside a closed-loop pole as its own pair (poles.py)
+    assert np.allclose(read.poles.open_loop_rhp_poles_rad_s, [1.0], rtol=1e-6)
     given = analyse(f, t, open_loop_rhp_poles=2)
     assert given.classification == "unstable" and given.nyquist.closed_loop_rhp_poles == 1
     assert all(c.passed for c in given.checks)
