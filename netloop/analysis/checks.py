@@ -15,7 +15,10 @@ nyquist-data  the Nyquist count is reliable: the sweep starts where T has settle
               gives the reasons; the top of the sweep is falls-at-top's).
 rhp-count     Z = N + P is a count: 0 or more. P, the open-loop right-half-plane poles, is read from
               the data (the rational fit of 1/(1+T)) unless the caller gives it. A negative Z means
-              P does not fit the data, so neither "stable" nor "unstable" can be claimed.
+              P does not fit the data, so neither "stable" nor "unstable" can be claimed. With P read
+              from the fit, the same fit's closed-loop right-half-plane poles must number Z too: when
+              they do not, the fit contradicts itself and P cannot be trusted (with P given, the
+              Nyquist count stands and a disagreeing fit is only a warning).
 operating-point  the DC operating point ngspice returned is credible: no node lies beyond the range of the
               circuit's independent DC voltage sources and ground by more than OP_SPAN_FACTOR times that
               range's span (operating_point_check). Beyond it ngspice found a false solution (a model driven
@@ -95,8 +98,10 @@ def data_checks(freq_hz: np.ndarray, gain_db: np.ndarray) -> tuple[Check, ...]:
     return present, falls
 
 
-def nyquist_checks(nyquist: NyquistVerdict) -> tuple[Check, ...]:
-    """The checks of the Nyquist count: its data (nyquist-data, but for the top of the sweep) and Z = N + P >= 0 (rhp-count)."""
+def nyquist_checks(nyquist: NyquistVerdict, fit_rhp: int | None = None) -> tuple[Check, ...]:
+    """The checks of the Nyquist count: its data (nyquist-data, but for the top of the sweep) and Z = N + P >= 0 (rhp-count).
+    ``fit_rhp``: the closed-loop right-half-plane poles of the rational fit that P was read from; when they differ from Z,
+    the fit contradicts itself and rhp-count fails too."""
     reasons = tuple(r for r in nyquist.reasons if not any(k in r for k in _TOP_REASON))
     if not reasons:
         data = Check("nyquist-data", True, "the sweep covers the loop: the Nyquist count is reliable" if nyquist.reliable
@@ -105,8 +110,19 @@ def nyquist_checks(nyquist: NyquistVerdict) -> tuple[Check, ...]:
         data = Check("nyquist-data", False, "the Nyquist count is doubtful: " + "; ".join(reasons), _nyquist_advice(reasons))
     n, p, z = nyquist.encirclements, nyquist.open_loop_rhp_poles, nyquist.closed_loop_rhp_poles
     source = {"fit": "read from the data", "given": "given", "assumed": "assumed"}.get(nyquist.open_loop_rhp_from, "given")
-    if z >= 0:
+    if z >= 0 and (fit_rhp is None or fit_rhp == z):
         count = Check("rhp-count", True, f"Z = N + P = {n} + {p} = {z} (P {source})")
+    elif z >= 0:
+        count = Check(
+            "rhp-count",
+            False,
+            f"Z = N + P = {n} + {p} = {z} with P = {p} read from the rational fit of 1/(1+T), but the same fit has {fit_rhp} "
+            "closed-loop right-half-plane pole(s): it contradicts itself (a pole of the opened loop that a closed-loop pole "
+            "nearly cancels in the right half plane is dropped as the fit's own pole-zero pair), so P, and the verdict, "
+            "cannot be read from this data",
+            "give the opened loop's RHP pole count with --open-loop-rhp-poles (from the design: the unstable poles of the "
+            "loop opened at this node)",
+        )
     else:
         count = Check(
             "rhp-count",

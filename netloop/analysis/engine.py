@@ -171,10 +171,11 @@ def finish(draft: Draft, *, fit_poles: bool = True, pole_fit_rtol: float = DEFAU
         nyquist=nyquist,
         poles=poles,
         warnings=(*a.warnings, *pole_notes),
-        checks=_checks(resp, nyquist),
+        checks=_checks(resp, nyquist, poles.rhp_count if poles is not None and not draft.rhp_given else None),
     )
 
 
-def _checks(resp: Response, nyquist: NyquistVerdict) -> tuple[Check, ...]:
-    """The self-checks of the data and of its Nyquist count (netloop.analysis.checks)."""
-    return (*data_checks(resp.freq_hz, resp.gain_db), *nyquist_checks(nyquist))
+def _checks(resp: Response, nyquist: NyquistVerdict, fit_rhp: int | None = None) -> tuple[Check, ...]:
+    """The self-checks of the data and of its Nyquist count (netloop.analysis.checks); ``fit_rhp``: the closed-loop
+    right-half-plane poles of the fit that P was read from."""
+    return (*data_checks(resp.freq_hz, resp.gain_db), *nyquist_checks(nyquist, fit_rhp))
