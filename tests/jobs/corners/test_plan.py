@@ -130,11 +130,20 @@ def test_explicit_list_follows_the_product_and_names_must_differ(tmp_path):
     assert f"plan.toml:{second}:" in str(info.value)
 
 
+@pytest.mark.parametrize("text,line", [("netlist =", 1), ('netlist = "a.cir"\nat =', 2), ('netlist = "a.cir"\nat =\n', 2)])
+def test_a_plan_cut_short_is_refused_at_its_last_line(text, line):
+    """tomllib says only "at end of document" for a value cut short; the error names the plan's last line (counted by hand)."""
+    with pytest.raises(PlanError, match=rf"^<string>:{line}: not valid TOML"):
+        parse_plan(text)
+
+
 def test_toml_syntax_error_carries_the_line(tmp_path):
-    """A TOML syntax error is a PlanError naming the plan file and the line tomllib reports."""
+    """A TOML syntax error is a PlanError naming the plan file and the line tomllib reports, once: tomllib's own
+    "(at line L, column C)" is not repeated after it."""
     path = _plan(tmp_path, "[axes]\nlib = [\"tt\", \"ss\"\ntemp = 3\n")
-    with pytest.raises(PlanError, match=r"plan\.toml:\d+: not valid TOML"):
+    with pytest.raises(PlanError, match=r"plan\.toml:\d+: not valid TOML") as info:
         load_plan(path)
+    assert "(at line" not in str(info.value)
 
 
 @pytest.mark.parametrize(

@@ -89,11 +89,12 @@ def test_several_lib_lines_of_one_file_lead_to_process_corners_not_a_dead_end(tm
 @pytest.mark.parametrize(("body", "where", "says"), [
     ('[axes]\nprocess = ["typical", "fast"]\n', 'process = ["typical"', "no process corner named 'fast'"),
     ('[process.odd]\ntemp = 80\n[axes]\nprocess = ["odd"]\n', "temp = 80", "a process corner sets lib and include only"),
+    ('[process.odd]\nlib.typical = "typical"\n[process]\neven = { temp = 80 }\n[axes]\nprocess = ["even"]\n', "even = {", "a process corner sets lib and include only"),
     ('[[corner]]\nprocess = "slow"\nlib.typical = "fast"\n', 'lib.typical = "fast"', "set both by process corner 'slow'"),
     ('[process.typical]\nlib.typical = "typical"\n[process.slow]\nlib.mos = "slow"\n[axes]\nprocess = ["typical", "slow"]\n',
      'lib.mos = "slow"', "no .lib line reads a file ending in 'mos' or has the section 'mos'"),
     ("share_loads = 1\n", "share_loads", "share_loads must be true or false"),
-], ids=["unknown-process", "process-sets-temp", "process-and-corner-set-one-line", "unknown-line-in-a-process", "share-loads-not-bool"])
+], ids=["unknown-process", "process-sets-temp", "inline-process-sets-temp", "process-and-corner-set-one-line", "unknown-line-in-a-process", "share-loads-not-bool"])
 def test_process_mistakes_stop_the_plan_at_their_line(tmp_path, body, where, says):
     """Each mistake in process corners is a PlanError at the plan line that made it, before anything runs."""
     top = body if body.startswith("share_loads") else ""
