@@ -90,15 +90,19 @@ def test_the_rhp_count_check_shows_its_sum_and_where_p_came_from():
                                             "right-half-plane pole(s) (assumed) does not fit this data")
 
 
-def test_a_fit_that_contradicts_its_own_p_is_inconclusive_not_stable():
-    """T = 30/((s-1)(s/10+1)) + 0.01/(s-5): its closed loop has a right-half-plane pole at +4.998 rad/s beside T's own
-    pole at +5 (numpy.roots of the characteristic polynomial: Z = 1, and P = 2 by construction). The fit drops that
-    nearly cancelled pair, so P read from it is 1 and N + P = 0, while the same fit finds 1 closed-loop RHP pole: the data
-    supports no verdict (rhp-count fails, "inconclusive", with what to give), never "stable". With P = 2 given the
-    Nyquist count gives Z = 1, "unstable", as numpy.roots does."""
-    num = np.polymul([30.0], np.poly([5.0]))  # 30 (s - 5) + 0.01 (s - 1)(s/10 + 1), over (s - 1)(s/10 + 1)(s - 5)
-    num = np.polyadd(num, 0.01 * np.polymul([1.0, -1.0], [0.1, 1.0]))
-    den = np.polymul(np.polymul([1.0, -1.0], [0.1, 1.0]), [1.0, -5.0])
+@pytest.mark.parametrize("k, a, eps, b", [
+    (30.0, 1.0, 0.01, 5.0),  # the doublet above T's other unstable pole
+    (300.0, 10.0, 0.01, 2.0),  # the doublet below it
+])
+def test_a_fit_that_contradicts_its_own_p_is_inconclusive_not_stable(k, a, eps, b):
+    """T = k/((s-a)(s/(10a)+1)) + eps/(s-b): its closed loop has a right-half-plane pole beside T's own pole at +b
+    (numpy.roots of the characteristic polynomial: Z = 1, and P = 2 by construction). The fit drops that nearly
+    cancelled pair as its own doublet and keeps T's pole at +a, so P read from it is 1 and N + P = 0, while the same fit
+    finds 1 closed-loop RHP pole: the data supports no verdict (rhp-count fails, "inconclusive", with what to give),
+    never "stable". With P = 2 given the Nyquist count gives Z = 1, "unstable", as numpy.roots does."""
+    lag = [1.0 / (10.0 * a), 1.0]
+    num = np.polyadd(np.polymul([k], [1.0, -b]), eps * np.polymul([1.0, -a], lag))  # over (s - a)(s/(10a) + 1)(s - b)
+    den = np.polymul(np.polymul([1.0, -a], lag), [1.0, -b])
     assert closed_loop_rhp_roots(num, den) == 1
     f, t = sample(lambda s: np.polyval(num, s) / np.polyval(den, s), 1e-3, 1e3, per_decade=100)
     read = analyse(f, t)
@@ -106,8 +110,8 @@ def test_a_fit_that_contradicts_its_own_p_is_inconclusive_not_stable():
     assert read.classification == "inconclusive" and not check.passed
     assert read.nyquist.open_loop_rhp_from == "fit" and read.nyquist.closed_loop_rhp_poles == 0 and read.poles.rhp_count == 1
     assert "contradicts itself" in check.detail and "--open-loop-rhp-poles" in check.advice
-    # the fit reads T's pole at +1 rad/s and sets aside the one at +5 beside a closed-loop pole as its own pair (poles.py)
-    assert np.allclose(read.poles.open_loop_rhp_poles_rad_s, [1.0], rtol=1e-6)
+    # the fit reads T's pole at +a and sets aside the one at +b beside a closed-loop pole as its own pair (poles.py)
+    assert np.allclose(read.poles.open_loop_rhp_poles_rad_s, [a], rtol=1e-6)
     given = analyse(f, t, open_loop_rhp_poles=2)
     assert given.classification == "unstable" and given.nyquist.closed_loop_rhp_poles == 1
     assert all(c.passed for c in given.checks)
