@@ -294,3 +294,19 @@ def test_lib_and_include_words_keep_their_case_and_other_names_are_lowered():
     plan = parse_plan('netlist = "a.cir"\nat = "out"\n[axes]\ninclude.TT = ["TT", "SS"]\nlib.Fam = ["tt", "ss"]\n'
                       'supply.VDD = [1, 2]\n')
     assert [(a.kind, a.target) for a in plan.axes] == [("include", "TT"), ("lib", "Fam"), ("supply", "vdd")]
+
+
+def test_plan_errors_name_the_line_and_what_to_do(tmp_path):
+    """A corner plan with a [samples] table is refused at that table's line with the command that runs it; an unknown
+    top-level key is refused at its own line with the keys allowed; an unreadable plan (a folder) is named with the
+    system's reason (the messages the command line shows: tests/cli/test_bad_input.py)."""
+    with pytest.raises(PlanError) as samples:
+        parse_plan('netlist = "a.cir"\nat = "out"\n[samples]\ncount = 3\n', str(tmp_path / "p.toml"))
+    assert str(samples.value) == (f"{tmp_path / 'p.toml'}:3: [samples] makes this a statistical plan: run it with "
+                                  "'netloop yield PLAN' (netloop corners runs plans without [samples])")
+    with pytest.raises(PlanError) as unknown:
+        parse_plan('netlist = "a.cir"\nat = "out"\n\ncorner_count = 3\n', str(tmp_path / "p.toml"))
+    assert str(unknown.value).startswith(f"{tmp_path / 'p.toml'}:4: unknown key 'corner_count'; expected one of ")
+    with pytest.raises(PlanError) as unreadable:
+        load_plan(tmp_path)
+    assert str(unreadable.value) == f"cannot read plan {str(tmp_path)!r}: Is a directory"
