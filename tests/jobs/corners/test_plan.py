@@ -310,3 +310,20 @@ def test_plan_errors_name_the_line_and_what_to_do(tmp_path):
     with pytest.raises(PlanError) as unreadable:
         load_plan(tmp_path)
     assert str(unreadable.value) == f"cannot read plan {str(tmp_path)!r}: Is a directory"
+
+
+def test_errors_inside_tables_point_at_their_own_lines(tmp_path):
+    """A second [[corner]] whose name is not text is refused at that name's line, not the first corner's nor its table
+    header; a process axis with no [process.NAME] tables says how to add one; a [regression] table that is not a table of
+    limits is refused at its own line in the plan file (the messages the command line shows for bad plans)."""
+    path = str(tmp_path / "p.toml")
+    head = 'netlist = "a.cir"\nat = "out"\n'
+    with pytest.raises(PlanError) as name:
+        parse_plan(head + '[[corner]]\nname = "hot"\ntemp = 80\n\n[[corner]]\ntemp = 0\nname = 5\n', path)
+    assert str(name.value) == f"{path}:9: a corner's name must be text"
+    with pytest.raises(PlanError) as process:
+        parse_plan(head + '[axes]\nprocess = ["slow"]\n', path)
+    assert str(process.value) == f"{path}:4: no process corner named 'slow' (the plan's process corners: none: add [process.NAME] tables)"
+    with pytest.raises(PlanError) as regression:
+        parse_plan(head + '\nregression = 3\n', path)
+    assert str(regression.value).startswith(f"{path}:4: regression must be a table ([regression]) of limits")
