@@ -19,7 +19,7 @@ from netloop.analysis.engine import Draft, analyse_draft, finish
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
-from netloop.errors import NetloopError, ProbeError
+from netloop.errors import NetloopError, ProbeError, UnknownNodeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other_placements, pz_check, second_break_check, settle_split,
@@ -466,10 +466,13 @@ def measure(
 def _split(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, decisions: dict | None) -> tuple:
     """split_loop's answer, its decision taken from ``decisions`` (measure's) when there, and added to them when not."""
     key = ("split", at.strip().lower(), driver, tuple(sorted((placement or {}).items())))
-    split = split_loop(parsed, at, driver=driver, placement=placement, decided=(decisions or {}).get(key))
-    if decisions is not None and key not in decisions:
-        decisions[key] = locate_split(parsed, at, driver=driver, placement=placement)  # as split_loop found it: it did not raise
-    return split
+    decided = decisions.get(key) if decisions is not None else None
+    if decisions is not None and decided is None:
+        try:  # found once here and applied below, instead of split_loop finding it and this asking again
+            decided = decisions[key] = locate_split(parsed, at, driver=driver, placement=placement)
+        except (ProbeError, UnknownNodeError):
+            pass  # split_loop refuses the node again, saying which netlist
+    return split_loop(parsed, at, driver=driver, placement=placement, decided=decided)
 
 
 def _chain(parsed: Netlist, at: str, first: ProbedNetlist, decisions: dict | None = None) -> Chain | None:

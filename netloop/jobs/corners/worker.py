@@ -107,10 +107,16 @@ def _kept(key: tuple, read):
     if kept is None or files_state(kept[0].files) != kept[1]:
         netlist = read()
         kept = (netlist, files_state(netlist.files))
-    _READ[key] = kept  # the most recent last
-    while len(_READ) > _READ_KEEP:
-        del _READ[next(iter(_READ))]
-    return kept[0]
+    return _keep_last(_READ, key, kept)[0]
+
+
+def _keep_last(store: dict, key: tuple, value):
+    """``value`` stored under ``key`` as the most recently used, the least recently used dropped beyond _READ_KEEP."""
+    store.pop(key, None)
+    store[key] = value
+    while len(store) > _READ_KEEP:
+        del store[next(iter(store))]
+    return value
 
 
 def sample_decisions(corner, netlist) -> dict | None:
@@ -120,11 +126,8 @@ def sample_decisions(corner, netlist) -> dict | None:
     if not any(s.kind == "seed" for s in corner.settings):
         return None
     key = (corner.netlist, tuple((s.kind, s.target, s.value) for s in corner.settings if s.kind != "seed"), files_state(netlist.files))
-    decisions = _DECISIONS.pop(key, None)
-    _DECISIONS[key] = decisions = decisions if decisions is not None else {}  # the most recent last
-    while len(_DECISIONS) > _READ_KEEP:
-        del _DECISIONS[next(iter(_DECISIONS))]
-    return decisions
+    decisions = _DECISIONS.get(key)
+    return _keep_last(_DECISIONS, key, decisions if decisions is not None else {})
 
 
 def in_place_changes(settings: tuple[Setting, ...]) -> tuple:
