@@ -71,7 +71,8 @@ def _gain_db(t: np.ndarray) -> np.ndarray:
 def low_frequency_slope(x: np.ndarray, gain_db: np.ndarray) -> tuple[int, float]:
     """(k, slope): poles of T at s = 0 (negative for zeros there) from the slope in dB/decade over the lowest 3 samples."""
     n = min(3, x.size)
-    slope = float(np.polyfit(x[:n], gain_db[:n], 1)[0])
+    dx = x[:n] - np.mean(x[:n])
+    slope = float(np.dot(dx, gain_db[:n]) / np.dot(dx, dx))  # the least-squares line's slope (np.polyfit's, without its set-up)
     return int(round(-slope / 20.0)), slope
 
 

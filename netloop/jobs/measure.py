@@ -194,6 +194,7 @@ class _Runner:
         self.ratios = ratios
         self.simulator = simulator
         self.seconds = 0.0
+        self.ngspice_seconds = 0.0  # of which ngspice's own (SimResult.ngspice_seconds)
         self.aid: str | None = None
         self.notes: dict[str, None] = {}
         self.deck_path: str | None = None
@@ -211,6 +212,7 @@ class _Runner:
         start = time.perf_counter()
         result = self.simulator.run(job) if meanwhile is None else run_while(self.simulator, job, meanwhile)[0]
         self.seconds += time.perf_counter() - start
+        self.ngspice_seconds += result.ngspice_seconds
         self.loads += result.loaded
         self.aid = self.aid or result.convergence_aid
         self.notes.update(dict.fromkeys(result.warnings))  # what ngspice ignored (unrecognized model parameters)
@@ -314,6 +316,7 @@ def sample_loops(
         convergence_aid=runner.aid,
         deck_path=runner.deck_path,
         seconds=runner.seconds,
+        ngspice_seconds=runner.ngspice_seconds,
         processes=runner.processes,
         loads=runner.loads,
     )
@@ -498,7 +501,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     break when the rules were unsure, ngspice's pz when T has poles of its own (netloop.jobs.measure_checks). ``chained``:
     the chain the first split was measured in and its circuit id; the chain's other split runs on that loaded circuit."""
     chain, circuit = chained
-    extra, extra_loads = 0.0, 0  # the other splits' simulations: their time and the loads they took
+    extra, extra_ngspice, extra_loads = 0.0, 0.0, 0  # the other splits' simulations: their time, ngspice's own of it, the loads they took
     coarse_options = {**options, "sweep": replace(options["sweep"], refine=False)}
     structure: list[LoopStructure | None] = []  # the loop search, done once and only when a split must be judged by it
 
@@ -528,7 +531,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     def measure_other(place: Mapping[str, str], name: str | None = None, coarse: bool = False) -> Trial | None:
         """Another split measured: coarse for a second opinion, in full (refined: its Nyquist data must hold) for a
         split that may be reported instead."""
-        nonlocal extra, extra_loads
+        nonlocal extra, extra_ngspice, extra_loads
         try:
             other = break_loop(parsed, name or at, placement=place)
         except ProbeError:
@@ -537,6 +540,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         measured = chain.other(other) if shared else other
         a, i, w = measure_probed(measured, circuit_id=circuit if shared else None, **(coarse_options if coarse else options))
         extra += i.seconds
+        extra_ngspice += i.ngspice_seconds
         extra_loads += i.loads
         trial = opens(Trial(place, other, a, name or ""))
         if not coarse:
@@ -553,7 +557,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         chosen, split_check, _ = settle_split(first, measure_other, names)
         if chosen is not None:  # measured in full already; its seconds are in ``extra`` with the other trials'
             analysis, (i, sim_warnings), other = chosen.analysis, full[id(chosen)], chosen.probed
-            info = replace(i, seconds=info.seconds, loads=info.loads)  # the first split's loads; the chosen one's are in extra_loads
+            info = replace(i, seconds=info.seconds, ngspice_seconds=info.ngspice_seconds, loads=info.loads)  # the first split's loads; the chosen one's are in extra_loads
             probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
             if chosen.opens is not None:
                 checks.append(chosen.opens)
@@ -568,7 +572,8 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
     pz = closed_circuit_pz(parsed, analysis, probed.side_b)
     if pz is not None:
         checks.append(pz)
-    return probed, analysis, replace(info, seconds=info.seconds + extra, loads=info.loads + extra_loads), sim_warnings, tuple(checks)
+    info = replace(info, seconds=info.seconds + extra, ngspice_seconds=info.ngspice_seconds + extra_ngspice, loads=info.loads + extra_loads)
+    return probed, analysis, info, sim_warnings, tuple(checks)
 
 
 def closed_circuit_pz(parsed: Netlist, analysis: LoopAnalysis, node: str) -> Check | None:

@@ -402,7 +402,7 @@ def measure_pair(
 
             def again(place, coarse: bool, nodes: tuple[str, str] = (p_node, n_node)) -> _Sampled:
                 done = _sample_pair(parsed, nodes, drivers, place, sweep=replace(sweep, refine=False) if coarse else sweep, **options)
-                extra.append(done.info.seconds)
+                extra.append((done.info.seconds, done.info.ngspice_seconds))
                 return done
 
             first, job_checks = _settled(first, again)
@@ -413,7 +413,8 @@ def measure_pair(
             first, deeper = _deeper(first, structure, again)
             job_checks = (*job_checks, *deeper)
             mode_checks = {mode: _opens(first, mode, structure) for mode in MODES}
-            first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(extra)))
+            first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(s for s, _ in extra),
+                                                ngspice_seconds=first.info.ngspice_seconds + sum(n for _, n in extra)))
     finally:
         if own and hasattr(sim, "close"):
             sim.close()

@@ -4,9 +4,8 @@ from __future__ import annotations
 
 from typing import TypeVar
 
-from netloop.sim.deck import check_workdir
+from netloop.sim.deck import check_workdir, control_steps
 from netloop.sim.job import SimJob
-from netloop.sim.keep import runnable_deck
 
 __all__ = ["NgspiceBackend"]
 
@@ -27,6 +26,7 @@ class NgspiceBackend:
 
     @staticmethod
     def refuse_malformed(job: SimJob) -> None:
-        """SimulationError for a bad sweep, a non-finite value or a missing workdir, before anything runs."""
-        runnable_deck(job, None)
+        """SimulationError for a bad sweep, a non-finite value or a missing workdir, before anything runs: the deck's
+        control steps are where each is formatted and refused (netloop.sim.deck), the rest of the deck only substitutes."""
+        control_steps(job, write_raw=True)
         check_workdir(job)

@@ -52,6 +52,7 @@ class BatchSimulator(NgspiceBackend):
         tried: list[str | None] = []
         said = ""
         log: list[str] = []
+        spent: list[float] = []  # each ngspice process's wall time for this job (SimResult.ngspice_seconds)
         for aid in aid_ladder(job):
             tried.append(aid)
 
@@ -60,7 +61,7 @@ class BatchSimulator(NgspiceBackend):
 
             with tempfile.TemporaryDirectory(prefix="netloop-batch-") as work:
                 deck = render_deck(job, option_words(job, aid), control_steps(job, write_raw=True, raw_dir=work))
-                lines = self._ngspice(job, deck, Path(work), deadline, failure)
+                lines = self._ngspice(job, deck, Path(work), deadline, failure, spent)
                 log.extend(lines)
                 op = _op_plot(Path(work) / OP_RAW)
                 if op is None:
@@ -82,16 +83,19 @@ class BatchSimulator(NgspiceBackend):
                 convergence_aid=describe_aid(aid, recovery(lines)),
                 backend=self.backend,
                 parameters=parameters,
+                ngspice_seconds=sum(spent),
             )
         raise job_error(job, "op", said, "\n".join(log), runnable_deck(job, tried[-1]), self.keep_dir, tried)
 
-    def _ngspice(self, job: SimJob, deck: str, work: Path, deadline: float, failure) -> list[str]:
-        """Run ngspice -b on ``deck`` (written into ``work``) from the job's folder; its output lines."""
+    def _ngspice(self, job: SimJob, deck: str, work: Path, deadline: float, failure, spent: list[float]) -> list[str]:
+        """Run ngspice -b on ``deck`` (written into ``work``) from the job's folder; its output lines. Its wall time is
+        added to ``spent``."""
         (work / "deck.cir").write_text(deck, encoding="utf-8")
         try:
             remaining = deadline - time.monotonic()
             if remaining <= 0:
                 raise subprocess.TimeoutExpired(self.binary, job.timeout_s)
+            started = time.perf_counter()
             done = subprocess.run(
                 [self.binary, "-b", str(work / "deck.cir")],
                 cwd=job.workdir or os.getcwd(),  # where relative .include/.lib paths are read from
@@ -105,6 +109,7 @@ class BatchSimulator(NgspiceBackend):
             raise failure(f"ngspice did not finish within the timeout of {job.timeout_s:g} s and was stopped") from exc
         except OSError as exc:
             raise SimulatorUnavailableError(f"cannot run {self.binary}: {exc}") from exc
+        spent.append(time.perf_counter() - started)
         lines = done.stdout.decode("utf-8", errors="replace").splitlines()
         # ngspice -b exits 1 after a deck whose analyses are all in .control, so only a signal
         # (a crash) is judged from the return code; failures are judged from its error lines.

@@ -136,6 +136,9 @@ class SimResult:
     # False when the job ran on a circuit already loaded (a later round of one measurement, or a job whose
     # SimJob.changes ngspice made in place); True when ngspice read the netlist (and its model files) for it
     loaded: bool = True
+    # seconds ngspice itself worked on the job: inside its circuit and command calls (shared library), or the whole
+    # ngspice -b process (batch mode); what a caller waited beyond this is netloop's own (processes, decks, data)
+    ngspice_seconds: float = 0.0
 
     @property
     def warnings(self) -> tuple[str, ...]:

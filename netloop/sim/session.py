@@ -7,7 +7,9 @@ warning and its "every stderr line is an error" rule stay there; callers get pla
 from __future__ import annotations
 
 import logging
+import time
 import warnings
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -16,12 +18,37 @@ from netloop.sim.library import NGSPICE_THREADS
 __all__ = ["NgspiceSession"]
 
 
-
 def _silence_pyspice() -> None:
     logger = logging.getLogger("PySpice")
     logger.setLevel(logging.CRITICAL + 1)
     logger.propagate = False
     logger.addHandler(logging.NullHandler())
+
+
+_BLOCKS: dict[str, tuple[object, int, np.ndarray]] = {}  # a large piece of a deck -> _lines_block of it
+_BLOCK_MIN_CHARS = 1 << 16  # pieces kept from this size (a library written out: the same string for every sample)
+_BLOCKS_KEEP = 8  # pieces kept at most (then forgotten all at once)
+
+
+def _lines_block(ffi, piece: str) -> tuple[object, int, np.ndarray]:
+    """The non-blank lines of ``piece`` in one C buffer, each ended by a NUL, in UTF-8: (the buffer, its address, where
+    each line starts in it). Kept for large pieces: a sky130 library written out is 1.6 MB in 360 lines, about 2.5 ms to
+    split, encode and copy on every load. ngspice copies the lines it is given (ngSpice_Circ), so a kept buffer is never
+    changed (tests/sim/test_used_models.py checks it)."""
+    kept = _BLOCKS.get(piece) if len(piece) >= _BLOCK_MIN_CHARS else None
+    if kept is not None:
+        return kept
+    lines = [line for line in piece.splitlines() if line.strip()]
+    text = "".join(f"{line}\0" for line in lines).encode("utf-8")
+    raw = np.frombuffer(text, dtype=np.uint8)
+    starts = np.concatenate(([0], np.flatnonzero(raw[:-1] == 0) + 1)).astype(np.int64) if lines else np.zeros(0, dtype=np.int64)
+    buffer = ffi.new("char[]", text)
+    block = (buffer, int(ffi.cast("uintptr_t", buffer)), starts)
+    if len(piece) >= _BLOCK_MIN_CHARS:
+        if len(_BLOCKS) >= _BLOCKS_KEEP:
+            _BLOCKS.clear()
+        _BLOCKS[piece] = block
+    return block
 
 
 class NgspiceSession:
@@ -36,6 +63,9 @@ class NgspiceSession:
             NgSpiceShared.LIBRARY_PATH = library_path.replace("{", "{{").replace("}", "}}")
             self._lines: list[str] = []
             self._ffi = ffi
+            # seconds spent inside ngspice's circuit and command calls (its output lines included, which it hands to
+            # _on_char as it prints them): ngspice's own time, against which netloop's own cost is measured
+            self.seconds = 0.0
             self._ng = NgSpiceShared(ngspice_id=0, send_data=False)
         self._ng.send_char = self._on_char  # PySpice forwards every output line here
         self._lib = self._ng._ngspice_shared
@@ -52,26 +82,29 @@ class NgspiceSession:
     def command(self, command: str) -> list[str]:
         """Run one ngspice command; returns what ngspice printed meanwhile."""
         self._lines = []
-        rc = self._lib.ngSpice_Command(command.encode("utf-8"))
+        encoded = command.encode("utf-8")
+        start = time.perf_counter()
+        rc = self._lib.ngSpice_Command(encoded)
+        self.seconds += time.perf_counter() - start
         if rc:
             self._lines.append(f"Error: ngspice refused the command {command!r} (return code {rc})")
         return self._lines
 
-    def load(self, deck_text: str) -> list[str]:
-        """Load a circuit (text ending in ``.end``); returns what ngspice printed meanwhile."""
+    def load(self, deck: str | Sequence[str]) -> list[str]:
+        """Load a circuit: text ending in ``.end``, or that text in pieces of whole lines whose join with newlines it is
+        (netloop.sim.used_models.used_pieces); returns what ngspice printed meanwhile."""
         ffi = self._ffi
-        lines = [line for line in deck_text.splitlines() if line.strip()]
-        # One buffer of NUL-terminated lines and an array of pointers into it, filled in one copy: a
-        # char[] for each of 100k lines cost about 70 ms, all of it before ngspice can start reading.
-        data = ffi.new("char[]", "\0".join(lines).encode("utf-8"))  # cffi adds the last NUL
-        raw = np.frombuffer(ffi.buffer(data), dtype=np.uint8)
-        starts = np.concatenate(([0], np.flatnonzero(raw[:-1] == 0) + 1))
-        pointer = np.dtype(f"u{ffi.sizeof('char *')}")
-        addresses = (starts + int(ffi.cast("uintptr_t", data))).astype(pointer)
-        table = ffi.new("char *[]", len(lines) + 1)  # zeroed: the last entry is the NULL ngspice stops at
+        # A buffer of NUL-terminated lines a piece and an array of pointers into them: a char[] for each of 100k lines
+        # cost about 70 ms, all of it before ngspice can start reading.
+        blocks = [_lines_block(ffi, piece) for piece in ((deck,) if isinstance(deck, str) else deck)]
+        starts = np.concatenate([np.zeros(0, dtype=np.int64), *(starts + address for _, address, starts in blocks)])
+        addresses = starts.astype(np.dtype(f"u{ffi.sizeof('char *')}"))
+        table = ffi.new("char *[]", starts.size + 1)  # zeroed: the last entry is the NULL ngspice stops at
         ffi.memmove(table, addresses.tobytes(), addresses.nbytes)
         self._lines = []
-        rc = self._lib.ngSpice_Circ(table)
+        start = time.perf_counter()
+        rc = self._lib.ngSpice_Circ(table)  # the buffers in ``blocks`` live until it returns
+        self.seconds += time.perf_counter() - start
         if rc:
             self._lines.append(f"Error: ngspice refused the circuit (return code {rc})")
         return self._lines

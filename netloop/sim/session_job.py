@@ -26,7 +26,7 @@ from netloop.sim.job import SimJob
 from netloop.sim.frequency import sweep_frequencies
 from netloop.sim.output import ac_op_failed, error_lines, fatal_lines, op_failed, recovery, summary
 from netloop.sim.session import NgspiceSession
-from netloop.sim.used_models import used_only
+from netloop.sim.used_models import used_pieces
 from netloop.sim.vectors import unknown_saves
 
 __all__ = ["JobFailure", "JobPayload", "JobRunner", "run_job"]
@@ -43,6 +43,7 @@ class JobPayload:
     found_by: str | None  # what SimResult.convergence_aid says
     parameters: dict[str, float] = field(default_factory=dict)  # SimResult.parameters
     loaded: bool = True  # SimResult.loaded: ngspice read the netlist for this job
+    ngspice_seconds: float = 0.0  # SimResult.ngspice_seconds
 
 
 @dataclass(slots=True)
@@ -127,6 +128,12 @@ class JobRunner:
 
     def run(self, job: SimJob) -> JobPayload:
         """Do ``job``; raises JobFailure with ngspice's own lines when it cannot."""
+        start = self.session.seconds
+        payload = self._run_job(job)
+        payload.ngspice_seconds = self.session.seconds - start
+        return payload
+
+    def _run_job(self, job: SimJob) -> JobPayload:
         key = circuit_key(job)
         current, self._loaded = self._loaded, None
         if len(self._held) > 1 and self._count() != len(self._held):  # never expected: then trust none of them
@@ -294,7 +301,7 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
     Returns (None, ngspice's lines) when the operating point failed (that circuit taken out again), else the loaded record.
     """
     deck = render_deck(job, option_words(job, aid))
-    lean = used_only(deck, os.getcwd())  # the worker runs in the job's folder, where relative library paths start
+    lean = used_pieces(deck, os.getcwd())  # the worker runs in the job's folder, where relative library paths start
     loaded_lines = session.load(lean or deck)
     if lean is not None and error_lines(loaded_lines):  # never expected: then ngspice reads the libraries as written
         session.clear()

@@ -212,6 +212,7 @@ class SharedLibrarySimulator(NgspiceBackend):
             backend=self.backend,
             parameters=payload.parameters,
             loaded=payload.loaded,
+            ngspice_seconds=payload.ngspice_seconds,
         )
 
     def operating_point(self, netlist: str) -> Mapping[str, float]:

@@ -118,6 +118,7 @@ class SplitRunsSimulator:
             backend=first.backend,
             parameters=first.parameters,
             loaded=any(r.loaded for r in results),
+            ngspice_seconds=sum(r.ngspice_seconds for r in results),
         )
         return self._kept(job, merged)
 

@@ -37,7 +37,7 @@ import re
 from dataclasses import dataclass, field
 from stat import S_ISREG
 
-__all__ = ["used_only", "warm"]
+__all__ = ["used_only", "used_pieces", "warm"]
 
 _WORD = re.compile(r"[^\s=(),\[\]{}']+")
 _BIN = re.compile(r"^(.*)\.\d+$")
@@ -338,6 +338,14 @@ def used_only(deck: str, here: str) -> str | None:
     """``deck`` with its top-level ``.include`` and ``.lib`` lines written out, less the unused ``.model`` cards and
     ``.subckt`` blocks (see the module doc); ``here`` is the folder relative paths start from. None when the deck
     reads no library, when nothing would be left out, or when the libraries hold something not followed here."""
+    pieces = used_pieces(deck, here)
+    return None if pieces is None else "\n".join(pieces)
+
+
+def used_pieces(deck: str, here: str) -> tuple[str, ...] | None:
+    """used_only's deck in pieces of whole lines, whose join with newlines it is: the libraries written out are the
+    same string objects for every deck that keeps the same names (``_kept``), so a loader can keep what it derives from
+    them (netloop.sim.session.NgspiceSession.load)."""
     if not _READS_ANY.search(deck):
         return None
     title, _, rest = deck.partition("\n")
@@ -362,7 +370,7 @@ def used_only(deck: str, here: str) -> str | None:
             lines.append(next(libraries_written))
         elif not piece.name or piece.name in used:
             lines.append(_joined(piece.text))
-    return "\n".join([title, *lines, tail.rstrip("\n"), ""])
+    return (title, *lines, tail.rstrip("\n"), "")
 
 
 def warm(netlist: str) -> None:

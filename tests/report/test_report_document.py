@@ -66,6 +66,7 @@ REQUIRED = (
     "simulation.convergence_aid",
     "simulation.deck_path",
     "simulation.seconds",
+    "simulation.ngspice_seconds",
     "caution",
     "schema",
     "infinite",

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from netloop.sim.used_models import used_only
+from netloop.sim.used_models import used_only, used_pieces
 
 # An invented process library (for tests only; its cards describe no real process): one file with two corner sections,
 # each reading a shared parameter file and a file of its own by relative paths; binned MOSFET cards, a resistor cell, and
@@ -111,12 +111,13 @@ _COMPARE = """
 import json, sys
 import numpy as np
 from netloop.sim import find_libngspice
+from netloop.sim import session as kept
 from netloop.sim.session import NgspiceSession
 
 full, lean, save, sweep = json.loads(sys.stdin.read())
 session = NgspiceSession(find_libngspice())
 out = []
-for deck in (full, lean):
+for deck in (full, lean, lean):  # a lean deck given in pieces is loaded twice: the second time from what the first kept
     session.clear()
     said = session.load(deck)
     session.command("save " + save)
@@ -124,12 +125,18 @@ for deck in (full, lean):
     plot = session.current_plot()
     data = np.concatenate([session.vector(plot, v) for v in save.split()])
     out.append(([line for line in said if "error" in line.lower()], data))
-print(json.dumps({"errors": out[0][0] + out[1][0], "same": bool(np.array_equal(out[0][1], out[1][1])), "points": int(out[0][1].size)}))
+    if len(out) == 2:  # the lines of the pieces the loader keeps, as the second load of the lean deck will give them
+        before = {piece: bytes(session._ffi.buffer(block[0])) for piece, block in kept._BLOCKS.items()}
+after = {piece: bytes(session._ffi.buffer(block[0])) for piece, block in kept._BLOCKS.items()}
+same = all(np.array_equal(out[0][1], again[1]) for again in out[1:])
+print(json.dumps({"errors": [e for o in out for e in o[0]], "same": same, "points": int(out[0][1].size), "kept": len(after),
+                  "kept_unchanged": after == before}))
 """
 
 
-def _compare(full: str, lean: str, save: str, sweep: str, cwd: Path) -> dict:
-    """ngspice's vectors for the deck as written and for the lean deck, compared bit for bit in a process of its own."""
+def _compare(full: str, lean: str | tuple[str, ...], save: str, sweep: str, cwd: Path) -> dict:
+    """ngspice's vectors for the deck as written and for the lean deck (its text, or its pieces: used_pieces), loaded twice,
+    compared bit for bit in a process of its own."""
     import json
     import subprocess
     import sys
@@ -167,10 +174,13 @@ def test_the_official_sky130_section_gives_the_same_numbers_from_a_third_of_the_
             "xc1 mid 0 sky130_fd_pr__cap_mim_m3_1 w=10 l=10 mf=1\n.end\n")
     lean = used_only(deck, str(tmp_path))
     assert lean is not None and len(lean) < len(deck) + 3_000_000  # the full section is about 7 MB of text
+    pieces = used_pieces(deck, str(tmp_path))
+    assert "\n".join(pieces) == lean and max(map(len, pieces)) > 1 << 16  # a piece large enough for the loader to keep
     assert {"sky130_fd_pr__nfet_01v8", "sky130_fd_pr__pfet_01v8", "sky130_fd_pr__res_xhigh_po_0p35"} <= _names(lean)
     assert "sky130_fd_pr__nfet_g5v0d10v5" not in _names(lean)
-    got = _compare(deck, lean, "v(out) v(mid)", "dec 5 1 1e10", tmp_path)
+    got = _compare(deck, pieces, "v(out) v(mid)", "dec 5 1 1e10", tmp_path)
     assert got["errors"] == [] and got["points"] == 2 * 51 and got["same"]
+    assert got["kept"] >= 1 and got["kept_unchanged"]  # ngspice copied the lines it read: the kept buffer still holds them
 
 
 def test_warm_reads_the_libraries_a_netlist_names(tmp_path, monkeypatch):
