@@ -198,6 +198,8 @@ def _plain(value, path: str, infinite: dict[str, str]):
     if isinstance(value, dict):
         return {k: _plain(v, f"{path}.{k}" if path else k, infinite) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
+        if all(type(v) is float for v in value) and all(map(math.isfinite, value)):  # finite floats (T's samples): as they are
+            return list(value)
         return [_plain(v, f"{path}[{i}]", infinite) for i, v in enumerate(value)]
     if isinstance(value, (bool, np.bool_)):
         return bool(value)

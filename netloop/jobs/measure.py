@@ -430,16 +430,18 @@ def measure(
     ``driver`` the split the rules give is checked, and another placement of the bridging elements
     is measured when it fails its checks (netloop.jobs.measure_checks; ``decided_by`` and the
     job check "split" say what was moved and why). ``decisions``: where and how the node is split
-    (netloop.probe.locate_split's answers), kept by the caller for netlists that differ from this one
-    only in ngspice's seed (the samples of one corner): read when there, else found and added.
+    (netloop.probe.locate_split's answers) and which sources bound the operating point, kept by the
+    caller for netlists that differ from this one only in ngspice's seed (the samples of one corner):
+    read when there, else found and added.
     """
     with _simulator_for(simulator, keep_decks) as sim:  # ngspice starts now, while the netlist is read and broken
         parsed = load_netlist(netlist)
         reqs = parse_requirements(requirements)
         if simulator is None:
             sim.use_processes(simulator_processes(processes, parsed, runs=2))
+        sources = _decided(decisions, ("op-sources",), lambda: op_sources(parsed))  # whose voltages bound a credible operating point
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s,
-                       sources=op_sources(parsed))  # whose voltages bound a credible operating point (measure_checks.op_check)
+                       sources=sources)  # (measure_checks.op_check)
         with caveats_on_error(parsed):
             unchecked, loop_check = _split(parsed, at, driver, placement, decisions)  # is the node on a loop? asked during the first simulation
             free = driver is None and placement is None
@@ -464,6 +466,15 @@ def measure(
         checks=checks,
         **netlist_notes(parsed, probed.warnings, sim_warnings, analysis.warnings),
     )
+
+
+def _decided(decisions: dict | None, key: tuple, find: Callable[[], object]):
+    """``find()``, kept in ``decisions`` (measure's) under ``key`` when they are given: the same for every netlist they serve."""
+    if decisions is None:
+        return find()
+    if key not in decisions:
+        decisions[key] = find()
+    return decisions[key]
 
 
 def _split(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, decisions: dict | None) -> tuple:

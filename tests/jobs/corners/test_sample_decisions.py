@@ -29,16 +29,17 @@ def _mismatched_miller(folder: Path) -> Path:
 
 @pytest.mark.ngspice
 def test_samples_of_a_corner_reuse_the_split_with_the_t_of_a_fresh_split(tmp_path, monkeypatch):
-    """Three samples measured one after the other in one worker share the split decisions the first found (the split
-    and the chained other placement of Cc); each has the T, margins and break of its seed measured alone with a fresh
-    split and a fresh ngspice (rerun_sample, `netloop check --seed`'s path), and the seeds' T differ."""
+    """Three samples measured one after the other in one worker share the split decisions the first found (the split,
+    the chained other placement of Cc, the sources that bound the operating point); each has the T, margins, break and
+    checks of its seed measured alone with a fresh split and a fresh ngspice (rerun_sample, `netloop check --seed`'s
+    path), and the seeds' T differ."""
     monkeypatch.setattr(worker, "_DECISIONS", {})
     netlist = _mismatched_miller(tmp_path)
     (tmp_path / "plan.toml").write_text(f'netlist = "{netlist}"\nat = "out"\n[samples]\ncount = 3\n')
     plan = load_sample_plan(tmp_path / "plan.toml")
     records = [run_task(task, TaskOptions())[0] for task in sample_tasks(plan)]
     (decisions,) = worker._DECISIONS.values()
-    assert {key[0] for key in decisions} == {"split", "chain"} and all(v is not None for v in decisions.values())
+    assert {key[0] for key in decisions} == {"split", "chain", "op-sources"} and all(v is not None for v in decisions.values())
     from netloop.jobs.document import to_document
 
     for record in records:
@@ -46,6 +47,7 @@ def test_samples_of_a_corner_reuse_the_split_with_the_t_of_a_fresh_split(tmp_pat
         assert record["outcome"] == "pass"
         assert alone["loop_gain"] == record["loop"]["loop_gain"]
         assert alone["margins"] == record["loop"]["margins"] and alone["break"] == record["loop"]["break"]
+        assert alone["checks"] == record["loop"]["checks"] and any(c["name"] == "operating-point" for c in alone["checks"])
     assert len({tuple(r["loop"]["loop_gain"]["re"]) for r in records}) == 3
 
 
