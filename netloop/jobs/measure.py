@@ -20,6 +20,7 @@ from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError, UnknownNodeError
+from netloop.jobs.kept_probes import KeptProbes, rewritten
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
 from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other_placements, pz_check, second_break_check, settle_split,
@@ -430,9 +431,9 @@ def measure(
     ``driver`` the split the rules give is checked, and another placement of the bridging elements
     is measured when it fails its checks (netloop.jobs.measure_checks; ``decided_by`` and the
     job check "split" say what was moved and why). ``decisions``: where and how the node is split
-    (netloop.probe.locate_split's answers) and which sources bound the operating point, kept by the
-    caller for netlists that differ from this one only in ngspice's seed (the samples of one corner):
-    read when there, else found and added.
+    (netloop.probe.locate_split's answers, and the probed netlists themselves: netloop.jobs.kept_probes)
+    and which sources bound the operating point, kept by the caller for netlists that differ from this
+    one only in ngspice's seed (the samples of one corner): read when there, else found and added.
     """
     with _simulator_for(simulator, keep_decks) as sim:  # ngspice starts now, while the netlist is read and broken
         parsed = load_netlist(netlist)
@@ -443,12 +444,11 @@ def measure(
         options = dict(method=method, sweep=sweep, simulator=sim, open_loop_rhp_poles=open_loop_rhp_poles, label=label, timeout_s=timeout_s,
                        sources=sources)  # (measure_checks.op_check)
         with caveats_on_error(parsed):
-            unchecked, loop_check = _split(parsed, at, driver, placement, decisions)  # is the node on a loop? asked during the first simulation
             free = driver is None and placement is None
-            chain = _chain(parsed, at, unchecked, decisions) if free else None  # the split tried first when this one is doubted, in the same netlist
+            unchecked, chain, loop_check, checked = _probes(parsed, at, driver, placement, free, decisions)
             circuit = uuid.uuid4().hex
             analysis, info, sim_warnings = measure_probed(chain.first if chain else unchecked, meanwhile=loop_check, circuit_id=circuit, **options)
-            probed = loop_check()  # its outcome, found while the first simulation ran
+            probed = checked()  # the loop check's outcome, found while the first simulation ran
             probed, analysis, info, sim_warnings, checks = _checked_split(parsed, at, probed, analysis, info, sim_warnings, options, free,
                                                                           (chain, circuit))
     if probed.inputs_only:
@@ -475,6 +475,29 @@ def _decided(decisions: dict | None, key: tuple, find: Callable[[], object]):
     if key not in decisions:
         decisions[key] = find()
     return decisions[key]
+
+
+def _probes(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, free: bool, decisions: dict | None) -> tuple:
+    """(the split simulated first, the chain it is measured in or None, the loop check to run during the first simulation
+    or None, a call that gives the checked split once that has run). With ``decisions`` (measure's), the splits of an
+    earlier netlist that differs from this one in ``.option`` lines only (a sample's seed) are rewritten for this one
+    (netloop.jobs.kept_probes) instead of found again; the splits found here are kept for the next."""
+    key = ("probes", at.strip().lower(), driver, tuple(sorted((placement or {}).items())))
+    kept = decisions.get(key) if decisions is not None else None
+    reused = rewritten(kept, parsed) if kept is not None else None
+    if reused is not None:
+        unchecked, checked, chain = reused
+        return unchecked, chain, None, lambda: checked
+    unchecked, loop_check = _split(parsed, at, driver, placement, decisions)  # is the node on a loop? asked during the first simulation
+    chain = _chain(parsed, at, unchecked, decisions) if free else None  # the split tried first when this one is doubted, in the same netlist
+
+    def checked() -> ProbedNetlist:
+        probed = loop_check()
+        if decisions is not None:
+            decisions[key] = KeptProbes(parsed, unchecked, probed, chain)
+        return probed
+
+    return unchecked, chain, loop_check, checked
 
 
 def _split(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, decisions: dict | None) -> tuple:

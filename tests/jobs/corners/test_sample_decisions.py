@@ -11,6 +11,7 @@ from netloop.jobs.corners import worker
 from netloop.jobs.corners.worker import TaskOptions, corner_netlist, run_task, sample_decisions
 from netloop.jobs.statistics import load_sample_plan, rerun_sample
 from netloop.jobs.statistics.samples import sample_tasks
+from netloop.probe import split_loop
 
 ROOT = Path(__file__).resolve().parents[3]
 MILLER = ROOT / "circuits" / "miller_buffer.cir"
@@ -30,16 +31,22 @@ def _mismatched_miller(folder: Path) -> Path:
 @pytest.mark.ngspice
 def test_samples_of_a_corner_reuse_the_split_with_the_t_of_a_fresh_split(tmp_path, monkeypatch):
     """Three samples measured one after the other in one worker share the split decisions the first found (the split,
-    the chained other placement of Cc, the sources that bound the operating point); each has the T, margins, break and
+    the chained other placement of Cc, the sources that bound the operating point; the second and third take the first's
+    probed netlists with their own seed line: the node is split once); each has the T, margins, break and
     checks of its seed measured alone with a fresh split and a fresh ngspice (rerun_sample, `netloop check --seed`'s
     path), and the seeds' T differ."""
     monkeypatch.setattr(worker, "_DECISIONS", {})
     netlist = _mismatched_miller(tmp_path)
     (tmp_path / "plan.toml").write_text(f'netlist = "{netlist}"\nat = "out"\n[samples]\ncount = 3\n')
     plan = load_sample_plan(tmp_path / "plan.toml")
+    import netloop.jobs.measure as measure_module
+
+    splits = []
+    monkeypatch.setattr(measure_module, "split_loop", lambda *a, **k: splits.append(a[1]) or split_loop(*a, **k))
     records = [run_task(task, TaskOptions())[0] for task in sample_tasks(plan)]
+    assert splits == ["out"]
     (decisions,) = worker._DECISIONS.values()
-    assert {key[0] for key in decisions} == {"split", "chain", "op-sources"} and all(v is not None for v in decisions.values())
+    assert {key[0] for key in decisions} == {"split", "chain", "op-sources", "probes"} and all(v is not None for v in decisions.values())
     from netloop.jobs.document import to_document
 
     for record in records:
