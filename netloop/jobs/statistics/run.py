@@ -11,7 +11,7 @@ from netloop.jobs.corners.plan import AUTO
 from netloop.jobs.corners.runner import CornerRun, run_tasks
 from netloop.jobs.loop_result import LoopResult
 from netloop.jobs.statistics.plan import SamplePlan
-from netloop.jobs.statistics.samples import SEPARATOR, sample_tasks
+from netloop.jobs.statistics.samples import SEPARATOR, checked_samples, sample_tasks
 from netloop.jobs.statistics.summary import YieldStatistics, summarise
 
 __all__ = ["SAMPLE_CHUNK", "SampleRun", "rerun_sample", "run_samples"]
@@ -50,9 +50,9 @@ def run_samples(splan: SamplePlan, *, workers: int | None = None, cluster: str |
     one Dask task, each record appended to the results file (default PLAN.results.jsonl) the moment its Dask
     task finishes, ``resume`` skipping the samples it already holds (a killed run measures those of its
     unfinished Dask tasks again). ``target`` and ``confidence`` (fractions) override the plan's."""
-    tasks = sample_tasks(splan)
+    tasks, netlists = checked_samples(splan)
     run = run_tasks(splan.plan, tasks, jobs=workers, cluster=cluster, out=out, resume=resume, force=force, progress=progress,
-                    noun="samples", chunk=SAMPLE_CHUNK)
+                    noun="samples", netlists=netlists, chunk=SAMPLE_CHUNK)
     confidence = confidence if confidence is not None else splan.confidence
     target = target if target is not None else splan.target
     statistics = summarise(run.records, [r.text for r in splan.plan.requirements], confidence=confidence, target=target)

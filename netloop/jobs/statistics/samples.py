@@ -15,7 +15,7 @@ from dataclasses import replace
 from netloop.jobs.corners.apply import apply_settings
 from netloop.jobs.corners.expand import Corner, Task, tasks_of
 from netloop.jobs.corners.plan import Setting
-from netloop.jobs.corners.runner import check_plan
+from netloop.jobs.corners.runner import checked_plan
 from netloop.jobs.statistics.plan import SamplePlan
 from netloop.netlist import Netlist
 
@@ -50,8 +50,14 @@ def sample_tasks(splan: SamplePlan) -> tuple[Task, ...]:
     """Every sample at every corner and break node, corner by corner in plan order, samples in seed order; each
     corner is applied once and every break node looked up first (netloop.jobs.corners.check_plan), so a plan the
     netlist cannot take stops here with the plan's file:line."""
+    return checked_samples(splan)[0]
+
+
+def checked_samples(splan: SamplePlan) -> tuple[tuple[Task, ...], dict[tuple, tuple]]:
+    """sample_tasks' tasks, and the netlists the plan's check read for them (netloop.jobs.corners.checked_plan), which
+    the workers take instead of reading them again."""
     plan = splan.plan
-    checked = check_plan(plan)
+    checked, netlists = checked_plan(plan)
     if any(s.kind == "seed" for t in checked for s in t.corner.settings):
         raise plan.error("a corner sets the seed itself; the [samples] table gives every sample its seed", "samples")
     samples, inputs = [], {}
@@ -63,4 +69,4 @@ def sample_tasks(splan: SamplePlan) -> tuple[Task, ...]:
             settings = (*t.corner.settings, Setting("seed", "", str(seed)))
             samples.append(Corner(sample_name(t.corner.name, index), t.corner.netlist, settings, t.corner.line))
     # a name ends in "#" and digits, so its corner is the part before the last "#" (unique whatever the corners' names)
-    return tuple(replace(t, inputs=inputs[t.corner.name.rpartition(SEPARATOR)[0]]) for t in tasks_of(plan, tuple(samples)))
+    return tuple(replace(t, inputs=inputs[t.corner.name.rpartition(SEPARATOR)[0]]) for t in tasks_of(plan, tuple(samples))), netlists

@@ -60,3 +60,27 @@ def test_the_samples_seed_overrules_a_seed_the_netlist_sets(tmp_path):
     t_three = measure(seeded_netlist(str(plain), 3), "out").analysis.t
     assert np.array_equal(t_own, t_plain)
     assert not np.array_equal(t_own[:5], t_three[:5])
+
+
+def test_workers_take_the_netlists_the_plan_check_read_for_the_samples(tmp_path, monkeypatch):
+    """checked_samples gives the netlists the plan's check read, one per corner, keyed as workers keep them: a worker
+    given them reads no netlist for any sample (parse_file counted) and builds each sample's netlist, seed line
+    included, exactly as its own read does (the reference)."""
+    from netloop.jobs.corners import worker
+    from netloop.jobs.statistics.samples import checked_samples
+    from netloop.netlist import parse_file
+
+    plan = _plan(tmp_path, '[axes]\nparam.k = ["1", "2"]\n[samples]\ncount = 2\n')
+    tasks, netlists = checked_samples(plan)
+    assert set(netlists) == {worker.read_key(t.corner) for t in tasks}
+    reads = []
+    monkeypatch.setattr(worker, "parse_file", lambda p: reads.append(p) or parse_file(p))
+    monkeypatch.setattr(worker, "_READ", {})
+    own = [write_netlist(worker.corner_netlist(t.corner)) for t in tasks]
+    assert len(reads) == 1 and all(text.splitlines()[1].startswith(".option seed=") for text in own)
+    worker._READ.clear()
+    worker.use_netlists(netlists)
+    try:
+        assert [write_netlist(worker.corner_netlist(t.corner)) for t in tasks] == own and len(reads) == 1
+    finally:
+        worker.use_netlists(None)
