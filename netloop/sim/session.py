@@ -97,7 +97,7 @@ class NgspiceSession:
         # A buffer of NUL-terminated lines a piece and an array of pointers into them: a char[] for each of 100k lines
         # cost about 70 ms, all of it before ngspice can start reading.
         blocks = [_lines_block(ffi, piece) for piece in ((deck,) if isinstance(deck, str) else deck)]
-        starts = np.concatenate([np.zeros(0, dtype=np.int64), *(starts + address for _, address, starts in blocks)])
+        starts = np.concatenate([np.zeros(0, dtype=np.int64), *(where + address for _, address, where in blocks)])
         addresses = starts.astype(np.dtype(f"u{ffi.sizeof('char *')}"))
         table = ffi.new("char *[]", starts.size + 1)  # zeroed: the last entry is the NULL ngspice stops at
         ffi.memmove(table, addresses.tobytes(), addresses.nbytes)
