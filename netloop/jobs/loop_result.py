@@ -65,7 +65,9 @@ class SimInfo:
     seconds: float  # wall time of the simulations
     processes: int = 1  # ngspice processes that shared each job's runs (netloop.sim.SplitRunsSimulator)
     loads: int = 1  # times ngspice read the netlist (and its model files) for this measurement; 0: it ran on a circuit already loaded
-    ngspice_seconds: float = 0.0  # of ``seconds``, what ngspice itself worked (netloop.sim.SimResult.ngspice_seconds); the rest is netloop's
+    # what ngspice itself worked (netloop.sim.SimResult.ngspice_seconds): with one ngspice process a part of ``seconds``, the
+    # rest netloop's; with several (``processes``) the sum of theirs, which may exceed ``seconds``
+    ngspice_seconds: float = 0.0
 
 
 @dataclass(frozen=True, slots=True)

@@ -137,7 +137,8 @@ class SimResult:
     # SimJob.changes ngspice made in place); True when ngspice read the netlist (and its model files) for it
     loaded: bool = True
     # seconds ngspice itself worked on the job: inside its circuit and command calls (shared library), or the whole
-    # ngspice -b process (batch mode); what a caller waited beyond this is netloop's own (processes, decks, data)
+    # ngspice -b process (batch mode), summed over the processes that shared the job (netloop.sim.SplitRunsSimulator); with
+    # one process, what a caller waited beyond this is netloop's own (processes, decks, data)
     ngspice_seconds: float = 0.0
 
     @property
