@@ -143,9 +143,8 @@ class Response:
     def t_at(self, x) -> np.ndarray:
         """Interpolated complex T at x = log10 f."""
         both = self.spline(x)
-        gain, phase = both[..., 0].copy(), both[..., 1].copy()
         with np.errstate(over="ignore", invalid="ignore"):  # |T| beyond 1e308 (a gain of 1e300 in a netlist) is inf, said elsewhere
-            return 10.0 ** (gain / 20.0) * np.exp(1j * np.radians(phase))
+            return 10.0 ** (both[..., 0] / 20.0) * np.exp(1j * np.radians(both[..., 1]))
 
     def dense_x(self, per_interval: int = 16) -> np.ndarray:
         """A grid in log10 f with per_interval points in each sample interval (samples included)."""

@@ -10,7 +10,7 @@ probed netlist that no longer holds the kept ``.option`` statement itself, means
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 
 from netloop.netlist import Netlist
 from netloop.netlist.model import Directive, Statement
@@ -19,8 +19,8 @@ from netloop.probe.chain import Chain
 
 __all__ = ["KeptProbes", "option_swaps", "rewritten"]
 
-# every field of a Netlist but its statements (and its caches): equal for two samples of one corner
-_SAME = ("title", "source", "ignored", "files", "lib_sections", "globals", "warnings", "caveats", "library_warnings")
+# every field of a Netlist that counts in its equality but its statements: equal for two samples of one corner
+_SAME = tuple(f.name for f in fields(Netlist) if f.compare and f.name != "statements")
 
 
 @dataclass(frozen=True, slots=True)

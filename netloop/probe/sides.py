@@ -43,7 +43,7 @@ _CONTROL = {"M": "g", "Q": "b", "J": "g", "Z": "g"}
 _BULK = frozenset({"b", "sub"})
 _PASSIVE_PATH = frozenset("RCL")
 _ACTIVE = frozenset("MQJZEGFHBX")
-_TRANSISTOR_KINDS = frozenset("MQJZX")  # X: a device wrapper or a block, whose terminals on both ends make it a diode connection
+_TRANSISTOR_KINDS = frozenset(_CONTROL) | {"X"}  # X: a device wrapper or a block, whose terminals on both ends make it a diode connection
 _LOCAL_DEPTH = 3  # passive elements in a compensation path around a stage (Cc and Rz are two)
 _STAGE_DEPTH = 2  # active stages a compensation path may wrap (Miller: one; nested Miller: two)
 
