@@ -55,7 +55,7 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                           source, parameter or the temperature), with file:line; also said beside the verdict
     library_warnings      [sentence]: each warning about library content the circuit does not instantiate
     simulation            {backend, points, refinement_rounds, refined, convergence_aid,
-                           deck_path, seconds, processes, loads}
+                           deck_path, seconds, processes, loads, ngspice_seconds}
     loop_gain             {freq_hz, re, im}: the sampled return ratio T
     caution               the caution sentence
     infinite              {dotted.path: "+inf" | "-inf"}
