@@ -51,6 +51,34 @@ def _lines_block(ffi, piece: str) -> tuple[object, int, np.ndarray]:
     return block
 
 
+_FORGET_EVERY = 1000  # commands between two releases of ngspice's memory of past commands (NgspiceSession.command)
+
+
+def _lean(shared_class, ffi):
+    """PySpice's NgSpiceShared with its output callbacks cut down, once started (``lean`` set), to handing each line on.
+
+    PySpice's own keep every line ngspice prints, in two lists that grow for the life of the process (about 23 kB a
+    sample of the sky130 statistical bench: gigabytes over a long run), and log each line on the way (about 1 ms a
+    sample, inside ngspice's calls). While PySpice starts, its own callbacks run: it reads ngspice's version from them.
+    """
+
+    class Lean(shared_class):
+        lean = False
+
+        @staticmethod
+        def _send_char(message_c, ngspice_id, user_data):
+            self = ffi.from_handle(user_data)
+            if not self.lean:
+                return shared_class._send_char(message_c, ngspice_id, user_data)
+            return self.send_char(ffi.string(message_c).decode("utf-8", "replace"), ngspice_id)
+
+        @staticmethod
+        def _send_stat(message_c, ngspice_id, user_data):
+            return 0  # progress messages ("ac: 50%"): nobody reads them
+
+    return Lean
+
+
 class NgspiceSession:
     """A loaded libngspice: load circuits, run commands, read vectors as numpy arrays."""
 
@@ -66,8 +94,11 @@ class NgspiceSession:
             # seconds spent inside ngspice's circuit and command calls (its output lines included, which it hands to
             # _on_char as it prints them): ngspice's own time, against which netloop's own cost is measured
             self.seconds = 0.0
-            self._ng = NgSpiceShared(ngspice_id=0, send_data=False)
-        self._ng.send_char = self._on_char  # PySpice forwards every output line here
+            self._ng = _lean(NgSpiceShared, ffi)(ngspice_id=0, send_data=False)
+        self._ng.clear_output()  # what PySpice kept while it started
+        self._ng.lean = True
+        self._ng.send_char = self._on_char  # every output line comes here
+        self._commands = 0
         self._lib = self._ng._ngspice_shared
         self.version = str(self._ng.ngspice_version)
         self._lib.ngSpice_Command(f"set num_threads={NGSPICE_THREADS}".encode())  # see NGSPICE_THREADS
@@ -83,7 +114,12 @@ class NgspiceSession:
         """Run one ngspice command; returns what ngspice printed meanwhile."""
         self._lines = []
         encoded = command.encode("utf-8")
+        self._commands += 1
         start = time.perf_counter()
+        if self._commands % _FORGET_EVERY == 0:
+            # ngspice keeps every command it was given (about 400 bytes each, 15 kB a sample of a statistical run) until
+            # it is given none (NULL), as PySpice's own command method does every 10,000 commands
+            self._lib.ngSpice_Command(self._ffi.NULL)
         rc = self._lib.ngSpice_Command(encoded)
         self.seconds += time.perf_counter() - start
         if rc:

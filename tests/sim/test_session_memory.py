@@ -1,0 +1,43 @@
+"""The ngspice process keeps no memory per command: a statistical run of a million samples gives it tens of millions."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import textwrap
+
+import pytest
+
+# In a process of its own: libngspice is one instance a process, and the resident size is the process's.
+SCRIPT = textwrap.dedent(
+    """
+    import sys
+    from netloop.sim import find_libngspice
+    from netloop.sim.session import NgspiceSession
+
+    def resident_kb():
+        with open("/proc/self/statm") as fh:
+            return int(fh.read().split()[1]) * 4
+
+    session = NgspiceSession(find_libngspice())
+    session.load("held\\nv1 a 0 dc 1\\nr1 a 0 1k\\n.end")
+    for i in range(2000):  # the heap grown to its working size
+        session.command(f"echo line {i}")
+    before = resident_kb()
+    printed = 0
+    for i in range(int(sys.argv[1])):
+        printed += len(session.command(f"echo line {i}"))
+    print(resident_kb() - before, printed)
+    """
+)
+
+
+@pytest.mark.ngspice
+def test_commands_leave_no_memory_behind():
+    """10,000 commands, each printing a line, grow the ngspice process by under 0.5 MB (its resident size, from
+    /proc/self/statm). Measured before the fix: 3.6 MB, PySpice keeping every printed line and ngspice every command
+    (about 360 bytes a command; a sky130 statistical sample gives about 40 commands and 220 lines)."""
+    done = subprocess.run([sys.executable, "-c", SCRIPT, "10000"], capture_output=True, text=True, timeout=120, check=True)
+    grown_kb, printed = map(int, done.stdout.split())
+    assert printed == 10000  # every line still reaches the session
+    assert grown_kb < 512
