@@ -346,10 +346,12 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
             else:
                 sent = client.map(run_chunk, parts, options=options, netlists=given, key=keys, pure=False, **place)
             futures.update(zip(sent, ((part, size > 1) for part in parts), strict=True))
-        # the futures that finished together are fetched in one round trip to the scheduler
+            del sent  # the futures live in ``futures`` alone (let go there once fetched)
+        # the futures that finished together are fetched in one round trip to the scheduler; each is then let go, so that
+        # its worker forgets its records (a worker holds a task's result while any client holds its future)
         for batch in as_completed(futures).batches():
             for future, value in _fetch(client, batch):
-                part, chunked = futures[future]
+                part, chunked = futures.pop(future)
                 if value is None:
                     failed = future.exception()
                     results = [_lost(task, failed) for task in part]
