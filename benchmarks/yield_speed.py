@@ -25,6 +25,9 @@ Two measures of the cost beyond ngspice, both from the 1-worker run:
   compute on one thread, so their wall time is their CPU time) against the rest, the ngspice processes' own
   Python (their CPU less ngspice's own), the Dask worker's and the calling process's (which also hosts the idle
   cluster's scheduler).
+- memory (psutil, resident size) per sample: the calling process over the first 1-worker run (it keeps every record until
+  the statistics are drawn), the Dask worker and its ngspice process over the second (after the first warmed them): a
+  process that keeps something per sample grows over a long run.
 Both include what a run does once (the plan checked: every corner applied and the loop broken; the
 client connected; the statistics); the plan check is timed alone and printed beside them. Run it at the
 size of a real plan (``--samples 200``, the issue's own example) for the per-sample figure; at a few dozen
@@ -80,6 +83,25 @@ def _cpu() -> tuple[float, float]:
             t = child.cpu_times()
             children += t.user + t.system
     return own.user + own.system, children
+
+
+def _resident() -> tuple[int, int]:
+    """(resident bytes of this process, the largest of its children's): on a Dask worker, the children are its ngspice."""
+    import psutil
+
+    me = psutil.Process()
+    sizes = [0]
+    for child in me.children(recursive=True):
+        with contextlib.suppress(psutil.Error):
+            sizes.append(child.memory_info().rss)
+    return me.memory_info().rss, max(sizes)
+
+
+def resident(client) -> tuple[int, int, int]:
+    """Resident bytes now of (the calling process, the largest Dask worker of ``client``, the largest of their ngspice
+    processes)."""
+    sizes = client.run(_resident).values()
+    return _resident()[0], max(w[0] for w in sizes), max(w[1] for w in sizes)
 
 
 def cpu_snapshot(client) -> tuple[float, float, float]:
@@ -182,9 +204,12 @@ def main() -> None:
                 addresses[workers] = cluster.scheduler_address
                 startup[workers] = time.perf_counter() - started
             idle = idle_rate()  # both clusters up, no work: what the calling process spends on them regardless
+            memory = [resident(clients[1])]  # before the first 1-worker run
             for i in range(args.repeat):
                 for workers in ((1, 2) if i % 2 == 0 else (2, 1)):  # taking turns: a burst of other work hits both counts
                     runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
+                    if workers == 1:
+                        memory.append(resident(clients[1]))  # after each 1-worker run
         load_after = os.getloadavg()
         prepare, check = deck_preparation(plan), plan_check(plan)
         (wall1, rec1, cpu1), (wall2, rec2, _cpu2) = (min(runs[w], key=lambda x: x[0]) for w in (1, 2))
@@ -229,6 +254,12 @@ def main() -> None:
               f"{check / n * 1e3:.1f} ms a sample at {n} samples")
         print(f"not counted above, once per run: starting the local cluster and its ngspice, {startup[1]:.1f} s for 1 worker, "
               f"{startup[2]:.1f} s for 2")
+        if len(memory) > 2:  # the calling process over the first run (its records); the worker and ngspice over the second, warmed
+            caller = (memory[1][0] - memory[0][0]) / n / 1024
+            worker, spice = ((memory[2][k] - memory[1][k]) / n / 1024 for k in (1, 2))
+            print(f"memory per sample on 1 worker (resident size): the calling process {caller:.1f} kB over the first run (it keeps "
+                  f"every record until the statistics are drawn); over the second, the Dask worker {worker:.1f} kB and its ngspice "
+                  f"process {spice:.1f} kB ({memory[2][1] / 2**20:.0f} and {memory[2][2] / 2**20:.0f} MB at the end)")
         print(f"T of every sample the same on 1 and 2 workers, bit for bit: {all(same)} ({sum(same)} of {len(same)})")
 
 
