@@ -122,7 +122,7 @@ def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, 
     run = run_samples(load_sample_plan(plan_path), cluster=address, out=out, force=True)
     wall = time.perf_counter() - start
     cpu_after = cpu_snapshot(client)
-    return wall, run.run.records, tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True))
+    return wall, run.whole_records(), tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True))
 
 
 def deck_preparation(plan_path: Path, repeat: int = 5) -> float:

@@ -30,7 +30,7 @@ class CornerRun:
 
     plan: str
     results_path: str
-    records: tuple[dict, ...]
+    records: tuple[dict, ...]  # whole, or what run_tasks' ``held`` keeps of each (the results file has them whole)
     ran: int  # tasks run now
     skipped: int  # tasks found done in the results file (--resume)
     workers: int = 0
@@ -262,16 +262,19 @@ def run_plan(plan: Plan, *, jobs: int | None = None, cluster: str | None = None,
 
 def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, cluster: str | None = None,
               out: str | Path | None = None, resume: bool = False, force: bool = False, progress: bool = False,
-              noun: str = "corners", netlists: dict[tuple, tuple] | None = None, chunk: int = 1) -> CornerRun:
+              noun: str = "corners", netlists: dict[tuple, tuple] | None = None, chunk: int = 1,
+              held: Callable[[dict], dict] | None = None) -> CornerRun:
     """Run the tasks (checked: `check_plan`, or another job's tasks built from its corners) not yet in the results
     file, as `run_plan` does; ``noun`` names them on the progress bar; ``netlists`` (`checked_plan`'s) go to the workers.
     ``chunk``: up to that many of a worker's tasks in one Dask task (`chunk_size`), for tasks so short that Dask's own
-    cost per task counts; their records reach the results file when their Dask task ends."""
+    cost per task counts; their records reach the results file when their Dask task ends. ``held``: what the run keeps
+    in memory of each record, the results file having it whole (default: all of it), for runs of many tasks."""
     path = Path(out) if out is not None else default_results_path(plan.path)
     cache: dict[str, str] = {}
     inputs = {t.key: fingerprints(t.inputs, cache) for t in tasks}
     journal = Journal.open(path, plan=plan.path, total=len(tasks), resume=resume, force=force, inputs=inputs)
-    by_key: dict[str, tuple[dict, ...]] = {k: tuple(v) for k, v in journal.done.items()}
+    keep = held or (lambda record: record)
+    by_key: dict[str, tuple[dict, ...]] = {k: tuple(map(keep, v)) for k, v in journal.done.items()}
     pending = [t for t in tasks if t.key not in by_key]
     bar = Progress(len(tasks), enabled=progress, noun=noun)
     bar.done = len(tasks) - len(pending)
@@ -283,7 +286,7 @@ def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, c
             needed = {read_key(t.corner) for t in pending}
             given = {k: v for k, v in (netlists or {}).items() if k in needed}
             workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
-                           inputs=inputs, netlists=given, chunk=chunk)
+                           inputs=inputs, netlists=given, chunk=chunk, keep=keep)
     finally:
         journal.close()
         bar.finish()
@@ -320,7 +323,7 @@ def chunk_size(tasks: int, chunk: int) -> int:
 
 
 def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None,
-         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple], chunk: int = 1) -> int:
+         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple], chunk: int = 1, keep: Callable[[dict], dict]) -> int:
     from distributed import as_completed
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
@@ -360,7 +363,7 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
                 for task, records in zip(part, results, strict=True):
                     records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
                     journal.write(records)
-                    by_key[task.key] = records
+                    by_key[task.key] = tuple(map(keep, records))
                     loads = [r.get("loads") for r in records]
                     bar.advance(any(r["outcome"] != "pass" for r in records), sum(loads) if None not in loads else None)
     return workers

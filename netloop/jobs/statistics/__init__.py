@@ -36,6 +36,7 @@ from netloop.jobs.statistics.summary import (
     Spread,
     Yield,
     YieldStatistics,
+    statistics_part,
     summarise,
 )
 
@@ -63,6 +64,7 @@ __all__ = [
     "sample_tasks",
     "samples_needed",
     "seeded_netlist",
+    "statistics_part",
     "summarise",
     "upper_bound",
 ]

@@ -7,12 +7,13 @@ from pathlib import Path
 
 from netloop.errors import NetloopError
 from netloop.jobs.corners.apply import apply_settings
+from netloop.jobs.corners.journal import read_records
 from netloop.jobs.corners.plan import AUTO
 from netloop.jobs.corners.runner import CornerRun, run_tasks
 from netloop.jobs.loop_result import LoopResult
 from netloop.jobs.statistics.plan import SamplePlan
 from netloop.jobs.statistics.samples import SEPARATOR, checked_samples, sample_tasks
-from netloop.jobs.statistics.summary import YieldStatistics, summarise
+from netloop.jobs.statistics.summary import YieldStatistics, statistics_part, summarise
 
 __all__ = ["SAMPLE_CHUNK", "SampleRun", "rerun_sample", "run_samples"]
 
@@ -27,8 +28,16 @@ class SampleRun:
     """A statistical plan run: its records and bookkeeping (as a corner run's), and the statistics they show."""
 
     plan: SamplePlan
-    run: CornerRun  # records in plan order (corner by corner, samples in seed order), results file, ran, skipped
+    run: CornerRun  # records in plan order (corner by corner, samples in seed order), as the statistics read them
+    # (statistics_part: without T); results file, ran, skipped
     statistics: YieldStatistics
+
+    def whole_records(self) -> tuple[dict, ...]:
+        """The run's records whole (T and the whole loop document), read back from its results file, in the order of
+        ``run.records``."""
+        written, _ = read_records(self.run.results_path)
+        whole = {(r.get("key"), r.get("at")): r for r in written if r.get("record") == "corner"}  # a task's later record wins
+        return tuple(whole[(r["key"], r["at"])] for r in self.run.records)
 
     @property
     def verdict(self) -> str:
@@ -49,10 +58,11 @@ def run_samples(splan: SamplePlan, *, workers: int | None = None, cluster: str |
     (netloop.jobs.corners.run_tasks): on Dask workers with their own ngspice, up to SAMPLE_CHUNK samples in
     one Dask task, each record appended to the results file (default PLAN.results.jsonl) the moment its Dask
     task finishes, ``resume`` skipping the samples it already holds (a killed run measures those of its
-    unfinished Dask tasks again). ``target`` and ``confidence`` (fractions) override the plan's."""
+    unfinished Dask tasks again). ``target`` and ``confidence`` (fractions) override the plan's. The run keeps in memory
+    what the statistics read of each record (statistics_part); SampleRun.whole_records reads them whole."""
     tasks, netlists = checked_samples(splan)
     run = run_tasks(splan.plan, tasks, jobs=workers, cluster=cluster, out=out, resume=resume, force=force, progress=progress,
-                    noun="samples", netlists=netlists, chunk=SAMPLE_CHUNK)
+                    noun="samples", netlists=netlists, chunk=SAMPLE_CHUNK, held=statistics_part)
     confidence = confidence if confidence is not None else splan.confidence
     target = target if target is not None else splan.target
     statistics = summarise(run.records, [r.text for r in splan.plan.requirements], confidence=confidence, target=target)

@@ -40,6 +40,7 @@ __all__ = [
     "Spread",
     "Yield",
     "YieldStatistics",
+    "statistics_part",
     "summarise",
 ]
 
@@ -182,6 +183,20 @@ def _value(loop: Mapping, path: str) -> float | None:
         sign = (loop.get("infinite") or {}).get(path)
         return {"+inf": math.inf, "-inf": -math.inf}.get(sign)
     return float(node)
+
+
+# what of a loop document outcome() reads: the requirements met, the Nyquist verdict, the self-checks, the figures
+_READ = ("requirements", "stability", "checks", "infinite", *sorted({path.split(".")[0] for _, _, path in FIGURES.values()}))
+
+
+def statistics_part(record: Mapping) -> dict:
+    """What of a sample's record the statistics read (outcome): everything but T, the rest of the loop document and the
+    input fingerprints, about a third of the record in memory. A statistical run keeps only this of each record; the
+    results file has them whole (SampleRun.whole_records)."""
+    loop = record.get("loop")
+    part = {k: v for k, v in record.items() if k not in ("loop", "inputs", "simulator_output")}
+    part["loop"] = {k: loop[k] for k in _READ if k in loop} if loop else loop
+    return part
 
 
 def outcome(record: Mapping) -> SampleOutcome:

@@ -24,7 +24,7 @@ def test_mismatch_on_spreads_the_margins_and_mismatch_off_does_not(tmp_path):
     with local_cluster(2) as cluster:
         run = run_samples(load_sample_plan(tmp_path / "plan.toml"), cluster=cluster.scheduler_address)
     assert [r["outcome"] for r in run.run.records] == ["pass"] * 6
-    loops = {c: [r["loop"]["loop_gain"] for r in run.run.records if r["corner"].startswith(c + "#")] for c in ("tt", "tt_mm")}
+    loops = {c: [r["loop"]["loop_gain"] for r in run.whole_records() if r["corner"].startswith(c + "#")] for c in ("tt", "tt_mm")}
     assert loops["tt"][0] == loops["tt"][1] == loops["tt"][2]
     assert loops["tt_mm"][0]["re"] != loops["tt_mm"][1]["re"] != loops["tt_mm"][2]["re"] != loops["tt_mm"][0]["re"]
     pm = {s.corner: s for s in run.statistics.spreads if s.figure == "pm" and s.corner}

@@ -92,14 +92,15 @@ def sampled(tmp_path_factory, scheduler):
     (folder / "loop.cir").write_text(LOOP)
     (folder / "plan.toml").write_text(f'netlist = "loop.cir"\nat = "out"\nrequire = ["{TEXT}"]\n[samples]\ncount = {SAMPLES}\n')
     plan = load_sample_plan(folder / "plan.toml")
-    return plan, run_samples(plan, cluster=scheduler)
+    run = run_samples(plan, cluster=scheduler)
+    return plan, run, run.whole_records()
 
 
 def test_sampled_gain_follows_the_declared_distribution(sampled):
     """The gm1 each sample measured (from its T) is N(1e-3, 1e-4) by a KS test; the other reading of agauss's
     third argument (standard deviation avar itself, 3e-4) is rejected by the same test."""
-    _, run = sampled
-    gm1 = np.array([gain_of(r) for r in run.run.records]) / (R1 * GM2 * R2)
+    _, _, records = sampled
+    gm1 = np.array([gain_of(r) for r in records]) / (R1 * GM2 * R2)
     assert len(set(gm1.tolist())) == SAMPLES  # every seed drew its own value
     assert kstest(gm1, norm(MU, SIGMA).cdf).pvalue > 0.01
     assert kstest(gm1, norm(MU, 3 * SIGMA).cdf).pvalue < 1e-6
@@ -108,9 +109,9 @@ def test_sampled_gain_follows_the_declared_distribution(sampled):
 def test_phase_margin_follows_the_transformed_gain_distribution(sampled):
     """The measured phase margins agree with each sample's closed form to 1e-6 deg, and their empirical distribution
     is the analytic one, P(PM <= p) = P(K >= K(p)), by a KS test (a spread three times as wide is rejected)."""
-    _, run = sampled
-    pm = np.array([r["loop"]["margins"]["phase_margin_deg"] for r in run.run.records])
-    closed = np.array([pm_of_gain(gain_of(r)) for r in run.run.records])
+    _, _, records = sampled
+    pm = np.array([r["loop"]["margins"]["phase_margin_deg"] for r in records])
+    closed = np.array([pm_of_gain(gain_of(r)) for r in records])
     assert np.max(np.abs(pm - closed)) < 1e-6
     assert kstest(pm, pm_cdf).pvalue > 0.01
     assert kstest(pm, lambda p: pm_cdf(p, 3 * K_SIGMA)).pvalue < 1e-6
@@ -120,7 +121,7 @@ def test_yield_intervals_cover_the_analytic_yield_over_repeated_seeds(sampled):
     """The true yield of pm >= 51.5, P(K <= K(51.5)), lies in the 95 % Clopper-Pearson interval of at least 11 of the 12
     blocks of 20 seeds (each covers with probability >= 95 %), and of the whole run, whose yield estimate counts the
     samples whose closed-form margin meets the requirement."""
-    _, run = sampled
+    _, run, records = sampled
     truth = norm.cdf(gain_of_pm(REQUIRE), K_MU, K_SIGMA)
     assert 0.6 < truth < 0.8  # a yield the bounds can miss on either side
     covered = 0
@@ -131,18 +132,28 @@ def test_yield_intervals_cover_the_analytic_yield_over_repeated_seeds(sampled):
     assert covered >= 11
     whole = run.statistics.yields_of(TEXT)[0]
     assert whole.samples == SAMPLES and whole.interval[0] <= truth <= whole.interval[1] and whole.lower <= truth
-    assert whole.estimate == sum(pm_of_gain(gain_of(r)) >= REQUIRE for r in run.run.records) / SAMPLES
+    assert whole.estimate == sum(pm_of_gain(gain_of(r)) >= REQUIRE for r in records) / SAMPLES
+
+
+def test_the_run_keeps_what_its_statistics_read(sampled):
+    """The records a run keeps in memory (statistics_part: no T, a third of a record) give the same statistics, figure
+    for figure, as the whole records read back from the results file (SampleRun.whole_records), which hold T."""
+    plan, run, records = sampled
+    assert all("loop_gain" not in r["loop"] for r in run.run.records) and all("loop_gain" in r["loop"] for r in records)
+    assert [r["corner"] for r in records] == [r["corner"] for r in run.run.records]
+    texts = [r.text for r in plan.plan.requirements]
+    assert repr(summarise(records, texts)) == repr(run.statistics) == repr(summarise(run.run.records, texts))
 
 
 def test_a_sample_reruns_alone_bit_for_bit_and_another_seed_differs(sampled):
     """rerun_sample gives the very T and margins the results file holds for that seed (a fresh ngspice, not the
     worker's), and the next seed's T differs."""
-    plan, run = sampled
-    record = next(r for r in run.run.records if r["corner"] == "nominal#7")
+    plan, _, records = sampled
+    record = next(r for r in records if r["corner"] == "nominal#7")
     assert record["settings"]["seed"] == "7"
     again = json.loads(json.dumps(_document(rerun_sample(plan, "nominal#7")[0])))
     assert again["loop_gain"] == record["loop"]["loop_gain"] and again["margins"] == record["loop"]["margins"]
-    other = next(r for r in run.run.records if r["corner"] == "nominal#8")
+    other = next(r for r in records if r["corner"] == "nominal#8")
     assert other["loop"]["loop_gain"]["re"] != record["loop"]["loop_gain"]["re"]
 
 
@@ -159,10 +170,10 @@ def test_samples_crossed_with_corners_are_the_same_die_at_each(tmp_path, schedul
     (tmp_path / "plan.toml").write_text('netlist = "loop.cir"\nat = "out"\n[axes]\nparam.c1 = ["1.59e-9", "3.18e-9"]\n'
                                         "[samples]\ncount = 4\nfirst_seed = 500\n")
     plan = load_sample_plan(tmp_path / "plan.toml")
-    run = run_samples(plan, cluster=scheduler)
-    assert sorted(r["loads"] for r in run.run.records) == [0] * 4 + [1] * 4  # one load per seed, the other corner in place
+    records = run_samples(plan, cluster=scheduler).whole_records()
+    assert sorted(r["loads"] for r in records) == [0] * 4 + [1] * 4  # one load per seed, the other corner in place
     by_corner = {}
-    for r in run.run.records:
+    for r in records:
         corner, seed = r["corner"].rpartition("#")[0], int(r["settings"]["seed"])
         w1 = 1 / (R1 * float(r["settings"]["param.c1"]))
         t = r["loop"]["loop_gain"]
@@ -171,7 +182,7 @@ def test_samples_crossed_with_corners_are_the_same_die_at_each(tmp_path, schedul
     first, second = by_corner.values()
     assert sorted(first) == [500, 501, 502, 503] and all(first[s] == pytest.approx(second[s], rel=1e-9) for s in first)
     assert len({round(v, 6) for v in first.values()}) == 4
-    for r in run.run.records[::3]:
+    for r in records[::3]:
         again = _document(rerun_sample(plan, r["corner"])[0])
         assert again["loop_gain"] == r["loop"]["loop_gain"]
 
@@ -196,10 +207,11 @@ def test_a_lost_chunk_of_samples_is_recorded_sample_by_sample(tmp_path, schedule
     plan = load_sample_plan(tmp_path / "plan.toml")
     run = run_samples(plan, cluster=scheduler, out=tmp_path / "r.jsonl")
     assert runner.chunk_size(16 // 2, 4) == 2  # 8 samples a worker: chunks of two
-    errors = [r for r in run.run.records if r["outcome"] == "error"]
+    records = run.whole_records()
+    errors = [r for r in records if r["outcome"] == "error"]
     assert len(errors) == 2 and "nominal#5" in {r["corner"] for r in errors}
     assert all("the worker failed: RuntimeError('worker lost')" in r["error"] and r["loop"] is None for r in errors)
-    measured = [r for r in run.run.records if r["outcome"] != "error"]
+    measured = [r for r in records if r["outcome"] != "error"]
     assert len(measured) == 14 and len({gain_of(r) for r in measured}) == 14
     written, _ = read_records(tmp_path / "r.jsonl")
     assert sorted(r["corner"] for r in written if r.get("record") == "corner") == sorted(f"nominal#{i}" for i in range(1, 17))
