@@ -27,7 +27,6 @@ from netloop.jobs.measure_checks import (PZ_MAX_ELEMENTS, Trial, op_check, other
                                          op_sources)
 from netloop.jobs.splits import LoopStructure
 from netloop.probe import ProbedNetlist, ProbeVectors, break_loop, split_loop
-from netloop.probe.breaking import locate_split
 from netloop.probe.chain import Chain, chain_probes
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator, default_simulator, processes_for
 from netloop.sim.background import StartingSimulator, run_while
@@ -431,7 +430,7 @@ def measure(
     ``driver`` the split the rules give is checked, and another placement of the bridging elements
     is measured when it fails its checks (netloop.jobs.measure_checks; ``decided_by`` and the
     job check "split" say what was moved and why). ``decisions``: where and how the node is split
-    (netloop.probe.locate_split's answers, and the probed netlists themselves: netloop.jobs.kept_probes)
+    (the probed netlists themselves, rewritten for the next netlist: netloop.jobs.kept_probes)
     and which sources bound the operating point, kept by the caller for netlists that differ from this
     one only in ngspice's seed (the samples of one corner): read when there, else found and added.
     """
@@ -488,8 +487,8 @@ def _probes(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str
     if reused is not None:
         unchecked, checked, chain = reused
         return unchecked, chain, None, lambda: checked
-    unchecked, loop_check = _split(parsed, at, driver, placement, decisions)  # is the node on a loop? asked during the first simulation
-    chain = _chain(parsed, at, unchecked, decisions) if free else None  # the split tried first when this one is doubted, in the same netlist
+    unchecked, loop_check = split_loop(parsed, at, driver=driver, placement=placement)  # is the node on a loop? asked during the first simulation
+    chain = _chain(parsed, at, unchecked) if free else None  # the split tried first when this one is doubted, in the same netlist
 
     def checked() -> ProbedNetlist:
         probed = loop_check()
@@ -500,32 +499,10 @@ def _probes(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str
     return unchecked, chain, loop_check, checked
 
 
-def _split(parsed: Netlist, at: str, driver: str | None, placement: Mapping[str, str] | None, decisions: dict | None) -> tuple:
-    """split_loop's answer, its decision taken from ``decisions`` (measure's) when there, and added to them when not."""
-    key = ("split", at.strip().lower(), driver, tuple(sorted((placement or {}).items())))
-    decided = decisions.get(key) if decisions is not None else None
-    if decisions is not None and decided is None:
-        try:  # found once here and applied below, instead of split_loop finding it and this asking again
-            decided = decisions[key] = locate_split(parsed, at, driver=driver, placement=placement)
-        except (ProbeError, UnknownNodeError):
-            pass  # split_loop refuses the node again, saying which netlist
-    return split_loop(parsed, at, driver=driver, placement=placement, decided=decided)
-
-
-def _chain(parsed: Netlist, at: str, first: ProbedNetlist, decisions: dict | None = None) -> Chain | None:
-    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None;
-    ``decisions`` as measure's (None stands for a chain refused)."""
+def _chain(parsed: Netlist, at: str, first: ProbedNetlist) -> Chain | None:
+    """The first split chained with the other placement tried first when it is doubted (netloop.probe.chain), or None."""
     places = other_placements(first)
-    if not places:
-        return None
-    key = ("chain", first.node, tuple(sorted(places[0].items())))
-    if decisions is not None and key in decisions:
-        located = decisions[key]
-        return chain_probes(parsed, at, first, places[0], located) if located is not None else None
-    chain = chain_probes(parsed, at, first, places[0])
-    if decisions is not None:
-        decisions[key] = chain.located if chain is not None else None
-    return chain
+    return chain_probes(parsed, at, first, places[0]) if places else None
 
 
 def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: LoopAnalysis, info: SimInfo, sim_warnings: tuple[str, ...],

@@ -17,7 +17,7 @@ from dataclasses import dataclass, replace
 
 from netloop.errors import ProbeError
 from netloop.netlist.model import Netlist
-from netloop.probe.breaking import Located, locate_split, split_loop
+from netloop.probe.breaking import locate_split, split_loop
 from netloop.probe.records import ProbedNetlist, ProbeVectors
 
 __all__ = ["Chain", "chain_probes"]
@@ -33,7 +33,6 @@ class Chain:
     shunt_source: str
     side_a: str
     vectors: ProbeVectors
-    located: Located  # where and how the other split splits the node (locate_split's answer), for chain_probes' ``located``
 
     def other(self, plain: ProbedNetlist) -> ProbedNetlist:
         """The other split's record (``plain``: break_loop's for ``placement``, with its warnings) measured on the chained netlist."""
@@ -42,19 +41,16 @@ class Chain:
                        circuit_saves=self.first.circuit_saves)
 
 
-def chain_probes(netlist: Netlist, at: str, first: ProbedNetlist, placement: Mapping[str, str], located: Located | None = None) -> Chain | None:
+def chain_probes(netlist: Netlist, at: str, first: ProbedNetlist, placement: Mapping[str, str]) -> Chain | None:
     """``first`` (break_loop's split of ``at`` in ``netlist``) chained with the split ``placement`` gives, or None when the two
     cannot share one netlist: the other split is refused, the node is inside an instance, or its driver terminals are not a
-    proper subset of the first split's (the other terminals on both sides the same). ``located``: that split as a Chain of
-    another netlist with the same instance paths located it (Chain.located), applied instead of locating it here."""
+    proper subset of the first split's (the other terminals on both sides the same)."""
     if first.copied_subcircuits:
         return None
-    if located is None:
-        try:
-            located = locate_split(netlist, at, placement=placement)
-        except ProbeError:
-            return None
-    scope, node, split = located
+    try:
+        scope, node, split = locate_split(netlist, at, placement=placement)
+    except ProbeError:
+        return None
     driver = {t.label for t in split.driver}
     moved = set(first.driver_terminals) - driver
     if (scope.path or any(t.slot < 0 for t in split.driver) or not moved or not driver < set(first.driver_terminals)
@@ -67,4 +63,4 @@ def chain_probes(netlist: Netlist, at: str, first: ProbedNetlist, placement: Map
     sources = (first.series_source, first.shunt_source, inner.series_source, inner.shunt_source)
     saves = tuple(dict.fromkeys((*first.vectors.save, *vectors.save)))
     chained = replace(first, netlist=inner.netlist, circuit_sources=sources, circuit_saves=saves)
-    return Chain(dict(placement), chained, inner.series_source, inner.shunt_source, inner.side_a, vectors, located)
+    return Chain(dict(placement), chained, inner.series_source, inner.shunt_source, inner.side_a, vectors)

@@ -30,9 +30,9 @@ def _mismatched_miller(folder: Path) -> Path:
 
 @pytest.mark.ngspice
 def test_samples_of_a_corner_reuse_the_split_with_the_t_of_a_fresh_split(tmp_path, monkeypatch):
-    """Three samples measured one after the other in one worker share the split decisions the first found (the split,
-    the chained other placement of Cc, the sources that bound the operating point; the second and third take the first's
-    probed netlists with their own seed line: the node is split once); each has the T, margins, break and
+    """Three samples measured one after the other in one worker share the decisions the first took (its probed netlists,
+    the split and the chained other placement of Cc, which the second and third take with their own seed line: the node
+    is split once; the sources that bound the operating point); each has the T, margins, break and
     checks of its seed measured alone with a fresh split and a fresh ngspice (rerun_sample, `netloop check --seed`'s
     path), and the seeds' T differ."""
     monkeypatch.setattr(worker, "_DECISIONS", {})
@@ -46,7 +46,7 @@ def test_samples_of_a_corner_reuse_the_split_with_the_t_of_a_fresh_split(tmp_pat
     records = [run_task(task, TaskOptions())[0] for task in sample_tasks(plan)]
     assert splits == ["out"]
     (decisions,) = worker._DECISIONS.values()
-    assert {key[0] for key in decisions} == {"split", "chain", "op-sources", "probes"} and all(v is not None for v in decisions.values())
+    assert {key[0] for key in decisions} == {"op-sources", "probes"} and all(v is not None for v in decisions.values())
     from netloop.jobs.document import to_document
 
     for record in records:
