@@ -25,9 +25,9 @@ Two measures of the cost beyond ngspice, both from the 1-worker run:
   compute on one thread, so their wall time is their CPU time) against the rest, the ngspice processes' own
   Python (their CPU less ngspice's own), the Dask worker's and the calling process's (which also hosts the idle
   cluster's scheduler).
-- memory (psutil, resident size) per sample: the calling process over the first 1-worker run (it keeps every record until
-  the statistics are drawn), the Dask worker and its ngspice process over the second (after the first warmed them): a
-  process that keeps something per sample grows over a long run.
+- memory (psutil, resident size) per sample, over each 1-worker run after the first (which warms every process): the
+  calling process (it keeps what the statistics read of each record until they are drawn), the Dask worker and its
+  ngspice process; a process that kept something per sample would grow run after run.
 Both include what a run does once (the plan checked: every corner applied and the loop broken; the
 client connected; the statistics); the plan check is timed alone and printed beside them. Run it at the
 size of a real plan (``--samples 200``, the issue's own example) for the per-sample figure; at a few dozen
@@ -112,17 +112,20 @@ def cpu_snapshot(client) -> tuple[float, float, float]:
     return own, sum(w[0] for w in workers.values()), sum(w[1] for w in workers.values())
 
 
-def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, tuple[dict, ...], tuple[float, ...]]:
-    """Wall time of run_samples on ``client``'s scheduler (journal, Dask, statistics included), its records, and the CPU
-    seconds spent meanwhile (as cpu_snapshot splits them)."""
+def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, tuple[dict, ...], tuple[float, ...], tuple[int, ...]]:
+    """Wall time of run_samples on ``client``'s scheduler (journal, Dask, statistics included), its records whole (read back
+    from the results file), the CPU seconds spent meanwhile (as cpu_snapshot splits them), and how much the resident sizes
+    (as ``resident`` gives them) grew over the run, what it keeps in memory included."""
     from netloop.jobs.statistics import load_sample_plan, run_samples
 
+    memory_before = resident(client)
     cpu_before = cpu_snapshot(client)
     start = time.perf_counter()
     run = run_samples(load_sample_plan(plan_path), cluster=address, out=out, force=True)
     wall = time.perf_counter() - start
     cpu_after = cpu_snapshot(client)
-    return wall, run.whole_records(), tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True))
+    grown = tuple(a - b for a, b in zip(resident(client), memory_before, strict=True))
+    return wall, run.whole_records(), tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True)), grown
 
 
 def deck_preparation(plan_path: Path, repeat: int = 5) -> float:
@@ -204,15 +207,12 @@ def main() -> None:
                 addresses[workers] = cluster.scheduler_address
                 startup[workers] = time.perf_counter() - started
             idle = idle_rate()  # both clusters up, no work: what the calling process spends on them regardless
-            memory = [resident(clients[1])]  # before the first 1-worker run
             for i in range(args.repeat):
                 for workers in ((1, 2) if i % 2 == 0 else (2, 1)):  # taking turns: a burst of other work hits both counts
                     runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
-                    if workers == 1:
-                        memory.append(resident(clients[1]))  # after each 1-worker run
         load_after = os.getloadavg()
         prepare, check = deck_preparation(plan), plan_check(plan)
-        (wall1, rec1, cpu1), (wall2, rec2, _cpu2) = (min(runs[w], key=lambda x: x[0]) for w in (1, 2))
+        (wall1, rec1, cpu1, _), (wall2, rec2, _cpu2, _) = (min(runs[w], key=lambda x: x[0]) for w in (1, 2))
         n = len(rec1)
         waited = statistics.fmean(r["sim_seconds"] for r in rec1)
         sim = statistics.fmean(r["loop"]["simulation"]["ngspice_seconds"] for r in rec1)  # ngspice's own
@@ -254,12 +254,13 @@ def main() -> None:
               f"{check / n * 1e3:.1f} ms a sample at {n} samples")
         print(f"not counted above, once per run: starting the local cluster and its ngspice, {startup[1]:.1f} s for 1 worker, "
               f"{startup[2]:.1f} s for 2")
-        if len(memory) > 2:  # the calling process over the first run (its records); the worker and ngspice over the second, warmed
-            caller = (memory[1][0] - memory[0][0]) / n / 1024
-            worker, spice = ((memory[2][k] - memory[1][k]) / n / 1024 for k in (1, 2))
-            print(f"memory per sample on 1 worker (resident size): the calling process {caller:.1f} kB over the first run (it keeps "
-                  f"every record until the statistics are drawn); over the second, the Dask worker {worker:.1f} kB and its ngspice "
-                  f"process {spice:.1f} kB ({memory[2][1] / 2**20:.0f} and {memory[2][2] / 2**20:.0f} MB at the end)")
+        grown = [r[3] for r in runs[1]]  # each 1-worker run's growth, in the order they ran
+        if len(grown) > 1:  # after the first run warmed every process
+            each = "; ".join(" / ".join(f"{x / 2**20:.1f} MB ({x / n / 1024:.1f} kB a sample)" for x in g) for g in grown[1:])
+            print(f"memory over each 1-worker run after the first (resident size), the calling process / the Dask worker / its ngspice "
+                  f"process: {each}. The calling process keeps what the statistics read of each record until they are drawn; a worker "
+                  "process that kept something per sample would grow by as much run after run (a few MB a run while its heap settles "
+                  "does not grow with the samples: compare --samples)")
         print(f"T of every sample the same on 1 and 2 workers, bit for bit: {all(same)} ({sum(same)} of {len(same)})")
 
 
