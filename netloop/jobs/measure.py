@@ -19,7 +19,7 @@ from netloop.analysis.engine import Draft, analyse_draft, finish
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
-from netloop.errors import NetloopError, ProbeError, UnknownNodeError
+from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.kept_probes import KeptProbes, rewritten
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, caveats_on_error, netlist_notes
 from netloop.netlist import Netlist, flat_element_count, parse_file, parse_text, write_netlist
