@@ -71,44 +71,34 @@ def _warm() -> None:
     load_scipy()
 
 
-def _cpu() -> tuple[float, float]:
-    """(CPU seconds of this process, of its children): on a Dask worker, the children are its ngspice."""
+def _usage() -> tuple[float, float, int, int]:
+    """(CPU seconds of this process, of its children; resident bytes of this process, the largest of its children's): on a
+    Dask worker, the children are its ngspice."""
     import psutil
 
     me = psutil.Process()
     own = me.cpu_times()
-    children = 0.0
+    children, sizes = 0.0, [0]
     for child in me.children(recursive=True):
         with contextlib.suppress(psutil.Error):
             t = child.cpu_times()
             children += t.user + t.system
-    return own.user + own.system, children
-
-
-def _resident() -> tuple[int, int]:
-    """(resident bytes of this process, the largest of its children's): on a Dask worker, the children are its ngspice."""
-    import psutil
-
-    me = psutil.Process()
-    sizes = [0]
-    for child in me.children(recursive=True):
-        with contextlib.suppress(psutil.Error):
             sizes.append(child.memory_info().rss)
-    return me.memory_info().rss, max(sizes)
+    return own.user + own.system, children, me.memory_info().rss, max(sizes)
 
 
 def resident(client) -> tuple[int, int, int]:
     """Resident bytes now of (the calling process, the largest Dask worker of ``client``, the largest of their ngspice
     processes)."""
-    sizes = client.run(_resident).values()
-    return _resident()[0], max(w[0] for w in sizes), max(w[1] for w in sizes)
+    sizes = client.run(_usage).values()
+    return _usage()[2], max(w[2] for w in sizes), max(w[3] for w in sizes)
 
 
 def cpu_snapshot(client) -> tuple[float, float, float]:
     """CPU seconds so far of (the calling process, with the client and both local schedulers; the Dask worker processes
     of ``client``; their ngspice processes)."""
-    own = _cpu()[0]
-    workers = client.run(_cpu)
+    own = _usage()[0]
+    workers = client.run(_usage)
     return own, sum(w[0] for w in workers.values()), sum(w[1] for w in workers.values())
 
 
@@ -169,9 +159,9 @@ def plan_check(plan_path: Path, repeat: int = 3) -> float:
 def idle_rate(seconds: float = 2.0) -> float:
     """CPU seconds a second of the calling process with no work: the clients, schedulers and nannies of both local clusters
     keeping time (heartbeats, ticks). A run's calling-process CPU holds this for both clusters, though only one works."""
-    before = _cpu()[0]
+    before = _usage()[0]
     time.sleep(seconds)
-    return (_cpu()[0] - before) / seconds
+    return (_usage()[0] - before) / seconds
 
 
 def main() -> None:
