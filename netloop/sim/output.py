@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 
-__all__ = ["ac_op_failed", "error_lines", "fatal_lines", "ngspice_fallback", "op_failed", "recovery", "summary", "tail"]
+__all__ = ["ac_op_failed", "error_lines", "fatal_among", "fatal_lines", "ngspice_fallback", "op_failed", "recovery", "summary", "tail"]
 
 # Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
 # and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
@@ -94,9 +94,14 @@ def ngspice_fallback(lines: Iterable[str]) -> str | None:
 def fatal_lines(lines: Iterable[str]) -> tuple[str, ...]:
     """The error lines that are not ngspice's notes while it iterates (netloop.sim.diagnostics.numerical): an analysis
     that finished despite those recovered from them; these others (a command or netlist it refused) are failures."""
+    return fatal_among(error_lines(lines))
+
+
+def fatal_among(errors: tuple[str, ...]) -> tuple[str, ...]:
+    """fatal_lines of output whose error_lines are ``errors``."""
     from netloop.sim.diagnostics import numerical  # noqa: PLC0415
 
-    return tuple(line for line in error_lines(lines) if not numerical(line))
+    return tuple(line for line in errors if not numerical(line))
 
 
 def recovery(lines: Iterable[str]) -> str | None:

@@ -163,9 +163,8 @@ class NgspiceSession:
 
     def _copy(self, info) -> np.ndarray:
         ffi, length = self._ffi, info.v_length
-        if info.v_compdata != ffi.NULL:
-            pairs = np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.float64)
-            return (pairs[0::2] + 1j * pairs[1::2]).astype(np.complex128)
+        if info.v_compdata != ffi.NULL:  # ngspice's complex (real, imaginary) doubles: numpy's complex128 layout
+            return np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.complex128).copy()
         if info.v_realdata != ffi.NULL:
             return np.frombuffer(ffi.buffer(info.v_realdata, length * 8), dtype=np.float64).copy()
         return np.zeros(0)

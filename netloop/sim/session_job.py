@@ -24,7 +24,7 @@ from netloop.sim.frequency import merge_sweeps
 from netloop.sim.in_place import change_commands, explained, values_of
 from netloop.sim.job import SimJob
 from netloop.sim.frequency import sweep_frequencies
-from netloop.sim.output import ac_op_failed, error_lines, fatal_lines, op_failed, recovery, summary
+from netloop.sim.output import ac_op_failed, error_lines, fatal_among, fatal_lines, op_failed, recovery, summary
 from netloop.sim.session import NgspiceSession
 from netloop.sim.used_models import used_pieces
 from netloop.sim.vectors import unknown_saves
@@ -303,11 +303,13 @@ def _load(session: NgspiceSession, job: SimJob, key: tuple, aid: str | None, log
     deck = render_deck(job, option_words(job, aid))
     lean = used_pieces(deck, os.getcwd())  # the worker runs in the job's folder, where relative library paths start
     loaded_lines = session.load(lean or deck)
-    if lean is not None and error_lines(loaded_lines):  # never expected: then ngspice reads the libraries as written
+    errors = error_lines(loaded_lines)
+    if lean is not None and errors:  # never expected: then ngspice reads the libraries as written
         session.clear()
         loaded_lines = session.load(deck)
+        errors = error_lines(loaded_lines)
     log.extend(loaded_lines)
-    if error_lines(loaded_lines):
+    if errors:
         raise failure("netlist", "ngspice could not read the netlist: " + summary(loaded_lines))
     record = _Loaded(key, aid, log=tuple(log), netlist=job.netlist, values=values_of(job.changes), saves_set=False)
     loaded, lines = _operating_point(session, job, record, log, failure)
@@ -358,7 +360,8 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
             first_ac = lines
             if ac_op_failed(lines) or op_failed(lines):
                 return None, lines, {}, None
-        if (fatal_lines(lines) if step.kind == "ac" else error_lines(lines)):
+        errors = error_lines(lines)  # read once: ngspice prints some 20 lines an ac while it finds the operating point
+        if (fatal_among(errors) if step.kind == "ac" else errors):
             raise failure("analysis", f"'{step.command}' failed: " + summary(lines))
         if step.kind == "let":  # the loaded value of the job's next altered parameter
             alter = job.alters[len(parameters)]
@@ -372,9 +375,9 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
         freq = session.vector(plot, "frequency")
         if not plot.startswith("ac") or freq is None or freq.size == 0:
             raise failure("analysis", f"'{step.command}' produced no data" + (f": {summary(lines)}" if summary(lines) else ""))
-        if error_lines(lines) and freq.size != sweep_frequencies(job.runs[step.run_index].sweeps[step.sweep_index]).size:
+        if errors and freq.size != sweep_frequencies(job.runs[step.run_index].sweeps[step.sweep_index]).size:
             raise failure("analysis", f"'{step.command}' stopped after {freq.size} point(s): " + summary(lines))
-        if error_lines(lines) and lines is not first_ac:
+        if errors and lines is not first_ac:
             recovered.append(recovery(lines))  # finished regardless: what ngspice recovered from
         vectors = {}
         for key in saves:

@@ -155,3 +155,37 @@ def test_a_loop_with_much_gain_at_every_frequency_keeps_its_pole(gain):
     fit, notes = closed_loop_poles(f, gain * (1 + s / z) / (1 + s / p), nyquist_rhp=0)
     (exact,) = np.roots(np.polyadd([1 / p, 1.0], [gain / z, gain]))
     assert not notes and [q.real for q in fit.poles_rad_s] == pytest.approx([exact], rel=1e-9)
+
+
+def _scipy_fit(z, y, rtol, max_terms):
+    """scipy's AAA with its own default clean-up of Froissart doublets, and whether it warned."""
+    import warnings
+
+    from scipy.interpolate import AAA
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        fit = AAA(z, y, rtol=rtol, max_terms=max_terms)
+    return fit, not caught
+
+
+@pytest.mark.parametrize("case", ["one pole loop", "spiral with doublets"])
+def test_the_fit_is_scipys_with_its_clean_up(case):
+    """netloop's fit skips scipy's clean-up only where it would find nothing: the weights, support points and poles equal
+    scipy's AAA with its default clean-up bit for bit, on a loop's 1/(1+T) (no doublet) and on scipy's own test of the
+    clean-up (tan(pi z / 2) on a spiral with rtol=0, which forces doublets: scipy's test_bary_rational.py)."""
+    from netloop.analysis.poles import _fit
+
+    if case == "one pole loop":
+        f = np.logspace(-2, 10, 121)
+        s = 1j * f / math.sqrt(f[0] * f[-1])
+        sens = 1.0 / (1.0 + 1000.0 / (1.0 + 2j * math.pi * f / (2 * math.pi * 1e5)))
+        z, y, rtol, terms = np.concatenate([np.conj(s[::-1]), s]), np.concatenate([np.conj(sens[::-1]), sens]), 1e-10, 20
+    else:
+        z = np.exp(np.linspace(-0.5, 0.5 + 15j * np.pi, num=1000))
+        y, rtol, terms = np.tan(np.pi * z / 2), 0.0, 60
+    ours, ok = _fit(z, y, rtol, terms)
+    theirs, their_ok = _scipy_fit(z, y, rtol, terms)
+    assert ok == their_ok == (case == "one pole loop")
+    for a, b in ((ours.weights, theirs.weights), (ours.support_points, theirs.support_points), (ours.poles(), theirs.poles())):
+        assert a.shape == b.shape and np.array_equal(a, b)
