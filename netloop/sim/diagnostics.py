@@ -112,6 +112,8 @@ def model_warnings(lines: Iterable[str]) -> tuple[str, ...]:
     """What ngspice ignored and went on without: unrecognized model parameters, each once, with its .model."""
     lines = list(lines)
     out: dict[str, None] = {}
+    if "unrecognized" not in "\n".join(lines).lower():  # nearly every log: no line to look at one by one
+        return ()
     for i, line in enumerate(lines):
         if m := _UNRECOGNIZED.search(line):
             model = next((mm.group(1) for prev in reversed(lines[max(0, i - 2):i]) if (mm := _MODEL_LINE.match(prev))), "")
