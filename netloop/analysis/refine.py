@@ -8,21 +8,51 @@ a caller can batch the proposals of several loops into one simulator call.
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import dataclass
 
 import numpy as np
 
+from netloop.analysis.crossovers import find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse, analyse_draft, finish
-from netloop.analysis.results import LoopAnalysis, Refinement
+from netloop.analysis.response import Response
+from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover, Refinement
 from netloop.errors import AnalysisError
 
-__all__ = ["propose_frequencies", "refine"]
+__all__ = ["Crossings", "crossings", "propose_around", "propose_frequencies", "refine"]
 
 
-def _brackets(analysis: LoopAnalysis) -> list[int]:
+@dataclass(frozen=True, slots=True)
+class Crossings:
+    """T's crossovers, located on its interpolant as a draft locates them, and nothing else of a draft (no Nyquist count,
+    no checks): what a first refinement round needs of a loop that crosses 0 dB (about 0.45 ms against a draft's 1.2 on
+    121 samples).
+
+    freq_hz           the checked frequencies.
+    gain_crossovers   every |T| = 1 crossing, as LoopAnalysis.gain_crossovers.
+    phase_crossovers  the phase crossovers above the floor, none at DC: those a draft's proposals read.
+    """
+
+    freq_hz: np.ndarray
+    gain_crossovers: tuple[GainCrossover, ...]
+    phase_crossovers: tuple[PhaseCrossover, ...]
+
+    @property
+    def phase_margin_deg(self) -> float | None:
+        """The worst phase margin, as Margins.phase_margin_deg reads it; None without a gain crossover."""
+        return min((c.phase_margin_deg for c in self.gain_crossovers), default=None)
+
+
+def crossings(freq_hz, t, *, floor_db: float = DEFAULT_FLOOR_DB) -> Crossings:
+    """The crossovers of T sampled at freq_hz, on the interpolant a draft builds (the same spline, the same roots)."""
+    resp = Response.from_data(freq_hz, t)
+    kept, _ = find_phase_crossovers(resp, float(floor_db))
+    return Crossings(resp.freq_hz, find_gain_crossovers(resp), kept)
+
+
+def _brackets(freq_hz: np.ndarray, gains: tuple[GainCrossover, ...], phases: tuple[PhaseCrossover, ...]) -> list[int]:
     """Indices i such that a crossover lies in [f_i, f_i+1) (clipped to the first and last interval)."""
-    f = analysis.freq_hz
-    events = [c.freq_hz for c in analysis.gain_crossovers] + [c.freq_hz for c in analysis.phase_crossovers if c.freq_hz > 0.0]
-    idx = np.clip(np.searchsorted(f, events, side="right") - 1, 0, f.size - 2)
+    events = [c.freq_hz for c in gains] + [c.freq_hz for c in phases if c.freq_hz > 0.0]
+    idx = np.clip(np.searchsorted(freq_hz, events, side="right") - 1, 0, freq_hz.size - 2)
     return sorted(set(int(i) for i in idx))
 
 
@@ -38,19 +68,32 @@ def propose_frequencies(freq_hz, t, *, points_per_interval: int = 3, analysis: L
     """
     if analysis is None:
         analysis = analyse(freq_hz, t, draft=True, **analyse_kwargs)  # what the proposals read: the crossovers and the count
-    x = np.log10(analysis.freq_hz)
-    chosen: set[int] = set()
-    for i in _brackets(analysis):
-        chosen.update(j for j in (i - 1, i, i + 1) if 0 <= j < x.size - 1)
     # where the Nyquist count found the samples too coarse to count across ("sample more densely there")
     lows = [low for low, _ in analysis.nyquist.coarse_hz]
-    chosen.update(int(i) for i in np.searchsorted(analysis.freq_hz, lows) if 0 <= i < x.size - 1)
+    return _proposals(analysis.freq_hz, _brackets(analysis.freq_hz, analysis.gain_crossovers, analysis.phase_crossovers), lows,
+                      points_per_interval)
+
+
+def propose_around(found: Crossings, *, points_per_interval: int = 3) -> np.ndarray:
+    """propose_frequencies' proposals around the crossovers alone: the same frequencies as from a draft of the same data
+    whose Nyquist count found no interval too coarse (that count is not made here)."""
+    return _proposals(found.freq_hz, _brackets(found.freq_hz, found.gain_crossovers, found.phase_crossovers), [], points_per_interval)
+
+
+def _proposals(freq_hz: np.ndarray, brackets: list[int], coarse_lows: list[float], points_per_interval: int) -> np.ndarray:
+    """The new frequencies of propose_frequencies: each bracket's interval and its neighbours, and the interval starting at
+    each coarse low, split into points_per_interval + 1 equal steps in log f."""
+    x = np.log10(freq_hz)
+    chosen: set[int] = set()
+    for i in brackets:
+        chosen.update(j for j in (i - 1, i, i + 1) if 0 <= j < x.size - 1)
+    chosen.update(int(i) for i in np.searchsorted(freq_hz, coarse_lows) if 0 <= i < x.size - 1)
     frac = np.arange(1, points_per_interval + 1) / (points_per_interval + 1)
     new = [x[j] + (x[j + 1] - x[j]) * frac for j in sorted(chosen)]
     if not new:
         return np.empty(0)
     out = 10.0 ** np.concatenate(new)
-    out = out[~np.isin(out, analysis.freq_hz)]
+    out = out[~np.isin(out, freq_hz)]
     return np.unique(out)
 
 

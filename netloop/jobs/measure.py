@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from netloop.analysis import middlebrook, parse_requirements, propose_frequencies, tian
+from netloop.analysis.refine import crossings, propose_around
 from netloop.analysis.engine import Draft, analyse_draft, finish
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.requirements import Requirement
@@ -274,26 +275,32 @@ def sample_loops(
         f2, t2 = runner.evaluate(tuple(more), stage="a wider sweep")
         f, t = _merge_all(f, t, f2, t2)
 
-    def draft_all() -> dict[str, Draft]:
-        """Every loop's draft, what a round reads (crossovers, margins, the Nyquist count); the last is finished."""
-        return {name: analyse_draft(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name]) for name in t}
+    def draft(name: str) -> Draft:
+        """A loop's draft, what a round reads (crossovers, margins, the Nyquist count); the last is finished."""
+        return analyse_draft(f, t[name], open_loop_rhp_poles=open_loop_rhp_poles[name])
 
-    drafts = draft_all()
-    # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz)
-    active = [name for name, d in drafts.items() if d.analysis.gain_crossovers or d.analysis.nyquist.coarse_hz] if sweep.refine else []
+    # refined: the crossovers, and where the Nyquist count asks for denser samples (NyquistVerdict.coarse_hz). The first
+    # round reads only the crossovers of a loop that crosses 0 dB (crossings: the frequencies a draft would propose when
+    # its count finds no coarse interval, at a third of the cost); where the count does, the next round's draft says so
+    # and refines there. A loop without a gain crossover is drafted whole: only its count can ask for samples.
+    first = {name: crossings(f, t[name]) for name in t} if sweep.refine else {}
+    drafts = {name: draft(name) for name in t if not (name in first and first[name].gain_crossovers)}
+    active = [name for name in first if first[name].gain_crossovers or drafts[name].analysis.nyquist.coarse_hz]
     settled = {name: name not in active for name in t}
     rounds = 0
     if active:
-        previous = {name: drafts[name].analysis.margins.phase_margin_deg for name in active}
+        previous = {name: drafts[name].analysis.margins.phase_margin_deg if name in drafts else first[name].phase_margin_deg
+                    for name in active}
         while rounds < sweep.max_rounds:
-            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=drafts[name].analysis) for name in active])
+            proposals = np.concatenate([propose_frequencies(f, t[name], analysis=drafts[name].analysis) if name in drafts
+                                        else propose_around(first[name]) for name in active])
             if proposals.size == 0:
                 settled.update(dict.fromkeys(active, True))
                 break
             f2, t2 = runner.evaluate(_lin_sweeps(proposals, ppd), stage=f"refinement round {rounds + 1}")
             f, t = _merge_all(f, t, f2, t2)
             rounds += 1
-            drafts = draft_all()
+            drafts = {name: draft(name) for name in t}
             current = {name: drafts[name].analysis.margins.phase_margin_deg for name in active}
             for name in active:
                 p, c = previous[name], current[name]
@@ -303,6 +310,7 @@ def sample_loops(
                 break
             previous = current
     _log.info("simulations done", extra=CLEARS_STATUS)  # a status line is cleared
+    drafts = {name: drafts.get(name) or draft(name) for name in t}  # without a round, the loops only looked at are drafted now
     # the whole analysis of each loop: its last draft, on the same data, finished
     analyses = {name: finish(d) for name, d in drafts.items()}
     if sources is not None and runner.voltages:  # the check of the operating point, first among the checks

@@ -10,6 +10,7 @@ import pytest
 from analysis_loops import sample
 
 from netloop.analysis import analyse, propose_frequencies, refine
+from netloop.analysis.refine import crossings, propose_around
 from netloop.errors import AnalysisError
 
 S = control.tf("s")
@@ -146,6 +147,26 @@ def test_proposals_follow_the_documented_rule(name, per_interval):
     assert got.size == want.size
     np.testing.assert_allclose(got, want, rtol=1e-13)
     assert np.array_equal(got, propose_frequencies(f, t, analysis=a, **kwargs))  # the caller's analysis is the same as its own
+
+
+@pytest.mark.parametrize("name", EDGE_SWEEPS)
+def test_the_crossings_alone_propose_what_a_draft_proposes_without_its_coarse_intervals(name):
+    """crossings() locates the same crossovers as analyse() on the same data, bit for bit, and gives its worst phase
+    margin; the proposals around them (propose_around) are the documented rule's without the Nyquist count's coarse
+    intervals: propose_frequencies' own where that count found none (reference: propose_frequencies' docstring)."""
+    f, t = EDGE_SWEEPS[name]
+    a = analyse(f, t, fit_poles=False)
+    found = crossings(f, t)
+    assert found.gain_crossovers == a.gain_crossovers and found.phase_margin_deg == a.margins.phase_margin_deg
+    assert found.phase_crossovers == tuple(c for c in a.phase_crossovers if c.freq_hz > 0.0)
+    got = propose_around(found)
+    np.testing.assert_allclose(got, _documented_proposals(replace(a, nyquist=replace(a.nyquist, coarse_hz=())), 3), rtol=1e-13)
+    full = propose_frequencies(f, t, analysis=a)
+    if not a.nyquist.coarse_hz:
+        assert np.array_equal(got, full)
+    assert np.all(np.isin(got, full))  # a coarse interval only adds (it may already lie beside a crossover)
+    if name == "coarse first and last intervals":
+        assert full.size > got.size  # the edge intervals the count found coarse hold no crossover
 
 
 def test_a_crossover_read_a_rounding_error_outside_the_sweep_still_refines_the_edge_intervals():
