@@ -17,10 +17,11 @@ from netloop.jobs.statistics.summary import YieldStatistics, statistics_part, su
 
 __all__ = ["SAMPLE_CHUNK", "SampleRun", "rerun_sample", "run_samples"]
 
-# Samples a Dask task runs at most (netloop.jobs.corners.runner.chunk_size): a sample takes about 0.2 s on the sky130 Miller
+# Samples a Dask task runs at most (netloop.jobs.corners.runner.chunk_size): a sample takes about 0.13 s on the sky130 Miller
 # buffer, and Dask's own cost of a task, about 2 ms of CPU in the worker and 2 ms in the calling process (measured with
-# trivial tasks on the development machine), would otherwise be a tenth of netloop's share of it (benchmarks/yield_speed.py).
-SAMPLE_CHUNK = 4
+# trivial tasks on the development machine), and the worker's pause between two tasks, about 2 ms (the 1-worker run of
+# benchmarks/yield_speed.py, timed around each task), would otherwise weigh in netloop's share of it, about 15 ms.
+SAMPLE_CHUNK = 8
 
 
 @dataclass(frozen=True, slots=True)
