@@ -38,6 +38,7 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
     "netlist": ("netloop/netlist/*", ("tests/netlist",)),
     "probe": ("netloop/probe/*", ("tests/probe",)),
     "corners": ("netloop/jobs/corners/*", ("tests/jobs/corners",)),
+    "statistics": ("netloop/jobs/statistics/*", ("tests/jobs/statistics",)),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these)
 COPIED = ("netloop", "tests", "circuits", "templates", "pyproject.toml")

@@ -280,7 +280,7 @@ def summarise(records: Iterable[Mapping], requirements: Sequence[str], *, confid
             for s in samples:
                 by_die.setdefault(s.seed, []).append(s.met.get(req))
             yields.append(_yield(req, "", "", [_die(by_die[seed]) for seed in seeds], confidence))
-    deciding = yields[-1]
+    deciding = yields[-1] if yields else _yield(EVERY, "", "", [], confidence)  # no record: no sample shows anything
     spreads = [_spread(f, c, a, [s for s in samples if s.corner == c and s.at == a]) for f in FIGURES for c, a in groups]
     if len(corners) > 1:
         spreads += [_spread(f, "", a, [s for s in samples if s.at == a]) for f in FIGURES for a in nodes]

@@ -28,7 +28,8 @@ def test_fractions_are_written_as_percentages_or_fractions(text, value):
     assert parse_fraction(text, "target") == pytest.approx(value)
 
 
-@pytest.mark.parametrize("text,message", [(99, "ambiguous"), ("99", "ambiguous"), ("100%", "strictly between"), ("0%", "strictly between"),
+@pytest.mark.parametrize("text,message", [(99, "ambiguous"), ("99", "ambiguous"), (1, "ambiguous: write \"1%\""), ("1", "ambiguous"),
+                                          ("100%", "strictly between"), ("0%", "strictly between"),
                                           ("high", "fraction such as"), (True, "fraction such as")])
 def test_fractions_that_mean_nothing_or_two_things_are_refused(text, message):
     """A bare 99 (99 % or 99?), 100 %, 0 % and words are refused with how to write the value."""

@@ -145,6 +145,34 @@ def test_the_run_keeps_what_its_statistics_read(sampled):
     assert repr(summarise(records, texts)) == repr(run.statistics) == repr(summarise(run.run.records, texts))
 
 
+def test_a_run_reads_its_target_and_confidence_from_the_plan_and_runs_on_the_cluster_given(tmp_path, scheduler):
+    """A plan's target and confidence decide its statistics' verdict when the call gives none (the README's plan sets
+    both), the records kept in memory are statistics_part's (no T), and the samples run on the workers of the cluster
+    given, not on a cluster of the run's own."""
+    from distributed import Client
+
+    (tmp_path / "loop.cir").write_text(LOOP)
+    (tmp_path / "plan.toml").write_text(f'netlist = "loop.cir"\nat = "out"\nrequire = ["{TEXT}"]\n'
+                                        '[samples]\ncount = 4\ntarget = "10%"\nconfidence = "80%"\n')
+    run = run_samples(load_sample_plan(tmp_path / "plan.toml"), cluster=scheduler, out=tmp_path / "r.jsonl")
+    assert (run.statistics.target, run.statistics.confidence) == (0.1, 0.8)
+    assert run.statistics.deciding.confidence == 0.8
+    assert all("loop_gain" not in r["loop"] for r in run.run.records)
+    with Client(scheduler) as client:
+        workers = {f"{host}:{pid}" for host, pid in client.run(lambda: (__import__("socket").gethostname(), __import__("os").getpid())).values()}
+    assert {r["worker"] for r in run.run.records} <= workers
+
+
+def test_a_sample_of_a_plan_that_finds_its_loops_reruns_alone_bit_for_bit(tmp_path, scheduler):
+    """With at = "auto" (the loops found in the netlist) a sample reruns alone as its worker measured it: the same T."""
+    (tmp_path / "loop.cir").write_text(LOOP)
+    (tmp_path / "plan.toml").write_text('netlist = "loop.cir"\nat = "auto"\n[samples]\ncount = 2\n')
+    plan = load_sample_plan(tmp_path / "plan.toml")
+    record = next(r for r in run_samples(plan, cluster=scheduler, out=tmp_path / "r.jsonl").whole_records() if r["corner"] == "nominal#2")
+    (again,) = rerun_sample(plan, "nominal#2")
+    assert json.loads(json.dumps(_document(again)))["loop_gain"] == record["loop"]["loop_gain"]
+
+
 def test_a_sample_reruns_alone_bit_for_bit_and_another_seed_differs(sampled):
     """rerun_sample gives the very T and margins the results file holds for that seed (a fresh ngspice, not the
     worker's), and the next seed's T differs."""

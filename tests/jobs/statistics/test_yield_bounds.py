@@ -63,3 +63,14 @@ def test_lower_bound_covers_the_true_yield_at_least_as_often_as_the_confidence()
         bound = {k: lower_bound(k, n, confidence) for k in range(n + 1)}
         covered = np.mean([bound[int(k)] <= p for k in draws])
         assert covered >= 0.95 if confidence == 0.95 else covered < 0.9
+
+
+@pytest.mark.parametrize("target,rate,message", [
+    (1.0, 0.0, "the yield target must be between 0 and 1, got 1.0"), (0.0, 0.0, "the yield target must be between 0 and 1, got 0.0"),
+    (0.9, 1.0, "the failure rate must be at least 0 and below 1, got 1.0"), (0.9, 1.5, "the failure rate must be at least 0 and below 1, got 1.5"),
+    (0.9, -0.1, "the failure rate must be at least 0 and below 1, got -0.1")])
+def test_samples_needed_refuse_a_target_or_failure_rate_outside_its_range(target, rate, message):
+    """A yield target outside (0, 1), or a failure rate outside [0, 1), is refused with the value given (a failure rate
+    of 1 or more is not a rate: no number of samples answers it, and saying None would hide the caller's mistake)."""
+    with pytest.raises(ValueError, match=f"^{message}$"):
+        samples_needed(target, 0.95, rate)

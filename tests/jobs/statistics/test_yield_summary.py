@@ -7,7 +7,7 @@ import statistics
 import pytest
 from scipy.stats import binomtest
 
-from netloop.jobs.statistics import EVERY, STABLE, summarise
+from netloop.jobs.statistics import EVERY, STABLE, statistics_part, summarise
 
 
 def record(corner: str, seed: int, outcome: str, pm: float | None = 60.0, *, met: bool = True, stable: bool = True,
@@ -114,3 +114,67 @@ def test_samples_needed_use_the_failure_rate_seen():
     needed = summarise(recs, ["pm >= 45"], target=0.99).needed
     assert (needed.with_no_failure, needed.rate_seen) == (299, 1 / 400)
     assert needed.at_rate_seen > 299
+
+
+def test_an_inconclusive_sample_has_no_stability_verdict():
+    """A sample whose self-checks failed says nothing of stability, whatever its Nyquist count read: it counts as no
+    verdict in the stable yield (the verdict model: never "stable" or "unstable" for a measurement that has not checked
+    itself), and its why names the failed check, or says a self-check failed when the record names none."""
+    bare = record("tt", 3, "inconclusive")
+    bare["loop"]["checks"] = []
+    stats = summarise([record("tt", 1, "inconclusive"), record("tt", 2, "pass"), bare], ["pm >= 45"])
+    (stable,) = stats.yields_of(STABLE)
+    assert (stable.samples, stable.passed, stable.failed, stable.no_verdict) == (3, 1, 0, 2)
+    assert [s.met[STABLE] for s in stats.samples] == [None, True, None]
+    assert [w.why for w in stats.worst if w.verdict == "inconclusive"] == ["nyquist-data: Z = N + P < 0", "a self-check failed"]
+
+
+def test_a_failed_sample_without_a_gain_crossover_is_worse_than_one_with_a_margin():
+    """Among failed samples, one without any phase margin (no gain crossover) comes first, then by phase margin."""
+    recs = [record("tt", 1, "fail", 30.0, met=False), record("tt", 2, "fail", None, met=False), record("tt", 3, "fail", 20.0, met=False)]
+    assert [w.seed for w in summarise(recs, ["pm >= 45"]).worst] == [2, 3, 1]
+
+
+def test_spreads_over_every_corner_only_when_there_are_several():
+    """One corner: one spread a figure, of that corner and node; two corners: each corner's, then every corner's (corner
+    empty), each at the node the samples were broken at."""
+    one = summarise([record("tt", 1, "pass"), record("tt", 2, "pass", 50.0)], [])
+    assert {(s.corner, s.at) for s in one.spreads} == {("tt", "out")} and len(one.spreads) == len({s.figure for s in one.spreads})
+    assert [s.at for s in one.samples] == ["out", "out"]
+    two = summarise([record("cold", 1, "pass"), record("hot", 1, "pass", 50.0)], [])
+    assert [(s.corner, s.at) for s in two.spreads if s.figure == "pm"] == [("cold", "out"), ("hot", "out"), ("", "out")]
+    assert next(s for s in two.spreads if s.figure == "pm" and s.corner == "").count == 2
+
+
+def test_a_record_without_a_break_node_has_an_empty_one():
+    """The node a sample was broken at is the record's "at", and empty when the record has none."""
+    rec = record("tt", 1, "pass")
+    del rec["at"]
+    assert summarise([rec], []).samples[0].at == ""
+
+
+def test_no_records_show_nothing():
+    """With no sample the deciding yield has no sample, the interval and bounds are 0 and 1 (the data shows nothing), and
+    a target is neither met nor missed: inconclusive."""
+    stats = summarise([], ["pm >= 45"], target=0.9)
+    y = stats.deciding
+    assert (y.requirement, y.corner, y.at, y.samples, y.passed, y.failed, y.no_verdict) == (EVERY, "", "", 0, 0, 0, 0)
+    assert (y.interval, y.lower, y.upper, y.estimate) == ((0.0, 1.0), 0.0, 1.0, 0.0)
+    assert stats.verdict == "inconclusive" and stats.needed is None and stats.worst == () and stats.spreads == ()
+
+
+def test_the_part_kept_of_a_record_holds_no_t_inputs_or_ngspice_output():
+    """statistics_part keeps what the statistics read and drops T, the inputs --resume compares and ngspice's output."""
+    rec = {**record("tt", 1, "pass"), "inputs": {"loop.cir": "abc"}, "simulator_output": "many lines"}
+    rec["loop"]["loop_gain"] = {"freq_hz": [1.0], "re": [2.0], "im": [0.0]}
+    part = statistics_part(rec)
+    assert "inputs" not in part and "simulator_output" not in part and "loop_gain" not in part["loop"]
+    assert part["loop"]["margins"] == rec["loop"]["margins"] and repr(summarise([part], ["pm >= 45"])) == repr(summarise([rec], ["pm >= 45"]))
+
+
+def test_when_every_sample_fails_no_count_shows_the_target_at_the_rate_seen():
+    """Every sample failed (a failure rate of 1): the samples a target needs with no failure are still given, and none at
+    the rate seen (no number of samples can show it); the seeds are those of the samples, in order."""
+    stats = summarise([record("tt", s, "fail", 40.0, met=False) for s in (3, 1, 2)], ["pm >= 45"], target=0.9)
+    assert (stats.needed.with_no_failure, stats.needed.at_rate_seen, stats.needed.rate_seen) == (29, None, 1.0)
+    assert stats.verdict == "fail" and stats.seeds == (1, 2, 3)
