@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -159,8 +160,6 @@ def test_a_loop_with_much_gain_at_every_frequency_keeps_its_pole(gain):
 
 def _scipy_fit(z, y, rtol, max_terms):
     """scipy's AAA with its own default clean-up of Froissart doublets, and whether it warned."""
-    import warnings
-
     from scipy.interpolate import AAA
 
     with warnings.catch_warnings(record=True) as caught:
@@ -189,3 +188,41 @@ def test_the_fit_is_scipys_with_its_clean_up(case):
     assert ok == their_ok == (case == "one pole loop")
     for a, b in ((ours.weights, theirs.weights), (ours.support_points, theirs.support_points), (ours.poles(), theirs.poles())):
         assert a.shape == b.shape and np.array_equal(a, b)
+
+
+def _fits():
+    """(name, z, y, rtol, max_terms, scipy's clean-up count) of fits with and without Froissart doublets."""
+    from scipy.interpolate import AAA
+
+    f = np.logspace(-2, 10, 121)
+    s = 1j * f / math.sqrt(f[0] * f[-1])
+    out = []
+    for name, t in (("one pole loop", 1000.0 / (1.0 + 2j * math.pi * f / (2 * math.pi * 1e5))),
+                    ("two pole loop", 1e4 / ((1.0 + 1j * f / 10.0) * (1.0 + 1j * f / 1e7))),
+                    ("flat", np.full(f.size, 0.5 + 0j))):
+        sens = 1.0 / (1.0 + t)
+        out.append((name, np.concatenate([np.conj(s[::-1]), s]), np.concatenate([np.conj(sens[::-1]), sens]), 1e-10, 20))
+    z = np.exp(np.linspace(-0.5, 0.5 + 15j * np.pi, num=1000))
+    out.append(("spiral with doublets", z, np.tan(np.pi * z / 2), 0.0, 60))
+    counted = []
+    for name, z, y, rtol, terms in out:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            counted.append((name, z, y, rtol, terms, AAA(z, y, rtol=rtol, max_terms=terms, clean_up=False).clean_up()))
+    return counted
+
+
+@pytest.mark.parametrize("name,z,y,rtol,terms,doublets", _fits(), ids=lambda v: v if isinstance(v, str) else "")
+def test_the_clean_up_is_skipped_exactly_where_scipys_finds_nothing(name, z, y, rtol, terms, doublets):
+    """The test before scipy's clean-up says a fit may hold a doublet wherever scipy's own clean-up finds one (the spiral),
+    and says no on the fits of loops and of a flat response, where scipy's finds none: the clean-up it saves is one that
+    would change nothing (reference: scipy's AAA.clean_up, which returns how many doublets it found)."""
+    from netloop.analysis.poles import _may_hold_doublets
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        from scipy.interpolate import AAA
+
+        fit = AAA(z, y, rtol=rtol, max_terms=min(terms, z.size // 2), clean_up=False)
+    assert (doublets > 0) == (name == "spiral with doublets")
+    assert _may_hold_doublets(fit, y, z) == (doublets > 0)
