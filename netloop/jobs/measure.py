@@ -15,9 +15,9 @@ from pathlib import Path
 import numpy as np
 
 from netloop.analysis import middlebrook, parse_requirements, propose_frequencies, tian
-from netloop.analysis.refine import crossings, propose_around
 from netloop.analysis.engine import Draft, analyse_draft, finish
 from netloop.analysis.preload import load_scipy_in_background
+from netloop.analysis.refine import crossings, propose_around
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
