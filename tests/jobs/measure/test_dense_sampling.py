@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from netloop.analysis import analyse
 from netloop.jobs.measure import Sweep, sample_loops
@@ -60,3 +61,37 @@ def test_the_measured_analysis_is_the_whole_analysis_of_the_final_samples():
     assert repr(a) == repr(whole) and a == whole  # floats in repr are exact
     assert a.freq_hz.tobytes() == whole.freq_hz.tobytes() and a.t.tobytes() == whole.t.tobytes()
     assert a.stable and a.freq_hz.size > 91  # the rounds added samples to the first sweep's 91
+
+
+def test_a_loop_that_crosses_0_db_and_resonates_far_above_gets_both_refined():
+    """A loop that crosses 0 dB near 20 kHz and resonates at 1.234 MHz (peak just below 0 dB): the first round reads only
+    the crossovers (crossings), the count's coarse interval at the resonance is refined in the rounds after, and the
+    measurement ends with a reliable count, samples at the resonance and the phase margin python-control gives
+    (control.stability_margins, python-control 0.10), stable as the closed loop's roots say (numpy.roots)."""
+    import control
+
+    k, zeta = 20.0, 0.01
+    wn, w1 = W * F0, W * 1e3
+
+    def loop(f):
+        s = 1j * W * np.asarray(f)
+        return k / (1 + s / w1) * wn**2 / (s**2 + 2 * zeta * wn * s + wn**2)
+
+    f = np.logspace(0, 9, 91)
+    first = analyse(f, loop(f), fit_poles=False)
+    assert first.gain_crossovers and any(lo < F0 < hi for lo, hi in first.nyquist.coarse_hz)  # the case is what it claims
+    sim = AnalyticSimulator({"v(x)": lambda fr, ac: loop(fr) * ac.get("v1", 0.0)})
+
+    def job_for(sweeps):
+        return SimJob(netlist="* analytic\n", runs=(AcRun("run", {"v1": 1.0}, sweeps),), save=("v(x)",), excitable=("v1",))
+
+    sweep = Sweep(fmin_hz=1.0, fmax_hz=1e9, fmin_given=True, fmax_given=True)
+    analyses, info, _ = sample_loops(job_for, lambda r: {"loop": r.runs[0].vectors["v(x)"]}, sim, sweep, {"loop": 0})
+    a = analyses["loop"]
+    assert a.nyquist.reliable and a.nyquist.coarse_hz == () and info.refined and info.refinement_rounds >= 2
+    assert np.count_nonzero((a.freq_hz > F0 * 0.9) & (a.freq_hz < F0 * 1.1)) > 5
+    s = control.tf("s")
+    _, pm, _, _, _, _ = control.stability_margins(k / (1 + s / w1) * wn**2 / (s**2 + 2 * zeta * wn * s + wn**2))
+    assert a.margins.phase_margin_deg == pytest.approx(pm, abs=1e-4)
+    char = np.polyadd(np.polymul([1 / w1, 1], [1, 2 * zeta * wn, wn**2]), [k * wn**2])
+    assert a.stable == bool(np.all(np.roots(char).real < 0)) and a.stable
