@@ -132,3 +132,18 @@ def test_an_open_loop_rhp_pole_above_the_sweep_is_not_read():
     poles, _ = closed_loop_poles(f, 30.0 / ((s / w0 - 1) * (s / (10 * w0) + 1)), nyquist_rhp=0)
     assert w0 > 2 * math.pi * f[-1]
     assert poles.open_loop_rhp_poles_rad_s == ()
+
+
+@pytest.mark.parametrize("f0", [1e6, 1e8])
+def test_an_open_loop_pole_pair_on_the_axis_within_the_fit_tolerance_is_not_read_as_unstable(f0):
+    """T = 0.5 w0^2 / (s^2 - (w0/q) s + w0^2) with q = 1e9 has its pole pair a real part of 5e-10 of its size to the
+    right of the axis (numpy.roots of the denominator): below the fraction _RHP_REAL = 1e-6 that poles.py's rule reads as
+    the right half plane, at 100 and 10,000 times the middle of the sweep, so no open-loop RHP pole is read; with
+    q = -1e3 the pair lies 5e-4 of its size to the left, and with q = 1e3, 5e-4 to the right, read as two."""
+    f = np.logspace(-2, 10, 121)
+    w0, s = 2 * math.pi * f0, 2j * math.pi * f
+    for q, read in ((1e9, 0), (-1e3, 0), (1e3, 2)):
+        den = [1.0, -w0 / q, w0**2]
+        assert np.roots(den).real / np.abs(np.roots(den)) == pytest.approx([0.5 / q] * 2, rel=1e-6)  # the reference pair
+        poles, _ = closed_loop_poles(f, 0.5 * w0**2 / np.polyval(den, s), nyquist_rhp=0)
+        assert len(poles.open_loop_rhp_poles_rad_s) == read, q
