@@ -112,3 +112,21 @@ def test_bundled_hierarchical_readout(simulator, circuits):
     xa2 = next(line for line in write_netlist(nl).splitlines() if line.lower().startswith("xa2 "))
     assert xa2 in text.splitlines()
     assert_same_op(simulator.operating_point(write_netlist(nl)), simulator.operating_point(text))  # ngspice's own op
+
+
+def test_forty_levels_of_nesting_are_walked_and_a_subcircuit_that_instantiates_itself_is_refused():
+    """A chain of 40 subcircuits, each instantiating the next, is 41 scopes, all walked; one that instantiates itself is
+    refused at the 64-level guard with a message that says so (common practice: a self-instantiating subcircuit has no
+    flattened circuit; 64 levels is walk_scopes' documented bound, far beyond any real hierarchy)."""
+    from netloop.errors import ProbeError
+    from netloop.probe.scope import walk_scopes
+
+    cards = ["nested forty deep (invented)"]
+    for level in range(40):
+        cards += [f".subckt s{level} a b", f"X{level} a b s{level + 1}" if level < 39 else "R1 a b 1k", ".ends"]
+    cards += ["X0 in 0 s0", "V1 in 0 dc 1"]
+    scopes = list(walk_scopes(parse_text("\n".join(cards) + "\n"), frozenset({"0"})))
+    assert len(scopes) == 41 and len(scopes[-1].path) == 40
+    looped = parse_text("recursive (invented)\n.subckt loop a b\nXi a b loop\nR1 a b 1k\n.ends\nX1 o 0 loop\nV1 o 0 dc 1\n")
+    with pytest.raises(ProbeError, match="deeper than 64 levels at x1(\\.xi){64}: is a subcircuit instantiating itself"):
+        list(walk_scopes(looped, frozenset({"0"})))

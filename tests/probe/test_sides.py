@@ -259,6 +259,17 @@ def test_several_loops_warn():
     assert any("feeds 2 loops" in w for w in p.warnings)
 
 
+def test_a_load_side_that_also_feeds_an_open_branch_warns_word_for_word():
+    """A load side that also feeds a circuit that never returns to the driver (E2 copies out into R3 alone) is measured
+    with that circuit's loading; the warning names it and says how to choose the split (the loop is the one of
+    test_several_loops_warn without its second path)."""
+    text = "one loop and an open branch\nVin in 0 dc 0 ac 1\nG1 0 out x 0 1m\nRo out 0 10k\nE1 x 0 y 0 -1\nR1 out y 1k\nR2 y 0 1k\nE2 x2 0 out 0 1\nR3 x2 0 1k\n"
+    p = break_loop(parse_text(text), "out")
+    assert set(p.load_terminals) == {"r1.p", "e2.cp"}
+    assert p.warnings == ("the load side of out also feeds other circuits that do not return to the driver (e2), e.g. a bias "
+                          "node shared by several amplifiers: their loading is included, and the split changes T; choose with driver=",)
+
+
 def test_silencing_forms():
     """'ac' alone (magnitude 1 in the ngspice manual), 'ac MAG PHASE' before a distortion spec, and braces are all zeroed; 'ac 0' is left alone."""
     text = (

@@ -109,6 +109,15 @@ def test_driver_naming_a_diode_drain_takes_the_whole_device():
     assert "m3.g too: an element with several terminals on the node goes to one side whole" in p.decided_by
 
 
+def test_driver_naming_two_diode_drains_takes_both_devices_and_names_both():
+    """With two diode-connected devices on the node (M3 and a second one, M9, in parallel), driver= naming both drains
+    moves both whole, and the sentence names both gates it added, in order."""
+    text = TWO_STAGE.replace("M4 o1 d1", "M9 d1 d1 vdd vdd pch w=20u l=1u\nM4 o1 d1")
+    p = break_loop(parse_text(text), "d1", driver="m1.d,m3.d,m9.d")
+    assert set(p.driver_terminals) == {"m1.d", "m3.d", "m3.g", "m9.d", "m9.g"}
+    assert "(m3.g, m9.g too: an element with several terminals on the node goes to one side whole)" in p.decided_by
+
+
 def test_driver_naming_only_an_input_is_recorded():
     """driver= naming only a gate is flagged on the split (the measurement then refuses a result that fails its checks)."""
     from netloop.probe.breaking import locate_split
