@@ -102,6 +102,18 @@ def test_a_switch_beside_the_feedback_capacitor_goes_with_it(switch):
     assert set(p.load_terminals) == {"e1.cn", "mg.g"}
 
 
+def test_a_wrapper_source_follower_whose_library_is_not_included_drives_its_source_node():
+    """A sky130-style transistor wrapper (four pins d g s b, its library not included) as a source follower, drain at the
+    supply: its source drives the node, as the source of the same follower written as an M card does (circuit theory: a
+    follower's output is its source when its drain is at AC ground)."""
+    head = "source follower in a loop (invented)\n.model nch nmos level=1 vto=0.5 kp=20u\nVdd vdd 0 dc 3.3\nVin in 0 dc 1.5 ac 1\n"
+    tail = "\nRs out 0 10k\nE1 g 0 in out 10\n"
+    wrapped = break_loop(parse_text(head + "X1 vdd g out 0 sky130_fd_pr__nfet_01v8 w=10 l=1" + tail), "out")
+    plain = break_loop(parse_text(head + "M1 vdd g out 0 nch w=10u l=1u" + tail), "out")
+    assert (wrapped.driver_terminals, wrapped.load_terminals, wrapped.shunt_terminals) == (("x1.s",), ("e1.cn",), ("rs.p",))
+    assert (plain.driver_terminals, plain.load_terminals, plain.shunt_terminals) == (("m1.s",), ("e1.cn",), ("rs.p",))
+
+
 def test_driver_naming_a_diode_drain_takes_the_whole_device():
     """driver= naming one terminal of a diode-connected device moves the device whole, and the sentence says so."""
     p = break_loop(parse_text(TWO_STAGE), "d1", driver="m1.d,m3.d")
