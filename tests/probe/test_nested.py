@@ -130,3 +130,29 @@ def test_forty_levels_of_nesting_are_walked_and_a_subcircuit_that_instantiates_i
     looped = parse_text("recursive (invented)\n.subckt loop a b\nXi a b loop\nR1 a b 1k\n.ends\nX1 o 0 loop\nV1 o 0 dc 1\n")
     with pytest.raises(ProbeError, match="deeper than 64 levels at x1(\\.xi){64}: is a subcircuit instantiating itself"):
         list(walk_scopes(looped, frozenset({"0"})))
+
+
+TWO_LEVELS = """two levels (invented)
+.subckt amp in out
+E1 out 0 0 in 100
+Ro out 0 1k
+.ends
+.subckt outer a b
+Xs a b amp
+Rl b 0 10k
+.ends
+Vin in 0 dc 0 ac 1
+Xo x out outer
+R1 out x 10k
+R2 x in 10k
+"""
+
+
+def test_driver_naming_an_instance_inside_an_instance_breaks_inside_the_outer_one():
+    """driver= naming an instance two levels down without a pin (xo.xs) takes that instance's terminal on the node as the
+    driver side and breaks the net inside xo, where xs's output sits (breaking._scope_of_driver's docstring); the load
+    side is the rest of the node: Rl at AC ground inside, the feedback resistor outside."""
+    p = break_loop(parse_text(TWO_LEVELS), "out", driver="xo.xs")
+    assert p.driver_terminals == ("xo.xs.out",)
+    assert p.load_terminals == ("xo.b outside xo (r1.p)",)
+    assert "driver side given by driver='xo.xs': xo.xs.out" in p.decided_by
