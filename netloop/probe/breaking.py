@@ -170,6 +170,11 @@ def _scope_of_driver(netlist: Netlist, scope: Scope, node: str, driver: str, glo
             return scope, node
         inner = scope_of_path(netlist, path, globals_)
         element = next((e for e in elements_of(netlist, inner) if e.key == parts[depth]), None)
+        if element is None and depth == len(parts) - 1 and len(path) > len(scope.path) + 1:
+            # INSTANCE.PIN, as netloop labels an instance's terminal (xo.xs.out: the pin out of xs, inside xo)
+            path = path[:-1]
+            inner = scope_of_path(netlist, path, globals_)
+            element = next((e for e in elements_of(netlist, inner) if e.key == parts[depth - 1]), None)
         if element is None:
             return scope, node
         nets = {n for n in element.nodes if inner.flat(n, globals_) == flat}

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import pytest
 
+from netloop.errors import ProbeError
 from netloop.netlist import parse_file, parse_text, write_netlist
 from netloop.probe import break_loop
 
@@ -118,7 +119,6 @@ def test_forty_levels_of_nesting_are_walked_and_a_subcircuit_that_instantiates_i
     """A chain of 40 subcircuits, each instantiating the next, is 41 scopes, all walked; one that instantiates itself is
     refused at the 64-level guard with a message that says so (common practice: a self-instantiating subcircuit has no
     flattened circuit; 64 levels is walk_scopes' documented bound, far beyond any real hierarchy)."""
-    from netloop.errors import ProbeError
     from netloop.probe.scope import walk_scopes
 
     cards = ["nested forty deep (invented)"]
@@ -156,3 +156,15 @@ def test_driver_naming_an_instance_inside_an_instance_breaks_inside_the_outer_on
     assert p.driver_terminals == ("xo.xs.out",)
     assert p.load_terminals == ("xo.b outside xo (r1.p)",)
     assert "driver side given by driver='xo.xs': xo.xs.out" in p.decided_by
+
+
+def test_the_label_printed_for_an_inner_instance_terminal_is_taken_back_as_driver():
+    """The driver terminal's label as netloop prints it (xo.xs.out: the pin out of xs inside xo) gives, as driver=, the
+    same break as naming the instance (xo.xs); a pin the instance does not have is refused with the terminals there."""
+    by_instance = break_loop(parse_text(TWO_LEVELS), "out", driver="xo.xs")
+    by_label = break_loop(parse_text(TWO_LEVELS), "out", driver=by_instance.driver_terminals[0])
+    assert (by_label.driver_terminals, by_label.load_terminals, by_label.shunt_terminals) == (
+        by_instance.driver_terminals, by_instance.load_terminals, by_instance.shunt_terminals)
+    assert write_netlist(by_label.netlist) == write_netlist(by_instance.netlist)
+    with pytest.raises(ProbeError, match="driver 'xo.xs.in' has no terminal on node"):
+        break_loop(parse_text(TWO_LEVELS), "out", driver="xo.xs.in")
