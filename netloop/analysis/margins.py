@@ -4,7 +4,12 @@ from __future__ import annotations
 
 from netloop.analysis.results import GainCrossover, Margins, PhaseCrossover
 
-__all__ = ["summarise_margins"]
+__all__ = ["summarise_margins", "worst_crossover"]
+
+
+def worst_crossover(gain_crossovers: tuple[GainCrossover, ...]) -> GainCrossover | None:
+    """The gain crossover with the smallest phase margin (the first of equals), whose margin is the loop's; None without one."""
+    return min(gain_crossovers, key=lambda c: c.phase_margin_deg, default=None)
 
 
 def summarise_margins(
@@ -21,8 +26,8 @@ def summarise_margins(
     phase crossover nearest 0 dB, and there is no lower gain margin.
     """
     pm = fc = None
-    if gain_crossovers:
-        worst = min(gain_crossovers, key=lambda c: c.phase_margin_deg)
+    worst = worst_crossover(gain_crossovers)
+    if worst is not None:
         pm, fc = worst.phase_margin_deg, worst.freq_hz
     gm = f_gm = lgm = f_lgm = None
     if stable:

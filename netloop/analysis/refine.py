@@ -14,6 +14,7 @@ import numpy as np
 
 from netloop.analysis.crossovers import find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.engine import DEFAULT_FLOOR_DB, analyse, analyse_draft, finish
+from netloop.analysis.margins import worst_crossover
 from netloop.analysis.response import Response
 from netloop.analysis.results import GainCrossover, LoopAnalysis, PhaseCrossover, Refinement
 from netloop.errors import AnalysisError
@@ -39,7 +40,8 @@ class Crossings:
     @property
     def phase_margin_deg(self) -> float | None:
         """The worst phase margin, as Margins.phase_margin_deg reads it; None without a gain crossover."""
-        return min((c.phase_margin_deg for c in self.gain_crossovers), default=None)
+        worst = worst_crossover(self.gain_crossovers)
+        return None if worst is None else worst.phase_margin_deg
 
 
 def crossings(freq_hz, t, *, floor_db: float = DEFAULT_FLOOR_DB) -> Crossings:
