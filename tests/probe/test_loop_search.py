@@ -68,3 +68,16 @@ def test_loop_report_matches_networkx(cards, a, b):
     globals_ = frozenset(netlist.globals)
     graph = connectivity(netlist, globals_, ac_ground_nodes(netlist, globals_), frozenset())
     assert loop_report(graph, a, b) == reference(text, a, b)
+
+
+def test_one_vertex_per_name_and_letter_even_when_a_label_has_two_letters():
+    """A label seen with two letters is two vertices, and the second letter's cards of one name stay one vertex, as the
+    first letter's do: ngspice names a subcircuit's capacitor c5 in x1 c.x1.c5, not the instance x1.c5, and cards of one
+    name are one name to it (from memory: the ngspice manual's subcircuit expansion)."""
+    text = ("one label, two letters (invented)\n.subckt cell a b\nC5 a b 1p\nC5 b c 1p\n.ends\n"
+            "X1.c5 n3 n4 0 0 sky130_fd_pr__nfet_01v8 w=1 l=1\nX1 n1 n2 cell\n.end\n")
+    netlist = parse_text(text)
+    globals_ = frozenset(netlist.globals)
+    graph = connectivity(netlist, globals_, ac_ground_nodes(netlist, globals_), frozenset())
+    vertices = sorted((graph.kinds[k], sorted(graph.nodes[k])) for k, label in enumerate(graph.labels) if label == "x1.c5")
+    assert vertices == [("C", ["n1", "n2", "x1.c"]), ("X", ["n3", "n4"])]

@@ -114,6 +114,20 @@ def test_a_wrapper_source_follower_whose_library_is_not_included_drives_its_sour
     assert (plain.driver_terminals, plain.load_terminals, plain.shunt_terminals) == (("m1.s",), ("e1.cn",), ("rs.p",))
 
 
+@pytest.mark.parametrize("device", ["Ms z g2 n2 0 nch w=10u l=1u", "Xs z g2 n2 0 sky130_fd_pr__nfet_01v8 w=10 l=1"],
+                         ids=["transistor", "wrapper not loaded"])
+def test_a_signal_entering_a_source_leaves_at_the_drain_not_the_gate(device):
+    """Beyond the node, a signal that enters a transistor at its source goes on at its drain only (circuit theory: the gate
+    is an input): a Miller capacitor whose stage the loop never comes back to stays on the load side, whether the
+    transistor is an M card or a sky130-style wrapper whose library is not included."""
+    # Invented: TWO_STAGE opened (fb at a DC source), and from out a resistor to the source of a device whose gate hangs
+    # from o1 through 100k. Reading the wrapper's gate as an output of its source would bring the loop back to o1.
+    text = TWO_STAGE.replace("Rf out fb 20k\nRg fb ref 20k\n", f"Vfb fb 0 dc 1.65\nRser out n2 1k\n{device}\nRg2 g2 o1 100k\nRd vdd z 10k\n")
+    p = break_loop(parse_text(text), "out")
+    assert p.driver_terminals == ("m6.d", "m7.d") and p.load_terminals == ("cc.n", "rser.p")
+    assert "cc on the load side (leads on into the loop: it wraps no stage that the loop measured passes through)" in p.decided_by
+
+
 def test_driver_naming_a_diode_drain_takes_the_whole_device():
     """driver= naming one terminal of a diode-connected device moves the device whole, and the sentence says so."""
     p = break_loop(parse_text(TWO_STAGE), "d1", driver="m1.d,m3.d")
