@@ -39,6 +39,9 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
     "probe": ("netloop/probe/*", ("tests/probe",)),
     "corners": ("netloop/jobs/corners/*", ("tests/jobs/corners",)),
     "statistics": ("netloop/jobs/statistics/*", ("tests/jobs/statistics",)),
+    # the loop census and break choice are mostly exercised through the probe and the jobs that read them
+    "graph": ("netloop/graph/*", ("tests/graph", "tests/probe", "tests/jobs/test_census.py", "tests/jobs/test_discover.py",
+                                  "tests/jobs/test_splits.py")),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these)
 COPIED = ("netloop", "tests", "circuits", "templates", "pyproject.toml")
