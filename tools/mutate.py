@@ -42,9 +42,12 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
     # the loop census and break choice are mostly exercised through the probe and the jobs that read them
     "graph": ("netloop/graph/*", ("tests/graph", "tests/probe", "tests/jobs/test_census.py", "tests/jobs/test_discover.py",
                                   "tests/jobs/test_splits.py")),
+    # measure.py, measure_checks.py (the self-checks behind "inconclusive") and measure_pair.py
+    "measure": ("netloop/jobs/measure*", ("tests/jobs/measure", "tests/jobs/test_measure_pair.py", "tests/jobs/test_kept_probes.py")),
 }
-# what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these)
-COPIED = ("netloop", "tests", "circuits", "templates", "pyproject.toml")
+# what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
+# builds its sky130 bench with benchmarks/_sky130_regulator.py)
+COPIED = ("netloop", "tests", "circuits", "templates", "benchmarks", "pyproject.toml")
 # mutmut's verdicts (`mutmut results --all true` prints "name: verdict")
 KILLED = ("killed", "timeout", "segfault")  # a timeout or crash is the tests noticing the mutant
 # the verdicts of a run stopped from outside (mutmut's time limits, tools/mutate_watchdog.py): a busy machine can give them
@@ -65,7 +68,7 @@ def _config(pattern: str, tests: tuple[str, ...]) -> str:
         'source_paths = ["netloop"]',
         f"only_mutate = [{json.dumps(pattern)}]",
         # the package data links (netloop/circuits, netloop/templates) are not walked by mutmut: copy them
-        'also_copy = ["circuits", "templates", "netloop/circuits", "netloop/templates"]',
+        'also_copy = ["circuits", "templates", "benchmarks", "netloop/circuits", "netloop/templates"]',
         f"pytest_add_cli_args_test_selection = {json.dumps(list(tests))}",
         # ngspice tests take seconds; a mutant that makes a test run 10x longer counts as caught
         "timeout_multiplier = 10.0",
