@@ -234,8 +234,9 @@ def find_loops(circuit: FlatCircuit, *, length_bound: int = DEFAULT_LENGTH_BOUND
             continue
         built = [_loop(circuit, index, c, edges, nets, shorts, key) for c in taken]
         parts = _split(tuple(built))
+        component = len(found) if len(parts) > 1 else None  # one id for every part of this strongly connected component
         for loops in parts:
-            found.append((tuple(sorted(loops, key=lambda lp: (len(lp.steps), lp.describe()))), capped, len(found) if len(parts) > 1 else None))
+            found.append((tuple(sorted(loops, key=lambda lp: (len(lp.steps), lp.describe()))), capped, component))
     groups = []
     found.sort(key=lambda f: min(order.get(n, 0) for lp in f[0] for n in lp.passes))
     coupled: dict[int, list[int]] = {}

@@ -70,9 +70,10 @@ def test_a_zero_volt_source_joins_two_nodes_and_a_diode_through_it_stays_a_diode
 
 
 def test_a_sense_source_in_series_on_the_loop_makes_both_its_nodes_break_candidates():
-    """A 0 V source in series between a stage's output and the next stage's input: one loop; both of its nodes are candidates."""
+    """A 0 V source in series between a stage's output and the next stage's input: one loop; both of its nodes are candidates,
+    and the stage fed from the far side of the source counts it as its driver's input."""
     # Reference: by construction: y -Vs-> y2 is a short for AC, so the ring x -> y=y2 -> x has one loop, and a break
-    # on either side of the source cuts it.
+    # on either side of the source cuts it; G2 (controlled by y2) is the only element driving x, G1 the only one driving y.
     text = """series sense (invented)
 G1 0 y x 0 1m
 Vs y y2 0
@@ -85,7 +86,32 @@ Ry y 0 1k
     (loop,) = group.loops
     assert set(loop.opened_by) == {"x", "y", "y2"}
     assert group.merged == (("y", "y2"),)
-    assert {c.node for c in group.candidates} == {"x", "y", "y2"}
+    # G2 drives x from y2, a node of the group through the source: x has one driver, y passes the signal on through Vs
+    assert [(c.node, c.drivers, c.loads) for c in group.candidates] == [
+        ("x", ("g2",), ("g1.cp",)), ("y2", ("vs",), ("g2.cp",)), ("y", ("g1",), ("vs.p",))]
+
+
+def test_a_follower_output_that_drives_a_gate_is_kept_and_is_the_best_break():
+    """A source follower's output node feeding a gate is not looked through (only sources touch a pair's tail): it is a loop
+    node, and the best break, driven by a low-impedance output and loading only a gate."""
+    # Reference: the collapse rule (netloop/graph/collapse.py docstring: a node only sources or emitters touch is looked
+    # through, here a gate touches v too); a break where a low-impedance output drives a high-impedance input is where
+    # the probe's answer needs the least correction (Middlebrook, "Measurement of loop gain in feedback systems", 1975;
+    # common practice). By construction: a -M3-> d -M1 (follower)-> v -M2-> a is the ring's only loop.
+    text = """follower in a ring (invented)
+Vdd vdd 0 3
+M3 d a 0 0 nch w=10u l=1u
+Rd d vdd 10k
+M1 vdd d v 0 nch w=10u l=1u
+I1 v 0 20u
+M2 a v 0 0 nch w=10u l=1u
+Ra a vdd 10k
+""" + MODELS + ".end\n"
+    (group,) = _groups(text)
+    (loop,) = group.loops
+    assert loop.describe() == "d -m1(g>s)-> v -m2(g>d)-> a -m3(g>d)-> d" and group.looked_through == ()
+    best = group.best
+    assert (best.node, best.drivers, best.loads, best.low_impedance_driver, best.high_impedance_load) == ("v", ("m1",), ("m2.g",), True, True)
 
 
 def test_a_loop_made_only_of_mirror_inputs_is_kept():

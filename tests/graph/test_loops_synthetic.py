@@ -70,6 +70,28 @@ def test_local_loop_inside_a_global_loop_is_listed_and_named_as_left_closed():
     assert [set(lp.nodes) for lp in closed] == [{"c", "e"}]
 
 
+# Two two-stage rings, a <-> b and c <-> d, whose first nodes a resistor joins, and a third ring e <-> f between them in
+# circuit order (invented): the first two share no node, but a signal goes from one to the other through Rac and back
+# through Rac, so they are one strongly connected part.
+RINGS_JOINED_BY_A_RESISTOR = _deck([("a", "b"), ("b", "a"), ("e", "f"), ("f", "e"), ("c", "d"), ("d", "c")], "Rac a c 1k\n")
+
+
+def test_loops_sharing_no_node_are_separate_groups_even_when_a_passive_network_joins_them():
+    """Two rings joined only by a resistor are two loop groups, each broken on its own, and one note names both groups."""
+    # Reference: by construction (RINGS_JOINED_BY_A_RESISTOR): the only elementary cycles through Rac cross it twice, so the
+    # loops are the rings; a break of one ring leaves the other closed whatever Rac does; e <-> f reaches neither.
+    from netloop.cli.loops_cmd import format_census
+    from netloop.jobs.discover import take_census
+
+    found = _found(RINGS_JOINED_BY_A_RESISTOR)
+    assert [sorted(g.nodes) for g in found.groups] == [["a", "b"], ["e", "f"], ["c", "d"]]
+    assert [len(g.loops) for g in found.groups] == [1, 1, 1] and all(g.best.opens_all for g in found.groups)
+    note = ("loop groups 1, 3 share no node, but reach one another through a passive network (a signal path joining them crosses "
+            "it twice): each is listed, broken and measured on its own, with the others closed")
+    assert found.notes == (note,)
+    assert f"note: {note}" in format_census(take_census(RINGS_JOINED_BY_A_RESISTOR, sweep=False)).splitlines()
+
+
 def test_loops_through_subcircuit_pins_carry_hierarchical_names():
     """A loop closed through three instances of a two-stage block passes their pins and their internal nodes by hierarchical name."""
     # Reference: by construction, x1 (a->b), x2 (b->c), x3 (c->a), each through its own internal node mid.
@@ -156,14 +178,43 @@ def test_random_stage_graphs_match_networkx_cycles(pairs):
             assert c.opens_all == all(c.node in lp.nodes for lp in g.loops)
 
 
-def test_bad_bounds_are_refused():
-    """A length bound below 2 or a cap below 1 is refused."""
-    # Reference: by construction (a loop has at least two nodes).
+def test_bounds_below_two_vertices_or_one_loop_are_refused_and_the_least_ones_accepted():
+    """A length bound below 2 or a cap below 1 is refused with one message; a bound of 2 lists the two-node loops, a cap of 1 one loop."""
+    # Reference: by construction (a loop has at least two nodes); the complete digraph on 3 vertices has C(3,2) = 3
+    # two-vertex cycles and 5 cycles in all (combinatorics, from memory).
     flat = flatten(parse_text(_complete(3)))
-    with pytest.raises(ValueError):
-        find_loops(flat, length_bound=1)
-    with pytest.raises(ValueError):
-        find_loops(flat, max_loops=0)
+    for bounds in ({"length_bound": 1}, {"max_loops": 0}):
+        with pytest.raises(ValueError) as err:
+            find_loops(flat, **bounds)
+        assert str(err.value) == "length_bound must be at least 2 and max_loops at least 1"
+    (pairs,) = find_loops(flat, length_bound=2).groups
+    assert sorted(sorted(lp.nodes) for lp in pairs.loops) == [["n0", "n1"], ["n0", "n2"], ["n1", "n2"]] and not pairs.capped
+    (one,) = find_loops(flat, max_loops=1).groups
+    assert len(one.loops) == 1 and one.capped
+
+
+def test_the_cycle_search_sees_only_parts_that_can_loop_and_reads_one_cycle_past_the_cap(monkeypatch):
+    """find_loops asks for cycles only in strongly connected parts of two vertices or more, and reads one cycle past the cap, no more."""
+    # Reference: a strongly connected component of one vertex and no self-edge has no cycle (Tarjan, "Depth-first search
+    # and linear graph algorithms", 1972); one item past a limit is all a capped listing needs to know it was capped
+    # (common practice); the complete digraph on 5 vertices has 84 cycles, so a cap of 10 is reached.
+    import netloop.graph.loops as loops_module
+
+    searched: list[tuple[list, list]] = []
+    real = loops_module.bounded_cycles
+
+    def spy(graph, vertices, length_bound, skip=None):
+        seen: list = []
+        searched.append((list(vertices), seen))
+        for cycle in real(graph, vertices, length_bound, skip=skip):
+            seen.append(cycle)
+            yield cycle
+
+    monkeypatch.setattr(loops_module, "bounded_cycles", spy)
+    text = _complete(5).replace(".end\n", _stage("in", "n0", "in") + _stage("n4", "out", "out") + "R_in in 0 1k\nR_out out 0 1k\n.end\n")
+    (group,) = _found(text, max_loops=10).groups
+    assert group.capped and len(group.loops) == 10
+    assert [(sorted(vertices), len(seen)) for vertices, seen in searched] == [([f"n{k}" for k in range(5)], 11)]
 
 
 def test_a_long_loop_is_described_shortened_on_request_and_listed_whole_in_json():
