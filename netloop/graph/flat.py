@@ -95,6 +95,8 @@ class FlatCircuit:
     globals: tuple[str, ...] = ()
     instance_counts: Mapping[str, int] = field(default_factory=dict)  # subcircuit -> X instances, all levels
     warnings: tuple[str, ...] = ()
+    # (path, the subcircuit's pin names, the nets on them) of every expanded X instance, in circuit order
+    instance_pins: tuple[tuple[tuple[str, ...], tuple[str, ...], tuple[str, ...]], ...] = ()
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def __len__(self) -> int:

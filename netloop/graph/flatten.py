@@ -36,6 +36,7 @@ class _Flattener:
         self.wrappers: list[str | None] = []
         self.instances: Counter[str] = Counter()
         self.warnings: list[str] = []
+        self.instance_pins: list[tuple[tuple[str, ...], tuple[str, ...], tuple[str, ...]]] = []
         self.device_cache: dict[int, tuple[str, tuple[str, ...]] | None] = {}
 
     def _device(self, sub: Subcircuit) -> tuple[str, tuple[str, ...]] | None:
@@ -109,7 +110,9 @@ class _Flattener:
                         raise NetlistError(f"{s.location}: {s.name}: subcircuit {sub.name} has {len(sub.pins)} pins, the card gives {len(nodes)} nodes")
                     local = sub.subcircuits
                     inner = (local, *outer) if local else outer
-                    self.expand(sub.body, name + ".", (*path, s.name.lower()), dict(zip(sub.pins, nodes)), inner, (*active, sub.name))
+                    here = (*path, s.name.lower())
+                    self.instance_pins.append((here, sub.pins, nodes))
+                    self.expand(sub.body, name + ".", here, dict(zip(sub.pins, nodes)), inner, (*active, sub.name))
                     continue
             names.append(name)
             kinds.append(kind)
@@ -145,4 +148,5 @@ def flatten(netlist: Netlist) -> FlatCircuit:
             globals=netlist.globals,
             instance_counts=dict(sorted(f.instances.items())),
             warnings=tuple(f.warnings),
+            instance_pins=tuple(f.instance_pins),
         )

@@ -40,6 +40,7 @@ from typing import TYPE_CHECKING
 
 from netloop.errors import NetloopError
 from netloop.graph.connectivity import supply_nets
+from netloop.graph.flat import GROUND_NAMES
 from netloop.netlist.cards import controlling_sources
 
 if TYPE_CHECKING:
@@ -91,34 +92,35 @@ def _lookup(circuit: FlatCircuit, index: int, name: str) -> tuple[str, ...] | No
     return None
 
 
-def _local_nodes(circuit: FlatCircuit, path: tuple[str, ...]) -> dict[str, str]:
-    """Local node name -> flattened net, for the nodes the elements of one instance connect (pins included)."""
-    key = ("local_nodes", path)
-    got = circuit._cache.get(key)
+def _pin_nets(circuit: FlatCircuit, path: tuple[str, ...]) -> dict[str, str]:
+    """Pin name -> the parent's net, for the expanded instance at ``path`` (as flatten connected them)."""
+    got = circuit._cache.get("pin_nets")
     if got is None:
-        got = {}
-        for p, original, nodes in zip(circuit.paths, circuit.originals, circuit.element_nodes):
-            if p == path:
-                for local, flat in zip(original.nodes, nodes):
-                    got.setdefault(local, flat)
-        circuit._cache[key] = got
-    return got
+        got = {p: dict(zip(pins, nets)) for p, pins, nets in circuit.instance_pins}
+        circuit._cache["pin_nets"] = got
+    return got.get(path, {})
 
 
 def _expression_controls(circuit: FlatCircuit, index: int) -> list[tuple[str, str]]:
-    """(node, pin label) pairs an expression-valued E/G/B reads."""
+    """(node, pin label) pairs an expression-valued E/G/B reads.
+
+    A node named inside an instance is mapped as flatten maps a card's nodes (a pin to the parent's net,
+    whether or not another element of the instance touches it; a global as it is; any other name to the
+    instance's own net), as ngspice's subcircuit expansion rewrites ``v(...)`` (its ``listing e``).
+    """
     text = " ".join(circuit.originals[index].tokens[2:])
     path = circuit.paths[index]
     prefix = "".join(p + "." for p in path)
-    glob = {*circuit.globals, "0", "gnd"}
-    local = _local_nodes(circuit, path) if path else {}
+    glob = {*circuit.globals, *GROUND_NAMES}
+    pins = _pin_nets(circuit, path) if path else {}
     out = []
     for m in _VREF.finditer(text):
         for node in m.groups():
             if node:
                 node = node.lower()
-                node = "0" if node == "gnd" else node
-                out.append((node if node in glob or not path else local.get(node, prefix + node), "cp"))
+                if path:
+                    node = pins.get(node) or (node if node in glob else prefix + node)
+                out.append(("0" if node == "gnd" else node, "cp"))
     for m in _IREF.finditer(text):
         nodes = _lookup(circuit, index, m.group(1))
         if nodes:

@@ -125,3 +125,44 @@ def test_controlling_sources_get_hierarchical_names():
     assert flat.element("x2.f1").controlling_sources == ("x2.vs",)
     assert "x2.vs" in flat.names
     assert flat.element("x1.rm").controlling_sources == ()
+
+
+@pytest.mark.parametrize("instance", [False, True])
+def test_poly_source_keeps_every_controlling_pair_at_top_level_and_in_an_instance(instance):
+    """A POLY(2) VCVS has its two output nodes and two controlling pairs as nodes (the POLY token and coefficients are not), flat or in an instance."""
+    # Reference: ngspice manual, "EXXXX N+ N- POLY(ND) NC1+ NC1- ... P0 P1 ...": ND controlling pairs after POLY(ND).
+    card = "E1 out 0 POLY(2) a 0 b 0 0 1 1\nR1 out a 1k\nR2 a 0 1k\nR3 b 0 1k\n"
+    text = f"t\n.subckt sum a b out\n{card}.ends\nX1 a b out sum\n" if instance else "t\n" + card
+    e1 = flatten(parse_text(text + ".end\n")).element("x1.e1" if instance else "e1")
+    assert e1.nodes == ("out", "0", "a", "0", "b", "0") and e1.pins == ("p", "n", "cp1", "cn1", "cp2", "cn2")
+
+
+def test_coupling_in_a_subcircuit_is_kept_with_no_nodes_of_its_own():
+    """A K card in a subcircuit flattens to an element with no nodes, its inductors named from its scope."""
+    # Reference: ngspice manual, "KXXXXXXX LYYYYYYY LZZZZZZZ VALUE": K names two inductors and has no nodes.
+    flat = flatten(parse_text("t\n.subckt xfmr p s\nL1 p 0 1m\nL2 s 0 1m\nK1 L1 L2 0.99\n.ends\nX1 a b xfmr\nR1 a 0 1k\nR2 b 0 1k\n.end\n"))
+    k1 = flat.element("x1.k1")
+    assert (k1.kind, k1.nodes, k1.path) == ("K", (), ("x1",))
+
+
+def test_one_terminal_element_is_a_self_loop_of_the_connectivity_graph():
+    """An element with one terminal (an instance of a one-pin cell the netlist lacks) is one self-loop whose two ends are that pin."""
+    # Reference: networkx MultiGraph self-loops (networkx docs, nx.selfloop_edges); connectivity_graph's docstring.
+    flat = flatten(parse_text("t\nX9 pad padcell\nR1 pad 0 1k\n.end\n"))
+    g = connectivity_graph(flat)
+    assert [(a, b, k, d["pins"]) for a, b, k, d in nx.selfloop_edges(g, keys=True, data=True)] == [("pad", "pad", ("x9", "1", "1"), ("1", "1"))]
+
+
+@pytest.mark.parametrize(("count", "typed", "suggested"), [
+    (5000, "rfeedback", ("rfeedback_top",)),  # up to 5000 names: every name is compared
+    (5001, "rfeedback", ()),  # above: only names within two characters of the typed length
+    (5001, "rfeedback_tp", ("rfeedback_top",)),
+])
+def test_element_suggestions_on_a_large_circuit_compare_names_of_about_the_typed_length(count, typed, suggested):
+    """An unknown element name is suggested close names from every name up to 5000 elements, and above that from names within two characters of its length."""
+    # Reference: difflib.get_close_matches (Python docs; ratio 2M/T: 'rfeedback' to 'rfeedback_top' is 18/22 = 0.82 > 0.6);
+    # the 5000-name bound that keeps a huge circuit's suggestions quick is flat._candidates' own (common practice).
+    text = "t\n" + "".join(f"r{i} n{i} 0 1k\n" for i in range(count - 1)) + "rfeedback_top a 0 1k\n.end\n"
+    with pytest.raises(UnknownNodeError) as info:
+        flatten(parse_text(text)).element(typed)
+    assert info.value.suggestions == suggested

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import pytest
+
 from netloop.graph import flatten
 from netloop.graph.loops import find_loops
-from netloop.netlist import parse_file
+from netloop.netlist import parse_file, parse_text
 
 
 def _groups(path):
@@ -72,3 +74,21 @@ def test_fd_amp_joins_differential_and_common_mode_loops(circuits):
     assert {"outn", "cm", "ctail", "cmfb"} in loops and {"outp", "cm", "ctail", "cmfb"} in loops
     assert not any(c.opens_all for c in group.candidates)
     assert group.best.left_closed  # a single break leaves some loop closed, and says which
+
+
+@pytest.mark.parametrize(("devices", "model"), [
+    ("M1 b a 0 0 dev\nM2 vdd b c 0 dev\nM3 d c 0 0 dev", ".model dev nmos"),  # source follower M2
+    ("Q1 b a 0 dev\nQ2 vdd b c dev\nQ3 d c 0 dev", ".model dev npn"),  # emitter follower Q2
+])
+def test_follower_output_that_drives_only_a_gate_ranks_first(devices, model):
+    """Among nodes on the same loops, each with one driver and only control inputs as loads, the follower's output ranks first, saying why."""
+    # Reference: Middlebrook, "Measurement of loop gain in feedback systems", Int. J. Electronics 38 (1975): a series
+    # injection is most accurate where the driving impedance is small against the load's; common practice puts the break
+    # at a follower's output feeding a gate or base. Invented three-stage amplifier: gain stage, follower, gain stage.
+    text = f"t\nVdd vdd 0 1.8\n{devices}\n{model}\nRd1 vdd b 10k\nI2 c 0 10u\nRd3 vdd d 10k\nRf d a 100k\nRa a 0 100k\n.end\n"
+    (group,) = find_loops(flatten(parse_text(text))).groups
+    assert [c.node for c in group.candidates] == ["c", "b", "a", "d"]  # b before a: circuit order
+    best = group.candidates[0]
+    assert (best.low_impedance_driver, best.high_impedance_load) == (True, True)
+    assert best.reason.endswith("; its driver is a low-impedance output (follower or controlled voltage source)")
+    assert not any(c.low_impedance_driver for c in group.candidates[1:])

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from netloop.graph import flatten
+import pytest
+
+from netloop.graph import find_loops, flatten
 from netloop.graph.signal_flow import signal_flow_graph, signal_nodes
 from netloop.netlist import parse_text
 
@@ -67,3 +69,41 @@ def test_behavioural_source_inside_an_instance_reads_the_parent_net_of_a_pin():
     text = "t\n.subckt blk in out\nR0 in mid 1k\nB1 out 0 v=v(in)+v(mid)\nR1 out 0 1k\n.ends\nX1 a y blk\nRa a 0 1k\n.end\n"
     edges = {(a, b) for a, b, d in signal_flow_graph(flatten(parse_text(text))).edges(data=True) if d["element"] == "x1.b1"}
     assert edges == {("a", "y"), ("x1.mid", "y")}
+
+
+def test_behavioural_source_reads_a_pin_and_an_inner_net_no_primitive_of_its_instance_touches():
+    """v(pin) and v(net) in an instance are the parent's net on the pin and the instance's own net even when only the expression (or a deeper instance) touches them."""
+    # Reference: ngspice 39's own expansion (`listing e` of this deck's X1 alone prints "b.x1.b1 b 0 v= -1.0e+01 * v(a)":
+    # the pin in is the parent's net a); an inner net is the instance's own net, whatever level touches it.
+    text = ("t\n.subckt buf i o\nE1 o 0 i 0 1\n.ends\n"
+            ".subckt amp in out\nB1 out 0 v={-10*v(in)+v(mid)}\nXb out mid buf\nRm mid 0 1k\n.ends\n"
+            "X1 a b amp\nR1 b a 10k\nRg a 0 1k\n.end\n")
+    flat = flatten(parse_text(text))
+    edges = {(a, b) for a, b, d in signal_flow_graph(flat).edges(data=True) if d["element"] == "x1.b1"}
+    assert edges == {("a", "b"), ("x1.mid", "b")}
+    (group,) = find_loops(flat).groups  # a -> b (x1.b1) -> a (r1), and b -> x1.mid (the buffer) -> b (x1.b1)
+    assert {frozenset(lp.elements) for lp in group.loops} == {frozenset({"x1.b1", "r1"}), frozenset({"x1.b1", "x1.xb.e1"})}
+
+
+def test_behavioural_source_reading_a_current_is_controlled_by_that_source_s_nodes():
+    """A B source whose expression reads i(vsense) is controlled by both nodes of vsense, as an H source naming vsense is."""
+    # Reference: ngspice manual, B source: i(vname) is the current through the voltage source vname, set by the voltage across
+    # the branch it senses (the same rule as F/H in signal_flow.py).
+    edges = _edges("Vsense x y 0\nR1 x 0 1k\nR2 y 0 1k\nB1 o 0 i={-2*i(vsense)}\nR3 o x 1k")
+    assert {(a, b) for a, b, el in edges if el == "b1"} == {("x", "o"), ("y", "o")}
+
+
+@pytest.mark.parametrize("card", [
+    "T1 a 0 b 0 z0=50 td=1n",  # lossless transmission line
+    "U1 a b 0 rcline l=1m\n.model rcline urc",  # uniform distributed RC line
+    "X1 a b 0 nowhere",  # an instance whose subcircuit is not in the netlist
+    "A1 a b amod\n.model amod gain",  # an XSPICE code model
+])
+def test_lines_code_models_and_unexpanded_instances_pass_signal_between_every_pair_of_pins(card):
+    """A transmission line, an RC line, an XSPICE model and an unexpanded instance pass signal both ways between every pair of their signal pins."""
+    # Reference: a transmission line or RC line is a reciprocal passive two-port (Pozar, Microwave Engineering, 4th ed.,
+    # ch. 4, reciprocal networks; from memory); what an A model or an unexpanded X does inside is unknown, so every
+    # pair is kept (the rule in signal_flow.py's docstring).
+    name = card.split()[0].lower()
+    edges = _edges(card + "\nRa a 0 1k\nRb b 0 1k")
+    assert {(a, b) for a, b, el in edges if el == name} == {("a", "b"), ("b", "a")}
