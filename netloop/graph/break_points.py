@@ -41,6 +41,11 @@ def touching(circuit: FlatCircuit, nodes: set[str] | frozenset[str]) -> dict[str
     return out
 
 
+def _voltage_form(tokens: tuple[str, ...]) -> bool:
+    """Whether a B card's expression (its tokens after the name) sets a voltage (``v=``, a controlled voltage source) rather than a current (``i=``)."""
+    return "".join(tokens[2:]).lower().startswith("v=")  # two nodes, then the expression
+
+
 def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: frozenset[str], elements: list[int]):
     """(drivers, loads, single, high_z, low_z) of a node, counting only edges inside the group."""
     active_in: dict[str, str] = {}
@@ -59,8 +64,8 @@ def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: froze
     low_z = False
     if single and active_in:
         (el, pin), = active_in.items()
-        kind = circuit.element(el).kind
-        low_z = pin in ("s", "e") or kind in "EH"
+        element = circuit.element(el)
+        low_z = pin in ("s", "e") or element.kind in "EH" or (element.kind == "B" and _voltage_form(element.element.tokens))
     return tuple(drivers), tuple(f"{el}.{pin}" for el, pin in loads.items()), single, high_z, low_z
 
 

@@ -92,3 +92,22 @@ def test_follower_output_that_drives_only_a_gate_ranks_first(devices, model):
     assert (best.low_impedance_driver, best.high_impedance_load) == (True, True)
     assert best.reason.endswith("; its driver is a low-impedance output (follower or controlled voltage source)")
     assert not any(c.low_impedance_driver for c in group.candidates[1:])
+
+
+@pytest.mark.parametrize("middle, low_z", [
+    ("E2 c 0 b 0 1", True),  # a controlled voltage source
+    ("B2 c 0 v={v(b)}", True),  # the same, behavioural: a voltage source too
+    ("B2 c 0 V = {v(b)}", True),  # written with spaces and a capital letter
+    ("B2 0 c i={v(b)/1k}\nRc c 0 1k", False),  # a behavioural current source into 1k: a high-impedance output
+])
+def test_a_behavioural_voltage_source_is_a_low_impedance_driver_as_a_controlled_one_is(middle, low_z):
+    """A node driven by a B source written as a voltage (v=) ranks and reads as one driven by an E source; written as a
+    current (i=), it does not (ngspice manual, B source: v= makes a voltage source, i= a current source)."""
+    # Invented three-stage loop: gain stage M1, the middle unit from b to c, gain stage M3, divider back to a.
+    text = ("t\nVdd vdd 0 1.8\nM1 b a 0 0 dev\nM3 d c 0 0 dev\n.model dev nmos\nRd1 vdd b 10k\nRd3 vdd d 10k\n"
+            f"{middle}\nRf d a 100k\nRa a 0 100k\n.end\n")
+    (group,) = find_loops(flatten(parse_text(text))).groups
+    c = next(x for x in group.candidates if x.node == "c")
+    assert c.low_impedance_driver is low_z
+    assert c.reason.endswith("; its driver is a low-impedance output (follower or controlled voltage source)") is low_z
+    assert (group.candidates[0].node == "c") is low_z
