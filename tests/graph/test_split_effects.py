@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from dataclasses import replace
 
 import pytest
@@ -111,6 +112,11 @@ def _nums(n, *names):
     return ", ".join(f"1.{k}" for k in sorted(n[x] for x in names))
 
 
+def _fill(text: str, n) -> str:
+    """``text`` with each ``{F, G}`` replaced by those loops' numbers in group 1 (``n``: loop name -> number)."""
+    return re.sub(r"\{([\w, ]+)\}", lambda m: _nums(n, *m[1].split(", ")), text)
+
+
 # The three splits of LOCAL_AND_GLOBAL the reasons below are read from: c with Cc on the driver side (the probe's own rule:
 # the Miller capacitor rides with its stage, docs/splitting.md), b with only Gab's output on the driver side, and a with
 # both its terminals on the driver side (as when a whole block's pin is the driver side): a split that opens nothing.
@@ -140,7 +146,7 @@ def test_each_reason_says_word_for_word_what_the_split_opens_and_why_the_rest_st
     # gab.cp, both with the driver, and L does not pass a. Wording: the module docstring of netloop.graph.split_effects.
     circuit, group, n = _setup()
     by = {c.node: c for c in apply_splits(circuit, group, _SPLITS).candidates}
-    assert by[node].reason == expected.replace("{F, G}", _nums(n, "F", "G")).replace("{L}", _nums(n, "L"))
+    assert by[node].reason == _fill(expected, n)
 
 
 @pytest.mark.parametrize("split", [*_SPLITS.values(), NodeSplit("c", ("gd.n",), ("cc.p", "gca.cp"), {("gd", "n"): "driver"})],
@@ -203,3 +209,31 @@ def test_a_split_that_opens_every_loop_ranks_above_one_that_keeps_the_local_loop
                               f"global loop); the local loop 1.{n['L1']} (enters and leaves b on the load side, through rf, gd) and "
                               f"loop 1.{n['L2']} (does not pass b; the probe keeps it closed with the driver at e) stay closed: "
                               f"T is the global return ratio with the local compensation in place; driven by one element (gab)")
+
+
+_LOCAL_AT_D_AND_E = {
+    "a": NodeSplit("a", ("gca.n",), ("gab.cp", "gy.cp"), {("gca", "n"): "driver"}),
+    "d": NodeSplit("d", ("gx.n", "rf.p"), (), {("gx", "n"): "driver", ("rf", "p"): "driver"}),
+    "e": NodeSplit("e", ("gy.n", "rg.p"), (), {("gy", "n"): "driver", ("rg", "p"): "driver"}),
+}
+
+
+@pytest.mark.parametrize(("node", "expected"), [
+    ("a", "the probe splits a into driver side gca.n and load side gab.cp, gy.cp; it opens loops {L2, G} (the local loop {L2} among "
+          "them: a split at e keeps it closed with its driver); the local loop {L1} (does not pass a; the probe keeps it closed with "
+          "the driver at d) stays closed; driven by one element (gca); it drives only high-impedance inputs (gab.cp, gy.cp)"),
+    ("d", "the probe splits d into driver side gx.n, rf.p and load side (none), which opens none of the group's loops: loop {L1} "
+          "(from gx back through rf: the driver stage's own feedback, which the probe keeps on the driver side); loops {L2, G} (do "
+          "not pass d; the probe keeps loop {L2} closed with the driver at e); T there measures no loop of the group; driven by "
+          "one element (gx)"),
+])
+def test_a_reason_claims_local_compensation_only_for_the_loops_some_split_keeps_local(node, expected):
+    """A reason never calls a loop kept with a driver that no split keeps local, nor calls T global with local compensation in place when it opens a local loop."""
+    # Reference: by construction (BUFFERED_LOCALS): G leaves every node by an active input (gab.cp, gd.cp, gca.cp), so no
+    # split keeps it local (the module docstring's rule); L2 is local at e (gy.n in, rg.p out, both with the driver) and L1
+    # at d; the split of a separates gca.n from gy.cp, so L2 runs through the probe there and its compensation is open in T.
+    # (Before this was fixed, d's reason said G too was kept closed with the driver at e, and a's called L2 and G "the
+    # global loop" measured "with the local compensation in place".)
+    circuit, group, n = _setup(BUFFERED_LOCALS, _buffered)
+    by = {c.node: c for c in apply_splits(circuit, group, _LOCAL_AT_D_AND_E).candidates}
+    assert by[node].reason == _fill(expected, n)
