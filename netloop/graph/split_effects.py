@@ -165,8 +165,10 @@ def _why_closed(group: LoopGroup, node: str, fates: list[LoopFate], local_at: di
                        f"{node} on the {side} side, through {way})")
     if NOT_THROUGH in by:
         fs = by[NOT_THROUGH]
-        where = sorted({local_at[f.number] for f in fs if f.number in local_at})
-        kept = f"; the probe keeps {'it' if one[NOT_THROUGH] else 'them'} closed with the driver at {', '.join(where)}" if where else ""
+        held = [f.number for f in fs if f.number in local_at]  # only these are some split's local loops
+        where = ", ".join(sorted({local_at[k] for k in held}))
+        which = ("it" if one[NOT_THROUGH] else "them") if len(held) == len(fs) else _loops(group, held)
+        kept = f"; the probe keeps {which} closed with the driver at {where}" if held else ""
         out.append(f"{_loops(group, [f.number for f in fs])} ({'does' if one[NOT_THROUGH] else 'do'} not pass {node}{kept})")
     return out
 
@@ -186,10 +188,17 @@ def _reason(group: LoopGroup, c: BreakCandidate, split: NodeSplit, fates: tuple[
         found = f"all {total} loops found (the search was capped)" if group.capped else (f"all {total} loops" if total > 1 else "the loop")
         parts = [f"{how}, which opens {found} of the group: T is the whole return ratio and the opened circuit has no other loop of the group"]
     else:
-        parts = [f"{how}; it opens {_loops(group, opened)}" + (" (the global loop)" if not other else "")]
+        mine = [k for k in opened if k in local]  # local loops this split opens: their compensation is not in place in T
+        if mine:
+            at, single = ", ".join(sorted({local_at[k] for k in mine})), len(mine) == 1
+            what = (f" (the local {_loops(group, mine)} among them: a split at {at} keeps {'it' if single else 'them'} closed with "
+                    f"{'its' if single else 'their'} driver)")
+        else:
+            what = " (the global loop)" if not other else ""
+        parts = [f"{how}; it opens {_loops(group, opened)}{what}"]
         if kept:
             intended = ", as intended" if all(f.fate == LOCAL for f in kept) else ""
-            whole = ": T is the global return ratio with the local compensation in place" if not other else ""
+            whole = ": T is the global return ratio with the local compensation in place" if not other and not mine else ""
             parts.append(f"the local {' and '.join(_why_closed(group, c.node, kept, local_at))} {'stays' if len(kept) == 1 else 'stay'} closed{intended}{whole}")
         if other:
             parts.append("it leaves " + " and ".join(_why_closed(group, c.node, other, local_at)) + " closed")
