@@ -61,8 +61,9 @@ class Sweep:
     """The frequency plan of a measurement.
 
     The first pass runs ``ac dec points_per_decade fmin_hz fmax_hz``. When a limit was not given by
-    the user (``*_given`` False) the sweep is widened where the data asks for it: upward until |T|
-    is well below 1 at the top, downward until the phase has settled at the bottom. Then, with
+    the user (``*_given`` False) the sweep is widened where the data asks for it, two decades a round:
+    upward until |T| is well below 1 at the top or ``ceiling_hz`` is reached, downward until the
+    phase has settled at the bottom or ``floor_hz`` is reached. Then, with
     ``refine``, short linear sweeps are added around every crossover until the worst phase margin
     moves by less than ``tol_deg`` (at most ``max_rounds`` rounds).
     """
@@ -81,6 +82,9 @@ class Sweep:
     def __post_init__(self) -> None:
         if not (0 < self.fmin_hz < self.fmax_hz) or not math.isfinite(self.fmax_hz):
             raise NetloopError(f"the sweep needs 0 < fmin < fmax, got fmin={self.fmin_hz:g} Hz, fmax={self.fmax_hz:g} Hz")
+        if not (0 < self.floor_hz and math.isfinite(self.ceiling_hz)):
+            raise NetloopError(f"the sweep is widened between a floor above 0 and a finite ceiling, got floor={self.floor_hz:g} Hz, "
+                               f"ceiling={self.ceiling_hz:g} Hz")
         if self.points_per_decade < 2:
             raise NetloopError(f"points per decade must be at least 2, got {self.points_per_decade}")
 
@@ -259,8 +263,8 @@ def sample_loops(
     ppd = sweep.points_per_decade
     f, t = runner.evaluate((AcSweep("dec", ppd, fmin, fmax),), meanwhile, stage="the first sweep")
 
-    # widen the sweep where the data asks for it and the user did not fix the limit
-    for _ in range(3):
+    # widen the sweep where the data asks for it and the user did not fix the limit, as far as the floor and the ceiling
+    while True:
         more: list[AcSweep] = []
         if not sweep.fmax_given and any(abs(v[-1]) > 0.1 and not _levels_off(f, v) for v in t.values()) and fmax < sweep.ceiling_hz:
             new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
