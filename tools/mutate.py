@@ -44,6 +44,8 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
                                   "tests/jobs/test_splits.py")),
     # measure.py, measure_checks.py (the self-checks behind "inconclusive") and measure_pair.py
     "measure": ("netloop/jobs/measure*", ("tests/jobs/measure", "tests/jobs/test_measure_pair.py", "tests/jobs/test_kept_probes.py")),
+    # the words, tables and files a verdict reaches the user in (text, JSON, CSV, JUnit XML, HTML, plots)
+    "report": ("netloop/report/*", ("tests/report",)),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
 # builds its sky130 bench with benchmarks/_sky130_regulator.py)
