@@ -439,3 +439,45 @@ def test_a_pair_whose_differential_loop_is_unstable_when_opened_is_checked_by_ng
     assert split.passed and split.detail.startswith("kept the rules placement: as placed, differential mode: T has 1 right-half-plane pole(s)")
     assert "netloop" not in dm.breaks.decided_by  # nothing moved, so decided_by says only what the rules decided
     assert result.stable and result.verdict == "pass"
+
+
+# Two uncoupled matched halves (invented): g1 drives x from a, the inverting stage g2 drives y from x, Miller capacitor
+# cc from x to y around g2, and only a 1 GOhm path from y back to a besides: the rules keep cc with g2 (a local loop
+# around the stage x drives), which leaves the 1 GOhm loop alone to measure.
+MILLER_HALF = """g1{k} 0 x{k} a{k} 0 1m
+r1{k} x{k} 0 10k
+c1{k} x{k} 0 1p
+g2{k} y{k} 0 x{k} 0 1m
+r2{k} y{k} 0 10k
+c2{k} y{k} 0 5p
+cc{k} x{k} y{k} 1p
+rw{k} y{k} a{k} 1g
+ra{k} a{k} 0 1k
+"""
+
+
+def test_a_pair_whose_rules_split_measures_no_loop_moves_the_bridges_and_says_so(simulator):
+    """At x the rules' split measures only the 1 GOhm loop (-80 dB, no loop): netloop moves both Miller capacitors to the
+    driver side, measures the Miller loops, and the check "split" and decided_by say what it moved and why."""
+    # References (circuit theory, the half circuit): with cc beside g2 the loop left is gm1 R1 gm2 R2 ra / (ra + rw) = 1e-4
+    # (-80 dB); with cc on the driver side the break measures the Miller loop, T = gm2 Z2 ZL / (ZL + 1/(s cc) + Z2)
+    # (Z2 = R2 || C2, ZL = R1 || C1: the driver side's open-circuit voltage and impedance into the load side's ZL);
+    # the halves share no element, so both modes' T are the half's (Hurst and Lewis 1995).
+    text = "two Miller stages (invented)\n" + MILLER_HALF.format(k="p") + MILLER_HALF.format(k="n") + ".end\n"
+    result = measure_pair(text, "xp,xn", simulator=simulator)
+    moved = ("moved xp: ccp to the driver side; xn: ccn to the driver side: with the rules' placement, differential mode: |T| is "
+             "below -60 dB at every frequency (at most -80 dB): the break measured no loop; common mode: |T| is below -60 dB at "
+             "every frequency (at most -80 dB): the break measured no loop; with this one both modes pass every self-check "
+             "and T has no right-half-plane pole")
+    for mode in result.modes.values():
+        assert [(c.name, c.passed, c.detail) for c in mode.checks] == [("split", True, moved)]
+        assert mode.breaks.decided_by.endswith(f"; netloop {moved}.") and mode.breaks.decided_by.count("netloop moved") == 1
+        assert "ccp.p" in mode.breaks.driver_terminals and "ccn.p" in mode.breaks.driver_terminals
+        f = mode.analysis.freq_hz
+        s = 2j * np.pi * f
+        z2, zl = 10e3 / (1 + s * 10e3 * 5e-12), 10e3 / (1 + s * 10e3 * 1e-12)
+        t = 1e-3 * z2 * zl / (zl + 1 / (s * 1e-12) + z2)
+        keep = np.abs(t) > 0.1  # where the 1 GOhm path (-80 dB) is below 1e-3 of the Miller loop
+        assert keep.sum() > 20
+        np.testing.assert_allclose(mode.analysis.t[keep], t[keep], rtol=1e-3)
+    assert result.verdict == "pass"
