@@ -485,3 +485,32 @@ def test_coupling_is_the_worst_below_each_modes_crossover(simulator):
         assert band < 1e8  # the mode crosses 0 dB well below the sweep's top
         upto = measure_pair(text, "outp,outn", simulator=simulator, sweep=Sweep(fmax_hz=band, fmax_given=True)).coupling
         assert getattr(full, figure) == pytest.approx(getattr(upto, figure), abs=0.3), figure
+
+
+def test_a_pair_whose_split_opens_no_loop_is_inconclusive_and_says_why(simulator, tmp_path):
+    """Two open-loop copies of the testbench's amplifier, broken at their first-stage outputs: the rules' split keeps each
+    copy's only loop (its Miller branch) closed, so neither mode regulates and the check "opens-loop" fails, naming both
+    nodes and what to do; the verdict is inconclusive, not a PASS for a loop that was never measured."""
+    # References: circuits/benches/tb_open_copy.cir header (the copy's only loop is its Miller branch xol.o1 -> M6 -> out
+    # -> Cc/Rz -> xol.o1); tests/jobs/test_splits.py (Rz on the load side at xol.o1 opens none of its 1 loop); verdict
+    # model (team brief): a failed self-check is inconclusive, with the reason and what to try.
+    shutil.copytree(CIRCUITS / "models", tmp_path / "models")
+    (tmp_path / "benches").mkdir()
+    bench = (CIRCUITS / "benches" / "tb_open_copy.cir").read_text()
+    copy = "Xol olp oln olout vdd 0 ib2 ota cc=1.2p rz=1.5k\n"
+    assert copy in bench
+    path = tmp_path / "benches" / "two_open_copies.cir"
+    path.write_text(bench.replace(copy, copy + "Xol2 olp oln olout2 vdd 0 ib3 ota cc=1.2p rz=1.5k\nIb3 vdd ib3 dc 20u\nCl3 olout2 0 2p\n"))
+    result = measure_pair(path, "xol.o1,xol2.o1", simulator=simulator)
+    for mode in result.modes.values():
+        assert not mode.analysis.regulates
+        (opens,) = [c for c in mode.checks if c.name == "opens-loop"]
+        assert not opens.passed
+        halves = opens.detail.split("; the split at ")
+        assert len(halves) == 2 and halves[0].startswith("the split at xol.o1 opens none of the 1 loop(s) of loop ")
+        assert halves[1].startswith("xol2.o1 opens none of the 1 loop(s) of loop ")
+        assert all(h.endswith("(1 closed on the load side): T there measures no loop of the circuit, so its 'does not regulate' "
+                              "would be no promise") for h in halves)
+        assert opens.advice == ("name the driver side with --driver, or break the loop at another node (netloop loops NETLIST "
+                                "lists what each break opens)")
+        assert mode.verdict == "inconclusive"
