@@ -431,30 +431,43 @@ def test_a_pair_whose_differential_loop_is_unstable_when_opened_is_checked_by_ng
     assert result.stable and result.verdict == "pass"
 
 
-# Two uncoupled matched halves (invented): g1 drives x from a, the inverting stage g2 drives y from x, Miller capacitor
-# cc from x to y around g2, and only a 1 GOhm path from y back to a besides: the rules keep cc with g2 (a local loop
-# around the stage x drives), which leaves the 1 GOhm loop alone to measure.
+# Two uncoupled matched halves (invented): g1 drives x from a, the inverting stage g2 (gm2) drives y from x, Miller
+# capacitor cc from x to y around g2, and one more path between y and a ({back}). The rules keep cc with g2 (a local loop
+# around the stage x drives).
 MILLER_HALF = """g1{k} 0 x{k} a{k} 0 1m
 r1{k} x{k} 0 10k
 c1{k} x{k} 0 1p
-g2{k} y{k} 0 x{k} 0 1m
+g2{k} y{k} 0 x{k} 0 {gm2!r}
 r2{k} y{k} 0 10k
 c2{k} y{k} 0 5p
 cc{k} x{k} y{k} 1p
-rw{k} y{k} a{k} 1g
+{back}
 ra{k} a{k} 0 1k
 """
+
+
+def miller_pair(gm2: float, back: str) -> str:
+    """The netlist of two MILLER_HALFs, p and n; ``back`` is the extra card between y{k} and a{k}."""
+    halves = (MILLER_HALF.format(k=k, gm2=gm2, back=back.format(k=k)) for k in "pn")
+    return "two Miller stages (invented)\n" + "".join(halves) + ".end\n"
+
+
+def miller_loop(freq_hz, gm2: float) -> np.ndarray:
+    """T of MILLER_HALF broken at x with cc on the driver side, a at 0 V (circuit theory): the driver side's open-circuit
+    voltage -gm2 Z2 v_x and impedance 1/(s cc) + Z2 into the load side's ZL, T = gm2 Z2 ZL / (ZL + 1/(s cc) + Z2),
+    Z2 = R2 || C2, ZL = R1 || C1."""
+    s = 2j * np.pi * np.asarray(freq_hz, dtype=float)
+    z2, zl = 10e3 / (1 + s * 10e3 * 5e-12), 10e3 / (1 + s * 10e3 * 1e-12)
+    return gm2 * z2 * zl / (zl + 1 / (s * 1e-12) + z2)
 
 
 def test_a_pair_whose_rules_split_measures_no_loop_moves_the_bridges_and_says_so(simulator):
     """At x the rules' split measures only the 1 GOhm loop (-80 dB, no loop): netloop moves both Miller capacitors to the
     driver side, measures the Miller loops, and the check "split" and decided_by say what it moved and why."""
     # References (circuit theory, the half circuit): with cc beside g2 the loop left is gm1 R1 gm2 R2 ra / (ra + rw) = 1e-4
-    # (-80 dB); with cc on the driver side the break measures the Miller loop, T = gm2 Z2 ZL / (ZL + 1/(s cc) + Z2)
-    # (Z2 = R2 || C2, ZL = R1 || C1: the driver side's open-circuit voltage and impedance into the load side's ZL);
-    # the halves share no element, so both modes' T are the half's (Hurst and Lewis 1995).
-    text = "two Miller stages (invented)\n" + MILLER_HALF.format(k="p") + MILLER_HALF.format(k="n") + ".end\n"
-    result = measure_pair(text, "xp,xn", simulator=simulator)
+    # (-80 dB); with cc on the driver side the break measures the Miller loop (miller_loop); the halves share no element,
+    # so both modes' T are the half's (Hurst and Lewis 1995).
+    result = measure_pair(miller_pair(1e-3, "rw{k} y{k} a{k} 1g"), "xp,xn", simulator=simulator)
     moved = ("moved xp: ccp to the driver side; xn: ccn to the driver side: with the rules' placement, differential mode: |T| is "
              "below -60 dB at every frequency (at most -80 dB): the break measured no loop; common mode: |T| is below -60 dB at "
              "every frequency (at most -80 dB): the break measured no loop; with this one both modes pass every self-check "
@@ -463,10 +476,7 @@ def test_a_pair_whose_rules_split_measures_no_loop_moves_the_bridges_and_says_so
         assert [(c.name, c.passed, c.detail) for c in mode.checks] == [("split", True, moved)]
         assert mode.breaks.decided_by.endswith(f"; netloop {moved}.") and mode.breaks.decided_by.count("netloop moved") == 1
         assert "ccp.p" in mode.breaks.driver_terminals and "ccn.p" in mode.breaks.driver_terminals
-        f = mode.analysis.freq_hz
-        s = 2j * np.pi * f
-        z2, zl = 10e3 / (1 + s * 10e3 * 5e-12), 10e3 / (1 + s * 10e3 * 1e-12)
-        t = 1e-3 * z2 * zl / (zl + 1 / (s * 1e-12) + z2)
+        t = miller_loop(mode.analysis.freq_hz, 1e-3)
         keep = np.abs(t) > 0.1  # where the 1 GOhm path (-80 dB) is below 1e-3 of the Miller loop
         assert keep.sum() > 20
         np.testing.assert_allclose(mode.analysis.t[keep], t[keep], rtol=1e-3)
@@ -514,3 +524,30 @@ def test_a_pair_whose_split_opens_no_loop_is_inconclusive_and_says_why(simulator
         assert opens.advice == ("name the driver side with --driver, or break the loop at another node (netloop loops NETLIST "
                                 "lists what each break opens)")
         assert mode.verdict == "inconclusive"
+
+
+def test_a_pair_whose_moved_split_does_not_regulate_is_judged_on_the_split_it_measured(simulator):
+    """With only a forward path from a to y, the rules' split measures nothing and netloop moves both Miller capacitors to
+    the driver side; the Miller loops it then measures peak below 0 dB, and the check "opens-loop" judges that moved split
+    (it opens the Miller loop): a PASS that does not regulate, as the single-node measurement of one half gives."""
+    # References (circuit theory): gz carries a to y only (a VCCS has no reverse transmission), so the Miller branch is the
+    # only loop through x and the moved split opens it; its T is miller_loop with gm2 = 0.5 mS (peak about -4.1 dB); the
+    # halves share no element, so each mode's T is the half's (Hurst and Lewis 1995), and netloop.jobs.measure.measure at
+    # xp judges opens-loop on the split it reports. Before the fix the pair judged the rules' split: inconclusive.
+    from netloop.jobs.measure import measure
+
+    text = miller_pair(0.5e-3, "gz{k} 0 y{k} a{k} 0 1u")
+    result = measure_pair(text, "xp,xn", simulator=simulator)
+    alone = measure(text, "xp", simulator=simulator)
+    assert [c.passed for c in alone.checks if c.name == "opens-loop"] == [True] and alone.verdict == "pass"
+    for mode in result.modes.values():
+        assert not mode.analysis.regulates
+        (split,) = [c for c in mode.checks if c.name == "split"]
+        assert split.passed and split.detail.startswith("moved xp: ccp to the driver side; xn: ccn to the driver side: ")
+        (opens,) = [c for c in mode.checks if c.name == "opens-loop"]
+        assert opens.passed and opens.detail.startswith("the split at xp opens 1 of the 1 loop(s) of loop ")
+        t = miller_loop(mode.analysis.freq_hz, 0.5e-3)
+        keep = np.abs(t) > 1e-3
+        np.testing.assert_allclose(mode.analysis.t[keep], t[keep], rtol=1e-6)
+        assert mode.verdict == "pass"
+    assert result.verdict == "pass"
