@@ -299,9 +299,9 @@ def test_an_unsure_bridge_at_a_pair_gets_the_second_break_a_single_node_gets(sim
     assert "cx1 on the load side (as close to the driver stage ga1 as to the stage gb1" in pair.differential.breaks.decided_by
 
 
-def _norton_with(old: str, new: str, ron: float = RO) -> str:
-    """norton_netlist with one element card's value changed (the card must be there)."""
-    text = norton_netlist(ron)
+def _norton_with(old: str, new: str) -> str:
+    """norton_netlist with every ``old`` (which must be there: a value on a card, or on both halves' cards) made ``new``."""
+    text = norton_netlist()
     assert old in text
     return text.replace(old, new)
 
