@@ -189,6 +189,7 @@ class _Sampled:
     info: SimInfo
     warnings: dict[str, tuple[str, ...]]
     samples: _CouplingSamples
+    placements: tuple[Mapping[str, str] | None, Mapping[str, str] | None] = (None, None)  # each node's bridges moved (None: the rules')
 
     @property
     def doubts(self) -> str:
@@ -212,7 +213,7 @@ def _sample_pair(parsed: Netlist, nodes: tuple[str, str], drivers, placements, *
         return replace(base, runs=tuple(replace(run, sweeps=sweeps) for run in base.runs))
 
     analyses, info, sim_warnings = sample_loops(job_for, ratios, simulator, sweep, rhp, sources=sources)
-    return _Sampled(probe, analyses, info, sim_warnings, samples)
+    return _Sampled(probe, analyses, info, sim_warnings, samples, placements)
 
 
 def _settled(first: _Sampled, again) -> tuple[_Sampled, tuple[Check, ...]]:
@@ -315,11 +316,13 @@ def _deeper(first: _Sampled, structure: _Structure, again) -> tuple[_Sampled, tu
 
 
 def _opens(sampled: _Sampled, mode: str, structure: _Structure) -> tuple[Check, ...]:
-    """The check "opens-loop" for a mode whose T does not regulate, as for a single node: the pair's split must open a loop
-    through at least one of its nodes; a split that opens none measures no loop, and its "does not regulate" is no promise."""
+    """The check "opens-loop" for a mode whose T does not regulate, as for a single node: the pair's split as measured (its
+    bridges where they were moved) must open a loop through at least one of its nodes; a split that opens none measures no
+    loop, and its "does not regulate" is no promise."""
     if sampled.analyses[mode].regulates:
         return ()
-    found = [c for node in sampled.probe.nodes if (c := structure.of(node).opens_check(node)) is not None]
+    found = [c for node, place in zip(sampled.probe.nodes, sampled.placements)
+             if (c := structure.of(node).opens_check(node, place or None)) is not None]
     if not found:
         return ()
     if any(c.passed for c in found):
