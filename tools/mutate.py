@@ -48,8 +48,8 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
     "report": ("netloop/report/*", ("tests/report",)),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
-# builds its sky130 bench with benchmarks/_sky130_regulator.py)
-COPIED = ("netloop", "tests", "circuits", "templates", "benchmarks", "pyproject.toml")
+# builds its sky130 bench with benchmarks/_sky130_regulator.py; a report test reads the caution in README.md and docs/)
+COPIED = ("netloop", "tests", "circuits", "templates", "benchmarks", "docs", "README.md", "pyproject.toml")
 # mutmut's verdicts (`mutmut results --all true` prints "name: verdict")
 KILLED = ("killed", "timeout", "segfault")  # a timeout or crash is the tests noticing the mutant
 # the verdicts of a run stopped from outside (mutmut's time limits, tools/mutate_watchdog.py): a busy machine can give them
@@ -70,7 +70,7 @@ def _config(pattern: str, tests: tuple[str, ...]) -> str:
         'source_paths = ["netloop"]',
         f"only_mutate = [{json.dumps(pattern)}]",
         # the package data links (netloop/circuits, netloop/templates) are not walked by mutmut: copy them
-        'also_copy = ["circuits", "templates", "benchmarks", "netloop/circuits", "netloop/templates"]',
+        'also_copy = ["circuits", "templates", "benchmarks", "docs", "README.md", "netloop/circuits", "netloop/templates"]',
         f"pytest_add_cli_args_test_selection = {json.dumps(list(tests))}",
         # ngspice tests take seconds; a mutant that makes a test run 10x longer counts as caught
         "timeout_multiplier = 10.0",
