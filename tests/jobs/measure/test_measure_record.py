@@ -63,6 +63,8 @@ def test_a_plain_loop_reports_its_simulation_time_and_runs_no_job_check(monkeypa
     assert ticking.jobs >= 2  # the first sweep and at least one refinement round
     assert result.sim.seconds == ticking.jobs * _TickingSimulator.TICK_S
     assert result.checks == ()
+    # SimInfo.backend names the ngspice interface that ran the jobs (netloop.sim: ngspice-shared or ngspice-batch)
+    assert result.sim.backend in ("ngspice-shared", "ngspice-batch") and result.sim.backend == ticking.simulator.backend
 
 
 # The same loop with a negative resistor at p1 (invented): 1/1k - 1/500 makes the first stage 1/(s tau1 - 1), a pole of the
