@@ -93,3 +93,48 @@ def test_write_maps_writes_png_and_svg_of_every_map(run, tmp_path):
     for p in paths:
         head = p.read_bytes()[:64]
         assert head.startswith(b"\x89PNG") if p.suffix == ".png" else b"<svg" in p.read_bytes()[:2000] or b"<?xml" in head
+
+
+def test_each_panel_names_its_figure_with_its_unit_and_the_crossover_reads_in_hertz(run):
+    """The four panels against ESR are labelled with their figure and unit, the crossover's ticks read in hertz with an SI
+    prefix (engineering notation, common practice), and the map's colour bar carries the same label as the panel."""
+    esr = next(a for a in numeric_axes(run, UNITS) if a.name == "esr")
+    fig = lines_figure(run, esr, REQS)
+    # netloop.jobs.runs.figures.FIGURES: each figure's name and unit, as the text report gives them
+    assert [ax.get_ylabel() for ax in fig.axes[:4]] == ["phase margin (deg)", "gain margin (dB)", "crossover (Hz)", "peaking (dB)"]
+    assert fig.axes[2].yaxis.get_major_formatter()(2.5e6) == "2.5 MHz"
+    iload, esr = numeric_axes(run, UNITS)
+    (plane,) = planes(run, iload, esr)
+    assert map_figure(plane, "pm", REQS).axes[1].get_ylabel() == "phase margin (deg)"
+
+
+def test_each_curve_runs_through_its_own_corners(run):
+    """In every panel with data, each line's interpolated curve (same colour as its markers) starts and ends at corners
+    and passes through each corner at the corner's own ESR value: an interpolant meets the values it interpolates
+    (netloop.jobs.runs.boundary); between the curve's own points, read by linear interpolation in log ESR, to 0.1 % (of the figure, or of the curve's span near 0)."""
+    esr = next(a for a in numeric_axes(run, UNITS) if a.name == "esr")
+    fig = lines_figure(run, esr, REQS)
+    for ax in (fig.axes[0], fig.axes[2], fig.axes[3]):
+        for markers in (a for a in ax.get_lines() if a.get_gid() == "corners"):
+            (curve,) = [a for a in ax.get_lines() if a.get_gid() is None and a.get_label().startswith("_") and a.get_color() == markers.get_color()]
+            xs, ys = np.asarray(curve.get_xdata(), dtype=float), np.asarray(curve.get_ydata(), dtype=float)
+            corners = dict(zip(markers.get_xdata(), markers.get_ydata(), strict=True))
+            ends = [(xs[i], ys[i]) for i in range(len(xs)) if not math.isnan(xs[i]) and (i == 0 or math.isnan(xs[i - 1]) or math.isnan(xs[i + 1]))]
+            assert ends and all(y == pytest.approx(corners[min(corners, key=lambda c: abs(c - x))], rel=1e-9) for x, y in ends)
+            assert all(x == pytest.approx(min(corners, key=lambda c: abs(c - x)), rel=1e-9) for x, _ in ends)
+            finite = ~np.isnan(xs)
+            for x, y in corners.items():
+                assert np.interp(math.log10(x), np.log10(xs[finite]), ys[finite]) == pytest.approx(y, rel=1e-3, abs=1e-3 * np.ptp(ys[finite])), (ax.get_title(), x)
+
+
+def test_the_map_key_names_each_mark_it_shows(run):
+    """The key below the phase-margin map names the dots as corners where the requirement holds, the crosses as corners
+    where it fails, the grey square as the corner without figures, then the boundary, its failing side and the crossings;
+    on a map that draws no boundary (the crossover, which no requirement names) a dot is just a corner."""
+    iload, esr = numeric_axes(run, UNITS)
+    (plane,) = planes(run, iload, esr)
+    keys = [[t.get_text() for t in map_figure(plane, metric, REQS).legends[-1].get_texts()] for metric in ("pm", "fc")]
+    # the run: corners above and below pm >= 45, and one that errored (test_the_map_over_two_axes_marks_every_corner_at_its_settings)
+    assert keys[0] == ["corner: requirement holds", "corner: requirement fails", "corner: error or inconclusive (no figures)",
+                       "boundary of pm >= 45", "fails pm >= 45", "boundary between corners (interpolated)"]
+    assert keys[1] == ["corner", "corner: error or inconclusive (no figures)"]

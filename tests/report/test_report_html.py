@@ -7,7 +7,8 @@ import html
 from html.parser import HTMLParser
 
 import control
-from report_loops import W, make_result, two_stage
+import pytest
+from report_loops import W, conditional, make_result, two_stage
 
 from netloop.report import write_html
 
@@ -91,3 +92,136 @@ def test_the_page_leads_the_closed_loop_with_measured_figures(tmp_path, marginal
     char = np.polyadd(np.polymul(np.polymul([1 / (W * 1e3), 1], [1 / (W * 1e6), 1]), [1 / (W * 2e6), 1]), [1e3])
     pair = max((r for r in np.roots(char) if r.imag > 0), key=lambda r: r.real)
     assert f"damping {-pair.real / abs(pair):.3f}" in html.unescape(rows[i + 2][1])
+
+
+class _Tables(HTMLParser):
+    """Collects, per <h3> heading (or <h2> for the overview), its table's rows as (class, text) per cell (Python's html.parser)."""
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.tables: dict[str, list[list[tuple[str, str]]]] = {}
+        self.heading = ""
+        self._in_heading = False
+        self._cell: list | None = None
+
+    def handle_starttag(self, tag, attrs):
+        if tag in ("h2", "h3"):
+            self._in_heading, self.heading = True, ""
+        elif tag == "tr":
+            self.tables.setdefault(self.heading, []).append([])
+        elif tag in ("td", "th"):
+            self._cell = [dict(attrs).get("class", "th" if tag == "th" else ""), ""]
+
+    def handle_endtag(self, tag):
+        if tag in ("h2", "h3"):
+            self._in_heading = False
+        elif tag in ("td", "th") and self._cell is not None:
+            self.tables[self.heading][-1].append(tuple(self._cell))
+            self._cell = None
+
+    def handle_data(self, data):
+        if self._in_heading:
+            self.heading += data
+        elif self._cell is not None:
+            self._cell[1] += data
+
+
+def _tables(page: str) -> dict[str, list[list[tuple[str, str]]]]:
+    parser = _Tables()
+    parser.feed(page)
+    return parser.tables
+
+
+def test_the_break_table_names_netlist_node_method_and_both_sides(stable_result):
+    """The "Where the loop was broken" table reads, row by row, what measure() recorded of the break: the netlist, the
+    node, the probe method, the driver and load sides with their terminals, why, and the silenced sources."""
+    from netloop.report import render_html
+
+    rows = _tables(render_html(stable_result, plots=False))["Where the loop was broken"]
+    # the BreakInfo that report_loops.make_result builds, as measure() assembles it (netloop.jobs.loop_result)
+    assert [(label, value) for (_, label), (_, value) in rows] == [
+        ("netlist", "circuits/front_end.cir"),
+        ("node", "xamp.n5"),
+        ("method", "tian"),
+        ("driver side", "xamp.n5__a: xamp.m6.d"),
+        ("load side", "xamp.n5__b: xamp.m1.g, cc.1"),
+        ("decided by", "the only terminal that is a transistor drain drives the node"),
+        ("silenced sources", "vin (AC magnitude 0 in the probe deck)"),
+    ]
+
+
+def test_each_gain_crossover_marks_its_phase_margin_good_or_bad(stable_result, unstable_result):
+    """In the gain-crossover table the phase-margin cell is marked ok (green) where the margin is positive and bad (red)
+    where it is negative: the stable two-stage loop's one crossover is ok, the unstable three-pole loop's is bad."""
+    from netloop.report import render_html
+
+    for result, sign in ((stable_result, 1), (unstable_result, -1)):
+        s = control.tf("s")
+        a0, poles = (1e4, (1e3, 3e7, 1e8)) if sign > 0 else (1e4, (1e3, 1e6, 2e6))
+        tf = a0 / ((1 + s / (W * poles[0])) * (1 + s / (W * poles[1])) * (1 + s / (W * poles[2])))
+        _, pm, _, _, _, _ = control.stability_margins(tf)  # python-control 0.10 on the closed form of each loop
+        assert pm * sign > 0
+        head, *rows = _tables(render_html(result, plots=False))["Gain crossovers (|T| = 0 dB)"]
+        column = [text for _, text in head].index("phase margin")
+        assert [row[column] for row in rows] == [("num ok" if sign > 0 else "num bad", f"{pm:.2f} deg")]
+
+
+def test_the_second_order_estimate_row_is_styled_as_an_estimate(stable_result):
+    """Without fitted poles the closed-loop table ends with the second-order estimate from the phase margin, in a cell
+    whose class the page's stylesheet styles (italic, "estimate"), and its damping is the one of that phase margin."""
+    import math
+    import re
+    from dataclasses import replace
+
+    from netloop.analysis import analyse
+    from netloop.report import render_html
+
+    f = stable_result.analysis.freq_hz
+    result = replace(stable_result, analysis=analyse(f, two_stage(f), fit_poles=False))
+    page = render_html(result, plots=False)
+    rows = _tables(page)["Closed loop and Nyquist"]
+    (cls, text), = [row[1] for row in rows if row[0][1] == "2nd-order ESTIMATE"]
+    assert cls == "estimate" and f".{cls} {{" in page
+    zeta = float(re.search(r"damping (\S+),", text).group(1))
+    # a second-order loop's phase margin from its damping: PM = atan(2 z / sqrt(sqrt(1 + 4 z^4) - 2 z^2))
+    # (Ogata, Modern Control Engineering, 5th ed., sec. 7-7); zeta is printed to 3 decimals
+    pm = math.degrees(math.atan(2 * zeta / math.sqrt(math.sqrt(1 + 4 * zeta**4) - 2 * zeta**2)))
+    assert pm == pytest.approx(result.analysis.margins.phase_margin_deg, abs=0.1)
+
+
+def test_the_overview_gives_each_loop_its_lower_gain_margin(conditional_result, stable_result):
+    """The overview row of the conditionally stable loop gives its lower gain margin, the smallest |T| (dB) where the phase
+    crosses -180 deg with |T| > 1 below crossover; the two-stage loop, which has no such crossing, gives "-"."""
+    import numpy as np
+    from scipy.optimize import brentq
+
+    from netloop.report import render_html
+
+    def phase(f):
+        return np.degrees(np.unwrap(np.angle(conditional(np.logspace(0, np.log10(f), 400)))))[-1]
+
+    # the -180 deg crossings of the closed form below the 99.5 kHz crossover (scipy brentq); the conditionally stable
+    # loop of Franklin, Powell and Emami-Naeini, Feedback Control of Dynamic Systems, sec. 6.4: gain may fall that far
+    grid = np.logspace(0, 5, 101)
+    phases = [phase(f) + 180 for f in grid]
+    roots = [brentq(lambda f: phase(f) + 180, a, b) for a, b, pa, pb in zip(grid, grid[1:], phases, phases[1:]) if pa * pb < 0]
+    lower_gm = min(20 * np.log10(abs(conditional(f))) for f in roots)
+    head, *rows = _tables(render_html([conditional_result, stable_result], plots=False))["All loops"]
+    column = [text for _, text in head].index("lower GM")
+    assert [row[column][1] for row in rows] == [f"{lower_gm:.2f} dB", "-"]
+
+
+def test_the_subtitle_gives_one_loop_its_verdict_and_several_their_count(stable_result, unstable_result):
+    """Under the title, one loop reads its verdict, break node and probe method; several loops read only how many they are
+    (each has its own verdict below), then the netlist."""
+    import re
+
+    from netloop.report import render_html
+
+    def subtitle(results):
+        return html.unescape(re.search(r'<p class="sub">([^<]*)</p>', render_html(results, plots=False)).group(1))
+
+    # make_result's loops: the stable two-stage loop broken at xamp.n5 with the Tian probe, in circuits/front_end.cir
+    assert subtitle(stable_result).startswith("STABLE (PM 67.0") and subtitle(stable_result).endswith(
+        ", loop broken at xamp.n5 (tian probe); netlist circuits/front_end.cir")
+    assert subtitle([stable_result, unstable_result]) == "2 loops; netlist circuits/front_end.cir"
