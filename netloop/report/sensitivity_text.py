@@ -31,9 +31,11 @@ def reload_text(run: SensitivityRun) -> str:
     if not reloaded:
         return ""
     names = ", ".join(k.name for k in reloaded[:6]) + (f" and {len(reloaded) - 6} more" if len(reloaded) > 6 else "")
-    return (f"{len(reloaded)} of them ({names}) are sizes of process device wrappers: ngspice applies them when it reads the "
-            "instance and the wrapper derives its device's other values from them, so each was an edited copy of the "
-            "netlist read again by ngspice (its first value a load, the others changed in the copy ngspice held)")
+    one = len(reloaded) == 1
+    what, them = ("is a size of a process device wrapper", "it") if one else ("are sizes of process device wrappers", "them")
+    return (f"{len(reloaded)} of them ({names}) {what}: ngspice applies {them} when it reads the instance and the wrapper "
+            f"derives its device's other values from {them}, so each was an edited copy of the netlist read again by ngspice "
+            "(its first value a load, the others changed in the copy ngspice held)")
 
 
 def slope_text(figure: str, slope: Slope) -> str:

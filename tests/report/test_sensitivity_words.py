@@ -158,4 +158,4 @@ def test_the_page_gives_each_what_if_its_check_or_why_none(run):
     assert [(r[0], r[1], r[3], r[4]) for r in rows] == [("pm>=75", "cc", "ok", "meets it"), ("gm>=40", "cl", "bad", "not reachable")]
     assert rows[0][2].startswith(f"PM {pm:.2f} deg at {eng(wgc / W, 'Hz')}, GM {20 * math.log10(gm):.2f} dB, peaking ")
     assert rows[1][2] == unreachable.answer
-    assert "1 of them (xdrv:w) are sizes of process device wrappers" in page
+    assert "1 of them (xdrv:w) is a size of a process device wrapper: ngspice applies it when it reads the instance" in page
