@@ -64,3 +64,15 @@ def test_the_document_is_json_with_every_change(comparison):
     change = next(c for c in doc["changes"] if c["regressions"])
     pm = change["figures"]["pm"]
     assert pm["change"] == pytest.approx(pm["now"] - pm["before"])
+
+
+def test_one_regression_reads_in_the_singular_and_nothing_is_skipped(comparison):
+    """The summary of a comparison with one regression says "1 regression" with the limit in words and the new and
+    vanished counts; the "vs baseline" suite states that nothing was skipped, as the corners' suite does."""
+    from netloop.report.baseline import summary_line
+
+    assert summary_line(comparison) == ("against the baseline old.jsonl: 3 of 3 corner(s) in both runs compared, 1 regression beyond "
+                                        "the limits (pm may fall by at most 20 deg), 1 new, 1 vanished")
+    # JUnit XML (common practice, the Ant/Jenkins schema): a testsuite carries tests, failures, errors and skipped
+    suite = regression_suite(comparison, "ldo")
+    assert (suite.get("tests"), suite.get("failures"), suite.get("errors"), suite.get("skipped")) == ("3", "1", "0", "0")

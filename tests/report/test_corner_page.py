@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import html
+import re
 import sys
 from html.parser import HTMLParser
 from pathlib import Path
@@ -14,7 +15,7 @@ from ldo_model import CDEC, record, t_of  # noqa: E402
 
 from netloop.analysis.requirements import parse_requirements  # noqa: E402
 from netloop.jobs.runs import compare_runs, parse_limits  # noqa: E402
-from netloop.report.corner_page import WORST, render_corner_html, write_corner_html  # noqa: E402
+from netloop.report.corner_page import WORST, corner_sections, render_corner_html, write_corner_html  # noqa: E402
 
 REQS = parse_requirements(["pm >= 45"])
 
@@ -84,3 +85,35 @@ def test_the_verdict_line_names_the_regressions_when_every_requirement_is_met(ru
     assert n == 2  # 1.1 and 1.4 deg lost (iload=1m/esr=3, iload=100m/esr=0.3)
     path = write_corner_html(passing, tmp_path / "r.html", verdict="fail", title="t", requirements=REQS, comparison=cmp)
     assert "FAIL: 2 regressions against the baseline; every corner meets its requirements" in html.unescape(path.read_text(encoding="utf-8"))
+
+
+def test_one_regression_and_the_details_read_as_written(runs):
+    """With one regression (the 1.4 deg lost at iload=100m/esr=0.3, beyond a 1.2 deg limit) the verdict line reads
+    "1 regression against the baseline"; each corner's details list its requirement with its reason, and an
+    inconclusive corner its failed self-check with what to try."""
+    baseline, now = runs
+    passing = tuple(r for r in now if r["outcome"] == "pass")
+    cmp = compare_runs(baseline, passing, parse_limits(["pm=1.2deg"]))
+    assert len(cmp.regressions) == 1  # 1.1 and 1.4 deg lost: only the second is beyond 1.2 deg
+    doubt = {**passing[0], "corner": "doubt", "outcome": "inconclusive",
+             "loop": {**passing[0]["loop"], "checks": [{"name": "falls-at-top", "passed": False, "detail": "the sweep ends too soon",
+                                                          "advice": "let the sweep run higher"}]}}
+    page = html.unescape(corner_sections((*passing, doubt), verdict="fail", requirements=REQS, comparison=cmp))
+    assert "FAIL: 1 regression against the baseline; 1 inconclusive (no verdict); every corner meets its requirements" in page
+    reason = passing[0]["loop"]["requirements"][0]["reason"]
+    assert "requirement pm >= 45" in page and reason in page
+    assert "the sweep ends too soon; try: let the sweep run higher" in page
+
+
+def test_the_boundaries_give_the_axis_range_and_the_esr_window(runs):
+    """Along esr (10 mΩ, 0.3 Ω, 3 Ω) the heading names the whole range, and at 100 mA pm >= 45 holds only inside a window,
+    said as "LOW <= esr <= HIGH" with each bound between the corners that bracket it."""
+    from netloop.report.boundaries import boundary_sentences
+
+    _, now = runs
+    groups = dict(boundary_sentences(now, REQS, {"iload": "A", "esr": "Ω"}))
+    sentences = groups["along esr from 10.0 mΩ to 3.00 Ω (3 values, log scale)"]
+    # the ESR window of an LDO (Rincon-Mora and Allen 1998, from memory): the ESR zero helps only between two bounds
+    (low, high), = [w.groups() for w in (re.search(r"^pm >= 45 holds for ([0-9.]+) mΩ <= esr <= ([0-9.]+) Ω at iload=100m$", s)
+                                         for s in sentences) if w]
+    assert 10 < float(low) < 300 and 0.3 < float(high) < 3

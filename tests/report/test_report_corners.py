@@ -4,8 +4,11 @@ inconclusive corner is never counted or shown as a pass, and a passing loop that
 from __future__ import annotations
 
 import csv
+import math
+import re
 import xml.etree.ElementTree as ET
 
+import control
 import numpy as np
 import pytest
 from report_loops import W
@@ -100,3 +103,29 @@ def test_outcome_needs_exactly_one_of_result_and_error(stable_result):
         CornerOutcome("x", stable_result, "boom")
     with pytest.raises(ValueError):
         CornerOutcome("x", None, None)
+
+
+def test_the_table_row_gives_the_gain_margin_and_crossover_and_the_note_word_for_word(outcomes):
+    """The passing two-stage corner's row gives python-control's gain margin and crossover (22.28 dB, 9.49 MHz), and the
+    loop that never reaches 0 dB carries the note "does not regulate (|T| < 0 dB throughout)" as written."""
+    s = control.tf("s")
+    gm, _, _, _, w_gc, _ = control.stability_margins(1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8))))
+    rows = {line.split()[0]: line for line in corner_table(outcomes).splitlines()[2:-2]}
+    # python-control 0.10 stability_margins on the same T(s)
+    assert re.search(rf"  {20 * math.log10(gm):.2f} dB +{w_gc / W / 1e6:.2f} MHz +pass", rows["tt_27c"])
+    assert re.search(r" pass +does not regulate \(\|T\| < 0 dB throughout\)$", rows["tt_0c"])
+
+
+@pytest.mark.parametrize("loads,at,line", [
+    ((3, 0, 0, 0), "fb", "circuit loads: 3 for 4 corners; 3 ran on a circuit another corner had loaded, with its temperature, supplies, "
+                         "parameters or element values changed in place (share_loads)"),
+    ((1, 1), "fb", "circuit loads: 2 for 2 corners"),
+    ((None, None), "fb", None),
+])
+def test_the_loads_line_counts_the_circuits_loaded_and_those_shared(loads, at, line):
+    """The loads line sums the records' circuit loads and counts the corners that ran on a circuit another had loaded
+    (loads 0); records that do not say give no line."""
+    from netloop.report.corner_records import loads_line
+
+    records = tuple({"corner": f"c{i}", "at": at, "loads": n} for i, n in enumerate(loads))
+    assert loads_line(records) == line  # common practice: counts of the records as they are

@@ -207,3 +207,69 @@ def test_a_crossover_row_names_the_closed_loop_gain_it_shows():
     expected = 20 * math.log10(1 / abs(1 + complex(math.cos(math.pi - pm), -math.sin(math.pi - pm))))
     assert re.search(rf"\|T/\(1\+T\)\| +{expected:.2f} dB", row)
     assert "peaking" not in row
+
+
+@pytest.mark.parametrize("count", [4, 7])
+def test_ignored_statements_beyond_those_shown_are_counted(count):
+    """The summary shows the first three ignored statements and counts the rest: "... and N - 3 more"."""
+    ignored = tuple(f"circuits/front_end.cir:{i}: .tran 1n 1u" for i in range(count))
+    lines = format_text(make_result(two_stage, ignored=ignored)).splitlines()
+    # common practice: a shortened list says how many it left out (the total less the three shown)
+    assert f"  ... and {count - 3} more" in lines
+    assert sum(line.startswith("  circuits/front_end.cir:") for line in lines) == 3
+
+
+def test_a_gain_crossover_row_gives_its_delay_margin_in_seconds(stable_result):
+    """The crossover row's delay margin is PM / (360 deg fc) in seconds, from python-control's PM and crossover."""
+    s = control.tf("s")
+    _, pm, _, _, w_gc, _ = control.stability_margins(1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8))))
+    delay = pm / 360 / (w_gc / W)  # delay margin = PM [rad] / wc (Skogestad and Postlethwaite, Multivariable Feedback Control, 2005)
+    row = next(line for line in format_text(stable_result).splitlines() if " down " in line)
+    assert row.endswith(f"delay margin {delay * 1e9:.1f} ns")  # 19.6 ns
+
+
+def test_a_phase_crossover_at_dc_is_called_dc():
+    """A loop with positive feedback at DC, T = -0.5 / (1 + s / 1 kHz) (invented), has its phase crossover at DC: the row
+    says "DC", not "0 Hz", with |T| = -6.02 dB and an upper gain margin of 6.02 dB."""
+    def positive(f):
+        s = 1j * W * np.asarray(f)
+        return -0.5 / (1 + s / (W * 1e3))
+
+    text = format_text(make_result(positive))
+    gm = 20 * math.log10(2)  # T(0) = -0.5 is real and negative: -1 is reached when the gain doubles (Nyquist criterion)
+    assert re.search(rf"^ +DC  upper \|T\| +-{gm:.2f} dB  GM {gm:.2f} dB +\(phase -180 deg\)$", text, re.M)
+
+
+def test_a_stable_loop_without_a_gain_crossover_says_so_in_its_verdict():
+    """An analysis without self-checks (LoopAnalysis.checks defaults to (), as a library caller may build one) of a loop
+    whose |T| stays above 0 dB to the top of its sweep reads "stable by the Nyquist count; no gain crossover"."""
+    from dataclasses import replace
+
+    def single_pole(f):
+        s = 1j * W * np.asarray(f)
+        return 1e4 / (1 + s / (W * 1e3))
+
+    r = make_result(single_pole, freq_hz=np.logspace(0, 5, 51))
+    unchecked = replace(r, analysis=replace(r.analysis, checks=()))
+    # a single pole's T never encircles -1 (Nyquist criterion) and |T(100 kHz)| = 40 dB > 0 dB: no crossover in the sweep
+    assert format_text(unchecked).splitlines()[0] == "PASS  stable by the Nyquist count; no gain crossover in the sweep"
+
+
+@pytest.mark.parametrize("value,unit,text", [(math.inf, "", "inf"), (-math.inf, "", "-inf"), (math.nan, "", "nan"),
+                                             (math.inf, "Hz", "inf Hz"), (None, "Hz", "-")])
+def test_special_values_in_engineering_notation_carry_no_stray_space(value, unit, text):
+    """Infinity and NaN print as Python names them, followed by the unit when there is one and by nothing else."""
+    from netloop.report.notation import eng
+
+    assert eng(value, unit) == text  # IEEE 754 specials, as Python's float repr spells them
+
+
+def test_the_estimate_without_a_fit_gives_the_resonant_peak_of_its_damping(marginal_result):
+    """With no poles fitted, the second-order estimate of the 32.7 deg loop peaks 1 / (2 z sqrt(1 - z^2)) in dB, z its damping."""
+    from dataclasses import replace
+
+    unfitted = replace(marginal_result, analysis=replace(marginal_result.analysis, poles=None))
+    text = " ".join(format_text(unfitted).split())
+    z = float(re.search(r"2nd-order ESTIMATE damping ([0-9.]+),", text).group(1))
+    peak = -20 * math.log10(2 * z * math.sqrt(1 - z * z))  # Ogata, Modern Control Engineering: Mr of a second-order system
+    assert re.search(rf"resonant peak {peak:.1f}\d dB \(from PM alone", text)

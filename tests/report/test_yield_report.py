@@ -169,3 +169,27 @@ def test_page_is_self_contained_with_both_pictures_and_the_caution():
     assert "with 10 samples and no failure, yield &gt;= 74.1 % at 95 % confidence" in page
     assert math.isclose(0.05 ** 0.1, 0.7411, abs_tol=1e-4)
     assert "statistical models are the foundry" in page
+
+
+def test_two_corners_say_a_seed_is_one_die_and_the_spread_table_names_its_columns():
+    """With two corners (the fewest that share a seed) the samples line says a seed draws the same mismatch at every
+    corner; the spread table's head names its columns in lower case like every other head."""
+    recs = [record(c, s, "pass", 50.0 + s) for c in ("cold", "hot") for s in range(1, 6)]
+    lines = yield_summary(make_run(recs, corners='[axes]\ntemp = [-40, 125]\n')).splitlines()
+    # from memory (netloop's sampling): one seed per die, the same die measured at each corner
+    assert "samples                   5 at each of 2 corners, seeds 1 to 5; a seed draws the same mismatch at every corner (one die)" in lines
+    head = lines[lines.index("spread over the samples with a verdict") + 1]
+    assert [w.strip() for w in head.split("  ") if w.strip()] == ["figure", "corner", "n", "mean", "std", "min", "max", "left out"]
+    one = yield_summary(make_run([record("tt", s, "pass", 50.0 + s) for s in range(1, 6)])).splitlines()
+    assert "samples                   5, seeds 1 to 5" in one  # one corner: nothing shared to say
+
+
+def test_an_unwritable_sample_table_names_what_could_not_be_written(tmp_path):
+    """Writing the sample CSV into a missing folder fails with one message naming the sample table, the path and why."""
+    from netloop.errors import OutputError
+    from netloop.report.yield_document import write_sample_csv
+
+    path = tmp_path / "missing" / "samples.csv"
+    with pytest.raises(OutputError) as err:
+        write_sample_csv(make_run([record("tt", 1, "pass", 60.0)]), path)
+    assert str(err.value) == f"cannot write the sample table to {str(path)!r}: No such file or directory"  # the OS's strerror (ENOENT)
