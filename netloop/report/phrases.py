@@ -27,7 +27,10 @@ PRACTICE = "common practice, no source: PM 45-60 deg, GM 10 dB, peaking under 3 
 
 
 def _at(freq_hz: float | None) -> str:
-    return f" at {eng(freq_hz, 'Hz')}" if freq_hz is not None else ""
+    """" at 1.2 MHz", " at DC" (as the crossover rows name a crossover at 0 Hz), or "" without a frequency."""
+    if freq_hz is None:
+        return ""
+    return " at DC" if freq_hz == 0 else f" at {eng(freq_hz, 'Hz')}"
 
 
 def _plain_number(x: float) -> str:

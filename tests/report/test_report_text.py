@@ -230,7 +230,7 @@ def test_a_gain_crossover_row_gives_its_delay_margin_in_seconds(stable_result):
 
 def test_a_phase_crossover_at_dc_is_called_dc():
     """A loop with positive feedback at DC, T = -0.5 / (1 + s / 1 kHz) (invented), has its phase crossover at DC: the row
-    says "DC", not "0 Hz", with |T| = -6.02 dB and an upper gain margin of 6.02 dB."""
+    says "DC", not "0 Hz", with |T| = -6.02 dB and an upper gain margin of 6.02 dB, and the gain margin line says "at DC" too."""
     def positive(f):
         s = 1j * W * np.asarray(f)
         return -0.5 / (1 + s / (W * 1e3))
@@ -238,6 +238,7 @@ def test_a_phase_crossover_at_dc_is_called_dc():
     text = format_text(make_result(positive))
     gm = 20 * math.log10(2)  # T(0) = -0.5 is real and negative: -1 is reached when the gain doubles (Nyquist criterion)
     assert re.search(rf"^ +DC  upper \|T\| +-{gm:.2f} dB  GM {gm:.2f} dB +\(phase -180 deg\)$", text, re.M)
+    assert re.search(rf"^gain margin +{gm:.2f} dB at DC$", text, re.M)
 
 
 def test_a_stable_loop_without_a_gain_crossover_says_so_in_its_verdict():
