@@ -33,7 +33,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 
 # package -> (files mutmut mutates, the test folders that mirror them)
-PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
+PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: (what mutmut mutates, the tests it runs)
     "analysis": ("netloop/analysis/*", ("tests/analysis",)),
     "netlist": ("netloop/netlist/*", ("tests/netlist",)),
     "probe": ("netloop/probe/*", ("tests/probe",)),
@@ -46,6 +46,10 @@ PACKAGES: dict[str, tuple[str, tuple[str, ...]]] = {
     "measure": ("netloop/jobs/measure*", ("tests/jobs/measure", "tests/jobs/test_measure_pair.py", "tests/jobs/test_kept_probes.py")),
     # the words, tables and files a verdict reaches the user in (text, JSON, CSV, JUnit XML, HTML, plots)
     "report": ("netloop/report/*", ("tests/report",)),
+    # the census of loops and breaks, the comparison of break locations, the records and the results file
+    "jobs": (tuple(f"netloop/jobs/{m}.py" for m in ("census", "discover", "compare", "compare_explain", "splits", "loop_result",
+                                                    "document", "document_read", "kept_probes", "early")),
+             tuple(f"tests/jobs/test_{m}.py" for m in ("census", "discover", "compare", "splits", "document_read", "kept_probes"))),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
 # builds its sky130 bench with benchmarks/_sky130_regulator.py; a report test reads the caution in README.md and docs/)
@@ -62,13 +66,13 @@ def _again(verdict: str) -> bool:
     return verdict not in KILLED or verdict in STOPPED
 
 
-def _config(pattern: str, tests: tuple[str, ...]) -> str:
+def _config(pattern: str | tuple[str, ...], tests: tuple[str, ...]) -> str:
     """The [tool.mutmut] table for one package."""
     lines = [
         "",
         "[tool.mutmut]",
         'source_paths = ["netloop"]',
-        f"only_mutate = [{json.dumps(pattern)}]",
+        f"only_mutate = {json.dumps([pattern] if isinstance(pattern, str) else list(pattern))}",
         # the package data links (netloop/circuits, netloop/templates) are not walked by mutmut: copy them
         'also_copy = ["circuits", "templates", "benchmarks", "docs", "README.md", "netloop/circuits", "netloop/templates"]',
         f"pytest_add_cli_args_test_selection = {json.dumps(list(tests))}",
