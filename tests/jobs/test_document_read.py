@@ -3,13 +3,17 @@
 from __future__ import annotations
 
 import json
+import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
 
 from netloop.analysis import analyse, parse_requirements
+from netloop.analysis.results import PhaseCrossover
 from netloop.errors import ResultsError
-from netloop.jobs.document import to_document
+from netloop.jobs.discover import GroupResult, LoopsCheck, take_census
+from netloop.jobs.document import groups_document, multi_document, to_document
 from netloop.jobs.document_read import result_from_document
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo
 from netloop.report.bode_plot import bode_figure
@@ -29,6 +33,9 @@ LOOPS = {
     "no-phase-crossover": lambda f: 1e3 / (1 + _s(f) / (W * 1e3)),
     "does-not-regulate": lambda f: 0.1 / (1 + _s(f) / (W * 1e3)),
     "band-pass": lambda f: 100 * (_s(f) / (W * 10)) / ((1 + _s(f) / (W * 10)) * (1 + _s(f) / (W * 1e5))),
+    # T = (w0/s)^2 equals -1 at 1 kHz, a sample: the closed loop has poles on the imaginary axis, so no pole fit is made
+    # (netloop.analysis.poles: "T equals -1 at a sample") and closed_loop_poles is written unfitted.
+    "double-integrator": lambda f: (W * 1e3 / _s(f)) ** 2,
 }
 
 
@@ -36,16 +43,20 @@ def _result(name: str) -> LoopResult:
     a = analyse(F, LOOPS[name](F))
     reqs = tuple(r.check(a) for r in parse_requirements(["pm>=45", "gm>=10", "fc>1k", "peak<=3"]))
     return LoopResult("x.cir", name, "tian", BreakInfo("out", "out_drive", "out", ("m6.d",), ("m1.g",), (), "why", ("vin",), (("a", "a_1"),)),
-                      a, reqs, ("x.cir:3: .tran 1n 1u",), ("a warning",), SimInfo("analytic", F.size, 1, True, None, None, 0.25, 2))
+                      a, reqs, ("x.cir:3: .tran 1n 1u",), ("a warning",), SimInfo("analytic", F.size, 1, True, None, None, 0.25, 2),
+                      caveats=("x.cir:1: the title line reads as an element",),
+                      library_warnings=("lib.sub:4: model nch is never used",))
 
 
 @pytest.mark.parametrize("name", sorted(LOOPS))
 def test_round_trip_gives_the_same_document(name):
     """to_document(result_from_document(d)) == d, through JSON text, for loops with every kind of crossover, infinite
-    figures (a gain margin with no phase crossover) and none (a loop that does not regulate)."""
+    figures (a gain margin with no phase crossover), none (a loop that does not regulate) and no pole fit."""
     doc = json.loads(json.dumps(to_document(_result(name)), allow_nan=False))
     again = result_from_document(doc)
     assert to_document(again) == doc
+    # Reference: netloop.jobs.document_read's docstring (every field of the record is in the document).
+    assert (again.caveats, again.library_warnings) == (_result(name).caveats, _result(name).library_warnings)
     assert again.verdict == doc["verdict"] and again.analysis.classification == doc["classification"]
     np.testing.assert_array_equal(again.analysis.t, _result(name).analysis.t)
 
@@ -63,3 +74,61 @@ def test_an_incomplete_document_is_a_results_error(doc):
     """Anything but a complete netloop.loop/1 document is a ResultsError, not a KeyError."""
     with pytest.raises(ResultsError):
         result_from_document(doc)
+
+
+def _infinite(section: str, a):
+    """The analysis with figures of one section infinite, as analyse() writes them for a limit case."""
+    if section == "peaking":  # a crossover with a phase margin of exactly 0: |T/(1+T)| has no finite peak
+        return replace(a, peaking=replace(a.peaking, peak_db=math.inf, absolute_peak_db=math.inf))
+    if section == "second_order_estimate":  # zeta = 0, an undamped pole pair: Q = 1/(2 zeta) and the resonant peak infinite
+        return replace(a, second_order=replace(a.second_order, q=math.inf, resonant_peak_db=math.inf))
+    # a phase crossover where T = 0 (-inf dB), below the numerical floor: ignored, its gain margin +inf
+    return replace(a, ignored_phase_crossovers=(PhaseCrossover(2e9, -540.0, -math.inf, math.inf, "upper"),))
+
+
+@pytest.mark.parametrize("section", ["peaking", "second_order_estimate", "ignored_phase"])
+def test_infinite_figures_come_back_as_infinities(section):
+    """An infinite figure of the peaking, the second-order estimate or an ignored phase crossover is written null, listed
+    under ``infinite``, and read back as that infinity."""
+    # Reference: netloop.jobs.document's docstring (an infinite number is null AND listed under "infinite" by its dotted
+    # path) and netloop.jobs.document_read's (a number listed under "infinite" comes back as that infinity).
+    original = _result("two-stage")
+    original = replace(original, analysis=_infinite(section, original.analysis))
+    doc = json.loads(json.dumps(to_document(original), allow_nan=False))
+    assert any(path.startswith(section) or path.startswith(f"crossovers.{section}") for path in doc["infinite"])
+    again = result_from_document(doc)
+    assert to_document(again) == doc
+    a = again.analysis
+    assert (a.peaking, a.second_order, a.ignored_phase_crossovers) == (original.analysis.peaking, original.analysis.second_order,
+                                                                       original.analysis.ignored_phase_crossovers)
+
+
+# -- the documents of several loops and of every loop group ------------------------------------------------------------
+
+
+def test_several_loops_make_one_document_whose_verdict_combines_theirs():
+    """multi_document("loops") nests each loop's document in order, and its verdict is the worst of theirs; an infinite
+    extra figure is null and listed under ``infinite``."""
+    # Reference: netloop.jobs.document's docstring (the shape of several loops; JSON has no infinity) and
+    # netloop.jobs.loop_result.combined_verdict (one failing loop fails the whole).
+    results = [_result("two-stage"), _result("unstable")]
+    doc = multi_document("loops", results, netlist="x.cir", limit_db=math.inf)
+    assert doc["loops"] == [to_document(r) for r in results] and [r.verdict for r in results] == ["pass", "fail"]
+    assert (doc["schema"], doc["netlist"], doc["verdict"], doc["passed"]) == ("netloop.loops/1", "x.cir", "fail", False)
+    assert doc["limit_db"] is None and doc["infinite"] == {"limit_db": "+inf"}
+    json.dumps(doc, allow_nan=False)
+
+
+def test_a_group_no_break_could_measure_is_an_inconclusive_entry_with_its_reason_and_advice(circuits):
+    """A loop group without a result is written as its label, an inconclusive verdict, the reason and the advice."""
+    # Reference: netloop.jobs.document's docstring (an unmeasured group's entry has only label, verdict, passed,
+    # measured, reason, advice and group) and the verdict model (an unmeasured group makes the whole inconclusive).
+    census = take_census(circuits / "miller_buffer.cir", sweep=False)
+    (gc,) = census.groups
+    reason, advice = "the probe refused every candidate", "name a node of the group and its driver: --at NODE --driver ELEMENT[.PIN]"
+    doc = groups_document(LoopsCheck(census, (GroupResult(gc, None, reason, advice),), ("a note",)))
+    (entry,) = doc["loops"]
+    assert {k: v for k, v in entry.items() if k != "group"} == {"label": gc.label, "verdict": "inconclusive", "passed": False,
+                                                                "measured": False, "reason": reason, "advice": advice}
+    assert entry["group"]["index"] == 1 and entry["group"]["chosen"] == gc.chosen
+    assert (doc["verdict"], doc["passed"], doc["notes"], doc["netlist"]) == ("inconclusive", False, ["a note"], census.source)
