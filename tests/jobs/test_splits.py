@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import logging
+
 from netloop.graph import flatten
-from netloop.jobs.splits import LoopStructure, driver_alias
+from netloop.jobs.discover import discover_loops
+from netloop.jobs.splits import DEFAULT_SPLIT_CHECKS, LoopStructure, driver_alias
 from netloop.netlist import parse_file
 
 
@@ -37,3 +40,31 @@ def test_a_net_named_above_the_block_that_drives_it_has_its_deeper_name(circuits
     assert s.alias("xreg.pbias") == "xreg.xbg.xamp.out" and s.alias("xreg.xbg.xamp.out") is None
     check = s.opens_check("xreg.pbias")
     assert not check.passed and "--at xreg.xbg.xamp.out" in check.advice
+
+
+def test_a_net_on_no_loop_has_no_group_and_no_opens_loop_check(circuits):
+    """The Miller buffer's input inp, held by Vin, is on no loop: no group, no fates, no opens-loop check, no deeper name."""
+    # Reference: circuits/miller_buffer.cir header (Vin drives M2's gate at inp; the only feedback wire is out -> M1's gate),
+    # and LoopStructure.opens_check's docstring (None when no loop found passes through the net).
+    s = LoopStructure(parse_file(circuits / "miller_buffer.cir"), "inp")
+    assert s.group is None
+    assert (s.fates("inp"), s.opens_check("inp"), s.alias("inp")) == ((), None, None)
+
+
+def test_discovery_breaks_the_bandgap_loop_under_its_drivers_name_and_says_so_on_the_status_line(circuits, caplog):
+    """Loop discovery states the bandgap loop's best break at pbias under its name inside the amplifier (its ``at``), names the
+    group by it, and the status line counts the candidates whose split it works out."""
+    # Reference: circuits/benches/bandgap_reg.cir header (xreg.pbias = xreg.xbg.pg = xreg.xbg.xamp.out, one net driven by
+    # the amplifier's MA2/MA4 inside xamp; the start-up MS1 one level up), as test_a_net_named_above_the_block_that_drives_it
+    # above; the status line is the one netloop.cli.status shows (INFO on the "netloop" logger), at most DEFAULT_SPLIT_CHECKS
+    # candidates a group.
+    with caplog.at_level(logging.INFO, logger="netloop"):
+        found = discover_loops(circuits / "benches" / "bandgap_reg.cir")
+    bandgap, regulation = found.groups
+    pbias = next(c for c in bandgap.candidates if c.node == "xreg.pbias")
+    assert (pbias.at, pbias.break_name) == ("xreg.xbg.xamp.out", "xreg.xbg.xamp.out")
+    assert bandgap.label == "loop 1 (xreg.xbg.xamp.out)" and regulation.label == "loop 2 (fb)"
+    assert all(c.at == "" for c in regulation.candidates)  # each of its nets is named at the level of the block that drives it
+    status = [r.getMessage() for r in caplog.records if r.getMessage().startswith("working out")]
+    assert status == [f"working out the probe's split at the best {min(DEFAULT_SPLIT_CHECKS, len(g.candidates))} break nodes of loop {g.index} "
+                      f"({s})" for g, s in ((bandgap, "xreg.pbias"), (regulation, "fb"))]
