@@ -126,3 +126,54 @@ def test_every_choice_is_the_same_under_five_hash_seeds(under_hash_seeds):
     docs = [json.loads(o) for o in under_hash_seeds(_CHOICES, [json.dumps(jobs)], timeout_s=300)]
     assert all(d == docs[0] for d in docs[1:])
     assert docs[0][str(benches / "bandgap_reg.cir")]["groups"][0]["coarse"]  # the swept ones were swept
+
+
+@pytest.mark.parametrize("unity_hz, shown", [(3e3, "0 dB near 3 kHz"), (3e6, "0 dB near 3 MHz"), (3e9, "0 dB near 3 GHz")])
+def test_the_chosen_breaks_reason_names_its_crossing_in_si_units(unity_hz, shown):
+    """The reason for a break states its coarse 0 dB crossing with the SI prefix a user reads (kHz, MHz, GHz)."""
+    # Reference: common practice: SI prefixes k, M, G (BIPM SI brochure, 9th edition, 2019, table 7), capital M for mega.
+    group = _group()
+    a = group.candidates[0].node
+    gc = choose(group, (CoarseBreak(a, 20.0, 20.0, 1.0, unity_hz, -200.0),))
+    assert gc.chosen == a and shown in gc.why and "dB at 1 THz" in gc.why
+
+
+def test_the_short_reasons_for_passed_over_breaks_word_for_word():
+    """The text listing's short reasons read "T about 0" and "T does not fall", word for word."""
+    # Reference: by construction (the rule of netloop.jobs.census's module docstring, as in the test above).
+    group = _group()
+    a, b, c = (x.node for x in group.candidates)
+    coarse = (CoarseBreak(a, -200.0, -190.0, 1.0, None, -300.0), CoarseBreak(b, 20.0, 20.0, 1.0, 3e3, -15.0),
+              CoarseBreak(c, 20.0, 20.0, 1.0, 3e3, -200.0))
+    assert choose(group, coarse).passed_over_briefly == (f"{a}: T about 0", f"{b}: T does not fall")
+
+
+def test_when_no_break_falls_the_best_measured_one_is_kept_and_the_reason_says_so():
+    """When every candidate's T stays flat at the top of the sweep, the best-ranked measured one is still chosen, and why says
+    no candidate's T falls."""
+    # Reference: by construction: measure widens the sweep until T falls (netloop.jobs.census's module docstring), so a break
+    # that was measured is better than none; the figures are given.
+    group = _group()
+    a, b, c = (x.node for x in group.candidates)
+    coarse = (CoarseBreak(a, -200.0, -190.0, 1.0, None, -300.0), CoarseBreak(b, 20.0, 20.0, 1.0, 3e3, -15.0),
+              CoarseBreak(c, 10.0, 10.0, 1.0, 3e3, -10.0))
+    gc = choose(group, coarse)
+    assert gc.chosen == b and gc.why.endswith(" (no candidate's T falls well below 1 at the top of the sweep)")
+    assert gc.passed_over_briefly == (f"{a}: T about 0",)
+
+
+def test_an_unswept_break_is_chosen_without_a_claim_about_its_t():
+    """A break the coarse sweep did not reach is still chosen, and its reason claims nothing about T."""
+    # Reference: by construction: with no coarse figures the census falls back on the structural ranking.
+    group = _group()
+    gc = choose(group, ())
+    assert gc.chosen == group.candidates[0].break_name and "coarse T" not in gc.why and "falls" not in gc.why
+
+
+def test_a_crossing_between_the_first_two_samples_is_found():
+    """|T| = 2 / (1 + j f/f0) sampled at f0 and 10 f0 crosses 0 dB in the first interval, near f0 sqrt(3)."""
+    # Reference: closed form: |T| = 1 at f = f0 sqrt(2^2 - 1); log-log interpolation between f0 and 10 f0 gives 1.5 f0.
+    f0 = 1e3
+    f = np.array([f0, 10 * f0, 100 * f0])
+    c = coarse_figures("x", f, 2.0 / (1 + 1j * f / f0))
+    assert c.unity_hz == pytest.approx(np.sqrt(3) * f0, rel=0.15)

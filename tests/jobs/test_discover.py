@@ -2,12 +2,19 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass, replace
+from types import SimpleNamespace
+
 import numpy as np
 import pytest
 
+import netloop.jobs.discover as discover
+import netloop.jobs.measure as measure_module
+from netloop.graph import find_loops, flatten
 from netloop.jobs.discover import check_loops, discover_loops, measure_all_loops, opened_circuit_rhp_poles
 from netloop.jobs.measure import measure
-from netloop.errors import ProbeError
+from netloop.errors import NetloopError, ProbeError
+from netloop.netlist import parse_text
 
 # A stable loop a<->b (negative feedback, gain 2 per stage) and a loop c<->d that is unstable on its own
 # (positive feedback, loop gain 4), joined by a->c and d->b; every node has 1k || 1n to ground (tau = 1 us).
@@ -231,3 +238,74 @@ def test_fd_amp_outn_leaves_the_sense_resistor_loop_closed_on_its_load_side(circ
     assert sense in outn.left_closed and sense not in outn.kept_closed
     assert "enters and leaves outn on the load side" in outn.reason
 
+
+
+# Three stages in a ring, each with 1k || 1n to ground (invented); the same ring as tests/jobs/test_census.py.
+_RING = ("three-stage ring (invented)\nG1 0 b a 0 2m\nG2 0 c b 0 2m\nG3 a 0 c 0 2m\n"
+         "Ra a 0 1k\nCa a 0 1n\nRb b 0 1k\nCb b 0 1n\nRc c 0 1k\nCc c 0 1n\n.end\n")
+
+
+class _BrokenSimulator:
+    """A simulator whose every run fails, as ngspice does when it cannot converge."""
+
+    def __init__(self):
+        self.closed = False
+
+    def run(self, job):
+        raise NetloopError("ngspice: timestep too small (invented failure)")
+
+    def close(self):
+        self.closed = True
+
+
+def test_a_group_no_break_of_which_can_be_measured_is_inconclusive_with_the_reason_and_what_to_try(tmp_path, monkeypatch):
+    """When the coarse sweep fails and the probe refuses the chosen break, check_loops still returns the census, and the group
+    is inconclusive with the reason and what to try, word for word."""
+    # Reference: the verdict model of the team brief (a measurement that cannot be made is inconclusive, with the reason and what
+    # to try) and simulator_processes' docstring (no more processes than the census's 2 runs); the failures are given.
+    started = []
+
+    def simulator(keep_dir=None, processes=1):
+        started.append((processes, _BrokenSimulator()))
+        return started[-1][1]
+
+    def refuse(parsed, at, **options):
+        raise ProbeError(f"cannot break {at} (invented refusal)")
+
+    monkeypatch.setattr(measure_module, "default_simulator", simulator)
+    monkeypatch.setattr(discover, "measure", refuse)
+    path = tmp_path / "ring.cir"
+    path.write_text(_RING)
+    check = check_loops(path, processes=4)
+    assert [(n, sim.closed) for n, sim in started] == [(2, True)]  # one simulator, closed after the census and the measurements
+    (gc,) = check.census.groups
+    assert gc.coarse and all(c.error == "the coarse sweep failed: ngspice: timestep too small (invented failure)" for c in gc.coarse)
+    (g,) = check.groups
+    node = gc.chosen
+    assert g.result is None and g.verdict == check.verdict == "inconclusive"
+    assert g.reason == ("no candidate break of this group could be measured: "
+                        f"{node} (the probe refused: cannot break {node} (invented refusal))")
+    assert g.advice == "name a node of the group and its driver: --at NODE --driver ELEMENT[.PIN]"
+    assert check.notes[-1] == f"loop 1 ({node}): not measured: {g.reason}"
+
+
+def test_a_loop_left_closed_whose_poles_disagree_with_nyquist_fails_the_opened_circuit_check(monkeypatch):
+    """A break leaving a loop closed, where the closed-loop poles fitted from 1/(1+T) disagree with the Nyquist count, gets a
+    failed "opened-circuit" self-check saying so word for word (so the verdict is inconclusive)."""
+    # Reference: the verdict model of the team brief (a failed self-check makes the result inconclusive with its reason) and
+    # _with_closed_notes' docstring; the disagreement is given (an invented result), not measured.
+    @dataclass(frozen=True)
+    class Result:
+        analysis: object
+        warnings: tuple = ()
+        checks: tuple = ()
+
+    (group,) = find_loops(flatten(parse_text(_RING))).groups
+    cand = replace(group.candidates[0], left_closed=(1,), kept_closed=())
+    monkeypatch.setattr(discover, "opened_circuit_rhp_poles", lambda result: 0)
+    analysis = SimpleNamespace(nyquist=SimpleNamespace(open_loop_rhp_poles=0), poles=SimpleNamespace(agrees_with_nyquist=False))
+    result = Result(analysis)
+    (check,) = discover._with_closed_notes(group, cand, result).checks
+    assert (check.name, check.passed) == ("opened-circuit", False)
+    assert check.detail == (f"breaking {cand.node} leaves 1 loop(s) of {group.label} closed, and the closed-loop poles fitted from "
+                            "1/(1+T) disagree with the Nyquist count made with P = 0")
