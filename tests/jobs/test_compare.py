@@ -328,14 +328,15 @@ def test_methods_differ_only_when_the_probe_equations_fail(kvl):
     assert d.explanation.startswith("Tian's and Middlebrook's T agree at out" if kvl else "DEFECT: at out Middlebrook's T differs from Tian's")
 
 
-NESTED = """nested local loops around a buffer (invented)
-vref ref 0 dc 0.5
-e0 n0 0 ref out 1000
-r1 n0 p1 1k
-c1 p1 0 159.15n
-eb b1 0 p1 0 1
-r2 b1 out 1k
-c2 out 0 159.15p
+def _difference(tmp_path: Path, text: str, a: str, b: str):
+    """The one Difference of comparing ``a`` and ``b`` in the netlist ``text`` on ngspice over the fixed sweep."""
+    path = tmp_path / "circuit.cir"
+    path.write_text(text)
+    (d,) = compare(path, [a, b], sweep=FIXED).differences
+    return d
+
+
+NESTED = "nested local loops around a buffer (invented)\n" + _loop("", A0) + """
 ef x 0 b1 0 -0.5
 rf x p1 1k
 eg y 0 x 0 1
@@ -347,13 +348,38 @@ rg y b1 1k
 @pytest.mark.ngspice
 def test_loops_one_location_opens_bypass_the_other(tmp_path):
     """With local loops b1 -> x -> y -> b1 and p1 -> b1 -> x -> p1 beside the global loop, y and p1 each name the loops they open that never pass the other, in the singular and the plural."""
-    path = tmp_path / "nested.cir"
-    path.write_text(NESTED)
-    c = compare(path, ["y", "p1"], sweep=FIXED)
-    (d,) = c.differences
+    d = _difference(tmp_path, NESTED, "y", "p1")
     assert d.kind == "different loops opened"
     # by inspection of the netlist (netloop.graph.find_loops lists them): 1.1 b1 -ef-> x -eg-> y -rg-> b1 does not pass p1;
     # 1.2 p1 -eb-> b1 -ef-> x -rf-> p1 and 1.3 n0 -r1-> p1 -eb-> b1 -r2-> out -e0-> n0 do not pass y
     assert "y opens loop 1.1 which bypasses p1; p1 opens loops 1.2, 1.3 which bypass y;" in d.explanation
     assert {"loop 1.1: b1 -ef(cp>p)-> x -eg(cp>p)-> y -rg-> b1", "loop 1.2: p1 -eb(cp>p)-> b1 -ef(cp>p)-> x -rf-> p1",
             "loop 1.3: n0 -r1-> p1 -eb(cp>p)-> b1 -r2-> out -e0(cn>p)-> n0"} <= set(d.loops)
+
+
+SENSED = """error amplifier: a behavioural gain stage and a transistor in parallel, the stage through a 0 V current sense (invented)
+vdd vdd 0 dc 1.8
+vref ref 0 dc 0.5
+rd vdd n0 10k
+e1 n0x 0 ref out 1000
+vsense n0x n0 0
+m1 n0 out 0 0 nch w=1u l=1u
+r1 n0 p1 1k
+c1 p1 0 159.15n
+eb b1 0 p1 0 1
+r2 b1 out 1k
+c2 out 0 159.15p
+.model nch nmos level=1 vto=0.4 kp=100u
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_a_step_entering_through_a_current_sense_is_placed_by_its_other_element(tmp_path):
+    """A break at n0, which the loop enters through e1 behind a 0 V sense source and m1 in parallel, opens the loop as b1 does, and T agrees."""
+    d = _difference(tmp_path, SENSED, "n0", "b1")
+    # by inspection: the one loop out -e1|m1-> n0 -r1-> p1 -eb-> b1 -r2-> out enters n0 from its drivers (m1 and, through vsense,
+    # e1) and leaves by r1; n0 and b1 are both held by ideal voltage sources (e1, eb): zero driver impedance, so neither break
+    # loads the loop and T is its voltage gain around, the same at both (circuit theory, from memory; 1 + T_n = D/D_n)
+    assert d.kind == "same" and d.max_relative_difference < 1e-9
+    assert d.explanation.startswith("both open the same loops of loop 1 (out) (1.1); T agrees")
