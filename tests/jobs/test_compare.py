@@ -10,8 +10,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from netloop.analysis.return_ratio import middlebrook, tian
 from netloop.jobs.compare import POLE_RTOL, compare, dominant_pole
-from netloop.errors import ProbeError
+from netloop.jobs.compare_explain import method_difference
+from netloop.errors import ProbeError, SimulationError
 from netloop.jobs.measure import Sweep, measure
 from netloop.sim import AnalyticSimulator, default_simulator
 
@@ -180,17 +182,18 @@ def test_miller_same_loops_differ_by_loading(tmp_path):
 # -- without ngspice: the explanation logic on a fake simulator --------------------------------
 
 
-def _fake(t_n0, t_b1) -> AnalyticSimulator:
-    """Probe vectors of ideal-voltage-driver breaks at n0 and b1 with the given T: v_b1 = 1/(1+T), v_a1 = -T/(1+T), i_b2 = 0."""
+def _fake(t_n0, t_b1, nodes: tuple[str, str] = ("n0", "b1")) -> AnalyticSimulator:
+    """Probe vectors of ideal-voltage-driver breaks at two nodes (n0 and b1) with the given T: v_b1 = 1/(1+T), v_a1 = -T/(1+T), i_b2 = 0."""
     def va(t, src):
         return lambda f, ac: -t(f) / (1 + t(f)) * ac[src]
 
     def vb(t, src):
         return lambda f, ac: 1 / (1 + t(f)) * ac[src]
 
+    a, b = nodes
     return AnalyticSimulator({
-        "v(n0_drive)": va(t_n0, "vnl_series"), "v(n0)": vb(t_n0, "vnl_series"), "i(vnl_series)": lambda f, ac: 0 * f,
-        "v(b1_drive)": va(t_b1, "vnl_series_2"), "v(b1)": vb(t_b1, "vnl_series_2"), "i(vnl_series_2)": lambda f, ac: 0 * f,
+        f"v({a}_drive)": va(t_n0, "vnl_series"), f"v({a})": vb(t_n0, "vnl_series"), "i(vnl_series)": lambda f, ac: 0 * f,
+        f"v({b}_drive)": va(t_b1, "vnl_series_2"), f"v({b})": vb(t_b1, "vnl_series_2"), "i(vnl_series_2)": lambda f, ac: 0 * f,
     })
 
 
@@ -257,3 +260,126 @@ def test_a_location_the_loop_bypasses(tmp_path):
     expected = max((p for p in pz if p.imag >= 0), key=lambda p: p.real)  # reference: ngspice .pz, least damped pole
     for r in c.results:
         assert abs(dominant_pole(r) - expected) < 1e-4 * abs(expected)  # .pz prints 6 significant digits
+
+
+# -- word for word: the messages and records a user reads ---------------------------------------
+
+
+def test_a_location_given_twice_is_named_alone(single):
+    """The error for a repeated location names only the repeated one, however it was spelt, not the others."""
+    sim = AnalyticSimulator({})
+    # common practice: an error names what is wrong, not every input beside it
+    with pytest.raises(ProbeError) as caught:
+        compare(single, ["n0", "OUT", "b1", " out "], simulator=sim)
+    assert str(caught.value) == "location out given more than once"
+    assert sim.jobs == []
+
+
+def test_a_simulator_failure_names_the_comparison(single):
+    """A simulator that cannot answer the comparison's job fails with the job called "compare" in its message."""
+    # netloop.errors.SimulationError: "[label] message" names the job a failure belongs to (as a corner's name does)
+    with pytest.raises(SimulationError) as caught:
+        compare(single, ["n0", "b1"], sweep=FIXED, simulator=AnalyticSimulator({}))
+    assert caught.value.corner == "compare"
+    assert str(caught.value).startswith("[compare] the analytic simulator has no response for ")
+
+
+def test_fake_defect_explanation_word_for_word(single):
+    """The defect of a single linear loop says why T must be identical, by how much it differs, and names the loop."""
+    c = compare(single, ["n0", "b1"], sweep=FIXED, simulator=_fake(lambda f: _closed_form(f, A0), lambda f: _closed_form(f, 1.01 * A0)))
+    (d,) = c.differences
+    # |T_b - T_a| / |T_b| = 0.01 / 1.01 = 0.0099 at every frequency (closed form of the two fake loops)
+    assert d.explanation == ("DEFECT: both breaks open the single loop of loop 1 (out), made of controlled sources and R, L, C only, so "
+                             "T must be identical, but it differs (max relative difference of T 0.0099 > 1e-06): the probe or the "
+                             "simulation is wrong")
+    assert d.loops == ("loop 1.1: n0 -r1-> p1 -eb(cp>p)-> b1 -r2-> out -e0(cn>p)-> n0",)
+
+
+def test_fake_different_groups_carry_their_difference(tmp_path):
+    """Breaks on two separate loops whose gains are 1000 and 100 report different loop groups with a relative difference of 0.9."""
+    path = tmp_path / "two.cir"
+    path.write_text("two behavioural loops (invented)\n" + _loop("a", A0) + "\n" + _loop("b", 100.0) + "\n.end\n")
+    c = compare(path, ["n0a", "b1b"], sweep=FIXED,
+                simulator=_fake(lambda f: _closed_form(f, A0), lambda f: _closed_form(f, 100.0), nodes=("n0a", "b1b")))
+    (d,) = c.differences
+    # closed form: both loops share their poles, so |T_a - T_b| / |T_a| = (1000 - 100) / 1000 = 0.9 at every frequency
+    assert d.kind == "different loop groups" and d.differs
+    assert d.max_relative_difference == pytest.approx(0.9, rel=1e-12)
+
+
+def test_fake_both_methods_agree_at_every_location(single):
+    """With both methods, each location adds a Tian-against-Middlebrook entry after the location pairs, "same" with no difference."""
+    t = lambda f: _closed_form(f, A0)  # noqa: E731
+    c = compare(single, ["n0", "b1"], method="both", sweep=FIXED, simulator=_fake(t, t))
+    # Tian et al. (2001) and Middlebrook (1975) give one T from the same two runs of this probe (netloop.analysis.return_ratio)
+    assert [(d.locations, d.method, d.kind, d.max_relative_difference) for d in c.differences[1:]] == [
+        (("n0", "n0"), "tian/middlebrook", "same", 0.0), (("b1", "b1"), "tian/middlebrook", "same", 0.0)]
+
+
+@pytest.mark.parametrize("kvl", [True, False])
+def test_methods_differ_only_when_the_probe_equations_fail(kvl):
+    """Tian's and Middlebrook's T from probe quantities that obey the probe's equations are "same"; quantities that break them are a "defect" of the two methods."""
+    rng = np.random.default_rng(1)
+    vb1, ib2 = rng.normal(size=(2, 50)) + 1j * rng.normal(size=(2, 50))
+    va1 = vb1 - 1 if kvl else vb1 - 0.9  # the series source: v_b - v_a = 1 V (Kirchhoff's voltage law); 0.9 V is a broken probe
+    tt, tm = tian(va1, vb1, ib2), middlebrook(va1, vb1, ib2 - 1, ib2)  # Tian et al. 2001; Middlebrook 1975 (i_a2 = i_b2 - 1, KCL)
+    d = method_difference("out", tt, tm)
+    assert (d.locations, d.method, d.kind) == (("out", "out"), "tian/middlebrook", "same" if kvl else "defect")
+    assert d.explanation.startswith("Tian's and Middlebrook's T agree at out" if kvl else "DEFECT: at out Middlebrook's T differs from Tian's")
+
+
+def _difference(tmp_path: Path, text: str, a: str, b: str):
+    """The one Difference of comparing ``a`` and ``b`` in the netlist ``text`` on ngspice over the fixed sweep."""
+    path = tmp_path / "circuit.cir"
+    path.write_text(text)
+    (d,) = compare(path, [a, b], sweep=FIXED).differences
+    return d
+
+
+NESTED = "nested local loops around a buffer (invented)\n" + _loop("", A0) + """
+ef x 0 b1 0 -0.5
+rf x p1 1k
+eg y 0 x 0 1
+rg y b1 1k
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_loops_one_location_opens_bypass_the_other(tmp_path):
+    """With local loops b1 -> x -> y -> b1 and p1 -> b1 -> x -> p1 beside the global loop, y and p1 each name the loops they open that never pass the other, in the singular and the plural."""
+    d = _difference(tmp_path, NESTED, "y", "p1")
+    assert d.kind == "different loops opened"
+    # by inspection of the netlist (netloop.graph.find_loops lists them): 1.1 b1 -ef-> x -eg-> y -rg-> b1 does not pass p1;
+    # 1.2 p1 -eb-> b1 -ef-> x -rf-> p1 and 1.3 n0 -r1-> p1 -eb-> b1 -r2-> out -e0-> n0 do not pass y
+    assert "y opens loop 1.1 which bypasses p1; p1 opens loops 1.2, 1.3 which bypass y;" in d.explanation
+    assert {"loop 1.1: b1 -ef(cp>p)-> x -eg(cp>p)-> y -rg-> b1", "loop 1.2: p1 -eb(cp>p)-> b1 -ef(cp>p)-> x -rf-> p1",
+            "loop 1.3: n0 -r1-> p1 -eb(cp>p)-> b1 -r2-> out -e0(cn>p)-> n0"} <= set(d.loops)
+
+
+SENSED = """error amplifier: a behavioural gain stage and a transistor in parallel, the stage through a 0 V current sense (invented)
+vdd vdd 0 dc 1.8
+vref ref 0 dc 0.5
+rd vdd n0 10k
+e1 n0x 0 ref out 1000
+vsense n0x n0 0
+m1 n0 out 0 0 nch w=1u l=1u
+r1 n0 p1 1k
+c1 p1 0 159.15n
+eb b1 0 p1 0 1
+r2 b1 out 1k
+c2 out 0 159.15p
+.model nch nmos level=1 vto=0.4 kp=100u
+.end
+"""
+
+
+@pytest.mark.ngspice
+def test_a_step_entering_through_a_current_sense_is_placed_by_its_other_element(tmp_path):
+    """A break at n0, which the loop enters through e1 behind a 0 V sense source and m1 in parallel, opens the loop as b1 does, and T agrees."""
+    d = _difference(tmp_path, SENSED, "n0", "b1")
+    # by inspection: the one loop out -e1|m1-> n0 -r1-> p1 -eb-> b1 -r2-> out enters n0 from its drivers (m1 and, through vsense,
+    # e1) and leaves by r1; n0 and b1 are both held by ideal voltage sources (e1, eb): zero driver impedance, so neither break
+    # loads the loop and T is its voltage gain around, the same at both (circuit theory, from memory; 1 + T_n = D/D_n)
+    assert d.kind == "same" and d.max_relative_difference < 1e-9
+    assert d.explanation.startswith("both open the same loops of loop 1 (out) (1.1); T agrees")
