@@ -15,6 +15,16 @@ __all__ = ["closed_loop_peaking", "in_band_db", "modulus_margin"]
 _ZOOM_POINTS = 65  # points a bracket is sampled at in each step of the polish (the bracket shrinks 32-fold a step)
 _ZOOM_XATOL = 1e-10  # the polish stops when the bracket in log10 f is this narrow: 2.3e-10 of the frequency, and the value
 # at a smooth extremum is then exact to the square of that (what limits both is the interpolant, not the polish)
+_ZOOM_STEPS = np.arange(float(_ZOOM_POINTS))  # 0, 1, ..., 64: the multiples of the step in np.linspace's own arithmetic
+
+
+def _zoom_grid(lo: np.float64, hi: np.float64) -> np.ndarray:
+    """np.linspace(lo, hi, _ZOOM_POINTS) bit for bit, by its own arithmetic (index times step, plus lo, the last point hi)
+    without its argument handling: 1.3 us a call instead of 4.3, twelve calls an analysis (timeit, numpy 2.4)."""
+    grid = _ZOOM_STEPS * ((hi - lo) / (_ZOOM_POINTS - 1))
+    grid += lo
+    grid[-1] = hi
+    return grid
 
 
 def _extremum(resp: Response, fun) -> tuple[float, float]:
@@ -27,11 +37,12 @@ def _extremum(resp: Response, fun) -> tuple[float, float]:
     xs, t = resp.dense_t(16)  # the grid and T the Nyquist count read
     with np.errstate(divide="ignore", invalid="ignore"):
         vals = fun(t)
-    i = int(np.nanargmin(vals))  # NaN (inf / inf where |T| overflowed) is never the extremum
+    # NaN (inf / inf where |T| overflowed) is never the extremum; np.nanargmin's copy only where there is one (15 us)
+    i = int(np.nanargmin(vals) if np.isnan(vals).any() else np.argmin(vals))
     best_x, best = float(xs[i]), float(vals[i])
     lo, hi = xs[max(i - 1, 0)], xs[min(i + 1, xs.size - 1)]
     while hi - lo > _ZOOM_XATOL:
-        grid = np.linspace(lo, hi, _ZOOM_POINTS)
+        grid = _zoom_grid(lo, hi)
         with np.errstate(divide="ignore", invalid="ignore"):
             v = fun(resp.t_at(grid))
         v[np.isnan(v)] = np.inf  # NaN is never the extremum

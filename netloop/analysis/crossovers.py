@@ -60,7 +60,8 @@ def _root(fun, a: float, b: float) -> float:
     load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
     from scipy.optimize import brentq  # noqa: PLC0415
 
-    return brentq(fun, a, b, xtol=_XTOL)
+    ends = {a: fa, b: fb}  # brentq evaluates both ends first: the values at hand, not two more spline evaluations
+    return brentq(lambda u: ends[u] if u in ends else fun(u), a, b, xtol=_XTOL)
 
 
 def find_gain_crossovers(resp: Response) -> tuple[GainCrossover, ...]:

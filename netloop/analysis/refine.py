@@ -95,8 +95,10 @@ def _proposals(freq_hz: np.ndarray, brackets: list[int], coarse_lows: list[float
     if not new:
         return np.empty(0)
     out = 10.0 ** np.concatenate(new)
-    out = out[~np.isin(out, freq_hz)]
-    return np.unique(out)
+    # none already sampled: freq_hz ascends (check_response), so a sample equal to a proposal sits where searchsorted puts
+    # it (np.isin's answer, 4 us instead of 21 on a sky130 round)
+    at = np.minimum(np.searchsorted(freq_hz, out), freq_hz.size - 1)
+    return np.unique(out[freq_hz[at] != out])
 
 
 def _merge(f: np.ndarray, t: np.ndarray, f_new: np.ndarray, t_new: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -75,7 +75,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping
-from dataclasses import asdict
+from dataclasses import fields
 
 import numpy as np
 
@@ -101,6 +101,12 @@ _POLE_KEYS = ("rhp_count", "dominant_freq_hz", "dominant_damping", "dominant_q",
 def _fields(record: object | None, keys: tuple[str, ...], **computed) -> dict:
     """``{key: record.key}`` in the order of ``keys`` (all None for no record); ``computed`` supplies keys the record lacks."""
     return {k: computed[k] if k in computed else None if record is None else getattr(record, k) for k in keys}
+
+
+def _flat(record: object) -> dict:
+    """dataclasses.asdict of a record whose fields are plain values (numbers, strings, None), as asdict gives it, without
+    its deep copy of each value (Peaking and SimInfo: 6 us instead of 23, timeit)."""
+    return {f.name: getattr(record, f.name) for f in fields(record)}
 
 
 def _gain(c: GainCrossover) -> dict:
@@ -147,7 +153,7 @@ def _analysis(a: LoopAnalysis) -> dict:
             "ignored_phase": [_phase(c) for c in a.ignored_phase_crossovers],
             "floor_db": a.floor_db,
         },
-        "peaking": {**asdict(a.peaking), "at_worst_crossover_db": None if worst is None else worst.peaking_db},
+        "peaking": {**_flat(a.peaking), "at_worst_crossover_db": None if worst is None else worst.peaking_db},
         "second_order_estimate": _second_order(a),
         "stability": {
             "stable": nyq.stable,
@@ -193,14 +199,22 @@ def _requirements(result: LoopResult) -> list[dict]:
     ]
 
 
+def _as_is(value) -> bool:
+    """Whether _plain gives ``value`` back as it is: a str, None, a bool, an int or a finite float (exactly those types).
+    Checked before a member's path is written, which only a non-finite float or a container needs (to_document: about
+    half its time went to the paths of such members and to the isinstance chain below)."""
+    kind = type(value)
+    return kind is str or value is None or kind is bool or kind is int or (kind is float and math.isfinite(value))
+
+
 def _plain(value, path: str, infinite: dict[str, str]):
     """Convert to JSON-ready builtins; non-finite floats become None and are noted in `infinite`."""
     if isinstance(value, dict):
-        return {k: _plain(v, f"{path}.{k}" if path else k, infinite) for k, v in value.items()}
+        return {k: v if _as_is(v) else _plain(v, f"{path}.{k}" if path else k, infinite) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         if all(type(v) is float for v in value) and all(map(math.isfinite, value)):  # finite floats (T's samples): as they are
             return list(value)
-        return [_plain(v, f"{path}[{i}]", infinite) for i, v in enumerate(value)]
+        return [v if _as_is(v) else _plain(v, f"{path}[{i}]", infinite) for i, v in enumerate(value)]
     if isinstance(value, (bool, np.bool_)):
         return bool(value)
     if isinstance(value, (int, np.integer)):
@@ -242,7 +256,7 @@ def to_document(result: LoopResult) -> dict:
         "warnings": list(result.warnings),
         "caveats": list(result.caveats),
         "library_warnings": list(result.library_warnings),
-        "simulation": asdict(result.sim),
+        "simulation": _flat(result.sim),
         "loop_gain": {
             "freq_hz": np.asarray(a.freq_hz, dtype=float).tolist(),
             "re": np.asarray(a.t).real.astype(float).tolist(),

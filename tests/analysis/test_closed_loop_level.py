@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pytest
 
 from netloop.analysis.closed_loop import in_band_db
@@ -109,3 +110,14 @@ def test_a_minimum_at_the_top_of_the_sweep_is_read_there():
     assert a.margins.modulus_margin == pytest.approx(abs(1 + top), rel=1e-9)
     assert a.peaking.peak_freq_hz == pytest.approx(0.2, rel=1e-12)
     assert a.peaking.absolute_peak_db == pytest.approx(20 * math.log10(abs(top / (1 + top))), abs=1e-9)
+
+
+def test_zoom_grid_is_numpy_linspace_bit_for_bit():
+    """The polish's grid is np.linspace(lo, hi, 65) to the last bit, on brackets of every width the polish narrows through."""
+    from netloop.analysis.closed_loop import _ZOOM_POINTS, _zoom_grid
+
+    rng = np.random.default_rng(17)
+    for _ in range(2000):
+        lo = np.float64(rng.uniform(-6.0, 13.0))
+        hi = lo + np.float64(10.0 ** rng.uniform(-10.5, 0.5))
+        assert np.array_equal(_zoom_grid(lo, hi), np.linspace(lo, hi, _ZOOM_POINTS))

@@ -183,11 +183,14 @@ def test_the_fit_is_scipys_with_its_clean_up(case):
     else:
         z = np.exp(np.linspace(-0.5, 0.5 + 15j * np.pi, num=1000))
         y, rtol, terms = np.tan(np.pi * z / 2), 0.0, 60
-    ours, ok = _fit(z, y, rtol, terms)
+    ours, ok, (distance, size) = _fit(z, y, rtol, terms)
     theirs, their_ok = _scipy_fit(z, y, rtol, terms)
     assert ok == their_ok == (case == "one pole loop")
     for a, b in ((ours.weights, theirs.weights), (ours.support_points, theirs.support_points), (ours.poles(), theirs.poles())):
         assert a.shape == b.shape and np.array_equal(a, b)
+    # the reach kept for the caller is that of scipy's final fit, after its clean-up too (the spiral's)
+    nearest = np.min(np.abs(theirs.poles()[:, None] - z[None, :]), axis=1)
+    assert np.array_equal(distance, nearest) and np.array_equal(size, np.abs(theirs.residues()))
 
 
 def _fits():
@@ -217,7 +220,7 @@ def test_the_clean_up_is_skipped_exactly_where_scipys_finds_nothing(name, z, y, 
     """The test before scipy's clean-up says a fit may hold a doublet wherever scipy's own clean-up finds one (the spiral),
     and says no on the fits of loops and of a flat response, where scipy's finds none: the clean-up it saves is one that
     would change nothing (reference: scipy's AAA.clean_up, which returns how many doublets it found)."""
-    from netloop.analysis.poles import _may_hold_doublets
+    from netloop.analysis.poles import _may_hold_doublets, _reach
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -225,4 +228,21 @@ def test_the_clean_up_is_skipped_exactly_where_scipys_finds_nothing(name, z, y, 
 
         fit = AAA(z, y, rtol=rtol, max_terms=min(terms, z.size // 2), clean_up=False)
     assert (doublets > 0) == (name == "spiral with doublets")
-    assert _may_hold_doublets(fit, y, z) == (doublets > 0)
+    assert _may_hold_doublets(fit, y, _reach(fit, z)) == (doublets > 0)
+
+
+@pytest.mark.parametrize("name,z,y,rtol,terms,doublets", _fits(), ids=lambda v: v if isinstance(v, str) else "")
+def test_the_fit_is_read_at_the_data_as_scipy_reads_it(name, z, y, rtol, terms, doublets):
+    """The fit evaluated at the data and between the data points (where the fit error is measured) equals scipy's own
+    evaluation fit(z) bit for bit, support points included (reference: scipy's AAA.__call__)."""
+    from scipy.interpolate import AAA
+
+    from netloop.analysis.poles import _fit_at
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fit = AAA(z, y, rtol=rtol, max_terms=min(terms, z.size // 2))
+    between = (z[1:] + z[:-1]) / 2.0
+    for points in (z, between):
+        ours, theirs = _fit_at(fit, points), fit(points)
+        assert ours.shape == theirs.shape and np.array_equal(ours, theirs, equal_nan=True)

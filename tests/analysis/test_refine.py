@@ -332,3 +332,29 @@ def test_a_loop_without_crossovers_but_too_coarse_samples_is_refined_until_they_
     out = refine(evaluator(loop, calls), f, t)
     assert out.rounds >= 1 and out.converged and out.analysis.nyquist.coarse_hz == () and out.last_change_deg is None
     np.testing.assert_array_equal(calls[0], propose_frequencies(f, t))
+
+
+def test_a_proposal_already_sampled_is_left_out_as_np_isin_leaves_it_out():
+    """A proposed frequency equal to a sample to the last bit (samples a rounding error apart, whose proposals round onto
+    them) is not proposed again, and the proposals are those np.isin leaves (the reference the searchsorted lookup
+    replaced), on random ascending sweeps with such pairs."""
+    import importlib
+
+    proposals = importlib.import_module("netloop.analysis.refine")._proposals
+
+    def reference(freq, brackets):
+        lx = np.log10(freq)
+        picked = sorted({j for i in brackets for j in (i - 1, i, i + 1) if 0 <= j < freq.size - 1})
+        every = 10.0 ** np.concatenate([lx[j] + (lx[j + 1] - lx[j]) * (np.arange(1, 4) / 4.0) for j in picked])
+        return np.unique(every[~np.isin(every, freq)]), every
+
+    freq = np.array([1.0, np.nextafter(1.0, 2.0), 10.0, 100.0])
+    got = proposals(freq, [0], [], 3)
+    expected, every = reference(freq, [0])
+    assert np.any(np.isin(every, freq)) and np.array_equal(got, expected) and not np.any(np.isin(got, freq))
+    rng = np.random.default_rng(11)
+    for _ in range(300):
+        freq = 10.0 ** rng.uniform(-2.0, 10.0, rng.integers(4, 40))
+        freq = np.unique(np.append(freq, np.nextafter(freq[: rng.integers(0, 3)], np.inf)))  # pairs one bit apart
+        brackets = sorted(set(rng.integers(0, freq.size - 1, 3).tolist()))
+        assert np.array_equal(proposals(freq, brackets, [], 3), reference(freq, brackets)[0])

@@ -132,3 +132,18 @@ def test_a_group_no_break_could_measure_is_an_inconclusive_entry_with_its_reason
                                                                 "measured": False, "reason": reason, "advice": advice}
     assert entry["group"]["index"] == 1 and entry["group"]["chosen"] == gc.chosen
     assert (doc["verdict"], doc["passed"], doc["notes"], doc["netlist"]) == ("inconclusive", False, ["a note"], census.source)
+
+
+@pytest.mark.parametrize("name", sorted(LOOPS))
+def test_the_flat_records_are_written_as_asdict_writes_them(name):
+    """The document's simulation and peaking sections are dataclasses.asdict of SimInfo and Peaking (peaking with its one
+    added key), for loops with finite and infinite peaking: the shortcut that skips asdict's deep copy changes nothing."""
+    from dataclasses import asdict
+
+    from netloop.jobs.document import json_document
+
+    result = _result(name)
+    doc = to_document(result)
+    assert doc["simulation"] == json_document({"simulation": asdict(result.sim)})["simulation"]
+    peaking = {k: v for k, v in doc["peaking"].items() if k != "at_worst_crossover_db"}
+    assert peaking == json_document({"peaking": asdict(result.analysis.peaking)})["peaking"]

@@ -73,3 +73,19 @@ def test_decisions_are_kept_per_corner_and_dropped_when_a_file_read_changes(tmp_
     assert sample_decisions(unseeded, corner_netlist(unseeded)) is None
     netlist.write_text(netlist.read_text() + "* edited\n")
     assert sample_decisions(tasks[1].corner, corner_netlist(tasks[1].corner)) is not got[1]
+
+
+def test_the_state_run_task_hands_over_is_the_files_state_of_the_netlist(tmp_path, monkeypatch):
+    """The files' state the worker finds while taking a corner's netlist (and gives sample_decisions instead of stating
+    the files again) is files_state of that netlist's files, also after a file changed; with it the samples get the
+    decisions they get without it (reference: worker.files_state, stated afresh)."""
+    monkeypatch.setattr(worker, "_DECISIONS", {})
+    netlist = _mismatched_miller(tmp_path)
+    (tmp_path / "plan.toml").write_text(f'netlist = "{netlist}"\nat = "out"\n[axes]\nlib = ["tt"]\n[samples]\ncount = 2\n')
+    tasks = sample_tasks(load_sample_plan(tmp_path / "plan.toml"))
+    for edit in ("", "* edited\n"):
+        netlist.write_text(netlist.read_text() + edit)
+        for task in tasks:
+            taken, state = worker._corner_netlist(task.corner)
+            assert state == worker.files_state(taken.files) and len(taken.files) > 1
+            assert sample_decisions(task.corner, taken, state) is sample_decisions(task.corner, corner_netlist(task.corner))
