@@ -7,7 +7,7 @@ import random
 import pytest
 
 from netloop.jobs.runs import lines_along, numeric_axes
-from netloop.jobs.runs.axes import planes
+from netloop.jobs.runs.axes import planes, setting_number
 
 
 def _rec(**settings) -> dict:
@@ -51,7 +51,7 @@ def test_planes_over_two_axes_group_by_the_remaining_settings():
     """Over temp and iload there is one plane per process section, each with one line along temp per load."""
     temp, iload = numeric_axes(RUN)
     found = planes(RUN, temp, iload)
-    assert [p.context for p in found] == ["ss", "tt"]
+    assert [p.context for p in found] == ["ss", "tt"] and [p.at for p in found] == ["out", "out"]
     assert all(len(p.lines) == 3 and all(len(ln.points) == 3 for ln in p.lines) for p in found)
 
 
@@ -59,3 +59,30 @@ def test_a_setting_with_a_value_that_is_not_a_number_is_no_axis():
     """A .param given as an expression in one corner makes that setting a non-numeric one."""
     run = (_rec(param_cc="1p"), _rec(param_cc="2p"), _rec(param_cc="{2*x}"))
     assert numeric_axes(run) == ()
+
+
+def test_a_value_that_reads_as_infinite_is_not_a_number():
+    """1e999 parses (as Python reads it) to infinity, which no netlist can use as a value: the setting is not a number,
+    so a setting with it in one corner is no axis (an axis of [1, inf] would put every crossing at infinity)."""
+    assert setting_number("1e999") is None and setting_number("-1e999") is None
+    assert setting_number("10m") == pytest.approx(0.01, rel=1e-15)
+    run = (_rec(param_cc="1p"), _rec(param_cc="2p"), _rec(param_cc="1e999"))
+    assert numeric_axes(run) == ()
+
+
+def test_lines_order_numbers_by_value_before_text():
+    """Lines whose other setting is a number come before one where it is text, and numbers by value (2p before 10p),
+    as _order's docstring promises: the line at cc={2*x} (text) is last although 0 would sort before 2p."""
+    run = tuple(_rec(param_cc=cc, param_iload=i) for cc in ("{2*x}", "10p", "2p") for i in ("1m", "2m"))
+    (iload,) = (a for a in numeric_axes(run) if a.key == "param.iload")
+    assert [ln.context for ln in lines_along(run, iload)] == ["cc=2p", "cc=10p", "cc={2*x}"]
+
+
+def test_a_corner_repeated_at_the_same_axis_value_stays_on_its_line_in_record_order():
+    """Two corners at one axis value written two ways (10m and 0.01, as a plan changed between a run and its --resume
+    writes them) are one line's two points, in the order of the records (the first counts for boundaries)."""
+    run = (_rec(param_iload="1m"), _rec(param_iload="10m"), _rec(param_iload="0.01"))
+    (axis,) = numeric_axes(run)
+    (line,) = lines_along(run, axis)
+    assert [r["corner"] for _, r in line.points] == ["param_iload=1m", "param_iload=10m", "param_iload=0.01"]
+    assert [v for v, _ in line.points] == pytest.approx([1e-3, 1e-2, 1e-2], rel=1e-12)

@@ -10,7 +10,7 @@ from ldo_model import crossover_rad_s, grid, parts, phase_margin_deg, record, sp
 from scipy.optimize import brentq
 
 from netloop.analysis.requirements import parse_requirement
-from netloop.jobs.runs import boundaries, lines_along, numeric_axes
+from netloop.jobs.runs import Crossing, boundaries, lines_along, numeric_axes
 
 PM45 = parse_requirement("pm >= 45")
 
@@ -119,3 +119,40 @@ def test_a_boundary_on_a_linear_axis_is_interpolated_in_the_value_itself():
     (c,) = b.crossings
     assert c.value == pytest.approx(3.45, abs=1e-9) and c.holds_above
     assert math.isclose(c.low, 3.3) and math.isclose(c.high, 3.6)
+
+
+def _pm_record(name: str, settings: dict[str, str], pm: float | None) -> dict:
+    """A measured corner record whose loop has phase margin ``pm`` (None: the loop has no 0 dB crossover)."""
+    outcome = "pass" if pm is not None and pm >= 45 else "fail"
+    return {"corner": name, "at": "out", "outcome": outcome, "settings": settings,
+            "loop": {"margins": {"phase_margin_deg": pm}}}
+
+
+@pytest.mark.parametrize(("values", "pms", "expected"), [
+    (("3.0", "3.6"), (40.0, 52.0), 3.25),         # linear axis: 3.0 + 0.6 * (45 - 40) / (52 - 40)
+    (("1m", "100m"), (60.0, 30.0), 0.01),         # log axis (two decades): halfway in log10, 10 mA
+])
+def test_a_line_of_two_measured_corners_is_interpolated_on_a_straight_line(values, pms, expected):
+    """With two measured corners the crossing is where the straight line through them (in the axis coordinate: the
+    value, or its log10 on a log axis) meets the threshold, worked by hand."""
+    run = tuple(_pm_record(f"c{k}", {"param.x": s}, pm) for k, (s, pm) in enumerate(zip(values, pms)))
+    (axis,) = numeric_axes(run)
+    (b,) = boundaries(PM45, lines_along(run, axis))
+    (c,) = b.crossings
+    assert c.value == pytest.approx(expected, rel=1e-12)
+    assert c.holds_above == (pms[1] > pms[0])
+
+
+@pytest.mark.parametrize(("pms", "low", "high", "holds_above", "without"), [
+    ((50.0, None, 40.0), 1.0, 2.0, False, "c1"),  # holds, then no phase margin (fails), then fails
+    ((None, 50.0, 60.0), 1.0, 2.0, True, "c0"),   # no phase margin (fails), then holds
+])
+def test_a_crossing_next_to_a_corner_without_the_figure_is_not_interpolated_and_names_it(pms, low, high, holds_above, without):
+    """A corner whose loop has no phase margin fails pm >= 45 (netloop.analysis.requirements) but has no figure to
+    interpolate from: the crossing between it and a corner that holds is between their axis values, with no value, and
+    names that corner."""
+    run = tuple(_pm_record(f"c{k}", {"temp": f"{k + 1}"}, pm) for k, pm in enumerate(pms))
+    (axis,) = numeric_axes(run)
+    (b,) = boundaries(PM45, lines_along(run, axis))
+    assert b.holds == tuple(pm is not None and pm >= 45 for pm in pms)
+    assert b.crossings == (Crossing(None, low, high, holds_above, f"the corner at {without} has no phase margin"),)

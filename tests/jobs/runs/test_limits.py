@@ -58,3 +58,31 @@ def test_exceeded(text, before, now, exceeded):
     """Which moves exceed a limit: the worse way only, by more than the amount; a figure that disappears does; infinity
     compares as infinitely large (hand-worked cases)."""
     assert parse_limit(text).exceeded(before, now) is exceeded
+
+
+@pytest.mark.parametrize(("text", "says"), [
+    ("pm=2V", "the amount of phase margin: '2V': 'V' is not a multiplier or unit for an angle"),
+    ("gm=2deg", "the amount of gain margin: '2deg'"),
+    ("fc=ten%", "'ten%' is not a percentage"),
+])
+def test_a_bad_amount_says_what_is_wrong_with_it(text, says):
+    """An amount in the wrong unit names the figure and the unit problem; a percentage that is no number says so
+    (and not the figure's unit, which a percentage does not use)."""
+    with pytest.raises(PlanError) as info:
+        parse_limit(text)
+    assert f"cannot read limit {text!r}: {says}" in str(info.value)
+
+
+@pytest.mark.parametrize(("table", "says"), [
+    ('regression = 3\n', 'regression must be a table ([regression]) of limits such as pm = "2deg"'),
+    ('[regression]\nbaseline = ""\n', 'regression.baseline must be the path of a results file, e.g. "ldo.baseline.jsonl"'),
+    ('[regression]\nbaseline = 5\n', 'regression.baseline must be the path of a results file'),
+    ('[regression]\npm = true\n', 'regression.pm must be an amount such as "2deg" or "10%", got True'),
+])
+def test_a_bad_regression_table_says_where_and_what_it_expected(tmp_path, table, says):
+    """A [regression] table that is no table, an empty or non-text baseline, and a limit that is no amount are each a
+    PlanError at the plan's file:line (the line of regression) saying what was expected."""
+    path = tmp_path / "p.toml"
+    with pytest.raises(PlanError) as info:
+        parse_plan(f'netlist = "x.cir"\n{table}', str(path))
+    assert str(info.value).startswith(f"{path}:2: {says}")

@@ -52,4 +52,5 @@ def test_a_file_that_is_not_a_results_file_is_refused_with_its_line(tmp_path, li
     path.write_text("".join(line + "\n" for line in lines))
     with pytest.raises(ResultsError, match=what) as info:
         read_results(path)
-    assert f"bad.jsonl{where}" in str(info.value)
+    # file:line: message, or file: message where no line is to blame (the empty file)
+    assert str(info.value).startswith(f"{path}{where or ':'} {what}")

@@ -31,3 +31,20 @@ def test_each_run_gives_the_lowest_phase_margin_over_a_corners_break_nodes(tmp_p
     assert rows["ss"].latest_drop_deg == 4.0
     assert rows["ff"].phase_margin_deg == (70.0, None, None) and rows["ff"].outcomes == ("pass", "", "")
     assert rows["tt"].phase_margin_deg == (None, 65.0, 66.0) and rows["tt"].latest_drop_deg == -1.0
+
+
+def test_the_worst_outcome_of_a_corners_break_nodes_counts_whatever_their_order(tmp_path):
+    """A corner's outcome in a run is the worst of its break nodes' (error, then inconclusive, then fail, then pass), not
+    the first one's: pass then fail is fail, inconclusive then error is error, fail then inconclusive is inconclusive.
+    A corner with no measured record has no phase margin (None), whatever the others' outcomes."""
+    run = _file(tmp_path / "1.jsonl",
+                _corner("a", "out", 60.0), _corner("a", "fb", 40.0, "fail"),
+                _corner("b", "out", 0.0, "inconclusive"), _corner("b", "fb", 0.0, "error"),
+                _corner("c", "out", 55.0, "fail"), _corner("c", "fb", 50.0, "inconclusive"),
+                _corner("d", "out", 0.0, "error"))
+    rows = {r.corner: r for r in trend_of((run,)).rows}
+    assert {name: row.outcomes for name, row in rows.items()} == {"a": ("fail",), "b": ("error",), "c": ("inconclusive",),
+                                                                   "d": ("error",)}
+    # an inconclusive record's figures are not used (netloop.jobs.runs.figures.measured): c's worst is its fail at out
+    assert rows["a"].phase_margin_deg == (40.0,) and rows["c"].phase_margin_deg == (55.0,)
+    assert rows["b"].phase_margin_deg == (None,) and rows["d"].phase_margin_deg == (None,)
