@@ -52,6 +52,8 @@ PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: 
              tuple(f"tests/jobs/test_{m}.py" for m in ("census", "discover", "compare", "splits", "document_read", "kept_probes"))),
     # results files read back: figures, axes, boundaries and map surfaces, regression limits, baselines, trends
     "runs": ("netloop/jobs/runs/*", ("tests/jobs/runs",)),
+    # the commands: which exit status a verdict gives (0 only for a measurement that checked itself), the messages of bad input
+    "cli": ("netloop/cli/*", ("tests/cli",)),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
 # builds its sky130 bench with benchmarks/_sky130_regulator.py; a report test reads the caution in README.md and docs/)
