@@ -183,12 +183,30 @@ class NgspiceSession:
         info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))
         return None if info == self._ffi.NULL else self._copy(info)
 
+    def rows(self, plot: str, names: Sequence[str], length: int) -> np.ndarray | None:
+        """Vectors ``names`` of ``plot``, each ``length`` long, as the rows of one complex128 array (a real vector's
+        imaginary parts 0, as numpy converts it), or None when one of them is missing; ValueError when one has another
+        length. One array a sweep, not one a vector: fewer to merge and to pickle (netloop.sim.session_job)."""
+        out = np.empty((len(names), length), dtype=np.complex128)
+        for row, name in zip(out, names, strict=True):
+            info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))  # ngspice's one static record: read at once
+            if info == self._ffi.NULL:
+                return None
+            if info.v_length != length:
+                raise ValueError(f"ngspice's vector {name!r} has {info.v_length} points, not {length}")
+            row[:] = self._view(info)
+        return out
+
     def _copy(self, info) -> np.ndarray:
+        return self._view(info).copy()
+
+    def _view(self, info) -> np.ndarray:
+        """The data of a vector in ngspice's own memory (valid until the plot is destroyed)."""
         ffi, length = self._ffi, info.v_length
         if info.v_compdata != ffi.NULL:  # ngspice's complex (real, imaginary) doubles: numpy's complex128 layout
-            return np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.complex128).copy()
+            return np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.complex128)
         if info.v_realdata != ffi.NULL:
-            return np.frombuffer(ffi.buffer(info.v_realdata, length * 8), dtype=np.float64).copy()
+            return np.frombuffer(ffi.buffer(info.v_realdata, length * 8), dtype=np.float64)
         return np.zeros(0)
 
     def node_voltages(self, plot: str) -> dict[str, float]:
