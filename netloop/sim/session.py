@@ -56,8 +56,8 @@ def _runs_joined(pieces: Sequence[str]) -> list[tuple[str, bool]]:
     _BLOCK_MIN_CHARS) as they are, kept; each run of small ones between them joined with newlines into one, never kept
     (a sample's own lines differ from the last). The same non-blank lines in the same order: a piece holds whole lines,
     and a join can only add or merge blank lines, which _lines_block drops. A sky130 sample's deck comes in 24 pieces,
-    23 of them a few lines each: a buffer each cost about 0.17 ms a load (load timed in the ngspice process while 74 samples'
-    recorded jobs ran)."""
+    23 of them a few lines each: a buffer for each of those cost 0.17 ms more a load (load timed in the ngspice process
+    while 74 samples' recorded jobs ran)."""
     out: list[tuple[str, bool]] = []
     small: list[str] = []
     for piece in pieces:
