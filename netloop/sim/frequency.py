@@ -9,7 +9,7 @@ import numpy as np
 
 from netloop.sim.job import AcSweep
 
-__all__ = ["merge_sweeps", "sweep_frequencies"]
+__all__ = ["merge_rows", "merge_sweeps", "sweep_frequencies"]
 
 _RELTOL = 1e-3  # ngspice's default RELTOL, which its ac loop uses as the end tolerance (acan.c)
 
@@ -64,9 +64,26 @@ def merge_sweeps(
     freq = np.concatenate([np.asarray(f, dtype=float) for f, _ in parts])
     names = list(parts[0][1])
     vectors = {n: np.concatenate([np.asarray(v[n]) for _, v in parts]) for n in names}
+    kept = _kept_order(freq, rtol)
+    return freq[kept], {n: v[kept] for n, v in vectors.items()}
+
+
+def merge_rows(parts: Sequence[tuple[np.ndarray, np.ndarray]], rtol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+    """merge_sweeps for sweeps whose vectors are the rows of one array each (the same rows in every sweep): one
+    concatenation and one selection for all of them."""
+    if not parts:
+        return np.zeros(0), np.zeros((0, 0), dtype=np.complex128)
+    freq = np.concatenate([np.asarray(f, dtype=float) for f, _ in parts])
+    kept = _kept_order(freq, rtol)
+    return freq[kept], np.concatenate([rows for _, rows in parts], axis=1).take(kept, axis=1)
+
+
+def _kept_order(freq: np.ndarray, rtol: float) -> np.ndarray:
+    """Where each point of the merged sweep comes from in ``freq``: ascending (a stable sort), the first of points
+    closer than ``rtol`` kept."""
     order = np.argsort(freq, kind="stable")
-    freq = freq[order]
-    keep = np.ones(freq.size, dtype=bool)
-    if freq.size > 1:
-        keep[1:] = np.diff(freq) > rtol * np.abs(freq[1:])
-    return freq[keep], {n: v[order][keep] for n, v in vectors.items()}
+    ordered = freq[order]
+    keep = np.ones(ordered.size, dtype=bool)
+    if ordered.size > 1:
+        keep[1:] = np.diff(ordered) > rtol * np.abs(ordered[1:])
+    return order[keep]

@@ -30,12 +30,12 @@ _BLOCK_MIN_CHARS = 1 << 16  # pieces kept from this size (a library written out:
 _BLOCKS_KEEP = 8  # pieces kept at most (then forgotten all at once)
 
 
-def _lines_block(ffi, piece: str) -> tuple[object, int, np.ndarray]:
+def _lines_block(ffi, piece: str, keep: bool) -> tuple[object, int, np.ndarray]:
     """The non-blank lines of ``piece`` in one C buffer, each ended by a NUL, in UTF-8: (the buffer, its address, where
-    each line starts in it). Kept for large pieces: a sky130 library written out is 1.6 MB in 360 lines, about 2.5 ms to
-    split, encode and copy on every load. ngspice copies the lines it is given (ngSpice_Circ), so a kept buffer is never
-    changed (tests/sim/test_used_models.py checks it)."""
-    kept = _BLOCKS.get(piece) if len(piece) >= _BLOCK_MIN_CHARS else None
+    each line starts in it). Kept when ``keep`` (a large piece): a sky130 library written out is 1.6 MB in 360 lines, about
+    2.5 ms to split, encode and copy on every load. ngspice copies the lines it is given (ngSpice_Circ), so a kept buffer
+    is never changed (tests/sim/test_used_models.py checks it)."""
+    kept = _BLOCKS.get(piece) if keep else None
     if kept is not None:
         return kept
     lines = [line for line in piece.splitlines() if line.strip()]
@@ -44,11 +44,33 @@ def _lines_block(ffi, piece: str) -> tuple[object, int, np.ndarray]:
     starts = np.concatenate(([0], np.flatnonzero(raw[:-1] == 0) + 1)).astype(np.int64) if lines else np.zeros(0, dtype=np.int64)
     buffer = ffi.new("char[]", text)
     block = (buffer, int(ffi.cast("uintptr_t", buffer)), starts)
-    if len(piece) >= _BLOCK_MIN_CHARS:
+    if keep:
         if len(_BLOCKS) >= _BLOCKS_KEEP:
             _BLOCKS.clear()
         _BLOCKS[piece] = block
     return block
+
+
+def _runs_joined(pieces: Sequence[str]) -> list[tuple[str, bool]]:
+    """The pieces of a deck, each with whether its lines block is kept (_lines_block): the large ones (from
+    _BLOCK_MIN_CHARS) as they are, kept; each run of small ones between them joined with newlines into one, never kept
+    (a sample's own lines differ from the last). The same non-blank lines in the same order: a piece holds whole lines,
+    and a join can only add or merge blank lines, which _lines_block drops. A sky130 sample's deck comes in 24 pieces,
+    23 of them a few lines each: a buffer for each of those cost 0.17 ms more a load (load timed in the ngspice process
+    while 74 samples' recorded jobs ran)."""
+    out: list[tuple[str, bool]] = []
+    small: list[str] = []
+    for piece in pieces:
+        if len(piece) < _BLOCK_MIN_CHARS:
+            small.append(piece)
+            continue
+        if small:
+            out.append(("\n".join(small), False))
+            small = []
+        out.append((piece, True))
+    if small:
+        out.append(("\n".join(small), False))
+    return out
 
 
 _FORGET_EVERY = 1000  # commands between two releases of ngspice's memory of past commands (NgspiceSession.command)
@@ -132,7 +154,8 @@ class NgspiceSession:
         ffi = self._ffi
         # A buffer of NUL-terminated lines a piece and an array of pointers into them: a char[] for each of 100k lines
         # cost about 70 ms, all of it before ngspice can start reading.
-        blocks = [_lines_block(ffi, piece) for piece in ((deck,) if isinstance(deck, str) else deck)]
+        pieces = [(deck, len(deck) >= _BLOCK_MIN_CHARS)] if isinstance(deck, str) else _runs_joined(deck)
+        blocks = [_lines_block(ffi, piece, keep) for piece, keep in pieces]
         starts = np.concatenate([np.zeros(0, dtype=np.int64), *(where + address for _, address, where in blocks)])
         addresses = starts.astype(np.dtype(f"u{ffi.sizeof('char *')}"))
         table = ffi.new("char *[]", starts.size + 1)  # zeroed: the last entry is the NULL ngspice stops at
@@ -161,12 +184,30 @@ class NgspiceSession:
         info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))
         return None if info == self._ffi.NULL else self._copy(info)
 
+    def rows(self, plot: str, names: Sequence[str], length: int) -> np.ndarray | None:
+        """Vectors ``names`` of ``plot``, each ``length`` long, as the rows of one complex128 array (a real vector's
+        imaginary parts 0, as numpy converts it), or None when one of them is missing; ValueError when one has another
+        length. One array a sweep, not one a vector: fewer to merge and to pickle (netloop.sim.session_job)."""
+        out = np.empty((len(names), length), dtype=np.complex128)
+        for row, name in zip(out, names, strict=True):
+            info = self._lib.ngGet_Vec_Info(f"{plot}.{name}".encode("utf-8"))  # ngspice's one static record: read at once
+            if info == self._ffi.NULL:
+                return None
+            if info.v_length != length:
+                raise ValueError(f"ngspice's vector {name!r} has {info.v_length} points, not {length}")
+            row[:] = self._view(info)
+        return out
+
     def _copy(self, info) -> np.ndarray:
+        return self._view(info).copy()
+
+    def _view(self, info) -> np.ndarray:
+        """The data of a vector in ngspice's own memory (valid until the plot is destroyed)."""
         ffi, length = self._ffi, info.v_length
         if info.v_compdata != ffi.NULL:  # ngspice's complex (real, imaginary) doubles: numpy's complex128 layout
-            return np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.complex128).copy()
+            return np.frombuffer(ffi.buffer(info.v_compdata, length * 16), dtype=np.complex128)
         if info.v_realdata != ffi.NULL:
-            return np.frombuffer(ffi.buffer(info.v_realdata, length * 8), dtype=np.float64).copy()
+            return np.frombuffer(ffi.buffer(info.v_realdata, length * 8), dtype=np.float64)
         return np.zeros(0)
 
     def node_voltages(self, plot: str) -> dict[str, float]:

@@ -20,7 +20,7 @@ import numpy as np
 
 from netloop.sim.convergence import aid_ladder, describe_aid, option_words
 from netloop.sim.deck import Step, alter_vector, control_steps, excited_sources, render_deck, save_key
-from netloop.sim.frequency import merge_sweeps
+from netloop.sim.frequency import merge_rows
 from netloop.sim.in_place import change_commands, explained, values_of
 from netloop.sim.job import SimJob
 from netloop.sim.frequency import sweep_frequencies
@@ -37,7 +37,7 @@ class JobPayload:
     """What a finished job sends back: plain data only (it crosses a process boundary)."""
 
     operating_point: dict[str, float]
-    runs: list[tuple[str, np.ndarray, dict[str, np.ndarray]]]
+    runs: list[tuple[str, np.ndarray, np.ndarray]]  # (name, frequencies, the vectors of SimJob.save as rows, in its order)
     log: str
     aid: str | None  # our aid (option words) in the deck, if one was needed
     found_by: str | None  # what SimResult.convergence_aid says
@@ -288,7 +288,7 @@ def _run(session: NgspiceSession, job: SimJob, key: tuple, loaded: _Loaded | Non
         if not loaded.op_done:
             loaded.found_by = describe_aid(aid, recovery(ac_lines))
             loaded.op_done = True
-        runs = [(run.name, *merge_sweeps(parts[r])) for r, run in enumerate(job.runs)]
+        runs = [(run.name, *merge_rows(parts[r])) for r, run in enumerate(job.runs)]
         found_by = loaded.found_by or later  # a later sweep ngspice finished only after recovering says so too
         payload = JobPayload(dict(loaded.voltages), runs, "\n".join(log), aid, found_by, parameters, loaded=fresh)
         return payload, loaded
@@ -379,14 +379,12 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
             raise failure("analysis", f"'{step.command}' stopped after {freq.size} point(s): " + summary(lines))
         if errors and lines is not first_ac:
             recovered.append(recovery(lines))  # finished regardless: what ngspice recovered from
-        vectors = {}
-        for key in saves:
-            data = session.vector(plot, key)
-            if data is None:
-                known = ", ".join(sorted(session.vector_names(plot)))
-                raise failure("analysis", f"ngspice has no vector {key!r} (this run has: {known})")
-            vectors[key] = np.asarray(data, dtype=np.complex128)
-        parts[step.run_index].append((np.real(freq).astype(float), vectors))
+        rows = session.rows(plot, saves, freq.size)
+        if rows is None:
+            key = next(key for key in saves if session.vector(plot, key) is None)
+            known = ", ".join(sorted(session.vector_names(plot)))
+            raise failure("analysis", f"ngspice has no vector {key!r} (this run has: {known})")
+        parts[step.run_index].append((np.real(freq).astype(float), rows))
         session.command("destroy all")
     return parts, first_ac or [], parameters, next((r for r in recovered if r), None)
 

@@ -11,6 +11,7 @@ from pathlib import Path
 
 from netloop.errors import SimulationError, SimulatorUnavailableError
 from netloop.sim.backend import NgspiceBackend
+from netloop.sim.deck import save_key
 from netloop.sim.job import AcRun, RunResult, SimJob, SimResult
 from netloop.sim.keep import job_error, keep_deck, runnable_deck
 from netloop.sim.library import find_libngspice
@@ -202,7 +203,8 @@ class SharedLibrarySimulator(NgspiceBackend):
             raise job_error(job, kind, message, output, runnable_deck(job, aid), self.keep_dir, tried)
         payload = reply[1]
         deck_path = keep_deck(runnable_deck(job, payload.aid), job.label, self.keep_dir) if self.keep_dir is not None else None
-        runs = tuple(RunResult(name=name, freq_hz=freq, vectors=vectors) for name, freq, vectors in payload.runs)
+        saves = tuple(save_key(s) for s in job.save)
+        runs = tuple(RunResult(name=name, freq_hz=freq, vectors=dict(zip(saves, rows))) for name, freq, rows in payload.runs)
         return SimResult(
             runs=runs,
             operating_point=payload.operating_point,

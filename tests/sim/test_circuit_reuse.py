@@ -55,9 +55,9 @@ def test_second_round_skips_load_and_op_and_is_exact(recording):
     second = runner.run(_job(RC, (AcSweep("lin", 7, 1e5, 2e5),)))
     assert "load" not in recording.calls and "op" not in recording.calls
     assert second.operating_point == first.operating_point
-    name, freq, vectors = second.runs[0]
+    name, freq, (v_out,) = second.runs[0]  # the job's saves, one row each
     np.testing.assert_allclose(freq, np.linspace(1e5, 2e5, 7), rtol=1e-12)  # ngspice's lin sweep: 7 evenly spaced points
-    np.testing.assert_allclose(vectors["v(out)"], _expected(freq, 1e3), rtol=1e-9)
+    np.testing.assert_allclose(v_out, _expected(freq, 1e3), rtol=1e-9)
     recording.calls.clear()
     other = runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),)))
     assert recording.calls.count("load") == 1
@@ -65,7 +65,7 @@ def test_second_round_skips_load_and_op_and_is_exact(recording):
     runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),), circuit_id="m2"))  # another measurement: loaded afresh
     runner.run(_job(RC2, (AcSweep("lin", 3, 1e5, 2e5),), circuit_id=""))  # no id: always loaded afresh
     assert recording.calls.count("load") == 2
-    np.testing.assert_allclose(other.runs[0][2]["v(out)"], _expected(other.runs[0][1], 2e3), rtol=1e-9)
+    np.testing.assert_allclose(other.runs[0][2][0], _expected(other.runs[0][1], 2e3), rtol=1e-9)
     runner.forget()
 
 
@@ -79,8 +79,8 @@ def test_without_op_voltages_the_first_ac_is_the_only_operating_point(recording)
     assert "op" not in recording.calls and recording.calls.count("ac") == 2
     assert payload.log.count("Doing analysis") == 2  # ngspice prints this once per analysis it starts
     assert payload.operating_point == {}
-    name, freq, vectors = payload.runs[0]
-    np.testing.assert_allclose(vectors["v(out)"], _expected(freq, 1e3), rtol=1e-9)
+    name, freq, (v_out,) = payload.runs[0]
+    np.testing.assert_allclose(v_out, _expected(freq, 1e3), rtol=1e-9)
     runner.forget()
 
 
@@ -96,3 +96,16 @@ def test_without_op_voltages_a_failed_operating_point_tries_every_aid(recording)
         runner.run(job)
     assert caught.value.kind == "op" and caught.value.tried == (None, "itl1=500")
     assert "AC operating point failed" in caught.value.output  # ngspice 39's own words
+
+
+@pytest.mark.ngspice
+def test_each_saved_vector_comes_back_as_its_own(recording):
+    """Several saves come back each with its own values, in the job's order (ngspice describes one vector at a time in
+    one record of its own, which the next look-up overwrites): v(in) is the source's 1 V, v(out) the closed form."""
+    runner = JobRunner(recording)
+    job = SimJob(RC, runs=(AcRun("a", {"v1": 1.0}, (AcSweep("dec", 5, 1e3, 1e6),)),), save=("v(out)", "V(in)", "i(v1)"), excitable=("v1",))
+    name, freq, (v_out, v_in, i_v1) = runner.run(job).runs[0]
+    np.testing.assert_allclose(v_out, _expected(freq, 1e3), rtol=1e-9)
+    np.testing.assert_array_equal(v_in, np.ones(freq.size))
+    np.testing.assert_allclose(i_v1, -(1 - _expected(freq, 1e3)) / 1e3, rtol=1e-9)  # into v1's + terminal: -(v(in)-v(out))/r1
+    runner.forget()
