@@ -127,9 +127,10 @@ def nyquist_path(path: str) -> str:
     return f"{stem}-nyquist.{ext}" if dot else f"{path}-nyquist"
 
 
-def refuse_bad_outputs(args: argparse.Namespace) -> None:
-    """OutputError before any simulation for a --csv, --plot, --report or --keep-decks path that cannot be written."""
-    outputs = [(option, what) for option, what in (("csv", "CSV samples"), ("plot", "Bode plot"), ("report", "HTML report"))
+def refuse_bad_outputs(args: argparse.Namespace, plot: str = "Bode plot") -> None:
+    """OutputError before any simulation for a --csv, --plot, --report or --keep-decks path that cannot be written;
+    ``plot`` names what the command's --plot writes (sensitivity's is its ranking chart, not a Bode plot)."""
+    outputs = [(option, what) for option, what in (("csv", "CSV samples"), ("plot", plot), ("report", "HTML report"))
                if getattr(args, option, None)]
     if outputs:  # the report stage loads only when a file is asked for (else while ngspice runs: check's load_also)
         from netloop.report.figure import file_format

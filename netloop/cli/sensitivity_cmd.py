@@ -86,7 +86,7 @@ def run(args: argparse.Namespace) -> int:
     from netloop.jobs.sensitivity import sensitivities
 
     requirements = parse_requirements(args.require)  # bad expressions fail before any simulation
-    refuse_bad_outputs(args)
+    refuse_bad_outputs(args, plot="sensitivity chart")  # the words netloop.report.sensitivity_plot uses when writing it
     if args.open_loop_rhp_poles is not None and args.open_loop_rhp_poles < 0:
         raise NetloopError(f"--open-loop-rhp-poles must be 0 or more, got {args.open_loop_rhp_poles}")
     if args.solve and not requirements:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 
 import pytest
 
@@ -18,6 +19,24 @@ Rb b 0 1k
 Rc c 0 1k
 .end
 """
+
+
+# Three stages in a ring, each gm R = 2 with 1k || 1n to ground (as tests/jobs/test_census.py); in RING_SENSED the
+# second stage's output reaches its load through a 0 V source (a current sense), so c and cs are one loop node.
+RING = """three-stage ring (invented)
+G1 0 b a 0 2m
+Rb b 0 1k
+Cb b 0 1n
+G2 0 c b 0 2m
+Rc c 0 1k
+Cc c 0 1n
+G3 a 0 c 0 2m
+Ra a 0 1k
+Ca a 0 1n
+.end
+"""
+RING_SENSED = RING.replace("three-stage ring", "three-stage ring with a 0 V current sense").replace(
+    "Rc c 0 1k\nCc c 0 1n\nG3 a 0 c 0 2m", "Vsense c cs 0\nRc cs 0 1k\nCc cs 0 1n\nG3 a 0 cs 0 2m")
 
 
 def _nested(tmp_path):
@@ -133,3 +152,59 @@ def test_an_open_loop_copy_is_measured_on_its_own_and_is_not_an_error(circuits, 
     main(["check", str(circuits / "benches" / "tb_open_copy.cir")])
     text = capsys.readouterr().out
     assert text.startswith(f"{doc['verdict'].upper()}  loop 1 (out): pass, loop 2 (xol.out): {second['verdict']}\n")
+
+
+def test_loops_text_counts_the_nodes_joined_by_a_0v_source(tmp_path, capsys):
+    """The text's count line says how many nodes 0 V sources joined into how many loop nodes (docs/census.md, section 1)."""
+    # Reference: by construction: Vsense (0 V) joins c and cs, the ring's only loop passes both: 2 nodes, 1 loop node.
+    path = tmp_path / "sensed.cir"
+    path.write_text(RING_SENSED)
+    assert main(["loops", str(path), "--no-sweep"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[1] == "counted as a designer reads the circuit: 1 loop in all; 2 nodes joined by 0 V sources into 1 loop node"
+    assert main(["loops", str(path), "--no-sweep", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["groups"][0]["merged"] == [["c", "cs"]]
+
+
+@pytest.mark.ngspice
+def test_loops_json_gives_each_swept_break_its_coarse_figures(tmp_path, capsys):
+    """--json lists, for every break the coarse sweep measured, the figures README names (dc_db, peak_db, unity_hz,
+    top_db, ...) as the closed form of the ring gives them, and an empty "error"."""
+    # Reference: closed form: T = 8 / (1 + s tau)^3 at every node, tau = 1k * 1n, fp = 1 / (2 pi tau) = 159 kHz:
+    # |T| is largest at the bottom of the coarse sweep (10 mHz, docs/census.md section 3), 20 log10 8 = 18.06 dB there,
+    # 1 at fp sqrt(3) = 276 kHz (within the coarse interpolation, as tests/jobs/test_census.py), and at 1 THz
+    # 20 log10 8 - 30 log10(1 + (1e12 / fp)^2) = -389.8 dB.
+    path = tmp_path / "ring.cir"
+    path.write_text(RING)
+    assert main(["loops", str(path), "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    (group,) = doc["groups"]
+    fp = 1 / (2 * math.pi * 1e3 * 1e-9)
+    dc_db = 20 * math.log10(8)
+    assert doc["swept"] is True and sorted(c["node"] for c in group["coarse"]) == ["a", "b", "c"]
+    for c in group["coarse"]:
+        assert c["dc_db"] == pytest.approx(dc_db, abs=1e-3) and c["peak_db"] == pytest.approx(dc_db, abs=1e-3)
+        assert c["peak_hz"] == pytest.approx(0.01)
+        assert c["unity_hz"] == pytest.approx(fp * math.sqrt(3), rel=0.15)
+        assert c["top_db"] == pytest.approx(dc_db - 30 * math.log10(1 + (1e12 / fp) ** 2), abs=0.01)
+        assert c["negligible"] is False and c["falls"] is True and c["error"] == ""
+    assert group["can_ring"] is True and group["chosen"] in ("a", "b", "c")
+
+
+def test_loops_json_says_why_a_break_was_not_swept():
+    """A candidate the coarse sweep could not measure keeps its reason under "error" in the document, and no figure."""
+    # Reference: by construction: the coarse figures are given (as tests/jobs/test_census.py gives them).
+    from netloop.cli.loops_cmd import census_document
+    from netloop.graph import find_loops, flatten
+    from netloop.jobs.census import Census, CoarseBreak, choose
+    from netloop.netlist import parse_text
+
+    found = find_loops(flatten(parse_text(RING)))
+    (group,) = found.groups
+    a, b = (c.break_name for c in group.candidates[:2])
+    coarse = (CoarseBreak(a, error="the simulator stopped"), CoarseBreak(b, 18.0, 18.0, 0.01, 2.7e5, -390.0))
+    doc = census_document(Census("ring.cir", found, (choose(group, coarse),), True))
+    first, second = doc["groups"][0]["coarse"]
+    assert first == {"node": a, "dc_db": None, "peak_db": None, "peak_hz": None, "unity_hz": None, "top_db": None,
+                     "negligible": False, "falls": False, "error": "the simulator stopped"}
+    assert second["peak_db"] == 18.0 and second["error"] == ""
