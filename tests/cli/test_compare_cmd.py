@@ -30,6 +30,11 @@ def test_json_has_locations_in_check_shape_differences_and_poles_agree(loop, cap
     assert all(set(x) == set(single) for x in doc["locations"])
     (d,) = doc["differences"]
     assert d["kind"] == "same" and d["locations"] == ["out", "b1"]
+    # the keys netloop/cli/compare_cmd.py's docstring gives for the schema netloop.locations/1
+    assert set(d) == {"locations", "method", "kind", "max_relative_difference", "explanation", "loops"}
+    assert d["explanation"].startswith("both open the same loops")
+    (c,) = doc["pole_checks"]
+    assert set(c) == {"locations", "method", "pole_a_rad_s", "pole_b_rad_s", "agree", "explanation"}
     assert doc["poles_agree"] is True and doc["passed"] is True
     # the same loop measured alone by check: its phase margin equals compare's to 1e-6 deg (reference: check, i.e. measure())
     assert doc["locations"][0]["margins"]["phase_margin_deg"] == pytest.approx(single["margins"]["phase_margin_deg"], abs=1e-6)
@@ -68,6 +73,9 @@ def test_bad_input_exits_2(loop, capsys):
     assert "at least two" in capsys.readouterr().err
     assert main(["compare", loop, "--at", "out", "--at", "n0=nothing"]) == 2
     assert "nothing" in capsys.readouterr().err
+    for spec in ("n0=", "=e0"):  # '=' with nothing on one side: the syntax named, before the netlist is read
+        assert main(["compare", loop, "--at", "out", "--at", spec]) == 2
+        assert capsys.readouterr().err == f"netloop: error: --at {spec!r}: expected NODE or NODE=ELEMENT[.PIN][,...]\n"
     with pytest.raises(SystemExit) as usage:  # drivers are given per location (--at NODE=ELEMENT), not with --driver
         main(["compare", loop, "--at", "out", "--at", "n0", "--driver", "e0"])
     assert usage.value.code == 2
@@ -87,3 +95,31 @@ def test_compare_writes_each_locations_samples_and_one_report(loop, capsys, tmp_
     assert (tmp_path / "t-out.csv").read_text().splitlines()[0] == head  # reference: check --csv, the same columns
     text = page.read_text(encoding="utf-8")
     assert text.count('<section id="loop-') == 2
+
+
+@pytest.mark.ngspice
+def test_at_node_equals_element_names_that_locations_driver(loop, capsys):
+    """--at n0=e0, in the form the usage line gives (NODE[=ELEMENT[.PIN],...]), breaks n0 with e0's output as its driver
+    side, as given; the other location's driver is decided from the circuit."""
+    with pytest.raises(SystemExit):
+        main(["compare", "--help"])
+    assert "--at NODE[=ELEMENT[.PIN],...]" in capsys.readouterr().out
+    assert main(["compare", loop, "--at", "out", "--at", "n0=e0", "--json", *SWEEP]) == 0
+    out_break, n0_break = (x["break"] for x in json.loads(capsys.readouterr().out)["locations"])
+    assert n0_break["node"] == "n0" and n0_break["driver_terminals"] == ["e0.p"]  # e0 n0 0 ...: its output pin on n0
+    assert n0_break["decided_by"].startswith("driver side given by --at NODE=e0")
+    assert out_break["node"] == "out" and not out_break["decided_by"].startswith("driver side given")
+
+
+@pytest.mark.ngspice
+def test_text_lists_each_locations_warnings_under_its_name(tmp_path, capsys):
+    """The text form: the verdicts line, a blank line, the table; and at the end each location's warnings, named by
+    location: here the one of an ignored .control block that alters a source (each measurement warns of it)."""
+    path = tmp_path / "altered.cir"
+    path.write_text(LOOP.replace(".end\n", ".control\nalter vref dc=0.6\nrun\n.endc\n.end\n"))
+    assert main(["compare", str(path), "--at", "out", "--at", "b1", *SWEEP]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0] == "PASS  out: pass, b1: pass" and lines[1] == "" and lines[2].split() == ["out", "b1"]
+    said = lines[lines.index("warnings") + 1:]
+    assert [w.split(":")[0] for w in said] == ["  out", "  b1"]
+    assert all("'alter vref dc=0.6' in the .control block changes source vref" in w for w in said)

@@ -52,15 +52,19 @@ def _value(text: str) -> float:
 def test_revision_b_regresses_at_exactly_the_corner_the_closed_form_says(tmp_path, scheduler, capsys):
     """Revision A passes every corner; revision B passes every requirement too but loses more than 2 deg of phase
     margin at exactly the corners python-control says it does (iload=100m/esr=1), so the run fails with exit status 1;
-    ngspice's margins match the closed form within 0.05 deg; the JUnit XML, report, maps and trend carry it."""
+    ngspice's margins match the closed form within 0.05 deg; the JUnit XML, report, maps (counted on stderr) and trend
+    carry it."""
     a, b = tmp_path / "a.jsonl", tmp_path / "b.jsonl"
     assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a)]) == 0
     capsys.readouterr()
     junit, report, maps = tmp_path / "b.xml", tmp_path / "b.html", tmp_path / "maps"
     rc = main(["corners", str(PLANS / "ldo_rev_b.toml"), "--cluster", scheduler, "--out", str(b), "--baseline", str(a), "--json",
                "--junit", str(junit), "--report", str(report), "--maps", str(maps)])
-    doc = json.loads(capsys.readouterr().out)
+    printed = capsys.readouterr()
+    doc = json.loads(printed.out)
     assert rc == 1 and doc["verdict"] == "fail" and doc["counts"]["pass"] == 12  # every requirement met, still a failure
+    # the maps line of the README's "The stable window of a regulator", on stderr with --json (stdout holds the document)
+    assert f"maps: 6 file(s) in {maps}" in printed.err.splitlines()
     for run, pole in ((read_results(a), None), (read_results(b), FB_POLE_HZ)):
         for r in run.records:
             iload, esr = _value(r["settings"]["param.iload"]), _value(r["settings"]["param.esr"])

@@ -63,6 +63,17 @@ def test_text_output_lists_sections(tmp_path, capsys):
     assert f"{path}:6: .tran" in out
 
 
+def test_text_counts_instances_under_their_heading(tmp_path, capsys):
+    """The text form gives each subcircuit's instance count, after flattening, under the heading "subcircuit instances"."""
+    path = _write(tmp_path, DECK)
+    assert main(["inspect", str(path)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    at = lines.index("subcircuit instances")
+    # by hand: Xp and Xq are two pairs, each of two cells
+    assert [line.split() for line in lines[at + 1:at + 3]] == [["cell", "4"], ["pair", "2"]]
+    assert lines[at - 1] == "by kind   C 4, M 1, R 5, V 1" and lines[at + 3] == "files read (1)"
+
+
 def test_syntax_error_is_one_clear_message_exit_2(tmp_path, capsys):
     """A malformed card exits 2 with 'netloop: error: file:line:col: ...' and no traceback."""
     path = _write(tmp_path, "t\nR1 a 0 1\nR2 a\n")
