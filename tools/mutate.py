@@ -54,6 +54,8 @@ PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: 
     "runs": ("netloop/jobs/runs/*", ("tests/jobs/runs",)),
     # the commands: which exit status a verdict gives (0 only for a measurement that checked itself), the messages of bad input
     "cli": ("netloop/cli/*", ("tests/cli",)),
+    # which values set the margins: the knobs, the slopes, the what-if solve
+    "sensitivity": ("netloop/jobs/sensitivity/*", ("tests/jobs/sensitivity",)),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
 # builds its sky130 bench with benchmarks/_sky130_regulator.py; a report test reads the caution in README.md and docs/)
