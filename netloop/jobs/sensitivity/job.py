@@ -231,7 +231,7 @@ def _what_if(remeasure: Remeasure, sim: Simulator, loop: _Loop, nominal: LoopRes
     knob, value = sensitivity.knob, sensitivity.value
     if value is None or sensitivity.problem:
         why = sensitivity.problem or "its value could not be read"
-        return WhatIf(knob, requirement.text, math.nan if value is None else value, None, None, span, False, True, (), None, None,
+        return WhatIf(knob, requirement.text, value, None, None, span, False, True, (), None, None,
                       f"no what-if for {knob.name}: {why}")
     _log.info("solving %s for %s", knob.name, requirement.text)
     solution = solve_knob(remeasure, sim, knob, requirement, nominal.analysis, sensitivity.slope(figure_of(requirement)), span)

@@ -101,7 +101,8 @@ class WhatIf:
     """The value of one knob that meets one requirement, everything else held.
 
     requirement      the requirement's text ("pm>=60").
-    value            the knob's value as measured (as loaded); solved_value the one found (None: none in range).
+    value            the knob's value as measured (as loaded; None when it could not be read, as in its
+                     Sensitivity); solved_value the one found (None: none in range).
     factor           solved_value / value.
     span             the factors searched, (low, high).
     met_at_value     whether the measured loop already meets the requirement (the solve then finds
@@ -116,7 +117,7 @@ class WhatIf:
 
     knob: Knob
     requirement: str
-    value: float
+    value: float | None
     solved_value: float | None
     factor: float | None
     span: tuple[float, float]

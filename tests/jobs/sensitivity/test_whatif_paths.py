@@ -1,0 +1,120 @@
+"""The what-if's paths that need no simulator: no value to solve from, a bracket with an infinite end, the sentence of
+an unreachable requirement, and the range checked before anything is simulated."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from netloop.analysis import parse_requirements
+from netloop.errors import NetloopError
+from netloop.jobs.document import json_document
+from netloop.jobs.sensitivity import find_knobs, sensitivities
+from netloop.jobs.sensitivity.document import _what_if as what_if_document
+from netloop.jobs.sensitivity.job import _what_if
+from netloop.jobs.sensitivity.records import Sensitivity, Slope
+from netloop.jobs.sensitivity.whatif import STEPS_PER_DECADE, XTOL_LN, _solve_between, _unreachable
+from netloop.netlist import parse_text
+
+NETLIST = """rc
+vin in 0 dc 0 ac 1
+r1 in out 1k
+c2 out 0 2p
+.end
+"""
+NONE = Slope(None, None)
+STEP_LN = math.log(10.0) / STEPS_PER_DECADE  # one step of the march: a sixth of a decade
+
+
+@pytest.fixture(scope="module")
+def c2():
+    return next(k for k in find_knobs(parse_text(NETLIST)) if k.name == "c2")
+
+
+def _requirement(text: str):
+    return parse_requirements([text])[0]
+
+
+@pytest.mark.parametrize(("value", "problem", "why"), [
+    (None, "the simulation failed: boom", "the simulation failed: boom"),
+    (None, None, "its value could not be read"),
+    (0.0, "its value is 0: a relative change is no change", "its value is 0: a relative change is no change"),
+])
+def test_a_knob_without_slopes_gets_no_what_if_and_says_why(c2, value, problem, why):
+    """Nothing is simulated (no remeasure, simulator or loop is given): the what-if has no value and its answer says why."""
+    sensitivity = Sensitivity(c2, value, NONE, NONE, NONE, NONE, (), problem)
+    w = _what_if(None, None, None, None, _requirement("pm>=60"), sensitivity, (0.1, 10.0))
+    assert w.answer == f"no what-if for c2: {why}"
+    assert (w.value, w.solved_value, w.factor, w.check, w.edited, w.tried) == (value, None, None, None, None, ())
+    assert w.span == (0.1, 10.0) and not w.confirmed
+
+
+def test_an_unread_value_is_null_in_the_document_and_not_called_infinite(c2):
+    """docs/sensitivity-json.md: a quantity that does not exist is null and its path is not a key of ``infinite``
+    (there only values that exist but are infinite are listed); an unread value is as its Sensitivity's, null."""
+    sensitivity = Sensitivity(c2, None, NONE, NONE, NONE, NONE, (), "the simulation failed: boom")
+    w = _what_if(None, None, None, None, _requirement("pm>=60"), sensitivity, (0.1, 10.0))
+    doc = json_document({"what_ifs": [what_if_document(w)]})
+    assert doc["what_ifs"][0]["value"] is None and doc["what_ifs"][0]["solved_value"] is None
+    assert doc["infinite"] == {}
+    assert doc["what_ifs"][0]["answer"] == "no what-if for c2: the simulation failed: boom"
+
+
+class _NoCrossoverBeyond:
+    """A gain-margin requirement's margin against ln factor: finite and outside (not met) on one side of ``boundary``,
+    infinite (no phase crossover, so met) on the other. brentq cannot take the infinite end; the boundary is ``boundary``."""
+
+    def __init__(self, boundary: float, met_above: bool):
+        self.boundary, self.met_above = boundary, met_above
+
+    def met(self, phi: float) -> bool:
+        return phi >= self.boundary if self.met_above else phi <= self.boundary
+
+    def margin(self, phi: float) -> float:
+        return math.inf if self.met(phi) else -abs(phi - self.boundary)
+
+
+@pytest.mark.parametrize(("before", "after", "boundary", "met_above"), [
+    (0.0, STEP_LN, 0.2, True),  # not met at the value, met one step up: the boundary from below
+    (0.0, -STEP_LN, -0.25, True),  # met at the value, not met one step down
+    (2 * STEP_LN, 3 * STEP_LN, 2.5 * STEP_LN, False),  # met at the step before, not after: a bracket away from the value
+])
+def test_a_bracket_with_an_infinite_end_is_solved_by_bisection_on_the_met_side(before, after, boundary, met_above):
+    """The ln factor found is the boundary to within the solver's tolerance, and the requirement is met there."""
+    figure = _NoCrossoverBeyond(boundary, met_above)
+    phi = _solve_between(figure, before, after)
+    assert figure.met(phi)
+    assert phi == pytest.approx(boundary, abs=4 * XTOL_LN)
+
+
+class _Tried:
+    """The values a march saw, as _Figure.tried() gives them, and no simulation failure."""
+
+    failure = None
+
+    def __init__(self, tried):
+        self._tried = tuple(tried)
+
+    def tried(self):
+        return self._tried
+
+
+@pytest.mark.parametrize(("text", "tried", "best"), [
+    ("dm>=1e-6", [(0.1, 2e-7), (1.0, 1e-7), (10.0, None)], "the best is 2e-07 s at 0.1x"),
+    ("pm>=89", [(0.1, 84.25), (1.0, 60.0)], "the best is 84.25 deg at 0.1x"),
+    ("fc>=1e6", [(1.0, 5e5), (10.0, 7.5e5)], "the best is 7.5e+05 Hz at 10x"),
+    ("peak<=1", [(0.1, 6.0), (1.0, 3.0)], "the best is 3 dB at 1x"),
+    ("mm>=0.9", [(1.0, 0.5)], "the best is 0.5 at 1x"),
+])
+def test_an_unreachable_requirement_names_the_best_figure_in_its_unit(c2, text, tried, best):
+    """The best figure seen (largest for >=, smallest for <=) with its unit, and the factor where it was seen."""
+    answer = _unreachable(_Tried(tried), _requirement(text), c2, (0.1, 10.0), False)
+    assert answer == f"{text} cannot be reached by c2 alone between 0.1x and 10x: {best}"
+
+
+@pytest.mark.parametrize("span", [(1.0, 10.0), (0.1, 1.0), (0.0, 10.0), (0.1, math.inf), (2.0, 10.0)])
+def test_a_range_that_does_not_hold_the_value_is_refused_before_anything_runs(span):
+    """LOW < 1 < HIGH, both finite and LOW > 0: a range that does not surround the measured value is an error (no netlist is read)."""
+    with pytest.raises(NetloopError, match="the range of a what-if must be LOW,HIGH factors"):
+        sensitivities("no-such-netlist.cir", "out", span=span)
