@@ -211,9 +211,14 @@ def test_two_pole_slopes_match_python_control(two_pole):
 
 @pytest.mark.ngspice
 def test_two_pole_what_if_matches_the_closed_form(two_pole):
-    """The C2 netloop solves for pm>=60 equals the closed-form C2 to 1e-4, and the fresh measurement with it meets pm>=60."""
+    """The C2 netloop solves for pm>=60 equals the closed-form C2 to 1e-4, and the fresh measurement with it meets pm>=60.
+
+    The PM it saw on the way falls as C2 grows (w2 = 1/(R2 C2) falls toward the crossover): the what-if says monotonic."""
     w = two_pole.what_ifs[0]
     assert w.solved_value == pytest.approx(two_pole_c2_for_pm(60.0), rel=1e-4)
+    assert w.monotonic is True and w.answer == ""
+    pms = [pm for _factor, pm in w.tried]
+    assert pms == sorted(pms, reverse=True)  # the closed form's direction, in the values netloop tried
     assert w.confirmed and w.check.analysis.margins.phase_margin_deg == pytest.approx(60.0, abs=1e-3)
     assert _python_control(two_pole_tf(w.solved_value))[0] == pytest.approx(60.0, abs=1e-3)  # python-control agrees
 

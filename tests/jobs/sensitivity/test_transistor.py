@@ -90,6 +90,8 @@ def test_inconclusive_measurement_gives_no_sensitivity(circuits_dir, simulator):
     assert run.verdict == "inconclusive"
     assert run.sensitivities == () and run.what_ifs == ()
     assert "self-checks failed" in run.withheld
+    details = [c.detail for c in run.nominal.failed_checks]  # the run's own failed checks, each named in the reason
+    assert details and all(d and d in run.withheld for d in details)
 
 
 @pytest.mark.ngspice
