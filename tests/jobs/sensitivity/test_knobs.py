@@ -118,3 +118,15 @@ def test_sky130_wrapper_sizes_read_from_its_parameter_list():
         sizes = {s.name: s.role for s in wrapper_sizes(netlist.subcircuit(name))}
         assert sizes == {"w": "w", "l": "l", "nf": "nf", "mult": ""}
     assert [k.name for k in find_knobs(netlist) if k.element == "xop.xm6"] == ["xop.xm6:w", "xop.xm6:l"]
+
+
+def test_a_value_written_by_its_key_is_found_among_other_keys():
+    """An R, C or L card may write its value as r=, c= or l= after other key=value tokens (ngspice's resistor card:
+    tc1=... before r=...): the knob's token is the value's own, and an edit scales that token and no other."""
+    netlist = parse_text("keyed values\nr1 a 0 tc1=0.001 r=1k\nl1 a b l=1u\nc1 b 0 temp=30 capacitance=2p\n.end\n")
+    by = {k.name: k for k in find_knobs(netlist)}
+    assert (by["r1"].token, by["l1"].token, by["c1"].token) == (3, 2, 3)  # tokens after the element name: a 0 tc1=0.001 r=1k
+    assert (by["l1"].parameter, by["l1"].unit) == ("inductance", "H")
+    assert changed_netlist(netlist, by["r1"], 2.0, 0.0)[1] == "r1 a 0 tc1=0.001 r=2000.0"
+    assert changed_netlist(netlist, by["l1"], 2.0, 0.0)[1] == "l1 a b l=2e-06"
+    assert changed_netlist(netlist, by["c1"], 0.5, 0.0)[1] == "c1 b 0 temp=30 capacitance=1e-12"
