@@ -221,6 +221,23 @@ def test_two_pole_what_if_matches_the_closed_form(two_pole):
     assert pms == sorted(pms, reverse=True)  # the closed form's direction, in the values netloop tried
     assert w.confirmed and w.check.analysis.margins.phase_margin_deg == pytest.approx(60.0, abs=1e-3)
     assert _python_control(two_pole_tf(w.solved_value))[0] == pytest.approx(60.0, abs=1e-3)  # python-control agrees
+    assert w.edited == f"C2 n2 0 {w.solved_value!r}"  # the card to write: the netlist's C2 card with the solved value
+
+
+@pytest.mark.ngspice
+def test_two_pole_what_if_out_of_reach_names_the_best_the_closed_form_gives(tmp_path, simulator):
+    """pm>=89 is out of reach between 0.1x and 10x C2 (the closed form's PM rises as C2 falls, to below 89 deg at 0.1x):
+    the what-if keeps its knob, solves no value, writes no card, and its answer names the best PM, python-control's PM of
+    the closed form at 0.1x C2, to its two decimals."""
+    path = tmp_path / "two_pole.cir"
+    path.write_text(TWO_POLE)
+    run = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=89"], solve=["c2"], simulator=simulator)
+    (w,) = run.what_ifs
+    best = _python_control(two_pole_tf(0.1 * C2))[0]
+    assert best < 89.0 < _python_control(two_pole_tf(0.01 * C2))[0]  # reachable only below the range searched
+    assert w.knob == run.sensitivities[0].knob and w.knob.element == "c2"
+    assert w.solved_value is None and w.edited is None and w.check is None
+    assert w.answer == f"pm>=89 cannot be reached by c2 alone between 0.1x and 10x: the best is {best:.2f} deg at 0.1x"
 
 
 @pytest.mark.ngspice
