@@ -225,19 +225,22 @@ def test_two_pole_what_if_matches_the_closed_form(two_pole):
 
 
 @pytest.mark.ngspice
-def test_two_pole_what_if_out_of_reach_names_the_best_the_closed_form_gives(tmp_path, simulator):
-    """pm>=89 is out of reach between 0.1x and 10x C2 (the closed form's PM rises as C2 falls, to below 89 deg at 0.1x):
-    the what-if keeps its knob, solves no value, writes no card, and its answer names the best PM, python-control's PM of
-    the closed form at 0.1x C2, to its two decimals."""
+def test_two_pole_what_ifs_name_the_card_to_write_or_the_best_the_closed_form_gives(tmp_path, simulator):
+    """Solved in one run (not through the module's fixture, so that mutmut maps this test to the what-if): pm>=60 gives
+    the card to write, the netlist's C2 card with the solved value; pm>=89 is out of reach between 0.1x and 10x C2 (the
+    closed form's PM rises as C2 falls, to below 89 deg at 0.1x): that what-if keeps its knob, solves no value, writes no
+    card, and its answer names the best PM, python-control's PM of the closed form at 0.1x C2, to its two decimals."""
     path = tmp_path / "two_pole.cir"
     path.write_text(TWO_POLE)
-    run = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=89"], solve=["c2"], simulator=simulator)
-    (w,) = run.what_ifs
+    run = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=60", "pm>=89"], solve=["c2"], simulator=simulator)
+    solved, out_of_reach = run.what_ifs
+    assert solved.solved_value == pytest.approx(two_pole_c2_for_pm(60.0), rel=1e-4)
+    assert solved.edited == f"C2 n2 0 {solved.solved_value!r}"
     best = _python_control(two_pole_tf(0.1 * C2))[0]
     assert best < 89.0 < _python_control(two_pole_tf(0.01 * C2))[0]  # reachable only below the range searched
-    assert w.knob == run.sensitivities[0].knob and w.knob.element == "c2"
-    assert w.solved_value is None and w.edited is None and w.check is None
-    assert w.answer == f"pm>=89 cannot be reached by c2 alone between 0.1x and 10x: the best is {best:.2f} deg at 0.1x"
+    assert out_of_reach.knob == run.sensitivities[0].knob and out_of_reach.knob.element == "c2"
+    assert out_of_reach.solved_value is None and out_of_reach.edited is None and out_of_reach.check is None
+    assert out_of_reach.answer == f"pm>=89 cannot be reached by c2 alone between 0.1x and 10x: the best is {best:.2f} deg at 0.1x"
 
 
 @pytest.mark.ngspice
