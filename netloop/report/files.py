@@ -23,9 +23,12 @@ def output_file(path: str | Path, what: str) -> Iterator[Path]:
 
 
 def refuse_unwritable(path: str | Path | None, what: str) -> None:
-    """OutputError now (before any long work) when ``path``'s folder is missing or is not a folder; None passes."""
+    """OutputError now (before any long work) when ``path``'s folder is missing or is not a folder, or when ``path`` is
+    itself a folder (a file can never be written there: it would fail only once the work is done); None passes."""
     if path is None:
         return
+    if Path(path).is_dir():
+        raise OutputError(f"cannot write the {what} to {str(path)!r}: Is a directory")
     folder = Path(path).parent
     if not folder.is_dir():
         reason = "Not a directory" if folder.exists() else "No such file or directory"

@@ -114,9 +114,11 @@ CASES = [
                  id="check-plot-into-missing-folder-refused-before-simulating"),
     pytest.param(["check", "{good}", "--at", "out", "--report", "{blocker}/r.html"], "cannot write the HTML report",
                  id="check-report-below-a-file-refused-before-simulating"),
-    # the report's folder exists, so nothing refuses it up front: writing the file fails after the simulation, for root too
-    pytest.param(["check", "{good}", "--at", "out", "--report", "{folder}"], "cannot write the HTML report", id="check-report-onto-a-folder",
-                 marks=pytest.mark.ngspice),
+    # a file can never be written where a folder is: refused up front, not once the simulation is done
+    pytest.param(["check", "{good}", "--at", "out", "--report", "{folder}"], "cannot write the HTML report to",
+                 id="check-report-onto-a-folder-refused-before-simulating"),
+    pytest.param(["yield", "{dir}/samples.toml", "--workers", "1", "--out", "{dir}/r.jsonl", "--plot", "{dir}/h.png", "--csv", "{folder}"],
+                 "cannot write the sample table to", id="yield-csv-onto-a-folder-refused-before-simulating"),
     pytest.param(["check", "{good}", "--at", "out", "--csv", "{dir}/nodir/t.csv"], "cannot write the CSV samples",
                  id="check-csv-into-missing-folder-refused-before-simulating"),
     pytest.param(["check", "{good}", "--at", "out", "--keep-decks", "{blocker}"], "it is a file, not a folder",

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from netloop.cli.main import build_parser, main
@@ -64,3 +66,16 @@ def test_help_gives_the_defaults_of_target_and_confidence(capsys):
     assert ("--target YIELD the yield to show, e.g. 99% or 0.999: decides PASS, FAIL or INCONCLUSIVE (default: the plan's "
             "target; without one, every sample must pass)") in text
     assert "--confidence LEVEL confidence of the bounds and the verdict, e.g. 95% (default: the plan's, else 95%)" in text
+
+
+def test_a_folder_where_the_scatter_plot_goes_is_refused_before_any_sample(tmp_path, capsys):
+    """`--plot h.png` writes the scatter to h-scatter.png beside it (README); a folder of that name can never be written
+    as the file, so the run is refused at once (one line, exit 2), before any sample runs and before the results file is
+    begun, rather than after every sample has been measured."""
+    (tmp_path / "h-scatter.png").mkdir()
+    plan = Path(__file__).resolve().parents[2] / "circuits" / "plans" / "sky130_miller_yield.toml"
+    out = tmp_path / "r.jsonl"
+    assert main(["yield", str(plan), "--out", str(out), "--plot", str(tmp_path / "h.png")]) == 2
+    err = capsys.readouterr().err.strip()
+    assert err == f"netloop: error: cannot write the scatter plot to {str(tmp_path / 'h-scatter.png')!r}: Is a directory"
+    assert not out.exists()
