@@ -86,7 +86,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     add_measure_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of the text summary")
     parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio as CSV")
-    parser.add_argument("--plot", metavar="FILE", help="write Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
+    parser.add_argument("--plot", metavar="FILE", help="write Bode and Nyquist plots (FILE.png, .svg or .pdf; the Nyquist plot gets a -nyquist suffix)")
     parser.add_argument("--report", metavar="FILE", help="write a self-contained HTML report")
     parser.add_argument("--seed", type=seed_number, metavar="N",
                         help="ngspice's random seed: the netlist's agauss/gauss values (a process's mismatch models) are drawn as for "

@@ -34,7 +34,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
     )
     add_measure_options(parser, methods=("tian", "middlebrook", "both"), driver=False)  # drivers go with each --at
     parser.add_argument("--json", action="store_true", help="print one JSON document: locations (each as check --json), differences, poles_agree")
-    parser.add_argument("--plot", metavar="FILE", help="write overlaid Bode and Nyquist plots (FILE.png or FILE.svg; the Nyquist plot gets a -nyquist suffix)")
+    parser.add_argument("--plot", metavar="FILE", help="write overlaid Bode and Nyquist plots (FILE.png, .svg or .pdf; the Nyquist plot gets a -nyquist suffix)")
     parser.add_argument("--csv", metavar="FILE", help="write the sampled return ratio of each location (FILE-LOCATION.csv, as check --csv)")
     parser.add_argument("--report", metavar="FILE", help="write one self-contained HTML report of every location")
     parser.epilog = ("Exit status: 0 every location stable and every requirement met, 1 a location unstable or a requirement failed, "

@@ -75,7 +75,7 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
                         help="Dask worker processes that share the knobs (default: the measurement's own ngspice, "
                              "or the usable CPUs when the knobs would take longer than 20 s on it)")
     parser.add_argument("--json", action="store_true", help="print one JSON document (schema netloop.sensitivity/1) instead of the summary")
-    parser.add_argument("--plot", metavar="FILE", help="write the ranking chart (FILE.png or FILE.svg)")
+    parser.add_argument("--plot", metavar="FILE", help="write the ranking chart (FILE.png, .svg or .pdf)")
     parser.add_argument("--report", metavar="FILE", help="write a self-contained HTML report: the loop, then the ranking and the what-ifs")
 
 

@@ -56,6 +56,17 @@ def test_every_argument_says_what_it_is_in_help(command):
             assert action.help and action.help.strip(), f"netloop {command}: {action.option_strings or action.dest} has no help"
 
 
+@pytest.mark.parametrize("command", sorted(COMMANDS))
+def test_every_plot_option_names_every_format_a_plot_is_written_in(command):
+    """A --plot help names each format netloop.report.figure writes (FORMATS, chosen by the file's extension): the help of
+    check, compare and sensitivity named PNG and SVG only, while .pdf is written too."""
+    from netloop.report.figure import FORMATS  # noqa: PLC0415
+
+    for action in _arguments(command):
+        if "--plot" in action.option_strings:
+            assert all(f".{fmt}" in action.help for fmt in FORMATS), f"netloop {command} --plot: {action.help}"
+
+
 @pytest.mark.parametrize(("command", "readme", "usage"), [
     ("check", "`--require 'EXPR'`", "[--require EXPR]"),  # the options table of "Checking a loop"
     ("demo", "netloop demo [buffer|ldo|conditional|ac-coupled] [--out DIR]", "[--out DIR]"),  # "Other commands"

@@ -105,4 +105,4 @@ def test_help_names_the_netlist_and_the_chart_file(capsys):
         main(["sensitivity", "--help"])
     text = " ".join(capsys.readouterr().out.split())
     assert "netlist the netlist file (ngspice syntax); it is never modified" in text
-    assert "--plot FILE write the ranking chart (FILE.png or FILE.svg)" in text
+    assert "--plot FILE write the ranking chart (FILE.png, .svg or .pdf)" in text
