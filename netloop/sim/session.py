@@ -154,7 +154,7 @@ class NgspiceSession:
         ffi = self._ffi
         # A buffer of NUL-terminated lines a piece and an array of pointers into them: a char[] for each of 100k lines
         # cost about 70 ms, all of it before ngspice can start reading.
-        pieces = [(deck, len(deck) >= _BLOCK_MIN_CHARS)] if isinstance(deck, str) else _runs_joined(deck)
+        pieces = _runs_joined((deck,) if isinstance(deck, str) else deck)
         blocks = [_lines_block(ffi, piece, keep) for piece, keep in pieces]
         starts = np.concatenate([np.zeros(0, dtype=np.int64), *(where + address for _, address, where in blocks)])
         addresses = starts.astype(np.dtype(f"u{ffi.sizeof('char *')}"))
