@@ -15,7 +15,6 @@ import uuid
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
 from os import PathLike
-from pathlib import Path
 
 import numpy as np
 
@@ -38,7 +37,8 @@ from netloop.jobs.compare_explain import (
 )
 from netloop.graph import find_loops, flatten
 from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
-from netloop.jobs.measure import METHODS, Sweep, breaks_of, ignored_lines, load_netlist, own_simulator, return_ratio, sample_loops
+from netloop.jobs.measure import (METHODS, Sweep, breaks_of, ignored_lines, load_netlist, netlist_folder, own_simulator, return_ratio,
+                                  sample_loops)
 from netloop.jobs.measure_checks import op_sources
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe import ProbedNetlist, break_loop
@@ -147,7 +147,6 @@ def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[Ac
     for k, p in enumerate(probes):
         runs.append(AcRun(_run_name(k, "series"), dict(p.series_run_ac), sweeps))
         runs.append(AcRun(_run_name(k, "shunt"), dict(p.shunt_run_ac), sweeps))
-    source = deck.source
     return SimJob(
         netlist=write_netlist(deck),
         runs=tuple(runs),
@@ -155,7 +154,7 @@ def compare_job(deck: Netlist, probes: Sequence[ProbedNetlist], sweeps: tuple[Ac
         excitable=tuple(dict.fromkeys(s for p in probes for s in (p.series_source, p.shunt_source))),
         label=label,
         timeout_s=timeout_s,
-        workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
+        workdir=netlist_folder(deck),
         op_voltages=False,  # as probe_job: the first ac's own operating point serves (sample_loops asks for an op when checked)
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this comparison runs on one loaded circuit
     )

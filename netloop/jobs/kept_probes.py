@@ -59,9 +59,13 @@ def _swapped(netlist: Netlist, swaps: dict[int, Statement]) -> Netlist | None:
     return replace(netlist, statements=tuple(swaps.get(id(s), s) for s in netlist.statements), _index={})
 
 
-def _probed(probed: ProbedNetlist, swaps: dict[int, Statement]) -> ProbedNetlist | None:
-    netlist = _swapped(probed.netlist, swaps)
-    return None if netlist is None else replace(probed, netlist=netlist)
+def _probed(probed: ProbedNetlist, swaps: dict[int, Statement], done: dict[int, Netlist | None]) -> ProbedNetlist | None:
+    """``probed`` on its netlist with ``swaps`` made; ``done``: the netlists already rewritten, by id, so that records
+    sharing one netlist (the split before and after the loop check) share its rewrite too, made once."""
+    key = id(probed.netlist)
+    if key not in done:
+        done[key] = _swapped(probed.netlist, swaps)
+    return None if done[key] is None else replace(probed, netlist=done[key])
 
 
 def rewritten(kept: KeptProbes, now: Netlist) -> tuple[ProbedNetlist, ProbedNetlist, Chain | None] | None:
@@ -72,8 +76,9 @@ def rewritten(kept: KeptProbes, now: Netlist) -> tuple[ProbedNetlist, ProbedNetl
         return None
     if not swaps:
         return kept.unchecked, kept.checked, kept.chain
-    unchecked, checked = _probed(kept.unchecked, swaps), _probed(kept.checked, swaps)
-    first = _probed(kept.chain.first, swaps) if kept.chain is not None else None
+    done: dict[int, Netlist | None] = {}  # the kept records are alive meanwhile, so their netlists' ids stay theirs
+    unchecked, checked = _probed(kept.unchecked, swaps, done), _probed(kept.checked, swaps, done)
+    first = _probed(kept.chain.first, swaps, done) if kept.chain is not None else None
     if unchecked is None or checked is None or (kept.chain is not None and first is None):
         return None
     return unchecked, checked, replace(kept.chain, first=first) if kept.chain is not None else None

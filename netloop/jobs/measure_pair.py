@@ -22,7 +22,6 @@ import uuid
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 from os import PathLike
-from pathlib import Path
 
 import numpy as np
 
@@ -33,8 +32,8 @@ from netloop.errors import NetloopError, ProbeError
 from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
 from netloop.jobs.splits import LoopStructure
 from netloop.jobs.measure_checks import analysis_doubts, moved, op_sources, pair_placements, poles_agree, second_break_band
-from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, own_simulator,
-                                  refuse_inputs_only, sample_loops)
+from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, netlist_folder,
+                                  own_simulator, refuse_inputs_only, sample_loops)
 from netloop.netlist import Netlist, write_netlist
 from netloop.probe.differential import MODES, RUNS, PairProbe, break_pair
 from netloop.sim import AcRun, AcSweep, SimJob, SimResult, Simulator
@@ -108,7 +107,6 @@ def parse_pair(text: str) -> tuple[str, str]:
 
 def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", timeout_s: float = 600.0) -> SimJob:
     """The simulator job of a differential probe: four AC runs on one operating point, only the probe vectors saved."""
-    source = pair.netlist.source
     return SimJob(
         netlist=write_netlist(pair.netlist),
         runs=tuple(AcRun(name, ac, sweeps) for name, ac in pair.runs),
@@ -116,7 +114,7 @@ def pair_job(pair: PairProbe, sweeps: tuple[AcSweep, ...], *, label: str = "", t
         excitable=pair.sources,
         label=label,
         timeout_s=timeout_s,
-        workdir=str(Path(source).resolve().parent) if source and not source.startswith("<") else None,  # as probe_job
+        workdir=netlist_folder(pair.netlist),
         op_voltages=False,  # as probe_job: the first ac's own operating point serves (sample_loops asks for an op when checked)
         circuit_id=uuid.uuid4().hex,  # as probe_job: every round of this measurement runs on one loaded circuit
     )

@@ -38,6 +38,7 @@ def test_the_next_seed_gets_the_split_probed_afresh(circuits):
         assert (got.side_a, got.side_b, got.series_source, got.vectors, got.warnings) == (want.side_a, want.side_b, want.series_source,
                                                                                        want.vectors, want.warnings)
     assert (chain.series_source, chain.side_a, chain.vectors) == (fresh.chain.series_source, fresh.chain.side_a, fresh.chain.vectors)
+    assert kept.unchecked.netlist is kept.checked.netlist and unchecked.netlist is checked.netlist  # as the loop check leaves it
 
 
 def test_anything_but_an_option_line_means_probing_afresh(circuits):
