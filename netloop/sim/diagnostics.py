@@ -108,12 +108,15 @@ def diagnose(lines: Iterable[str], deck: str = "") -> tuple[Diagnosis, ...]:
     return tuple(found.values())
 
 
-def model_warnings(lines: Iterable[str]) -> tuple[str, ...]:
-    """What ngspice ignored and went on without: unrecognized model parameters, each once, with its .model."""
-    lines = list(lines)
-    out: dict[str, None] = {}
-    if "unrecognized" not in "\n".join(lines).lower():  # nearly every log: no line to look at one by one
+def model_warnings(log: str) -> tuple[str, ...]:
+    """What ngspice ignored and went on without, from its output ``log``: unrecognized model parameters, each once, with
+    its .model. Nearly every log holds no such word, and is not split into lines (a sky130 sample's two logs of 4 to 10
+    kB: SimResult.warnings 0.079 -> 0.036 ms a sample, timed in place while 77 samples ran through the corner worker's
+    run_task, medians of 4 runs taken in turns)."""
+    if "unrecognized" not in log.lower():
         return ()
+    lines = log.splitlines()
+    out: dict[str, None] = {}
     for i, line in enumerate(lines):
         if m := _UNRECOGNIZED.search(line):
             model = next((mm.group(1) for prev in reversed(lines[max(0, i - 2):i]) if (mm := _MODEL_LINE.match(prev))), "")

@@ -146,7 +146,7 @@ class SimResult:
         """What ngspice ignored and went on without (unrecognized model parameters), from its log."""
         from netloop.sim.diagnostics import model_warnings  # noqa: PLC0415 - records stay import-light
 
-        return model_warnings(self.log.splitlines())
+        return model_warnings(self.log)
 
     def run(self, name: str) -> RunResult:
         for r in self.runs:

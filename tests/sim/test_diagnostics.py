@@ -7,6 +7,8 @@ import subprocess
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from netloop.errors import SimulationError
 from netloop.sim import AcRun, AcSweep, SimJob
@@ -74,7 +76,7 @@ def test_an_ignored_model_parameter_is_a_warning(simulator):
     result = simulator.run(_job(UNRECOGNIZED))
     assert result.warnings == ("ngspice ignored the unrecognized parameter 'cox' of model 'dm': check the model card "
                                "(or the level it selects)",)
-    assert model_warnings(["unrecognized parameter (cox) - ignored"])  # without the .model line before it, still said
+    assert model_warnings("unrecognized parameter (cox) - ignored")  # without the .model line before it, still said
 
 
 # During the operating point of the first ac, ngspice evaluates sqrt(0.70 - v(c)) at v(c) a little above 0.70
@@ -106,3 +108,21 @@ def test_an_error_line_ngspice_recovers_from_is_a_convergence_aid_not_a_failure(
     assert len(rows) == 7
     got = result.runs[0].vectors["v(f)"]
     assert got.real.tolist() == pytest.approx(rows, rel=1e-5)  # ngspice prints 6 significant digits
+
+
+_FRAGMENTS = st.sampled_from(["unrecognized parameter (cox) - ignored", "UNRECOGNIZED parameter (vth0) - ignored", "unrecognized",
+                              "unrecog", "nized", ".model dm d", "\u0130", "\u0131", "\u212a", "Note: ok", " ", "\n", "\r\n", "\r",
+                              "\x0b", "\x0c", "\x1c", "\x85", "\u2028"])
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(_FRAGMENTS, max_size=12).map("".join))
+def test_the_quick_look_at_a_whole_log_is_the_look_at_its_lines(log):
+    """Whether a log may hold an ignored parameter is read from the text as it is, never from its lines joined again,
+    with the same answer: line separators (any that str.splitlines knows) are no letters, so the word is found in one
+    exactly when it is in the other, and the warnings are those of the lines read one by one."""
+    lines = log.splitlines()
+    joined = "\n".join(lines).lower()  # what the quick look read before
+    assert ("unrecognized" in log.lower()) == ("unrecognized" in joined)
+    by_line = any(re.search(r"unrecognized parameter \(([^)]+)\)\s*-\s*ignored", line, re.I) for line in lines)
+    assert bool(model_warnings(log)) == (by_line and "unrecognized" in joined)
