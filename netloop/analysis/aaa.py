@@ -93,12 +93,12 @@ class Rational:
         return e, b
 
 
-def aaa(x: np.ndarray, y: np.ndarray, rtol: float, max_terms: int):
+def aaa(x: np.ndarray, y: np.ndarray, rtol: float | None, max_terms: int):
     """scipy.interpolate.AAA(x, y, rtol=rtol, max_terms=max_terms, clean_up=False) bit for bit, its warnings included:
     a Rational, or scipy's AAA itself where this copy does not go (module docstring)."""
     load_scipy()
     z, f = np.asarray(x), np.asarray(y)
-    if not _usual(z, f, max_terms):
+    if rtol is None or not _usual(z, f, max_terms):
         return _scipys(x, y, rtol, max_terms)
     keep = np.isfinite(f)  # scipy keeps finite and not NaN values: the same for 1-D data
     z, unique = np.unique(z[keep], return_index=True)
@@ -110,7 +110,8 @@ def aaa(x: np.ndarray, y: np.ndarray, rtol: float, max_terms: int):
 
 def _usual(z: np.ndarray, f: np.ndarray, max_terms: int) -> bool:
     """Whether the copy takes these inputs: 1-D complex128 data, a value for each point, finite points, at least one
-    term. Others go to scipy, which refuses them with its own error or fits them."""
+    term (and a tolerance: scipy's default, for None, is left to scipy). Others go to scipy, which refuses them with its
+    own error or fits them."""
     return (z.ndim == 1 and f.ndim == 1 and z.size == f.size and isinstance(max_terms, int) and max_terms >= 1
             and np.result_type(z, f, 1.0) == np.complex128 and bool(np.all(np.isfinite(z))))
 
@@ -152,11 +153,12 @@ def _iterate(z: np.ndarray, f: np.ndarray, rtol: float, max_terms: int):
         mask[k] = False
         wj, ill_conditioned = _weights(loewner[mask, : m + 1], ill_conditioned)
         i0 = wj != 0
-        columns = cauchy[:, : m + 1][:, i0]  # scipy takes these twice, for the numerator and the denominator
+        # scipy takes the columns and weights of nonzero weight twice, for the numerator and the denominator
+        columns, nonzero = cauchy[:, : m + 1][:, i0], wj[i0]
         with np.errstate(invalid="ignore"):
-            n = columns @ (wj[i0] * fj[: m + 1][i0])
-            d = columns @ wj[i0]
-        d_inf = np.isinf(d) | np.isnan(d)
+            n = columns @ (nonzero * fj[: m + 1][i0])
+            d = columns @ nonzero
+        d_inf = ~np.isfinite(d)  # scipy: np.isinf(d) | np.isnan(d), the same for complex numbers (either part)
         d[d_inf] = 1
         n[d_inf] = f[d_inf]
         r = n / d
@@ -209,10 +211,13 @@ def _svd(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def _gesdd(rows: int, columns: int):
     """scipy.linalg.svd's LAPACK routine for complex128 matrices and its work size for this shape, reduced U and V
     (the size depends on the shape alone: one query a shape)."""
-    from scipy.linalg.lapack import _compute_lwork, get_lapack_funcs  # noqa: PLC0415 - loaded by load_scipy
+    from scipy.linalg.lapack import get_lapack_funcs  # noqa: PLC0415 - loaded by load_scipy
 
     gesdd, gesdd_lwork = get_lapack_funcs(("gesdd", "gesdd_lwork"), (np.empty((rows, columns), np.complex128),), ilp64="preferred")
-    return gesdd, _compute_lwork(gesdd_lwork, rows, columns, compute_uv=True, full_matrices=False)
+    work, info = gesdd_lwork(rows, columns, compute_uv=True, full_matrices=False)
+    if info != 0:
+        raise ValueError(f"Internal work array size computation failed: {info}")
+    return gesdd, int(work.real)  # scipy's _compute_lwork for double precision: the size LAPACK returns, as an integer
 
 
 def _finite_eigenvalues(e: np.ndarray, b: np.ndarray) -> np.ndarray:
