@@ -216,3 +216,14 @@ def test_other_inputs_are_scipys_own():
             _scipy(z, y, 1e-10, terms)
         with pytest.raises(ValueError, match=str(theirs.value).replace("`", ".")):
             aaa(z, y, 1e-10, terms)
+
+
+@pytest.mark.parametrize("shape", [(270, 1), (270, 6)])
+def test_the_svd_is_scipys_routine_with_scipys_work_size(shape):
+    """The SVD of a step calls the LAPACK routine scipy.linalg.svd calls for the step's matrix, with the work size
+    scipy computes for it (scipy.linalg.lapack: get_lapack_funcs, _compute_lwork)."""
+    from scipy.linalg.lapack import _compute_lwork, get_lapack_funcs
+
+    a = np.ones(shape, dtype=complex)
+    gesdd, gesdd_lwork = get_lapack_funcs(("gesdd", "gesdd_lwork"), (a,), ilp64="preferred")
+    assert copy._gesdd(*shape) == (gesdd, _compute_lwork(gesdd_lwork, *shape, compute_uv=True, full_matrices=False))
