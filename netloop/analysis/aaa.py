@@ -26,11 +26,12 @@ with scipy's AAA where a Froissart doublet may need its clean-up. The ill-condit
 columns before the SVD) is copied. tests/analysis/test_aaa.py holds every output and warning to scipy's bit for bit,
 through each branch, on closed-form loops, noisy data, measured data, scipy's spiral and degenerate data.
 
-Measured on the 20 fits of the sky130 Miller buffer captured from a yield run (278 points, nine steps each;
-/tmp/aaa/fits.pkl), time.process_time over the 20, five times, median of 15 alternating runs, on the 2-core
-development machine: scipy's AAA 1.20 ms a fit, this copy 0.75 ms (of which gesdd itself about 0.3); with poles(),
-residues() and roots() 1.52 ms against 0.99. In place (/work/notes/split.py, 77 samples through the corner worker's
-run_task, three alternating runs each): closed_loop_poles 3.04-3.29 ms a sample before, 2.30-2.35 after.
+Measured on 20 fits captured from a yield run of the sky130 Miller buffer (278 points, nine steps each):
+time.process_time over the 20, five times, median of 15 alternating runs, on the 2-core development machine: scipy's
+AAA 1.20 ms a fit, this copy 0.75 ms (of which gesdd itself about 0.3); with poles(), residues() and roots() 1.52 ms
+against 0.99. In place (the corner worker's run_task on 77 of its samples, each function timed by wrapping it, three
+runs of each alternating): the fit 1.7-2.0 ms a sample before, 1.2-1.3 after; closed_loop_poles 2.2-2.6 before,
+1.7-1.8 after.
 """
 
 from __future__ import annotations
