@@ -24,34 +24,35 @@ def _bits(a) -> tuple:
 
 
 def _scipy(z, y, rtol, terms):
-    """scipy's AAA without clean-up (the reference), and whether it warned."""
+    """scipy's AAA without clean-up (the reference), and its warnings (category and message, in order)."""
     from scipy.interpolate import AAA
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         fit = AAA(z, y, rtol=rtol, max_terms=terms, clean_up=False)
-    return fit, bool(caught)
+    return fit, [(w.category, str(w.message)) for w in caught]
 
 
 def _ours(z, y, rtol, terms):
-    """netloop's copy, and whether it warned."""
+    """netloop's copy, and its warnings (category and message, in order)."""
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         fit = aaa(z, y, rtol, terms)
-    return fit, bool(caught)
+    return fit, [(w.category, str(w.message)) for w in caught]
 
 
 def _assert_scipys(z, y, rtol, terms):
-    """The copy's support points, values, weights, errors, poles, residues, roots and warning equal scipy's."""
-    ours, our_warning = _ours(z, y, rtol, terms)
-    theirs, their_warning = _scipy(z, y, rtol, terms)
-    assert our_warning == their_warning
+    """The copy's support points, values, weights, errors, poles, residues, roots and warnings (category and message)
+    equal scipy's; returns both fits and whether scipy warned."""
+    ours, our_warnings = _ours(z, y, rtol, terms)
+    theirs, their_warnings = _scipy(z, y, rtol, terms)
+    assert our_warnings == their_warnings
     for name in ("support_points", "support_values", "weights", "errors"):
         assert _bits(getattr(ours, name)) == _bits(getattr(theirs, name)), name
     with np.errstate(all="ignore"):
         for name in ("poles", "residues", "roots"):
             assert _bits(getattr(ours, name)()) == _bits(getattr(theirs, name)()), name
-    return ours, theirs, their_warning
+    return ours, theirs, bool(their_warnings)
 
 
 def _sweep():
@@ -227,3 +228,138 @@ def test_the_svd_is_scipys_routine_with_scipys_work_size(shape):
     a = np.ones(shape, dtype=complex)
     gesdd, gesdd_lwork = get_lapack_funcs(("gesdd", "gesdd_lwork"), (a,), ilp64="preferred")
     assert copy._gesdd(*shape) == (gesdd, _compute_lwork(gesdd_lwork, *shape, compute_uv=True, full_matrices=False))
+
+
+def test_the_not_converged_warning_is_scipys_word_for_word():
+    """A fit that runs out of terms warns as scipy's does: a RuntimeWarning naming the number of terms, and nothing else."""
+    z, y, rtol, _ = _fits_made_by(_sweep(), _loops()["two poles"])[0]
+    _, _, warned = _assert_scipys(z, y, rtol, 3)  # three terms cannot reach the tolerance
+    assert warned and _ours(z, y, rtol, 3)[1] == [(RuntimeWarning, "AAA failed to converge within 3 iterations.")]
+
+
+def test_zero_data_stop_at_one_term_as_scipy_stops():
+    """Values all 0 are fitted exactly by the first term (error 0, which meets rtol=0: scipy stops on error <= atol), and
+    its weight, 1 from the SVD of a zero column, is kept; the copy equals scipy."""
+    z = 1j * np.linspace(-1.0, 1.0, 40)
+    ours, _, warned = _assert_scipys(z, np.zeros(40, dtype=complex), 0.0, 10)
+    assert isinstance(ours, Rational) and ours.errors.tolist() == [0.0] and ours.weights.tolist() == [1.0] and not warned
+
+
+def test_constant_data_tie_every_singular_value_as_scipy_ties_them():
+    """Values all 1 leave every Loewner matrix 0: all its singular values are the smallest (0), scipy sums their vectors
+    and divides by the square root of their count, and its 0/0 test of conditioning warns of nothing; the copy equals
+    scipy up to its last term (weights of modulus 1/sqrt(10) at the tenth)."""
+    z = 1j * np.linspace(-1.0, 1.0, 64)
+    ours, _, warned = _assert_scipys(z, np.ones(64, dtype=complex), 0.0, 10)
+    assert isinstance(ours, Rational) and warned
+    np.testing.assert_allclose(np.abs(ours.weights), 1 / math.sqrt(10), rtol=1e-15)  # V of a 0 matrix is I: rows summed, / sqrt(10)
+
+
+@pytest.mark.parametrize("case", ["complex points, real values", "real points, complex values"])
+def test_mixed_real_and_complex_data_fit_in_the_copy_as_scipy_fits_them(case):
+    """A real array on either side (|T| on the imaginary axis; T against a real frequency) is complex128 data to scipy:
+    the copy fits it itself, in complex arithmetic, and equals scipy."""
+    f = np.logspace(0.0, 3.0, 40)
+    t = 1 / ((1 + 1j * f / 50) * (1 + 1j * f / 300))  # two real poles (circuit theory)
+    z, y = (1j * f, np.abs(t)) if case.startswith("complex") else (f, t)
+    ours, _, _ = _assert_scipys(z, y, 1e-13, 10)
+    assert isinstance(ours, Rational) and ours.support_points.dtype == ours.weights.dtype == np.complex128
+
+
+def test_single_precision_data_go_to_scipy():
+    """complex64 data are fitted by scipy in single precision (its dtype is result_type(z, f, 1.0)); the copy, made for
+    complex128, hands them to scipy and returns its fit."""
+    f = np.logspace(0.0, 3.0, 40)
+    z = (1j * f).astype(np.complex64)
+    ours, _, _ = _assert_scipys(z, (1 / (1 + z / 50)).astype(np.complex64), 1e-6, 10)
+    assert not isinstance(ours, Rational)
+
+
+@pytest.mark.parametrize(("points", "terms"), [(40, 1), (40, 20)])
+def test_one_term_and_exactly_two_points_a_term_fit_in_the_copy(points, terms):
+    """One term, and exactly twice as many points as terms (the last step's Loewner matrix square, which scipy still
+    takes by SVD): the copy fits them itself and equals scipy, its not-converged warning included."""
+    s = 1j * np.logspace(0.0, 3.0, points)
+    ours, _, warned = _assert_scipys(s, 1 / ((1 + s / 50) * (1 + s / 300)), 0.0, terms)
+    assert isinstance(ours, Rational) and ours.errors.size == terms and warned
+
+
+class _FailingLapack:
+    """A stand-in for LAPACK's gesdd or ggev that reports ``info`` (a failure that real data cannot be made to give on
+    demand), with gesdd's or ggev's outputs."""
+
+    typecode = "z"
+
+    def __init__(self, info: int):
+        self.info = info
+
+    def __call__(self, a, *args, lwork=None, **kwargs):
+        if args:  # ggev, given the pencil's b (and, after its work-size query, its flags) by position; gesdd by keyword
+            n = a.shape[0]
+            return np.zeros(n, complex), np.ones(n, complex), None, None, np.array([4.0 + 0j]), 0 if lwork == -1 else self.info
+        return None, np.ones(a.shape[1]), np.eye(a.shape[1], dtype=complex), self.info
+
+
+def _message(call):
+    """The type and text of the error ``call`` raises."""
+    with pytest.raises(Exception) as raised:  # noqa: PT011 - compared with scipy's own below
+        call()
+    return type(raised.value), str(raised.value)
+
+
+@pytest.mark.parametrize("info", [1, 2, -3, -4])
+def test_lapack_failures_raise_scipys_errors(info):
+    """gesdd and ggev reporting a failure (info > 0: not converged; info < 0: an illegal argument, -4 for gesdd a NaN)
+    raise the error scipy.linalg.svd and scipy.linalg.eigvals raise for the same report, type and words."""
+    import scipy.linalg._decomp
+    import scipy.linalg._decomp_svd
+    import scipy.linalg.lapack
+
+    fake = _FailingLapack(info)
+    a = np.ones((6, 2), dtype=complex)
+    e, b = Rational(np.array([1j, 2j]), np.ones(2, complex), np.ones(2, complex), np.zeros(1))._pencil(np.ones(2, complex))
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(copy, "_gesdd", lambda rows, columns: (fake, 4))
+        patch.setattr(scipy.linalg._decomp_svd, "get_lapack_funcs", lambda *args, **kwargs: (fake, None))
+        patch.setattr(scipy.linalg._decomp_svd, "_compute_lwork", lambda *args, **kwargs: 4)
+        patch.setattr(scipy.linalg.lapack, "get_lapack_funcs", lambda *args, **kwargs: (fake,))
+        patch.setattr(scipy.linalg._decomp, "get_lapack_funcs", lambda *args, **kwargs: (fake,))
+        expected = np.linalg.LinAlgError if info > 0 else ValueError
+        theirs = _message(lambda: scipy.linalg.svd(a, full_matrices=False, check_finite=False))
+        assert _message(lambda: copy._svd(a)) == theirs and theirs[0] is expected
+        if info != -4:  # -4 is gesdd's own report
+            theirs = _message(lambda: scipy.linalg.eigvals(e, b))
+            assert _message(lambda: copy._finite_eigenvalues(e, b)) == theirs and theirs[0] is expected and "(ggev)" in theirs[1]
+
+
+def test_once_a_step_is_ill_conditioned_every_later_step_normalises_as_scipys_do():
+    """On a one-pole function with relative noise of 5e-16 (seed 1710) the Loewner matrices' condition hovers at scipy's
+    limit: a later step's own ratio falls back below it after an earlier step passed it, and scipy still normalises
+    that step's columns (its flag is never reset); the copy equals scipy there."""
+    rng = np.random.default_rng(1710)
+    z = 1j * np.linspace(-1.0, 1.0, 48)
+    y = (2 / (z - 1.5) + 1) * (1 + 5e-16 * (rng.standard_normal(48) + 1j * rng.standard_normal(48)))
+    steps = []
+    weights = copy._weights
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(copy, "_weights", lambda a, ill: steps.append((ill, a.copy())) or weights(a, ill))
+        _assert_scipys(z, y, 1e-15, 12)
+    ratios = [(ill, np.divide(*np.linalg.svd(a, compute_uv=False)[[0, -1]])) for ill, a in steps]
+    assert any(ill and ratio < copy._ILL_CONDITIONED for ill, ratio in ratios)
+
+
+def test_residues_at_a_pole_on_a_support_point_are_scipys_without_a_warning():
+    """Given poles that lie on support points (1/0 in scipy's residue formula, then inf/inf), residues() gives scipy's
+    numbers for the same poles, inf and NaN included, and, as scipy's errstate has it, no divide or invalid warning."""
+    z, y, rtol, terms = _fits_made_by(_sweep(), _loops()["two poles"])[0]
+    ours, theirs = _ours(z, y, rtol, terms)[0], _scipy(z, y, rtol, terms)[0]  # fresh: residues are kept once computed
+    poles = np.concatenate([ours.support_points[:2], ours.poles()])
+    ours._poles = poles
+    theirs.poles = lambda: poles
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        mine = ours.residues()
+    with warnings.catch_warnings(record=True):
+        warnings.simplefilter("always")
+        reference = theirs.residues()
+    assert _bits(mine) == _bits(reference) and not np.all(np.isfinite(mine))
