@@ -134,6 +134,16 @@ def _mutmut(work: Path, *args: str, quiet: bool = False) -> subprocess.Completed
     return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=capture, check=False)
 
 
+def run_mutants(work: Path, jobs: int, *names: str) -> None:
+    """``mutmut run`` in the copy (every mutant without a verdict, or ``names``); stops the script when mutmut stopped before
+    testing: a test that fails on the clean code or under mutmut's wrappers makes it give up after its first pass, and the
+    verdicts it then lists are an earlier run's (figures printed from them would look current)."""
+    done = _mutmut(work, "run", "--max-children", str(jobs), *names)
+    if done.returncode != 0:
+        raise SystemExit(f"mutate: mutmut stopped before testing the mutants of {work} (exit {done.returncode}; its last lines above say "
+                         "why, such as a test failing on the clean code or under mutmut); no figures: the verdicts there are an earlier run's")
+
+
 def mutant_names(work: Path) -> list[str]:
     """Every mutant mutmut generated in the copy, by name, sorted (read from the .meta file it writes beside each mutated file)."""
     names: set[str] = set()
@@ -231,7 +241,7 @@ def main(argv: list[str] | None = None) -> int:
                 work = prepare(package, fresh=True, folder=folder)
                 chosen = draw_sample(work, args.sample, args.seed, equivalent.get(package, {}), args.jobs)
             if chosen:
-                _mutmut(work, "run", "--max-children", str(args.jobs), *chosen)
+                run_mutants(work, args.jobs, *chosen)
         else:
             previous = ROOT / ".mutate" / package
             judged = equivalent.get(package, {})  # not tested again: a judged-equivalent mutant survives every test by definition
@@ -239,9 +249,9 @@ def main(argv: list[str] | None = None) -> int:
             survivors = ([n for n, v in verdicts(previous).items() if _again(v) and v != "not checked" and n not in judged]
                          if args.again and (previous / "mutants").is_dir() else [])
             work = prepare(package, fresh=not args.again)
-            _mutmut(work, "run", "--max-children", str(args.jobs))  # every mutant without a verdict (all of them when fresh)
+            run_mutants(work, args.jobs)  # every mutant without a verdict (all of them when fresh)
             if survivors:  # mutmut keeps a verdict unless the mutant is named: name the survivors to test them again
-                _mutmut(work, "run", "--max-children", str(args.jobs), *survivors)
+                run_mutants(work, args.jobs, *survivors)
         drawn = work / "sample.json"
         sample = json.loads(drawn.read_text()) if drawn.exists() else None
         text, _ = summary(package, verdicts(work), equivalent.get(package, {}), sample)
