@@ -5,8 +5,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 
-__all__ = ["ac_op_failed", "error_lines", "fatal_among", "fatal_lines", "ngspice_fallback", "op_failed", "quiet", "recovery", "summary",
-           "tail"]
+__all__ = ["ac_op_failed", "error_lines", "fatal_among", "fatal_lines", "ngspice_fallback", "op_failed", "recovery", "summary", "tail"]
 
 # Lines ngspice prints when something really failed. Notes ("Note: Starting dynamic gmin stepping")
 # and warnings ("Warning: singular matrix", "Warning: Dynamic gmin stepping failed") precede
@@ -42,16 +41,13 @@ _CLUES = ("error", "fatal", "doanalyses:", "aborted", "failed", "timestep too sm
           "unknown ", "could not find")
 
 
-def quiet(lines: list[str] | tuple[str, ...]) -> bool:
-    """True when none of ``lines`` can match the patterns above: then error_lines is empty and op_failed and ac_op_failed
-    are False, so a caller asking several of them asks this once first. ASCII text (where ignoring case is lower-casing)
-    holding none of _CLUES is quiet.
-
-    Measured in the ngspice process while 74 sky130 mismatch samples' recorded jobs ran: ngspice's usual output (some
-    35 lines an ``op`` or ``ac``, gmin steps) judged by a few substring searches instead of a pattern a line took
-    error_lines, op_failed, ac_op_failed and fatal_lines from 0.76 to 0.41 ms a sample; an output of no lines (19 of
-    the 32 judged a sample) quiet at once, 0.215 -> 0.189 ms; the first ac's and the op's output read once, the
-    Python beyond ngspice's calls 2.48 -> 2.41 ms CPU (medians of 3 and 6 runs taken in turns)."""
+def _quiet(lines: list[str] | tuple[str, ...]) -> bool:
+    """True when none of ``lines`` can match the patterns above: ASCII text (where ignoring case is lower-casing)
+    holding none of _CLUES. ngspice's usual output while it iterates (some 35 lines an ``op`` or ``ac``, gmin steps) is
+    judged by a few substring searches instead of a pattern a line: 0.76 -> 0.41 ms a sky130 mismatch sample in the
+    ngspice process (error_lines, op_failed, ac_op_failed and fatal_lines timed while 74 samples' recorded jobs ran). Most
+    commands print nothing (19 of the 32 outputs judged a sample): those are quiet at once (_quiet 0.215 -> 0.189 ms a
+    sample, timed in place in the same way, medians of 3 runs taken in turns)."""
     if not lines:
         return True
     text = "\n".join(lines)
@@ -64,7 +60,7 @@ def quiet(lines: list[str] | tuple[str, ...]) -> bool:
 def ac_op_failed(lines: Iterable[str]) -> bool:
     """True when ngspice says the operating point of an ``ac`` command failed."""
     lines = _listed(lines)
-    return not quiet(lines) and any(_AC_OP_FAILED.search(line) for line in lines)
+    return not _quiet(lines) and any(_AC_OP_FAILED.search(line) for line in lines)
 
 
 def _listed(lines: Iterable[str]) -> list[str] | tuple[str, ...]:
@@ -74,7 +70,7 @@ def _listed(lines: Iterable[str]) -> list[str] | tuple[str, ...]:
 def error_lines(lines: Iterable[str]) -> tuple[str, ...]:
     """The lines of ngspice output that report a real failure."""
     lines = _listed(lines)
-    if quiet(lines):
+    if _quiet(lines):
         return ()
     found = []
     for line in lines:
@@ -89,7 +85,7 @@ def error_lines(lines: Iterable[str]) -> tuple[str, ...]:
 def op_failed(lines: Iterable[str]) -> bool:
     """True when ngspice says it found no operating point."""
     lines = _listed(lines)
-    return not quiet(lines) and any(_OP_FAILED.search(line) for line in lines)
+    return not _quiet(lines) and any(_OP_FAILED.search(line) for line in lines)
 
 
 def tail(lines: Iterable[str], count: int = 12) -> str:

@@ -24,7 +24,7 @@ from netloop.sim.frequency import merge_rows
 from netloop.sim.in_place import change_commands, explained, values_of
 from netloop.sim.job import SimJob
 from netloop.sim.frequency import sweep_frequencies
-from netloop.sim.output import ac_op_failed, error_lines, fatal_among, fatal_lines, op_failed, quiet, recovery, summary
+from netloop.sim.output import ac_op_failed, error_lines, fatal_among, fatal_lines, op_failed, recovery, summary
 from netloop.sim.session import NgspiceSession
 from netloop.sim.used_models import used_pieces
 from netloop.sim.vectors import unknown_saves
@@ -328,7 +328,7 @@ def _operating_point(session: NgspiceSession, job: SimJob, record: _Loaded, log:
     plot = session.current_plot()
     voltages = session.node_voltages(plot) if plot.startswith("op") else {}
     # judged by what the op produced: error lines ngspice printed while it iterated, and then recovered from, do not count
-    if (not quiet(op_lines) and (op_failed(op_lines) or fatal_lines(op_lines))) or not (voltages or not _has_nodes(session, plot)):
+    if op_failed(op_lines) or fatal_lines(op_lines) or not (voltages or not _has_nodes(session, plot)):
         return None, op_lines
     missing = unknown_saves(job.save, session.vector_names(plot))
     if missing:
@@ -356,12 +356,11 @@ def _sweeps(session: NgspiceSession, job: SimJob, steps: tuple[Step, ...], log: 
             continue  # the operating point is done; plots are freed below, once read; saves stay set
         lines = session.command(step.command)
         log.extend(lines)
-        said = not quiet(lines)  # read once: ngspice prints some 20 lines an ac while it finds the operating point
         if step.kind == "ac" and first_ac is None:
             first_ac = lines
-            if said and (ac_op_failed(lines) or op_failed(lines)):
+            if ac_op_failed(lines) or op_failed(lines):
                 return None, lines, {}, None
-        errors = error_lines(lines) if said else ()
+        errors = error_lines(lines)  # read once: ngspice prints some 20 lines an ac while it finds the operating point
         if (fatal_among(errors) if step.kind == "ac" else errors):
             raise failure("analysis", f"'{step.command}' failed: " + summary(lines))
         if step.kind == "let":  # the loaded value of the job's next altered parameter

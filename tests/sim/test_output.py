@@ -5,7 +5,7 @@ from __future__ import annotations
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from netloop.sim.output import _AC_OP_FAILED, _ERROR, _OP_FAILED, error_lines, ngspice_fallback, op_failed, quiet
+from netloop.sim.output import _AC_OP_FAILED, _ERROR, _OP_FAILED, _quiet, error_lines, ngspice_fallback, op_failed
 from netloop.sim.vectors import canonical, unknown_saves
 
 # Lines printed by ngspice 39 on this machine for a circuit that recovers through gmin stepping
@@ -58,14 +58,14 @@ def test_vector_spellings():
 @given(st.sampled_from([_ERROR, _OP_FAILED, _AC_OP_FAILED]).flatmap(
     lambda pattern: st.from_regex(pattern, alphabet=st.characters(max_codepoint=127)).map(lambda line: (pattern, line))))
 def test_a_line_a_pattern_matches_is_never_passed_over(case):
-    """The substring check that spares ngspice's usual output the patterns (output.quiet) never passes over a line one
+    """The substring check that spares ngspice's usual output the patterns (output._quiet) never passes over a line one
     of them matches: lines made from the patterns themselves (hypothesis from_regex), ASCII as ngspice prints."""
     pattern, line = case
     assert pattern.search(line)
-    assert not quiet([line]) and not quiet(["Note: One successful gmin step", line, ""])
+    assert not _quiet([line]) and not _quiet(["Note: One successful gmin step", line, ""])
 
 
 def test_the_usual_iteration_notes_are_quiet():
     """ngspice's notes while it steps gmin to an operating point (RECOVERED, less its warnings) need no pattern."""
-    assert quiet([line for line in RECOVERED if "Warning" not in line])
-    assert not quiet(RECOVERED) and not quiet(["Fehler: ÄC operating point failed"])  # non-ASCII: the patterns decide
+    assert _quiet([line for line in RECOVERED if "Warning" not in line])
+    assert not _quiet(RECOVERED) and not _quiet(["Fehler: ÄC operating point failed"])  # non-ASCII: the patterns decide
