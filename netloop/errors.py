@@ -13,6 +13,9 @@
 
 The CLI catches NetloopError at the boundary, prints ``str(error)`` (one clear message)
 and exits with status 2. A traceback reaching a user is a bug.
+
+Interrupted(KeyboardInterrupt), outside that tree, is a run stopped by Ctrl-C after keeping what it had finished; the
+CLI prints what it says and exits with status 130, as for any Ctrl-C.
 """
 
 from __future__ import annotations
@@ -24,6 +27,7 @@ from typing import Protocol
 __all__ = [
     "AnalysisError",
     "in_netlist",
+    "Interrupted",
     "NetlistError",
     "NetlistSyntaxError",
     "NetloopError",
@@ -41,6 +45,11 @@ class Located(Protocol):
     """Where something is in a file (netloop.netlist.SourceLocation prints as file:line:col); errors sits below every stage, so it names no stage's type."""
 
     column: int
+
+
+class Interrupted(KeyboardInterrupt):
+    """A run stopped by Ctrl-C once the work in progress had finished and been kept; str() says what was kept and how to
+    go on. A KeyboardInterrupt, so that what catches Exception lets it through."""
 
 
 class NetloopError(Exception):

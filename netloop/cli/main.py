@@ -95,8 +95,8 @@ def _run(module, args: argparse.Namespace) -> int:
         for note in getattr(exc, "__notes__", ()):  # what in the netlist may be behind it (netloop.jobs.loop_result.caveats_on_error)
             print(f"netloop: note: {note}", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print("netloop: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as exc:  # netloop.errors.Interrupted says what the run kept
+        print(f"netloop: interrupted: {exc}" if str(exc) else "netloop: interrupted", file=sys.stderr)
         return 130
     except BrokenPipeError:
         # the reader went away (`netloop ... | head`): not an error of ours, and no traceback

@@ -5,6 +5,7 @@ from __future__ import annotations
 import contextlib
 import logging
 import os
+import threading
 import uuid
 import warnings
 from collections.abc import Callable, Iterator
@@ -13,11 +14,12 @@ from pathlib import Path
 
 from netloop.jobs.corners.apply import CornerApplyError, apply_settings
 from netloop.jobs.corners.expand import Corner, Task, expand, tasks_of
+from netloop.jobs.corners.interrupt import first_stops, ignoring_interrupts
 from netloop.jobs.corners.journal import Journal, default_results_path, fingerprints
 from netloop.jobs.corners.plan import AUTO, IN_PLACE, Plan
 from netloop.jobs.corners.progress import Progress
-from netloop.jobs.corners.worker import TaskOptions, files_state, read_key, run_chunk, run_task
-from netloop.errors import NetlistError, NetloopError, PlanError
+from netloop.jobs.corners.worker import TaskOptions, files_state, read_key, run_chunk, stop_run
+from netloop.errors import Interrupted, NetlistError, NetloopError, PlanError
 from netloop.netlist import Netlist, parse_file
 
 __all__ = ["LOCAL_CLUSTER_CONFIG", "CornerRun", "check_plan", "checked_plan", "chunk_size", "dask_client", "load_groups", "local_cluster",
@@ -176,6 +178,8 @@ LOCAL_CLUSTER_CONFIG = {
     "distributed.scheduler.worker-saturation": float("inf"),
     # corners are placed on workers by the circuit they need loaded (share_out); a stolen corner would load its own
     "distributed.scheduler.work-stealing": False,
+    # Ctrl-C is netloop's to handle (netloop.jobs.corners.interrupt): a worker started again after a crash ignores it too
+    "distributed.worker.preload": ["netloop.jobs.corners.interrupt"],
 }
 
 
@@ -186,7 +190,7 @@ def local_cluster(workers: int) -> Iterator[object]:
     import dask
     from distributed import LocalCluster
 
-    with dask.config.set(LOCAL_CLUSTER_CONFIG):
+    with dask.config.set(LOCAL_CLUSTER_CONFIG), ignoring_interrupts():  # the workers never see a terminal's Ctrl-C
         local = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
                              dashboard_address=None, scheduler_kwargs=dict(_NO_DEFAULT_PORT), silence_logs=logging.ERROR)
     try:
@@ -279,17 +283,20 @@ def run_tasks(plan: Plan, tasks: tuple[Task, ...], *, jobs: int | None = None, c
     bar = Progress(len(tasks), enabled=progress, noun=noun)
     bar.done = len(tasks) - len(pending)
     bar.bad = sum(1 for t in tasks if t.key in by_key and any(r["outcome"] != "pass" for r in by_key[t.key]))
-    workers = 0
+    workers, stopped = 0, False
     try:
         if pending:
             bar.draw()
             needed = {read_key(t.corner) for t in pending}
             given = {k: v for k, v in (netlists or {}).items() if k in needed}
-            workers = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
+            workers, stopped = _run(pending, _options(plan), journal, by_key, bar, jobs=jobs or min(os.cpu_count() or 1, len(pending)), cluster=cluster,
                            inputs=inputs, netlists=given, chunk=chunk, keep=keep)
     finally:
         journal.close()
         bar.finish()
+    kept = sum(1 for t in tasks if t.key in by_key)
+    if stopped and kept < len(tasks):  # (a Ctrl-C as the last task ended stopped nothing)
+        raise Interrupted(f"{kept} of {len(tasks)} {noun} are in {path}; the same command with --resume measures the rest")
     records = tuple(r for t in tasks for r in by_key.get(t.key, ()))
     counts = {k: sum(1 for r in records if r["outcome"] == k) for k in ("pass", "fail", "inconclusive", "error")}
     keys = {t.key for t in tasks}
@@ -323,7 +330,10 @@ def chunk_size(tasks: int, chunk: int) -> int:
 
 
 def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: dict, bar: Progress, *, jobs: int, cluster: str | None,
-         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple], chunk: int = 1, keep: Callable[[dict], dict]) -> int:
+         inputs: dict[str, dict[str, str]], netlists: dict[tuple, tuple], chunk: int = 1, keep: Callable[[dict], dict]) -> tuple[int, bool]:
+    """Measure ``pending`` on Dask, each task's records written to ``journal`` as its Dask task ends; returns (the workers
+    used, whether a Ctrl-C stopped the run: then the tasks in progress finished and were written, and no further one
+    started)."""
     from distributed import as_completed
 
     with dask_client(jobs=jobs, cluster=cluster) as client, _quiet():
@@ -344,26 +354,38 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
             parts = [tuple(tasks[i:i + size]) for i in range(0, len(tasks), size)]
             keys = [f"netloop-corner-{i:05d}-{part[0].key}-{run_id}" for i, part in enumerate(parts)]
             place = {"workers": [address], "allow_other_workers": True} if address else {}
-            if size == 1:
-                sent = client.map(run_task, tasks, options=options, netlists=given, key=keys, pure=False, **place)
-            else:
-                sent = client.map(run_chunk, parts, options=options, netlists=given, key=keys, pure=False, **place)
-            futures.update(zip(sent, ((part, size > 1) for part in parts), strict=True))
+            sent = client.map(run_chunk, parts, options=options, netlists=given, run=run_id, key=keys, pure=False, **place)
+            futures.update(zip(sent, parts, strict=True))
             del sent  # the futures live in ``futures`` alone (let go there once fetched)
+
+        def stop() -> None:  # the first Ctrl-C: called in the signal handler, which must not wait for the workers
+            bar.stream.write(f"\nnetloop: stopping: the {bar.noun} in progress finish and go to the results file; "
+                             "Ctrl-C again to stop at once\n")
+            threading.Thread(target=_stop_workers, args=(client, run_id), daemon=True).start()
+
         # the futures that finished together are fetched in one round trip to the scheduler; each is then let go, so that
-        # its worker forgets its records (a worker holds a task's result while any client holds its future)
-        for batch in as_completed(futures).batches():
-            for future, value in _fetch(client, batch):
-                part, chunked = futures.pop(future)
-                if value is None:
-                    failed = future.exception()
-                    results = [_lost(task, failed) for task in part]
-                else:
-                    results = list(value) if chunked else [value]
-                for task, records in zip(part, results, strict=True):
-                    records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
-                    journal.write(records)
-                    by_key[task.key] = tuple(map(keep, records))
-                    loads = [r.get("loads") for r in records]
-                    bar.advance(any(r["outcome"] != "pass" for r in records), sum(loads) if None not in loads else None)
-    return workers
+        # its worker forgets its records (a worker holds a task's result while any client holds its future). Once
+        # stopped, the chunks hand back what they measured (maybe nothing) and start no further task.
+        with first_stops(stop) as stopped:
+            for batch in as_completed(futures).batches():
+                for future, value in _fetch(client, batch):
+                    part = futures.pop(future)
+                    if value is None:
+                        failed = future.exception()
+                        results = [_lost(task, failed) for task in part]
+                    else:
+                        results = list(value)
+                    measured = part[:len(results)] if stopped.is_set() else part  # a stopped chunk's first tasks
+                    for task, records in zip(measured, results, strict=True):
+                        records = tuple({**r, "inputs": inputs.get(task.key, {})} for r in records)  # what --resume compares
+                        journal.write(records)
+                        by_key[task.key] = tuple(map(keep, records))
+                        loads = [r.get("loads") for r in records]
+                        bar.advance(any(r["outcome"] != "pass" for r in records), sum(loads) if None not in loads else None)
+    return workers, stopped.is_set()
+
+
+def _stop_workers(client, run_id: str) -> None:
+    """Tell every worker that run ``run_id`` stops (worker.stop_run); a worker that cannot be reached finishes its chunk."""
+    with contextlib.suppress(Exception):  # noqa: BLE001 - the cluster going down meanwhile: the second Ctrl-C is there
+        client.run(stop_run, run_id, on_error="ignore")

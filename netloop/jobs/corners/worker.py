@@ -16,13 +16,14 @@ from netloop.jobs.measure import Sweep, measure
 from netloop.netlist import parse_file
 
 __all__ = ["TaskOptions", "close_simulator", "corner_netlist", "files_state", "in_place_changes", "read_key", "run_chunk", "run_task",
-           "sample_decisions", "use_netlists", "worker_simulator"]
+           "sample_decisions", "stop_run", "use_netlists", "worker_simulator"]
 
 _SIMULATOR = None  # one ngspice per worker process, started by the first corner it runs
 _READ: dict[tuple, tuple[object, tuple]] = {}  # corner netlists this worker read: (netlist, its files' state) by what it was read from
 _READ_KEEP = 8
 _REREAD = ("lib", "include")  # the settings apply_settings reads the files again for (process arrives expanded into them)
 _GIVEN: dict[tuple, tuple[object, tuple]] = {}  # the netlists the plan's check read, sent with the task (run_task's ``netlists``)
+_STOPPED: set[str] = set()  # the runs interrupted (stop_run): a few bytes each, for the life of the worker
 _DECISIONS: dict[tuple, dict] = {}  # split decisions kept for the samples of a corner (measure's ``decisions``), _READ_KEEP at most
 
 
@@ -234,7 +235,20 @@ def run_task(task: Task, options: TaskOptions, netlists: dict[tuple, tuple] | No
     return tuple(records)
 
 
-def run_chunk(tasks: tuple[Task, ...], options: TaskOptions, netlists: dict[tuple, tuple] | None = None) -> tuple[tuple[dict, ...], ...]:
-    """run_task on each task in order, in one Dask task: each task's records, in the order of ``tasks``."""
-    return tuple(run_task(task, options, netlists) for task in tasks)
+def run_chunk(tasks: tuple[Task, ...], options: TaskOptions, netlists: dict[tuple, tuple] | None = None,
+              run: str | None = None) -> tuple[tuple[dict, ...], ...]:
+    """run_task on each task in order, in one Dask task: each task's records, in the order of ``tasks``. Once the run
+    named ``run`` is stopped (stop_run), no further task starts: the records of those measured until then (maybe none)."""
+    done = []
+    for task in tasks:
+        if run is not None and run in _STOPPED:
+            break
+        done.append(run_task(task, options, netlists))
+    return tuple(done)
+
+
+def stop_run(run: str) -> None:
+    """Called on each Dask worker (Client.run) when the run named ``run`` is interrupted: its chunks start no further
+    task, and hand back what they measured."""
+    _STOPPED.add(run)
 

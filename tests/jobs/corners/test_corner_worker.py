@@ -195,7 +195,7 @@ def test_a_task_whose_worker_fails_is_recorded_as_an_error(task, tmp_path, monke
 
     from netloop.jobs.corners import read_records, runner
 
-    measure_task = runner.run_task
+    measure_task = worker.run_task  # what each Dask task (runner.run_chunk) calls
 
     def lost(task, options, netlists=None):  # run_task's own signature: nothing else may reach it
         if task.corner.name == "50C":
@@ -203,7 +203,7 @@ def test_a_task_whose_worker_fails_is_recorded_as_an_error(task, tmp_path, monke
         return measure_task(task, options, netlists=netlists) if netlists else measure_task(task, options)
 
     (measured,), _ = _run(task, TaskOptions(sweep=FIXED), _Loop(), monkeypatch)  # the fields of a corner's record
-    monkeypatch.setattr(runner, "run_task", lost)
+    monkeypatch.setattr(worker, "run_task", lost)
     monkeypatch.setattr(worker, "_SIMULATOR", _Loop())  # the in-process worker's simulator
     (tmp_path / "plan.toml").write_text(
         f'netlist = "{task.corner.netlist}"\nat = "n0"\nmethod = "middlebrook"\ndriver = "r1"\nrequire = ["pm>=40"]\n'
@@ -239,7 +239,7 @@ def test_a_worker_forgets_each_result_once_the_run_has_it(task, tmp_path, monkey
 
     from netloop.jobs.corners import runner
 
-    measure_task = runner.run_task
+    measure_task = worker.run_task  # what each Dask task (runner.run_chunk) calls
     counts = tmp_path / "held.txt"  # Dask sends the task a copy of this function: what it sees comes back through a file
 
     def counting(task, options, netlists=None):  # run_task's own signature
@@ -248,7 +248,7 @@ def test_a_worker_forgets_each_result_once_the_run_has_it(task, tmp_path, monkey
         time.sleep(0.05)  # the run's fetch of the task before (a message to the scheduler and back) has time to end
         return measure_task(task, options, netlists=netlists) if netlists else measure_task(task, options)
 
-    monkeypatch.setattr(runner, "run_task", counting)
+    monkeypatch.setattr(worker, "run_task", counting)
     monkeypatch.setattr(worker, "_SIMULATOR", _Loop())  # the in-process worker's simulator
     temps = ", ".join(str(10 * i) for i in range(16))
     (tmp_path / "plan.toml").write_text(f'netlist = "{task.corner.netlist}"\nat = "n0"\nshare_loads = false\n[axes]\ntemp = [{temps}]\n')

@@ -224,10 +224,10 @@ def test_a_lost_chunk_of_samples_is_recorded_sample_by_sample(tmp_path, schedule
 
     measure_chunk = runner.run_chunk
 
-    def lost(tasks, options, netlists=None):  # run_chunk's own signature
+    def lost(tasks, options, netlists=None, run=None):  # run_chunk's own signature
         if any(t.corner.name == "nominal#5" for t in tasks):
             raise RuntimeError("worker lost")
-        return measure_chunk(tasks, options, netlists)
+        return measure_chunk(tasks, options, netlists, run)
 
     monkeypatch.setattr(runner, "run_chunk", lost)
     (tmp_path / "loop.cir").write_text(LOOP)
