@@ -33,6 +33,8 @@ client connected; the statistics); the plan check is timed alone and printed bes
 size of a real plan (``--samples 200``, the issue's own example) for the per-sample figure; at a few dozen
 samples the run's fixed costs weigh more.
 Targets: overhead <= 10 % of ngspice's own time; 2 workers >= 1.8x one worker.
+For comparison only (not the target's measure): ngspice's load of a sample's deck with its libraries as written, as a
+hand-run deck has it read them, against the library cards netloop hands it (hand_run_load).
 ``--quick``: the Miller buffer on the invented models (no mismatch: every sample alike), 4 samples, once (a smoke run
 of the path; ngspice needs a few ms there, so the targets do not apply).
 """
@@ -143,6 +145,49 @@ def deck_preparation(plan_path: Path, repeat: int = 5) -> float:
     return (time.process_time() - start) / repeat
 
 
+_LOADS = """
+import json, os, statistics, sys
+from netloop.sim.library import find_libngspice
+from netloop.sim.session import NgspiceSession
+from netloop.sim.used_models import used_pieces
+deck, repeat = open(sys.argv[1]).read(), int(sys.argv[2])
+session = NgspiceSession(find_libngspice())
+times = {"written": [], "used": []}
+for _ in range(repeat):
+    for kind, text in (("written", deck), ("used", used_pieces(deck, os.getcwd()))):
+        before = session.seconds
+        session.load(text)
+        times[kind].append(session.seconds - before)
+        session.clear()
+print(json.dumps({kind: statistics.median(t) for kind, t in times.items()}))
+"""
+
+
+def hand_run_load(plan_path: Path, folder: Path, repeat: int = 3) -> dict[str, float]:
+    """Seconds ngspice takes to load sample 1's first deck (median of ``repeat``, in a process of its own): "written", its
+    libraries read as written, as a hand-run deck has ngspice read them; "used", the library cards the circuit uses,
+    which is what netloop hands ngspice (netloop.sim.used_models; the same draws, tests/jobs/statistics/test_mismatch_sky130.py)."""
+    import json
+    import subprocess
+    import sys
+
+    from netloop.jobs.corners.worker import corner_netlist
+    from netloop.jobs.measure import probe_job
+    from netloop.jobs.statistics import load_sample_plan, sample_tasks
+    from netloop.probe import break_loop
+    from netloop.sim import AcSweep
+    from netloop.sim.convergence import option_words
+    from netloop.sim.deck import render_deck
+
+    task = sample_tasks(load_sample_plan(plan_path))[0]
+    job = probe_job(break_loop(corner_netlist(task.corner), task.at), (AcSweep("dec", 10, 1e-2, 1e10),))
+    deck = folder / "hand-run.cir"
+    deck.write_text(render_deck(job, option_words(job, None)))
+    run = subprocess.run([sys.executable, "-c", _LOADS, str(deck), str(repeat)], capture_output=True, text=True, check=True,
+                         cwd=job.workdir or os.getcwd(), env={**os.environ, "PYTHONPATH": str(ROOT)})
+    return json.loads(run.stdout.strip().splitlines()[-1])
+
+
 def plan_check(plan_path: Path, repeat: int = 3) -> float:
     """Wall seconds of what a run does once before its first sample: the plan read and checked (every corner applied,
     the loop broken at each node), the fastest of ``repeat``."""
@@ -202,6 +247,7 @@ def main() -> None:
                     runs[workers].append(timed_run(plan, clients[workers], addresses[workers], work / f"r{workers}.jsonl"))
         load_after = os.getloadavg()
         prepare, check = deck_preparation(plan), plan_check(plan)
+        loads_by_hand = None if args.quick else hand_run_load(plan, work)
         (wall1, rec1, cpu1, _), (wall2, rec2, _cpu2, _) = (min(runs[w], key=lambda x: x[0]) for w in (1, 2))
         n = len(rec1)
         waited = statistics.fmean(r["sim_seconds"] for r in rec1)
@@ -233,6 +279,12 @@ def main() -> None:
               + f"  ({per_sample * 1e3 - sim * 1e3:.1f} ms a sample: in the ngspice process beyond ngspice's calls (deck "
               f"{prepare * loads / n * 1e3:.1f} ms of it) and the hand-over {(waited - sim) * 1e3:.1f} ms; netlist, probe and analysis in the "
               f"worker {(task - waited) * 1e3:.1f} ms; Dask, results file and statistics {(per_sample - task) * 1e3:.1f} ms)")
+        if loads_by_hand:
+            written, used = loads_by_hand["written"], loads_by_hand["used"]
+            print(f"for comparison, not the target's measure: ngspice loading a sample's deck with its libraries as written, as a "
+                  f"hand-run deck has it read them, {written * 1e3:.0f} ms (median of 3, sample 1's first deck), against {used * 1e3:.1f} ms "
+                  f"for the library cards the circuit uses, which netloop hands it (the same draws); a whole sample in netloop, "
+                  f"{per_sample * 1e3:.0f} ms, is {per_sample / written:.2f} of that load alone")
         cpu_netloop = cpu_workers + cpu_caller + cpu_spice_python
         print(f"CPU time on 1 worker: ngspice's own {cpu_ngspice:.2f} s; netloop {cpu_netloop:.2f} s, {cpu_netloop / cpu_ngspice * 100:.1f} % of "
               f"ngspice's: the Dask worker (measurement and Dask) {cpu_workers:.2f} s, {cpu_workers / cpu_ngspice * 100:.1f} %; the ngspice "
