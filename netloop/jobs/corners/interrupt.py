@@ -38,7 +38,8 @@ def ignoring_interrupts() -> Iterator[None]:
 @contextlib.contextmanager
 def first_stops(on_first: Callable[[], None]) -> Iterator[threading.Event]:
     """While in the block, the first SIGINT sets the event it yields and calls ``on_first()``, which must return at once
-    (it starts what stops the work); a second raises KeyboardInterrupt. Outside the main thread nothing is installed and
+    and write nothing (it starts a thread that stops the work and says so: the main thread may be inside a write to the
+    same stream, which Python refuses to enter again from a signal handler); a second raises KeyboardInterrupt. Outside the main thread nothing is installed and
     SIGINT does what it did (the event is never set)."""
     stop = threading.Event()
     if not _main_thread():

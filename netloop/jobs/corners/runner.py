@@ -358,10 +358,11 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
             futures.update(zip(sent, parts, strict=True))
             del sent  # the futures live in ``futures`` alone (let go there once fetched)
 
-        def stop() -> None:  # the first Ctrl-C: called in the signal handler, which must not wait for the workers
-            bar.stream.write(f"\nnetloop: stopping: the {bar.noun} in progress finish and go to the results file; "
-                             "Ctrl-C again to stop at once\n")
-            threading.Thread(target=_stop_workers, args=(client, run_id), daemon=True).start()
+        def stop() -> None:  # the first Ctrl-C, in the signal handler: it waits for nothing, and writes nothing (the main
+            # thread may be inside a write to the same stream, which Python refuses to enter twice)
+            said = (f"\nnetloop: stopping: the {bar.noun} in progress finish and go to the results file; "
+                    "Ctrl-C again to stop at once\n")
+            threading.Thread(target=_stop_workers, args=(client, run_id, bar.stream, said), daemon=True).start()
 
         # the futures that finished together are fetched in one round trip to the scheduler; each is then let go, so that
         # its worker forgets its records (a worker holds a task's result while any client holds its future). Once
@@ -385,7 +386,10 @@ def _run(pending: list[Task], options: TaskOptions, journal: Journal, by_key: di
     return workers, stopped.is_set()
 
 
-def _stop_workers(client, run_id: str) -> None:
-    """Tell every worker that run ``run_id`` stops (worker.stop_run); a worker that cannot be reached finishes its chunk."""
+def _stop_workers(client, run_id: str, stream, said: str) -> None:
+    """Write ``said`` to ``stream``, then tell every worker that run ``run_id`` stops (worker.stop_run); a worker that
+    cannot be reached finishes its chunk."""
+    stream.write(said)
+    stream.flush()
     with contextlib.suppress(Exception):  # noqa: BLE001 - the cluster going down meanwhile: the second Ctrl-C is there
         client.run(stop_run, run_id, on_error="ignore")
