@@ -41,6 +41,9 @@ PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: 
     "netlist": ("netloop/netlist/*", ("tests/netlist",)),
     "probe": ("netloop/probe/*", ("tests/probe",)),
     "corners": ("netloop/jobs/corners/*", ("tests/jobs/corners",)),
+    # Ctrl-C during a run: what the workers ignore, what the first and second interrupt do (the whole run is
+    # tests/jobs/statistics/test_interrupt_run.py, too slow for each mutant)
+    "interrupt": ("netloop/jobs/corners/interrupt.py", ("tests/jobs/corners/test_interrupt.py",)),
     "statistics": ("netloop/jobs/statistics/*", ("tests/jobs/statistics",)),
     # the loop census and break choice are mostly exercised through the probe and the jobs that read them
     "graph": ("netloop/graph/*", ("tests/graph", "tests/probe", "tests/jobs/test_census.py", "tests/jobs/test_discover.py",
