@@ -327,3 +327,13 @@ def test_errors_inside_tables_point_at_their_own_lines(tmp_path):
     with pytest.raises(PlanError) as regression:
         parse_plan(head + '\nregression = 3\n', path)
     assert str(regression.value).startswith(f"{path}:4: regression must be a table ([regression]) of limits")
+
+
+def test_each_setting_reads_in_a_corner_name_as_the_readme_shows_it():
+    """Corner names join the settings' labels ("ss/125C/vsup=1.7V", README): a variant netlist by its stem, a process
+    section or table by its name, a temperature in C, a supply in V, a seed, and any other setting as target=value."""
+    labels = {kind: Setting(kind, target, value).label for kind, target, value in [
+        ("netlist", "", "variants/amp_rev_b.cir"), ("process", "", "ss"), ("lib", "process.spice", "ff"), ("include", "tt", "ss"),
+        ("temp", "", "-40"), ("supply", "vsup", "1.7"), ("seed", "", "17"), ("param", "ibias", "12u"), ("element", "cc", "2p")]}
+    assert labels == {"netlist": "amp_rev_b", "process": "ss", "lib": "ff", "include": "ss", "temp": "-40C", "supply": "vsup=1.7V",
+                      "seed": "seed=17", "param": "ibias=12u", "element": "cc=2p"}

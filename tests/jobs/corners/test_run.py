@@ -236,3 +236,18 @@ def test_corners_sent_in_chunks_give_the_records_of_one_task_each(tmp_path, sche
     one = run_tasks(plan, tasks, cluster=scheduler, out=tmp_path / "one.jsonl")
     two = run_tasks(plan, tasks, cluster=scheduler, out=tmp_path / "two.jsonl", chunk=2)
     assert measured(two) == measured(one) and {r["outcome"] for r in one.records} <= {"pass", "fail"}
+
+
+def test_a_runs_verdict_is_fail_when_any_corner_failed_or_was_not_measured_then_inconclusive_then_pass():
+    """CornerRun.verdict, the exit status of `netloop corners`: "fail" when a corner failed or could not be simulated
+    (and for a plan that showed nothing), else "inconclusive" when a corner's data supported no verdict, else "pass";
+    passed only for "pass"."""
+    from netloop.jobs.corners.runner import CornerRun
+
+    def run(*outcomes):
+        return CornerRun("plan.toml", "plan.results.jsonl", tuple({"outcome": o} for o in outcomes), ran=len(outcomes), skipped=0)
+
+    cases = {(): "fail", ("pass",): "pass", ("pass", "pass"): "pass", ("pass", "inconclusive"): "inconclusive",
+             ("inconclusive", "fail"): "fail", ("pass", "error"): "fail", ("inconclusive", "error"): "fail", ("fail",): "fail"}
+    assert {outcomes: run(*outcomes).verdict for outcomes in cases} == cases
+    assert [run(*outcomes).passed for outcomes in cases] == [v == "pass" for v in cases.values()]
