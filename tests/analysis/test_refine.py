@@ -358,3 +358,11 @@ def test_a_proposal_already_sampled_is_left_out_as_np_isin_leaves_it_out():
         freq = np.unique(np.append(freq, np.nextafter(freq[: rng.integers(0, 3)], np.inf)))  # pairs one bit apart
         brackets = sorted(set(rng.integers(0, freq.size - 1, 3).tolist()))
         assert np.array_equal(proposals(freq, brackets, [], 3), reference(freq, brackets)[0])
+
+
+def test_a_first_sweep_without_a_gain_crossover_has_no_phase_margin():
+    """crossings() of a loop that never reaches 0 dB: no gain crossover, so no phase margin (None), as a draft reads it."""
+    f = np.logspace(0, 8, 81)
+    t = 0.5 / (1 + 1j * f / 1e3)  # |T| <= 0.5 everywhere (closed form)
+    found = crossings(f, t)
+    assert found.gain_crossovers == () and found.phase_margin_deg is None

@@ -86,3 +86,17 @@ def test_a_corner_repeated_at_the_same_axis_value_stays_on_its_line_in_record_or
     (line,) = lines_along(run, axis)
     assert [r["corner"] for _, r in line.points] == ["param_iload=1m", "param_iload=10m", "param_iload=0.01"]
     assert [v for v, _ in line.points] == pytest.approx([1e-3, 1e-2, 1e-2], rel=1e-12)
+
+
+def test_a_planes_other_settings_read_as_a_corner_name_and_a_results_file_by_its_name():
+    """A plane's context is its other settings as a corner name writes them (README: "ss/125C"), "" with none; a results
+    file goes by its file name in column heads and legends."""
+    from netloop.jobs.runs.axes import Plane
+    from netloop.jobs.runs.results import ResultsFile
+
+    def plane(*others):
+        return Plane(x=None, y=None, at="out", others=others, lines=())
+
+    assert plane(("lib", "ss"), ("temp", "125")).context == "ss/125C" and plane().context == ""
+    assert plane(("supply.vdd", "3.0"),).context == "vdd=3.0V"
+    assert ResultsFile("runs/night/amp.results.jsonl", "", "", ()).name == "amp.results.jsonl"

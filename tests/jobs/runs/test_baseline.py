@@ -60,6 +60,27 @@ def test_the_corners_that_fell_beyond_the_limit_and_no_others_are_regressions(ru
         assert pm.delta == pytest.approx(-drops[c.corner], abs=0.02)  # netloop's margins against python-control's
 
 
+def test_a_run_within_every_limit_passes(runs):
+    """The same run against itself, or with a limit no corner exceeds (the largest drop by python-control plus a margin),
+    has no regression: verdict "pass", the exit status 0 of --baseline; only a regression makes it "fail"."""
+    a, b = runs
+    assert compare_runs(a, a, parse_limits(["pm=0.5deg"]), baseline_path="a.jsonl").verdict == "pass"
+    largest = max(_reference_pm(i, e, None) - _reference_pm(i, e, FB_POLE_HZ) for i in LOADS for e in ESRS)
+    loose = compare_runs(a, b, parse_limits([f"pm={largest + 0.5}deg"]), baseline_path="a.jsonl")
+    assert (loose.regressions, loose.verdict) == ((), "pass")
+
+
+def test_a_figure_change_is_a_difference_only_between_two_finite_figures():
+    """FigureChange.delta: now - before when both exist and are finite; None when either is missing or infinite (a gain
+    margin with no phase crossover is +inf, as documented)."""
+    from netloop.jobs.runs.baseline import FigureChange
+
+    inf = float("inf")
+    cases = {(60.0, 55.5): -4.5, (None, 55.0): None, (60.0, None): None, (inf, 20.0): None, (20.0, inf): None, (-inf, 20.0): None,
+             (20.0, -inf): None, (inf, inf): None}
+    assert {pair: FigureChange("gm", *pair).delta for pair in cases} == cases
+
+
 def test_limits_in_other_figures_and_directions(runs):
     """peak may rise by at most 0.4 dB flags the corners whose peaking rose more (read from the records themselves);
     fc may fall by 1 % flags none (revision B moves no crossover by 1 %); a baseline against itself has no regression."""

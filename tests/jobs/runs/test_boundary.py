@@ -156,3 +156,20 @@ def test_a_crossing_next_to_a_corner_without_the_figure_is_not_interpolated_and_
     (b,) = boundaries(PM45, lines_along(run, axis))
     assert b.holds == tuple(pm is not None and pm >= 45 for pm in pms)
     assert b.crossings == (Crossing(None, low, high, holds_above, f"the corner at {without} has no phase margin"),)
+
+
+def test_a_requirement_holds_everywhere_nowhere_or_changes_and_the_unmeasured_points_are_named():
+    """Boundary.everywhere: True when every measured corner of the line holds the requirement, False when none does, None
+    when it changes along the line or nothing was measured; unmeasured: the axis values whose corner has no figures."""
+    from types import SimpleNamespace
+
+    from netloop.jobs.runs.boundary import Boundary
+
+    line = SimpleNamespace(points=((1.0, "a"), (2.0, "b"), (3.0, "c")))
+
+    def boundary(*holds):
+        return Boundary(requirement=None, line=line, holds=holds, crossings=())
+
+    assert [boundary(*h).everywhere for h in ((True, None, True), (False, False, None), (True, False, True), (None, None, None))] == [
+        True, False, None, None]
+    assert boundary(True, None, None).unmeasured == (2.0, 3.0) and boundary(True, False, True).unmeasured == ()

@@ -48,3 +48,13 @@ def test_the_worst_outcome_of_a_corners_break_nodes_counts_whatever_their_order(
     # an inconclusive record's figures are not used (netloop.jobs.runs.figures.measured): c's worst is its fail at out
     assert rows["a"].phase_margin_deg == (40.0,) and rows["c"].phase_margin_deg == (55.0,)
     assert rows["b"].phase_margin_deg == (None,) and rows["d"].phase_margin_deg == (None,)
+
+
+def test_the_latest_drop_reads_the_first_known_margin_and_the_last_run():
+    """TrendRow.latest_drop_deg: the first run's known phase margin less the last run's; None when the last run has none
+    or fewer than two runs have one (a corner new in the last run has no drop)."""
+    from netloop.jobs.runs.trend import TrendRow
+
+    cases = {(None, 62.0, 60.5, 59.0): 3.0, (62.0, None, 59.0): 3.0, (62.0, 59.0, None): None, (None, None, 59.0): None,
+             (59.0,): None, (60.0, 61.0): -1.0, (58.0, 61.0, 60.0): -2.0}
+    assert {pms: TrendRow("tt", pms, ("pass",) * len(pms)).latest_drop_deg for pms in cases} == cases
