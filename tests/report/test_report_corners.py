@@ -50,6 +50,24 @@ def test_table_sorts_worst_first_and_counts(outcomes):
     assert lines[-1] == "7 loops measured (7 corners at 2 break nodes): 3 pass, 1 fail a requirement, 1 unstable, 1 inconclusive (no verdict), 1 error (not measured)"
 
 
+def test_each_corners_verdict_and_record_are_those_a_corner_run_stores(outcomes):
+    """A CornerOutcome's verdict is its record's (netloop.report.corner_records.verdict: error, inconclusive, unstable,
+    fail, pass) and passed only for pass; its record has the keys a worker writes for a corner (netloop.jobs.corners),
+    so the tables read a `netloop check` loop and a stored corner alike."""
+    from netloop.jobs.corners.runner import _lost
+    from netloop.jobs.corners.expand import Corner, Task
+
+    verdicts = {o.label: o.verdict for o in outcomes}
+    assert verdicts == {"tt_27c": "pass", "ff_m40c": "unstable", "ss_125c": "pass", "fs_0c": "error", "sf_27c": "fail",
+                        "fs_27c": "inconclusive", "tt_0c": "pass"}
+    assert {o.label for o in outcomes if o.passed} == {"tt_27c", "ss_125c", "tt_0c"}
+    stored = set(_lost(Task(Corner("c", "x.cir", (), 1), "out", "k"), RuntimeError("lost"))[0])  # a corner record as stored
+    for o in outcomes:
+        record = o.record
+        assert set(record) <= stored and {"corner", "at", "outcome", "loop", "error", "settings", "seconds", "simulator_output"} <= set(record)
+        assert (record["settings"], record["simulator_output"]) == ({}, None)
+
+
 def test_junit_xml_parses_and_counts(outcomes):
     """The JUnit XML parses, has one testcase per corner, and counts the unstable, failed and inconclusive corners as
     failures (3) and the unmeasured one as an error, in both count attributes; nothing is skipped."""
