@@ -89,7 +89,10 @@ def test_the_dc_gain_stands_for_dc_only_where_t_is_flat_and_on_the_real_axis_at_
         "rising 0.97 dB a decade": ([100, 100 * 10 ** (0.97 / 20), 100 * 10 ** (1.94 / 20)], True),
         "a zero among the lowest 3": ([100, 100, 0], False),
         "on the imaginary axis": ([100j, 100j, 100j], False),
+        "5 deg off at the bottom, 80 next": ([0.5 * deg(-5), 0.5 * deg(-80), 0.5 * deg(-80)], True),
+        "|T| exactly 1, leading 2 deg": ([complex(0.9993906021118164, 0.034905936609423115)] * 3, True),  # not above 1
     }
+    assert abs(cases["|T| exactly 1, leading 2 deg"][0][0]) == 1.0
     got = {name: _with_bottom(a, bottom).gain_is_dc for name, (bottom, _) in cases.items()}
     assert got == {name: want for name, (_, want) in cases.items()}
     assert _with_bottom(a, [100, 100, 100, 0], (1.0, 10.0, 100.0, 300.0)).gain_is_dc  # only the lowest 3 samples count
@@ -105,5 +108,7 @@ def test_the_largest_gain_and_the_phase_branch_of_a_positive_feedback_integrator
     f, t = sample(control.tf([0.1], [1e-3, 1]), 1e-1, 1e6)  # never reaches 0 dB: 0.1 at DC
     assert analyse(f, t, fit_poles=False).largest_gain_db == pytest.approx(20 * np.log10(np.max(np.abs(t))), abs=1e-12)
     assert analyse(f, t, fit_poles=False).largest_gain_db == pytest.approx(-20.0, abs=1e-3)
+    notch = dataclasses.replace(analyse(f, t, fit_poles=False), t=np.where(np.arange(t.size) == 40, 0, t))
+    assert notch.largest_gain_db == pytest.approx(-20.0, abs=1e-3)  # a sample at exactly 0 (a notch on it) is -6000 dB, not NaN
     a = analyse(*sample(control.tf([-10], [1, 0]), 1e-2, 1e3), fit_poles=False)
     assert a.nyquist.origin_poles == 1 and a.phase_deg[0] == pytest.approx(-270.0, abs=1e-9)
