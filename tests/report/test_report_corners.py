@@ -66,6 +66,7 @@ def test_each_corners_verdict_and_record_are_those_a_corner_run_stores(outcomes)
         record = o.record
         assert set(record) <= stored and {"corner", "at", "outcome", "loop", "error", "settings", "seconds", "simulator_output"} <= set(record)
         assert (record["settings"], record["simulator_output"]) == ({}, None)
+        assert record["seconds"] == (0.0 if o.result is None else o.result.sim.seconds)  # an error spent no simulation time
 
 
 def test_junit_xml_parses_and_counts(outcomes):
