@@ -166,3 +166,27 @@ def test_element_suggestions_on_a_large_circuit_compare_names_of_about_the_typed
     with pytest.raises(UnknownNodeError) as info:
         flatten(parse_text(text)).element(typed)
     assert info.value.suggestions == suggested
+
+
+NESTED_F = """nested current-controlled source (invented)
+X1 a 0 outer
+.subckt outer p n
+X2 p n inner
+.ends
+.subckt inner p n
+Vsense p m 0
+Rm m n 1k
+F1 n p Vsense 2
+.ends
+.end
+"""
+
+
+def test_flat_elements_carry_every_field_and_nested_controls_are_named_by_their_whole_path():
+    """FlatCircuit.elements holds each primitive's own name, kind, nets, pins, card, path and wrapper; a current-controlled
+    source two instances deep names its controlling source by the whole path (x1.x2.vsense)."""
+    flat = flatten(parse_text(NESTED_F))
+    f1 = next(e for e in flat.elements if e.name == "x1.x2.f1")
+    assert (f1.kind, f1.nodes, f1.pins, f1.path, f1.subcircuit, f1.element.name) == ("F", ("0", "a"), ("p", "n"), ("x1", "x2"), None, "F1")  # the card as written
+    assert f1.controlling_sources == ("x1.x2.vsense",)
+    assert [(e.name, e.path) for e in flat.elements] == [("x1.x2.vsense", ("x1", "x2")), ("x1.x2.rm", ("x1", "x2")), ("x1.x2.f1", ("x1", "x2"))]

@@ -235,3 +235,19 @@ def test_a_long_loop_is_described_shortened_on_request_and_listed_whole_in_json(
     text = format_census(census)
     assert "loop 1 (n1): 1 loop, 60 nodes; break at n1" in text and "n59" not in text and len(text) < 1000
     assert census_document(census)["groups"][0]["loops"][0]["path"] == whole
+
+
+def test_a_loops_active_steps_count_the_stages_that_amplify():
+    """Loop.active_steps counts the steps through controlled sources and transistors, not through passive parts: a ring
+    of three transconductors has three; closed by a resistor instead of the third, two (by construction)."""
+    from netloop.graph import find_loops, flatten
+    from netloop.netlist import parse_text
+
+    stages = "Ra a 0 1k\nCa a 0 1n\nRb b 0 1k\nCb b 0 1n\nRc c 0 1k\nCc c 0 1n\n"
+    three = "ring\nG1 0 b a 0 2m\nG2 0 c b 0 2m\nG3 a 0 c 0 2m\n" + stages + ".end\n"
+    two = "ring\nG1 0 b a 0 2m\nG2 0 c b 0 2m\nRf c a 10k\n" + stages + ".end\n"
+    counts = {}
+    for name, text in (("three", three), ("two", two)):
+        loops = [loop for group in find_loops(flatten(parse_text(text))).groups for loop in group.loops]
+        counts[name] = sorted(loop.active_steps for loop in loops if len(loop.steps) == 3)
+    assert counts == {"three": [3], "two": [2]}

@@ -58,3 +58,21 @@ def test_two_terminal_constructor_called_in_the_test_makes_the_dataclass_records
     assert made.nodes == ref.nodes == (a.lower(), b.lower())
     assert (made.name, made.tokens, made.node_slots, made.pins) == (ref.name, ref.tokens, ref.node_slots, ref.pins)
     assert (made.location.file, made.location.line, made.location.column) == ("f.cir", 7, 1)
+
+
+def test_params_are_the_key_value_tokens_and_nothing_quoted_or_braced():
+    """Element.params: every key=value token in card order, split at its first "=" (a value may hold another); a token
+    that starts with a brace or a quote is an expression, not a parameter, whatever it holds."""
+    x1 = parse_text("t\nX1 a b amp w={l==1?2:3} {a=b} 'c=d' M=2\n.subckt amp p q\nR1 p q 1k\n.ends\n").element("x1")
+    assert x1.params == (("w", "{l==1?2:3}"), ("m", "2"))
+
+
+def test_a_copy_with_other_statements_lists_its_own_elements():
+    """A copy made with dataclasses.replace shares the lookup cache of the netlist it came from; its elements are its
+    own statements' all the same."""
+    from dataclasses import replace
+
+    net = parse_text(DECK)
+    assert [e.name for e in net.elements] == ["Rload", "M1", "X1"]  # cached now
+    fewer = replace(net, statements=tuple(s for s in net.statements if getattr(s, "name", "") != "M1"))
+    assert [e.name for e in fewer.elements] == ["Rload", "X1"] and [e.name for e in net.elements] == ["Rload", "M1", "X1"]
