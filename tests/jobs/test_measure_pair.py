@@ -551,3 +551,20 @@ def test_a_pair_whose_moved_split_does_not_regulate_is_judged_on_the_split_it_me
         np.testing.assert_allclose(mode.analysis.t[keep], t[keep], rtol=1e-6)
         assert mode.verdict == "pass"
     assert result.verdict == "pass"
+
+
+def test_a_pair_is_stable_only_when_both_modes_are_and_couples_only_beyond_the_threshold():
+    """PairResult.stable needs the differential and the common loop stable; Coupling.coupled needs either figure beyond
+    the threshold (exactly at it is not), and nothing when the coupling is unjudged (by construction)."""
+    from types import SimpleNamespace
+
+    from netloop.jobs.measure_pair import Coupling, PairResult
+
+    def pair(dm, cm):
+        return PairResult(SimpleNamespace(stable=dm), SimpleNamespace(stable=cm), None, ("outp", "outn"))
+
+    assert [pair(*s).stable for s in ((True, True), (True, False), (False, True), (False, False))] == [True, False, False, False]
+    limit = Coupling(-40.0, -60.0, 1e6, 1e5).threshold_db
+    assert [Coupling(x, y, 1e6, 1e5).coupled for x, y in ((limit, -90.0), (-90.0, limit), (limit + 0.5, -90.0), (-90.0, limit + 0.5))] == [
+        False, False, True, True]
+    assert not Coupling(limit + 10, limit + 10, 1e6, 1e5, unjudged="the common mode measured no loop").coupled

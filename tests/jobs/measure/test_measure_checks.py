@@ -172,3 +172,20 @@ def test_the_second_break_moves_each_unsure_bridge_to_the_other_side(side, other
     assert asked == [{"cx1": other}]
     assert check.name == "second-break" and check.passed is True
     assert check.detail.startswith(f"a second break, cx1 to the {other} side: the closed-loop poles below ")
+
+
+def test_a_trials_failed_checks_include_the_opens_loop_check_when_it_was_asked():
+    """Trial.failed: the analysis's failed self-checks, and the opens-loop check when it ran and failed (a split that
+    leaves the loop closed supports no verdict); a trial without it has the analysis's alone (by construction)."""
+    from types import SimpleNamespace
+
+    from netloop.analysis.results import Check
+    from netloop.jobs.measure_checks import Trial
+
+    data = Check("nyquist-data", False, "the phase jumps", "sweep denser")
+    fine = Check("falls-at-top", True, "T falls", "")
+    closed = Check("opens-loop", False, "the loop stays closed on the load side", "move the bridge")
+    analysis = SimpleNamespace(checks=(fine, data))
+    assert Trial({}, None, analysis, opens=closed).failed == (data, closed)
+    assert Trial({}, None, analysis).failed == (data,)
+    assert Trial({}, None, SimpleNamespace(checks=(fine,)), opens=Check("opens-loop", True, "opens it", "")).failed == ()

@@ -130,3 +130,18 @@ def test_a_value_written_by_its_key_is_found_among_other_keys():
     assert changed_netlist(netlist, by["r1"], 2.0, 0.0)[1] == "r1 a 0 tc1=0.001 r=2000.0"
     assert changed_netlist(netlist, by["l1"], 2.0, 0.0)[1] == "l1 a b l=2e-06"
     assert changed_netlist(netlist, by["c1"], 0.5, 0.0)[1] == "c1 b 0 temp=30 capacitance=1e-12"
+
+
+def test_only_a_capacitor_or_an_inductor_leaves_the_operating_point():
+    """Knob.keeps_operating_point: changing a capacitance or an inductance moves no DC current or voltage (circuit theory);
+    a resistance, a gain or a size does."""
+    from dataclasses import fields
+
+    from netloop.jobs.sensitivity.knobs import Knob
+
+    def knob(parameter):
+        values = {f.name: None for f in fields(Knob)}
+        return Knob(**{**values, "element": "x", "parameter": parameter, "device": "x", "quantity": parameter, "unit": "", "reload": ""})
+
+    assert {p: knob(p).keeps_operating_point for p in ("capacitance", "inductance", "resistance", "gain", "w", "l", "m")} == {
+        "capacitance": True, "inductance": True, "resistance": False, "gain": False, "w": False, "l": False, "m": False}
