@@ -190,3 +190,11 @@ def test_flat_elements_carry_every_field_and_nested_controls_are_named_by_their_
     assert (f1.kind, f1.nodes, f1.pins, f1.path, f1.subcircuit, f1.element.name) == ("F", ("0", "a"), ("p", "n"), ("x1", "x2"), None, "F1")  # the card as written
     assert f1.controlling_sources == ("x1.x2.vsense",)
     assert [(e.name, e.path) for e in flat.elements] == [("x1.x2.vsense", ("x1", "x2")), ("x1.x2.rm", ("x1", "x2")), ("x1.x2.f1", ("x1", "x2"))]
+
+
+def test_a_device_wrapper_instance_is_one_flat_element_naming_its_wrapper():
+    """A sky130-style device wrapper (a subcircuit holding one MOSFET, pins d g s b) flattens to one element of the
+    device's letter that names the wrapper it stands for (FlatCircuit.elements carries it); a plain element names none."""
+    flat = flatten(parse_text("wrapper (invented)\nX1 a b 0 0 nfet w=1 l=1\nR1 a b 1k\n.subckt nfet d g s b w=1 l=1\n"
+                              "M1 d g s b nmodel w={w} l={l}\n.ends\n.model nmodel nmos level=1\n.end\n"))
+    assert [(e.name, e.kind, e.subcircuit) for e in flat.elements] == [("x1", "M", "nfet"), ("r1", "R", None)]
