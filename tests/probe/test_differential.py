@@ -235,3 +235,22 @@ def test_coupling_of_a_mode_with_no_returned_signal():
     q = PairQuantities(va1, va1 + eye, ib2)
     np.testing.assert_array_equal(q.dm_to_cm, [0.0, np.inf])
     np.testing.assert_array_equal(q.cm_to_dm, [0.0, 0.0])
+
+
+def test_a_pair_broken_inside_an_instance_names_the_one_copy_that_holds_both_probes():
+    """Breaking both nodes of a pair inside instance xamp copies its subcircuit for the first probe, and that copy again
+    for the second: PairProbe.copied_subcircuits names the original and the final copy once (a copy of a copy counts
+    once), the instance reads the final copy, and it holds both halves' probes (by construction of the break)."""
+    from pathlib import Path
+
+    from netloop.netlist import parse_file
+
+    bench = Path(__file__).resolve().parents[2] / "circuits" / "benches" / "fd_miller_pair.cir"
+    pair = break_pair(parse_file(bench), "xamp.o1p", "xamp.o1n")
+    ((original, final),) = pair.copied_subcircuits
+    assert original == "fdamp" and pair.p.copied_subcircuits == (("fdamp", pair.n.copied_subcircuits[0][0]),)
+    assert pair.n.copied_subcircuits[0][1] == final
+    assert pair.netlist.element("xamp").model.lower() == final
+    held = {e.name.lower() for e in pair.netlist.subcircuit(final).elements}
+    assert {pair.p.series_source, pair.n.series_source} == {"v.xamp.vnl_series", "v.xamp.vnl_series_2"}  # ngspice's names
+    assert {"vnl_series", "vnl_series_2"} <= held
