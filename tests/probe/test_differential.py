@@ -254,3 +254,8 @@ def test_a_pair_broken_inside_an_instance_names_the_one_copy_that_holds_both_pro
     held = {e.name.lower() for e in pair.netlist.subcircuit(final).elements}
     assert {pair.p.series_source, pair.n.series_source} == {"v.xamp.vnl_series", "v.xamp.vnl_series_2"}  # ngspice's names
     assert {"vnl_series", "vnl_series_2"} <= held
+
+    # one node inside the instance, the other at the top: the first break's copy is the final one
+    lopsided = break_pair(parse_file(bench), "xamp.o1p", "outn")
+    assert lopsided.n.copied_subcircuits == () and lopsided.copied_subcircuits == (("fdamp", "fdamp_broken_in_xamp"),)
+    assert lopsided.netlist.element("xamp").model.lower() == "fdamp_broken_in_xamp"
