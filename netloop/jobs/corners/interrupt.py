@@ -2,8 +2,9 @@
 
 A terminal sends SIGINT to every process of the foreground group: netloop, the local cluster's Dask workers and their
 ngspice processes. The local cluster's workers ignore it (started under `ignoring_interrupts`, and `dask_setup` as the
-preload of every worker, one its nanny starts again later included), so that only netloop decides: `first_stops` turns its first SIGINT into a request to stop, which the
-runner passes on to the workers, and leaves the second to raise KeyboardInterrupt as Python does.
+preload of every worker, one its nanny starts again later included), so that only netloop decides: `first_stops` turns
+its first SIGINT into a request to stop, which the runner passes on to the workers, and leaves the second to raise
+KeyboardInterrupt as Python does.
 """
 
 from __future__ import annotations
@@ -39,8 +40,8 @@ def ignoring_interrupts() -> Iterator[None]:
 def first_stops(on_first: Callable[[], None]) -> Iterator[threading.Event]:
     """While in the block, the first SIGINT sets the event it yields and calls ``on_first()``, which must return at once
     and write nothing (it starts a thread that stops the work and says so: the main thread may be inside a write to the
-    same stream, which Python refuses to enter again from a signal handler); a second raises KeyboardInterrupt. Outside the main thread nothing is installed and
-    SIGINT does what it did (the event is never set)."""
+    same stream, which Python refuses to enter again from a signal handler); a second raises KeyboardInterrupt. Outside
+    the main thread nothing is installed and SIGINT does what it did (the event is never set)."""
     stop = threading.Event()
     if not _main_thread():
         yield stop
