@@ -204,24 +204,28 @@ def mutant_names(work: Path) -> list[str]:
     return sorted(names)
 
 
-def property_mutants(work: Path, judged: dict[str, str], jobs: int) -> list[str]:
-    """Generate the copy's mutants (as draw_sample does) and list those of the methods that are properties in the package
-    (properties.json, unwrap_properties), not judged equivalent; kept in sample.json beside the copy for --report."""
+def _generated(work: Path, jobs: int) -> list[str]:
+    """Generate the copy's mutants and learn which tests reach what (mutmut does both before it filters by name: a name that
+    matches nothing stops it right after); every mutant's name."""
     _mutmut(work, "run", "--max-children", str(jobs), "netloop.no_such_mutant", quiet=True)
+    return mutant_names(work)
+
+
+def property_mutants(work: Path, judged: dict[str, str], jobs: int) -> list[str]:
+    """The copy's mutants of the methods that are properties in the package (properties.json, unwrap_properties), not judged
+    equivalent; kept in sample.json beside the copy for --report."""
     prefixes = tuple(f"{module}.{name}__mutmut_" for module, names in json.loads((work / "properties.json").read_text()).items()
                      for name in names)
-    every = mutant_names(work)
+    every = _generated(work, jobs)
     chosen = [n for n in every if n.startswith(prefixes) and n not in judged]
     (work / "sample.json").write_text(json.dumps({"properties": True, "of": len(every), "names": chosen}, indent=1, ensure_ascii=False))
     return chosen
 
 
 def draw_sample(work: Path, size: int, seed: int, judged: dict[str, str], jobs: int) -> list[str]:
-    """Generate the copy's mutants and learn which tests reach what (mutmut does both before it filters by name: a name that
-    matches nothing stops it right after), then draw ``size`` of the mutants not judged equivalent, the same for the same seed
-    and code; the draw is kept in sample.json beside the copy so that --report reads the same sample."""
-    _mutmut(work, "run", "--max-children", str(jobs), "netloop.no_such_mutant", quiet=True)
-    names = [n for n in mutant_names(work) if n not in judged]
+    """Draw ``size`` of the copy's mutants (_generated) not judged equivalent, the same for the same seed and code; the draw
+    is kept in sample.json beside the copy so that --report reads the same sample."""
+    names = [n for n in _generated(work, jobs) if n not in judged]
     if not names:
         raise SystemExit(f"mutate: mutmut generated no mutants in {work}; run it without --sample to see why")
     chosen = sorted(random.Random(seed).sample(names, min(size, len(names))))
@@ -298,28 +302,17 @@ def main(argv: list[str] | None = None) -> int:
         folder = f"{package}-sample" if args.sample else f"{package}-properties" if args.properties else package
         if args.report:
             work = ROOT / ".mutate" / folder
-        elif args.properties:
-            listed = ROOT / ".mutate" / folder / "sample.json"
-            judged = equivalent.get(package, {})
-            if args.again and listed.exists():  # the same mutants: not yet checked, survived (not judged equivalent) or stopped
-                names = set(json.loads(listed.read_text())["names"])
-                chosen = [n for n, v in verdicts(listed.parent).items() if n in names and _again(v) and n not in judged]
-                work = prepare(package, fresh=False, folder=folder)
-            else:
-                work = prepare(package, fresh=True, folder=folder)
-                chosen = property_mutants(work, judged, args.jobs)
-            if chosen:
-                run_mutants(work, args.jobs, *chosen)
-        elif args.sample:
+        elif args.sample or args.properties:  # a chosen set of mutants, kept in sample.json
             drawn = ROOT / ".mutate" / folder / "sample.json"
-            if args.again and drawn.exists():  # the same sample: not yet checked, survived (not judged equivalent) or stopped
-                judged = equivalent.get(package, {})
+            judged = equivalent.get(package, {})
+            if args.again and drawn.exists():  # the same set: not yet checked, survived (not judged equivalent) or stopped
                 chosen = [n for n, v in verdicts(drawn.parent).items()
                           if n in set(json.loads(drawn.read_text())["names"]) and _again(v) and n not in judged]
                 work = prepare(package, fresh=False, folder=folder)
             else:
                 work = prepare(package, fresh=True, folder=folder)
-                chosen = draw_sample(work, args.sample, args.seed, equivalent.get(package, {}), args.jobs)
+                chosen = (property_mutants(work, judged, args.jobs) if args.properties
+                          else draw_sample(work, args.sample, args.seed, judged, args.jobs))
             if chosen:
                 run_mutants(work, args.jobs, *chosen)
         else:
