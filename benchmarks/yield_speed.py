@@ -120,20 +120,26 @@ def timed_run(plan_path: Path, client, address: str, out: Path) -> tuple[float, 
     return wall, run.whole_records(), tuple(a - b for a, b in zip(cpu_after, cpu_before, strict=True)), grown
 
 
-def deck_preparation(plan_path: Path, repeat: int = 5) -> float:
-    """CPU seconds of netloop's own code in the ngspice process before one load of a sample: its deck written from the
-    template and the libraries' used cards written out (netloop.sim.used_models), the libraries already read."""
+def first_job(plan_path: Path):
+    """The SimJob of sample 1's first sweep, as a worker builds it."""
     from netloop.jobs.corners.worker import corner_netlist
     from netloop.jobs.measure import probe_job
     from netloop.jobs.statistics import load_sample_plan, sample_tasks
     from netloop.probe import break_loop
     from netloop.sim import AcSweep
+
+    task = sample_tasks(load_sample_plan(plan_path))[0]
+    return probe_job(break_loop(corner_netlist(task.corner), task.at), (AcSweep("dec", 10, 1e-2, 1e10),))
+
+
+def deck_preparation(plan_path: Path, repeat: int = 5) -> float:
+    """CPU seconds of netloop's own code in the ngspice process before one load of a sample: its deck written from the
+    template and the libraries' used cards written out (netloop.sim.used_models), the libraries already read."""
     from netloop.sim.convergence import option_words
     from netloop.sim.deck import render_deck
     from netloop.sim.used_models import used_only
 
-    task = sample_tasks(load_sample_plan(plan_path))[0]
-    job = probe_job(break_loop(corner_netlist(task.corner), task.at), (AcSweep("dec", 10, 1e-2, 1e10),))
+    job = first_job(plan_path)
 
     def prepare() -> None:
         used_only(render_deck(job, option_words(job, None)), job.workdir or os.getcwd())
@@ -171,16 +177,10 @@ def hand_run_load(plan_path: Path, folder: Path, repeat: int = 3) -> dict[str, f
     import subprocess
     import sys
 
-    from netloop.jobs.corners.worker import corner_netlist
-    from netloop.jobs.measure import probe_job
-    from netloop.jobs.statistics import load_sample_plan, sample_tasks
-    from netloop.probe import break_loop
-    from netloop.sim import AcSweep
     from netloop.sim.convergence import option_words
     from netloop.sim.deck import render_deck
 
-    task = sample_tasks(load_sample_plan(plan_path))[0]
-    job = probe_job(break_loop(corner_netlist(task.corner), task.at), (AcSweep("dec", 10, 1e-2, 1e10),))
+    job = first_job(plan_path)
     deck = folder / "hand-run.cir"
     deck.write_text(render_deck(job, option_words(job, None)))
     run = subprocess.run([sys.executable, "-c", _LOADS, str(deck), str(repeat)], capture_output=True, text=True, check=True,
