@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import TypeVar
 
-from netloop.sim.deck import check_workdir, refuse_malformed_steps
+from netloop.sim.deck import check_workdir, control_steps
 from netloop.sim.job import SimJob
 
 __all__ = ["NgspiceBackend"]
@@ -26,7 +26,7 @@ class NgspiceBackend:
 
     @staticmethod
     def refuse_malformed(job: SimJob) -> None:
-        """SimulationError for a bad sweep, a non-finite value or a missing workdir, before anything runs: what the deck's
-        control steps would refuse when formatted (netloop.sim.deck), the rest of the deck only substitutes."""
-        refuse_malformed_steps(job)
+        """SimulationError for a bad sweep, a non-finite value or a missing workdir, before anything runs: the deck's
+        control steps are where each is formatted and refused (netloop.sim.deck), the rest of the deck only substitutes."""
+        control_steps(job, write_raw=True)
         check_workdir(job)

@@ -14,7 +14,7 @@ import jinja2
 from netloop.errors import SimulationError
 from netloop.sim.frequency import sweep_problem
 from netloop.sim.library import NGSPICE_THREADS
-from netloop.sim.job import AcRun, AcSweep, Alter, SimJob
+from netloop.sim.job import AcSweep, Alter, SimJob
 
 __all__ = [
     "PARAMS_RAW",
@@ -24,7 +24,6 @@ __all__ = [
     "control_steps",
     "excited_sources",
     "format_number",
-    "refuse_malformed_steps",
     "render_deck",
     "save_key",
     "strip_end",
@@ -62,17 +61,12 @@ def _deck_template() -> jinja2.Template:
     return environment.get_template("sim_deck.cir.j2")
 
 
-def _finite_number(value: float) -> float:
-    """``value`` as a float; rejects inf and nan, which ngspice cannot be given."""
+def format_number(value: float) -> str:
+    """A float as ngspice reads it back exactly (shortest round-trip repr); rejects inf and nan."""
     value = float(value)
     if not math.isfinite(value):
         raise SimulationError(f"cannot pass the non-finite number {value!r} to ngspice")
-    return value
-
-
-def format_number(value: float) -> str:
-    """A float as ngspice reads it back exactly (shortest round-trip repr); rejects inf and nan."""
-    return repr(_finite_number(value))
+    return repr(value)
 
 
 _END = re.compile(r"^\s*\.end\s*$", re.IGNORECASE)
@@ -103,14 +97,10 @@ def excited_sources(job: SimJob) -> tuple[str, ...]:
     return tuple(names)
 
 
-def _refuse_bad_sweep(sweep: AcSweep) -> None:
+def _sweep_command(sweep: AcSweep) -> str:
     problem = sweep_problem(sweep)
     if problem:
         raise SimulationError(f"bad ac sweep {sweep}: {problem}")
-
-
-def _sweep_command(sweep: AcSweep) -> str:
-    _refuse_bad_sweep(sweep)
     return f"ac {sweep.kind} {int(sweep.points)} {format_number(sweep.fstart_hz)} {format_number(sweep.fstop_hz)}"
 
 
@@ -140,12 +130,6 @@ PARAMS_RAW = "params.raw"  # batch mode: the loaded values of the job's altered 
 _PARAMETER_WORD = re.compile(r"^[a-z0-9_.#:$+-]+$")
 
 
-def _refuse_bad_names(alter: Alter) -> None:
-    for word in (alter.device.strip().lower(), alter.parameter.strip().lower()):
-        if not _PARAMETER_WORD.match(word):
-            raise SimulationError(f"cannot alter {alter.ref!r}: {word!r} is not a device or parameter name")
-
-
 def alter_vector(index: int) -> str:
     """The ngspice vector that holds the loaded value of a job's ``index``-th altered parameter."""
     return f"netloop_alter_{index}"
@@ -156,7 +140,9 @@ def _alter_steps(alters: tuple[Alter, ...], write_raw: bool, raw_dir: str | None
     change: list[Step] = []
     restore: list[Step] = []
     for i, alter in enumerate(alters):
-        _refuse_bad_names(alter)
+        for word in (alter.device.strip().lower(), alter.parameter.strip().lower()):
+            if not _PARAMETER_WORD.match(word):
+                raise SimulationError(f"cannot alter {alter.ref!r}: {word!r} is not a device or parameter name")
         change.append(Step(f"let {alter_vector(i)} = {alter.ref}", "let"))
         change.append(Step(f"alter {alter.ref} = {alter_vector(i)} * {format_number(alter.scale)}", "alter"))
         restore.append(Step(f"alter {alter.ref} = {alter_vector(i)}", "alter"))
@@ -186,7 +172,7 @@ def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> t
     steps.extend(change)
     sources = excited_sources(job)
     for r, run in enumerate(job.runs):
-        ac = _ac_by_source(run)
+        ac = {k.strip().lower(): v for k, v in run.ac.items()}
         for source in sources:
             steps.append(Step(f"alter {source} ac = {format_number(ac.get(source, 0.0))}", "alter", r))
         for s, sweep in enumerate(run.sweeps):
@@ -196,32 +182,6 @@ def control_steps(job: SimJob, write_raw: bool, raw_dir: str | None = None) -> t
             steps.append(Step("destroy all", "free", r, s))
     steps.extend(restore)
     return tuple(steps)
-
-
-def _ac_by_source(run: AcRun) -> dict[str, float]:
-    """The run's AC magnitudes by lower-case source name (the last of names equal but for case wins)."""
-    return {k.strip().lower(): v for k, v in run.ac.items()}
-
-
-def refuse_malformed_steps(job: SimJob) -> None:
-    """Raise what control_steps raises for ``job`` (a save that is not a name, an alter of a word that is not a device
-    or parameter name, a non-finite number, a bad sweep), first things first as it meets them, without formatting a
-    command: a backend refuses a malformed job before any work, and the ngspice process formats the steps once
-    (NgspiceBackend.refuse_malformed, its workdir check included: 0.20 -> 0.12 ms a sky130 mismatch sample's two jobs
-    in the worker, timed in place while 77 samples ran through the corner worker's run_task, medians of 4 runs taken
-    in turns with the formatting check)."""
-    for name in job.save:
-        save_key(name)
-    for alter in job.alters:
-        _refuse_bad_names(alter)
-        _finite_number(alter.scale)
-    sources = excited_sources(job)
-    for run in job.runs:
-        ac = _ac_by_source(run)
-        for source in sources:
-            _finite_number(ac.get(source, 0.0))
-        for sweep in run.sweeps:
-            _refuse_bad_sweep(sweep)
 
 
 def check_workdir(job: SimJob) -> None:

@@ -1,4 +1,4 @@
-"""A backend refuses a malformed job with exactly what formatting its control steps would raise, without formatting them."""
+"""A backend refuses a malformed job, before anything runs, with exactly what formatting its control steps raises."""
 
 from __future__ import annotations
 
@@ -10,7 +10,8 @@ from hypothesis import strategies as st
 
 from netloop.errors import SimulationError
 from netloop.sim import AcRun, AcSweep, Alter, SimJob
-from netloop.sim.deck import control_steps, refuse_malformed_steps
+from netloop.sim.backend import NgspiceBackend
+from netloop.sim.deck import control_steps
 
 _NUMBERS = st.one_of(st.floats(allow_nan=True, allow_infinity=True),
                      st.sampled_from([0.0, -1.0, 1e-3, 1.0, 1e9, 1e12, 3, math.inf, -math.inf, math.nan, "1.5", "x"]))
@@ -40,9 +41,9 @@ def _outcome(check, job: SimJob) -> tuple[type, str] | None:
 @given(_JOBS)
 def test_the_check_raises_what_formatting_raises(job):
     """For any job, well-formed or not (bad sweeps, inf and nan, names carrying ngspice syntax, saves that are no
-    text), the check raises the same exception with the same message as control_steps formatting every command, or
-    nothing when formatting succeeds: control_steps itself is the reference."""
-    assert _outcome(refuse_malformed_steps, job) == _outcome(lambda j: control_steps(j, write_raw=True), job)
+    text), the backend's check raises the same exception with the same message as control_steps formatting every
+    command, or nothing when formatting succeeds (the jobs name no workdir, so the workdir check passes)."""
+    assert _outcome(NgspiceBackend.refuse_malformed, job) == _outcome(lambda j: control_steps(j, write_raw=True), job)
 
 
 def test_a_job_with_a_bad_value_in_a_later_run_is_refused():
@@ -50,4 +51,4 @@ def test_a_job_with_a_bad_value_in_a_later_run_is_refused():
     sweep = (AcSweep("dec", 5, 1.0, 1e3),)
     job = SimJob("rc\n", runs=(AcRun("a", {"v1": 1.0}, sweep), AcRun("b", {"v1": math.nan}, sweep)), save=("v(in)",))
     with pytest.raises(SimulationError, match="non-finite number nan"):
-        refuse_malformed_steps(job)
+        NgspiceBackend.refuse_malformed(job)
