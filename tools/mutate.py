@@ -35,9 +35,6 @@ ROOT = Path(__file__).resolve().parent.parent
 # package -> (files mutmut mutates, the test folders that mirror them)
 PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: (what mutmut mutates, the tests it runs)
     "analysis": ("netloop/analysis/*", ("tests/analysis",)),
-    # the copy of scipy's AAA fit behind the closed-loop poles, alone (the analysis package holds it among 3000 other
-    # mutants); tests/analysis/test_aaa.py holds it to scipy's AAA bit for bit, and the poles tests reach it
-    "fit": ("netloop/analysis/aaa.py", ("tests/analysis",)),
     "netlist": ("netloop/netlist/*", ("tests/netlist",)),
     "probe": ("netloop/probe/*", ("tests/probe",)),
     "corners": ("netloop/jobs/corners/*", ("tests/jobs/corners",)),

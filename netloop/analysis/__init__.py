@@ -8,7 +8,6 @@ closed_loop    modulus margin and the real peak of |T/(1+T)|
 second_order   damping, Q, overshoot equivalent to a phase margin (estimates)
 nyquist        encirclements of -1 and the verdict Z = N + P
 poles          closed-loop poles from an AAA fit of 1/(1+T)
-aaa            scipy's AAA rational fit, copied for speed (its results bit for bit)
 engine         analyse(): all of the above for one loop (analyse_draft, then finish: the same in two steps)
 refine         more samples around crossovers until the margins settle
 requirements   "pm>=60"-style pass/fail checks

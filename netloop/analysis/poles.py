@@ -33,7 +33,6 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from netloop.analysis.aaa import Rational, aaa
 from netloop.analysis.preload import load_scipy
 from netloop.analysis.results import ClosedLoopPoles
 
@@ -55,7 +54,7 @@ _LOOSEST_RTOL = 1e-5
 _CLEAN_UP_TOL = 1e-13  # scipy's AAA clean_up default: a pole is a Froissart doublet's when its residue is this small
 
 
-def _reach(fit: AAA | Rational, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _reach(fit: AAA, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(each fitted pole's distance to the nearest point of ``z``, |its residue|): what scipy's test of a Froissart doublet
     and the filter of poles too weak to be the data's both read."""
     poles = fit.poles()  # both kept by the fit, for its caller
@@ -63,7 +62,7 @@ def _reach(fit: AAA | Rational, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         return np.min(np.abs(poles[:, None] - z[None, :]), axis=1), np.abs(fit.residues())
 
 
-def _may_hold_doublets(fit: AAA | Rational, y: np.ndarray, reach: tuple[np.ndarray, np.ndarray]) -> bool:
+def _may_hold_doublets(fit: AAA, y: np.ndarray, reach: tuple[np.ndarray, np.ndarray]) -> bool:
     """Whether scipy's clean-up could find a Froissart doublet in ``fit`` of ``y``, whose poles' _reach is ``reach``: its
     own test (a residue below _CLEAN_UP_TOL times the geometric mean of |y| times the pole's distance to the nearest point),
     with ten times the room, so that a sum taken in another order cannot tip a pole across it. False in nearly every fit:
@@ -77,28 +76,23 @@ def _may_hold_doublets(fit: AAA | Rational, y: np.ndarray, reach: tuple[np.ndarr
         return bool(np.any(size / distance < 10.0 * level))
 
 
-def _fit(z: np.ndarray, y: np.ndarray, rtol: float, max_terms: int) -> tuple[AAA | Rational, bool, tuple[np.ndarray, np.ndarray]]:
+def _fit(z: np.ndarray, y: np.ndarray, rtol: float, max_terms: int) -> tuple[AAA, bool, tuple[np.ndarray, np.ndarray]]:
     """scipy's AAA with its clean-up of Froissart doublets, its warnings (not converged, doublets found) turned into a
-    flag, and the _reach of its poles (the doublet test's, kept for the caller when no clean-up changed the fit).
-
-    The fit is netloop.analysis.aaa's copy of scipy's, the same bit for bit and faster; where a clean-up may find a
-    doublet (rarely), scipy's AAA fits again and cleans up (the same fit, so the same warnings but for the clean-up's)."""
+    flag, and the _reach of its poles (the doublet test's, kept for the caller when no clean-up changed the fit)."""
     load_scipy()  # scipy loads on first use, once (netloop.analysis.preload)
     from scipy.interpolate import AAA  # noqa: PLC0415
 
-    terms = min(max_terms, z.size // 2)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        fit = aaa(z, y, rtol, terms)
+        fit = AAA(z, y, rtol=rtol, max_terms=min(max_terms, z.size // 2), clean_up=False)
         reach = _reach(fit, z)
         if _may_hold_doublets(fit, y, reach):
-            fit = AAA(z, y, rtol=rtol, max_terms=terms, clean_up=False)
             fit.clean_up(_CLEAN_UP_TOL)
             reach = _reach(fit, z)
     return fit, not caught, reach
 
 
-def _fit_at(fit: AAA | Rational, z: np.ndarray) -> np.ndarray:
+def _fit_at(fit: AAA, z: np.ndarray) -> np.ndarray:
     """fit(z) bit for bit, for points ``z`` none of which is infinite: scipy's barycentric sum by the same expressions, its
     0/0 at a support point replaced by the support value as scipy does, but for all such points at once where scipy loops
     over them in Python (about 30 us instead of 90 on a sky130 fit of 278 points and 9 terms, timeit)."""
@@ -238,7 +232,7 @@ _RHP_REAL = 1e-6  # a zero counts as right-half-plane when its real part exceeds
 _DOUBLET = 1e-3  # a zero this close (relative) to a fitted pole is a pole-zero doublet of the fit
 
 
-def _open_loop_rhp_poles(fit: AAA | Rational, f_ref: float, f_min_hz: float, f_max_hz: float, pair_rtol: float) -> np.ndarray:
+def _open_loop_rhp_poles(fit: AAA, f_ref: float, f_min_hz: float, f_max_hz: float, pair_rtol: float) -> np.ndarray:
     """The right-half-plane zeros of the fitted S within the sweep (rad/s, sorted by size): the poles of T there."""
     zeros = np.asarray(fit.roots(), dtype=complex)
     poles = np.asarray(fit.poles(), dtype=complex)
