@@ -45,11 +45,7 @@ def _quiet(lines: list[str] | tuple[str, ...]) -> bool:
     """True when none of ``lines`` can match the patterns above: ASCII text (where ignoring case is lower-casing)
     holding none of _CLUES. ngspice's usual output while it iterates (some 35 lines an ``op`` or ``ac``, gmin steps) is
     judged by a few substring searches instead of a pattern a line: 0.76 -> 0.41 ms a sky130 mismatch sample in the
-    ngspice process (error_lines, op_failed, ac_op_failed and fatal_lines timed while 74 samples' recorded jobs ran). Most
-    commands print nothing (19 of the 32 outputs judged a sample): those are quiet at once (_quiet 0.215 -> 0.189 ms a
-    sample, timed in place in the same way, medians of 3 runs taken in turns)."""
-    if not lines:
-        return True
+    ngspice process (error_lines, op_failed, ac_op_failed and fatal_lines timed while 74 samples' recorded jobs ran)."""
     text = "\n".join(lines)
     if not text.isascii():
         return False
@@ -130,8 +126,6 @@ def fatal_lines(lines: Iterable[str]) -> tuple[str, ...]:
 
 def fatal_among(errors: tuple[str, ...]) -> tuple[str, ...]:
     """fatal_lines of output whose error_lines are ``errors``."""
-    if not errors:  # what an ac usually prints
-        return ()
     from netloop.sim.diagnostics import numerical  # noqa: PLC0415
 
     return tuple(line for line in errors if not numerical(line))
