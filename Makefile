@@ -40,7 +40,7 @@ clean:
 	rm -rf $(VENV) demo-report .pytest_cache .mutate
 
 # Mutation testing (slow, outside `make test` and CI): one package at a time, its own tests only.
-#   make mutate PKG=analysis        # analysis, netlist, probe, corners, interrupt, statistics, graph, measure, report, jobs, runs, cli or sensitivity; no PKG: all thirteen, one after the other
+#   make mutate PKG=analysis        # analysis, netlist, probe, corners, interrupt, statistics, graph, measure, report, jobs, runs, cli, sensitivity or sim; no PKG: all fourteen, one after the other
 #   make mutate PKG=probe ARGS=--again   # re-test only the last run's survivors
 PKG ?=
 mutate: venv

@@ -127,3 +127,42 @@ def test_every_property_of_netloop_is_unwrapped_and_the_modules_still_import(tmp
     run = subprocess.run([sys.executable, "-c", code], cwd=tmp_path, capture_output=True, text=True, check=True,
                          env={"PATH": "/usr/bin:/bin", "PYTHONPATH": str(tmp_path)})
     assert run.stdout.strip() == "[]", run.stderr
+
+
+def test_a_worker_process_s_hits_reach_mutmut_s_map_of_the_test(tmp_path, monkeypatch):
+    """In mutmut's stats run, a process started with tools/ on PYTHONPATH (an ngspice worker) writes each function it
+    reaches to a file of its own (tools/sitecustomize.py), and the watchdog plugin hands the names to mutmut at the end of
+    the test, emptying the file for the next; outside the stats run the process records nothing."""
+    import os  # noqa: PLC0415
+    import sys  # noqa: PLC0415
+
+    tools = TOOL.parent
+    child = ("from mutmut.mutation import trampoline\n"
+             "trampoline.record_trampoline_hit('netloop.sim.session_job.x__run')\n"
+             "trampoline.record_trampoline_hit('netloop.sim.session.xǁNgspiceSessionǁload')\n")
+    env = {**os.environ, "PYTHONPATH": str(tools), "MUTATE_CHILD_HITS": str(tmp_path), "MUTANT_UNDER_TEST": "stats"}
+    subprocess.run([sys.executable, "-c", child], env=env, check=True, timeout=60, cwd=tmp_path)
+    (hits,) = tmp_path.glob("*.hits")
+    assert hits.read_text().split() == ["netloop.sim.session_job.x__run", "netloop.sim.session.xǁNgspiceSessionǁload"]
+
+    spec = importlib.util.spec_from_file_location("mutate_watchdog_under_test", tools / "mutate_watchdog.py")
+    plugin = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(plugin)
+    from mutmut.state import state  # noqa: PLC0415
+
+    monkeypatch.setenv("MUTANT_UNDER_TEST", "stats")
+    monkeypatch.setenv("MUTATE_CHILD_HITS", str(tmp_path))
+    before = set(state()._stats)
+    try:
+        plugin.pytest_runtest_teardown(None, None)
+        assert set(state()._stats) - before == {"netloop.sim.session_job.x__run", "netloop.sim.session.xǁNgspiceSessionǁload"}
+        assert hits.read_text() == ""
+    finally:
+        state()._stats.clear()
+        state()._stats.update(before)
+
+    hits.unlink()
+    env["MUTANT_UNDER_TEST"] = ""  # the clean run, or a mutant's: mutmut's own recorder is left alone
+    subprocess.run([sys.executable, "-c", "from mutmut.mutation import trampoline\n"
+                    "assert trampoline.record_trampoline_hit.__module__ == 'mutmut.stats'"], env=env, check=True, timeout=60, cwd=tmp_path)
+    assert not list(tmp_path.glob("*.hits"))

@@ -60,6 +60,9 @@ PACKAGES: dict[str, tuple[str | tuple[str, ...], tuple[str, ...]]] = {  # name: 
     "cli": ("netloop/cli/*", ("tests/cli",)),
     # which values set the margins: the knobs, the slopes, the what-if solve
     "sensitivity": ("netloop/jobs/sensitivity/*", ("tests/jobs/sensitivity",)),
+    # what ngspice is told and what is read back: the decks, sweeps, vectors, the judging of its output, the worker
+    # process (whose mutants run in the worker processes the tests start: tools/sitecustomize.py)
+    "sim": ("netloop/sim/*", ("tests/sim",)),
 }
 # what the tests read besides netloop/ and tests/ (netloop/circuits and netloop/templates are links to these; a measure test
 # builds its sky130 bench with benchmarks/_sky130_regulator.py; a report test reads the caution in README.md and docs/)
@@ -176,8 +179,11 @@ def prepare(package: str, fresh: bool, folder: str | None = None) -> Path:
 def _mutmut(work: Path, *args: str, quiet: bool = False) -> subprocess.CompletedProcess:
     """mutmut from the shared virtualenv, run in the scratch copy, its output passed through (kept when quiet or listing results)."""
     # mutmut puts the scratch copy's mutants/ first; tools/ holds no package to shadow it, only the watchdog each test run loads
+    hits = work / "child-hits"  # what worker processes reach in the stats run (tools/sitecustomize.py)
+    hits.mkdir(exist_ok=True)
     env = dict(os.environ, PYTHONHASHSEED="0", PYTHONPATH=str(ROOT / "tools"), PYTEST_PLUGINS="mutate_watchdog",
-               MUTATE_TEST_DURATIONS=str(work / "mutants" / "mutmut-stats.json"), MUTATE_HUNG_LOG=str(work / "hung.log"))
+               MUTATE_TEST_DURATIONS=str(work / "mutants" / "mutmut-stats.json"), MUTATE_HUNG_LOG=str(work / "hung.log"),
+               MUTATE_CHILD_HITS=str(hits))
     exe = Path(sys.executable).with_name("mutmut")
     capture = quiet or args[0] == "results"
     return subprocess.run([str(exe), *args], cwd=work, env=env, text=True, capture_output=capture, check=False)

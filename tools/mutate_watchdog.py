@@ -13,6 +13,9 @@ Two more things put a mutant's run back the way mutmut's own runner (one fork of
 has it: the fork server mutmut forks each mutant from leaves its own SIGCHLD handler in place, so the default comes back;
 and the tests run fastest first (mutmut sorts them so in that runner only), so a mutant a unit test catches is not first
 run through the Dask tests. Only a mutant's run is touched: mutmut's stats, clean and forced-fail runs are not.
+
+In the stats run, the functions that an ngspice worker process reached during a test (tools/sitecustomize.py writes their
+names to files in the folder MUTATE_CHILD_HITS names) are handed to mutmut as reached by that test.
 """
 
 from __future__ import annotations
@@ -63,6 +66,21 @@ def _watch() -> None:
                 log.write(f"{os.environ['MUTANT_UNDER_TEST']}: {_current[-1][0]} past {HANG_FACTOR:g} x its clean time + {HANG_MARGIN_S:g} s\n")
             _stop_descendants(os.getpid())
             os._exit(MUTMUT_TIMEOUT_EXIT)
+
+
+@pytest.hookimpl(tryfirst=True)
+def pytest_runtest_teardown(item: pytest.Item, nextitem: pytest.Item | None) -> None:
+    """In mutmut's stats run: the functions worker processes reached meanwhile, added to what mutmut's own teardown hook
+    (which runs after this one) gives the test."""
+    folder = os.environ.get("MUTATE_CHILD_HITS")
+    if os.environ.get("MUTANT_UNDER_TEST") != "stats" or not folder or not os.path.isdir(folder):
+        return
+    from mutmut.state import state  # noqa: PLC0415 - only in a mutmut run
+
+    for path in Path(folder).glob("*.hits"):
+        names = path.read_text().split()
+        path.write_text("")  # a worker kept for the next test appends after what this one took
+        state()._stats.update(names)
 
 
 def pytest_collection_modifyitems(items: list[pytest.Item]) -> None:

@@ -86,3 +86,72 @@ def test_a_failed_start_raises_at_the_first_run():
     with pytest.raises(SimulationError, match="would not start"):
         sim.run(JOB)
     sim.close()
+
+
+class _Blocking:
+    """A started simulator whose job runs until abort() stops it, as SharedLibrarySimulator's does when its worker is killed."""
+
+    backend = "blocking"
+
+    def __init__(self) -> None:
+        self.running, self.stopped = threading.Event(), threading.Event()
+
+    def run(self, job):
+        self.running.set()
+        self.stopped.wait(5)
+        return "late result"
+
+    def abort(self):
+        self.stopped.set()
+
+    def close(self):
+        pass
+
+
+def test_an_abort_during_a_job_stops_the_started_simulator_and_abandons_the_job():
+    """abort() while a job runs on the started simulator reaches that simulator's own abort() (which stops ngspice at
+    once), and the job's run() raises SimulationError rather than hand back what the stopped simulator returned."""
+    blocking = _Blocking()
+    sim = StartingSimulator(start=lambda keep_dir: blocking)
+    outcome: list = []
+
+    def run():
+        try:
+            outcome.append(sim.run(JOB))
+        except SimulationError as exc:
+            outcome.append(exc)
+
+    thread = threading.Thread(target=run)
+    thread.start()
+    assert blocking.running.wait(5)
+    sim.abort()
+    assert blocking.stopped.is_set()  # reached at once, not after the job's 5 s
+    thread.join(5)
+    assert isinstance(outcome[0], SimulationError) and str(outcome[0]) == "the job was abandoned (abort)"
+    sim.close()
+
+
+def test_use_processes_starts_the_others_and_shares_each_job_among_them():
+    """use_processes(3) starts two more simulators in the background, so three share the runs; the backend named is the
+    first one's. Once the simulators have started, asking for more starts none."""
+    gate, log = threading.Event(), []
+    gate.set()
+    sim = StartingSimulator(start=lambda keep_dir: _Slow(gate, log))
+    sim.use_processes(3)
+    assert len(sim.simulators) == 3 and log.count("started") == 3
+    assert sim.backend == "slow"
+    sim.use_processes(5)
+    assert len(sim.simulators) == 3 and log.count("started") == 3
+    sim.close()
+    assert log.count("closed") == 3
+
+
+def test_one_process_asked_for_starts_no_other():
+    """use_processes(1) keeps the one simulator: every job goes to it whole."""
+    gate, log = threading.Event(), []
+    gate.set()
+    sim = StartingSimulator(start=lambda keep_dir: _Slow(gate, log))
+    sim.use_processes(1)
+    assert sim.simulators == (sim.ready(),) and log == ["started"]
+    assert sim.backend == "slow"
+    sim.close()

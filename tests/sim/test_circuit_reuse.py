@@ -22,6 +22,10 @@ def _expected(freq_hz: np.ndarray, r_ohm: float) -> np.ndarray:
     return 1 / (1 + 2j * np.pi * freq_hz * r_ohm * 1e-9)  # circuit theory: RC low-pass, closed form
 
 
+_SESSIONS: list = []  # libngspice once per process: PySpice declares its C interface again for a second session, which cffi
+# refuses, and mutmut runs these tests twice in one process (tools/mutate.py's sim package)
+
+
 @pytest.fixture(scope="module")
 def recording():
     from netloop.sim.session import NgspiceSession  # noqa: PLC0415 - loads libngspice in this process
@@ -39,7 +43,11 @@ def recording():
             self.calls.append(command.split()[0])
             return super().command(command)
 
-    return Recording(find_libngspice())
+    if not _SESSIONS:
+        _SESSIONS.append(Recording(find_libngspice()))
+    session = _SESSIONS[0]
+    JobRunner(session).forget()  # no circuit left from an earlier run of these tests
+    return session
 
 
 @pytest.mark.ngspice
@@ -108,4 +116,53 @@ def test_each_saved_vector_comes_back_as_its_own(recording):
     np.testing.assert_allclose(v_out, _expected(freq, 1e3), rtol=1e-9)
     np.testing.assert_array_equal(v_in, np.ones(freq.size))
     np.testing.assert_allclose(i_v1, -(1 - _expected(freq, 1e3)) / 1e3, rtol=1e-9)  # into v1's + terminal: -(v(in)-v(out))/r1
+    runner.forget()
+
+
+@pytest.mark.ngspice
+def test_another_save_on_the_same_circuit_comes_back(recording):
+    """A job of the same measurement on the same circuit that saves another vector gets that vector (ngspice keeps only
+    what it was told to save, so the circuit kept for the first job's saves cannot serve it as it is)."""
+    runner = JobRunner(recording)
+    sweep = (AcSweep("dec", 5, 1e3, 1e6),)
+    first = runner.run(_job(RC, sweep))
+    second = runner.run(SimJob(RC, runs=(AcRun("a", {"v1": 1.0}, sweep),), save=("v(in)",), excitable=("v1",), op_voltages=True,
+                               circuit_id="m1"))
+    name, freq, (v_in,) = second.runs[0]
+    np.testing.assert_array_equal(v_in, np.ones(freq.size))  # the source node: the 1 V excitation itself
+    np.testing.assert_allclose(first.runs[0][2][0], _expected(freq, 1e3), rtol=1e-9)
+    runner.forget()
+
+
+@pytest.mark.ngspice
+def test_ngspice_holds_at_most_two_circuits(recording):
+    """However many circuits are loaded one after the other, ngspice holds the current one and at most one before it
+    (JobRunner): memory stays bounded over a run of thousands of samples."""
+    runner = JobRunner(recording)
+    sweep = (AcSweep("dec", 5, 1e3, 1e6),)
+    for i, r_ohm in enumerate((1e3, 2e3, 3e3, 4e3, 5e3)):
+        netlist = f"rc{i}\nv1 in 0 dc 1 ac 0\nr1 in out {r_ohm:g}\nc1 out 0 1n\n"
+        name, freq, (v_out,) = runner.run(_job(netlist, sweep, circuit_id=f"m{i}")).runs[0]
+        np.testing.assert_allclose(v_out, _expected(freq, r_ohm), rtol=1e-9)
+        assert runner._count() <= 2  # noqa: SLF001 - ngspice's own list of the circuits it holds (setcirc)
+    runner.forget()
+    assert runner._count() == 0  # noqa: SLF001
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("extra", [0, 1])
+def test_a_circuit_is_kept_beside_the_next_up_to_its_size_limit(recording, extra):
+    """A circuit whose netlist has KEEP_MAX_CHARS characters stays loaded beside the next one; one character more and it
+    is taken out (ngspice's memory for a large circuit is not spent on keeping it)."""
+    from netloop.sim.session_job import KEEP_MAX_CHARS  # noqa: PLC0415
+
+    runner = JobRunner(recording)
+    sweep = (AcSweep("dec", 5, 1e3, 1e6),)
+    padding = "* " + "p" * (KEEP_MAX_CHARS + extra - len(RC) - 3) + "\n"  # a comment line: the circuit is the RC's
+    large = RC + padding
+    assert len(large) == KEEP_MAX_CHARS + extra
+    runner.run(_job(large, sweep, circuit_id="large"))
+    name, freq, (v_out,) = runner.run(_job(RC2, sweep, circuit_id="small")).runs[0]
+    np.testing.assert_allclose(v_out, _expected(freq, 2e3), rtol=1e-9)
+    assert runner._count() == (2 if extra == 0 else 1)  # noqa: SLF001 - ngspice's own list of the circuits it holds
     runner.forget()

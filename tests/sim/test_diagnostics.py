@@ -35,6 +35,13 @@ CASES = [
     pytest.param("parallel\nv1 a 0 dc 1 ac 1\nv2 a 0 dc 2\nr1 a 0 1k\n",
                  "singular matrix: the current of voltage source v1 is not determined; two ideal voltage sources in parallel",
                  "check node v1#branch", id="parallel-sources"),
+    # each kind of element whose branch current ngspice names, as ngspice 39 names it for these decks
+    pytest.param("parallel ccvs\nv1 s 0 dc 1 ac 1\nrs s 0 1k\nh1 a 0 v1 2\nh2 a 0 v1 3\nr1 a 0 1k\n",
+                 "singular matrix: the current of current-controlled source h1 is not determined", "check node h1#branch",
+                 id="parallel-ccvs"),
+    pytest.param("parallel vcvs\nv1 s 0 dc 1 ac 1\nrs s 0 1k\ne1 a 0 s 0 2\ne2 a 0 s 0 3\nr1 a 0 1k\n",
+                 "singular matrix: the current of voltage-controlled source e1 is not determined", "check node e1#branch",
+                 id="parallel-vcvs"),
     pytest.param("no model\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 nosuch\n",
                  "model 'nosuch' is not defined (used by 'd1 b 0 nosuch')", "can't find model 'nosuch'", id="undefined-model"),
 ]

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from netloop.sim import AcRun, AcSweep, SimJob, sweep_frequencies
-from netloop.sim.frequency import merge_sweeps
+from netloop.sim.frequency import merge_sweeps, sweep_problem
 
 SWEEPS = (
     AcSweep("dec", 10, 1.0, 1e6),
@@ -40,17 +40,22 @@ def test_merge_orders_and_drops_duplicates():
 def test_bad_sweeps_are_rejected():
     """Sweeps ngspice 39 cannot run as meant (no points, zero start, reversed limits, a 'dec' span
     under one step, 'lin 2') are refused with a message."""
-    bad = (
-        AcSweep("dec", 0, 1.0, 10.0),
-        AcSweep("dec", 5, 0.0, 10.0),
-        AcSweep("lin", 5, 10.0, 1.0),
-        AcSweep("dec", 10, 10.0, 10.0),
-        AcSweep("dec", 10, 1.0, 1.2),
-        AcSweep("lin", 2, 1.0, 2.0),
-    )
-    for sweep in bad:
-        with pytest.raises(ValueError, match="bad ac sweep"):
+    limits = "need points >= 1 and 0 < fstart_hz <= fstop_hz"
+    narrow = "a 'dec' sweep needs fstop_hz/fstart_hz >= 10**(1/points) (ngspice 39 hangs or returns nothing otherwise)"
+    bad = {
+        AcSweep("dec", 0, 1.0, 10.0): limits,
+        AcSweep("dec", 5, 0.0, 10.0): limits,
+        AcSweep("lin", 5, 10.0, 1.0): limits,
+        AcSweep("dec", 10, 10.0, 10.0): narrow,
+        AcSweep("dec", 10, 1.0, 1.2): narrow,
+        AcSweep("lin", 2, 1.0, 2.0): "ngspice 39 runs 'ac lin 2' as a single point; use 1 or at least 3 points",
+        AcSweep("oct", 5, 1.0, 10.0): "sweep kind must be 'dec' or 'lin', not 'oct'",
+    }
+    for sweep, why in bad.items():
+        with pytest.raises(ValueError, match="bad ac sweep") as info:
             sweep_frequencies(sweep)
+        assert str(info.value).endswith(why), (sweep, str(info.value))
+        assert sweep_problem(sweep) == why
 
 
 @pytest.mark.ngspice

@@ -190,7 +190,7 @@ def test_a_parameter_change_resets_the_circuit_and_sets_temperature_and_sources_
 def test_netlist_number_is_the_double_ngspice_reads_from_a_netlist(shared_sim):
     """For values whose correctly rounded double differs from ngspice's (1.65, 3.3) and others, netlist_number gives
     bit for bit the DC value ngspice 39 stores for a source card (its loaded value, read back through an Alter)."""
-    tokens = ("1.65", "3.3", "3.3e0", "0.1", "-40", "2.7", "10u", "17u", "2.5meg", "1.2345678901234", "125", "1.8v", "3.", "-1.65")
+    tokens = ("1.65", "3.3", "3.3e0", "0.1", "-40", "2.7", "10u", "17u", "2.5meg", "1.2345678901234", "125", "1.8v", "3.", "-1.65", "2.5m", "33m", "1.5mil")
     netlist = "values\n" + "".join(f"v{i} n{i} 0 dc {t}\nr{i} n{i} 0 1k\n" for i, t in enumerate(tokens))
     result = shared_sim.run(SimJob(netlist, runs=(), save=(), alters=tuple(Alter(f"v{i}", "dc") for i in range(len(tokens)))))
     for i, token in enumerate(tokens):

@@ -5,7 +5,7 @@ from __future__ import annotations
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from netloop.sim.output import _AC_OP_FAILED, _ERROR, _OP_FAILED, _quiet, error_lines, ngspice_fallback, op_failed
+from netloop.sim.output import _AC_OP_FAILED, _ERROR, _OP_FAILED, _quiet, error_lines, ngspice_fallback, op_failed, recovery
 from netloop.sim.vectors import canonical, unknown_saves
 
 # Lines printed by ngspice 39 on this machine for a circuit that recovers through gmin stepping
@@ -42,6 +42,17 @@ def test_notes_and_warnings_are_not_errors():
     assert ngspice_fallback(RECOVERED) == "ngspice: transient operating point"
     assert ngspice_fallback(["Note: Starting dynamic gmin stepping", "Note: Dynamic gmin stepping completed"]) == "ngspice: dynamic gmin stepping"
     assert ngspice_fallback(["No. of Data Rows : 1"]) is None
+
+
+def test_a_recovery_is_named_by_its_fallback_or_its_first_error():
+    """What ngspice recovered through: its fallback when it names one, else the first error line it printed; None when it
+    printed neither."""
+    assert recovery(RECOVERED) == "ngspice: transient operating point"
+    assert recovery(FAILED) == f"ngspice: recovered after '{FAILED[1]}'"  # the first of its two error lines
+    assert recovery(["Error: -0.01 out of range for sqrt", "Error: -0.02 out of range for sqrt"]) == (
+        "ngspice: recovered after 'Error: -0.01 out of range for sqrt'")
+    assert recovery(["Note: Starting dynamic gmin stepping"]) is None
+    assert recovery([]) is None
 
 
 def test_vector_spellings():

@@ -32,6 +32,9 @@ set filetype=ascii
 write ac_ascii.raw v(out) i(v1)
 set appendwrite
 write ac_ascii.raw v(x)
+set filetype=binary
+write ac_two.raw v(out) i(v1)
+write ac_two.raw v(x)
 print v(out) i(v1)
 .endc
 .end
@@ -81,3 +84,7 @@ def test_raw_reader_agrees_with_ngspice_print(tmp_path):
     assert len(appended) == 2 and appended[1].names == ("frequency", "v(x)")
     (binary,) = read_raw(tmp_path / "ac_bin.raw")
     np.testing.assert_allclose(binary.data["v(out)"], appended[0].data["v(out)"], rtol=1e-14)
+    first, second = read_raw(tmp_path / "ac_two.raw")  # two binary plots in one file: each read to its own end
+    assert first.names == ("frequency", "v(out)", "i(v1)") and second.names == ("frequency", "v(x)")
+    np.testing.assert_array_equal(first.data["v(out)"], binary.data["v(out)"])
+    np.testing.assert_allclose(second.data["v(x)"], appended[1].data["v(x)"], rtol=1e-14)

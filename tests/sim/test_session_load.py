@@ -5,7 +5,7 @@ from __future__ import annotations
 from hypothesis import given
 from hypothesis import strategies as st
 
-from netloop.sim.session import _BLOCK_MIN_CHARS, _runs_joined
+from netloop.sim.session import _BLOCK_MIN_CHARS, _lines_block, _runs_joined
 
 _LINES = st.lists(st.sampled_from(["r1 a b 1k", "", "  ", "* note", "+ w=1", "c1 b 0 1p\r", "x\r\n"]), max_size=4)
 _SMALL = _LINES.map("\n".join) | st.sampled_from(["", "\n", "tail\n", "\r"])
@@ -28,3 +28,16 @@ def test_joined_pieces_give_the_same_lines_in_the_same_order(pieces):
     assert all(any(piece is p for p in pieces) for piece, keep in joined if keep)
     kept = [keep for _, keep in joined]
     assert not any(a == b == False for a, b in zip(kept, kept[1:]))  # noqa: E712 - two runs of small pieces never meet
+
+
+@given(_SMALL | _LARGE)
+def test_a_piece_reaches_ngspice_as_its_own_non_blank_lines(piece):
+    """The C buffer of a piece (_lines_block) holds its non-blank lines, each ended by a NUL where the start table points:
+    read back through cffi they are the lines str.splitlines gives (the reference), none for a piece of blank lines."""
+    from PySpice.Spice.NgSpice.Shared import ffi  # noqa: PLC0415 - the ffi the session loads through (no library needed)
+
+    buffer, address, starts = _lines_block(ffi, piece, keep=False)
+    assert starts.dtype == "int64" and starts.ndim == 1
+    got = [ffi.string(ffi.cast("char *", address + int(start))).decode("utf-8") for start in starts]
+    assert got == _lines([piece])
+    assert int(ffi.cast("uintptr_t", buffer)) == address

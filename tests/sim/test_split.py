@@ -132,3 +132,18 @@ def test_batch_mode_shares_runs_the_same_way(batch_sim):
         np.testing.assert_array_equal(got.freq_hz, want.freq_hz)
         for key in want.vectors:
             np.testing.assert_array_equal(got.vectors[key], want.vectors[key])
+
+
+@pytest.mark.ngspice
+def test_what_ngspice_ignored_in_either_share_is_said_once_shared(batch_sim):
+    """The shares' logs are one log: a model parameter ngspice ignores (each process reads the same card) is among the
+    warnings of the shared result as of one process's."""
+    from netloop.sim import BatchSimulator
+
+    ignored = "unrecognized\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 dm\n.model dm d is=1e-14 cox=3\n"
+    runs = (AcRun("a", {"v1": 1.0}, SWEEPS), AcRun("b", {"v1": 2.0}, SWEEPS))
+    job = SimJob(ignored, runs=runs, save=("v(b)",), excitable=("v1",))
+    alone = batch_sim.run(job)
+    both = SplitRunsSimulator([BatchSimulator(), BatchSimulator()]).run(job)
+    assert alone.warnings and both.warnings == alone.warnings
+    assert both.log.count("cox") == 2 * alone.log.count("cox") > 0  # each process's own output, joined

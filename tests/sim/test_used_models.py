@@ -12,7 +12,8 @@ from netloop.sim.used_models import used_only, used_pieces
 
 # An invented process library (for tests only; its cards describe no real process): one file with two corner sections,
 # each reading a shared parameter file and a file of its own by relative paths; binned MOSFET cards, a resistor cell, and
-# cards and cells the circuit below never uses. Comments stand between continuation lines, as in real libraries.
+# cards and cells the circuit below never uses. Comments and blank lines stand between continuation lines, as in real
+# libraries.
 LIBRARY = """* INVENTED library for tests
 .lib typ
 .param dvt=0
@@ -36,7 +37,9 @@ CARDS = """* INVENTED cards
 + pclm={20*lam} lmin=0.5u lmax=2u wmin=1u wmax=100u cgso=0.3n cgdo=0.3n)
 .model nch.2 nmos (level=8 version=3.3.0 vth0={0.56+dvt} u0={670*kp_n/180u}
 + pclm={20*lam} lmin=2u lmax=10u wmin=1u wmax=100u cgso=0.3n cgdo=0.3n)
-.model pch pmos (level=1 vto=-0.6 kp=70u lambda=0.08 cgso=0.3n cgdo=0.3n)
+.model pch pmos (level=1 vto=-0.6 kp=70u
+
++ lambda=0.08 cgso=0.3n cgdo=0.3n)
 .model nhv nmos (level=1 vto=0.9 kp=50u)
 .model dio d (is=1e-14)
 .subckt rpoly a b w=1 l=10
@@ -61,13 +64,14 @@ cl out 0 1p
 """
 
 
-def _library(tmp_path: Path) -> Path:
+def _library(tmp_path: Path, newline: str = "\n") -> Path:
+    """The invented library's files under tmp_path/lib, their lines ended by ``newline``."""
     (tmp_path / "lib" / "params").mkdir(parents=True)
     (tmp_path / "lib" / "cards").mkdir()
-    (tmp_path / "lib" / "params" / "shared.inc").write_text(SHARED)
-    (tmp_path / "lib" / "cards" / "typ.inc").write_text(CARDS)
+    (tmp_path / "lib" / "params" / "shared.inc").write_text(SHARED, newline=newline)
+    (tmp_path / "lib" / "cards" / "typ.inc").write_text(CARDS, newline=newline)
     path = tmp_path / "lib" / "invented.lib"
-    path.write_text(LIBRARY)
+    path.write_text(LIBRARY, newline=newline)
     return path
 
 
@@ -75,17 +79,20 @@ def _names(deck: str) -> set[str]:
     return {m[1].lower() for m in re.finditer(r"^\.(?:model|subckt)\s+(\S+)", deck, flags=re.MULTILINE)}
 
 
-def test_only_the_definitions_the_circuit_uses_are_written_out(tmp_path):
+@pytest.mark.parametrize("newline", ["\n", "\r\n"], ids=["lf", "crlf"])
+def test_only_the_definitions_the_circuit_uses_are_written_out(tmp_path, newline):
     """The .lib line becomes its section's lines, the relative includes read from the library's own folder: every
     parameter stays, the binned nch cards and the rpoly cell (and what it uses) stay, the unused pch, nhv, dio, esd
-    and hvcell go; a comment between continuations goes, as ngspice drops it."""
+    and hvcell go, pch with the continuation after its blank line; a comment between continuations goes, as ngspice
+    drops it. Files saved with Windows line ends give the same deck."""
     deck = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
-    _library(tmp_path)
+    _library(tmp_path, newline)
     lean = used_only(deck, str(tmp_path))
     assert lean is not None
     assert _names(lean) == {"nch.1", "nch.2", "rpoly"}  # reference: the circuit's own element lines, read by hand
     assert ".param dvt=0\n" in lean and ".param unused_p=3" in lean and "+ lam=0.06 ; channel-length modulation" in lean
     assert "comment between continuation" not in lean
+    assert "lambda=0.08" not in lean and "\r" not in lean
     assert lean.splitlines()[0] == "inverting stage (invented)" and lean.rstrip().endswith(".end")
     assert lean.index("m1 out in") > lean.index(".model nch.2")  # the library's lines stand where its .lib line stood
 
@@ -147,10 +154,12 @@ def _compare(full: str, lean: str | tuple[str, ...], save: str, sweep: str, cwd:
 
 
 @pytest.mark.ngspice
-def test_the_invented_library_gives_the_same_numbers_bit_for_bit(tmp_path):
+@pytest.mark.parametrize("newline", ["\n", "\r\n"], ids=["lf", "crlf"])
+def test_the_invented_library_gives_the_same_numbers_bit_for_bit(tmp_path, newline):
     """The circuit on the written-out library gives exactly the vectors of ngspice reading the library itself (ngspice's
-    own reading is the reference), in both sections."""
-    _library(tmp_path)
+    own reading is the reference), in both sections; also from files saved with Windows line ends, whose blank lines
+    within an unused card must go with the card."""
+    _library(tmp_path, newline)
     for section in ("typ", "slow"):
         deck = CIRCUIT.format(lib="lib/invented.lib").replace(" typ\n", f" {section}\n") + ".end\n"
         lean = used_only(deck, str(tmp_path))
@@ -280,3 +289,15 @@ def test_decks_differing_in_their_own_lines_are_written_out_as_by_fresh_processe
     assert other != first and used_only(first, str(tmp_path)) is not None
     for deck in (other, first):
         assert used_only(deck, str(tmp_path)) == _fresh(monkeypatch, deck, tmp_path), why
+
+
+def test_a_deck_given_with_windows_line_ends_is_written_out_as_with_plain_ones(tmp_path):
+    """Library files arrive with plain line ends (Python reads them in universal-newline mode), but a deck can be given
+    as text (SimJob.netlist from the API): the same deck with "\\r\\n" gives the same written-out deck, its own unused card
+    leaving with the continuation after its blank line."""
+    _library(tmp_path)
+    own = ".model mine nmos (level=1 vto=0.5\n\n+ kp=90u)\n"
+    deck = CIRCUIT.format(lib="lib/invented.lib") + own + ".end\n"
+    plain = used_only(deck, str(tmp_path))
+    assert plain is not None and "kp=90u" not in plain and "mine" not in _names(plain)
+    assert used_only(deck.replace("\n", "\r\n"), str(tmp_path)).splitlines() == plain.splitlines()

@@ -117,3 +117,65 @@ def test_a_deck_with_multibyte_characters_reaches_ngspice_intact(shared_sim):
     run = shared_sim.run(job).run("a")
     expected = 1 / (1 + 2j * np.pi * run.freq_hz * 1e3 * 1e-9)  # circuit theory: RC low-pass, closed form
     np.testing.assert_allclose(run.vectors["v(out)"], expected, rtol=1e-9)
+
+
+def test_the_log_tail_is_the_worker_s_last_lines(tmp_path):
+    """What a failed job quotes of the worker's log: its last lines (blank ones left out), one a line, as written; nothing
+    when the log is gone."""
+    from netloop.sim.shared import _Worker  # noqa: PLC0415
+
+    worker = object.__new__(_Worker)  # the log alone: no process started
+    worker.log_path = tmp_path / "worker.log"
+    worker.log_path.write_text("started\n\n   \nError: cannot recover\nngspice stopped\n")
+    assert worker.log_tail() == "started\nError: cannot recover\nngspice stopped"
+    assert worker.log_tail(2) == "Error: cannot recover\nngspice stopped"
+    worker.log_path.unlink()
+    assert worker.log_tail() == ""
+
+
+@pytest.mark.ngspice
+def test_the_worker_speaks_its_protocol(tmp_path):
+    """The worker process as netloop.sim.worker.main runs it: "ready" with ngspice's version; a job's vectors (the RC
+    closed form); a request it does not know refused with its reason, the worker still serving; a deck ngspice cannot
+    read refused as a netlist failure with ngspice's words; the end of its input ends it with status 0."""
+    import subprocess  # noqa: PLC0415
+    import sys  # noqa: PLC0415
+
+    from netloop.sim import find_libngspice  # noqa: PLC0415
+    from netloop.sim.protocol import read_frame_fd, write_frame  # noqa: PLC0415
+    from netloop.sim.shared import _portable  # noqa: PLC0415
+    from netloop.sim.spawn import _PACKAGE_ROOT  # noqa: PLC0415
+
+    code = "import sys; from netloop.sim.worker import main; sys.exit(main(sys.argv))"  # the module by its name, as mutmut sees it
+    with open(tmp_path / "worker.log", "wb") as err:
+        worker = subprocess.Popen([sys.executable, "-c", code, find_libngspice()], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
+                                  stderr=err, cwd=tmp_path, env={**os.environ, "PYTHONPATH": os.pathsep.join(
+                                      p for p in (_PACKAGE_ROOT, os.environ.get("PYTHONPATH", "")) if p)})  # as spawn() passes it on
+    replies = worker.stdout.fileno()
+
+    def ask(request):
+        write_frame(worker.stdin, request)
+        return read_frame_fd(replies, 60)
+
+    try:
+        ready, version = read_frame_fd(replies, 60)
+        assert ready == "ready" and version
+        kind, payload = ask(("run", _portable(RC_JOB)))
+        assert kind == "ok"
+        name, freq, (v_out,) = payload.runs[0]
+        np.testing.assert_allclose(v_out, 1 / (1 + 2j * np.pi * freq * 1e3 * 1e-9), rtol=1e-9)  # circuit theory: RC low-pass
+        assert ask(("bogus", None))[:3] == ("failed", "internal", "ValueError: unknown request 'bogus'")
+        broken = _portable(SimJob("broken\nv1 in 0 dc 0 ac 1\nq1 in out\n", runs=RC_JOB.runs, save=("v(in)",), excitable=("v1",)))
+        failed = ask(("run", broken))
+        assert failed[:2] == ("failed", "netlist") and failed[2].startswith("ngspice could not read the netlist")
+        kind, payload = ask(("run", _portable(RC_JOB)))  # still serving
+        assert kind == "ok" and payload.runs[0][1].size == freq.size
+        worker.stdin.close()
+        assert worker.wait(30) == 0
+    finally:
+        if worker.poll() is None:
+            worker.kill()
+            worker.wait()
+        worker.stdout.close()
+        if not worker.stdin.closed:
+            worker.stdin.close()
