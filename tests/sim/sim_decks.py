@@ -10,3 +10,13 @@ r1 n 0 1k
 v1 in 0 dc 0 ac 1
 r2 in n 1k
 """
+
+
+def same_netloop() -> dict[str, str]:
+    """The environment for a Python process of a test that must import the very netloop the test imports, whatever folder
+    it starts in (as netloop.sim.spawn starts its worker): in mutmut's copy, the mutated one."""
+    import os  # noqa: PLC0415
+
+    from netloop.sim.spawn import _PACKAGE_ROOT  # noqa: PLC0415
+
+    return {**os.environ, "PYTHONPATH": os.pathsep.join(p for p in (_PACKAGE_ROOT, os.environ.get("PYTHONPATH", "")) if p)}

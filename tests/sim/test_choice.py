@@ -49,3 +49,19 @@ def test_backend_can_be_chosen():
         shared.close()
     with pytest.raises(ValueError, match="backend must be"):
         sim.default_simulator(backend="spice3")
+
+
+@pytest.mark.ngspice
+def test_several_processes_keep_the_whole_deck_where_asked(tmp_path):
+    """default_simulator(processes=2, keep_dir=...) shares each job's runs out to two ngspice processes and keeps the
+    job's whole deck there (both runs in it), as one process would (`netloop check --keep-decks` on a large circuit)."""
+    job = sim.SimJob("rc\nv1 in 0 dc 0 ac 1\nr1 in out 1k\nc1 out 0 1n\n",
+                     runs=(sim.AcRun("a", {"v1": 1.0}, (sim.AcSweep("dec", 3, 1e3, 1e6),)),
+                           sim.AcRun("b", {"v1": 2.0}, (sim.AcSweep("dec", 3, 1e3, 1e6),))),
+                     save=("v(out)",), excitable=("v1",), label="kept")
+    with sim.default_simulator(keep_dir=str(tmp_path), processes=2) as simulator:
+        assert len(simulator.simulators) == 2
+        result = simulator.run(job)
+    (deck,) = tmp_path.glob("*.cir")
+    assert result.deck_path == str(deck)
+    assert deck.read_text().lower().count("\nac ") == 2  # both runs, one ac each

@@ -6,6 +6,7 @@ import re
 import subprocess
 from pathlib import Path
 
+import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -117,6 +118,21 @@ def test_an_error_line_ngspice_recovers_from_is_a_convergence_aid_not_a_failure(
     assert got.real.tolist() == pytest.approx(rows, rel=1e-5)  # ngspice prints 6 significant digits
 
 
+@pytest.mark.ngspice
+@pytest.mark.parametrize("op_voltages", [True, False])
+def test_every_sweep_that_recovers_finishes_the_job(simulator, op_voltages):
+    """ngspice finds the operating point again for each ac, recovering each time (the deck above): a job of two sweeps
+    and two runs finishes, every point of every sweep there, and the recovery is its convergence aid."""
+    sweeps = (AcSweep("dec", 2, 1.0, 1e3), AcSweep("lin", 3, 2e3, 4e3))
+    job = SimJob(RECOVERS, runs=(AcRun("a", {"v1": 1.0}, sweeps), AcRun("b", {"v1": 2.0}, sweeps)), save=("v(f)",),
+                 excitable=("v1",), op_voltages=op_voltages)
+    result = simulator.run(job)
+    assert [r.freq_hz.size for r in result.runs] == [10, 10]  # 7 of the dec sweep, 3 of the lin one
+    np.testing.assert_allclose(result.runs[1].vectors["v(f)"], 2 * result.runs[0].vectors["v(f)"], rtol=1e-9)  # linear in v1's ac
+    assert result.log.count("out of range for sqrt") >= 4
+    assert result.convergence_aid == "ngspice: dynamic gmin stepping"
+
+
 _FRAGMENTS = st.sampled_from(["unrecognized parameter (cox) - ignored", "UNRECOGNIZED parameter (vth0) - ignored", "unrecognized",
                               "unrecog", "nized", ".model dm d", "\u0130", "\u0131", "\u212a", "Note: ok", " ", "\n", "\r\n", "\r",
                               "\x0b", "\x0c", "\x1c", "\x85", "\u2028"])
@@ -133,3 +149,18 @@ def test_the_quick_look_at_a_whole_log_is_the_look_at_its_lines(log):
     assert ("unrecognized" in log.lower()) == ("unrecognized" in joined)
     by_line = any(re.search(r"unrecognized parameter \(([^)]+)\)\s*-\s*ignored", line, re.I) for line in lines)
     assert bool(model_warnings(log)) == (by_line and "unrecognized" in joined)
+
+
+@pytest.mark.ngspice
+def test_a_domain_error_names_the_element_ngspice_names(tmp_path):
+    """ngspice -b's own output for the deck above ('Error: -0.0104898 out of range for sqrt', then 'in line b1', ngspice
+    39) reads as a behavioural expression in b1 evaluated outside its domain, said once however often ngspice repeats it
+    while it iterates, and not structural (ngspice recovers); without the 'in line' that follows it, no element is named."""
+    deck = tmp_path / "deck.cir"
+    deck.write_text(RECOVERS + ".control\nac dec 2 1 1k\n.endc\n.end\n")
+    done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
+    found = [d for d in diagnose((done.stdout + done.stderr).splitlines()) if "domain" in d.text]
+    assert [(d.text, d.structural) for d in found] == [
+        ("a behavioural expression in b1 was evaluated outside its domain (sqrt of -0.0104898)", False)]
+    (alone,) = diagnose(["Error: -2 out of range for log"])
+    assert alone.text == "a behavioural expression was evaluated outside its domain (log of -2)"

@@ -37,6 +37,14 @@ def test_merge_orders_and_drops_duplicates():
     np.testing.assert_array_equal(vectors["x"], [1, 5, 10, 20, 100])  # the first of the 10 Hz pair is kept
 
 
+def test_no_sweep_merges_to_no_point():
+    """A run with no sweep gives no frequency and no row of data (merge_rows of nothing)."""
+    from netloop.sim.frequency import merge_rows  # noqa: PLC0415
+
+    freq, rows = merge_rows([])
+    assert freq.shape == (0,) and rows.shape == (0, 0)
+
+
 def test_bad_sweeps_are_rejected():
     """Sweeps ngspice 39 cannot run as meant (no points, zero start, reversed limits, a 'dec' span
     under one step, 'lin 2') are refused with a message."""

@@ -173,6 +173,19 @@ def test_explained_accepts_only_the_values_of_the_changes():
     assert not explained(a, a.replace("vin inp 0 dc 1.65 ac 0", "vin inp 0 dc 1.65 ac 1"), vin)
 
 
+def test_explained_reads_continued_cards_and_sources_without_a_value():
+    """A card continued on '+' lines is one card: a source whose DC value sits on its continuation line differs only in
+    that value, however many lines come before it; a source card that names 'dc' and no value is left as it is."""
+    head = "stage\nr1 a b 1k\nc1 b 0 1p\nm1 b a 0 0 nch w=1u\n+ l=1u\n"
+    vdd = (Change("source", "vdd", "3.3"),)
+    loaded = head + "vdd vdd 0\n+ dc 3.3 ac 0\n"
+    assert explained(loaded, loaded.replace("dc 3.3", "dc 3.0"), vdd)
+    assert not explained(loaded, loaded.replace("+ l=1u", "+ l=2u"), vdd)
+    bare = head + "vdd vdd 0 dc\n"
+    assert explained(bare, bare, vdd)
+    assert not explained(bare, head + "vdd vdd 0 dc 1\n", vdd)
+
+
 def test_a_parameter_change_resets_the_circuit_and_sets_temperature_and_sources_again():
     """alterparam needs ngspice's reset, after which the temperature, every source value and every R, C, L value are given again; without a
     parameter change only the values that differ are sent, numbers as ngspice's netlist reader makes them."""

@@ -44,6 +44,16 @@ def test_notes_and_warnings_are_not_errors():
     assert ngspice_fallback(["No. of Data Rows : 1"]) is None
 
 
+def test_a_message_quotes_the_last_twelve_lines_written():
+    """tail(): the last 12 non-blank lines by default, each without trailing blanks, in order."""
+    from netloop.sim.output import tail  # noqa: PLC0415
+
+    lines = [f"line {i}  " if i % 3 else "" for i in range(40)]
+    kept = [f"line {i}" for i in range(40) if i % 3]
+    assert tail(lines) == "\n".join(kept[-12:])
+    assert tail(lines, 2) == "\n".join(kept[-2:])
+
+
 def test_a_recovery_is_named_by_its_fallback_or_its_first_error():
     """What ngspice recovered through: its fallback when it names one, else the first error line it printed; None when it
     printed neither."""

@@ -7,6 +7,7 @@ import sys
 import textwrap
 
 import pytest
+from sim_decks import same_netloop
 
 # In a process of its own: libngspice is one instance a process, and the resident size is the process's.
 SCRIPT = textwrap.dedent(
@@ -37,7 +38,7 @@ def test_commands_leave_no_memory_behind():
     """10,000 commands, each printing a line, grow the ngspice process by under 0.5 MB (its resident size, from
     /proc/self/statm). Measured before the fix: 3.6 MB, PySpice keeping every printed line and ngspice every command
     (about 360 bytes a command; a sky130 statistical sample gives about 40 commands and 220 lines)."""
-    done = subprocess.run([sys.executable, "-c", SCRIPT, "10000"], capture_output=True, text=True, timeout=120, check=True)
+    done = subprocess.run([sys.executable, "-c", SCRIPT, "10000"], capture_output=True, text=True, timeout=120, check=True, env=same_netloop())
     grown_kb, printed = map(int, done.stdout.split())
     assert printed == 10000  # every line still reaches the session
     assert grown_kb < 512
@@ -74,5 +75,5 @@ def test_circuits_held_across_a_release_give_the_same_vectors():
     """Two circuits held by ngspice give, after 1,500 more commands (past a release of ngspice's memory of commands), the
     same ac vectors bit for bit as before it (ngspice's own ac analysis, before and after); the two differ from each other,
     so each sweep ran on its own circuit."""
-    done = subprocess.run([sys.executable, "-c", SAME], capture_output=True, text=True, timeout=120, check=True)
+    done = subprocess.run([sys.executable, "-c", SAME], capture_output=True, text=True, timeout=120, check=True, env=same_netloop())
     assert done.stdout.split() == ["True", "True"]

@@ -46,6 +46,12 @@ def test_split_results_equal_one_simulator_in_run_order(runs, groups):
     assert all(len(j.runs) >= 1 for s in sims for j in s.jobs)
 
 
+def test_no_simulator_to_share_out_to_is_refused():
+    """SplitRunsSimulator needs a simulator: none is a ValueError that says so."""
+    with pytest.raises(ValueError, match="^SplitRunsSimulator needs at least one simulator$"):
+        SplitRunsSimulator([])
+
+
 def test_only_the_first_share_asks_for_the_operating_point():
     """The operating point is the same in every share, so the others are spared the separate op run."""
     shares = split_runs(_job(4), 2)

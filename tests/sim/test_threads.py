@@ -6,6 +6,7 @@ import subprocess
 import sys
 
 import pytest
+from sim_decks import same_netloop
 
 from netloop.sim import AcRun, AcSweep, SimJob
 from netloop.sim.deck import control_steps
@@ -27,5 +28,5 @@ def test_shared_session_runs_on_one_thread():
         "from netloop.sim.session import NgspiceSession; from netloop.sim import find_libngspice; "
         "print(' '.join(NgspiceSession(find_libngspice()).command('echo $num_threads')))"
     )
-    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60, check=True)
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60, check=True, env=same_netloop())
     assert run.stdout.split()[-1] == "1", run.stdout

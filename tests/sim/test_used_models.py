@@ -7,6 +7,7 @@ from importlib.util import find_spec
 from pathlib import Path
 
 import pytest
+from sim_decks import same_netloop
 
 from netloop.sim.used_models import used_only, used_pieces
 
@@ -93,6 +94,8 @@ def test_only_the_definitions_the_circuit_uses_are_written_out(tmp_path, newline
     assert ".param dvt=0\n" in lean and ".param unused_p=3" in lean and "+ lam=0.06 ; channel-length modulation" in lean
     assert "comment between continuation" not in lean
     assert "lambda=0.08" not in lean and "\r" not in lean
+    # each library line read out is marked where its lines begin, as written
+    assert "\n* .lib lib/invented.lib typ\n.param dvt=0\n* .include params/shared.inc\n" in lean
     assert lean.splitlines()[0] == "inverting stage (invented)" and lean.rstrip().endswith(".end")
     assert lean.index("m1 out in") > lean.index(".model nch.2")  # the library's lines stand where its .lib line stood
 
@@ -148,7 +151,7 @@ def _compare(full: str, lean: str | tuple[str, ...], save: str, sweep: str, cwd:
     import subprocess
     import sys
 
-    run = subprocess.run([sys.executable, "-c", _COMPARE], input=json.dumps([full, lean, save, sweep]), capture_output=True,
+    run = subprocess.run([sys.executable, "-c", _COMPARE], input=json.dumps([full, lean, save, sweep]), capture_output=True, env=same_netloop(),
                          text=True, timeout=300, check=True, cwd=cwd)
     return json.loads(run.stdout.strip().splitlines()[-1])
 
@@ -301,3 +304,18 @@ def test_a_deck_given_with_windows_line_ends_is_written_out_as_with_plain_ones(t
     plain = used_only(deck, str(tmp_path))
     assert plain is not None and "kp=90u" not in plain and "mine" not in _names(plain)
     assert used_only(deck.replace("\n", "\r\n"), str(tmp_path)).splitlines() == plain.splitlines()
+
+
+def test_a_path_from_the_home_folder_follows_the_home_folder(tmp_path, monkeypatch):
+    """A library named from '~' is read from the home folder of the moment: with HOME changed, the deck written out holds
+    the other home's library, not the one read before (the per-process store of libraries keys on it)."""
+    first, second = tmp_path / "first", tmp_path / "second"
+    _library(first)
+    _library(second)
+    shared = second / "lib" / "params" / "shared.inc"
+    shared.write_text(SHARED.replace(".param unused_p=3", ".param unused_p=4"))
+    deck = CIRCUIT.format(lib="~/lib/invented.lib") + ".end\n"
+    monkeypatch.setenv("HOME", str(first))
+    assert ".param unused_p=3" in used_only(deck, str(tmp_path))
+    monkeypatch.setenv("HOME", str(second))
+    assert ".param unused_p=4" in used_only(deck, str(tmp_path))

@@ -61,8 +61,9 @@ def test_killed_worker_is_reported_and_replaced():
         timer = threading.Timer(0.5, os.kill, (pid, signal.SIGKILL))
         timer.start()
         try:
-            with pytest.raises(SimulationError, match="worker process died"):
+            with pytest.raises(SimulationError, match="worker process died") as died:
                 simulator.run(job)
+            assert died.value.corner == "hang"  # the job's label: the corner whose record says so
         finally:
             timer.cancel()
         _check_rc(simulator.run(RC_JOB))
@@ -144,13 +145,12 @@ def test_the_worker_speaks_its_protocol(tmp_path):
     from netloop.sim import find_libngspice  # noqa: PLC0415
     from netloop.sim.protocol import read_frame_fd, write_frame  # noqa: PLC0415
     from netloop.sim.shared import _portable  # noqa: PLC0415
-    from netloop.sim.spawn import _PACKAGE_ROOT  # noqa: PLC0415
+    from sim_decks import same_netloop  # noqa: PLC0415
 
     code = "import sys; from netloop.sim.worker import main; sys.exit(main(sys.argv))"  # the module by its name, as mutmut sees it
     with open(tmp_path / "worker.log", "wb") as err:
         worker = subprocess.Popen([sys.executable, "-c", code, find_libngspice()], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
-                                  stderr=err, cwd=tmp_path, env={**os.environ, "PYTHONPATH": os.pathsep.join(
-                                      p for p in (_PACKAGE_ROOT, os.environ.get("PYTHONPATH", "")) if p)})  # as spawn() passes it on
+                                  stderr=err, cwd=tmp_path, env=same_netloop())
     replies = worker.stdout.fileno()
 
     def ask(request):
@@ -179,3 +179,16 @@ def test_the_worker_speaks_its_protocol(tmp_path):
         worker.stdout.close()
         if not worker.stdin.closed:
             worker.stdin.close()
+
+
+def test_a_crashing_ngspice_in_batch_mode_is_named_with_its_signal_and_last_lines(tmp_path):
+    """An ngspice -b killed by a signal (here a stand-in that prints eight lines and kills itself with SIGSEGV, as a
+    crashing ngspice would end) fails the job naming the signal and its last six lines, in order."""
+    from netloop.sim import BatchSimulator  # noqa: PLC0415
+
+    crashing = tmp_path / "ngspice"
+    crashing.write_text("#!/bin/sh\nfor i in 1 2 3 4 5 6 7 8; do echo \"line $i\"; done\nkill -SEGV $$\n")
+    crashing.chmod(0o755)
+    with pytest.raises(SimulationError) as caught:
+        BatchSimulator(binary=str(crashing)).run(RC_JOB)
+    assert f"ngspice crashed (signal {signal.SIGSEGV.value}): " + "\n".join(f"line {i}" for i in range(3, 9)) in str(caught.value)
