@@ -62,5 +62,5 @@ def job_error(job: SimJob, kind: str, message: str, output: str, deck: str, keep
     if kind == "op":
         return op_failure(job, tried, message, path, output, diagnoses, log_path)
     lead = "; ".join(d.text for d in diagnoses if d.text not in message)
-    return SimulationError(f"{lead}; {message}" if lead else message, deck_path=path, simulator_output=tail(output, 60),
+    return SimulationError(f"{lead}; {message}" if lead else message, deck_path=path, simulator_output=tail(output.splitlines(), 60),
                            corner=job.label or None, log_path=log_path)

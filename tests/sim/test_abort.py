@@ -46,6 +46,7 @@ def test_abort_stops_a_running_job_and_the_next_job_runs(tmp_path):
         assert not runner.is_alive()
         assert len(outcome) == 1 and isinstance(outcome[0], SimulationError)
         assert "abandoned" in str(outcome[0]) and outcome[0].deck_path is None
+        assert outcome[0].corner == _long_job().label  # the job's label: the corner whose record says so
         assert list(tmp_path.iterdir()) == []  # keep_dir: the abandoned job left no deck
         run = simulator.run(RC_JOB).run("a")
         expected = 1 / (1 + 2j * np.pi * run.freq_hz * 1e3 * 1e-9)  # circuit theory: RC low-pass, closed form

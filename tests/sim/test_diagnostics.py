@@ -43,6 +43,9 @@ CASES = [
     pytest.param("parallel vcvs\nv1 s 0 dc 1 ac 1\nrs s 0 1k\ne1 a 0 s 0 2\ne2 a 0 s 0 3\nr1 a 0 1k\n",
                  "singular matrix: the current of voltage-controlled source e1 is not determined", "check node e1#branch",
                  id="parallel-vcvs"),
+    pytest.param("no subcircuit\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nx1 b 0 nosuch\n",
+                 "unknown subcircuit in 'x1 b 0 nosuch': no .subckt of that name is defined or included", "unknown subckt: x1 b 0 nosuch",
+                 id="unknown-subcircuit"),
     pytest.param("no model\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 nosuch\n",
                  "model 'nosuch' is not defined (used by 'd1 b 0 nosuch')", "can't find model 'nosuch'", id="undefined-model"),
 ]
@@ -59,6 +62,7 @@ def test_ngspice_diagnosis_leads_the_message(simulator, netlist, lead, ngspice_s
     assert "options that usually help" not in error.message  # no aid helps a floating node, parallel sources or a missing definition
     log = Path(error.log_path)
     assert log.parent == Path(error.deck_path).parent and ngspice_said in log.read_text()
+    assert ngspice_said in error.simulator_output  # ngspice's own last lines travel with the error
     assert str(log) in str(error)
 
 

@@ -42,7 +42,7 @@ def test_no_sweep_merges_to_no_point():
     from netloop.sim.frequency import merge_rows  # noqa: PLC0415
 
     freq, rows = merge_rows([])
-    assert freq.shape == (0,) and rows.shape == (0, 0)
+    assert freq.shape == (0,) and rows.shape == (0, 0) and rows.dtype == np.complex128
 
 
 def test_bad_sweeps_are_rejected():

@@ -73,6 +73,8 @@ def test_vector_spellings():
     assert unknown_saves(["v(out)", "i(v1)", "@m1[gm]"], ["out", "v1#branch"]) is None
     message = unknown_saves(["v(outt)"], ["out", "in"])
     assert "'v(outt)'" in message and "v(out)" in message
+    assert unknown_saves(["v(outt)", "i(v9)"], ["out", "in", "v1#branch"]) == (
+        "the circuit has no vector 'v(outt)' (did you mean v(out)?), 'i(v9)' (did you mean i(v1)?)")
 
 
 @settings(max_examples=150, deadline=None)

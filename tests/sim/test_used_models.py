@@ -319,3 +319,17 @@ def test_a_path_from_the_home_folder_follows_the_home_folder(tmp_path, monkeypat
     assert ".param unused_p=3" in used_only(deck, str(tmp_path))
     monkeypatch.setenv("HOME", str(second))
     assert ".param unused_p=4" in used_only(deck, str(tmp_path))
+
+
+@pytest.mark.parametrize(("levels", "followed"), [(30, True), (31, False)])
+def test_libraries_are_followed_thirty_deep(tmp_path, levels, followed):
+    """A chain of files each including the next is followed 30 files deep (the last defining the card the circuit uses
+    and one it does not); deeper, the deck goes to ngspice as written (no lean deck), as for anything not followed."""
+    for i in range(1, levels + 1):
+        body = f".include f{i + 1}.inc\n" if i < levels else ".model used r (r=1)\n.model spare r (r=2)\n"
+        (tmp_path / f"f{i}.inc").write_text(f"* level {i}\n{body}")
+    deck = "chain\n.include f1.inc\nv1 a 0 dc 1\nr1 a 0 used 1k\n.end\n"
+    lean = used_only(deck, str(tmp_path))
+    assert (lean is not None) == followed
+    if followed:
+        assert _names(lean) == {"used"} and f"* .include f{levels}.inc" in lean

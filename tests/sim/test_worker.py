@@ -192,3 +192,55 @@ def test_a_crashing_ngspice_in_batch_mode_is_named_with_its_signal_and_last_line
     with pytest.raises(SimulationError) as caught:
         BatchSimulator(binary=str(crashing)).run(RC_JOB)
     assert f"ngspice crashed (signal {signal.SIGSEGV.value}): " + "\n".join(f"line {i}" for i in range(3, 9)) in str(caught.value)
+
+
+@pytest.mark.ngspice
+def test_batch_mode_runs_a_job_given_under_a_second_and_stops_one_given_no_time(batch_sim):
+    """A timeout under a second is still time to run a small job; a job whose time is gone before ngspice could start is
+    stopped with the timeout's message, not run."""
+    from dataclasses import replace  # noqa: PLC0415
+
+    _check_rc(batch_sim.run(replace(RC_JOB, timeout_s=0.9)))
+    with pytest.raises(SimulationError, match=r"did not finish within the timeout of 1e-09 s"):
+        batch_sim.run(replace(RC_JOB, timeout_s=1e-9))
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("backend", ["shared", "batch"])
+def test_a_kept_deck_is_named_for_its_job_and_runs_in_ngspice_alone(backend, tmp_path):
+    """keep_dir keeps each job's deck, named for the job's label, and ngspice -b runs it as it is, with no error line;
+    without keep_dir a job that succeeds keeps none."""
+    import subprocess  # noqa: PLC0415
+    from dataclasses import replace  # noqa: PLC0415
+
+    from netloop.sim import BatchSimulator, find_ngspice_binary  # noqa: PLC0415
+
+    make = SharedLibrarySimulator if backend == "shared" else BatchSimulator
+    simulator = make(keep_dir=str(tmp_path / "kept"))
+    try:
+        result = simulator.run(replace(RC_JOB, label="corner 7/ss"))
+        _check_rc(result)
+    finally:
+        getattr(simulator, "close", lambda: None)()
+    (deck,) = (tmp_path / "kept").glob("*.cir")
+    assert result.deck_path == str(deck) and deck.name.startswith("corner_7_ss-")
+    done = subprocess.run([find_ngspice_binary(), "-b", str(deck)], capture_output=True, text=True, timeout=60, cwd=tmp_path, check=False)
+    assert "error" not in (done.stdout + done.stderr).lower() and "ac" in deck.read_text().lower()
+    plain = make()
+    try:
+        assert plain.run(RC_JOB).deck_path is None
+    finally:
+        getattr(plain, "close", lambda: None)()
+
+
+@pytest.mark.ngspice
+def test_the_session_reports_ngspice_s_own_version():
+    """The worker's "ready" names the version of the ngspice it loaded: the number `ngspice -v` prints (ngspice-39 here)."""
+    import re  # noqa: PLC0415
+    import subprocess  # noqa: PLC0415
+
+    from netloop.sim import find_ngspice_binary  # noqa: PLC0415
+
+    printed = subprocess.run([find_ngspice_binary(), "-v"], capture_output=True, text=True, timeout=30, check=False).stdout
+    with SharedLibrarySimulator() as simulator:
+        assert simulator.start() == re.search(r"ngspice-(\d+)", printed)[1]
