@@ -14,7 +14,7 @@ r2 in n 1k
 
 def same_netloop() -> dict[str, str]:
     """The environment for a Python process of a test that must import the very netloop the test imports, whatever folder
-    it starts in (as netloop.sim.spawn starts its worker): in mutmut's copy, the mutated one."""
+    it starts in (as netloop.sim.spawn starts its worker), not one found from that folder or installed elsewhere."""
     import os  # noqa: PLC0415
 
     from netloop.sim.spawn import _PACKAGE_ROOT  # noqa: PLC0415
