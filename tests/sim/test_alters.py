@@ -94,3 +94,15 @@ def test_alters_are_made_after_the_saves_and_undone_after_the_last_run():
     change = commands.index("alter @c1[capacitance] = netloop_alter_0 * 2.0")
     assert commands.index("let netloop_alter_0 = @c1[capacitance]") < change < first_ac
     assert commands[-1] == "alter @c1[capacitance] = netloop_alter_0"
+
+
+@pytest.mark.ngspice
+def test_an_altered_job_writes_nothing_into_the_circuit_s_folder(simulator, tmp_path):
+    """The loaded values of altered parameters come back without a file: the job's folder (the user's, where relative
+    includes are read) is left as it was, in either backend (batch mode writes its raw files in a folder of its own)."""
+    (tmp_path / "keep.txt").write_text("the user's\n")
+    job = _job(RC, (Alter("c1", "capacitance", 2.0),), circuit_id="rc-folder")
+    result = simulator.run(SimJob(job.netlist, job.runs, job.save, job.excitable, alters=job.alters, circuit_id="rc-folder",
+                                  workdir=str(tmp_path)))
+    assert result.parameters == {"@c1[capacitance]": pytest.approx(1e-9, rel=1e-15)}
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["keep.txt"]

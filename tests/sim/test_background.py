@@ -155,3 +155,18 @@ def test_one_process_asked_for_starts_no_other():
     assert sim.simulators == (sim.ready(),) and log == ["started"]
     assert sim.backend == "slow"
     sim.close()
+
+
+def test_a_failed_start_of_a_second_process_closes_the_first():
+    """With use_processes(2), a second ngspice that fails to start fails the first run with its own error, and the first
+    one, which did start, is closed (no process left behind); closing afterwards closes nothing twice."""
+    gate, log = threading.Event(), []
+    gate.set()
+    starts = iter([lambda: _Slow(gate, log), lambda: (_ for _ in ()).throw(SimulationError("second ngspice would not start"))])
+    sim = StartingSimulator(start=lambda keep_dir: next(starts)())
+    sim.use_processes(2)
+    with pytest.raises(SimulationError, match="second ngspice would not start"):
+        sim.run(JOB)
+    assert log == ["started", "closed"]
+    sim.close()
+    assert log == ["started", "closed"]

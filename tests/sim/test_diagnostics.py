@@ -11,6 +11,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from sim_decks import RECOVERS
+
 from netloop.errors import SimulationError
 from netloop.sim import AcRun, AcSweep, SimJob
 from netloop.sim.diagnostics import diagnose, model_warnings
@@ -91,18 +93,6 @@ def test_an_ignored_model_parameter_is_a_warning(simulator):
     assert model_warnings("unrecognized parameter (cox) - ignored")  # without the .model line before it, still said
 
 
-# During the operating point of the first ac, ngspice evaluates sqrt(0.70 - v(c)) at v(c) a little above 0.70
-# ("Error: -0.0104898 out of range for sqrt"), then finds the point by dynamic gmin stepping and finishes the sweep.
-RECOVERS = """recovers
-vdd vdd 0 dc 5
-r1 vdd c 1k
-d1 c 0 dmod
-b1 f 0 v = sqrt(0.70-v(c))
-r3 f 0 1k
-v1 in 0 dc 0 ac 1
-rin in c 1meg
-.model dmod d is=1e-14
-"""
 
 
 @pytest.mark.ngspice
@@ -125,7 +115,7 @@ def test_an_error_line_ngspice_recovers_from_is_a_convergence_aid_not_a_failure(
 @pytest.mark.ngspice
 @pytest.mark.parametrize("op_voltages", [True, False])
 def test_every_sweep_that_recovers_finishes_the_job(simulator, op_voltages):
-    """ngspice finds the operating point again for each ac, recovering each time (the deck above): a job of two sweeps
+    """ngspice finds the operating point again for each ac, recovering each time (sim_decks.RECOVERS): a job of two sweeps
     and two runs finishes, every point of every sweep there, and the recovery is its convergence aid."""
     sweeps = (AcSweep("dec", 2, 1.0, 1e3), AcSweep("lin", 3, 2e3, 4e3))
     job = SimJob(RECOVERS, runs=(AcRun("a", {"v1": 1.0}, sweeps), AcRun("b", {"v1": 2.0}, sweeps)), save=("v(f)",),
@@ -157,7 +147,7 @@ def test_the_quick_look_at_a_whole_log_is_the_look_at_its_lines(log):
 
 @pytest.mark.ngspice
 def test_a_domain_error_names_the_element_ngspice_names(tmp_path):
-    """ngspice -b's own output for the deck above ('Error: -0.0104898 out of range for sqrt', then 'in line b1', ngspice
+    """ngspice -b's own output for sim_decks.RECOVERS ('Error: -0.0104898 out of range for sqrt', then 'in line b1', ngspice
     39) reads as a behavioural expression in b1 evaluated outside its domain, said once however often ngspice repeats it
     while it iterates, and not structural (ngspice recovers); without the 'in line' that follows it, no element is named."""
     deck = tmp_path / "deck.cir"
@@ -168,3 +158,17 @@ def test_a_domain_error_names_the_element_ngspice_names(tmp_path):
         ("a behavioural expression in b1 was evaluated outside its domain (sqrt of -0.0104898)", False)]
     (alone,) = diagnose(["Error: -2 out of range for log"])
     assert alone.text == "a behavioural expression was evaluated outside its domain (log of -2)"
+
+
+@pytest.mark.ngspice
+def test_a_long_output_travels_as_its_last_sixty_lines(simulator):
+    """A netlist ngspice refuses at length (forty undefined parameters) fails with ngspice's last 60 lines beside the
+    message, the end of the whole output kept in the log beside the deck, which sits in a folder of netloop's own when
+    no keep_dir is given."""
+    netlist = "many undefined\nv1 a 0 dc 1 ac 1\n" + "".join(f"r{i} a 0 {{p{i}}}\n" for i in range(40))
+    with pytest.raises(SimulationError) as caught:
+        simulator.run(_job(netlist))
+    error = caught.value
+    written = [line.rstrip() for line in Path(error.log_path).read_text().splitlines() if line.strip()]
+    assert len(written) > 60 and error.simulator_output.splitlines() == written[-60:]
+    assert Path(error.deck_path).parent.name.startswith("netloop-deck-")

@@ -73,6 +73,7 @@ def test_vector_spellings():
     assert unknown_saves(["v(out)", "i(v1)", "@m1[gm]"], ["out", "v1#branch"]) is None
     message = unknown_saves(["v(outt)"], ["out", "in"])
     assert "'v(outt)'" in message and "v(out)" in message
+    assert unknown_saves(["v(zzz)"], ["out", "in"]) == "the circuit has no vector 'v(zzz)'"  # no name close to it
     assert unknown_saves(["v(outt)", "i(v9)"], ["out", "in", "v1#branch"]) == (
         "the circuit has no vector 'v(outt)' (did you mean v(out)?), 'i(v9)' (did you mean i(v1)?)")
 
@@ -92,3 +93,9 @@ def test_the_usual_iteration_notes_are_quiet():
     """ngspice's notes while it steps gmin to an operating point (RECOVERED, less its warnings) need no pattern."""
     assert _quiet([line for line in RECOVERED if "Warning" not in line])
     assert not _quiet(RECOVERED) and not _quiet(["Fehler: ÄC operating point failed"])  # non-ASCII: the patterns decide
+
+
+def test_output_given_as_any_iterable_is_judged_as_a_list():
+    """The judging functions take ngspice's lines as a list, a tuple or a one-pass iterator alike."""
+    assert error_lines(iter(FAILED)) == error_lines(FAILED) == error_lines(tuple(FAILED))
+    assert op_failed(iter(FAILED)) and not op_failed(iter(RECOVERED))

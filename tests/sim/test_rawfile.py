@@ -66,7 +66,7 @@ def test_raw_reader_agrees_with_ngspice_print(tmp_path):
     assert set(tables) == {"v(out)", "i(v1)"}
     for suffix in ("bin", "ascii"):
         (op,) = read_raw(tmp_path / f"op_{suffix}.raw")
-        assert op.plotname == "Operating Point" and not op.is_complex
+        assert op.plotname == "Operating Point" and not op.is_complex and op.title == "raw round trip"  # the deck's title line
         assert set(op.names) == {"v(in)", "v(out)", "v(x)", "i(v1)", "i(l1)"}
         for name in ("v(in)", "v(out)", "v(x)"):
             # ngspice's own op, printed with numdgt=15 ('print all' prints nodes without v())

@@ -41,3 +41,19 @@ def test_a_piece_reaches_ngspice_as_its_own_non_blank_lines(piece):
     got = [ffi.string(ffi.cast("char *", address + int(start))).decode("utf-8") for start in starts]
     assert got == _lines([piece])
     assert int(ffi.cast("uintptr_t", buffer)) == address
+
+
+def test_the_loader_keeps_at_most_its_share_of_large_pieces():
+    """Large pieces kept for the next load (a library written out) are at most _BLOCKS_KEEP, however many are loaded."""
+    from PySpice.Spice.NgSpice.Shared import ffi  # noqa: PLC0415
+
+    from netloop.sim import session  # noqa: PLC0415
+
+    saved = dict(session._BLOCKS)
+    try:
+        for i in range(3 * session._BLOCKS_KEEP):
+            _lines_block(ffi, f"* library {i}\n" + "m " * _BLOCK_MIN_CHARS, keep=True)
+            assert 1 <= len(session._BLOCKS) <= session._BLOCKS_KEEP
+    finally:
+        session._BLOCKS.clear()
+        session._BLOCKS.update(saved)

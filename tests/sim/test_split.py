@@ -6,7 +6,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from sim_decks import NO_SOLUTION
+from sim_decks import NO_SOLUTION, RECOVERS
 
 from netloop.errors import SimulationError
 from netloop.sim import AcRun, AcSweep, AnalyticSimulator, SharedLibrarySimulator, SimJob, SplitRunsSimulator, processes_for
@@ -153,3 +153,43 @@ def test_what_ngspice_ignored_in_either_share_is_said_once_shared(batch_sim):
     both = SplitRunsSimulator([BatchSimulator(), BatchSimulator()]).run(job)
     assert alone.warnings and both.warnings == alone.warnings
     assert both.log.count("cox") == 2 * alone.log.count("cox") > 0  # each process's own output, joined
+
+
+def test_an_abort_reaches_every_share():
+    """abort() stops the running job of every simulator that can be stopped, and passes over one that cannot."""
+    stopped = []
+
+    class Stoppable:
+        def __init__(self, name):
+            self.name = name
+
+        def abort(self):
+            stopped.append(self.name)
+
+    SplitRunsSimulator([Stoppable("first"), object(), Stoppable("third")]).abort()
+    assert stopped == ["first", "third"]
+
+
+@pytest.mark.ngspice
+def test_a_recovery_in_a_share_is_the_shared_result_s_aid(batch_sim):
+    """ngspice recovering its operating point in the shares (a sqrt evaluated out of its domain, then dynamic gmin
+    stepping, sim_decks.RECOVERS) is the convergence aid of the shared result, as of one process's."""
+    from netloop.sim import BatchSimulator
+
+    runs = (AcRun("a", {"v1": 1.0}, SWEEPS), AcRun("b", {"v1": 2.0}, SWEEPS))
+    job = SimJob(RECOVERS, runs=runs, save=("v(f)",), excitable=("v1",))
+    alone = batch_sim.run(job)
+    both = SplitRunsSimulator([BatchSimulator(), BatchSimulator()]).run(job)
+    assert alone.convergence_aid == "ngspice: dynamic gmin stepping" and both.convergence_aid == alone.convergence_aid
+
+
+def test_without_an_affinity_mask_every_cpu_counts(monkeypatch):
+    """Where the platform gives no affinity mask, the CPUs usable are the machine's count (1 when it cannot tell)."""
+    def no_mask(pid):
+        raise AttributeError("no sched_getaffinity here")
+
+    monkeypatch.setattr(split_module.os, "sched_getaffinity", no_mask)
+    monkeypatch.setattr(split_module.os, "cpu_count", lambda: 6)
+    assert split_module.usable_cpus() == 6
+    monkeypatch.setattr(split_module.os, "cpu_count", lambda: None)
+    assert split_module.usable_cpus() == 1

@@ -244,3 +244,36 @@ def test_the_session_reports_ngspice_s_own_version():
     printed = subprocess.run([find_ngspice_binary(), "-v"], capture_output=True, text=True, timeout=30, check=False).stdout
     with SharedLibrarySimulator() as simulator:
         assert simulator.start() == re.search(r"ngspice-(\d+)", printed)[1]
+
+
+def test_a_batch_ngspice_that_cannot_run_is_unavailable(tmp_path):
+    """An ngspice program that cannot be run (here a file without execute permission) makes the job's simulator
+    unavailable, naming the program and the system's reason."""
+    from netloop.errors import SimulatorUnavailableError as Unavailable  # noqa: PLC0415
+    from netloop.sim import BatchSimulator  # noqa: PLC0415
+
+    stuck = tmp_path / "ngspice"
+    stuck.write_text("#!/bin/sh\n")
+    stuck.chmod(0o644)
+    with pytest.raises(Unavailable, match=rf"^cannot run {stuck}: .*Permission denied"):
+        BatchSimulator(binary=str(stuck)).run(RC_JOB)
+
+
+def test_pyspice_s_own_logging_is_silenced():
+    """PySpice logs nothing anywhere from a session: its logger is above every level and passes nothing up."""
+    import logging  # noqa: PLC0415
+
+    from netloop.sim.session import _silence_pyspice  # noqa: PLC0415
+
+    _silence_pyspice()
+    logger = logging.getLogger("PySpice")
+    assert logger.level > logging.CRITICAL and not logger.propagate
+    assert not logging.getLogger("PySpice.Spice.NgSpice.Shared").isEnabledFor(logging.CRITICAL)
+
+
+def test_the_package_lists_what_it_offers():
+    """dir(netloop.sim) lists its exports, those loaded on first use included (as a REPL's completion reads them)."""
+    import netloop.sim as sim  # noqa: PLC0415
+
+    names = dir(sim)
+    assert names == sorted(names) and {"SharedLibrarySimulator", "BatchSimulator", "SimJob", "default_simulator"} <= set(names)
