@@ -133,5 +133,5 @@ def _read_ascii(blob: bytes, pos: int, npoints: int, nvars: int, is_complex: boo
                 else:
                     table[point, var] = float(text)
             except ValueError as exc:
-                raise SimulationError(f"{path}: bad ascii raw value {line!r} at point {point}") from exc
+                raise SimulationError(f"{path}: bad ascii raw value {line.decode(errors='replace').strip()!r} at point {point}") from exc
     return table, pos

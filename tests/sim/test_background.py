@@ -39,6 +39,7 @@ def test_a_job_waits_for_the_start_and_close_closes_it():
     gate.set()
     assert sim.run(JOB) == "result"
     sim.close()
+    sim.close()  # a second close closes nothing again
     assert log == ["started", "ran", "closed"]
 
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import subprocess
 from pathlib import Path
 
 import pytest
@@ -113,3 +114,25 @@ def test_netlist_that_needs_one_of_our_aids_reports_it(simulator):
     assert result.convergence_aid == "gminsteps=100"
     assert result.operating_point == {"n": pytest.approx(0.1, rel=1e-9)}
     assert "spice3 gmin stepping completed" in result.log  # ngspice's own note for the ladder the aid selects
+
+
+@pytest.mark.ngspice
+def test_a_circuit_kept_loaded_keeps_the_aid_it_needed(shared_sim, tmp_path):
+    """A second job of one measurement on the circuit loaded with an aid (CUBIC needing gminsteps=100, above) runs on it
+    without a load, reports the same aid, and keeps a deck that holds the aid: run by hand, that deck converges too."""
+    netlist = CUBIC + ".option gminsteps=0 srcsteps=100\niin 0 n dc 0 ac 1\n"  # an AC current in: no DC path added
+    sweep = (AcSweep("dec", 2, 1.0, 10.0),)
+    job = SimJob(netlist=netlist, runs=(AcRun("r", {"iin": 1.0}, sweep),), save=("v(n)",), excitable=("iin",),
+                 circuit_id="cubic-kept", op_voltages=True)
+    shared_sim.keep_dir, saved = tmp_path, shared_sim.keep_dir
+    try:
+        first = shared_sim.run(job)
+        second = shared_sim.run(SimJob(netlist=netlist, runs=(AcRun("r", {"iin": 1.0}, (AcSweep("lin", 3, 2.0, 4.0),)),),
+                                       save=("v(n)",), excitable=("iin",), circuit_id="cubic-kept", op_voltages=True))
+    finally:
+        shared_sim.keep_dir = saved
+    assert first.convergence_aid == second.convergence_aid == "gminsteps=100" and not second.loaded
+    kept = Path(second.deck_path)
+    assert ".option gminsteps=100" in kept.read_text()
+    by_hand = subprocess.run(["ngspice", "-b", str(kept)], capture_output=True, text=True, timeout=60, check=False)
+    assert "simulation(s) aborted" not in by_hand.stdout + by_hand.stderr

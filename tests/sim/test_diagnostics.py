@@ -172,3 +172,16 @@ def test_a_long_output_travels_as_its_last_sixty_lines(simulator):
     written = [line.rstrip() for line in Path(error.log_path).read_text().splitlines() if line.strip()]
     assert len(written) > 60 and error.simulator_output.splitlines() == written[-60:]
     assert Path(error.deck_path).parent.name.startswith("netloop-deck-")
+
+
+@pytest.mark.ngspice
+def test_an_inductor_loop_is_named_from_ngspice_s_own_words(tmp_path):
+    """Two inductors in parallel (ngspice 39 -b: 'singular matrix:  check node l2#branch', then it recovers) read as the
+    current of inductor l2 not determined; a model ngspice cannot find on its last line is named without a user."""
+    deck = tmp_path / "deck.cir"
+    deck.write_text("inductor loop\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nl1 b 0 1u\nl2 b 0 2u\n.control\nac dec 2 1 1k\n.endc\n.end\n")
+    done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
+    found = diagnose((done.stdout + done.stderr).splitlines())
+    assert found and found[0].text.startswith("singular matrix: the current of inductor l2 is not determined") and found[0].structural
+    (last,) = diagnose(["Error: can't find model 'nosuch'"])
+    assert last.text == "model 'nosuch' is not defined: include its library or define the .model"

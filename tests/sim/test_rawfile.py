@@ -8,6 +8,7 @@ import subprocess
 import numpy as np
 import pytest
 
+from netloop.errors import SimulationError
 from netloop.sim import find_ngspice_binary, read_raw
 
 DECK = """raw round trip
@@ -88,3 +89,17 @@ def test_raw_reader_agrees_with_ngspice_print(tmp_path):
     assert first.names == ("frequency", "v(out)", "i(v1)") and second.names == ("frequency", "v(x)")
     np.testing.assert_array_equal(first.data["v(out)"], binary.data["v(out)"])
     np.testing.assert_allclose(second.data["v(x)"], appended[1].data["v(x)"], rtol=1e-14)
+
+
+@pytest.mark.ngspice
+def test_a_damaged_ascii_raw_file_is_refused_by_name(tmp_path):
+    """A value that is no number in an ascii raw file is refused with the file, the line and the point it stands at."""
+    _ngspice_print(tmp_path)
+    good = (tmp_path / "op_ascii.raw").read_text()
+    lines = good.splitlines()
+    at = lines.index("Values:") + 1
+    lines[at] = lines[at].split()[0] + "\tnot-a-number"
+    bad = tmp_path / "bad.raw"
+    bad.write_text("\n".join(lines) + "\n")
+    with pytest.raises(SimulationError, match=rf"^{bad}: bad ascii raw value '0\\tnot-a-number' at point 0$"):
+        read_raw(bad)

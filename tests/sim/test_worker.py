@@ -277,3 +277,16 @@ def test_the_package_lists_what_it_offers():
 
     names = dir(sim)
     assert names == sorted(names) and {"SharedLibrarySimulator", "BatchSimulator", "SimJob", "default_simulator"} <= set(names)
+
+
+@pytest.mark.ngspice
+def test_a_library_path_with_braces_loads(tmp_path):
+    """libngspice found in a folder whose name holds braces (PySpice formats the path it is given) loads as any other."""
+    from netloop.sim import find_libngspice  # noqa: PLC0415
+
+    folder = tmp_path / "ngspice {build} }{"
+    folder.mkdir()
+    (folder / "libngspice.so").symlink_to(os.path.realpath(find_libngspice()))
+    with SharedLibrarySimulator(library_path=str(folder / "libngspice.so")) as simulator:
+        assert simulator.start()
+        _check_rc(simulator.run(RC_JOB))
