@@ -7,7 +7,7 @@ import pytest
 from sim_decks import NO_SOLUTION
 
 from netloop.sim import AcRun, AcSweep, SimJob, find_libngspice
-from netloop.sim.session_job import JobRunner
+from netloop.sim.session_job import JobFailure, JobRunner
 
 RC = "rc\nv1 in 0 dc 1 ac 0\nr1 in out 1k\nc1 out 0 1n\n"
 RC2 = "rc2\nv1 in 0 dc 1 ac 0\nr1 in out 2k\nc1 out 0 1n\n"
@@ -95,8 +95,6 @@ def test_without_op_voltages_the_first_ac_is_the_only_operating_point(recording)
 @pytest.mark.ngspice
 def test_without_op_voltages_a_failed_operating_point_tries_every_aid(recording):
     """When the first ac's own operating point fails, every convergence aid is tried and the failure says 'op'."""
-    from netloop.sim.session_job import JobFailure  # noqa: PLC0415
-
     job = SimJob(NO_SOLUTION, runs=(AcRun("a", {"v1": 1.0}, (AcSweep("dec", 1, 1, 10),)),), save=("v(n)",),
                  excitable=("v1",), op_aids=("itl1=500",), op_voltages=False)
     runner = JobRunner(recording)
@@ -165,4 +163,33 @@ def test_a_circuit_is_kept_beside_the_next_up_to_its_size_limit(recording, extra
     name, freq, (v_out,) = runner.run(_job(RC2, sweep, circuit_id="small")).runs[0]
     np.testing.assert_allclose(v_out, _expected(freq, 2e3), rtol=1e-9)
     assert runner._count() == (2 if extra == 0 else 1)  # noqa: SLF001 - ngspice's own list of the circuits it holds
+    runner.forget()
+
+
+# a relay whose drive vb scales: at vb = 0 it passes no current (v(n) = 0), at vb = 1 it has no operating point at all
+# (KCL at n as in sim_decks.NO_SOLUTION: v > 0.5 needs v = -2 V, v <= 0.5 needs v = +2 V)
+RELAY = "scaled relay\nvb b 0 dc {vb}\nb1 n 0 i = (v(n) > 0.5 ? 2m : -2m) * v(b)\nr1 n 0 1k\nv1 in 0 dc 0 ac 1\nr2 in n 1k\n"
+
+
+@pytest.mark.ngspice
+def test_a_change_in_place_that_loses_the_operating_point_is_tried_as_a_fresh_load(recording):
+    """A job that differs from the loaded circuit only in a source's DC value is run on it in place; when the first ac
+    then finds no operating point, the job goes as a fresh load would: loaded again, every convergence aid tried, and
+    ngspice's failure of the operating point raised, naming what was tried."""
+    from netloop.sim import Change  # noqa: PLC0415
+
+    runner = JobRunner(recording)
+    sweep = (AcSweep("dec", 1, 1, 10),)
+
+    def job(vb: str) -> SimJob:
+        return SimJob(RELAY.format(vb=vb), runs=(AcRun("a", {"v1": 1.0}, sweep),), save=("v(n)",), excitable=("v1",),
+                      op_voltages=False, op_aids=("itl1=500",), circuit_id=f"relay-{vb}", changes=(Change("source", "vb", vb),))
+
+    first = runner.run(job("0"))
+    np.testing.assert_allclose(first.runs[0][2][0], 0.5, rtol=1e-9)  # v(n) = v1 through the 1k divider: 1/2
+    recording.calls.clear()
+    with pytest.raises(JobFailure) as caught:
+        runner.run(job("1"))
+    assert caught.value.kind == "op" and caught.value.tried == (None, "itl1=500")
+    assert recording.calls.count("load") == 2  # in place first (no load), then fresh: one load for each aid
     runner.forget()

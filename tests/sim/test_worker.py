@@ -290,3 +290,26 @@ def test_a_library_path_with_braces_loads(tmp_path):
     with SharedLibrarySimulator(library_path=str(folder / "libngspice.so")) as simulator:
         assert simulator.start()
         _check_rc(simulator.run(RC_JOB))
+
+
+@pytest.mark.ngspice
+def test_a_worker_that_crashes_is_reported_with_its_last_output(monkeypatch):
+    """A worker that dies of a segmentation fault in the middle of a job (as a crashing ngspice would; here the signal is
+    sent, with Python's fault handler on so that the dying process writes why) fails the job with the worker's last
+    output in the message and in simulator_output, and the next job runs in a new worker."""
+    import threading  # noqa: PLC0415
+
+    monkeypatch.setenv("PYTHONFAULTHANDLER", "1")  # the worker process inherits it (netloop.sim.spawn)
+    with SharedLibrarySimulator() as simulator:
+        simulator.start()
+        pid = simulator._holder["worker"].process.pid
+        timer = threading.Timer(0.5, os.kill, (pid, signal.SIGSEGV))
+        timer.start()
+        try:
+            with pytest.raises(SimulationError, match="worker process died") as died:
+                simulator.run(_slow_job(60.0))
+        finally:
+            timer.cancel()
+        assert "Fatal Python error: Segmentation fault" in died.value.simulator_output
+        assert f"its last output: {died.value.simulator_output}" in str(died.value)
+        _check_rc(simulator.run(RC_JOB))
