@@ -103,3 +103,16 @@ def test_a_damaged_ascii_raw_file_is_refused_by_name(tmp_path):
     bad.write_text("\n".join(lines) + "\n")
     with pytest.raises(SimulationError, match=rf"^{bad}: bad ascii raw value '0\\tnot-a-number' at point 0$"):
         read_raw(bad)
+
+
+@pytest.mark.ngspice
+def test_a_truncated_ascii_raw_file_is_refused(tmp_path):
+    """An ascii raw file cut short in its values (a disk filled, a run killed while writing) is refused, not read past
+    its end."""
+    _ngspice_print(tmp_path)
+    lines = (tmp_path / "ac_ascii.raw").read_text().splitlines()
+    first_point = lines.index("Values:") + 1 + int(next(x for x in lines if x.startswith("No. Variables:")).split(":")[1])
+    cut = tmp_path / "cut.raw"
+    cut.write_text("\n".join(lines[:first_point]) + "\n\n\n")  # the first point whole, then blank lines to the end
+    with pytest.raises(SimulationError, match=rf"^{cut}: bad ascii raw value"):
+        read_raw(cut)

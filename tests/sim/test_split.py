@@ -170,6 +170,7 @@ def test_an_abort_reaches_every_share():
     split.abort()
     assert stopped == ["first", "third"]
     split.close()  # none of them can be closed: closing passes over them
+    assert split.backend == "Stoppable"  # a simulator that names no backend is named by its class
 
 
 @pytest.mark.ngspice

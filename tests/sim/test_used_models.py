@@ -333,3 +333,17 @@ def test_libraries_are_followed_thirty_deep(tmp_path, levels, followed):
     assert (lean is not None) == followed
     if followed:
         assert _names(lean) == {"used"} and f"* .include f{levels}.inc" in lean
+
+
+@pytest.mark.ngspice
+def test_a_card_with_a_double_slash_comment_gives_ngspice_s_own_numbers(tmp_path):
+    """A used card whose continued lines hold a '//' comment is written out as written (ngspice strips such comments
+    before it joins the lines), and gives bit for bit the vectors of ngspice reading the library itself."""
+    _library(tmp_path)
+    cards = tmp_path / "lib" / "cards" / "typ.inc"
+    cards.write_text(CARDS.replace("vth0={0.55+dvt} u0={670*kp_n/180u}\n", "vth0={0.55+dvt} // a threshold note\n+ u0={670*kp_n/180u}\n", 1))
+    deck = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
+    lean = used_only(deck, str(tmp_path))
+    assert lean is not None and "vth0={0.55+dvt} // a threshold note\n+ u0=" in lean
+    got = _compare(deck, lean, "v(out)", "dec 10 1 1e9", tmp_path)
+    assert got["errors"] == [] and got["points"] == 91 and got["same"]

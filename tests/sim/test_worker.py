@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import signal
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -310,6 +311,51 @@ def test_a_worker_that_crashes_is_reported_with_its_last_output(monkeypatch):
                 simulator.run(_slow_job(60.0))
         finally:
             timer.cancel()
-        assert "Fatal Python error: Segmentation fault" in died.value.simulator_output
+        tail = died.value.simulator_output  # the last 20 lines of the fault handler's report: the worker's own stack
+        assert 'File "' in tail and "netloop/sim/" in tail and len(tail.splitlines()) <= 20
         assert f"its last output: {died.value.simulator_output}" in str(died.value)
         _check_rc(simulator.run(RC_JOB))
+
+
+@pytest.mark.ngspice
+def test_many_long_saves_all_come_back(shared_sim):
+    """Sixty nodes of long names saved at once (over 2,000 characters of names, one of 180: ngspice's shared API takes
+    commands of at most 1023) all come back, each with its own value: a ladder of equal resistors divides the 1 V source evenly
+    (circuit theory: node k of n sits at 1 - k/n)."""
+    n = 60
+    names = [f"ladder_node_with_a_rather_long_name_{k}" for k in range(1, n)]
+    names[23] = "n" * 180  # a name longer than the room a full command leaves
+    nodes = ["in", *names, "0"]
+    netlist = "ladder\nv1 in 0 dc 1 ac 1\n" + "".join(f"r{k} {a} {b} 1k\n" for k, (a, b) in enumerate(zip(nodes, nodes[1:]), start=1))
+    job = SimJob(netlist, runs=(AcRun("a", {"v1": 1.0}, (AcSweep("lin", 1, 1e3, 1e3),)),), save=tuple(f"v({m})" for m in names),
+                 excitable=("v1",))
+    assert sum(len(m) + 3 for m in names) > 2 * 1023
+    run = shared_sim.run(job).run("a")
+    for k, name in enumerate(names, start=1):
+        np.testing.assert_allclose(run.vectors[f"v({name})"], [1 - k / n], rtol=1e-12)
+
+
+def test_a_deck_is_kept_under_its_label_or_as_a_job_and_a_folder_it_cannot_use_is_named(tmp_path):
+    """A kept deck's name starts with its label made safe for a file name, or 'job' when it has none; its output sits
+    beside it, ending with one newline; a keep_dir that is a file is refused by name."""
+    from netloop.errors import OutputError  # noqa: PLC0415
+    from netloop.sim.keep import keep_deck, keep_output  # noqa: PLC0415
+
+    assert Path(keep_deck("deck\n", "", tmp_path)).name.startswith("job-")
+    assert Path(keep_deck("deck\n", "ss/125C #3", tmp_path)).name.startswith("ss_125C_3-")
+    deck = keep_deck("deck\n", "x", tmp_path)
+    assert Path(keep_output(deck, "line 1\nline 2\n")).read_text() == "line 1\nline 2\n"
+    assert Path(keep_output(deck, "line 1\nline 2")).read_text() == "line 1\nline 2\n"
+    blocked = tmp_path / "a file"
+    blocked.write_text("not a folder\n")
+    with pytest.raises(OutputError, match=rf"^cannot keep the deck in '{blocked}': "):
+        keep_deck("deck\n", "x", blocked)
+
+
+def test_a_worker_that_never_says_ready_is_unavailable_by_name():
+    """A worker that has not said "ready" within the start-up time is stopped, and the error says it did not start and
+    why (its log's last lines, or what the wait ended with when the log is empty)."""
+    from netloop.errors import SimulatorUnavailableError as Unavailable  # noqa: PLC0415
+
+    with pytest.raises(Unavailable, match=r"^the ngspice worker did not start \(FrameTimeout\); "):
+        SharedLibrarySimulator(startup_timeout_s=1e-6).start()
