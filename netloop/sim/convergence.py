@@ -7,7 +7,6 @@ from collections.abc import Sequence
 from netloop.errors import SimulationError
 from netloop.sim.diagnostics import Diagnosis
 from netloop.sim.job import SimJob
-from netloop.sim.output import tail
 
 __all__ = ["DEFAULT_OP_AIDS", "aid_ladder", "describe_aid", "op_failure", "option_words"]
 
@@ -46,11 +45,12 @@ def option_words(job: SimJob, aid: str | None) -> tuple[str, ...]:
     return (*job.options, *(aid.split() if aid else ()))
 
 
-def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck_path: str | None, output: str,
+def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck_path: str | None, simulator_output: str,
                diagnoses: Sequence[Diagnosis] = (), log_path: str | None = None) -> SimulationError:
     """The error raised when no attempt found an operating point: ngspice's own diagnosis first (when it named a
     structural cause, such as a floating node or sources in parallel, the convergence advice is left out: no aid
-    can help), then what was tried, the usual remedies and ngspice's error lines."""
+    can help), then what was tried, the usual remedies and ngspice's error lines; ``simulator_output``: the last lines of
+    ngspice's output, which travel with it."""
     aids = [a for a in tried if a]
     what = "the operating point did not converge"
     if aids:
@@ -62,4 +62,4 @@ def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck
         message = (f"{lead}; " if lead else "") + f"{what}; {HELP}"
     if ngspice_says:
         message += "; ngspice said: " + ngspice_says.replace("\n", " | ")
-    return SimulationError(message, deck_path=deck_path, simulator_output=tail(output.splitlines(), 60), corner=job.label or None, log_path=log_path)
+    return SimulationError(message, deck_path=deck_path, simulator_output=simulator_output, corner=job.label or None, log_path=log_path)

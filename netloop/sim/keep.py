@@ -56,11 +56,13 @@ def job_error(job: SimJob, kind: str, message: str, output: str, deck: str, keep
     """The SimulationError of a job ngspice could not do (``kind`` "op", "netlist", "analysis"...): the deck kept (in
     ``keep_dir`` or a temporary folder) with ngspice's whole output beside it, the message led by what ngspice itself
     named as the cause (netloop.sim.diagnostics)."""
-    diagnoses = diagnose(output.splitlines(), deck)
+    lines = output.splitlines()
+    diagnoses = diagnose(lines, deck)
+    last = tail(lines, 60)  # what travels with the error; the whole output is kept beside the deck
     path = keep_deck(deck, job.label, keep_dir)
     log_path = keep_output(path, output) if output else None
     if kind == "op":
-        return op_failure(job, tried, message, path, output, diagnoses, log_path)
+        return op_failure(job, tried, message, path, last, diagnoses, log_path)
     lead = "; ".join(d.text for d in diagnoses if d.text not in message)
-    return SimulationError(f"{lead}; {message}" if lead else message, deck_path=path, simulator_output=tail(output.splitlines(), 60),
-                           corner=job.label or None, log_path=log_path)
+    return SimulationError(f"{lead}; {message}" if lead else message, deck_path=path, simulator_output=last, corner=job.label or None,
+                           log_path=log_path)

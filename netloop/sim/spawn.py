@@ -15,12 +15,13 @@ import subprocess
 import sys
 import tempfile
 import threading
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
 from netloop.sim.library import find_libngspice
 
-__all__ = ["Spawned", "discard", "spawn", "start_ahead", "take"]
+__all__ = ["Spawned", "discard", "spawn", "start_ahead", "take", "this_netloop"]
 
 WARM_ENV = "NETLOOP_WORKER_WARM"  # the netlist whose libraries a worker started ahead reads while it waits
 _PACKAGE_ROOT = str(Path(__file__).resolve().parent.parent.parent)
@@ -51,13 +52,18 @@ def _key(library_path: str) -> tuple:
     return (library_path, os.getcwd(), os.environ.get("PYTHONPATH", ""), sys.executable)
 
 
+def this_netloop(env: Mapping[str, str]) -> dict[str, str]:
+    """``env`` with the folder this netloop is imported from first on PYTHONPATH: a Python process started with it imports
+    this very netloop, whatever folder it starts in."""
+    return {**env, "PYTHONPATH": os.pathsep.join(p for p in (_PACKAGE_ROOT, env.get("PYTHONPATH", "")) if p)}
+
+
 def spawn(library_path: str, warm: str | None = None) -> Spawned:
     """Start a worker process for ``library_path`` (``python -m netloop.sim.worker``); it says "ready" when it is.
     ``warm``: a netlist whose model libraries it reads then, while its caller works (netloop.sim.used_models.warm)."""
     scratch = tempfile.TemporaryDirectory(prefix="netloop-worker-")
     log_path = Path(scratch.name) / "worker.log"
-    env = dict(os.environ)
-    env["PYTHONPATH"] = os.pathsep.join(p for p in (_PACKAGE_ROOT, env.get("PYTHONPATH", "")) if p)
+    env = this_netloop(os.environ)
     env["PYTHONWARNINGS"] = "ignore"
     env.pop(WARM_ENV, None)
     if warm:

@@ -31,6 +31,6 @@ def same_netloop() -> dict[str, str]:
     it starts in (as netloop.sim.spawn starts its worker), not one found from that folder or installed elsewhere."""
     import os  # noqa: PLC0415
 
-    from netloop.sim.spawn import _PACKAGE_ROOT  # noqa: PLC0415
+    from netloop.sim.spawn import this_netloop  # noqa: PLC0415
 
-    return {**os.environ, "PYTHONPATH": os.pathsep.join(p for p in (_PACKAGE_ROOT, os.environ.get("PYTHONPATH", "")) if p)}
+    return this_netloop(os.environ)

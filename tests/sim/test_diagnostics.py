@@ -68,15 +68,20 @@ def test_ngspice_diagnosis_leads_the_message(simulator, netlist, lead, ngspice_s
     assert str(log) in str(error)
 
 
+def _by_hand(tmp_path: Path, netlist: str) -> tuple:
+    """diagnose() of ngspice -b's own output for ``netlist`` with an ac of its own (run by hand, no netloop in between)."""
+    deck = tmp_path / "deck.cir"
+    deck.write_text(netlist + ".control\nac dec 2 1 1k\n.endc\n.end\n")
+    done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
+    return diagnose((done.stdout + done.stderr).splitlines(), deck.read_text())
+
+
 @pytest.mark.ngspice
 def test_the_texts_match_ngspice_run_on_its_own(tmp_path):
     """diagnose() reads ngspice -b's own output of the same decks (run here by hand, no netloop in between) the same way."""
     for case in CASES:
         netlist, lead, _ = case.values
-        deck = tmp_path / "deck.cir"
-        deck.write_text(netlist + ".control\nac dec 2 1 1k\n.endc\n.end\n")
-        done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
-        found = diagnose((done.stdout + done.stderr).splitlines(), deck.read_text())
+        found = _by_hand(tmp_path, netlist)
         assert found and found[0].text.startswith(lead) and found[0].structural
 
 
@@ -150,10 +155,7 @@ def test_a_domain_error_names_the_element_ngspice_names(tmp_path):
     """ngspice -b's own output for sim_decks.RECOVERS ('Error: -0.0104898 out of range for sqrt', then 'in line b1', ngspice
     39) reads as a behavioural expression in b1 evaluated outside its domain, said once however often ngspice repeats it
     while it iterates, and not structural (ngspice recovers); without the 'in line' that follows it, no element is named."""
-    deck = tmp_path / "deck.cir"
-    deck.write_text(RECOVERS + ".control\nac dec 2 1 1k\n.endc\n.end\n")
-    done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
-    found = [d for d in diagnose((done.stdout + done.stderr).splitlines()) if "domain" in d.text]
+    found = [d for d in _by_hand(tmp_path, RECOVERS) if "domain" in d.text]
     assert [(d.text, d.structural) for d in found] == [
         ("a behavioural expression in b1 was evaluated outside its domain (sqrt of -0.0104898)", False)]
     (alone,) = diagnose(["Error: -2 out of range for log"])
@@ -178,10 +180,7 @@ def test_a_long_output_travels_as_its_last_sixty_lines(simulator):
 def test_an_inductor_loop_is_named_from_ngspice_s_own_words(tmp_path):
     """Two inductors in parallel (ngspice 39 -b: 'singular matrix:  check node l2#branch', then it recovers) read as the
     current of inductor l2 not determined; a model ngspice cannot find on its last line is named without a user."""
-    deck = tmp_path / "deck.cir"
-    deck.write_text("inductor loop\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nl1 b 0 1u\nl2 b 0 2u\n.control\nac dec 2 1 1k\n.endc\n.end\n")
-    done = subprocess.run(["ngspice", "-b", str(deck)], capture_output=True, text=True, timeout=60, check=False)
-    found = diagnose((done.stdout + done.stderr).splitlines())
+    found = _by_hand(tmp_path, "inductor loop\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nl1 b 0 1u\nl2 b 0 2u\n")
     assert found and found[0].text.startswith("singular matrix: the current of inductor l2 is not determined") and found[0].structural
     (last,) = diagnose(["Error: can't find model 'nosuch'"])
     assert last.text == "model 'nosuch' is not defined: include its library or define the .model"
