@@ -34,8 +34,9 @@ def test_nothing_installed_says_how_to_install(monkeypatch):
     """With neither libngspice nor the ngspice program, the error tells how to install ngspice."""
     monkeypatch.setattr(sim, "find_libngspice", lambda: None)
     monkeypatch.setattr(sim, "find_ngspice_binary", lambda: None)
-    with pytest.raises(SimulatorUnavailableError, match="apt-get install ngspice"):
+    with pytest.raises(SimulatorUnavailableError, match="apt-get install ngspice") as caught:
         sim.default_simulator()
+    assert str(caught.value).startswith("libngspice not found; no ngspice binary on PATH; ")  # what was looked for, both
 
 
 @pytest.mark.ngspice

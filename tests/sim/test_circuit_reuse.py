@@ -57,11 +57,12 @@ def test_second_round_skips_load_and_op_and_is_exact(recording):
     runner = JobRunner(recording)
     recording.calls.clear()
     first = runner.run(_job(RC, (AcSweep("dec", 5, 1e3, 1e6),)))
-    assert recording.calls.count("load") == 1 and recording.calls.count("op") == 1
+    assert recording.calls.count("load") == 1 and recording.calls.count("op") == 1 and "save" in recording.calls
     assert first.operating_point["out"] == pytest.approx(1.0, rel=1e-9)  # no DC current through c1: v(out) = v(in)
     recording.calls.clear()
     second = runner.run(_job(RC, (AcSweep("lin", 7, 1e5, 2e5),)))
     assert "load" not in recording.calls and "op" not in recording.calls
+    assert "save" not in recording.calls  # the first job's saves stay set on the circuit
     assert second.operating_point == first.operating_point
     name, freq, (v_out,) = second.runs[0]  # the job's saves, one row each
     np.testing.assert_allclose(freq, np.linspace(1e5, 2e5, 7), rtol=1e-12)  # ngspice's lin sweep: 7 evenly spaced points

@@ -71,6 +71,7 @@ def test_vector_spellings():
     assert canonical("V1#branch") == canonical("i(v1)") == "i(v1)"
     assert canonical("xamp.n5") == "v(xamp.n5)"
     assert unknown_saves(["v(out)", "i(v1)", "@m1[gm]"], ["out", "v1#branch"]) is None
+    assert unknown_saves(["v(out,in)"], ["out", "in"]) is None  # a two-node form names no single vector of the op: not judged here
     message = unknown_saves(["v(outt)"], ["out", "in"])
     assert "'v(outt)'" in message and "v(out)" in message
     assert unknown_saves(["v(zzz)"], ["out", "in"]) == "the circuit has no vector 'v(zzz)'"  # no name close to it

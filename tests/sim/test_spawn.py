@@ -45,6 +45,22 @@ def test_a_process_started_elsewhere_is_not_taken(tmp_path, monkeypatch):
     spawn_module.discard()
 
 
+def test_a_process_started_with_another_import_path_is_not_taken(monkeypatch):
+    """A process started ahead imports netloop as the caller's PYTHONPATH then said; once it says otherwise (another
+    netloop, or other model code, to be imported), that process is not taken: the next simulator starts its own."""
+    monkeypatch.setenv("PYTHONPATH", "/first/place")
+    spawn_module.start_ahead()
+    monkeypatch.setenv("PYTHONPATH", "/second/place")
+    try:
+        assert spawn_module.take(find_libngspice()) is None
+        monkeypatch.setenv("PYTHONPATH", "/first/place")
+        taken = spawn_module.take(find_libngspice())  # the same environment again: taken
+        assert taken is not None
+        taken.stop()
+    finally:
+        spawn_module.discard()
+
+
 def test_a_process_started_ahead_for_a_netlist_is_told_which(tmp_path, monkeypatch):
     """start_ahead(netlist) gives the worker the netlist's absolute path (its environment, as Linux shows it in
     /proc/PID/environ), where it reads the model libraries while the caller reads the netlist; without one the worker

@@ -126,6 +126,19 @@ def test_a_failing_share_raises_ngspice_s_error_and_keeps_the_whole_deck(tmp_pat
     assert kept.read_text().lower().count("\nac ") == 2 * len(SWEEPS)  # both runs, every sweep
 
 
+
+@pytest.mark.ngspice
+def test_without_a_keep_folder_a_failing_share_names_its_own_deck():
+    """With no keep_dir, a share's failure is raised as the share raised it: its deck (kept in a temporary folder, as every
+    failed deck is) holds that share's own run, which fails alone the same way."""
+    runs = (AcRun("a", {"v1": 1.0}, SWEEPS), AcRun("b", {"v1": 2.0}, SWEEPS))
+    job = SimJob(NO_SOLUTION, runs=runs, save=("v(n)",), excitable=("v1",), op_aids=("itl1=200",), timeout_s=60)
+    with SplitRunsSimulator([SharedLibrarySimulator(), SharedLibrarySimulator()]) as split:
+        with pytest.raises(SimulationError, match="operating point did not converge") as caught:
+            split.run(job)
+    assert Path(caught.value.deck_path).read_text().lower().count("\nac ") == len(SWEEPS)  # one run, every sweep
+
+
 @pytest.mark.ngspice
 def test_batch_mode_shares_runs_the_same_way(batch_sim):
     """Two ngspice -b processes side by side give the vectors one gives (batch mode: the fallback without libngspice)."""

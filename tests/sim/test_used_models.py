@@ -347,3 +347,50 @@ def test_a_card_with_a_double_slash_comment_gives_ngspice_s_own_numbers(tmp_path
     assert lean is not None and "vth0={0.55+dvt} // a threshold note\n+ u0=" in lean
     got = _compare(deck, lean, "v(out)", "dec 10 1 1e9", tmp_path)
     assert got["errors"] == [] and got["points"] == 91 and got["same"]
+
+
+# Headers as netlisters write them when names are long: the name alone on the .model or .subckt line, the type, the pins
+# and the parameters on continuation lines. The cards are invented (for tests only).
+CONTINUED = """* INVENTED cards, headers continued
+.model nsw
++ nmos (level=1 vto=0.5 kp=120u lambda=0.04)
+.model nspare
++ nmos (level=1 vto=0.7 kp=60u)
+.subckt
++ rload a b
+r1 a b 20k
+.ends rload
+.subckt
++ rspare a b
+r1 a b 5k
+.ends rspare
+"""
+
+
+@pytest.mark.ngspice
+def test_headers_continued_on_plus_lines_are_followed_and_give_ngspice_s_own_numbers(tmp_path):
+    """A card whose name stands alone on its .model line (its type on the next, '+' line) and cells whose pins are on
+    the line after '.subckt' are read as ngspice joins them: the used card and cell stay, the unused go, and the circuit
+    gives bit for bit the vectors of ngspice reading the library itself (the reference)."""
+    (tmp_path / "continued.inc").write_text(CONTINUED)
+    deck = ("headers continued (invented)\n.include continued.inc\nvdd vdd 0 dc 3.3\nvin in 0 dc 1.2 ac 1\n"
+            "m1 out in 0 0 nsw w=10u l=1u\nxl vdd out rload\ncl out 0 1p\n.end\n")
+    lean = used_only(deck, str(tmp_path))
+    assert lean is not None
+    words = " ".join(lean.split())
+    assert ".model nsw nmos (level=1" in words and ".subckt rload a b r1 a b 20k .ends rload" in words  # joined as ngspice joins them
+    assert "nspare" not in lean and "rspare" not in lean
+    got = _compare(deck, lean, "v(out)", "dec 10 1 1e9", tmp_path)
+    assert got["errors"] == [] and got["points"] == 91 and got["same"]
+
+
+def test_a_library_read_once_is_written_out_from_what_the_process_kept(tmp_path):
+    """Two decks of one library line (two seeds) get the very same written-out library text (the same string object,
+    which the loader keeps its lines for: netloop.sim.session) while no library file changes: the library is not read
+    again for each sample of a statistical plan."""
+    _library(tmp_path)
+    base = CIRCUIT.format(lib="lib/invented.lib") + ".end\n"
+    first = used_pieces(base.replace("\n", "\n.option seed=1\n", 1), str(tmp_path))
+    second = used_pieces(base.replace("\n", "\n.option seed=2\n", 1), str(tmp_path))
+    library = max(range(len(first)), key=lambda i: len(first[i]))  # the library's text, the longest piece
+    assert first[library] == second[library] and first[library] is second[library]

@@ -75,15 +75,18 @@ def test_batch_timeout(batch_sim):
     """Batch mode stops ngspice at the job's timeout and says so."""
     with pytest.raises(SimulationError, match=r"timeout of 0.5 s"):
         batch_sim.run(_slow_job(0.5))
-    _check_rc(batch_sim.run(RC_JOB))
+    result = batch_sim.run(RC_JOB)
+    _check_rc(result)
+    assert result.backend == "ngspice-batch"  # what the results say ran the job
 
 
 def test_unloadable_library_is_unavailable(tmp_path):
     """A file that is not libngspice gives SimulatorUnavailableError with install instructions."""
     bogus = tmp_path / "libngspice.so"
     bogus.write_bytes(b"not a shared library")
-    with pytest.raises(SimulatorUnavailableError, match="apt-get install"):
+    with pytest.raises(SimulatorUnavailableError, match="apt-get install") as caught:
         SharedLibrarySimulator(library_path=str(bogus)).start()
+    assert f"libngspice at {bogus} cannot be loaded: OSError: " in str(caught.value)  # the system's refusal, by its kind
 
 
 @pytest.mark.ngspice
