@@ -33,7 +33,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -259,8 +259,3 @@ def op_check(sources: tuple[tuple[str, str, str], ...], voltages: Mapping[str, f
         if p is not None and m is not None and math.isfinite(p - m):
             across[name] = p - m
     return operating_point_check(voltages, across)
-
-
-def with_job_checks(result, checks: tuple[Check, ...]):
-    """``result`` (a LoopResult) with ``checks`` added to its job checks."""
-    return replace(result, checks=(*result.checks, *checks))

@@ -410,6 +410,8 @@ def test_a_driver_naming_only_inputs_at_a_pair_is_refused_with_the_outputs_there
     message = str(err.value)
     assert message.startswith("driver='gfp' names only inputs on node outp (gates, bases or control inputs), and the T it gives fails its checks (")
     assert message.endswith("); the outputs on the node are: gdp.p, gcp.p; name one of them as the driver")
+    why = message.split("fails its checks (", 1)[1]
+    assert why.startswith("differential mode: ") and "; common mode: " in why  # what each mode's T failed, both named
 
 
 def test_a_pair_whose_differential_loop_is_unstable_when_opened_is_checked_by_ngspice_pole_zero(simulator):
@@ -476,6 +478,8 @@ def test_a_pair_whose_rules_split_measures_no_loop_moves_the_bridges_and_says_so
         assert [(c.name, c.passed, c.detail) for c in mode.checks] == [("split", True, moved)]
         assert mode.breaks.decided_by.endswith(f"; netloop {moved}.") and mode.breaks.decided_by.count("netloop moved") == 1
         assert "ccp.p" in mode.breaks.driver_terminals and "ccn.p" in mode.breaks.driver_terminals
+        assert (mode.breaks.side_a, mode.breaks.side_b) == ("xp_drive,xn_drive", "xp,xn")  # each half's driver side, then load side
+        assert mode.sim.refinement_rounds >= 1  # the placement kept is measured as a first split is: its crossover refined
         t = miller_loop(mode.analysis.freq_hz, 1e-3)
         keep = np.abs(t) > 0.1  # where the 1 GOhm path (-80 dB) is below 1e-3 of the Miller loop
         assert keep.sum() > 20
@@ -568,3 +572,46 @@ def test_a_pair_is_stable_only_when_both_modes_are_and_couples_only_beyond_the_t
     assert [Coupling(x, y, 1e6, 1e5).coupled for x, y in ((limit, -90.0), (-90.0, limit), (limit + 0.5, -90.0), (-90.0, limit + 0.5))] == [
         False, False, True, True]
     assert not Coupling(limit + 10, limit + 10, 1e6, 1e5, unjudged="the common mode measured no loop").coupled
+
+
+def test_a_doubted_pair_whose_other_placements_cannot_be_built_says_so():
+    """When the probe refuses every other placement of a doubted pair's bridges, the pair keeps the rules' placement and
+    the check "split" says that no other placement could be built (failing when a self-check failed)."""
+    from types import SimpleNamespace
+
+    from netloop.analysis.results import Check
+    from netloop.errors import ProbeError
+    from netloop.jobs.measure_pair import _settled
+    from netloop.probe.sides import Bridge
+
+    def refuse(place, coarse):
+        raise ProbeError("the node would be left without a load")
+
+    failing = SimpleNamespace(checks=(Check("falls-at-top", False, "|T| rises at the top", "widen the sweep"),))
+    first = SimpleNamespace(doubts="|T| rises at the top", analyses={"differential": failing, "common": failing},
+                            probe=SimpleNamespace(nodes=("xp", "xn"), p=SimpleNamespace(bridges=(Bridge("rfp", "load", "the only load", False),)),
+                                                  n=SimpleNamespace(bridges=(Bridge("rfn", "load", "the only load", False),))))
+    kept, (check,) = _settled(first, refuse)
+    assert kept is first and not check.passed
+    assert check.detail == ("no placement of the bridging elements passes the self-checks: as placed, |T| rises at the top; "
+                            "tried no other placement could be built")
+
+
+@pytest.mark.parametrize(("doubts", "regulates", "taken"), [("", (True, True), True), ("T rises at the top", (True, True), False),
+                                                            ("", (True, False), False)])
+def test_the_pair_under_its_deeper_names_is_taken_only_when_no_doubt_remains_and_no_mode_stops_regulating(doubts, regulates, taken):
+    """A pair doubted as named is measured again under the names its nets have inside the block that drives them, and that
+    measurement is taken only when it raises no doubt and regulates in as many modes as the first."""
+    from types import SimpleNamespace
+
+    from netloop.jobs.measure_pair import _deeper
+
+    def sampled(doubt: str, modes: tuple[bool, bool]):
+        return SimpleNamespace(doubts=doubt, analyses={m: SimpleNamespace(regulates=r, largest_gain_db=-3.0) for m, r in zip(("differential", "common"), modes)},
+                               probe=SimpleNamespace(nodes=("op", "on")))
+
+    first = sampled("the common mode measured no loop", (True, True))
+    structure = SimpleNamespace(of=lambda node: SimpleNamespace(alias=lambda n: f"xamp.{n}"))
+    trial = sampled(doubts, regulates)
+    got, checks = _deeper(first, structure, lambda place, coarse, nodes: trial)
+    assert (got is trial) == taken and len(checks) == int(taken)

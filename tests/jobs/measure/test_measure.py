@@ -149,3 +149,13 @@ def test_loads_count_every_netlist_ngspice_read_for_the_measurement():
     split = next(c for c in result.checks if c.name == "split")
     assert "tried xm2 to the load side" in split.detail  # the other placement was measured
     assert result.sim.loads == counting.loads == 1
+
+
+def test_an_unknown_method_is_refused_by_name():
+    """A method other than Tian's or Middlebrook's is refused with the name given and the two known."""
+    from netloop.errors import NetloopError  # noqa: PLC0415
+
+    netlist = "one-pole loop (invented)\nvref ref 0 dc 0.5\ne0 n0 0 ref out 1000\nr1 n0 out 1k\nc1 out 0 1n\n.end\n"
+    with pytest.raises(NetloopError) as refused:
+        measure(netlist, "out", method="nyquist")
+    assert str(refused.value) == "unknown method 'nyquist'; expected one of tian, middlebrook"

@@ -189,3 +189,63 @@ def test_a_trials_failed_checks_include_the_opens_loop_check_when_it_was_asked()
     assert Trial({}, None, analysis, opens=closed).failed == (data, closed)
     assert Trial({}, None, analysis).failed == (data,)
     assert Trial({}, None, SimpleNamespace(checks=(fine,)), opens=Check("opens-loop", True, "opens it", "")).failed == ()
+
+
+@pytest.mark.parametrize(("top_hz", "at_top"), [(1e9, False), (5e6, True)])
+def test_the_second_break_compares_poles_up_to_ten_times_the_crossover_or_the_top(top_hz, at_top):
+    """The band where two breaks' poles are compared ends a decade above the highest gain crossover, or at the top of the
+    sweep when that comes first (the data says nothing beyond it); a loop that never crosses 0 dB is compared up to the top."""
+    from netloop.jobs.measure_checks import second_break_band  # noqa: PLC0415
+
+    f = np.logspace(0, math.log10(top_hz), 401)
+    a = analyse(f, _two_pole(f))
+    (crossover,) = a.gain_crossovers  # about 786 kHz, the two-pole loop's (circuit theory): a decade above it is 7.9 MHz
+    assert second_break_band(a) == (float(f[-1]) if at_top else 10.0 * crossover.freq_hz)
+    flat = analyse(f, _two_pole(f, 0.5))
+    assert not flat.gain_crossovers and second_break_band(flat) == float(f[-1])
+
+
+def _doubted(detail: str = ""):
+    """An analysis whose checks pass (``detail`` empty) or fail with ``detail``; P not read from the data."""
+    from types import SimpleNamespace  # noqa: PLC0415
+
+    from netloop.analysis.results import Check  # noqa: PLC0415
+
+    checks = (Check("data", not detail, detail or "fine", ""),)
+    return SimpleNamespace(checks=checks, nyquist=SimpleNamespace(open_loop_rhp_poles=0, open_loop_rhp_from="given"))
+
+
+def test_the_split_tries_each_bridge_moved_the_unsure_first_and_passes_over_one_it_cannot_build():
+    """With two bridges the rules placed, cc by a rule and cr by a default, the placements tried are cr moved alone (the
+    unsure one first), then cc alone, then both; one the probe cannot build (None) is passed over for the next, and the
+    first whose self-checks pass is kept, with the check "split" saying what moved and why."""
+    from types import SimpleNamespace  # noqa: PLC0415
+
+    from netloop.jobs.measure_checks import other_placements, settle_split  # noqa: PLC0415
+
+    probed = SimpleNamespace(bridges=(Bridge("cc", "driver", "Miller capacitor of m6", True), Bridge("cr", "load", "a default", False)))
+    assert other_placements(probed) == [{"cr": "driver"}, {"cc": "load"}, {"cc": "load", "cr": "driver"}]
+    first = Trial({}, probed, _doubted("|T| rises at the top of the sweep"))
+    asked = []
+
+    def measure_coarse(placement, at=None):
+        asked.append(placement)
+        return None if len(asked) == 1 else Trial(placement, probed, _doubted())
+
+    kept, check, trials = settle_split(first, measure_coarse)
+    assert asked == [{"cr": "driver"}, {"cc": "load"}] and trials == [kept] and kept.placement == {"cc": "load"}
+    assert check.passed and check.detail == ("cc to the load side: with the rules' split, |T| rises at the top of the sweep; "
+                                             "with this one every self-check passes and T has no right-half-plane pole")
+
+
+def test_a_pair_moves_the_kth_bridge_of_each_half_together_then_all():
+    """At a pair the k-th bridge of each half moves together, whichever side the rules put it on, then every bridge at once."""
+    from types import SimpleNamespace  # noqa: PLC0415
+
+    from netloop.jobs.measure_checks import pair_placements  # noqa: PLC0415
+
+    p = SimpleNamespace(bridges=(Bridge("ccp", "driver", "Miller", True), Bridge("rp", "load", "a default", False)))
+    n = SimpleNamespace(bridges=(Bridge("ccn", "driver", "Miller", True), Bridge("rn", "load", "a default", False),
+                                 Bridge("given", "load", "asked for", True, given=True)))
+    assert pair_placements(p, n) == [({"ccp": "load"}, {"ccn": "load"}), ({"rp": "driver"}, {"rn": "driver"}),
+                                     ({"ccp": "load", "rp": "driver"}, {"ccn": "load", "rn": "driver"})]

@@ -28,11 +28,13 @@ class _TickingSimulator:
 
     def __init__(self, simulator, clock: SimpleNamespace):
         self.simulator, self.clock, self.jobs = simulator, clock, 0
+        self.ngspice_seconds: list[float] = []  # ngspice's own time in each job, as its result says
 
     def run(self, job):
         result = self.simulator.run(job)
         self.jobs += 1
         self.clock.now += self.TICK_S
+        self.ngspice_seconds.append(result.ngspice_seconds)
         return result
 
     def __getattr__(self, name: str):
@@ -65,6 +67,26 @@ def test_a_plain_loop_reports_its_simulation_time_and_runs_no_job_check(monkeypa
     assert result.checks == ()
     # SimInfo.backend names the ngspice interface that ran the jobs (netloop.sim: ngspice-shared or ngspice-batch)
     assert result.sim.backend in ("ngspice-shared", "ngspice-batch") and result.sim.backend == ticking.simulator.backend
+
+
+# One Miller stage (invented) whose loop back to its input is a 1 GOhm resistor: broken at x, the rules keep cc with the
+# load side, which leaves the -80 dB path alone; netloop measures again with cc moved (tests/jobs/test_measure_pair.py).
+MILLER_STAGE = "\n".join([
+    "Miller stage with a weak path back (invented)", "g1 0 x a 0 1m", "r1 x 0 10k", "c1 x 0 1p", "g2 y 0 x 0 1m",
+    "r2 y 0 10k", "c2 y 0 5p", "cc x y 1p", "rw y a 1g", "ra a 0 1k", ".end", ""])
+
+
+def test_the_jobs_of_a_moved_split_count_in_the_simulation_time(monkeypatch):
+    """A break whose rules' split is measured again with its bridge moved records as its simulation time every job it
+    ran, the retries' with the first split's, and as ngspice's own time the sum of what each job's result says."""
+    # Reference: SimInfo.seconds and ngspice_seconds cover every simulation of the measurement (netloop.jobs.loop_result);
+    # here the jobs are counted and timed by the ticking clock and by their own results.
+    result, ticking = _measured_with_clock(monkeypatch, MILLER_STAGE, "x")
+    assert [c.name for c in result.checks][:1] == ["split"] and result.checks[0].detail.startswith("cc to the driver side: ")
+    assert ticking.jobs >= 3  # the rules' split (its first sweep: nothing there crosses 0 dB), then the moved one, refined
+    assert result.sim.seconds == ticking.jobs * _TickingSimulator.TICK_S
+    assert result.sim.ngspice_seconds == pytest.approx(sum(ticking.ngspice_seconds), rel=1e-12)
+    assert 0 < result.sim.ngspice_seconds
 
 
 # The same loop with a negative resistor at p1 (invented): 1/1k - 1/500 makes the first stage 1/(s tau1 - 1), a pole of the
@@ -103,3 +125,20 @@ def test_the_split_kept_for_the_next_seed_measures_as_a_fresh_split_does():
     fresh = measure(second, "out")
     assert kept.breaks == fresh.breaks and kept.checks == fresh.checks
     assert kept.analysis.margins == fresh.analysis.margins
+
+
+def test_a_loop_search_that_fails_leaves_the_measurement_standing_and_says_why(monkeypatch, caplog):
+    """When the search for the loops through the net fails, the measurement stands without the check that needs it
+    ("opens-loop"), and the status log (logger "netloop", level INFO) says why."""
+    import logging  # noqa: PLC0415
+
+    from netloop.errors import NetloopError  # noqa: PLC0415
+
+    def fails(parsed, at):
+        raise NetloopError("the graph could not be built")
+
+    monkeypatch.setattr(measure_module, "LoopStructure", fails)
+    with caplog.at_level(logging.INFO, logger="netloop"):
+        result = measure(MILLER_STAGE, "x")
+    assert "the loops through x could not be stated: the graph could not be built" in caplog.messages
+    assert "opens-loop" not in [c.name for c in result.checks] and result.analysis.regulates

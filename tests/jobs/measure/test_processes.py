@@ -40,10 +40,12 @@ def test_pair_and_compare_split_their_runs_the_same_way(circuits):
     ):
         for mode in one.modes:
             _same_loop(one.modes[mode], two.modes[mode])
+            assert (one.modes[mode].sim.processes, two.modes[mode].sim.processes) == (1, 2)  # the processes asked for ran
     a = compare(circuits / "miller_buffer.cir", ["out", "o1"], processes=1)
     b = compare(circuits / "miller_buffer.cir", ["out", "o1"], processes=2)
     for x, y in zip(a.results, b.results, strict=True):
         _same_loop(x, y)
+        assert (x.sim.processes, y.sim.processes) == (1, 2)
 
 
 def test_check_jobs_option(circuits, capsys):
