@@ -76,3 +76,5 @@ def test_one_regression_reads_in_the_singular_and_nothing_is_skipped(comparison)
     # JUnit XML (common practice, the Ant/Jenkins schema): a testsuite carries tests, failures, errors and skipped
     suite = regression_suite(comparison, "ldo")
     assert (suite.get("tests"), suite.get("failures"), suite.get("errors"), suite.get("skipped")) == ("3", "1", "0", "0")
+    props = {p.get("name"): p.get("value") for p in suite.find("properties")}
+    assert props["baseline"] == comparison.baseline and props["limit.pm"] == comparison.limits[0].text  # what it was compared with

@@ -165,3 +165,28 @@ def test_scatter_legend_names_each_verdict_and_its_samples():
         assert _legend(ax.get_legend()) == labels
         margins = [r["loop"]["margins"] for r in chosen]
         assert [c.get_offsets().tolist() for c in ax.collections] == [[[m["unity_gain_hz"], m["phase_margin_deg"]]] for m in margins]
+
+
+def test_nyquist_draws_each_governing_gain_margin_as_a_segment_to_minus_one(conditional_result):
+    """On the conditionally stable loop the governing upper and lower gain margins are each a thick segment from where T
+    crosses the negative real axis (its compressed radius) to -1, with a filled square there; the crossing that does not
+    govern is a hollow square alone; the legend names each with its frequency."""
+    from netloop.report.nyquist_plot import compress_radius
+
+    a = conditional_result.analysis
+    fig = nyquist_figure(conditional_result)
+    on_axis = [ln for ln in fig.axes[0].lines if len(ln.get_ydata()) in (1, 2) and not np.any(np.asarray(ln.get_ydata(), dtype=float))]
+    segments = {round(float(ln.get_xdata()[0]), 9) for ln in on_axis if len(ln.get_xdata()) == 2 and ln.get_xdata()[1] == -1.0}
+    squares = {round(float(ln.get_xdata()[0]), 9): ln.get_markerfacecolor() for ln in on_axis if ln.get_marker() == "s"}
+    governing = {a.margins.phase_crossover_hz, a.margins.lower_phase_crossover_hz}
+    texts = _legend(fig.legends[0])
+    for c in a.phase_crossovers:
+        x = round(-float(compress_radius(10 ** (c.gain_db / 20.0)).real), 9)
+        where = eng(c.freq_hz, "Hz")
+        if c.freq_hz in governing:
+            assert x in segments and squares[x] != "white"
+            assert any(t.endswith(f" @ {where}: segment to -1") for t in texts)
+        else:
+            assert x not in segments and squares[x] == "white"
+            assert any(t.endswith(f" @ {where} (not the governing one)") for t in texts)
+    assert len(segments) == 2  # the upper and the lower: a conditionally stable loop has both

@@ -48,6 +48,9 @@ def test_table_sorts_worst_first_and_counts(outcomes):
     assert "unstable" in rows["ff_m40c"] and "2 RHP pole(s); pm>=45" in rows["ff_m40c"]
     assert " pass " in rows["tt_0c"] and "does not regulate" in rows["tt_0c"]
     assert lines[-1] == "7 loops measured (7 corners at 2 break nodes): 3 pass, 1 fail a requirement, 1 unstable, 1 inconclusive (no verdict), 1 error (not measured)"
+    from netloop.report import corner_summary  # the counts line alone, for a caller that prints its own table
+
+    assert corner_summary(outcomes) == lines[-1]
 
 
 def test_each_corners_verdict_and_record_are_those_a_corner_run_stores(outcomes):
@@ -73,6 +76,7 @@ def test_junit_xml_parses_and_counts(outcomes):
     """The JUnit XML parses, has one testcase per corner, and counts the unstable, failed and inconclusive corners as
     failures (3) and the unmeasured one as an error, in both count attributes; nothing is skipped."""
     root = ET.fromstring(junit_xml(outcomes, "front_end").encode("utf-8"))
+    assert root.tag == "testsuites" and root.get("name") == "front_end"  # the JUnit root CI tools read
     suite = root.find("testsuite")
     for node in (root, suite):
         assert (node.get("tests"), node.get("failures"), node.get("errors")) == ("7", "3", "1")
@@ -87,6 +91,9 @@ def test_junit_xml_parses_and_counts(outcomes):
     for name in ("tt_27c", "tt_0c"):
         assert cases[name].find("failure") is None and cases[name].find("error") is None
     assert "PASS" in cases["tt_27c"].find("system-out").text
+    for case in cases.values():  # parts joined by "; ", none left dangling when a corner has no settings
+        out = case.find("system-out")
+        assert out is None or not out.text.endswith((";", " "))
     assert "does not regulate" in cases["tt_0c"].find("system-out").text
     props = {p.get("name"): float(p.get("value")) for p in cases["tt_27c"].iter("property")}
     assert props["phase_margin_deg"] == outcomes[0].result.analysis.margins.phase_margin_deg
@@ -107,6 +114,7 @@ def test_corner_csv_and_document(tmp_path, outcomes, stable_result):
     doc = corner_document(outcomes)
     assert doc["counts"] == {"error": 1, "inconclusive": 1, "unstable": 1, "fail": 1, "pass": 3} and doc["passed"] is False
     assert doc["corners"][3]["loop"] is None
+    assert [(c["label"], c["verdict"]) for c in doc["corners"]] == [(o.label, o.verdict) for o in outcomes]  # in the plan's order
 
 
 def test_inconclusive_corners_alone_are_not_a_pass(stable_result, inconclusive_result):
@@ -148,3 +156,10 @@ def test_the_loads_line_counts_the_circuits_loaded_and_those_shared(loads, at, l
 
     records = tuple({"corner": f"c{i}", "at": at, "loads": n} for i, n in enumerate(loads))
     assert loads_line(records) == line  # common practice: counts of the records as they are
+
+
+def test_a_corner_not_measured_without_a_message_still_says_so():
+    """An error record whose error text is empty (an exception raised with no message) reads "not measured"."""
+    from netloop.report.corner_records import reasons
+
+    assert reasons({"corner": "tt", "at": "out", "outcome": "error", "error": "", "loop": None}) == ["not measured"]

@@ -225,3 +225,26 @@ def test_the_subtitle_gives_one_loop_its_verdict_and_several_their_count(stable_
     assert subtitle(stable_result).startswith("STABLE (PM 67.0") and subtitle(stable_result).endswith(
         ", loop broken at xamp.n5 (tian probe); netlist circuits/front_end.cir")
     assert subtitle([stable_result, unstable_result]) == "2 loops; netlist circuits/front_end.cir"
+
+
+def test_the_simulation_table_says_how_the_loop_was_simulated(stable_result):
+    """The "Simulation" table reads SimInfo: the backend (with the processes only when several ran side by side), the
+    points, the refinement rounds and whether the phase margin settled (marked bad when not); the gain-crossover table
+    gives each delay margin with its unit."""
+    from dataclasses import replace
+
+    from netloop.report import render_html
+
+    def rows(result):
+        return {label: (cls, value) for (_, label), (cls, value) in _tables(render_html(result, plots=False))["Simulation"]}
+
+    one = rows(stable_result)
+    assert one["backend"] == ("", "analytic") and one["frequency points"] == ("", "201")
+    assert one["refinement"] == ("", "0 round(s); phase margin settled")
+    unsettled = replace(stable_result, sim=replace(stable_result.sim, processes=2, refinement_rounds=3, refined=False))
+    two = rows(unsettled)
+    assert two["backend"] == ("", "analytic, 2 processes side by side")
+    assert two["refinement"] == ("bad", "3 round(s); phase margin NOT settled")
+    head, *crossings = _tables(render_html(stable_result, plots=False))["Gain crossovers (|T| = 0 dB)"]
+    column = [text for _, text in head].index("delay margin")
+    assert crossings[0][column][1] == "19.6 ns"  # PM / (360 deg fc), as the text summary gives it

@@ -20,7 +20,10 @@ def test_summary_shows_worst_margins_as_python_control_finds_them(stable_result)
     gm, pm, _, _, w_gc, _ = control.stability_margins(loop)  # python-control 0.10 stability_margins
     text = format_text(stable_result)
     first = text.splitlines()[0]
-    assert first.startswith("PASS") and "stable" in first
+    assert first == (f"PASS  stable: worst phase margin {pm:.2f} deg at {w_gc / W / 1e6:.2f} MHz, gain margin "
+                     f"{20 * math.log10(gm):.2f} dB; all 2 requirement(s) met")
+    row = next(line for line in text.splitlines() if " down " in line)
+    assert row.startswith(f"     {w_gc / W / 1e6:.2f} MHz  down  phase ")
     assert f"{pm:.2f} deg" in text  # 67.03
     assert f"{20 * math.log10(gm):.2f} dB" in text  # 22.28
     assert f"{w_gc / W / 1e6:.2f} MHz" in text  # 9.49 MHz
@@ -49,7 +52,8 @@ def test_no_crossover_is_stated_not_hidden(quiet_result):
     """A loop that never reaches 0 dB says so, and names no phase margin figure."""
     text = format_text(quiet_result)
     assert "does not regulate" in text.splitlines()[0]
-    assert "none in the sweep" in text
+    assert "gain crossovers (|T| = 0 dB): none in the sweep" in text.splitlines()
+    assert "phase crossovers (phase = odd multiple of 180 deg): none above the floor" in text.splitlines()
     assert text.isascii()
 
 
@@ -82,7 +86,8 @@ def test_inconclusive_loop_never_says_pass(inconclusive_result):
     and prints neither PASS nor unstable."""
     text = format_text(inconclusive_result)
     first = text.splitlines()[0]
-    assert first.startswith("INCONCLUSIVE  the data supports no verdict") and "try: let the sweep run higher" in first
+    assert first.startswith("INCONCLUSIVE  the data supports no verdict: the sweep ends at 1e+06 Hz with |T| still ")
+    assert "try: let the sweep run higher" in first and "; try: " in first and "None" not in first and "more check" not in first  # one check failed
     assert "PASS" not in text and "unstable" not in text.lower()
     doubtful = make_result(two_stage, requirements=("dc>=40",), freq_hz=inconclusive_result.analysis.freq_hz)
     assert "  NO VERDICT  dc>=40: DC loop gain = 80.00 dB" in format_text(doubtful)  # 1e4: 80 dB by the formula
@@ -274,3 +279,15 @@ def test_the_estimate_without_a_fit_gives_the_resonant_peak_of_its_damping(margi
     z = float(re.search(r"2nd-order ESTIMATE damping ([0-9.]+),", text).group(1))
     peak = -20 * math.log10(2 * z * math.sqrt(1 - z * z))  # Ogata, Modern Control Engineering: Mr of a second-order system
     assert re.search(rf"resonant peak {peak:.1f}\d dB \(from PM alone", text)
+
+
+def test_the_warnings_and_the_copied_subcircuits_have_rows_of_their_own(quiet_result):
+    """A result's warnings follow a "warnings" heading, one "  - " line each; a break inside one instance names the
+    subcircuits copied for it in the break's rows."""
+    from dataclasses import replace
+
+    lines = format_text(quiet_result).splitlines()
+    at = lines.index("warnings")
+    assert lines[at + 1 : at + 1 + len(quiet_result.warnings)] == [f"  - {w}" for w in quiet_result.warnings]
+    inside = replace(quiet_result, breaks=replace(quiet_result.breaks, copied_subcircuits=(("ota", "ota__xamp"),)))
+    assert re.search(r"^  copied subcircuits +ota -> ota__xamp$", format_text(inside), re.M)

@@ -159,3 +159,60 @@ def test_the_page_gives_each_what_if_its_check_or_why_none(run):
     assert rows[0][2].startswith(f"PM {pm:.2f} deg at {eng(wgc / W, 'Hz')}, GM {20 * math.log10(gm):.2f} dB, peaking ")
     assert rows[1][2] == unreachable.answer
     assert "1 of them (xdrv:w) is a size of a process device wrapper: ngspice applies it when it reads the instance" in page
+
+
+def test_the_summary_words_each_slope_s_error_the_reloads_and_what_a_what_if_needs(run):
+    """The accuracy line gives the largest estimated error of the slopes shown and names only those above 1 % (the
+    steps h and 2h, netloop.jobs.sensitivity.records.central_difference); the reload line says how the wrapper's size was
+    changed; a solved what-if says what it needs; the numbers of the table stand right-aligned under their units."""
+    from netloop.report.sensitivity_text import LESS_SURE, accuracy_text
+
+    text = format_sensitivity_text(run)
+    errors = {(s.knob.name, f): s.slope(f).relative_error for s in run.sensitivities for f in FIGURES}
+    worst = max(e for e in errors.values() if e is not None and math.isfinite(e))
+    unsure = [(k, f) for (k, f), e in errors.items() if e is not None and e > LESS_SURE]
+    assert unsure == [("cl", "peak"), ("xdrv:w", "peak")]  # the peaking barely moves: its slopes are differences of near-equal values
+    assert accuracy_text(run) == (f"estimated error of each slope: at most {100 * worst:.2g} % of it (from the steps h and 2h); less "
+                                  f"sure (above 1 %): cl peaking ({100 * errors['cl', 'peak']:.2g} %), xdrv:w peaking "
+                                  f"({100 * errors['xdrv:w', 'peak']:.2g} %)")
+    assert "so each was an edited copy of the netlist read again by ngspice (its first value a load, the others changed in the copy ngspice held)" in text
+    solved = run.what_ifs[0]
+    assert what_if_line(solved)[0] == (f"  pm>=75     cc: needs {eng(solved.value, 'F')} -> {eng(solved.solved_value, 'F')} "
+                                       f"(x{solved.factor:.6g})")
+    lines = text.splitlines()
+    units = next(line for line in lines if "deg/decade" in line)
+    right = units.index("deg/decade") + len("deg/decade")
+    for name in ("cc", "cl", "xdrv:w"):
+        row = next(line for line in lines if re.match(rf"\s+\d+\s+{re.escape(name)}\s", line))
+        cell = f"{next(s for s in run.sensitivities if s.knob.name == name).pm.per_decade:+.2f}"
+        assert row.index(cell) + len(cell) == right, row
+
+
+@pytest.mark.parametrize(("figure", "slope", "colour"), [("pm", 0.5, "HELPS"), ("pm", -0.5, "HURTS"), ("gm", 3.0, "HELPS"),
+                                                         ("peak", 0.2, "HURTS"), ("peak", -0.2, "HELPS"), ("fc", 5.0, "NEUTRAL"),
+                                                         ("pm", 0.0, "NEUTRAL")])
+def test_a_bar_is_coloured_by_whether_its_slope_helps_the_figure(figure, slope, colour):
+    """A bar helps when the figure moves the way it is better (margins up, peaking down), hurts the other way, and is
+    neutral for the crossover (neither way is better by itself) or a slope of 0, however small the slope."""
+    from netloop.report import sensitivity_plot
+
+    assert sensitivity_plot._colour(figure, slope) == getattr(sensitivity_plot, colour)
+
+
+def test_the_page_gives_a_solved_what_if_its_edited_card(run):
+    """The page shows the card as written into the netlist's copy for the solved what-if."""
+    from html import unescape
+
+    assert run.what_ifs[0].edited in unescape(sensitivity_section(run))
+
+
+def test_the_largest_slope_error_is_given_as_a_percentage_of_its_slope(run):
+    """With every slope's estimated error 0.95 % of it, the accuracy line says "at most 0.95 %" and names none as less
+    sure (1 % is the line)."""
+    from netloop.report.sensitivity_text import accuracy_text
+
+    def sure(s):  # each slope 2.0 per decade with an estimated error of 0.019
+        return replace(s, **{f: Slope(2.0, 0.019) for f in FIGURES})
+
+    same = replace(run, sensitivities=tuple(sure(s) for s in run.sensitivities))
+    assert accuracy_text(same) == "estimated error of each slope: at most 0.95 % of it (from the steps h and 2h)"

@@ -38,7 +38,8 @@ def make_run(records: list[dict], target: float | None = None, corners: str = ""
 
 @pytest.mark.parametrize("fraction,way,text", [(0.990063918, "down", "99.0 %"), (0.9999, "down", "99.9 %"), (0.9999, "up", "100 %"),
                                                (0.99, "up", "99.0 %"), (0.99999, "round", "99.9 %"), (1.0, "down", "100 %"),
-                                               (0.0004, "up", "0.1 %"), (0.0, "up", "0 %"), (0.7254, "round", "72.5 %")])
+                                               (0.0004, "up", "0.1 %"), (0.0, "up", "0 %"), (0.7254, "round", "72.5 %"),
+                                               (0.7241, "up", "72.5 %"), (0.99941, "up", "100 %"), (0.7249, "down", "72.4 %")])
 def test_percentages_never_claim_more_than_the_bound(fraction, way, text):
     """A lower bound is rounded down and an upper bound up; an estimate or a lower bound reads "100 %" only for 100 %."""
     assert percent(fraction, way) == text
@@ -75,6 +76,10 @@ def test_json_document_has_every_key_and_no_infinity():
     assert doc["schema"] == "netloop.yield/1" and doc["verdict"] == "fail" and doc["deciding"] == doc["yields"][-1]
     assert doc["infinite"] == {"each_sample.0.figures.gm": "+inf", "worst.1.figures.gm": "+inf"}
     assert doc["each_sample"][1]["met"] == {"pm >= 45": False, "stable": True, "every requirement": False}
+    assert set(doc["worst"][0]) == {"sample", "corner", "at", "seed", "verdict", "why", "figures", "rerun"}
+    assert doc["worst"][0]["corner"] == "tt" and doc["worst"][0]["sample"] == "tt#2"  # the failing sample first
+    assert doc["samples"] == {"count": 5, "first_seed": 1, "last_seed": 5, "corners": ["tt"], "nodes": ["out"], "measured": 2,
+                              "ran": 2, "skipped": 0}
 
 
 def test_csv_has_a_row_per_sample_with_its_seed_and_requirements():
@@ -178,6 +183,10 @@ def test_two_corners_say_a_seed_is_one_die_and_the_spread_table_names_its_column
     lines = yield_summary(make_run(recs, corners='[axes]\ntemp = [-40, 125]\n')).splitlines()
     # from memory (netloop's sampling): one seed per die, the same die measured at each corner
     assert "samples                   5 at each of 2 corners, seeds 1 to 5; a seed draws the same mismatch at every corner (one die)" in lines
+    assert any(line.startswith("pm >= 45") and " every corner " in line for line in lines)  # the dies: a yield over both corners
+    page = render_yield_html(make_run(recs, corners='[axes]\ntemp = [-40, 125]\n'))
+    assert "5 at each corner, seeds 1 to 5; a seed draws the same mismatch at every corner" in page
+    assert "<th>interval</th>" in page or ">interval<" in page
     head = lines[lines.index("spread over the samples with a verdict") + 1]
     assert [w.strip() for w in head.split("  ") if w.strip()] == ["figure", "corner", "n", "mean", "std", "min", "max", "left out"]
     one = yield_summary(make_run([record("tt", s, "pass", 50.0 + s) for s in range(1, 6)])).splitlines()

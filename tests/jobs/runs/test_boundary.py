@@ -100,6 +100,11 @@ def test_a_requirement_that_holds_everywhere_has_no_crossing(load_run):
     assert lowest > 20.0
     for b in boundaries(parse_requirement("pm >= 10"), lines_along(load_run, axis)):
         assert b.everywhere is True and b.crossings == ()
+    from netloop.report.boundaries import METHOD, boundary_text  # noqa: PLC0415
+
+    text = boundary_text(load_run, [parse_requirement("pm >= 10")])
+    assert "pm >= 10 holds over the whole line on 2 of 2 line(s)" in text and METHOD not in text  # nothing was interpolated
+    assert boundary_text(load_run, [PM45]).endswith(METHOD)  # a boundary interpolated: the method is stated
 
 
 def test_a_boundary_on_a_linear_axis_is_interpolated_in_the_value_itself():
