@@ -57,9 +57,7 @@ def checked_samples(splan: SamplePlan) -> tuple[tuple[Task, ...], dict[tuple, tu
     """sample_tasks' tasks, and the netlists the plan's check read for them (netloop.jobs.corners.checked_plan), which
     the workers take instead of reading them again."""
     plan = splan.plan
-    checked, netlists = checked_plan(plan)
-    if any(s.kind == "seed" for t in checked for s in t.corner.settings):
-        raise plan.error("a corner sets the seed itself; the [samples] table gives every sample its seed", "samples")
+    checked, netlists = checked_plan(plan)  # a plan's settings cannot set the seed (netloop.jobs.corners.plan.KINDS)
     samples, inputs = [], {}
     for t in checked:
         if t.corner.name in inputs:

@@ -43,6 +43,7 @@ def test_three_hundred_samples_without_failure_show_ninety_nine_percent():
 def test_samples_needed_reach_the_target_at_the_failure_rate(target, confidence, rate):
     """The count returned reaches the target with its share of failures (rounded up), and one sample fewer does not."""
     n = samples_needed(target, confidence, rate)
+    assert isinstance(n, int)  # a count of samples
     assert lower_bound(n - math.ceil(n * rate - 1e-9), n, confidence) >= target
     assert lower_bound(n - 1 - math.ceil((n - 1) * rate - 1e-9), n - 1, confidence) < target
 

@@ -211,3 +211,35 @@ def test_a_sample_is_conclusive_when_it_passed_or_failed_on_data_that_checked_it
 
     verdicts = {o: outcome(record("tt", 1, o, met=o != "fail")).conclusive for o in ("pass", "fail", "inconclusive", "error")}
     assert verdicts == {"pass": True, "fail": True, "inconclusive": False, "error": False}
+
+
+def test_a_figure_listed_as_minus_infinity_reads_as_minus_infinity():
+    """A figure the loop document leaves null and lists under "infinite" as "-inf" reads as -inf, as "+inf" reads as +inf
+    (netloop.jobs.document: JSON has no infinity)."""
+    rec = record("tt", 1, "pass", gm=None)
+    rec["loop"]["infinite"] = {"margins.gain_margin_db": "-inf", "peaking.peak_db": "+inf"}
+    rec["loop"]["peaking"]["peak_db"] = None
+    figures = summarise([rec], []).samples[0].figures
+    assert figures["gm"] == -np.inf and figures["peak"] == np.inf
+
+
+def test_a_sample_failing_two_requirements_names_both():
+    """The why of a sample that fails two requirements names both, in the plan's order, separated by a comma."""
+    rec = record("tt", 1, "fail", met=False)
+    rec["loop"]["requirements"].append({"text": "gm >= 10", "passed": False})
+    assert summarise([rec], ["pm >= 45", "gm >= 10"]).samples[0].why == "pm >= 45, gm >= 10"
+
+
+def test_yields_at_two_break_nodes_name_their_node_and_the_dies_none():
+    """With samples broken at two nodes, each node's yields name it, and the dies' yield over every corner and node
+    names no corner and no node (empty strings, as the document has them)."""
+    recs = []
+    for seed in (1, 2):
+        for at in ("out", "fb"):
+            rec = record("tt", seed, "pass")
+            rec["at"] = at
+            recs.append(rec)
+    stats = summarise(recs, ["pm >= 45"])
+    assert {y.at for y in stats.yields if y.corner} == {"out", "fb"}
+    assert (stats.deciding.corner, stats.deciding.at) == ("", "")
+    assert all(y.at == "" for y in stats.yields if not y.corner)
