@@ -26,7 +26,6 @@ class PassiveNetworks:
         self.pairs: list[tuple[str, str, str]] = []  # (a, b, element)
         self._adjacency: dict[str, dict[str, list[str]]] | None = None
         self._root: dict[str, str] = {}
-        self._sizes: dict[str, int] = {}
         self._passages: dict[tuple[str, str], tuple[tuple[tuple[str, ...], str, str], ...]] = {}
         self._separators: dict[tuple[str, str], tuple[str, ...]] = {}
         self._trees: dict[str, tuple[dict[str, list[int]], list[list[str]]]] = {}
@@ -61,23 +60,16 @@ class PassiveNetworks:
                 continue
             root_of[p] = p
             todo = deque([p])
-            count = 1
             while todo:
                 n = todo.popleft()
                 for m in adj[n]:
                     if m not in root_of:
                         root_of[m] = p
-                        count += 1
                         todo.append(m)
-            self._sizes[p] = count
 
     def find(self, node: str) -> str:
         """The network (its first labelled port) of a labelled node; the node itself otherwise."""
         return self._root.get(node, node)
-
-    def size(self, node: str) -> int:
-        """Number of nodes in the network of a labelled ``node``."""
-        return self._sizes.get(self.find(node), 1)
 
     def _bfs(self, start: str, goal: str) -> dict[str, str] | None:
         adj = self._build()

@@ -144,3 +144,14 @@ def test_components_and_cycles_follow_the_given_order():
     assert sorted(map(sorted, cycles)) == sorted(map(sorted, nx.simple_cycles(nx.DiGraph(edges))))
     assert all(c[0] == min(c, key=vertices.index) for c in cycles)
     assert list(bounded_cycles(graph, vertices, 8)) == cycles
+
+
+def test_a_two_terminal_element_loads_a_node_by_whichever_terminal_it_has_there():
+    """A Miller capacitor between x and y loads y by its second terminal (cc.n) and x by its first (cc.p): each candidate
+    names the terminal on its own node."""
+    # Reference: by construction (cc x y: pin p on x, pin n on y; g2 drives y from x, ef closes the loop back to x's input).
+    text = ("Miller stage (invented)\ng1 0 x a 0 1m\nr1 x 0 10k\nc1 x 0 1p\ng2 y 0 x 0 1m\nr2 y 0 10k\nc2 y 0 5p\ncc x y 1p\n"
+            "ef a 0 y 0 -0.1\n.end\n")
+    (group,) = _groups(text)
+    assert {c.node: (c.drivers, c.loads) for c in group.candidates} == {
+        "a": (("ef",), ("g1.cp",)), "x": (("g1",), ("g2.cp", "cc.p")), "y": (("g2",), ("cc.n", "ef.cp"))}

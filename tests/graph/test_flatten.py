@@ -37,6 +37,7 @@ def test_node_lookup_and_terminals():
     """node() lists every terminal on a net; an unknown name raises UnknownNodeError with close names."""
     flat = flatten(parse_text(AMP))
     terms = {(t.element, t.pin) for t in flat.node("XA.M").terminals}
+    assert flat.node("XA.M").name == "xa.m" and flat.node("GND").name == "0"  # names as the netlist reads them: case-blind, gnd is 0
     assert terms == {("xa.x1.rd", "n"), ("xa.x1.m1", "d"), ("xa.x1.c1", "p"), ("xa.x2.m1", "g"), ("xa.xb.rb", "p")}
     with pytest.raises(UnknownNodeError) as info:
         flat.node("xa.x1.mld")
@@ -198,3 +199,14 @@ def test_a_device_wrapper_instance_is_one_flat_element_naming_its_wrapper():
     flat = flatten(parse_text("wrapper (invented)\nX1 a b 0 0 nfet w=1 l=1\nR1 a b 1k\n.subckt nfet d g s b w=1 l=1\n"
                               "M1 d g s b nmodel w={w} l={l}\n.ends\n.model nmodel nmos level=1\n.end\n"))
     assert [(e.name, e.kind, e.subcircuit) for e in flat.elements] == [("x1", "M", "nfet"), ("r1", "R", None)]
+
+
+def test_suggestions_on_a_huge_circuit_are_drawn_from_names_sharing_the_longest_prefix():
+    """Past the limit of names difflib compares, the names kept share a longer and longer prefix with the one asked for,
+    stopping as soon as no more than the limit are left; at the limit exactly, every name of a similar length is kept."""
+    from netloop.graph.flat import _candidates
+
+    known = ["abcd2", "abcx3", "abyy4", "azzz5", "qqqq6"]
+    assert _candidates("abcd1", known, limit=2) == ["abcd2", "abcx3"]  # "a" leaves 4, "ab" 3, "abc" 2
+    assert _candidates("aa9", ["aa1", "aa2", "ab3", "zzzzzzz"], limit=3) == ["aa1", "aa2", "ab3"]  # 3 of a similar length
+    assert _candidates("abcd1", known, limit=5) == known  # within the limit: every name

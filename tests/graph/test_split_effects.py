@@ -93,6 +93,8 @@ def test_apply_splits_restates_and_reranks():
     # a refused break opens no loop: an empty tuple, as the record says (loop_records.BreakCandidate), which `netloop loops
     # --json` lists as [] (netloop/cli/loops_cmd.py)
     assert out.candidates[-1].node == "a" and out.candidates[-1].refused and out.candidates[-1].opened == ()
+    assert out.candidates[-1].reason == "the probe cannot break here: no driver found"
+    assert out.candidates[-1].left_closed == tuple(range(1, len(group.loops) + 1))  # a break that cannot be made leaves every loop closed
     assert [c.rank for c in out.candidates] == [1, 2, 3]
     nothing = apply_splits(circuit, group, {"c": NodeSplit("c", (), ("gd.n",), {}), "b": splits["b"]})
     assert [c.node for c in nothing.candidates][:2] == ["b", "c"] and "opens none" in nothing.candidates[1].reason
