@@ -95,9 +95,9 @@ def run(args: argparse.Namespace) -> int:
             _print_comparison(comparison)
         note = f"; {result.skipped} found done in the results file" if result.skipped else ""
         print(f"results: {result.results_path} ({result.ran} run now{note})")
-        if result.stale:
-            print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
-                  "(the plan changed since they were written) and were left out", file=sys.stderr)
+    if result.stale:  # on stderr whatever stdout holds: with --json too, where the document does not count them
+        print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
+              "(the plan changed since they were written) and were left out", file=sys.stderr)
     sys.stdout.flush()
     if args.csv:
         corner_records.write_corner_csv(result.records, args.csv)

@@ -85,6 +85,9 @@ def run(args: argparse.Namespace) -> int:
         print(json.dumps(yield_document.yield_document(result), indent=2, allow_nan=False))
     else:
         print(yield_text.yield_summary(result))
+    if result.run.stale:  # on stderr whatever stdout holds: the statistics count only this plan's samples
+        print(f"netloop: {result.run.stale} record(s) in the results file belong to no sample of this plan (the plan changed since "
+              "they were written) and were left out of the statistics", file=sys.stderr)
     sys.stdout.flush()
     if args.csv:
         yield_document.write_sample_csv(result, args.csv)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import shutil
 from pathlib import Path
 
@@ -275,3 +276,35 @@ def test_values_of_1e300_leak_no_numpy_warning(tmp_path, capsys, element, argv, 
     assert _run([argv[0], str(path), *argv[1:]]) == status
     captured = capsys.readouterr()
     assert "INCONCLUSIVE" in captured.out and "Warning" not in captured.err and "Traceback" not in captured.err
+
+
+def test_an_error_carries_what_in_the_netlist_may_be_behind_it(tmp_path, capsys):
+    """A netlist whose first line reads as an element (SPICE takes it as the title) and a node not in the circuit: the
+    error line, then a note naming the title line and its file:line, and exit 2."""
+    path = tmp_path / "title.cir"
+    path.write_text("r1 in out 1k\ne1 out 0 0 in 1000\nr2 in 0 1k\n.end\n")
+    assert _run(["check", str(path), "--at", "zz"]) == 2
+    err = capsys.readouterr().err.splitlines()
+    assert err[0] == f"netloop: error: {path}: unknown node 'zz'"
+    assert err[1].startswith(f"netloop: note: {path}:1: the first line reads as an element (r1 in out 1k), but SPICE takes ")
+
+
+def test_a_reader_that_goes_away_early_ends_the_run_quietly(tmp_path):
+    """`netloop loops NETLIST --json | head -1`: the reader leaves after one line; netloop exits 0 with nothing on stderr
+    (no traceback), as command-line tools do when their reader goes away (common practice)."""
+    import subprocess  # noqa: PLC0415
+    import sys  # noqa: PLC0415
+
+    from netloop.sim.spawn import this_netloop  # noqa: PLC0415
+
+    entry = "import sys; from netloop.cli.main import entry; sys.argv[0] = 'netloop'; entry()"  # the console command
+    # forty separate two-stage loops (invented): a document of about 160 kB, more than a pipe holds unread (64 kB on Linux)
+    big = "forty loops (invented)\n" + "".join(f"e{i}a a{i} 0 b{i} 0 -1\ne{i}b b{i} 0 a{i} 0 1\nr{i}a a{i} 0 1k\nr{i}b b{i} 0 1k\n"
+                                                for i in range(40)) + ".end\n"
+    (tmp_path / "loops.cir").write_text(big)
+    netloop = subprocess.Popen([sys.executable, "-c", entry, "loops", str(tmp_path / "loops.cir"), "--json"], stdout=subprocess.PIPE,
+                               stderr=subprocess.PIPE, env=this_netloop(os.environ))
+    netloop.stdout.readline()
+    netloop.stdout.close()  # the reader goes away with most of the document unread
+    _, err = netloop.communicate(timeout=120)
+    assert netloop.returncode == 0 and err == b""

@@ -44,7 +44,8 @@ def test_json_has_locations_in_check_shape_differences_and_poles_agree(loop, cap
 def test_both_methods_table_and_overlaid_plots(loop, capsys, tmp_path):
     """--method both gives a column per location and method, and --plot writes the overlaid Bode and Nyquist files."""
     plot = tmp_path / "cmp.png"
-    assert main(["compare", loop, "--at", "out", "--at", "n0", "--method", "both", "--plot", str(plot), *SWEEP]) == 0
+    assert main(["compare", loop, "--at", "out", "--at", "n0", "--method", "both", "--plot", str(plot), "--csv", str(tmp_path / "t.csv"),
+                 *SWEEP]) == 0
     out = capsys.readouterr().out
     lines = out.splitlines()
     assert lines[0] == "PASS  out (tian): pass, out (middlebrook): pass, n0 (tian): pass, n0 (middlebrook): pass"
@@ -56,6 +57,8 @@ def test_both_methods_table_and_overlaid_plots(loop, capsys, tmp_path):
     pole_row = next(line for line in lines if line.startswith("dominant pole"))
     assert "damping" in pole_row and "z=" not in out  # issue 15.14: the word, as check writes it
     assert plot.stat().st_size > 0 and (tmp_path / "cmp-nyquist.png").stat().st_size > 0
+    # one CSV per location and method, named for both (the two methods at one node would otherwise share a name)
+    assert sorted(p.name for p in tmp_path.glob("t-*.csv")) == ["t-n0-middlebrook.csv", "t-n0-tian.csv", "t-out-middlebrook.csv", "t-out-tian.csv"]
 
 
 @pytest.mark.ngspice

@@ -57,6 +57,16 @@ def test_revision_b_regresses_at_exactly_the_corner_the_closed_form_says(tmp_pat
     a, b = tmp_path / "a.jsonl", tmp_path / "b.jsonl"
     assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a)]) == 0
     capsys.readouterr()
+    # a record of a corner the plan no longer has, resumed with nothing left to run: said on stderr, the document alone on stdout
+    lines = a.read_text().splitlines()
+    gone = {**json.loads(lines[-1]), "key": "a corner since removed", "corner": "gone"}
+    stale = tmp_path / "stale.jsonl"
+    stale.write_text("\n".join([*lines, json.dumps(gone)]) + "\n")
+    assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(stale), "--resume", "--json"]) == 0
+    resumed = capsys.readouterr()
+    assert json.loads(resumed.out)["verdict"] == "pass"
+    assert ("netloop: 1 record(s) in the results file belong to no corner of this plan (the plan changed since they were written) "
+            "and were left out") in resumed.err.splitlines()
     junit, report, maps = tmp_path / "b.xml", tmp_path / "b.html", tmp_path / "maps"
     rc = main(["corners", str(PLANS / "ldo_rev_b.toml"), "--cluster", scheduler, "--out", str(b), "--baseline", str(a), "--json",
                "--junit", str(junit), "--report", str(report), "--maps", str(maps)])

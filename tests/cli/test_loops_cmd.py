@@ -55,6 +55,11 @@ def test_loops_text_is_one_line_per_group_with_its_break_and_why(tmp_path, capsy
     (line,) = [x for x in out.splitlines() if x.startswith("  loop 1")]
     assert line.startswith("  loop 1 (c): 2 loops, 3 nodes; break at c: opens every loop of the group, driven by g2 alone")
     assert "-g2(cp>n)->" not in out  # the loops themselves only in --json
+    assert out.rstrip().splitlines()[-1] == ("--json lists every loop, node, candidate and coarse figure; `netloop check NETLIST` "
+                                            "measures each group at its break")
+    assert main(["loops", str(_nested(tmp_path)), "--no-sweep", "--max-loops", "1"]) == 0
+    capped = capsys.readouterr().out
+    assert any(x.startswith("  loop 1 (") and ": 1 loop (capped), " in x for x in capped.splitlines())  # the search stopped at the cap
     assert main(["loops", str(_nested(tmp_path)), "--no-sweep", "--candidates", "3"]) == 0
     out = capsys.readouterr().out
     assert "1. c: the probe splits c into driver side g2.n and load side" in out
@@ -69,6 +74,8 @@ def test_loops_json_document(tmp_path, capsys):
     assert doc["schema"] == "netloop.loop-groups/1" and doc["swept"] is False
     (group,) = doc["groups"]
     assert [set(lp["nodes"]) for lp in group["loops"]] == [{"b", "c"}, {"a", "b", "c"}]
+    steps = group["loops"][0]["steps"]
+    assert all(set(st) >= {"from", "to", "elements", "pins", "passive"} for st in steps) and not any(st["passive"] for st in steps)
     assert [c["node"] for c in group["candidates"]] == ["c", "b", "a"]
     assert [c["rank"] for c in group["candidates"]] == [1, 2, 3]
     assert group["candidates"][2]["left_closed"] == [1] and group["candidates"][2]["reason"]

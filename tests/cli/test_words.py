@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import pytest
 
+from netloop.cli.check_cmd import sweep_from
 from netloop.cli.main import main
 from netloop.cli.words import command_words
 
@@ -68,3 +69,30 @@ def test_a_node_between_two_passive_branches_is_refused_without_contradiction(ca
             "through passive elements), so nothing is left for the load side; choose the driver side with --driver "
             "ELEMENT[.PIN], e.g. --driver rz.n") in err
     assert "(load)" not in err
+
+
+@pytest.mark.parametrize(("fmin", "fmax", "expected"), [
+    ("1k", None, (1e3, 1e10, True, False)),  # --fmin alone: the default top, the bottom fixed (never widened below it)
+    ("10G", None, (1e10, 1e13, True, False)),  # at or above the default top: three decades above it
+    ("20G", None, (2e10, 2e13, True, False)),
+    (None, "1meg", (1e-2, 1e6, False, True)),
+    (None, "10m", (1e-5, 1e-2, False, True)),  # at or below the default bottom: three decades below it
+    ("1", "1k", (1.0, 1e3, True, True)),
+])
+def test_the_sweep_limits_given_are_kept_and_a_lone_limit_beyond_the_default_range_gets_three_decades(fmin, fmax, expected):
+    """--fmin and --fmax become the sweep's limits, marked as given so that netloop never widens past them; one given alone
+    beyond the other's default (10 mHz to 10 GHz) gets the other three decades away."""
+    from netloop.cli.main import build_parser
+
+    argv = ["check", "x.cir", "--at", "out", *(["--fmin", fmin] if fmin else []), *(["--fmax", fmax] if fmax else [])]
+    sweep = sweep_from(build_parser(load="check").parse_args(argv))
+    assert (sweep.fmin_hz, sweep.fmax_hz, sweep.fmin_given, sweep.fmax_given) == pytest.approx(expected)
+    assert sweep.fmin_given is expected[2] and sweep.fmax_given is expected[3]
+
+
+def test_compare_takes_either_method_or_both():
+    """compare --method takes tian, middlebrook or both."""
+    from netloop.cli.main import build_parser
+
+    for method in ("tian", "middlebrook", "both"):
+        assert build_parser(load="compare").parse_args(["compare", "x.cir", "--at", "a", "--at", "b", "--method", method]).method == method

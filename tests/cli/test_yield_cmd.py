@@ -49,6 +49,13 @@ def test_yield_run_writes_every_output_and_exits_by_its_verdict(tmp_path, capsys
     assert len((tmp_path / "s.csv").read_text().splitlines()) == 11
     assert (tmp_path / "h.png").stat().st_size > 10_000 and (tmp_path / "h-scatter.png").stat().st_size > 10_000
     assert "data:image/png" in (tmp_path / "r.html").read_text()
+    # the plan cut to six samples and the run resumed: nothing to measure, the statistics of those six, the other four said
+    _write(tmp_path, 6)
+    main(["yield", plan, "--workers", "1", "--resume", "--json"])
+    resumed = capsys.readouterr()
+    assert json.loads(resumed.out)["deciding"]["samples"] == 6
+    assert resumed.err.splitlines() == ["netloop: 4 record(s) in the results file belong to no sample of this plan (the plan changed "
+                                        "since they were written) and were left out of the statistics"]
 
 
 def test_a_sample_reruns_alone_by_name_and_by_seed_bit_for_bit(tmp_path, capsys):

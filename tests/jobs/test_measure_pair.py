@@ -202,6 +202,10 @@ def test_check_at_pair_json_has_a_document_per_mode(tmp_path, capsys):
         assert mode["schema"] == "netloop.loop/1" and mode["passed"] is True
     assert doc["passed"] is True
     assert doc["coupling"]["coupled"] is False and doc["coupling"]["threshold_db"] == -40.0
+    assert set(doc["coupling"]) == {"dm_to_cm_db", "cm_to_dm_db", "dm_band_hz", "cm_band_hz", "threshold_db", "coupled", "unjudged"}
+    # each figure's band is its own mode's highest gain crossover (netloop.jobs.measure_pair)
+    for band, mode in (("dm_band_hz", "differential"), ("cm_band_hz", "common")):
+        assert doc["coupling"][band] == max(c["freq_hz"] for c in doc["modes"][mode]["crossovers"]["gain"])
 
 
 def test_check_at_pair_text_labels_both_modes_and_fails_a_requirement(tmp_path, capsys):
