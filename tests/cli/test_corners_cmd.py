@@ -55,8 +55,8 @@ def test_revision_b_regresses_at_exactly_the_corner_the_closed_form_says(tmp_pat
     ngspice's margins match the closed form within 0.05 deg; the JUnit XML, report, maps (counted on stderr) and trend
     carry it."""
     a, b = tmp_path / "a.jsonl", tmp_path / "b.jsonl"
-    assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a)]) == 0
-    capsys.readouterr()
+    assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a), "--progress"]) == 0
+    assert "] 12/12 corners, 0 failed" in capsys.readouterr().err  # --progress draws the bar off a terminal too
     # a record of a corner the plan no longer has, resumed with nothing left to run: said on stderr, the document alone on stdout
     lines = a.read_text().splitlines()
     gone = {**json.loads(lines[-1]), "key": "a corner since removed", "corner": "gone"}
