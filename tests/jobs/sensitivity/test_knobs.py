@@ -21,6 +21,7 @@ e2 d2 0 value={v(a)*2}
 g1 0 g a 0 1m
 g2 0 g2 poly(1) a 0 0 1m
 f1 f 0 vs 3
+f2 f2 0 poly(1) vs 0 2
 h1 h 0 vs 50
 vs a 0 dc 1
 ib 0 b dc 1u
@@ -34,7 +35,7 @@ x2 a z stage
 
 def test_every_knob_is_found_with_its_names():
     """R, C, L values, linear E/G/F/H gains and MOSFET W/L (m where written) are knobs, per instance, in netlist order;
-    nonlinear E/G forms and independent sources are not."""
+    nonlinear E/G/F forms (value=, poly) and independent sources are not."""
     knobs = find_knobs(parse_text(NETLIST))
     assert [k.name for k in knobs] == [
         "r1", "c1", "l1", "e1", "g1", "f1", "h1", "m2:w", "m2:l", "m2:m",

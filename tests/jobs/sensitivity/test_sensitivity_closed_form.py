@@ -226,15 +226,20 @@ def test_two_pole_what_if_matches_the_closed_form(two_pole):
 
 @pytest.mark.ngspice
 def test_two_pole_what_ifs_name_the_card_to_write_or_the_best_the_closed_form_gives(tmp_path, simulator):
-    """Solved in one run (not through the module's fixture, so that mutmut maps this test to the what-if): pm>=60 gives
+    """Solved in one run (not through the module's fixture, so that mutmut maps this test to the what-if), P given as 0
+    (and kept for every loop measured afresh): pm>=60 gives
     the card to write, the netlist's C2 card with the solved value; pm>=89 is out of reach between 0.1x and 10x C2 (the
     closed form's PM rises as C2 falls, to below 89 deg at 0.1x): that what-if keeps its knob, solves no value, writes no
     card, and its answer names the best PM, python-control's PM of the closed form at 0.1x C2, to its two decimals."""
     path = tmp_path / "two_pole.cir"
     path.write_text(TWO_POLE)
-    run = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=60", "pm>=89"], solve=["c2"], simulator=simulator)
+    run = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=60", "pm>=89"], solve=["c2"], simulator=simulator,
+                        open_loop_rhp_poles=0)
     solved, out_of_reach = run.what_ifs
     assert solved.solved_value == pytest.approx(two_pole_c2_for_pm(60.0), rel=1e-4)
+    assert solved.monotonic is True  # the closed form's PM moves one way with C2
+    # P given (0: the two-pole loop is stable when opened) holds for the loop measured afresh too, as for the nominal
+    assert run.nominal.analysis.nyquist.open_loop_rhp_from == solved.check.analysis.nyquist.open_loop_rhp_from == "given"
     assert solved.edited == f"C2 n2 0 {solved.solved_value!r}"
     best = _python_control(two_pole_tf(0.1 * C2))[0]
     assert best < 89.0 < _python_control(two_pole_tf(0.01 * C2))[0]  # reachable only below the range searched
@@ -306,3 +311,28 @@ def test_an_unreachable_requirement_is_said_plainly(two_pole_path, simulator):
     best_factor, best_pm = max(w.tried, key=lambda fv: fv[1])
     assert best_factor == pytest.approx(0.1)
     assert best_pm == pytest.approx(two_pole_pm_deg(0.1 * C2), abs=1e-3)
+
+
+@pytest.mark.ngspice
+def test_a_knob_whose_value_is_zero_has_no_slope_and_says_why(tmp_path, simulator):
+    """A transconductance of 0 in parallel with G2 (it changes nothing) is a knob whose relative change is no change: its
+    sensitivity has no slope and says so, and the other knob's slopes are still given."""
+    path = tmp_path / "two_pole_zero.cir"
+    path.write_text(TWO_POLE.replace("E3 out 0 n2 0 1\n", "E3 out 0 n2 0 1\nGz 0 n2 n1 0 0\n"))
+    run = sensitivities(path, "out", knobs=["gz", "c2"], simulator=simulator)
+    by = {s.knob.name: s for s in run.sensitivities}
+    assert by["gz"].value == 0.0 and by["gz"].problem == "its value is 0: a relative change is no change"
+    assert by["gz"].pm.per_decade is None and by["c2"].pm.per_decade is not None
+
+
+@pytest.mark.ngspice
+def test_a_what_if_on_a_figure_the_loop_does_not_have_says_so(tmp_path, simulator):
+    """With G1 a hundred-thousandth of its value the loop's gain stays below 1 (A = gm1 R1 gm2 R2, circuit theory): it has no
+    phase margin, and a what-if on pm solves nothing and says the measured loop has none to move."""
+    assert GM1 * 1e-5 * R1 * GM2 * R2 < 1.0
+    path = tmp_path / "two_pole_quiet.cir"
+    path.write_text(TWO_POLE.replace(f"G1 0 n1 in out {GM1!r}", f"G1 0 n1 in out {GM1 * 1e-5!r}"))
+    run = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=60"], solve=["c2"], simulator=simulator)
+    (w,) = run.what_ifs
+    assert w.solved_value is None and w.check is None
+    assert w.answer == "the measured loop has no worst phase margin to move", w.answer

@@ -48,6 +48,17 @@ def test_a_knob_without_slopes_gets_no_what_if_and_says_why(c2, value, problem, 
     assert w.answer == f"no what-if for c2: {why}"
     assert (w.value, w.solved_value, w.factor, w.check, w.edited, w.tried) == (value, None, None, None, None, ())
     assert w.span == (0.1, 10.0) and not w.confirmed
+    assert w.monotonic is True  # nothing was tried, so nothing moved the wrong way
+
+
+@pytest.mark.parametrize(("text", "figure"), [("pm>=60", "pm"), ("gm>=10", "gm"), ("fc>=1MHz", "fc"), ("peak<=3", "peak"),
+                                              ("dc>=40", "pm"), ("mm>=0.5", "pm"), ("dm>=1ns", "pm"), ("lgm>=6", "pm")])
+def test_knobs_are_ranked_for_a_requirement_by_its_own_figure_or_else_the_phase_margin(text, figure):
+    """A requirement on the phase or gain margin, the crossover or the peaking ranks the knobs by that figure's slope; the
+    others (DC gain, modulus, delay and lower gain margin), which have no slope of their own, by the phase margin's."""
+    from netloop.jobs.sensitivity.whatif import figure_of
+
+    assert figure_of(_requirement(text)) == figure
 
 
 def test_an_unread_value_is_null_in_the_document_and_not_called_infinite(c2):
@@ -105,6 +116,8 @@ class _Tried:
     ("pm>=89", [(0.1, 84.25), (1.0, 60.0)], "the best is 84.25 deg at 0.1x"),
     ("fc>=1e6", [(1.0, 5e5), (10.0, 7.5e5)], "the best is 7.5e+05 Hz at 10x"),
     ("peak<=1", [(0.1, 6.0), (1.0, 3.0)], "the best is 3 dB at 1x"),
+    ("pm>89", [(0.1, 84.25), (1.0, 60.0)], "the best is 84.25 deg at 0.1x"),  # strict: the largest too
+    ("peak<1", [(0.1, 6.0), (1.0, 3.0)], "the best is 3 dB at 1x"),
     ("mm>=0.9", [(1.0, 0.5)], "the best is 0.5 at 1x"),
 ])
 def test_an_unreachable_requirement_names_the_best_figure_in_its_unit(c2, text, tried, best):
