@@ -52,8 +52,10 @@ def test_the_corners_that_fell_beyond_the_limit_and_no_others_are_regressions(ru
     assert all(abs(d - limit_deg) > 0.3 for d in drops.values())  # the test is decided far from the limit
     expected = _expected(limit_deg)
     assert len(expected) == {2.0: 1, 1.0: 3}[limit_deg]
-    cmp = compare_runs(a, b, parse_limits([f"pm={limit_deg}deg"]), baseline_path="a.jsonl")
+    limits = parse_limits([f"pm={limit_deg}deg"])
+    cmp = compare_runs(a, b, limits, baseline_path="a.jsonl")
     assert {r.corner for r in cmp.regressions} == expected
+    assert cmp.limits == tuple(limits) and {c.at for c in cmp.changes} == {"fb"}  # each change names its break node
     assert cmp.verdict == "fail" and all(r.metric == "pm" for r in cmp.regressions)
     for c in cmp.changes:
         pm = c.figure("pm")

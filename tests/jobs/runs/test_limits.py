@@ -18,6 +18,7 @@ def test_limits_read_amounts_in_the_figures_units_or_percent():
     assert parse_limit("fc=10%").percent and parse_limit("fc=10%").amount == 10.0
     assert parse_limit("fc=1MHz").amount == 1e6
     assert parse_limit("PEAK=0.5").metric == "peak"
+    assert parse_limit("fc=10%").allowed(-50.0) == 5.0 and parse_limit("pm=2deg").allowed(60.0) == 2.0  # a share of |baseline|
 
 
 @pytest.mark.parametrize("text", ["pm>2", "pm=", "xx=2", "pm=2V", "pm=-1", "fc=ten%", "pm=nan"])
@@ -64,6 +65,8 @@ def test_exceeded(text, before, now, exceeded):
     ("pm=2V", "the amount of phase margin: '2V': 'V' is not a multiplier or unit for an angle"),
     ("gm=2deg", "the amount of gain margin: '2deg'"),
     ("fc=ten%", "'ten%' is not a percentage"),
+    ("pm=-1", "the amount must be a finite number, 0 or more"),
+    ("fc=inf%", "the amount must be a finite number, 0 or more"),
 ])
 def test_a_bad_amount_says_what_is_wrong_with_it(text, says):
     """An amount in the wrong unit names the figure and the unit problem; a percentage that is no number says so

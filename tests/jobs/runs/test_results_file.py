@@ -41,6 +41,8 @@ def test_one_corner_at_two_break_nodes_is_two_records(tmp_path):
 @pytest.mark.parametrize(("lines", "where", "what"), [
     (["not json"], ":1:", "not a results file"),
     ([json.dumps({"record": "corner"})], ":1:", "not a results file"),
+    ([json.dumps({**HEADER, "schema": "netloop.yield/1"})], ":1:", "not a results file"),  # a run header of another schema
+    ([json.dumps({**HEADER, "record": "corner"})], ":1:", "not a results file"),  # the schema, but no run header
     ([json.dumps(HEADER), "garbage", json.dumps(_corner("a", 1.0))], ":2:", "not a JSON line"),
     ([json.dumps(HEADER), json.dumps({"record": "corner", "corner": "a"})], ":2:", "a corner record without at"),
     ([json.dumps(HEADER), "[1, 2]", json.dumps(_corner("a", 1.0))], ":2:", "not a JSON object"),
