@@ -147,6 +147,7 @@ def test_resume_measures_again_the_corners_whose_input_files_changed(tmp_path):
         ("Vs a 0 ac 1", "Vs a 0 dc 2.5 ac 1"),
         ("Vs a 0 DC {vdd}", "Vs a 0 DC 2.5"),
         ("Vs a 0 dc", "Vs a 0 dc 2.5"),  # the DC word with no value after it: the value goes after it
+        ("Vs a 0", "Vs a 0 dc 2.5"),  # no value (the manual: it may be omitted when zero): the DC word and the value after the nodes
         ("Vs a 0 pulse(0 1 1n 1n 1n 5n 10n)", "Vs a 0 dc 2.5 pulse(0 1 1n 1n 1n 5n 10n)"),
     ],
 )
