@@ -37,6 +37,23 @@ def add_parser(parser: argparse.ArgumentParser) -> None:
                              "(repeat for several; replaces the plan's [regression] limit on that figure)")
 
 
+def say_rerun(run, noun: str) -> None:
+    """On stderr: how many of the run's corners (or samples: ``noun``) were measured again because their input files changed
+    since the results file recorded them, and which files (netloop.jobs.corners.runner.CornerRun.rerun)."""
+    if run.rerun:
+        changed = sorted({f for files in run.rerun.values() for f in files})
+        print(f"netloop: {len(run.rerun)} {noun}(s) measured again because their input files changed since they were recorded: "
+              + ", ".join(changed[:5]) + (f" and {len(changed) - 5} more" if len(changed) > 5 else ""), file=sys.stderr)
+
+
+def say_stale(run, noun: str, left_out: str = "left out") -> None:
+    """On stderr, whatever stdout holds (the documents of --json do not count them): how many records of the results file
+    belong to no corner (or sample) of the plan and were ``left_out``."""
+    if run.stale:
+        print(f"netloop: {run.stale} record(s) in the results file belong to no {noun} of this plan (the plan changed since they "
+              f"were written) and were {left_out}", file=sys.stderr)
+
+
 def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
@@ -63,10 +80,7 @@ def run(args: argparse.Namespace) -> int:
         comparison = compare_runs(baseline.records, result.records, limits, baseline_path=baseline.path)
     verdict = combined_verdict([result.verdict, *([comparison.verdict] if comparison else [])])
     units = dict(plan.units)
-    if result.rerun:  # said first: the table below holds the new measurements of these corners
-        changed = sorted({f for files in result.rerun.values() for f in files})
-        print(f"netloop: {len(result.rerun)} corner(s) measured again because their input files changed since they were recorded: "
-              + ", ".join(changed[:5]) + (f" and {len(changed) - 5} more" if len(changed) > 5 else ""), file=sys.stderr)
+    say_rerun(result, "corner")  # said first: the table below holds the new measurements of these corners
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         doc = corner_records.run_document(result)
         if comparison is not None:
@@ -95,9 +109,7 @@ def run(args: argparse.Namespace) -> int:
             _print_comparison(comparison)
         note = f"; {result.skipped} found done in the results file" if result.skipped else ""
         print(f"results: {result.results_path} ({result.ran} run now{note})")
-    if result.stale:  # on stderr whatever stdout holds: with --json too, where the document does not count them
-        print(f"netloop: {result.stale} record(s) in the results file belong to no corner of this plan "
-              "(the plan changed since they were written) and were left out", file=sys.stderr)
+    say_stale(result, "corner")
     sys.stdout.flush()
     if args.csv:
         corner_records.write_corner_csv(result.records, args.csv)

@@ -7,6 +7,7 @@ import json
 import sys
 
 from netloop.cli.check_cmd import process_count
+from netloop.cli.corners_cmd import say_rerun, say_stale
 
 __all__ = ["add_parser", "run"]
 
@@ -75,19 +76,14 @@ def run(args: argparse.Namespace) -> int:
     progress = args.progress or sys.stderr.isatty()
     result = statistics.run_samples(splan, workers=args.workers, cluster=args.cluster, out=args.out, resume=args.resume, force=args.force,
                                     progress=progress, target=args.target, confidence=args.confidence)
-    if result.run.rerun:
-        changed = sorted({f for files in result.run.rerun.values() for f in files})
-        print(f"netloop: {len(result.run.rerun)} sample(s) measured again because their input files changed since they were recorded: "
-              + ", ".join(changed[:5]) + (f" and {len(changed) - 5} more" if len(changed) > 5 else ""), file=sys.stderr)
+    say_rerun(result.run, "sample")
     from netloop.report import yield_document, yield_text
 
     if args.json:  # the results first: a file that cannot be written afterwards loses nothing
         print(json.dumps(yield_document.yield_document(result), indent=2, allow_nan=False))
     else:
         print(yield_text.yield_summary(result))
-    if result.run.stale:  # on stderr whatever stdout holds: the statistics count only this plan's samples
-        print(f"netloop: {result.run.stale} record(s) in the results file belong to no sample of this plan (the plan changed since "
-              "they were written) and were left out of the statistics", file=sys.stderr)
+    say_stale(result.run, "sample", "left out of the statistics")
     sys.stdout.flush()
     if args.csv:
         yield_document.write_sample_csv(result, args.csv)

@@ -295,14 +295,15 @@ def test_a_reader_that_goes_away_early_ends_the_run_quietly(tmp_path):
     import subprocess  # noqa: PLC0415
     import sys  # noqa: PLC0415
 
+    from test_entry import ENTRY  # noqa: PLC0415 - the console command
+
     from netloop.sim.spawn import this_netloop  # noqa: PLC0415
 
-    entry = "import sys; from netloop.cli.main import entry; sys.argv[0] = 'netloop'; entry()"  # the console command
     # forty separate two-stage loops (invented): a document of about 160 kB, more than a pipe holds unread (64 kB on Linux)
     big = "forty loops (invented)\n" + "".join(f"e{i}a a{i} 0 b{i} 0 -1\ne{i}b b{i} 0 a{i} 0 1\nr{i}a a{i} 0 1k\nr{i}b b{i} 0 1k\n"
                                                 for i in range(40)) + ".end\n"
     (tmp_path / "loops.cir").write_text(big)
-    netloop = subprocess.Popen([sys.executable, "-c", entry, "loops", str(tmp_path / "loops.cir"), "--json"], stdout=subprocess.PIPE,
+    netloop = subprocess.Popen([sys.executable, "-c", ENTRY, "loops", str(tmp_path / "loops.cir"), "--json"], stdout=subprocess.PIPE,
                                stderr=subprocess.PIPE, env=this_netloop(os.environ))
     netloop.stdout.readline()
     netloop.stdout.close()  # the reader goes away with most of the document unread

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from netloop.cli.check_cmd import sweep_from
-from netloop.cli.main import main
+from netloop.cli.main import build_parser, main
 from netloop.cli.words import command_words
 
 
@@ -82,8 +82,6 @@ def test_a_node_between_two_passive_branches_is_refused_without_contradiction(ca
 def test_the_sweep_limits_given_are_kept_and_a_lone_limit_beyond_the_default_range_gets_three_decades(fmin, fmax, expected):
     """--fmin and --fmax become the sweep's limits, marked as given so that netloop never widens past them; one given alone
     beyond the other's default (10 mHz to 10 GHz) gets the other three decades away."""
-    from netloop.cli.main import build_parser
-
     argv = ["check", "x.cir", "--at", "out", *(["--fmin", fmin] if fmin else []), *(["--fmax", fmax] if fmax else [])]
     sweep = sweep_from(build_parser(load="check").parse_args(argv))
     assert (sweep.fmin_hz, sweep.fmax_hz, sweep.fmin_given, sweep.fmax_given) == pytest.approx(expected)
@@ -92,7 +90,5 @@ def test_the_sweep_limits_given_are_kept_and_a_lone_limit_beyond_the_default_ran
 
 def test_compare_takes_either_method_or_both():
     """compare --method takes tian, middlebrook or both."""
-    from netloop.cli.main import build_parser
-
     for method in ("tian", "middlebrook", "both"):
         assert build_parser(load="compare").parse_args(["compare", "x.cir", "--at", "a", "--at", "b", "--method", method]).method == method
