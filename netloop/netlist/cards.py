@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Collection
 
 from netloop.errors import NetlistSyntaxError
@@ -80,6 +81,23 @@ def _fail(what: str, text: str, loc: SourceLocation, col: int | None = None) -> 
     if col is None:
         col = len(text.rstrip()) + 2
     return NetlistSyntaxError(what, SourceLocation(loc.file, loc.line, col), text)
+
+
+def _column(text: str, rest: tuple[str, ...], i: int) -> int:
+    """The 1-based column in ``text`` (a card: its name, then ``rest``) where ``rest[i]`` starts, for an error's caret. Each
+    token is looked for as a whole word after the one before it, so that the column stays right where the tokenizer's
+    tokens are not the text's pieces: an XSPICE card's brackets ("[a b]" is four tokens), a "w = 2" read as one. A
+    token the tokenizer rewrote is passed over; the one sought, if not found as written, starts at the next piece."""
+    at = len(text.split(None, 1)[0]) if text.strip() else 0  # past the element's name
+    at += len(text) - len(text.lstrip())
+    for k, tok in enumerate(rest[:i + 1]):
+        found = re.compile(rf"(?<![^\s\[\]]){re.escape(tok)}(?![^\s\[\]])").search(text, at)
+        if found:
+            if k == i:
+                return found.start() + 1
+            at = found.end()
+    columns = [c for c in token_columns(text) if c > at]
+    return columns[0] if columns else len(text.rstrip()) + 2
 
 
 def _poly_order(tok: str) -> int | None:
@@ -201,15 +219,14 @@ def parse_card(text: str, loc: SourceLocation, models: Collection[str] = (), vdm
         model = rest[-1].lower()
         slots = tuple(_xspice_slots(rest))
         pins = tuple(f"a{i + 1}" for i in range(len(slots)))
+    given = tuple(rest)  # as written: the loop below lower-cases the nodes in place
     for i in slots:
         t = rest[i]
         if "=" in t or t[0] in "{'":
-            cols = token_columns(text)
-            raise _fail(f"{name}: expected a node name, got {t!r}", text, loc, cols[min(i + 1, len(cols) - 1)])
+            raise _fail(f"{name}: expected a node name, got {t!r}", text, loc, _column(text, given, i))
         if not t.isascii():
-            cols = token_columns(text)
             raise _fail(f"{name}: node {t!r} has characters outside ASCII, which ngspice cannot name in its output; rename "
-                        "it with ASCII letters, digits and _", text, loc, cols[min(i + 1, len(cols) - 1)])
+                        "it with ASCII letters, digits and _", text, loc, _column(text, given, i))
         low = t.lower()
         if low != t:
             rest[i] = low

@@ -129,6 +129,25 @@ def test_a_pin_outside_ascii_is_refused_at_its_column():
     assert (line, caret) == ("    .subckt amp in ôut", "    " + " " * 15 + "^")
 
 
+@pytest.mark.parametrize(("card", "column"), [
+    ("A1 [a b] ôut amod", 10),  # an XSPICE card's brackets: "[a b]" is four tokens, two pieces of text
+    ("A2 [a {x}] out amod", 7),
+    ("X1 a w = 2 ôut amp", 12),  # a spaced key = value between the nodes, read as one token
+    ("R1  ôut\tôut 1k", 5),  # the first of two equal pieces
+    ("E1 a ôut2 {x} 0 1", 6),
+    ("V1 ôut 0 dc 1", 4),
+])
+def test_a_bad_node_is_refused_at_its_own_column(card, column):
+    """The caret of a node refused (outside ASCII, or an expression where a node stands) points at that node, also where
+    the tokens the card is split into are not its pieces of text: it pointed at the model name of an XSPICE card with a
+    bracketed input, and at the wrong piece after a spaced key = value."""
+    with pytest.raises(NetlistSyntaxError) as info:
+        parse_text(f"title\nR0 x 0 1\n{card}\n", source="amp.cir")
+    head, line, caret = str(info.value).splitlines()
+    assert head.startswith(f"amp.cir:3:{column}: {card.split()[0]}: ")
+    assert (line, caret) == ("    " + card, "    " + " " * (column - 1) + "^")
+
+
 def test_a_four_token_mosfet_of_a_later_model_is_refused_at_its_line():
     """`M1 d g s nch` with `.model nch nmos` after it is found short of its bulk node only once the model is known; it is
     still refused at its own line with the caret past its end (ngspice manual, MOSFETs: Mxxx nd ng ns nb mname)."""
