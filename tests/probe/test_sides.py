@@ -316,6 +316,19 @@ def test_a_bias_node_inside_an_instance_names_its_one_ports_by_their_full_names(
             "xb.m0: several terminals on the node, a diode connection), and nothing from elsewhere drives it") in str(info.value)
 
 
+
+def test_a_bias_node_feeding_a_blocks_first_pin_is_on_no_loop():
+    """A bias node whose only input is a block's first pin (its slot 0, where a transistor has its output) is refused as
+    on no loop, as when the inputs are gates: a block's pin is an input when nothing inside drives it."""
+    # Invented: the diode M0 and the current source Ib make nb; the block's first pin takes it to the gate of M1 inside.
+    text = ("bias into a block (invented)\n.model nch nmos level=1\n.subckt stage bias vdd out\nM1 out bias 0 0 nch\n"
+            "R1 vdd out 50k\n.ends\nVdd vdd 0 3.3\nIb vdd nb dc 20u\nM0 nb nb 0 0 nch\nX1 nb vdd o1 stage\n")
+    with pytest.raises(ProbeError) as info:
+        break_loop(parse_text(text), "nb")
+    assert str(info.value).endswith("node nb is not on any loop: besides inputs (x1.bias) only one-ports to AC ground sit on it "
+                                    "(ib, m0; m0: several terminals on the node, a diode connection), and nothing from elsewhere "
+                                    "drives it")
+
 LOOPED = HIER.replace("Vin in 0", "Rsrc src in 10k\nVin src 0") + "Rback out in 1meg\n"
 
 

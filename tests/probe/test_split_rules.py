@@ -347,3 +347,27 @@ def test_a_capacitor_to_the_source_of_an_output_cascode_stays_with_the_cascode(s
     assert set(p.driver_terminals) == ({"vsense.n", "cc.p"} if sensed else {"m6.d", "mc7.d", "cc.p"})
     assert p.load_terminals == ("rf.p",)
     assert "with cc (closes a local loop around the driver stage mc7 (back to s7): kept with it)" in p.decided_by
+
+
+def test_a_common_gate_wrapper_goes_with_the_driver_whether_or_not_its_library_is_included(circuits):
+    """circuits/sky130/ldo.cir at node gate: xm2's drain sits there with its gate at the DC reference (AC ground), a
+    common-gate device beside the output xm4, and goes with it to the driver side, the same split when the .lib line is
+    taken out (the wrapper then read as d, g, s, b by its name, and its role from the gate at AC ground alone)."""
+    ldo = circuits / "sky130" / "ldo.cir"
+    without = "\n".join(line for line in ldo.read_text().splitlines() if not line.lower().startswith(".lib"))
+    for parsed in (parse_file(ldo), parse_text(without, source="ldo_without_lib.cir")):
+        p = break_loop(parsed, "gate")
+        assert (p.driver_terminals, p.load_terminals) == (("xm4.d", "xm2.d"), ("xmp.g",))
+        assert ("with xm2 (a common-gate device (gate at AC ground) beside the node's other outputs: a cascode or a switch, "
+                "put with them)") in p.decided_by
+
+
+def test_a_bridge_placed_on_request_is_named_on_its_side(circuits):
+    """placement= moving a bridge the rules put with the driver (xm2 of circuits/sky130/ldo.cir at gate) puts it on the load
+    side and the sentence says why; asked for the side the rules chose, the sentence says so too."""
+    parsed = parse_file(circuits / "sky130" / "ldo.cir")
+    moved = break_loop(parsed, "gate", placement={"xm2": "load"})
+    assert (moved.driver_terminals, moved.load_terminals) == (("xm4.d",), ("xm2.d", "xmp.g"))
+    assert moved.decided_by.endswith("; load side: xm2.d, xmp.g; xm2 on the load side (placed there on request).")
+    kept = break_loop(parsed, "gate", placement={"xm2": "driver"})
+    assert kept.driver_terminals == ("xm4.d", "xm2.d") and "with xm2 (placed there on request)" in kept.decided_by
