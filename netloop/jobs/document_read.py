@@ -42,7 +42,6 @@ class _Reader:
     """Values of one document by dotted path, with the ``infinite`` map applied."""
 
     def __init__(self, doc: dict):
-        self.doc = doc
         self.infinite = doc.get("infinite") or {}
 
     def get(self, path: str, value: object) -> object:

@@ -105,6 +105,9 @@ def test_loops_split_checks_zero_keeps_the_structural_view(tmp_path, capsys):
     assert main(["loops", str(path), "--split-checks", "0", "--candidates", "3"]) == 0
     out = capsys.readouterr().out
     assert "driver side" not in out and "loop structure only" in out and "no coarse sweep" in out
+    # c is on both loops (NESTED's a->b->c->a and b->c->b), so the structure alone says it is on every loop of the group
+    assert ("  loop 1 (c): 2 loops, 3 nodes; break at c: on every loop of the group (loop structure only: the probe's split "
+            "there was not worked out), driven by g2 alone") in out.splitlines()
     assert main(["loops", str(path), "--split-checks", "-1"]) == 2
     assert "--split-checks must be at least 0" in capsys.readouterr().err
 

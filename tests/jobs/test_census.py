@@ -203,3 +203,22 @@ def test_a_crossing_between_the_first_two_samples_is_found():
     f = np.array([f0, 10 * f0, 100 * f0])
     c = coarse_figures("x", f, 2.0 / (1 + 1j * f / f0))
     assert c.unity_hz == pytest.approx(np.sqrt(3) * f0, rel=0.15)
+
+
+def test_a_candidate_the_probe_refuses_in_the_coarse_sweep_is_never_chosen(monkeypatch):
+    """A candidate whose break the probe refuses when the coarse sweep places it is recorded as refused, with the probe's
+    words, and passed over: the census never hands the measurement a node the probe cannot break."""
+    import netloop.jobs.census as census
+    from netloop.errors import ProbeError
+
+    group = _group()
+    first = group.candidates[0].node
+
+    def refusing(netlist, node, **kwargs):
+        raise ProbeError(f"node {node}: refused here")
+
+    monkeypatch.setattr(census, "break_loop", refusing)
+    coarse = census.coarse_group(parse_text(RING), group, None, breaks=1)  # nothing placed: no simulator is asked
+    assert coarse == (CoarseBreak(first, error=f"node {first}: refused here", refused=True),)
+    gc = choose(group, coarse)
+    assert gc.chosen is not None and gc.chosen != group.candidates[0].break_name  # the next, not swept, is taken instead

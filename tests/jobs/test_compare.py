@@ -156,6 +156,7 @@ def test_miller_locations_differ_by_named_loops_and_share_the_poles(tmp_path):
     """On the Miller buffer, o1 broken with Rz on its driver side opens the Cc/Rz local loop that out leaves closed, out opens the global loops that pass d1 inside the first stage; the differences name them, and every location finds ngspice's .pz dominant pole."""
     c = compare(MILLER, ["out", "o1", "d1"], drivers={"o1": "m2.d,m4.d,rz.p"})
     by_pair = {d.locations: d for d in c.differences}
+    assert set(by_pair) == {("out", "o1"), ("out", "d1"), ("o1", "d1")} and {d.method for d in c.differences} == {"tian"}
     d = by_pair[("out", "o1")]
     assert d.kind == "different loops opened"
     assert any(lp.endswith("out -cc-> cz -rz-> o1 -m6(g>d)-> out") for lp in d.loops)
@@ -408,3 +409,29 @@ def test_a_step_entering_through_a_current_sense_is_placed_by_its_other_element(
     # loads the loop and T is its voltage gain around, the same at both (circuit theory, from memory; 1 + T_n = D/D_n)
     assert d.kind == "same" and d.max_relative_difference < 1e-9
     assert d.explanation.startswith("both open the same loops of loop 1 (out) (1.1); T agrees")
+
+
+def test_a_looked_through_node_is_explained_loop_by_loop_in_the_singular_and_plural():
+    """On the Miller buffer (circuits/miller_buffer.cir, read by hand: loops 1.1 out -> o1 -> out through the pair and its
+    mirror, 1.2 the Cc/Rz loop, 1.3 through the pair and Cc), o1 broken with Rz on its driver side opens 1.1 and 1.2; d1,
+    the mirror's input, is looked through: 1.1 passes it inside the first stage, 1.2 bypasses it. Each is named in its own
+    words, singular; a location on no loop is named with the pair it belongs to."""
+    from netloop.graph import find_loops, flatten
+    from netloop.jobs.compare_explain import Place, explain, place
+    from netloop.netlist import parse_file
+    from netloop.probe import break_loop
+
+    parsed = parse_file(MILLER)
+    original = flatten(parsed)
+    found = find_loops(original)
+    o1 = place(break_loop(parsed, "o1", driver="m2.d,m4.d,rz.p"), found, original)
+    d1 = place(break_loop(parsed, "d1"), found, original)
+    assert (o1.opened, d1.opened, d1.inside) == ((1, 2), (), (1, 3))
+    d = explain(d1, o1, "tian", 0.5)
+    assert (d.locations, d.method, d.kind) == (("d1", "o1"), "tian", "different loops opened")
+    assert ("the breaks open different loops: o1 opens loop 1.1, which passes d1 inside a stage (d1 is looked through, a current "
+            "mirror's input or a pair's tail: a break there opens only the routes through it); o1 opens loop 1.2 which bypasses "
+            "d1; a loop left closed is part of T") in d.explanation
+    alone = explain(Place("bias", None, (), ()), o1, "middlebrook", 0.5)
+    assert (alone.locations, alone.method, alone.kind) == (("bias", "o1"), "middlebrook", "not on a listed loop")
+    assert alone.explanation.startswith("bias is on no loop the loop discovery lists, nor in a passive network such a loop crosses")

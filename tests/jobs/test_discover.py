@@ -323,3 +323,70 @@ def test_a_loop_left_closed_whose_poles_disagree_with_nyquist_fails_the_opened_c
     assert (check.name, check.passed) == ("opened-circuit", False)
     assert check.detail == (f"breaking {cand.node} leaves 1 loop(s) of {group.label} closed, and the closed-loop poles fitted from "
                             "1/(1+T) disagree with the Nyquist count made with P = 0")
+    assert check.advice == ("break where no loop stays closed (netloop loops NETLIST), or give the opened circuit's RHP poles with "
+                            "--open-loop-rhp-poles")
+    # a rational fit of T itself finding right-half-plane poles that P did not count: the other failed form, word for word
+    monkeypatch.setattr(discover, "opened_circuit_rhp_poles", lambda result: 2)
+    checked = discover._with_closed_notes(group, cand, result)
+    (check,) = checked.checks
+    assert (check.name, check.passed) == ("opened-circuit", False)
+    assert check.detail == (f"breaking {cand.node} leaves 1 loop(s) of {group.label} closed, and a rational fit of T finds 2 "
+                            "right-half-plane pole(s) of the opened circuit where the Nyquist count assumed P = 0")
+    assert check.advice == ("rerun with --open-loop-rhp-poles 2 if the opened circuit is unstable by itself, or break where no loop "
+                            "stays closed (netloop loops NETLIST)")
+    assert checked.warnings[1] == ("a rational fit of the measured T has 2 right-half-plane pole(s): the opened circuit looks "
+                                   "unstable by itself; if so, rerun with --open-loop-rhp-poles 2")
+
+
+def _recording(monkeypatch) -> dict:
+    """discover's simulator, coarse sweep and group measurement replaced by recorders: what check_loops and take_census hand
+    each of them, without ngspice."""
+    seen: dict = {"coarse": []}
+    monkeypatch.setattr(discover, "own_simulator", lambda processes, parsed, runs, keep: seen.update(keep=keep) or SimpleNamespace())
+    monkeypatch.setattr(discover, "coarse_group", lambda parsed, group, sim, *, method, breaks, timeout_s:
+                        seen["coarse"].append((breaks, timeout_s, sim)) or ())
+    monkeypatch.setattr(discover, "_measure_group", lambda parsed, gc, options:
+                        seen.update(options=dict(options)) or discover.GroupResult(gc, None, "not measured here"))
+    return seen
+
+
+def test_check_loops_hands_keep_decks_to_its_simulator_and_its_timeout_to_the_census(monkeypatch):
+    """check_loops' own simulator keeps the decks where keep_decks says (the census's and every measurement's: one
+    simulator serves them all), and the census's coarse sweep gets the timeout the measurements get."""
+    seen = _recording(monkeypatch)
+    check_loops(parse_text(_RING), keep_decks="kept", timeout_s=7.0)
+    assert seen["keep"] == "kept" and "keep_decks" not in seen["options"]
+    assert [(breaks, timeout) for breaks, timeout, _ in seen["coarse"]] == [(discover.COARSE_BREAKS, 7.0)]
+    assert seen["coarse"][0][2] is seen["options"]["simulator"] and seen["options"]["timeout_s"] == 7.0
+
+
+def test_the_census_sweeps_fewer_candidates_on_a_netlist_that_splits_its_runs(monkeypatch):
+    """On a netlist of SPLIT_MIN_ELEMENTS elements or more (each AC run then redoes its operating point) the coarse sweep
+    takes LARGE_COARSE_BREAKS candidates a group unless the caller gave a number; below it, COARSE_BREAKS."""
+    from netloop.jobs.discover import take_census
+
+    seen = _recording(monkeypatch)
+    elements = len(flatten(parse_text(_RING)))
+    take_census(parse_text(_RING), simulator=SimpleNamespace(), timeout_s=3.0)
+    monkeypatch.setattr(discover, "SPLIT_MIN_ELEMENTS", elements)
+    take_census(parse_text(_RING), simulator=SimpleNamespace())
+    take_census(parse_text(_RING), simulator=SimpleNamespace(), coarse_breaks=2)
+    monkeypatch.setattr(discover, "SPLIT_MIN_ELEMENTS", elements + 1)
+    take_census(parse_text(_RING), simulator=SimpleNamespace(), coarse_breaks=2)
+    assert [(b, t) for b, t, _ in seen["coarse"]] == [(discover.COARSE_BREAKS, 3.0), (discover.LARGE_COARSE_BREAKS, 600.0),
+                                                      (2, 600.0), (2, 600.0)]
+    assert discover.LARGE_COARSE_BREAKS < discover.COARSE_BREAKS
+
+
+def test_the_note_on_loops_left_closed_shortens_a_long_loop_to_its_ends():
+    """A loop left closed is named in the note with at most 16 steps: a ring of 17 stages shows its first and last 8 around
+    '... 1 more steps ...' (a loop through a parasitic RC network may have thousands)."""
+    nodes = [f"n{k}" for k in range(17)]
+    text = "seventeen-stage ring (invented)\n" + "".join(
+        f"G{k} 0 {nodes[(k + 1) % 17]} {nodes[k]} 0 2m\nR{k} {nodes[k]} 0 1k\n" for k in range(17)) + ".end\n"
+    (group,) = find_loops(flatten(parse_text(text)), length_bound=20).groups  # the default bound, 16 vertices, would miss it
+    (loop,) = group.loops
+    note = discover._closed_note(group, "n0", (1,))
+    assert len(loop.steps) == 17 and " ... 1 more steps ... " in note
+    shown = note.split("(loop 1.1: ", 1)[1].split("); the opened circuit", 1)[0]
+    assert shown.count("-g") == 16 and shown.startswith(loop.steps[0].source + " ")

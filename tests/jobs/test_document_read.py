@@ -132,6 +132,7 @@ def test_a_group_no_break_could_measure_is_an_inconclusive_entry_with_its_reason
                                                                 "measured": False, "reason": reason, "advice": advice}
     assert entry["group"]["index"] == 1 and entry["group"]["chosen"] == gc.chosen
     assert (doc["verdict"], doc["passed"], doc["notes"], doc["netlist"]) == ("inconclusive", False, ["a note"], census.source)
+    assert list(doc) == ["schema", "netlist", "loops", "verdict", "passed", "notes"] and doc["schema"] == "netloop.loops/1"
 
 
 @pytest.mark.parametrize("name", sorted(LOOPS))
