@@ -87,6 +87,19 @@ def test_the_jobs_of_a_moved_split_count_in_the_simulation_time(monkeypatch):
     assert result.sim.seconds == ticking.jobs * _TickingSimulator.TICK_S
     assert result.sim.ngspice_seconds == pytest.approx(sum(ticking.ngspice_seconds), rel=1e-12)
     assert 0 < result.sim.ngspice_seconds
+    # the sentence of the split measured says how it was decided: the rules' words, then netloop's move and why
+    assert result.breaks.decided_by.startswith("driver side: g1.n (outputs: drain, collector, controlled-source or instance output); "
+                                               "with cc (placed there on request); load side: g2.cp; ")
+    assert result.breaks.decided_by.endswith(f"(either side gives the same T); netloop {result.checks[0].detail}.")
+
+
+def test_a_placement_given_is_the_split_measured():
+    """placement= puts the bridge where the caller says and measures that split as given: cc with the driver at x of
+    MILLER_STAGE, no split check (netloop tries no other placement of a split the caller chose)."""
+    result = measure(MILLER_STAGE, "x", placement={"cc": "driver"})
+    assert (result.breaks.driver_terminals, result.breaks.load_terminals) == (("g1.n", "cc.p"), ("g2.cp",))
+    assert "with cc (placed there on request)" in result.breaks.decided_by and "netloop" not in result.breaks.decided_by
+    assert [c.name for c in result.checks] == []
 
 
 # The same loop with a negative resistor at p1 (invented): 1/1k - 1/500 makes the first stage 1/(s tau1 - 1), a pole of the

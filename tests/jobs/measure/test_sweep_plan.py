@@ -54,6 +54,20 @@ def test_a_crossover_hidden_below_the_first_sweep_is_found_by_widening_down_to_t
     assert a.margins.phase_margin_deg == pytest.approx(180.0 - 90.0 * ALPHA, abs=1e-9)
 
 
+def test_the_sweep_is_widened_by_two_decades_a_step_and_only_where_a_crossing_may_hide():
+    """Bode's ideal loop (as above) crossing 0 dB at 1e7 Hz, swept from 1 kHz to 1 MHz with neither limit given: |T| is
+    above 0.1 at the top, so the top moves up two decades a step until it is not: 1e8 Hz (|T| = 10**-0.3 = 0.50), 1e10
+    (0.13), 1e12 (0.063); at the bottom |T| is about 16, above 1 and rising toward DC, so no crossing hides below and the bottom stays. With the
+    crossover at 3.86 kHz, |T| = 1.5 at the bottom: still above 1, still not widened."""
+    a, _, _, _ = _sample(lambda f: (1j * f / 1e7) ** -ALPHA, Sweep(fmin_hz=1e3, fmax_hz=1e6))
+    assert a.freq_hz[0] == 1e3 and a.freq_hz[-1] == pytest.approx(1e12, rel=1e-12) and abs(a.t[-1]) < 0.1
+    assert a.margins.unity_gain_hz == pytest.approx(1e7, rel=1e-9)
+    fc = 1e3 * 1.5 ** (1 / ALPHA)
+    a, _, _, _ = _sample(lambda f: (1j * f / fc) ** -ALPHA, Sweep(fmin_hz=1e3, fmax_hz=1e6, fmax_given=True))
+    assert abs(a.t[0]) == pytest.approx(1.5, rel=1e-12) and a.freq_hz[0] == 1e3
+    assert a.margins.unity_gain_hz == pytest.approx(fc, rel=1e-9)
+
+
 def test_widening_limits_must_bound_the_widening():
     """A floor at or below 0 Hz, or an infinite ceiling, is refused: the widening would never end."""
     # Reference: common practice (a loop that multiplies a limit by 100 each round ends only on a finite bound above 0)
@@ -131,3 +145,25 @@ def test_a_driver_naming_only_inputs_stands_only_with_negative_feedback_that_reg
     a = analyse(f, _two_pole(gain)(f))
     assert all(c.passed for c in a.checks)
     assert inputs_only_doubt(a, ()) == why
+
+
+def test_a_simulator_whose_results_name_no_backend_is_named_by_its_own():
+    """SimInfo.backend is what the results name, else the simulator's own backend attribute, else its class name: a
+    simulator written outside netloop (the Simulator protocol asks only for run) is still named in the record."""
+    from dataclasses import replace
+
+    class Quiet:  # answers as the analytic simulator does, without naming a backend in its results
+        def __init__(self, named: bool):
+            self.inner = AnalyticSimulator({"v(x)": lambda f, ac: _two_pole(A0)(np.asarray(f)) * ac.get("v1", 0.0)})
+            if named:
+                self.backend = "bench-rig"
+
+        def run(self, job):
+            return replace(self.inner.run(job), backend="")
+
+    def job_for(sweeps):
+        return SimJob(netlist="* analytic\n", runs=(AcRun("run", {"v1": 1.0}, sweeps),), save=("v(x)",), excitable=("v1",))
+
+    for named, expected in ((True, "bench-rig"), (False, "Quiet")):
+        _, info, _ = sample_loops(job_for, lambda r: {"loop": r.runs[0].vectors["v(x)"]}, Quiet(named), Sweep(), {"loop": 0})
+        assert info.backend == expected
