@@ -155,3 +155,17 @@ def test_a_two_terminal_element_loads_a_node_by_whichever_terminal_it_has_there(
     (group,) = _groups(text)
     assert {c.node: (c.drivers, c.loads) for c in group.candidates} == {
         "a": (("ef",), ("g1.cp",)), "x": (("g1",), ("g2.cp", "cc.p")), "y": (("g2",), ("cc.n", "ef.cp"))}
+
+
+def test_a_vertex_kept_does_not_stop_the_next_from_being_looked_through():
+    """look_through keeps a vertex whose predecessors and successors share one (looking through k would close a -> k -> a
+    on itself) and goes on to the next: m, between a and b only, is looked through and a -> b takes its place."""
+    # Reference: by construction, the rule of netloop.graph.collapse.look_through's docstring applied vertex by vertex.
+    from netloop.graph.collapse import Passage, look_through
+
+    pairs = [("a", "k"), ("k", "a"), ("a", "m"), ("m", "b"), ("b", "a")]
+    edges = {(s, t): Passage.hop(f"e{s}{t}", "p", "n", s, t) for s, t in pairs}
+    gone = look_through(edges, ["k", "m", "a", "b"], {"k": True, "m": True})
+    assert gone == ["m"]
+    assert sorted(edges) == [("a", "b"), ("a", "k"), ("b", "a"), ("k", "a")]
+    assert list(edges[("a", "b")].elements) == ["eam", "emb"]

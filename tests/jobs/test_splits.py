@@ -68,3 +68,19 @@ def test_discovery_breaks_the_bandgap_loop_under_its_drivers_name_and_says_so_on
     status = [r.getMessage() for r in caplog.records if r.getMessage().startswith("working out")]
     assert status == [f"working out the probe's split at the best {min(DEFAULT_SPLIT_CHECKS, len(g.candidates))} break nodes of loop {g.index} "
                       f"({s})" for g, s in ((bandgap, "xreg.pbias"), (regulation, "fb"))]
+
+
+def test_both_ends_of_a_zero_volt_sense_source_open_the_loop_through_it():
+    """A three-stage ring whose second stage reaches its load through a 0 V current sense (Vsense c cs 0): c and cs are one
+    loop node for AC, and a break at either end opens the loop, the sense source's far terminal standing for what sits
+    beyond it (circuit theory: a 0 V source has no AC impedance)."""
+    from netloop.jobs.discover import take_census
+    from netloop.netlist import parse_text
+
+    ring = ("three-stage ring with a 0 V current sense (invented)\nG1 0 b a 0 2m\nRb b 0 1k\nCb b 0 1n\nG2 0 c b 0 2m\n"
+            "Vsense c cs 0\nRc cs 0 1k\nCc cs 0 1n\nG3 a 0 cs 0 2m\nRa a 0 1k\nCa a 0 1n\n.end\n")
+    (group,) = take_census(parse_text(ring), sweep=False).groups
+    by = {c.node: c for c in group.group.candidates}
+    assert (by["c"].driver_side, by["c"].opened, by["c"].opens_all) == (("g2.n",), (1,), True)
+    assert (by["cs"].driver_side, by["cs"].opened, by["cs"].opens_all) == (("vsense.n",), (1,), True)
+    assert by["cs"].drivers == ("vsense",)
