@@ -121,10 +121,16 @@ def sweep_from(args: argparse.Namespace):
     return Sweep(**kwargs)
 
 
+def tagged_path(path: str, tag: str) -> str:
+    """FILE.ext -> FILE-tag.ext, and FILE -> FILE-tag: the tag goes before the file name's own extension, never into a
+    folder whose name holds a dot (runs/2026.12/t -> runs/2026.12/t-tag)."""
+    p = Path(path)
+    return str(p.with_name(f"{p.stem}-{tag}{p.suffix}"))
+
+
 def nyquist_path(path: str) -> str:
     """FILE.png -> FILE-nyquist.png."""
-    stem, dot, ext = path.rpartition(".")
-    return f"{stem}-nyquist.{ext}" if dot else f"{path}-nyquist"
+    return tagged_path(path, "nyquist")
 
 
 def refuse_bad_outputs(args: argparse.Namespace, plot: str = "Bode plot") -> None:
@@ -159,9 +165,8 @@ def write_outputs(args: argparse.Namespace, results, names: list[str] | None = N
         if single is not None:
             report.write_csv(single, args.csv)
         else:
-            stem, dot, ext = args.csv.rpartition(".")
             for r, name in zip(results, names or [r.breaks.node for r in results]):
-                report.write_csv(r, f"{stem}-{name}.{ext}" if dot else f"{args.csv}-{name}")
+                report.write_csv(r, tagged_path(args.csv, name))
     if getattr(args, "plot", None):
         report.plot_bode(single if single is not None else results, args.plot)
         report.plot_nyquist(single if single is not None else results, nyquist_path(args.plot))

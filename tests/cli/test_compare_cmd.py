@@ -53,6 +53,10 @@ def test_both_methods_table_and_overlaid_plots(loop, capsys, tmp_path):
     assert [h.strip() for h in head if h.strip()] == ["out (tian)", "out (middlebrook)", "n0 (tian)", "n0 (middlebrook)"]
     for row in ("DC loop gain", "gain crossovers", "phase margin", "gain margin", "modulus margin", "dominant pole", "verdict"):
         assert any(line.startswith(row) for line in out.splitlines())
+    # each figure stands under its column's head (the columns are padded to their widest cell, nothing between them)
+    starts = [lines[2].index(h) for h in ("out (tian)", "out (middlebrook)", "n0 (tian)", "n0 (middlebrook)")]
+    verdict = next(line for line in lines if line.startswith("verdict"))
+    assert all(verdict[at:].startswith("PASS stable") and verdict[at - 1] == " " for at in starts)
     assert "Tian's and Middlebrook's T agree at out" in out
     pole_row = next(line for line in lines if line.startswith("dominant pole"))
     assert "damping" in pole_row and "z=" not in out  # issue 15.14: the word, as check writes it

@@ -57,6 +57,13 @@ def test_revision_b_regresses_at_exactly_the_corner_the_closed_form_says(tmp_pat
     a, b = tmp_path / "a.jsonl", tmp_path / "b.jsonl"
     assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a), "--progress"]) == 0
     assert "] 12/12 corners, 0 failed" in capsys.readouterr().err  # --progress draws the bar off a terminal too
+    # the same results file again: refused without --resume or --force, replaced with --force (nothing of it lost before)
+    before = a.read_text()
+    assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a)]) == 2
+    assert "or --force to replace it" in capsys.readouterr().err and a.read_text() == before
+    assert main(["corners", str(PLANS / "ldo_rev_a.toml"), "--cluster", scheduler, "--out", str(a), "--force"]) == 0
+    capsys.readouterr()
+    assert a.read_text() != before and len([r for r in map(json.loads, a.read_text().splitlines()) if r.get("record") == "corner"]) == 12
     # a record of a corner the plan no longer has, resumed with nothing left to run: said on stderr, the document alone on stdout
     lines = a.read_text().splitlines()
     gone = {**json.loads(lines[-1]), "key": "a corner since removed", "corner": "gone"}
@@ -89,7 +96,9 @@ def test_revision_b_regresses_at_exactly_the_corner_the_closed_form_says(tmp_pat
     assert [c.get("name") for c in suite.findall("testcase") if c.find("failure") is not None] == sorted(expected)
     assert report.stat().st_size > 100_000 and len(list(maps.iterdir())) == 6
     assert main(["trend", str(a), str(b), "--json"]) == 0
-    trend = json.loads(capsys.readouterr().out)
+    printed = capsys.readouterr().out
+    trend = json.loads(printed)
+    assert printed.startswith('{\n  "')  # indented for a reader, as every --json document of netloop
     row = next(c for c in trend["corners"] if c["corner"] == "iload=100m/esr=1")
     assert row["phase_margin_deg"][0] - row["phase_margin_deg"][1] == pytest.approx(drops["iload=100m/esr=1"], abs=0.1)
 

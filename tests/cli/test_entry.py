@@ -40,3 +40,19 @@ def test_command_reports_bad_input_with_status_2(tmp_path):
     done = _command(["check", str(tmp_path / "missing.cir"), "--at", "out"], tmp_path)
     assert done.returncode == 2
     assert done.stderr.startswith("netloop: error: ") and "missing.cir" in done.stderr and done.stdout == ""
+
+
+@pytest.mark.parametrize("raised, said", [(KeyboardInterrupt(), "netloop: interrupted"),
+                                          (KeyboardInterrupt("3 of 8 corners are in r.jsonl"), "netloop: interrupted: 3 of 8 corners are in r.jsonl")])
+def test_an_interrupted_command_says_so_on_stderr_and_exits_130(monkeypatch, capsys, raised, said):
+    """Ctrl-C (or netloop.errors.Interrupted, which says what the run kept) ends any command with status 130 (128 + SIGINT,
+    common practice) and one line on stderr, nothing on stdout."""
+    import netloop.cli.loops_cmd as loops_cmd
+
+    def interrupted(args):
+        raise raised
+
+    monkeypatch.setattr(loops_cmd, "run", interrupted)
+    assert main(["loops", "any.cir"]) == 130
+    out, err = capsys.readouterr()
+    assert (out, err) == ("", said + "\n")

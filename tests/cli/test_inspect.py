@@ -109,3 +109,16 @@ def test_undefined_subcircuit_warned_once(tmp_path, capsys):
     hits = [w for w in data["warnings"] if "nowhere" in w]
     assert len(hits) == 1 and hits[0].startswith(f"{path}:2:1: X1: undefined subcircuit")
     assert data["by_kind"] == {"R": 1, "X": 1}
+
+
+def test_single_connection_nodes_are_listed_fifty_at_most_then_counted(tmp_path):
+    """Each node with a single connection is named, fifty at most; past fifty the rest are counted on one line (an
+    unterminated bus of a big netlist would otherwise bury every other warning)."""
+    from netloop.cli.inspect_cmd import inspect_summary
+
+    for dangling, listed, more in ((50, 50, None), (51, 50, "... and 1 more nodes with a single connection")):
+        text = "dangling resistors (invented)\nV1 a 0 1\nR0 a 0 1k\n" + "".join(f"R{k} a s{k} 1k\n" for k in range(1, dangling + 1))
+        warnings = inspect_summary(_write(tmp_path, text))["warnings"]
+        single = [w for w in warnings if w.endswith("has a single connection")]
+        assert len(single) == listed and single[0] == "node 's1' has a single connection"
+        assert [w for w in warnings if w.startswith("... and")] == ([more] if more else [])

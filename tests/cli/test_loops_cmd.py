@@ -218,3 +218,30 @@ def test_loops_json_says_why_a_break_was_not_swept():
     assert first == {"node": a, "dc_db": None, "peak_db": None, "peak_hz": None, "unity_hz": None, "top_db": None,
                      "negligible": False, "falls": False, "error": "the simulator stopped"}
     assert second["peak_db"] == 18.0 and second["error"] == ""
+
+
+def test_the_census_text_names_each_kind_of_group_under_its_own_heading():
+    """A group whose coarse T stays below 0 dB at every break swept, and one no break measures (its reason cut to 320
+    characters with '...': --json has it whole), each stand under the heading that says so, word for word."""
+    from dataclasses import replace
+
+    import numpy as np
+
+    from netloop.cli.loops_cmd import format_census
+    from netloop.jobs.census import coarse_figures
+    from netloop.jobs.discover import take_census
+    from netloop.netlist import parse_text
+
+    census = take_census(parse_text(RING), sweep=False)
+    (gc,) = census.groups
+    f = np.logspace(-2, 12, 43)
+    quiet = replace(gc, coarse=(coarse_figures(gc.group.candidates[0].node, f, 0.5 / (1 + 1j * f / 1e3)),))
+    why = "no node of this group can be broken so that T measures one of its loops: " + "; ".join(f"n{k} (refused)" for k in range(60))
+    broken = replace(gc, chosen=None, why=why)
+    lines = format_census(replace(census, groups=(quiet, broken), swept=True)).splitlines()
+    assert quiet.can_ring is False
+    at = lines.index("cannot ring on its own (|T| below 0 dB at every break swept):")
+    assert lines[at + 1].startswith(f"  {gc.label}: ")
+    assert lines[at + 2] == "no break measures these (check reports them as inconclusive):"
+    cut = lines[at + 3].split("; no break: ", 1)[1]
+    assert len(cut) == 320 and cut.endswith("...") and why.startswith(cut[:-3])

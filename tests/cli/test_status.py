@@ -49,3 +49,17 @@ def test_loops_on_a_terminal_says_what_it_works_on_and_clears_the_line(circuits,
     shown = terminal.getvalue()
     assert "netloop: finding the loops of" in shown and "working out the probe's split" in shown
     assert shown.endswith("\r\033[K") and "loop group" in capsys.readouterr().out
+
+
+def test_a_stage_that_ends_clears_the_line_at_once_and_shows_nothing_of_its_own():
+    """A record marked CLEARS_STATUS (netloop.jobs.measure: 'simulations done') clears the line there and then, before the
+    results are printed, and its own words are never shown."""
+    from netloop.jobs.measure import CLEARS_STATUS
+
+    terminal = _Terminal()
+    with status.status_line(terminal):
+        logging.getLogger("netloop").info("simulating the first sweep")
+        logging.getLogger("netloop").info("simulations done", extra=CLEARS_STATUS)
+        during = terminal.getvalue()
+    assert during.startswith("\r\033[Knetloop: simulating the first sweep [") and during.endswith(" s]\r\033[K")
+    assert "simulations done" not in terminal.getvalue()

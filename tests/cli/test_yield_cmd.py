@@ -56,6 +56,12 @@ def test_yield_run_writes_every_output_and_exits_by_its_verdict(tmp_path, capsys
     assert json.loads(resumed.out)["deciding"]["samples"] == 6
     assert resumed.err.splitlines() == ["netloop: 4 record(s) in the results file belong to no sample of this plan (the plan changed "
                                         "since they were written) and were left out of the statistics"]
+    # the netlist edited and the run resumed: its six samples are measured again, and stderr says why
+    (tmp_path / "loop.cir").write_text(LOOP.replace(".end", "* edited after the run\n.end"))
+    main(["yield", plan, "--workers", "1", "--resume", "--json"])
+    again = capsys.readouterr().err.splitlines()
+    assert again[0].startswith("netloop: 6 sample(s) measured again because their input files changed since they were recorded: ")
+    assert again[0].endswith("loop.cir")
 
 
 def test_a_sample_reruns_alone_by_name_and_by_seed_bit_for_bit(tmp_path, capsys):
