@@ -84,3 +84,20 @@ def test_workers_take_the_netlists_the_plan_check_read_for_the_samples(tmp_path,
         assert [write_netlist(worker.corner_netlist(t.corner)) for t in tasks] == own and len(reads) == 1
     finally:
         worker.use_netlists(None)
+
+
+def test_a_sample_is_named_by_its_corner_up_to_the_last_separator():
+    """A record's corner is its sample's name without the sample number, cut at the last '#', so that a corner whose own
+    name holds one (an axis value written 'tt#2') keeps it; the seed is the one its settings hold."""
+    assert sample_of({"corner": "tt#2#17", "settings": {"seed": 27}}) == ("tt#2", 27)
+    assert sample_of({"corner": "nominal", "settings": {}}) == ("nominal", None)
+
+
+@pytest.mark.ngspice
+def test_a_run_takes_the_workers_it_is_given(tmp_path):
+    """run_samples(workers=1) measures on one local worker, whatever the machine's CPUs (`netloop yield --workers 1`)."""
+    from netloop.jobs.statistics import run_samples
+
+    splan = _plan(tmp_path, "[samples]\ncount = 4\n")
+    run = run_samples(splan, workers=1, out=tmp_path / "r.jsonl")
+    assert run.run.workers == 1 and run.run.ran == 4
