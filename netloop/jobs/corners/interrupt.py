@@ -10,11 +10,12 @@ KeyboardInterrupt as Python does.
 from __future__ import annotations
 
 import contextlib
+import logging
 import signal
 import threading
 from collections.abc import Callable, Iterator
 
-__all__ = ["dask_setup", "first_stops", "ignoring_interrupts"]
+__all__ = ["dask_setup", "first_stops", "ignoring_interrupts", "quiet_heartbeats"]
 
 
 def _main_thread() -> bool:
@@ -66,3 +67,25 @@ def dask_setup(worker) -> None:
     handler is back. A worker process runs its event loop, and so its preloads, on its main thread."""
     if _main_thread():
         signal.signal(signal.SIGINT, signal.SIG_IGN)
+    quiet_heartbeats()
+
+
+class _SchedulerGone(logging.Filter):
+    """Drops Dask's error record of a heartbeat that found the scheduler gone."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        return not record.getMessage().startswith(_HEARTBEAT_LOST)
+
+
+_HEARTBEAT_LOST = "Failed to communicate with scheduler during heartbeat"
+_FILTER = _SchedulerGone()
+
+
+def quiet_heartbeats() -> None:
+    """In a local cluster's worker: Dask's error, with its traceback, when a heartbeat finds the scheduler closed is not
+    shown. netloop closes that scheduler itself when a run ends or is stopped (Ctrl-C), and a worker whose heartbeat was
+    under way then wrote a traceback under netloop's last line; a scheduler lost in the middle of a run is reported by
+    the run itself (its tasks fail, and their corners are recorded as errors). Other records pass."""
+    logger = logging.getLogger("distributed.worker")
+    if _FILTER not in logger.filters:
+        logger.addFilter(_FILTER)
