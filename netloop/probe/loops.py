@@ -31,9 +31,12 @@ class Connectivity:
 def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozenset[str], skip: frozenset[str]) -> Connectivity:
     """Element-node graph of the flattened circuit without AC-ground nodes and without the ``skip`` elements.
 
-    An element left with no node (all of them AC ground) is not in the graph.
+    An element left with no node (all of them AC ground) is not in the graph. A K card (coupled inductors) touches the
+    nodes of the inductors it names: signal passes between their windings (ngspice manual, coupled inductors), as the
+    signal-flow graph's edges across it say (netloop.graph.signal_flow).
     """
     g = Connectivity([], [], [], {})
+    couplings: list[tuple[str, str, tuple[str, ...]]] = []  # (K label, its scope's prefix, the inductors' names)
     ids: dict[str, int] = {}  # label -> element id (of the first letter seen with that label)
     more_ids: dict[tuple[str, str], int] = {}  # (label, letter) for a label seen with another letter too
     at_node = g.at_node
@@ -47,6 +50,9 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
         name = e.name
         label = prefix + name.lower()  # Scope.label
         if label in skip:
+            continue
+        if name[0] in "kK":  # its tokens name inductors, not nodes: joined once every inductor is in the graph
+            couplings.append((label, prefix, tuple(t.lower() for t in e.tokens[:2])))
             continue
         mine = None
         for node in e.nodes if same else map(flat, e.nodes):
@@ -74,6 +80,16 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
                 at_node[node] = [k]
             else:
                 here.append(k)
+    for label, prefix, inductors in couplings:
+        nodes = list(dict.fromkeys(n for name in inductors if (i := ids.get(prefix + name)) is not None and g.kinds[i] == "L"
+                                   for n in g.nodes[i]))
+        if nodes:
+            k = len(g.labels)
+            g.labels.append(label)
+            g.kinds.append("K")
+            g.nodes.append(nodes)
+            for node in nodes:
+                at_node.setdefault(node, []).append(k)
     return g
 
 
