@@ -144,6 +144,10 @@ def test_toml_syntax_error_carries_the_line(tmp_path):
     with pytest.raises(PlanError, match=r"plan\.toml:\d+: not valid TOML") as info:
         load_plan(path)
     assert "(at line" not in str(info.value)
+    # tomllib's own words follow, then the column it gives (Python's tomllib, 3.11: "Invalid value")
+    with pytest.raises(PlanError) as info:
+        parse_plan('netlist = "a.cir"\nat == "out"\n', "p.toml")
+    assert str(info.value) == "p.toml:2: not valid TOML: Invalid value, column 5"
 
 
 @pytest.mark.parametrize(

@@ -52,6 +52,8 @@ def test_share_out_deals_the_largest_chunk_first_and_leaves_spare_workers_idle()
     assert share_out([b, a, c, d], 2) == [a + d, b + c]
     assert share_out([b, c, d], 4) == [b, c, d, []]
     assert share_out([b, c, d], 0) == []  # no worker: nothing is dealt (common practice)
+    # one group of two corners on two workers is split, one corner each: a worker left idle would double the run's time
+    assert share_out([["e1", "e2"]], 2) == [["e1"], ["e2"]]
 
 
 def test_share_out_keeps_groups_whole_and_spreads_the_loads(tmp_path):
