@@ -121,18 +121,6 @@ def sweep_from(args: argparse.Namespace):
     return Sweep(**kwargs)
 
 
-def tagged_path(path: str, tag: str) -> str:
-    """FILE.ext -> FILE-tag.ext, and FILE -> FILE-tag: the tag goes before the file name's own extension, never into a
-    folder whose name holds a dot (runs/2026.12/t -> runs/2026.12/t-tag)."""
-    p = Path(path)
-    return str(p.with_name(f"{p.stem}-{tag}{p.suffix}"))
-
-
-def nyquist_path(path: str) -> str:
-    """FILE.png -> FILE-nyquist.png."""
-    return tagged_path(path, "nyquist")
-
-
 def refuse_bad_outputs(args: argparse.Namespace, plot: str = "Bode plot") -> None:
     """OutputError before any simulation for a --csv, --plot, --report or --keep-decks path that cannot be written;
     ``plot`` names what the command's --plot writes (sensitivity's is its ranking chart, not a Bode plot)."""
@@ -158,6 +146,7 @@ def write_outputs(args: argparse.Namespace, results, names: list[str] | None = N
     name, ``names`` or its break node, before the extension). Called after the results are printed, so that a file
     that cannot be written (exit status 2) loses no result."""
     from netloop import report
+    from netloop.report.files import tagged_path
 
     sys.stdout.flush()  # the printed results reach the terminal before any error about a file
     single = results[0] if len(results) == 1 else None
@@ -169,7 +158,7 @@ def write_outputs(args: argparse.Namespace, results, names: list[str] | None = N
                 report.write_csv(r, tagged_path(args.csv, name))
     if getattr(args, "plot", None):
         report.plot_bode(single if single is not None else results, args.plot)
-        report.plot_nyquist(single if single is not None else results, nyquist_path(args.plot))
+        report.plot_nyquist(single if single is not None else results, tagged_path(args.plot, "nyquist"))
     if getattr(args, "report", None):
         report.write_html(single if single is not None else results, args.report)
 

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from netloop.errors import OutputError
 
-__all__ = ["output_file", "refuse_unwritable"]
+__all__ = ["output_file", "refuse_unwritable", "tagged_path"]
 
 
 @contextmanager
@@ -33,3 +33,11 @@ def refuse_unwritable(path: str | Path | None, what: str) -> None:
     if not folder.is_dir():
         reason = "Not a directory" if folder.exists() else "No such file or directory"
         raise OutputError(f"cannot write the {what} to {str(path)!r}: {reason} ({str(folder)!r})")
+
+
+def tagged_path(path: str | Path, tag: str) -> str:
+    """FILE.ext -> FILE-tag.ext, and FILE -> FILE-tag: where a file written beside ``path`` goes (a loop's samples, the
+    Nyquist plot, the yield scatter). The tag goes before the file name's own extension, never into a folder whose name
+    holds a dot (runs/2026.12/t -> runs/2026.12/t-tag)."""
+    p = Path(path)
+    return str(p.with_name(f"{p.stem}-{tag}{p.suffix}"))

@@ -14,6 +14,7 @@ from pathlib import Path
 
 from netloop.jobs.statistics import FIGURES, SampleRun, YieldStatistics
 from netloop.report.figure import COLOURS, new_figure, save
+from netloop.report.files import tagged_path
 from netloop.report.notation import prefix_for
 from netloop.report.yield_text import figure_text
 
@@ -163,8 +164,7 @@ def scatter_figure(run: SampleRun):
 
 def scatter_path(path: str | Path) -> str:
     """FILE.png -> FILE-scatter.png: where the scatter goes beside the histograms."""
-    p = Path(path)
-    return str(p.with_name(f"{p.stem}-scatter{p.suffix}"))
+    return tagged_path(path, "scatter")
 
 
 def plot_yield(run: SampleRun, path: str | Path) -> tuple[Path, Path]:

@@ -70,6 +70,9 @@ def dask_setup(worker) -> None:
     quiet_heartbeats()
 
 
+_HEARTBEAT_LOST = "Failed to communicate with scheduler during heartbeat"  # distributed.worker's words
+
+
 class _SchedulerGone(logging.Filter):
     """Drops Dask's error record of a heartbeat that found the scheduler gone."""
 
@@ -77,7 +80,6 @@ class _SchedulerGone(logging.Filter):
         return not record.getMessage().startswith(_HEARTBEAT_LOST)
 
 
-_HEARTBEAT_LOST = "Failed to communicate with scheduler during heartbeat"
 _FILTER = _SchedulerGone()
 
 
