@@ -117,17 +117,22 @@ _PAIR_RTOL = 1e-3
 
 
 def _conjugate_pairs(poles: np.ndarray, rtol: float = _PAIR_RTOL) -> tuple[np.ndarray, int]:
-    """The poles that are real or have their complex conjugate among the poles (to ``rtol``), and how many do not.
+    """The poles that are real or have their complex conjugate among the poles (to ``rtol``), and how many do not; the
+    real ones on the real axis.
 
     S(s) is real (its samples at -jw are the conjugates of those at jw), so its poles are real or come
-    in conjugate pairs; a fitted complex pole whose conjugate is missing is an artefact of the fit.
+    in conjugate pairs; a fitted complex pole whose conjugate is missing is an artefact of the fit. A pole within
+    ``rtol`` of its own conjugate is real: the fit leaves it a small imaginary part of either sign (about 3e-4 of its
+    size on a sky130 folded-cascode buffer), which would make it one member of a pair of damping 0.9999999 and, when
+    negative, the lower member that dominant_pole passes over.
     """
     size = np.abs(poles)
     gap = np.abs(poles[np.newaxis, :] - np.conj(poles)[:, np.newaxis])  # row i: each pole's distance to conj(pole i)
     np.fill_diagonal(gap, np.inf)  # a pole is not its own partner (a real one needs none: next line)
     real = 2.0 * np.abs(poles.imag) <= rtol * size
     keep = real | (np.min(gap, axis=1, initial=np.inf) <= rtol * size)
-    return poles[keep], int(np.sum(~keep))
+    snapped = np.where(real, poles.real + 0j, poles)
+    return snapped[keep], int(np.sum(~keep))
 
 
 def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol: float = DEFAULT_RTOL) -> tuple[ClosedLoopPoles | None, tuple[str, ...]]:
