@@ -200,8 +200,8 @@ def _with_closed_notes(group: LoopGroup, cand, result: LoopResult) -> LoopResult
 
     A loop left closed may make the opened circuit unstable by itself, so the count P the Nyquist verdict
     used (0 unless given) may be wrong. The check fails, and the verdict is "inconclusive", when a rational
-    fit of T finds another number of right-half-plane poles than P, or when the closed-loop poles fitted from
-    1/(1+T) disagree with the Nyquist count.
+    fit of T finds another number of right-half-plane poles than P, when the closed-loop poles fitted from
+    1/(1+T) disagree with the Nyquist count, or when no fit of T is possible and P was not given.
     """
     # Local loops kept closed on purpose (a Miller Cc with its stage) are stated in the reason, as common practice
     # measures the global loop with them closed; any other loop left closed is warned about and checked.
@@ -227,9 +227,16 @@ def _with_closed_notes(group: LoopGroup, cand, result: LoopResult) -> LoopResult
                       f"breaking {cand.node} leaves {len(other)} loop(s) of {group.label} closed, and the closed-loop poles fitted from "
                       f"1/(1+T) disagree with the Nyquist count made with P = {p}",
                       "break where no loop stays closed (netloop loops NETLIST), or give the opened circuit's RHP poles with --open-loop-rhp-poles")
-    else:
-        check = Check("opened-circuit", True, f"the loops left closed at {cand.node} add no right-half-plane pole to T (rational fit)"
-                      if rhp is not None else f"the loops left closed at {cand.node}: no rational fit of T was possible")
+    elif rhp is not None:
+        check = Check("opened-circuit", True, f"the loops left closed at {cand.node} add no right-half-plane pole to T (rational fit)")
+    elif result.analysis.nyquist.open_loop_rhp_from == "given":
+        check = Check("opened-circuit", True, f"the loops left closed at {cand.node}: no rational fit of T was possible; P = {p} as given")
+    else:  # nothing read from the data vouches for P: no verdict on it
+        check = Check("opened-circuit", False,
+                      f"breaking {cand.node} leaves {len(other)} loop(s) of {group.label} closed, and no rational fit of T was possible, "
+                      f"so nothing shows that the opened circuit has the P = {p} right-half-plane poles the Nyquist count used",
+                      "break where no loop stays closed (netloop loops NETLIST), or give the opened circuit's RHP poles with "
+                      "--open-loop-rhp-poles")
     return replace(result, warnings=tuple(dict.fromkeys((*result.warnings, *extra))), checks=(*result.checks, check))
 
 

@@ -303,19 +303,27 @@ def test_a_measured_group_takes_its_results_name_and_verdict_and_an_unmeasured_o
     assert (unmeasured.label, unmeasured.verdict) == ("loop 1 (a)", "inconclusive")
 
 
+@dataclass(frozen=True)
+class Result:
+    """An invented measurement, as far as _with_closed_notes reads one."""
+
+    analysis: object
+    warnings: tuple = ()
+    checks: tuple = ()
+
+
+def _ring_leaving_a_loop_closed():
+    """The ring's group and its first candidate break, told that it leaves loop 1 closed (not a local one)."""
+    (group,) = find_loops(flatten(parse_text(_RING))).groups
+    return group, replace(group.candidates[0], left_closed=(1,), kept_closed=())
+
+
 def test_a_loop_left_closed_whose_poles_disagree_with_nyquist_fails_the_opened_circuit_check(monkeypatch):
     """A break leaving a loop closed, where the closed-loop poles fitted from 1/(1+T) disagree with the Nyquist count, gets a
     failed "opened-circuit" self-check saying so word for word (so the verdict is inconclusive)."""
     # Reference: the verdict model of the team brief (a failed self-check makes the result inconclusive with its reason) and
     # _with_closed_notes' docstring; the disagreement is given (an invented result), not measured.
-    @dataclass(frozen=True)
-    class Result:
-        analysis: object
-        warnings: tuple = ()
-        checks: tuple = ()
-
-    (group,) = find_loops(flatten(parse_text(_RING))).groups
-    cand = replace(group.candidates[0], left_closed=(1,), kept_closed=())
+    group, cand = _ring_leaving_a_loop_closed()
     monkeypatch.setattr(discover, "opened_circuit_rhp_poles", lambda result: 0)
     analysis = SimpleNamespace(nyquist=SimpleNamespace(open_loop_rhp_poles=0), poles=SimpleNamespace(agrees_with_nyquist=False))
     result = Result(analysis)
@@ -336,6 +344,32 @@ def test_a_loop_left_closed_whose_poles_disagree_with_nyquist_fails_the_opened_c
                             "stays closed (netloop loops NETLIST)")
     assert checked.warnings[1] == ("a rational fit of the measured T has 2 right-half-plane pole(s): the opened circuit looks "
                                    "unstable by itself; if so, rerun with --open-loop-rhp-poles 2")
+
+
+def test_a_loop_left_closed_with_no_fit_of_t_passes_only_with_p_given(monkeypatch):
+    """A break leaving a loop closed where no rational fit of T is possible (opened_circuit_rhp_poles gives None): nothing read
+    from the data shows the opened circuit's P, so the "opened-circuit" self-check fails (the verdict is inconclusive) unless
+    the user gave P, which the check then names. Before, it passed on no evidence."""
+    # Reference: the verdict model of the team brief (a verdict is a promise: no PASS for a measurement that has not checked
+    # itself) and _with_closed_notes' docstring; the missing fit is given (an invented result), not measured.
+    group, cand = _ring_leaving_a_loop_closed()
+    monkeypatch.setattr(discover, "opened_circuit_rhp_poles", lambda result: None)
+
+    def check_of(p: int, source: str):
+        nyquist = SimpleNamespace(open_loop_rhp_poles=p, open_loop_rhp_from=source)
+        (check,) = discover._with_closed_notes(group, cand, Result(SimpleNamespace(nyquist=nyquist, poles=poles))).checks
+        return check
+
+    poles = SimpleNamespace(agrees_with_nyquist=True)
+    check = check_of(0, "fit")
+    assert (check.name, check.passed) == ("opened-circuit", False)
+    assert check.detail == (f"breaking {cand.node} leaves 1 loop(s) of {group.label} closed, and no rational fit of T was possible, "
+                            "so nothing shows that the opened circuit has the P = 0 right-half-plane poles the Nyquist count used")
+    assert check.advice == ("break where no loop stays closed (netloop loops NETLIST), or give the opened circuit's RHP poles with "
+                            "--open-loop-rhp-poles")
+    check = check_of(1, "given")
+    assert (check.name, check.passed) == ("opened-circuit", True)
+    assert check.detail == f"the loops left closed at {cand.node}: no rational fit of T was possible; P = 1 as given"
 
 
 def _recording(monkeypatch) -> dict:
