@@ -39,7 +39,7 @@ from netloop.analysis.results import ClosedLoopPoles
 if TYPE_CHECKING:
     from scipy.interpolate import AAA
 
-__all__ = ["DEFAULT_RTOL", "DOMINANT_SHARE", "closed_loop_poles", "disagreement", "dominant_pole"]
+__all__ = ["DEFAULT_RTOL", "DOMINANT_SHARE", "closed_loop_poles", "disagreement", "dominant_pole", "unexplained_share"]
 
 # A fitted pole shapes 1/(1+T) visibly when its peak weight is at least 1 % of the largest pole's (our choice:
 # on the demo circuits a loop's own poles weigh 1 % to 100 %, another loop's seen through coupling about 0.1 %).
@@ -198,6 +198,23 @@ def closed_loop_poles(freq_hz: np.ndarray, t: np.ndarray, nyquist_rhp: int, rtol
                            tuple(complex(p) for p in open_rhp)), tuple(notes)
 
 
+def _residue_fit(freq_hz, t, poles: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """The linear least-squares fit of S = 1/(1+T) = c + sum r_k / (s - p_k) over the data at ``poles`` (rad/s): (its
+    coefficients c, r_k; the basis [1, 1/(s - p_k)] at the samples where it and S are finite; S there), or None when
+    there are no more such samples than poles."""
+    f = np.asarray(freq_hz, dtype=float)
+    s = 2j * math.pi * f
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        sens = 1.0 / (1.0 + np.asarray(t, dtype=complex))
+        basis = np.empty((s.size, poles.size + 1), dtype=complex)
+        basis[:, 0] = 1.0
+        basis[:, 1:] = 1.0 / (s[:, np.newaxis] - poles[np.newaxis, :])
+    good = np.all(np.isfinite(basis), axis=1) & np.isfinite(sens)
+    if np.count_nonzero(good) <= poles.size:
+        return None
+    return np.linalg.lstsq(basis[good], sens[good], rcond=None)[0], basis[good], sens[good]
+
+
 def dominant_pole(freq_hz, t, poles) -> complex | None:
     """The dominant closed-loop pole (rad/s), the one definition every report uses: the least-damped pole among those
     that visibly shape 1/(1+T), the upper member of a pair; None without poles.
@@ -210,22 +227,29 @@ def dominant_pole(freq_hz, t, poles) -> complex | None:
     p = np.asarray(poles, dtype=complex)
     if p.size == 0:
         return None
-    f = np.asarray(freq_hz, dtype=float)
-    s = 2j * math.pi * f
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        sens = 1.0 / (1.0 + np.asarray(t, dtype=complex))
-        basis = np.empty((s.size, p.size + 1), dtype=complex)
-        basis[:, 0] = 1.0
-        basis[:, 1:] = 1.0 / (s[:, np.newaxis] - p[np.newaxis, :])
-    good = np.all(np.isfinite(basis), axis=1) & np.isfinite(sens)
-    if np.count_nonzero(good) <= p.size:
+    fitted = _residue_fit(freq_hz, t, p)
+    if fitted is None:
         return None
-    coef = np.linalg.lstsq(basis[good], sens[good], rcond=None)[0]
+    coef = fitted[0]
     weight = np.abs(coef[1:]) / np.maximum(np.abs(p.real), 1e-12 * np.abs(p))
     keep = (p.imag >= -1e-9 * np.abs(p)) & (weight >= DOMINANT_SHARE * np.max(weight))
     if not np.any(keep):
         return None
     return complex(min(p[keep], key=lambda q: (-q.real / abs(q), -q.real)))
+
+
+def unexplained_share(freq_hz, t, poles) -> float:
+    """How much of the measured S = 1/(1+T) no sum c + sum r_k / (s - p_k) over ``poles`` (rad/s; the finite ones, each
+    once) explains: the largest misfit of the least-squares fit against the largest |S|; 1.0 when too few samples are
+    finite. Near 0 (1e-14 on a two-pole loop's own roots) when the poles are the closed loop's; of order 1 when they are
+    not (0.35 for the same roots mirrored into the other half plane, whose terms differ by an all-pass factor on the jw
+    axis)."""
+    p = np.unique(np.asarray(poles, dtype=complex))
+    fitted = _residue_fit(freq_hz, t, p[np.isfinite(p)])
+    if fitted is None:
+        return 1.0
+    coef, basis, sens = fitted
+    return float(np.max(np.abs(basis @ coef - sens)) / np.max(np.abs(sens)))
 
 
 def disagreement(fit_rhp: int, nyquist_rhp: int, f_max_hz: float) -> str:

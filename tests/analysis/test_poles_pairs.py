@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from netloop.analysis.poles import _conjugate_pairs, closed_loop_poles, dominant_pole
+from netloop.analysis.poles import _conjugate_pairs, closed_loop_poles, dominant_pole, unexplained_share
 
 DATA = Path(__file__).parent / "data" / "rc_ladder_100k_T.csv"
 
@@ -122,6 +122,23 @@ def test_real_poles_of_noisy_data_stay_real_and_the_slowest_dominates(seed):
     assert [p.real for p in poles.poles_rad_s] == pytest.approx(exact, rel=1e-3)
     assert poles.dominant_damping is None and poles.dominant_freq_hz is None and poles.dominant_q is None
     assert dominant_pole(f, t, poles.poles_rad_s) == poles.poles_rad_s[0]
+
+
+def test_a_pole_list_explains_the_data_only_when_it_is_the_closed_loops():
+    """T = 1000/((1 + s/w1)(1 + s/w2)): the roots of den + num (numpy.roots) explain 1/(1+T) to rounding; listed twice, or with
+    a pole far above the sweep, still; the same roots mirrored into the right half plane leave a large share unexplained
+    (their terms differ by an all-pass factor on the jw axis), and so does no pole at all (a constant); with no more
+    finite samples than poles nothing can be said (1.0)."""
+    w1, w2 = 2 * math.pi * 1e4, 2 * math.pi * 2e9
+    roots = np.roots(np.polyadd(np.polymul([1 / w1, 1.0], [1 / w2, 1.0]), [1000.0]))
+    f = np.logspace(-2, 10, 121)
+    s = 2j * math.pi * f
+    t = 1000.0 / ((1 + s / w1) * (1 + s / w2))
+    assert unexplained_share(f, t, roots) < 1e-10
+    assert unexplained_share(f, t, np.concatenate([roots, roots, [1e14 + 0j, np.inf]])) < 1e-10
+    assert unexplained_share(f, t, -roots) > 0.1
+    assert unexplained_share(f, t, np.zeros(0, dtype=complex)) > 0.1
+    assert unexplained_share(f[:2], t[:2], roots) == 1.0
 
 
 def test_the_fit_stops_at_the_tolerance_asked():

@@ -42,6 +42,7 @@ DESIGN_DC = {
     "testbench/no_regulation.cir": ("vb", 0.8, 1e-9),  # the bias point itself is checked in its own test below
     "testbench/nodeset.cir": ("q", 3.3, 0.01),  # the .nodeset picks the trim latch state q high
     "testbench/reverse_path.cir": ("a", 0.0, 1e-9),  # linear loop, input at 0 V
+    "testbench/slow_biquad.cir": ("out1", 0.0, 1e-6),  # linear filter, input at 0 V
     "sky130/miller_buffer.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V
     "sky130/ldo.cir": ("vout", 0.9 * (1 + 25e3 / 50e3), 0.02),  # vref*(1+R1/R2)
     "sky130/fd_amp_cmfb.cir": ("cm", 0.9, 0.08),  # output common mode near Vcmref
@@ -226,6 +227,50 @@ def test_reverse_path_closed_loop_poles_are_stable(tree):
     assert len(poles) == 3  # three nodes with capacitance (a, b, s): a third-order loop
     assert all(p.real < 0 for p in poles)  # reference: ngspice .pz
     assert any(p.imag != 0 for p in poles)  # the dominant pair is complex: a finite phase margin, not a one-pole loop
+
+
+def _growing_oscillation(text: str) -> tuple[float, float]:
+    """(frequency in Hz, growth rate in 1/s) of a growing oscillation written by wrdata as time/value rows: the mean period
+    of its rising zero crossings, and the median of ln(peak ratio)/period over successive cycles."""
+    import numpy as np
+
+    data = np.array([[float(x) for x in row.split()] for row in text.splitlines() if row.strip()])
+    t, v = data[:, 0], data[:, 1]
+    rising = np.flatnonzero((v[:-1] < 0) & (v[1:] >= 0))
+    at = t[rising] - v[rising] * (t[rising + 1] - t[rising]) / (v[rising + 1] - v[rising])
+    periods = np.diff(at)
+    peaks = np.array([np.max(np.abs(v[(t >= a) & (t < b)])) for a, b in zip(at[:-1], at[1:], strict=True)])
+    return float(1.0 / np.mean(periods)), float(np.median(np.log(peaks[1:] / peaks[:-1]) / periods[1:]))
+
+
+@pytest.mark.ngspice
+def test_slow_biquad_grows_as_its_measured_closed_loop_poles_say(tree):
+    """slow_biquad.cir oscillates and grows in ngspice's own transient; every break netloop chooses says unstable, with two
+    closed-loop poles in the right half plane whose dominant pair is the transient's growth rate and frequency (1 %), and
+    none of them is made inconclusive by ngspice's pole analysis, which fails on this circuit."""
+    import numpy as np
+
+    from netloop.analysis.poles import dominant_pole
+    from netloop.jobs.discover import check_loops
+
+    path = tree / "testbench" / "slow_biquad.cir"
+    deck = with_control(path, "tran 2u 60m 0 2u\nwrdata _biquad.txt v(out1)",
+                        swap=("Vin in 0 dc 0 ac 1", "Vin in 0 dc 0 pulse(0 1m 0 1u 1u 10u 1)"))
+    ngspice(deck)
+    text = (deck.parent / "_biquad.txt").read_text()
+    freq_hz, growth = _growing_oscillation("\n".join(row for row in text.splitlines() if float(row.split()[0]) > 30e-3))
+    # Reference: ngspice's transient analysis of the circuit (a 1 mV, 10 us pulse on Vin), from 30 ms on
+    want = complex(growth, 2 * math.pi * freq_hz)
+    assert growth > 0
+    check = check_loops(path)
+    assert sorted(g.result.breaks.node for g in check.groups) == ["xa1.a", "xa2.a", "xa3.a"]
+    for group in check.groups:
+        r = group.result
+        assert r.verdict == "fail" and r.analysis.nyquist.closed_loop_rhp_poles == 2, r.label
+        assert all(c.passed for c in r.checks), r.label
+        got = dominant_pole(r.analysis.freq_hz, r.analysis.t, r.analysis.poles.poles_rad_s)
+        assert abs(got - want) < 1e-2 * abs(want), (r.label, got, want)
+    assert sorted(g.result.analysis.nyquist.open_loop_rhp_poles for g in check.groups) == [0, 1, 1]
 
 
 def comment_block(path: Path) -> str:
