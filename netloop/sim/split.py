@@ -13,11 +13,12 @@ import os
 from collections.abc import Mapping, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
+from pathlib import Path
 
 from netloop.errors import SimulationError
 from netloop.sim.convergence import aid_ladder
 from netloop.sim.job import SimJob, SimResult, Simulator
-from netloop.sim.keep import keep_deck, runnable_deck
+from netloop.sim.keep import keep_deck, keep_output, runnable_deck
 
 __all__ = ["MAX_AUTO_PROCESSES", "SPLIT_MIN_ELEMENTS", "SplitRunsSimulator", "processes_for", "split_runs", "usable_cpus"]
 
@@ -129,11 +130,13 @@ class SplitRunsSimulator:
         return replace(result, deck_path=keep_deck(runnable_deck(job, aid), job.label, self.keep_dir))
 
     def _rekept(self, job: SimJob, error: BaseException) -> BaseException:
-        """A share's failure with the whole job's deck kept in ``keep_dir`` (the share kept only its runs)."""
+        """A share's failure with the whole job's deck kept in ``keep_dir`` (the share kept only its runs), the share's
+        whole ngspice output kept beside it."""
         if self.keep_dir is None or type(error) is not SimulationError:
             return error
         deck = keep_deck(runnable_deck(job, None), job.label, self.keep_dir)
-        return SimulationError(error.message, deck, error.simulator_output, error.corner)
+        log = keep_output(deck, Path(error.log_path).read_text(encoding="utf-8")) if error.log_path else None
+        return SimulationError(error.message, deck, error.simulator_output, error.corner, log)
 
     def operating_point(self, netlist: str) -> Mapping[str, float]:
         return self.simulators[0].operating_point(netlist)

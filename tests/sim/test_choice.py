@@ -39,6 +39,21 @@ def test_nothing_installed_says_how_to_install(monkeypatch):
     assert str(caught.value).startswith("libngspice not found; no ngspice binary on PATH; ")  # what was looked for, both
 
 
+def test_a_library_that_cannot_load_is_named_when_nothing_else_is_there(monkeypatch, tmp_path):
+    """A libngspice that is found but cannot be loaded, and no ngspice program: the error says which library failed
+    and why (the loader's error), then that no program was found."""
+    bogus = tmp_path / "libngspice.so"
+    bogus.write_bytes(b"\x7fELF but not really")
+    monkeypatch.setattr(sim, "find_libngspice", lambda: str(bogus))
+    monkeypatch.setattr("netloop.sim.shared.find_libngspice", lambda: str(bogus))
+    monkeypatch.setattr(sim, "find_ngspice_binary", lambda: None)
+    with pytest.raises(SimulatorUnavailableError) as caught:
+        sim.default_simulator()
+    message = str(caught.value)
+    assert message.startswith(f"libngspice at {bogus} cannot be loaded: OSError: ")
+    assert "; no ngspice binary on PATH; " in message
+
+
 @pytest.mark.ngspice
 def test_backend_can_be_chosen():
     """backend='batch' and backend='shared' give those backends; an unknown name is refused."""

@@ -167,6 +167,40 @@ def test_a_circuit_is_kept_beside_the_next_up_to_its_size_limit(recording, extra
     runner.forget()
 
 
+# an RC low-pass whose resistor is {p}k, beside a source vb whose DC value is read at node b
+TUNED = "tuned rc\n.param p={p}\nv1 in 0 dc 0 ac 0\nvb b 0 dc {vb}\nrb b 0 1k\nr1 in out {{p*1k}}\nc1 out 0 1n\n"
+
+
+@pytest.mark.ngspice
+def test_a_job_the_current_circuit_can_take_in_place_stays_on_it(recording):
+    """With two circuits held that could both be changed into the next job, the job runs on the one ngspice works on
+    (JobRunner: the current circuit is tried first): switched back to the p = 1 circuit, a job that changes only vb
+    there sets vb (alter), and neither switches to the p = 2 circuit nor sets p again (no alterparam, no reset, one setcirc:
+    the count of circuits); its vectors are the closed form."""
+    from netloop.sim import Change  # noqa: PLC0415
+
+    runner = JobRunner(recording)
+    sweep = (AcSweep("dec", 5, 1e3, 1e6),)
+
+    def tuned(p: str, vb: str, circuit_id: str, changing: bool = True) -> SimJob:
+        changes = (Change("param", "p", p), Change("source", "vb", vb)) if changing else ()
+        return SimJob(TUNED.format(p=p, vb=vb), runs=(AcRun("a", {"v1": 1.0}, sweep),), save=("v(out)",), excitable=("v1",),
+                      circuit_id=circuit_id, label="c1", changes=changes)
+
+    runner.run(tuned("1", "0", "a"))
+    runner.run(SimJob(RC2, runs=(AcRun("a", {"v1": 1.0}, sweep),), save=("v(out)",), excitable=("v1",), circuit_id="x", label="c2"))
+    runner.run(tuned("2", "0", "b"))  # p changes: not on the older p = 1 circuit (only the newest takes a reset), loaded
+    runner.run(tuned("1", "0", "a", changing=False))  # the first job again: ngspice switches back to its circuit
+    recording.calls.clear()
+    payload = runner.run(tuned("1", "0.5", "d"))
+    assert "load" not in recording.calls and "alterparam" not in recording.calls and "reset" not in recording.calls
+    assert recording.calls.count("setcirc") == 1
+    assert payload.operating_point["b"] == pytest.approx(0.5, rel=1e-12)  # vb's DC value
+    name, freq, (v_out,) = payload.runs[0]
+    np.testing.assert_allclose(v_out, _expected(freq, 1e3), rtol=1e-9)
+    runner.forget()
+
+
 # a relay whose drive vb scales: at vb = 0 it passes no current (v(n) = 0), at vb = 1 it has no operating point at all
 # (KCL at n as in sim_decks.NO_SOLUTION: v > 0.5 needs v = -2 V, v <= 0.5 needs v = +2 V)
 RELAY = "scaled relay\nvb b 0 dc {vb}\nb1 n 0 i = (v(n) > 0.5 ? 2m : -2m) * v(b)\nr1 n 0 1k\nv1 in 0 dc 0 ac 1\nr2 in n 1k\n"

@@ -30,10 +30,12 @@ def _failure(simulator, netlist: str, op_voltages: bool) -> SimulationError:
     return info.value
 
 
+FLOATING = "floating\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nr2 b 0 1k\nc1 fl1 fl2 1p\nr3 fl1 fl2 1k\n"
+
 CASES = [
     pytest.param("undefined\nv1 a 0 dc 1 ac 1\nr1 a b {rval}\nr2 b 0 1k\n",
                  "undefined parameter 'rval' (used in 'r1 a b {rval}')", "Undefined parameter [rval]", id="undefined-parameter"),
-    pytest.param("floating\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nr2 b 0 1k\nc1 fl1 fl2 1p\nr3 fl1 fl2 1k\n",
+    pytest.param(FLOATING,
                  "singular matrix at node 'fl1': it has no DC path to ground", "check node fl1", id="floating-node"),
     pytest.param("parallel\nv1 a 0 dc 1 ac 1\nv2 a 0 dc 2\nr1 a 0 1k\n",
                  "singular matrix: the current of voltage source v1 is not determined; two ideal voltage sources in parallel",
@@ -83,6 +85,19 @@ def test_the_texts_match_ngspice_run_on_its_own(tmp_path):
         netlist, lead, _ = case.values
         found = _by_hand(tmp_path, netlist)
         assert found and found[0].text.startswith(lead) and found[0].structural
+
+
+@pytest.mark.ngspice
+def test_the_advice_for_a_floating_node_is_what_makes_ngspice_solve_it(simulator):
+    """The floating node's diagnosis ends with what to do (a large resistor to ground), and doing just that makes the same
+    deck solve: a 1 Gohm from fl1 to ground gives fl1 and fl2 the DC path ngspice found missing (v(fl1) = 0, no current)."""
+    error = _failure(simulator, FLOATING, True)
+    assert error.message.startswith("singular matrix at node 'fl1': it has no DC path to ground (a floating node, or one "
+                                    "reached only through capacitors or current sources); give it one, e.g. a large "
+                                    "resistor to ground;"), error.message
+    result = simulator.run(_job(FLOATING + "rfix fl1 0 1g\n"))
+    assert result.operating_point["fl1"] == pytest.approx(0.0, abs=1e-12)
+    assert result.operating_point["b"] == pytest.approx(0.5, rel=1e-9)  # 1 V over 1k and 1k, closed form
 
 
 UNRECOGNIZED = "unrecognized\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 dm\n.model dm d is=1e-14 cox=3\n"

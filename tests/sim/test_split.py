@@ -115,15 +115,21 @@ def test_two_ngspice_processes_give_one_processs_vectors_exactly(shared_sim, tmp
 
 @pytest.mark.ngspice
 def test_a_failing_share_raises_ngspice_s_error_and_keeps_the_whole_deck(tmp_path):
-    """An operating point that fails in every share raises SimulationError with the whole job's deck kept in keep_dir."""
+    """An operating point that fails in every share raises SimulationError with the whole job's deck kept in keep_dir,
+    ngspice's whole output beside it and the corner named, as one ngspice's failure of the same job is (job_error)."""
     runs = (AcRun("a", {"v1": 1.0}, SWEEPS), AcRun("b", {"v1": 2.0}, SWEEPS))
-    job = SimJob(NO_SOLUTION, runs=runs, save=("v(n)",), excitable=("v1",), op_aids=("itl1=200",), timeout_s=60)
+    job = SimJob(NO_SOLUTION, runs=runs, save=("v(n)",), excitable=("v1",), op_aids=("itl1=200",), timeout_s=60, label="ss_hot")
     with SplitRunsSimulator([SharedLibrarySimulator(), SharedLibrarySimulator()], keep_dir=str(tmp_path)) as split:
         with pytest.raises(SimulationError, match="operating point did not converge") as caught:
             split.run(job)
-    kept = Path(caught.value.deck_path)
+    error = caught.value
+    kept = Path(error.deck_path)
     assert kept.parent == tmp_path
     assert kept.read_text().lower().count("\nac ") == 2 * len(SWEEPS)  # both runs, every sweep
+    assert error.corner == "ss_hot" and str(error).startswith("[ss_hot] ")
+    log = Path(error.log_path).read_text()
+    assert error.log_path == str(kept.with_suffix(".log")) and log.rstrip().endswith(error.simulator_output.rstrip())
+    assert f"(ngspice's whole output: {error.log_path})" in str(error)
 
 
 

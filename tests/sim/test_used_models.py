@@ -349,6 +349,30 @@ def test_a_card_with_a_double_slash_comment_gives_ngspice_s_own_numbers(tmp_path
     assert got["errors"] == [] and got["points"] == 91 and got["same"]
 
 
+@pytest.mark.ngspice
+def test_a_lib_line_continued_on_a_plus_line_gives_ngspice_s_own_numbers(tmp_path):
+    """ngspice reads a '.lib FILE SECTION' line continued on a '+' line as that section, the words beyond it ignored
+    (checked with ngspice 39 -b); the line is written out as its section after a comment of its first line only: a '+'
+    line after a comment would continue the element line before it (ngspice skips comments when it joins lines), here
+    giving cl a multiplier of 2. The deck as written is the reference, bit for bit."""
+    _library(tmp_path)
+    deck = CIRCUIT.format(lib="lib/invented.lib").replace(".lib lib/invented.lib typ\n", "") + ".lib lib/invented.lib typ\n+ m=2\n.end\n"
+    lean = used_only(deck, str(tmp_path))
+    assert lean is not None and "m=2" not in lean
+    got = _compare(deck, lean, "v(out)", "dec 10 1 1e9", tmp_path)
+    assert got["errors"] == [] and got["points"] == 91 and got["same"]
+
+
+def test_a_deck_without_an_end_line_is_written_out_with_nothing_added(tmp_path):
+    """A deck that has neither '.end' nor a control block (a netlist file as warm() reads it) is written out as its own
+    lines and the library's, in order, ending with its last line: nothing stands after it (used_only's docstring: the
+    rest stays verbatim)."""
+    _library(tmp_path)
+    lean = used_only(CIRCUIT.format(lib="lib/invented.lib"), str(tmp_path))
+    assert lean is not None
+    assert lean.rstrip("\n").splitlines()[-1] == CIRCUIT.splitlines()[-1] == "cl out 0 1p"
+
+
 # Headers as netlisters write them when names are long: the name alone on the .model or .subckt line, the type, the pins
 # and the parameters on continuation lines. The cards are invented (for tests only).
 CONTINUED = """* INVENTED cards, headers continued

@@ -340,7 +340,8 @@ def test_many_long_saves_all_come_back(shared_sim):
 
 def test_a_deck_is_kept_under_its_label_or_as_a_job_and_a_folder_it_cannot_use_is_named(tmp_path):
     """A kept deck's name starts with its label made safe for a file name, or 'job' when it has none; its output sits
-    beside it, ending with one newline; a keep_dir that is a file is refused by name."""
+    beside it, ending with one newline; a keep_dir not there yet is made, with the folders above it (as 'mkdir -p'
+    would: --keep-decks runs/today/decks); a keep_dir that is a file is refused by name."""
     from netloop.errors import OutputError  # noqa: PLC0415
     from netloop.sim.keep import keep_deck, keep_output  # noqa: PLC0415
 
@@ -349,6 +350,9 @@ def test_a_deck_is_kept_under_its_label_or_as_a_job_and_a_folder_it_cannot_use_i
     deck = keep_deck("deck\n", "x", tmp_path)
     assert Path(keep_output(deck, "line 1\nline 2\n")).read_text() == "line 1\nline 2\n"
     assert Path(keep_output(deck, "line 1\nline 2")).read_text() == "line 1\nline 2\n"
+    nested = tmp_path / "runs" / "today" / "decks"
+    kept = Path(keep_deck("deck\n", "x", nested))
+    assert kept.parent == nested and kept.read_text() == "deck\n"
     blocked = tmp_path / "a file"
     blocked.write_text("not a folder\n")
     with pytest.raises(OutputError, match=rf"^cannot keep the deck in '{blocked}': "):
@@ -362,3 +366,36 @@ def test_a_worker_that_never_says_ready_is_unavailable_by_name():
 
     with pytest.raises(Unavailable, match=r"^the ngspice worker did not start \(FrameTimeout\); "):
         SharedLibrarySimulator(startup_timeout_s=1e-6).start()
+
+
+def test_a_frame_that_stops_half_way_gives_up_at_the_deadline():
+    """read_frame_fd gives up with FrameTimeout once ``timeout_s`` has passed (its docstring) when a worker has sent part
+    of a frame header and then nothing: it neither waits for the rest past the deadline nor gives up before it."""
+    import threading  # noqa: PLC0415
+    import time  # noqa: PLC0415
+
+    from netloop.sim.protocol import FrameTimeout, read_frame_fd  # noqa: PLC0415
+
+    read_end, write_end = os.pipe()
+    outcome: list[object] = []
+
+    def read() -> None:
+        started = time.monotonic()
+        try:
+            read_frame_fd(read_end, 0.3)
+        except Exception as exc:  # noqa: BLE001 - what the read ended with is the result
+            outcome.append((type(exc), time.monotonic() - started))
+
+    try:
+        os.write(write_end, b"\x10\x00\x00")  # 3 of the header's 8 bytes
+        reader = threading.Thread(target=read, daemon=True)
+        reader.start()
+        reader.join(10)
+        finished = not reader.is_alive()
+    finally:
+        os.close(write_end)  # a reader still waiting then sees the end of the pipe and stops
+        reader.join(10)
+        os.close(read_end)
+    assert finished, "still waiting for the rest of the frame long after the deadline"
+    (kind, waited_s), = outcome
+    assert kind is FrameTimeout and waited_s >= 0.29  # the deadline, less a clock tick
