@@ -149,6 +149,7 @@ class SimulatorUnavailableError(SimulationError):
             "ngspice is not available; on Debian or Ubuntu install it with "
             "'sudo apt-get install ngspice libngspice0 libngspice0-dev' (or run 'make demo', which does it)"
         )
+        self.reason = message  # what failed, without the hint (a caller that gathers several failures adds the hint once)
         super().__init__(f"{message}; {hint}" if message else hint)
 
 

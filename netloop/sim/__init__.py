@@ -122,6 +122,8 @@ def default_simulator(keep_dir: str | None = None, backend: Literal["auto", "sha
         simulator = this.SharedLibrarySimulator(keep_dir=keep_dir)
         try:
             simulator.start()
+        except this.SimulatorUnavailableError as exc:
+            problems.append(exc.reason or "libngspice cannot be started")
         except this.SimulationError as exc:
             problems.append(str(exc))
         else:

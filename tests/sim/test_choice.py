@@ -52,6 +52,7 @@ def test_a_library_that_cannot_load_is_named_when_nothing_else_is_there(monkeypa
     message = str(caught.value)
     assert message.startswith(f"libngspice at {bogus} cannot be loaded: OSError: ")
     assert "; no ngspice binary on PATH; " in message
+    assert message.count("apt-get install") == 1  # the hint once, after every failure
 
 
 @pytest.mark.ngspice
