@@ -33,7 +33,6 @@ expanded by flattening and their elements carry hierarchical names.
 
 from __future__ import annotations
 
-import re
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -41,7 +40,7 @@ from typing import TYPE_CHECKING
 from netloop.errors import NetloopError
 from netloop.graph.connectivity import supply_nets
 from netloop.graph.flat import GROUND_NAMES
-from netloop.netlist.cards import controlling_sources
+from netloop.netlist.cards import controlling_sources, expression_references
 
 if TYPE_CHECKING:
     import networkx as nx
@@ -54,8 +53,6 @@ _TRANSISTOR = {"M": ("g", "s", "b"), "J": ("g", "s"), "Z": ("g", "s"), "Q": ("b"
 _T_OUTPUTS = {"M": ("d", "s"), "J": ("d", "s"), "Z": ("d", "s"), "Q": ("c", "e")}
 _TWO_WAY = frozenset("RCLDS")  # S: only its p/n terminals
 _ALL_PAIRS = frozenset("TOUAX")
-_VREF = re.compile(r"\bv\(\s*([^,()\s]+)\s*(?:,\s*([^()\s]+)\s*)?\)", re.IGNORECASE)
-_IREF = re.compile(r"\bi\(\s*([^()\s]+)\s*\)", re.IGNORECASE)
 
 # Pins that sense a voltage without loading the node (a gate, a base, a controlling input).
 CONTROL_PINS = frozenset(("g", "b", "cp", "cn"))
@@ -108,21 +105,18 @@ def _expression_controls(circuit: FlatCircuit, index: int) -> list[tuple[str, st
     whether or not another element of the instance touches it; a global as it is; any other name to the
     instance's own net), as ngspice's subcircuit expansion rewrites ``v(...)`` (its ``listing e``).
     """
-    text = " ".join(circuit.originals[index].tokens[2:])
+    named, sources = expression_references(circuit.originals[index])
     path = circuit.paths[index]
     prefix = "".join(p + "." for p in path)
     glob = {*circuit.globals, *GROUND_NAMES}
     pins = _pin_nets(circuit, path) if path else {}
     out = []
-    for m in _VREF.finditer(text):
-        for node in m.groups():
-            if node:
-                node = node.lower()
-                if path:
-                    node = pins.get(node) or (node if node in glob else prefix + node)
-                out.append(("0" if node == "gnd" else node, "cp"))
-    for m in _IREF.finditer(text):
-        nodes = _lookup(circuit, index, m.group(1))
+    for node in named:
+        if path:
+            node = pins.get(node) or (node if node in glob else prefix + node)
+        out.append(("0" if node == "gnd" else node, "cp"))
+    for name in sources:
+        nodes = _lookup(circuit, index, name)
         if nodes:
             out.extend((n, "cp") for n in nodes)
     return out

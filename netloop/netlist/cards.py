@@ -11,7 +11,8 @@ from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Element
 from netloop.netlist.values import looks_numeric
 
-__all__ = ["ELEMENT_LETTERS", "MOS_NEEDS", "MOS_PINS", "controlling_sources", "parse_card", "resolve_bjt", "resolve_mos", "two_terminal"]
+__all__ = ["ELEMENT_LETTERS", "MOS_NEEDS", "MOS_PINS", "controlling_sources", "expression_references", "parse_card", "resolve_bjt",
+           "resolve_mos", "two_terminal"]
 
 MOS_NEEDS = "4 nodes and a model (3, or 5 with the thermal nodes, for a vdmos model)"
 # Fixed-arity elements: (pin roles, minimum token count after the name, what the card needs).
@@ -231,6 +232,22 @@ def parse_card(text: str, loc: SourceLocation, models: Collection[str] = (), vdm
         if low != t:
             rest[i] = low
     return Element(name, tuple(rest), slots, pins, loc, model)
+
+
+# v(node) or v(node, node) and i(source) inside a behavioural expression
+_VOLTAGE_REFERENCE = re.compile(r"\bv\(\s*([^,()\s]+)\s*(?:,\s*([^()\s]+)\s*)?\)", re.IGNORECASE)
+_CURRENT_REFERENCE = re.compile(r"\bi\(\s*([^()\s]+)\s*\)", re.IGNORECASE)
+
+
+def expression_references(element: Element) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """(the nodes named in ``v(...)``, the sources named in ``i(...)``), lower-case and in the order written, of an E, G or B
+    whose value is an expression (no controlling nodes of its own: its text after the two output nodes); ((), ()) for
+    any other element. The names are as written, in the element's own scope."""
+    if element.kind not in "EGB" or len(element.nodes) != 2:
+        return (), ()
+    text = " ".join(element.tokens[2:])
+    nodes = tuple(n.lower() for m in _VOLTAGE_REFERENCE.finditer(text) for n in m.groups() if n)
+    return nodes, tuple(m.group(1).lower() for m in _CURRENT_REFERENCE.finditer(text))
 
 
 def controlling_sources(element: Element) -> tuple[str, ...]:

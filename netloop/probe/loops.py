@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Collection, Iterable
 from dataclasses import dataclass
 
+from netloop.netlist.cards import controlling_sources, expression_references
 from netloop.netlist.model import Netlist
 from netloop.probe.scope import flattener, primitive_elements
 
@@ -33,10 +34,14 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
 
     An element left with no node (all of them AC ground) is not in the graph. A K card (coupled inductors) touches the
     nodes of the inductors it names: signal passes between their windings (ngspice manual, coupled inductors), as the
-    signal-flow graph's edges across it say (netloop.graph.signal_flow).
+    signal-flow graph's edges across it say (netloop.graph.signal_flow). So do the elements controlled from elsewhere:
+    an E, G or B whose value is an expression touches the nodes its ``v(...)`` name and those of the sources its ``i(...)``
+    name, and an F, H or W those of its controlling sources (a source named from inside an instance is looked up
+    outward, as ngspice does).
     """
     g = Connectivity([], [], [], {})
     couplings: list[tuple[str, str, tuple[str, ...]]] = []  # (K label, its scope's prefix, the inductors' names)
+    sensed: list[tuple[str, tuple[str, ...], tuple[str, ...]]] = []  # (label, its scope's path, the sources whose current it reads)
     ids: dict[str, int] = {}  # label -> element id (of the first letter seen with that label)
     more_ids: dict[tuple[str, str], int] = {}  # (label, letter) for a label seen with another letter too
     at_node = g.at_node
@@ -54,8 +59,12 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
         if name[0] in "kK":  # its tokens name inductors, not nodes: joined once every inductor is in the graph
             couplings.append((label, prefix, tuple(t.lower() for t in e.tokens[:2])))
             continue
+        named, sources = expression_references(e)
+        sources += controlling_sources(e)
+        if sources:
+            sensed.append((label, s.path, sources))
         mine = None
-        for node in e.nodes if same else map(flat, e.nodes):
+        for node in (*e.nodes, *named) if same else map(flat, (*e.nodes, *named)):
             if node in ac_ground:
                 continue
             if mine is None:
@@ -80,6 +89,16 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
                 at_node[node] = [k]
             else:
                 here.append(k)
+    for label, path, sources in sensed:
+        k = ids.get(label)
+        if k is None:
+            continue
+        for source in sources:
+            found = next((i for depth in range(len(path), -1, -1) if (i := ids.get(".".join((*path[:depth], source)))) is not None), None)
+            for node in g.nodes[found] if found is not None else ():
+                if node not in g.nodes[k]:
+                    g.nodes[k].append(node)
+                    at_node.setdefault(node, []).append(k)
     for label, prefix, inductors in couplings:
         nodes = list(dict.fromkeys(n for name in inductors if (i := ids.get(prefix + name)) is not None and g.kinds[i] == "L"
                                    for n in g.nodes[i]))
