@@ -30,9 +30,11 @@ from collections.abc import Mapping
 from dataclasses import dataclass, replace
 
 from netloop.errors import ProbeError
+from netloop.netlist.cards import expression_references
 from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist
-from netloop.probe.scope import GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, walk_scopes
+from netloop.probe.scope import (GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, primitive_elements,
+                                 walk_scopes)
 
 __all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "fed_terminals", "terminals_at"]
 
@@ -636,14 +638,28 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
         moved = [t for t, b, _ in placed if b.side == "driver"]
     loads = [t for t in loads if t not in moved]
     if not loads:
-        raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
+        readers = _expression_readers(netlist, globals_, scope.flat(node, globals_))  # they read the load side, unchanged
+        if not readers:
+            raise ProbeError(f"node {name}: every terminal but the drivers goes only to AC ground ({listing}); it is not on a loop")
+    else:
+        readers = []
     bridges = tuple(dict.fromkeys(b for _, b, _ in placed))
     on_driver = {t.label for t in (*drivers, *moved)}
     with_driver = [t for t in tied if t.tied in on_driver]
     loads += [t for t in tied if t.tied not in on_driver and t.role != "shunt"]
     shunt += [t for t in tied if t.tied not in on_driver and t.role == "shunt"]
-    text = _sentence(drivers, moved, loads, shunt, bridges, how, tied)
+    text = _sentence(drivers, moved, loads, shunt, bridges, how, tied, readers)
     return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges)
+
+
+def _expression_readers(netlist: Netlist, globals_, flat_node: str) -> list[str]:
+    """The labels of the behavioural E, G and B elements whose expression reads ``flat_node`` through v(...)."""
+    readers = []
+    for scope, e in primitive_elements(netlist, globals_):
+        named, _ = expression_references(e)
+        if named and flat_node in map(flattener(scope, globals_), named):
+            readers.append(scope.label(e))
+    return readers
 
 
 def _fed(near: _Neighbourhood, node: str, loads) -> list[Terminal]:
@@ -663,7 +679,7 @@ def fed_terminals(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Te
     return tuple(_fed(_Neighbourhood(netlist, scope, ac_ground, globals_), node, [t for t in terminals if t.role == "load"]))
 
 
-def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
+def _sentence(drivers, moved, loads, shunt, bridges, how, tied=(), readers=()) -> str:
     """decided_by: one sentence a designer can check against the schematic."""
     if how == "through":
         parts = [f"driver side: {', '.join(t.label for t in drivers)} (no active output sits on the node; these bring the signal "
@@ -682,7 +698,10 @@ def _sentence(drivers, moved, loads, shunt, bridges, how, tied=()) -> str:
     for b in bridges:
         if b.side == "driver":
             parts.append(f"with {b.element} ({b.reason})")
-    parts.append(f"load side: {', '.join(t.label for t in loads) or 'only elements to AC ground'}")
+    if readers:  # no load terminal: behavioural expressions read the node, and keep reading it on the load side
+        parts.append(f"load side: {', '.join(readers)}, whose expression reads the node (it keeps its name, so they read the load side)")
+    else:
+        parts.append(f"load side: {', '.join(t.label for t in loads) or 'only elements to AC ground'}")
     for b in bridges:
         if b.side == "load" and b.reason:
             parts.append(f"{b.element} on the load side ({b.reason})")

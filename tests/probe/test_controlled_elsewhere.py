@@ -42,3 +42,16 @@ def test_without_that_control_the_node_is_on_no_loop(name):
     text = f"{name} (invented)\n{body.replace(control, other, 1)}.end\n"
     with pytest.raises(ProbeError, match="not on any loop|it is not on a loop"):
         break_loop(parse_text(text), at)
+
+
+def test_a_node_only_an_expression_reads_is_split_with_the_expression_on_the_load_side():
+    """fb's terminals are the divider's (rf brings the signal from e, rg goes to ground) and g1 reads it only in its
+    expression: the split keeps the name fb for the load side, so the expression reads the load side, and says so; without
+    the reader, fb is on no loop (reference: the wiring, read by hand; T is checked against ngspice in
+    tests/jobs/measure/test_controlled_elsewhere.py)."""
+    text = "g reads fb (invented)\nG1 0 e value={1m*V(fb)}\nRe e 0 1meg\nRf e fb 10k\nRg fb 0 10k\n.end\n"
+    probed = break_loop(parse_text(text), "fb")
+    assert (probed.side_b, probed.load_terminals, probed.driver_terminals) == ("fb", (), ("rf.n",))
+    assert "load side: g1, whose expression reads the node (it keeps its name, so they read the load side)" in probed.decided_by
+    with pytest.raises(ProbeError, match="every terminal but the drivers goes only to AC ground .*; it is not on a loop"):
+        break_loop(parse_text(text.replace("V(fb)", "V(e)")), "fb")

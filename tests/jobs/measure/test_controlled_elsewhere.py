@@ -27,6 +27,9 @@ CASES = {
                 ("E1 e 0 value={1000*(V(inp)-V(fb))}\n", "E1 x 0 value={1000*(V(inp)-V(fb))}\nVt e 0 dc 0 ac 1\n", "x")),
     "g-value": ("Vin inp 0 dc 0.5\nG1 0 e value={1m*(V(inp)-V(fb))}\nRe e 0 1meg\n" + _DIVIDER, "e",
                 ("G1 0 e value={1m*(V(inp)-V(fb))}\n", "G1 0 e value={1m*(V(inp)-V(x))}\nVt x 0 dc 0 ac 1\n", "fb")),
+    # broken where only the expression reads the node (no load terminal there: the expression reads the load side)
+    "g-value-read-at-fb": ("Vin inp 0 dc 0.5\nG1 0 e value={1m*(V(inp)-V(fb))}\nRe e 0 1meg\n" + _DIVIDER, "fb",
+                           ("G1 0 e value={1m*(V(inp)-V(fb))}\n", "G1 0 e value={1m*(V(inp)-V(x))}\nVt x 0 dc 0 ac 1\n", "fb")),
     "f-cccs": (_SENSE + "F1 0 fb Vs 3\nRfb fb 0 1k\nCfb fb 0 1p\n", "fb", _READ_FB),
     "h-ccvs": (_SENSE + "H1 h 0 Vs 3k\nRh h fb 1k\nCfb fb 0 1p\n", "fb", _READ_FB),
     "b-reads-i": (_SENSE + "B1 h 0 V = 3k*i(Vs)\nRh h fb 1k\nCfb fb 0 1p\n", "fb", _READ_FB),
@@ -34,6 +37,10 @@ CASES = {
     "b-in-a-block": (".subckt amp inp inn out\nB1 o1 0 V = 1000*v(inp,inn)\nRo o1 out 1k\n.ends\nVin inp 0 dc 0.5\n"
                      "Xa inp fb o amp\nC1 o 0 10p\nRf o fb 10k\nRg fb 0 10k\n", "xa.o1",
                      ("B1 o1 0 V = 1000*v(inp,inn)\n", "B1 x 0 V = 1000*v(inp,inn)\nVt o1 0 dc 0 ac 1\n", "xa.x")),
+    # the same block broken at its inverting input's net, which only its expression reads
+    "b-in-a-block-read-at-fb": (".subckt amp inp inn out\nB1 out 0 V = 1000*v(inp,inn)\n.ends\nVin inp 0 dc 0.5\n"
+                                "Xa inp fb o1 amp\nRo o1 o 1k\nC1 o 0 10p\nRf o fb 10k\nRg fb 0 10k\n", "fb",
+                                ("Xa inp fb o1 amp\n", "Xa inp x o1 amp\nVt x 0 dc 0 ac 1\n", "fb")),
 }
 SWEEP = Sweep(fmin_hz=1.0, fmax_hz=1e12, points_per_decade=10, refine=False, fmin_given=True, fmax_given=True)
 
