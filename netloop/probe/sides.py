@@ -158,7 +158,8 @@ def _role(netlist: Netlist, scope: Scope, e: Element, slot: int, pin: str, ac_gr
 
 
 def _instance_role(netlist: Netlist, scope: Scope, e: Element, slot: int, ac_ground, globals_, depth: int) -> str:
-    """An instance pin is an output when, inside, a driver terminal sits on the net it connects to."""
+    """An instance pin is an output when, inside, a driver terminal sits on the net it connects to, or passive elements
+    bring the signal to that net from one (_fed)."""
     child = child_scope(netlist, scope, e, globals_)
     if child is None or depth > 64:
         model = (e.model or "").lower()
@@ -167,13 +168,19 @@ def _instance_role(netlist: Netlist, scope: Scope, e: Element, slot: int, ac_gro
             return _role(netlist, scope, proxy, slot, ("d", "g", "s", "b")[slot], ac_ground, globals_, depth)
         return "load"
     inner_net = child.definitions[-1].pins[slot]
-    roles = {t.role for t in terminals_at(netlist, child, inner_net, ac_ground, globals_, depth + 1)}
+    inside = terminals_at(netlist, child, inner_net, ac_ground, globals_, depth + 1)
+    roles = {t.role for t in inside}
     if "driver" in roles:
         return "driver"
     if "cg" in roles:
         return "cg"
     if roles <= {"shunt"}:
         return "shunt"
+    # an output behind passive elements (a model's output resistance): the inside brings the signal from an output through
+    # them, sooner than it leads on to an input (the rule for a node without an output on it, applied inside)
+    passive = [t for t in inside if t.role == "load" and t.slot >= 0 and t.element.kind in _PASSIVE_PATH]
+    if passive and _fed(_Neighbourhood(netlist, child, ac_ground, globals_, depth + 1), inner_net, passive):
+        return "driver"
     return "load"
 
 
@@ -294,8 +301,9 @@ def _through_source(netlist: Netlist, scope: Scope, node: str, source: Element, 
 class _Neighbourhood:
     """The elements of one scope by the nodes they touch, built once per split (only when a bridge must be placed)."""
 
-    def __init__(self, netlist: Netlist, scope: Scope, ac_ground, globals_):
+    def __init__(self, netlist: Netlist, scope: Scope, ac_ground, globals_, depth: int = 0):
         self.netlist, self.scope, self.ac_ground, self.globals_ = netlist, scope, ac_ground, globals_
+        self.depth = depth  # how deep inside instances the roles are asked (_instance_role's nesting guard)
         self.at: dict[str, list[tuple[Element, int, str]]] = {}
         for e in elements_of(netlist, scope):
             pins = _device_pins(netlist, scope, e)
@@ -310,7 +318,7 @@ class _Neighbourhood:
         key = (id(e), slot)
         role = self._roles.get(key)
         if role is None:
-            role = self._roles[key] = _role(self.netlist, self.scope, e, slot, pin, self.ac_ground, self.globals_)
+            role = self._roles[key] = _role(self.netlist, self.scope, e, slot, pin, self.ac_ground, self.globals_, self.depth)
         return role
 
     def other_nodes(self, e: Element, slot: int) -> list[str]:

@@ -424,3 +424,33 @@ def test_flat_terminals_name_a_device_wrapper_pins_after_its_definition():
             ".ends nfet_g\nVdd vdd 0 dc 3.3\nX1 a b 0 0 nfet_g\nR1 vdd b 1k\nR2 a 0 1k\n")
     pins = [(t.element.key, t.pin, t.node) for t in flat_terminals(parse_text(text), frozenset()) if t.element.key == "x1"]
     assert pins == [("x1", "g", "a"), ("x1", "d", "b"), ("x1", "s", "0"), ("x1", "b", "0")]
+
+
+# Invented: a behavioural amplifier block whose output sits behind its output resistance ro (as amplifier models have it),
+# in a gain-of-2 loop; and a block whose pin goes through a protection resistor rp into an input.
+_MODEL_OUT = ("amplifier models (invented)\n.subckt amp inp inn out\ne1 o 0 inp inn 1e4\nro o out 1k\n.ends\n.subckt prot in out\nrp in g 1k\n"
+              "e1 out 0 g 0 2\nrl out 0 1k\n.ends\nvin in<0> 0 dc 0 ac 1\nx1 in<0> net#1 out<0> amp\nr2 out<0> net#1 10k\n"
+              "r3 net#1 0 10k\nx2 out<0> y prot\nry y 0 1k\n.end\n")
+
+
+def test_an_instance_output_behind_passive_elements_inside_drives_the_net_outside():
+    """The block's out pin is reached inside only through ro from e1's output (one passive element), sooner than any input:
+    by the rule for a node without an output on it, applied inside, the pin is an output, so the block drives out<0> (its
+    loads outside: r2 and the other block's input) and, through r2, the feedback net net#1 (reference: the netlist's
+    wiring, read by hand, and docs/splitting.md's rules). Before, both nodes were refused: 'no driver found'."""
+    out = break_loop(parse_text(_MODEL_OUT), "out<0>")
+    assert (out.driver_terminals, set(out.load_terminals)) == (("x1.out",), {"r2.p", "x2.in"})
+    fb = break_loop(parse_text(_MODEL_OUT), "net#1")
+    assert (fb.driver_terminals, fb.load_terminals) == (("r2.n",), ("x1.inn",))
+
+
+def test_an_instance_pin_that_leads_through_a_resistor_into_an_input_is_not_an_output():
+    """x2's pin in reaches, through rp, only e1's controlling input inside: it is an input of the block, a load on out<0>
+    (reference: the netlist's wiring, read by hand)."""
+    from netloop.probe.sides import terminals_at
+    from netloop.probe.scope import walk_scopes
+
+    netlist = parse_text(_MODEL_OUT)
+    top = next(iter(walk_scopes(netlist, frozenset())))
+    roles = {t.label: t.role for t in terminals_at(netlist, top, "out<0>", frozenset({"0", "in<0>"}), frozenset())}
+    assert roles == {"x1.out": "driver", "r2.p": "load", "x2.in": "load"}
