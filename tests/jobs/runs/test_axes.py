@@ -25,6 +25,8 @@ def test_numeric_settings_become_axes_with_units_and_scale():
     assert [(a.key, a.unit, a.log) for a in axes] == [("temp", "°C", False), ("param.iload", "A", True)]
     assert axes[1].values == pytest.approx((1e-4, 1e-3, 1e-2), rel=1e-12)
     assert axes[0].values == (-40.0, 27.0, 125.0)
+    # a .param the plan's [units] leaves out has no unit: "" (NumericAxis.unit is text, "" for none), which labels print as nothing
+    assert [(a.key, a.unit) for a in numeric_axes(RUN)] == [("temp", "°C"), ("param.iload", "")]
 
 
 def test_element_settings_carry_the_unit_of_their_element_letter():

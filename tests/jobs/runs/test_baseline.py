@@ -110,3 +110,7 @@ def test_a_corner_without_figures_on_either_side_is_not_compared(runs):
     cmp = compare_runs(a, (broken, *b[1:]), parse_limits(["pm=0deg"]))
     c = next(c for c in cmp.changes if c.corner == b[0]["corner"])
     assert c.not_compared.startswith("this run has no figures") and c.regressions == () and c.figures == ()
+    assert (c.outcome_before, c.outcome_now) == (a[0]["outcome"], "error") and a[0]["outcome"] != "error"  # each run's own outcome
+    back = next(c for c in compare_runs((broken, *b[1:]), a, parse_limits(["pm=0deg"])).changes if c.corner == b[0]["corner"])
+    assert back.not_compared == "the baseline has no figures for it (error)" and back.regressions == () and back.figures == ()
+    assert (back.outcome_before, back.outcome_now) == ("error", a[0]["outcome"])

@@ -62,6 +62,8 @@ def test_exceeded(text, before, now, exceeded):
 
 
 @pytest.mark.parametrize(("text", "says"), [
+    ("pm>2", "it does not have the form FIGURE=AMOUNT"),  # no '=': the form parse_limit's docstring gives
+    ("xx=2", "unknown figure 'xx'"),
     ("pm=2V", "the amount of phase margin: '2V': 'V' is not a multiplier or unit for an angle"),
     ("gm=2deg", "the amount of gain margin: '2deg'"),
     ("fc=ten%", "'ten%' is not a percentage"),
@@ -69,8 +71,9 @@ def test_exceeded(text, before, now, exceeded):
     ("fc=inf%", "the amount must be a finite number, 0 or more"),
 ])
 def test_a_bad_amount_says_what_is_wrong_with_it(text, says):
-    """An amount in the wrong unit names the figure and the unit problem; a percentage that is no number says so
-    (and not the figure's unit, which a percentage does not use)."""
+    """A limit not of the form FIGURE=AMOUNT, or of an unknown figure, says which; an amount in the wrong unit names the
+    figure and the unit problem; a percentage that is no number says so (and not the figure's unit, which a percentage
+    does not use)."""
     with pytest.raises(PlanError) as info:
         parse_limit(text)
     assert f"cannot read limit {text!r}: {says}" in str(info.value)

@@ -32,6 +32,14 @@ def test_the_last_record_of_a_corner_counts_and_a_cut_last_line_is_left_out(tmp_
     assert run.replaced == 1 and run.plan == "/p/plan.toml" and run.started.startswith("2026-01-02")
 
 
+def test_a_results_file_keeps_the_path_it_was_read_from(tmp_path):
+    """The run names the file given (as text, whether given as text or a Path) and its name heads columns and legends;
+    the reference is the path the test wrote."""
+    path = _write(tmp_path / "r.jsonl", HEADER, _corner("a", 50.0))
+    assert (read_results(path).path, read_results(tmp_path / "r.jsonl").path) == (path, path)
+    assert read_results(path).name == "r.jsonl"
+
+
 def test_one_corner_at_two_break_nodes_is_two_records(tmp_path):
     """Records are matched by corner and break node: the same corner at two nodes is two loops."""
     run = read_results(_write(tmp_path / "r.jsonl", HEADER, _corner("a", 50.0, "out"), _corner("a", 40.0, "fb")))

@@ -1,16 +1,19 @@
-"""A solved value written into a copy of the netlist: the right token, one instance only, the input untouched;
-and in ngspice the copy measures as the altered circuit does."""
+"""A solved value written into a copy of the netlist: the right token, one instance only, the input untouched; a copy
+for a knob's slopes probed as the loop was; and in ngspice the copy measures as the altered circuit does."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
 import pytest
+from test_sensitivity_closed_form import MILLER, MILLER_DRIVER
 
-from netloop.jobs.measure import load_netlist, measure
+from netloop.jobs.measure import load_netlist, measure, probe_job
 from netloop.jobs.sensitivity import find_knobs, select_knobs
 from netloop.jobs.sensitivity.edit import changed_netlist
+from netloop.jobs.sensitivity.remeasure import Copies
 from netloop.netlist import parse_text, write_netlist
+from netloop.probe import split_loop
 
 ROOT = Path(__file__).resolve().parents[3]
 
@@ -50,6 +53,23 @@ def test_an_instance_gets_its_own_copy_of_the_definition():
     assert card == "rd out 0 5000.0"
     assert ".subckt stage_changed_in_x1 in out" in text and "x1 a y stage_changed_in_x1" in text
     assert "x2 a z stage\n" in text and "rd out 0 10k" in text
+
+
+def test_a_copy_is_probed_as_the_measured_loop_was():
+    """A knob measured on edited copies (remeasure.Copies) gets the measured loop's own split: with driver= "g2,cc.n" the
+    Miller capacitor stays on the driver side (Cc n1 out_drive), where the automatic split would put it on the load side;
+    the copy differs from the measured loop's probe deck only by the .param line and the knob's card (the reference is
+    the measured loop's deck, split_loop with the same driver, as the sensitivity job builds it). The job is called by
+    the knob and its factor, as the what-if's re-measurements are (its status line, its kept deck's name)."""
+    netlist = parse_text(MILLER)
+    loop = probe_job(split_loop(netlist, "out", driver=MILLER_DRIVER)[0], ()).netlist.splitlines()
+    assert "Cc n1 out 4e-13" in write_netlist(split_loop(netlist, "out")[0].netlist)  # the automatic split differs here
+    job, vectors = Copies(netlist, "out", MILLER_DRIVER, 600.0).probed(_knob(netlist, "r2"), 1.5)
+    copy = job.netlist.splitlines()
+    assert copy[1] == ".param netloop_knob_scale=1.5" and copy[7] == "R2 out 0 {(100000.0)*netloop_knob_scale}"
+    assert copy[:1] + copy[2:7] + copy[8:] == loop[:6] + loop[7:] and loop[6] == "R2 out 0 100000.0"
+    assert "Cc n1 out_drive 4e-13" in copy and vectors == split_loop(netlist, "out", driver=MILLER_DRIVER)[0].vectors
+    assert job.label == "r2 x1.5"
 
 
 @pytest.mark.ngspice

@@ -14,6 +14,7 @@ implicit differentiation, written out here) and python-control 0.10's stability_
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import control
 import numpy as np
@@ -336,3 +337,27 @@ def test_a_what_if_on_a_figure_the_loop_does_not_have_says_so(tmp_path, simulato
     (w,) = run.what_ifs
     assert w.solved_value is None and w.check is None
     assert w.answer == "the measured loop has no worst phase margin to move", w.answer
+
+
+@pytest.mark.ngspice
+def test_its_own_ngspice_keeps_decks_only_where_asked_and_runs_the_processes_asked(tmp_path, monkeypatch):
+    """Without a simulator given, sensitivities starts its own ngspice: processes=2 shares each job's two runs out to two
+    ngspice processes (netloop.jobs.measure.simulator_processes: the number given, at most one a run); without keep_decks
+    nothing is written where it runs (not even a folder), and with it every deck is kept in that folder (README: `--keep-decks
+    DIR` keeps the ngspice decks), the what-if's fresh measurement called by the knob and the solved value it measures."""
+    path = tmp_path / "two_pole.cir"
+    path.write_text(TWO_POLE)
+    work = tmp_path / "work"
+    work.mkdir()
+    monkeypatch.chdir(work)
+    plain = sensitivities(path, "out", knobs=["c2"], processes=2)
+    assert (plain.nominal.sim.processes, plain.nominal.sim.deck_path) == (2, None) and plain.sensitivities[0].problem is None
+    assert list(work.iterdir()) == []
+    decks = tmp_path / "decks"
+    kept = sensitivities(path, "out", knobs=["c2"], requirements=["pm>=60"], solve=["c2"], keep_decks=decks)
+    (w,) = kept.what_ifs
+    assert w.solved_value == pytest.approx(two_pole_c2_for_pm(60.0), rel=1e-4)  # the closed form's C2
+    assert {Path(r.sim.deck_path).parent for r in (kept.nominal, w.check)} == {decks} and len(list(decks.glob("*.cir"))) > 2
+    name, _, shown = w.check.label.partition(" = ")
+    assert name == "c2" and float(shown) == pytest.approx(w.solved_value, rel=1e-5)
+    assert Path(w.check.sim.deck_path).name.startswith("c2_") and list(work.iterdir()) == []

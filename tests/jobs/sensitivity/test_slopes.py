@@ -1,7 +1,10 @@
-"""One knob's slopes when a simulation fails part of the way: no slope, the failure said, the values read kept
-(stand-in measurements, no simulator: the failure is ngspice's SimulationError as the simulators raise it)."""
+"""One knob's slopes when a simulation fails part of the way (no slope, the failure said, the values read kept), and the
+value of a knob measured on edited copies (stand-in measurements, no simulator: the failure is ngspice's SimulationError
+as the simulators raise it)."""
 
 from __future__ import annotations
+
+import pytest
 
 from netloop.analysis.local import LocalReading
 from netloop.errors import SimulationError
@@ -40,3 +43,18 @@ def test_a_failed_simulation_gives_no_slope_and_says_why():
     assert all(s.slope(f) == Slope(None, None) for f in ("pm", "gm", "fc", "peak"))
     assert s.value == C1
     assert [p.scale for p in s.probes] == remeasure.scales[:2] and len(STEPS) == 4
+
+
+def test_a_knob_read_from_an_edited_copy_has_the_value_its_card_writes():
+    """A wrapper's width is measured on edited copies, which change no loaded value and so report none (no Alter: the
+    readings' loaded maps are empty); its value is the card's, w=2 at .option scale=1u: 2e-6 m (Knob.written, by hand)."""
+    netlist = parse_text("wrapped\n.subckt nwrap d g s b\n.param l=1 w=1\nmdev d g s b nmod l={l} w={w}\n"
+                         ".model nmod nmos level=1\n.ends\n.option scale=1u\nxm1 d g 0 0 nwrap w=2 l=0.5\nrd d 0 1k\n.end\n")
+    knob = next(k for k in find_knobs(netlist) if k.name == "xm1:w")
+
+    class _Copies:
+        def read(self, simulator, knob, scale):
+            return Reading(LocalReading(50.0 + scale, 1e6, None, None, 1.0), False, {})
+
+    s = knob_slopes(_Copies(), None, knob, 0.01)
+    assert not knob.in_place and s.problem is None and s.value == pytest.approx(2e-6, rel=1e-12)

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pytest
 
 from netloop.analysis import parse_requirements
@@ -131,3 +132,58 @@ def test_a_range_that_does_not_hold_the_value_is_refused_before_anything_runs(sp
     """LOW < 1 < HIGH, both finite and LOW > 0: a range that does not surround the measured value is an error (no netlist is read)."""
     with pytest.raises(NetloopError, match="the range of a what-if must be LOW,HIGH factors"):
         sensitivities("no-such-netlist.cir", "out", span=span)
+
+
+class _Required:
+    """``pm>=60`` read from a stand-in measurement: the remeasurement below hands over the factor, and the phase margin
+    is ``pm_at(factor)``, a curve drawn by hand (no simulator)."""
+
+    op, threshold, metric, text = ">=", 60.0, "pm", "pm>=60"
+
+    def __init__(self, pm_at):
+        self.pm_at = pm_at
+
+    def check(self, factor):
+        from netloop.analysis.requirements import RequirementOutcome  # noqa: PLC0415
+
+        pm = self.pm_at(factor)
+        return RequirementOutcome(self, pm, pm >= self.threshold, "")
+
+
+class _ByFactor:
+    """A Remeasure whose whole measurement at a factor is that factor (what _Required reads)."""
+
+    def whole(self, simulator, knob, factor, label=""):
+        return factor, {}
+
+
+def _pm_through(points):
+    """The phase margin through (ln factor, pm) points, linear between them and constant beyond the ends."""
+    phis, pms = zip(*sorted(points), strict=True)
+    return lambda factor: float(np.interp(math.log(factor), phis, pms))
+
+
+def test_the_march_steps_a_sixth_of_a_decade_and_stops_at_the_ends_of_the_range(c2):
+    """pm = 50 - 8 log10(factor) deg meets pm>=60 only below 10^-1.25 = 0.056x; searched in (0.5, 10) with no slope known:
+    up first, six steps of a sixth of a decade to 10x, then down, 10^(-1/6)x and 0.5x, the end of the range (not past it):
+    no value in range, and the values tried are exactly those (the whatif module's docstring: six steps a decade; the
+    range as sensitivities' span). The best, by hand: 50 + 8 log10(2) = 52.41 deg at 0.5x."""
+    from netloop.jobs.sensitivity.whatif import solve_knob  # noqa: PLC0415
+
+    solution = solve_knob(_ByFactor(), None, c2, _Required(lambda f: 50.0 - 8.0 * math.log10(f)), 1.0, NONE, (0.5, 10.0))
+    assert solution.factor is None and not solution.met_at_value and solution.monotonic
+    expected = sorted([0.5, 10 ** (-1 / 6), 1.0, *(10 ** (k / 6) for k in range(1, 7))])
+    assert [f for f, _ in solution.tried] == pytest.approx(expected, rel=1e-12)
+    assert solution.reason == "pm>=60 cannot be reached by c2 alone between 0.5x and 10x: the best is 52.41 deg at 0.5x"
+
+
+def test_a_figure_that_turns_back_on_the_way_to_the_boundary_is_not_monotonic(c2):
+    """pm rising with the value (slope +5 deg/decade) but dipping on the way: 50, 55, 52 deg at 1, 10^(1/6), 10^(2/6)x,
+    then 65 deg at 10^(3/6)x. The boundary (60 deg, by hand 10^(2/6 + (8/13)/6)x on the straight piece) is found, and
+    the answer says the figure did not move one way (records.WhatIf.monotonic)."""
+    from netloop.jobs.sensitivity.whatif import solve_knob  # noqa: PLC0415
+
+    required = _Required(_pm_through([(0.0, 50.0), (STEP_LN, 55.0), (2 * STEP_LN, 52.0), (3 * STEP_LN, 65.0)]))
+    solution = solve_knob(_ByFactor(), None, c2, required, 1.0, Slope(5.0, None), (0.1, 10.0))
+    assert solution.factor == pytest.approx(10 ** ((2 + 8 / 13) / 6), rel=1e-8)
+    assert solution.monotonic is False
