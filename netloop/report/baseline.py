@@ -15,7 +15,8 @@ __all__ = ["baseline_document", "change_cells", "changes_table", "figure_text", 
 
 
 def figure_text(metric: str, value: float | None) -> str:
-    """A figure as printed: "52.33 deg", "13.0 MHz", "inf dB" (no phase crossover), "-" (none)."""
+    """A figure as printed: "52.33 deg", "13.0 MHz", "0.767" (the modulus margin, a ratio, as the loop's own report gives
+    it), "inf dB" (no phase crossover), "-" (none)."""
     if value is None:
         return NONE
     if math.isinf(value):
@@ -23,6 +24,8 @@ def figure_text(metric: str, value: float | None) -> str:
     unit = FIGURES[metric].unit
     if unit in ("deg", "dB"):
         return f"{value:.2f} {unit}"
+    if not unit:
+        return f"{value:.3f}"
     return eng(value, unit)
 
 
@@ -52,12 +55,20 @@ def change_cells(c: Change) -> list[str]:
     return cells
 
 
+def _allowed(lim: Limit) -> str:
+    """A limit's amount as it reads: "2 deg", "10 %", "1.00 MHz", "0.1" (a ratio: no unit, no SI prefix)."""
+    unit = FIGURES[lim.metric].unit
+    if lim.percent:
+        return f"{lim.amount:g} %"
+    if unit in ("deg", "dB", ""):
+        return f"{lim.amount:g} {unit}".rstrip()
+    return eng(lim.amount, unit)
+
+
 def limit_text(lim: Limit) -> str:
     """How a limit reads: "pm may fall by at most 2 deg", "peak may rise by at most 1 dB", "fc may fall by at most 10 %"."""
     way = "rise" if FIGURES[lim.metric].worse > 0 else "fall"
-    amount = f"{lim.amount:g} %" if lim.percent else (f"{lim.amount:g} {FIGURES[lim.metric].unit}" if FIGURES[lim.metric].unit in ("deg", "dB")
-                                                    else eng(lim.amount, FIGURES[lim.metric].unit))
-    return f"{lim.metric} may {way} by at most {amount}".rstrip()
+    return f"{lim.metric} may {way} by at most {_allowed(lim)}"
 
 
 def regression_sentence(reg: Regression, *, several_nodes: bool = False) -> str:
@@ -73,11 +84,8 @@ def regression_sentence(reg: Regression, *, several_nodes: bool = False) -> str:
         size = f" by {abs(reg.now - reg.before) / abs(reg.before) * 100:.1f} %" if reg.before else ""
     else:
         size = " by " + figure_text(reg.metric, abs(reg.now - reg.before))
-    unit = FIGURES[reg.metric].unit
-    allowed = f"{reg.limit.amount:g} %" if reg.limit.percent else (f"{reg.limit.amount:g} {unit}" if unit in ("deg", "dB")
-                                                                   else eng(reg.limit.amount, unit))
     return (f"{where}: {f.name} {way}{size} ({figure_text(reg.metric, reg.before)} -> {figure_text(reg.metric, reg.now)}), "
-            f"more than the {allowed} allowed")
+            f"more than the {_allowed(reg.limit)} allowed")
 
 
 def _several(cmp: BaselineComparison) -> bool:

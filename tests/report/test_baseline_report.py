@@ -78,3 +78,30 @@ def test_one_regression_reads_in_the_singular_and_nothing_is_skipped(comparison)
     assert (suite.get("tests"), suite.get("failures"), suite.get("errors"), suite.get("skipped")) == ("3", "1", "0", "0")
     props = {p.get("name"): p.get("value") for p in suite.find("properties")}
     assert props["baseline"] == comparison.baseline and props["limit.pm"] == comparison.limits[0].text  # what it was compared with
+
+
+@pytest.mark.parametrize("written,reads", [
+    ("fc=1MHz", "fc may fall by at most 1.00 MHz"), ("dm=2ns", "dm may fall by at most 2.00 ns"),
+    ("peak=0.5dB", "peak may rise by at most 0.5 dB"), ("mm=0.1", "mm may fall by at most 0.1"),
+])
+def test_a_limit_reads_in_its_figure_s_unit(written, reads):
+    """A limit given in the figure's unit reads back in it (README, Baselines and trends: "in the figure's unit (2deg,
+    1dB, 1MHz)"); the modulus margin, a ratio, reads as a plain number, not "100 m"."""
+    from netloop.jobs.runs.limits import parse_limit
+    from netloop.report.baseline import limit_text
+
+    assert limit_text(parse_limit(written)) == reads
+
+
+def test_a_figure_that_is_gone_is_a_regression_that_says_what_it_was():
+    """A figure that existed and is gone (README: a loop that no longer crosses 0 dB is a regression) reads with its
+    value before and the limit in words; the modulus margin's regression gives its ratios as the loop report does."""
+    from netloop.jobs.runs.baseline import Regression
+    from netloop.jobs.runs.limits import parse_limit
+
+    gone = Regression("iload=1m/esr=1", "fb", "fc", 5.02e6, None, parse_limit("fc=10%"))
+    assert regression_sentence(gone) == "iload=1m/esr=1: crossover was 5.02 MHz and is gone now (limit: fc may fall by at most 10 %)"
+    fell = Regression("iload=1m/esr=1", "fb", "mm", 0.767, 0.617, parse_limit("mm=0.1"))
+    # 0.767 - 0.617 = 0.150 by hand; three decimals as the text report's "modulus margin 0.767"
+    assert regression_sentence(fell) == ("iload=1m/esr=1: modulus margin fell by 0.150 (0.767 -> 0.617), more than the 0.1 "
+                                         "allowed")

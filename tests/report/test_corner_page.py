@@ -117,3 +117,26 @@ def test_the_boundaries_give_the_axis_range_and_the_esr_window(runs):
     (low, high), = [w.groups() for w in (re.search(r"^pm >= 45 holds for ([0-9.]+) mΩ <= esr <= ([0-9.]+) Ω at iload=100m$", s)
                                          for s in sentences) if w]
     assert 10 < float(low) < 300 and 0.3 < float(high) < 3
+
+
+def test_a_corner_s_summary_gives_its_phase_margin_and_its_requirement_rows_say_met_or_not():
+    """Each corner's details open on "phase margin P deg, crossover F" (the closed form's PM and crossover of the
+    Cdec-free LDO, ldo_model.phase_margin_deg), and its requirement row is green ("ok") where pm >= 45 holds and red
+    ("bad") where it fails; the page's "about" table names the results file."""
+    import ldo_model
+
+    corners = ((1e-3, 0.3), (1e-2, 0.01), (1e-1, 3.0))  # closed form: 82.1, 27.6 and 90.4 deg
+    records = tuple(record({"param.iload": f"{i:g}", "param.esr": f"{e:g}"}, lambda f, i=i, e=e: t_of(f, i, e)) for i, e in corners)
+    page = html.unescape(render_corner_html(records, verdict="fail", title="t", results_file="ldo.results.jsonl", requirements=REQS))
+    assert "<tr><th>results file</th><td>ldo.results.jsonl</td></tr>" in page
+    details = dict(re.findall(r'<summary><strong>([^<]*)</strong> <span class="\w+">\w+</span> ([^<]*)</summary>', page))
+    rows = dict(re.findall(r'<details id="corner-\d+" class="corner">\s*<summary><strong>([^<]*)</strong>.*?'
+                           r'<tr><th>requirement pm >= 45</th><td class="(\w*)">', page, re.S))
+    for i, e in corners:
+        name = f"iload={i:g}/esr={e:g}"
+        pm, fc = ldo_model.phase_margin_deg(i, e), ldo_model.crossover_rad_s(i, e) / ldo_model.W
+        got = re.fullmatch(r"phase margin ([0-9.]+) deg, crossover ([0-9.]+) (k|M)Hz", details[name].strip())
+        assert got, details[name]
+        assert float(got[1]) == pytest.approx(pm, abs=0.05)
+        assert float(got[2]) * {"k": 1e3, "M": 1e6}[got[3]] == pytest.approx(fc, rel=0.01)
+        assert rows[name] == ("ok" if pm >= 45 else "bad")

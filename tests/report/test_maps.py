@@ -97,7 +97,8 @@ def test_write_maps_writes_png_and_svg_of_every_map(run, tmp_path):
 
 def test_each_panel_names_its_figure_with_its_unit_and_the_crossover_reads_in_hertz(run):
     """The four panels against ESR are labelled with their figure and unit, the crossover's ticks read in hertz with an SI
-    prefix (engineering notation, common practice), and the map's colour bar carries the same label as the panel."""
+    prefix (engineering notation, common practice), and the map's colour bar carries the same label as the panel (the
+    crossover map's bar in hertz too)."""
     esr = next(a for a in numeric_axes(run, UNITS) if a.name == "esr")
     fig = lines_figure(run, esr, REQS)
     # netloop.jobs.runs.figures.FIGURES: each figure's name and unit, as the text report gives them
@@ -106,6 +107,7 @@ def test_each_panel_names_its_figure_with_its_unit_and_the_crossover_reads_in_he
     iload, esr = numeric_axes(run, UNITS)
     (plane,) = planes(run, iload, esr)
     assert map_figure(plane, "pm", REQS).axes[1].get_ylabel() == "phase margin (deg)"
+    assert map_figure(plane, "fc", REQS).axes[1].yaxis.get_major_formatter()(2.5e6) == "2.5 MHz"
 
 
 def test_each_curve_runs_through_its_own_corners(run):

@@ -62,6 +62,18 @@ def test_bode_curves_are_the_gain_and_phase_of_t_against_frequency(stable_result
     assert ax_mag.get_xscale() == ax_ph.get_xscale() == "log"
 
 
+@pytest.mark.parametrize("fixture,tall,step", [("stable_result", True, 40.0), ("quiet_result", False, 20.0)])
+def test_bode_magnitude_ticks_are_decades_of_t_or_every_other_decade_on_a_tall_axis(request, fixture, tall, step):
+    """The magnitude axis is ticked every 20 dB (a decade of |T|, common practice) up to a span of 200 dB and every 40 dB
+    beyond, so that its labels stay apart: the two-stage loop's axis (80 dB at DC down past the -120 dB floor) is taller
+    than 200 dB, the quiet loop's (-20 dB at DC) is not."""
+    ax = bode_figure(request.getfixturevalue(fixture)).axes[0]
+    lo, hi = ax.get_ylim()
+    assert (hi - lo > 200) == tall
+    ticks = [t for t in ax.get_yticks() if lo <= t <= hi]
+    assert set(np.diff(ticks)) == {step} and 0.0 in ticks
+
+
 def test_overlay_marks_each_phase_crossover_in_its_own_loops_colour(stable_result, conditional_result):
     """In an overlay of two loops, each phase crossover is a square at (f, odd multiple of -180 deg) on the phase plot in the
     colour of its own loop's curve (the colour is what ties a marker to its loop in the legend)."""
@@ -141,6 +153,32 @@ def test_sensitivity_bars_write_the_crossover_slope_in_engineering_notation(stab
                       ("dB/decade", ["-0.5", "+0.25"])]
 
 
+def test_sensitivity_chart_titles_the_loop_s_margins_and_reads_its_crossover_axis_in_hertz(stable_result):
+    """The title gives the measured loop's PM, GM and crossover (python-control 0.10 stability_margins on the two-stage
+    loop: 67.03 deg, 22.28 dB, 9.49 MHz); the crossover panel's ticks read in hertz with an SI prefix and its zero as a
+    plain "0" (engineering notation, BIPM SI brochure table 7: no prefix for 0)."""
+    s = control.tf("s")
+    gm, pm, _, _, wgc, _ = control.stability_margins(1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8))))
+    knobs = (Sensitivity(_knob("cc"), 2e-12, pm=Slope(12.3, 0.01), gm=Slope(-4.56, 0.01), fc=Slope(-5.4e7, 1e3), peak=Slope(-0.5, 0.001)),)
+    fig = sensitivity_figure(SensitivityRun(stable_result, "out", 0.05, "pm", knobs, (), None, 3, 1, 0.1))
+    assert f"(PM {pm:.2f}°, GM {20 * math.log10(gm):.2f} dB, fc {eng(wgc / W, 'Hz')})\n" in fig._suptitle.get_text()
+    fc_axis = fig.axes[2].xaxis  # ranked by pm: pm, gm, fc, peak
+    assert (fc_axis.get_major_formatter()(0.0, 0), fc_axis.get_major_formatter()(-5e7, 1)) == ("0", "-50 MHz")
+
+
+def test_a_sensitivity_chart_without_slopes_says_so_inside_its_first_panel(stable_result):
+    """With no knob to rank, "no slope to show" stands in the middle of the first panel, inside it."""
+    fig = sensitivity_figure(SensitivityRun(stable_result, "out", 0.05, "pm", (), (), None, 3, 1, 0.1))
+    from matplotlib.backends.backend_agg import FigureCanvasAgg  # the renderer the PNGs come from
+
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw(renderer)
+    (note,) = [t for t in fig.axes[0].texts if t.get_text() == "no slope to show"]
+    box, panel = note.get_window_extent(renderer), fig.axes[0].get_window_extent(renderer)
+    assert panel.x0 <= box.x0 and box.x1 <= panel.x1 and panel.y0 <= box.y0 and box.y1 <= panel.y1
+    assert (box.x0 + box.x1) / 2 == pytest.approx((panel.x0 + panel.x1) / 2, abs=1.0)
+
+
 def test_histogram_range_leaves_equal_room_either_side_of_the_samples_and_the_requirement():
     """Each histogram's x-range spans the samples and the requirement's threshold with 5 % of their spread on either side."""
     # common practice, and matplotlib's own default (rcParams["axes.xmargin"] = 0.05): data never touches the frame
@@ -190,3 +228,61 @@ def test_nyquist_draws_each_governing_gain_margin_as_a_segment_to_minus_one(cond
             assert x not in segments and squares[x] == "white"
             assert any(t.endswith(f" @ {where} (not the governing one)") for t in texts)
     assert len(segments) == 2  # the upper and the lower: a conditionally stable loop has both
+
+
+def test_nyquist_draws_the_modulus_margin_from_minus_one_to_the_nearest_point_of_the_curve(stable_result):
+    """The modulus margin's segment runs from -1 to T where |1 + T| is least (module docstring): on the two-stage loop
+    0.767 at 20.8 MHz, by a dense grid of the closed form, where |T| = 0.39 (inside the unit disc, drawn to scale)."""
+    f = np.logspace(6, 9, 300001)
+    t = two_stage(f)
+    nearest = t[np.argmin(np.abs(1 + t))]
+    ax = nyquist_figure(stable_result).axes[0]
+    (segment,) = [ln for ln in ax.lines if len(ln.get_xdata()) == 2 and ln.get_xydata()[0].tolist() == [-1.0, 0.0]]
+    end = complex(*segment.get_xydata()[1])
+    assert abs(nearest) < 1 and abs(end - nearest) < 2e-3
+    assert abs(1 + end) == pytest.approx(abs(1 + nearest), rel=1e-3)
+
+
+def test_nyquist_box_says_why_the_count_is_doubtful(inconclusive_result):
+    """A count the data does not support ends the plot's verdict box with "count doubtful: " and the first reason the
+    analysis gives (here the sweep stops at 1 MHz, below the 9.5 MHz crossover: conftest's inconclusive_result)."""
+    n = inconclusive_result.analysis.nyquist
+    assert not n.reliable and "1e+06 Hz" in n.reasons[0]
+    ax = nyquist_figure(inconclusive_result).axes[0]
+    (box,) = [t.get_text() for t in ax.texts if t.get_text().startswith("N = ")]
+    assert box.splitlines()[-1] == f"count doubtful: {n.reasons[0]}"
+
+
+def _rings(ax) -> tuple[list[float], list[str]]:
+    """The radii of the drawn rings beyond the unit circle, and the texts of their labels."""
+    radii = sorted(round(float(np.hypot(ln.get_xdata()[0], ln.get_ydata()[0])), 9) for ln in ax.lines
+                   if len(ln.get_xdata()) == 361 and np.ptp(np.hypot(ln.get_xdata(), ln.get_ydata())) < 1e-9)
+    labels = [t.get_text() for t in ax.texts if t.get_text().startswith("|T| = ") and t.get_text() != "|T| = 1 (0 dB)"]
+    return [r for r in radii if r > 1.0], labels
+
+
+def test_nyquist_rings_mark_every_decade_and_label_every_other_one_past_eight():
+    """A ring for each decade of |T| the loop reaches (module docstring: drawn at 1 + log10|T| / 2); up to eight decades
+    each is labelled, beyond that every other one, so that ten labels do not crowd the picture."""
+    def huge(f):  # 1e10 / ((1 + jf / 1 Hz)(1 + jf / 1 GHz)): |T| = 7.1e9 at the sweep's 1 Hz, ten decades above 1
+        return 1e10 / ((1 + 1j * np.asarray(f)) * (1 + 1j * np.asarray(f) / 1e9))
+
+    radii, labels = _rings(nyquist_figure(make_result(huge)).axes[0])
+    assert radii == [pytest.approx(1 + 0.5 * k) for k in range(1, 11)]
+    assert labels == ["|T| = 100 (40 dB)", "|T| = 10000 (80 dB)", "|T| = 1e6 (120 dB)", "|T| = 1e8 (160 dB)", "|T| = 1e10 (200 dB)"]
+    # the two-stage loop reaches 1e4 (80 dB, report_loops.two_stage): four rings, each labelled
+    assert _rings(nyquist_figure(make_result(two_stage)).axes[0])[1] == ["|T| = 10 (20 dB)", "|T| = 100 (40 dB)", "|T| = 1000 (60 dB)",
+                                                                          "|T| = 10000 (80 dB)"]
+
+
+def test_nyquist_arrows_point_the_way_frequency_rises_also_on_a_small_loop(quiet_free_result):
+    """T = 0.1 / (1 + s / 1 kHz) stays within 0.1 of the origin and |T| falls as the frequency rises (closed form): the
+    arrows of the w > 0 half (below the axis) point towards the origin, those of its mirror image (w < 0, rising to 0)
+    away from it (module docstring: arrows in the direction of increasing frequency)."""
+    ax = nyquist_figure(quiet_free_result).axes[0]
+    arrows = [a for a in ax.texts if getattr(a, "arrow_patch", None) is not None]
+    below = [a for a in arrows if a.xy[1] < 0]
+    above = [a for a in arrows if a.xy[1] > 0]
+    assert below and above
+    assert all(abs(complex(*a.xy)) < abs(complex(*a.xyann)) for a in below)
+    assert all(abs(complex(*a.xy)) > abs(complex(*a.xyann)) for a in above)

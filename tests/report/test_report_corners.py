@@ -107,6 +107,7 @@ def test_corner_csv_and_document(tmp_path, outcomes, stable_result):
     assert tuple(rows[0]) == CORNER_COLUMNS
     by = {r["corner"]: r for r in rows}
     assert float(by["tt_27c"]["phase_margin_deg"]) == stable_result.analysis.margins.phase_margin_deg
+    assert (by["tt_27c"]["seconds"], by["fs_0c"]["seconds"]) == ("0.010", "0.000")  # report_loops' SimInfo: 0.01 s; an error spent none
     assert by["sf_27c"]["phase_margin_deg"] == "" and by["fs_0c"]["verdict"] == "error"
     assert by["ff_m40c"]["closed_loop_rhp_poles"] == "2"
     assert by["fs_27c"]["verdict"] == "inconclusive" and by["fs_27c"]["failed_checks"] == "falls-at-top"
@@ -133,13 +134,14 @@ def test_outcome_needs_exactly_one_of_result_and_error(stable_result):
 
 
 def test_the_table_row_gives_the_gain_margin_and_crossover_and_the_note_word_for_word(outcomes):
-    """The passing two-stage corner's row gives python-control's gain margin and crossover (22.28 dB, 9.49 MHz), and the
-    loop that never reaches 0 dB carries the note "does not regulate (|T| < 0 dB throughout)" as written."""
+    """The passing two-stage corner's row gives python-control's phase margin, gain margin and crossover (67.03 deg,
+    22.28 dB, 9.49 MHz), and the loop that never reaches 0 dB carries the note "does not regulate (|T| < 0 dB throughout)"
+    as written."""
     s = control.tf("s")
-    gm, _, _, _, w_gc, _ = control.stability_margins(1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8))))
+    gm, pm, _, _, w_gc, _ = control.stability_margins(1e4 / ((1 + s / (W * 1e3)) * (1 + s / (W * 3e7)) * (1 + s / (W * 1e8))))
     rows = {line.split()[0]: line for line in corner_table(outcomes).splitlines()[2:-2]}
     # python-control 0.10 stability_margins on the same T(s)
-    assert re.search(rf"  {20 * math.log10(gm):.2f} dB +{w_gc / W / 1e6:.2f} MHz +pass", rows["tt_27c"])
+    assert re.search(rf"^tt_27c +xamp.n5 +{pm:.2f} deg +{20 * math.log10(gm):.2f} dB +{w_gc / W / 1e6:.2f} MHz +pass", rows["tt_27c"])
     assert re.search(r" pass +does not regulate \(\|T\| < 0 dB throughout\)$", rows["tt_0c"])
 
 

@@ -291,3 +291,19 @@ def test_the_warnings_and_the_copied_subcircuits_have_rows_of_their_own(quiet_re
     assert lines[at + 1 : at + 1 + len(quiet_result.warnings)] == [f"  - {w}" for w in quiet_result.warnings]
     inside = replace(quiet_result, breaks=replace(quiet_result.breaks, copied_subcircuits=(("ota", "ota__xamp"),)))
     assert re.search(r"^  copied subcircuits +ota -> ota__xamp$", format_text(inside), re.M)
+
+
+def test_the_poles_row_says_whether_their_count_agrees_with_nyquist(stable_result):
+    """The closed-loop poles row says "(agrees with Nyquist; ...)" when the fitted poles count as many in the RHP as the
+    Nyquist count (README's example summary), and "DISAGREES with" in capitals, as the other alarms read, when not."""
+    from dataclasses import replace
+
+    from netloop.report.phrases import closed_loop_phrases
+
+    a = stable_result.analysis
+    assert not any(np.roots(np.polyadd(_poly(1e3, 3e7, 1e8), [1e4])).real > 0)  # closed form of 1 + T: no RHP root
+    assert a.poles.agrees_with_nyquist and a.poles.rhp_count == 0
+    row = dict(closed_loop_phrases(a))["closed-loop poles"]
+    assert "; 0 in the RHP (agrees with Nyquist; fitted to the measured 1/(1+T), fit error " in row
+    odd = replace(a, poles=replace(a.poles, rhp_count=2, agrees_with_nyquist=False))
+    assert "; 2 in the RHP (DISAGREES with Nyquist; fitted to the measured 1/(1+T), fit error " in dict(closed_loop_phrases(odd))["closed-loop poles"]

@@ -216,3 +216,20 @@ def test_the_largest_slope_error_is_given_as_a_percentage_of_its_slope(run):
 
     same = replace(run, sensitivities=tuple(sure(s) for s in run.sensitivities))
     assert accuracy_text(same) == "estimated error of each slope: at most 0.95 % of it (from the steps h and 2h)"
+
+
+def test_the_table_gives_each_what_if_in_its_knob_s_row(run):
+    """A column per what-if requirement: in cc's row the value solved for pm>=75 with its factor (the brentq root of the
+    closed form, _what_ifs), in cl's row "none in range" for gm>=40; a knob no what-if was asked of has the cell empty."""
+    lines = format_sensitivity_text(run).splitlines()
+    head = next(line for line in lines if line.startswith("rank  knob"))
+    pm_at, gm_at = head.index("what-if pm>=75"), head.index("what-if gm>=40")
+    solved = run.what_ifs[0]
+
+    def cells(knob):
+        row = next(line for line in lines if re.match(rf"\s*\d+\s+{re.escape(knob)}\s", line)).ljust(len(head))
+        return row[pm_at:gm_at].strip(), row[gm_at:].strip()
+
+    assert cells("cc") == (f"{eng(2e-12 * solved.factor, 'F')} (x{solved.factor:.4g})", "")
+    assert cells("cl") == ("", "none in range")
+    assert cells("xdrv:w") == ("", "")

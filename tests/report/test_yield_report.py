@@ -7,6 +7,7 @@ import csv
 import io
 import json
 import math
+import re
 from pathlib import Path
 
 import pytest
@@ -21,13 +22,13 @@ from netloop.report.yield_plot import FAILS, PASSES, histogram_figure, scatter_f
 from netloop.report.yield_text import percent, supports, verdict_line, yield_summary
 
 
-def record(corner: str, seed: int, outcome: str, pm: float, fc: float = 1e6, gm: float | None = 20.0) -> dict:
+def record(corner: str, seed: int, outcome: str, pm: float, fc: float = 1e6, gm: float | None = 20.0, at: str = "out") -> dict:
     met = outcome == "pass"
     loop = {"requirements": [{"text": "pm >= 45", "passed": pm >= 45}], "stability": {"stable": True},
             "checks": [{"name": "nyquist-data", "passed": outcome != "inconclusive", "detail": "doubtful", "advice": ""}],
             "margins": {"phase_margin_deg": pm, "gain_margin_db": gm, "unity_gain_hz": fc}, "peaking": {"peak_db": 0.1 * met},
             "infinite": {} if gm is not None else {"margins.gain_margin_db": "+inf"}}
-    return {"corner": f"{corner}#{seed}", "at": "out", "settings": {"seed": str(seed)}, "outcome": outcome, "error": None, "loop": loop}
+    return {"corner": f"{corner}#{seed}", "at": at, "settings": {"seed": str(seed)}, "outcome": outcome, "error": None, "loop": loop}
 
 
 def make_run(records: list[dict], target: float | None = None, corners: str = "") -> SampleRun:
@@ -202,3 +203,87 @@ def test_an_unwritable_sample_table_names_what_could_not_be_written(tmp_path):
     with pytest.raises(OutputError) as err:
         write_sample_csv(make_run([record("tt", 1, "pass", 60.0)]), path)
     assert str(err.value) == f"cannot write the sample table to {str(path)!r}: No such file or directory"  # the OS's strerror (ENOENT)
+
+
+TWO_CORNERS = '[axes]\ntemp = [-40, 125]\n'
+
+
+def test_each_yield_in_the_document_carries_the_sentence_it_supports():
+    """Each yield of the document has the sentence the data supports (the schema in yield_document's docstring lists
+    "supports"): 1 pass of 2 gives the Clopper-Pearson lower bound 1 - 0.95 ** (1/2) = 0.0253 (Beta(1, 2) by hand), read
+    down as 2.5 %; 2 stable of 2 give 0.05 ** (1/2) = 0.2236, 22.3 %."""
+    doc = yield_document(make_run([record("tt", 1, "pass", 60.0), record("tt", 2, "fail", 40.0)]))
+    assert {y["requirement"]: y["supports"] for y in doc["yields"]} == {
+        "pm >= 45": "with 2 samples and 1 failure, yield >= 2.5 % at 95 % confidence",
+        "stable": "with 2 samples and no failure, yield >= 22.3 % at 95 % confidence",
+        "every requirement": "with 2 samples and 1 failure, yield >= 2.5 % at 95 % confidence"}
+
+
+def _table_after(page: str, heading: str) -> list[list[tuple[str, str]]]:
+    """The rows, as (class, text) per cell, of the first table after ``heading`` on a page."""
+    part = re.search(rf"{re.escape(heading)}.*?<table[^>]*>(.*?)</table>", page, re.S)[1]
+    return [re.findall(r'<t[dh](?: class="([^"]*)")?>([^<]*)</t[dh]>', row) for row in re.findall(r"<tr>(.*?)</tr>", part, re.S)]
+
+
+def test_the_page_s_facts_and_worst_samples_read_as_the_summary_s():
+    """The page's facts name the break node(s), the corners and the samples as the summary's head does (docs/yield.md,
+    Outputs); in the worst samples, a verdict is green (ok) for pass, red (bad) for fail and amber (warn) without one,
+    the classes the report's style sheet colours so."""
+    recs = [record(c, s, outcome, pm) for c in ("cold", "hot") for s, outcome, pm in ((1, "pass", 60.0), (2, "fail", 40.0),
+                                                                                     (3, "inconclusive", 50.0))]
+    page = render_yield_html(make_run(recs, corners=TWO_CORNERS))
+    facts = {row[0][1]: row[1][1] for row in _table_after(page, '<section id="yield">')}
+    assert (facts["break node(s)"], facts["corners"]) == ("out", "cold, hot")
+    assert facts["samples"] == "5 at each corner, seeds 1 to 5; a seed draws the same mismatch at every corner"
+    verdicts = {row[-2] for row in _table_after(page, "<h2>Worst samples</h2>")[1:]}
+    assert verdicts == {("ok", "pass"), ("bad", "fail"), ("warn", "inconclusive")}
+
+
+def test_the_histograms_title_counts_dies_and_a_single_corner_gets_no_corner_key():
+    """Over two corners the title counts dies ("5 dies at 2 corners"; Clopper-Pearson with no failure in 5: lower bound
+    0.05 ** (1/5) = 0.5493, read down as 54.9 %); one corner has nothing to tell apart, so no key of corners."""
+    recs = [record(c, s, "pass", 50.0 + s) for c in ("cold", "hot") for s in range(1, 6)]
+    fig = histogram_figure(make_run(recs, corners=TWO_CORNERS))
+    assert fig._suptitle.get_text() == ("amp.toml: 5 dies at 2 corners: every requirement met by 100 % (yield >= 54.9 % at 95 % "
+                                        "confidence)")
+    assert histogram_figure(make_run(recs[:5])).legends == []
+
+
+def test_a_histogram_of_equal_values_spans_one_percent_of_them_either_side():
+    """Five samples with the same gain margin (20 dB, no requirement on it) give a range of 1 % of the value either side,
+    19.8 to 20.2 dB, the bar in its middle; five equal peakings of 0 dB (failing samples here) give -1 to 1 dB."""
+    recs = [record("tt", s, "fail", 40.0) for s in range(1, 6)]
+    fig = histogram_figure(make_run(recs))
+    assert fig.axes[1].get_xlim() == pytest.approx((19.8, 20.2))
+    assert fig.axes[3].get_xlim() == pytest.approx((-1.0, 1.0))
+
+
+def test_the_spread_says_a_gain_margin_without_phase_crossover_is_none():
+    """A loop without a phase crossover has no gain margin (null: netloop.analysis.results.Margins), which the spread's
+    "left out" column counts as "1 none (no phase crossover)"."""
+    bare = record("tt", 1, "pass", 60.0, gm=None)
+    bare["loop"]["infinite"] = {}  # the document of such a loop: gain_margin_db null and not infinite
+    lines = yield_summary(make_run([bare, record("tt", 2, "pass", 61.0)])).splitlines()
+    (gm_row,) = [line for line in lines if line.startswith("gain margin ")]
+    assert gm_row.endswith("  1 none (no phase crossover)")
+
+
+def test_a_target_every_die_misses_fails_with_the_dies_and_their_failures():
+    """Every die fails at the hot corner: 0 of 5 pass, Clopper-Pearson upper bound 1 - 0.05 ** (1/5) = 0.4507, read up
+    as 45.1 %, below the 90 % target: FAIL, counting dies as README's example line does ("60 dies, 1 failure")."""
+    recs = [record("cold", s, "pass", 60.0) for s in range(1, 6)] + [record("hot", s, "fail", 40.0) for s in range(1, 6)]
+    run = make_run(recs, target=0.9, corners=TWO_CORNERS)
+    assert verdict_line(run.statistics) == "FAIL  yield below the target 90 % at 95 % confidence: at most 45.1 % (5 dies, 5 failures)"
+
+
+def test_two_break_nodes_name_the_node_in_the_yields_and_the_worst_samples():
+    """With two break nodes each yield row names its node ("tt at fb"), the dies' row "every corner and node"; the worst
+    samples have an "at" column and each sample's four figures as its record gives them (40 deg, 20 dB, 1 MHz, 0 dB)."""
+    recs = [record("tt", s, "pass" if pm >= 45 else "fail", pm, at=node) for node, pm in (("out", 60.0), ("fb", 40.0)) for s in (1, 2)]
+    lines = yield_summary(make_run(recs)).splitlines()
+    corners = [re.split(r"\s{2,}", line)[1] for line in lines if line.startswith("pm >= 45 ")]
+    assert corners == ["tt at out", "tt at fb", "every corner and node"]
+    head = next(i for i, line in enumerate(lines) if line.startswith("sample "))
+    assert re.split(r"\s{2,}", lines[head]) == ["sample", "at", "seed", "phase margin", "gain margin", "crossover frequency",
+                                                "closed-loop peaking", "verdict", "why"]
+    assert re.split(r"\s{2,}", lines[head + 2]) == ["tt#1", "fb", "1", "40.00 deg", "20.00 dB", "1.00 MHz", "0.00 dB", "fail", "pm >= 45"]
