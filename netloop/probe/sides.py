@@ -47,6 +47,11 @@ _PASSIVE_PATH = frozenset("RCL")
 _ACTIVE = frozenset("MQJZEGFHBX")
 _TRANSISTOR_KINDS = frozenset(_CONTROL) | {"X"}  # X: a device wrapper or a block, whose terminals on both ends make it a diode connection
 _LOCAL_DEPTH = 3  # passive elements in a compensation path around a stage (Cc and Rz are two)
+# Instance levels below a node within which an instance pin is looked through for passive elements that bring the signal
+# from an output (_instance_role). Our choice: a model's output resistance sits a level or two down; each level may ask
+# the roles of several pins of the level below, so the look is kept shallow (a block that instantiates itself would
+# otherwise ask 2 to the 64th).
+_THROUGH_DEPTH = 4
 _STAGE_DEPTH = 2  # active stages a compensation path may wrap (Miller: one; nested Miller: two)
 
 PIN_ELEMENT = Element("<pin>", (), (), (), None)  # type: ignore[arg-type]
@@ -178,7 +183,7 @@ def _instance_role(netlist: Netlist, scope: Scope, e: Element, slot: int, ac_gro
         return "shunt"
     # an output behind passive elements (a model's output resistance): the inside brings the signal from an output through
     # them, sooner than it leads on to an input (the rule for a node without an output on it, applied inside)
-    passive = [t for t in inside if t.role == "load" and t.slot >= 0 and t.element.kind in _PASSIVE_PATH]
+    passive = [t for t in inside if t.role == "load" and t.slot >= 0 and t.element.kind in _PASSIVE_PATH] if depth < _THROUGH_DEPTH else []
     if passive and _fed(_Neighbourhood(netlist, child, ac_ground, globals_, depth + 1), inner_net, passive):
         return "driver"
     return "load"
