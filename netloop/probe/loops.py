@@ -35,8 +35,8 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
     An element left with no node (all of them AC ground) is not in the graph. A K card (coupled inductors) touches the
     nodes of the inductors it names: signal passes between their windings (ngspice manual, coupled inductors), as the
     signal-flow graph's edges across it say (netloop.graph.signal_flow). So do the elements controlled from elsewhere:
-    an E, G or B whose value is an expression touches the nodes its ``v(...)`` name and those of the sources its ``i(...)``
-    name, and an F, H or W those of its controlling sources (a source named from inside an instance is looked up
+    an E, G or B whose value is an expression touches the nodes its ``v(...)`` names and those of the sources its
+    ``i(...)`` names, and an F, H or W those of its controlling sources (a source named from inside an instance is looked up
     outward, as ngspice does).
     """
     g = Connectivity([], [], [], {})
@@ -91,25 +91,27 @@ def connectivity(netlist: Netlist, globals_: frozenset[str], ac_ground: frozense
                 here.append(k)
     for label, path, sources in sensed:
         k = ids.get(label)
-        if k is None:
-            continue
-        for source in sources:
+        for source in sources if k is not None else ():
             found = next((i for depth in range(len(path), -1, -1) if (i := ids.get(".".join((*path[:depth], source)))) is not None), None)
             for node in g.nodes[found] if found is not None else ():
-                if node not in g.nodes[k]:
-                    g.nodes[k].append(node)
-                    at_node.setdefault(node, []).append(k)
+                _join(g, k, node)
     for label, prefix, inductors in couplings:
-        nodes = list(dict.fromkeys(n for name in inductors if (i := ids.get(prefix + name)) is not None and g.kinds[i] == "L"
-                                   for n in g.nodes[i]))
+        nodes = [n for name in inductors if (i := ids.get(prefix + name)) is not None and g.kinds[i] == "L" for n in g.nodes[i]]
         if nodes:
             k = len(g.labels)
             g.labels.append(label)
             g.kinds.append("K")
-            g.nodes.append(nodes)
+            g.nodes.append([])
             for node in nodes:
-                at_node.setdefault(node, []).append(k)
+                _join(g, k, node)
     return g
+
+
+def _join(g: Connectivity, k: int, node: str) -> None:
+    """Element ``k`` touches ``node`` too (once)."""
+    if node not in g.nodes[k]:
+        g.nodes[k].append(node)
+        g.at_node.setdefault(node, []).append(k)
 
 
 def _search(g: Connectivity, starts: Iterable[int], removed_node: str, removed: Collection[int], goal: str | None) -> tuple[bool, set[int], set[str]]:

@@ -668,10 +668,14 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
 def _expression_readers(netlist: Netlist, globals_, flat_node: str) -> list[str]:
     """The labels of the behavioural E, G and B elements whose expression reads ``flat_node`` through v(...)."""
     readers = []
-    for scope, e in primitive_elements(netlist, globals_):
+    scope = flat = None
+    for s, e in primitive_elements(netlist, globals_):
         named, _ = expression_references(e)
-        if named and flat_node in map(flattener(scope, globals_), named):
-            readers.append(scope.label(e))
+        if named:
+            if s is not scope:
+                scope, flat = s, flattener(s, globals_)
+            if flat_node in map(flat, named):
+                readers.append(s.label(e))
     return readers
 
 
