@@ -35,6 +35,23 @@ def test_command_exits_with_mains_status_and_output(tmp_path, capsys, require):
     assert printed == expected
 
 
+@pytest.mark.ngspice
+def test_python_dash_m_netloop_is_the_command(tmp_path, capsys):
+    """`python -m netloop` runs the same command: main()'s status and document, and its one-line errors."""
+    args = ["check", str(CIRCUITS / "miller_buffer.cir"), "--at", "out", "--json", "--require", "pm>=0"]
+    status = main(args)  # Reference: main() in this process, as above
+    expected = json.loads(capsys.readouterr().out)
+    done = subprocess.run([sys.executable, "-m", "netloop", *args], cwd=tmp_path, capture_output=True, text=True, check=False, timeout=300)
+    assert (done.returncode, status) == (0, 0)
+    printed = json.loads(done.stdout)
+    for doc in (printed, expected):
+        doc["simulation"].pop("seconds"), doc["simulation"].pop("ngspice_seconds")
+    assert printed == expected
+    bad = subprocess.run([sys.executable, "-m", "netloop", "check", "missing.cir", "--at", "out"], cwd=tmp_path, capture_output=True,
+                         text=True, check=False, timeout=60)
+    assert bad.returncode == 2 and bad.stderr.startswith("netloop: error: ") and "Traceback" not in bad.stderr
+
+
 def test_command_reports_bad_input_with_status_2(tmp_path):
     """A missing netlist: the command prints main()'s one-line error on stderr and exits 2."""
     done = _command(["check", str(tmp_path / "missing.cir"), "--at", "out"], tmp_path)
