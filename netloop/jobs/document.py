@@ -45,7 +45,8 @@ Units are in the key names: ``_hz`` hertz, ``_deg`` degrees, ``_db`` decibels of
                            dominant_freq_hz, dominant_damping, dominant_q, agrees_with_nyquist,
                            fit_error}   fitted false and the rest null/[] when no fit was made
     break                 {node, side_a, side_b, driver_terminals, load_terminals, shunt_terminals,
-                           decided_by, silenced_sources, copied_subcircuits ([original, copy])}
+                           decided_by, silenced_sources, copied_subcircuits ([original, copy]),
+                           load_readers (no load terminal: the elements whose expression reads the node)}
     requirements          [{text, metric, op, threshold, value, passed, reason}]
     ignored_statements    ["file:line: statement"]
     warnings              [sentence]: the netlist's caveats first, the circuit's own, then one line that counts
@@ -181,6 +182,7 @@ def _break(result: LoopResult) -> dict:
         "decided_by": b.decided_by,
         "silenced_sources": list(b.silenced_sources),
         "copied_subcircuits": [list(pair) for pair in b.copied_subcircuits],
+        "load_readers": list(b.load_readers),
     }
 
 

@@ -136,7 +136,7 @@ def result_from_document(doc: dict) -> LoopResult:
         b = doc["break"]
         breaks = BreakInfo(b["node"], b["side_a"], b["side_b"], tuple(b["driver_terminals"]), tuple(b["load_terminals"]),
                            tuple(b["shunt_terminals"]), b["decided_by"], tuple(b["silenced_sources"]),
-                           tuple(tuple(pair) for pair in b["copied_subcircuits"]))
+                           tuple(tuple(pair) for pair in b["copied_subcircuits"]), tuple(b.get("load_readers", ())))
         return LoopResult(
             netlist=doc["netlist"],
             label=doc["label"],

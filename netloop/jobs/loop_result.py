@@ -50,6 +50,7 @@ class BreakInfo:
     decided_by: str  # one sentence: how the driver side was chosen
     silenced_sources: tuple[str, ...]  # independent sources whose AC magnitude the probe deck set to 0
     copied_subcircuits: tuple[tuple[str, str], ...] = ()  # (original, copy) for a break inside one instance
+    load_readers: tuple[str, ...] = ()  # no load terminal: the behavioural elements ("g1") whose expression reads the load side
 
 
 @dataclass(frozen=True, slots=True)

@@ -398,6 +398,7 @@ def breaks_of(probed: ProbedNetlist) -> BreakInfo:
         decided_by=probed.decided_by,
         silenced_sources=probed.silenced_sources,
         copied_subcircuits=probed.copied_subcircuits,
+        load_readers=probed.load_readers,
     )
 
 

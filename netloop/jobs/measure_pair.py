@@ -165,6 +165,7 @@ def _break_info(pair: PairProbe, mode: str) -> BreakInfo:
         decided_by=f"{p.node}: {p.decided_by} {n.node}: {n.decided_by}",
         silenced_sources=tuple(dict.fromkeys((*p.silenced_sources, *n.silenced_sources))),
         copied_subcircuits=pair.copied_subcircuits,
+        load_readers=(*p.load_readers, *n.load_readers),
     )
 
 

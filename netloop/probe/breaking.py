@@ -283,6 +283,7 @@ def _break(netlist: Netlist, at: str, driver: str | None, placement: Mapping[str
         bridges=split.bridges,
         inputs_only=split.inputs_only,
         outputs=split.outputs,
+        load_readers=split.readers,
     )
 
     def check() -> ProbedNetlist:

@@ -93,6 +93,7 @@ class ProbedNetlist:
     bridges: tuple[Bridge, ...] = ()  # bridging elements at the node and the side each was put on, and why
     inputs_only: bool = False  # driver= named only inputs (gates, bases, control inputs) on the node
     outputs: tuple[str, ...] = ()  # the terminals on the node that drive it by the split rules ("m6.d")
+    load_readers: tuple[str, ...] = ()  # no load terminal: the behavioural elements ("g1") whose expression reads the load side
     # when the netlist holds another split's probe too (netloop.probe.chain): every probe source of the netlist and every
     # vector either probe reads, in one order for both, so that both splits' jobs run on one loaded circuit
     circuit_sources: tuple[str, ...] = ()

@@ -93,6 +93,7 @@ class Split:
     decided_by: str
     bridges: tuple[Bridge, ...] = ()  # the bridging elements among driver and load, and why each went where it did
     inputs_only: bool = False  # driver= named only inputs (gates, bases, control inputs) on the node
+    readers: tuple[str, ...] = ()  # with no load terminal: the behavioural elements whose expression reads the node
 
     @property
     def outputs(self) -> tuple[str, ...]:
@@ -598,7 +599,11 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     name = ".".join((*scope.path, node))
     listing = ", ".join(f"{t.label} ({t.role})" for t in terminals)
     if driver is not None:
-        return _given_split(name, terminals, driver, listing, scope)
+        split = _given_split(name, terminals, driver, listing, scope)
+        if split.load:
+            return split
+        readers = tuple(_expression_readers(netlist, globals_, scope.flat(node, globals_)))  # they read the load side, unchanged
+        return replace(split, readers=readers, decided_by=split.decided_by.removesuffix(".") + "; " + _read_by(readers) + ".") if readers else split
     tied = [t for t in terminals if t.tied]  # one unit with a series source at the node: they follow it (below)
     free = [t for t in terminals if not t.tied]
     drivers = [t for t in free if t.role == "driver"]
@@ -662,7 +667,7 @@ def decide_sides(netlist: Netlist, scope: Scope, node: str, terminals: tuple[Ter
     loads += [t for t in tied if t.tied not in on_driver and t.role != "shunt"]
     shunt += [t for t in tied if t.tied not in on_driver and t.role == "shunt"]
     text = _sentence(drivers, moved, loads, shunt, bridges, how, tied, readers)
-    return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges)
+    return Split(tuple([*drivers, *moved, *with_driver]), tuple(loads), tuple(shunt), text, bridges, readers=tuple(readers))
 
 
 def _expression_readers(netlist: Netlist, globals_, flat_node: str) -> list[str]:
@@ -716,7 +721,7 @@ def _sentence(drivers, moved, loads, shunt, bridges, how, tied=(), readers=()) -
         if b.side == "driver":
             parts.append(f"with {b.element} ({b.reason})")
     if readers:  # no load terminal: behavioural expressions read the node, and keep reading it on the load side
-        parts.append(f"load side: {', '.join(readers)}, whose expression reads the node (it keeps its name, so they read the load side)")
+        parts.append(_read_by(readers))
     else:
         parts.append(f"load side: {', '.join(t.label for t in loads) or 'only elements to AC ground'}")
     for b in bridges:
@@ -726,6 +731,11 @@ def _sentence(drivers, moved, loads, shunt, bridges, how, tied=(), readers=()) -
         parts.append(f"{t.label} goes with {t.tied}: its element has another terminal beyond that source, which has no AC "
                      "impedance, so it is one unit across it" + (_across_note(t.element) if t.role == "shunt" else ""))
     return "; ".join(parts) + _shunt_note(tuple(t for t in shunt if not t.tied)) + "."
+
+
+def _read_by(readers) -> str:
+    """The sentence's part on a load side that only behavioural expressions read."""
+    return f"load side: {', '.join(readers)}, whose expression reads the node (it keeps its name, so they read the load side)"
 
 
 def _switch_like(near: _Neighbourhood, e: Element) -> bool:

@@ -16,6 +16,7 @@ from netloop.report.bode_plot import bode_figure, verdict_title
 from netloop.report.figure import as_results, loop_name, render
 from netloop.report.files import output_file
 from netloop.report.notation import NONE, db, deg, eng
+from netloop.report.text import load_side
 from netloop.report.phrases import closed_loop_phrases, low_gain_phrase, margin_phrases, nyquist_phrase, phase_crossover_margin
 from netloop.report.nyquist_plot import nyquist_figure
 from netloop.report.text import format_text, requirement_status, requirement_text, verdict_line
@@ -128,7 +129,7 @@ def _breaks(r: LoopResult) -> list[dict]:
         _kv("node", b.node),
         _kv("method", r.method),
         _kv("driver side", f"{b.side_a}: {', '.join(b.driver_terminals) or NONE}"),
-        _kv("load side", f"{b.side_b}: {', '.join(b.load_terminals) or NONE}"),
+        _kv("load side", f"{b.side_b}: {load_side(b)}"),
     ]
     if b.shunt_terminals:
         rows.append(_kv("shunt only (either side)", ", ".join(b.shunt_terminals)))

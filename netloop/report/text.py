@@ -7,7 +7,7 @@ import textwrap
 
 from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis
-from netloop.jobs.loop_result import LoopResult
+from netloop.jobs.loop_result import BreakInfo, LoopResult
 from netloop.report.notation import NONE, db, deg, eng, requirement_value
 from netloop.report.phrases import (
     closed_loop_phrases,
@@ -19,7 +19,7 @@ from netloop.report.phrases import (
     regulation_phrase,
 )
 
-__all__ = ["format_text", "requirement_status", "requirement_text", "verdict_line"]
+__all__ = ["format_text", "load_side", "requirement_status", "requirement_text", "verdict_line"]
 
 _WIDTH = 30  # label column
 _LINE = 120  # wrap values beyond this many columns
@@ -85,12 +85,19 @@ def requirement_text(outcome: RequirementOutcome) -> str:
     return text
 
 
+def load_side(b: BreakInfo) -> str:
+    """The load side's terminals; on a node no terminal loads, the behavioural elements whose expression reads it."""
+    if b.load_terminals or not b.load_readers:
+        return ", ".join(b.load_terminals) or NONE
+    return f"{', '.join(b.load_readers)} (an expression reads the node)"
+
+
 def _break_lines(result: LoopResult) -> list[str]:
     b = result.breaks
     where = f"node {b.node} ({result.method} probe); driver side {b.side_a}, load side {b.side_b}"
     lines = [_row("loop broken at", where)]
     lines.append(_row("  driver", ", ".join(b.driver_terminals) or NONE))
-    lines.append(_row("  load", ", ".join(b.load_terminals) or NONE))
+    lines.append(_row("  load", load_side(b)))
     if b.shunt_terminals:
         lines.append(_row("  shunt only", ", ".join(b.shunt_terminals)))
     lines.append(_row("  decided by", b.decided_by or NONE))

@@ -51,7 +51,10 @@ def test_a_node_only_an_expression_reads_is_split_with_the_expression_on_the_loa
     tests/jobs/measure/test_controlled_elsewhere.py)."""
     text = "g reads fb (invented)\nG1 0 e value={1m*V(fb)}\nRe e 0 1meg\nRf e fb 10k\nRg fb 0 10k\n.end\n"
     probed = break_loop(parse_text(text), "fb")
-    assert (probed.side_b, probed.load_terminals, probed.driver_terminals) == ("fb", (), ("rf.n",))
+    assert (probed.side_b, probed.load_terminals, probed.driver_terminals, probed.load_readers) == ("fb", (), ("rf.n",), ("g1",))
     assert "load side: g1, whose expression reads the node (it keeps its name, so they read the load side)" in probed.decided_by
+    given = break_loop(parse_text(text), "fb", driver="rf.n")  # the driver named: the same split, and it says the same
+    assert (given.load_terminals, given.driver_terminals, given.load_readers) == ((), ("rf.n",), ("g1",))
+    assert "load side: g1, whose expression reads the node" in given.decided_by
     with pytest.raises(ProbeError, match="every terminal but the drivers goes only to AC ground .*; it is not on a loop"):
         break_loop(parse_text(text.replace("V(fb)", "V(e)")), "fb")

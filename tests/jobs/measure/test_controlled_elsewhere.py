@@ -68,3 +68,20 @@ def test_the_census_breaks_and_measures_such_a_loop(name):
     body, _, _ = CASES[name]
     (group,) = check_loops(parse_text(f"{name} (invented)\n{body}.end\n")).groups
     assert group.result is not None and group.verdict == "pass", group.reason if group.result is None else group.result.failed_checks
+
+
+def test_a_load_side_only_an_expression_reads_is_named_in_the_report_and_the_document():
+    """At fb of g-value-read-at-fb no terminal loads the node (g1 reads it in its expression): the text's load row, the
+    JSON document and the result read back from it name g1, where they said '-' (reference: the wiring, read by hand)."""
+    from netloop.jobs.document import to_document
+    from netloop.jobs.document_read import result_from_document
+    from netloop.report.text import format_text
+
+    body, at, _ = CASES["g-value-read-at-fb"]
+    result = measure(parse_text(f"read at fb (invented)\n{body}.end\n"), at, sweep=SWEEP)
+    assert (result.breaks.load_terminals, result.breaks.load_readers) == ((), ("g1",))
+    rows = [line.split(None, 1) for line in format_text(result).splitlines() if line.startswith("  load ")]
+    assert rows == [["load", "g1 (an expression reads the node)"]]
+    doc = to_document(result)
+    assert (doc["break"]["load_terminals"], doc["break"]["load_readers"]) == ([], ["g1"])
+    assert result_from_document(doc).breaks == result.breaks
