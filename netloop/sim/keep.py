@@ -65,4 +65,4 @@ def job_error(job: SimJob, kind: str, message: str, output: str, deck: str, keep
         return op_failure(job, tried, message, path, last, diagnoses, log_path)
     lead = "; ".join(d.text for d in diagnoses if d.text not in message)
     return SimulationError(f"{lead}; {message}" if lead else message, deck_path=path, simulator_output=last, corner=job.label or None,
-                           log_path=log_path)
+                           log_path=log_path, cards=tuple(d.card for d in diagnoses if d.card))

@@ -43,6 +43,11 @@ DESIGN_DC = {
     "testbench/nodeset.cir": ("q", 3.3, 0.01),  # the .nodeset picks the trim latch state q high
     "testbench/reverse_path.cir": ("a", 0.0, 1e-9),  # linear loop, input at 0 V
     "testbench/slow_biquad.cir": ("out1", 0.0, 1e-6),  # linear filter, input at 0 V
+    # the inputs sit midway between the sources (0.9 V) and the output common mode, which the CMFB holds at vcm = 0.9 V
+    "testbench/fd_cmfb_hier.cir": ("net1", 0.9, 0.01),
+    # VBE3 + (R2/R1) VT ln 8, VBE = VT ln(I/Is) at I = VT ln 8 / R1 = 5 uA (ideal junction: beta, rb, re neglected, 20 mV)
+    "testbench/bandgap_bjt.cir": ("vbg", 0.025852 * (math.log(0.025852 * math.log(8) / 10.75e3 / 2e-17) + 110 / 10.75 * math.log(8)), 0.03),
+    "testbench/ldo_nmos_switch.cir": ("vout", 0.9 * (1 + 10e3 / 30e3), 0.01),  # vref*(1+R1/R2)
     "sky130/miller_buffer.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V
     "sky130/ldo.cir": ("vout", 0.9 * (1 + 25e3 / 50e3), 0.02),  # vref*(1+R1/R2)
     "sky130/fd_amp_cmfb.cir": ("cm", 0.9, 0.08),  # output common mode near Vcmref

@@ -52,6 +52,18 @@ CASES = [
                  id="unknown-subcircuit"),
     pytest.param("no model\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nd1 b 0 nosuch\n",
                  "model 'nosuch' is not defined (used by 'd1 b 0 nosuch')", "can't find model 'nosuch'", id="undefined-model"),
+    # a card ngspice refuses, named with its reason (before: only "Error on line 4 or its substitute:", a line of
+    # netloop's own deck, and nothing of the card or the reason)
+    pytest.param("unknown parameter\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nr2 b 0 1k q=4\n",
+                 "ngspice refused the line 'r2 b 0 1k q=4': unknown parameter (q)", "unknown parameter (q)", id="refused-card"),
+    pytest.param("too few nodes\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nm1 b a 0 nch\n.model nch nmos level=1\n",
+                 "ngspice refused the line 'm1 b a 0 nch': not enough nodes", "not enough nodes", id="refused-card-nodes"),
+    pytest.param("in a block\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nx1 b blk\n.subckt blk p\nr2 p 0 1k q=4\n.ends\n",
+                 "ngspice refused the line 'r.x1.r2 b 0 1k q=4': unknown parameter (q)", "unknown parameter (q)",
+                 id="refused-card-in-a-subcircuit"),
+    # a line ngspice cannot read at all (before: only "ngspice.dll cannot recover")
+    pytest.param("brace\nv1 a 0 dc 1 ac 1\nr1 a b 1k\nr2 b 0 {1k\n",
+                 "ngspice could not read the line 'r2 b 0 {1k': Closing \"}\" not found.", "Closing \"}\" not found.", id="unreadable-line"),
 ]
 
 
