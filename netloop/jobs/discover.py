@@ -13,9 +13,11 @@ from netloop.analysis.results import Check
 from netloop.errors import ProbeError
 from netloop.graph import FlatCircuit, LoopDiscovery, LoopGroup, find_loops, flatten
 from netloop.graph.loops import DEFAULT_LENGTH_BOUND, DEFAULT_MAX_LOOPS
+from netloop.graph.mirror import mirror_pairs
 from netloop.jobs.census import COARSE_BREAKS, LARGE_COARSE_BREAKS, Census, GroupCensus, choose, coarse_group, why_at
 from netloop.jobs.loop_result import LoopResult, Verdict, caveats_on_error, combined_verdict
 from netloop.jobs.measure import CLEARS_STATUS, load_netlist, measure, own_simulator
+from netloop.jobs.measure_pair import measure_pair
 from netloop.jobs.splits import DEFAULT_SPLIT_CHECKS, driver_alias, node_split, probe_splits
 from netloop.netlist import Netlist
 from netloop.sim import Simulator
@@ -159,7 +161,47 @@ class LoopsCheck:
         return combined_verdict(g.verdict for g in self.groups)
 
 
-def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2) -> GroupResult:
+_PAIR_OPTIONS = ("method", "sweep", "open_loop_rhp_poles", "requirements", "simulator", "timeout_s")  # measure_pair takes these
+
+
+def _pair_break(gc: GroupCensus, pairs: tuple[tuple[str, str], ...]) -> tuple[object, str] | None:
+    """(the best-ranked usable candidate of the group whose net has a mirror image, that mirror), or None."""
+    mirror = {a: b for a, b in pairs} | {b: a for a, b in pairs}
+    for c in gc.group.candidates:
+        if c.node in mirror and c.split_checked and not c.refused and c.opened:
+            return c, mirror[c.node]
+    return None
+
+
+def _measure_as_pair(parsed: Netlist, gc: GroupCensus, pairs, options: dict) -> tuple[GroupResult, ...] | None:
+    """A fully differential group measured at its best mirror pair, one result a mode (Hurst and Lewis, 1995: a break at
+    one net of the pair would measure neither mode's loop); None when it has no such pair or the pair cannot be broken."""
+    found = _pair_break(gc, pairs)
+    if found is None or options.get("driver") is not None:
+        return None
+    cand, other = found
+    nodes = (cand.node, other)
+    try:
+        pair = measure_pair(parsed, nodes, label=f"loop {gc.group.index}", **{k: v for k, v in options.items() if k in _PAIR_OPTIONS})
+    except ProbeError as exc:
+        _log.info("the pair %s,%s of %s could not be broken (%s): measured at one net", *nodes, gc.group.label, exc)
+        return None
+    why = (f"{nodes[0]} and {nodes[1]} are mirror images (a symmetry of the circuit swaps them and keeps the common-mode "
+           "path), so the group is measured as a pair: its differential- and common-mode loops (Hurst and Lewis, 1995), "
+           f"where a break at one of them would measure neither (the census at {cand.node} alone: "
+           f"{why_at(gc.group, cand, gc.coarse_at(cand.node))})")
+    return tuple(GroupResult(gc, replace(r, label=f"loop {gc.group.index} ({','.join(nodes)} {mode} mode)"), why=why)
+                 for mode, r in pair.modes.items())
+
+
+def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2, pairs=()) -> tuple[GroupResult, ...]:
+    """Measure a group: a fully differential one as a pair (_measure_as_pair), any other at its chosen break and, on a
+    refusal or an inconclusive result, at the next usable candidates."""
+    as_pair = _measure_as_pair(parsed, gc, pairs, options) if pairs else None
+    return as_pair or (_measure_at_one_net(parsed, gc, options, retries),)
+
+
+def _measure_at_one_net(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2) -> GroupResult:
     """Measure a group at its chosen break; on a refusal or an inconclusive result, at the next usable candidates."""
     group = gc.group
     if gc.chosen is None:
@@ -240,6 +282,11 @@ def _with_closed_notes(group: LoopGroup, cand, result: LoopResult) -> LoopResult
     return replace(result, warnings=tuple(dict.fromkeys((*result.warnings, *extra))), checks=(*result.checks, check))
 
 
+def _group_nets(group: LoopGroup) -> list[str]:
+    """The nets of a group's loops, its candidates first (in rank order)."""
+    return [*(c.node for c in group.candidates), *(n for loop in group.loops for s in loop.steps for n in (s.source, *s.through))]
+
+
 def check_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> LoopsCheck:
     """Every loop group, measured on its own at the break the census chooses (netloop.jobs.census).
 
@@ -271,7 +318,8 @@ def check_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> Lo
         census = _census(parsed, circuit, found, sweep=True, simulator=options["simulator"], method=options.get("method", "tian"),
                          split_checks=DEFAULT_SPLIT_CHECKS, coarse_breaks=COARSE_BREAKS, driver=driver, keep_decks=None,
                          timeout_s=options.get("timeout_s", 600.0))
-        groups = tuple(_measure_group(parsed, gc, options) for gc in census.groups)
+        pairs = {g.index: mirror_pairs(circuit, _group_nets(g)) for g in found.groups}
+        groups = tuple(r for gc in census.groups for r in _measure_group(parsed, gc, options, pairs=pairs.get(gc.group.index, ())))
     finally:
         if own and hasattr(options["simulator"], "close"):
             options["simulator"].close()

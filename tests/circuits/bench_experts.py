@@ -130,3 +130,42 @@ def judge(result, bench: Bench, node: str) -> str | None:
     return None
 
 
+
+
+# -- a group measured as a mirror pair (check without --at on a fully differential bench) ------------------------------
+
+# (bench, the pair's nets) -> expert pair decks (circuits/benches/expert; pair_experts.py runs them): DM and CM T there.
+# Swapping the nets leaves both modes' T as they are (the DM excitation and its reading change sign together).
+PAIR_DECKS = {("fd_miller_pair.cir", frozenset({"outp", "outn"})): ("fd_miller_pair.out",),
+              ("fd_miller_pair.cir", frozenset({"xamp.outp", "xamp.outn"})): ("fd_miller_pair.out",),
+              ("fd_cap_amp.cir", frozenset({"outp", "outn"})): ("fd_cap_amp.pair-out",)}
+# bench -> an expert split at one output: a single-ended break excites both modes, so 1 + T there has the zeros of both
+# (a break at the common-mode sense node sees only the common mode's: a matched pair's DM signal never reaches it)
+BOTH_MODES = {"fd_cap_amp.cir": "fd_cap_amp.outn", "fc_ota_cmfb.cir": "fc_ota_cmfb.outn", "fd_miller_pair.cir": "fd_miller_pair.outp"}
+
+
+def judge_pair(result, name: str) -> str | None:
+    """None when a mode's result measured at a mirror pair is right, else what is wrong: inconclusive; or the circuit's
+    stability, and its T equal to an expert pair deck's where one covers the pair, and in any case its closed-loop poles
+    up to twice its crossover among those of the bench's expert split at one output (BOTH_MODES). Reference: the zeros of 1 + T
+    at any break are poles of the one closed circuit (Bode's return ratio; Tian et al. 2001), and each mode's are the
+    poles of its half circuit (Hurst and Lewis 1995); the poles are netloop.analysis's rational fit of each 1/(1+T)."""
+    from netloop.analysis import analyse
+    from pair_experts import pair_expert, same_t
+
+    if result.verdict == "inconclusive":
+        return None
+    bench = BENCH[name]
+    if result.stable != bench.stable:
+        return f"{result.label}: {'stable' if result.stable else 'unstable'}, but the circuit is {'stable' if bench.stable else 'unstable'}"
+    nets, mode = result.breaks.node.split(" (")[0].split(","), result.breaks.node.split(" (")[1].split()[0]
+    for stem in PAIR_DECKS.get((name, frozenset(nets)), ()):
+        f, t_dm, t_cm = pair_expert(stem)
+        if not same_t(result, f, t_dm if mode == "differential" else t_cm):
+            return f"{result.label}: T equals no expert pair deck ({stem}, {mode} mode)"
+    f, t = expert(BOTH_MODES[name])
+    reference = np.asarray(analyse(f, t).poles.poles_rad_s)
+    band = 2 * np.pi * 2 * result.analysis.margins.unity_gain_hz  # beyond, a pole the output barely shows may be missed there
+    found = [p for p in result.analysis.poles.poles_rad_s if abs(p) <= band]
+    far = [p for p in found if np.min(np.abs(reference - p)) > 2e-2 * abs(p) + 2 * np.pi]
+    return f"{result.label}: closed-loop poles {far} are none of the circuit's ({BOTH_MODES[name]})" if far or not found else None

@@ -8,7 +8,7 @@ from functools import cache
 
 import pytest
 
-from bench_experts import BENCH, BENCHES, CASES, judge
+from bench_experts import BENCH, BENCHES, CASES, judge, judge_pair
 from netloop import measure
 from netloop.jobs.discover import check_loops
 from netloop.jobs.loop_result import LoopResult
@@ -66,8 +66,10 @@ def test_check_at_every_plausible_node_is_the_experts_split_or_inconclusive(runs
 
 @pytest.mark.parametrize("name", sorted(BENCH))
 def test_check_without_at_is_the_experts_split_or_inconclusive_in_every_group(runs, name):
-    """`check` without --at measures every loop group at a plausible node, with an expert's T and verdict, or says why not."""
-    # Reference: as above; the chosen node must be one of the bench's plausible breaks, whose expert decks exist.
+    """`check` without --at measures every loop group at a plausible node, with an expert's T and verdict, or says why not;
+    a fully differential group at a mirror pair, both modes (Hurst and Lewis, 1995)."""
+    # Reference: as above; the chosen node must be one of the bench's plausible breaks, whose expert decks exist; a
+    # pair's modes are judged by bench_experts.judge_pair (expert pair decks where they exist, the circuit's poles).
     _, without_at = runs
     check = without_at(name)
     assert check.groups
@@ -75,7 +77,10 @@ def test_check_without_at_is_the_experts_split_or_inconclusive_in_every_group(ru
         if g.result is None:
             assert g.reason and g.advice
             continue
-        assert judge(g.result, BENCH[name], g.result.breaks.node) is None, g.label
+        if g.result.breaks.node.endswith(" mode)"):  # a fully differential group, measured as a mirror pair
+            assert judge_pair(g.result, name) is None
+        else:
+            assert judge(g.result, BENCH[name], g.result.breaks.node) is None, g.label
         assert g.result.verdict != "inconclusive" or _explained(g.result)
 
 

@@ -273,18 +273,22 @@ def test_differential_closed_loop_poles_are_ngspice_pz_poles(tmp_path):
 
 
 @pytest.mark.parametrize("bench", ["fd_miller_pair", "fd_miller_pair_sky130"])
-def test_check_without_at_finds_the_closed_loop_poles_of_the_expert_pair_probes(bench, simulator):
-    """check without --at on the FD Miller benches measures one loop group at a single node, passes, and its closed-loop
-    poles up to five times its crossover are the expert pair probes' DM and CM closed-loop poles."""
-    # Reference: the zeros of 1 + T at any break are poles of the one closed circuit (Bode's return ratio; Tian et al. 2001),
-    # and the circuit's poles are those of its DM and CM half circuits (Hurst and Lewis 1995), read here from the expert
-    # pair probe at the first-stage outputs (rational fit of each mode's 1/(1+T) by netloop.analysis).
+def test_check_without_at_measures_the_mirror_pair_with_the_expert_pair_probes_closed_loop_poles(bench, simulator):
+    """check without --at on the FD Miller benches finds outp and outn mirror images and measures the group as that pair:
+    a differential- and a common-mode result, both passing, each with the closed-loop poles (up to five times its crossover)
+    of the same mode of the expert pair probe at the first-stage outputs; a break at one net would mix the modes."""
+    # Reference: the zeros of 1 + T at any break of a mode are poles of that mode's half circuit (Bode's return ratio;
+    # Tian et al. 2001; Hurst and Lewis 1995), read here from the expert pair probe at the first-stage outputs (rational fit
+    # of each mode's 1/(1+T) by netloop.analysis). The T of fd_miller_pair's pair itself: test_pair_break_equals_an_expert_...
     from netloop.jobs.discover import check_loops
 
     check = check_loops(BENCHES / f"{bench}.cir", simulator=simulator)
-    assert check.verdict == "pass" and len(check.groups) == 1
-    result = check.groups[0].result
+    assert check.verdict == "pass" and len(check.groups) == 2
     f, t_dm, t_cm = pair_expert(f"{bench}.o1.rz-load")
-    reference = np.concatenate([analyse(f, t_dm).poles.poles_rad_s, analyse(f, t_cm).poles.poles_rad_s])
-    found = _closed_loop_poles(result.analysis.t, result.analysis.freq_hz, 5 * result.analysis.margins.unity_gain_hz)
-    assert found.size >= 2 and _near(found, reference)
+    for g, t in zip(check.groups, (t_dm, t_cm), strict=True):
+        mode = "differential" if t is t_dm else "common"
+        # named above the amplifier that drives them, the pair is broken inside it (measure_pair, docs/splitting.md)
+        assert g.result.breaks.node == f"xamp.outp,xamp.outn ({mode} mode)" and g.result.label == f"loop 1 (outp,outn {mode} mode)"
+        band = 5 * g.result.analysis.margins.unity_gain_hz
+        found = _closed_loop_poles(g.result.analysis.t, g.result.analysis.freq_hz, band)
+        assert found.size >= 1 and _near(found, np.asarray(analyse(f, t).poles.poles_rad_s))
