@@ -65,7 +65,8 @@ class Sweep:
     The first pass runs ``ac dec points_per_decade fmin_hz fmax_hz``. When a limit was not given by
     the user (``*_given`` False) the sweep is widened where the data asks for it, two decades a round:
     upward until |T| is well below 1 at the top or ``ceiling_hz`` is reached, downward until the
-    phase has settled at the bottom or ``floor_hz`` is reached. Then, with
+    phase has settled at the bottom, |T| there is beyond what the data resolves (RESOLVED_MAX_DB) or
+    ``floor_hz`` is reached. Then, with
     ``refine``, short linear sweeps are added around every crossover until the worst phase margin
     moves by less than ``tol_deg`` (at most ``max_rounds`` rounds).
     """
@@ -179,6 +180,22 @@ def _levels_off(f: np.ndarray, t: np.ndarray) -> bool:
     return abs(20.0 * math.log10(abs(t[-1]) / abs(t[i]))) < 3.0
 
 
+RESOLVED_MAX_DB = 240.0
+"""|T| above which the sampled T no longer resolves the loop, so the sweep is not widened further down to settle it.
+
+T comes from two AC runs in which the closed loop cancels the probe's excitation to about 1/|T| of it, so double
+precision (eps 2.2e-16) leaves T a relative error of about |T| eps. Measured on a phase-domain charge-pump PLL (two
+integrators and a 1 T leak on the filter node, tests/jobs/measure/test_resolution_ceiling.py) against its closed form:
+1.3e-4 at 241 dB, 3e-3 at 281 dB; above 1/eps (313 dB) |T| saturates (312.75 dB read where the closed form gives
+319.7 dB) and its phase jumps by 74 deg between neighbouring samples, which the Nyquist count then doubts. Where the
+bottom of the sweep is already this high, T's low-frequency asymptote (netloop.analysis.nyquist) closes the contour."""
+
+
+def _beyond_resolution(t: np.ndarray) -> bool:
+    """True when |T| at the bottom of the sweep is above RESOLVED_MAX_DB: lower samples would be rounding noise."""
+    return 20.0 * math.log10(max(abs(t[0]), 1e-300)) > RESOLVED_MAX_DB
+
+
 def _phase_settled(f: np.ndarray, t: np.ndarray) -> bool:
     """True when the bottom of the sweep is settled: the phase moves by less than 3 deg over the lowest
     decade (common practice) and no unity crossing hides below it, i.e. |T| is not above 1 while falling
@@ -278,7 +295,8 @@ def sample_loops(
             new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
             more.append(AcSweep("dec", ppd, fmax, new_fmax))
             fmax = new_fmax
-        if not sweep.fmin_given and not all(_phase_settled(f, v) for v in t.values()) and fmin > sweep.floor_hz:
+        if (not sweep.fmin_given and not all(_phase_settled(f, v) or _beyond_resolution(v) for v in t.values())
+                and fmin > sweep.floor_hz):
             new_fmin = max(fmin / 100.0, sweep.floor_hz)
             more.append(AcSweep("dec", ppd, new_fmin, fmin))
             fmin = new_fmin
