@@ -44,6 +44,7 @@ DESIGN_DC = {
     "testbench/reverse_path.cir": ("a", 0.0, 1e-9),  # linear loop, input at 0 V
     "testbench/slow_biquad.cir": ("out1", 0.0, 1e-6),  # linear filter, input at 0 V
     "testbench/nested_miller.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vin = 1.65 V
+    "testbench/boosted_fc.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V (sky130 tt)
     "sky130/miller_buffer.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V
     "sky130/ldo.cir": ("vout", 0.9 * (1 + 25e3 / 50e3), 0.02),  # vref*(1+R1/R2)
     "sky130/fd_amp_cmfb.cir": ("cm", 0.9, 0.08),  # output common mode near Vcmref
