@@ -505,6 +505,15 @@ def measure(
     )
 
 
+def _retold(decided_by: str, placement: Mapping[str, str], detail: str) -> str:
+    """The probe's sentence for a split netloop measured again with its bridges moved (or the net under another name),
+    told as netloop's doing: the probe says "placed there on request" of every element placed by name, and here netloop,
+    not the user, asked; then what netloop moved and why (the check "split")."""
+    for name in placement:
+        decided_by = decided_by.replace(f"{name} (placed there on request)", f"{name} (moved there by netloop: below)")
+    return f"{decided_by[:-1]}; netloop {'moved ' if placement else ''}{detail}."
+
+
 def _decided(decisions: dict | None, key: tuple, find: Callable[[], object]):
     """``find()``, kept in ``decisions`` (measure's) under ``key`` when they are given: the same for every netlist they serve."""
     if decisions is None:
@@ -607,7 +616,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         if chosen is not None:  # measured in full already; its seconds are in ``extra`` with the other trials'
             analysis, (i, sim_warnings), other = chosen.analysis, full[id(chosen)], chosen.probed
             info = replace(i, seconds=info.seconds, ngspice_seconds=info.ngspice_seconds, loads=info.loads)  # the first split's loads; the chosen one's are in extra_loads
-            probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
+            probed = replace(other, decided_by=_retold(other.decided_by, chosen.placement, split_check.detail))
             if chosen.opens is not None:
                 checks.append(chosen.opens)
         elif first.opens is not None:
