@@ -17,6 +17,7 @@ import numpy as np
 
 from netloop.analysis import middlebrook, parse_requirements, propose_frequencies, tian
 from netloop.analysis.engine import Draft, analyse_draft, finish
+from netloop.analysis.nyquist import RESOLVED_MAX_DB
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.refine import crossings, propose_around
 from netloop.analysis.requirements import Requirement
@@ -178,17 +179,6 @@ def _levels_off(f: np.ndarray, t: np.ndarray) -> bool:
     if i >= f.size - 1 or abs(t[i]) == 0.0 or abs(t[-1]) == 0.0:
         return False
     return abs(20.0 * math.log10(abs(t[-1]) / abs(t[i]))) < 3.0
-
-
-RESOLVED_MAX_DB = 240.0
-"""|T| above which the sampled T no longer resolves the loop, so the sweep is not widened further down to settle it.
-
-T comes from two AC runs in which the closed loop cancels the probe's excitation to about 1/|T| of it, so double
-precision (eps 2.2e-16) leaves T a relative error of about |T| eps. Measured on a phase-domain charge-pump PLL (two
-integrators and a 1 T leak on the filter node, tests/jobs/measure/test_resolution_ceiling.py) against its closed form:
-1.3e-4 at 241 dB, 3e-3 at 281 dB; above 1/eps (313 dB) |T| saturates (312.75 dB read where the closed form gives
-319.7 dB) and its phase jumps by 74 deg between neighbouring samples, which the Nyquist count then doubts. Where the
-bottom of the sweep is already this high, T's low-frequency asymptote (netloop.analysis.nyquist) closes the contour."""
 
 
 def _beyond_resolution(t: np.ndarray) -> bool:

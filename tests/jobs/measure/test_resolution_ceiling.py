@@ -8,7 +8,7 @@ import control
 import numpy as np
 import pytest
 
-from netloop.jobs.measure import RESOLVED_MAX_DB, measure
+from netloop.jobs.measure import RESOLVED_MAX_DB, Sweep, measure
 
 pytestmark = pytest.mark.ngspice
 
@@ -61,3 +61,15 @@ def test_a_pll_with_a_leaky_filter_node_is_measured_where_its_data_resolves_t():
     assert gain_db[0] > RESOLVED_MAX_DB and gain_db[1] <= gain_db[0]  # stopped at the first bottom beyond the ceiling
     ref = _closed_form(a.freq_hz)
     assert np.max(np.abs(a.t - ref) / np.abs(ref)) < 5e-3
+
+
+def test_a_sweep_started_where_t_is_rounding_noise_asks_to_start_higher_not_to_sample_more_densely():
+    """With --fmin 1 uHz given, the PLL's T saturates near 1/eps below 1 mHz and its phase jumps there: the verdict is
+    INCONCLUSIVE, and it says to start the sweep higher; before, it said to raise --ppd, which samples the same jump."""
+    result = measure(PLL, "div", sweep=Sweep(fmin_hz=1e-6, fmin_given=True))
+    (check,) = [c for c in result.analysis.checks if not c.passed]
+    assert result.verdict == "inconclusive" and check.name == "nyquist-data"
+    assert f"where |T| is above {RESOLVED_MAX_DB:g} dB" in check.detail and check.detail.endswith("start the sweep higher")
+    assert check.advice == "let the sweep start where |T| is below 240 dB (raise --fmin)"
+    assert not result.analysis.nyquist.coarse_hz  # nothing for the refinement to sample more densely
+
