@@ -26,11 +26,10 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from netloop.errors import NetloopError, SimulationError
+from netloop.errors import NetloopError
 from netloop.graph import LoopDiscovery, LoopGroup
 from netloop.graph.loop_records import BreakCandidate
 from netloop.jobs.compare import compare_job
-from netloop.jobs.loop_result import user_cards
 from netloop.jobs.measure import return_ratio
 from netloop.netlist import Netlist
 from netloop.probe import ProbedNetlist, break_loop
@@ -189,9 +188,8 @@ def coarse_group(parsed: Netlist, group: LoopGroup, simulator: Simulator, *, met
                 freq = np.asarray(result.run(f"{k}.series").freq_hz, dtype=float)
                 out[node] = coarse_figures(node, freq, return_ratio(q, series, shunt, method))
         except NetloopError as exc:
-            said = user_cards(exc, parsed) if isinstance(exc, SimulationError) else exc  # the netlist's cards, not the deck's
             for node, _ in placed:
-                out.setdefault(node, CoarseBreak(node, error=f"the coarse sweep failed: {said}"))
+                out.setdefault(node, CoarseBreak(node, error=f"the coarse sweep failed: {exc}"))
     return tuple(out[c.node] for c in chosen if c.node in out)
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import re
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -10,14 +9,13 @@ from typing import TYPE_CHECKING, Literal
 
 from netloop.analysis.requirements import RequirementOutcome, parse_requirements
 from netloop.analysis.results import Check, LoopAnalysis
-from netloop.errors import NetloopError, SimulationError
+from netloop.errors import NetloopError
 
 if TYPE_CHECKING:  # reports read LoopResults without loading the netlist stage
     from netloop.netlist import Netlist
-    from netloop.netlist.model import Element
 
 __all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "caveats_on_error",
-           "combined_verdict", "netlist_notes", "user_cards"]
+           "combined_verdict", "netlist_notes"]
 
 Verdict = Literal["pass", "fail", "inconclusive"]
 VERDICTS: tuple[Verdict, ...] = ("pass", "fail", "inconclusive")
@@ -157,52 +155,10 @@ def netlist_notes(netlist: Netlist, *later: Iterable[str]) -> dict:
 @contextmanager
 def caveats_on_error(netlist: Netlist) -> Iterator[None]:
     """A NetloopError raised inside carries the netlist's caveats as notes (an unknown node or no loop at all is often
-    what a title line read as an element or an unclosed .control block leaves): the CLI prints them under the error.
-    A SimulationError that quotes cards of netloop's probe deck quotes the netlist's own cards instead, at their
-    file:line (user_cards)."""
+    what a title line read as an element or an unclosed .control block leaves): the CLI prints them under the error."""
     try:
         yield
-    except SimulationError as exc:
-        mapped = user_cards(exc, netlist)
-        for caveat in netlist.caveats:
-            mapped.add_note(caveat)
-        if mapped is exc:
-            raise
-        raise mapped from exc
     except NetloopError as exc:
         for caveat in netlist.caveats:
             exc.add_note(caveat)
         raise
-
-
-_QUOTED_CARD = re.compile(r"'([^'\s]+)(\s[^']*)'")  # a quoted card of at least two words: 'm9 out_drive o2 vdd vdd nmc_pp w=100u'
-
-
-def user_cards(exc: SimulationError, netlist: Netlist) -> SimulationError:
-    """``exc`` with each card of the probe deck it quotes (ngspice's diagnosis names the deck's line: the probe's own node
-    names such as out_drive, and no line of the user's file) replaced by the netlist's card of that element and its
-    file:line; ``exc`` itself when it quotes none the netlist has (a name found in several subcircuits is left as it is)."""
-    by_name: dict[str, list[Element]] = {}
-    for e in netlist.elements:
-        by_name.setdefault(e.name.lower(), []).append(e)
-    nested: dict[str, list[Element]] = {}
-    todo = list(netlist.subcircuits.values())
-    while todo:
-        sub = todo.pop()
-        for e in sub.elements:
-            nested.setdefault(e.name.lower(), []).append(e)
-        todo.extend(sub.subcircuits.values())
-
-    def mapped(m: re.Match) -> str:
-        name = m.group(1).lower()
-        found = by_name.get(name) or nested.get(name) or []
-        if len(found) != 1:
-            return m.group(0)
-        e = found[0]
-        return f"'{e.card()}' ({e.location.file}:{e.location.line})"
-
-    message = _QUOTED_CARD.sub(mapped, exc.message)
-    if message == exc.message:
-        return exc
-    return SimulationError(message, deck_path=exc.deck_path, simulator_output=exc.simulator_output, corner=exc.corner,
-                           log_path=exc.log_path)

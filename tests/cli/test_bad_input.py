@@ -278,25 +278,6 @@ def test_values_of_1e300_leak_no_numpy_warning(tmp_path, capsys, element, argv, 
     assert "INCONCLUSIVE" in captured.out and "Warning" not in captured.err and "Traceback" not in captured.err
 
 
-@pytest.mark.ngspice
-@pytest.mark.parametrize("argv", [["check", "--at", "out"], ["check"]], ids=["at-out", "auto"])
-def test_a_card_ngspice_refuses_is_named_at_its_own_line(tmp_path, capsys, argv):
-    """A MOSFET of a model nobody defined (a typo): one error line that quotes the card as written, with its file:line,
-    and exit 2. Before, the line quoted ngspice's reading of netloop's probe deck ('m6 out_drive_drive o1 vdd vdd pchx
-    ...', the probe's own node names) and no line of the user's file."""
-    # Reference: ngspice 39 names the card it cannot model on the line after "can't find model" (netloop.sim.diagnostics).
-    text = (ROOT / "circuits" / "miller_buffer.cir").read_text().replace("M6 out o1 vdd vdd pch ", "M6 out o1 vdd vdd pchx ")
-    text = text.replace(".lib models/corners.lib", f".lib {ROOT / 'circuits' / 'models' / 'corners.lib'}")
-    path = tmp_path / "typo.cir"
-    path.write_text(text)
-    line = text.splitlines().index("M6 out o1 vdd vdd pchx w=80u l=1u") + 1
-    assert _run([argv[0], str(path), *argv[1:]]) == 2
-    err = capsys.readouterr().err.splitlines()
-    assert len(err) == 1 and err[0].startswith("netloop: error: ")
-    assert f"model 'pchx' is not defined (used by 'M6 out o1 vdd vdd pchx w=80u l=1u' ({path}:{line}))" in err[0]
-    assert "out_drive" not in err[0].split("ngspice could not read")[0]
-
-
 def test_an_error_carries_what_in_the_netlist_may_be_behind_it(tmp_path, capsys):
     """A netlist whose first line reads as an element (SPICE takes it as the title) and a node not in the circuit: the
     error line, then a note naming the title line and its file:line, and exit 2."""
