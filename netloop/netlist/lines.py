@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["LogicalLine", "logical_lines", "tokenize", "token_columns", "unclosed_brace"]
+__all__ = ["LogicalLine", "logical_lines", "tokenize", "token_columns"]
 
 # (text, line number, is_raw_block): text is one statement, continuations joined with a space.
 LogicalLine = tuple[str, int, bool]
@@ -146,19 +146,6 @@ def _group(s: str) -> list[str]:
     if cur:
         toks.append("".join(cur))
     return toks
-
-
-def unclosed_brace(s: str) -> int | None:
-    """The index of the first ``{`` in ``s`` that no ``}`` closes, or None. ngspice 39 refuses an element card holding one
-    (also inside '...' quotes) when it reads the deck, with 'Closing "}" not found' and its own line number of netloop's
-    probe deck; a .param line with one it reads as if the line closed it."""
-    opened: list[int] = []
-    for i, ch in enumerate(s):
-        if ch == "{":
-            opened.append(i)
-        elif ch == "}" and opened:
-            opened.pop()
-    return opened[0] if opened else None
 
 
 def _merge_eq(toks: list[str]) -> list[str]:

@@ -11,7 +11,7 @@ from dataclasses import dataclass, field, replace
 from netloop.errors import NetlistError, NetlistSyntaxError
 from netloop.netlist.cards import MOS_NEEDS, MOS_PINS, parse_card, resolve_bjt, resolve_mos, two_terminal
 from netloop.netlist.caveats import control_caveats, open_control, title_caveat
-from netloop.netlist.lines import LogicalLine, logical_lines, tokenize, unclosed_brace
+from netloop.netlist.lines import LogicalLine, logical_lines, tokenize
 from netloop.netlist.location import SourceLocation
 from netloop.netlist.model import Directive, Element, Inclusion, Netlist, Statement, Subcircuit
 
@@ -199,9 +199,6 @@ class _Reader:
                 continue
             c = text[0]
             if c != ".":
-                if "{" in text and (brace := unclosed_brace(text)) is not None:
-                    raise NetlistSyntaxError("this '{' is never closed: ngspice refuses the card; close the expression with '}'",
-                                             SourceLocation(file, ln, brace + 1), text)
                 if c in _TWO_TERMINAL and "=" not in text and "{" not in text and "'" not in text and text.isascii():
                     # fast path for the bulk of large netlists: "R1 a b 1k", "V1 a 0 DC 1"
                     toks = text.split()
