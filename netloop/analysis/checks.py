@@ -60,11 +60,13 @@ _TOP_REASON = ("the sweep ends at", "at the top of the sweep")
 # What each doubt of the Nyquist count asks for, by the words its reason ends with (netloop.analysis.nyquist)
 _START_LOWER = ("crossover lies below the sweep", "start the sweep lower")
 _DENSER = ("whole number of turns", "sample more densely")
+_START_HIGHER = ("start the sweep higher",)
 
 
 def _nyquist_advice(reasons: tuple[str, ...]) -> str:
     tips = [tip for tip, words in (("let the sweep start lower (drop --fmin, or lower it)", _START_LOWER),
-                                   ("sample more densely (raise --ppd)", _DENSER))
+                                   ("sample more densely (raise --ppd)", _DENSER),
+                                   ("let the sweep start where |T| is below 240 dB (raise --fmin)", _START_HIGHER))
             if any(word in reason for reason in reasons for word in words)]
     return "; ".join(tips) or "widen the sweep and raise --ppd"
 

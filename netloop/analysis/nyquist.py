@@ -35,7 +35,7 @@ import numpy as np
 from netloop.analysis.response import Response
 from netloop.analysis.results import NyquistVerdict
 
-__all__ = ["PHASE_TOL_DEG", "SLOPE_TOL_DB_PER_DEC", "TOP_LIMIT_DB", "nyquist_verdict", "origin_poles"]
+__all__ = ["PHASE_TOL_DEG", "RESOLVED_MAX_DB", "SLOPE_TOL_DB_PER_DEC", "TOP_LIMIT_DB", "nyquist_verdict", "origin_poles"]
 
 TOP_LIMIT_DB = -20.0
 SLOPE_TOL_DB_PER_DEC = 6.0
@@ -46,6 +46,17 @@ _DENSE = 16
 _ARC_MODEL_DOUBT = 1e-3  # relative doubt in the asymptote even when the bottom looks settled
 _ARC_POINTS = 2001
 
+
+RESOLVED_MAX_DB = 240.0
+"""|T| above which the sampled T no longer resolves the loop: the sweep is not widened further down to settle it
+(netloop.jobs.measure), and a jump of T's phase there asks for a sweep that starts higher, not for denser samples.
+
+T comes from two AC runs in which the closed loop cancels the probe's excitation to about 1/|T| of it, so double
+precision (eps 2.2e-16) leaves T a relative error of about |T| eps. Measured on a phase-domain charge-pump PLL (two
+integrators and a 1 T leak on the filter node, tests/jobs/measure/test_resolution_ceiling.py) against its closed form:
+1.3e-4 at 241 dB, 3e-3 at 281 dB; above 1/eps (313 dB) |T| saturates (312.75 dB read where the closed form gives
+319.7 dB) and its phase jumps by 74 deg between neighbouring samples, however densely they are taken. Where the
+bottom of the sweep is already this high, T's low-frequency asymptote (below) closes the contour."""
 
 _HARMLESS_BOTTOM_DB = -20.0
 """An unsettled bottom of the sweep does not cast doubt on the count when |T| there is at most this
@@ -88,13 +99,23 @@ def nyquist_verdict(resp: Response, open_loop_rhp_poles: int = 0, floor_abs_db: 
     # than _MAX_T_STEP_DEG between samples where |T| is above the numerical floor
     t_steps = np.abs(np.diff(resp.phase_deg))
     audible = (resp.gain_db[:-1] >= floor_abs_db) | (resp.gain_db[1:] >= floor_abs_db)
-    coarse = (t_steps > _MAX_T_STEP_DEG) & audible
+    jumps = (t_steps > _MAX_T_STEP_DEG) & audible
+    unresolved = jumps & (resp.gain_db[:-1] > RESOLVED_MAX_DB) & (resp.gain_db[1:] > RESOLVED_MAX_DB)
+    coarse = jumps & ~unresolved  # denser samples can settle these; not the jumps of rounding noise
     if np.any(coarse):
         i = int(np.argmax(coarse))
         reasons.append(
             f"the phase of T steps by more than {_MAX_T_STEP_DEG:g} deg between samples "
             f"({int(coarse.sum())} place(s), first between {resp.freq_hz[i]:.4g} and {resp.freq_hz[i + 1]:.4g} Hz); "
             "sample more densely there"
+        )
+    if np.any(unresolved):
+        i = int(np.argmax(unresolved))
+        reasons.append(
+            f"the phase of T jumps by more than {_MAX_T_STEP_DEG:g} deg between samples where |T| is above "
+            f"{RESOLVED_MAX_DB:g} dB ({int(unresolved.sum())} place(s), first between {resp.freq_hz[i]:.4g} and "
+            f"{resp.freq_hz[i + 1]:.4g} Hz), beyond what the data resolves (T carries an error of about |T| x 2.2e-16); "
+            "start the sweep higher"
         )
     # count on the interpolated curve, _DENSE points per sample interval
     xs, td = resp.dense_t(_DENSE)

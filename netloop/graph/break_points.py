@@ -18,7 +18,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from netloop.graph.loop_records import BreakCandidate, Loop
-from netloop.graph.signal_flow import CONTROL_PINS, element_edges
+from netloop.graph.signal_flow import CONTROL_PINS, cascode_diodes, element_edges
 
 if TYPE_CHECKING:
     from netloop.graph.flat import FlatCircuit
@@ -46,13 +46,15 @@ def _voltage_form(tokens: tuple[str, ...]) -> bool:
     return "".join(tokens[2:]).lower().startswith("v=")  # two nodes, then the expression
 
 
-def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: frozenset[str], elements: list[int]):
-    """(drivers, loads, single, high_z, low_z) of a node, counting only edges inside the group."""
+def _roles(circuit: FlatCircuit, node: str, group: frozenset[str], signal: frozenset[str], elements: list[int],
+           cascoded: frozenset[str] = frozenset()):
+    """(drivers, loads, single, high_z, low_z) of a node, counting only edges inside the group (``cascoded``: the
+    transistors diode-connected through a cascode, netloop.graph.signal_flow.cascode_diodes)."""
     active_in: dict[str, str] = {}
     passive_in: dict[str, str] = {}
     outs: dict[str, str] = {}
     for i in elements:
-        for e in element_edges(circuit, i, signal):
+        for e in element_edges(circuit, i, signal, cascoded=cascoded):
             if e.target == node and e.source in group:
                 (passive_in if e.passive else active_in).setdefault(e.element, e.target_pin)
             elif e.source == node and e.target in group:
@@ -87,8 +89,9 @@ def rank_candidates(circuit: FlatCircuit, loops: tuple[Loop, ...], signal: froze
     if elements_at is None:
         elements_at = touching(circuit, set(opened))
     rows = []
+    cascoded = cascode_diodes(circuit, signal)
     for node, nums in opened.items():
-        drivers, loads, single, high_z, low_z = _roles(circuit, node, group, signal, elements_at[node])
+        drivers, loads, single, high_z, low_z = _roles(circuit, node, group, signal, elements_at[node], cascoded)
         all_ = len(nums) == total
         left = tuple(k for k in range(1, total + 1) if k not in nums)
         key = (not all_, -len(nums), not single, not high_z, not low_z, node.count("."), order.get(node, 0))

@@ -21,7 +21,7 @@ from netloop.graph.collapse import SOURCE_PINS, Passage, Shorts, diode_nodes, lo
 from netloop.graph.cycles import bounded_cycles, strong_components
 from netloop.graph.loop_records import Loop, LoopDiscovery, LoopGroup, Step
 from netloop.graph.passive_networks import PassiveNetworks
-from netloop.graph.signal_flow import element_edges, signal_nodes
+from netloop.graph.signal_flow import cascode_diodes, element_edges, signal_nodes
 
 if TYPE_CHECKING:
     from netloop.graph.flat import FlatCircuit
@@ -48,6 +48,7 @@ def _collect(circuit: FlatCircuit, signal: frozenset[str], shorts: Shorts):
     names = circuit.names
     of = shorts.of
     pair = nets.pairs.append
+    cascoded = cascode_diodes(circuit, signal)
     for i in range(len(kinds)):
         nodes = nodes_col[i]
         if kinds[i] in _FAST_PASSIVE and len(nodes) == 2:
@@ -55,7 +56,7 @@ def _collect(circuit: FlatCircuit, signal: frozenset[str], shorts: Shorts):
             if a in signal and b in signal and of(a) != of(b):
                 pair((of(a), of(b), names[i]))
             continue
-        for e in element_edges(circuit, i, signal, shorts.vertex):
+        for e in element_edges(circuit, i, signal, shorts.vertex, cascoded):
             a, b = of(e.source), of(e.target)
             if a == b:
                 continue

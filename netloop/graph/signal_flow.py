@@ -23,8 +23,10 @@ Rules (one per element letter; an edge is ``control node -> output node``):
   signal nodes: no edge starts or ends there.
 - A diode-connected transistor (gate on drain, base on collector, directly or through a 0 V
   source) is a two-terminal device (its current depends on one voltage only): a passive both ways between drain and source (collector
-  and emitter). An edge from a node to itself is dropped: it is a local impedance, not a loop
-  one could break.
+  and emitter). So is the input device of a cascoded mirror, whose drain reaches its gate through a
+  cascode's channel (source to drain) and whose source is a rail (``cascode_diodes``): with its
+  cascode it is the mirror's diode, and the node on its gate the mirror's input. An edge from a node
+  to itself is dropped: it is a local impedance, not a loop one could break.
 
 Device-wrapper X instances (e.g. sky130's ``sky130_fd_pr__nfet_01v8``) are transistors here, since
 flattening already keeps them as one device with the device's pin roles; other X instances are
@@ -47,7 +49,7 @@ if TYPE_CHECKING:
 
     from netloop.graph.flat import FlatCircuit
 
-__all__ = ["CONTROL_PINS", "FlowEdge", "element_edges", "flow_edges", "signal_flow_graph", "signal_nodes"]
+__all__ = ["CONTROL_PINS", "FlowEdge", "cascode_diodes", "element_edges", "flow_edges", "signal_flow_graph", "signal_nodes"]
 
 _TRANSISTOR = {"M": ("g", "s", "b"), "J": ("g", "s"), "Z": ("g", "s"), "Q": ("b", "e")}  # controls; outputs below
 _T_OUTPUTS = {"M": ("d", "s"), "J": ("d", "s"), "Z": ("d", "s"), "Q": ("c", "e")}
@@ -122,12 +124,37 @@ def _expression_controls(circuit: FlatCircuit, index: int) -> list[tuple[str, st
     return out
 
 
-def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str], joined: Mapping[str, str] | None = None) -> list[FlowEdge]:
+def cascode_diodes(circuit: FlatCircuit, signal: frozenset[str]) -> frozenset[str]:
+    """The transistors diode-connected through a cascode: the gate (base) on a signal node n, the source (emitter) on a
+    rail, the drain (collector) on a signal node m from which another transistor's channel, source to drain, leads
+    back to n. That is the input of a cascoded current mirror (the cascode's gate biased, or driven by a gain-boosting
+    amplifier): its drain current returns to its own gate, so with its cascode it is a one-port at n. Counted as an
+    amplifier, its gate-to-drain step made a loop n -> m -> n with the cascode that a designer does not name, and the
+    census broke a gain-boosted folded-cascode OTA at its mirror's input instead of its output
+    (circuits/testbench/boosted_fc.cir)."""
+    by_follower: dict[str, list[tuple[str, str]]] = {}  # node -> (transistor, its output node) with its source there
+    found: list[tuple[str, str, str]] = []  # (transistor, gate node, drain node) with the source on a rail
+    for i, kind in enumerate(circuit.kinds):
+        if kind not in _TRANSISTOR:
+            continue
+        at = dict(zip(circuit.element_pins[i], circuit.element_nodes[i]))
+        control, (output, follower) = _TRANSISTOR[kind][0], _T_OUTPUTS[kind]
+        n, m, rail = at.get(control), at.get(output), at.get(follower)
+        if m in signal and rail in signal:
+            by_follower.setdefault(rail, []).append((circuit.names[i], m))
+        if n in signal and m in signal and n != m and rail is not None and rail not in signal:
+            found.append((circuit.names[i], n, m))
+    return frozenset(name for name, n, m in found if any(back == n for other, back in by_follower.get(m, ()) if other != name))
+
+
+def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str], joined: Mapping[str, str] | None = None,
+                  cascoded: frozenset[str] = frozenset()) -> list[FlowEdge]:
     """The signal-flow edges of one element (see the module docstring), between signal nodes only.
 
     ``joined`` maps nodes joined by zero-impedance series elements to one name
     (netloop.graph.collapse.Shorts.vertex): a transistor whose gate reaches its drain that way is
-    diode-connected too. The edges keep the element's own nodes.
+    diode-connected too, and so is one named in ``cascoded`` (cascode_diodes). The edges keep the
+    element's own nodes.
     """
     name, kind = circuit.names[index], circuit.kinds[index]
     nodes, pins = circuit.element_nodes[index], circuit.element_pins[index]
@@ -149,7 +176,7 @@ def element_edges(circuit: FlatCircuit, index: int, signal: frozenset[str], join
         control, output = _TRANSISTOR[kind][0], _T_OUTPUTS[kind][0]
         same = at.get(control) == at.get(output) or (joined is not None and control in at and output in at
                                                      and joined.get(at[control], at[control]) == joined.get(at[output], at[output]))
-        if control in at and same:  # diode-connected (directly or through a 0 V source): a two-terminal device
+        if control in at and (same or name in cascoded):  # diode-connected (directly, through a 0 V source or a cascode)
             both((at[p], p) for p in (output, _T_OUTPUTS[kind][1]) if p in at)
             return out
         controls = [(at[p], p) for p in _TRANSISTOR[kind] if p in at]
@@ -186,8 +213,9 @@ def flow_edges(circuit: FlatCircuit, signal: frozenset[str] | None = None) -> It
     """Every signal-flow edge of the circuit, element by element."""
     if signal is None:
         signal = signal_nodes(circuit)
+    cascoded = cascode_diodes(circuit, signal)
     for i in range(len(circuit)):
-        yield from element_edges(circuit, i, signal)
+        yield from element_edges(circuit, i, signal, cascoded=cascoded)
 
 
 def signal_flow_graph(circuit: FlatCircuit) -> nx.MultiDiGraph:

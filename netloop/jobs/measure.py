@@ -17,6 +17,7 @@ import numpy as np
 
 from netloop.analysis import middlebrook, parse_requirements, propose_frequencies, tian
 from netloop.analysis.engine import Draft, analyse_draft, finish
+from netloop.analysis.nyquist import RESOLVED_MAX_DB
 from netloop.analysis.preload import load_scipy_in_background
 from netloop.analysis.refine import crossings, propose_around
 from netloop.analysis.requirements import Requirement
@@ -65,7 +66,8 @@ class Sweep:
     The first pass runs ``ac dec points_per_decade fmin_hz fmax_hz``. When a limit was not given by
     the user (``*_given`` False) the sweep is widened where the data asks for it, two decades a round:
     upward until |T| is well below 1 at the top or ``ceiling_hz`` is reached, downward until the
-    phase has settled at the bottom or ``floor_hz`` is reached. Then, with
+    phase has settled at the bottom, |T| there is beyond what the data resolves (RESOLVED_MAX_DB) or
+    ``floor_hz`` is reached. Then, with
     ``refine``, short linear sweeps are added around every crossover until the worst phase margin
     moves by less than ``tol_deg`` (at most ``max_rounds`` rounds).
     """
@@ -179,6 +181,11 @@ def _levels_off(f: np.ndarray, t: np.ndarray) -> bool:
     return abs(20.0 * math.log10(abs(t[-1]) / abs(t[i]))) < 3.0
 
 
+def _beyond_resolution(t: np.ndarray) -> bool:
+    """True when |T| at the bottom of the sweep is above RESOLVED_MAX_DB: lower samples would be rounding noise."""
+    return 20.0 * math.log10(max(abs(t[0]), 1e-300)) > RESOLVED_MAX_DB
+
+
 def _phase_settled(f: np.ndarray, t: np.ndarray) -> bool:
     """True when the bottom of the sweep is settled: the phase moves by less than 3 deg over the lowest
     decade (common practice) and no unity crossing hides below it, i.e. |T| is not above 1 while falling
@@ -278,7 +285,8 @@ def sample_loops(
             new_fmax = min(fmax * 100.0, sweep.ceiling_hz)
             more.append(AcSweep("dec", ppd, fmax, new_fmax))
             fmax = new_fmax
-        if not sweep.fmin_given and not all(_phase_settled(f, v) for v in t.values()) and fmin > sweep.floor_hz:
+        if (not sweep.fmin_given and not all(_phase_settled(f, v) or _beyond_resolution(v) for v in t.values())
+                and fmin > sweep.floor_hz):
             new_fmin = max(fmin / 100.0, sweep.floor_hz)
             more.append(AcSweep("dec", ppd, new_fmin, fmin))
             fmin = new_fmin
@@ -488,6 +496,15 @@ def measure(
     )
 
 
+def _retold(decided_by: str, placement: Mapping[str, str], detail: str) -> str:
+    """The probe's sentence for a split netloop measured again with its bridges moved (or the net under another name),
+    told as netloop's doing: the probe says "placed there on request" of every element placed by name, and here netloop,
+    not the user, asked; then what netloop moved and why (the check "split")."""
+    for name in placement:
+        decided_by = decided_by.replace(f"{name} (placed there on request)", f"{name} (moved there by netloop: below)")
+    return f"{decided_by[:-1]}; netloop {'moved ' if placement else ''}{detail}."
+
+
 def _decided(decisions: dict | None, key: tuple, find: Callable[[], object]):
     """``find()``, kept in ``decisions`` (measure's) under ``key`` when they are given: the same for every netlist they serve."""
     if decisions is None:
@@ -590,7 +607,7 @@ def _checked_split(parsed: Netlist, at: str, probed: ProbedNetlist, analysis: Lo
         if chosen is not None:  # measured in full already; its seconds are in ``extra`` with the other trials'
             analysis, (i, sim_warnings), other = chosen.analysis, full[id(chosen)], chosen.probed
             info = replace(i, seconds=info.seconds, ngspice_seconds=info.ngspice_seconds, loads=info.loads)  # the first split's loads; the chosen one's are in extra_loads
-            probed = replace(other, decided_by=f"{other.decided_by[:-1]}; netloop {split_check.detail}.")
+            probed = replace(other, decided_by=_retold(other.decided_by, chosen.placement, split_check.detail))
             if chosen.opens is not None:
                 checks.append(chosen.opens)
         elif first.opens is not None:

@@ -36,6 +36,8 @@ DESIGN_DC = {
     "fd_amp_cmfb.cir": ("cm", 1.65, 0.05),  # output common mode follows Vcmref
     "hier/top.cir": ("out1", 1.65, 0.01),  # channel 1 buffers Vin1
     "testbench/ac_coupled.cir": ("out", 0.9, 1e-3),  # no DC feedback current: inn = vcm through Rb, out = vcm
+    "testbench/nested_miller.cir": ("out", 1.65, 0.01),  # unity-gain buffer of Vin = 1.65 V
+    "testbench/boosted_fc.cir": ("out", 0.9, 0.01),  # unity-gain buffer of Vin = 0.9 V (sky130 tt)
     "testbench/stray_ac.cir": ("out", 2 * 1.65 - 1.2, 0.01),  # out = 2*vin - vref
     "testbench/hard_op.cir": ("vout", 1.2 * (1 + 50e3 / 50e3), 0.02),  # vref*(1+R1/R2)
     "testbench/shared_bias.cir": ("outb", 1.2, 0.01),  # buffer b follows Vinb

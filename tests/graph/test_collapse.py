@@ -169,3 +169,40 @@ def test_a_vertex_kept_does_not_stop_the_next_from_being_looked_through():
     assert gone == ["m"]
     assert sorted(edges) == [("a", "b"), ("a", "k"), ("b", "a"), ("k", "a")]
     assert list(edges[("a", "b")].elements) == ["eam", "emb"]
+
+
+# A cascoded mirror as a designer draws it (invented): Mi's gate on a, its drain on b, the cascode Mc from b back to a,
+# its gate on a bias; Mo mirrors a into the output y. A pair device Mp with a cascode Mq over it (source on the tail t,
+# which is a signal node) is an amplifier, not a mirror input. The ring closes through G1 (y -> a) and G2 (y -> x).
+CASCODED_MIRROR = """cascoded mirror (invented)
+Vdd vdd 0 3
+Vb vb 0 1.2
+Vr r 0 1.5
+Mi b a 0 0 nch w=10u l=1u
+Mc a vb b 0 nch w=10u l=1u
+Mo y a 0 0 nch w=10u l=1u
+Mp c x t 0 nch w=10u l=1u
+Mr c2 r t 0 nch w=10u l=1u
+It t 0 20u
+Mq y vb c 0 nch w=10u l=1u
+Ry vdd y 100k
+G1 0 a y 0 1m
+G2 0 x y 0 1m
+Rx x 0 10k
+""" + MODELS
+
+
+def test_a_cascoded_mirror_input_is_a_one_port_and_a_cascoded_pair_device_is_an_amplifier():
+    """The mirror's input device Mi (drain back to its gate through the cascode Mc, source on ground) is diode-connected
+    through its cascode: no loop a -> b -> a is counted, and the loops through a go on through Mo; the pair device Mp,
+    whose source is the tail t, keeps its gate-to-drain step: the loop x -> c -> y -> x remains."""
+    # Reference: circuit theory: Mi's drain current returns to its gate through Mc, so Mi with Mc is a two-terminal device
+    # at a (the cascode version of a diode-connected transistor); Mp's current goes on through Mq to y, a gain.
+    from netloop.graph.signal_flow import cascode_diodes, signal_nodes  # noqa: PLC0415
+
+    circuit = flatten(parse_text(CASCODED_MIRROR))
+    assert cascode_diodes(circuit, signal_nodes(circuit)) == frozenset({"mi"})
+    loops = [frozenset(lp.nodes) for g in _groups(CASCODED_MIRROR) for lp in g.loops]
+    assert frozenset({"a", "b"}) not in loops
+    assert any({"x", "y"} <= lp for lp in loops) and any({"a", "y"} <= lp for lp in loops)
+    assert all("mi" not in step.elements for g in _groups(CASCODED_MIRROR) for lp in g.loops for step in lp.steps)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from netloop.errors import ProbeError
@@ -72,6 +74,26 @@ def test_nested_miller_capacitor_wraps_two_stages_but_not_three():
     p = break_loop(parse_text(text), "out")
     assert p.driver_terminals == ("g3.n", "cm1.n", "cm2.n") and p.load_terminals == ("rf.p",)
     assert "around the driver stage g3 (back to n1" in p.decided_by and "around the driver stage g3 (back to n2" in p.decided_by
+
+
+NESTED_MILLER = Path(__file__).resolve().parents[2] / "circuits" / "testbench" / "nested_miller.cir"
+
+
+def test_the_outer_miller_capacitor_of_a_transistor_buffer_stays_with_the_stages_it_inverts_around():
+    """In a three-stage nested-Miller buffer the outer Cm1 (out to o1) goes with the last two stages at both of its ends:
+    around them it closes an inverting loop; around the first stage (out is its input) a non-inverting one."""
+    # Reference: the expert's hand-opened break of circuits/testbench/nested_miller.cir (its comment block): the feedback
+    # wire alone is cut at out; ngspice's AC of that deck is T (tests/jobs/measure/test_nested_miller.py). The nearest
+    # stage was the first one (o1 two stages on through the pair and mirror, three back through a differential second
+    # stage), and Cm1 went to the load side at out and to the driver side at o1, opening the outer compensation loop.
+    nl = parse_file(NESTED_MILLER)
+    at_out = break_loop(nl, "out")
+    assert set(at_out.driver_terminals) == {"m9.d", "m10.d", "cm1.p", "cm2.p"} and at_out.load_terminals == ("m1a.g",)
+    assert "with cm1 (closes an inverting loop around the driver stages back to o1 (a nested Miller capacitor)" in at_out.decided_by
+    at_o1 = break_loop(nl, "o1")
+    assert set(at_o1.driver_terminals) == {"m4.d", "m1b.d"} and set(at_o1.load_terminals) == {"m6a.g", "cm1.n"}
+    assert "cm1 on the load side (closes an inverting loop around the stages the node drives (on to out" in at_o1.decided_by
+    assert break_loop(nl, "o2").load_terminals == ("m9.g", "cm2.n")  # the inner one wraps M9 alone, as before
 
 
 def test_a_series_sense_source_goes_with_the_driver_on_its_far_side():

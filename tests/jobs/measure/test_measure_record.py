@@ -87,10 +87,11 @@ def test_the_jobs_of_a_moved_split_count_in_the_simulation_time(monkeypatch):
     assert result.sim.seconds == ticking.jobs * _TickingSimulator.TICK_S
     assert result.sim.ngspice_seconds == pytest.approx(sum(ticking.ngspice_seconds), rel=1e-12)
     assert 0 < result.sim.ngspice_seconds
-    # the sentence of the split measured says how it was decided: the rules' words, then netloop's move and why
+    # the sentence of the split measured says how it was decided: the rules' words, then netloop's move and why (netloop,
+    # not the user, placed cc: before, "with cc (placed there on request)" and "; netloop cc to the driver side: ...")
     assert result.breaks.decided_by.startswith("driver side: g1.n (outputs: drain, collector, controlled-source or instance output); "
-                                               "with cc (placed there on request); load side: g2.cp; ")
-    assert result.breaks.decided_by.endswith(f"(either side gives the same T); netloop {result.checks[0].detail}.")
+                                               "with cc (moved there by netloop: below); load side: g2.cp; ")
+    assert result.breaks.decided_by.endswith(f"(either side gives the same T); netloop moved {result.checks[0].detail}.")
 
 
 def test_a_placement_given_is_the_split_measured():
