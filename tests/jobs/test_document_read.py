@@ -148,3 +148,14 @@ def test_the_flat_records_are_written_as_asdict_writes_them(name):
     assert doc["simulation"] == json_document({"simulation": asdict(result.sim)})["simulation"]
     peaking = {k: v for k, v in doc["peaking"].items() if k != "at_worst_crossover_db"}
     assert peaking == json_document({"peaking": asdict(result.analysis.peaking)})["peaking"]
+
+
+def test_a_document_written_before_load_readers_reads_back_with_none():
+    """A loop document from a results file written before the break listed load_readers (no such key) reads back with
+    none, and one that lists them keeps them: trend and baseline read older results files too."""
+    result = _result("two-stage")
+    doc = json.loads(json.dumps(to_document(result)))
+    del doc["break"]["load_readers"]
+    assert result_from_document(doc).breaks == result.breaks and result.breaks.load_readers == ()
+    readers = replace(result, breaks=replace(result.breaks, load_terminals=(), load_readers=("g1",)))
+    assert result_from_document(json.loads(json.dumps(to_document(readers)))).breaks.load_readers == ("g1",)
