@@ -196,9 +196,22 @@ def _measure_as_pair(parsed: Netlist, gc: GroupCensus, pairs, options: dict) -> 
 
 def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2, pairs=()) -> tuple[GroupResult, ...]:
     """Measure a group: a fully differential one as a pair (_measure_as_pair), any other at its chosen break and, on a
-    refusal or an inconclusive result, at the next usable candidates."""
+    refusal or an inconclusive result, at the next usable candidates. A pair whose modes give no verdict is measured at
+    one net too: an instability found there with every self-check passed is the circuit's, whatever the break (its margins
+    are neither mode's, so only that verdict is taken from it); else the pair's inconclusive results stand."""
     as_pair = _measure_as_pair(parsed, gc, pairs, options) if pairs else None
-    return as_pair or (_measure_at_one_net(parsed, gc, options, retries),)
+    if as_pair is None:
+        return (_measure_at_one_net(parsed, gc, options, retries),)
+    if all(g.verdict != "inconclusive" for g in as_pair):
+        return as_pair
+    one = _measure_at_one_net(parsed, gc, options, retries)
+    if one.result is None or one.result.verdict != "fail" or one.result.stable:
+        return as_pair
+    doubt = "; ".join(f"{g.label}: {g.result.failed_checks[0].detail}" for g in as_pair if g.verdict == "inconclusive" and g.result.failed_checks)
+    note = (f"{gc.group.label}: measured as the pair {as_pair[0].result.breaks.node.split(' (')[0]}, no mode gave a verdict ({doubt}); "
+            "at one net the loop is unstable with every self-check passed, which holds for the circuit whatever the break, but "
+            "its margins are neither mode's")
+    return (replace(one, result=replace(one.result, warnings=(*one.result.warnings, note))),)
 
 
 def _measure_at_one_net(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2) -> GroupResult:
