@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from pathlib import Path
 from types import SimpleNamespace
 
 import numpy as np
@@ -14,7 +15,7 @@ from netloop.graph import find_loops, flatten
 from netloop.jobs.discover import check_loops, discover_loops, measure_all_loops, opened_circuit_rhp_poles
 from netloop.jobs.measure import measure
 from netloop.errors import NetloopError, ProbeError
-from netloop.netlist import parse_text
+from netloop.netlist import parse_file, parse_text
 
 # A stable loop a<->b (negative feedback, gain 2 per stage) and a loop c<->d that is unstable on its own
 # (positive feedback, loop gain 4), joined by a->c and d->b; every node has 1k || 1n to ground (tau = 1 us).
@@ -424,3 +425,18 @@ def test_the_note_on_loops_left_closed_shortens_a_long_loop_to_its_ends():
     assert len(loop.steps) == 17 and " ... 1 more steps ... " in note
     shown = note.split("(loop 1.1: ", 1)[1].split("); the opened circuit", 1)[0]
     assert shown.count("-g") == 16 and shown.startswith(loop.steps[0].source + " ")
+
+
+def test_a_driver_given_to_the_census_splits_every_candidate_with_it():
+    """`netloop loops`/`check` with --driver on one group: the census states each candidate from the split with that driver
+    (a mutant of jobs seed 3 dropped it there). On circuits/miller_buffer.cir (Rz o1 cz, Cc cz out, read by hand) cz alone
+    has rz.n and cc.p: by the rules both drive it and nothing is left (refused), with driver=cc.p rz.n is the load side and
+    the break opens loops 2 and 3; out and o1 have no terminal of cc.p, so the given driver refuses them."""
+    from netloop.jobs.discover import take_census
+
+    netlist = parse_file(Path(__file__).resolve().parents[2] / "circuits" / "miller_buffer.cir")
+    auto = {c.node: c for c in take_census(netlist, sweep=False).groups[0].group.candidates}
+    given = {c.node: c for c in take_census(netlist, sweep=False, driver="cc.p").groups[0].group.candidates}
+    assert "nothing is left for the load side" in auto["cz"].refused and auto["out"].refused == ""
+    assert given["cz"].refused == "" and given["cz"].opened == (2, 3)
+    assert all("driver 'cc.p' has no terminal on node" in given[n].refused for n in ("out", "o1"))
