@@ -12,7 +12,7 @@ from netloop.analysis.closed_loop import closed_loop_peaking, modulus_margin
 from netloop.analysis.crossovers import dc_phase_crossover, find_gain_crossovers, find_phase_crossovers
 from netloop.analysis.margins import summarise_margins
 from netloop.analysis.nyquist import nyquist_verdict
-from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles, disagreement
+from netloop.analysis.poles import DEFAULT_RTOL, closed_loop_poles, disagreement, fits_count
 from netloop.analysis.response import Response
 from netloop.analysis.results import AC_COUPLING_LEAD_DEG, Check, LoopAnalysis, NyquistVerdict, Peaking
 from netloop.analysis.second_order import second_order_estimate
@@ -158,9 +158,10 @@ def finish(draft: Draft, *, fit_poles: bool = True, pole_fit_rtol: float = DEFAU
             old = disagreement(poles.rhp_count, nyquist.closed_loop_rhp_poles, float(resp.freq_hz[-1]))
             nyquist = replace(nyquist, open_loop_rhp_poles=p, closed_loop_rhp_poles=z, stable=z == 0, open_loop_rhp_from="fit")
             notes = tuple(n for n in notes if n != old)
-            if poles.rhp_count != z:
+            agrees = fits_count(poles.poles_rad_s, z)
+            if not agrees:
                 notes = (*notes, disagreement(poles.rhp_count, z, float(resp.freq_hz[-1])))
-            poles = replace(poles, agrees_with_nyquist=poles.rhp_count == z)
+            poles = replace(poles, agrees_with_nyquist=agrees)
         pole_notes = notes
     margins = summarise_margins(a.gain_crossovers, a.phase_crossovers, nyquist.stable, modulus_margin(resp))
     return replace(
@@ -171,7 +172,7 @@ def finish(draft: Draft, *, fit_poles: bool = True, pole_fit_rtol: float = DEFAU
         nyquist=nyquist,
         poles=poles,
         warnings=(*a.warnings, *pole_notes),
-        checks=_checks(resp, nyquist, poles.rhp_count if poles is not None and not draft.rhp_given else None),
+        checks=_checks(resp, nyquist, None if poles is None or draft.rhp_given or poles.agrees_with_nyquist else poles.rhp_count),
     )
 
 

@@ -8,6 +8,7 @@ import numpy as np
 
 from netloop.analysis.requirements import METRICS, RequirementOutcome
 from netloop.analysis.results import LoopAnalysis, PhaseCrossover
+from netloop.analysis.poles import unsettled_rhp
 from netloop.analysis.second_order import resonant_peak_db
 from netloop.jobs.document import worst_crossover
 from netloop.report.notation import db, deg, eng, number, ratio_db, requirement_value
@@ -85,7 +86,10 @@ def closed_loop_phrases(a: LoopAnalysis) -> list[tuple[str, str]]:
     else:
         dom = f"dominant pair {eng(poles.dominant_freq_hz, 'Hz')}, damping {number(poles.dominant_damping)}, Q {number(poles.dominant_q)}"
     agree = "agrees with" if poles.agrees_with_nyquist else "DISAGREES with"
-    rows.append(("closed-loop poles", f"{dom}; {poles.rhp_count} in the RHP ({agree} Nyquist; fitted to the measured 1/(1+T), "
+    unsettled = unsettled_rhp(poles.poles_rad_s)
+    rhp = f"{poles.rhp_count} in the RHP" + (f", {unsettled} of them within 0.1 % of the imaginary axis, whose side the fit does not "
+                                             "settle" if unsettled else "")
+    rows.append(("closed-loop poles", f"{dom}; {rhp} ({agree} Nyquist; fitted to the measured 1/(1+T), "
                                       f"fit error {poles.fit_error:.2g})"))
     alone = None if poles.dominant_damping is None else resonant_peak_db(poles.dominant_damping)
     if alone is not None and abs(alone - p.peak_db) > PEAK_AGREE_DB:

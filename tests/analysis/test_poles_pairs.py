@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from netloop.analysis.poles import _conjugate_pairs, closed_loop_poles, dominant_pole, unexplained_share
+from netloop.analysis.poles import _conjugate_pairs, closed_loop_poles, dominant_pole, fits_count, unexplained_share, unsettled_rhp
 
 DATA = Path(__file__).parent / "data" / "rc_ladder_100k_T.csv"
 
@@ -285,3 +285,19 @@ def test_the_fit_is_read_at_the_data_as_scipy_reads_it(name, z, y, rtol, terms, 
     for points in (z, between):
         ours, theirs = _fit_at(fit, points), fit(points)
         assert ours.shape == theirs.shape and np.array_equal(ours, theirs, equal_nan=True)
+
+
+def test_a_pair_within_the_pair_tolerance_of_the_imaginary_axis_may_count_either_side():
+    """fits_count: the poles clearly in the right half plane must be counted, and a pair within 1e-3 of the imaginary axis
+    (damping below 1e-3 either way: a resonance far narrower than any sweep's samples) may be; a pair clearly on either side
+    settles it. unsettled_rhp counts the near pair when the fit put it on the right."""
+    w = 2 * math.pi * 1e6
+    unstable = [complex(0.29 * w, w), complex(0.29 * w, -w)]  # damping -0.28: clearly right
+    near_right = [complex(4e-4 * w, 1.1 * w), complex(4e-4 * w, -1.1 * w)]
+    near_left = [complex(-4e-4 * w, 1.1 * w), complex(-4e-4 * w, -1.1 * w)]
+    clearly_right = [complex(2e-3 * w, 1.1 * w), complex(2e-3 * w, -1.1 * w)]
+    assert fits_count(unstable + near_right, 2) and fits_count(unstable + near_right, 4) and not fits_count(unstable + near_right, 0)
+    assert fits_count(unstable + near_left, 2) and fits_count(unstable + near_left, 4)
+    assert not fits_count(unstable + clearly_right, 2) and fits_count(unstable + clearly_right, 4)
+    assert not fits_count(unstable, 0) and fits_count([complex(-w, 0)], 0)
+    assert (unsettled_rhp(unstable + near_right), unsettled_rhp(unstable + near_left), unsettled_rhp(unstable + clearly_right)) == (2, 0, 0)
