@@ -97,6 +97,7 @@ def census_document(census) -> dict:
         entry["why"] = gc.why
         entry["can_ring"] = gc.can_ring
         entry["passed_over"] = list(gc.passed_over)  # "node (why)"
+        entry["pair"] = list(gc.pair) if gc.pair else None  # a mirror pair: check measures both modes there
         entry["coarse"] = [{"node": c.node, "dc_db": _finite(c.dc_db), "peak_db": _finite(c.peak_db), "peak_hz": c.peak_hz,
                             "unity_hz": c.unity_hz, "top_db": _finite(c.top_db), "negligible": c.negligible, "falls": c.falls,
                             "error": c.error} for c in gc.coarse]
@@ -123,7 +124,9 @@ def _group_line(gc) -> str:
     if gc.chosen is None:
         return f"  loop {g.index}: {counts}; no break: {_short(gc.why, 2 * _REASON)}"
     over = f"; passed over {'; '.join(gc.passed_over_briefly)}" if gc.passed_over_briefly else ""
-    return f"  {g.label}: {counts}; break at {gc.chosen}: {gc.why}{over}"
+    pair = (f"; fully differential: {gc.pair[0]} and {gc.pair[1]} are mirror images, where `netloop check` measures both "
+            f"modes (--at-pair {','.join(gc.pair)})" if gc.pair else "")
+    return f"  {g.label}: {counts}; break at {gc.chosen}: {gc.why}{over}{pair}"
 
 
 def format_census(census, candidates: int = 0) -> str:

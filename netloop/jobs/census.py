@@ -105,6 +105,9 @@ class GroupCensus:
     why: str  # one sentence: why this break, or why none
     passed_over: tuple[str, ...] = ()  # "node (reason)" for better-ranked candidates the coarse sweep ruled out
     passed_over_briefly: tuple[str, ...] = ()  # "node: a few words" for the same candidates
+    # a fully differential group: its best-ranked usable candidate with a mirror image and that mirror
+    # (netloop.graph.mirror), where `check` measures both modes; None for any other group
+    pair: tuple[str, str] | None = None
 
     @property
     def label(self) -> str:

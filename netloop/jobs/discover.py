@@ -89,7 +89,9 @@ def _census(parsed: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, swee
         groups = []
         for g in found.groups:
             coarse = coarse_group(parsed, g, sim, method=method, breaks=coarse_breaks, timeout_s=timeout_s) if sweep else ()
-            groups.append(choose(g, coarse, swept=sweep))
+            gc = choose(g, coarse, swept=sweep)
+            pair = _pair_break(gc, mirror_pairs(circuit, _group_nets(gc.group))) if driver is None and gc.chosen else None
+            groups.append(replace(gc, pair=(pair[0].node, pair[1])) if pair else gc)
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
@@ -173,14 +175,14 @@ def _pair_break(gc: GroupCensus, pairs: tuple[tuple[str, str], ...]) -> tuple[ob
     return None
 
 
-def _measure_as_pair(parsed: Netlist, gc: GroupCensus, pairs, options: dict) -> tuple[GroupResult, ...] | None:
-    """A fully differential group measured at its best mirror pair, one result a mode (Hurst and Lewis, 1995: a break at
-    one net of the pair would measure neither mode's loop); None when it has no such pair or the pair cannot be broken."""
-    found = _pair_break(gc, pairs)
-    if found is None or options.get("driver") is not None:
+def _measure_as_pair(parsed: Netlist, gc: GroupCensus, options: dict) -> tuple[GroupResult, ...] | None:
+    """A fully differential group measured at its best mirror pair (GroupCensus.pair), one result a mode (Hurst and Lewis,
+    1995: a break at one net of the pair would measure neither mode's loop); None when it has no such pair or the pair
+    cannot be broken."""
+    if gc.pair is None or options.get("driver") is not None:
         return None
-    cand, other = found
-    nodes = (cand.node, other)
+    nodes = gc.pair
+    cand = next(c for c in gc.group.candidates if c.node == nodes[0])
     try:
         pair = measure_pair(parsed, nodes, label=f"loop {gc.group.index}", **{k: v for k, v in options.items() if k in _PAIR_OPTIONS})
     except ProbeError as exc:
@@ -194,12 +196,12 @@ def _measure_as_pair(parsed: Netlist, gc: GroupCensus, pairs, options: dict) -> 
                  for mode, r in pair.modes.items())
 
 
-def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2, pairs=()) -> tuple[GroupResult, ...]:
+def _measure_group(parsed: Netlist, gc: GroupCensus, options: dict, retries: int = 2) -> tuple[GroupResult, ...]:
     """Measure a group: a fully differential one as a pair (_measure_as_pair), any other at its chosen break and, on a
     refusal or an inconclusive result, at the next usable candidates. A pair whose modes give no verdict is measured at
     one net too: an instability found there with every self-check passed is the circuit's, whatever the break (its margins
     are neither mode's, so only that verdict is taken from it); else the pair's inconclusive results stand."""
-    as_pair = _measure_as_pair(parsed, gc, pairs, options) if pairs else None
+    as_pair = _measure_as_pair(parsed, gc, options)
     if as_pair is None:
         return (_measure_at_one_net(parsed, gc, options, retries),)
     if all(g.verdict != "inconclusive" for g in as_pair):
@@ -331,8 +333,7 @@ def check_loops(netlist: Netlist | str | PathLike[str], **measure_options) -> Lo
         census = _census(parsed, circuit, found, sweep=True, simulator=options["simulator"], method=options.get("method", "tian"),
                          split_checks=DEFAULT_SPLIT_CHECKS, coarse_breaks=COARSE_BREAKS, driver=driver, keep_decks=None,
                          timeout_s=options.get("timeout_s", 600.0))
-        pairs = {g.index: mirror_pairs(circuit, _group_nets(g)) for g in found.groups}
-        groups = tuple(r for gc in census.groups for r in _measure_group(parsed, gc, options, pairs=pairs.get(gc.group.index, ())))
+        groups = tuple(r for gc in census.groups for r in _measure_group(parsed, gc, options))
     finally:
         if own and hasattr(options["simulator"], "close"):
             options["simulator"].close()

@@ -64,3 +64,16 @@ def test_a_pair_without_a_verdict_keeps_the_instability_one_net_finds(installed_
     (group,) = check_loops(installed_circuits / "testbench" / "fd_cmfb_hier.cir").groups
     assert group.verdict == "fail" and not group.result.stable and not group.result.failed_checks
     assert any("measured as the pair x1.outn,x1.outp, no mode gave a verdict (" in w and "neither mode's" in w for w in group.result.warnings), group.result.warnings
+
+
+def test_the_census_names_the_pair_that_check_measures(capsys):
+    """`netloop loops` says where check will measure a fully differential group as a pair (fd_amp_cmfb.cir: outn and outp,
+    the pair of the test above), in the text and in --json's group entry; a single-ended circuit's groups have none."""
+    import json
+
+    assert main(["loops", str(FD)]) == 0
+    assert "fully differential: outn and outp are mirror images, where `netloop check` measures both modes (--at-pair outn,outp)" in capsys.readouterr().out
+    assert main(["loops", str(FD), "--json"]) == 0
+    assert [g["pair"] for g in json.loads(capsys.readouterr().out)["groups"]] == [["outn", "outp"]]
+    assert main(["loops", str(FD.parent / "miller_buffer.cir"), "--json"]) == 0
+    assert [g["pair"] for g in json.loads(capsys.readouterr().out)["groups"]] == [None]

@@ -380,7 +380,7 @@ def _recording(monkeypatch) -> dict:
     monkeypatch.setattr(discover, "own_simulator", lambda processes, parsed, runs, keep: seen.update(keep=keep) or SimpleNamespace())
     monkeypatch.setattr(discover, "coarse_group", lambda parsed, group, sim, *, method, breaks, timeout_s:
                         seen["coarse"].append((breaks, timeout_s, sim)) or ())
-    monkeypatch.setattr(discover, "_measure_group", lambda parsed, gc, options, pairs=():
+    monkeypatch.setattr(discover, "_measure_group", lambda parsed, gc, options:
                         seen.update(options=dict(options)) or (discover.GroupResult(gc, None, "not measured here"),))
     return seen
 
