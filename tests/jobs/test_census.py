@@ -222,3 +222,12 @@ def test_a_candidate_the_probe_refuses_in_the_coarse_sweep_is_never_chosen(monke
     assert coarse == (CoarseBreak(first, error=f"node {first}: refused here", refused=True),)
     gc = choose(group, coarse)
     assert gc.chosen is not None and gc.chosen != group.candidates[0].break_name  # the next, not swept, is taken instead
+
+
+def test_the_coarse_unity_crossing_of_a_t_above_0_db_at_one_sample_only():
+    """A band-pass T above 1 at one sample of the coarse sweep (0.5, 2, 0.5, 0.1 at 1 Hz to 1 kHz) crosses 0 dB downward
+    between 10 and 100 Hz; between log samples the crossing is read on a straight line in log |T| against log f, which here
+    puts it halfway, at 10^1.5 Hz (worked by hand). A mutant that read the sample two back found none there."""
+    f = np.array([1.0, 10.0, 100.0, 1000.0])
+    c = coarse_figures("x", f, np.array([0.5, 2.0, 0.5, 0.1]))
+    assert c.unity_hz == pytest.approx(10**1.5, rel=1e-12) and c.peak_hz == 10.0
