@@ -9,7 +9,10 @@ mixes: its T is neither's (Hurst and Lewis, 1995, measure the two modes of a pai
 How: Weisfeiler-Lehman hashes of the labelled graph (networkx) propose the pairs, nets whose hashes match
 and no third net shares; networkx's VF2 matcher then confirms each with an explicit symmetry that swaps the
 two, and that symmetry must fix another net of the loops. R, C and L connect the same way either way round;
-an independent source's AC part (an input driven at 180 deg) is not part of the symmetry. A circuit larger
+an independent source's AC part (an input driven at 180 deg) is not part of the symmetry, and neither are the
+values of elements that touch no net of the loops (the testbench's input drivers, E sources of gain +0.5 and
+-0.5 from one input: with the inputs silenced they hold both halves at the same DC; a real mismatch of the
+halves' bias shows in the pair's coupling figures). A circuit larger
 than MAX_ELEMENTS is not searched (the matcher's time is not bounded); its pairs are named with --at-pair.
 """
 
@@ -39,9 +42,10 @@ def _label(kind: str, element) -> str:
     return " ".join((kind, *tokens))
 
 
-def _graph(circuit: FlatCircuit) -> nx.Graph:
-    """The element-net graph: a vertex per element labelled by _label, a vertex per net (ground and globals by name), an
-    edge per element and net it touches, labelled by the pins it touches there."""
+def _graph(circuit: FlatCircuit, loop_nets: frozenset[str]) -> nx.Graph:
+    """The element-net graph: a vertex per element labelled by _label (by its kind alone when it touches none of
+    ``loop_nets``), a vertex per net (ground and globals by name), an edge per element and net it touches, labelled by the
+    pins it touches there."""
     import networkx as nx
 
     fixed = {"0", *circuit.globals}
@@ -49,7 +53,7 @@ def _graph(circuit: FlatCircuit) -> nx.Graph:
     for net in circuit.nets:
         g.add_node(("net", net), label=f"net {net}" if net in fixed else "net")
     for i, (kind, nodes, pins, original) in enumerate(zip(circuit.kinds, circuit.element_nodes, circuit.element_pins, circuit.originals)):
-        g.add_node(("element", i), label=_label(kind, original))
+        g.add_node(("element", i), label=_label(kind, original) if loop_nets.intersection(nodes) else kind)
         on: dict[str, list[str]] = {}
         for net, pin in zip(nodes, pins):
             on.setdefault(net, []).append("end" if kind in _TURNABLE else pin)
@@ -81,7 +85,7 @@ def mirror_pairs(circuit: FlatCircuit, nets: Iterable[str]) -> tuple[tuple[str, 
     wanted = list(dict.fromkeys(nets))
     if len(circuit) > MAX_ELEMENTS or len(wanted) < 3:
         return ()
-    g = _graph(circuit)
+    g = _graph(circuit, frozenset(wanted))
     hashes = nx.weisfeiler_lehman_subgraph_hashes(g, node_attr="label", edge_attr="pins", iterations=_ITERATIONS)
     share: dict[str, list[str]] = {}
     for net in circuit.nets:
