@@ -205,17 +205,22 @@ def fits_count(poles, count: int) -> bool:
     far finer than the samples: on the unstable common-mode loop of circuits/testbench/fd_cmfb_hier.cir the same data,
     changed by 2e-8 (the pair's two nets taken in the other order), gave a fit with a doublet at 3.97 MHz of damping -4e-4
     or none, 4 right-half-plane poles or the 2 the Nyquist count has."""
-    p = np.asarray(poles, dtype=complex)
-    near = np.abs(p.real) <= _PAIR_RTOL * np.abs(p)
+    p, near = _near_axis(poles)
     clear = int(np.sum((p.real > 0) & ~near))
-    return clear <= count <= clear + int(np.sum(near & (p.imag != 0)))
+    return clear <= count <= clear + int(np.sum(near))
 
 
 def unsettled_rhp(poles) -> int:
     """How many of the fitted poles counted in the right half plane lie within _PAIR_RTOL of the imaginary axis, where
     the fit does not settle their side (fits_count)."""
+    p, near = _near_axis(poles)
+    return int(np.sum(near & (p.real > 1e-9 * np.abs(p))))
+
+
+def _near_axis(poles) -> tuple[np.ndarray, np.ndarray]:
+    """(the poles as complex numbers, which of them are complex and within _PAIR_RTOL of the imaginary axis)."""
     p = np.asarray(poles, dtype=complex)
-    return int(np.sum((p.real > 1e-9 * np.abs(p)) & (np.abs(p.real) <= _PAIR_RTOL * np.abs(p)) & (p.imag != 0)))
+    return p, (np.abs(p.real) <= _PAIR_RTOL * np.abs(p)) & (p.imag != 0)
 
 
 def _residue_fit(freq_hz, t, poles: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:

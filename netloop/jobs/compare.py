@@ -36,7 +36,7 @@ from netloop.jobs.compare_explain import (
     relative_difference,
 )
 from netloop.graph import find_loops, flatten
-from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes, placed_error
+from netloop.jobs.loop_result import LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes, raise_placed
 from netloop.jobs.measure import (METHODS, Sweep, breaks_of, ignored_lines, load_netlist, netlist_folder, own_simulator, return_ratio,
                                   sample_loops)
 from netloop.jobs.measure_checks import op_sources
@@ -224,10 +224,7 @@ def compare(
         analyses, info, sim_warnings = sample_loops(job_for, ratios, sim, sweep, dict.fromkeys(names, open_loop_rhp_poles),
                                                     sources=sources)
     except NetloopError as exc:
-        placed = placed_error(exc, parsed)  # ngspice's complaint about a card, at that card's file:line
-        if placed is exc:
-            raise
-        raise placed from exc
+        raise_placed(exc, parsed)  # ngspice's complaint about a card, at that card's file:line
     finally:
         if own and hasattr(sim, "close"):
             sim.close()

@@ -91,7 +91,7 @@ def _census(parsed: Netlist, circuit: FlatCircuit, found: LoopDiscovery, *, swee
             coarse = coarse_group(parsed, g, sim, method=method, breaks=coarse_breaks, timeout_s=timeout_s) if sweep else ()
             gc = choose(g, coarse, swept=sweep)
             pair = _pair_break(gc, mirror_pairs(circuit, _group_nets(gc.group))) if driver is None and gc.chosen else None
-            groups.append(replace(gc, pair=(pair[0].node, pair[1])) if pair else gc)
+            groups.append(replace(gc, pair=pair))
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
@@ -166,20 +166,18 @@ class LoopsCheck:
 _PAIR_OPTIONS = ("method", "sweep", "open_loop_rhp_poles", "requirements", "simulator", "timeout_s")  # measure_pair takes these
 
 
-def _pair_break(gc: GroupCensus, pairs: tuple[tuple[str, str], ...]) -> tuple[object, str] | None:
-    """(the best-ranked usable candidate of the group whose net has a mirror image, that mirror), or None."""
+def _pair_break(gc: GroupCensus, pairs: tuple[tuple[str, str], ...]) -> tuple[str, str] | None:
+    """(the net of the best-ranked usable candidate of the group that has a mirror image, that mirror), or None."""
     mirror = {a: b for a, b in pairs} | {b: a for a, b in pairs}
-    for c in gc.group.candidates:
-        if c.node in mirror and c.split_checked and not c.refused and c.opened:
-            return c, mirror[c.node]
-    return None
+    return next(((c.node, mirror[c.node]) for c in gc.group.candidates
+                 if c.node in mirror and c.split_checked and not c.refused and c.opened), None)
 
 
 def _measure_as_pair(parsed: Netlist, gc: GroupCensus, options: dict) -> tuple[GroupResult, ...] | None:
     """A fully differential group measured at its best mirror pair (GroupCensus.pair), one result a mode (Hurst and Lewis,
     1995: a break at one net of the pair would measure neither mode's loop); None when it has no such pair or the pair
-    cannot be broken."""
-    if gc.pair is None or options.get("driver") is not None:
+    cannot be broken. The census names no pair when --driver was given (that asks for one net's split)."""
+    if gc.pair is None:
         return None
     nodes = gc.pair
     cand = next(c for c in gc.group.candidates if c.node == nodes[0])

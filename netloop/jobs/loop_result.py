@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Literal, NoReturn
 
 from netloop.analysis.requirements import RequirementOutcome, parse_requirements
 from netloop.analysis.results import Check, LoopAnalysis
@@ -15,7 +15,7 @@ if TYPE_CHECKING:  # reports read LoopResults without loading the netlist stage
     from netloop.netlist import Netlist
 
 __all__ = ["CAUTION", "COMMON_PRACTICE", "VERDICTS", "BreakInfo", "LoopResult", "SimInfo", "Verdict", "caveats_on_error",
-           "combined_verdict", "netlist_notes", "placed_error"]
+           "combined_verdict", "netlist_notes", "raise_placed"]
 
 Verdict = Literal["pass", "fail", "inconclusive"]
 VERDICTS: tuple[Verdict, ...] = ("pass", "fail", "inconclusive")
@@ -161,15 +161,22 @@ def caveats_on_error(netlist: Netlist) -> Iterator[None]:
     try:
         yield
     except NetloopError as exc:
-        placed = placed_error(exc, netlist)
         for caveat in netlist.caveats:
-            placed.add_note(caveat)
-        if placed is exc:
-            raise
-        raise placed from exc
+            exc.add_note(caveat)
+        raise_placed(exc, netlist)
 
 
-def placed_error(exc: NetloopError, netlist: Netlist) -> NetloopError:
+def raise_placed(exc: NetloopError, netlist: Netlist) -> NoReturn:
+    """Raise ``exc``, or in its place (and from it) the error _placed makes of it, with ``exc``'s notes."""
+    placed = _placed(exc, netlist)
+    if placed is exc:
+        raise exc
+    for note in getattr(exc, "__notes__", ()):
+        placed.add_note(note)
+    raise placed from exc
+
+
+def _placed(exc: NetloopError, netlist: Netlist) -> NetloopError:
     """``exc`` led by the file:line of the first card ngspice blamed that the netlist holds (ngspice numbers the lines
     of netloop's own deck, which no user has seen), or ``exc`` itself when it blamed none or is not a SimulationError."""
     from netloop.netlist.locate import card_location  # noqa: PLC0415 - only a failed simulation needs it

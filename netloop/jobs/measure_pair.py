@@ -29,7 +29,7 @@ from netloop.analysis import middlebrook, parse_requirements, tian
 from netloop.analysis.requirements import Requirement
 from netloop.analysis.results import Check, LoopAnalysis
 from netloop.errors import NetloopError, ProbeError
-from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes, placed_error
+from netloop.jobs.loop_result import BreakInfo, LoopResult, SimInfo, Verdict, combined_verdict, netlist_notes, raise_placed
 from netloop.jobs.splits import LoopStructure
 from netloop.jobs.measure_checks import analysis_doubts, moved, op_sources, pair_placements, poles_agree, second_break_band
 from netloop.jobs.measure import (METHODS, Sweep, closed_circuit_pz, ignored_lines, inputs_only_doubt, load_netlist, netlist_folder,
@@ -420,10 +420,7 @@ def measure_pair(
             first = replace(first, info=replace(first.info, seconds=first.info.seconds + sum(s for s, _ in extra),
                                                 ngspice_seconds=first.info.ngspice_seconds + sum(n for _, n in extra)))
     except NetloopError as exc:
-        placed = placed_error(exc, parsed)  # ngspice's complaint about a card, at that card's file:line
-        if placed is exc:
-            raise
-        raise placed from exc
+        raise_placed(exc, parsed)  # ngspice's complaint about a card, at that card's file:line
     finally:
         if own and hasattr(sim, "close"):
             sim.close()
